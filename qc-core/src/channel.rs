@@ -1,0 +1,724 @@
+//! Channels: configuration, the per-interval accumulator of each kind, and the
+//! finished per-interval statistics.
+//!
+//! A reading becomes an integer once, at the boundary ([`Channel::classify`]):
+//! speed and scalar readings become quanta `q` with `value = offset + step * q`;
+//! direction readings become centidegrees in `0..36_000` after the mounting
+//! offset. From there on everything is integer arithmetic until
+//! [`ChannelAcc::finish`]. No function in this module panics on any input.
+
+use crate::direction::{DirectionSums, ResultantSums};
+use crate::error::ChannelProblem;
+use crate::gust::Gust;
+use crate::moments::Moments;
+
+/// What a channel measures.
+#[derive(Clone, Copy, Debug, PartialEq, Eq, Hash)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+pub enum Kind {
+    /// Wind speed (anemometer): mean, standard deviation, min, max, gust, turbulence intensity.
+    Speed,
+    /// Wind direction (vane): unit-vector mean, sigma-theta, resultant.
+    Direction,
+    /// Any other quantity (temperature, humidity, pressure, voltage): mean, sd, min, max.
+    Scalar,
+}
+
+/// One sample of one channel, as the logger or file gives it.
+#[derive(Clone, Copy, Debug, PartialEq)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+pub enum Reading {
+    /// An engineering value (m/s, degrees, deg C ...). NaN or a configured
+    /// missing-value code counts as missing.
+    Value(f64),
+    /// Raw integer counts, turned into a value by the channel's scale
+    /// (`value = offset + step * counts`). A count equal to a missing-value code
+    /// counts as missing.
+    Counts(i32),
+    /// No reading (sensor absent, logger reported a fault).
+    Missing,
+}
+
+/// The linear map from integer quanta to engineering values: `offset + step * q`.
+#[derive(Clone, Copy, Debug, PartialEq)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+pub struct Scale {
+    /// Value of quantum 0.
+    pub offset: f64,
+    /// Value of one quantum (resolution, or calibration slope for raw counts).
+    pub step: f64,
+}
+
+impl Scale {
+    /// `offset + step * (num / den)`, computed as `offset + num / (den * 1/step)`
+    /// when `1/step` is a whole number (resolutions like 0.1 or 0.01), so that
+    /// results are the correctly rounded decimal (0.01 * 1500 is exactly 15).
+    fn ratio(&self, inv: Option<f64>, num: f64, den: f64) -> f64 {
+        let v = match inv {
+            Some(inv) => num / (den * inv),
+            None => self.step * (num / den),
+        };
+        self.offset + v
+    }
+
+    fn spread(&self, inv: Option<f64>, sd_q: f64) -> f64 {
+        match inv {
+            Some(inv) => sd_q / inv,
+            None => self.step * sd_q,
+        }
+    }
+
+    /// `1/step` when it is a whole number up to 2^20.
+    fn inverse(&self) -> Option<f64> {
+        if self.step > 1.0 {
+            return None;
+        }
+        let inv = libm::round(1.0 / self.step);
+        (inv <= 1_048_576.0 && libm::fabs(inv * self.step - 1.0) < 1e-12).then_some(inv)
+    }
+}
+
+/// Configuration of one channel. Build with [`ChannelConfig::speed`],
+/// [`ChannelConfig::direction`] or [`ChannelConfig::scalar`] and the `with_*`
+/// methods; [`crate::Layout::new`] validates it.
+#[derive(Clone, Copy, Debug, PartialEq)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+pub struct ChannelConfig {
+    /// What the channel measures.
+    pub kind: Kind,
+    /// Quanta to values. For direction channels it applies to [`Reading::Counts`]
+    /// only (default: counts are centidegrees); values are degrees.
+    pub scale: Scale,
+    /// Physically possible values, inclusive; readings outside are counted out
+    /// of range and left out of the statistics.
+    pub range: (f64, f64),
+    /// Gust window in samples (speed channels).
+    pub gust_window: u16,
+    /// Vane mounting offset, degrees: `true = (raw + offset) mod 360` (common practice).
+    pub mounting_offset_deg: f64,
+    /// Index of the speed channel that weights this direction's resultant vector.
+    pub speed_channel: Option<u8>,
+}
+
+impl ChannelConfig {
+    /// An anemometer giving values at `resolution` (m/s per quantum), range
+    /// 0 to 75 m/s, 3-sample gust window.
+    pub const fn speed(resolution: f64) -> Self {
+        ChannelConfig {
+            kind: Kind::Speed,
+            scale: Scale {
+                offset: 0.0,
+                step: resolution,
+            },
+            range: (0.0, 75.0),
+            gust_window: 3,
+            mounting_offset_deg: 0.0,
+            speed_channel: None,
+        }
+    }
+
+    /// A wind vane, range 0 to 360 degrees; directions are kept to 0.01 degree.
+    pub const fn direction() -> Self {
+        ChannelConfig {
+            kind: Kind::Direction,
+            scale: Scale {
+                offset: 0.0,
+                step: 0.01,
+            },
+            range: (0.0, 360.0),
+            gust_window: 1,
+            mounting_offset_deg: 0.0,
+            speed_channel: None,
+        }
+    }
+
+    /// Any other quantity at `resolution`, with an unbounded range until set.
+    pub const fn scalar(resolution: f64) -> Self {
+        ChannelConfig {
+            kind: Kind::Scalar,
+            scale: Scale {
+                offset: 0.0,
+                step: resolution,
+            },
+            range: (-1e6, 1e6),
+            gust_window: 1,
+            mounting_offset_deg: 0.0,
+            speed_channel: None,
+        }
+    }
+
+    /// Raw counts calibrated as `value = offset + slope * counts`.
+    pub const fn with_calibration(mut self, slope: f64, offset: f64) -> Self {
+        self.scale = Scale {
+            offset,
+            step: slope,
+        };
+        self
+    }
+
+    /// The physically possible range, inclusive.
+    pub const fn with_range(mut self, lo: f64, hi: f64) -> Self {
+        self.range = (lo, hi);
+        self
+    }
+
+    /// Gust window in samples (for example 3 s at 1 Hz is 3, at 4 Hz is 12).
+    pub const fn with_gust_window(mut self, samples: u16) -> Self {
+        self.gust_window = samples;
+        self
+    }
+
+    /// Vane mounting offset in degrees.
+    pub const fn with_mounting_offset(mut self, deg: f64) -> Self {
+        self.mounting_offset_deg = deg;
+        self
+    }
+
+    /// Links a direction channel to the speed channel at `index`.
+    pub const fn with_speed_channel(mut self, index: u8) -> Self {
+        self.speed_channel = Some(index);
+        self
+    }
+}
+
+/// A validated channel with its integer limits precomputed.
+#[derive(Clone, Copy, Debug, PartialEq)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+pub struct Channel {
+    cfg: ChannelConfig,
+    inv_step: Option<f64>,
+    /// Valid counts (and, for speed and scalar, valid quanta), inclusive.
+    lo_k: i32,
+    hi_k: i32,
+    /// Direction counts to centidegrees, Q16: `cd = (k * mul + add) >> 16`.
+    dir_mul: i64,
+    dir_add: i64,
+    offset_cd: i32,
+}
+
+/// A reading after validation.
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+pub(crate) enum Class {
+    /// Quanta (speed, scalar) or centidegrees (direction).
+    Valid(i32),
+    Missing,
+    OutOfRange,
+}
+
+const Q_LIMIT: f64 = 2_147_483_000.0;
+
+impl Channel {
+    /// A placeholder for array initialisation; always overwritten.
+    pub(crate) const fn placeholder() -> Self {
+        Channel {
+            cfg: ChannelConfig::scalar(1.0),
+            inv_step: None,
+            lo_k: 0,
+            hi_k: 0,
+            dir_mul: 0,
+            dir_add: 0,
+            offset_cd: 0,
+        }
+    }
+
+    /// Validates a configuration. `gust_capacity` is the station's `G`.
+    pub(crate) fn new(cfg: ChannelConfig, gust_capacity: usize) -> Result<Self, ChannelProblem> {
+        let Scale { offset, step } = cfg.scale;
+        if !(step.is_finite() && step > 0.0 && offset.is_finite()) {
+            return Err(ChannelProblem::Scale);
+        }
+        let (lo, hi) = cfg.range;
+        if !(lo.is_finite() && hi.is_finite() && lo <= hi) {
+            return Err(ChannelProblem::Range);
+        }
+        let lo_q = libm::ceil((lo - offset) / step);
+        let hi_q = libm::floor((hi - offset) / step);
+        if !(lo_q >= -Q_LIMIT && hi_q <= Q_LIMIT) {
+            return Err(ChannelProblem::RangeTooWide);
+        }
+        let mut ch = Channel {
+            cfg,
+            inv_step: cfg.scale.inverse(),
+            lo_k: lo_q as i32,
+            hi_k: hi_q as i32,
+            dir_mul: 0,
+            dir_add: 0,
+            offset_cd: 0,
+        };
+        match cfg.kind {
+            Kind::Speed => {
+                let w = usize::from(cfg.gust_window);
+                if w == 0 || w > gust_capacity {
+                    return Err(ChannelProblem::GustWindow);
+                }
+            }
+            Kind::Direction => {
+                if libm::fabs(lo) > 1e6 || libm::fabs(hi) > 1e6 {
+                    return Err(ChannelProblem::RangeTooWide);
+                }
+                if step > 300.0 {
+                    return Err(ChannelProblem::DirectionSlope);
+                }
+                if !cfg.mounting_offset_deg.is_finite() {
+                    return Err(ChannelProblem::MountingOffset);
+                }
+                ch.dir_mul = libm::round(step * 100.0 * 65_536.0) as i64;
+                ch.dir_add = libm::round(offset * 100.0 * 65_536.0) as i64 + (1 << 15);
+                let off = libm::round(libm::fmod(cfg.mounting_offset_deg, 360.0) * 100.0);
+                ch.offset_cd = off as i32;
+            }
+            Kind::Scalar => {}
+        }
+        Ok(ch)
+    }
+
+    /// The configuration this channel was built from.
+    pub const fn config(&self) -> &ChannelConfig {
+        &self.cfg
+    }
+
+    /// Gust window in samples (0 for channels without a gust).
+    pub(crate) fn window(&self) -> usize {
+        match self.cfg.kind {
+            Kind::Speed => usize::from(self.cfg.gust_window),
+            _ => 0,
+        }
+    }
+
+    /// Turns a reading into an integer, or says why it is not valid.
+    /// `sentinels` are the station's missing-value codes.
+    #[inline]
+    pub(crate) fn classify(&self, r: Reading, sentinels: &crate::Sentinels) -> Class {
+        match r {
+            Reading::Missing => Class::Missing,
+            Reading::Counts(k) => {
+                if sentinels.matches_counts(k) {
+                    Class::Missing
+                } else if k < self.lo_k || k > self.hi_k {
+                    Class::OutOfRange
+                } else if self.cfg.kind == Kind::Direction {
+                    let cd = (i64::from(k) * self.dir_mul + self.dir_add) >> 16;
+                    Class::Valid(self.wrap_cd(cd))
+                } else {
+                    Class::Valid(k)
+                }
+            }
+            Reading::Value(v) => {
+                if v.is_nan() || sentinels.matches_value(v) {
+                    Class::Missing
+                } else if v < self.cfg.range.0 || v > self.cfg.range.1 {
+                    Class::OutOfRange
+                } else if self.cfg.kind == Kind::Direction {
+                    Class::Valid(self.wrap_cd(libm::round(v * 100.0) as i64))
+                } else {
+                    let Scale { offset, step } = self.cfg.scale;
+                    let q = match self.inv_step {
+                        Some(inv) => libm::round((v - offset) * inv),
+                        None => libm::round((v - offset) / step),
+                    };
+                    // In range, so within the validated 31-bit limits (+/-1 for rounding).
+                    Class::Valid(q as i32)
+                }
+            }
+        }
+    }
+
+    fn wrap_cd(&self, cd: i64) -> i32 {
+        (cd + i64::from(self.offset_cd)).rem_euclid(36_000) as i32
+    }
+}
+
+/// Sample counts of one channel in one interval, by outcome. Every sample
+/// pushed to the station while the interval is open lands in exactly one.
+#[derive(Clone, Copy, Debug, Default, PartialEq, Eq, Hash)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+pub struct Tally {
+    /// Valid samples, used in the statistics.
+    pub valid: u32,
+    /// Missing readings (NaN, missing-value code, or [`Reading::Missing`]).
+    pub missing: u32,
+    /// Readings outside the channel's range.
+    pub out_of_range: u32,
+    /// Samples rejected for their timestamp (duplicate, backward, unsupported).
+    pub rejected: u32,
+}
+
+impl Tally {
+    /// Adds another tally.
+    pub fn merge(&mut self, o: &Tally) {
+        self.valid = self.valid.saturating_add(o.valid);
+        self.missing = self.missing.saturating_add(o.missing);
+        self.out_of_range = self.out_of_range.saturating_add(o.out_of_range);
+        self.rejected = self.rejected.saturating_add(o.rejected);
+    }
+
+    /// All samples counted.
+    pub const fn total(&self) -> u64 {
+        self.valid as u64 + self.missing as u64 + self.out_of_range as u64 + self.rejected as u64
+    }
+
+    fn count(&mut self, c: Class) {
+        let slot = match c {
+            Class::Valid(_) => &mut self.valid,
+            Class::Missing => &mut self.missing,
+            Class::OutOfRange => &mut self.out_of_range,
+        };
+        *slot = slot.saturating_add(1);
+    }
+}
+
+/// Interval state of a speed channel.
+#[derive(Clone, Copy, Debug, PartialEq, Eq, Hash)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+pub struct SpeedAcc<const G: usize> {
+    /// Counts by outcome.
+    pub tally: Tally,
+    moments: Moments,
+    gust: Gust<G>,
+}
+
+/// Interval state of a direction channel.
+#[derive(Clone, Copy, Debug, PartialEq, Eq, Hash)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+pub struct DirectionAcc {
+    /// Counts by outcome.
+    pub tally: Tally,
+    sums: DirectionSums,
+}
+
+/// Interval state of a direction channel linked to a speed channel.
+#[derive(Clone, Copy, Debug, PartialEq, Eq, Hash)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+pub struct LinkedDirectionAcc {
+    /// The direction statistics.
+    pub direction: DirectionAcc,
+    resultant: ResultantSums,
+}
+
+/// Interval state of a scalar channel.
+#[derive(Clone, Copy, Debug, PartialEq, Eq, Hash)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+pub struct ScalarAcc {
+    /// Counts by outcome.
+    pub tally: Tally,
+    moments: Moments,
+}
+
+/// Interval state of one channel, of its kind.
+#[derive(Clone, Copy, Debug, PartialEq, Eq, Hash)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+pub enum ChannelAcc<const G: usize> {
+    /// Speed.
+    Speed(SpeedAcc<G>),
+    /// Direction without a linked speed.
+    Direction(DirectionAcc),
+    /// Direction with a linked speed.
+    LinkedDirection(LinkedDirectionAcc),
+    /// Scalar.
+    Scalar(ScalarAcc),
+}
+
+impl<const G: usize> ChannelAcc<G> {
+    /// An empty accumulator for `ch`.
+    pub(crate) fn new(ch: &Channel) -> Self {
+        let tally = Tally::default();
+        match ch.cfg.kind {
+            Kind::Speed => ChannelAcc::Speed(SpeedAcc {
+                tally,
+                moments: Moments::new(),
+                gust: Gust::new(),
+            }),
+            Kind::Direction => {
+                let direction = DirectionAcc {
+                    tally,
+                    sums: DirectionSums::new(),
+                };
+                match ch.cfg.speed_channel {
+                    Some(_) => ChannelAcc::LinkedDirection(LinkedDirectionAcc {
+                        direction,
+                        resultant: ResultantSums::new(),
+                    }),
+                    None => ChannelAcc::Direction(direction),
+                }
+            }
+            Kind::Scalar => ChannelAcc::Scalar(ScalarAcc {
+                tally,
+                moments: Moments::new(),
+            }),
+        }
+    }
+
+    /// Counts by outcome.
+    pub fn tally(&self) -> &Tally {
+        match self {
+            ChannelAcc::Speed(a) => &a.tally,
+            ChannelAcc::Direction(a) => &a.tally,
+            ChannelAcc::LinkedDirection(a) => &a.direction.tally,
+            ChannelAcc::Scalar(a) => &a.tally,
+        }
+    }
+
+    fn tally_mut(&mut self) -> &mut Tally {
+        match self {
+            ChannelAcc::Speed(a) => &mut a.tally,
+            ChannelAcc::Direction(a) => &mut a.tally,
+            ChannelAcc::LinkedDirection(a) => &mut a.direction.tally,
+            ChannelAcc::Scalar(a) => &mut a.tally,
+        }
+    }
+
+    /// Counts one sample rejected for its timestamp.
+    pub(crate) fn reject(&mut self) {
+        let t = self.tally_mut();
+        t.rejected = t.rejected.saturating_add(1);
+    }
+
+    /// Breaks the gust run (a gap in time).
+    pub(crate) fn break_run(&mut self) {
+        if let ChannelAcc::Speed(a) = self {
+            a.gust.break_run();
+        }
+    }
+
+    /// Adds one classified sample; `speed` is the linked speed's class, if any.
+    #[inline]
+    pub(crate) fn push(&mut self, c: Class, w: usize, speed: Option<Class>) {
+        self.tally_mut().count(c);
+        match (self, c) {
+            (ChannelAcc::Speed(a), Class::Valid(q)) => {
+                a.moments.push(q);
+                a.gust.push(q, w);
+            }
+            (ChannelAcc::Speed(a), _) => a.gust.break_run(),
+            (ChannelAcc::Direction(a), Class::Valid(cd)) => a.sums.push(cd),
+            (ChannelAcc::LinkedDirection(a), Class::Valid(cd)) => {
+                a.direction.sums.push(cd);
+                if let Some(Class::Valid(q)) = speed {
+                    a.resultant.push(cd, q);
+                }
+            }
+            (ChannelAcc::Scalar(a), Class::Valid(q)) => a.moments.push(q),
+            _ => {}
+        }
+    }
+
+    /// Merges `later` (same channel, same interval, later in time). `joined`
+    /// says whether the two pieces are contiguous in time.
+    pub(crate) fn merge(&mut self, later: &Self, w: usize, joined: bool) {
+        match (self, later) {
+            (ChannelAcc::Speed(a), ChannelAcc::Speed(b)) => {
+                a.tally.merge(&b.tally);
+                a.moments.merge(&b.moments);
+                a.gust.merge(&b.gust, w, joined);
+            }
+            (ChannelAcc::Direction(a), ChannelAcc::Direction(b)) => {
+                a.tally.merge(&b.tally);
+                a.sums.merge(&b.sums);
+            }
+            (ChannelAcc::LinkedDirection(a), ChannelAcc::LinkedDirection(b)) => {
+                a.direction.tally.merge(&b.direction.tally);
+                a.direction.sums.merge(&b.direction.sums);
+                a.resultant.merge(&b.resultant);
+            }
+            (ChannelAcc::Scalar(a), ChannelAcc::Scalar(b)) => {
+                a.tally.merge(&b.tally);
+                a.moments.merge(&b.moments);
+            }
+            // Accumulators come from the same layout, so kinds always match.
+            _ => {}
+        }
+    }
+
+    /// Finishes the statistics. `speed` is the linked speed channel's config
+    /// (for the resultant's units).
+    pub(crate) fn finish(
+        &self,
+        ch: &Channel,
+        n_possible: u32,
+        speed: Option<&Channel>,
+    ) -> ChannelRecord {
+        let mut r = ChannelRecord::empty(ch.cfg.kind, n_possible, *self.tally());
+        let n = self.tally().valid;
+        let (scale, inv) = (ch.cfg.scale, ch.inv_step);
+        match self {
+            ChannelAcc::Speed(SpeedAcc { moments, .. })
+            | ChannelAcc::Scalar(ScalarAcc { moments, .. }) => {
+                if let Some(s) = moments.finish(n) {
+                    let mean = scale.ratio(inv, moments.sum() as f64, f64::from(n));
+                    let sd = scale.spread(inv, s.sd);
+                    r.mean = Stat::Value(mean);
+                    r.sd = Stat::Value(sd);
+                    r.min = Stat::Value(scale.ratio(inv, f64::from(s.min), 1.0));
+                    r.max = Stat::Value(scale.ratio(inv, f64::from(s.max), 1.0));
+                    if let ChannelAcc::Speed(a) = self {
+                        r.ti = if mean > 0.0 {
+                            Stat::Value(sd / mean)
+                        } else {
+                            Stat::Absent(Absent::ZeroMean)
+                        };
+                        r.gust = match a.gust.best_sum() {
+                            Some(b) => Stat::Value(scale.ratio(inv, b as f64, ch.window() as f64)),
+                            None => Stat::Absent(Absent::NoFullWindow),
+                        };
+                    }
+                }
+            }
+            ChannelAcc::Direction(DirectionAcc { sums, .. }) => {
+                r.resultant_speed = Stat::Absent(Absent::NotApplicable);
+                r.resultant_direction = Stat::Absent(Absent::NotApplicable);
+                fill_direction(&mut r, sums, n);
+            }
+            ChannelAcc::LinkedDirection(LinkedDirectionAcc {
+                direction,
+                resultant,
+            }) if n > 0 => {
+                fill_direction(&mut r, &direction.sums, n);
+                let sp = speed.map(|s| s.cfg.scale).unwrap_or(Scale {
+                    offset: 0.0,
+                    step: 1.0,
+                });
+                match resultant.finish(sp.offset, sp.step) {
+                    Some(v) => {
+                        r.resultant_speed = Stat::Value(v.speed);
+                        r.resultant_direction = match v.direction_deg {
+                            Some(d) => Stat::Value(d),
+                            None => Stat::Absent(Absent::VectorsCancel),
+                        };
+                    }
+                    None => {
+                        r.resultant_speed = Stat::Absent(Absent::NoPairs);
+                        r.resultant_direction = Stat::Absent(Absent::NoPairs);
+                    }
+                }
+            }
+            ChannelAcc::LinkedDirection(_) => {}
+        }
+        r
+    }
+}
+
+fn fill_direction(r: &mut ChannelRecord, sums: &DirectionSums, n: u32) {
+    if let Some(d) = sums.finish(n) {
+        r.mean = match d.mean_deg {
+            Some(m) => Stat::Value(m),
+            None => Stat::Absent(Absent::VectorsCancel),
+        };
+        r.sd = Stat::Value(d.sigma_deg);
+        r.resultant_length = Stat::Value(d.resultant_length);
+    }
+}
+
+/// Why a statistic has no value.
+#[derive(Clone, Copy, Debug, PartialEq, Eq, Hash)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+#[non_exhaustive]
+pub enum Absent {
+    /// The statistic does not exist for this kind of channel.
+    NotApplicable,
+    /// No valid samples in the interval.
+    NoValidSamples,
+    /// No run of consecutive valid samples as long as the gust window.
+    NoFullWindow,
+    /// The vectors cancel: the mean direction is undefined.
+    VectorsCancel,
+    /// No sample had both a valid direction and a valid linked speed.
+    NoPairs,
+    /// The mean speed is 0, so turbulence intensity is undefined.
+    ZeroMean,
+}
+
+impl Absent {
+    /// A short name for records and logs.
+    pub const fn name(self) -> &'static str {
+        match self {
+            Absent::NotApplicable => "not_applicable",
+            Absent::NoValidSamples => "no_valid_samples",
+            Absent::NoFullWindow => "no_full_window",
+            Absent::VectorsCancel => "vectors_cancel",
+            Absent::NoPairs => "no_pairs",
+            Absent::ZeroMean => "zero_mean",
+        }
+    }
+}
+
+/// A statistic: a value, or the reason there is none. Never NaN.
+#[derive(Clone, Copy, Debug, PartialEq)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+pub enum Stat {
+    /// The value.
+    Value(f64),
+    /// No value, and why.
+    Absent(Absent),
+}
+
+impl Stat {
+    /// The value, if any.
+    pub const fn value(self) -> Option<f64> {
+        match self {
+            Stat::Value(v) => Some(v),
+            Stat::Absent(_) => None,
+        }
+    }
+}
+
+/// Finished statistics of one channel over one interval.
+///
+/// For direction channels `mean` is the unit-vector mean direction and `sd`
+/// is Yamartino's sigma-theta, both in degrees. Standard deviations use the
+/// divisor N (population form): it is the form in which interval states merge
+/// exactly, it matches the single-pass Yamartino estimator, and at 600 samples
+/// it differs from the N-1 form by 0.08 %.
+#[derive(Clone, Copy, Debug, PartialEq)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+pub struct ChannelRecord {
+    /// Channel kind.
+    pub kind: Kind,
+    /// Samples the interval should hold at the nominal rate.
+    pub n_possible: u32,
+    /// Samples by outcome.
+    pub tally: Tally,
+    /// Mean (direction: unit-vector mean, degrees).
+    pub mean: Stat,
+    /// Standard deviation, divisor N (direction: Yamartino sigma-theta).
+    pub sd: Stat,
+    /// Minimum valid sample.
+    pub min: Stat,
+    /// Maximum valid sample.
+    pub max: Stat,
+    /// Largest running mean over the gust window (speed).
+    pub gust: Stat,
+    /// Turbulence intensity, sd / mean (speed).
+    pub ti: Stat,
+    /// Mean resultant length of the unit vectors, 0 to 1 (direction).
+    pub resultant_length: Stat,
+    /// Speed-weighted resultant speed (direction with a linked speed).
+    pub resultant_speed: Stat,
+    /// Speed-weighted resultant direction (direction with a linked speed).
+    pub resultant_direction: Stat,
+}
+
+impl ChannelRecord {
+    fn empty(kind: Kind, n_possible: u32, tally: Tally) -> Self {
+        let none = Stat::Absent(Absent::NoValidSamples);
+        let na = Stat::Absent(Absent::NotApplicable);
+        let (minmax, gust, vector, resultant) = match kind {
+            Kind::Speed => (none, none, na, na),
+            Kind::Direction => (na, na, none, none),
+            Kind::Scalar => (none, na, na, na),
+        };
+        ChannelRecord {
+            kind,
+            n_possible,
+            tally,
+            mean: none,
+            sd: none,
+            min: minmax,
+            max: minmax,
+            gust,
+            ti: gust,
+            resultant_length: vector,
+            resultant_speed: resultant,
+            resultant_direction: resultant,
+        }
+    }
+}

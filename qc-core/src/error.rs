@@ -1,0 +1,86 @@
+//! Errors. Small `Copy` enums that never allocate.
+
+use core::fmt;
+
+/// Why a station or channel configuration was refused by [`crate::Layout::new`].
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+#[non_exhaustive]
+pub enum ConfigError {
+    /// The interval is 0 or does not divide a day (86,400 s) evenly.
+    Interval,
+    /// Samples per interval is 0 or above [`crate::MAX_SAMPLES_PER_INTERVAL`].
+    SampleCount,
+    /// More than [`crate::MAX_SENTINELS`] missing-value codes, or a NaN code.
+    Sentinels,
+    /// A channel is misconfigured.
+    Channel {
+        /// The channel's position in the station.
+        index: u8,
+        /// What is wrong with it.
+        problem: ChannelProblem,
+    },
+    /// More than 255 channels.
+    TooManyChannels,
+}
+
+/// What is wrong with one channel's configuration.
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+#[non_exhaustive]
+pub enum ChannelProblem {
+    /// Resolution or calibration slope is not a finite positive number, or the
+    /// calibration offset is not finite.
+    Scale,
+    /// The valid range is not finite or its low end is above its high end.
+    Range,
+    /// The range, at this resolution, does not fit 31-bit quanta (speed, scalar)
+    /// or lies beyond +/-1e6 degrees (direction).
+    RangeTooWide,
+    /// The gust window is 0 samples or longer than the station's gust capacity `G`.
+    GustWindow,
+    /// The linked speed channel does not exist or is not a speed channel.
+    SpeedLink,
+    /// A direction calibration slope above 300 degrees per count.
+    DirectionSlope,
+    /// The mounting offset is not finite.
+    MountingOffset,
+}
+
+impl fmt::Display for ChannelProblem {
+    fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
+        f.write_str(match self {
+            ChannelProblem::Scale => "resolution or calibration slope must be finite and positive, offset finite",
+            ChannelProblem::Range => "range must be finite with low <= high",
+            ChannelProblem::RangeTooWide => "range is too wide for the resolution (quanta must fit 31 bits; directions within +/-1e6 degrees)",
+            ChannelProblem::GustWindow => "gust window must be at least one sample and within the station's gust capacity",
+            ChannelProblem::SpeedLink => "linked speed channel must exist and be of kind speed",
+            ChannelProblem::DirectionSlope => "direction calibration slope must be at most 300 degrees per count",
+            ChannelProblem::MountingOffset => "mounting offset must be finite",
+        })
+    }
+}
+
+impl fmt::Display for ConfigError {
+    fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
+        match self {
+            ConfigError::Interval => {
+                f.write_str("interval must be a positive number of seconds dividing 86400")
+            }
+            ConfigError::SampleCount => write!(
+                f,
+                "samples per interval must be 1 to {}",
+                crate::MAX_SAMPLES_PER_INTERVAL
+            ),
+            ConfigError::Sentinels => write!(
+                f,
+                "at most {} missing-value codes, none NaN",
+                crate::MAX_SENTINELS
+            ),
+            ConfigError::Channel { index, problem } => write!(f, "channel {index}: {problem}"),
+            ConfigError::TooManyChannels => f.write_str("at most 255 channels"),
+        }
+    }
+}
+
+impl core::error::Error for ConfigError {}

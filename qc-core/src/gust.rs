@@ -1,0 +1,311 @@
+//! Gust: the largest running mean over `w` consecutive valid samples.
+//!
+//! A missing, out-of-range or screened sample, or a gap in time, breaks the run:
+//! a window never spans a break. The window length `w` (in samples, `1..=G`) is
+//! passed to every call rather than stored, so the state is only what a window
+//! needs. Sums are exact integers; the largest window *sum* is kept, and divided
+//! by `w` only when the interval is finished.
+//!
+//! For exact split-and-merge, a piece also keeps its first `w - 1` samples (the
+//! head of its leading run): windows that straddle the join of two pieces are
+//! then found exactly when the pieces are merged.
+
+/// Running-window state for one interval (or one piece of an interval).
+#[derive(Clone, Copy, Debug, PartialEq, Eq, Hash)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+pub struct Gust<const G: usize> {
+    best: i64,
+    window: i64,
+    tail: [i32; G],
+    head: [i32; G],
+    run: u16,
+    pos: u8,
+    head_len: u8,
+    flags: u8,
+}
+
+const HAS_BEST: u8 = 1;
+const BROKEN: u8 = 2;
+const SEEN: u8 = 4;
+
+impl<const G: usize> Default for Gust<G> {
+    fn default() -> Self {
+        Self::new()
+    }
+}
+
+impl<const G: usize> Gust<G> {
+    const CHECK: () = assert!(G > 0 && G <= 255, "gust capacity must be 1..=255 samples");
+
+    /// An empty window.
+    pub const fn new() -> Self {
+        #[allow(clippy::let_unit_value)]
+        let () = Self::CHECK;
+        Gust {
+            best: 0,
+            window: 0,
+            tail: [0; G],
+            head: [0; G],
+            run: 0,
+            pos: 0,
+            head_len: 0,
+            flags: 0,
+        }
+    }
+
+    /// The largest window sum seen, if any run reached `w` samples.
+    pub const fn best_sum(&self) -> Option<i64> {
+        if self.flags & HAS_BEST != 0 {
+            Some(self.best)
+        } else {
+            None
+        }
+    }
+
+    fn offer(&mut self, sum: i64) {
+        if self.flags & HAS_BEST == 0 || sum > self.best {
+            self.best = sum;
+            self.flags |= HAS_BEST;
+        }
+    }
+
+    /// Adds one valid sample. `w` must be in `1..=G` (the caller validated it).
+    #[inline]
+    pub fn push(&mut self, q: i32, w: usize) {
+        self.flags |= SEEN;
+        if self.flags & BROKEN == 0 && usize::from(self.head_len) + 1 < w {
+            self.head[usize::from(self.head_len)] = q;
+            self.head_len += 1;
+        }
+        self.run = self.run.saturating_add(1);
+        let pos = usize::from(self.pos);
+        if usize::from(self.run) > w {
+            self.window -= i64::from(self.tail[pos]);
+        }
+        self.tail[pos] = q;
+        self.window += i64::from(q);
+        self.pos = if pos + 1 >= w { 0 } else { pos as u8 + 1 };
+        if usize::from(self.run) >= w {
+            self.offer(self.window);
+        }
+    }
+
+    /// Breaks the run: the next window starts afresh.
+    #[inline]
+    pub fn break_run(&mut self) {
+        self.flags |= BROKEN | SEEN;
+        self.run = 0;
+        self.window = 0;
+        self.pos = 0;
+    }
+
+    /// The last `k <= min(run, w)` samples of the current run, oldest first,
+    /// written to `out[..k]`.
+    fn tail_in_order(&self, w: usize, k: usize, out: &mut [i32; G]) {
+        let len = usize::from(self.run).min(w);
+        // Oldest sample of the stored run is at `pos` when the ring is full.
+        let first = if usize::from(self.run) >= w {
+            usize::from(self.pos)
+        } else {
+            0
+        };
+        for (i, slot) in out.iter_mut().take(k).enumerate() {
+            let idx = (first + (len - k) + i) % w;
+            *slot = self.tail[idx];
+        }
+    }
+
+    /// Merges `later`, the state of the samples that follow this piece in time.
+    /// `joined` says whether the two pieces are contiguous (no break between).
+    pub fn merge(&mut self, later: &Self, w: usize, joined: bool) {
+        if later.flags & SEEN == 0 {
+            return;
+        }
+        if self.flags & SEEN == 0 {
+            *self = *later;
+            return;
+        }
+        // Windows straddling the join: the last w-1 of this run, then later's head.
+        if joined && self.run > 0 && later.head_len > 0 && w > 1 {
+            let mut own = [0i32; G];
+            let a = usize::from(self.run).min(w - 1);
+            self.tail_in_order(w, a, &mut own);
+            let b = usize::from(later.head_len);
+            for from_self in 1..=a {
+                let from_later = w - from_self;
+                if from_later > b {
+                    continue;
+                }
+                let s: i64 = own[a - from_self..a]
+                    .iter()
+                    .map(|&v| i64::from(v))
+                    .sum::<i64>()
+                    + later.head[..from_later]
+                        .iter()
+                        .map(|&v| i64::from(v))
+                        .sum::<i64>();
+                self.offer(s);
+            }
+        }
+        if let Some(b) = later.best_sum() {
+            self.offer(b);
+        }
+
+        // The head grows only while this piece is one unbroken run.
+        if self.flags & BROKEN == 0 {
+            if joined {
+                for &q in &later.head[..usize::from(later.head_len)] {
+                    if usize::from(self.head_len) + 1 >= w {
+                        break;
+                    }
+                    self.head[usize::from(self.head_len)] = q;
+                    self.head_len += 1;
+                }
+            }
+            if !joined || later.flags & BROKEN != 0 {
+                self.flags |= BROKEN;
+            }
+        }
+
+        // The trailing run.
+        if joined && later.flags & BROKEN == 0 {
+            let total = self.run.saturating_add(later.run);
+            let keep = usize::from(total).min(w);
+            let from_later = usize::from(later.run).min(keep);
+            let from_self = keep - from_later;
+            let mut seq = [0i32; G];
+            let mut own = [0i32; G];
+            self.tail_in_order(w, from_self, &mut own);
+            seq[..from_self].copy_from_slice(&own[..from_self]);
+            let mut lat = [0i32; G];
+            later.tail_in_order(w, from_later, &mut lat);
+            seq[from_self..keep].copy_from_slice(&lat[..from_later]);
+            self.tail = [0; G];
+            self.tail[..keep].copy_from_slice(&seq[..keep]);
+            self.window = seq[..keep].iter().map(|&v| i64::from(v)).sum();
+            self.pos = if keep >= w { 0 } else { keep as u8 };
+            self.run = total;
+        } else {
+            self.tail = later.tail;
+            self.window = later.window;
+            self.pos = later.pos;
+            self.run = later.run;
+        }
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    /// Plain reference: the largest sum of `w` consecutive valid samples.
+    fn reference(samples: &[Option<i32>], w: usize) -> Option<i64> {
+        let mut best = None;
+        for start in 0..samples.len() {
+            if start + w > samples.len() {
+                break;
+            }
+            let win = &samples[start..start + w];
+            if win.iter().all(Option::is_some) {
+                let s: i64 = win.iter().map(|v| i64::from(v.unwrap())).sum();
+                best = Some(best.map_or(s, |b: i64| b.max(s)));
+            }
+        }
+        best
+    }
+
+    fn feed<const G: usize>(g: &mut Gust<G>, samples: &[Option<i32>], w: usize) {
+        for s in samples {
+            match s {
+                Some(q) => g.push(*q, w),
+                None => g.break_run(),
+            }
+        }
+    }
+
+    #[test]
+    fn matches_reference_and_every_split() {
+        let cases: &[&[Option<i32>]] = &[
+            &[Some(1), Some(5), Some(2), Some(9), Some(1)],
+            &[
+                Some(3),
+                None,
+                Some(7),
+                Some(7),
+                None,
+                Some(1),
+                Some(2),
+                Some(3),
+                Some(4),
+            ],
+            &[None, None, Some(10)],
+            &[
+                Some(-4),
+                Some(-2),
+                Some(-8),
+                None,
+                Some(-1),
+                Some(-1),
+                Some(-1),
+            ],
+            &[
+                Some(100),
+                Some(0),
+                Some(0),
+                Some(0),
+                Some(50),
+                Some(50),
+                Some(50),
+                None,
+            ],
+        ];
+        for samples in cases {
+            for w in 1..=4 {
+                let mut whole = Gust::<4>::new();
+                feed(&mut whole, samples, w);
+                assert_eq!(whole.best_sum(), reference(samples, w), "{samples:?} w {w}");
+                for cut in 0..=samples.len() {
+                    let mut a = Gust::<4>::new();
+                    let mut b = Gust::<4>::new();
+                    feed(&mut a, &samples[..cut], w);
+                    feed(&mut b, &samples[cut..], w);
+                    a.merge(&b, w, true);
+                    assert_eq!(
+                        a.best_sum(),
+                        whole.best_sum(),
+                        "{samples:?} w {w} cut {cut}"
+                    );
+                    // The merged state must keep working as if never split.
+                    let mut a2 = a;
+                    let mut whole2 = whole;
+                    for q in [7, 8, 9, 10] {
+                        a2.push(q, w);
+                        whole2.push(q, w);
+                    }
+                    assert_eq!(
+                        a2.best_sum(),
+                        whole2.best_sum(),
+                        "{samples:?} w {w} cut {cut} +"
+                    );
+                }
+            }
+        }
+    }
+
+    #[test]
+    fn a_gap_between_pieces_breaks_the_window() {
+        let mut a = Gust::<3>::new();
+        let mut b = Gust::<3>::new();
+        feed(&mut a, &[Some(10), Some(10)], 3);
+        feed(&mut b, &[Some(10), Some(1), Some(1)], 3);
+        a.merge(&b, 3, false);
+        assert_eq!(a.best_sum(), Some(12));
+    }
+
+    #[test]
+    fn no_full_window_means_no_gust() {
+        let mut g = Gust::<3>::new();
+        feed(&mut g, &[Some(1), Some(2), None, Some(3)], 3);
+        assert_eq!(g.best_sum(), None);
+    }
+}

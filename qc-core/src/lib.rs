@@ -1,0 +1,123 @@
+//! Exact, fixed-memory interval statistics for wind-measurement loggers.
+//!
+//! `qc-core` turns timestamped samples of anemometers, wind vanes and other
+//! sensors into interval statistics (usually 10 minutes): mean, standard
+//! deviation, min, max, gust, turbulence intensity; for direction the unit-vector
+//! mean, Yamartino sigma-theta and the speed-weighted resultant; and how many
+//! samples were possible, valid, missing, out of range or rejected. It runs the
+//! same on a Cortex-M0 logger and on a PC, with the same bits in every result.
+//!
+//! ```
+//! use qc_core::{ChannelConfig, Event, Layout, Reading, Station, StationConfig, Timestamp};
+//!
+//! // A 10-minute, 1 Hz station: anemometer at 0.01 m/s, vane linked to it.
+//! let layout = Layout::new::<3>(
+//!     StationConfig::ten_minute_1hz(),
+//!     [ChannelConfig::speed(0.01), ChannelConfig::direction().with_speed_channel(0)],
+//! )?;
+//! let mut station: Station<2, 3> = Station::new(layout);
+//! let t0 = 1_700_000_400_000; // ms since the epoch, on a 10-minute boundary
+//! let mut means = Vec::new();
+//! for i in 0..1200 {
+//!     let readings = [Reading::Value(8.0), Reading::Value(if i % 2 == 0 { 350.0 } else { 10.0 })];
+//!     station.push(Timestamp::from_millis(t0 + i * 1000), &readings, |event| {
+//!         if let Event::Closed(acc) = event {
+//!             let vane = layout.finish(acc, 1).unwrap();
+//!             means.push((vane.mean.value(), vane.tally.valid));
+//!         }
+//!     });
+//! }
+//! // The second sample after 600 s closed the first interval: 600 valid samples,
+//! // mean direction north (the arithmetic mean of 350 and 10 would say 180).
+//! assert_eq!(means.len(), 1);
+//! assert_eq!(means[0].1, 600);
+//! let mean = means[0].0.unwrap();
+//! assert!(mean < 1e-9 || mean > 360.0 - 1e-9);
+//! # Ok::<(), qc_core::ConfigError>(())
+//! ```
+//!
+//! # Exactness
+//!
+//! Every reading becomes an integer once, at the boundary: speeds and scalars
+//! become quanta of their resolution (`value = offset + step * q`), directions
+//! become hundredths of a degree, whose unit vectors come from integer tables
+//! ([`angle`]). Sums, sums of squares, minima, maxima and gust window sums are
+//! then exact integers, so an interval's state does not depend on the order of
+//! its samples (except the gust, which is defined by sample order) and pieces
+//! merge exactly ([`IntervalAcc::merge`]). Floating point is used only to turn
+//! the exact sums into results, with `libm`, never platform math, and only
+//! IEEE-754 operations that every target rounds the same way.
+//!
+//! # Floating point on a core without an FPU
+//!
+//! On a Cortex-M0 (`thumbv6m`) there is no FPU: the per-sample path for raw
+//! counts ([`Reading::Counts`]) is integer only; [`Reading::Value`] costs a
+//! software division and rounding per sample; finishing an interval costs a
+//! few software `f64` operations (`sqrt`, `atan2`, `asin`) per channel. A
+//! Cortex-M4F has a single-precision FPU only, so `f64` is in software there too.
+//!
+//! # Memory
+//!
+//! All state has a size fixed at compile time; nothing allocates. On every
+//! target (all fields are 8-byte aligned at most):
+//!
+//! | state | bytes |
+//! |---|---|
+//! | [`SpeedAcc<3>`] (speed, 3-sample gust window) | 96 |
+//! | [`DirectionAcc`] (vane) | 32 |
+//! | [`LinkedDirectionAcc`] (vane with speed-weighted resultant) | 88 |
+//! | [`ScalarAcc`] | 48 |
+//! | [`Recovery`] (running recovery of one channel) | 96 |
+//!
+//! Each gust sample beyond 3 adds 8 bytes to a speed channel (4 in the running
+//! window, 4 in the head kept for exact merging). The sizes are asserted in
+//! this crate's tests.
+//!
+//! # Panics
+//!
+//! None reachable from input: configurations are validated once by
+//! [`Layout::new`]; after that no method panics on any reading or timestamp.
+
+#![cfg_attr(not(test), no_std)]
+#![forbid(unsafe_code)]
+#![deny(missing_docs)]
+
+pub mod angle;
+mod channel;
+pub mod direction;
+mod error;
+pub mod gust;
+pub mod moments;
+mod recovery;
+mod station;
+pub mod time;
+
+pub use channel::{
+    Absent, Channel, ChannelAcc, ChannelConfig, ChannelRecord, DirectionAcc, Kind,
+    LinkedDirectionAcc, Reading, ScalarAcc, Scale, SpeedAcc, Stat, Tally,
+};
+pub use error::{ChannelProblem, ConfigError};
+pub use recovery::{Recovery, Totals};
+pub use station::{
+    Event, Gap, IntervalAcc, Layout, PushTotals, Pushed, Reject, Sentinels, Station, StationConfig,
+    MAX_SAMPLES_PER_INTERVAL, MAX_SENTINELS,
+};
+pub use time::{Civil, Month, Timestamp};
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use core::mem::size_of;
+
+    #[test]
+    fn documented_sizes() {
+        assert_eq!(size_of::<SpeedAcc<3>>(), 96);
+        assert_eq!(size_of::<DirectionAcc>(), 32);
+        assert_eq!(size_of::<LinkedDirectionAcc>(), 88);
+        assert_eq!(size_of::<ScalarAcc>(), 48);
+        assert_eq!(size_of::<Recovery>(), 96);
+        // The issue's budgets: speed with a 3-sample window <= 96, direction <= 64.
+        assert!(size_of::<SpeedAcc<3>>() <= 96);
+        assert!(size_of::<DirectionAcc>() <= 64);
+    }
+}

@@ -1,0 +1,178 @@
+//! Exact moments of integer quanta: count by the caller, sum, sum of squares,
+//! minimum and maximum.
+//!
+//! Every sample is an `i32` number of quanta (see [`crate::Scale`]). Sums are
+//! kept in integers wide enough never to overflow for `u32::MAX` samples, so the
+//! state after any set of samples is the same whatever their order, and two
+//! states merge exactly. Floating point is used only in [`Moments::finish`].
+
+/// A 128-bit signed integer stored as two 64-bit halves, so that structures
+/// holding it have 8-byte alignment (and the same size) on every target.
+#[derive(Clone, Copy, Debug, Default, PartialEq, Eq, Hash)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+pub struct Wide {
+    lo: u64,
+    hi: u64,
+}
+
+impl Wide {
+    /// Zero.
+    pub const ZERO: Wide = Wide { lo: 0, hi: 0 };
+
+    /// The value.
+    pub const fn get(self) -> i128 {
+        (((self.hi as u128) << 64) | self.lo as u128) as i128
+    }
+
+    /// Stores a value.
+    pub const fn new(v: i128) -> Self {
+        let u = v as u128;
+        Wide {
+            lo: u as u64,
+            hi: (u >> 64) as u64,
+        }
+    }
+
+    /// Adds `v` (wrapping; callers keep within range by the bounds in the module doc).
+    pub fn add(&mut self, v: i128) {
+        *self = Wide::new(self.get().wrapping_add(v));
+    }
+}
+
+/// Sum, sum of squares, minimum and maximum of `i32` quanta.
+///
+/// The sample count is not stored here: the owner keeps it (it is the channel's
+/// valid count), which saves 8 bytes a channel. With at most `u32::MAX`
+/// samples, `|sum| < 2^63` and `sum_sq < 2^94`, so neither can overflow.
+#[derive(Clone, Copy, Debug, PartialEq, Eq, Hash)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+pub struct Moments {
+    sum_sq: Wide,
+    sum: i64,
+    min: i32,
+    max: i32,
+}
+
+/// Finished moments in quanta.
+#[derive(Clone, Copy, Debug, PartialEq)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+pub struct MomentStats {
+    /// Mean, in quanta.
+    pub mean: f64,
+    /// Population standard deviation (divisor N), in quanta.
+    pub sd: f64,
+    /// Smallest sample.
+    pub min: i32,
+    /// Largest sample.
+    pub max: i32,
+}
+
+impl Default for Moments {
+    fn default() -> Self {
+        Self::new()
+    }
+}
+
+impl Moments {
+    /// No samples.
+    pub const fn new() -> Self {
+        Moments {
+            sum_sq: Wide::ZERO,
+            sum: 0,
+            min: i32::MAX,
+            max: i32::MIN,
+        }
+    }
+
+    /// Adds one sample.
+    #[inline]
+    pub fn push(&mut self, q: i32) {
+        let q64 = i64::from(q);
+        self.sum += q64;
+        self.sum_sq.add(i128::from(q64 * q64));
+        self.min = self.min.min(q);
+        self.max = self.max.max(q);
+    }
+
+    /// Adds all samples of `other`.
+    pub fn merge(&mut self, other: &Moments) {
+        self.sum += other.sum;
+        self.sum_sq.add(other.sum_sq.get());
+        self.min = self.min.min(other.min);
+        self.max = self.max.max(other.max);
+    }
+
+    /// Exact sum of the samples.
+    pub const fn sum(&self) -> i64 {
+        self.sum
+    }
+
+    /// Mean, standard deviation (divisor N), min and max of `n` samples, or
+    /// `None` when `n` is 0.
+    ///
+    /// The variance numerator `n * sum_sq - sum^2` is formed exactly in integers,
+    /// so a constant series gives exactly 0 and never a negative or NaN value.
+    pub fn finish(&self, n: u32) -> Option<MomentStats> {
+        if n == 0 {
+            return None;
+        }
+        let nf = f64::from(n);
+        let mean = self.sum as f64 / nf;
+        // n <= 2^32 and sum_sq < 2^94 keep n * sum_sq below 2^126; sum^2 < 2^126.
+        let num = (i128::from(n) * self.sum_sq.get()) - i128::from(self.sum) * i128::from(self.sum);
+        let var = (num.max(0) as f64 / nf) / nf;
+        Some(MomentStats {
+            mean,
+            sd: libm::sqrt(var),
+            min: self.min,
+            max: self.max,
+        })
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn wide_round_trips() {
+        for v in [
+            0i128,
+            1,
+            -1,
+            i128::from(u64::MAX) + 5,
+            -(1 << 100),
+            1 << 126,
+        ] {
+            assert_eq!(Wide::new(v).get(), v);
+        }
+    }
+
+    #[test]
+    fn constant_series_has_zero_sd() {
+        let mut m = Moments::new();
+        for _ in 0..600 {
+            m.push(-123_456);
+        }
+        let s = m.finish(600).unwrap();
+        assert_eq!(s.sd, 0.0);
+        assert_eq!(s.mean, -123_456.0);
+    }
+
+    #[test]
+    fn extreme_quanta_do_not_overflow() {
+        let mut m = Moments::new();
+        for i in 0..10_000 {
+            m.push(if i % 2 == 0 { i32::MAX } else { i32::MIN });
+        }
+        let s = m.finish(10_000).unwrap();
+        assert_eq!(s.min, i32::MIN);
+        assert_eq!(s.max, i32::MAX);
+        assert!((s.sd - 2_147_483_647.5).abs() < 1.0);
+    }
+
+    #[test]
+    fn empty_has_no_stats() {
+        assert_eq!(Moments::new().finish(0), None);
+    }
+}

@@ -1,0 +1,529 @@
+//! The station: a fixed set of channels sampled together, cut into UTC-aligned
+//! intervals.
+//!
+//! [`Layout`] is the validated configuration. [`Station`] takes timestamped
+//! samples, keeps one open [`IntervalAcc`], and hands each closed interval (and
+//! each run of intervals with no samples, as one [`Gap`]) to a callback.
+//! [`IntervalAcc::merge`] joins pieces of one interval accumulated apart, with the
+//! same result, bit for bit, as accumulating them in one pass.
+//!
+//! Time rules:
+//! - Interval `k` covers `[k * interval, (k + 1) * interval)` milliseconds since the
+//!   epoch; since the interval divides a day, boundaries fall on whole multiples
+//!   of the interval since each UTC midnight.
+//! - A sample whose timestamp is not after the last accepted one is rejected
+//!   (duplicate or backward) and counted, never merged.
+//! - A sample in a later interval closes the open one; intervals in between are
+//!   reported as one [`Gap`] in constant time, however long.
+//! - Consecutive accepted samples more than 1.5 nominal periods apart break the
+//!   gust runs of every channel.
+//!
+//! Nothing here panics, whatever the input.
+
+use crate::channel::{Channel, ChannelAcc, ChannelConfig, ChannelRecord, Class, Reading};
+use crate::error::ConfigError;
+use crate::recovery::Recovery;
+use crate::time::Timestamp;
+
+/// Most missing-value codes a station may have.
+pub const MAX_SENTINELS: usize = 4;
+
+/// Most samples per interval (2^24: 10-minute intervals at up to 27 kHz).
+pub const MAX_SAMPLES_PER_INTERVAL: u32 = 1 << 24;
+
+/// Station-wide settings.
+#[derive(Clone, Copy, Debug, PartialEq)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+pub struct StationConfig {
+    /// Interval length in seconds; must divide 86,400. 600 for 10-minute statistics.
+    pub interval_s: u32,
+    /// Samples per interval at the nominal rate (600 for 1 Hz and 10 minutes).
+    pub samples_per_interval: u32,
+    /// Missing-value codes (for example -999 and -9999), compared exactly.
+    pub missing_values: [Option<f64>; MAX_SENTINELS],
+}
+
+impl StationConfig {
+    /// 10-minute intervals at 1 Hz with missing-value codes -999 and -9999.
+    pub const fn ten_minute_1hz() -> Self {
+        StationConfig {
+            interval_s: 600,
+            samples_per_interval: 600,
+            missing_values: [Some(-999.0), Some(-9999.0), None, None],
+        }
+    }
+}
+
+/// The station's missing-value codes, as values and as counts.
+#[derive(Clone, Copy, Debug, PartialEq)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+pub struct Sentinels {
+    values: [f64; MAX_SENTINELS],
+    counts: [i32; MAX_SENTINELS],
+    n_values: u8,
+    n_counts: u8,
+}
+
+impl Sentinels {
+    fn new(codes: &[Option<f64>; MAX_SENTINELS]) -> Result<Self, ConfigError> {
+        let mut s = Sentinels {
+            values: [0.0; MAX_SENTINELS],
+            counts: [0; MAX_SENTINELS],
+            n_values: 0,
+            n_counts: 0,
+        };
+        for v in codes.iter().flatten() {
+            if v.is_nan() {
+                return Err(ConfigError::Sentinels);
+            }
+            s.values[usize::from(s.n_values)] = *v;
+            s.n_values += 1;
+            if libm::trunc(*v) == *v && *v >= f64::from(i32::MIN) && *v <= f64::from(i32::MAX) {
+                s.counts[usize::from(s.n_counts)] = *v as i32;
+                s.n_counts += 1;
+            }
+        }
+        Ok(s)
+    }
+
+    /// Whether `v` is a missing-value code.
+    #[inline]
+    pub fn matches_value(&self, v: f64) -> bool {
+        self.values[..usize::from(self.n_values)].contains(&v)
+    }
+
+    /// Whether raw counts `k` equal a missing-value code.
+    #[inline]
+    pub fn matches_counts(&self, k: i32) -> bool {
+        self.counts[..usize::from(self.n_counts)].contains(&k)
+    }
+}
+
+/// A validated station configuration for `C` channels.
+#[derive(Clone, Copy, Debug, PartialEq)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+pub struct Layout<const C: usize> {
+    interval_ms: i64,
+    samples: u32,
+    /// Largest step between samples that is not a gap, ms.
+    max_step_ms: i64,
+    sentinels: Sentinels,
+    channels: [Channel; C],
+}
+
+impl<const C: usize> Layout<C> {
+    /// Validates a station. `G` is the gust-window capacity, in samples, of the
+    /// [`Station`] or [`IntervalAcc`] that will use the layout.
+    pub fn new<const G: usize>(
+        station: StationConfig,
+        channels: [ChannelConfig; C],
+    ) -> Result<Self, ConfigError> {
+        if C > 255 {
+            return Err(ConfigError::TooManyChannels);
+        }
+        if station.interval_s == 0 || 86_400 % station.interval_s != 0 {
+            return Err(ConfigError::Interval);
+        }
+        let n = station.samples_per_interval;
+        if n == 0 || n > MAX_SAMPLES_PER_INTERVAL {
+            return Err(ConfigError::SampleCount);
+        }
+        let sentinels = Sentinels::new(&station.missing_values)?;
+        let mut out = [Channel::placeholder(); C];
+        for (i, (slot, cfg)) in out.iter_mut().zip(channels.iter()).enumerate() {
+            let index = i as u8;
+            *slot =
+                Channel::new(*cfg, G).map_err(|problem| ConfigError::Channel { index, problem })?;
+            if let Some(s) = cfg.speed_channel {
+                let ok = channels
+                    .get(usize::from(s))
+                    .is_some_and(|c| c.kind == crate::Kind::Speed)
+                    && cfg.kind == crate::Kind::Direction;
+                if !ok {
+                    return Err(ConfigError::Channel {
+                        index,
+                        problem: crate::error::ChannelProblem::SpeedLink,
+                    });
+                }
+            }
+        }
+        let interval_ms = i64::from(station.interval_s) * 1000;
+        Ok(Layout {
+            interval_ms,
+            samples: n,
+            max_step_ms: 3 * interval_ms / (2 * i64::from(n)),
+            sentinels,
+            channels: out,
+        })
+    }
+
+    /// Interval length, ms.
+    pub const fn interval_ms(&self) -> i64 {
+        self.interval_ms
+    }
+
+    /// Samples per interval at the nominal rate.
+    pub const fn samples_per_interval(&self) -> u32 {
+        self.samples
+    }
+
+    /// The channels.
+    pub const fn channels(&self) -> &[Channel; C] {
+        &self.channels
+    }
+
+    /// The index of the interval holding `t`.
+    pub const fn interval_of(&self, t: Timestamp) -> i64 {
+        t.millis().div_euclid(self.interval_ms)
+    }
+
+    /// The start of interval `index`.
+    pub const fn interval_start(&self, index: i64) -> Timestamp {
+        Timestamp::from_millis(index.saturating_mul(self.interval_ms))
+    }
+
+    /// Whether two consecutive accepted samples `dt` ms apart leave a gap.
+    pub const fn is_gap(&self, dt: i64) -> bool {
+        dt > self.max_step_ms
+    }
+
+    /// Finished statistics of channel `ch` of `acc`; `None` if `ch >= C`.
+    pub fn finish<const G: usize>(
+        &self,
+        acc: &IntervalAcc<C, G>,
+        ch: usize,
+    ) -> Option<ChannelRecord> {
+        let channel = self.channels.get(ch)?;
+        let speed = channel
+            .config()
+            .speed_channel
+            .and_then(|s| self.channels.get(usize::from(s)));
+        Some(acc.channels.get(ch)?.finish(channel, self.samples, speed))
+    }
+}
+
+/// The accumulated state of one interval (or one piece of it).
+#[derive(Clone, Copy, Debug, PartialEq, Eq, Hash)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+pub struct IntervalAcc<const C: usize, const G: usize> {
+    index: i64,
+    first: Option<Timestamp>,
+    last: Option<Timestamp>,
+    channels: [ChannelAcc<G>; C],
+}
+
+impl<const C: usize, const G: usize> IntervalAcc<C, G> {
+    /// An empty interval `index` of `layout`.
+    pub fn new(layout: &Layout<C>, index: i64) -> Self {
+        IntervalAcc {
+            index,
+            first: None,
+            last: None,
+            channels: core::array::from_fn(|i| ChannelAcc::new(&layout.channels[i])),
+        }
+    }
+
+    /// The interval's index (interval number since the epoch).
+    pub const fn index(&self) -> i64 {
+        self.index
+    }
+
+    /// First and last accepted sample times, if any sample was accepted.
+    pub const fn span(&self) -> Option<(Timestamp, Timestamp)> {
+        match (self.first, self.last) {
+            (Some(a), Some(b)) => Some((a, b)),
+            _ => None,
+        }
+    }
+
+    /// The per-channel states.
+    pub const fn channels(&self) -> &[ChannelAcc<G>; C] {
+        &self.channels
+    }
+
+    /// Adds one accepted sample at `t` (the caller keeps `t` increasing and within
+    /// this interval; [`Station::push`] does).
+    pub fn push(&mut self, layout: &Layout<C>, t: Timestamp, readings: &[Reading; C]) {
+        if let Some(last) = self.last {
+            if layout.is_gap(t.millis().saturating_sub(last.millis())) {
+                for c in &mut self.channels {
+                    c.break_run();
+                }
+            }
+        }
+        if self.first.is_none() {
+            self.first = Some(t);
+        }
+        self.last = Some(t);
+        let classes: [Class; C] =
+            core::array::from_fn(|i| layout.channels[i].classify(readings[i], &layout.sentinels));
+        for (i, acc) in self.channels.iter_mut().enumerate() {
+            let ch = &layout.channels[i];
+            let speed = ch
+                .config()
+                .speed_channel
+                .and_then(|s| classes.get(usize::from(s)).copied());
+            acc.push(classes[i], ch.window(), speed);
+        }
+    }
+
+    /// Counts one sample rejected for its timestamp, on every channel.
+    pub fn reject(&mut self) {
+        for c in &mut self.channels {
+            c.reject();
+        }
+    }
+
+    /// Merges `later`, a piece of the same interval whose samples all follow this
+    /// piece's. Gust windows straddling the join are found exactly.
+    pub fn merge(&mut self, layout: &Layout<C>, later: &Self) {
+        let joined = match (self.last, later.first) {
+            (Some(a), Some(b)) => !layout.is_gap(b.millis().saturating_sub(a.millis())),
+            _ => true,
+        };
+        for (i, (a, b)) in self
+            .channels
+            .iter_mut()
+            .zip(later.channels.iter())
+            .enumerate()
+        {
+            a.merge(b, layout.channels[i].window(), joined);
+        }
+        if self.first.is_none() {
+            self.first = later.first;
+        }
+        if later.last.is_some() {
+            self.last = later.last;
+        }
+    }
+}
+
+/// Why a sample was rejected for its timestamp.
+#[derive(Clone, Copy, Debug, PartialEq, Eq, Hash)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+#[non_exhaustive]
+pub enum Reject {
+    /// The same timestamp as the last accepted sample.
+    Duplicate,
+    /// Earlier than the last accepted sample.
+    Backward,
+    /// In an interval already closed by [`Station::close`] or [`Station::tick`].
+    ClosedInterval,
+    /// Outside the years 0000 to 9999.
+    UnsupportedTime,
+}
+
+/// What [`Station::push`] did with a sample.
+#[derive(Clone, Copy, Debug, PartialEq, Eq, Hash)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+pub enum Pushed {
+    /// Accepted into the open interval (each reading counted valid, missing or
+    /// out of range by its channel).
+    Accepted,
+    /// Rejected for its timestamp, and counted.
+    Rejected(Reject),
+}
+
+/// Intervals in a row with no samples at all.
+#[derive(Clone, Copy, Debug, PartialEq, Eq, Hash)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+pub struct Gap {
+    /// Index of the first empty interval.
+    pub first: i64,
+    /// How many empty intervals.
+    pub count: u64,
+}
+
+/// What a station hands to its callback.
+#[derive(Debug)]
+pub enum Event<'a, const C: usize, const G: usize> {
+    /// An interval closed.
+    Closed(&'a IntervalAcc<C, G>),
+    /// Intervals that held no samples; each counts as possible and lost.
+    Gap(Gap),
+}
+
+/// Sample counts of a station by outcome, since start (one per `push`).
+#[derive(Clone, Copy, Debug, Default, PartialEq, Eq, Hash)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+pub struct PushTotals {
+    /// Accepted samples.
+    pub accepted: u64,
+    /// Rejected: same timestamp as the last accepted.
+    pub duplicate: u64,
+    /// Rejected: earlier than the last accepted.
+    pub backward: u64,
+    /// Rejected: in an interval already closed.
+    pub closed_interval: u64,
+    /// Rejected: outside the supported years.
+    pub unsupported_time: u64,
+    /// Of the rejected, those that arrived while no interval was open, so that
+    /// no interval record counts them.
+    pub unplaced: u64,
+}
+
+impl PushTotals {
+    /// All samples pushed.
+    pub const fn pushed(&self) -> u64 {
+        self.accepted
+            + self.duplicate
+            + self.backward
+            + self.closed_interval
+            + self.unsupported_time
+    }
+}
+
+/// A logging station: channels, the open interval, running recovery.
+///
+/// `C` is the number of channels, `G` the largest gust window in samples. The
+/// whole state has a fixed size known at compile time (see the crate docs).
+#[derive(Clone, Debug)]
+pub struct Station<const C: usize, const G: usize> {
+    layout: Layout<C>,
+    open: Option<IntervalAcc<C, G>>,
+    /// Index of the next interval not yet reported.
+    cursor: Option<i64>,
+    last: Option<Timestamp>,
+    recovery: [Recovery; C],
+    totals: PushTotals,
+}
+
+impl<const C: usize, const G: usize> Station<C, G> {
+    /// A station with nothing recorded yet.
+    pub const fn new(layout: Layout<C>) -> Self {
+        Station {
+            layout,
+            open: None,
+            cursor: None,
+            last: None,
+            recovery: [Recovery::new(); C],
+            totals: PushTotals {
+                accepted: 0,
+                duplicate: 0,
+                backward: 0,
+                closed_interval: 0,
+                unsupported_time: 0,
+                unplaced: 0,
+            },
+        }
+    }
+
+    /// The layout.
+    pub const fn layout(&self) -> &Layout<C> {
+        &self.layout
+    }
+
+    /// Running recovery of each channel (updated as intervals close).
+    pub const fn recovery(&self) -> &[Recovery; C] {
+        &self.recovery
+    }
+
+    /// Samples pushed, by outcome.
+    pub const fn totals(&self) -> &PushTotals {
+        &self.totals
+    }
+
+    /// The open interval, if any.
+    pub const fn open(&self) -> Option<&IntervalAcc<C, G>> {
+        self.open.as_ref()
+    }
+
+    /// Adds one sample: a time and one reading per channel. Closed intervals and
+    /// gaps that this sample ends are handed to `emit` first, in time order.
+    pub fn push<F>(&mut self, t: Timestamp, readings: &[Reading; C], mut emit: F) -> Pushed
+    where
+        F: FnMut(Event<'_, C, G>),
+    {
+        if let Some(reason) = self.check_time(t) {
+            match reason {
+                Reject::Duplicate => self.totals.duplicate += 1,
+                Reject::Backward => self.totals.backward += 1,
+                Reject::ClosedInterval => self.totals.closed_interval += 1,
+                Reject::UnsupportedTime => self.totals.unsupported_time += 1,
+            }
+            match &mut self.open {
+                Some(acc) => acc.reject(),
+                None => self.totals.unplaced += 1,
+            }
+            return Pushed::Rejected(reason);
+        }
+        let k = self.layout.interval_of(t);
+        if self.open.as_ref().map(IntervalAcc::index) != Some(k) {
+            self.close(&mut emit);
+            self.gap_to(k, &mut emit);
+            self.open = Some(IntervalAcc::new(&self.layout, k));
+        }
+        if let Some(acc) = &mut self.open {
+            acc.push(&self.layout, t, readings);
+        }
+        self.last = Some(t);
+        self.totals.accepted += 1;
+        Pushed::Accepted
+    }
+
+    fn check_time(&self, t: Timestamp) -> Option<Reject> {
+        if !t.is_supported() {
+            return Some(Reject::UnsupportedTime);
+        }
+        match self.last {
+            Some(last) if t == last => return Some(Reject::Duplicate),
+            Some(last) if t < last => return Some(Reject::Backward),
+            _ => {}
+        }
+        match self.cursor {
+            Some(c) if self.layout.interval_of(t) < c => Some(Reject::ClosedInterval),
+            _ => None,
+        }
+    }
+
+    /// Reports intervals before `k` not yet reported as one gap.
+    fn gap_to<F: FnMut(Event<'_, C, G>)>(&mut self, k: i64, emit: &mut F) {
+        let first = *self.cursor.get_or_insert(k);
+        if k > first {
+            let gap = Gap {
+                first,
+                count: (k - first) as u64,
+            };
+            let start = self.layout.interval_start(first);
+            for r in &mut self.recovery {
+                r.add_gap(
+                    start,
+                    gap.count,
+                    self.layout.interval_ms,
+                    self.layout.samples,
+                );
+            }
+            emit(Event::Gap(gap));
+        }
+        self.cursor = Some(k.max(first));
+    }
+
+    /// Closes the open interval, if any, and hands it to `emit` (end of data).
+    /// Later samples in that interval are rejected as [`Reject::ClosedInterval`].
+    pub fn close<F: FnMut(Event<'_, C, G>)>(&mut self, mut emit: F) {
+        if let Some(acc) = self.open.take() {
+            let start = self.layout.interval_start(acc.index);
+            for (r, ch) in self.recovery.iter_mut().zip(acc.channels.iter()) {
+                r.add_interval(start, self.layout.samples, ch.tally());
+            }
+            self.cursor = Some(acc.index + 1);
+            emit(Event::Closed(&acc));
+        }
+    }
+
+    /// Tells the station the time is `now` without a sample (a timer at an
+    /// interval boundary): closes the open interval if it has ended, and reports
+    /// intervals that have ended with no samples as a gap.
+    pub fn tick<F: FnMut(Event<'_, C, G>)>(&mut self, now: Timestamp, mut emit: F) {
+        if !now.is_supported() {
+            return;
+        }
+        let k = self.layout.interval_of(now);
+        if self.open.as_ref().is_some_and(|acc| acc.index < k) {
+            self.close(&mut emit);
+        }
+        if self.open.is_none() && self.cursor.is_some() {
+            self.gap_to(k, &mut emit);
+        }
+    }
+}
