@@ -9,6 +9,7 @@
 
 use crate::direction::{DirectionSums, ResultantSums};
 use crate::error::ChannelProblem;
+use crate::flags::{Flag, Flags};
 use crate::gust::Gust;
 use crate::moments::Moments;
 
@@ -538,6 +539,15 @@ impl<const G: usize> ChannelAcc<G> {
         speed: Option<&Channel>,
     ) -> ChannelRecord {
         let mut r = ChannelRecord::empty(ch.cfg.kind, n_possible, *self.tally());
+        let t = self.tally();
+        if u64::from(t.valid) + u64::from(t.missing) + u64::from(t.out_of_range)
+            < u64::from(n_possible)
+        {
+            r.flags.insert(Flag::Partial);
+        }
+        if t.rejected > 0 {
+            r.flags.insert(Flag::Clock);
+        }
         let n = self.tally().valid;
         let (scale, inv) = (ch.cfg.scale, ch.inv_step);
         match self {
@@ -695,6 +705,8 @@ pub struct ChannelRecord {
     pub resultant_speed: Stat,
     /// Speed-weighted resultant direction (direction with a linked speed).
     pub resultant_direction: Stat,
+    /// Screening flags.
+    pub flags: Flags,
 }
 
 impl ChannelRecord {
@@ -719,6 +731,7 @@ impl ChannelRecord {
             resultant_length: vector,
             resultant_speed: resultant,
             resultant_direction: resultant,
+            flags: Flags::EMPTY,
         }
     }
 }

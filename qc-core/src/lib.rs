@@ -86,6 +86,7 @@ pub mod angle;
 mod channel;
 pub mod direction;
 mod error;
+mod flags;
 pub mod gust;
 pub mod moments;
 mod recovery;
@@ -97,6 +98,7 @@ pub use channel::{
     LinkedDirectionAcc, Reading, ScalarAcc, Scale, SpeedAcc, Stat, Tally,
 };
 pub use error::{ChannelProblem, ConfigError};
+pub use flags::{Flag, Flags};
 pub use recovery::{Recovery, Totals};
 pub use station::{
     Event, Gap, IntervalAcc, Layout, PushTotals, Pushed, Reject, Sentinels, Station, StationConfig,
