@@ -9,9 +9,10 @@
 
 use crate::direction::{DirectionSums, ResultantSums};
 use crate::error::ChannelProblem;
-use crate::flags::{Flag, Flags};
+use crate::flags::Flags;
 use crate::gust::Gust;
 use crate::moments::Moments;
+use crate::screen::Screen;
 
 /// What a channel measures.
 #[derive(Clone, Copy, Debug, PartialEq, Eq, Hash)]
@@ -99,6 +100,8 @@ pub struct ChannelConfig {
     pub mounting_offset_deg: f64,
     /// Index of the speed channel that weights this direction's resultant vector.
     pub speed_channel: Option<u8>,
+    /// Screening settings (defaults by kind: [`Screen::for_kind`]).
+    pub screen: Screen,
 }
 
 impl ChannelConfig {
@@ -115,6 +118,7 @@ impl ChannelConfig {
             gust_window: 3,
             mounting_offset_deg: 0.0,
             speed_channel: None,
+            screen: Screen::for_kind(Kind::Speed),
         }
     }
 
@@ -130,6 +134,7 @@ impl ChannelConfig {
             gust_window: 1,
             mounting_offset_deg: 0.0,
             speed_channel: None,
+            screen: Screen::for_kind(Kind::Direction),
         }
     }
 
@@ -145,6 +150,7 @@ impl ChannelConfig {
             gust_window: 1,
             mounting_offset_deg: 0.0,
             speed_channel: None,
+            screen: Screen::for_kind(Kind::Scalar),
         }
     }
 
@@ -175,6 +181,12 @@ impl ChannelConfig {
         self
     }
 
+    /// Screening settings.
+    pub const fn with_screen(mut self, screen: Screen) -> Self {
+        self.screen = screen;
+        self
+    }
+
     /// Links a direction channel to the speed channel at `index`.
     pub const fn with_speed_channel(mut self, index: u8) -> Self {
         self.speed_channel = Some(index);
@@ -195,6 +207,8 @@ pub struct Channel {
     dir_mul: i64,
     dir_add: i64,
     offset_cd: i32,
+    /// Spike step limit in quanta (centidegrees for direction).
+    step_q: Option<i64>,
 }
 
 /// A reading after validation.
@@ -219,6 +233,7 @@ impl Channel {
             dir_mul: 0,
             dir_add: 0,
             offset_cd: 0,
+            step_q: None,
         }
     }
 
@@ -245,7 +260,39 @@ impl Channel {
             dir_mul: 0,
             dir_add: 0,
             offset_cd: 0,
+            step_q: None,
         };
+        let sc = &cfg.screen;
+        if let Some(l) = sc.step_limit {
+            if !(l.is_finite() && l >= 0.0) {
+                return Err(ChannelProblem::Screen);
+            }
+            let q = if cfg.kind == Kind::Direction {
+                l * 100.0
+            } else {
+                l / step
+            };
+            ch.step_q = Some(libm::floor(q.min(1e15)) as i64);
+        }
+        let finite_pair = |r: Option<(f64, f64)>| r.is_none_or(|(a, b)| a <= b);
+        if !finite_pair(sc.mean_range)
+            || !finite_pair(sc.sd_range)
+            || sc.gust_max.is_some_and(f64::is_nan)
+            || sc.min_recovery.is_some_and(|m| !(0.0..=1.0).contains(&m))
+            || [
+                sc.flat_tolerance,
+                sc.pair_mean_diff,
+                sc.pair_max_diff,
+                sc.shear_tolerance,
+            ]
+            .iter()
+            .any(|v| v.is_nan() || *v < 0.0)
+            || sc
+                .icing
+                .is_some_and(|i| i.max_temperature.is_nan() || i.min_humidity.is_nan())
+        {
+            return Err(ChannelProblem::Screen);
+        }
         match cfg.kind {
             Kind::Speed => {
                 let w = usize::from(cfg.gust_window);
@@ -276,6 +323,11 @@ impl Channel {
     /// The configuration this channel was built from.
     pub const fn config(&self) -> &ChannelConfig {
         &self.cfg
+    }
+
+    /// Spike step limit in quanta (centidegrees for direction).
+    pub(crate) const fn step_q(&self) -> Option<i64> {
+        self.step_q
     }
 
     /// Gust window in samples (0 for channels without a gust).
@@ -539,15 +591,6 @@ impl<const G: usize> ChannelAcc<G> {
         speed: Option<&Channel>,
     ) -> ChannelRecord {
         let mut r = ChannelRecord::empty(ch.cfg.kind, n_possible, *self.tally());
-        let t = self.tally();
-        if u64::from(t.valid) + u64::from(t.missing) + u64::from(t.out_of_range)
-            < u64::from(n_possible)
-        {
-            r.flags.insert(Flag::Partial);
-        }
-        if t.rejected > 0 {
-            r.flags.insert(Flag::Clock);
-        }
         let n = self.tally().valid;
         let (scale, inv) = (ch.cfg.scale, ch.inv_step);
         match self {
@@ -705,6 +748,8 @@ pub struct ChannelRecord {
     pub resultant_speed: Stat,
     /// Speed-weighted resultant direction (direction with a linked speed).
     pub resultant_direction: Stat,
+    /// Valid samples that changed from the previous one by more than the step limit.
+    pub spikes: u32,
     /// Screening flags.
     pub flags: Flags,
 }
@@ -731,6 +776,7 @@ impl ChannelRecord {
             resultant_length: vector,
             resultant_speed: resultant,
             resultant_direction: resultant,
+            spikes: 0,
             flags: Flags::EMPTY,
         }
     }

@@ -45,6 +45,12 @@ pub enum ChannelProblem {
     DirectionSlope,
     /// The mounting offset is not finite.
     MountingOffset,
+    /// A screening setting is out of its domain (NaN, negative limit, low end
+    /// above high end, recovery outside 0 to 1).
+    Screen,
+    /// A screening test names a channel that does not exist or is of the wrong
+    /// kind (partner and above: speed; icing: scalar temperature and humidity).
+    ScreenLink,
 }
 
 impl fmt::Display for ChannelProblem {
@@ -57,6 +63,8 @@ impl fmt::Display for ChannelProblem {
             ChannelProblem::SpeedLink => "linked speed channel must exist and be of kind speed",
             ChannelProblem::DirectionSlope => "direction calibration slope must be at most 300 degrees per count",
             ChannelProblem::MountingOffset => "mounting offset must be finite",
+            ChannelProblem::Screen => "screening setting out of range (NaN, negative limit, low above high, or recovery outside 0..1)",
+            ChannelProblem::ScreenLink => "screening names a missing channel or one of the wrong kind (partner/above: speed; icing: scalar temperature and humidity)",
         })
     }
 }

@@ -67,7 +67,12 @@
 //! | [`DirectionAcc`] (vane) | 32 |
 //! | [`LinkedDirectionAcc`] (vane with speed-weighted resultant) | 88 |
 //! | [`ScalarAcc`] | 48 |
-//! | [`Recovery`] (running recovery of one channel) | 96 |
+//! | [`Recovery`] (running recovery of one channel) | 128 |
+//! | [`screen::Spikes`] (spike test, one channel, one interval) | 16 |
+//! | [`Screener<1>`] (flat-line history, per channel) | 48 |
+//! | [`IntervalAcc<8, 3>`] (open interval, 8 channels, with spikes and flags) | 1,016 |
+//! | [`Layout<8>`] (validated configuration of 8 channels) | 2,384 |
+//! | [`Station<8, 3>`] (all of the above for 8 channels) | 4,888 |
 //!
 //! Each gust sample beyond 3 adds 8 bytes to a speed channel (4 in the running
 //! window, 4 in the head kept for exact merging). The sizes are asserted in
@@ -90,6 +95,7 @@ mod flags;
 pub mod gust;
 pub mod moments;
 mod recovery;
+pub mod screen;
 mod station;
 pub mod time;
 
@@ -100,6 +106,7 @@ pub use channel::{
 pub use error::{ChannelProblem, ConfigError};
 pub use flags::{Flag, Flags};
 pub use recovery::{Recovery, Totals};
+pub use screen::{Icing, Screen, Screener};
 pub use station::{
     Event, Gap, IntervalAcc, Layout, PushTotals, Pushed, Reject, Sentinels, Station, StationConfig,
     MAX_SAMPLES_PER_INTERVAL, MAX_SENTINELS,
@@ -117,7 +124,12 @@ mod tests {
         assert_eq!(size_of::<DirectionAcc>(), 32);
         assert_eq!(size_of::<LinkedDirectionAcc>(), 88);
         assert_eq!(size_of::<ScalarAcc>(), 48);
-        assert_eq!(size_of::<Recovery>(), 96);
+        assert_eq!(size_of::<Recovery>(), 128);
+        assert_eq!(size_of::<screen::Spikes>(), 16);
+        assert_eq!(size_of::<Screener<1>>(), 48);
+        assert_eq!(size_of::<IntervalAcc<8, 3>>(), 1016);
+        assert_eq!(size_of::<Layout<8>>(), 2384);
+        assert_eq!(size_of::<Station<8, 3>>(), 4888);
         // The budgets: speed with a 3-sample window <= 96, direction <= 64.
         assert!(size_of::<SpeedAcc<3>>() <= 96);
         assert!(size_of::<DirectionAcc>() <= 64);

@@ -22,12 +22,22 @@ pub struct Totals {
     pub out_of_range: u64,
     /// Samples rejected for their timestamp.
     pub rejected: u64,
+    /// Intervals in the span (possible intervals).
+    pub intervals: u64,
+    /// Intervals with valid samples that passed screening
+    /// ([`crate::screen::passes`]).
+    pub passed: u64,
 }
 
 impl Totals {
     /// Valid / possible, or `None` when nothing was possible.
     pub fn rate(&self) -> Option<f64> {
         (self.possible > 0).then(|| self.valid as f64 / self.possible as f64)
+    }
+
+    /// Passed intervals / possible intervals, or `None` when there were none.
+    pub fn interval_rate(&self) -> Option<f64> {
+        (self.intervals > 0).then(|| self.passed as f64 / self.intervals as f64)
     }
 
     /// Possible samples never recorded at all: possible minus valid, missing and
@@ -39,8 +49,10 @@ impl Totals {
             .saturating_sub(self.out_of_range)
     }
 
-    /// Adds one interval's tally.
-    pub fn add(&mut self, possible: u32, t: &Tally) {
+    /// Adds one interval's tally; `passed` if it passed screening.
+    pub fn add(&mut self, possible: u32, t: &Tally, passed: bool) {
+        self.intervals += 1;
+        self.passed += u64::from(passed);
         self.possible += u64::from(possible);
         self.valid += u64::from(t.valid);
         self.missing += u64::from(t.missing);
@@ -55,6 +67,8 @@ impl Totals {
         self.missing += o.missing;
         self.out_of_range += o.out_of_range;
         self.rejected += o.rejected;
+        self.intervals += o.intervals;
+        self.passed += o.passed;
     }
 }
 
@@ -80,6 +94,8 @@ impl Recovery {
                 missing: 0,
                 out_of_range: 0,
                 rejected: 0,
+                intervals: 0,
+                passed: 0,
             },
             this_month: Totals {
                 possible: 0,
@@ -87,6 +103,8 @@ impl Recovery {
                 missing: 0,
                 out_of_range: 0,
                 rejected: 0,
+                intervals: 0,
+                passed: 0,
             },
             month: None,
         }
@@ -104,11 +122,11 @@ impl Recovery {
         }
     }
 
-    /// Adds a closed interval starting at `start`.
-    pub fn add_interval(&mut self, start: Timestamp, possible: u32, t: &Tally) {
-        self.since_start.add(possible, t);
+    /// Adds a closed interval starting at `start`; `passed` if it passed screening.
+    pub fn add_interval(&mut self, start: Timestamp, possible: u32, t: &Tally, passed: bool) {
+        self.since_start.add(possible, t, passed);
         self.enter_month(start.month());
-        self.this_month.add(possible, t);
+        self.this_month.add(possible, t, passed);
     }
 
     /// Adds `count` intervals with no samples at all, the first starting at
@@ -118,12 +136,14 @@ impl Recovery {
             return;
         }
         self.since_start.possible += count * u64::from(possible);
+        self.since_start.intervals += count;
         let last = first.millis() + (count as i64 - 1) * interval_ms;
         let month = Timestamp::from_millis(last).month();
         let from = first.millis().max(month.start().millis());
         let in_month = ((last - from) / interval_ms + 1) as u64;
         self.enter_month(month);
         self.this_month.possible += in_month * u64::from(possible);
+        self.this_month.intervals += in_month;
     }
 }
 
@@ -152,14 +172,14 @@ mod tests {
             valid: 600,
             ..Tally::default()
         };
-        r.add_interval(at(2024, 1, 31, 23), 600, &tally);
+        r.add_interval(at(2024, 1, 31, 23), 600, &tally, true);
         // From 2024-01-31 23:10 to 2024-02-01 00:50: 5 intervals in January, 6 in February.
         let first = Timestamp::from_millis(at(2024, 1, 31, 23).millis() + 600_000);
         r.add_gap(first, 11, 600_000, 600);
         assert_eq!(r.since_start.possible, 12 * 600);
         assert_eq!(r.this_month.possible, 6 * 600);
         assert_eq!(r.month().unwrap().month, 2);
-        r.add_interval(at(2024, 2, 1, 1), 600, &tally);
+        r.add_interval(at(2024, 2, 1, 1), 600, &tally, false);
         assert_eq!(r.this_month.possible, 7 * 600);
         assert_eq!(r.this_month.valid, 600);
     }

@@ -21,8 +21,10 @@
 //! Nothing here panics, whatever the input.
 
 use crate::channel::{Channel, ChannelAcc, ChannelConfig, ChannelRecord, Class, Reading};
-use crate::error::ConfigError;
+use crate::error::{ChannelProblem, ConfigError};
+use crate::flags::Flags;
 use crate::recovery::Recovery;
+use crate::screen::{interval_flags, passes, Screener, Spikes};
 use crate::time::Timestamp;
 
 /// Most missing-value codes a station may have.
@@ -134,6 +136,22 @@ impl<const C: usize> Layout<C> {
             let index = i as u8;
             *slot =
                 Channel::new(*cfg, G).map_err(|problem| ConfigError::Channel { index, problem })?;
+            let is = |idx: Option<u8>, kind: crate::Kind| {
+                idx.is_none_or(|j| channels.get(usize::from(j)).is_some_and(|c| c.kind == kind))
+            };
+            let sc = &cfg.screen;
+            let links_ok = is(sc.partner, crate::Kind::Speed)
+                && is(sc.above, crate::Kind::Speed)
+                && sc.icing.is_none_or(|ice| {
+                    is(Some(ice.temperature), crate::Kind::Scalar)
+                        && is(Some(ice.humidity), crate::Kind::Scalar)
+                });
+            if !links_ok {
+                return Err(ConfigError::Channel {
+                    index,
+                    problem: ChannelProblem::ScreenLink,
+                });
+            }
             if let Some(s) = cfg.speed_channel {
                 let ok = channels
                     .get(usize::from(s))
@@ -142,7 +160,7 @@ impl<const C: usize> Layout<C> {
                 if !ok {
                     return Err(ConfigError::Channel {
                         index,
-                        problem: crate::error::ChannelProblem::SpeedLink,
+                        problem: ChannelProblem::SpeedLink,
                     });
                 }
             }
@@ -187,7 +205,13 @@ impl<const C: usize> Layout<C> {
         dt > self.max_step_ms
     }
 
-    /// Finished statistics of channel `ch` of `acc`; `None` if `ch >= C`.
+    /// Finished statistics of channel `ch` of `acc`, with its screening flags;
+    /// `None` if `ch >= C`.
+    ///
+    /// The flags of the channel's own interval tests are always set; flags that
+    /// need other channels or earlier intervals (flat-line, pair mismatch, shear,
+    /// icing) are set once the interval has been screened ([`Layout::screen`]),
+    /// which [`Station`] does before it hands an interval out.
     pub fn finish<const G: usize>(
         &self,
         acc: &IntervalAcc<C, G>,
@@ -198,7 +222,37 @@ impl<const C: usize> Layout<C> {
             .config()
             .speed_channel
             .and_then(|s| self.channels.get(usize::from(s)));
-        Some(acc.channels.get(ch)?.finish(channel, self.samples, speed))
+        let mut r = acc.channels.get(ch)?.finish(channel, self.samples, speed);
+        r.spikes = acc.spikes[ch].count();
+        r.flags = Flags::from_bits(
+            interval_flags(&r, &channel.config().screen, r.spikes).bits() | acc.flags[ch].bits(),
+        );
+        Some(r)
+    }
+
+    /// Finished records of every channel of `acc`.
+    pub fn finish_all<const G: usize>(&self, acc: &IntervalAcc<C, G>) -> [ChannelRecord; C] {
+        core::array::from_fn(|i| {
+            // `i < C`, so `finish` always has a record; the fallback is never used.
+            self.finish(acc, i)
+                .unwrap_or_else(|| acc.channels[i].finish(&self.channels[i], self.samples, None))
+        })
+    }
+
+    /// Runs the cross-interval and cross-channel tests on a complete interval
+    /// and stores their flags in it. Intervals must be screened in time order
+    /// with one `screener`; returns the finished, flagged records.
+    pub fn screen<const G: usize>(
+        &self,
+        screener: &mut Screener<C>,
+        acc: &mut IntervalAcc<C, G>,
+    ) -> [ChannelRecord; C] {
+        let mut records = self.finish_all(acc);
+        screener.screen(acc.index, self.interval_ms, &self.channels, &mut records);
+        for (f, r) in acc.flags.iter_mut().zip(records.iter()) {
+            *f = r.flags;
+        }
+        records
     }
 }
 
@@ -210,6 +264,8 @@ pub struct IntervalAcc<const C: usize, const G: usize> {
     first: Option<Timestamp>,
     last: Option<Timestamp>,
     channels: [ChannelAcc<G>; C],
+    spikes: [Spikes; C],
+    flags: [Flags; C],
 }
 
 impl<const C: usize, const G: usize> IntervalAcc<C, G> {
@@ -220,6 +276,8 @@ impl<const C: usize, const G: usize> IntervalAcc<C, G> {
             first: None,
             last: None,
             channels: core::array::from_fn(|i| ChannelAcc::new(&layout.channels[i])),
+            spikes: [Spikes::default(); C],
+            flags: [Flags::EMPTY; C],
         }
     }
 
@@ -249,6 +307,9 @@ impl<const C: usize, const G: usize> IntervalAcc<C, G> {
                 for c in &mut self.channels {
                     c.break_run();
                 }
+                for s in &mut self.spikes {
+                    s.break_chain();
+                }
             }
         }
         if self.first.is_none() {
@@ -264,6 +325,14 @@ impl<const C: usize, const G: usize> IntervalAcc<C, G> {
                 .speed_channel
                 .and_then(|s| classes.get(usize::from(s)).copied());
             acc.push(classes[i], ch.window(), speed);
+            if let Some(limit) = ch.step_q() {
+                match classes[i] {
+                    Class::Valid(q) => {
+                        self.spikes[i].push(q, limit, ch.config().kind == crate::Kind::Direction)
+                    }
+                    _ => self.spikes[i].break_chain(),
+                }
+            }
         }
     }
 
@@ -287,7 +356,12 @@ impl<const C: usize, const G: usize> IntervalAcc<C, G> {
             .zip(later.channels.iter())
             .enumerate()
         {
-            a.merge(b, layout.channels[i].window(), joined);
+            let ch = &layout.channels[i];
+            a.merge(b, ch.window(), joined);
+            let circular = ch.config().kind == crate::Kind::Direction;
+            let limit = ch.step_q().unwrap_or(i64::MAX);
+            self.spikes[i].merge(&later.spikes[i], limit, circular, joined);
+            self.flags[i] = Flags::from_bits(self.flags[i].bits() | later.flags[i].bits());
         }
         if self.first.is_none() {
             self.first = later.first;
@@ -385,6 +459,7 @@ pub struct Station<const C: usize, const G: usize> {
     cursor: Option<i64>,
     last: Option<Timestamp>,
     recovery: [Recovery; C],
+    screener: Screener<C>,
     totals: PushTotals,
 }
 
@@ -397,6 +472,7 @@ impl<const C: usize, const G: usize> Station<C, G> {
             cursor: None,
             last: None,
             recovery: [Recovery::new(); C],
+            screener: Screener::new(),
             totals: PushTotals {
                 accepted: 0,
                 duplicate: 0,
@@ -501,10 +577,11 @@ impl<const C: usize, const G: usize> Station<C, G> {
     /// Closes the open interval, if any, and hands it to `emit` (end of data).
     /// Later samples in that interval are rejected as [`Reject::ClosedInterval`].
     pub fn close<F: FnMut(Event<'_, C, G>)>(&mut self, mut emit: F) {
-        if let Some(acc) = self.open.take() {
+        if let Some(mut acc) = self.open.take() {
             let start = self.layout.interval_start(acc.index);
-            for (r, ch) in self.recovery.iter_mut().zip(acc.channels.iter()) {
-                r.add_interval(start, self.layout.samples, ch.tally());
+            let records = self.layout.screen(&mut self.screener, &mut acc);
+            for (r, rec) in self.recovery.iter_mut().zip(records.iter()) {
+                r.add_interval(start, self.layout.samples, &rec.tally, passes(rec));
             }
             self.cursor = Some(acc.index + 1);
             emit(Event::Closed(&acc));
