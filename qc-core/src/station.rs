@@ -336,6 +336,12 @@ impl<const C: usize, const G: usize> IntervalAcc<C, G> {
         }
     }
 
+    /// Clears the flags set by [`Layout::screen`] (a piece screened on its own
+    /// must be screened again once complete, in time order).
+    pub fn clear_flags(&mut self) {
+        self.flags = [Flags::EMPTY; C];
+    }
+
     /// Counts one sample rejected for its timestamp, on every channel.
     pub fn reject(&mut self) {
         for c in &mut self.channels {
@@ -344,7 +350,11 @@ impl<const C: usize, const G: usize> IntervalAcc<C, G> {
     }
 
     /// Merges `later`, a piece of the same interval whose samples all follow this
-    /// piece's. Gust windows straddling the join are found exactly.
+    /// piece's. Gust windows and spikes straddling the join are found exactly.
+    ///
+    /// Screening flags from other channels and earlier intervals are cleared:
+    /// screen the merged interval again ([`Layout::screen`]), in time order with
+    /// the other intervals, to get them back.
     pub fn merge(&mut self, layout: &Layout<C>, later: &Self) {
         let joined = match (self.last, later.first) {
             (Some(a), Some(b)) => !layout.is_gap(b.millis().saturating_sub(a.millis())),
@@ -361,8 +371,8 @@ impl<const C: usize, const G: usize> IntervalAcc<C, G> {
             let circular = ch.config().kind == crate::Kind::Direction;
             let limit = ch.step_q().unwrap_or(i64::MAX);
             self.spikes[i].merge(&later.spikes[i], limit, circular, joined);
-            self.flags[i] = Flags::from_bits(self.flags[i].bits() | later.flags[i].bits());
         }
+        self.clear_flags();
         if self.first.is_none() {
             self.first = later.first;
         }
