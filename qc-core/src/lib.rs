@@ -87,6 +87,7 @@
 #![forbid(unsafe_code)]
 #![deny(missing_docs)]
 
+pub mod analysis;
 pub mod angle;
 mod channel;
 pub mod direction;
