@@ -22,6 +22,18 @@ use crate::moments::Wide;
 /// direction is meaningless when the vectors cancel).
 pub const MIN_RESULTANT: f64 = 1e-6;
 
+/// Largest `1 - r^2` (`r` the mean resultant length) still read as "every
+/// direction the same", for which sigma-theta is reported as exactly 0.
+///
+/// Each Q30 unit vector is within `2^-29` of the true one (about `1.6e-9` at
+/// worst over the whole 0.01-degree grid), so for directions that all agree `r`
+/// comes out within `2^-29` of 1 and `1 - r^2` within `2^-28` of 0, which
+/// Yamartino's formula would turn into a sigma-theta of up to 0.0035 degrees
+/// (0.0003 degrees for a constant 10 degrees). Below this floor the spread
+/// cannot be told from table rounding; it is also far below any vane's
+/// resolution (1 degree, EPA-454/R-99-005 Table 5-1).
+pub const SPREAD_FLOOR: f64 = 1.0 / (1u64 << 28) as f64;
+
 /// Unit-vector sums of the valid directions in an interval.
 #[derive(Clone, Copy, Debug, Default, PartialEq, Eq, Hash)]
 #[cfg_attr(feature = "defmt", derive(defmt::Format))]
@@ -73,9 +85,14 @@ impl DirectionSums {
         let r2 = sa * sa + ca * ca;
         let r = libm::sqrt(r2);
         let mean_deg = (r >= MIN_RESULTANT).then(|| normalise_deg(to_deg(libm::atan2(sa, ca))));
+        let sigma_deg = if 1.0 - r2 <= SPREAD_FLOOR {
+            0.0
+        } else {
+            yamartino_deg(r2)
+        };
         Some(DirectionStats {
             mean_deg,
-            sigma_deg: yamartino_deg(r2),
+            sigma_deg,
             resultant_length: r.min(1.0),
         })
     }
