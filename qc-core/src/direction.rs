@@ -48,7 +48,8 @@ pub struct DirectionSums {
 pub struct DirectionStats {
     /// Unit-vector mean direction in [0, 360), `None` when the vectors cancel.
     pub mean_deg: Option<f64>,
-    /// Yamartino sigma-theta, degrees.
+    /// Yamartino sigma-theta, degrees (exactly 0 when `1 - r^2` is at most
+    /// [`SPREAD_FLOOR`]).
     pub sigma_deg: f64,
     /// Mean resultant length of the unit vectors, 0 to 1.
     pub resultant_length: f64,

@@ -468,6 +468,8 @@ pub struct Station<const C: usize, const G: usize> {
     /// Index of the next interval not yet reported.
     cursor: Option<i64>,
     last: Option<Timestamp>,
+    /// End (ms, exclusive) of the open interval; `i64::MIN` when none is open.
+    open_end: i64,
     recovery: [Recovery; C],
     screener: Screener<C>,
     totals: PushTotals,
@@ -481,6 +483,7 @@ impl<const C: usize, const G: usize> Station<C, G> {
             open: None,
             cursor: None,
             last: None,
+            open_end: i64::MIN,
             recovery: [Recovery::new(); C],
             screener: Screener::new(),
             totals: PushTotals {
@@ -533,11 +536,13 @@ impl<const C: usize, const G: usize> Station<C, G> {
             }
             return Pushed::Rejected(reason);
         }
-        let k = self.layout.interval_of(t);
-        if self.open.as_ref().map(IntervalAcc::index) != Some(k) {
+        // Steady state: the sample falls in the open interval (no division).
+        if t.millis() >= self.open_end {
+            let k = self.layout.interval_of(t);
             self.close(&mut emit);
             self.gap_to(k, &mut emit);
             self.open = Some(IntervalAcc::new(&self.layout, k));
+            self.open_end = self.layout.interval_start(k + 1).millis();
         }
         if let Some(acc) = &mut self.open {
             acc.push(&self.layout, t, readings);
@@ -555,6 +560,10 @@ impl<const C: usize, const G: usize> Station<C, G> {
             Some(last) if t == last => return Some(Reject::Duplicate),
             Some(last) if t < last => return Some(Reject::Backward),
             _ => {}
+        }
+        if self.open.is_some() {
+            // After the last accepted sample, which lies in the open interval.
+            return None;
         }
         match self.cursor {
             Some(c) if self.layout.interval_of(t) < c => Some(Reject::ClosedInterval),
@@ -587,6 +596,7 @@ impl<const C: usize, const G: usize> Station<C, G> {
     /// Closes the open interval, if any, and hands it to `emit` (end of data).
     /// Later samples in that interval are rejected as [`Reject::ClosedInterval`].
     pub fn close<F: FnMut(Event<'_, C, G>)>(&mut self, mut emit: F) {
+        self.open_end = i64::MIN;
         if let Some(mut acc) = self.open.take() {
             let start = self.layout.interval_start(acc.index);
             let records = self.layout.screen(&mut self.screener, &mut acc);
