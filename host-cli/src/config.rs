@@ -1,0 +1,640 @@
+//! The station file (TOML): read, check, and turn into `qc-core` configurations.
+//!
+//! ```toml
+//! [logging]
+//! interval_s = 600            # default 600; must divide 86400
+//! sample_rate_hz = 1          # required; interval_s * rate must be whole
+//! missing_values = [-999, -9999]   # default; at most 4
+//!
+//! [station]
+//! name = "Example ridge"      # optional
+//!
+//! [[channel]]
+//! id = "ws80a"                # letters, digits, _ - . ; the samples' column name
+//! kind = "speed"              # speed | direction | scalar
+//! unit = "m/s"
+//! height_m = 80
+//! range = [0, 75]
+//! resolution = 0.01           # or slope (+ offset) when the column holds raw counts
+//! gust_window_s = 3           # speed only, default 3
+//! ```
+//!
+//! Direction channels take `offset_deg` (mounting offset) and `speed_channel`
+//! (the id of the anemometer that weights the resultant vector). Unknown keys
+//! are errors naming the key and its line.
+//!
+//! Adding an optional per-channel key: add an `Option<Spanned<T>>` field to
+//! [`RawChannel`] and apply it in [`build_channel`] (screening settings go in
+//! the marked place there); spans give the line for error messages.
+
+use std::ops::Range;
+use std::path::{Path, PathBuf};
+
+use anyhow::{anyhow, bail, Context, Result};
+use qc_core::{ChannelConfig, ConfigError, Kind, Layout, StationConfig, MAX_SENTINELS};
+use serde::Deserialize;
+use toml::Spanned;
+
+/// Most channels a station may have in this build.
+pub const MAX_CHANNELS: usize = 32;
+/// Gust-window capacity in samples of this build (the core's `G`).
+pub const GUST_CAPACITY: usize = 64;
+
+#[derive(Deserialize)]
+#[serde(deny_unknown_fields)]
+struct RawFile {
+    logging: Spanned<RawLogging>,
+    station: Option<RawStation>,
+    #[serde(default)]
+    channel: Vec<Spanned<RawChannel>>,
+}
+
+#[derive(Deserialize)]
+#[serde(deny_unknown_fields)]
+struct RawLogging {
+    interval_s: Option<Spanned<u32>>,
+    sample_rate_hz: Spanned<f64>,
+    missing_values: Option<Spanned<Vec<f64>>>,
+}
+
+#[derive(Deserialize)]
+#[serde(deny_unknown_fields)]
+struct RawStation {
+    name: Option<String>,
+}
+
+#[derive(Clone, Copy, Deserialize)]
+#[serde(rename_all = "lowercase")]
+enum RawKind {
+    Speed,
+    Direction,
+    Scalar,
+}
+
+/// One `[[channel]]` table as written.
+#[derive(Deserialize)]
+#[serde(deny_unknown_fields)]
+struct RawChannel {
+    id: Spanned<String>,
+    kind: Spanned<RawKind>,
+    unit: Option<String>,
+    height_m: Option<Spanned<f64>>,
+    range: Option<Spanned<[f64; 2]>>,
+    resolution: Option<Spanned<f64>>,
+    gust_window_s: Option<Spanned<f64>>,
+    offset_deg: Option<Spanned<f64>>,
+    speed_channel: Option<Spanned<String>>,
+    slope: Option<Spanned<f64>>,
+    offset: Option<Spanned<f64>>,
+}
+
+/// How a channel's sample column is read.
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+pub enum Decode {
+    /// Engineering values (decimal numbers).
+    Value,
+    /// Raw integer counts, calibrated by the core.
+    Counts,
+}
+
+/// One channel of the station file, checked. Some fields are informational,
+/// kept for commands that describe the station.
+#[allow(dead_code)]
+#[derive(Clone, Debug)]
+pub struct ChannelSpec {
+    /// Column name in the samples, channel name in the records.
+    pub id: String,
+    /// What it measures.
+    pub kind: Kind,
+    /// Unit, as written (informational).
+    pub unit: Option<String>,
+    /// Height above ground, m (informational).
+    pub height_m: Option<f64>,
+    /// How the samples column is read.
+    pub decode: Decode,
+    /// The core's configuration.
+    pub core: ChannelConfig,
+    /// Line of the `[[channel]]` table.
+    pub line: usize,
+}
+
+/// A checked station file.
+#[allow(dead_code)]
+#[derive(Clone, Debug)]
+pub struct StationFile {
+    /// Where it was read from.
+    pub path: PathBuf,
+    /// `[station] name`, if given.
+    pub name: Option<String>,
+    /// Sampling rate, Hz.
+    pub sample_rate_hz: f64,
+    /// The core's station-wide settings.
+    pub station: StationConfig,
+    /// Channels, in file order.
+    pub channels: Vec<ChannelSpec>,
+}
+
+/// Reads and checks a station file.
+pub fn load(path: &Path) -> Result<StationFile> {
+    let bytes = std::fs::read(path)
+        .with_context(|| format!("cannot read station file {}", path.display()))?;
+    let text = String::from_utf8(bytes).map_err(|e| {
+        let line = 1 + e.as_bytes()[..e.utf8_error().valid_up_to()]
+            .iter()
+            .filter(|b| **b == b'\n')
+            .count();
+        anyhow!("{}:{line}: not valid UTF-8", path.display())
+    })?;
+    parse(path, &text)
+}
+
+/// Checks a station file given as text; `path` is used in messages.
+pub fn parse(path: &Path, text: &str) -> Result<StationFile> {
+    let raw: RawFile = toml::from_str(text)
+        .map_err(|e| anyhow!("{}: {}", path.display(), e.to_string().trim_end()))?;
+    let at = Locator { path, text };
+    let logging = raw.logging.get_ref();
+
+    let interval_s = logging.interval_s.as_ref().map_or(600, |s| *s.get_ref());
+    if interval_s == 0 || 86_400 % interval_s != 0 {
+        let span = logging
+            .interval_s
+            .as_ref()
+            .map_or(raw.logging.span(), |s| s.span());
+        bail!(at.err(
+            span,
+            "`interval_s` must divide 86400 (a day) evenly, such as 600 for 10 minutes"
+        ));
+    }
+    let rate = *logging.sample_rate_hz.get_ref();
+    let n = f64::from(interval_s) * rate;
+    if !(rate.is_finite() && rate > 0.0) || (n - n.round()).abs() > 1e-9 * n.max(1.0) || n < 1.0 {
+        bail!(at.err(
+            logging.sample_rate_hz.span(),
+            &format!("`sample_rate_hz` {rate} times `interval_s` {interval_s} must be a whole number of samples")
+        ));
+    }
+    if n.round() > f64::from(qc_core::MAX_SAMPLES_PER_INTERVAL) {
+        bail!(at.err(
+            logging.sample_rate_hz.span(),
+            &format!(
+                "{n} samples per interval: at most {}",
+                qc_core::MAX_SAMPLES_PER_INTERVAL
+            )
+        ));
+    }
+    let samples_per_interval = n.round() as u32;
+
+    let mut missing_values = [None; MAX_SENTINELS];
+    match &logging.missing_values {
+        None => {
+            missing_values[0] = Some(-999.0);
+            missing_values[1] = Some(-9999.0);
+        }
+        Some(list) => {
+            if list.get_ref().len() > MAX_SENTINELS {
+                bail!(at.err(
+                    list.span(),
+                    &format!("`missing_values`: at most {MAX_SENTINELS} codes")
+                ));
+            }
+            for (slot, v) in missing_values.iter_mut().zip(list.get_ref()) {
+                if !v.is_finite() {
+                    bail!(at.err(list.span(), "`missing_values` must be finite numbers"));
+                }
+                *slot = Some(*v);
+            }
+        }
+    }
+    let station = StationConfig {
+        interval_s,
+        samples_per_interval,
+        missing_values,
+    };
+
+    if raw.channel.is_empty() {
+        bail!(
+            "{}: no [[channel]] tables: the station needs at least one channel",
+            path.display()
+        );
+    }
+    if raw.channel.len() > MAX_CHANNELS {
+        bail!(
+            "{}: {} channels: at most {MAX_CHANNELS} are supported",
+            path.display(),
+            raw.channel.len()
+        );
+    }
+    // Ids first, so that speed_channel can name a later channel.
+    let mut ids: Vec<&str> = Vec::with_capacity(raw.channel.len());
+    for ch in &raw.channel {
+        let id = ch.get_ref().id.get_ref().as_str();
+        let span = ch.get_ref().id.span();
+        if id.is_empty()
+            || !id
+                .bytes()
+                .all(|b| b.is_ascii_alphanumeric() || b"_-.".contains(&b))
+        {
+            bail!(at.err(
+                span,
+                &format!("channel id {id:?}: use letters, digits, '_', '-' or '.'")
+            ));
+        }
+        if id == "time" {
+            bail!(at.err(span, "channel id \"time\" is taken by the time column"));
+        }
+        if ids.contains(&id) {
+            bail!(at.err(span, &format!("channel id {id:?} appears twice")));
+        }
+        ids.push(id);
+    }
+    let kinds: Vec<RawKind> = raw
+        .channel
+        .iter()
+        .map(|c| *c.get_ref().kind.get_ref())
+        .collect();
+    let mut channels = Vec::with_capacity(raw.channel.len());
+    for ch in &raw.channel {
+        channels.push(build_channel(&at, ch, rate, &ids, &kinds)?);
+    }
+    let file = StationFile {
+        path: path.to_path_buf(),
+        name: raw.station.and_then(|s| s.name),
+        sample_rate_hz: rate,
+        station,
+        channels,
+    };
+    // Let the core validate everything it checks, once, here.
+    file.layout::<MAX_CHANNELS>()?;
+    Ok(file)
+}
+
+struct Locator<'a> {
+    path: &'a Path,
+    text: &'a str,
+}
+
+impl Locator<'_> {
+    fn line(&self, span: &Range<usize>) -> usize {
+        let end = span.start.min(self.text.len());
+        1 + self.text.as_bytes()[..end]
+            .iter()
+            .filter(|b| **b == b'\n')
+            .count()
+    }
+
+    fn err(&self, span: Range<usize>, msg: &str) -> anyhow::Error {
+        anyhow!("{}:{}: {msg}", self.path.display(), self.line(&span))
+    }
+}
+
+fn kind_name(k: RawKind) -> &'static str {
+    match k {
+        RawKind::Speed => "speed",
+        RawKind::Direction => "direction",
+        RawKind::Scalar => "scalar",
+    }
+}
+
+fn build_channel(
+    at: &Locator<'_>,
+    spanned: &Spanned<RawChannel>,
+    rate: f64,
+    ids: &[&str],
+    kinds: &[RawKind],
+) -> Result<ChannelSpec> {
+    let raw = spanned.get_ref();
+    let id = raw.id.get_ref();
+    let rk = *raw.kind.get_ref();
+    let err = |span: Range<usize>, msg: String| at.err(span, &format!("channel {id:?}: {msg}"));
+    let only = |key: &str, span: Option<Range<usize>>, allowed: bool, what: &str| -> Result<()> {
+        match span {
+            Some(s) if !allowed => Err(err(
+                s,
+                format!(
+                    "`{key}` applies to {what} channels only, not {}",
+                    kind_name(rk)
+                ),
+            )),
+            _ => Ok(()),
+        }
+    };
+    let is_speed = matches!(rk, RawKind::Speed);
+    let is_dir = matches!(rk, RawKind::Direction);
+    only(
+        "gust_window_s",
+        raw.gust_window_s.as_ref().map(Spanned::span),
+        is_speed,
+        "speed",
+    )?;
+    only(
+        "offset_deg",
+        raw.offset_deg.as_ref().map(Spanned::span),
+        is_dir,
+        "direction",
+    )?;
+    only(
+        "speed_channel",
+        raw.speed_channel.as_ref().map(Spanned::span),
+        is_dir,
+        "direction",
+    )?;
+    if let (Some(r), Some(_)) = (&raw.resolution, &raw.slope) {
+        return Err(err(
+            r.span(),
+            "give `resolution` for values or `slope` (and `offset`) for raw counts, not both"
+                .into(),
+        ));
+    }
+    if let (Some(o), None) = (&raw.offset, &raw.slope) {
+        return Err(err(
+            o.span(),
+            "`offset` is a calibration offset and needs `slope`".into(),
+        ));
+    }
+    if is_dir {
+        if let Some(r) = &raw.resolution {
+            return Err(err(
+                r.span(),
+                "direction values are kept to 0.01 degree; `resolution` applies to speed and scalar (use `slope` for raw counts)".into(),
+            ));
+        }
+    }
+    let num = |key: &str, v: &Spanned<f64>| -> Result<f64> {
+        let x = *v.get_ref();
+        if x.is_finite() {
+            Ok(x)
+        } else {
+            Err(err(v.span(), format!("`{key}` must be a finite number")))
+        }
+    };
+    let calibration = match &raw.slope {
+        Some(s) => {
+            let slope = num("slope", s)?;
+            let offset = raw.offset.as_ref().map(|o| num("offset", o)).transpose()?;
+            Some((slope, offset.unwrap_or(0.0)))
+        }
+        None => None,
+    };
+    let table = spanned.span();
+    let (kind, mut core) = match rk {
+        RawKind::Speed | RawKind::Scalar => {
+            let step = match (&raw.resolution, calibration) {
+                (Some(r), _) => num("resolution", r)?,
+                (None, Some((slope, _))) => slope,
+                (None, None) => {
+                    return Err(err(
+                        table,
+                        format!(
+                            "`resolution` is required for {} channels (or `slope` for raw counts)",
+                            kind_name(rk)
+                        ),
+                    ))
+                }
+            };
+            if is_speed {
+                (Kind::Speed, ChannelConfig::speed(step))
+            } else {
+                (Kind::Scalar, ChannelConfig::scalar(step))
+            }
+        }
+        RawKind::Direction => (Kind::Direction, ChannelConfig::direction()),
+    };
+    if let Some((slope, offset)) = calibration {
+        core = core.with_calibration(slope, offset);
+    }
+    if let Some(r) = &raw.range {
+        let [lo, hi] = *r.get_ref();
+        if !(lo.is_finite() && hi.is_finite() && lo <= hi) {
+            return Err(err(
+                r.span(),
+                "`range` must be [low, high] with finite low <= high".into(),
+            ));
+        }
+        core = core.with_range(lo, hi);
+    }
+    if is_speed {
+        let secs = match &raw.gust_window_s {
+            Some(g) => num("gust_window_s", g)?,
+            None => 3.0,
+        };
+        let w = secs * rate;
+        let span = raw
+            .gust_window_s
+            .as_ref()
+            .map_or(table.clone(), Spanned::span);
+        if w.is_nan() || w < 1.0 || (w - w.round()).abs() > 1e-9 * w {
+            return Err(err(
+                span,
+                format!("gust window {secs} s at {rate} Hz must be a whole number of samples, at least 1"),
+            ));
+        }
+        if w.round() > GUST_CAPACITY as f64 {
+            return Err(err(
+                span,
+                format!(
+                    "gust window of {} samples: at most {GUST_CAPACITY} are supported",
+                    w.round()
+                ),
+            ));
+        }
+        core = core.with_gust_window(w.round() as u16);
+    }
+    if let Some(o) = &raw.offset_deg {
+        core = core.with_mounting_offset(num("offset_deg", o)?);
+    }
+    if let Some(s) = &raw.speed_channel {
+        let name = s.get_ref().as_str();
+        let Some(i) = ids.iter().position(|x| *x == name) else {
+            return Err(err(
+                s.span(),
+                format!("`speed_channel` names {name:?}, which is not a channel id"),
+            ));
+        };
+        if !matches!(kinds[i], RawKind::Speed) {
+            return Err(err(
+                s.span(),
+                format!("`speed_channel` names {name:?}, which is not a speed channel"),
+            ));
+        }
+        core = core.with_speed_channel(i as u8);
+    }
+    if let Some(h) = &raw.height_m {
+        num("height_m", h)?;
+    }
+    // Screening settings: the core's defaults for the kind (`Screen::for_kind`),
+    // already in `core`. Per-channel screening keys, when the station file gets
+    // them, are applied here with `core.with_screen(...)`.
+    Ok(ChannelSpec {
+        id: id.clone(),
+        kind,
+        unit: raw.unit.clone(),
+        height_m: raw.height_m.as_ref().map(|h| *h.get_ref()),
+        decode: if calibration.is_some() {
+            Decode::Counts
+        } else {
+            Decode::Value
+        },
+        core,
+        line: at.line(&table),
+    })
+}
+
+impl StationFile {
+    /// The core layout for `C >= channels.len()` slots, unused slots padded with
+    /// `ChannelConfig::scalar(1.0)` (fed `Reading::Missing`, never printed).
+    pub fn layout<const C: usize>(&self) -> Result<Layout<C>> {
+        if self.channels.len() > C {
+            bail!("{} channels do not fit {C} slots", self.channels.len());
+        }
+        let cfgs: [ChannelConfig; C] = core::array::from_fn(|i| {
+            self.channels
+                .get(i)
+                .map_or(ChannelConfig::scalar(1.0), |c| c.core)
+        });
+        Layout::new::<GUST_CAPACITY>(self.station, cfgs).map_err(|e| self.config_error(e))
+    }
+
+    fn config_error(&self, e: ConfigError) -> anyhow::Error {
+        match e {
+            ConfigError::Channel { index, problem } => {
+                match self.channels.get(usize::from(index)) {
+                    Some(ch) => anyhow!(
+                        "{}:{}: channel {:?}: {problem}",
+                        self.path.display(),
+                        ch.line,
+                        ch.id
+                    ),
+                    None => anyhow!("{}: {e}", self.path.display()),
+                }
+            }
+            other => anyhow!("{}: {other}", self.path.display()),
+        }
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    const GOOD: &str = r#"
+[logging]
+sample_rate_hz = 1
+
+[station]
+name = "Test"
+
+[[channel]]
+id = "ws"
+kind = "speed"
+unit = "m/s"
+height_m = 80
+resolution = 0.01
+
+[[channel]]
+id = "wd"
+kind = "direction"
+offset_deg = 5
+speed_channel = "ws"
+
+[[channel]]
+id = "raw"
+kind = "scalar"
+slope = 0.5
+offset = 1
+"#;
+
+    fn parse_str(s: &str) -> Result<StationFile> {
+        parse(Path::new("st.toml"), s)
+    }
+
+    #[test]
+    fn good_file() {
+        let f = parse_str(GOOD).unwrap();
+        assert_eq!(f.station.interval_s, 600);
+        assert_eq!(f.station.samples_per_interval, 600);
+        assert_eq!(
+            f.station.missing_values,
+            [Some(-999.0), Some(-9999.0), None, None]
+        );
+        assert_eq!(f.channels.len(), 3);
+        assert_eq!(f.channels[0].core.gust_window, 3);
+        assert_eq!(f.channels[1].core.speed_channel, Some(0));
+        assert_eq!(f.channels[1].core.mounting_offset_deg, 5.0);
+        assert_eq!(f.channels[2].decode, Decode::Counts);
+        assert_eq!(f.channels[1].line, 15);
+        assert_eq!(f.name.as_deref(), Some("Test"));
+    }
+
+    #[test]
+    fn errors_name_key_and_line() {
+        let cases: &[(&str, &str, &str)] = &[
+            // (replace, with, expected in message)
+            ("unit = \"m/s\"", "unit = \"m/s\"\ncolour = 1", "colour"),
+            ("unit = \"m/s\"", "unit = \"m/s\"\ncolour = 1", "line 12"),
+            (
+                "resolution = 0.01",
+                "resolution = 0.01\ngust_window_s = 2.5",
+                "st.toml:14: channel \"ws\": gust window 2.5 s",
+            ),
+            (
+                "resolution = 0.01",
+                "",
+                "st.toml:8: channel \"ws\": `resolution` is required",
+            ),
+            (
+                "offset_deg = 5",
+                "offset_deg = 5\nresolution = 1",
+                "st.toml:19:",
+            ),
+            (
+                "speed_channel = \"ws\"",
+                "speed_channel = \"raw\"",
+                "not a speed channel",
+            ),
+            (
+                "speed_channel = \"ws\"",
+                "speed_channel = \"nope\"",
+                "not a channel id",
+            ),
+            (
+                "sample_rate_hz = 1",
+                "sample_rate_hz = 0.0007",
+                "st.toml:3: `sample_rate_hz` 0.0007",
+            ),
+            (
+                "sample_rate_hz = 1",
+                "sample_rate_hz = 1\ninterval_s = 7",
+                "divide 86400",
+            ),
+            (
+                "sample_rate_hz = 1",
+                "sample_rate_hz = 1\nmissing_values = [1, 2, 3, 4, 5]",
+                "at most 4",
+            ),
+            ("id = \"raw\"", "id = \"ws\"", "appears twice"),
+            ("id = \"raw\"", "id = \"a,b\"", "letters, digits"),
+            ("kind = \"scalar\"", "kind = \"vector\"", "vector"),
+            (
+                "resolution = 0.01",
+                "resolution = 0.01\ngust_window_s = 100",
+                "at most 64",
+            ),
+            (
+                "resolution = 0.01",
+                "resolution = 0.01\nrange = [5, 1]",
+                "low <= high",
+            ),
+            (
+                "resolution = 0.01",
+                "resolution = -1",
+                "st.toml:8: channel \"ws\": resolution",
+            ),
+        ];
+        for (from, to, want) in cases {
+            let text = GOOD.replacen(from, to, 1);
+            let msg = format!("{:#}", parse_str(&text).unwrap_err());
+            assert!(msg.contains(want), "{to}: {msg}");
+        }
+    }
+}

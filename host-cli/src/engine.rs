@@ -1,0 +1,162 @@
+//! The station engine: a `qc_core::Station` of the right size behind a small
+//! object-safe interface, so the rest of the CLI does not carry const generics.
+//!
+//! The core's `Station<C, G>` has its channel count `C` and gust capacity `G`
+//! fixed at compile time. The engine picks `C` from {4, 8, 16, 32} at run time
+//! (`G` is [`GUST_CAPACITY`]) and pads unused channel slots with
+//! `ChannelConfig::scalar(1.0)`, fed `Reading::Missing` and never reported.
+
+use anyhow::{bail, Result};
+use qc_core::{
+    ChannelRecord, Event, IntervalAcc, Layout, PushTotals, Pushed, Reading, Station, Timestamp,
+    Totals,
+};
+
+use crate::config::{StationFile, GUST_CAPACITY, MAX_CHANNELS};
+
+const G: usize = GUST_CAPACITY;
+
+/// Receives the records of every interval, in time order.
+pub trait Sink {
+    /// One interval `[start, end)`: one record per configured channel, in
+    /// station-file order.
+    fn interval(
+        &mut self,
+        start: Timestamp,
+        end: Timestamp,
+        records: &[ChannelRecord],
+    ) -> Result<()>;
+}
+
+/// A station fed one sample at a time.
+pub trait Engine {
+    /// Pushes one sample; `readings` holds one reading per configured channel.
+    /// Intervals it closes (and gaps it ends) go to the sink first.
+    fn push(&mut self, t: Timestamp, readings: &[Reading]) -> Result<Pushed>;
+    /// End of data: closes the open interval.
+    fn close(&mut self) -> Result<()>;
+    /// Samples pushed, by outcome.
+    fn totals(&self) -> PushTotals;
+    /// Recovery since start of each configured channel.
+    fn recovery(&self) -> Vec<Totals>;
+}
+
+/// An engine for `cfg` that hands records to `sink`.
+pub fn new<'s>(cfg: &StationFile, sink: &'s mut dyn Sink) -> Result<Box<dyn Engine + 's>> {
+    Ok(match cfg.channels.len() {
+        0 => bail!("{}: no channels", cfg.path.display()),
+        1..=4 => Box::new(Fixed::<'s, 4>::new(cfg, sink)?),
+        5..=8 => Box::new(Fixed::<'s, 8>::new(cfg, sink)?),
+        9..=16 => Box::new(Fixed::<'s, 16>::new(cfg, sink)?),
+        17..=MAX_CHANNELS => Box::new(Fixed::<'s, 32>::new(cfg, sink)?),
+        n => bail!("{n} channels: at most {MAX_CHANNELS} are supported"),
+    })
+}
+
+struct Fixed<'s, const C: usize> {
+    station: Box<Station<C, G>>,
+    out: Out<'s, C>,
+    readings: [Reading; C],
+    n: usize,
+}
+
+/// What the emit callback needs, borrowed apart from the station.
+struct Out<'s, const C: usize> {
+    layout: Layout<C>,
+    n: usize,
+    sink: &'s mut dyn Sink,
+    records: Vec<ChannelRecord>,
+    error: Option<anyhow::Error>,
+}
+
+impl<'s, const C: usize> Fixed<'s, C> {
+    fn new(cfg: &StationFile, sink: &'s mut dyn Sink) -> Result<Self> {
+        let layout = cfg.layout::<C>()?;
+        let n = cfg.channels.len();
+        Ok(Fixed {
+            station: Box::new(Station::new(layout)),
+            out: Out {
+                layout,
+                n,
+                sink,
+                records: Vec::with_capacity(n),
+                error: None,
+            },
+            readings: [Reading::Missing; C],
+            n,
+        })
+    }
+}
+
+impl<const C: usize> Out<'_, C> {
+    fn emit(&mut self, event: Event<'_, C, G>) {
+        if self.error.is_some() {
+            return;
+        }
+        let result = match event {
+            Event::Closed(acc) => self.interval(acc),
+            Event::Gap(gap) => {
+                let mut r = Ok(());
+                for i in 0..gap.count {
+                    // An interval with no samples: an empty accumulator, finished
+                    // by the core like any other.
+                    let k = gap.first.saturating_add(i as i64);
+                    let acc = IntervalAcc::<C, G>::new(&self.layout, k);
+                    r = self.interval(&acc);
+                    if r.is_err() {
+                        break;
+                    }
+                }
+                r
+            }
+        };
+        if let Err(e) = result {
+            self.error = Some(e);
+        }
+    }
+
+    fn interval(&mut self, acc: &IntervalAcc<C, G>) -> Result<()> {
+        self.records.clear();
+        let layout = &self.layout;
+        self.records
+            .extend((0..self.n).filter_map(|i| layout.finish(acc, i)));
+        let start = layout.interval_start(acc.index());
+        let end = layout.interval_start(acc.index().saturating_add(1));
+        self.sink.interval(start, end, &self.records)
+    }
+
+    fn check(&mut self) -> Result<()> {
+        match self.error.take() {
+            Some(e) => Err(e),
+            None => Ok(()),
+        }
+    }
+}
+
+impl<const C: usize> Engine for Fixed<'_, C> {
+    fn push(&mut self, t: Timestamp, readings: &[Reading]) -> Result<Pushed> {
+        let n = self.n.min(readings.len());
+        self.readings[..n].copy_from_slice(&readings[..n]);
+        let out = &mut self.out;
+        let pushed = self.station.push(t, &self.readings, |e| out.emit(e));
+        self.out.check()?;
+        Ok(pushed)
+    }
+
+    fn close(&mut self) -> Result<()> {
+        let out = &mut self.out;
+        self.station.close(|e| out.emit(e));
+        self.out.check()
+    }
+
+    fn totals(&self) -> PushTotals {
+        *self.station.totals()
+    }
+
+    fn recovery(&self) -> Vec<Totals> {
+        self.station.recovery()[..self.n]
+            .iter()
+            .map(|r| r.since_start)
+            .collect()
+    }
+}

@@ -1,0 +1,127 @@
+//! The summary printed on stderr after a replay: where every row went, and
+//! each channel's sample counts and recovery.
+
+use std::io::{self, Write};
+
+use qc_core::{PushTotals, Totals};
+
+use crate::config::StationFile;
+use crate::samples::InputStats;
+
+/// Everything a replay counted.
+#[derive(Clone, Debug)]
+pub struct Summary {
+    /// What the samples files held.
+    pub input: InputStats,
+    /// Samples pushed to the station, by outcome.
+    pub pushed: PushTotals,
+    /// Recovery since start of each channel.
+    pub recovery: Vec<Totals>,
+    /// Record rows produced.
+    pub record_rows: u64,
+}
+
+/// Recovery as a percentage, or "-" when nothing was possible.
+pub fn percent(t: &Totals) -> String {
+    match t.rate() {
+        Some(r) => format!("{:.1}%", 100.0 * r),
+        None => "-".into(),
+    }
+}
+
+impl Summary {
+    /// Rows accounted for: accepted, rejected by reason, bad.
+    pub fn rows_accounted(&self) -> u64 {
+        self.pushed.pushed() + self.input.bad.total()
+    }
+
+    /// Writes the summary.
+    pub fn write(&self, w: &mut dyn Write, cfg: &StationFile) -> io::Result<()> {
+        let p = &self.pushed;
+        let b = &self.input.bad;
+        writeln!(
+            w,
+            "rows read: {} from {} file(s) = {} accepted + {} rejected (duplicate {}, backward {}, closed interval {}, unsupported time {}) + {} bad rows",
+            self.input.rows,
+            self.input.files,
+            p.accepted,
+            p.pushed() - p.accepted,
+            p.duplicate,
+            p.backward,
+            p.closed_interval,
+            p.unsupported_time,
+            b.total()
+        )?;
+        if b.total() > 0 {
+            writeln!(
+                w,
+                "bad rows skipped: {} wrong field count, {} bad time, {} bad value, {} not UTF-8",
+                b.field_count, b.time, b.value, b.encoding
+            )?;
+            for e in &self.input.examples {
+                writeln!(w, "  {e}")?;
+            }
+            if b.total() > self.input.examples.len() as u64 {
+                writeln!(
+                    w,
+                    "  ... and {} more",
+                    b.total() - self.input.examples.len() as u64
+                )?;
+            }
+        }
+        for f in &self.input.empty_files {
+            writeln!(w, "empty file skipped: {}", f.display())?;
+        }
+        if self.rows_accounted() != self.input.rows {
+            // Cannot happen: every row is pushed or counted bad. Said loudly if it does.
+            writeln!(
+                w,
+                "warning: {} rows accounted for, {} read",
+                self.rows_accounted(),
+                self.input.rows
+            )?;
+        }
+        writeln!(
+            w,
+            "records: {} rows (intervals x channels)",
+            self.record_rows
+        )?;
+        let width = cfg
+            .channels
+            .iter()
+            .map(|c| c.id.len())
+            .max()
+            .unwrap_or(7)
+            .max(7);
+        writeln!(
+            w,
+            "{:<width$} {:>10} {:>10} {:>10} {:>10} {:>10} {:>10} {:>9}",
+            "channel",
+            "possible",
+            "valid",
+            "missing",
+            "out_range",
+            "rejected",
+            "absent",
+            "recovery"
+        )?;
+        for (ch, t) in cfg.channels.iter().zip(&self.recovery) {
+            writeln!(
+                w,
+                "{:<width$} {:>10} {:>10} {:>10} {:>10} {:>10} {:>10} {:>9}",
+                ch.id,
+                t.possible,
+                t.valid,
+                t.missing,
+                t.out_of_range,
+                t.rejected,
+                t.absent(),
+                percent(t)
+            )?;
+        }
+        writeln!(
+            w,
+            "(recovery = valid / possible samples since the first interval; absent = possible samples with no row)"
+        )
+    }
+}
