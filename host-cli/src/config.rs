@@ -23,6 +23,28 @@
 //! (the id of the anemometer that weights the resultant vector). Unknown keys
 //! are errors naming the key and its line.
 //!
+//! Screening settings go in an optional `[channel.screen]` table after the
+//! channel's `[[channel]]` table; each key overrides the core's default for the
+//! kind (`qc_core::Screen::for_kind`, where each default names its source):
+//!
+//! ```toml
+//! [channel.screen]
+//! step_limit = 10             # spike: largest change between samples
+//! mean_range = [0, 25]        # range: plausible interval mean
+//! sd_range = [0, 3]           # range: plausible sd (sigma-theta for direction)
+//! gust_max = 30               # range: gusts at or above are implausible
+//! min_recovery = 0.9          # low_recovery: valid / possible per interval
+//! flat_span_s = 10800         # flatline: span in seconds ...
+//! flat_tolerance = 0.1        # ... within which the sensor counts as still
+//! partner = "ws80b"           # pair_mismatch: redundant anemometer (speed)
+//! pair_mean_diff = 0.5
+//! pair_max_diff = 2.0
+//! above = "ws100"             # shear: the next higher anemometer (speed)
+//! shear_tolerance = 0.5
+//! icing = { temperature = "t76", humidity = "rh76", max_temperature = 2, min_humidity = 85 }
+//! off = ["spike"]             # switch tests off by flag name
+//! ```
+//!
 //! Adding an optional per-channel key: add an `Option<Spanned<T>>` field to
 //! [`RawChannel`] and apply it in [`build_channel`] (screening settings go in
 //! the marked place there); spans give the line for error messages.
@@ -31,7 +53,9 @@ use std::ops::Range;
 use std::path::{Path, PathBuf};
 
 use anyhow::{anyhow, bail, Context, Result};
-use qc_core::{ChannelConfig, ConfigError, Kind, Layout, StationConfig, MAX_SENTINELS};
+use qc_core::{
+    ChannelConfig, ConfigError, Icing, Kind, Layout, Screen, StationConfig, MAX_SENTINELS,
+};
 use serde::Deserialize;
 use toml::Spanned;
 
@@ -86,6 +110,37 @@ struct RawChannel {
     speed_channel: Option<Spanned<String>>,
     slope: Option<Spanned<f64>>,
     offset: Option<Spanned<f64>>,
+    screen: Option<Spanned<RawScreen>>,
+}
+
+/// A channel's `[channel.screen]` table: screening settings over the core's
+/// defaults for the channel's kind.
+#[derive(Deserialize)]
+#[serde(deny_unknown_fields)]
+struct RawScreen {
+    step_limit: Option<Spanned<f64>>,
+    mean_range: Option<Spanned<[f64; 2]>>,
+    sd_range: Option<Spanned<[f64; 2]>>,
+    gust_max: Option<Spanned<f64>>,
+    min_recovery: Option<Spanned<f64>>,
+    flat_span_s: Option<Spanned<u32>>,
+    flat_tolerance: Option<Spanned<f64>>,
+    partner: Option<Spanned<String>>,
+    pair_mean_diff: Option<Spanned<f64>>,
+    pair_max_diff: Option<Spanned<f64>>,
+    above: Option<Spanned<String>>,
+    shear_tolerance: Option<Spanned<f64>>,
+    icing: Option<Spanned<RawIcing>>,
+    off: Option<Spanned<Vec<String>>>,
+}
+
+#[derive(Deserialize)]
+#[serde(deny_unknown_fields)]
+struct RawIcing {
+    temperature: String,
+    humidity: String,
+    max_temperature: Option<f64>,
+    min_humidity: Option<f64>,
 }
 
 /// How a channel's sample column is read.
@@ -463,8 +518,10 @@ fn build_channel(
         num("height_m", h)?;
     }
     // Screening settings: the core's defaults for the kind (`Screen::for_kind`),
-    // already in `core`. Per-channel screening keys, when the station file gets
-    // them, are applied here with `core.with_screen(...)`.
+    // already in `core`, overridden by the `[channel.screen]` table.
+    if let Some(sc) = &raw.screen {
+        core = core.with_screen(build_screen(sc, core.screen, rk, ids, kinds, &err)?);
+    }
     Ok(ChannelSpec {
         id: id.clone(),
         kind,
@@ -478,6 +535,163 @@ fn build_channel(
         core,
         line: at.line(&table),
     })
+}
+
+/// Applies a `[channel.screen]` table over the defaults `base`.
+fn build_screen(
+    spanned: &Spanned<RawScreen>,
+    base: Screen,
+    rk: RawKind,
+    ids: &[&str],
+    kinds: &[RawKind],
+    err: &dyn Fn(Range<usize>, String) -> anyhow::Error,
+) -> Result<Screen> {
+    let raw = spanned.get_ref();
+    let mut s = base;
+    let num = |key: &str, v: &Spanned<f64>| -> Result<f64> {
+        let x = *v.get_ref();
+        if x.is_finite() && x >= 0.0 {
+            Ok(x)
+        } else {
+            Err(err(
+                v.span(),
+                format!("`screen.{key}` must be a finite number >= 0"),
+            ))
+        }
+    };
+    let pair = |key: &str, v: &Spanned<[f64; 2]>| -> Result<(f64, f64)> {
+        let [lo, hi] = *v.get_ref();
+        if lo.is_finite() && hi.is_finite() && lo <= hi {
+            Ok((lo, hi))
+        } else {
+            Err(err(
+                v.span(),
+                format!("`screen.{key}` must be [low, high] with finite low <= high"),
+            ))
+        }
+    };
+    let channel = |key: &str, name: &str, span: Range<usize>, want: RawKind| -> Result<u8> {
+        match ids.iter().position(|x| *x == name) {
+            Some(i) if std::mem::discriminant(&kinds[i]) == std::mem::discriminant(&want) => {
+                Ok(i as u8)
+            }
+            Some(_) => Err(err(
+                span,
+                format!(
+                    "`screen.{key}` names {name:?}, which is not a {} channel",
+                    kind_name(want)
+                ),
+            )),
+            None => Err(err(
+                span,
+                format!("`screen.{key}` names {name:?}, which is not a channel id"),
+            )),
+        }
+    };
+    if let Some(v) = &raw.step_limit {
+        s.step_limit = Some(num("step_limit", v)?);
+    }
+    if let Some(v) = &raw.mean_range {
+        s.mean_range = Some(pair("mean_range", v)?);
+    }
+    if let Some(v) = &raw.sd_range {
+        s.sd_range = Some(pair("sd_range", v)?);
+    }
+    if let Some(v) = &raw.gust_max {
+        s.gust_max = Some(num("gust_max", v)?);
+    }
+    if let Some(v) = &raw.min_recovery {
+        let m = *v.get_ref();
+        if !(0.0..=1.0).contains(&m) {
+            return Err(err(
+                v.span(),
+                "`screen.min_recovery` is a fraction from 0 to 1".into(),
+            ));
+        }
+        s.min_recovery = Some(m);
+    }
+    if let Some(v) = &raw.flat_span_s {
+        s.flat_span_s = Some(*v.get_ref());
+    }
+    if let Some(v) = &raw.flat_tolerance {
+        s.flat_tolerance = num("flat_tolerance", v)?;
+    }
+    if let Some(v) = &raw.pair_mean_diff {
+        s.pair_mean_diff = num("pair_mean_diff", v)?;
+    }
+    if let Some(v) = &raw.pair_max_diff {
+        s.pair_max_diff = num("pair_max_diff", v)?;
+    }
+    if let Some(v) = &raw.shear_tolerance {
+        s.shear_tolerance = num("shear_tolerance", v)?;
+    }
+    let speed_only = |key: &str, span: Range<usize>| -> Result<()> {
+        if matches!(rk, RawKind::Speed) {
+            Ok(())
+        } else {
+            Err(err(
+                span,
+                format!("`screen.{key}` applies to speed channels only"),
+            ))
+        }
+    };
+    if let Some(v) = &raw.partner {
+        speed_only("partner", v.span())?;
+        s.partner = Some(channel("partner", v.get_ref(), v.span(), RawKind::Speed)?);
+    }
+    if let Some(v) = &raw.above {
+        speed_only("above", v.span())?;
+        s.above = Some(channel("above", v.get_ref(), v.span(), RawKind::Speed)?);
+    }
+    if let Some(v) = &raw.icing {
+        if matches!(rk, RawKind::Scalar) {
+            return Err(err(
+                v.span(),
+                "`screen.icing` applies to speed and direction channels".into(),
+            ));
+        }
+        let ice = v.get_ref();
+        let mut i = Icing::new(
+            channel(
+                "icing.temperature",
+                &ice.temperature,
+                v.span(),
+                RawKind::Scalar,
+            )?,
+            channel("icing.humidity", &ice.humidity, v.span(), RawKind::Scalar)?,
+        );
+        if let Some(t) = ice.max_temperature {
+            i.max_temperature = t;
+        }
+        if let Some(h) = ice.min_humidity {
+            i.min_humidity = h;
+        }
+        s.icing = Some(i);
+    }
+    if let Some(list) = &raw.off {
+        for name in list.get_ref() {
+            match name.as_str() {
+                "spike" => s.step_limit = None,
+                "range" => {
+                    s.mean_range = None;
+                    s.sd_range = None;
+                    s.gust_max = None;
+                }
+                "low_recovery" => s.min_recovery = None,
+                "flatline" => s.flat_span_s = None,
+                "icing" => s.icing = None,
+                "pair_mismatch" => s.partner = None,
+                "shear" => s.above = None,
+                other => {
+                    return Err(err(
+                        list.span(),
+                        format!("`screen.off`: {other:?} is not a test that can be switched off (spike, range, low_recovery, flatline, icing, pair_mismatch, shear)"),
+                    ))
+                }
+            }
+        }
+    }
+    Ok(s)
 }
 
 impl StationFile {
@@ -564,6 +778,62 @@ offset = 1
         assert_eq!(f.channels[2].decode, Decode::Counts);
         assert_eq!(f.channels[1].line, 15);
         assert_eq!(f.name.as_deref(), Some("Test"));
+    }
+
+    #[test]
+    fn screen_table_overrides_defaults() {
+        let text = GOOD.replace(
+            "resolution = 0.01\n",
+            "resolution = 0.01\n\n[channel.screen]\nstep_limit = 4\nmean_range = [0.5, 20]\noff = [\"flatline\"]\nicing = { temperature = \"raw\", humidity = \"raw\", max_temperature = 1 }\n",
+        );
+        let f = parse_str(&text).unwrap();
+        let s = f.channels[0].core.screen;
+        assert_eq!(s.step_limit, Some(4.0));
+        assert_eq!(s.mean_range, Some((0.5, 20.0)));
+        assert_eq!(s.flat_span_s, None);
+        // Untouched keys keep the core's defaults for a speed channel.
+        assert_eq!(s.sd_range, Screen::for_kind(Kind::Speed).sd_range);
+        let ice = s.icing.unwrap();
+        assert_eq!(
+            (
+                ice.temperature,
+                ice.humidity,
+                ice.max_temperature,
+                ice.min_humidity
+            ),
+            (2, 2, 1.0, 85.0)
+        );
+        // Channels without a table keep every default.
+        assert_eq!(f.channels[1].core.screen, Screen::for_kind(Kind::Direction));
+    }
+
+    #[test]
+    fn screen_errors_name_key_and_line() {
+        let with = |extra: &str| {
+            let text = GOOD.replace(
+                "resolution = 0.01\n",
+                &format!("resolution = 0.01\n\n[channel.screen]\n{extra}\n"),
+            );
+            parse_str(&text)
+                .err()
+                .map(|e| format!("{e:#}"))
+                .unwrap_or_default()
+        };
+        let e = with("colour = 1");
+        assert!(e.contains("colour") && e.contains("st.toml"), "{e}");
+        let e = with("partner = \"wd\"");
+        assert!(
+            e.contains("not a speed channel") && e.contains("st.toml:16:"),
+            "{e}"
+        );
+        let e = with("partner = \"nope\"");
+        assert!(e.contains("not a channel id"), "{e}");
+        let e = with("min_recovery = 1.5");
+        assert!(e.contains("fraction"), "{e}");
+        let e = with("off = [\"clock\"]");
+        assert!(e.contains("cannot") || e.contains("not a test"), "{e}");
+        let e = with("mean_range = [5, 1]");
+        assert!(e.contains("low <= high"), "{e}");
     }
 
     #[test]

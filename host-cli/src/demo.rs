@@ -50,6 +50,12 @@ range = [0, 75]
 resolution = 0.01
 gust_window_s = 3
 
+# Screening over the defaults: compare with the redundant partner, and watch
+# for icing with the temperature and humidity sensors.
+[channel.screen]
+partner = "ws80b"
+icing = { temperature = "t76", humidity = "rh76" }
+
 [[channel]]
 id = "ws80b"
 kind = "speed"
@@ -67,6 +73,9 @@ height_m = 60
 range = [0, 75]
 resolution = 0.01
 
+[channel.screen]
+above = "ws80a"
+
 # Vane read as raw counts of 0.1 degree, mounted 4 degrees off north;
 # its resultant vector is weighted by ws80a.
 [[channel]]
@@ -77,6 +86,9 @@ height_m = 78
 slope = 0.1
 offset_deg = 4
 speed_channel = "ws80a"
+
+[channel.screen]
+icing = { temperature = "t76", humidity = "rh76" }
 
 [[channel]]
 id = "t76"
