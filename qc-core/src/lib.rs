@@ -48,6 +48,12 @@
 //! the exact sums into results, with `libm`, never platform math, and only
 //! IEEE-754 operations that every target rounds the same way.
 //!
+//! Exact is not the same as infinitely precise: directions are kept to 0.01
+//! degree, and their unit vectors carry the tables' rounding (about 2e-9 per
+//! component), so a mean direction can differ from the true one by up to about
+//! 1e-7 degree (a constant 265.8 reads back as 265.80000002). The same bits come
+//! out on every target; the tests bound the difference from numpy.
+//!
 //! # Floating point on a core without an FPU
 //!
 //! On a Cortex-M0 (`thumbv6m`) there is no FPU: the per-sample path for raw
@@ -99,6 +105,7 @@ mod recovery;
 pub mod screen;
 mod station;
 pub mod time;
+pub mod wire;
 
 pub use channel::{
     Absent, Channel, ChannelAcc, ChannelConfig, ChannelRecord, DirectionAcc, Kind,
