@@ -33,7 +33,10 @@ macro_rules! formats {
                 [[channel]] id, kind (speed | direction | scalar), unit, height_m,
                 range = [lo, hi], resolution, gust_window_s (speed, default 3),
                 offset_deg and speed_channel (direction), slope/offset for raw
-                counts (the column then holds integer counts).
+                counts (the column then holds integer counts); optional
+                [channel.screen] table overriding the screening defaults
+                (step_limit, mean_range, sd_range, gust_max, min_recovery,
+                flat_span_s, flat_tolerance, partner, above, icing, off = [...]).
   samples CSV   header `time,<channel ids>` in any order; time RFC 3339
                 (2025-01-20T00:00:01Z, offsets like +01:00, up to .mmm) or epoch
                 seconds (decimal to ms); missing = empty, NaN or a missing-value code.
