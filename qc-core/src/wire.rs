@@ -17,28 +17,28 @@
 //!
 //! let layout = Layout::new::<3>(StationConfig::ten_minute_1hz(), [ChannelConfig::speed(0.1)])?;
 //! let mut station: Station<1, 3> = Station::new(layout);
-//! let mut log = [0u8; 2 * FRAME_LEN];
-//! let mut frames = 0;
+//! let mut log = Vec::new();
+//! let mut on_event = |event: Event<'_, 1, 3>| {
+//!     if let Event::Closed(acc) = event {
+//!         let frame = RecordFrame {
+//!             sequence: (log.len() / FRAME_LEN) as u32,
+//!             interval_start: layout.interval_start(acc.index()),
+//!             channel: 0,
+//!             record: layout.finish(acc, 0).unwrap(),
+//!         };
+//!         let mut bytes = [0u8; FRAME_LEN];
+//!         wire::encode_record(&frame, &mut bytes);
+//!         log.extend_from_slice(&bytes);
+//!     }
+//! };
 //! for i in 0..1200 {
 //!     let t = Timestamp::from_millis(1_700_000_400_000 + i * 1000);
-//!     station.push(t, &[Reading::Value(5.0)], |event| {
-//!         if let Event::Closed(acc) = event {
-//!             let frame = RecordFrame {
-//!                 sequence: frames as u32,
-//!                 interval_start: layout.interval_start(acc.index()),
-//!                 channel: 0,
-//!                 record: layout.finish(acc, 0).unwrap(),
-//!             };
-//!             let slot: &mut [u8; FRAME_LEN] = (&mut log[frames * FRAME_LEN..][..FRAME_LEN])
-//!                 .try_into()
-//!                 .unwrap();
-//!             wire::encode_record(&frame, slot);
-//!             frames += 1;
-//!         }
-//!     });
+//!     station.push(t, &[Reading::Value(5.0)], &mut on_event);
 //! }
-//! // Power fails while the second frame is half written: the first still reads.
-//! log[FRAME_LEN + 60..].fill(0xFF);
+//! station.close(&mut on_event);
+//! assert_eq!(log.len(), 2 * FRAME_LEN);
+//! // Power failed while the second frame was written: only its first 90 bytes
+//! // reached the card. The first frame still reads, the rest is reported torn.
 //! let spans: Vec<Span> = wire::scan(&log[..FRAME_LEN + 90]).collect();
 //! assert!(matches!(spans[0], Span::Frame { offset: 0, frame } if frame.record.tally.valid == 600));
 //! assert_eq!(spans[1], Span::Torn { offset: FRAME_LEN, len: 90 });
@@ -120,10 +120,10 @@
 use core::fmt;
 
 use crate::channel::{Absent, ChannelRecord, Kind, Reading, Stat, Tally};
-use crate::flags::Flags;
-use crate::time::Timestamp;
 #[cfg(doc)]
 use crate::flags::Flag;
+use crate::flags::Flags;
+use crate::time::Timestamp;
 
 // ---------------------------------------------------------------------------
 // CRC-32
@@ -632,15 +632,20 @@ pub fn decode_sample_header(bytes: &[u8]) -> Result<u8, WireError> {
 
 /// Writes one sample frame (`t` and one reading per channel) at the start of
 /// `out`, and returns its length.
-pub fn encode_sample(t: Timestamp, readings: &[Reading], out: &mut [u8]) -> Result<usize, WireError> {
-    let needed = 12 + readings
-        .iter()
-        .map(|r| match r {
-            Reading::Value(_) => 9,
-            Reading::Counts(_) => 5,
-            Reading::Missing => 1,
-        })
-        .sum::<usize>();
+pub fn encode_sample(
+    t: Timestamp,
+    readings: &[Reading],
+    out: &mut [u8],
+) -> Result<usize, WireError> {
+    let needed = 12
+        + readings
+            .iter()
+            .map(|r| match r {
+                Reading::Value(_) => 9,
+                Reading::Counts(_) => 5,
+                Reading::Missing => 1,
+            })
+            .sum::<usize>();
     let Some(buf) = out.get_mut(..needed) else {
         return Err(WireError::BufferTooSmall { needed });
     };
@@ -878,7 +883,7 @@ mod tests {
             stats;
         let mut flags = Flags::EMPTY;
         for f in Flag::ALL {
-            if seed >> (f as u8) & 1 == 1 {
+            if (seed >> (f as u8)) & 1 == 1 {
                 flags.insert(f);
             }
         }
@@ -987,8 +992,17 @@ mod tests {
         let mut frames = Vec::new();
         for i in 0..1900i64 {
             let t = Timestamp::from_millis(1_700_000_400_000 + i * 1000);
-            let sp = if i > 700 && i < 900 { Reading::Missing } else { Reading::Value(3.0 + (i % 7) as f64) };
-            let rd = [sp, Reading::Value((i * 37 % 360) as f64), Reading::Counts(-999), Reading::Value(12.5)];
+            let sp = if i > 700 && i < 900 {
+                Reading::Missing
+            } else {
+                Reading::Value(3.0 + (i % 7) as f64)
+            };
+            let rd = [
+                sp,
+                Reading::Value((i * 37 % 360) as f64),
+                Reading::Counts(-999),
+                Reading::Value(12.5),
+            ];
             station.push(t, &rd, |e| {
                 if let Event::Closed(acc) = e {
                     for c in 0..4 {
@@ -1009,7 +1023,7 @@ mod tests {
     }
 
     fn log_of(frames: &[RecordFrame]) -> Vec<u8> {
-        frames.iter().flat_map(|f| encode(f)).collect()
+        frames.iter().flat_map(encode).collect()
     }
 
     fn decoded(log: &[u8]) -> (Vec<RecordFrame>, Vec<Span>) {
@@ -1145,12 +1159,33 @@ mod tests {
         let (good, _) = decoded(&log);
         assert_same_list(&good, &frames);
         assert_eq!(spans[0], Span::Damaged { offset: 0, len: 7 });
-        assert_eq!(spans[2], Span::Damaged { offset: 7 + FRAME_LEN, len: 40 });
-        assert_eq!(spans[4], Span::Damaged { offset: 7 + 2 * FRAME_LEN + 40, len: 4 });
-        assert_eq!(spans.last(), Some(&Span::Erased { offset: log.len() - 300, len: 300 }));
+        assert_eq!(
+            spans[2],
+            Span::Damaged {
+                offset: 7 + FRAME_LEN,
+                len: 40
+            }
+        );
+        assert_eq!(
+            spans[4],
+            Span::Damaged {
+                offset: 7 + 2 * FRAME_LEN + 40,
+                len: 4
+            }
+        );
+        assert_eq!(
+            spans.last(),
+            Some(&Span::Erased {
+                offset: log.len() - 300,
+                len: 300
+            })
+        );
         let s = scanner.summary();
         assert_eq!(s.frames, 4);
-        assert_eq!((s.damaged_spans, s.damaged_bytes, s.erased_bytes), (3, 51, 300));
+        assert_eq!(
+            (s.damaged_spans, s.damaged_bytes, s.erased_bytes),
+            (3, 51, 300)
+        );
     }
 
     #[test]
@@ -1166,8 +1201,16 @@ mod tests {
             (O_KIND, 3, WireError::BadKind(3)),
             (O_RESERVED_A, 1, WireError::Reserved),
             (O_RESERVED_B, 1, WireError::Reserved),
-            (O_ABSENT + 4, 0x10 | (encode(&f)[O_ABSENT + 4] & 0xF), WireError::Reserved),
-            (O_FLAGS + 1, 0x80, WireError::UnknownFlags(0x8000 | u16::from(encode(&f)[O_FLAGS]))),
+            (
+                O_ABSENT + 4,
+                0x10 | (encode(&f)[O_ABSENT + 4] & 0xF),
+                WireError::Reserved,
+            ),
+            (
+                O_FLAGS + 1,
+                0x80,
+                WireError::UnknownFlags(0x8000 | u16::from(encode(&f)[O_FLAGS])),
+            ),
         ];
         for (at, v, want) in cases {
             let mut b = encode(&f);
@@ -1237,8 +1280,18 @@ mod tests {
     #[test]
     fn sample_file_round_trip_and_errors() {
         let samples: Vec<(i64, [Reading; 3])> = vec![
-            (0, [Reading::Value(1.5), Reading::Counts(-999), Reading::Missing]),
-            (1000, [Reading::Value(f64::NAN), Reading::Counts(i32::MIN), Reading::Value(-0.0)]),
+            (
+                0,
+                [Reading::Value(1.5), Reading::Counts(-999), Reading::Missing],
+            ),
+            (
+                1000,
+                [
+                    Reading::Value(f64::NAN),
+                    Reading::Counts(i32::MIN),
+                    Reading::Value(-0.0),
+                ],
+            ),
             (-5, [Reading::Missing, Reading::Missing, Reading::Missing]),
         ];
         let mut file = vec![0u8; SAMPLE_HEADER_LEN];
@@ -1248,7 +1301,10 @@ mod tests {
             let n = encode_sample(Timestamp::from_millis(*t), r, &mut buf).unwrap();
             file.extend_from_slice(&buf[..n]);
         }
-        let back: Vec<_> = SampleReader::<3>::new(&file).unwrap().collect::<Result<_, _>>().unwrap();
+        let back: Vec<_> = SampleReader::<3>::new(&file)
+            .unwrap()
+            .collect::<Result<_, _>>()
+            .unwrap();
         assert_eq!(back.len(), samples.len());
         for ((t, r), (bt, br)) in samples.iter().zip(&back) {
             assert_eq!(*t, bt.millis());
@@ -1257,15 +1313,27 @@ mod tests {
         // Wrong channel count, bad magic, bad version, truncated header.
         assert_eq!(
             SampleReader::<4>::new(&file).unwrap_err().error,
-            WireError::ChannelCount { expected: 4, found: 3 }
+            WireError::ChannelCount {
+                expected: 4,
+                found: 3
+            }
         );
         let mut bad = file.clone();
         bad[0] = b'X';
-        assert_eq!(SampleReader::<3>::new(&bad).unwrap_err().error, WireError::BadMagic);
+        assert_eq!(
+            SampleReader::<3>::new(&bad).unwrap_err().error,
+            WireError::BadMagic
+        );
         bad = file.clone();
         bad[4] = 9;
-        assert_eq!(SampleReader::<3>::new(&bad).unwrap_err().error, WireError::UnsupportedVersion(9));
-        assert_eq!(SampleReader::<3>::new(&file[..5]).unwrap_err().error, WireError::Truncated);
+        assert_eq!(
+            SampleReader::<3>::new(&bad).unwrap_err().error,
+            WireError::UnsupportedVersion(9)
+        );
+        assert_eq!(
+            SampleReader::<3>::new(&file[..5]).unwrap_err().error,
+            WireError::Truncated
+        );
         // A flipped bit in the second frame: the first reads, then one error with its offset.
         let second = SAMPLE_HEADER_LEN + 8 + 9 + 5 + 1 + 4;
         bad = file.clone();
@@ -1273,20 +1341,33 @@ mod tests {
         let got: Vec<_> = SampleReader::<3>::new(&bad).unwrap().collect();
         assert_eq!(got.len(), 2);
         assert!(got[0].is_ok());
-        assert_eq!(got[1], Err(SampleError { offset: second, error: WireError::BadCrc }));
+        assert_eq!(
+            got[1],
+            Err(SampleError {
+                offset: second,
+                error: WireError::BadCrc
+            })
+        );
         // A bad tag, and a file cut inside its last frame.
         bad = file.clone();
         bad[second + 8] = 7;
         assert_eq!(
             SampleReader::<3>::new(&bad).unwrap().nth(1),
-            Some(Err(SampleError { offset: second, error: WireError::BadTag(7) }))
+            Some(Err(SampleError {
+                offset: second,
+                error: WireError::BadTag(7)
+            }))
         );
-        let cut: Vec<_> = SampleReader::<3>::new(&file[..file.len() - 1]).unwrap().collect();
+        let cut: Vec<_> = SampleReader::<3>::new(&file[..file.len() - 1])
+            .unwrap()
+            .collect();
         assert_eq!(cut.last().unwrap().unwrap_err().error, WireError::Truncated);
         // Too small an output buffer is refused.
         assert_eq!(
             encode_sample(Timestamp::from_millis(0), &samples[0].1, &mut buf[..10]),
-            Err(WireError::BufferTooSmall { needed: 12 + 9 + 5 + 1 })
+            Err(WireError::BufferTooSmall {
+                needed: 12 + 9 + 5 + 1
+            })
         );
     }
 }

@@ -1,0 +1,333 @@
+//! Instruction budgets of qc-core, measured under QEMU.
+//!
+//! Run under `qemu-system-arm -icount shift=0 ...`: QEMU then advances its
+//! virtual clock by exactly 1 ns per guest instruction, and SysTick counts that
+//! virtual clock. The program first calibrates instructions per SysTick tick
+//! with a loop of known length, then times each case as (loop with the work)
+//! minus (the same loop without it), over many repetitions, and prints
+//! instructions per operation. See the README ("Budgets") for the limits of the
+//! method. Exit status 0 when every measurement ran.
+
+#![no_std]
+#![no_main]
+
+use core::hint::black_box;
+
+use cortex_m::peripheral::syst::SystClkSource;
+use cortex_m::peripheral::{Peripherals, SYST};
+use cortex_m_rt::entry;
+use firmware_example::scenario::{self, Logger, LoggerSlot, CHANNELS};
+use qc_core::wire::{encode_record, RecordFrame, FRAME_LEN};
+use qc_core::{ChannelConfig, Event, Layout, Reading, Station, StationConfig, Timestamp};
+use semihosting::{println, process};
+
+/// 2024-01-15T00:00:00Z, an interval boundary.
+const T0: i64 = 1_705_276_800_000;
+/// Samples timed per case (within one interval, after a warm-up).
+const N: u32 = 400;
+const SYST_MASK: u32 = 0x00FF_FFFF;
+
+fn now() -> u32 {
+    SYST::get_current()
+}
+
+/// SysTick ticks from `start` to `end` (it counts down and wraps at 2^24).
+fn ticks(start: u32, end: u32) -> u32 {
+    start.wrapping_sub(end) & SYST_MASK
+}
+
+/// Instructions per SysTick tick, x1000, from a loop of 3 instructions an
+/// iteration (`nop`, `subs`, `bne`; checked in the disassembly by the run script).
+#[inline(never)]
+fn calibrate() -> u64 {
+    const LOOPS: u32 = 200_000;
+    let start = now();
+    let mut i = black_box(LOOPS);
+    while i != 0 {
+        cortex_m::asm::nop();
+        i -= 1;
+    }
+    let t = u64::from(ticks(start, now())).max(1);
+    u64::from(3 * LOOPS) * 1000 / t
+}
+
+struct Meter {
+    milli_insn_per_tick: u64,
+}
+
+impl Meter {
+    /// Instructions of `work` per repetition, minus those of `base`.
+    fn per_op(&self, reps: u32, work: u32, base: u32) -> u64 {
+        let d = u64::from(work.saturating_sub(base));
+        d * self.milli_insn_per_tick / 1000 / u64::from(reps.max(1))
+    }
+}
+
+/// Pushes `n` samples from `t0`, one a second, cycling through `table`; with
+/// `push` false it runs the same loop without the station (the baseline).
+#[inline(never)]
+fn pushes<const C: usize>(
+    st: &mut Station<C, 3>,
+    t0: i64,
+    table: &[[Reading; C]; 8],
+    n: u32,
+    push: bool,
+) -> u32 {
+    let start = now();
+    for i in 0..n {
+        let t = Timestamp::from_millis(t0 + i64::from(i) * 1000);
+        let r = black_box(&table[(i & 7) as usize]);
+        if push {
+            black_box(st.push(t, r, |e| {
+                black_box(&e);
+            }));
+        } else {
+            black_box((t, r));
+        }
+    }
+    ticks(start, now())
+}
+
+/// Steady-state instructions per sample of a station, and of closing an
+/// interval (the push that ends it, less an ordinary push), and of finishing
+/// each channel's record.
+#[inline(never)]
+fn station_case<const C: usize>(
+    m: &Meter,
+    name: &str,
+    layout: Layout<C>,
+    table: &[[Reading; C]; 8],
+) -> (u64, u64) {
+    let mut st: Station<C, 3> = Station::new(layout);
+    // Warm up: open the interval and fill the gust window.
+    pushes(&mut st, T0, table, 10, true);
+    let work = pushes(&mut st, T0 + 10_000, table, N, true);
+    let base = pushes(&mut st, T0 + 10_000, table, N, false);
+    let per_sample = m.per_op(N, work, base);
+    // Fill the interval, then time the push that closes it.
+    pushes(&mut st, T0 + i64::from(10 + N) * 1000, table, 590 - N, true);
+    let start = now();
+    let r = black_box(&table[0]);
+    st.push(Timestamp::from_millis(T0 + 600_000), r, |e| {
+        black_box(&e);
+    });
+    let closing = ticks(start, now());
+    let close = m.per_op(1, closing, 0).saturating_sub(per_sample);
+    // Time `finish` of every channel of a full interval.
+    let mut finish = 0u64;
+    let lay = *st.layout();
+    pushes(&mut st, T0 + 600_000 + 1000, table, 599, true);
+    st.push(Timestamp::from_millis(T0 + 1_200_000), r, |e| {
+        if let Event::Closed(acc) = e {
+            let start = now();
+            for ch in 0..C {
+                black_box(lay.finish(acc, ch));
+            }
+            finish = m.per_op(1, ticks(start, now()), 0);
+        }
+    });
+    println!(
+        "budget: {:<34} per sample {:>6}   interval close {:>6}   finish {:>6} ({} per channel)",
+        name,
+        per_sample,
+        close,
+        finish,
+        finish / C.max(1) as u64
+    );
+    (per_sample, finish / C.max(1) as u64)
+}
+
+fn speed_values(step: f64) -> [[Reading; 1]; 8] {
+    core::array::from_fn(|i| [Reading::Value(8.0 + step * (i as f64 * 37.0 % 11.0))])
+}
+
+#[inline(never)]
+fn single_channel_cases(m: &Meter) -> Option<()> {
+    let st = StationConfig::ten_minute_1hz();
+    let speed = ChannelConfig::speed(0.01);
+    let cup = ChannelConfig::speed(1.0).with_calibration(scenario::CUP_SLOPE, scenario::CUP_OFFSET);
+    let vane_counts = ChannelConfig::direction().with_calibration(360.0 / 26_400.0, 0.0);
+    // The station's own work per sample (time checks, interval bookkeeping).
+    let l = Layout::new::<3>(st, []).ok()?;
+    station_case(m, "station alone (0 channels)", l, &[[]; 8]);
+    let l = Layout::new::<3>(st, [speed]).ok()?;
+    station_case(m, "speed, Reading::Value", l, &speed_values(0.17));
+    let l = Layout::new::<3>(st, [cup]).ok()?;
+    let t: [[Reading; 1]; 8] =
+        core::array::from_fn(|i| [Reading::Counts(150 + (i as i32 * 7) % 23)]);
+    station_case(m, "speed, Reading::Counts (cup)", l, &t);
+    let l = Layout::new::<3>(st, [ChannelConfig::direction()]).ok()?;
+    let t: [[Reading; 1]; 8] =
+        core::array::from_fn(|i| [Reading::Value((350.0 + i as f64 * 3.7) % 360.0)]);
+    station_case(m, "direction, Reading::Value", l, &t);
+    let l = Layout::new::<3>(st, [vane_counts]).ok()?;
+    let t: [[Reading; 1]; 8] = core::array::from_fn(|i| [Reading::Counts(25_900 + i as i32 * 130)]);
+    station_case(m, "direction, Reading::Counts (vane)", l, &t);
+    let l = Layout::new::<3>(st, [ChannelConfig::scalar(0.01)]).ok()?;
+    let t: [[Reading; 1]; 8] = core::array::from_fn(|i| [Reading::Value(3.0 + i as f64 * 0.03)]);
+    station_case(m, "scalar, Reading::Value", l, &t);
+    // A direction linked to a speed: the two-channel station less the speed alone.
+    let l = Layout::new::<3>(st, [cup, vane_counts.with_speed_channel(0)]).ok()?;
+    let t: [[Reading; 2]; 8] = core::array::from_fn(|i| {
+        [
+            Reading::Counts(150 + (i as i32 * 7) % 23),
+            Reading::Counts(25_900 + i as i32 * 130),
+        ]
+    });
+    station_case(m, "cup + linked vane (2 channels)", l, &t);
+    Some(())
+}
+
+/// Marks the start of a profiled region in an instruction trace.
+#[inline(never)]
+fn profile_mark(case: u32) {
+    black_box(case);
+}
+
+#[inline(never)]
+fn profile_cases() -> Option<()> {
+    let st = StationConfig::ten_minute_1hz();
+    let cup = ChannelConfig::speed(1.0).with_calibration(scenario::CUP_SLOPE, scenario::CUP_OFFSET);
+    let vane = ChannelConfig::direction().with_calibration(360.0 / 26_400.0, 0.0);
+    let value = speed_values(0.17);
+    let counts: [[Reading; 1]; 8] = core::array::from_fn(|i| [Reading::Counts(150 + i as i32)]);
+    let dirs: [[Reading; 1]; 8] =
+        core::array::from_fn(|i| [Reading::Counts(25_900 + i as i32 * 130)]);
+    for (case, layout, table) in [
+        (
+            1,
+            Layout::new::<3>(st, [ChannelConfig::speed(0.01)]).ok()?,
+            &value,
+        ),
+        (2, Layout::new::<3>(st, [cup]).ok()?, &counts),
+        (3, Layout::new::<3>(st, [vane]).ok()?, &dirs),
+    ] {
+        let mut s: Station<1, 3> = Station::new(layout);
+        pushes(&mut s, T0, table, 10, true);
+        profile_mark(case);
+        pushes(&mut s, T0 + 10_000, table, 100, true);
+        profile_mark(100 + case);
+        pushes(&mut s, T0 + 110_000, table, 490, true);
+        profile_mark(200 + case);
+        pushes(&mut s, T0 + 600_000, table, 1, true);
+        profile_mark(300 + case);
+    }
+    Some(())
+}
+
+#[inline(never)]
+fn scenario_case(m: &Meter, slot: &mut LoggerSlot) -> Option<()> {
+    let logger = Logger::start_in(slot)?;
+    let table: [[Reading; CHANNELS]; 8] = core::array::from_fn(|i| {
+        let i = i as i32;
+        [
+            Reading::Counts(150 + (i * 7) % 23),
+            Reading::Counts(149 + (i * 5) % 19),
+            Reading::Value(6.5 + f64::from(i) * 0.13),
+            Reading::Counts((25_900 + i * 130) % 26_400),
+            Reading::Value(1.5 + f64::from(i) * 0.01),
+            Reading::Value(88.0 + f64::from(i) * 0.2),
+            Reading::Value(1_012.4),
+            Reading::Value(12.61 - f64::from(i) * 0.001),
+        ]
+    });
+    let mut sink = |f: &[u8; FRAME_LEN]| -> Result<(), ()> {
+        black_box(f);
+        Ok(())
+    };
+    let mut run = |logger: &mut Logger, t0: i64, n: u32, push: bool| {
+        let start = now();
+        for i in 0..n {
+            let t = Timestamp::from_millis(t0 + i64::from(i) * 1000);
+            let r = black_box(&table[(i & 7) as usize]);
+            if push {
+                black_box(logger.push(t, r, &mut sink).is_ok());
+            } else {
+                black_box((t, r));
+            }
+        }
+        ticks(start, now())
+    };
+    run(logger, T0, 10, true);
+    let work = run(logger, T0 + 10_000, N, true);
+    let base = run(logger, T0 + 10_000, N, false);
+    let per_sample = m.per_op(N, work, base);
+    run(logger, T0 + i64::from(10 + N) * 1000, 590 - N, true);
+    let closing = run(logger, T0 + 600_000, 1, true);
+    let close = m.per_op(1, closing, 0).saturating_sub(per_sample);
+    println!(
+        "budget: {:<34} per sample {:>6}   interval close {:>6}   ({} per channel, incl. frames)",
+        "scenario logger (8 channels)",
+        per_sample,
+        close,
+        close / CHANNELS as u64
+    );
+    // One record frame: encode only.
+    let frame = RecordFrame {
+        sequence: 7,
+        interval_start: Timestamp::from_millis(T0),
+        channel: 3,
+        record: logger
+            .station()
+            .layout()
+            .finish(logger.station().open()?, 3)?,
+    };
+    let mut out = [0u8; FRAME_LEN];
+    let start = now();
+    for _ in 0..50 {
+        encode_record(black_box(&frame), &mut out);
+        black_box(&out);
+    }
+    let enc = m.per_op(50, ticks(start, now()), 0);
+    println!(
+        "budget: {:<34} {:>6} instructions",
+        "encode one record frame", enc
+    );
+    println!(
+        "budget: sizes: Station<8,3> {} B, Layout<8> {} B, IntervalAcc<8,3> {} B, ChannelRecord {} B",
+        core::mem::size_of::<Station<CHANNELS, 3>>(),
+        core::mem::size_of::<Layout<CHANNELS>>(),
+        core::mem::size_of::<qc_core::IntervalAcc<CHANNELS, 3>>(),
+        core::mem::size_of::<qc_core::ChannelRecord>(),
+    );
+    Some(())
+}
+
+#[entry]
+fn main() -> ! {
+    // The 8-channel logger lives in static memory (see the replay binary).
+    static mut LOGGER: LoggerSlot = LoggerSlot::Empty;
+    let Some(p) = Peripherals::take() else {
+        process::exit(1)
+    };
+    let mut syst = p.SYST;
+    syst.set_clock_source(SystClkSource::Core);
+    syst.set_reload(SYST_MASK);
+    syst.clear_current();
+    syst.enable_counter();
+    let m = Meter {
+        milli_insn_per_tick: calibrate(),
+    };
+    println!(
+        "budget: calibration {}.{:03} instructions per SysTick tick",
+        m.milli_insn_per_tick / 1000,
+        m.milli_insn_per_tick % 1000
+    );
+    // `budget profile` (semihosting command line): only a few pushes of each
+    // kind, for an instruction trace (`-singlestep -d exec,nochain`).
+    let args = semihosting::experimental::env::args::<128>();
+    let profile = args
+        .as_ref()
+        .ok()
+        .and_then(|a| a.into_iter().nth(1))
+        .is_some_and(|a| a == Ok("profile"));
+    if profile {
+        profile_cases();
+        process::exit(0)
+    }
+    if single_channel_cases(&m).is_none() || scenario_case(&m, LOGGER).is_none() {
+        println!("budget: a case did not run");
+        process::exit(1)
+    }
+    process::exit(0)
+}

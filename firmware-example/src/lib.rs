@@ -1,0 +1,25 @@
+//! Example logger firmware for Cortex-M, built on `qc-core`.
+//!
+//! - [`drivers`]: sensor drivers generic over embedded-hal 1.0 (a vane on an
+//!   I2C ADC, analog sensors on an SPI ADC) and a pulse-counter trait of ours
+//!   for cup anemometers.
+//! - [`scenario`]: the 8-channel station of the replay scenario and the
+//!   [`scenario::Logger`] that turns samples into record-log frames; the host
+//!   example `qc-core/examples/replay_frames.rs` compiles the same file.
+//! - [`replay`]: the replay loop over a sample file.
+//! - [`sim`]: simulated bus devices for running the drivers without hardware.
+//!
+//! The binaries (`src/bin`) run under QEMU with semihosting; see the README.
+//!
+//! # Panics
+//!
+//! Nothing here panics on any input; the drivers return their bus's errors.
+
+#![cfg_attr(not(test), no_std)]
+#![forbid(unsafe_code)]
+#![deny(missing_docs)]
+
+pub mod drivers;
+pub mod replay;
+pub mod scenario;
+pub mod sim;
