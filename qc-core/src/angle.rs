@@ -21,6 +21,8 @@ pub const FULL_TURN_CD: i32 = 36_000;
 
 const QUARTER_CD: i32 = 9_000;
 
+use crate::moments::mul_u32;
+
 /// sin of whole degrees 0..=90, Q30.
 static SIN_DEG: [i32; 91] = {
     let mut t = [0i32; 91];
@@ -96,15 +98,20 @@ const fn round_q60(x: i64) -> i64 {
 ///
 /// Any `i32` is accepted and reduced modulo a full turn first.
 pub fn sin_cos_cd(cd: i32) -> (i64, i64) {
-    let cd = cd.rem_euclid(FULL_TURN_CD);
+    let cd = if (0..FULL_TURN_CD).contains(&cd) {
+        cd
+    } else {
+        cd.rem_euclid(FULL_TURN_CD)
+    };
     let quadrant = cd / QUARTER_CD;
     let r = cd % QUARTER_CD;
     let deg = (r / 100) as usize;
     let centi = (r % 100) as usize;
-    let (sd, cd_) = (i64::from(SIN_DEG[deg]), i64::from(SIN_DEG[90 - deg]));
-    let (sc, cc) = (i64::from(SIN_CENTI[centi]), i64::from(COS_CENTI[centi]));
-    let s = round_q60(sd * cc + cd_ * sc);
-    let c = round_q60(cd_ * cc - sd * sc);
+    // Table values are in [0, 2^30], so the products are unsigned 32 x 32 bits.
+    let (sd, cd_) = (SIN_DEG[deg] as u32, SIN_DEG[90 - deg] as u32);
+    let (sc, cc) = (SIN_CENTI[centi] as u32, COS_CENTI[centi] as u32);
+    let s = round_q60((mul_u32(sd, cc) + mul_u32(cd_, sc)) as i64);
+    let c = round_q60(mul_u32(cd_, cc) as i64 - mul_u32(sd, sc) as i64);
     match quadrant {
         0 => (s, c),
         1 => (c, -s),
@@ -115,7 +122,17 @@ pub fn sin_cos_cd(cd: i32) -> (i64, i64) {
 
 /// Normalises degrees into [0, 360).
 pub fn normalise_deg(d: f64) -> f64 {
-    let mut r = libm::fmod(d, 360.0);
+    // Within one turn either side (every caller in this crate), one add or
+    // subtract gives what `fmod` would, without its cost in software floating point.
+    let mut r = if (-360.0..720.0).contains(&d) {
+        if d >= 360.0 {
+            d - 360.0
+        } else {
+            d
+        }
+    } else {
+        libm::fmod(d, 360.0)
+    };
     if r < 0.0 {
         r += 360.0;
     }

@@ -11,7 +11,7 @@ use crate::direction::{DirectionSums, ResultantSums};
 use crate::error::ChannelProblem;
 use crate::flags::Flags;
 use crate::gust::Gust;
-use crate::moments::Moments;
+use crate::moments::{mul_i32, Moments};
 use crate::screen::Screen;
 
 /// What a channel measures.
@@ -350,7 +350,8 @@ impl Channel {
                 } else if k < self.lo_k || k > self.hi_k {
                     Class::OutOfRange
                 } else if self.cfg.kind == Kind::Direction {
-                    let cd = (i64::from(k) * self.dir_mul + self.dir_add) >> 16;
+                    // |dir_mul| < 2^31 (slope <= 300 deg/count), so one 32 x 32 product.
+                    let cd = (mul_i32(k, self.dir_mul as i32) + self.dir_add) >> 16;
                     Class::Valid(self.wrap_cd(cd))
                 } else {
                     Class::Valid(k)
@@ -377,7 +378,20 @@ impl Channel {
     }
 
     fn wrap_cd(&self, cd: i64) -> i32 {
-        (cd + i64::from(self.offset_cd)).rem_euclid(36_000) as i32
+        let cd = cd + i64::from(self.offset_cd);
+        // In-range directions are within a turn or two of 0..36000: compare and
+        // subtract instead of a 64-bit division (costly on a 32-bit core).
+        if (-36_000..72_000).contains(&cd) {
+            let mut c = cd as i32;
+            if c < 0 {
+                c += 36_000;
+            } else if c >= 36_000 {
+                c -= 36_000;
+            }
+            c
+        } else {
+            cd.rem_euclid(36_000) as i32
+        }
     }
 }
 

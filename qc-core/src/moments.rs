@@ -37,6 +37,41 @@ impl Wide {
     pub fn add(&mut self, v: i128) {
         *self = Wide::new(self.get().wrapping_add(v));
     }
+
+    /// Adds a non-negative 64-bit value: one add with carry, no 128-bit
+    /// arithmetic (cheap on a 32-bit core).
+    #[inline]
+    pub fn add_u64(&mut self, v: u64) {
+        let (lo, carry) = self.lo.overflowing_add(v);
+        self.lo = lo;
+        self.hi = self.hi.wrapping_add(u64::from(carry));
+    }
+}
+
+/// `a * b` for 32-bit operands as a 64-bit product, from four 16-bit partial
+/// products: a Cortex-M0 has only a 32-bit multiply, and the generic 64-bit
+/// multiply helper costs several times more. Exact for every input.
+#[inline]
+pub const fn mul_u32(a: u32, b: u32) -> u64 {
+    let (ah, al) = (a >> 16, a & 0xFFFF);
+    let (bh, bl) = (b >> 16, b & 0xFFFF);
+    let low = al * bl;
+    let mid1 = ah * bl;
+    let mid2 = al * bh;
+    let high = ah * bh;
+    let mid = mid1 as u64 + mid2 as u64;
+    ((high as u64) << 32) + (mid << 16) + low as u64
+}
+
+/// `a * b` for signed 32-bit operands, exact, via [`mul_u32`].
+#[inline]
+pub const fn mul_i32(a: i32, b: i32) -> i64 {
+    let p = mul_u32(a.unsigned_abs(), b.unsigned_abs()) as i64;
+    if (a < 0) != (b < 0) {
+        -p
+    } else {
+        p
+    }
 }
 
 /// Sum, sum of squares, minimum and maximum of `i32` quanta.
@@ -87,9 +122,15 @@ impl Moments {
     /// Adds one sample.
     #[inline]
     pub fn push(&mut self, q: i32) {
-        let q64 = i64::from(q);
-        self.sum += q64;
-        self.sum_sq.add(i128::from(q64 * q64));
+        self.sum += i64::from(q);
+        let a = q.unsigned_abs();
+        // Quanta below 2^16 (0.01 m/s up to 655 m/s) square in one 32-bit multiply.
+        let sq = if a < 1 << 16 {
+            u64::from(a * a)
+        } else {
+            mul_u32(a, a)
+        };
+        self.sum_sq.add_u64(sq);
         self.min = self.min.min(q);
         self.max = self.max.max(q);
     }
@@ -133,6 +174,35 @@ impl Moments {
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    #[test]
+    fn small_multiplies_are_exact() {
+        let edge = [
+            0u32,
+            1,
+            2,
+            0xFFFF,
+            0x1_0000,
+            0x1_0001,
+            0x7FFF_FFFF,
+            0x8000_0000,
+            u32::MAX,
+        ];
+        for a in edge {
+            for b in edge {
+                assert_eq!(mul_u32(a, b), u64::from(a) * u64::from(b), "{a} {b}");
+            }
+        }
+        let signed = [0i32, 1, -1, i32::MAX, i32::MIN, 12_345, -65_536, 1 << 30];
+        for a in signed {
+            for b in signed {
+                assert_eq!(mul_i32(a, b), i64::from(a) * i64::from(b), "{a} {b}");
+            }
+        }
+        let mut w = Wide::new(i128::from(u64::MAX) - 3);
+        w.add_u64(10);
+        assert_eq!(w.get(), i128::from(u64::MAX) + 7);
+    }
 
     #[test]
     fn wide_round_trips() {

@@ -124,8 +124,14 @@ impl Recovery {
 
     /// Adds a closed interval starting at `start`; `passed` if it passed screening.
     pub fn add_interval(&mut self, start: Timestamp, possible: u32, t: &Tally, passed: bool) {
+        self.add_interval_in(start.month(), possible, t, passed);
+    }
+
+    /// [`Recovery::add_interval`] for a caller that already knows the month of
+    /// the interval (splitting a timestamp into a date costs 64-bit divisions).
+    pub fn add_interval_in(&mut self, month: Month, possible: u32, t: &Tally, passed: bool) {
         self.since_start.add(possible, t, passed);
-        self.enter_month(start.month());
+        self.enter_month(month);
         self.this_month.add(possible, t, passed);
     }
 

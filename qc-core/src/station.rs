@@ -25,7 +25,7 @@ use crate::error::{ChannelProblem, ConfigError};
 use crate::flags::Flags;
 use crate::recovery::Recovery;
 use crate::screen::{interval_flags, passes, Screener, Spikes};
-use crate::time::Timestamp;
+use crate::time::{Month, Timestamp};
 
 /// Most missing-value codes a station may have.
 pub const MAX_SENTINELS: usize = 4;
@@ -470,6 +470,8 @@ pub struct Station<const C: usize, const G: usize> {
     last: Option<Timestamp>,
     /// End (ms, exclusive) of the open interval; `i64::MIN` when none is open.
     open_end: i64,
+    /// The month of the latest closed interval and its span, ms.
+    month: Option<(Month, i64, i64)>,
     recovery: [Recovery; C],
     screener: Screener<C>,
     totals: PushTotals,
@@ -484,6 +486,7 @@ impl<const C: usize, const G: usize> Station<C, G> {
             cursor: None,
             last: None,
             open_end: i64::MIN,
+            month: None,
             recovery: [Recovery::new(); C],
             screener: Screener::new(),
             totals: PushTotals {
@@ -593,6 +596,18 @@ impl<const C: usize, const G: usize> Station<C, G> {
         self.cursor = Some(k.max(first));
     }
 
+    /// The calendar month of `t`, from a cache of the current month's span.
+    fn month_of(&mut self, t: Timestamp) -> Month {
+        match self.month {
+            Some((m, from, to)) if (from..to).contains(&t.millis()) => m,
+            _ => {
+                let m = t.month();
+                self.month = Some((m, m.start().millis(), m.next().start().millis()));
+                m
+            }
+        }
+    }
+
     /// Closes the open interval, if any, and hands it to `emit` (end of data).
     /// Later samples in that interval are rejected as [`Reject::ClosedInterval`].
     pub fn close<F: FnMut(Event<'_, C, G>)>(&mut self, mut emit: F) {
@@ -600,8 +615,9 @@ impl<const C: usize, const G: usize> Station<C, G> {
         if let Some(mut acc) = self.open.take() {
             let start = self.layout.interval_start(acc.index);
             let records = self.layout.screen(&mut self.screener, &mut acc);
+            let month = self.month_of(start);
             for (r, rec) in self.recovery.iter_mut().zip(records.iter()) {
-                r.add_interval(start, self.layout.samples, &rec.tally, passes(rec));
+                r.add_interval_in(month, self.layout.samples, &rec.tally, passes(rec));
             }
             self.cursor = Some(acc.index + 1);
             emit(Event::Closed(&acc));

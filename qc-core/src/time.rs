@@ -129,6 +129,21 @@ impl Month {
     pub fn start(self) -> Timestamp {
         Timestamp(days_from_civil(i64::from(self.year), self.month, 1) * MS_PER_DAY)
     }
+
+    /// The following month.
+    pub const fn next(self) -> Month {
+        if self.month >= 12 {
+            Month {
+                year: self.year + 1,
+                month: 1,
+            }
+        } else {
+            Month {
+                year: self.year,
+                month: self.month + 1,
+            }
+        }
+    }
 }
 
 /// Whether `year` is a Gregorian leap year.
