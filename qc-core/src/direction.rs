@@ -11,7 +11,7 @@
 //! accumulated exactly too: the speed enters as its integer quanta `q`, with
 //! `u = offset + step * q`, so `sum(u sin th) = offset * sum(sin th) + step * sum(q sin th)`.
 
-use crate::angle::{normalise_deg, sin_cos_cd, to_deg, ONE_Q30};
+use crate::angle::{sin_cos_cd, to_deg, ONE_Q30};
 use crate::moments::Wide;
 
 /// Below this mean resultant length the mean direction is reported undefined.
@@ -80,12 +80,14 @@ impl DirectionSums {
         if n == 0 {
             return None;
         }
+        // atan2 does not depend on the common scale of its arguments, so the sums
+        // go in as they are; one division gives r^2 (each f64 division costs
+        // hundreds of instructions on a core without an FPU).
+        let (s, c) = (self.sin as f64, self.cos as f64);
         let scale = ONE_Q30 as f64 * f64::from(n);
-        let sa = self.sin as f64 / scale;
-        let ca = self.cos as f64 / scale;
-        let r2 = sa * sa + ca * ca;
+        let r2 = (s * s + c * c) / (scale * scale);
         let r = libm::sqrt(r2);
-        let mean_deg = (r >= MIN_RESULTANT).then(|| normalise_deg(to_deg(libm::atan2(sa, ca))));
+        let mean_deg = (r >= MIN_RESULTANT).then(|| from_atan2_deg(libm::atan2(s, c)));
         let sigma_deg = if 1.0 - r2 <= SPREAD_FLOOR {
             0.0
         } else {
@@ -96,6 +98,22 @@ impl DirectionSums {
             sigma_deg,
             resultant_length: r.min(1.0),
         })
+    }
+}
+
+/// Degrees in [0, 360) from an `atan2` result in [-pi, pi].
+fn from_atan2_deg(rad: f64) -> f64 {
+    let d = to_deg(rad);
+    if d < 0.0 {
+        let w = d + 360.0;
+        // -1e-20 + 360 rounds to 360, which belongs to 0.
+        if w >= 360.0 {
+            0.0
+        } else {
+            w
+        }
+    } else {
+        d
     }
 }
 
@@ -172,11 +190,12 @@ impl ResultantSums {
             return None;
         }
         let scale = ONE_Q30 as f64 * f64::from(self.n);
-        let ve = -(offset * self.sin as f64 + step * self.q_sin.get() as f64) / scale;
-        let vn = -(offset * self.cos as f64 + step * self.q_cos.get() as f64) / scale;
-        let speed = libm::sqrt(ve * ve + vn * vn);
-        let direction_deg =
-            (speed >= MIN_RESULTANT).then(|| normalise_deg(to_deg(libm::atan2(ve, vn)) + 180.0));
+        // The wind blows toward -(Ve, Vn): the direction it comes from is
+        // atan2(Ve, Vn) + 180, i.e. atan2 of the sums without their minus signs.
+        let e = offset * self.sin as f64 + step * self.q_sin.get() as f64;
+        let m = offset * self.cos as f64 + step * self.q_cos.get() as f64;
+        let speed = libm::sqrt(e * e + m * m) / scale;
+        let direction_deg = (speed >= MIN_RESULTANT).then(|| from_atan2_deg(libm::atan2(e, m)));
         Some(Resultant {
             speed,
             direction_deg,
