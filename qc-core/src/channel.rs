@@ -366,10 +366,10 @@ impl Channel {
                     Class::Valid(self.wrap_cd(libm::round(v * 100.0) as i64))
                 } else {
                     let Scale { offset, step } = self.cfg.scale;
-                    let q = match self.inv_step {
-                        Some(inv) => libm::round((v - offset) * inv),
-                        None => libm::round((v - offset) / step),
-                    };
+                    let q = round_half_away(match self.inv_step {
+                        Some(inv) => (v - offset) * inv,
+                        None => (v - offset) / step,
+                    });
                     // In range, so within the validated 31-bit limits (+/-1 for rounding).
                     Class::Valid(q as i32)
                 }
@@ -392,6 +392,26 @@ impl Channel {
         } else {
             cd.rem_euclid(36_000) as i32
         }
+    }
+}
+
+/// Rounds half away from zero, like `libm::round`, with a cheaper path for
+/// values below 2^52 (all quanta are): there the truncation and the fraction
+/// `x - trunc(x)` are exact, so the result is the same integer (the sign of a
+/// zero may differ, which the cast to quanta drops).
+#[inline]
+fn round_half_away(x: f64) -> f64 {
+    if x.is_nan() || libm::fabs(x) >= 4_503_599_627_370_496.0 {
+        return libm::round(x);
+    }
+    let t = x as i64 as f64;
+    let d = x - t;
+    if d >= 0.5 {
+        t + 1.0
+    } else if d <= -0.5 {
+        t - 1.0
+    } else {
+        t
     }
 }
 
@@ -792,6 +812,45 @@ impl ChannelRecord {
             resultant_direction: resultant,
             spikes: 0,
             flags: Flags::EMPTY,
+        }
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn rounding_matches_libm_round() {
+        let mut x: u64 = 0x2545_F491_4F6C_DD1D;
+        let mut values = std::vec![
+            0.5,
+            -0.5,
+            1.5,
+            -1.5,
+            2.5,
+            0.49999999999999994,
+            -0.49999999999999994,
+            4_503_599_627_370_495.5,
+            -4_503_599_627_370_495.5,
+            1e300,
+            -1e300,
+            7.0,
+            -7.0,
+            0.0,
+            -0.0
+        ];
+        for _ in 0..100_000 {
+            x ^= x << 13;
+            x ^= x >> 7;
+            x ^= x << 17;
+            let scale = [1.0, 100.0, 1e6, 3e9][(x % 4) as usize];
+            values.push(((x >> 11) as f64 / (1u64 << 53) as f64 - 0.5) * scale);
+            values.push((x % 2_000_001) as f64 / 2.0 - 500_000.0);
+        }
+        for v in values {
+            assert_eq!(round_half_away(v) as i64, libm::round(v) as i64, "{v}");
+            assert_eq!(round_half_away(v), libm::round(v), "{v}");
         }
     }
 }
