@@ -1,7 +1,7 @@
 #!/usr/bin/env bash
 # The project's test command (README "Test"). Installs what it needs on a fresh
 # machine, then runs every check CI runs. Usage: ./check.sh [--quick]
-#   --quick  skips the cross builds and the firmware under QEMU.
+#   --quick  skips the cross builds, the browser check and the firmware under QEMU.
 set -euo pipefail
 cd "$(dirname "$0")"
 quick=0
@@ -33,6 +33,9 @@ if [ $quick = 0 ]; then
     cargo build -p qc-core --release --target "$target"
     cargo build -p qc-core --release --target "$target" --features defmt
   done
+  step "report page in headless Chromium (installs Debian chromium when missing)"
+  host-cli/tests/report-browser/check.sh
+
   if [ -x firmware-example/run-checks.sh ]; then
     step "firmware under QEMU"
     firmware-example/run-checks.sh

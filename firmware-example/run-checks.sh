@@ -1,7 +1,11 @@
 #!/usr/bin/env bash
-# Firmware checks: build for Cortex-M0 and Cortex-M4F, replay an invented day
-# under QEMU on both, compare both record logs bit for bit with the host replay,
-# run the sensor-driver demo, and print the budgets table (README "Budgets").
+# Firmware checks: build for Cortex-M0 and Cortex-M4F; replay a day of the
+# `tenmin demo` station under QEMU on both (sample file from `tenmin export`,
+# station built from its header), decode both record logs with `tenmin decode`
+# and check them with `tenmin verify` against the samples; cut and damage the
+# Cortex-M0 log and check what decode reports; refuse stations that do not fit;
+# replay the fixed 8-channel scenario day and compare it bit for bit with the
+# host; run the sensor-driver demo; print the budgets table (README "Budgets").
 # Installs what is missing (Rust targets, qemu-system-arm, llvm for llvm-size/nm).
 # Usage: firmware-example/run-checks.sh   (from anywhere; about a minute when built)
 set -euo pipefail
@@ -13,6 +17,7 @@ host_target="${CARGO_TARGET_DIR:-$root/target}"
 mkdir -p "$out"
 
 step() { printf '\n== %s\n' "$*"; }
+fail() { echo "run-checks.sh: FAILED: $*" >&2; exit 1; }
 as_root() { if [ "$(id -u)" = 0 ]; then "$@"; else sudo "$@"; fi; }
 apt_updated=0
 need_apt() { # need_apt COMMAND PACKAGE
@@ -38,31 +43,122 @@ step "defmt feature compiles (check only: a board adds a global logger to link)"
 for t in thumbv6m-none-eabi thumbv7em-none-eabihf; do
   CARGO_TARGET_DIR="$fw_target" cargo check --release --target "$t" --features defmt --quiet
 done
-step "firmware library tests on the host (drivers against simulated devices, chunked replay)"
+step "firmware library tests on the host (drivers against simulated devices, replay loop)"
 host_triple="$(rustc -vV | sed -n 's/^host: //p')"
 CARGO_TARGET_DIR="$fw_target" cargo test --lib --target "$host_triple" --quiet
-
-step "host: generate the day"
-cd "$root"
-CARGO_TARGET_DIR="$host_target" cargo build -p qc-core --example replay_frames --release --quiet
-host_tool="$host_target/release/examples/replay_frames"
-"$host_tool" generate "$out/day.tmsf"
 
 qemu_m0=(qemu-system-arm -machine microbit -cpu cortex-m0 -nographic -monitor none -serial none)
 qemu_m4=(qemu-system-arm -machine mps2-an386 -cpu cortex-m4 -nographic -monitor none -serial none)
 semi="enable=on,target=native"
 elf() { echo "$fw_target/$1/release/$2"; }
+# replay_on m0|m4 SAMPLES LOG: the replay board under QEMU; its exit status.
+replay_on() {
+  local q
+  if [ "$1" = m0 ]; then q=("${qemu_m0[@]}"); else q=("${qemu_m4[@]}"); fi
+  local t=thumbv6m-none-eabi
+  [ "$1" = m4 ] && t=thumbv7em-none-eabihf
+  timeout 120 "${q[@]}" -semihosting-config "$semi,arg=replay,arg=$2,arg=$3" -kernel "$(elf "$t" replay)"
+}
 
-step "replay under QEMU and compare with the host"
+step "stack guard: the stack lies below the statics (memory/microbit.x)"
+# Overflowing the stack then runs off the start of RAM and faults (QEMU:
+# "Lockup", exit status 134) instead of overwriting the logger.
+nm_of() { llvm-nm "$(elf thumbv6m-none-eabi replay)" | awk -v s="$1" '$3==s{print $1}'; }
+stack_top=$((16#$(nm_of _stack_start))); stack_bottom=$((16#$(nm_of _stack_end)))
+bss_start=$((16#$(nm_of __sbss))); bss_end=$((16#$(nm_of __ebss)))
+printf 'stack 0x%08x-0x%08x (%d B), statics 0x%08x-0x%08x (%d B)\n' \
+  "$stack_bottom" "$stack_top" $((stack_top - stack_bottom)) "$bss_start" "$bss_end" $((bss_end - bss_start))
+[ "$stack_bottom" = $((16#20000000)) ] && [ "$stack_top" -le "$bss_start" ] \
+  || fail "the stack is not below the statics"
+
+step "host: tenmin (release) and the scenario example"
+cd "$root"
+CARGO_TARGET_DIR="$host_target" cargo build -p host-cli --release --quiet
+CARGO_TARGET_DIR="$host_target" cargo build -p qc-core --example replay_frames --release --quiet
+tenmin="$host_target/release/tenmin"
+host_tool="$host_target/release/examples/replay_frames"
+
+step "a day of demo data: tenmin demo, tenmin export"
 cd "$out"
+rm -rf demo && "$tenmin" demo --days 1 --out demo >demo.txt
+grep '^verify:' demo.txt
+"$tenmin" export --config demo/station.toml demo/samples-*.csv -o demo.tmsf
+
+step "replay under QEMU on both targets, tenmin decode, tenmin verify"
+rm -f demo-m0.log demo-m4.log
+replay_on m0 demo.tmsf demo-m0.log
+replay_on m4 demo.tmsf demo-m4.log
+for m in m0 m4; do
+  "$tenmin" decode --strict --config demo/station.toml "demo-$m.log" -o "decoded-$m.csv"
+  "$tenmin" verify -q --config demo/station.toml --samples demo/samples-*.csv --records "decoded-$m.csv" \
+    || fail "tenmin verify of the $m log"
+done
+cmp demo-m0.log demo-m4.log && echo "Cortex-M0 and Cortex-M4F logs are identical"
+rows=$(($(wc -l <decoded-m0.csv) - 1))
+
+step "damaged logs: tenmin decode reports the damage, everything before it verifies"
+# damage_check NAME FILE: FILE is a damaged copy of the M0 log. decode --strict
+# must exit 1 and name the damage with byte offsets; verify must find exactly the
+# rows the decode could not write missing, and every other row identical.
+damage_check() {
+  local name=$1 file=$2 st=0
+  "$tenmin" decode --strict -q --config demo/station.toml "$file" -o "$name.csv" 2>"$name.err" || st=$?
+  [ $st = 1 ] || fail "$name: decode --strict exit status $st, expected 1"
+  grep -m 2 -E 'bytes [0-9]+ to [0-9]+' "$name.err" || fail "$name: decode named no damaged bytes"
+  st=0
+  "$tenmin" verify -q --max-diffs 100000 --config demo/station.toml --samples demo/samples-*.csv \
+    --records "$name.csv" >"$name.verify" || st=$?
+  [ $st = 1 ] || fail "$name: verify exit status $st, expected 1 (rows missing)"
+  kept=$(($(wc -l <"$name.csv") - 1))
+  local missing total
+  missing=$(grep -c 'row missing from the logger records' "$name.verify" || true)
+  total=$(sed -n 's/^verify: \([0-9]*\) difference.*/\1/p' "$name.verify")
+  [ "$missing" = $((rows - kept)) ] && [ "$total" = "$missing" ] \
+    || fail "$name: $total differences, $missing rows missing; expected only the $((rows - kept)) rows not decoded"
+  echo "$name: the $kept rows decoded are identical to the replay's, the $missing others reported missing"
+}
+frame=128
+# Cuts inside frame 100, just past frame 400's start, and inside the last frame:
+# the rows decoded are the first rows of the whole log's.
+for cut in $((frame * 100 + 57)) $((frame * 400 + 1)) $((frame * 857 + 127)); do
+  head -c "$cut" demo-m0.log >"cut-$cut.log"
+  damage_check "cut-$cut" "cut-$cut.log"
+  head -n $((kept + 1)) decoded-m0.csv | cmp -s - "cut-$cut.csv" \
+    || fail "cut at byte $cut: the decoded rows are not the first $kept rows of the whole log's"
+done
+# One bit of frame 300 flipped: that frame alone is lost.
+cp demo-m0.log flipped.log
+at=$((frame * 300 + 70))
+byte=$(od -An -tu1 -j "$at" -N1 demo-m0.log | tr -d ' ')
+printf "\\$(printf '%03o' $((byte ^ 0x20)))" | dd of=flipped.log bs=1 seek="$at" conv=notrunc status=none
+cmp -s demo-m0.log flipped.log && fail "the byte was not flipped"
+damage_check flipped flipped.log
+[ "$kept" = $((rows - 1)) ] || fail "flipped bit: $kept rows decoded, expected $((rows - 1))"
+
+step "stations that do not fit the replay board are refused, with the reason"
+mkdir -p misfit
+{
+  printf '[logging]\nsample_rate_hz = 1\n'
+  for i in 1 2 3 4 5 6 7 8 9; do printf '\n[[channel]]\nid = "t%d"\nkind = "scalar"\nresolution = 0.1\n' "$i"; done
+} >misfit/nine.toml
+printf 'time,t1,t2,t3,t4,t5,t6,t7,t8,t9\n2025-01-20T00:00:00Z,1,2,3,4,5,6,7,8,9\n' >misfit/nine.csv
+printf '[logging]\nsample_rate_hz = 4\n\n[[channel]]\nid = "ws"\nkind = "speed"\nresolution = 0.01\ngust_window_s = 4\n' >misfit/gust.toml
+printf 'time,ws\n2025-01-20T00:00:00Z,5.5\n' >misfit/gust.csv
+for case in nine gust; do
+  "$tenmin" export -q --config "misfit/$case.toml" "misfit/$case.csv" -o "misfit/$case.tmsf"
+  st=0
+  replay_on m0 "misfit/$case.tmsf" "misfit/$case.log" 2>"misfit/$case.err" || st=$?
+  cat "misfit/$case.err"
+  [ $st = 1 ] && grep -q 'this logger holds at most' "misfit/$case.err" || fail "$case: exit status $st"
+done
+
+step "the fixed scenario day (8 channels, raw counts) under QEMU, bit for bit against the host"
+"$host_tool" generate day.tmsf
 rm -f m0.log m4.log
-timeout 120 "${qemu_m0[@]}" -semihosting-config "$semi,arg=replay,arg=day.tmsf,arg=m0.log" \
-  -kernel "$(elf thumbv6m-none-eabi replay)"
-timeout 120 "${qemu_m4[@]}" -semihosting-config "$semi,arg=replay,arg=day.tmsf,arg=m4.log" \
-  -kernel "$(elf thumbv7em-none-eabihf replay)"
+replay_on m0 day.tmsf m0.log
+replay_on m4 day.tmsf m4.log
 "$host_tool" check day.tmsf m0.log
 "$host_tool" check day.tmsf m4.log
-cmp m0.log m4.log && echo "Cortex-M0 and Cortex-M4F logs are identical"
 
 step "sensor drivers on simulated devices under QEMU"
 timeout 60 "${qemu_m0[@]}" -semihosting-config "$semi" -kernel "$(elf thumbv6m-none-eabi sensors)" >sensors-m0.txt
@@ -104,7 +200,7 @@ llvm-nm -S -C --size-sort --radix=d "$(elf thumbv6m-none-eabi replay)" | awk '
     if (n ~ /qc_core/) c="qc-core";
     else if (n ~ /^libm::/) c="libm (qc-core dependency)";
     else if (n ~ /compiler_builtins|^__/) c="compiler-builtins (soft f64, 64-bit int, mem*)";
-    else if (n ~ /firmware_example|^replay::/) c="firmware (scenario, replay loop, inlined qc-core)";
+    else if (n ~ /firmware_example|^replay::/) c="firmware (logger, replay loop, inlined qc-core)";
     else if (n ~ /semihosting/) c="semihosting";
     else if (n ~ /cortex_m/) c="cortex-m, cortex-m-rt";
     else c="core (fmt, slices) and other";
@@ -115,6 +211,8 @@ m0_ram=$(sections "$(elf thumbv6m-none-eabi replay)" | awk '{print $4 + $5}')
 station=$(sed -n 's/.*Station<8,3> \([0-9]*\) B.*/\1/p' budget-m0.txt)
 acc=$(sed -n 's/.*IntervalAcc<8,3> \([0-9]*\) B.*/\1/p' budget-m0.txt)
 layout=$(sed -n 's/.*Layout<8> \([0-9]*\) B.*/\1/p' budget-m0.txt)
+replay_station=$(sed -n 's/.*replay logger: Station<8,12> \([0-9]*\) B.*/\1/p' budget-m0.txt)
+replay_slot=$(sed -n 's/.*replay logger: .*slot (station and a closed interval) \([0-9]*\) B.*/\1/p' budget-m0.txt)
 per() { sed -n "s/^budget: $1 *per sample *\([0-9]*\).*/\1/p" budget-m0.txt; }
 close_of() { sed -n "s/^budget: $1 *per sample *[0-9]* *interval close *\([0-9]*\).*/\1/p" budget-m0.txt; }
 verdict() { if [ "$1" -le "$2" ]; then echo met; else echo "missed by $(($1 - $2))"; fi; }
@@ -126,7 +224,10 @@ row "qc-core flash share: replay - baseline (bytes)" "$share" 16384
 row "channel state, 8 channels: Station<8,3> (bytes)" "$station" 2048
 row "  of which per-interval accumulators IntervalAcc<8,3>" "$acc" 2048
 printf '%-58s %10s\n' "  of which validated layout Layout<8> (could live in flash)" "$layout"
-printf '%-58s %10s\n' "logger RAM, static (.data + .bss, bytes)" "$m0_ram"
+printf '%-58s %10s\n' "replay board's station, 12-sample gusts: Station<8,12>" "$replay_station"
+printf '%-58s %10s\n' "  its static slot (station and a closed interval)" "$replay_slot"
+printf '%-58s %10s\n' "replay board RAM, static (.data + .bss, bytes)" "$m0_ram"
+printf '%-58s %10s\n' "replay board stack region (memory/microbit.x, bytes)" $((stack_top - stack_bottom))
 row "instructions per speed sample (cup, Reading::Counts)" "$(per 'speed, Reading::Counts (cup)')" 150
 row "instructions per speed sample (Reading::Value)" "$(per 'speed, Reading::Value')" 150
 row "instructions per direction sample (vane, Reading::Counts)" "$(per 'direction, Reading::Counts (vane)')" 300

@@ -1,20 +1,45 @@
-//! The replay loop: reads a sample file in small chunks, feeds every sample to
-//! the scenario [`Logger`], and writes the record frames it produces.
+//! The replay loop: reads a sample file (`qc_core::wire`, as `tenmin export`
+//! writes it) in small chunks, builds the station from the file's header, feeds
+//! every sample to a [`Logger`], and writes the record frames it produces.
+//!
+//! The logger holds up to [`CAPACITY`] channels with gust windows of up to
+//! [`GUST_CAPACITY`] samples. A station of fewer channels is padded with
+//! `ChannelConfig::scalar(1.0)` slots, fed `Reading::Missing`, that write no
+//! frames; a station that does not fit is refused with a [`ReplayError`] that
+//! says why, before any sample is read.
 //!
 //! The file source and the frame sink are traits, so the same loop runs on the
-//! firmware (semihosting files) and in host tests (byte slices).
+//! firmware (semihosting files) and on the host (byte slices, in the tests of
+//! this crate and in `host-cli/tests/firmware_io.rs`, which compiles this file).
 
 use core::fmt;
 
-use qc_core::wire::{decode_sample, decode_sample_header, SampleDecode, WireError, FRAME_LEN};
-use qc_core::wire::{sample_frame_max_len, SAMPLE_HEADER_LEN};
-use qc_core::Pushed;
+use qc_core::wire::{
+    decode_channel_part, decode_sample, decode_station_part, sample_frame_max_len, Crc32,
+    SampleDecode, WireError, CHANNEL_PART_LEN, FRAME_LEN, HEADER_CRC_LEN, STATION_PART_LEN,
+};
+use qc_core::{ChannelConfig, ConfigError, Kind, Layout, Pushed, Reading, StationConfig};
 
-use crate::scenario::{Logger, LoggerSlot, CHANNELS};
+use crate::logger::{Logger, LoggerSlot};
 
-/// Bytes read from the sample file at a time (must hold the longest frame).
-pub const CHUNK: usize = 512;
-const _: () = assert!(CHUNK >= sample_frame_max_len(CHANNELS) && CHUNK >= SAMPLE_HEADER_LEN);
+/// Most channels the replay logger holds.
+pub const CAPACITY: usize = 8;
+/// Longest gust window, in samples, the replay logger holds (3 s at 4 Hz).
+pub const GUST_CAPACITY: usize = 12;
+
+/// The replay logger.
+pub type ReplayLogger<'a> = Logger<'a, CAPACITY, GUST_CAPACITY>;
+/// Static storage for the replay logger.
+pub type ReplaySlot = LoggerSlot<CAPACITY, GUST_CAPACITY>;
+
+/// Bytes read from the sample file at a time (must hold the longest frame and
+/// each part of the header).
+pub const CHUNK: usize = 256;
+const _: () = assert!(
+    CHUNK >= sample_frame_max_len(CAPACITY)
+        && CHUNK >= STATION_PART_LEN
+        && CHUNK >= CHANNEL_PART_LEN
+);
 
 /// Something to read a sample file from.
 pub trait Source {
@@ -35,29 +60,51 @@ pub trait Sink {
 /// Why a replay stopped.
 #[derive(Debug)]
 pub enum ReplayError<R, W> {
-    /// The scenario layout was refused (a bug in the scenario).
-    Layout,
     /// Reading the sample file failed.
     Read(R),
     /// Writing a frame failed.
     Write(W),
     /// The sample file is not good at byte `offset`.
     Samples {
-        /// Byte offset of the header or frame at fault.
+        /// Byte offset of the header part or frame at fault.
         offset: usize,
         /// What is wrong there.
         error: WireError,
     },
+    /// The file's station has more channels than [`CAPACITY`].
+    Capacity {
+        /// Channels in the file's station.
+        channels: u8,
+    },
+    /// A speed channel's gust window is longer than [`GUST_CAPACITY`].
+    GustWindow {
+        /// Channel index.
+        channel: u8,
+        /// Its gust window, samples.
+        window: u16,
+    },
+    /// The core refused the file's station configuration.
+    Layout(ConfigError),
 }
 
 impl<R: fmt::Debug, W: fmt::Debug> fmt::Display for ReplayError<R, W> {
     fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
         match self {
-            ReplayError::Layout => f.write_str("scenario layout refused"),
             ReplayError::Read(e) => write!(f, "reading the sample file: {e:?}"),
             ReplayError::Write(e) => write!(f, "writing the record log: {e:?}"),
             ReplayError::Samples { offset, error } => {
                 write!(f, "sample file, byte {offset}: {error}")
+            }
+            ReplayError::Capacity { channels } => write!(
+                f,
+                "the sample file's station has {channels} channels; this logger holds at most {CAPACITY}"
+            ),
+            ReplayError::GustWindow { channel, window } => write!(
+                f,
+                "the sample file's channel {channel} has a gust window of {window} samples; this logger holds at most {GUST_CAPACITY}"
+            ),
+            ReplayError::Layout(e) => {
+                write!(f, "the sample file's station configuration is refused: {e}")
             }
         }
     }
@@ -67,6 +114,8 @@ impl<R: fmt::Debug, W: fmt::Debug> fmt::Display for ReplayError<R, W> {
 #[derive(Clone, Copy, Debug, Default, PartialEq, Eq)]
 #[cfg_attr(feature = "defmt", derive(defmt::Format))]
 pub struct ReplaySummary {
+    /// Channels in the file's station.
+    pub channels: u8,
     /// Samples read.
     pub samples: u64,
     /// Samples the station accepted.
@@ -77,93 +126,220 @@ pub struct ReplaySummary {
     pub frames: u32,
 }
 
-/// Replays the whole sample file from `source` into `sink`, with a new
-/// [`Logger`] put in `slot` (the caller chooses where the 5 KiB logger lives:
-/// on a 16 KiB part, in static memory rather than on the stack).
+/// The sample file, read through a buffer of [`CHUNK`] bytes.
+struct Input<'s, S: Source> {
+    source: &'s mut S,
+    buf: [u8; CHUNK],
+    /// First unread byte in `buf`.
+    start: usize,
+    /// Bytes in `buf`.
+    filled: usize,
+    /// File offset of `buf[start]`.
+    offset: usize,
+    eof: bool,
+}
+
+impl<S: Source> Input<'_, S> {
+    fn pending(&self) -> &[u8] {
+        self.buf.get(self.start..self.filled).unwrap_or(&[])
+    }
+
+    /// Moves what is left to the front and reads more behind it.
+    fn read_more(&mut self) -> Result<(), S::Error> {
+        self.buf.copy_within(self.start..self.filled, 0);
+        self.filled -= self.start;
+        self.start = 0;
+        let n = self
+            .source
+            .read(self.buf.get_mut(self.filled..).unwrap_or(&mut []))?;
+        self.eof = n == 0;
+        self.filled += n.min(CHUNK - self.filled);
+        Ok(())
+    }
+
+    /// Reads until `n` (at most [`CHUNK`]) bytes are pending; false if the
+    /// file ends first.
+    fn fill(&mut self, n: usize) -> Result<bool, S::Error> {
+        while self.pending().len() < n && !self.eof {
+            self.read_more()?;
+        }
+        Ok(self.pending().len() >= n)
+    }
+
+    fn consume(&mut self, n: usize) {
+        let n = n.min(self.filled - self.start);
+        self.start += n;
+        self.offset += n;
+    }
+}
+
+/// Reads `n` header bytes into the CRC and hands them to `decode`.
+fn header_part<S: Source, W, T>(
+    input: &mut Input<'_, S>,
+    crc: &mut Crc32,
+    n: usize,
+    decode: impl FnOnce(&[u8]) -> Result<T, WireError>,
+) -> Result<T, ReplayError<S::Error, W>> {
+    let offset = input.offset;
+    let bad = |error| ReplayError::Samples { offset, error };
+    if !input.fill(n).map_err(ReplayError::Read)? {
+        return Err(bad(WireError::Truncated));
+    }
+    let bytes = input.pending().get(..n).unwrap_or(&[]);
+    crc.update(bytes);
+    let value = decode(bytes).map_err(bad)?;
+    input.consume(n);
+    Ok(value)
+}
+
+/// Reads the header a part at a time into `configs`; returns the station
+/// settings and the file's channel count. Checks the CRC, then that the
+/// station fits this logger.
+#[inline(never)]
+fn read_header<S: Source, W>(
+    input: &mut Input<'_, S>,
+    configs: &mut [ChannelConfig; CAPACITY],
+) -> Result<(StationConfig, u8), ReplayError<S::Error, W>> {
+    let mut crc = Crc32::new();
+    let part = header_part(input, &mut crc, STATION_PART_LEN, decode_station_part)?;
+    let count = part.channels;
+    for i in 0..usize::from(count) {
+        let cfg = header_part(input, &mut crc, CHANNEL_PART_LEN, |b| {
+            decode_channel_part(b, count)
+        })?;
+        if let Some(slot) = configs.get_mut(i) {
+            *slot = cfg;
+        }
+    }
+    let offset = input.offset;
+    let stored = header_part(input, &mut Crc32::new(), HEADER_CRC_LEN, |b| {
+        b.try_into()
+            .map(u32::from_le_bytes)
+            .map_err(|_| WireError::Truncated)
+    })?;
+    if stored != crc.value() {
+        return Err(ReplayError::Samples {
+            offset,
+            error: WireError::BadCrc,
+        });
+    }
+    if usize::from(count) > CAPACITY {
+        return Err(ReplayError::Capacity { channels: count });
+    }
+    for (i, c) in configs.iter().enumerate() {
+        if c.kind == Kind::Speed && usize::from(c.gust_window) > GUST_CAPACITY {
+            return Err(ReplayError::GustWindow {
+                channel: i as u8,
+                window: c.gust_window,
+            });
+        }
+    }
+    Ok((part.station, count))
+}
+
+/// The core's layout of the station, built in the caller's place. Not
+/// inlined: the core's temporaries take stack only while it runs.
+#[inline(never)]
+fn build_layout(
+    station: StationConfig,
+    configs: &[ChannelConfig; CAPACITY],
+) -> Result<Layout<CAPACITY>, ConfigError> {
+    Layout::new::<GUST_CAPACITY>(station, *configs)
+}
+
+/// Reads the header and returns the core's layout of its station, built in
+/// the caller's place (this is the closure of `LoggerSlot::start_with`).
+/// Header problems go to `header`, with a stand-in layout error that is never
+/// shown: converting the core's `Result<Layout, ConfigError>` into a result
+/// of another error type would copy the 2.4 KiB layout once more on the
+/// stack. Not inlined: the channel configurations (1.8 KiB) take stack only
+/// while it runs.
+#[inline(never)]
+fn header_layout<S: Source, W>(
+    input: &mut Input<'_, S>,
+    header: &mut Result<u8, ReplayError<S::Error, W>>,
+) -> Result<Layout<CAPACITY>, ConfigError> {
+    let mut configs = [ChannelConfig::scalar(1.0); CAPACITY];
+    match read_header(input, &mut configs) {
+        Ok((station, count)) => {
+            *header = Ok(count);
+            build_layout(station, &configs)
+        }
+        Err(e) => {
+            *header = Err(e);
+            Err(ConfigError::Interval)
+        }
+    }
+}
+
+/// Reads the header and starts a logger for its station in `slot`.
+#[inline(never)]
+fn start<'a, S: Source, W>(
+    input: &mut Input<'_, S>,
+    slot: &'a mut ReplaySlot,
+) -> Result<ReplayLogger<'a>, ReplayError<S::Error, W>> {
+    let mut header = Ok(0);
+    let started = slot.start_with(|| header_layout(input, &mut header));
+    let count = header?;
+    match started {
+        Ok(Some(logger)) => Ok(logger.with_active(usize::from(count))),
+        Err(e) => Err(ReplayError::Layout(e)),
+        // `start_with` fills the slot whenever the layout is good.
+        Ok(None) => Err(ReplayError::Capacity { channels: count }),
+    }
+}
+
+/// Replays the whole sample file from `source` into `sink`, with a logger for
+/// the file's station put in `slot` (the caller chooses where the logger
+/// lives: on a 16 KiB part, in static memory rather than on the stack).
 #[inline(never)]
 pub fn replay<S: Source, K: Sink>(
     source: &mut S,
     sink: &mut K,
-    slot: &mut LoggerSlot,
+    slot: &mut ReplaySlot,
 ) -> Result<ReplaySummary, ReplayError<S::Error, K::Error>> {
-    let logger = Logger::start_in(slot).ok_or(ReplayError::Layout)?;
-    let mut buf = [0u8; CHUNK];
-    let mut filled = 0; // bytes in buf
-    let mut start = 0; // first unread byte in buf
-    let mut consumed = 0; // file offset of buf[start]
-    let mut eof = false;
-    let mut header = false;
-    let mut summary = ReplaySummary::default();
+    let mut input = Input {
+        source,
+        buf: [0u8; CHUNK],
+        start: 0,
+        filled: 0,
+        offset: 0,
+        eof: false,
+    };
+    let mut logger = start(&mut input, slot)?;
+    let n = logger.active();
+    let mut summary = ReplaySummary {
+        channels: n as u8,
+        ..ReplaySummary::default()
+    };
     let mut write = |f: &[u8; FRAME_LEN]| sink.write_frame(f);
+    // Slots after the file's channels stay missing.
+    let mut readings = [Reading::Missing; CAPACITY];
     loop {
-        let pending = buf.get(start..filled).unwrap_or(&[]);
-        let step = if !header {
-            if pending.len() >= SAMPLE_HEADER_LEN || eof {
-                match decode_sample_header(pending) {
-                    Ok(n) if usize::from(n) == CHANNELS => {
-                        header = true;
-                        Some(SAMPLE_HEADER_LEN)
-                    }
-                    Ok(found) => {
-                        return Err(ReplayError::Samples {
-                            offset: 0,
-                            error: WireError::ChannelCount {
-                                expected: CHANNELS as u8,
-                                found,
-                            },
-                        })
-                    }
-                    Err(error) => return Err(ReplayError::Samples { offset: 0, error }),
+        let decoded = decode_sample(input.pending(), readings.get_mut(..n).unwrap_or(&mut []));
+        match decoded {
+            SampleDecode::Sample { time, len } => {
+                summary.samples += 1;
+                match logger.push(time, &readings, &mut write) {
+                    Ok(Pushed::Accepted) => summary.accepted += 1,
+                    Ok(Pushed::Rejected(_)) => summary.rejected += 1,
+                    Err(e) => return Err(ReplayError::Write(e)),
                 }
-            } else {
-                None
+                input.consume(len);
             }
-        } else {
-            match decode_sample::<CHANNELS>(pending) {
-                SampleDecode::Sample {
-                    time,
-                    readings,
-                    len,
-                } => {
-                    summary.samples += 1;
-                    match logger.push(time, &readings, &mut write) {
-                        Ok(Pushed::Accepted) => summary.accepted += 1,
-                        Ok(Pushed::Rejected(_)) => summary.rejected += 1,
-                        Err(e) => return Err(ReplayError::Write(e)),
-                    }
-                    Some(len)
-                }
-                SampleDecode::Incomplete if eof && pending.is_empty() => break,
-                SampleDecode::Incomplete if eof => {
-                    return Err(ReplayError::Samples {
-                        offset: consumed,
-                        error: WireError::Truncated,
-                    })
-                }
-                SampleDecode::Incomplete => None,
-                SampleDecode::Invalid(error) => {
-                    return Err(ReplayError::Samples {
-                        offset: consumed,
-                        error,
-                    })
-                }
+            SampleDecode::Incomplete if input.eof && input.pending().is_empty() => break,
+            SampleDecode::Incomplete if input.eof => {
+                return Err(ReplayError::Samples {
+                    offset: input.offset,
+                    error: WireError::Truncated,
+                })
             }
-        };
-        match step {
-            Some(len) => {
-                start += len;
-                consumed += len;
-            }
-            None => {
-                // Move what is left to the front and read more behind it.
-                buf.copy_within(start..filled, 0);
-                filled -= start;
-                start = 0;
-                let n = source
-                    .read(buf.get_mut(filled..).unwrap_or(&mut []))
-                    .map_err(ReplayError::Read)?;
-                eof = n == 0;
-                filled += n.min(CHUNK - filled);
+            SampleDecode::Incomplete => input.read_more().map_err(ReplayError::Read)?,
+            SampleDecode::Invalid(error) => {
+                return Err(ReplayError::Samples {
+                    offset: input.offset,
+                    error,
+                })
             }
         }
     }
@@ -177,8 +353,11 @@ pub fn replay<S: Source, K: Sink>(
 #[cfg(test)]
 mod tests {
     use super::*;
-    use qc_core::wire::{encode_sample, encode_sample_header, scan, Span};
-    use qc_core::{Reading, Timestamp};
+    use crate::scenario;
+    use qc_core::wire::{
+        encode_sample, encode_sample_header, sample_header_len, scan, RecordFrame, Span,
+    };
+    use qc_core::{Event, Station, Timestamp};
     use std::vec::Vec;
 
     /// A source that hands out at most `chunk` bytes a call.
@@ -205,111 +384,194 @@ mod tests {
         }
     }
 
-    fn file(samples: usize) -> Vec<u8> {
-        let mut out = vec![0u8; SAMPLE_HEADER_LEN];
-        encode_sample_header(CHANNELS as u8, (&mut out[..]).try_into().unwrap());
+    fn header(station: &StationConfig, channels: &[ChannelConfig]) -> Vec<u8> {
+        let mut out = vec![0u8; sample_header_len(channels.len())];
+        encode_sample_header(station, channels, &mut out).unwrap();
+        out
+    }
+
+    fn readings(i: i64) -> [Reading; 8] {
+        [
+            Reading::Counts(150 + (i % 11) as i32),
+            Reading::Counts(148 + (i % 13) as i32),
+            if i % 17 == 0 {
+                Reading::Missing
+            } else {
+                Reading::Value(6.0 + (i % 5) as f64 * 0.1)
+            },
+            Reading::Counts((i * 97 % 26_400) as i32),
+            Reading::Value(1.5),
+            Reading::Value(f64::NAN),
+            Reading::Value(-999.0),
+            Reading::Value(12.6),
+        ]
+    }
+
+    /// A file of the scenario's first `channels` channels (links to later
+    /// channels removed) and `samples` samples a second apart.
+    fn file(channels: usize, samples: usize) -> (Vec<u8>, Vec<ChannelConfig>) {
+        let mut cfgs: Vec<ChannelConfig> = scenario::channels()[..channels].to_vec();
+        for c in &mut cfgs {
+            let keep = |i: Option<u8>| i.filter(|&i| usize::from(i) < channels);
+            c.speed_channel = keep(c.speed_channel);
+            c.screen.partner = keep(c.screen.partner);
+            c.screen.above = keep(c.screen.above);
+            c.screen.icing = c
+                .screen
+                .icing
+                .filter(|ice| usize::from(ice.temperature.max(ice.humidity)) < channels);
+        }
+        let mut out = header(&scenario::station(), &cfgs);
         let t0 = 1_705_276_800_000i64;
-        let mut buf = [0u8; sample_frame_max_len(CHANNELS)];
+        let mut buf = [0u8; sample_frame_max_len(CAPACITY)];
         for i in 0..samples as i64 {
-            let r = [
-                Reading::Counts(150 + (i % 11) as i32),
-                Reading::Counts(148 + (i % 13) as i32),
-                if i % 17 == 0 {
-                    Reading::Missing
-                } else {
-                    Reading::Value(6.0 + (i % 5) as f64 * 0.1)
-                },
-                Reading::Counts((i * 97 % 26_400) as i32),
-                Reading::Value(1.5),
-                Reading::Value(f64::NAN),
-                Reading::Value(-999.0),
-                Reading::Value(12.6),
-            ];
-            let n = encode_sample(Timestamp::from_millis(t0 + i * 1000), &r, &mut buf).unwrap();
+            let r = readings(i);
+            let n = encode_sample(
+                Timestamp::from_millis(t0 + i * 1000),
+                &r[..channels],
+                &mut buf,
+            )
+            .unwrap();
             out.extend_from_slice(&buf[..n]);
         }
-        out
+        (out, cfgs)
+    }
+
+    fn run(bytes: &[u8], chunk: usize) -> Result<(ReplaySummary, Vec<u8>), ReplayError<(), ()>> {
+        let mut log = Vec::new();
+        let mut slot = ReplaySlot::new();
+        let s = replay(&mut Slice { bytes, chunk }, &mut log, &mut slot)?;
+        Ok((s, log))
     }
 
     #[test]
     fn chunked_replay_matches_whole_file_replay() {
-        let f = file(1900);
-        let mut whole = Vec::new();
-        let s = replay(
-            &mut Slice {
-                bytes: &f,
-                chunk: usize::MAX,
-            },
-            &mut whole,
-            &mut LoggerSlot::Empty,
-        )
-        .unwrap();
+        let (f, _) = file(8, 1900);
+        let (s, whole) = run(&f, usize::MAX).unwrap();
         assert_eq!(s.samples, 1900);
-        assert_eq!(s.frames as usize, 4 * CHANNELS);
-        assert_eq!(whole.len(), 4 * CHANNELS * FRAME_LEN);
+        assert_eq!(s.channels, 8);
+        assert_eq!(s.frames as usize, 4 * 8);
+        assert_eq!(whole.len(), 4 * 8 * FRAME_LEN);
         assert!(scan(&whole).all(|s| matches!(s, Span::Frame { .. })));
-        for chunk in [1, 7, 84, 85, 333] {
-            let mut log = Vec::new();
-            replay(
-                &mut Slice { bytes: &f, chunk },
-                &mut log,
-                &mut LoggerSlot::Empty,
-            )
-            .unwrap();
+        for chunk in [1, 7, 84, 85, 160, 333] {
+            let (_, log) = run(&f, chunk).unwrap();
             assert_eq!(log, whole, "chunk {chunk}");
         }
     }
 
     #[test]
+    fn a_smaller_station_is_padded_and_matches_a_station_of_its_own_size() {
+        // Three channels in the 8-channel logger give the same frames as a
+        // 3-channel station of qc-core fed the same samples.
+        let (f, cfgs) = file(3, 1300);
+        let (s, log) = run(&f, 100).unwrap();
+        assert_eq!(s.channels, 3);
+        let layout =
+            Layout::new::<GUST_CAPACITY>(scenario::station(), [cfgs[0], cfgs[1], cfgs[2]]).unwrap();
+        let mut st: Station<3, GUST_CAPACITY> = Station::new(layout);
+        let mut want = Vec::new();
+        let mut on = |e: Event<'_, 3, GUST_CAPACITY>| {
+            if let Event::Closed(acc) = e {
+                for ch in 0..3 {
+                    let f = RecordFrame {
+                        sequence: (want.len() / FRAME_LEN) as u32,
+                        interval_start: layout.interval_start(acc.index()),
+                        channel: ch as u8,
+                        record: layout.finish(acc, ch).unwrap(),
+                    };
+                    let mut b = [0u8; FRAME_LEN];
+                    qc_core::wire::encode_record(&f, &mut b);
+                    want.extend_from_slice(&b);
+                }
+            }
+        };
+        for i in 0..1300i64 {
+            let r = readings(i);
+            st.push(
+                Timestamp::from_millis(1_705_276_800_000 + i * 1000),
+                &[r[0], r[1], r[2]],
+                &mut on,
+            );
+        }
+        st.close(&mut on);
+        assert_eq!(want.len(), 3 * 3 * FRAME_LEN);
+        assert_eq!(log, want);
+    }
+
+    #[test]
+    fn stations_that_do_not_fit_are_refused_before_any_sample() {
+        let station = scenario::station();
+        let nine = [ChannelConfig::scalar(0.1); 9];
+        assert!(matches!(
+            run(&header(&station, &nine), 64),
+            Err(ReplayError::Capacity { channels: 9 })
+        ));
+        let long = [
+            ChannelConfig::scalar(0.1),
+            ChannelConfig::speed(0.01).with_gust_window(13),
+        ];
+        let e = run(&header(&station, &long), 64).unwrap_err();
+        assert!(matches!(
+            e,
+            ReplayError::GustWindow {
+                channel: 1,
+                window: 13
+            }
+        ));
+        assert!(e.to_string().contains("at most 12"), "{e}");
+        // The core refuses a zero scale step.
+        let bad = [ChannelConfig::scalar(0.0)];
+        assert!(matches!(
+            run(&header(&station, &bad), 64),
+            Err(ReplayError::Layout(ConfigError::Channel { index: 0, .. }))
+        ));
+    }
+
+    #[test]
     fn bad_files_name_the_byte() {
-        let f = file(10);
-        let mut log = Vec::new();
+        let (f, _) = file(8, 10);
+        let h = sample_header_len(8);
         let cut = &f[..f.len() - 3];
-        match replay(
-            &mut Slice {
-                bytes: cut,
-                chunk: 64,
-            },
-            &mut log,
-            &mut LoggerSlot::Empty,
-        ) {
+        match run(cut, 64) {
             Err(ReplayError::Samples {
                 offset,
                 error: WireError::Truncated,
-            }) => {
-                assert!(offset > SAMPLE_HEADER_LEN && offset < cut.len())
-            }
+            }) => assert!(offset > h && offset < cut.len()),
             other => panic!("{other:?}"),
         }
         let mut bad = f.clone();
-        bad[SAMPLE_HEADER_LEN + 9] ^= 1;
+        bad[h + 9] ^= 1;
         assert!(matches!(
-            replay(
-                &mut Slice {
-                    bytes: &bad,
-                    chunk: 64
-                },
-                &mut log,
-                &mut LoggerSlot::Empty
-            ),
+            run(&bad, 64),
             Err(ReplayError::Samples {
-                offset: SAMPLE_HEADER_LEN,
+                offset,
                 error: WireError::BadCrc
-            })
+            }) if offset == h
         ));
+        // A flipped bit in a channel part: refused by the header's CRC.
+        let mut bad = f.clone();
+        bad[STATION_PART_LEN + 2 * CHANNEL_PART_LEN + 40] ^= 4;
         assert!(matches!(
-            replay(
-                &mut Slice {
-                    bytes: &f[..3],
-                    chunk: 64
-                },
-                &mut log,
-                &mut LoggerSlot::Empty
-            ),
+            run(&bad, 64),
             Err(ReplayError::Samples {
-                offset: 0,
-                error: WireError::Truncated
+                error: WireError::BadCrc,
+                ..
             })
         ));
+        for cut in [3, STATION_PART_LEN + 10, h - 1] {
+            assert!(
+                matches!(
+                    run(&f[..cut], 64),
+                    Err(ReplayError::Samples {
+                        error: WireError::Truncated,
+                        ..
+                    })
+                ),
+                "cut {cut}"
+            );
+        }
+        // A header alone is a station with no samples: no frames.
+        let (s, log) = run(&f[..h], 64).unwrap();
+        assert_eq!((s.samples, log.len()), (0, 0));
     }
 }

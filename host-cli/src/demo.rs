@@ -7,7 +7,10 @@
 //! missing-value code blocks, a vane stuck during a cold humid spell, and an
 //! anemometer that drops out only in strong wind. Random numbers come from a
 //! small PCG generator written here (`Pcg32`), normal deviates from a sum of
-//! twelve uniforms, so a seed gives the same faults on every machine.
+//! twelve uniforms, and every transcendental function (`exp`, `sin`, `sqrt`,
+//! `round`, `fmod`) comes from the `libm` crate rather than the platform's
+//! math library, so `tenmin demo --seed N` writes the same bytes on every
+//! machine.
 
 use std::fs::{self, File};
 use std::io::{BufWriter, Write};
@@ -177,12 +180,12 @@ impl Ar1 {
     fn new(tau_s: f64) -> Self {
         Ar1 {
             x: 0.0,
-            phi: (-1.0 / tau_s).exp(),
+            phi: libm::exp(-1.0 / tau_s),
         }
     }
 
     fn step(&mut self, rng: &mut Pcg32) -> f64 {
-        self.x = self.phi * self.x + (1.0 - self.phi * self.phi).sqrt() * rng.normal();
+        self.x = self.phi * self.x + libm::sqrt(1.0 - self.phi * self.phi) * rng.normal();
         self.x
     }
 }
@@ -206,7 +209,7 @@ impl Field {
 }
 
 fn round_to(x: f64, step_inv: f64) -> f64 {
-    (x * step_inv).round() / step_inv
+    libm::round(x * step_inv) / step_inv
 }
 
 /// A span of seconds since the demo start, `[start, end)`.
@@ -320,9 +323,10 @@ impl Weather {
         let hour = (s % DAY_S) as f64 / 3600.0;
         let day = (s / DAY_S) as usize;
         let (centre, peak) = plan.storms.get(day).copied().unwrap_or((14.0, 8.0));
-        let storm = peak * (-0.5 * ((hour - centre) / 2.0).powi(2)).exp();
+        let z = (hour - centre) / 2.0;
+        let storm = peak * libm::exp(-0.5 * z * z);
         let mean = (7.0
-            + 2.0 * (2.0 * PI * (hour - 9.0) / 24.0).sin()
+            + 2.0 * libm::sin(2.0 * PI * (hour - 9.0) / 24.0)
             + storm
             + 1.2 * self.synoptic.step(rng))
         .max(0.5);
@@ -336,11 +340,13 @@ impl Weather {
         );
 
         let hours = s as f64 / 3600.0;
-        let dir_mean = 250.0 + 110.0 * (2.0 * PI * hours / 36.0).sin() + 10.0 * self.veer.step(rng);
+        let dir_mean =
+            250.0 + 110.0 * libm::sin(2.0 * PI * hours / 36.0) + 10.0 * self.veer.step(rng);
         let sigma = (8.0 + 25.0 / mean).clamp(5.0, 40.0);
         let dir = dir_mean + sigma * self.swing.step(rng);
-        let raw = (dir - VANE_OFFSET_DEG).rem_euclid(360.0);
-        let mut counts = ((raw * 10.0).round() as i32).rem_euclid(3600);
+        let raw = libm::fmod(dir - VANE_OFFSET_DEG, 360.0);
+        let raw = if raw < 0.0 { raw + 360.0 } else { raw };
+        let mut counts = (libm::round(raw * 10.0) as i32).rem_euclid(3600);
         if plan.stuck.contains(s) {
             counts = *self.stuck_counts.get_or_insert(counts);
         }
@@ -353,7 +359,7 @@ impl Weather {
         } else {
             0.0
         };
-        let daily = (2.0 * PI * (hour - 9.0) / 24.0).sin();
+        let daily = libm::sin(2.0 * PI * (hour - 9.0) / 24.0);
         let t = (3.5 + 3.0 * daily + 0.6 * self.temp.step(rng)) * (1.0 - w) + (-1.5) * w;
         let rh =
             ((76.0 - 8.0 * daily + 3.0 * self.hum.step(rng)) * (1.0 - w) + 96.0 * w).min(100.0);
@@ -497,9 +503,14 @@ pub fn run(out: &Path, days: u32, seed: u64) -> Result<ExitCode> {
     } = logger;
     writer.finish()?;
 
-    // Replay from disk and verify against the logger's records.
+    // Replay from disk (on all cores, up to two) and verify against the
+    // logger's records.
     let mut cmp = verify::Comparer::open(&logger_path, ids.clone(), 10)?;
-    let summary = replay::replay(&cfg, &files, Options::default(), &mut cmp)?;
+    let opts = Options {
+        jobs: replay::default_jobs(),
+        ..Options::default()
+    };
+    let summary = replay::replay(&cfg, &files, opts, &mut cmp)?;
     let report = cmp.finish()?;
 
     let o = std::io::stdout();

@@ -8,13 +8,14 @@
 
 use anyhow::{bail, Result};
 use qc_core::{
-    ChannelRecord, Event, IntervalAcc, Layout, PushTotals, Pushed, Reading, Station, Timestamp,
-    Totals,
+    ChannelRecord, Event, Gap, IntervalAcc, Layout, PushTotals, Pushed, Reading, Station,
+    Timestamp, Totals,
 };
 
 use crate::config::{StationFile, GUST_CAPACITY, MAX_CHANNELS};
 
-const G: usize = GUST_CAPACITY;
+/// The gust-window capacity of every station the CLI builds.
+pub const G: usize = GUST_CAPACITY;
 
 /// Receives the records of every interval, in time order.
 pub trait Sink {
@@ -60,8 +61,9 @@ struct Fixed<'s, const C: usize> {
     n: usize,
 }
 
-/// What the emit callback needs, borrowed apart from the station.
-struct Out<'s, const C: usize> {
+/// Hands intervals to a sink as records: what the emit callback needs,
+/// borrowed apart from the station. The parallel replay emits through it too.
+pub struct Out<'s, const C: usize> {
     layout: Layout<C>,
     n: usize,
     sink: &'s mut dyn Sink,
@@ -75,47 +77,52 @@ impl<'s, const C: usize> Fixed<'s, C> {
         let n = cfg.channels.len();
         Ok(Fixed {
             station: Box::new(Station::new(layout)),
-            out: Out {
-                layout,
-                n,
-                sink,
-                records: Vec::with_capacity(n),
-                error: None,
-            },
+            out: Out::new(layout, n, sink),
             readings: [Reading::Missing; C],
             n,
         })
     }
 }
 
-impl<const C: usize> Out<'_, C> {
+impl<'s, const C: usize> Out<'s, C> {
+    /// Records of the first `n` channels of `layout` go to `sink`.
+    pub fn new(layout: Layout<C>, n: usize, sink: &'s mut dyn Sink) -> Self {
+        Out {
+            layout,
+            n,
+            sink,
+            records: Vec::with_capacity(n),
+            error: None,
+        }
+    }
+
     fn emit(&mut self, event: Event<'_, C, G>) {
         if self.error.is_some() {
             return;
         }
         let result = match event {
             Event::Closed(acc) => self.interval(acc),
-            Event::Gap(gap) => {
-                let mut r = Ok(());
-                for i in 0..gap.count {
-                    // An interval with no samples: an empty accumulator, finished
-                    // by the core like any other.
-                    let k = gap.first.saturating_add(i as i64);
-                    let acc = IntervalAcc::<C, G>::new(&self.layout, k);
-                    r = self.interval(&acc);
-                    if r.is_err() {
-                        break;
-                    }
-                }
-                r
-            }
+            Event::Gap(gap) => self.gap(gap),
         };
         if let Err(e) = result {
             self.error = Some(e);
         }
     }
 
-    fn interval(&mut self, acc: &IntervalAcc<C, G>) -> Result<()> {
+    /// The rows of a run of intervals with no samples.
+    pub fn gap(&mut self, gap: Gap) -> Result<()> {
+        for i in 0..gap.count {
+            // An interval with no samples: an empty accumulator, finished
+            // by the core like any other.
+            let k = gap.first.saturating_add(i as i64);
+            let acc = IntervalAcc::<C, G>::new(&self.layout, k);
+            self.interval(&acc)?;
+        }
+        Ok(())
+    }
+
+    /// The rows of a closed, screened interval.
+    pub fn interval(&mut self, acc: &IntervalAcc<C, G>) -> Result<()> {
         self.records.clear();
         let layout = &self.layout;
         self.records

@@ -7,10 +7,14 @@
 #![forbid(unsafe_code)]
 
 mod config;
+mod decode;
 mod demo;
 mod engine;
+mod export;
+mod parallel;
 mod records;
 mod replay;
+mod report;
 mod samples;
 mod summary;
 mod timefmt;
@@ -130,6 +134,95 @@ downloaded; the data are made up and describe no real site.",
         )
     )]
     Demo(DemoArgs),
+    /// Write an HTML report (recovery, missing data, wind rose, distributions) from records.
+    #[command(
+        long_about = "Read records files (as `tenmin replay` writes them) and write DIR/report.html, \
+one self-contained page with SVG charts: recovery per channel and month against the usual 90 % target, \
+missing-data diagnostics (are gaps independent of hour, month, wind speed, direction and temperature?), \
+the wind rose, the speed distribution with its Weibull fit, turbulence intensity against the IEC 61400-1 \
+normal turbulence model, and wind shear. The tables go to DIR as CSV files; a short summary goes to stdout. \
+See host-cli/REPORT.md.",
+        after_long_help = concat!(
+            "Example:\n  tenmin report --config station.toml records.csv --out report --sectors 12\n\n",
+            "Files: station and records as for `tenmin replay --help`.\n\n",
+            "Exit codes:\n  0  success\n  2  bad input, bad usage or an I/O error (the message names file, line and field)"
+        )
+    )]
+    Report(report::ReportArgs),
+    /// Write samples files as a binary sample file for a logger under test to replay.
+    #[command(
+        long_about = "Read samples files exactly as `tenmin replay` reads them (same columns, times, \
+missing readings, errors and --skip-bad-rows) and write them as one binary sample file: a header \
+holding the station file's whole configuration (interval, samples per interval, missing-value codes, \
+every channel's kind, scale, range, gust window, mounting offset, speed link and screening settings), \
+then one CRC-protected frame per row with the readings as the core receives them (values, raw counts \
+or missing). Duplicate and backward times are kept: the logger's station rejects and counts them as \
+the replay's does. The format is qc_core::wire (see CONTRACT.md, `Export`). A summary goes to stderr.",
+        after_long_help = concat!(
+            "Example:\n  tenmin export --config station.toml day-2025-01-20.csv -o day.tmsf\n\n",
+            "Files: station and samples as for `tenmin replay --help`.\n\n",
+            "Exit codes:\n  0  success\n  2  bad input, bad usage or an I/O error (the message names file, line and field)"
+        )
+    )]
+    Export(ExportArgs),
+    /// Turn a logger's record log into records CSV, reporting damaged frames.
+    #[command(
+        long_about = "Read a logger's record log (qc_core::wire record frames, as the example firmware \
+writes them), report damaged and torn spans with their byte offsets on stderr, and write the good \
+frames as records CSV in the replay's columns. Intervals with no samples between the first and last \
+frame (the logger writes no frames for them) are written as the replay writes them, so that \
+`tenmin verify` can check the log against the samples. Lost frames (a gap in the frames' sequence \
+numbers) leave their rows out, and the intervals around them with no frame are not written. Frames \
+that do not match the station file are an error.",
+        after_long_help = concat!(
+            "Example:\n  tenmin decode --config station.toml logger.log -o records.csv\n  tenmin verify --config station.toml --samples day-*.csv --records records.csv\n\n",
+            "Exit codes:\n  0  the log was read (damage, if any, reported on stderr)\n  1  with --strict: damaged, torn, lost or out-of-order frames (records still written)\n  2  bad input, bad usage or an I/O error; frames that do not match the station file"
+        )
+    )]
+    Decode(DecodeArgs),
+}
+
+#[derive(Args, Debug)]
+struct ExportArgs {
+    /// Station file (TOML).
+    #[arg(long, short = 'c', value_name = "STATION.toml")]
+    config: PathBuf,
+    /// Samples CSV files, in this order as one record.
+    #[arg(required = true, value_name = "SAMPLES")]
+    samples: Vec<PathBuf>,
+    /// The sample file to write.
+    #[arg(long, short = 'o', value_name = "OUT.tmsf")]
+    output: PathBuf,
+    /// Count bad rows in the summary and go on, instead of stopping at the first.
+    #[arg(long)]
+    skip_bad_rows: bool,
+    /// Do not print the summary on stderr.
+    #[arg(long, short = 'q')]
+    quiet: bool,
+    /// A forward jump between consecutive samples larger than this many days stops the
+    /// command, as in `tenmin replay`.
+    #[arg(long, default_value_t = samples::DEFAULT_MAX_GAP_DAYS, value_name = "D",
+          value_parser = clap::value_parser!(u32).range(1..))]
+    max_gap_days: u32,
+}
+
+#[derive(Args, Debug)]
+struct DecodeArgs {
+    /// Station file (TOML) of the logger that wrote the log.
+    #[arg(long, short = 'c', value_name = "STATION.toml")]
+    config: PathBuf,
+    /// The record log.
+    #[arg(value_name = "LOG")]
+    log: PathBuf,
+    /// Write records here instead of stdout.
+    #[arg(long, short = 'o', value_name = "RECORDS.csv")]
+    output: Option<PathBuf>,
+    /// Exit with 1 when anything was damaged, torn, lost or out of order.
+    #[arg(long)]
+    strict: bool,
+    /// Print on stderr only the problems, not the summary of a clean log.
+    #[arg(long, short = 'q')]
+    quiet: bool,
 }
 
 #[derive(Args, Debug)]
@@ -155,6 +248,19 @@ struct InputArgs {
     /// Do not print the summary on stderr.
     #[arg(long, short = 'q')]
     quiet: bool,
+    /// Threads reading samples [default: the available cores, at most 2]. With 1, one
+    /// thread reads and replays; the records are the same either way.
+    #[arg(long, short = 'j', value_name = "N", value_parser = clap::value_parser!(u16).range(1..))]
+    jobs: Option<u16>,
+    /// A forward jump between consecutive samples larger than this many days stops the
+    /// command (a wrong logger clock would otherwise write an empty row per interval).
+    #[arg(long, default_value_t = samples::DEFAULT_MAX_GAP_DAYS, value_name = "D",
+          value_parser = clap::value_parser!(u32).range(1..))]
+    max_gap_days: u32,
+    /// Bytes per chunk of parallel replay (for testing).
+    #[arg(long, hide = true, default_value_t = samples::DEFAULT_CHUNK_SIZE as u64,
+          value_parser = clap::value_parser!(u64).range(64..=1 << 30))]
+    chunk_size: u64,
 }
 
 #[derive(Args, Debug)]
@@ -219,6 +325,9 @@ fn run(cli: Cli) -> Result<ExitCode> {
         Command::Replay(a) => replay_cmd(a),
         Command::Verify(a) => verify_cmd(a),
         Command::Demo(a) => demo::run(&a.out, a.days, a.seed),
+        Command::Report(a) => report::run(&a),
+        Command::Export(a) => export::run(&a),
+        Command::Decode(a) => decode::run(&a),
     }
 }
 
@@ -226,6 +335,9 @@ fn options(a: &InputArgs) -> samples::Options {
     samples::Options {
         skip_bad_rows: a.skip_bad_rows,
         progress: true,
+        jobs: a.jobs.map_or_else(replay::default_jobs, usize::from),
+        chunk_size: a.chunk_size as usize,
+        max_gap_days: a.max_gap_days,
     }
 }
 

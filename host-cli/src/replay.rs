@@ -1,4 +1,5 @@
-//! Replay: samples files through the core into a sink.
+//! Replay: samples files through the core into a sink, on one thread or on
+//! several ([`crate::parallel`]); both give the same records and counts.
 
 use std::path::PathBuf;
 
@@ -6,14 +7,32 @@ use anyhow::Result;
 
 use crate::config::StationFile;
 use crate::engine::{self, Sink};
+use crate::parallel;
 use crate::samples::{self, Options};
 use crate::summary::Summary;
 
+/// The default `--jobs`: the available cores, at most 2.
+pub fn default_jobs() -> usize {
+    std::thread::available_parallelism().map_or(1, |n| n.get().min(2))
+}
+
 /// A sink that counts the rows it passes on.
-struct Counting<'a> {
+pub struct Counting<'a> {
     inner: &'a mut dyn Sink,
     channels: u64,
-    rows: u64,
+    /// Rows passed on.
+    pub rows: u64,
+}
+
+impl<'a> Counting<'a> {
+    /// Counts the rows of `channels` channels passed to `inner`.
+    pub fn new(inner: &'a mut dyn Sink, channels: usize) -> Self {
+        Counting {
+            inner,
+            channels: channels as u64,
+            rows: 0,
+        }
+    }
 }
 
 impl Sink for Counting<'_> {
@@ -29,18 +48,24 @@ impl Sink for Counting<'_> {
 }
 
 /// Replays `files` in order through a station built from `cfg`, handing every
-/// interval's records to `sink`; returns the counts.
+/// interval's records to `sink`; returns the counts. With `opts.jobs > 1` the
+/// files are cut into chunks replayed on worker threads and joined exactly.
 pub fn replay(
     cfg: &StationFile,
     files: &[PathBuf],
     opts: Options,
     sink: &mut dyn Sink,
 ) -> Result<Summary> {
-    let mut counting = Counting {
-        inner: sink,
-        channels: cfg.channels.len() as u64,
-        rows: 0,
-    };
+    let mut counting = Counting::new(sink, cfg.channels.len());
+    if opts.jobs > 1 {
+        let (input, pushed, recovery) = parallel::replay(cfg, files, opts, &mut counting)?;
+        return Ok(Summary {
+            input,
+            pushed,
+            recovery,
+            record_rows: counting.rows,
+        });
+    }
     let (input, pushed, recovery) = {
         let mut engine = engine::new(cfg, &mut counting)?;
         let input = samples::feed(files, cfg, opts, engine.as_mut())?;

@@ -6,30 +6,71 @@
 //! or one of the station's missing-value codes (the core counts the last two).
 //! Several files replay as one record, in the order given.
 //!
-//! The row loop reuses one `csv::ByteRecord` and one readings buffer, and parses
-//! numbers from bytes: nothing is allocated per row unless the row is bad.
+//! The hot path reads each file in large blocks that end at a record
+//! terminator ([`Blocks`]), splits records at `\n`/`\r` and fields at `,`
+//! ([`Records`]), and parses times and numbers from bytes ([`Parser`]) with
+//! exact fast paths: nothing is allocated per row unless the row is bad. The
+//! splitting is the CSV dialect of the `csv` crate's defaults for text without
+//! quotes (blank lines skipped; `\r`, `\n` and `\r\n` end a record); from the
+//! first block holding a `"` on, the rest of that file is read by the `csv`
+//! crate itself, so quoted fields keep working.
 
 use std::fmt;
 use std::fs::File;
-use std::io::{BufReader, IsTerminal};
+use std::io::{self, Cursor, IsTerminal, Read};
 use std::path::{Path, PathBuf};
 
 use anyhow::{anyhow, bail, Context, Result};
 use csv::ByteRecord;
 use indicatif::{ProgressBar, ProgressDrawTarget, ProgressStyle};
-use qc_core::Reading;
+use qc_core::{Pushed, Reading, Timestamp};
 
 use crate::config::{Decode, StationFile};
 use crate::engine::Engine;
-use crate::timefmt::parse_time;
+use crate::timefmt::{parse_time, Rfc3339, TimeError};
+
+/// Default `--max-gap-days`.
+pub const DEFAULT_MAX_GAP_DAYS: u32 = 366;
+
+/// Default bytes per chunk of parallel replay.
+pub const DEFAULT_CHUNK_SIZE: usize = 1 << 20;
+
+/// Bytes read at a time by the sequential replay.
+const BLOCK: usize = 256 << 10;
 
 /// How to read samples.
-#[derive(Clone, Copy, Debug, Default)]
+#[derive(Clone, Copy, Debug)]
 pub struct Options {
     /// Count bad rows and go on instead of stopping at the first.
     pub skip_bad_rows: bool,
     /// Show a progress bar on stderr (only when it is a terminal and the input is large).
     pub progress: bool,
+    /// Worker threads; 1 replays on the calling thread alone.
+    pub jobs: usize,
+    /// Bytes of samples per chunk handed to a worker (parallel replay).
+    pub chunk_size: usize,
+    /// A forward time jump between consecutive accepted samples larger than
+    /// this many days is an error.
+    pub max_gap_days: u32,
+}
+
+impl Default for Options {
+    fn default() -> Self {
+        Options {
+            skip_bad_rows: false,
+            progress: false,
+            jobs: 1,
+            chunk_size: DEFAULT_CHUNK_SIZE,
+            max_gap_days: DEFAULT_MAX_GAP_DAYS,
+        }
+    }
+}
+
+impl Options {
+    /// `max_gap_days` in milliseconds.
+    pub fn max_gap_ms(&self) -> i64 {
+        i64::from(self.max_gap_days) * 86_400_000
+    }
 }
 
 /// Why a row was bad.
@@ -72,6 +113,13 @@ impl BadCounts {
             BadKind::Encoding => self.encoding += 1,
         }
     }
+
+    fn merge(&mut self, o: &BadCounts) {
+        self.field_count += o.field_count;
+        self.time += o.time;
+        self.value += o.value;
+        self.encoding += o.encoding;
+    }
 }
 
 /// What was read from the samples files.
@@ -89,106 +137,35 @@ pub struct InputStats {
     pub empty_files: Vec<PathBuf>,
 }
 
-/// How many bad-row messages to keep for the summary.
-pub const EXAMPLES: usize = 5;
-
-struct BadRow {
-    kind: BadKind,
-    /// Column index (0-based) and its name.
-    column: Option<(usize, String)>,
-    msg: String,
-}
-
-impl fmt::Display for BadRow {
-    fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
-        if let Some((i, name)) = &self.column {
-            write!(f, "field {} ({name}): ", i + 1)?;
+impl InputStats {
+    /// Adds the rows, bad rows and examples of `later`, read after these.
+    pub fn merge_rows(&mut self, later: InputStats) {
+        self.rows += later.rows;
+        self.bad.merge(&later.bad);
+        for e in later.examples {
+            if self.examples.len() < EXAMPLES {
+                self.examples.push(e);
+            }
         }
-        f.write_str(&self.msg)
     }
-}
 
-/// What each column of a file holds.
-#[derive(Clone, Copy)]
-enum Col {
-    Time,
-    Channel(usize),
-}
-
-/// Reads `files` in order and pushes every good row into `engine`.
-pub fn feed(
-    files: &[PathBuf],
-    cfg: &StationFile,
-    opts: Options,
-    engine: &mut dyn Engine,
-) -> Result<InputStats> {
-    let total_bytes: u64 = files
-        .iter()
-        .filter_map(|p| std::fs::metadata(p).ok())
-        .map(|m| m.len())
-        .sum();
-    let bar = if opts.progress && std::io::stderr().is_terminal() && total_bytes > 8 << 20 {
-        let bar = ProgressBar::with_draw_target(Some(total_bytes), ProgressDrawTarget::stderr());
-        if let Ok(style) =
-            ProgressStyle::with_template("{bar:40} {bytes}/{total_bytes} ({eta} left) {msg}")
-        {
-            bar.set_style(style);
+    /// Counts a bad row at `path:line`: an error without `--skip-bad-rows`.
+    pub fn bad_row(&mut self, opts: &Options, path: &Path, line: u64, bad: BadRow) -> Result<()> {
+        if !opts.skip_bad_rows {
+            bail!("{}:{line}: {bad}", path.display());
         }
-        Some(bar)
-    } else {
-        None
-    };
-    let mut stats = InputStats::default();
-    let mut readings = vec![Reading::Missing; cfg.channels.len()];
-    let mut done_bytes = 0u64;
-    for path in files {
-        if let Some(bar) = &bar {
-            bar.set_message(path.display().to_string());
+        self.bad.add(bad.0.kind);
+        if self.examples.len() < EXAMPLES {
+            self.examples
+                .push(format!("{}:{line}: {bad}", path.display()));
         }
-        feed_file(
-            path,
-            cfg,
-            opts,
-            engine,
-            &mut stats,
-            &mut readings,
-            &bar,
-            done_bytes,
-        )?;
-        done_bytes += std::fs::metadata(path).map(|m| m.len()).unwrap_or(0);
-        stats.files += 1;
+        Ok(())
     }
-    if let Some(bar) = bar {
-        bar.finish_and_clear();
-    }
-    engine.close()?;
-    Ok(stats)
-}
 
-#[allow(clippy::too_many_arguments)]
-fn feed_file(
-    path: &Path,
-    cfg: &StationFile,
-    opts: Options,
-    engine: &mut dyn Engine,
-    stats: &mut InputStats,
-    readings: &mut [Reading],
-    bar: &Option<ProgressBar>,
-    done_bytes: u64,
-) -> Result<()> {
-    let file = File::open(path).with_context(|| format!("cannot open {}", path.display()))?;
-    let mut rdr = csv::ReaderBuilder::new()
-        .has_headers(false)
-        .flexible(true)
-        .from_reader(BufReader::with_capacity(1 << 16, file));
-    let mut rec = ByteRecord::new();
-    let read = |rdr: &mut csv::Reader<_>, rec: &mut ByteRecord| {
-        rdr.read_byte_record(rec)
-            .with_context(|| format!("cannot read {}", path.display()))
-    };
-    if !read(&mut rdr, &mut rec)? {
+    /// An empty file: skipped with `--skip-bad-rows`, else an error.
+    pub fn empty_file(&mut self, opts: &Options, path: &Path) -> Result<()> {
         if opts.skip_bad_rows {
-            stats.empty_files.push(path.to_path_buf());
+            self.empty_files.push(path.to_path_buf());
             return Ok(());
         }
         bail!(
@@ -196,44 +173,699 @@ fn feed_file(
             path.display()
         );
     }
-    let header_line = rec.position().map_or(1, |p| p.line());
-    let cols = header(path, header_line, &rec, cfg)?;
-    let mut rows_here = 0u64;
-    while read(&mut rdr, &mut rec)? {
-        stats.rows += 1;
-        rows_here += 1;
-        if let Some(bar) = bar {
-            if rows_here % 8192 == 0 {
-                bar.set_position(done_bytes + rdr.position().byte());
-            }
+}
+
+/// How many bad-row messages to keep for the summary.
+pub const EXAMPLES: usize = 5;
+
+/// A row that could not be read, and why (boxed: rows are read in a hot loop
+/// that should move only a small `Result`).
+#[derive(Debug)]
+pub struct BadRow(Box<Bad>);
+
+#[derive(Debug)]
+struct Bad {
+    kind: BadKind,
+    /// Column index (0-based) and its name.
+    column: Option<(usize, String)>,
+    msg: String,
+}
+
+impl BadRow {
+    #[cold]
+    fn new(kind: BadKind, column: Option<(usize, String)>, msg: String) -> Self {
+        BadRow(Box::new(Bad { kind, column, msg }))
+    }
+}
+
+impl fmt::Display for BadRow {
+    fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
+        let BadRow(b) = self;
+        if let Some((i, name)) = &b.column {
+            write!(f, "field {} ({name}): ", i + 1)?;
         }
-        match parse_row(&rec, &cols, cfg, readings) {
-            Ok(t) => {
-                engine.push(t, readings)?;
-            }
-            Err(bad) => {
-                let line = rec.position().map_or(0, |p| p.line());
-                if !opts.skip_bad_rows {
-                    bail!("{}:{line}: {bad}", path.display());
-                }
-                stats.bad.add(bad.kind);
-                if stats.examples.len() < EXAMPLES {
-                    stats
-                        .examples
-                        .push(format!("{}:{line}: {bad}", path.display()));
-                }
-            }
-        }
+        f.write_str(&b.msg)
+    }
+}
+
+/// What each column of a file holds.
+#[derive(Clone, Copy, Debug)]
+pub enum Col {
+    /// The time.
+    Time,
+    /// Channel `.0` in station-file order, read as values.
+    Value(usize),
+    /// Channel `.0` in station-file order, read as integer counts.
+    Counts(usize),
+}
+
+/// An error unless the forward jump from `last` (the last accepted sample) to
+/// `t` is at most `opts.max_gap_days`. Times the core rejects (unsupported
+/// years, not after `last`) are never an error here.
+pub fn check_jump(
+    opts: &Options,
+    last: Option<Timestamp>,
+    t: Timestamp,
+    path: &Path,
+    line: u64,
+) -> Result<()> {
+    let Some(last) = last else { return Ok(()) };
+    let dt = t.millis().saturating_sub(last.millis());
+    if t.is_supported() && dt > opts.max_gap_ms() {
+        bail!(
+            "{}:{line}: the time jumps forward {:.1} days, from {} (the last accepted sample) to {}: \
+             more than --max-gap-days {} allows; check the logger clock, or raise --max-gap-days",
+            path.display(),
+            dt as f64 / 86_400_000.0,
+            Rfc3339(last),
+            Rfc3339(t),
+            opts.max_gap_days
+        );
     }
     Ok(())
 }
 
-fn header(path: &Path, line: u64, rec: &ByteRecord, cfg: &StationFile) -> Result<Vec<Col>> {
+/// Reads `files` in order and pushes every good row into `engine`, on the
+/// calling thread.
+pub fn feed(
+    files: &[PathBuf],
+    cfg: &StationFile,
+    opts: Options,
+    engine: &mut dyn Engine,
+) -> Result<InputStats> {
+    let progress = Progress::new(files, &opts);
+    let mut seq = Sequential {
+        cfg,
+        opts,
+        engine,
+        stats: InputStats::default(),
+        readings: vec![Reading::Missing; cfg.channels.len()],
+        commas: Vec::with_capacity(64),
+        last: None,
+    };
+    let mut done_bytes = 0u64;
+    for path in files {
+        progress.file(path, done_bytes);
+        seq.file(path, &progress, done_bytes)?;
+        done_bytes += file_len(path);
+        seq.stats.files += 1;
+    }
+    progress.finish();
+    seq.engine.close()?;
+    Ok(seq.stats)
+}
+
+/// The size of `path` in bytes (0 if unknown).
+pub fn file_len(path: &Path) -> u64 {
+    std::fs::metadata(path).map(|m| m.len()).unwrap_or(0)
+}
+
+/// The progress bar on stderr: only on a terminal and for inputs over 8 MiB.
+pub struct Progress(Option<ProgressBar>);
+
+impl Progress {
+    /// A bar for `files`, or none.
+    pub fn new(files: &[PathBuf], opts: &Options) -> Self {
+        let total_bytes: u64 = files.iter().map(|p| file_len(p)).sum();
+        if !(opts.progress && io::stderr().is_terminal() && total_bytes > 8 << 20) {
+            return Progress(None);
+        }
+        let bar = ProgressBar::with_draw_target(Some(total_bytes), ProgressDrawTarget::stderr());
+        if let Ok(style) =
+            ProgressStyle::with_template("{bar:40} {bytes}/{total_bytes} ({eta} left) {msg}")
+        {
+            bar.set_style(style);
+        }
+        Progress(Some(bar))
+    }
+
+    /// Starting `path`, after `done` bytes.
+    pub fn file(&self, path: &Path, done: u64) {
+        if let Some(bar) = &self.0 {
+            bar.set_message(path.display().to_string());
+            bar.set_position(done);
+        }
+    }
+
+    /// `done` bytes read.
+    pub fn at(&self, done: u64) {
+        if let Some(bar) = &self.0 {
+            bar.set_position(done);
+        }
+    }
+
+    /// Removes the bar.
+    pub fn finish(&self) {
+        if let Some(bar) = &self.0 {
+            bar.finish_and_clear();
+        }
+    }
+}
+
+/// The sequential replay: every row into one engine.
+struct Sequential<'a> {
+    cfg: &'a StationFile,
+    opts: Options,
+    engine: &'a mut dyn Engine,
+    stats: InputStats,
+    readings: Vec<Reading>,
+    /// Comma offsets of the current record.
+    commas: Vec<u32>,
+    /// The last accepted sample time.
+    last: Option<Timestamp>,
+}
+
+impl Sequential<'_> {
+    fn file(&mut self, path: &Path, progress: &Progress, done_bytes: u64) -> Result<()> {
+        let mut blocks = Blocks::open(path, BLOCK)?;
+        let mut line = 1u64;
+        let mut parser: Option<Parser> = None;
+        loop {
+            let (offset, block) = blocks
+                .next()
+                .with_context(|| format!("cannot read {}", path.display()))?;
+            if block.is_empty() {
+                break;
+            }
+            if memchr::memchr(b'"', block).is_some() {
+                let rest = blocks.rest();
+                let cfg = self.cfg;
+                return csv_rows(path, rest, line, cfg, &mut parser, |p, line, rec| {
+                    let parsed = p.parse_record(rec, &mut self.readings);
+                    self.row(path, line, parsed)
+                })
+                .and_then(|seen| self.empty_unless(seen, path));
+            }
+            let mut recs = Records::new(block, line);
+            if parser.is_none() {
+                if let Some((hl, h)) = recs.next() {
+                    parser = Some(Parser::new(path, hl, split_fields(h), self.cfg)?);
+                }
+            }
+            if let Some(p) = parser.as_mut() {
+                while let Some((ln, parsed)) =
+                    recs.next_row(p, &mut self.readings, &mut self.commas)
+                {
+                    self.row(path, ln, parsed)?;
+                }
+            }
+            line = recs.line();
+            progress.at(done_bytes + offset + block.len() as u64);
+        }
+        self.empty_unless(parser.is_some(), path)
+    }
+
+    fn empty_unless(&mut self, seen_header: bool, path: &Path) -> Result<()> {
+        if seen_header {
+            Ok(())
+        } else {
+            self.stats.empty_file(&self.opts, path)
+        }
+    }
+
+    #[inline]
+    fn row(&mut self, path: &Path, line: u64, parsed: Result<Timestamp, BadRow>) -> Result<()> {
+        self.stats.rows += 1;
+        match parsed {
+            Ok(t) => {
+                check_jump(&self.opts, self.last, t, path, line)?;
+                if self.engine.push(t, &self.readings)? == Pushed::Accepted {
+                    self.last = Some(t);
+                }
+                Ok(())
+            }
+            Err(bad) => self.stats.bad_row(&self.opts, path, line, bad),
+        }
+    }
+}
+
+/// Reads the rest of a file with the `csv` crate (text with quotes), from a
+/// record boundary on line `line`. Parses the header first unless `parser`
+/// already holds one; calls `row` for every data record with its line.
+/// Returns whether a header was seen (false: the file held no record).
+pub fn csv_rows<E: From<anyhow::Error>>(
+    path: &Path,
+    rest: impl Read,
+    line: u64,
+    cfg: &StationFile,
+    parser: &mut Option<Parser>,
+    mut row: impl FnMut(&mut Parser, u64, &ByteRecord) -> Result<(), E>,
+) -> Result<bool, E> {
+    let mut rdr = csv::ReaderBuilder::new()
+        .has_headers(false)
+        .flexible(true)
+        .from_reader(rest);
+    let mut rec = ByteRecord::new();
+    // The csv reader numbers lines from 1 at `rest`.
+    let at = |rec: &ByteRecord| line - 1 + rec.position().map_or(1, |p| p.line());
+    loop {
+        let more = rdr
+            .read_byte_record(&mut rec)
+            .with_context(|| format!("cannot read {}", path.display()))?;
+        if !more {
+            return Ok(parser.is_some());
+        }
+        match parser {
+            Some(p) => row(p, at(&rec), &rec)?,
+            None => *parser = Some(Parser::new(path, at(&rec), rec.iter(), cfg)?),
+        }
+    }
+}
+
+/// A file read in blocks that end just after a record terminator (`\n` or
+/// `\r`), or at the end of the file.
+pub struct Blocks {
+    file: File,
+    buf: Vec<u8>,
+    /// Start of the last block handed out.
+    last: usize,
+    /// First byte not handed out yet.
+    start: usize,
+    /// End of the bytes read.
+    end: usize,
+    eof: bool,
+    /// File offset of `buf[0]`.
+    base: u64,
+}
+
+impl Blocks {
+    /// Opens `path`, to be read about `block` bytes at a time.
+    pub fn open(path: &Path, block: usize) -> Result<Self> {
+        let file = File::open(path).with_context(|| format!("cannot open {}", path.display()))?;
+        Ok(Blocks {
+            file,
+            buf: vec![0; block.max(64)],
+            last: 0,
+            start: 0,
+            end: 0,
+            eof: false,
+            base: 0,
+        })
+    }
+
+    /// The next block and its file offset: whole records up to the last
+    /// terminator read so far, or the rest at the end of the file; empty at
+    /// the end of the file.
+    pub fn next(&mut self) -> io::Result<(u64, &[u8])> {
+        loop {
+            let pending = &self.buf[self.start..self.end];
+            let cut = match memchr::memrchr2(b'\n', b'\r', pending) {
+                Some(p) => Some(p + 1),
+                None if self.eof => Some(pending.len()),
+                None => None,
+            };
+            if let Some(n) = cut {
+                self.last = self.start;
+                self.start += n;
+                return Ok((
+                    self.base + self.last as u64,
+                    &self.buf[self.last..self.start],
+                ));
+            }
+            // Keep the partial record, then read more after it.
+            if self.start > 0 {
+                self.buf.copy_within(self.start..self.end, 0);
+                self.base += self.start as u64;
+                self.end -= self.start;
+                self.start = 0;
+                self.last = 0;
+            }
+            if self.end == self.buf.len() {
+                // A record longer than the buffer.
+                self.buf.resize(self.buf.len() * 2, 0);
+            }
+            self.fill()?;
+        }
+    }
+
+    fn fill(&mut self) -> io::Result<()> {
+        loop {
+            match self.file.read(&mut self.buf[self.end..]) {
+                Ok(0) => {
+                    self.eof = true;
+                    return Ok(());
+                }
+                Ok(n) => {
+                    self.end += n;
+                    return Ok(());
+                }
+                Err(e) if e.kind() == io::ErrorKind::Interrupted => {}
+                Err(e) => return Err(e),
+            }
+        }
+    }
+
+    /// The file from the start of the last block handed out to its end.
+    pub fn rest(self) -> impl Read + Send {
+        Cursor::new(self.buf[self.last..self.end].to_vec()).chain(self.file)
+    }
+}
+
+/// The records of a block of text without quotes: split at `\n` and `\r`,
+/// blank ones skipped, each with the line it starts on.
+pub struct Records<'a> {
+    buf: &'a [u8],
+    pos: usize,
+    line: u64,
+}
+
+impl<'a> Records<'a> {
+    /// The records of `buf`, whose first byte is on line `line`.
+    pub fn new(buf: &'a [u8], line: u64) -> Self {
+        Records { buf, pos: 0, line }
+    }
+
+    /// The line of the first byte not read yet.
+    pub fn line(&self) -> u64 {
+        self.line
+    }
+
+    /// The offset of the first byte not read yet.
+    pub fn pos(&self) -> usize {
+        self.pos
+    }
+
+    /// The next record read by `parser` into `readings`: its line and its time
+    /// or why it is bad. Plain rows are read in one pass
+    /// ([`Parser::parse_plain`]); anything else is split first and read field
+    /// by field ([`Parser::parse`]), with the same result.
+    #[inline]
+    pub fn next_row(
+        &mut self,
+        parser: &mut Parser,
+        readings: &mut [Reading],
+        commas: &mut Vec<u32>,
+    ) -> Option<(u64, Result<Timestamp, BadRow>)> {
+        let buf = self.buf;
+        let mut i = self.pos;
+        loop {
+            match buf.get(i) {
+                None => {
+                    self.pos = i;
+                    return None;
+                }
+                Some(b'\n') => self.line += 1,
+                Some(b'\r') => {}
+                Some(_) => break,
+            }
+            i += 1;
+        }
+        if let Some((t, end)) = parser.parse_plain(buf, i, readings) {
+            let line = self.line;
+            match buf.get(end) {
+                Some(b'\n') => {
+                    self.line += 1;
+                    self.pos = end + 1;
+                }
+                Some(_) => self.pos = end + 1,
+                None => self.pos = end,
+            }
+            return Some((line, Ok(t)));
+        }
+        self.pos = i;
+        let (line, rec) = self.next_split(commas)?;
+        Some((line, parser.parse(rec, commas, readings)))
+    }
+
+    /// The next record and its line, with the offsets of its commas in
+    /// `commas`: the same records as [`Records::next`], in one pass.
+    #[inline]
+    pub fn next_split(&mut self, commas: &mut Vec<u32>) -> Option<(u64, &'a [u8])> {
+        let buf = self.buf;
+        let mut i = self.pos;
+        // Skip terminators (blank records).
+        loop {
+            match buf.get(i) {
+                None => {
+                    self.pos = i;
+                    return None;
+                }
+                Some(b'\n') => self.line += 1,
+                Some(b'\r') => {}
+                Some(_) => break,
+            }
+            i += 1;
+        }
+        let start = i;
+        let rest = &buf[start..];
+        let (rec, term) = match memchr::memchr2(b'\n', b'\r', rest) {
+            Some(p) => (&rest[..p], Some(rest[p])),
+            None => (rest, None),
+        };
+        find_commas(rec, commas);
+        let line = self.line;
+        i = start + rec.len() + usize::from(term.is_some());
+        if term == Some(b'\n') {
+            self.line += 1;
+        }
+        self.pos = i;
+        Some((line, rec))
+    }
+
+    /// The next record and its line.
+    #[inline]
+    #[allow(clippy::should_implement_trait)]
+    pub fn next(&mut self) -> Option<(u64, &'a [u8])> {
+        loop {
+            let rest = self.buf.get(self.pos..)?;
+            if rest.is_empty() {
+                return None;
+            }
+            let (rec, term) = match memchr::memchr2(b'\n', b'\r', rest) {
+                Some(p) => (&rest[..p], Some(rest[p])),
+                None => (rest, None),
+            };
+            let line = self.line;
+            self.pos += rec.len() + usize::from(term.is_some());
+            if term == Some(b'\n') {
+                self.line += 1;
+            }
+            if !rec.is_empty() {
+                return Some((line, rec));
+            }
+        }
+    }
+}
+
+/// The offsets of the commas of `rec` into `commas`, eight bytes at a time
+/// (the exact zero-byte test of S. E. Anderson's "Bit Twiddling Hacks",
+/// "Determine if a word has a zero byte", without its false positives).
+#[inline]
+fn find_commas(rec: &[u8], commas: &mut Vec<u32>) {
+    const LOW7: u64 = 0x7f7f_7f7f_7f7f_7f7f;
+    const COMMAS: u64 = 0x2c2c_2c2c_2c2c_2c2c;
+    commas.clear();
+    let mut words = rec.chunks_exact(8);
+    let mut base = 0u32;
+    for w in &mut words {
+        let x = u64::from_le_bytes(w.try_into().unwrap_or([0; 8])) ^ COMMAS;
+        // High bit of each byte set where x has a zero byte (a comma).
+        let mut hits = !(((x & LOW7).wrapping_add(LOW7)) | x | LOW7);
+        while hits != 0 {
+            commas.push(base + hits.trailing_zeros() / 8);
+            hits &= hits - 1;
+        }
+        base += 8;
+    }
+    for (i, &b) in words.remainder().iter().enumerate() {
+        if b == b',' {
+            commas.push(base + i as u32);
+        }
+    }
+}
+
+/// The fields of a record without quotes.
+pub fn split_fields(rec: &[u8]) -> impl Iterator<Item = &[u8]> {
+    rec.split(|b| *b == b',')
+}
+
+/// Reads data rows of one file: its header's column map and a time cache.
+#[derive(Clone, Debug)]
+pub struct Parser {
+    cols: Vec<Col>,
+    /// Channel ids in station-file order, for messages.
+    ids: Vec<String>,
+    time: TimeCache,
+}
+
+impl Parser {
+    /// A parser for the header `fields` on `path:line`; header problems are
+    /// errors naming the field.
+    pub fn new<'f>(
+        path: &Path,
+        line: u64,
+        fields: impl Iterator<Item = &'f [u8]>,
+        cfg: &StationFile,
+    ) -> Result<Self> {
+        Ok(Parser {
+            cols: header(path, line, fields, cfg)?,
+            ids: cfg.channels.iter().map(|c| c.id.clone()).collect(),
+            time: TimeCache::default(),
+        })
+    }
+
+    /// Reads a plain record starting at `buf[start]` in one pass: every field
+    /// a plain decimal or integer (or empty), the time a cached RFC 3339 hour
+    /// or integer epoch seconds ([`TimeCache::parse_plain`]), the right number
+    /// of fields. Returns the time and the offset of the record's end (its
+    /// terminator, or the end of `buf`); `None` for any other record, which
+    /// [`Parser::parse`] then reads (`readings` may be partly written).
+    #[inline]
+    pub fn parse_plain(
+        &mut self,
+        buf: &[u8],
+        start: usize,
+        readings: &mut [Reading],
+    ) -> Option<(Timestamp, usize)> {
+        let mut p = start;
+        let mut time = None;
+        for (i, col) in self.cols.iter().enumerate() {
+            if i > 0 {
+                if buf.get(p) != Some(&b',') {
+                    return None;
+                }
+                p += 1;
+            }
+            let rest = buf.get(p..)?;
+            match *col {
+                Col::Time => {
+                    let (t, n) = self.time.parse_plain(rest)?;
+                    time = Some(t);
+                    p += n;
+                }
+                Col::Value(c) => {
+                    let (v, n) = plain_f64(rest)?;
+                    *readings.get_mut(c)? = v;
+                    p += n;
+                }
+                Col::Counts(c) => {
+                    let (k, n) = plain_i32(rest)?;
+                    *readings.get_mut(c)? = k;
+                    p += n;
+                }
+            }
+        }
+        match buf.get(p) {
+            None | Some(b'\n' | b'\r') => Some((time?, p)),
+            Some(_) => None,
+        }
+    }
+
+    /// Reads a record without quotes into `readings` (one per channel, in
+    /// station-file order); returns its time. `commas` are the offsets of its
+    /// commas ([`Records::next_split`]).
+    #[inline]
+    pub fn parse(
+        &mut self,
+        rec: &[u8],
+        commas: &[u32],
+        readings: &mut [Reading],
+    ) -> Result<Timestamp, BadRow> {
+        let mut start = 0usize;
+        let fields = (0..=commas.len()).map(|i| {
+            let end = commas.get(i).map_or(rec.len(), |&c| c as usize);
+            let f = rec.get(start..end).unwrap_or_default();
+            start = end + 1;
+            f
+        });
+        self.fields(commas.len() + 1, fields, readings)
+    }
+
+    /// Reads a record of the `csv` crate.
+    pub fn parse_record(
+        &mut self,
+        rec: &ByteRecord,
+        readings: &mut [Reading],
+    ) -> Result<Timestamp, BadRow> {
+        self.fields(rec.len(), rec.iter(), readings)
+    }
+
+    #[inline]
+    fn fields<'f>(
+        &mut self,
+        n: usize,
+        fields: impl Iterator<Item = &'f [u8]>,
+        readings: &mut [Reading],
+    ) -> Result<Timestamp, BadRow> {
+        let cols = &self.cols;
+        if n != cols.len() {
+            return Err(BadRow::new(
+                BadKind::FieldCount,
+                None,
+                format!(
+                    "expected {} fields (time and {} channels), found {n}",
+                    cols.len(),
+                    cols.len() - 1,
+                ),
+            ));
+        }
+        let mut time = None;
+        for (i, (field, col)) in fields.zip(cols).enumerate() {
+            match *col {
+                Col::Time => match self.time.parse(field) {
+                    Ok(t) => time = Some(t),
+                    Err(e) => return Err(time_error(i, e, field)),
+                },
+                Col::Value(c) => match parse_reading(field, Decode::Value) {
+                    Ok(r) => readings[c] = r,
+                    Err(kind) => {
+                        return Err(value_error(i, &self.ids[c], kind, Decode::Value, field))
+                    }
+                },
+                Col::Counts(c) => match parse_reading(field, Decode::Counts) {
+                    Ok(r) => readings[c] = r,
+                    Err(kind) => {
+                        return Err(value_error(i, &self.ids[c], kind, Decode::Counts, field))
+                    }
+                },
+            }
+        }
+        // The header guarantees one time column.
+        time.ok_or_else(|| BadRow::new(BadKind::Time, None, "no time".into()))
+    }
+}
+
+#[cold]
+fn time_error(i: usize, e: TimeError, field: &[u8]) -> BadRow {
+    let kind = if e == TimeError::Encoding {
+        BadKind::Encoding
+    } else {
+        BadKind::Time
+    };
+    BadRow::new(
+        kind,
+        Some((i, "time".into())),
+        format!("{e}, found {}", shown(field)),
+    )
+}
+
+#[cold]
+fn value_error(i: usize, id: &str, kind: BadKind, decode: Decode, field: &[u8]) -> BadRow {
+    let msg = match (kind, decode) {
+        (BadKind::Encoding, _) => format!("not valid UTF-8: {}", shown(field)),
+        (_, Decode::Value) => format!(
+            "expected a number, NaN or an empty field, found {}",
+            shown(field)
+        ),
+        (_, Decode::Counts) => format!(
+            "expected integer counts (a 32-bit integer), NaN or an empty field, found {}",
+            shown(field)
+        ),
+    };
+    BadRow::new(kind, Some((i, id.to_string())), msg)
+}
+
+fn header<'f>(
+    path: &Path,
+    line: u64,
+    fields: impl Iterator<Item = &'f [u8]>,
+    cfg: &StationFile,
+) -> Result<Vec<Col>> {
     let at = |msg: String| anyhow!("{}:{line}: {msg}", path.display());
-    let mut cols = Vec::with_capacity(rec.len());
+    let mut cols = Vec::new();
     let mut seen = vec![false; cfg.channels.len()];
     let mut time_seen = false;
-    for (i, raw) in rec.iter().enumerate() {
+    for (i, raw) in fields.enumerate() {
         let raw = if i == 0 {
             raw.strip_prefix(b"\xEF\xBB\xBF").unwrap_or(raw)
         } else {
@@ -268,7 +900,10 @@ fn header(path: &Path, line: u64, rec: &ByteRecord, cfg: &StationFile) -> Result
             )));
         }
         seen[c] = true;
-        cols.push(Col::Channel(c));
+        cols.push(match cfg.channels[c].decode {
+            Decode::Value => Col::Value(c),
+            Decode::Counts => Col::Counts(c),
+        });
     }
     if !time_seen {
         return Err(at(
@@ -301,76 +936,268 @@ fn shown(b: &[u8]) -> String {
     }
 }
 
-fn parse_row(
-    rec: &ByteRecord,
-    cols: &[Col],
-    cfg: &StationFile,
-    readings: &mut [Reading],
-) -> Result<qc_core::Timestamp, BadRow> {
-    if rec.len() != cols.len() {
-        return Err(BadRow {
-            kind: BadKind::FieldCount,
-            column: None,
-            msg: format!(
-                "expected {} fields (time and {} channels), found {}",
-                cols.len(),
-                cols.len() - 1,
-                rec.len()
-            ),
-        });
-    }
-    let mut time = None;
-    for (i, (field, col)) in rec.iter().zip(cols).enumerate() {
-        match *col {
-            Col::Time => match parse_time(field) {
-                Ok(t) => time = Some(t),
-                Err(e) => {
-                    let kind = if e == crate::timefmt::TimeError::Encoding {
-                        BadKind::Encoding
-                    } else {
-                        BadKind::Time
-                    };
-                    return Err(BadRow {
-                        kind,
-                        column: Some((i, "time".into())),
-                        msg: format!("{e}, found {}", shown(field)),
-                    });
-                }
-            },
-            Col::Channel(c) => {
-                let ch = &cfg.channels[c];
-                readings[c] = parse_reading(field, ch.decode).map_err(|kind| {
-                    let msg = match (kind, ch.decode) {
-                        (BadKind::Encoding, _) => format!("not valid UTF-8: {}", shown(field)),
-                        (_, Decode::Value) => format!(
-                            "expected a number, NaN or an empty field, found {}",
-                            shown(field)
-                        ),
-                        (_, Decode::Counts) => format!(
-                            "expected integer counts (a 32-bit integer), NaN or an empty field, found {}",
-                            shown(field)
-                        ),
-                    };
-                    BadRow {
-                        kind,
-                        column: Some((i, ch.id.clone())),
-                        msg,
-                    }
-                })?;
+/// Sample times with a cache of the last RFC 3339 date and hour.
+///
+/// Consecutive samples share `YYYY-MM-DDTHH`; for a 20-byte
+/// `YYYY-MM-DDTHH:MM:SSZ` whose first 13 bytes equal the cached ones, the time
+/// is the cached hour plus minutes and seconds, exactly what
+/// [`parse_time`] computes (civil time is affine in minutes and seconds within
+/// an hour). Plain integer epoch seconds are read directly. Everything else
+/// goes to [`parse_time`].
+#[derive(Clone, Debug, Default)]
+pub struct TimeCache {
+    prefix: [u8; 13],
+    /// Milliseconds of `prefix` at minute 0, second 0; `None` when empty.
+    hour_ms: Option<i64>,
+}
+
+impl TimeCache {
+    /// The time at the start of `b` if it is a cached RFC 3339 hour
+    /// (`YYYY-MM-DDTHH:MM:SSZ`) or integer epoch seconds, and its length; the
+    /// caller checks that a delimiter follows. `None` otherwise.
+    #[inline]
+    pub fn parse_plain(&self, b: &[u8]) -> Option<(Timestamp, usize)> {
+        if let (Some(base), Some(f)) = (self.hour_ms, b.get(..20)) {
+            if f[..13] == self.prefix {
+                let ms = minute_second_ms(f)?;
+                return Some((Timestamp::from_millis(base + ms), 20));
             }
         }
+        let n = b.iter().take(16).take_while(|c| c.is_ascii_digit()).count();
+        if n == 0 || n > 15 {
+            return None;
+        }
+        let secs = b[..n]
+            .iter()
+            .fold(0i64, |s, c| s * 10 + i64::from(c - b'0'));
+        Some((Timestamp::from_millis(secs * 1000), n))
     }
-    // The header guarantees one time column.
-    time.ok_or_else(|| BadRow {
-        kind: BadKind::Time,
-        column: None,
-        msg: "no time".into(),
-    })
+
+    /// Parses one time field.
+    #[inline]
+    pub fn parse(&mut self, f: &[u8]) -> Result<Timestamp, TimeError> {
+        if let Some(base) = self.hour_ms {
+            if f.len() == 20 && f[..13] == self.prefix {
+                if let Some(ms) = minute_second_ms(f) {
+                    return Ok(Timestamp::from_millis(base + ms));
+                }
+            }
+        }
+        if !f.is_empty() && f.len() <= 15 && f.iter().all(u8::is_ascii_digit) {
+            let secs = f.iter().fold(0i64, |s, c| s * 10 + i64::from(c - b'0'));
+            return Ok(Timestamp::from_millis(secs * 1000));
+        }
+        let t = parse_time(f)?;
+        if f.len() == 20 {
+            if let Some(ms) = minute_second_ms(f) {
+                self.prefix.copy_from_slice(&f[..13]);
+                self.hour_ms = Some(t.millis() - ms);
+            }
+        }
+        Ok(t)
+    }
+}
+
+/// `:MM:SSZ` at bytes 13..20 as milliseconds, if it has that shape with
+/// minutes and seconds below 60.
+#[inline]
+fn minute_second_ms(f: &[u8]) -> Option<i64> {
+    let &[b':', m1, m2, b':', s1, s2, b'Z' | b'z'] = f.get(13..20)? else {
+        return None;
+    };
+    let d = |c: u8| c.wrapping_sub(b'0');
+    let (m1, m2, s1, s2) = (d(m1), d(m2), d(s1), d(s2));
+    if m1 < 6 && m2 < 10 && s1 < 6 && s2 < 10 {
+        Some((i64::from(m1 * 10 + m2) * 60 + i64::from(s1 * 10 + s2)) * 1000)
+    } else {
+        None
+    }
+}
+
+/// Powers of ten exactly representable in `f64`.
+const POW10: [f64; 16] = [
+    1e0, 1e1, 1e2, 1e3, 1e4, 1e5, 1e6, 1e7, 1e8, 1e9, 1e10, 1e11, 1e12, 1e13, 1e14, 1e15,
+];
+
+/// A plain decimal (`[+-]digits[.digits]`, at most 15 digits) read exactly:
+/// the digits as an integer below 2^53 divided by an exact power of ten is one
+/// correctly rounded IEEE division, the same bits as `str::parse::<f64>`
+/// (W. D. Clinger, "How to read floating point numbers accurately", 1990, the
+/// fast path). `None` for anything else.
+#[inline]
+fn fast_f64(b: &[u8]) -> Option<f64> {
+    let (neg, digits) = match b.first()? {
+        b'-' => (true, &b[1..]),
+        b'+' => (false, &b[1..]),
+        _ => (false, b),
+    };
+    let mut m = 0u64;
+    let mut n = 0usize;
+    let mut dot: Option<usize> = None;
+    for (i, &c) in digits.iter().enumerate() {
+        let d = c.wrapping_sub(b'0');
+        if d < 10 {
+            m = m * 10 + u64::from(d);
+            n += 1;
+            if n > 15 {
+                return None;
+            }
+        } else if c == b'.' && dot.is_none() {
+            dot = Some(i);
+        } else {
+            return None;
+        }
+    }
+    if n == 0 {
+        return None;
+    }
+    let frac = dot.map_or(0, |p| digits.len() - p - 1);
+    let v = quotient(m, frac);
+    Some(if neg { -v } else { v })
+}
+
+/// A plain decimal at the start of `b` ([`fast_f64`]), or an empty field
+/// (missing) when a delimiter comes first, and its length; the caller checks
+/// that a delimiter follows.
+#[inline]
+fn plain_f64(b: &[u8]) -> Option<(Reading, usize)> {
+    let (neg, skip) = match b.first() {
+        None | Some(b',' | b'\n' | b'\r') => return Some((Reading::Missing, 0)),
+        Some(b'-') => (true, 1),
+        Some(b'+') => (false, 1),
+        Some(_) => (false, 0),
+    };
+    // Digits accumulate with wrapping arithmetic; more than 15 of them are
+    // refused after the loop, before `m` is used.
+    let mut m = 0u64;
+    let mut dot = usize::MAX;
+    let mut i = skip;
+    while let Some(&c) = b.get(i) {
+        let d = c.wrapping_sub(b'0');
+        if d < 10 {
+            m = m.wrapping_mul(10).wrapping_add(u64::from(d));
+        } else if c == b'.' && dot == usize::MAX {
+            dot = i;
+        } else {
+            break;
+        }
+        i += 1;
+    }
+    let (n, frac) = if dot == usize::MAX {
+        (i - skip, 0)
+    } else {
+        (i - skip - 1, i - dot - 1)
+    };
+    if n == 0 || n > 15 {
+        return None;
+    }
+    let v = quotient(m, frac);
+    Some((Reading::Value(if neg { -v } else { v }), i))
+}
+
+/// Entries of the quotient tables: plain values below 819.2 (one decimal) and
+/// 81.92 (two decimals), the usual ranges of wind, temperature and humidity.
+const TABLE: usize = 8192;
+
+/// `i / 10^k` for every `i < TABLE`, divided at compile time: constant
+/// evaluation of `f64` division is IEEE 754 correctly rounded, the same bits
+/// as the division at run time, which is slow (a long-latency instruction).
+const fn quotients(k: usize) -> [f64; TABLE] {
+    let mut t = [0.0; TABLE];
+    let mut i = 0;
+    while i < TABLE {
+        t[i] = i as f64 / POW10[k];
+        i += 1;
+    }
+    t
+}
+
+static TENTHS: [f64; TABLE] = quotients(1);
+static HUNDREDTHS: [f64; TABLE] = quotients(2);
+
+/// `m / 10^frac`, correctly rounded (`m < 2^53`, `frac <= 15`).
+#[inline]
+fn quotient(m: u64, frac: usize) -> f64 {
+    match (frac, usize::try_from(m)) {
+        (0, _) => m as f64,
+        (1, Ok(i)) if i < TABLE => TENTHS[i],
+        (2, Ok(i)) if i < TABLE => HUNDREDTHS[i],
+        _ => m as f64 / POW10[frac],
+    }
+}
+
+/// Integer counts at the start of `b` ([`fast_i32`]), or an empty field, and
+/// its length; the caller checks that a delimiter follows.
+#[inline]
+fn plain_i32(b: &[u8]) -> Option<(Reading, usize)> {
+    let (neg, skip) = match b.first() {
+        None | Some(b',' | b'\n' | b'\r') => return Some((Reading::Missing, 0)),
+        Some(b'-') => (true, 1),
+        Some(b'+') => (false, 1),
+        Some(_) => (false, 0),
+    };
+    let mut k = 0i32;
+    let mut i = skip;
+    while let Some(&c) = b.get(i) {
+        let d = c.wrapping_sub(b'0');
+        if d >= 10 {
+            break;
+        }
+        if i - skip == 9 {
+            return None;
+        }
+        k = k * 10 + i32::from(d);
+        i += 1;
+    }
+    if i == skip {
+        return None;
+    }
+    Some((Reading::Counts(if neg { -k } else { k }), i))
+}
+
+/// Integer counts `[+-]digits` of at most 9 digits, read directly.
+#[inline]
+fn fast_i32(b: &[u8]) -> Option<i32> {
+    let (neg, digits) = match b.first()? {
+        b'-' => (true, &b[1..]),
+        b'+' => (false, &b[1..]),
+        _ => (false, b),
+    };
+    if digits.is_empty() || digits.len() > 9 {
+        return None;
+    }
+    let mut k = 0i32;
+    for &c in digits {
+        let d = c.wrapping_sub(b'0');
+        if d >= 10 {
+            return None;
+        }
+        k = k * 10 + i32::from(d);
+    }
+    Some(if neg { -k } else { k })
 }
 
 /// One reading from its field. Empty is `Missing`; NaN is passed on (values)
 /// or `Missing` (counts); missing-value codes are passed on for the core to count.
+#[inline]
 fn parse_reading(field: &[u8], decode: Decode) -> Result<Reading, BadKind> {
+    match decode {
+        Decode::Value => {
+            if let Some(v) = fast_f64(field) {
+                return Ok(Reading::Value(v));
+            }
+        }
+        Decode::Counts => {
+            if let Some(k) = fast_i32(field) {
+                return Ok(Reading::Counts(k));
+            }
+        }
+    }
+    parse_reading_slow(field, decode)
+}
+
+#[cold]
+fn parse_reading_slow(field: &[u8], decode: Decode) -> Result<Reading, BadKind> {
     let b = field.trim_ascii();
     if b.is_empty() {
         return Ok(Reading::Missing);
@@ -413,5 +1240,263 @@ mod tests {
         assert_eq!(k("nan"), Ok(Reading::Missing));
         assert_eq!(k("12.5"), Err(BadKind::Value));
         assert_eq!(k("99999999999"), Err(BadKind::Value));
+    }
+
+    /// Every string over a small alphabet up to length 5, and random longer
+    /// ones: the fast paths give exactly what the standard library's parsers
+    /// give (Rust std `str::parse`, the reference), or step aside.
+    #[test]
+    fn fast_numbers_agree_with_std_parse() {
+        const ALPHA: &[u8] = b"0159.+-e";
+        let mut check = |s: &[u8]| {
+            let text = std::str::from_utf8(s).unwrap();
+            if let Some(v) = fast_f64(s) {
+                let want: f64 = text.parse().unwrap_or_else(|_| panic!("{text}"));
+                assert_eq!(v.to_bits(), want.to_bits(), "{text}");
+            }
+            if let Some(k) = fast_i32(s) {
+                assert_eq!(Ok(k), text.parse::<i32>(), "{text}");
+            }
+            let slow = parse_reading_slow(s, Decode::Value);
+            let fast = parse_reading(s, Decode::Value);
+            match (fast, slow) {
+                (Ok(Reading::Value(a)), Ok(Reading::Value(b))) => {
+                    assert!(
+                        a.to_bits() == b.to_bits() || (a.is_nan() && b.is_nan()),
+                        "{text}"
+                    )
+                }
+                (a, b) => assert_eq!(a, b, "{text}"),
+            }
+            assert_eq!(
+                parse_reading(s, Decode::Counts),
+                parse_reading_slow(s, Decode::Counts),
+                "{text}"
+            );
+        };
+        let mut s = Vec::new();
+        fn all(s: &mut Vec<u8>, depth: usize, check: &mut dyn FnMut(&[u8])) {
+            check(s);
+            if depth == 0 {
+                return;
+            }
+            for &c in ALPHA {
+                s.push(c);
+                all(s, depth - 1, check);
+                s.pop();
+            }
+        }
+        all(&mut s, 5, &mut check);
+        // Long decimals around the 15-digit limit, from a small LCG.
+        let mut x = 0x2545_f491_4f6c_dd1du64;
+        for _ in 0..200_000 {
+            x = x.wrapping_mul(6_364_136_223_846_793_005).wrapping_add(1);
+            let digits = 1 + (x >> 60) as usize;
+            let mut t = (x >> 8).to_string();
+            t.truncate(digits + 1);
+            let dot = (x >> 40) as usize % (t.len() + 1);
+            t.insert(dot, '.');
+            if x & 1 == 1 {
+                t.insert(0, '-');
+            }
+            check(t.as_bytes());
+        }
+        assert_eq!(fast_f64(b"8.25"), Some(8.25));
+        assert_eq!(fast_f64(b"-0"), Some(-0.0));
+        assert!(fast_f64(b"-0").unwrap().is_sign_negative());
+        assert_eq!(fast_f64(b"1234567890123456"), None);
+        // The compile-time quotients are the run-time ones.
+        for m in 0..TABLE as u64 + 10 {
+            for (frac, p) in POW10.iter().enumerate().take(4) {
+                let want = m as f64 / p;
+                assert_eq!(quotient(m, frac).to_bits(), want.to_bits(), "{m} {frac}");
+            }
+        }
+    }
+
+    #[test]
+    fn commas_found_eight_at_a_time_match_a_plain_scan() {
+        let mut x = 99u64;
+        let mut commas = Vec::new();
+        for len in 0..200 {
+            for _ in 0..20 {
+                let rec: Vec<u8> = (0..len)
+                    .map(|_| {
+                        x = x.wrapping_mul(6_364_136_223_846_793_005).wrapping_add(1);
+                        // Commas, their neighbours in ASCII ('+', '-') and any byte.
+                        match x >> 62 {
+                            0 => b',',
+                            1 => b'-',
+                            2 => b'+',
+                            _ => (x >> 40) as u8,
+                        }
+                    })
+                    .collect();
+                find_commas(&rec, &mut commas);
+                let want: Vec<u32> = (0..rec.len() as u32)
+                    .filter(|&i| rec[i as usize] == b',')
+                    .collect();
+                assert_eq!(commas, want, "{rec:?}");
+            }
+        }
+    }
+
+    /// Random records over an alphabet of digits, signs, dots, spaces,
+    /// letters and delimiters: wherever the one-pass reader accepts a record,
+    /// the field-by-field reader (std parsers behind it) gives the same time
+    /// and the same readings, bit for bit.
+    #[test]
+    fn one_pass_rows_agree_with_field_by_field_rows() {
+        let toml = "[logging]\nsample_rate_hz = 1\n\
+            [[channel]]\nid = \"a\"\nkind = \"speed\"\nresolution = 0.01\n\
+            [[channel]]\nid = \"b\"\nkind = \"scalar\"\nslope = 0.5\n";
+        let cfg = crate::config::parse(Path::new("s.toml"), toml).unwrap();
+        let header: [&[u8]; 3] = [b"b", b"time", b"a"];
+        let mut plain = Parser::new(Path::new("x"), 1, header.into_iter(), &cfg).unwrap();
+        let mut general = plain.clone();
+        let times = [
+            "2025-01-20T00:00:01Z",
+            "2025-01-20T00:59:59Z",
+            "2025-01-20T01:00:00Z",
+            "2025-01-20T00:61:00Z",
+            "1737331201",
+            "1737331201.5",
+            "2025-01-20T00:00:01+01:00",
+            "",
+        ];
+        const ALPHA: &[u8] = b"0123456789.-+ eN,";
+        let mut x = 5u64;
+        let mut rnd = |n: u64| {
+            x = x.wrapping_mul(6_364_136_223_846_793_005).wrapping_add(1);
+            (x >> 33) % n
+        };
+        let (mut agreed, mut commas) = (0, Vec::new());
+        for _ in 0..200_000 {
+            let field = |rnd: &mut dyn FnMut(u64) -> u64| -> Vec<u8> {
+                (0..rnd(7))
+                    .map(|_| ALPHA[rnd(ALPHA.len() as u64) as usize])
+                    .collect()
+            };
+            let mut rec = field(&mut rnd);
+            rec.push(b',');
+            rec.extend_from_slice(times[rnd(times.len() as u64) as usize].as_bytes());
+            rec.push(b',');
+            rec.extend(field(&mut rnd));
+            let term: &[u8] = [&b"\n"[..], b"\r\n", b""][rnd(3) as usize];
+            let buf = [&rec[..], term].concat();
+            let mut r1 = [Reading::Missing; 2];
+            let mut r2 = [Reading::Missing; 2];
+            let bits = |r: &[Reading; 2]| {
+                r.map(|v| match v {
+                    Reading::Value(f) => (0, f.to_bits()),
+                    Reading::Counts(k) => (1, k as u64),
+                    _ => (2, 0),
+                })
+            };
+            // The general reader first, so that both see the same time cache.
+            find_commas(&rec, &mut commas);
+            let want = general.parse(&rec, &commas, &mut r2);
+            if let Some((t, end)) = plain.parse_plain(&buf, 0, &mut r1) {
+                assert_eq!(end, rec.len(), "{:?}", String::from_utf8_lossy(&rec));
+                let want =
+                    want.unwrap_or_else(|e| panic!("{e}: {:?}", String::from_utf8_lossy(&rec)));
+                assert_eq!(t, want, "{:?}", String::from_utf8_lossy(&rec));
+                assert_eq!(bits(&r1), bits(&r2), "{:?}", String::from_utf8_lossy(&rec));
+                agreed += 1;
+            } else {
+                // Keep the caches in step, as the reader does.
+                let _ = plain.parse(&rec, &commas, &mut r1);
+            }
+        }
+        assert!(agreed > 1000, "{agreed}");
+    }
+
+    #[test]
+    fn cached_times_agree_with_parse_time() {
+        let mut cache = TimeCache::default();
+        let cases = [
+            "2025-01-20T00:00:00Z",
+            "2025-01-20T00:00:01Z",
+            "2025-01-20T00:59:59Z",
+            "2025-01-20T00:60:00Z",
+            "2025-01-20T00:00:60Z",
+            "2025-01-20T00:0a:00Z",
+            "2025-01-20T00:00:01z",
+            "2025-01-20T00:00:01+",
+            "2025-01-20T01:00:00Z",
+            "2025-01-20 01:00:05Z",
+            "2025-01-20T01:00:05.5Z",
+            "2025-01-20T01:00:05+01:00",
+            "2024-02-29T23:59:59Z",
+            "2025-02-29T23:59:59Z",
+            "1737331201",
+            "1737331201.5",
+            "0",
+            "999999999999999",
+            "9999999999999999",
+            "-5",
+            " 1737331201",
+        ];
+        for _ in 0..2 {
+            for s in cases {
+                assert_eq!(cache.parse(s.as_bytes()), parse_time(s.as_bytes()), "{s}");
+            }
+        }
+    }
+
+    /// The record splitter against the `csv` crate (the reference for the
+    /// dialect) on random text without quotes.
+    #[test]
+    fn records_split_like_the_csv_crate() {
+        let mut x = 7u64;
+        for _ in 0..3000 {
+            let mut text = Vec::new();
+            for _ in 0..(x % 40) {
+                x = x
+                    .wrapping_mul(6_364_136_223_846_793_005)
+                    .wrapping_add(1442695040888963407);
+                text.push(b"ab,, \n\r\n"[(x >> 61) as usize]);
+            }
+            let mut rdr = csv::ReaderBuilder::new()
+                .has_headers(false)
+                .flexible(true)
+                .from_reader(&text[..]);
+            let want: Vec<Vec<Vec<u8>>> = rdr
+                .byte_records()
+                .map(|r| r.unwrap().iter().map(<[u8]>::to_vec).collect())
+                .collect();
+            let mut got = Vec::new();
+            let mut recs = Records::new(&text, 1);
+            let mut last_line = 0;
+            while let Some((line, rec)) = recs.next() {
+                assert!(line >= last_line);
+                last_line = line;
+                // The line is the one the record starts on.
+                let before = text[..rec.as_ptr() as usize - text.as_ptr() as usize]
+                    .iter()
+                    .filter(|b| **b == b'\n')
+                    .count();
+                assert_eq!(line, before as u64 + 1);
+                got.push(split_fields(rec).map(<[u8]>::to_vec).collect::<Vec<_>>());
+            }
+            assert_eq!(got, want, "{:?}", String::from_utf8_lossy(&text));
+            let mut split = Vec::new();
+            let mut recs = Records::new(&text, 1);
+            let mut again = Records::new(&text, 1);
+            let mut commas = Vec::new();
+            while let Some((line, rec)) = recs.next_split(&mut commas) {
+                assert_eq!(again.next(), Some((line, rec)));
+                let mut start = 0;
+                let mut fields = Vec::new();
+                for &c in &commas {
+                    fields.push(rec[start..c as usize].to_vec());
+                    start = c as usize + 1;
+                }
+                fields.push(rec[start..].to_vec());
+                split.push(fields);
+            }
+            assert_eq!(again.next(), None);
+            assert_eq!(split, want);
+        }
     }
 }

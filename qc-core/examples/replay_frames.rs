@@ -1,4 +1,4 @@
-//! Host side of the firmware replay check.
+//! Host side of the firmware replay check, for the fixed scenario station.
 //!
 //! ```text
 //! cargo run -p qc-core --example replay_frames -- generate DAY.tmsf
@@ -7,35 +7,44 @@
 //! ```
 //!
 //! - `generate` writes one invented day (2024-01-15, UTC) of 1 Hz samples of the
-//!   scenario's 8-channel station as a sample file ([`qc_core::wire`]): wind with
-//!   a daily cycle and gusts, a vane swinging through north, a cold humid
-//!   morning with a frozen vane, missing readings, missing-value codes, out-of-
-//!   range readings, a spike, a 45-minute logger outage, a duplicate and a
-//!   backward timestamp. Deterministic: the same bytes every run.
-//! - `replay` runs a sample file through the scenario's logger on the host and
-//!   writes the record log.
+//!   scenario's 8-channel station as a sample file ([`qc_core::wire`], with the
+//!   station configuration in its header): wind with a daily cycle and gusts, a
+//!   vane swinging through north, a cold humid morning with a frozen vane,
+//!   missing readings, missing-value codes, out-of-range readings, a spike, a
+//!   45-minute logger outage, a duplicate and a backward timestamp.
+//!   Deterministic: the same bytes every run.
+//! - `replay` runs any sample file (this one, or one from `tenmin export`)
+//!   through the firmware's replay loop on the host and writes the record log.
 //! - `check` does the same in memory and compares the result bit for bit with a
 //!   record log written by the firmware. Prints `OK` and exits 0 when they are
 //!   identical; otherwise prints each difference and exits 1 (2 on a usage or
 //!   file error).
 //!
-//! The station layout and the record-writing code are the firmware's own
-//! (`firmware-example/src/scenario.rs`, included below), so the two cannot drift.
+//! The station, the replay loop and the record-writing code are the firmware's
+//! own (`firmware-example/src/{scenario,logger,replay}.rs`, included below), so
+//! the two cannot drift. Records of a station from a station file are checked
+//! with `tenmin decode` and `tenmin verify` instead (`firmware-example/run-checks.sh`).
 
 use std::fs;
 use std::process::ExitCode;
 
 use qc_core::wire::{
-    self, encode_sample, encode_sample_header, sample_frame_max_len, RecordFrame, SampleReader,
-    Span, FRAME_LEN, SAMPLE_HEADER_LEN,
+    self, encode_sample, encode_sample_header, sample_frame_max_len, sample_header_len,
+    RecordFrame, Span, FRAME_LEN,
 };
 use qc_core::{Reading, Stat, Timestamp};
 
 #[allow(dead_code)]
+#[path = "../../firmware-example/src/logger.rs"]
+mod logger;
+#[allow(dead_code, unexpected_cfgs)]
+#[path = "../../firmware-example/src/replay.rs"]
+mod replay;
+#[allow(dead_code)]
 #[path = "../../firmware-example/src/scenario.rs"]
 mod scenario;
 
-use scenario::{Logger, CHANNELS};
+use scenario::CHANNELS;
 
 /// 2024-01-15T00:00:00Z, ms.
 const DAY_START: i64 = 1_705_276_800_000;
@@ -179,11 +188,9 @@ fn day() -> Vec<(i64, [Reading; CHANNELS])> {
 
 fn generate(path: &str) -> Result<(), String> {
     let samples = day();
-    let mut file = vec![0u8; SAMPLE_HEADER_LEN];
-    let header: &mut [u8; SAMPLE_HEADER_LEN] = (&mut file[..SAMPLE_HEADER_LEN])
-        .try_into()
-        .map_err(|_| "header buffer".to_string())?;
-    encode_sample_header(CHANNELS as u8, header);
+    let mut file = vec![0u8; sample_header_len(CHANNELS)];
+    encode_sample_header(&scenario::station(), &scenario::channels(), &mut file)
+        .map_err(|e| format!("encoding the header: {e}"))?;
     let mut buf = [0u8; sample_frame_max_len(CHANNELS)];
     for (t, r) in &samples {
         let n = encode_sample(Timestamp::from_millis(*t), r, &mut buf)
@@ -199,23 +206,37 @@ fn generate(path: &str) -> Result<(), String> {
     Ok(())
 }
 
-/// Replays a sample file through the scenario logger; returns the record log.
+/// A sample file held in memory, read the way the firmware reads its file.
+struct Bytes<'a>(&'a [u8]);
+
+impl replay::Source for Bytes<'_> {
+    type Error = std::convert::Infallible;
+    fn read(&mut self, buf: &mut [u8]) -> Result<usize, Self::Error> {
+        let n = buf.len().min(self.0.len());
+        buf[..n].copy_from_slice(&self.0[..n]);
+        self.0 = &self.0[n..];
+        Ok(n)
+    }
+}
+
+/// The record log in memory.
+struct Log(Vec<u8>);
+
+impl replay::Sink for Log {
+    type Error = std::convert::Infallible;
+    fn write_frame(&mut self, frame: &[u8; FRAME_LEN]) -> Result<(), Self::Error> {
+        self.0.extend_from_slice(frame);
+        Ok(())
+    }
+}
+
+/// Replays a sample file through the firmware's replay loop; returns the record log.
 fn replay(path: &str) -> Result<Vec<u8>, String> {
     let bytes = fs::read(path).map_err(|e| format!("{path}: {e}"))?;
-    let reader = SampleReader::<CHANNELS>::new(&bytes).map_err(|e| format!("{path}: {e}"))?;
-    let layout = scenario::layout().map_err(|e| format!("scenario layout: {e}"))?;
-    let mut logger = Logger::new(layout);
-    let mut log = Vec::new();
-    let mut write = |f: &[u8; FRAME_LEN]| -> Result<(), String> {
-        log.extend_from_slice(f);
-        Ok(())
-    };
-    for sample in reader {
-        let (t, readings) = sample.map_err(|e| format!("{path}: {e}"))?;
-        logger.push(t, &readings, &mut write)?;
-    }
-    logger.close(&mut write)?;
-    Ok(log)
+    let mut slot = Box::new(replay::ReplaySlot::new());
+    let mut log = Log(Vec::new());
+    replay::replay(&mut Bytes(&bytes), &mut log, &mut slot).map_err(|e| format!("{path}: {e}"))?;
+    Ok(log.0)
 }
 
 fn replay_to_file(samples: &str, out: &str) -> Result<(), String> {

@@ -95,10 +95,10 @@ fn pushes<const C: usize>(
 fn station_case<const C: usize>(
     m: &Meter,
     name: &str,
-    layout: Layout<C>,
+    layout: &Layout<C>,
     table: &[[Reading; C]; 8],
 ) -> (u64, u64) {
-    let mut st: Station<C, 3> = Station::new(layout);
+    let mut st: Station<C, 3> = Station::new(*layout);
     // Warm up: open the interval and fill the gust window.
     pushes(&mut st, T0, table, 10, true);
     let work = pushes(&mut st, T0 + 10_000, table, N, true);
@@ -115,7 +115,7 @@ fn station_case<const C: usize>(
     let close = m.per_op(1, closing, 0).saturating_sub(per_sample);
     // Time `finish` of every channel of a full interval.
     let mut finish = 0u64;
-    let lay = *st.layout();
+    let lay = layout;
     pushes(&mut st, T0 + 600_000 + 1000, table, 599, true);
     st.push(Timestamp::from_millis(T0 + 1_200_000), r, |e| {
         if let Event::Closed(acc) = e {
@@ -141,41 +141,66 @@ fn speed_values(step: f64) -> [[Reading; 1]; 8] {
     core::array::from_fn(|i| [Reading::Value(8.0 + step * (i as f64 * 37.0 % 11.0))])
 }
 
+/// One case of [`single_channel_cases`]: a station of `channels`, fed `table`.
+/// Not inlined, so that the cases' layouts and tables do not pile up in one
+/// stack frame (the replay board's stack is 9 KiB, `memory/microbit.x`).
+#[inline(never)]
+fn case<const C: usize>(
+    m: &Meter,
+    name: &str,
+    channels: [ChannelConfig; C],
+    table: &[[Reading; C]; 8],
+) -> Option<()> {
+    match Layout::new::<3>(StationConfig::ten_minute_1hz(), channels) {
+        Ok(ref layout) => {
+            station_case(m, name, layout, table);
+            Some(())
+        }
+        Err(_) => None,
+    }
+}
+
 #[inline(never)]
 fn single_channel_cases(m: &Meter) -> Option<()> {
-    let st = StationConfig::ten_minute_1hz();
     let speed = ChannelConfig::speed(0.01);
     let cup = ChannelConfig::speed(1.0).with_calibration(scenario::CUP_SLOPE, scenario::CUP_OFFSET);
     let vane_counts = ChannelConfig::direction().with_calibration(360.0 / 26_400.0, 0.0);
     // The station's own work per sample (time checks, interval bookkeeping).
-    let l = Layout::new::<3>(st, []).ok()?;
-    station_case(m, "station alone (0 channels)", l, &[[]; 8]);
-    let l = Layout::new::<3>(st, [speed]).ok()?;
-    station_case(m, "speed, Reading::Value", l, &speed_values(0.17));
-    let l = Layout::new::<3>(st, [cup]).ok()?;
+    case(m, "station alone (0 channels)", [], &[[]; 8])?;
+    case(m, "speed, Reading::Value", [speed], &speed_values(0.17))?;
     let t: [[Reading; 1]; 8] =
         core::array::from_fn(|i| [Reading::Counts(150 + (i as i32 * 7) % 23)]);
-    station_case(m, "speed, Reading::Counts (cup)", l, &t);
-    let l = Layout::new::<3>(st, [ChannelConfig::direction()]).ok()?;
+    case(m, "speed, Reading::Counts (cup)", [cup], &t)?;
     let t: [[Reading; 1]; 8] =
         core::array::from_fn(|i| [Reading::Value((350.0 + i as f64 * 3.7) % 360.0)]);
-    station_case(m, "direction, Reading::Value", l, &t);
-    let l = Layout::new::<3>(st, [vane_counts]).ok()?;
+    case(
+        m,
+        "direction, Reading::Value",
+        [ChannelConfig::direction()],
+        &t,
+    )?;
     let t: [[Reading; 1]; 8] = core::array::from_fn(|i| [Reading::Counts(25_900 + i as i32 * 130)]);
-    station_case(m, "direction, Reading::Counts (vane)", l, &t);
-    let l = Layout::new::<3>(st, [ChannelConfig::scalar(0.01)]).ok()?;
+    case(m, "direction, Reading::Counts (vane)", [vane_counts], &t)?;
     let t: [[Reading; 1]; 8] = core::array::from_fn(|i| [Reading::Value(3.0 + i as f64 * 0.03)]);
-    station_case(m, "scalar, Reading::Value", l, &t);
+    case(
+        m,
+        "scalar, Reading::Value",
+        [ChannelConfig::scalar(0.01)],
+        &t,
+    )?;
     // A direction linked to a speed: the two-channel station less the speed alone.
-    let l = Layout::new::<3>(st, [cup, vane_counts.with_speed_channel(0)]).ok()?;
     let t: [[Reading; 2]; 8] = core::array::from_fn(|i| {
         [
             Reading::Counts(150 + (i as i32 * 7) % 23),
             Reading::Counts(25_900 + i as i32 * 130),
         ]
     });
-    station_case(m, "cup + linked vane (2 channels)", l, &t);
-    Some(())
+    case(
+        m,
+        "cup + linked vane (2 channels)",
+        [cup, vane_counts.with_speed_channel(0)],
+        &t,
+    )
 }
 
 /// Marks the start of a profiled region in an instruction trace.
@@ -215,27 +240,38 @@ fn profile_cases() -> Option<()> {
     Some(())
 }
 
+/// The scenario's readings, cycled (in flash: the replay board's stack is
+/// 9 KiB, `memory/microbit.x`).
+static SCENARIO_TABLE: [[Reading; CHANNELS]; 8] = {
+    let mut t = [[Reading::Missing; CHANNELS]; 8];
+    let mut i = 0;
+    while i < 8 {
+        let k = i as i32;
+        let x = i as f64;
+        t[i] = [
+            Reading::Counts(150 + (k * 7) % 23),
+            Reading::Counts(149 + (k * 5) % 19),
+            Reading::Value(6.5 + x * 0.13),
+            Reading::Counts((25_900 + k * 130) % 26_400),
+            Reading::Value(1.5 + x * 0.01),
+            Reading::Value(88.0 + x * 0.2),
+            Reading::Value(1_012.4),
+            Reading::Value(12.61 - x * 0.001),
+        ];
+        i += 1;
+    }
+    t
+};
+
 #[inline(never)]
 fn scenario_case(m: &Meter, slot: &mut LoggerSlot) -> Option<()> {
-    let logger = Logger::start_in(slot)?;
-    let table: [[Reading; CHANNELS]; 8] = core::array::from_fn(|i| {
-        let i = i as i32;
-        [
-            Reading::Counts(150 + (i * 7) % 23),
-            Reading::Counts(149 + (i * 5) % 19),
-            Reading::Value(6.5 + f64::from(i) * 0.13),
-            Reading::Counts((25_900 + i * 130) % 26_400),
-            Reading::Value(1.5 + f64::from(i) * 0.01),
-            Reading::Value(88.0 + f64::from(i) * 0.2),
-            Reading::Value(1_012.4),
-            Reading::Value(12.61 - f64::from(i) * 0.001),
-        ]
-    });
+    let mut logger = scenario::start_in(slot)?;
+    let table = &SCENARIO_TABLE;
     let mut sink = |f: &[u8; FRAME_LEN]| -> Result<(), ()> {
         black_box(f);
         Ok(())
     };
-    let mut run = |logger: &mut Logger, t0: i64, n: u32, push: bool| {
+    let mut run = |logger: &mut Logger<'_>, t0: i64, n: u32, push: bool| {
         let start = now();
         for i in 0..n {
             let t = Timestamp::from_millis(t0 + i64::from(i) * 1000);
@@ -248,12 +284,12 @@ fn scenario_case(m: &Meter, slot: &mut LoggerSlot) -> Option<()> {
         }
         ticks(start, now())
     };
-    run(logger, T0, 10, true);
-    let work = run(logger, T0 + 10_000, N, true);
-    let base = run(logger, T0 + 10_000, N, false);
+    run(&mut logger, T0, 10, true);
+    let work = run(&mut logger, T0 + 10_000, N, true);
+    let base = run(&mut logger, T0 + 10_000, N, false);
     let per_sample = m.per_op(N, work, base);
-    run(logger, T0 + i64::from(10 + N) * 1000, 590 - N, true);
-    let closing = run(logger, T0 + 600_000, 1, true);
+    run(&mut logger, T0 + i64::from(10 + N) * 1000, 590 - N, true);
+    let closing = run(&mut logger, T0 + 600_000, 1, true);
     let close = m.per_op(1, closing, 0).saturating_sub(per_sample);
     println!(
         "budget: {:<34} per sample {:>6}   interval close {:>6}   ({} per channel, incl. frames)",
@@ -290,13 +326,22 @@ fn scenario_case(m: &Meter, slot: &mut LoggerSlot) -> Option<()> {
         core::mem::size_of::<qc_core::IntervalAcc<CHANNELS, 3>>(),
         core::mem::size_of::<qc_core::ChannelRecord>(),
     );
+    {
+        use firmware_example::replay::{ReplaySlot, CAPACITY, GUST_CAPACITY};
+        println!(
+            "budget: replay logger: Station<8,12> {} B, IntervalAcc<8,12> {} B, slot (station and a closed interval) {} B",
+            core::mem::size_of::<Station<CAPACITY, GUST_CAPACITY>>(),
+            core::mem::size_of::<qc_core::IntervalAcc<CAPACITY, GUST_CAPACITY>>(),
+            core::mem::size_of::<ReplaySlot>(),
+        );
+    }
     Some(())
 }
 
 #[entry]
 fn main() -> ! {
     // The 8-channel logger lives in static memory (see the replay binary).
-    static mut LOGGER: LoggerSlot = LoggerSlot::Empty;
+    static mut LOGGER: LoggerSlot = LoggerSlot::new();
     let Some(p) = Peripherals::take() else {
         process::exit(1)
     };

@@ -1,11 +1,13 @@
-//! Replay board: reads a sample file from the host through semihosting, runs
-//! every sample through the scenario's [`Logger`](firmware_example::scenario::Logger)
+//! Replay board: reads a sample file from the host through semihosting (as
+//! `tenmin export` writes it), builds the station from the file's header, runs
+//! every sample through a [`Logger`](firmware_example::logger::Logger)
 //! (qc-core's `Station`), and appends the record-log frames to an output file.
 //!
 //! Paths come from the semihosting command line (`replay SAMPLES LOG`, set by
 //! QEMU's `-semihosting-config ...,arg=replay,arg=SAMPLES,arg=LOG`), or default to
 //! `replay-day.tmsf` and `replay-day.log` in QEMU's working directory. Exit
-//! status 0 on success, 1 on any error (printed to the host's stderr).
+//! status 0 on success, 1 on any error, printed to the host's stderr (a station
+//! that does not fit this logger, a damaged or truncated file, a file error).
 
 #![no_std]
 #![no_main]
@@ -13,8 +15,7 @@
 use core::ffi::CStr;
 
 use cortex_m_rt::entry;
-use firmware_example::replay::{replay, Sink, Source};
-use firmware_example::scenario::LoggerSlot;
+use firmware_example::replay::{replay, ReplaySlot, Sink, Source};
 use qc_core::wire::FRAME_LEN;
 use semihosting::experimental::env;
 use semihosting::fs::File;
@@ -54,10 +55,12 @@ fn open_files() -> Result<(HostFile, HostFile), ()> {
     if let Ok(args) = env::args::<512>() {
         let mut args = (&args).skip(1);
         if let Some(Ok(a)) = args.next() {
-            input = c_path(a, &mut in_buf).ok_or(())?;
+            input = c_path(a, &mut in_buf)
+                .ok_or_else(|| eprintln!("replay: sample file path longer than 255 bytes"))?;
         }
         if let Some(Ok(a)) = args.next() {
-            output = c_path(a, &mut out_buf).ok_or(())?;
+            output = c_path(a, &mut out_buf)
+                .ok_or_else(|| eprintln!("replay: log file path longer than 255 bytes"))?;
         }
     }
     let source = File::open(input)
@@ -72,16 +75,16 @@ fn open_files() -> Result<(HostFile, HostFile), ()> {
 #[entry]
 fn main() -> ! {
     // cortex-m-rt turns this into a `&'static mut` owned by `main`: the logger
-    // (about 5 KiB) lives in static memory, not on the 16 KiB part's stack.
-    static mut LOGGER: LoggerSlot = LoggerSlot::Empty;
+    // (about 7 KiB) lives in static memory, not on the 16 KiB part's stack.
+    static mut LOGGER: ReplaySlot = ReplaySlot::new();
     let Ok((mut source, mut sink)) = open_files() else {
         process::exit(1)
     };
-    match replay(&mut source, &mut sink, LOGGER) {
+    match replay(&mut source, &mut sink, core::hint::black_box(LOGGER)) {
         Ok(s) => {
             println!(
-                "replay: {} samples ({} accepted, {} rejected), {} frames",
-                s.samples, s.accepted, s.rejected, s.frames
+                "replay: {} channels, {} samples ({} accepted, {} rejected), {} frames",
+                s.channels, s.samples, s.accepted, s.rejected, s.frames
             );
             process::exit(0)
         }

@@ -13,7 +13,7 @@ use cortex_m_rt::entry;
 use firmware_example::drivers::analog::{AnalogFrontEnd, Linear};
 use firmware_example::drivers::cup::CupAnemometer;
 use firmware_example::drivers::vane::{Vane, ADDRESS_GND};
-use firmware_example::scenario::{Logger, LoggerSlot, CHANNELS};
+use firmware_example::scenario::{self, LoggerSlot, CHANNELS};
 use firmware_example::sim::{SimAds1115, SimMcp3208, SimPulses};
 use qc_core::wire::{decode_record, FRAME_LEN};
 use qc_core::{Reading, Stat, Timestamp};
@@ -34,8 +34,8 @@ fn show(s: Stat) -> f64 {
 fn main() -> ! {
     // cortex-m-rt turns this into a `&'static mut` owned by `main`: the logger
     // (about 5 KiB) lives in static memory, not on the 16 KiB part's stack.
-    static mut LOGGER: LoggerSlot = LoggerSlot::Empty;
-    let Some(logger) = Logger::start_in(LOGGER) else {
+    static mut LOGGER: LoggerSlot = LoggerSlot::new();
+    let Some(mut logger) = scenario::start_in(LOGGER) else {
         println!("sensors: scenario layout refused");
         process::exit(1)
     };

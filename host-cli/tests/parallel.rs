@@ -1,0 +1,556 @@
+//! Parallel replay against sequential replay: `--jobs 2` (and 3), with chunks
+//! as small as 64 bytes so that chunk boundaries land on every kind of row,
+//! must write the same records, byte for byte, and the same summary as
+//! `--jobs 1`, which feeds one `qc_core::Station` row by row. The inputs are
+//! generated here with every cross-chunk case planted: duplicate and backward
+//! times, gaps, unsupported years, bad rows, blank lines, CRLF, quoted files,
+//! empty files. Also the `--max-gap-days` check.
+
+use std::path::Path;
+use std::process::{Command, Output};
+
+const BIN: &str = env!("CARGO_BIN_EXE_tenmin");
+
+fn tenmin(args: &[&str], dir: &Path) -> Output {
+    Command::new(BIN)
+        .args(args)
+        .current_dir(dir)
+        .output()
+        .expect("run tenmin")
+}
+
+fn text(b: &[u8]) -> String {
+    String::from_utf8_lossy(b).into_owned()
+}
+
+/// Chunk sizes for the parallel runs: a row or two, a few rows, and larger.
+const CHUNKS: [&str; 4] = ["64", "150", "1000", "4096"];
+
+/// Replays with `args` (after `replay`) on one thread, then on two and three
+/// with every chunk size, and checks that exit code, records and summary are
+/// identical. Returns the sequential run.
+fn same_as_sequential(dir: &Path, args: &[&str]) -> Output {
+    let run = |extra: &[&str]| {
+        let mut all = vec!["replay"];
+        all.extend_from_slice(args);
+        all.extend_from_slice(extra);
+        tenmin(&all, dir)
+    };
+    let base = run(&["--jobs", "1"]);
+    let mut variants: Vec<Vec<&str>> = CHUNKS
+        .iter()
+        .map(|c| vec!["--jobs", "2", "--chunk-size", c])
+        .collect();
+    variants.push(vec!["--jobs", "3", "--chunk-size", "100"]);
+    variants.push(vec!["--jobs", "2"]);
+    for v in &variants {
+        let par = run(v);
+        assert_eq!(
+            par.status.code(),
+            base.status.code(),
+            "{args:?} {v:?}: {}",
+            text(&par.stderr)
+        );
+        assert!(
+            par.stdout == base.stdout,
+            "{args:?} {v:?}: records differ\n{}",
+            first_difference(&base.stdout, &par.stdout)
+        );
+        assert_eq!(text(&par.stderr), text(&base.stderr), "{args:?} {v:?}");
+    }
+    base
+}
+
+fn first_difference(a: &[u8], b: &[u8]) -> String {
+    let (a, b) = (text(a), text(b));
+    for (i, (x, y)) in a.lines().zip(b.lines()).enumerate() {
+        if x != y {
+            return format!("line {}:\n  sequential {x}\n  parallel   {y}", i + 1);
+        }
+    }
+    format!(
+        "one is a prefix of the other: {} and {} lines",
+        a.lines().count(),
+        b.lines().count()
+    )
+}
+
+/// A 1-minute, 1 Hz station whose screening looks across intervals and
+/// channels (flat-line over 2 minutes, redundant pair, icing), so that the
+/// screening state crosses chunk boundaries.
+const STATION: &str = r#"
+[logging]
+interval_s = 60
+sample_rate_hz = 1
+
+[[channel]]
+id = "ws"
+kind = "speed"
+resolution = 0.01
+
+[channel.screen]
+partner = "ws2"
+flat_span_s = 120
+icing = { temperature = "t", humidity = "rh" }
+
+[[channel]]
+id = "ws2"
+kind = "speed"
+resolution = 0.01
+
+[[channel]]
+id = "wd"
+kind = "direction"
+slope = 0.1
+speed_channel = "ws"
+
+[channel.screen]
+flat_span_s = 120
+icing = { temperature = "t", humidity = "rh" }
+
+[[channel]]
+id = "t"
+kind = "scalar"
+resolution = 0.1
+
+[[channel]]
+id = "rh"
+kind = "scalar"
+resolution = 0.1
+range = [0, 100]
+"#;
+
+/// 2025-01-20T00:00:00Z in seconds since the epoch (POSIX time, common practice).
+const T0: i64 = 1_737_331_200;
+
+/// A small linear congruential generator (Knuth's MMIX constants, from memory).
+struct Rng(u64);
+
+impl Rng {
+    fn next(&mut self) -> u64 {
+        self.0 = self
+            .0
+            .wrapping_mul(6_364_136_223_846_793_005)
+            .wrapping_add(1_442_695_040_888_963_407);
+        self.0 >> 33
+    }
+
+    fn below(&mut self, n: u64) -> u64 {
+        self.next() % n
+    }
+
+    /// True with probability `per_mille` / 1000.
+    fn chance(&mut self, per_mille: u64) -> bool {
+        self.below(1000) < per_mille
+    }
+}
+
+/// Civil date of days since 1970-01-01 (H. Hinnant, "chrono-Compatible
+/// Low-Level Date Algorithms", civil_from_days; from memory).
+fn civil(days: i64) -> (i64, i64, i64) {
+    let z = days + 719_468;
+    let era = z.div_euclid(146_097);
+    let doe = z - era * 146_097;
+    let yoe = (doe - doe / 1460 + doe / 36_524 - doe / 146_096) / 365;
+    let doy = doe - (365 * yoe + yoe / 4 - yoe / 100);
+    let mp = (5 * doy + 2) / 153;
+    let d = doy - (153 * mp + 2) / 5 + 1;
+    let m = if mp < 10 { mp + 3 } else { mp - 9 };
+    (yoe + era * 400 + i64::from(m <= 2), m, d)
+}
+
+fn rfc3339(s: i64) -> String {
+    let (y, m, d) = civil(s.div_euclid(86_400));
+    let r = s.rem_euclid(86_400);
+    format!(
+        "{y:04}-{m:02}-{d:02}T{:02}:{:02}:{:02}Z",
+        r / 3600,
+        r / 60 % 60,
+        r % 60
+    )
+}
+
+/// What to plant in a generated file.
+#[derive(Clone, Copy, Default)]
+struct Plant {
+    /// Duplicate, backward and far-backward times.
+    disorder: bool,
+    /// Forward jumps of up to a few hours (gaps of empty intervals).
+    gaps: bool,
+    /// Times outside the years 0000-9999 (rejected by the core).
+    unsupported: bool,
+    /// Bad rows: wrong field counts, unreadable times and numbers.
+    bad: bool,
+    /// Blank lines, CRLF, spaces, other time and number forms.
+    forms: bool,
+    /// Stuck sensors (flat-line) and cold humid spells (icing).
+    faults: bool,
+}
+
+/// Writes `rows` rows from second `t` on; returns the file and the next time.
+fn samples(rng: &mut Rng, mut t: i64, rows: usize, p: Plant) -> (Vec<u8>, i64) {
+    let mut out = String::from("time,ws,ws2,wd,t,rh\n");
+    let mut stuck = 0u32;
+    let mut cold = 0u32;
+    let mut last_dir = 1800;
+    for _ in 0..rows {
+        let mut time = t;
+        if p.disorder && rng.chance(40) {
+            time = t - 1; // duplicate of the previous row
+        } else if p.disorder && rng.chance(20) {
+            time = t - 1 - rng.below(30) as i64; // backward step
+        } else if p.gaps && rng.chance(8) {
+            t += 60 + rng.below(3 * 3600) as i64;
+            time = t;
+        }
+        let time_field = if p.unsupported && rng.chance(15) {
+            // Year 10000 and before year 0, as epoch seconds.
+            if rng.chance(500) {
+                "253402300800".to_string()
+            } else {
+                "-62167219300".to_string()
+            }
+        } else if p.forms && rng.chance(100) {
+            match rng.below(4) {
+                0 => time.to_string(),
+                1 => format!("{time}.000"),
+                2 => rfc3339(time + 3600).replace('Z', "+01:00"),
+                _ => rfc3339(time).replace('T', " "),
+            }
+        } else {
+            rfc3339(time)
+        };
+        if p.faults && stuck == 0 && rng.chance(3) {
+            stuck = 200 + rng.below(300) as u32;
+        }
+        if p.faults && cold == 0 && rng.chance(2) {
+            cold = 300;
+        }
+        let speed = 2.0 + (rng.below(1500) as f64) / 100.0;
+        let ws = if stuck > 0 { 7.77 } else { speed };
+        let ws2 = ws + (rng.below(300) as f64) / 100.0 - 1.0;
+        if stuck == 0 {
+            last_dir = rng.below(3600);
+        }
+        let (temp, rh) = if cold > 0 {
+            (-1.5, 96.0)
+        } else {
+            (
+                5.0 + (rng.below(100) as f64) / 10.0,
+                60.0 + (rng.below(300) as f64) / 10.0,
+            )
+        };
+        stuck = stuck.saturating_sub(1);
+        cold = cold.saturating_sub(1);
+        let mut fields = vec![
+            time_field,
+            format!("{ws:.2}"),
+            format!("{:.2}", ws2.max(0.0)),
+            last_dir.to_string(),
+            format!("{temp:.1}"),
+            format!("{rh:.1}"),
+        ];
+        if rng.chance(30) {
+            let i = 1 + rng.below(5) as usize;
+            fields[i] = ["", "NaN", "-999", "-9999"][rng.below(4) as usize].to_string();
+        }
+        if p.forms && rng.chance(30) {
+            let i = 1 + rng.below(5) as usize;
+            if i != 3 {
+                fields[i] = match rng.below(3) {
+                    0 => format!(" {} ", fields[i]),
+                    1 => format!("+{}", fields[i]),
+                    _ => "1.5e1".to_string(),
+                };
+            }
+        }
+        if p.bad && rng.chance(10) {
+            match rng.below(4) {
+                0 => {
+                    fields.pop();
+                }
+                1 => fields.push("1".into()),
+                2 => fields[0] = "yesterday".into(),
+                _ => fields[1 + rng.below(5) as usize] = "8..5".into(),
+            }
+        }
+        out.push_str(&fields.join(","));
+        if p.forms && rng.chance(20) {
+            out.push_str("\r\n");
+        } else {
+            out.push('\n');
+        }
+        if p.forms && rng.chance(10) {
+            out.push('\n');
+        }
+        t += 1;
+    }
+    (out.into_bytes(), t)
+}
+
+fn setup() -> tempfile::TempDir {
+    let dir = tempfile::tempdir().unwrap();
+    std::fs::write(dir.path().join("station.toml"), STATION).unwrap();
+    dir
+}
+
+/// Writes `n` files of `rows` rows each, one continuing the other.
+fn files(dir: &Path, seed: u64, n: usize, rows: usize, p: Plant) -> Vec<String> {
+    let mut rng = Rng(seed);
+    let mut t = T0;
+    (0..n)
+        .map(|i| {
+            let (bytes, next) = samples(&mut rng, t, rows, p);
+            t = next;
+            let name = format!("s{seed}-{i}.csv");
+            std::fs::write(dir.join(&name), bytes).unwrap();
+            name
+        })
+        .collect()
+}
+
+fn args<'a>(files: &'a [String], extra: &[&'a str]) -> Vec<&'a str> {
+    let mut a = vec!["-c", "station.toml"];
+    a.extend_from_slice(extra);
+    a.extend(files.iter().map(String::as_str));
+    a
+}
+
+#[test]
+fn demo_day_is_the_same_in_parallel() {
+    let dir = tempfile::tempdir().unwrap();
+    let d = dir.path();
+    let out = tenmin(&["demo", "--days", "1", "--out", "demo"], d);
+    assert!(out.status.success(), "{}", text(&out.stderr));
+    let base = same_as_sequential(
+        d,
+        &["-c", "demo/station.toml", "demo/samples-2025-01-20.csv"],
+    );
+    assert!(base.status.success());
+    assert!(text(&base.stderr).contains("records: 864 rows"));
+}
+
+#[test]
+fn disorder_gaps_and_unsupported_times_across_chunks() {
+    let dir = setup();
+    let d = dir.path();
+    let plant = Plant {
+        disorder: true,
+        gaps: true,
+        unsupported: true,
+        faults: true,
+        ..Plant::default()
+    };
+    let names = files(d, 1, 3, 1500, plant);
+    let base = same_as_sequential(d, &args(&names, &[]));
+    let err = text(&base.stderr);
+    assert!(base.status.success(), "{err}");
+    // The planted cases did happen, so the comparison covers them.
+    for absent in [
+        "duplicate 0,",
+        "backward 0,",
+        "unsupported time 0)",
+        "+ 0 rejected",
+    ] {
+        assert!(!err.contains(absent), "{absent}: {err}");
+    }
+    let records = text(&base.stdout);
+    assert!(records.contains("flatline"), "no flat-line flag planted");
+    // Empty intervals (gaps) are rows with n_valid 0.
+    assert!(records.lines().any(|l| l.split(',').nth(4) == Some("0")));
+}
+
+#[test]
+fn bad_rows_forms_and_blank_lines_with_skip_bad_rows() {
+    let dir = setup();
+    let d = dir.path();
+    let plant = Plant {
+        disorder: true,
+        gaps: true,
+        unsupported: true,
+        bad: true,
+        forms: true,
+        faults: true,
+    };
+    let names = files(d, 2, 2, 2000, plant);
+    let base = same_as_sequential(d, &args(&names, &["--skip-bad-rows"]));
+    let err = text(&base.stderr);
+    assert!(base.status.success(), "{err}");
+    assert!(!err.contains("+ 0 bad rows"), "{err}");
+    assert!(err.contains("... and"), "{err}");
+}
+
+#[test]
+fn the_first_bad_row_stops_both_the_same_way() {
+    let dir = setup();
+    let d = dir.path();
+    let mut rng = Rng(3);
+    let (mut good, _) = samples(
+        &mut rng,
+        T0,
+        3000,
+        Plant {
+            disorder: true,
+            ..Plant::default()
+        },
+    );
+    // A bad row about two thirds in.
+    let at = good.len() * 2 / 3;
+    let nl = at + good[at..].iter().position(|b| *b == b'\n').unwrap() + 1;
+    good.splice(nl..nl, b"2025-01-20T00:40:00Z,1,2,3\n".iter().copied());
+    std::fs::write(d.join("bad.csv"), &good).unwrap();
+    let base = same_as_sequential(d, &["-c", "station.toml", "bad.csv"]);
+    assert_eq!(base.status.code(), Some(2));
+    assert!(
+        text(&base.stderr).contains("bad.csv:"),
+        "{}",
+        text(&base.stderr)
+    );
+    assert!(text(&base.stderr).contains("expected 6 fields"));
+    // Records of the intervals closed before the bad row are on stdout.
+    assert!(text(&base.stdout).lines().count() > 1);
+}
+
+#[test]
+fn quoted_empty_and_header_only_files() {
+    let dir = setup();
+    let d = dir.path();
+    let plant = Plant {
+        disorder: true,
+        forms: true,
+        ..Plant::default()
+    };
+    let names = files(d, 4, 2, 1200, plant);
+    // A third file continuing the record, with quoted times from its middle on.
+    let mut rng = Rng(44);
+    let (bytes, _) = samples(&mut rng, T0 + 3000, 1200, plant);
+    let text_file = text(&bytes);
+    let mut quoted = String::new();
+    for (i, line) in text_file.lines().enumerate() {
+        if i > 600 && !line.is_empty() {
+            let (time, rest) = line.split_once(',').unwrap();
+            quoted.push_str(&format!("\"{time}\",{rest}\n"));
+        } else {
+            quoted.push_str(line);
+            quoted.push('\n');
+        }
+    }
+    std::fs::write(d.join("quoted.csv"), quoted).unwrap();
+    std::fs::write(d.join("empty.csv"), "").unwrap();
+    std::fs::write(d.join("blank.csv"), "\n\n\r\n").unwrap();
+    std::fs::write(d.join("header-only.csv"), "time,ws,ws2,wd,t,rh\n").unwrap();
+    let all = [
+        names[0].clone(),
+        "empty.csv".into(),
+        "quoted.csv".into(),
+        "header-only.csv".into(),
+        "blank.csv".into(),
+        names[1].clone(),
+    ];
+    let base = same_as_sequential(d, &args(&all, &["--skip-bad-rows"]));
+    let err = text(&base.stderr);
+    assert!(base.status.success(), "{err}");
+    assert!(err.contains("from 6 file(s)"), "{err}");
+    assert!(err.contains("empty file skipped: empty.csv"), "{err}");
+    assert!(err.contains("empty file skipped: blank.csv"), "{err}");
+    // Without --skip-bad-rows the empty file stops both at the same place.
+    let base = same_as_sequential(d, &args(&all, &[]));
+    assert_eq!(base.status.code(), Some(2));
+    assert!(text(&base.stderr).contains("empty.csv:1: empty file"));
+}
+
+#[test]
+fn a_clock_jump_beyond_max_gap_days_is_an_error_naming_the_row() {
+    let dir = setup();
+    let d = dir.path();
+    let mut rng = Rng(5);
+    let (first, _) = samples(&mut rng, T0, 500, Plant::default());
+    // Two years later: 2027-01-20T00:00:00Z is T0 + 730 days.
+    let later = T0 + 730 * 86_400;
+    let (second, _) = samples(&mut rng, later, 500, Plant::default());
+    std::fs::write(d.join("a.csv"), &first).unwrap();
+    std::fs::write(d.join("b.csv"), &second).unwrap();
+    // Within one file, at line 502 (header, 500 rows, then the jump).
+    let mut joined = first.clone();
+    joined.extend_from_slice(second.split(|b| *b == b'\n').nth(1).unwrap());
+    joined.push(b'\n');
+    std::fs::write(d.join("joined.csv"), &joined).unwrap();
+
+    let out = same_as_sequential(d, &["-c", "station.toml", "joined.csv"]);
+    let err = text(&out.stderr);
+    assert_eq!(out.status.code(), Some(2), "{err}");
+    assert!(err.contains("joined.csv:502:"), "{err}");
+    assert!(err.contains("2025-01-20T00:08:19Z"), "{err}");
+    assert!(err.contains("2027-01-20T00:00:00Z"), "{err}");
+    assert!(err.contains("730.0 days"), "{err}");
+    assert!(
+        err.contains("check the logger clock, or raise --max-gap-days"),
+        "{err}"
+    );
+    assert!(!err.contains("panicked"), "{err}");
+
+    // Across files: the first row of b.csv (line 2).
+    let out = same_as_sequential(d, &["-c", "station.toml", "a.csv", "b.csv"]);
+    assert_eq!(out.status.code(), Some(2));
+    assert!(
+        text(&out.stderr).contains("b.csv:2:"),
+        "{}",
+        text(&out.stderr)
+    );
+
+    // Raising the limit lets a jump through: three days later, with a limit of
+    // two days and then three.
+    let (third, _) = samples(&mut rng, T0 + 3 * 86_400, 500, Plant::default());
+    std::fs::write(d.join("c.csv"), &third).unwrap();
+    let out = same_as_sequential(
+        d,
+        &[
+            "-c",
+            "station.toml",
+            "--max-gap-days",
+            "2",
+            "a.csv",
+            "c.csv",
+        ],
+    );
+    assert_eq!(out.status.code(), Some(2));
+    assert!(
+        text(&out.stderr).contains("3.0 days"),
+        "{}",
+        text(&out.stderr)
+    );
+    let out = same_as_sequential(
+        d,
+        &[
+            "-c",
+            "station.toml",
+            "--max-gap-days",
+            "3",
+            "a.csv",
+            "c.csv",
+        ],
+    );
+    assert!(out.status.success(), "{}", text(&out.stderr));
+    // 5 channels x (3 days of 1-minute intervals + the 9 minutes c.csv covers).
+    let rows = text(&out.stdout).lines().count() - 1;
+    assert_eq!(rows, 5 * (3 * 1440 + 9));
+
+    // A jump of exactly the limit is allowed, one second more is not.
+    for (skip, ok) in [(0, true), (1, false)] {
+        let (fourth, _) = samples(&mut rng, T0 + 499 + 86_400 + skip, 5, Plant::default());
+        std::fs::write(d.join("e.csv"), &fourth).unwrap();
+        let out = tenmin(
+            &[
+                "replay",
+                "-c",
+                "station.toml",
+                "--max-gap-days",
+                "1",
+                "a.csv",
+                "e.csv",
+            ],
+            d,
+        );
+        assert_eq!(out.status.success(), ok, "{}", text(&out.stderr));
+    }
+}
