@@ -142,26 +142,7 @@ impl Exported {
             p.closed_interval,
             p.unsupported_time,
         )?;
-        if b.total() > 0 {
-            writeln!(
-                w,
-                "bad rows skipped: {} wrong field count, {} bad time, {} bad value, {} not UTF-8",
-                b.field_count, b.time, b.value, b.encoding
-            )?;
-            for e in &self.input.examples {
-                writeln!(w, "  {e}")?;
-            }
-            if b.total() > self.input.examples.len() as u64 {
-                writeln!(
-                    w,
-                    "  ... and {} more",
-                    b.total() - self.input.examples.len() as u64
-                )?;
-            }
-        }
-        for f in &self.input.empty_files {
-            writeln!(w, "empty file skipped: {}", f.display())?;
-        }
+        crate::summary::write_skipped(w, &self.input)?;
         writeln!(
             w,
             "wrote {} ({} bytes: a header with the configuration of {} channels from {}, then {} sample frames)",

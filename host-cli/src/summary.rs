@@ -29,6 +29,32 @@ pub fn percent(t: &Totals) -> String {
     }
 }
 
+/// The rows and files skipped with `--skip-bad-rows`, by kind, with examples.
+pub fn write_skipped(w: &mut dyn Write, input: &InputStats) -> io::Result<()> {
+    let b = &input.bad;
+    if b.total() > 0 {
+        writeln!(
+            w,
+            "bad rows skipped: {} wrong field count, {} bad time, {} bad value, {} not UTF-8",
+            b.field_count, b.time, b.value, b.encoding
+        )?;
+        for e in &input.examples {
+            writeln!(w, "  {e}")?;
+        }
+        if b.total() > input.examples.len() as u64 {
+            writeln!(
+                w,
+                "  ... and {} more",
+                b.total() - input.examples.len() as u64
+            )?;
+        }
+    }
+    for f in &input.empty_files {
+        writeln!(w, "empty file skipped: {}", f.display())?;
+    }
+    Ok(())
+}
+
 impl Summary {
     /// Rows accounted for: accepted, rejected by reason, bad.
     pub fn rows_accounted(&self) -> u64 {
@@ -52,26 +78,7 @@ impl Summary {
             p.unsupported_time,
             b.total()
         )?;
-        if b.total() > 0 {
-            writeln!(
-                w,
-                "bad rows skipped: {} wrong field count, {} bad time, {} bad value, {} not UTF-8",
-                b.field_count, b.time, b.value, b.encoding
-            )?;
-            for e in &self.input.examples {
-                writeln!(w, "  {e}")?;
-            }
-            if b.total() > self.input.examples.len() as u64 {
-                writeln!(
-                    w,
-                    "  ... and {} more",
-                    b.total() - self.input.examples.len() as u64
-                )?;
-            }
-        }
-        for f in &self.input.empty_files {
-            writeln!(w, "empty file skipped: {}", f.display())?;
-        }
+        write_skipped(w, &self.input)?;
         if self.rows_accounted() != self.input.rows {
             // Cannot happen: every row is pushed or counted bad. Said loudly if it does.
             writeln!(

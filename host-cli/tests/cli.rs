@@ -4,28 +4,10 @@
 
 use std::collections::HashMap;
 use std::io::Read;
-use std::path::{Path, PathBuf};
-use std::process::{Command, Output, Stdio};
+use std::process::{Command, Stdio};
 
-const BIN: &str = env!("CARGO_BIN_EXE_tenmin");
-
-fn tenmin(args: &[&str], dir: &Path) -> Output {
-    Command::new(BIN)
-        .args(args)
-        .current_dir(dir)
-        .output()
-        .expect("run tenmin")
-}
-
-fn text(b: &[u8]) -> String {
-    String::from_utf8_lossy(b).into_owned()
-}
-
-fn write(dir: &Path, name: &str, content: impl AsRef<[u8]>) -> PathBuf {
-    let p = dir.join(name);
-    std::fs::write(&p, content).unwrap();
-    p
-}
+mod common;
+use common::{tenmin, text, write, BIN};
 
 /// Records CSV as rows of column -> field (no field is ever quoted).
 fn rows(csv: &str) -> Vec<HashMap<String, String>> {

@@ -15,8 +15,8 @@
 // does not have (a module-level `allow` does not reach `cfg_attr`).
 #![allow(unexpected_cfgs)]
 
-use std::path::{Path, PathBuf};
-use std::process::{Command, Output};
+use std::path::PathBuf;
+use std::process::Output;
 
 use qc_core::wire::{self, FRAME_LEN};
 use qc_core::{Kind, Screen};
@@ -32,19 +32,8 @@ mod replay;
 #[path = "../../firmware-example/src/scenario.rs"]
 mod scenario;
 
-const BIN: &str = env!("CARGO_BIN_EXE_tenmin");
-
-fn tenmin(args: &[&str], dir: &Path) -> Output {
-    Command::new(BIN)
-        .args(args)
-        .current_dir(dir)
-        .output()
-        .expect("run tenmin")
-}
-
-fn text(b: &[u8]) -> String {
-    String::from_utf8_lossy(b).into_owned()
-}
+mod common;
+use common::{tenmin, text};
 
 fn ok(o: &Output, what: &str) {
     assert!(

@@ -7,21 +7,10 @@
 //! empty files. Also the `--max-gap-days` check.
 
 use std::path::Path;
-use std::process::{Command, Output};
+use std::process::Output;
 
-const BIN: &str = env!("CARGO_BIN_EXE_tenmin");
-
-fn tenmin(args: &[&str], dir: &Path) -> Output {
-    Command::new(BIN)
-        .args(args)
-        .current_dir(dir)
-        .output()
-        .expect("run tenmin")
-}
-
-fn text(b: &[u8]) -> String {
-    String::from_utf8_lossy(b).into_owned()
-}
+mod common;
+use common::{tenmin, text};
 
 /// Chunk sizes for the parallel runs: a row or two, a few rows, and larger.
 const CHUNKS: [&str; 4] = ["64", "150", "1000", "4096"];

@@ -11,21 +11,9 @@
 
 use std::collections::HashMap;
 use std::path::{Path, PathBuf};
-use std::process::{Command, Output};
 
-const BIN: &str = env!("CARGO_BIN_EXE_tenmin");
-
-fn tenmin(args: &[&str], dir: &Path) -> Output {
-    Command::new(BIN)
-        .args(args)
-        .current_dir(dir)
-        .output()
-        .expect("run tenmin")
-}
-
-fn text(b: &[u8]) -> String {
-    String::from_utf8_lossy(b).into_owned()
-}
+mod common;
+use common::{tenmin, text};
 
 fn data_dir() -> PathBuf {
     Path::new(env!("CARGO_MANIFEST_DIR")).join("../tests/data")
