@@ -399,7 +399,18 @@ impl Channel {
 /// values below 2^52 (all quanta are): there the truncation and the fraction
 /// `x - trunc(x)` are exact, so the result is the same integer (the sign of a
 /// zero may differ, which the cast to quanta drops).
+///
+/// Only on 64-bit hosts: on a core without an FPU the conversions cost more
+/// than `libm::round`'s bit manipulation, so there it is `libm::round`.
 #[inline]
+#[cfg(not(target_pointer_width = "64"))]
+fn round_half_away(x: f64) -> f64 {
+    libm::round(x)
+}
+
+/// See the 32-bit version: same integer, computed with two exact conversions.
+#[inline]
+#[cfg(target_pointer_width = "64")]
 fn round_half_away(x: f64) -> f64 {
     if x.is_nan() || libm::fabs(x) >= 4_503_599_627_370_496.0 {
         return libm::round(x);

@@ -78,7 +78,7 @@
 //! | [`Screener<1>`] (flat-line history, per channel) | 48 |
 //! | [`IntervalAcc<8, 3>`] (open interval, 8 channels, with spikes and flags) | 1,016 |
 //! | [`Layout<8>`] (validated configuration of 8 channels) | 2,384 |
-//! | [`Station<8, 3>`] (all of the above for 8 channels) | 4,928 |
+//! | [`Station<8, 3>`] (all of the above for 8 channels) | 4,936 |
 //!
 //! Each gust sample beyond 3 adds 8 bytes to a speed channel (4 in the running
 //! window, 4 in the head kept for exact merging). The sizes are asserted in
@@ -137,7 +137,7 @@ mod tests {
         assert_eq!(size_of::<Screener<1>>(), 48);
         assert_eq!(size_of::<IntervalAcc<8, 3>>(), 1016);
         assert_eq!(size_of::<Layout<8>>(), 2384);
-        assert_eq!(size_of::<Station<8, 3>>(), 4928);
+        assert_eq!(size_of::<Station<8, 3>>(), 4936);
         // The budgets: speed with a 3-sample window <= 96, direction <= 64.
         assert!(size_of::<SpeedAcc<3>>() <= 96);
         assert!(size_of::<DirectionAcc>() <= 64);

@@ -336,6 +336,19 @@ impl<const C: usize, const G: usize> IntervalAcc<C, G> {
         }
     }
 
+    /// Empties the accumulator in place for interval `index` of `layout`, as
+    /// [`IntervalAcc::new`] would make it.
+    pub fn reset(&mut self, layout: &Layout<C>, index: i64) {
+        self.index = index;
+        self.first = None;
+        self.last = None;
+        for (acc, ch) in self.channels.iter_mut().zip(layout.channels.iter()) {
+            *acc = ChannelAcc::new(ch);
+        }
+        self.spikes = [Spikes::default(); C];
+        self.flags = [Flags::EMPTY; C];
+    }
+
     /// Clears the flags set by [`Layout::screen`] (a piece screened on its own
     /// must be screened again once complete, in time order).
     pub fn clear_flags(&mut self) {
@@ -464,7 +477,11 @@ impl PushTotals {
 #[derive(Clone, Debug)]
 pub struct Station<const C: usize, const G: usize> {
     layout: Layout<C>,
+    /// The interval state; kept after an interval closes and reset in place for
+    /// the next (no copies of it on the stack of a small logger).
     open: Option<IntervalAcc<C, G>>,
+    /// Whether `open` holds an open interval.
+    live: bool,
     /// Index of the next interval not yet reported.
     cursor: Option<i64>,
     last: Option<Timestamp>,
@@ -483,6 +500,7 @@ impl<const C: usize, const G: usize> Station<C, G> {
         Station {
             layout,
             open: None,
+            live: false,
             cursor: None,
             last: None,
             open_end: i64::MIN,
@@ -517,7 +535,10 @@ impl<const C: usize, const G: usize> Station<C, G> {
 
     /// The open interval, if any.
     pub const fn open(&self) -> Option<&IntervalAcc<C, G>> {
-        self.open.as_ref()
+        match &self.open {
+            Some(acc) if self.live => Some(acc),
+            _ => None,
+        }
     }
 
     /// Adds one sample: a time and one reading per channel. Closed intervals and
@@ -533,7 +554,7 @@ impl<const C: usize, const G: usize> Station<C, G> {
                 Reject::ClosedInterval => self.totals.closed_interval += 1,
                 Reject::UnsupportedTime => self.totals.unsupported_time += 1,
             }
-            match &mut self.open {
+            match self.open.as_mut().filter(|_| self.live) {
                 Some(acc) => acc.reject(),
                 None => self.totals.unplaced += 1,
             }
@@ -544,7 +565,11 @@ impl<const C: usize, const G: usize> Station<C, G> {
             let k = self.layout.interval_of(t);
             self.close(&mut emit);
             self.gap_to(k, &mut emit);
-            self.open = Some(IntervalAcc::new(&self.layout, k));
+            match &mut self.open {
+                Some(acc) => acc.reset(&self.layout, k),
+                None => self.open = Some(IntervalAcc::new(&self.layout, k)),
+            }
+            self.live = true;
             self.open_end = self.layout.interval_start(k + 1).millis();
         }
         if let Some(acc) = &mut self.open {
@@ -564,7 +589,7 @@ impl<const C: usize, const G: usize> Station<C, G> {
             Some(last) if t < last => return Some(Reject::Backward),
             _ => {}
         }
-        if self.open.is_some() {
+        if self.live {
             // After the last accepted sample, which lies in the open interval.
             return None;
         }
@@ -612,15 +637,19 @@ impl<const C: usize, const G: usize> Station<C, G> {
     /// Later samples in that interval are rejected as [`Reject::ClosedInterval`].
     pub fn close<F: FnMut(Event<'_, C, G>)>(&mut self, mut emit: F) {
         self.open_end = i64::MIN;
-        if let Some(mut acc) = self.open.take() {
-            let start = self.layout.interval_start(acc.index);
-            let records = self.layout.screen(&mut self.screener, &mut acc);
-            let month = self.month_of(start);
+        let index = match self.open.as_ref() {
+            Some(acc) if self.live => acc.index,
+            _ => return,
+        };
+        self.live = false;
+        let month = self.month_of(self.layout.interval_start(index));
+        self.cursor = Some(index + 1);
+        if let Some(acc) = self.open.as_mut() {
+            let records = self.layout.screen(&mut self.screener, acc);
             for (r, rec) in self.recovery.iter_mut().zip(records.iter()) {
                 r.add_interval_in(month, self.layout.samples, &rec.tally, passes(rec));
             }
-            self.cursor = Some(acc.index + 1);
-            emit(Event::Closed(&acc));
+            emit(Event::Closed(acc));
         }
     }
 
@@ -632,10 +661,10 @@ impl<const C: usize, const G: usize> Station<C, G> {
             return;
         }
         let k = self.layout.interval_of(now);
-        if self.open.as_ref().is_some_and(|acc| acc.index < k) {
+        if self.live && self.open.as_ref().is_some_and(|acc| acc.index < k) {
             self.close(&mut emit);
         }
-        if self.open.is_none() && self.cursor.is_some() {
+        if !self.live && self.cursor.is_some() {
             self.gap_to(k, &mut emit);
         }
     }
