@@ -70,6 +70,23 @@ fn style(px: u32) -> TextStyle<'static> {
     TextStyle::from((FONT, f64::from(px) * 1.24).into_font()).color(&INK)
 }
 
+/// Labels a categorical x axis drawn on `0..n` with ticks at half steps: the
+/// label of category `i` at `i + 0.5`, every `every`-th one, nothing elsewhere.
+fn category_labels(labels: &[String], every: usize) -> impl Fn(&f64) -> String + '_ {
+    move |x: &f64| {
+        let i = x.floor();
+        if (x - i - 0.5).abs() < 1e-6
+            && i >= 0.0
+            && (i as usize) < labels.len()
+            && (i as usize) % every == 0
+        {
+            labels[i as usize].clone()
+        } else {
+            String::new()
+        }
+    }
+}
+
 fn nice_max(x: f64) -> f64 {
     if x.is_nan() || x <= 0.0 {
         return 1.0;
@@ -304,18 +321,7 @@ pub fn missing_share(d: &Dataset, diags: &[Diagnosis], kind: FactorKind) -> Resu
     };
     let every = if nb > 14 { 3 } else { 1 };
     svg((880, 320), |root| {
-        let fmt_x = |x: &f64| {
-            let i = x.floor();
-            if (x - i - 0.5).abs() < 1e-6
-                && i >= 0.0
-                && (i as usize) < nb
-                && (i as usize) % every == 0
-            {
-                labels[i as usize].clone()
-            } else {
-                String::new()
-            }
-        };
+        let fmt_x = category_labels(&labels, every);
         let mut chart = ChartBuilder::on(root)
             .margin(12)
             .x_label_area_size(40)
@@ -631,18 +637,7 @@ pub fn shear(d: &Dataset, s: &Shear, by_sector: bool) -> Result<Option<String>> 
     let labels: Vec<String> = bins.iter().map(|b| b.label.clone()).collect();
     let every = if nb > 16 { 2 } else { 1 };
     svg((880, 300), |root| {
-        let fmt_x = |x: &f64| {
-            let i = x.floor();
-            if (x - i - 0.5).abs() < 1e-6
-                && i >= 0.0
-                && (i as usize) < nb
-                && (i as usize) % every == 0
-            {
-                labels[i as usize].clone()
-            } else {
-                String::new()
-            }
-        };
+        let fmt_x = category_labels(&labels, every);
         let mut chart = ChartBuilder::on(root)
             .margin(12)
             .x_label_area_size(40)
