@@ -102,7 +102,7 @@ impl Summary {
             .max(7);
         writeln!(
             w,
-            "{:<width$} {:>10} {:>10} {:>10} {:>10} {:>10} {:>10} {:>9}",
+            "{:<width$} {:>10} {:>10} {:>10} {:>10} {:>10} {:>10} {:>9} {:>9}",
             "channel",
             "possible",
             "valid",
@@ -110,12 +110,13 @@ impl Summary {
             "out_range",
             "rejected",
             "absent",
-            "recovery"
+            "recovery",
+            "screened"
         )?;
         for (ch, t) in cfg.channels.iter().zip(&self.recovery) {
             writeln!(
                 w,
-                "{:<width$} {:>10} {:>10} {:>10} {:>10} {:>10} {:>10} {:>9}",
+                "{:<width$} {:>10} {:>10} {:>10} {:>10} {:>10} {:>10} {:>9} {:>9}",
                 ch.id,
                 t.possible,
                 t.valid,
@@ -123,12 +124,14 @@ impl Summary {
                 t.out_of_range,
                 t.rejected,
                 t.absent(),
-                percent(t)
+                percent(t),
+                t.interval_rate()
+                    .map_or_else(|| "-".into(), |r| format!("{:.1}%", 100.0 * r))
             )?;
         }
         writeln!(
             w,
-            "(recovery = valid / possible samples since the first interval; absent = possible samples with no row)"
+            "(recovery = valid / possible samples since the first interval; screened = intervals with valid\n samples and no flag but partial or clock / possible intervals; absent = possible samples with no row)"
         )
     }
 }

@@ -640,3 +640,36 @@ fn help_teaches_formats_examples_and_exit_codes() {
     assert!(h.contains("2  bad input"), "{h}");
     assert_eq!(tenmin(&["replay"], dir.path()).status.code(), Some(2));
 }
+
+#[test]
+fn summary_reports_sample_and_screened_recovery() {
+    // Two 1-minute intervals at 1 Hz: the first complete and steady, the second
+    // with 30 of 60 samples (recovery 0.5 < 0.9: low_recovery, and partial).
+    // Samples: 90 / 120 = 75.0 %; screened intervals: 1 / 2 = 50.0 % (by hand).
+    let dir = tempfile::tempdir().unwrap();
+    write(
+        dir.path(),
+        "station.toml",
+        "[logging]\ninterval_s = 60\nsample_rate_hz = 1\n\n[[channel]]\nid = \"ws\"\nkind = \"speed\"\nresolution = 0.01\n",
+    );
+    let mut csv = String::from("time,ws\n");
+    for s in (0..60).chain(60..90) {
+        csv.push_str(&format!(
+            "{},{}\n",
+            1_737_331_200 + s,
+            8.0 + f64::from(s % 3) * 0.1
+        ));
+    }
+    write(dir.path(), "s.csv", csv);
+    let out = tenmin(
+        &["replay", "-c", "station.toml", "s.csv", "-o", "r.csv"],
+        dir.path(),
+    );
+    assert!(out.status.success(), "{}", text(&out.stderr));
+    let err = text(&out.stderr);
+    let line = err
+        .lines()
+        .find(|l| l.starts_with("ws "))
+        .unwrap_or_else(|| panic!("no channel line in {err}"));
+    assert!(line.contains("75.0%") && line.contains("50.0%"), "{line}");
+}
