@@ -557,19 +557,7 @@ impl<'a> Records<'a> {
         commas: &mut Vec<u32>,
     ) -> Option<(u64, Result<Timestamp, BadRow>)> {
         let buf = self.buf;
-        let mut i = self.pos;
-        loop {
-            match buf.get(i) {
-                None => {
-                    self.pos = i;
-                    return None;
-                }
-                Some(b'\n') => self.line += 1,
-                Some(b'\r') => {}
-                Some(_) => break,
-            }
-            i += 1;
-        }
+        let i = self.skip_blank()?;
         if let Some((t, end)) = parser.parse_plain(buf, i, readings) {
             let line = self.line;
             match buf.get(end) {
@@ -587,26 +575,31 @@ impl<'a> Records<'a> {
         Some((line, parser.parse(rec, commas, readings)))
     }
 
-    /// The next record and its line, with the offsets of its commas in
-    /// `commas`: the same records as [`Records::next`], in one pass.
+    /// Skips line terminators (blank records), counting lines; the offset of
+    /// the next record's first byte, or `None` at the end of the buffer.
     #[inline]
-    pub fn next_split(&mut self, commas: &mut Vec<u32>) -> Option<(u64, &'a [u8])> {
-        let buf = self.buf;
+    fn skip_blank(&mut self) -> Option<usize> {
         let mut i = self.pos;
-        // Skip terminators (blank records).
         loop {
-            match buf.get(i) {
+            match self.buf.get(i) {
                 None => {
                     self.pos = i;
                     return None;
                 }
                 Some(b'\n') => self.line += 1,
                 Some(b'\r') => {}
-                Some(_) => break,
+                Some(_) => return Some(i),
             }
             i += 1;
         }
-        let start = i;
+    }
+
+    /// The next record and its line, with the offsets of its commas in
+    /// `commas`: the same records as [`Records::next`], in one pass.
+    #[inline]
+    pub fn next_split(&mut self, commas: &mut Vec<u32>) -> Option<(u64, &'a [u8])> {
+        let buf = self.buf;
+        let start = self.skip_blank()?;
         let rest = &buf[start..];
         let (rec, term) = match memchr::memchr2(b'\n', b'\r', rest) {
             Some(p) => (&rest[..p], Some(rest[p])),
@@ -614,11 +607,10 @@ impl<'a> Records<'a> {
         };
         find_commas(rec, commas);
         let line = self.line;
-        i = start + rec.len() + usize::from(term.is_some());
         if term == Some(b'\n') {
             self.line += 1;
         }
-        self.pos = i;
+        self.pos = start + rec.len() + usize::from(term.is_some());
         Some((line, rec))
     }
 
