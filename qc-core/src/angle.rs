@@ -98,26 +98,63 @@ const fn round_q60(x: i64) -> i64 {
 ///
 /// Any `i32` is accepted and reduced modulo a full turn first.
 pub fn sin_cos_cd(cd: i32) -> (i64, i64) {
-    let cd = if (0..FULL_TURN_CD).contains(&cd) {
-        cd
+    let (s, c) = sin_cos_q30(cd);
+    (i64::from(s), i64::from(c))
+}
+
+/// [`sin_cos_cd`] as `i32` (every component is within `[-2^30, 2^30]`).
+///
+/// No division on the path of a direction in `0..36_000`: a Cortex-M0 has no
+/// divide instruction, and its division helper costs more than the rest.
+#[inline]
+pub(crate) fn sin_cos_q30(cd: i32) -> (i32, i32) {
+    let mut r = cd;
+    if !(0..FULL_TURN_CD).contains(&r) {
+        r = reduce_turn(r);
+    }
+    // Comparisons, not `r / QUARTER_CD` (nor a loop the compiler turns into one).
+    let quadrant = if r >= 2 * QUARTER_CD {
+        if r >= 3 * QUARTER_CD {
+            3
+        } else {
+            2
+        }
+    } else if r >= QUARTER_CD {
+        1
     } else {
-        cd.rem_euclid(FULL_TURN_CD)
+        0
     };
-    let quadrant = cd / QUARTER_CD;
-    let r = cd % QUARTER_CD;
-    let deg = (r / 100) as usize;
-    let centi = (r % 100) as usize;
+    r -= quadrant * QUARTER_CD;
+    // r / 100 for 0 <= r < 9_000 (checked for every r in the tests).
+    let deg = ((r as u32 * 5_243) >> 19) as usize;
+    let centi = (r as usize) - 100 * deg;
     // Table values are in [0, 2^30], so the products are unsigned 32 x 32 bits.
-    let (sd, cd_) = (SIN_DEG[deg] as u32, SIN_DEG[90 - deg] as u32);
-    let (sc, cc) = (SIN_CENTI[centi] as u32, COS_CENTI[centi] as u32);
-    let s = round_q60((mul_u32(sd, cc) + mul_u32(cd_, sc)) as i64);
-    let c = round_q60(mul_u32(cd_, cc) as i64 - mul_u32(sd, sc) as i64);
+    let (Some(&sd), Some(&cd_), Some(&sc), Some(&cc)) = (
+        SIN_DEG.get(deg),
+        SIN_DEG.get(90 - deg.min(90)),
+        SIN_CENTI.get(centi),
+        COS_CENTI.get(centi),
+    ) else {
+        return (0, 0);
+    };
+    let (sd, cd_, sc, cc) = (sd as u32, cd_ as u32, sc as u32, cc as u32);
+    // sin(a + b) and cos(a + b), both in [0, 2^30]: rounded Q60 sums to Q30.
+    let s = round_q60((mul_u32(sd, cc) + mul_u32(cd_, sc)) as i64) as i32;
+    let c = round_q60(mul_u32(cd_, cc) as i64 - mul_u32(sd, sc) as i64) as i32;
     match quadrant {
         0 => (s, c),
         1 => (c, -s),
         2 => (-s, -c),
         _ => (-c, s),
     }
+}
+
+/// `cd` modulo a full turn, out of line: the compiler would otherwise compute
+/// the remainder (a division helper call on a Cortex-M0) on every call.
+#[cold]
+#[inline(never)]
+fn reduce_turn(cd: i32) -> i32 {
+    cd.rem_euclid(FULL_TURN_CD)
 }
 
 /// Normalises degrees into [0, 360).
@@ -188,6 +225,13 @@ mod tests {
                 c += b;
             }
             assert!(s.abs() <= 2 && c.abs() <= 2, "start {start}: {s} {c}");
+        }
+    }
+
+    #[test]
+    fn hundredths_split_without_division() {
+        for r in 0..QUARTER_CD {
+            assert_eq!(((r as u32 * 5_243) >> 19) as i32, r / 100, "{r}");
         }
     }
 

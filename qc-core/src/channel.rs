@@ -206,6 +206,9 @@ pub struct Channel {
     /// Direction counts to centidegrees, Q16: `cd = (k * mul + add) >> 16`.
     dir_mul: i64,
     dir_add: i64,
+    /// Counts `0..=dir_fast_k` take the 32-bit path of [`Channel::classify`]
+    /// (`k * dir_mul` fits a `u32`, `dir_add` is non-negative); -1 for none.
+    dir_fast_k: i32,
     offset_cd: i32,
     /// Spike step limit in quanta (centidegrees for direction).
     step_q: Option<i64>,
@@ -232,6 +235,7 @@ impl Channel {
             hi_k: 0,
             dir_mul: 0,
             dir_add: 0,
+            dir_fast_k: -1,
             offset_cd: 0,
             step_q: None,
         }
@@ -259,6 +263,7 @@ impl Channel {
             hi_k: hi_q as i32,
             dir_mul: 0,
             dir_add: 0,
+            dir_fast_k: -1,
             offset_cd: 0,
             step_q: None,
         };
@@ -312,6 +317,10 @@ impl Channel {
                 }
                 ch.dir_mul = libm::round(step * 100.0 * 65_536.0) as i64;
                 ch.dir_add = libm::round(offset * 100.0 * 65_536.0) as i64 + (1 << 15);
+                if ch.dir_mul > 0 && (0..1 << 32).contains(&ch.dir_add) {
+                    let k = i64::from(u32::MAX) / ch.dir_mul;
+                    ch.dir_fast_k = k.min(i64::from(ch.hi_k)).min(i64::from(i32::MAX)) as i32;
+                }
                 let off = libm::round(libm::fmod(cfg.mounting_offset_deg, 360.0) * 100.0);
                 ch.offset_cd = off as i32;
             }
@@ -350,6 +359,11 @@ impl Channel {
                 } else if k < self.lo_k || k > self.hi_k {
                     Class::OutOfRange
                 } else if self.cfg.kind == Kind::Direction {
+                    if (0..=self.dir_fast_k).contains(&k) {
+                        // The same integer as below, in one 32-bit multiply.
+                        let p = u64::from(k as u32 * self.dir_mul as u32) + self.dir_add as u64;
+                        return Class::Valid(self.wrap_cd((p >> 16) as i64));
+                    }
                     // |dir_mul| < 2^31 (slope <= 300 deg/count), so one 32 x 32 product.
                     let cd = (mul_i32(k, self.dir_mul as i32) + self.dir_add) >> 16;
                     Class::Valid(self.wrap_cd(cd))
@@ -581,22 +595,41 @@ impl<const G: usize> ChannelAcc<G> {
     /// Adds one classified sample; `speed` is the linked speed's class, if any.
     #[inline]
     pub(crate) fn push(&mut self, c: Class, w: usize, speed: Option<Class>) {
-        self.tally_mut().count(c);
-        match (self, c) {
-            (ChannelAcc::Speed(a), Class::Valid(q)) => {
-                a.moments.push(q);
-                a.gust.push(q, w);
-            }
-            (ChannelAcc::Speed(a), _) => a.gust.break_run(),
-            (ChannelAcc::Direction(a), Class::Valid(cd)) => a.sums.push(cd),
-            (ChannelAcc::LinkedDirection(a), Class::Valid(cd)) => {
-                a.direction.sums.push(cd);
-                if let Some(Class::Valid(q)) = speed {
-                    a.resultant.push(cd, q);
+        match self {
+            ChannelAcc::Speed(a) => {
+                a.tally.count(c);
+                match c {
+                    Class::Valid(q) => {
+                        a.moments.push(q);
+                        a.gust.push(q, w);
+                    }
+                    _ => a.gust.break_run(),
                 }
             }
-            (ChannelAcc::Scalar(a), Class::Valid(q)) => a.moments.push(q),
-            _ => {}
+            ChannelAcc::Direction(a) => {
+                a.tally.count(c);
+                if let Class::Valid(cd) = c {
+                    a.sums.push(cd);
+                }
+            }
+            ChannelAcc::LinkedDirection(a) => {
+                a.direction.tally.count(c);
+                if let Class::Valid(cd) = c {
+                    match speed {
+                        Some(Class::Valid(q)) => {
+                            let (s, co) = a.direction.sums.push_q30(cd);
+                            a.resultant.push_q30(s, co, q);
+                        }
+                        _ => a.direction.sums.push(cd),
+                    }
+                }
+            }
+            ChannelAcc::Scalar(a) => {
+                a.tally.count(c);
+                if let Class::Valid(q) = c {
+                    a.moments.push(q);
+                }
+            }
         }
     }
 
@@ -830,6 +863,37 @@ impl ChannelRecord {
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    #[test]
+    fn direction_counts_fast_path_is_the_general_formula() {
+        let sentinels = crate::Sentinels::new(&[None; crate::MAX_SENTINELS]).unwrap();
+        for (slope, offset, mount) in [
+            (360.0 / 26_400.0, 0.0, 0.0),
+            (360.0 / 1_024.0, 0.0, 12.5),
+            (0.1, 0.0, -7.25),
+            (0.01, 3.0, 0.0),
+            (1.0, -4.0, 359.0),
+            (300.0, 0.0, 0.0),
+        ] {
+            let cfg = ChannelConfig::direction()
+                .with_calibration(slope, offset)
+                .with_mounting_offset(mount)
+                .with_range(-1e5, 1e5);
+            let ch = Channel::new(cfg, 1).unwrap();
+            let mut ks: std::vec::Vec<i32> = (-2_000..70_000).step_by(7).collect();
+            ks.extend([0, 1, ch.dir_fast_k, ch.dir_fast_k + 1, ch.hi_k, ch.lo_k]);
+            for k in ks {
+                let got = ch.classify(Reading::Counts(k), &sentinels);
+                let want = if k < ch.lo_k || k > ch.hi_k {
+                    Class::OutOfRange
+                } else {
+                    let cd = (i64::from(k) * ch.dir_mul + ch.dir_add) >> 16;
+                    Class::Valid(ch.wrap_cd(cd))
+                };
+                assert_eq!(got, want, "slope {slope} offset {offset} k {k}");
+            }
+        }
+    }
 
     #[test]
     fn rounding_matches_libm_round() {

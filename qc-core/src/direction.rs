@@ -11,8 +11,8 @@
 //! accumulated exactly too: the speed enters as its integer quanta `q`, with
 //! `u = offset + step * q`, so `sum(u sin th) = offset * sum(sin th) + step * sum(q sin th)`.
 
-use crate::angle::{sin_cos_cd, to_deg, ONE_Q30};
-use crate::moments::Wide;
+use crate::angle::{sin_cos_q30, to_deg, ONE_Q30};
+use crate::moments::{mul_i32, Wide};
 
 /// Below this mean resultant length the mean direction is reported undefined.
 ///
@@ -64,9 +64,16 @@ impl DirectionSums {
     /// Adds a direction in centidegrees (`0..36_000`).
     #[inline]
     pub fn push(&mut self, cd: i32) {
-        let (s, c) = sin_cos_cd(cd);
-        self.sin += s;
-        self.cos += c;
+        self.push_q30(cd);
+    }
+
+    /// Adds a direction in centidegrees and returns its Q30 unit vector.
+    #[inline]
+    pub(crate) fn push_q30(&mut self, cd: i32) -> (i32, i32) {
+        let (s, c) = sin_cos_q30(cd);
+        self.sin += i64::from(s);
+        self.cos += i64::from(c);
+        (s, c)
     }
 
     /// Adds the sums of `other`.
@@ -167,11 +174,19 @@ impl ResultantSums {
     /// Adds a pair: direction in centidegrees and speed quanta.
     #[inline]
     pub fn push(&mut self, cd: i32, q: i32) {
-        let (s, c) = sin_cos_cd(cd);
-        self.q_sin.add(i128::from(s) * i128::from(q));
-        self.q_cos.add(i128::from(c) * i128::from(q));
-        self.sin += s;
-        self.cos += c;
+        let (s, c) = sin_cos_q30(cd);
+        self.push_q30(s, c, q);
+    }
+
+    /// Adds a pair given as the direction's Q30 unit vector `(s, c)` and speed
+    /// quanta `q`. Each product fits an `i64` (`|s| <= 2^30`), so it is one
+    /// 32 x 32-bit multiply and a sign-extended add into the wide sums.
+    #[inline]
+    pub(crate) fn push_q30(&mut self, s: i32, c: i32, q: i32) {
+        self.q_sin.add_i64(mul_i32(s, q));
+        self.q_cos.add_i64(mul_i32(c, q));
+        self.sin += i64::from(s);
+        self.cos += i64::from(c);
         self.n = self.n.saturating_add(1);
     }
 

@@ -46,6 +46,16 @@ impl Wide {
         self.lo = lo;
         self.hi = self.hi.wrapping_add(u64::from(carry));
     }
+
+    /// Adds a signed 64-bit value (sign-extended): adds with carry, no
+    /// 128-bit arithmetic.
+    #[inline]
+    pub fn add_i64(&mut self, v: i64) {
+        let (lo, carry) = self.lo.overflowing_add(v as u64);
+        self.lo = lo;
+        let ext = if v < 0 { u64::MAX } else { 0 };
+        self.hi = self.hi.wrapping_add(ext).wrapping_add(u64::from(carry));
+    }
 }
 
 /// `a * b` for 32-bit operands as a 64-bit product, from four 16-bit partial
@@ -190,6 +200,34 @@ impl Moments {
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    #[test]
+    fn signed_adds_match_i128() {
+        let values = [
+            0i64,
+            1,
+            -1,
+            i64::MAX,
+            i64::MIN,
+            1 << 62,
+            -(1 << 62),
+            123_456_789_012,
+        ];
+        let mut w = Wide::ZERO;
+        let mut r = 0i128;
+        for _ in 0..3 {
+            for &v in &values {
+                w.add_i64(v);
+                r += i128::from(v);
+                assert_eq!(w.get(), r);
+            }
+        }
+        let mut w = Wide::new(-5);
+        w.add_i64(3);
+        assert_eq!(w.get(), -2);
+        w.add_i64(7);
+        assert_eq!(w.get(), 5);
+    }
 
     #[test]
     fn small_multiplies_are_exact() {

@@ -214,7 +214,9 @@ impl Spikes {
 fn step(a: i32, b: i32, circular: bool) -> i64 {
     let d = (i64::from(a) - i64::from(b)).abs();
     if circular {
-        let d = d % 36_000;
+        // Directions are in 0..36_000, so one turn at most: no division (a
+        // Cortex-M0 has none); the remainder keeps any other input in range.
+        let d = if d < 36_000 { d } else { d % 36_000 };
         d.min(36_000 - d)
     } else {
         d

@@ -67,7 +67,7 @@ pub struct Sentinels {
 }
 
 impl Sentinels {
-    fn new(codes: &[Option<f64>; MAX_SENTINELS]) -> Result<Self, ConfigError> {
+    pub(crate) fn new(codes: &[Option<f64>; MAX_SENTINELS]) -> Result<Self, ConfigError> {
         let mut s = Sentinels {
             values: [0.0; MAX_SENTINELS],
             counts: [0; MAX_SENTINELS],
@@ -302,35 +302,46 @@ impl<const C: usize, const G: usize> IntervalAcc<C, G> {
     /// Adds one accepted sample at `t` (the caller keeps `t` increasing and within
     /// this interval; [`Station::push`] does).
     pub fn push(&mut self, layout: &Layout<C>, t: Timestamp, readings: &[Reading; C]) {
-        if let Some(last) = self.last {
-            if layout.is_gap(t.millis().saturating_sub(last.millis())) {
-                for c in &mut self.channels {
-                    c.break_run();
-                }
-                for s in &mut self.spikes {
-                    s.break_chain();
-                }
+        let broken = match self.last {
+            Some(last) => layout.is_gap(t.millis().saturating_sub(last.millis())),
+            None => {
+                self.first = Some(t);
+                false
             }
-        }
-        if self.first.is_none() {
-            self.first = Some(t);
-        }
+        };
         self.last = Some(t);
-        let classes: [Class; C] =
-            core::array::from_fn(|i| layout.channels[i].classify(readings[i], &layout.sentinels));
-        for (i, acc) in self.channels.iter_mut().enumerate() {
-            let ch = &layout.channels[i];
-            let speed = ch
-                .config()
-                .speed_channel
-                .and_then(|s| classes.get(usize::from(s)).copied());
-            acc.push(classes[i], ch.window(), speed);
-            if let Some(limit) = ch.step_q() {
-                match classes[i] {
-                    Class::Valid(q) => {
-                        self.spikes[i].push(q, limit, ch.config().kind == crate::Kind::Direction)
+        let sentinels = &layout.sentinels;
+        // One pass over the channels (a Cortex-M0 pays for every extra load and
+        // store); a direction linked to a speed classifies that speed's reading
+        // again rather than keeping every channel's class in an array.
+        for ((acc, ch), (reading, spikes)) in self
+            .channels
+            .iter_mut()
+            .zip(layout.channels.iter())
+            .zip(readings.iter().zip(self.spikes.iter_mut()))
+        {
+            if broken {
+                acc.break_run();
+                spikes.break_chain();
+            }
+            let class = ch.classify(*reading, sentinels);
+            let speed = match ch.config().speed_channel {
+                Some(s) => {
+                    let s = usize::from(s);
+                    match (layout.channels.get(s), readings.get(s)) {
+                        (Some(sc), Some(sr)) => Some(sc.classify(*sr, sentinels)),
+                        _ => None,
                     }
-                    _ => self.spikes[i].break_chain(),
+                }
+                None => None,
+            };
+            acc.push(class, ch.window(), speed);
+            if let Some(limit) = ch.step_q() {
+                match class {
+                    Class::Valid(q) => {
+                        spikes.push(q, limit, ch.config().kind == crate::Kind::Direction)
+                    }
+                    _ => spikes.break_chain(),
                 }
             }
         }
@@ -547,6 +558,18 @@ impl<const C: usize, const G: usize> Station<C, G> {
     where
         F: FnMut(Event<'_, C, G>),
     {
+        // Steady state: after the last accepted sample and inside the open
+        // interval (`open_end` is `i64::MIN` when none is open), which lies in
+        // the supported years, so none of the checks below can reject it.
+        let ms = t.millis();
+        if ms < self.open_end && self.last.is_some_and(|last| ms > last.millis()) {
+            if let Some(acc) = &mut self.open {
+                acc.push(&self.layout, t, readings);
+            }
+            self.last = Some(t);
+            self.totals.accepted += 1;
+            return Pushed::Accepted;
+        }
         if let Some(reason) = self.check_time(t) {
             match reason {
                 Reject::Duplicate => self.totals.duplicate += 1,
@@ -560,7 +583,6 @@ impl<const C: usize, const G: usize> Station<C, G> {
             }
             return Pushed::Rejected(reason);
         }
-        // Steady state: the sample falls in the open interval (no division).
         if t.millis() >= self.open_end {
             let k = self.layout.interval_of(t);
             self.close(&mut emit);
