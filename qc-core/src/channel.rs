@@ -12,7 +12,7 @@ use crate::error::ChannelProblem;
 use crate::flags::Flags;
 use crate::gust::Gust;
 use crate::moments::{mul_i32, Moments};
-use crate::screen::Screen;
+use crate::screen::{Screen, Spikes};
 
 /// What a channel measures.
 #[derive(Clone, Copy, Debug, PartialEq, Eq, Hash)]
@@ -212,6 +212,12 @@ pub struct Channel {
     offset_cd: i32,
     /// Spike step limit in quanta (centidegrees for direction).
     step_q: Option<i64>,
+    /// Whether a missing-value code lies in the valid range, as counts and as a
+    /// value (when not, a reading in range needs no comparison with the codes).
+    code_in_counts: bool,
+    code_in_values: bool,
+    /// Speed or scalar with no code in range: counts in range are valid as they are.
+    plain_counts: bool,
 }
 
 /// A reading after validation.
@@ -238,6 +244,9 @@ impl Channel {
             dir_fast_k: -1,
             offset_cd: 0,
             step_q: None,
+            code_in_counts: true,
+            code_in_values: true,
+            plain_counts: false,
         }
     }
 
@@ -266,6 +275,9 @@ impl Channel {
             dir_fast_k: -1,
             offset_cd: 0,
             step_q: None,
+            code_in_counts: true,
+            code_in_values: true,
+            plain_counts: false,
         };
         let sc = &cfg.screen;
         if let Some(l) = sc.step_limit {
@@ -303,6 +315,12 @@ impl Channel {
                 let w = usize::from(cfg.gust_window);
                 if w == 0 || w > gust_capacity {
                     return Err(ChannelProblem::GustWindow);
+                }
+                // Gust window sums are i32 (crate::gust): any `w` quanta in range
+                // (+/-1 for the rounding of values) must sum within it.
+                let widest = i64::from(ch.lo_k).abs().max(i64::from(ch.hi_k).abs()) + 1;
+                if widest * w as i64 > i64::from(i32::MAX) {
+                    return Err(ChannelProblem::RangeTooWide);
                 }
             }
             Kind::Direction => {
@@ -354,41 +372,66 @@ impl Channel {
         match r {
             Reading::Missing => Class::Missing,
             Reading::Counts(k) => {
-                if sentinels.matches_counts(k) {
-                    Class::Missing
-                } else if k < self.lo_k || k > self.hi_k {
-                    Class::OutOfRange
-                } else if self.cfg.kind == Kind::Direction {
-                    if (0..=self.dir_fast_k).contains(&k) {
-                        // The same integer as below, in one 32-bit multiply.
-                        let p = u64::from(k as u32 * self.dir_mul as u32) + self.dir_add as u64;
-                        return Class::Valid(self.wrap_cd((p >> 16) as i64));
-                    }
-                    // |dir_mul| < 2^31 (slope <= 300 deg/count), so one 32 x 32 product.
-                    let cd = (mul_i32(k, self.dir_mul as i32) + self.dir_add) >> 16;
-                    Class::Valid(self.wrap_cd(cd))
-                } else {
-                    Class::Valid(k)
+                // Range first: most readings are in range, and then the codes
+                // need checking only if one of them lies in the range too.
+                if k < self.lo_k || k > self.hi_k {
+                    return if sentinels.matches_counts(k) {
+                        Class::Missing
+                    } else {
+                        Class::OutOfRange
+                    };
                 }
+                if self.code_in_counts && sentinels.matches_counts(k) {
+                    return Class::Missing;
+                }
+                if self.cfg.kind != Kind::Direction {
+                    return Class::Valid(k);
+                }
+                if (0..=self.dir_fast_k).contains(&k) {
+                    // The same integer as below, in one 32-bit multiply.
+                    let p = u64::from(k as u32 * self.dir_mul as u32) + self.dir_add as u64;
+                    return Class::Valid(self.wrap_cd((p >> 16) as i64));
+                }
+                // |dir_mul| < 2^31 (slope <= 300 deg/count), so one 32 x 32 product.
+                let cd = (mul_i32(k, self.dir_mul as i32) + self.dir_add) >> 16;
+                Class::Valid(self.wrap_cd(cd))
             }
             Reading::Value(v) => {
-                if v.is_nan() || sentinels.matches_value(v) {
-                    Class::Missing
-                } else if v < self.cfg.range.0 || v > self.cfg.range.1 {
-                    Class::OutOfRange
-                } else if self.cfg.kind == Kind::Direction {
-                    Class::Valid(self.wrap_cd(libm::round(v * 100.0) as i64))
-                } else {
-                    let Scale { offset, step } = self.cfg.scale;
-                    let q = round_half_away(match self.inv_step {
-                        Some(inv) => (v - offset) * inv,
-                        None => (v - offset) / step,
-                    });
-                    // In range, so within the validated 31-bit limits (+/-1 for rounding).
-                    Class::Valid(q as i32)
+                // `!(in range)` is also true for NaN.
+                if !(v >= self.cfg.range.0 && v <= self.cfg.range.1) {
+                    return if v.is_nan() || sentinels.matches_value(v) {
+                        Class::Missing
+                    } else {
+                        Class::OutOfRange
+                    };
                 }
+                if self.code_in_values && sentinels.matches_value(v) {
+                    return Class::Missing;
+                }
+                if self.cfg.kind == Kind::Direction {
+                    return Class::Valid(self.wrap_cd(libm::round(v * 100.0) as i64));
+                }
+                let Scale { offset, step } = self.cfg.scale;
+                let q = round_half_away(match self.inv_step {
+                    Some(inv) => (v - offset) * inv,
+                    None => (v - offset) / step,
+                });
+                // In range, so within the validated 31-bit limits (+/-1 for rounding).
+                Class::Valid(q as i32)
             }
         }
+    }
+
+    /// Records whether any of the station's missing-value codes lies in this
+    /// channel's valid range (set by [`crate::Layout::new`]).
+    pub(crate) fn note_codes(&mut self, sentinels: &crate::Sentinels) {
+        let (lo, hi) = self.cfg.range;
+        self.code_in_counts = sentinels
+            .counts()
+            .iter()
+            .any(|&k| k >= self.lo_k && k <= self.hi_k);
+        self.code_in_values = sentinels.values().iter().any(|&v| v >= lo && v <= hi);
+        self.plain_counts = !self.code_in_counts && self.cfg.kind != Kind::Direction;
     }
 
     fn wrap_cd(&self, cd: i64) -> i32 {
@@ -589,6 +632,36 @@ impl<const G: usize> ChannelAcc<G> {
     pub(crate) fn break_run(&mut self) {
         if let ChannelAcc::Speed(a) = self {
             a.gust.break_run();
+        }
+    }
+
+    /// Classifies one reading of `ch` and adds it, with its spike check;
+    /// `speed` is the linked speed's class, if any. One call per channel and
+    /// sample, with the rest inlined into it (calls and their stack frames
+    /// are a good part of the cost on a Cortex-M0).
+    #[inline(never)]
+    pub(crate) fn push_reading(
+        &mut self,
+        ch: &Channel,
+        r: Reading,
+        codes: &crate::Sentinels,
+        spikes: &mut Spikes,
+        speed: Option<Class>,
+    ) {
+        // Raw counts in range, on a speed or scalar channel with no missing-value
+        // code in its range, are valid as they are: no call.
+        let class = match r {
+            Reading::Counts(k) if ch.plain_counts && k >= ch.lo_k && k <= ch.hi_k => {
+                Class::Valid(k)
+            }
+            _ => ch.classify(r, codes),
+        };
+        self.push(class, ch.window(), speed);
+        if let Some(limit) = ch.step_q {
+            match class {
+                Class::Valid(q) => spikes.push(q, limit, ch.cfg.kind == Kind::Direction),
+                _ => spikes.break_chain(),
+            }
         }
     }
 

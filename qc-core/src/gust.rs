@@ -9,13 +9,18 @@
 //! For exact split-and-merge, a piece also keeps its first `w - 1` samples (the
 //! head of its leading run): windows that straddle the join of two pieces are
 //! then found exactly when the pieces are merged.
+//!
+//! Window sums are `i32` (cheap on a 32-bit logger core): the sum of any `w`
+//! samples must fit, which [`crate::Layout`] guarantees for speed channels (it
+//! refuses a range whose quanta times the gust window could exceed `i32`).
+//! Used directly with larger samples, the sums wrap (never a panic).
 
 /// Running-window state for one interval (or one piece of an interval).
 #[derive(Clone, Copy, Debug, PartialEq, Eq, Hash)]
 #[cfg_attr(feature = "defmt", derive(defmt::Format))]
 pub struct Gust<const G: usize> {
-    best: i64,
-    window: i64,
+    best: i32,
+    window: i32,
     tail: [i32; G],
     head: [i32; G],
     run: u16,
@@ -25,8 +30,9 @@ pub struct Gust<const G: usize> {
 }
 
 const HAS_BEST: u8 = 1;
+/// A break was seen (the head is complete); a piece has seen something when
+/// `run > 0` or this flag is set (`run` only returns to 0 by a break).
 const BROKEN: u8 = 2;
-const SEEN: u8 = 4;
 
 impl<const G: usize> Default for Gust<G> {
     fn default() -> Self {
@@ -56,13 +62,19 @@ impl<const G: usize> Gust<G> {
     /// The largest window sum seen, if any run reached `w` samples.
     pub const fn best_sum(&self) -> Option<i64> {
         if self.flags & HAS_BEST != 0 {
-            Some(self.best)
+            Some(self.best as i64)
         } else {
             None
         }
     }
 
-    fn offer(&mut self, sum: i64) {
+    /// Whether any sample or break was pushed.
+    const fn seen(&self) -> bool {
+        self.run > 0 || self.flags & BROKEN != 0
+    }
+
+    #[inline]
+    fn offer(&mut self, sum: i32) {
         if self.flags & HAS_BEST == 0 || sum > self.best {
             self.best = sum;
             self.flags |= HAS_BEST;
@@ -72,28 +84,36 @@ impl<const G: usize> Gust<G> {
     /// Adds one valid sample. `w` must be in `1..=G` (the caller validated it).
     #[inline]
     pub fn push(&mut self, q: i32, w: usize) {
-        self.flags |= SEEN;
-        if self.flags & BROKEN == 0 && usize::from(self.head_len) + 1 < w {
-            self.head[usize::from(self.head_len)] = q;
-            self.head_len += 1;
+        let head_len = usize::from(self.head_len);
+        if head_len + 1 < w && self.flags & BROKEN == 0 {
+            if let Some(slot) = self.head.get_mut(head_len) {
+                *slot = q;
+                self.head_len += 1;
+            }
         }
-        self.run = self.run.saturating_add(1);
+        let run = self.run;
         let pos = usize::from(self.pos);
-        if usize::from(self.run) > w {
-            self.window -= i64::from(self.tail[pos]);
+        let mut window = self.window;
+        if let Some(slot) = self.tail.get_mut(pos) {
+            if usize::from(run) >= w {
+                window = window.wrapping_sub(*slot);
+            }
+            *slot = q;
         }
-        self.tail[pos] = q;
-        self.window += i64::from(q);
+        window = window.wrapping_add(q);
+        self.window = window;
         self.pos = if pos + 1 >= w { 0 } else { pos as u8 + 1 };
-        if usize::from(self.run) >= w {
-            self.offer(self.window);
+        let run = run.saturating_add(1);
+        self.run = run;
+        if usize::from(run) >= w {
+            self.offer(window);
         }
     }
 
     /// Breaks the run: the next window starts afresh.
     #[inline]
     pub fn break_run(&mut self) {
-        self.flags |= BROKEN | SEEN;
+        self.flags |= BROKEN;
         self.run = 0;
         self.window = 0;
         self.pos = 0;
@@ -118,10 +138,10 @@ impl<const G: usize> Gust<G> {
     /// Merges `later`, the state of the samples that follow this piece in time.
     /// `joined` says whether the two pieces are contiguous (no break between).
     pub fn merge(&mut self, later: &Self, w: usize, joined: bool) {
-        if later.flags & SEEN == 0 {
+        if !later.seen() {
             return;
         }
-        if self.flags & SEEN == 0 {
+        if !self.seen() {
             *self = *later;
             return;
         }
@@ -136,19 +156,15 @@ impl<const G: usize> Gust<G> {
                 if from_later > b {
                     continue;
                 }
-                let s: i64 = own[a - from_self..a]
+                let s = own[a - from_self..a]
                     .iter()
-                    .map(|&v| i64::from(v))
-                    .sum::<i64>()
-                    + later.head[..from_later]
-                        .iter()
-                        .map(|&v| i64::from(v))
-                        .sum::<i64>();
+                    .chain(later.head[..from_later].iter())
+                    .fold(0i32, |acc, &v| acc.wrapping_add(v));
                 self.offer(s);
             }
         }
-        if let Some(b) = later.best_sum() {
-            self.offer(b);
+        if later.flags & HAS_BEST != 0 {
+            self.offer(later.best);
         }
 
         // The head grows only while this piece is one unbroken run.
@@ -182,7 +198,7 @@ impl<const G: usize> Gust<G> {
             seq[from_self..keep].copy_from_slice(&lat[..from_later]);
             self.tail = [0; G];
             self.tail[..keep].copy_from_slice(&seq[..keep]);
-            self.window = seq[..keep].iter().map(|&v| i64::from(v)).sum();
+            self.window = seq[..keep].iter().fold(0i32, |acc, &v| acc.wrapping_add(v));
             self.pos = if keep >= w { 0 } else { keep as u8 };
             self.run = total;
         } else {

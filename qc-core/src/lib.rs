@@ -128,15 +128,15 @@ mod tests {
 
     #[test]
     fn documented_sizes() {
-        assert_eq!(size_of::<SpeedAcc<3>>(), 96);
+        assert_eq!(size_of::<SpeedAcc<3>>(), 88);
         assert_eq!(size_of::<DirectionAcc>(), 32);
         assert_eq!(size_of::<LinkedDirectionAcc>(), 88);
         assert_eq!(size_of::<ScalarAcc>(), 48);
         assert_eq!(size_of::<Recovery>(), 128);
         assert_eq!(size_of::<screen::Spikes>(), 16);
         assert_eq!(size_of::<Screener<1>>(), 48);
-        assert_eq!(size_of::<IntervalAcc<8, 3>>(), 1016);
-        assert_eq!(size_of::<Layout<8>>(), 2384);
+        assert_eq!(size_of::<IntervalAcc<8, 3>>(), 952);
+        assert_eq!(size_of::<Layout<8>>(), 2448);
         assert_eq!(size_of::<Station<8, 3>>(), 4936);
         // The budgets: speed with a 3-sample window <= 96, direction <= 64.
         assert!(size_of::<SpeedAcc<3>>() <= 96);

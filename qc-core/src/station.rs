@@ -20,7 +20,7 @@
 //!
 //! Nothing here panics, whatever the input.
 
-use crate::channel::{Channel, ChannelAcc, ChannelConfig, ChannelRecord, Class, Reading};
+use crate::channel::{Channel, ChannelAcc, ChannelConfig, ChannelRecord, Reading};
 use crate::error::{ChannelProblem, ConfigError};
 use crate::flags::Flags;
 use crate::recovery::Recovery;
@@ -94,6 +94,16 @@ impl Sentinels {
         self.values[..usize::from(self.n_values)].contains(&v)
     }
 
+    /// The codes as values.
+    pub fn values(&self) -> &[f64] {
+        &self.values[..usize::from(self.n_values)]
+    }
+
+    /// The codes that are whole numbers within `i32`, as counts.
+    pub fn counts(&self) -> &[i32] {
+        &self.counts[..usize::from(self.n_counts)]
+    }
+
     /// Whether raw counts `k` equal a missing-value code.
     #[inline]
     pub fn matches_counts(&self, k: i32) -> bool {
@@ -136,6 +146,7 @@ impl<const C: usize> Layout<C> {
             let index = i as u8;
             *slot =
                 Channel::new(*cfg, G).map_err(|problem| ConfigError::Channel { index, problem })?;
+            slot.note_codes(&sentinels);
             let is = |idx: Option<u8>, kind: crate::Kind| {
                 idx.is_none_or(|j| channels.get(usize::from(j)).is_some_and(|c| c.kind == kind))
             };
@@ -324,7 +335,6 @@ impl<const C: usize, const G: usize> IntervalAcc<C, G> {
                 acc.break_run();
                 spikes.break_chain();
             }
-            let class = ch.classify(*reading, sentinels);
             let speed = match ch.config().speed_channel {
                 Some(s) => {
                     let s = usize::from(s);
@@ -335,15 +345,7 @@ impl<const C: usize, const G: usize> IntervalAcc<C, G> {
                 }
                 None => None,
             };
-            acc.push(class, ch.window(), speed);
-            if let Some(limit) = ch.step_q() {
-                match class {
-                    Class::Valid(q) => {
-                        spikes.push(q, limit, ch.config().kind == crate::Kind::Direction)
-                    }
-                    _ => spikes.break_chain(),
-                }
-            }
+            acc.push_reading(ch, *reading, sentinels, spikes, speed);
         }
     }
 
