@@ -12,161 +12,135 @@
 //!
 //! # Memory
 //!
-//! The logger's state (the station, about 5 KiB for 8 channels, and a copy of
-//! the interval last closed) lives in a [`LoggerSlot`], meant for a `static`:
-//! on a 16 KiB part the stack is the scarce part of RAM, and static RAM is
-//! counted by the linker. Rust builds a value on the stack before it moves it
-//! into a static, so [`LoggerSlot::start_with`] takes care that the big
-//! temporaries (the layout, 2.4 KiB, and the station) are never on the stack
-//! together; copies of a closed interval go into the slot, not the stack.
-//! `tools/stack_frames.py` lists the frames; the replay runs with the stack
-//! below the statics (`memory/microbit.x`), so an overflow faults instead of
-//! corrupting them.
+//! The station holds its layout by reference. A logger with a fixed
+//! configuration validates its layout at compile time into a `static` (in
+//! flash: `crate::scenario::LAYOUT`); one that reads its configuration at run
+//! time builds it once into a [`LayoutSlot`]. The station's running state (about
+//! 2 KiB for 8 channels) lives in a [`LoggerSlot`], meant for a `static`: on a
+//! 16 KiB part the stack is the scarce part of RAM, and static RAM is counted by
+//! the linker. Frames are written while the station hands out the closed
+//! interval, so no copy of it is kept. `tools/stack_frames.py` lists the stack
+//! frames; the replay runs with the stack below the statics
+//! (`memory/microbit.x`), so an overflow faults instead of corrupting them.
 
 use qc_core::wire::{self, RecordFrame, FRAME_LEN};
-use qc_core::{Event, IntervalAcc, Layout, Pushed, Reading, Station, Timestamp};
+use qc_core::{Event, Layout, Pushed, Reading, Station, Timestamp};
 
-/// The station of a slot: its layout first, then the station built from it.
-/// `#[repr(u64)]` makes the empty variant all zero bytes, and leaves no
-/// padding between the tag and a variant's fields (with padding there, the
-/// compiler copies a variant through a temporary).
+/// A station whose layout lives elsewhere (in flash, or in a [`LayoutSlot`]).
+pub type LayoutStation<'a, const C: usize, const G: usize> = Station<C, G, &'a Layout<C>>;
+
+/// Storage for a layout built at run time, meant for a `static` (all zero
+/// bytes until filled, so it lands in `.bss`; `#[repr(u64)]` makes the empty
+/// variant zero bytes and leaves no padding between the tag and the layout).
 #[repr(u64)]
 #[derive(Clone, Debug)]
 #[allow(clippy::large_enum_variant)] // the point: one slot, filled once
-enum StationSlot<const C: usize, const G: usize> {
+pub enum LayoutSlot<const C: usize> {
+    /// Nothing yet.
     Empty,
-    Staged(Layout<C>),
-    Full(Station<C, G>),
+    /// A validated layout.
+    Full(Layout<C>),
 }
 
-/// Room for a copy of the interval the last push closed, until its frames are
-/// written. (`#[repr(u64)]` for the same reasons as [`StationSlot`]; an
-/// `Option` of it may use a niche, so that `None` is not all zero bytes.)
-#[repr(u64)]
-#[derive(Clone, Copy, Debug)]
-#[allow(clippy::large_enum_variant)]
-enum Closed<const C: usize, const G: usize> {
-    Empty,
-    Room(IntervalAcc<C, G>),
-}
-
-/// Storage for a logger of capacity `C` channels and `G` gust samples, meant
-/// for a `static` (all zero bytes until started, so it lands in `.bss`).
-#[derive(Clone, Debug)]
-pub struct LoggerSlot<const C: usize, const G: usize> {
-    station: StationSlot<C, G>,
-    closed: Closed<C, G>,
-}
-
-impl<const C: usize, const G: usize> Default for LoggerSlot<C, G> {
+impl<const C: usize> Default for LayoutSlot<C> {
     fn default() -> Self {
         Self::new()
     }
 }
 
-impl<const C: usize, const G: usize> LoggerSlot<C, G> {
+impl<const C: usize> LayoutSlot<C> {
     /// An empty slot.
     pub const fn new() -> Self {
-        LoggerSlot {
-            station: StationSlot::Empty,
-            closed: Closed::Empty,
-        }
+        LayoutSlot::Empty
     }
 
-    /// Starts a new logger in the slot (replacing any earlier one) with the
-    /// layout `layout` makes, writing frames for every channel (see
-    /// [`Logger::with_active`]); frame sequence numbers start at 0. Returns
-    /// the error of `layout`, or `Ok(None)` if the slot could not be filled
-    /// (which does not happen).
+    /// Fills the slot with the layout `make` returns, or returns `make`'s
+    /// error (the slot is then empty). [`LayoutSlot::get`] hands it out.
     ///
-    /// `layout` should build the layout in its return place (end with the
-    /// call of `Layout::new`, not convert its result). The work is done in
-    /// steps that are not inlined, so that their temporaries never share the
-    /// stack: the layout is made (on the stack) and stored in the slot; the
-    /// station is built from the stored layout (on the stack, then copied into
-    /// the slot); the room for closed intervals is made last.
-    pub fn start_with<E>(
-        &mut self,
-        layout: impl FnOnce() -> Result<Layout<C>, E>,
-    ) -> Result<Option<Logger<'_, C, G>>, E> {
-        self.stage(layout)?;
-        self.build_station();
-        self.build_room();
-        let LoggerSlot { station, closed } = self;
-        Ok(match (station, closed) {
-            (StationSlot::Full(station), Closed::Room(closed)) => Some(Logger {
-                station,
-                closed,
-                pending: false,
-                active: C.min(255) as u8,
-                sequence: 0,
-            }),
-            _ => None,
-        })
-    }
-
-    #[inline(never)]
-    fn stage<E>(&mut self, layout: impl FnOnce() -> Result<Layout<C>, E>) -> Result<(), E> {
-        // Bound by reference: a move out of the result would be one more
-        // 2.4 KiB copy on the stack.
-        let made = layout();
-        match made {
+    /// `make` should build the layout in its return place (end with the call of
+    /// `Layout::new`); the result is bound by reference and copied once, into
+    /// the slot, so the layout is on the stack once.
+    pub fn fill<E>(&mut self, make: impl FnOnce() -> Result<Layout<C>, E>) -> Result<(), E> {
+        *self = LayoutSlot::Empty;
+        match make() {
             Ok(ref layout) => {
-                self.station = StationSlot::Staged(*layout);
+                *self = LayoutSlot::Full(*layout);
                 Ok(())
             }
             Err(e) => Err(e),
         }
     }
 
-    #[inline(never)]
-    fn build_station(&mut self) {
-        if let StationSlot::Staged(layout) = &self.station {
-            self.station = new_slot(layout);
-        }
-    }
-
-    #[inline(never)]
-    fn build_room(&mut self) {
-        if let StationSlot::Full(station) = &self.station {
-            self.closed = new_room(station.layout());
+    /// The layout, once filled.
+    pub const fn get(&self) -> Option<&Layout<C>> {
+        match self {
+            LayoutSlot::Full(layout) => Some(layout),
+            LayoutSlot::Empty => None,
         }
     }
 }
 
-// The constructors below are not inlined: each builds its value in its
-// return place, so that a value is built on the stack at most once before it
-// is copied into the slot.
-
-#[inline(never)]
-fn new_room<const C: usize, const G: usize>(layout: &Layout<C>) -> Closed<C, G> {
-    Closed::Room(IntervalAcc::new(layout, 0))
+/// Storage for a logger's station, meant for a `static` (all zero bytes until
+/// started, so it lands in `.bss`; `#[repr(u64)]` as for [`LayoutSlot`]).
+#[repr(u64)]
+#[derive(Clone, Debug)]
+#[allow(clippy::large_enum_variant)]
+pub enum LoggerSlot<'a, const C: usize, const G: usize> {
+    /// Not started.
+    Empty,
+    /// A running station.
+    Full(LayoutStation<'a, C, G>),
 }
 
-#[inline(never)]
-fn new_slot<const C: usize, const G: usize>(layout: &Layout<C>) -> StationSlot<C, G> {
-    StationSlot::Full(new_station(layout))
+impl<const C: usize, const G: usize> Default for LoggerSlot<'_, C, G> {
+    fn default() -> Self {
+        Self::new()
+    }
 }
 
-#[inline(never)]
-fn new_station<const C: usize, const G: usize>(layout: &Layout<C>) -> Station<C, G> {
-    Station::new(*layout)
+impl<'a, const C: usize, const G: usize> LoggerSlot<'a, C, G> {
+    /// An empty slot.
+    pub const fn new() -> Self {
+        LoggerSlot::Empty
+    }
+
+    /// Starts a new logger of `layout` in the slot (replacing any earlier
+    /// one), writing frames for every channel (see [`Logger::with_active`]);
+    /// frame sequence numbers start at 0. `None` only if the slot could not be
+    /// filled (which does not happen).
+    pub fn start(&mut self, layout: &'a Layout<C>) -> Option<Logger<'_, 'a, C, G>> {
+        *self = new_slot(layout);
+        match self {
+            LoggerSlot::Full(station) => Some(Logger {
+                station,
+                layout,
+                active: C.min(255) as u8,
+                sequence: 0,
+            }),
+            LoggerSlot::Empty => None,
+        }
+    }
 }
 
-/// A running logger: a station in a [`LoggerSlot`] and the frame counter.
+/// Not inlined: builds the station in its return place, so that it is on
+/// the stack at most once before it is copied into the slot.
+#[inline(never)]
+fn new_slot<'a, const C: usize, const G: usize>(layout: &'a Layout<C>) -> LoggerSlot<'a, C, G> {
+    LoggerSlot::Full(Station::new(layout))
+}
+
+/// A running logger: a station in a [`LoggerSlot`], its layout and the frame
+/// counter.
 #[derive(Debug)]
-pub struct Logger<'a, const C: usize, const G: usize> {
-    station: &'a mut Station<C, G>,
-    /// A copy of the interval the last push closed ...
-    closed: &'a mut IntervalAcc<C, G>,
-    /// ... if its frames are still to be written.
-    pending: bool,
+pub struct Logger<'s, 'a, const C: usize, const G: usize> {
+    station: &'s mut LayoutStation<'a, C, G>,
+    layout: &'a Layout<C>,
     /// Frames are written for channels `0..active`.
     active: u8,
     sequence: u32,
 }
 
-impl<const C: usize, const G: usize> Logger<'_, C, G> {
+impl<'a, const C: usize, const G: usize> Logger<'_, 'a, C, G> {
     /// Writes frames only for the first `active` channels (at most `C`): a
     /// station of fewer channels than the logger's capacity.
     pub fn with_active(mut self, active: usize) -> Self {
@@ -175,7 +149,7 @@ impl<const C: usize, const G: usize> Logger<'_, C, G> {
     }
 
     /// The station.
-    pub fn station(&self) -> &Station<C, G> {
+    pub fn station(&self) -> &LayoutStation<'a, C, G> {
         self.station
     }
 
@@ -190,7 +164,8 @@ impl<const C: usize, const G: usize> Logger<'_, C, G> {
     }
 
     /// Adds one sample; every interval it closes goes to `write` as frames, in
-    /// channel order. Stops writing at the first error of `write` and returns it.
+    /// channel order, while the station hands it out. Stops writing at the
+    /// first error of `write` and returns it.
     ///
     /// Not inlined, so that its temporaries take stack only while it runs.
     #[inline(never)]
@@ -200,17 +175,16 @@ impl<const C: usize, const G: usize> Logger<'_, C, G> {
         readings: &[Reading; C],
         write: &mut impl FnMut(&[u8; FRAME_LEN]) -> Result<(), E>,
     ) -> Result<Pushed, E> {
-        // A push closes at most one interval. It is copied out of the callback
-        // and finished after the push, when the layout can be borrowed again.
-        let (closed, pending) = (&mut *self.closed, &mut self.pending);
-        let pushed = self.station.push(t, readings, |event| {
-            if let Event::Closed(acc) = event {
-                *closed = *acc;
-                *pending = true;
-            }
-        });
-        self.write_closed(write)?;
-        Ok(pushed)
+        let mut frames = Frames {
+            layout: self.layout,
+            active: self.active,
+            sequence: &mut self.sequence,
+            result: Ok(()),
+        };
+        let pushed = self
+            .station
+            .push(t, readings, |event| frames.event(event, write));
+        frames.result.map(|()| pushed)
     }
 
     /// Closes the open interval (end of data) and writes its frames.
@@ -219,47 +193,58 @@ impl<const C: usize, const G: usize> Logger<'_, C, G> {
         &mut self,
         write: &mut impl FnMut(&[u8; FRAME_LEN]) -> Result<(), E>,
     ) -> Result<(), E> {
-        let (closed, pending) = (&mut *self.closed, &mut self.pending);
-        self.station.close(|event| {
-            if let Event::Closed(acc) = event {
-                *closed = *acc;
-                *pending = true;
-            }
-        });
-        self.write_closed(write)
+        let mut frames = Frames {
+            layout: self.layout,
+            active: self.active,
+            sequence: &mut self.sequence,
+            result: Ok(()),
+        };
+        self.station.close(|event| frames.event(event, write));
+        frames.result
     }
+}
 
-    /// Writes one frame per active channel of the interval just closed, if
-    /// any. Intervals with no sample at all (gaps) write no frames.
+/// The frame writer of one push: what the station's callback needs, borrowed
+/// apart from the station.
+struct Frames<'f, 'a, const C: usize, E> {
+    layout: &'a Layout<C>,
+    active: u8,
+    sequence: &'f mut u32,
+    result: Result<(), E>,
+}
+
+impl<const C: usize, E> Frames<'_, '_, C, E> {
+    /// Writes one frame per active channel of a closed interval (after an
+    /// error, nothing more). Gaps (intervals with no sample at all) write no
+    /// frames.
     #[inline(never)]
-    fn write_closed<E>(
+    fn event<const G: usize>(
         &mut self,
+        event: Event<'_, C, G>,
         write: &mut impl FnMut(&[u8; FRAME_LEN]) -> Result<(), E>,
-    ) -> Result<(), E> {
-        if !self.pending {
-            return Ok(());
+    ) {
+        let Event::Closed(acc) = event else {
+            return;
+        };
+        if self.result.is_err() {
+            return;
         }
-        self.pending = false;
-        let acc = &*self.closed;
-        let layout = self.station.layout();
         let mut frame = [0u8; FRAME_LEN];
-        let mut result = Ok(());
-        for channel in 0..self.active() {
-            if let Some(record) = layout.finish(acc, channel) {
+        for channel in 0..usize::from(self.active) {
+            if let Some(record) = self.layout.finish(acc, channel) {
                 let f = RecordFrame {
-                    sequence: self.sequence,
-                    interval_start: layout.interval_start(acc.index()),
+                    sequence: *self.sequence,
+                    interval_start: self.layout.interval_start(acc.index()),
                     channel: channel as u8,
                     record,
                 };
                 wire::encode_record(&f, &mut frame);
-                result = write(&frame);
-                if result.is_err() {
-                    break;
+                self.result = write(&frame);
+                if self.result.is_err() {
+                    return;
                 }
-                self.sequence = self.sequence.wrapping_add(1);
+                *self.sequence = self.sequence.wrapping_add(1);
             }
         }
-        result
     }
 }

@@ -20,7 +20,7 @@ use qc_core::wire::{
 };
 use qc_core::{ChannelConfig, ConfigError, Kind, Layout, Pushed, Reading, StationConfig};
 
-use crate::logger::{Logger, LoggerSlot};
+use crate::logger::{LayoutSlot, Logger, LoggerSlot};
 
 /// Most channels the replay logger holds.
 pub const CAPACITY: usize = 8;
@@ -28,9 +28,11 @@ pub const CAPACITY: usize = 8;
 pub const GUST_CAPACITY: usize = 12;
 
 /// The replay logger.
-pub type ReplayLogger<'a> = Logger<'a, CAPACITY, GUST_CAPACITY>;
-/// Static storage for the replay logger.
-pub type ReplaySlot = LoggerSlot<CAPACITY, GUST_CAPACITY>;
+pub type ReplayLogger<'s, 'a> = Logger<'s, 'a, CAPACITY, GUST_CAPACITY>;
+/// Static storage for the replay logger's station (running state).
+pub type ReplaySlot<'a> = LoggerSlot<'a, CAPACITY, GUST_CAPACITY>;
+/// Static storage for the layout the replay logger builds from the file header.
+pub type ReplayLayoutSlot = LayoutSlot<CAPACITY>;
 
 /// Bytes read from the sample file at a time (must hold the longest frame and
 /// each part of the header).
@@ -244,11 +246,11 @@ fn build_layout(
     station: StationConfig,
     configs: &[ChannelConfig; CAPACITY],
 ) -> Result<Layout<CAPACITY>, ConfigError> {
-    Layout::new::<GUST_CAPACITY>(station, *configs)
+    Layout::new::<GUST_CAPACITY>(station, configs)
 }
 
 /// Reads the header and returns the core's layout of its station, built in
-/// the caller's place (this is the closure of `LoggerSlot::start_with`).
+/// the caller's place (this is the closure of `LayoutSlot::fill`).
 /// Header problems go to `header`, with a stand-in layout error that is never
 /// shown: converting the core's `Result<Layout, ConfigError>` into a result
 /// of another error type would copy the 2.4 KiB layout once more on the
@@ -272,31 +274,38 @@ fn header_layout<S: Source, W>(
     }
 }
 
-/// Reads the header and starts a logger for its station in `slot`.
+/// Reads the header, builds the layout of its station in `layouts` and starts
+/// a logger for it in `slot`.
 #[inline(never)]
-fn start<'a, S: Source, W>(
+fn start<'s, 'a, S: Source, W>(
     input: &mut Input<'_, S>,
-    slot: &'a mut ReplaySlot,
-) -> Result<ReplayLogger<'a>, ReplayError<S::Error, W>> {
+    layouts: &'a mut ReplayLayoutSlot,
+    slot: &'s mut ReplaySlot<'a>,
+) -> Result<ReplayLogger<'s, 'a>, ReplayError<S::Error, W>> {
     let mut header = Ok(0);
-    let started = slot.start_with(|| header_layout(input, &mut header));
+    let built = layouts.fill(|| header_layout(input, &mut header));
     let count = header?;
-    match started {
-        Ok(Some(logger)) => Ok(logger.with_active(usize::from(count))),
-        Err(e) => Err(ReplayError::Layout(e)),
-        // `start_with` fills the slot whenever the layout is good.
-        Ok(None) => Err(ReplayError::Capacity { channels: count }),
+    built.map_err(ReplayError::Layout)?;
+    let layouts: &'a ReplayLayoutSlot = layouts;
+    // `fill` filled both slots whenever the layout is good.
+    let not_filled = ReplayError::Capacity { channels: count };
+    let layout = layouts.get().ok_or(not_filled)?;
+    match slot.start(layout) {
+        Some(logger) => Ok(logger.with_active(usize::from(count))),
+        None => Err(ReplayError::Capacity { channels: count }),
     }
 }
 
-/// Replays the whole sample file from `source` into `sink`, with a logger for
-/// the file's station put in `slot` (the caller chooses where the logger
-/// lives: on a 16 KiB part, in static memory rather than on the stack).
+/// Replays the whole sample file from `source` into `sink`, with the layout of
+/// the file's station built in `layouts` and a logger for it in `slot` (the
+/// caller chooses where they live: on a 16 KiB part, in static memory rather
+/// than on the stack).
 #[inline(never)]
-pub fn replay<S: Source, K: Sink>(
+pub fn replay<'a, S: Source, K: Sink>(
     source: &mut S,
     sink: &mut K,
-    slot: &mut ReplaySlot,
+    layouts: &'a mut ReplayLayoutSlot,
+    slot: &mut ReplaySlot<'a>,
 ) -> Result<ReplaySummary, ReplayError<S::Error, K::Error>> {
     let mut input = Input {
         source,
@@ -306,7 +315,7 @@ pub fn replay<S: Source, K: Sink>(
         offset: 0,
         eof: false,
     };
-    let mut logger = start(&mut input, slot)?;
+    let mut logger = start(&mut input, layouts, slot)?;
     let n = logger.active();
     let mut summary = ReplaySummary {
         channels: n as u8,
@@ -439,8 +448,14 @@ mod tests {
 
     fn run(bytes: &[u8], chunk: usize) -> Result<(ReplaySummary, Vec<u8>), ReplayError<(), ()>> {
         let mut log = Vec::new();
+        let mut layouts = ReplayLayoutSlot::new();
         let mut slot = ReplaySlot::new();
-        let s = replay(&mut Slice { bytes, chunk }, &mut log, &mut slot)?;
+        let s = replay(
+            &mut Slice { bytes, chunk },
+            &mut log,
+            &mut layouts,
+            &mut slot,
+        )?;
         Ok((s, log))
     }
 
@@ -467,7 +482,8 @@ mod tests {
         let (s, log) = run(&f, 100).unwrap();
         assert_eq!(s.channels, 3);
         let layout =
-            Layout::new::<GUST_CAPACITY>(scenario::station(), [cfgs[0], cfgs[1], cfgs[2]]).unwrap();
+            Layout::new::<GUST_CAPACITY>(scenario::station(), &[cfgs[0], cfgs[1], cfgs[2]])
+                .unwrap();
         let mut st: Station<3, GUST_CAPACITY> = Station::new(layout);
         let mut want = Vec::new();
         let mut on = |e: Event<'_, 3, GUST_CAPACITY>| {

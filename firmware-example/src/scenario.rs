@@ -58,21 +58,22 @@ pub const fn station() -> StationConfig {
     StationConfig::ten_minute_1hz()
 }
 
+/// A cup anemometer of the scenario, screened against its `partner`.
+const fn cup(partner: usize) -> ChannelConfig {
+    let mut s = Screen::for_kind(Kind::Speed);
+    s.partner = Some(partner as u8);
+    s.icing = Some(Icing::new(TEMPERATURE as u8, HUMIDITY as u8));
+    ChannelConfig::speed(1.0)
+        .with_calibration(CUP_SLOPE, CUP_OFFSET)
+        .with_screen(s)
+}
+
 /// The scenario's channels.
-pub fn channels() -> [ChannelConfig; CHANNELS] {
-    let icing = Some(Icing::new(TEMPERATURE as u8, HUMIDITY as u8));
-    let cup = |partner: usize| {
-        let mut s = Screen::for_kind(Kind::Speed);
-        s.partner = Some(partner as u8);
-        s.icing = icing;
-        ChannelConfig::speed(1.0)
-            .with_calibration(CUP_SLOPE, CUP_OFFSET)
-            .with_screen(s)
-    };
+pub const CHANNEL_CONFIGS: [ChannelConfig; CHANNELS] = {
     let mut low = Screen::for_kind(Kind::Speed);
     low.above = Some(TOP_A as u8);
     let mut vane = Screen::for_kind(Kind::Direction);
-    vane.icing = icing;
+    vane.icing = Some(Icing::new(TEMPERATURE as u8, HUMIDITY as u8));
     [
         cup(TOP_B),
         cup(TOP_A),
@@ -86,22 +87,33 @@ pub fn channels() -> [ChannelConfig; CHANNELS] {
         ChannelConfig::scalar(0.1).with_range(500.0, 1100.0),
         ChannelConfig::scalar(0.001).with_range(0.0, 20.0),
     ]
+};
+
+/// The scenario's channels (a copy of [`CHANNEL_CONFIGS`]).
+pub fn channels() -> [ChannelConfig; CHANNELS] {
+    CHANNEL_CONFIGS
 }
 
-/// The scenario's station layout.
-#[inline(never)]
+/// The scenario's station layout, validated at compile time (a configuration
+/// the core refuses does not build) and kept in flash.
+pub static LAYOUT: Layout<CHANNELS> = match Layout::new::<GUST>(station(), &CHANNEL_CONFIGS) {
+    Ok(layout) => layout,
+    Err(_) => panic!("the scenario's station configuration is refused by qc-core"),
+};
+
+/// The scenario's station layout, validated at run time (the same as [`LAYOUT`]).
 pub fn layout() -> Result<Layout<CHANNELS>, ConfigError> {
-    Layout::new::<GUST>(station(), channels())
+    Layout::new::<GUST>(station(), &CHANNEL_CONFIGS)
 }
 
 /// The scenario's logger: the station above, a frame for every channel.
-pub type Logger<'a> = crate::logger::Logger<'a, CHANNELS, GUST>;
+pub type Logger<'s> = crate::logger::Logger<'s, 'static, CHANNELS, GUST>;
 
 /// Static storage for the scenario's [`Logger`].
-pub type LoggerSlot = crate::logger::LoggerSlot<CHANNELS, GUST>;
+pub type LoggerSlot = crate::logger::LoggerSlot<'static, CHANNELS, GUST>;
 
-/// A new logger of the scenario's layout, started in `slot`; `None` if the
-/// layout is refused (a bug in [`layout`], which the host tests would show).
+/// A new logger of the scenario's layout ([`LAYOUT`], in flash), started in
+/// `slot`; `None` only if the slot could not be filled (which does not happen).
 pub fn start_in(slot: &mut LoggerSlot) -> Option<Logger<'_>> {
-    slot.start_with(layout).ok().flatten()
+    slot.start(&LAYOUT)
 }

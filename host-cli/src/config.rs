@@ -706,7 +706,7 @@ impl StationFile {
                 .get(i)
                 .map_or(ChannelConfig::scalar(1.0), |c| c.core)
         });
-        Layout::new::<GUST_CAPACITY>(self.station, cfgs).map_err(|e| self.config_error(e))
+        Layout::new::<GUST_CAPACITY>(self.station, &cfgs).map_err(|e| self.config_error(e))
     }
 
     fn config_error(&self, e: ConfigError) -> anyhow::Error {

@@ -188,9 +188,11 @@ impl replay::Sink for Log {
 
 /// The firmware's replay of a sample file: its record log.
 fn firmware_replay(tmsf: &[u8]) -> Result<Vec<u8>, String> {
+    let mut layouts = Box::new(replay::ReplayLayoutSlot::new());
     let mut slot = Box::new(replay::ReplaySlot::new());
     let mut log = Log(Vec::new());
-    replay::replay(&mut Bytes(tmsf), &mut log, &mut slot).map_err(|e| e.to_string())?;
+    replay::replay(&mut Bytes(tmsf), &mut log, &mut layouts, &mut slot)
+        .map_err(|e| e.to_string())?;
     Ok(log.0)
 }
 

@@ -42,7 +42,7 @@ const T0: i64 = INDEX * 600_000;
 fn layout() -> Layout<C> {
     Layout::new::<G>(
         StationConfig::ten_minute_1hz(),
-        [
+        &[
             ChannelConfig::speed(0.01),
             ChannelConfig::direction().with_speed_channel(0),
             ChannelConfig::direction(),

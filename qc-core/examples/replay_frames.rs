@@ -233,9 +233,11 @@ impl replay::Sink for Log {
 /// Replays a sample file through the firmware's replay loop; returns the record log.
 fn replay(path: &str) -> Result<Vec<u8>, String> {
     let bytes = fs::read(path).map_err(|e| format!("{path}: {e}"))?;
+    let mut layouts = Box::new(replay::ReplayLayoutSlot::new());
     let mut slot = Box::new(replay::ReplaySlot::new());
     let mut log = Log(Vec::new());
-    replay::replay(&mut Bytes(&bytes), &mut log, &mut slot).map_err(|e| format!("{path}: {e}"))?;
+    replay::replay(&mut Bytes(&bytes), &mut log, &mut layouts, &mut slot)
+        .map_err(|e| format!("{path}: {e}"))?;
     Ok(log.0)
 }
 

@@ -7,6 +7,7 @@
 //! offset. From there on everything is integer arithmetic until
 //! [`ChannelAcc::finish`]. No function in this module panics on any input.
 
+use crate::cmath;
 use crate::direction::{DirectionSums, ResultantSums};
 use crate::error::ChannelProblem;
 use crate::flags::Flags;
@@ -71,12 +72,16 @@ impl Scale {
     }
 
     /// `1/step` when it is a whole number up to 2^20.
-    fn inverse(&self) -> Option<f64> {
+    const fn inverse(&self) -> Option<f64> {
         if self.step > 1.0 {
             return None;
         }
-        let inv = libm::round(1.0 / self.step);
-        (inv <= 1_048_576.0 && libm::fabs(inv * self.step - 1.0) < 1e-12).then_some(inv)
+        let inv = cmath::round(1.0 / self.step);
+        if inv <= 1_048_576.0 && (inv * self.step - 1.0).abs() < 1e-12 {
+            Some(inv)
+        } else {
+            None
+        }
     }
 }
 
@@ -231,6 +236,61 @@ pub(crate) enum Class {
 
 const Q_LIMIT: f64 = 2_147_483_000.0;
 
+const fn max_i64(a: i64, b: i64) -> i64 {
+    if a > b {
+        a
+    } else {
+        b
+    }
+}
+
+const fn min_i64(a: i64, b: i64) -> i64 {
+    if a < b {
+        a
+    } else {
+        b
+    }
+}
+
+/// Whether a pair is absent or ordered (`a <= b`, so neither is NaN).
+const fn ordered(r: Option<(f64, f64)>) -> bool {
+    match r {
+        Some((a, b)) => a <= b,
+        None => true,
+    }
+}
+
+/// Whether the screening settings are usable (no NaN, no negative tolerance,
+/// ordered ranges, a recovery fraction within 0 to 1).
+const fn screen_valid(sc: &Screen) -> bool {
+    let tolerances = [
+        sc.flat_tolerance,
+        sc.pair_mean_diff,
+        sc.pair_max_diff,
+        sc.shear_tolerance,
+    ];
+    let mut i = 0;
+    while i < tolerances.len() {
+        if tolerances[i].is_nan() || tolerances[i] < 0.0 {
+            return false;
+        }
+        i += 1;
+    }
+    let gust_ok = match sc.gust_max {
+        Some(g) => !g.is_nan(),
+        None => true,
+    };
+    let recovery_ok = match sc.min_recovery {
+        Some(m) => m >= 0.0 && m <= 1.0,
+        None => true,
+    };
+    let icing_ok = match sc.icing {
+        Some(i) => !i.max_temperature.is_nan() && !i.min_humidity.is_nan(),
+        None => true,
+    };
+    ordered(sc.mean_range) && ordered(sc.sd_range) && gust_ok && recovery_ok && icing_ok
+}
+
 impl Channel {
     /// A placeholder for array initialisation; always overwritten.
     pub(crate) const fn placeholder() -> Self {
@@ -251,7 +311,11 @@ impl Channel {
     }
 
     /// Validates a configuration. `gust_capacity` is the station's `G`.
-    pub(crate) fn new(cfg: ChannelConfig, gust_capacity: usize) -> Result<Self, ChannelProblem> {
+    /// A `const fn`, so that a layout can be checked at compile time.
+    pub(crate) const fn new(
+        cfg: ChannelConfig,
+        gust_capacity: usize,
+    ) -> Result<Self, ChannelProblem> {
         let Scale { offset, step } = cfg.scale;
         if !(step.is_finite() && step > 0.0 && offset.is_finite()) {
             return Err(ChannelProblem::Scale);
@@ -260,8 +324,8 @@ impl Channel {
         if !(lo.is_finite() && hi.is_finite() && lo <= hi) {
             return Err(ChannelProblem::Range);
         }
-        let lo_q = libm::ceil((lo - offset) / step);
-        let hi_q = libm::floor((hi - offset) / step);
+        let lo_q = cmath::ceil((lo - offset) / step);
+        let hi_q = cmath::floor((hi - offset) / step);
         if !(lo_q >= -Q_LIMIT && hi_q <= Q_LIMIT) {
             return Err(ChannelProblem::RangeTooWide);
         }
@@ -284,63 +348,48 @@ impl Channel {
             if !(l.is_finite() && l >= 0.0) {
                 return Err(ChannelProblem::Screen);
             }
-            let q = if cfg.kind == Kind::Direction {
+            let q = if matches!(cfg.kind, Kind::Direction) {
                 l * 100.0
             } else {
                 l / step
             };
-            ch.step_q = Some(libm::floor(q.min(1e15)) as i64);
+            ch.step_q = Some(cmath::floor(q.min(1e15)) as i64);
         }
-        let finite_pair = |r: Option<(f64, f64)>| r.is_none_or(|(a, b)| a <= b);
-        if !finite_pair(sc.mean_range)
-            || !finite_pair(sc.sd_range)
-            || sc.gust_max.is_some_and(f64::is_nan)
-            || sc.min_recovery.is_some_and(|m| !(0.0..=1.0).contains(&m))
-            || [
-                sc.flat_tolerance,
-                sc.pair_mean_diff,
-                sc.pair_max_diff,
-                sc.shear_tolerance,
-            ]
-            .iter()
-            .any(|v| v.is_nan() || *v < 0.0)
-            || sc
-                .icing
-                .is_some_and(|i| i.max_temperature.is_nan() || i.min_humidity.is_nan())
-        {
+        if !screen_valid(sc) {
             return Err(ChannelProblem::Screen);
         }
         match cfg.kind {
             Kind::Speed => {
-                let w = usize::from(cfg.gust_window);
+                let w = cfg.gust_window as usize;
                 if w == 0 || w > gust_capacity {
                     return Err(ChannelProblem::GustWindow);
                 }
                 // Gust window sums are i32 (crate::gust): any `w` quanta in range
                 // (+/-1 for the rounding of values) must sum within it.
-                let widest = i64::from(ch.lo_k).abs().max(i64::from(ch.hi_k).abs()) + 1;
-                if widest * w as i64 > i64::from(i32::MAX) {
+                let widest = max_i64((ch.lo_k as i64).abs(), (ch.hi_k as i64).abs()) + 1;
+                if widest * w as i64 > i32::MAX as i64 {
                     return Err(ChannelProblem::RangeTooWide);
                 }
             }
             Kind::Direction => {
-                if libm::fabs(lo) > 1e6 || libm::fabs(hi) > 1e6 {
+                if lo.abs() > 1e6 || hi.abs() > 1e6 {
                     return Err(ChannelProblem::RangeTooWide);
                 }
                 if step > 300.0 {
                     return Err(ChannelProblem::DirectionSlope);
                 }
-                if !cfg.mounting_offset_deg.is_finite() {
+                let mount = cfg.mounting_offset_deg;
+                if !(mount.is_finite() && mount.abs() <= 360.0) {
                     return Err(ChannelProblem::MountingOffset);
                 }
-                ch.dir_mul = libm::round(step * 100.0 * 65_536.0) as i64;
-                ch.dir_add = libm::round(offset * 100.0 * 65_536.0) as i64 + (1 << 15);
-                if ch.dir_mul > 0 && (0..1 << 32).contains(&ch.dir_add) {
-                    let k = i64::from(u32::MAX) / ch.dir_mul;
-                    ch.dir_fast_k = k.min(i64::from(ch.hi_k)).min(i64::from(i32::MAX)) as i32;
+                ch.dir_mul = cmath::round(step * 100.0 * 65_536.0) as i64;
+                ch.dir_add = cmath::round(offset * 100.0 * 65_536.0) as i64 + (1 << 15);
+                if ch.dir_mul > 0 && ch.dir_add >= 0 && ch.dir_add < 1 << 32 {
+                    let k = u32::MAX as i64 / ch.dir_mul;
+                    ch.dir_fast_k = min_i64(min_i64(k, ch.hi_k as i64), i32::MAX as i64) as i32;
                 }
-                let off = libm::round(libm::fmod(cfg.mounting_offset_deg, 360.0) * 100.0);
-                ch.offset_cd = off as i32;
+                // Within one turn either way; a whole turn is 0 once wrapped.
+                ch.offset_cd = cmath::round(mount * 100.0) as i32;
             }
             Kind::Scalar => {}
         }
@@ -424,14 +473,27 @@ impl Channel {
 
     /// Records whether any of the station's missing-value codes lies in this
     /// channel's valid range (set by [`crate::Layout::new`]).
-    pub(crate) fn note_codes(&mut self, sentinels: &crate::Sentinels) {
+    pub(crate) const fn note_codes(&mut self, sentinels: &crate::Sentinels) {
         let (lo, hi) = self.cfg.range;
-        self.code_in_counts = sentinels
-            .counts()
-            .iter()
-            .any(|&k| k >= self.lo_k && k <= self.hi_k);
-        self.code_in_values = sentinels.values().iter().any(|&v| v >= lo && v <= hi);
-        self.plain_counts = !self.code_in_counts && self.cfg.kind != Kind::Direction;
+        let counts = sentinels.counts();
+        let values = sentinels.values();
+        self.code_in_counts = false;
+        self.code_in_values = false;
+        let mut i = 0;
+        while i < counts.len() {
+            if counts[i] >= self.lo_k && counts[i] <= self.hi_k {
+                self.code_in_counts = true;
+            }
+            i += 1;
+        }
+        let mut i = 0;
+        while i < values.len() {
+            if values[i] >= lo && values[i] <= hi {
+                self.code_in_values = true;
+            }
+            i += 1;
+        }
+        self.plain_counts = !self.code_in_counts && !matches!(self.cfg.kind, Kind::Direction);
     }
 
     fn wrap_cd(&self, cd: i64) -> i32 {
@@ -574,6 +636,18 @@ pub enum ChannelAcc<const G: usize> {
 }
 
 impl<const G: usize> ChannelAcc<G> {
+    /// A stand-in (an empty scalar) for array initialisation; replaced by
+    /// [`ChannelAcc::new`] before use.
+    pub(crate) const EMPTY: Self = ChannelAcc::Scalar(ScalarAcc {
+        tally: Tally {
+            valid: 0,
+            missing: 0,
+            out_of_range: 0,
+            rejected: 0,
+        },
+        moments: Moments::new(),
+    });
+
     /// An empty accumulator for `ch`.
     pub(crate) fn new(ch: &Channel) -> Self {
         let tally = Tally::default();

@@ -9,7 +9,8 @@ use core::fmt;
 pub enum ConfigError {
     /// The interval is 0 or does not divide a day (86,400 s) evenly.
     Interval,
-    /// Samples per interval is 0 or above [`crate::MAX_SAMPLES_PER_INTERVAL`].
+    /// Samples per interval is 0, above [`crate::MAX_SAMPLES_PER_INTERVAL`], or
+    /// more than one per millisecond of the interval.
     SampleCount,
     /// More than [`crate::MAX_SENTINELS`] missing-value codes, or a NaN code.
     Sentinels,
@@ -77,7 +78,7 @@ impl fmt::Display for ConfigError {
             }
             ConfigError::SampleCount => write!(
                 f,
-                "samples per interval must be 1 to {}",
+                "samples per interval must be 1 to {}, and at most one per millisecond",
                 crate::MAX_SAMPLES_PER_INTERVAL
             ),
             ConfigError::Sentinels => write!(

@@ -72,16 +72,75 @@ impl Totals {
     }
 }
 
+/// Totals of one calendar month in 32 bits where that always suffices: a
+/// month has fewer than 2^32 milliseconds, and a station accepts at most one
+/// sample per millisecond (strictly increasing timestamps) and expects at most
+/// one ([`crate::Layout::new`] refuses more samples per interval than its
+/// milliseconds). Rejected samples have no such bound, but an interval counts
+/// them in 32 bits already ([`Tally`]). The adds saturate, so that a caller
+/// outside those bounds gets a capped count, never a wrapped one or a panic.
+#[derive(Clone, Copy, Debug, Default, PartialEq, Eq, Hash)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+struct MonthTotals {
+    rejected: u32,
+    possible: u32,
+    valid: u32,
+    missing: u32,
+    out_of_range: u32,
+    intervals: u32,
+    passed: u32,
+}
+
+impl MonthTotals {
+    const ZERO: MonthTotals = MonthTotals {
+        rejected: 0,
+        possible: 0,
+        valid: 0,
+        missing: 0,
+        out_of_range: 0,
+        intervals: 0,
+        passed: 0,
+    };
+
+    fn add(&mut self, possible: u32, t: &Tally, passed: bool) {
+        self.intervals = self.intervals.saturating_add(1);
+        self.passed = self.passed.saturating_add(u32::from(passed));
+        self.possible = self.possible.saturating_add(possible);
+        self.valid = self.valid.saturating_add(t.valid);
+        self.missing = self.missing.saturating_add(t.missing);
+        self.out_of_range = self.out_of_range.saturating_add(t.out_of_range);
+        self.rejected = self.rejected.saturating_add(t.rejected);
+    }
+
+    fn add_empty(&mut self, intervals: u64, possible: u32) {
+        let n = u32::try_from(intervals).unwrap_or(u32::MAX);
+        self.intervals = self.intervals.saturating_add(n);
+        self.possible = self.possible.saturating_add(n.saturating_mul(possible));
+    }
+
+    const fn totals(&self) -> Totals {
+        Totals {
+            possible: self.possible as u64,
+            valid: self.valid as u64,
+            missing: self.missing as u64,
+            out_of_range: self.out_of_range as u64,
+            rejected: self.rejected as u64,
+            intervals: self.intervals as u64,
+            passed: self.passed as u64,
+        }
+    }
+}
+
 /// Running recovery of one channel: totals since start and for the month of
-/// the latest interval.
+/// the latest interval (88 bytes).
 #[derive(Clone, Copy, Debug, Default, PartialEq, Eq, Hash)]
 #[cfg_attr(feature = "defmt", derive(defmt::Format))]
 pub struct Recovery {
     /// Since the first interval.
     pub since_start: Totals,
-    /// For the calendar month of the latest interval.
-    pub this_month: Totals,
-    month: Option<Month>,
+    month_totals: MonthTotals,
+    /// `year * 12 + month - 1` of the month counted, plus 1; 0 before any.
+    month_key: u32,
 }
 
 impl Recovery {
@@ -97,28 +156,36 @@ impl Recovery {
                 intervals: 0,
                 passed: 0,
             },
-            this_month: Totals {
-                possible: 0,
-                valid: 0,
-                missing: 0,
-                out_of_range: 0,
-                rejected: 0,
-                intervals: 0,
-                passed: 0,
-            },
-            month: None,
+            month_totals: MonthTotals::ZERO,
+            month_key: 0,
         }
     }
 
-    /// The month `this_month` counts, if any interval was added.
+    /// For the calendar month of the latest interval ([`Recovery::month`]).
+    pub const fn this_month(&self) -> Totals {
+        self.month_totals.totals()
+    }
+
+    /// The month [`Recovery::this_month`] counts, if any interval was added.
     pub const fn month(&self) -> Option<Month> {
-        self.month
+        match self.month_key {
+            0 => None,
+            k => {
+                let k = k - 1;
+                Some(Month {
+                    year: (k / 12) as i32,
+                    month: (k % 12) as u8 + 1,
+                })
+            }
+        }
     }
 
     fn enter_month(&mut self, m: Month) {
-        if self.month != Some(m) {
-            self.month = Some(m);
-            self.this_month = Totals::default();
+        // Supported years are 0 to 9999 (crate::Timestamp).
+        let key = (m.year.max(0) as u32) * 12 + u32::from(m.month.saturating_sub(1)) + 1;
+        if self.month_key != key {
+            self.month_key = key;
+            self.month_totals = MonthTotals::ZERO;
         }
     }
 
@@ -132,7 +199,7 @@ impl Recovery {
     pub fn add_interval_in(&mut self, month: Month, possible: u32, t: &Tally, passed: bool) {
         self.since_start.add(possible, t, passed);
         self.enter_month(month);
-        self.this_month.add(possible, t, passed);
+        self.month_totals.add(possible, t, passed);
     }
 
     /// Adds `count` intervals with no samples at all, the first starting at
@@ -148,8 +215,7 @@ impl Recovery {
         let from = first.millis().max(month.start().millis());
         let in_month = ((last - from) / interval_ms + 1) as u64;
         self.enter_month(month);
-        self.this_month.possible += in_month * u64::from(possible);
-        self.this_month.intervals += in_month;
+        self.month_totals.add_empty(in_month, possible);
     }
 }
 
@@ -183,11 +249,11 @@ mod tests {
         let first = Timestamp::from_millis(at(2024, 1, 31, 23).millis() + 600_000);
         r.add_gap(first, 11, 600_000, 600);
         assert_eq!(r.since_start.possible, 12 * 600);
-        assert_eq!(r.this_month.possible, 6 * 600);
+        assert_eq!(r.this_month().possible, 6 * 600);
         assert_eq!(r.month().unwrap().month, 2);
         r.add_interval(at(2024, 2, 1, 1), 600, &tally, false);
-        assert_eq!(r.this_month.possible, 7 * 600);
-        assert_eq!(r.this_month.valid, 600);
+        assert_eq!(r.this_month().possible, 7 * 600);
+        assert_eq!(r.this_month().valid, 600);
     }
 
     #[test]

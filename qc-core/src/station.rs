@@ -20,17 +20,23 @@
 //!
 //! Nothing here panics, whatever the input.
 
-use crate::channel::{Channel, ChannelAcc, ChannelConfig, ChannelRecord, Reading};
+use crate::channel::{Channel, ChannelAcc, ChannelConfig, ChannelRecord, Kind, Reading};
+use crate::cmath;
 use crate::error::{ChannelProblem, ConfigError};
 use crate::flags::Flags;
 use crate::recovery::Recovery;
 use crate::screen::{interval_flags, passes, Screener, Spikes};
 use crate::time::{Month, Timestamp};
+use core::borrow::Borrow;
+
+/// "No time yet" in a millisecond field: below every supported timestamp.
+const NONE_MS: i64 = i64::MIN;
 
 /// Most missing-value codes a station may have.
 pub const MAX_SENTINELS: usize = 4;
 
-/// Most samples per interval (2^24: 10-minute intervals at up to 27 kHz).
+/// Most samples per interval (2^24: 10-minute intervals at up to 27 kHz; and
+/// never more than one per millisecond of the interval).
 pub const MAX_SAMPLES_PER_INTERVAL: u32 = 1 << 24;
 
 /// Station-wide settings.
@@ -67,23 +73,27 @@ pub struct Sentinels {
 }
 
 impl Sentinels {
-    pub(crate) fn new(codes: &[Option<f64>; MAX_SENTINELS]) -> Result<Self, ConfigError> {
+    pub(crate) const fn new(codes: &[Option<f64>; MAX_SENTINELS]) -> Result<Self, ConfigError> {
         let mut s = Sentinels {
             values: [0.0; MAX_SENTINELS],
             counts: [0; MAX_SENTINELS],
             n_values: 0,
             n_counts: 0,
         };
-        for v in codes.iter().flatten() {
-            if v.is_nan() {
-                return Err(ConfigError::Sentinels);
+        let mut i = 0;
+        while i < MAX_SENTINELS {
+            if let Some(v) = codes[i] {
+                if v.is_nan() {
+                    return Err(ConfigError::Sentinels);
+                }
+                s.values[s.n_values as usize] = v;
+                s.n_values += 1;
+                if cmath::trunc(v) == v && v >= i32::MIN as f64 && v <= i32::MAX as f64 {
+                    s.counts[s.n_counts as usize] = v as i32;
+                    s.n_counts += 1;
+                }
             }
-            s.values[usize::from(s.n_values)] = *v;
-            s.n_values += 1;
-            if libm::trunc(*v) == *v && *v >= f64::from(i32::MIN) && *v <= f64::from(i32::MAX) {
-                s.counts[usize::from(s.n_counts)] = *v as i32;
-                s.n_counts += 1;
-            }
+            i += 1;
         }
         Ok(s)
     }
@@ -95,19 +105,30 @@ impl Sentinels {
     }
 
     /// The codes as values.
-    pub fn values(&self) -> &[f64] {
-        &self.values[..usize::from(self.n_values)]
+    pub const fn values(&self) -> &[f64] {
+        self.values.split_at(self.n_values as usize).0
     }
 
     /// The codes that are whole numbers within `i32`, as counts.
-    pub fn counts(&self) -> &[i32] {
-        &self.counts[..usize::from(self.n_counts)]
+    pub const fn counts(&self) -> &[i32] {
+        self.counts.split_at(self.n_counts as usize).0
     }
 
     /// Whether raw counts `k` equal a missing-value code.
     #[inline]
     pub fn matches_counts(&self, k: i32) -> bool {
         self.counts[..usize::from(self.n_counts)].contains(&k)
+    }
+}
+
+/// Whether channel `idx` (if any) exists among `channels` and is of `kind`.
+const fn link_is(channels: &[ChannelConfig], idx: Option<u8>, kind: Kind) -> bool {
+    match idx {
+        None => true,
+        Some(j) => {
+            let j = j as usize;
+            j < channels.len() && channels[j].kind as u8 == kind as u8
+        }
     }
 }
 
@@ -126,9 +147,24 @@ pub struct Layout<const C: usize> {
 impl<const C: usize> Layout<C> {
     /// Validates a station. `G` is the gust-window capacity, in samples, of the
     /// [`Station`] or [`IntervalAcc`] that will use the layout.
-    pub fn new<const G: usize>(
+    ///
+    /// A `const fn`: a logger with a fixed configuration can validate it at
+    /// compile time and keep the layout in flash,
+    ///
+    /// ```
+    /// use qc_core::{ChannelConfig, Layout, StationConfig};
+    /// static LAYOUT: Layout<2> = match Layout::new::<3>(
+    ///     StationConfig::ten_minute_1hz(),
+    ///     &[ChannelConfig::speed(0.01), ChannelConfig::direction()],
+    /// ) {
+    ///     Ok(layout) => layout,
+    ///     Err(_) => panic!("invalid station"),
+    /// };
+    /// assert_eq!(LAYOUT.interval_ms(), 600_000);
+    /// ```
+    pub const fn new<const G: usize>(
         station: StationConfig,
-        channels: [ChannelConfig; C],
+        channels: &[ChannelConfig; C],
     ) -> Result<Self, ConfigError> {
         if C > 255 {
             return Err(ConfigError::TooManyChannels);
@@ -137,50 +173,57 @@ impl<const C: usize> Layout<C> {
             return Err(ConfigError::Interval);
         }
         let n = station.samples_per_interval;
-        if n == 0 || n > MAX_SAMPLES_PER_INTERVAL {
+        // Timestamps are whole milliseconds, so at most one sample per ms.
+        if n == 0 || n > MAX_SAMPLES_PER_INTERVAL || n as u64 > station.interval_s as u64 * 1000 {
             return Err(ConfigError::SampleCount);
         }
-        let sentinels = Sentinels::new(&station.missing_values)?;
+        let sentinels = match Sentinels::new(&station.missing_values) {
+            Ok(s) => s,
+            Err(e) => return Err(e),
+        };
         let mut out = [Channel::placeholder(); C];
-        for (i, (slot, cfg)) in out.iter_mut().zip(channels.iter()).enumerate() {
+        let mut i = 0;
+        while i < C {
             let index = i as u8;
-            *slot =
-                Channel::new(*cfg, G).map_err(|problem| ConfigError::Channel { index, problem })?;
-            slot.note_codes(&sentinels);
-            let is = |idx: Option<u8>, kind: crate::Kind| {
-                idx.is_none_or(|j| channels.get(usize::from(j)).is_some_and(|c| c.kind == kind))
+            let cfg = &channels[i];
+            out[i] = match Channel::new(*cfg, G) {
+                Ok(ch) => ch,
+                Err(problem) => return Err(ConfigError::Channel { index, problem }),
             };
+            out[i].note_codes(&sentinels);
             let sc = &cfg.screen;
-            let links_ok = is(sc.partner, crate::Kind::Speed)
-                && is(sc.above, crate::Kind::Speed)
-                && sc.icing.is_none_or(|ice| {
-                    is(Some(ice.temperature), crate::Kind::Scalar)
-                        && is(Some(ice.humidity), crate::Kind::Scalar)
-                });
-            if !links_ok {
+            let icing_ok = match sc.icing {
+                Some(ice) => {
+                    link_is(channels, Some(ice.temperature), Kind::Scalar)
+                        && link_is(channels, Some(ice.humidity), Kind::Scalar)
+                }
+                None => true,
+            };
+            if !(link_is(channels, sc.partner, Kind::Speed)
+                && link_is(channels, sc.above, Kind::Speed)
+                && icing_ok)
+            {
                 return Err(ConfigError::Channel {
                     index,
                     problem: ChannelProblem::ScreenLink,
                 });
             }
-            if let Some(s) = cfg.speed_channel {
-                let ok = channels
-                    .get(usize::from(s))
-                    .is_some_and(|c| c.kind == crate::Kind::Speed)
-                    && cfg.kind == crate::Kind::Direction;
-                if !ok {
-                    return Err(ConfigError::Channel {
-                        index,
-                        problem: ChannelProblem::SpeedLink,
-                    });
-                }
+            if cfg.speed_channel.is_some()
+                && !(link_is(channels, cfg.speed_channel, Kind::Speed)
+                    && matches!(cfg.kind, Kind::Direction))
+            {
+                return Err(ConfigError::Channel {
+                    index,
+                    problem: ChannelProblem::SpeedLink,
+                });
             }
+            i += 1;
         }
-        let interval_ms = i64::from(station.interval_s) * 1000;
+        let interval_ms = station.interval_s as i64 * 1000;
         Ok(Layout {
             interval_ms,
             samples: n,
-            max_step_ms: 3 * interval_ms / (2 * i64::from(n)),
+            max_step_ms: 3 * interval_ms / (2 * n as i64),
             sentinels,
             channels: out,
         })
@@ -272,8 +315,9 @@ impl<const C: usize> Layout<C> {
 #[cfg_attr(feature = "defmt", derive(defmt::Format))]
 pub struct IntervalAcc<const C: usize, const G: usize> {
     index: i64,
-    first: Option<Timestamp>,
-    last: Option<Timestamp>,
+    /// First and last accepted sample times, ms; [`NONE_MS`] before any.
+    first: i64,
+    last: i64,
     channels: [ChannelAcc<G>; C],
     spikes: [Spikes; C],
     flags: [Flags; C],
@@ -284,10 +328,23 @@ impl<const C: usize, const G: usize> IntervalAcc<C, G> {
     pub fn new(layout: &Layout<C>, index: i64) -> Self {
         IntervalAcc {
             index,
-            first: None,
-            last: None,
+            first: NONE_MS,
+            last: NONE_MS,
             channels: core::array::from_fn(|i| ChannelAcc::new(&layout.channels[i])),
             spikes: [Spikes::default(); C],
+            flags: [Flags::EMPTY; C],
+        }
+    }
+
+    /// A stand-in before the first interval (channels of no kind yet); a
+    /// [`Station`] resets it for the first interval it opens.
+    const fn placeholder() -> Self {
+        IntervalAcc {
+            index: 0,
+            first: NONE_MS,
+            last: NONE_MS,
+            channels: [ChannelAcc::EMPTY; C],
+            spikes: [Spikes::EMPTY; C],
             flags: [Flags::EMPTY; C],
         }
     }
@@ -299,9 +356,13 @@ impl<const C: usize, const G: usize> IntervalAcc<C, G> {
 
     /// First and last accepted sample times, if any sample was accepted.
     pub const fn span(&self) -> Option<(Timestamp, Timestamp)> {
-        match (self.first, self.last) {
-            (Some(a), Some(b)) => Some((a, b)),
-            _ => None,
+        if self.first == NONE_MS {
+            None
+        } else {
+            Some((
+                Timestamp::from_millis(self.first),
+                Timestamp::from_millis(self.last),
+            ))
         }
     }
 
@@ -313,14 +374,14 @@ impl<const C: usize, const G: usize> IntervalAcc<C, G> {
     /// Adds one accepted sample at `t` (the caller keeps `t` increasing and within
     /// this interval; [`Station::push`] does).
     pub fn push(&mut self, layout: &Layout<C>, t: Timestamp, readings: &[Reading; C]) {
-        let broken = match self.last {
-            Some(last) => layout.is_gap(t.millis().saturating_sub(last.millis())),
-            None => {
-                self.first = Some(t);
-                false
-            }
+        let ms = t.millis();
+        let broken = if self.last == NONE_MS {
+            self.first = ms;
+            false
+        } else {
+            layout.is_gap(ms.saturating_sub(self.last))
         };
-        self.last = Some(t);
+        self.last = ms;
         let sentinels = &layout.sentinels;
         // One pass over the channels (a Cortex-M0 pays for every extra load and
         // store); a direction linked to a speed classifies that speed's reading
@@ -353,8 +414,8 @@ impl<const C: usize, const G: usize> IntervalAcc<C, G> {
     /// [`IntervalAcc::new`] would make it.
     pub fn reset(&mut self, layout: &Layout<C>, index: i64) {
         self.index = index;
-        self.first = None;
-        self.last = None;
+        self.first = NONE_MS;
+        self.last = NONE_MS;
         for (acc, ch) in self.channels.iter_mut().zip(layout.channels.iter()) {
             *acc = ChannelAcc::new(ch);
         }
@@ -382,10 +443,9 @@ impl<const C: usize, const G: usize> IntervalAcc<C, G> {
     /// screen the merged interval again ([`Layout::screen`]), in time order with
     /// the other intervals, to get them back.
     pub fn merge(&mut self, layout: &Layout<C>, later: &Self) {
-        let joined = match (self.last, later.first) {
-            (Some(a), Some(b)) => !layout.is_gap(b.millis().saturating_sub(a.millis())),
-            _ => true,
-        };
+        let joined = self.last == NONE_MS
+            || later.first == NONE_MS
+            || !layout.is_gap(later.first.saturating_sub(self.last));
         for (i, (a, b)) in self
             .channels
             .iter_mut()
@@ -399,10 +459,10 @@ impl<const C: usize, const G: usize> IntervalAcc<C, G> {
             self.spikes[i].merge(&later.spikes[i], limit, circular, joined);
         }
         self.clear_flags();
-        if self.first.is_none() {
+        if self.first == NONE_MS {
             self.first = later.first;
         }
-        if later.last.is_some() {
+        if later.last != NONE_MS {
             self.last = later.last;
         }
     }
@@ -487,37 +547,48 @@ impl PushTotals {
 ///
 /// `C` is the number of channels, `G` the largest gust window in samples. The
 /// whole state has a fixed size known at compile time (see the crate docs).
+///
+/// `L` holds the layout: the station owns it by default; a logger can give a
+/// reference instead (`Station<C, G, &'static Layout<C>>`), so that a layout
+/// validated at compile time stays in flash and the station's RAM is only its
+/// running state.
 #[derive(Clone, Debug)]
-pub struct Station<const C: usize, const G: usize> {
-    layout: Layout<C>,
+pub struct Station<const C: usize, const G: usize, L: Borrow<Layout<C>> = Layout<C>> {
+    layout: L,
     /// The interval state; kept after an interval closes and reset in place for
     /// the next (no copies of it on the stack of a small logger).
-    open: Option<IntervalAcc<C, G>>,
+    open: IntervalAcc<C, G>,
     /// Whether `open` holds an open interval.
     live: bool,
-    /// Index of the next interval not yet reported.
-    cursor: Option<i64>,
-    last: Option<Timestamp>,
+    /// Index of the next interval not yet reported; `i64::MIN` before any.
+    cursor: i64,
+    /// Time of the last accepted sample, ms; [`NONE_MS`] before any.
+    last: i64,
     /// End (ms, exclusive) of the open interval; `i64::MIN` when none is open.
     open_end: i64,
-    /// The month of the latest closed interval and its span, ms.
-    month: Option<(Month, i64, i64)>,
+    /// The month of the latest closed interval and its span `[from, to)`, ms
+    /// (an empty span before the first).
+    month: Month,
+    month_from: i64,
+    month_to: i64,
     recovery: [Recovery; C],
     screener: Screener<C>,
     totals: PushTotals,
 }
 
-impl<const C: usize, const G: usize> Station<C, G> {
+impl<const C: usize, const G: usize, L: Borrow<Layout<C>>> Station<C, G, L> {
     /// A station with nothing recorded yet.
-    pub const fn new(layout: Layout<C>) -> Self {
+    pub const fn new(layout: L) -> Self {
         Station {
             layout,
-            open: None,
+            open: IntervalAcc::placeholder(),
             live: false,
-            cursor: None,
-            last: None,
+            cursor: i64::MIN,
+            last: NONE_MS,
             open_end: i64::MIN,
-            month: None,
+            month: Month { year: 0, month: 1 },
+            month_from: 0,
+            month_to: 0,
             recovery: [Recovery::new(); C],
             screener: Screener::new(),
             totals: PushTotals {
@@ -532,8 +603,8 @@ impl<const C: usize, const G: usize> Station<C, G> {
     }
 
     /// The layout.
-    pub const fn layout(&self) -> &Layout<C> {
-        &self.layout
+    pub fn layout(&self) -> &Layout<C> {
+        self.layout.borrow()
     }
 
     /// Running recovery of each channel (updated as intervals close).
@@ -548,9 +619,10 @@ impl<const C: usize, const G: usize> Station<C, G> {
 
     /// The open interval, if any.
     pub const fn open(&self) -> Option<&IntervalAcc<C, G>> {
-        match &self.open {
-            Some(acc) if self.live => Some(acc),
-            _ => None,
+        if self.live {
+            Some(&self.open)
+        } else {
+            None
         }
     }
 
@@ -564,11 +636,9 @@ impl<const C: usize, const G: usize> Station<C, G> {
         // interval (`open_end` is `i64::MIN` when none is open), which lies in
         // the supported years, so none of the checks below can reject it.
         let ms = t.millis();
-        if ms < self.open_end && self.last.is_some_and(|last| ms > last.millis()) {
-            if let Some(acc) = &mut self.open {
-                acc.push(&self.layout, t, readings);
-            }
-            self.last = Some(t);
+        if ms < self.open_end && ms > self.last {
+            self.open.push(self.layout.borrow(), t, readings);
+            self.last = ms;
             self.totals.accepted += 1;
             return Pushed::Accepted;
         }
@@ -579,27 +649,23 @@ impl<const C: usize, const G: usize> Station<C, G> {
                 Reject::ClosedInterval => self.totals.closed_interval += 1,
                 Reject::UnsupportedTime => self.totals.unsupported_time += 1,
             }
-            match self.open.as_mut().filter(|_| self.live) {
-                Some(acc) => acc.reject(),
-                None => self.totals.unplaced += 1,
+            if self.live {
+                self.open.reject();
+            } else {
+                self.totals.unplaced += 1;
             }
             return Pushed::Rejected(reason);
         }
         if t.millis() >= self.open_end {
-            let k = self.layout.interval_of(t);
+            let k = self.layout.borrow().interval_of(t);
             self.close(&mut emit);
             self.gap_to(k, &mut emit);
-            match &mut self.open {
-                Some(acc) => acc.reset(&self.layout, k),
-                None => self.open = Some(IntervalAcc::new(&self.layout, k)),
-            }
+            self.open.reset(self.layout.borrow(), k);
             self.live = true;
-            self.open_end = self.layout.interval_start(k + 1).millis();
+            self.open_end = self.layout.borrow().interval_start(k + 1).millis();
         }
-        if let Some(acc) = &mut self.open {
-            acc.push(&self.layout, t, readings);
-        }
-        self.last = Some(t);
+        self.open.push(self.layout.borrow(), t, readings);
+        self.last = ms;
         self.totals.accepted += 1;
         Pushed::Accepted
     }
@@ -608,73 +674,80 @@ impl<const C: usize, const G: usize> Station<C, G> {
         if !t.is_supported() {
             return Some(Reject::UnsupportedTime);
         }
-        match self.last {
-            Some(last) if t == last => return Some(Reject::Duplicate),
-            Some(last) if t < last => return Some(Reject::Backward),
-            _ => {}
+        let ms = t.millis();
+        if ms == self.last {
+            return Some(Reject::Duplicate);
+        }
+        if ms < self.last {
+            return Some(Reject::Backward);
         }
         if self.live {
             // After the last accepted sample, which lies in the open interval.
             return None;
         }
-        match self.cursor {
-            Some(c) if self.layout.interval_of(t) < c => Some(Reject::ClosedInterval),
-            _ => None,
+        if self.cursor != i64::MIN && self.layout.borrow().interval_of(t) < self.cursor {
+            Some(Reject::ClosedInterval)
+        } else {
+            None
         }
     }
 
     /// Reports intervals before `k` not yet reported as one gap.
     fn gap_to<F: FnMut(Event<'_, C, G>)>(&mut self, k: i64, emit: &mut F) {
-        let first = *self.cursor.get_or_insert(k);
+        if self.cursor == i64::MIN {
+            self.cursor = k;
+        }
+        let first = self.cursor;
         if k > first {
             let gap = Gap {
                 first,
                 count: (k - first) as u64,
             };
-            let start = self.layout.interval_start(first);
+            let start = self.layout.borrow().interval_start(first);
             for r in &mut self.recovery {
                 r.add_gap(
                     start,
                     gap.count,
-                    self.layout.interval_ms,
-                    self.layout.samples,
+                    self.layout.borrow().interval_ms,
+                    self.layout.borrow().samples,
                 );
             }
             emit(Event::Gap(gap));
         }
-        self.cursor = Some(k.max(first));
+        self.cursor = k.max(first);
     }
 
     /// The calendar month of `t`, from a cache of the current month's span.
     fn month_of(&mut self, t: Timestamp) -> Month {
-        match self.month {
-            Some((m, from, to)) if (from..to).contains(&t.millis()) => m,
-            _ => {
-                let m = t.month();
-                self.month = Some((m, m.start().millis(), m.next().start().millis()));
-                m
-            }
+        if (self.month_from..self.month_to).contains(&t.millis()) {
+            return self.month;
         }
+        let m = t.month();
+        self.month = m;
+        self.month_from = m.start().millis();
+        self.month_to = m.next().start().millis();
+        m
     }
 
     /// Closes the open interval, if any, and hands it to `emit` (end of data).
     /// Later samples in that interval are rejected as [`Reject::ClosedInterval`].
     pub fn close<F: FnMut(Event<'_, C, G>)>(&mut self, mut emit: F) {
         self.open_end = i64::MIN;
-        let index = match self.open.as_ref() {
-            Some(acc) if self.live => acc.index,
-            _ => return,
-        };
-        self.live = false;
-        let month = self.month_of(self.layout.interval_start(index));
-        self.cursor = Some(index + 1);
-        if let Some(acc) = self.open.as_mut() {
-            let records = self.layout.screen(&mut self.screener, acc);
-            for (r, rec) in self.recovery.iter_mut().zip(records.iter()) {
-                r.add_interval_in(month, self.layout.samples, &rec.tally, passes(rec));
-            }
-            emit(Event::Closed(acc));
+        if !self.live {
+            return;
         }
+        let index = self.open.index;
+        self.live = false;
+        let month = self.month_of(self.layout.borrow().interval_start(index));
+        self.cursor = index + 1;
+        let records = self
+            .layout
+            .borrow()
+            .screen(&mut self.screener, &mut self.open);
+        for (r, rec) in self.recovery.iter_mut().zip(records.iter()) {
+            r.add_interval_in(month, self.layout.borrow().samples, &rec.tally, passes(rec));
+        }
+        emit(Event::Closed(&self.open));
     }
 
     /// Tells the station the time is `now` without a sample (a timer at an
@@ -684,11 +757,11 @@ impl<const C: usize, const G: usize> Station<C, G> {
         if !now.is_supported() {
             return;
         }
-        let k = self.layout.interval_of(now);
-        if self.live && self.open.as_ref().is_some_and(|acc| acc.index < k) {
+        let k = self.layout.borrow().interval_of(now);
+        if self.live && self.open.index < k {
             self.close(&mut emit);
         }
-        if !self.live && self.cursor.is_some() {
+        if !self.live && self.cursor != i64::MIN {
             self.gap_to(k, &mut emit);
         }
     }

@@ -18,7 +18,7 @@
 //! use qc_core::wire::{self, RecordFrame, Span, FRAME_LEN};
 //! use qc_core::{ChannelConfig, Event, Layout, Reading, Station, StationConfig, Timestamp};
 //!
-//! let layout = Layout::new::<3>(StationConfig::ten_minute_1hz(), [ChannelConfig::speed(0.1)])?;
+//! let layout = Layout::new::<3>(StationConfig::ten_minute_1hz(), &[ChannelConfig::speed(0.1)])?;
 //! let mut station: Station<1, 3> = Station::new(layout);
 //! let mut log = Vec::new();
 //! let mut on_event = |event: Event<'_, 1, 3>| {
@@ -1533,7 +1533,7 @@ mod tests {
         // Real records of every kind from a station run.
         let layout = Layout::new::<3>(
             StationConfig::ten_minute_1hz(),
-            [
+            &[
                 ChannelConfig::speed(0.01),
                 ChannelConfig::direction().with_speed_channel(0),
                 ChannelConfig::direction(),
@@ -1958,8 +1958,8 @@ mod tests {
         ];
         let station = StationConfig::ten_minute_1hz();
         let h = decode_sample_header::<6>(&header_bytes(&station, &channels)).unwrap();
-        let a = Layout::new::<12>(station, channels).unwrap();
-        let b = Layout::new::<12>(h.station, h.channels).unwrap();
+        let a = Layout::new::<12>(station, &channels).unwrap();
+        let b = Layout::new::<12>(h.station, &h.channels).unwrap();
         assert_eq!(a, b);
     }
 

@@ -28,7 +28,7 @@ fn layout(screened: bool) -> Layout<5> {
     }
     Layout::new::<4>(
         cfg,
-        [
+        &[
             ChannelConfig::speed(0.1).with_gust_window(4).with_screen(a),
             ChannelConfig::speed(0.1).with_screen(pick(Kind::Speed)),
             ChannelConfig::direction()

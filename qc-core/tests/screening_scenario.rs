@@ -59,7 +59,7 @@ fn layout() -> Layout<6> {
     vane.icing = Some(Icing::new(4, 5));
     Layout::new::<3>(
         cfg,
-        [
+        &[
             ChannelConfig::speed(0.01).with_screen(a),
             ChannelConfig::speed(0.01),
             ChannelConfig::speed(0.01).with_screen(low),

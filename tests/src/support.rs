@@ -40,7 +40,7 @@ pub const SCALAR_RANGE: (f64, f64) = (-50.0, 60.0);
 pub fn four_channels(config: StationConfig, w: u16) -> Layout<4> {
     Layout::new::<G>(
         config,
-        [
+        &[
             ChannelConfig::speed(SPEED_STEP).with_gust_window(w),
             ChannelConfig::direction().with_speed_channel(SPEED as u8),
             ChannelConfig::direction(),

@@ -22,8 +22,11 @@ use tenmin_tests::support::{ten_minutes, utc, value};
 
 /// The record of one vane fed `dirs` (degrees), one sample a second.
 fn vane(dirs: &[f64]) -> ChannelRecord {
-    let layout = Layout::new::<1>(ten_minutes(dirs.len() as u32), [ChannelConfig::direction()])
-        .expect("layout");
+    let layout = Layout::new::<1>(
+        ten_minutes(dirs.len() as u32),
+        &[ChannelConfig::direction()],
+    )
+    .expect("layout");
     let mut acc = IntervalAcc::<1, 1>::new(&layout, 0);
     for (i, d) in dirs.iter().enumerate() {
         acc.push(
@@ -40,7 +43,7 @@ fn vane(dirs: &[f64]) -> ChannelRecord {
 fn anemometer_and_vane(samples: &[(f64, f64)]) -> (ChannelRecord, ChannelRecord) {
     let layout = Layout::new::<3>(
         ten_minutes(samples.len() as u32),
-        [
+        &[
             ChannelConfig::speed(0.01),
             ChannelConfig::direction().with_speed_channel(0),
         ],
@@ -214,7 +217,7 @@ fn gust_example() {
 fn recovery_of(valid: usize) -> (f64, ChannelRecord) {
     let layout = Layout::new::<3>(
         StationConfig::ten_minute_1hz(),
-        [ChannelConfig::speed(0.01)],
+        &[ChannelConfig::speed(0.01)],
     )
     .expect("layout");
     let mut station: Station<1, 3> = Station::new(layout);
@@ -272,7 +275,7 @@ fn recovery_18_of_24_hours() {
         samples_per_interval: 1,
         ..StationConfig::ten_minute_1hz()
     };
-    let layout = Layout::new::<1>(cfg, [ChannelConfig::scalar(0.1)]).expect("layout");
+    let layout = Layout::new::<1>(cfg, &[ChannelConfig::scalar(0.1)]).expect("layout");
     let mut station: Station<1, 1> = Station::new(layout);
     for hour in (0..24u8).filter(|h| !(3..6).contains(h) && !(21..24).contains(h)) {
         station.push(utc(2024, 6, 1, hour, 0, 0), &[Reading::Value(15.0)], |_| {});
@@ -311,7 +314,7 @@ fn ten_minute_records_possible_per_month() {
     for (month, before, after, records) in months {
         let layout = Layout::new::<1>(
             StationConfig::ten_minute_1hz(),
-            [ChannelConfig::scalar(0.1)],
+            &[ChannelConfig::scalar(0.1)],
         )
         .expect("layout");
         let mut station: Station<1, 1> = Station::new(layout);
@@ -323,7 +326,7 @@ fn ten_minute_records_possible_per_month() {
                 }
             });
         }
-        let this_month = station.recovery()[0].this_month;
+        let this_month = station.recovery()[0].this_month();
         assert_eq!(gaps.len(), 1, "month {month}");
         assert_eq!(gaps[0].count, records, "gap over month {month}");
         assert_eq!(this_month.possible, records * 600, "month {month}");

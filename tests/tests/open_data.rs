@@ -105,7 +105,7 @@ fn core_intervals() -> BTreeMap<Timestamp, Interval> {
     };
     let layout = Layout::new::<3>(
         cfg,
-        [ChannelConfig::speed(0.001), ChannelConfig::direction()],
+        &[ChannelConfig::speed(0.001), ChannelConfig::direction()],
     )
     .expect("layout");
     let mut station: Station<2, 3> = Station::new(layout);

@@ -361,7 +361,7 @@ proptest! {
 /// The record of one direction channel fed `dirs` (centidegrees) rotated by
 /// `rot` centidegrees, one sample a second, `n` samples per interval.
 fn direction_record(dirs: &[i64], rot: i64, n: u32, as_counts: bool) -> qc_core::ChannelRecord {
-    let layout = Layout::new::<1>(ten_minutes(n), [ChannelConfig::direction()]).unwrap();
+    let layout = Layout::new::<1>(ten_minutes(n), &[ChannelConfig::direction()]).unwrap();
     let mut acc = IntervalAcc::<1, 1>::new(&layout, 0);
     for (i, d) in dirs.iter().enumerate() {
         let r = reading((d + rot).rem_euclid(36_000), CD_PER_DEG, as_counts);
@@ -534,7 +534,7 @@ fn long_jumps_are_one_gap() {
         samples_per_interval: 1,
         ..StationConfig::ten_minute_1hz()
     };
-    let layout = Layout::new::<1>(cfg, [ChannelConfig::scalar(0.1)]).unwrap();
+    let layout = Layout::new::<1>(cfg, &[ChannelConfig::scalar(0.1)]).unwrap();
     let mut station: Station<1, 1> = Station::new(layout);
     let mut gaps = Vec::new();
     let (first, last) = (utc(0, 1, 1, 0, 0, 0), utc(9999, 12, 31, 23, 59, 59));

@@ -151,7 +151,7 @@ fn case<const C: usize>(
     channels: [ChannelConfig; C],
     table: &[[Reading; C]; 8],
 ) -> Option<()> {
-    match Layout::new::<3>(StationConfig::ten_minute_1hz(), channels) {
+    match Layout::new::<3>(StationConfig::ten_minute_1hz(), &channels) {
         Ok(ref layout) => {
             station_case(m, name, layout, table);
             Some(())
@@ -221,11 +221,11 @@ fn profile_cases() -> Option<()> {
     for (case, layout, table) in [
         (
             1,
-            Layout::new::<3>(st, [ChannelConfig::speed(0.01)]).ok()?,
+            Layout::new::<3>(st, &[ChannelConfig::speed(0.01)]).ok()?,
             &value,
         ),
-        (2, Layout::new::<3>(st, [cup]).ok()?, &counts),
-        (3, Layout::new::<3>(st, [vane]).ok()?, &dirs),
+        (2, Layout::new::<3>(st, &[cup]).ok()?, &counts),
+        (3, Layout::new::<3>(st, &[vane]).ok()?, &dirs),
     ] {
         let mut s: Station<1, 3> = Station::new(layout);
         pushes(&mut s, T0, table, 10, true);
@@ -258,6 +258,97 @@ static SCENARIO_TABLE: [[Reading; CHANNELS]; 8] = {
             Reading::Value(1_012.4),
             Reading::Value(12.61 - x * 0.001),
         ];
+        i += 1;
+    }
+    t
+};
+
+/// Eight channels of one kind in the logger slot (8 x 3 channels, as the
+/// scenario's): instructions per sample of the whole logger, and per channel.
+#[inline(never)]
+fn eight_case(
+    m: &Meter,
+    slot: &mut LoggerSlot,
+    name: &str,
+    layout: &'static Layout<CHANNELS>,
+    table: &[[Reading; CHANNELS]; 8],
+) -> Option<()> {
+    let mut logger = slot.start(layout)?;
+    let mut sink = |f: &[u8; FRAME_LEN]| -> Result<(), ()> {
+        black_box(f);
+        Ok(())
+    };
+    let mut run = |logger: &mut Logger<'_>, t0: i64, n: u32, push: bool| {
+        let start = now();
+        for i in 0..n {
+            let t = Timestamp::from_millis(t0 + i64::from(i) * 1000);
+            let r = black_box(&table[(i & 7) as usize]);
+            if push {
+                black_box(logger.push(t, r, &mut sink).is_ok());
+            } else {
+                black_box((t, r));
+            }
+        }
+        ticks(start, now())
+    };
+    run(&mut logger, T0, 10, true);
+    let work = run(&mut logger, T0 + 10_000, N, true);
+    let base = run(&mut logger, T0 + 10_000, N, false);
+    let per_sample = m.per_op(N, work, base);
+    println!(
+        "budget: {:<34} per sample {:>6}   per channel {:>6}",
+        name,
+        per_sample,
+        per_sample / CHANNELS as u64
+    );
+    Some(())
+}
+
+/// A cup anemometer (pulse counts), as the scenario's.
+const CUP: ChannelConfig =
+    ChannelConfig::speed(1.0).with_calibration(scenario::CUP_SLOPE, scenario::CUP_OFFSET);
+/// A vane (ADC counts), as the scenario's.
+const VANE: ChannelConfig = ChannelConfig::direction().with_calibration(360.0 / 26_400.0, 0.0);
+
+/// Eight cups (in flash, validated at compile time).
+static EIGHT_CUPS_LAYOUT: Layout<CHANNELS> =
+    match Layout::new::<3>(StationConfig::ten_minute_1hz(), &[CUP; CHANNELS]) {
+        Ok(l) => l,
+        Err(_) => panic!("eight cups"),
+    };
+
+/// Eight vanes.
+static EIGHT_VANES_LAYOUT: Layout<CHANNELS> =
+    match Layout::new::<3>(StationConfig::ten_minute_1hz(), &[VANE; CHANNELS]) {
+        Ok(l) => l,
+        Err(_) => panic!("eight vanes"),
+    };
+
+/// Readings of eight cups (pulse counts), cycled.
+static EIGHT_CUPS: [[Reading; CHANNELS]; 8] = {
+    let mut t = [[Reading::Missing; CHANNELS]; 8];
+    let mut i = 0;
+    while i < 8 {
+        let mut c = 0;
+        while c < CHANNELS {
+            t[i][c] = Reading::Counts(150 + ((i * 7 + c) % 23) as i32);
+            c += 1;
+        }
+        i += 1;
+    }
+    t
+};
+
+/// Readings of eight vanes (ADC counts), cycled.
+static EIGHT_VANES: [[Reading; CHANNELS]; 8] = {
+    let mut t = [[Reading::Missing; CHANNELS]; 8];
+    let mut i = 0;
+    while i < 8 {
+        let mut c = 0;
+        while c < CHANNELS {
+            t[i][c] = Reading::Counts(25_900 + (i * 130 + c * 11) as i32);
+            c += 1;
+        }
         i += 1;
     }
     t
@@ -320,19 +411,22 @@ fn scenario_case(m: &Meter, slot: &mut LoggerSlot) -> Option<()> {
         "encode one record frame", enc
     );
     println!(
-        "budget: sizes: Station<8,3> {} B, Layout<8> {} B, IntervalAcc<8,3> {} B, ChannelRecord {} B",
-        core::mem::size_of::<Station<CHANNELS, 3>>(),
+        "budget: sizes: Station<8,3,&Layout> {} B, Layout<8> {} B, IntervalAcc<8,3> {} B, 8 x Recovery {} B, Screener<8> {} B, ChannelRecord {} B",
+        core::mem::size_of::<Station<CHANNELS, 3, &'static Layout<CHANNELS>>>(),
         core::mem::size_of::<Layout<CHANNELS>>(),
         core::mem::size_of::<qc_core::IntervalAcc<CHANNELS, 3>>(),
+        core::mem::size_of::<[qc_core::Recovery; CHANNELS]>(),
+        core::mem::size_of::<qc_core::Screener<CHANNELS>>(),
         core::mem::size_of::<qc_core::ChannelRecord>(),
     );
     {
-        use firmware_example::replay::{ReplaySlot, CAPACITY, GUST_CAPACITY};
+        use firmware_example::replay::{ReplayLayoutSlot, ReplaySlot, CAPACITY, GUST_CAPACITY};
         println!(
-            "budget: replay logger: Station<8,12> {} B, IntervalAcc<8,12> {} B, slot (station and a closed interval) {} B",
-            core::mem::size_of::<Station<CAPACITY, GUST_CAPACITY>>(),
+            "budget: replay logger: Station<8,12,&Layout> {} B, IntervalAcc<8,12> {} B, station slot {} B, layout slot {} B",
+            core::mem::size_of::<Station<CAPACITY, GUST_CAPACITY, &'static Layout<CAPACITY>>>(),
             core::mem::size_of::<qc_core::IntervalAcc<CAPACITY, GUST_CAPACITY>>(),
-            core::mem::size_of::<ReplaySlot>(),
+            core::mem::size_of::<ReplaySlot<'static>>(),
+            core::mem::size_of::<ReplayLayoutSlot>(),
         );
     }
     Some(())
@@ -370,7 +464,25 @@ fn main() -> ! {
         profile_cases();
         process::exit(0)
     }
-    if single_channel_cases(&m).is_none() || scenario_case(&m, LOGGER).is_none() {
+    if single_channel_cases(&m).is_none()
+        || eight_case(
+            &m,
+            LOGGER,
+            "8 x speed, Reading::Counts (cup)",
+            &EIGHT_CUPS_LAYOUT,
+            &EIGHT_CUPS,
+        )
+        .is_none()
+        || eight_case(
+            &m,
+            LOGGER,
+            "8 x direction, Reading::Counts",
+            &EIGHT_VANES_LAYOUT,
+            &EIGHT_VANES,
+        )
+        .is_none()
+        || scenario_case(&m, LOGGER).is_none()
+    {
         println!("budget: a case did not run");
         process::exit(1)
     }

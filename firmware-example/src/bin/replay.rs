@@ -15,7 +15,7 @@
 use core::ffi::CStr;
 
 use cortex_m_rt::entry;
-use firmware_example::replay::{replay, ReplaySlot, Sink, Source};
+use firmware_example::replay::{replay, ReplayLayoutSlot, ReplaySlot, Sink, Source};
 use qc_core::wire::FRAME_LEN;
 use semihosting::experimental::env;
 use semihosting::fs::File;
@@ -74,13 +74,20 @@ fn open_files() -> Result<(HostFile, HostFile), ()> {
 
 #[entry]
 fn main() -> ! {
-    // cortex-m-rt turns this into a `&'static mut` owned by `main`: the logger
-    // (about 7 KiB) lives in static memory, not on the 16 KiB part's stack.
-    static mut LOGGER: ReplaySlot = ReplaySlot::new();
+    // cortex-m-rt turns these into `&'static mut` owned by `main`: the layout
+    // read from the file (2.4 KiB) and the logger's running state (2.6 KiB)
+    // live in static memory, not on the 16 KiB part's stack.
+    static mut LAYOUT: ReplayLayoutSlot = ReplayLayoutSlot::new();
+    static mut LOGGER: ReplaySlot<'static> = ReplaySlot::new();
     let Ok((mut source, mut sink)) = open_files() else {
         process::exit(1)
     };
-    match replay(&mut source, &mut sink, core::hint::black_box(LOGGER)) {
+    match replay(
+        &mut source,
+        &mut sink,
+        LAYOUT,
+        core::hint::black_box(LOGGER),
+    ) {
         Ok(s) => {
             println!(
                 "replay: {} channels, {} samples ({} accepted, {} rejected), {} frames",
