@@ -45,7 +45,7 @@ with open(sys.argv[1]) as f:
         else:
             cur[(last, ss)] += 1
 regions.append(cur)
-names = ["speed Value", "cup Counts", "vane Counts"]
+names = ["speed Value", "cup Counts", "vane Counts", "8 cups (per sample of all 8)"]
 for c, name in enumerate(names):
     for k, what, div in [(1, "100 samples", 100), (3, "closing push", 1)]:
         r = regions[4 * c + k]

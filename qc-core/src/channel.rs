@@ -12,7 +12,7 @@ use crate::direction::{DirectionSums, ResultantSums};
 use crate::error::ChannelProblem;
 use crate::flags::Flags;
 use crate::gust::Gust;
-use crate::moments::{mul_i32, Moments};
+use crate::moments::{mul_i32, variance, Moments};
 use crate::screen::{Screen, Spikes};
 
 /// What a channel measures.
@@ -221,8 +221,10 @@ pub struct Channel {
     /// value (when not, a reading in range needs no comparison with the codes).
     code_in_counts: bool,
     code_in_values: bool,
-    /// Speed or scalar with no code in range: counts in range are valid as they are.
-    plain_counts: bool,
+    /// Direction counts `dir_inline_lo..=dir_fast_k` are in range, on the 32-bit
+    /// path, and no missing-value code: [`Channel::classify_direction`] takes
+    /// them inline (`i32::MAX` for none).
+    dir_inline_lo: i32,
 }
 
 /// A reading after validation.
@@ -306,7 +308,7 @@ impl Channel {
             step_q: None,
             code_in_counts: true,
             code_in_values: true,
-            plain_counts: false,
+            dir_inline_lo: i32::MAX,
         }
     }
 
@@ -341,7 +343,7 @@ impl Channel {
             step_q: None,
             code_in_counts: true,
             code_in_values: true,
-            plain_counts: false,
+            dir_inline_lo: i32::MAX,
         };
         let sc = &cfg.screen;
         if let Some(l) = sc.step_limit {
@@ -416,8 +418,51 @@ impl Channel {
 
     /// Turns a reading into an integer, or says why it is not valid.
     /// `sentinels` are the station's missing-value codes.
-    #[inline]
     pub(crate) fn classify(&self, r: Reading, sentinels: &crate::Sentinels) -> Class {
+        match self.cfg.kind {
+            Kind::Direction => self.classify_direction(r, sentinels),
+            _ => self.classify_linear(r, sentinels),
+        }
+    }
+
+    /// [`Channel::classify`] for a speed or scalar channel: raw counts in range
+    /// inline, the rest out of line.
+    #[inline(always)]
+    fn classify_linear(&self, r: Reading, sentinels: &crate::Sentinels) -> Class {
+        match r {
+            Reading::Counts(k) if k >= self.lo_k && k <= self.hi_k => {
+                if self.code_in_counts && sentinels.matches_counts(k) {
+                    Class::Missing
+                } else {
+                    Class::Valid(k)
+                }
+            }
+            Reading::Missing => Class::Missing,
+            _ => self.classify_slow(r, sentinels),
+        }
+    }
+
+    /// [`Channel::classify`] for a direction channel: ADC counts in range on the
+    /// 32-bit path inline, the rest out of line.
+    #[inline(always)]
+    fn classify_direction(&self, r: Reading, sentinels: &crate::Sentinels) -> Class {
+        match r {
+            // In range, on the 32-bit path, no missing-value code in range.
+            Reading::Counts(k) if k >= self.dir_inline_lo && k <= self.dir_fast_k => {
+                // The same integer as the general formula, in one 32-bit multiply.
+                let p = u64::from(k as u32 * self.dir_mul as u32) + self.dir_add as u64;
+                Class::Valid(self.wrap_cd((p >> 16) as i64))
+            }
+            Reading::Missing => Class::Missing,
+            _ => self.classify_slow(r, sentinels),
+        }
+    }
+
+    /// Every reading, every kind: the general path (values in soft floating
+    /// point on a core without an FPU, readings out of range, missing-value
+    /// codes).
+    #[inline(never)]
+    fn classify_slow(&self, r: Reading, sentinels: &crate::Sentinels) -> Class {
         match r {
             Reading::Missing => Class::Missing,
             Reading::Counts(k) => {
@@ -493,7 +538,13 @@ impl Channel {
             }
             i += 1;
         }
-        self.plain_counts = !self.code_in_counts && !matches!(self.cfg.kind, Kind::Direction);
+        self.dir_inline_lo = if self.code_in_counts || self.dir_fast_k < 0 {
+            i32::MAX
+        } else if self.lo_k > 0 {
+            self.lo_k
+        } else {
+            0
+        };
     }
 
     fn wrap_cd(&self, cd: i64) -> i32 {
@@ -710,73 +761,42 @@ impl<const G: usize> ChannelAcc<G> {
     }
 
     /// Classifies one reading of `ch` and adds it, with its spike check;
-    /// `speed` is the linked speed's class, if any. One call per channel and
-    /// sample, with the rest inlined into it (calls and their stack frames
-    /// are a good part of the cost on a Cortex-M0).
-    #[inline(never)]
+    /// `speed` gives the linked speed's class, if any.
+    ///
+    /// One out-of-line function per kind of channel with everything else
+    /// inlined into it, and the rare paths (engineering values, readings out of
+    /// range) out of line: on a Cortex-M0, calls, their stack frames and
+    /// register spills cost as much as the statistics themselves.
+    #[inline(always)]
     pub(crate) fn push_reading(
         &mut self,
         ch: &Channel,
         r: Reading,
         codes: &crate::Sentinels,
         spikes: &mut Spikes,
-        speed: Option<Class>,
+        speed: impl FnOnce() -> Option<Class>,
     ) {
-        // Raw counts in range, on a speed or scalar channel with no missing-value
-        // code in its range, are valid as they are: no call.
-        let class = match r {
-            Reading::Counts(k) if ch.plain_counts && k >= ch.lo_k && k <= ch.hi_k => {
-                Class::Valid(k)
-            }
-            _ => ch.classify(r, codes),
-        };
-        self.push(class, ch.window(), speed);
-        if let Some(limit) = ch.step_q {
-            match class {
-                Class::Valid(q) => spikes.push(q, limit, ch.cfg.kind == Kind::Direction),
-                _ => spikes.break_chain(),
-            }
-        }
-    }
-
-    /// Adds one classified sample; `speed` is the linked speed's class, if any.
-    #[inline]
-    pub(crate) fn push(&mut self, c: Class, w: usize, speed: Option<Class>) {
         match self {
-            ChannelAcc::Speed(a) => {
-                a.tally.count(c);
-                match c {
-                    Class::Valid(q) => {
-                        a.moments.push(q);
-                        a.gust.push(q, w);
-                    }
-                    _ => a.gust.break_run(),
-                }
-            }
+            ChannelAcc::Speed(a) => push_speed(a, ch, r, codes, spikes),
             ChannelAcc::Direction(a) => {
-                a.tally.count(c);
-                if let Class::Valid(cd) = c {
-                    a.sums.push(cd);
-                }
+                push_direction(&mut a.tally, &mut a.sums, ch, r, codes, spikes);
             }
             ChannelAcc::LinkedDirection(a) => {
-                a.direction.tally.count(c);
-                if let Class::Valid(cd) = c {
-                    match speed {
-                        Some(Class::Valid(q)) => {
-                            let (s, co) = a.direction.sums.push_q30(cd);
-                            a.resultant.push_q30(s, co, q);
-                        }
-                        _ => a.direction.sums.push(cd),
+                let class = push_direction(
+                    &mut a.direction.tally,
+                    &mut a.direction.sums,
+                    ch,
+                    r,
+                    codes,
+                    spikes,
+                );
+                if let Some((s, c)) = class {
+                    if let Some(Class::Valid(q)) = speed() {
+                        a.resultant.push_q30(s, c, q);
                     }
                 }
             }
-            ChannelAcc::Scalar(a) => {
-                a.tally.count(c);
-                if let Class::Valid(q) = c {
-                    a.moments.push(q);
-                }
-            }
+            ChannelAcc::Scalar(a) => push_scalar(a, ch, r, codes, spikes),
         }
     }
 
@@ -821,13 +841,21 @@ impl<const G: usize> ChannelAcc<G> {
         match self {
             ChannelAcc::Speed(SpeedAcc { moments, .. })
             | ChannelAcc::Scalar(ScalarAcc { moments, .. }) => {
-                if let Some(s) = moments.finish(n) {
-                    let mean = scale.ratio(inv, moments.sum() as f64, f64::from(n));
-                    let sd = scale.spread(inv, s.sd);
+                if n > 0 {
+                    let nf = f64::from(n);
+                    let mean = scale.ratio(inv, moments.sum() as f64, nf);
+                    let num = moments.variance_numerator(n);
+                    // sd = sqrt(num) / (n / step): one division (soft floating
+                    // point divisions cost hundreds of instructions on a
+                    // Cortex-M0) while n * (1/step) is exact.
+                    let sd = match inv {
+                        Some(inv) if n < 1 << 26 => libm::sqrt(num as f64) / (nf * inv),
+                        _ => scale.spread(inv, libm::sqrt(variance(num, n))),
+                    };
                     r.mean = Stat::Value(mean);
                     r.sd = Stat::Value(sd);
-                    r.min = Stat::Value(scale.ratio(inv, f64::from(s.min), 1.0));
-                    r.max = Stat::Value(scale.ratio(inv, f64::from(s.max), 1.0));
+                    r.min = Stat::Value(scale.ratio(inv, f64::from(moments.min()), 1.0));
+                    r.max = Stat::Value(scale.ratio(inv, f64::from(moments.max()), 1.0));
                     if let ChannelAcc::Speed(a) = self {
                         r.ti = if mean > 0.0 {
                             Stat::Value(sd / mean)
@@ -872,6 +900,81 @@ impl<const G: usize> ChannelAcc<G> {
             ChannelAcc::LinkedDirection(_) => {}
         }
         r
+    }
+}
+
+/// One reading of a speed channel (see [`ChannelAcc::push_reading`]).
+#[inline(never)]
+fn push_speed<const G: usize>(
+    a: &mut SpeedAcc<G>,
+    ch: &Channel,
+    r: Reading,
+    codes: &crate::Sentinels,
+    spikes: &mut Spikes,
+) {
+    let class = ch.classify_linear(r, codes);
+    a.tally.count(class);
+    match class {
+        Class::Valid(q) => {
+            a.moments.push(q);
+            a.gust.push(q, usize::from(ch.cfg.gust_window));
+            if let Some(limit) = ch.step_q {
+                spikes.push(q, limit, false);
+            }
+        }
+        _ => {
+            a.gust.break_run();
+            spikes.break_chain();
+        }
+    }
+}
+
+/// One reading of a scalar channel.
+#[inline(never)]
+fn push_scalar(
+    a: &mut ScalarAcc,
+    ch: &Channel,
+    r: Reading,
+    codes: &crate::Sentinels,
+    spikes: &mut Spikes,
+) {
+    let class = ch.classify_linear(r, codes);
+    a.tally.count(class);
+    match class {
+        Class::Valid(q) => {
+            a.moments.push(q);
+            if let Some(limit) = ch.step_q {
+                spikes.push(q, limit, false);
+            }
+        }
+        _ => spikes.break_chain(),
+    }
+}
+
+/// One reading of a direction channel; its Q30 unit vector if valid (for a
+/// linked resultant).
+#[inline(never)]
+fn push_direction(
+    tally: &mut Tally,
+    sums: &mut DirectionSums,
+    ch: &Channel,
+    r: Reading,
+    codes: &crate::Sentinels,
+    spikes: &mut Spikes,
+) -> Option<(i32, i32)> {
+    let class = ch.classify_direction(r, codes);
+    tally.count(class);
+    match class {
+        Class::Valid(cd) => {
+            if let Some(limit) = ch.step_q {
+                spikes.push(cd, limit, true);
+            }
+            Some(sums.push_q30(cd))
+        }
+        _ => {
+            spikes.break_chain();
+            None
+        }
     }
 }
 

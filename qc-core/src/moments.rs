@@ -174,6 +174,16 @@ impl Moments {
         self.sum
     }
 
+    /// Smallest sample (`i32::MAX` before any).
+    pub const fn min(&self) -> i32 {
+        self.min
+    }
+
+    /// Largest sample (`i32::MIN` before any).
+    pub const fn max(&self) -> i32 {
+        self.max
+    }
+
     /// Mean, standard deviation (divisor N), min and max of `n` samples, or
     /// `None` when `n` is 0.
     ///
@@ -185,21 +195,78 @@ impl Moments {
         }
         let nf = f64::from(n);
         let mean = self.sum as f64 / nf;
-        // n <= 2^32 and sum_sq < 2^94 keep n * sum_sq below 2^126; sum^2 < 2^126.
-        let num = (i128::from(n) * self.sum_sq.get()) - i128::from(self.sum) * i128::from(self.sum);
-        let var = (num.max(0) as f64 / nf) / nf;
+        let num = self.variance_numerator(n);
         Some(MomentStats {
             mean,
-            sd: libm::sqrt(var),
+            sd: libm::sqrt(variance(num, n)),
             min: self.min,
             max: self.max,
         })
+    }
+
+    /// `n * sum_sq - sum^2` (n times the sum of squared deviations), exact.
+    ///
+    /// With 32-bit partial products ([`mul_u32`]): `n * sum_sq` is three of
+    /// them (`sum_sq < 2^94`), `sum^2` three more; a 128-bit multiply on a
+    /// Cortex-M0 costs several times that. Never negative for the moments of
+    /// real samples (Cauchy-Schwarz); clamped at 0 all the same.
+    pub fn variance_numerator(&self, n: u32) -> u128 {
+        let q = self.sum_sq;
+        // sum_sq < 2^94, so its top 32 bits are 0; wrapping adds keep this
+        // panic-free whatever the state.
+        let n_sq = u128::from(mul_u32(q.lo as u32, n))
+            .wrapping_add(u128::from(mul_u32((q.lo >> 32) as u32, n)) << 32)
+            .wrapping_add(u128::from(mul_u32(q.hi as u32, n)) << 64);
+        let a = self.sum.unsigned_abs();
+        let (lo, hi) = (a as u32, (a >> 32) as u32);
+        let sum_sq = u128::from(mul_u32(lo, lo))
+            .wrapping_add(u128::from(mul_u32(lo, hi)) << 33)
+            .wrapping_add(u128::from(mul_u32(hi, hi)) << 64);
+        n_sq.saturating_sub(sum_sq)
+    }
+}
+
+/// The population variance `num / n^2` from [`Moments::variance_numerator`]:
+/// one division while `n^2` is exact in `f64` (n below 2^26, 67 million
+/// samples in an interval), two otherwise.
+pub fn variance(num: u128, n: u32) -> f64 {
+    let nf = f64::from(n);
+    if n < 1 << 26 {
+        num as f64 / (nf * nf)
+    } else {
+        (num as f64 / nf) / nf
     }
 }
 
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    #[test]
+    fn variance_numerator_matches_i128() {
+        let mut x: u64 = 0x1234_5678_9ABC_DEF1;
+        for case in 0..2_000 {
+            let mut m = Moments::new();
+            let (mut sum, mut sq) = (0i128, 0i128);
+            let n = 1 + case % 700;
+            for _ in 0..n {
+                x ^= x << 13;
+                x ^= x >> 7;
+                x ^= x << 17;
+                let q = match case % 4 {
+                    0 => (x % 20_000) as i32,
+                    1 => x as i32,
+                    2 => i32::MIN + (x % 3) as i32,
+                    _ => -((x % 70_000) as i32),
+                };
+                m.push(q);
+                sum += i128::from(q);
+                sq += i128::from(q) * i128::from(q);
+            }
+            let want = i128::from(n) * sq - sum * sum;
+            assert_eq!(m.variance_numerator(n) as i128, want, "case {case}");
+        }
+    }
 
     #[test]
     fn signed_adds_match_i128() {

@@ -379,7 +379,8 @@ impl<const C: usize, const G: usize> IntervalAcc<C, G> {
             self.first = ms;
             false
         } else {
-            layout.is_gap(ms.saturating_sub(self.last))
+            // Supported times are far from the i64 limits: no overflow.
+            layout.is_gap(ms.wrapping_sub(self.last))
         };
         self.last = ms;
         let sentinels = &layout.sentinels;
@@ -396,15 +397,12 @@ impl<const C: usize, const G: usize> IntervalAcc<C, G> {
                 acc.break_run();
                 spikes.break_chain();
             }
-            let speed = match ch.config().speed_channel {
-                Some(s) => {
-                    let s = usize::from(s);
-                    match (layout.channels.get(s), readings.get(s)) {
-                        (Some(sc), Some(sr)) => Some(sc.classify(*sr, sentinels)),
-                        _ => None,
-                    }
+            let speed = || {
+                let s = usize::from(ch.config().speed_channel?);
+                match (layout.channels.get(s), readings.get(s)) {
+                    (Some(sc), Some(sr)) => Some(sc.classify(*sr, sentinels)),
+                    _ => None,
                 }
-                None => None,
             };
             acc.push_reading(ch, *reading, sentinels, spikes, speed);
         }

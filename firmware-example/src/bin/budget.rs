@@ -11,6 +11,7 @@
 #![no_std]
 #![no_main]
 
+use core::borrow::Borrow;
 use core::hint::black_box;
 
 use cortex_m::peripheral::syst::SystClkSource;
@@ -66,8 +67,8 @@ impl Meter {
 /// Pushes `n` samples from `t0`, one a second, cycling through `table`; with
 /// `push` false it runs the same loop without the station (the baseline).
 #[inline(never)]
-fn pushes<const C: usize>(
-    st: &mut Station<C, 3>,
+fn pushes<const C: usize, L: Borrow<Layout<C>>>(
+    st: &mut Station<C, 3, L>,
     t0: i64,
     table: &[[Reading; C]; 8],
     n: u32,
@@ -237,6 +238,16 @@ fn profile_cases() -> Option<()> {
         pushes(&mut s, T0 + 600_000, table, 1, true);
         profile_mark(300 + case);
     }
+    // Eight cups, the layout in flash.
+    let mut s: Station<CHANNELS, 3, &Layout<CHANNELS>> = Station::new(&EIGHT_CUPS_LAYOUT);
+    pushes(&mut s, T0, &EIGHT_CUPS, 10, true);
+    profile_mark(4);
+    pushes(&mut s, T0 + 10_000, &EIGHT_CUPS, 100, true);
+    profile_mark(104);
+    pushes(&mut s, T0 + 110_000, &EIGHT_CUPS, 490, true);
+    profile_mark(204);
+    pushes(&mut s, T0 + 600_000, &EIGHT_CUPS, 1, true);
+    profile_mark(304);
     Some(())
 }
 
