@@ -223,28 +223,27 @@ impl<const C: usize, E> Frames<'_, '_, C, E> {
         event: Event<'_, C, G>,
         write: &mut impl FnMut(&[u8; FRAME_LEN]) -> Result<(), E>,
     ) {
-        let Event::Closed(acc) = event else {
+        let Event::Closed(acc, records) = event else {
             return;
         };
         if self.result.is_err() {
             return;
         }
         let mut frame = [0u8; FRAME_LEN];
-        for channel in 0..usize::from(self.active) {
-            if let Some(record) = self.layout.finish(acc, channel) {
-                let f = RecordFrame {
-                    sequence: *self.sequence,
-                    interval_start: self.layout.interval_start(acc.index()),
-                    channel: channel as u8,
-                    record,
-                };
-                wire::encode_record(&f, &mut frame);
-                self.result = write(&frame);
-                if self.result.is_err() {
-                    return;
-                }
-                *self.sequence = self.sequence.wrapping_add(1);
+        let interval_start = self.layout.interval_start(acc.index());
+        for (channel, record) in records.iter().enumerate().take(usize::from(self.active)) {
+            let f = RecordFrame {
+                sequence: *self.sequence,
+                interval_start,
+                channel: channel as u8,
+                record: *record,
+            };
+            wire::encode_record(&f, &mut frame);
+            self.result = write(&frame);
+            if self.result.is_err() {
+                return;
             }
+            *self.sequence = self.sequence.wrapping_add(1);
         }
     }
 }

@@ -487,7 +487,7 @@ mod tests {
         let mut st: Station<3, GUST_CAPACITY> = Station::new(layout);
         let mut want = Vec::new();
         let mut on = |e: Event<'_, 3, GUST_CAPACITY>| {
-            if let Event::Closed(acc) = e {
+            if let Event::Closed(acc, _) = e {
                 for ch in 0..3 {
                     let f = RecordFrame {
                         sequence: (want.len() / FRAME_LEN) as u32,

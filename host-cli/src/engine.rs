@@ -101,7 +101,7 @@ impl<'s, const C: usize> Out<'s, C> {
             return;
         }
         let result = match event {
-            Event::Closed(acc) => self.interval(acc),
+            Event::Closed(acc, records) => self.records(acc.index(), &records[..self.n]),
             Event::Gap(gap) => self.gap(gap),
         };
         if let Err(e) = result {
@@ -130,6 +130,13 @@ impl<'s, const C: usize> Out<'s, C> {
         let start = layout.interval_start(acc.index());
         let end = layout.interval_start(acc.index().saturating_add(1));
         self.sink.interval(start, end, &self.records)
+    }
+
+    /// The rows of interval `index`, from the records the station handed out.
+    fn records(&mut self, index: i64, records: &[ChannelRecord]) -> Result<()> {
+        let start = self.layout.interval_start(index);
+        let end = self.layout.interval_start(index.saturating_add(1));
+        self.sink.interval(start, end, records)
     }
 
     fn check(&mut self) -> Result<()> {

@@ -217,7 +217,7 @@ impl<'a, const C: usize> Run<'a, C> {
             let events = &mut self.events;
             let pushed = st.push(t, &self.readings, |e| {
                 events.push(match e {
-                    Event::Closed(acc) => Ev::Closed(Box::new(*acc)),
+                    Event::Closed(acc, _) => Ev::Closed(Box::new(*acc)),
                     Event::Gap(g) => Ev::Gap(g),
                 })
             });

@@ -21,7 +21,7 @@
 //! for i in 0..1200 {
 //!     let readings = [Reading::Value(8.0), Reading::Value(if i % 2 == 0 { 350.0 } else { 10.0 })];
 //!     station.push(Timestamp::from_millis(t0 + i * 1000), &readings, |event| {
-//!         if let Event::Closed(acc) = event {
+//!         if let Event::Closed(acc, _) = event {
 //!             let vane = layout.finish(acc, 1).unwrap();
 //!             means.push((vane.mean.value(), vane.tally.valid));
 //!         }

@@ -220,14 +220,15 @@ impl Spikes {
 }
 
 fn step(a: i32, b: i32, circular: bool) -> i64 {
-    let d = (i64::from(a) - i64::from(b)).abs();
+    // 32-bit arithmetic (cheap on a logger core): |a - b| always fits a u32.
+    let d = a.abs_diff(b);
     if circular {
         // Directions are in 0..36_000, so one turn at most: no division (a
         // Cortex-M0 has none); the remainder keeps any other input in range.
         let d = if d < 36_000 { d } else { d % 36_000 };
-        d.min(36_000 - d)
+        i64::from(d.min(36_000 - d))
     } else {
-        d
+        i64::from(d)
     }
 }
 
@@ -321,9 +322,13 @@ impl Flat {
                 }
             },
         };
-        if self.len > 0 && continues && self.hi.max(hi) - self.lo.min(lo) <= tol {
-            self.lo = self.lo.min(lo);
-            self.hi = self.hi.max(hi);
+        // Plain comparisons (no NaN here: statistics are never NaN); `f64::min`
+        // and `max` are library calls on a core without an FPU.
+        let new_lo = if lo < self.lo { lo } else { self.lo };
+        let new_hi = if hi > self.hi { hi } else { self.hi };
+        if self.len > 0 && continues && new_hi - new_lo <= tol {
+            self.lo = new_lo;
+            self.hi = new_hi;
             self.len = self.len.saturating_add(1);
         } else {
             if r.kind == Kind::Direction {
@@ -516,10 +521,12 @@ mod tests {
         let mut st: Station<6, 3> = Station::new(layout);
         let mut out = std::vec::Vec::new();
         let mut emit = |e: Event<'_, 6, 3>| {
-            if let Event::Closed(acc) = e {
-                out.push(core::array::from_fn(|c| {
-                    layout.finish(acc, c).unwrap().flags
-                }));
+            if let Event::Closed(acc, records) = e {
+                // The records handed out are the finished, screened ones.
+                for (c, r) in records.iter().enumerate() {
+                    assert_eq!(layout.finish(acc, c).as_ref(), Some(r));
+                }
+                out.push(records.map(|r| r.flags));
             }
         };
         for k in 0..intervals {
@@ -682,7 +689,7 @@ mod tests {
         let mut st: Station<6, 3> = Station::new(layout);
         let mut got = std::vec::Vec::new();
         let mut emit = |e: Event<'_, 6, 3>| {
-            if let Event::Closed(acc) = e {
+            if let Event::Closed(acc, _) = e {
                 got.push(layout.finish(acc, 0).unwrap());
             }
         };

@@ -505,8 +505,10 @@ pub struct Gap {
 /// What a station hands to its callback.
 #[derive(Debug)]
 pub enum Event<'a, const C: usize, const G: usize> {
-    /// An interval closed.
-    Closed(&'a IntervalAcc<C, G>),
+    /// An interval closed: its state (to merge, or to finish again) and the
+    /// finished records of its channels, screened and flagged (what
+    /// [`Layout::finish`] gives once the station has screened the interval).
+    Closed(&'a IntervalAcc<C, G>, &'a [ChannelRecord; C]),
     /// Intervals that held no samples; each counts as possible and lost.
     Gap(Gap),
 }
@@ -745,7 +747,7 @@ impl<const C: usize, const G: usize, L: Borrow<Layout<C>>> Station<C, G, L> {
         for (r, rec) in self.recovery.iter_mut().zip(records.iter()) {
             r.add_interval_in(month, self.layout.borrow().samples, &rec.tally, passes(rec));
         }
-        emit(Event::Closed(&self.open));
+        emit(Event::Closed(&self.open, &records));
     }
 
     /// Tells the station the time is `now` without a sample (a timer at an

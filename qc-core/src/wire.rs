@@ -22,7 +22,7 @@
 //! let mut station: Station<1, 3> = Station::new(layout);
 //! let mut log = Vec::new();
 //! let mut on_event = |event: Event<'_, 1, 3>| {
-//!     if let Event::Closed(acc) = event {
+//!     if let Event::Closed(acc, _) = event {
 //!         let frame = RecordFrame {
 //!             sequence: (log.len() / FRAME_LEN) as u32,
 //!             interval_start: layout.interval_start(acc.index()),
@@ -1557,7 +1557,7 @@ mod tests {
                 Reading::Value(12.5),
             ];
             station.push(t, &rd, |e| {
-                if let Event::Closed(acc) = e {
+                if let Event::Closed(acc, _) = e {
                     for c in 0..4 {
                         frames.push(RecordFrame {
                             sequence: frames.len() as u32,

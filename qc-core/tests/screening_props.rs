@@ -59,7 +59,7 @@ fn run(layout: Layout<5>, samples: &[(i64, [Reading; 5])]) -> (Vec<[ChannelRecor
     let mut st: Station<5, 4> = Station::new(layout);
     let mut out = Vec::new();
     let mut emit = |e: Event<'_, 5, 4>| {
-        if let Event::Closed(acc) = e {
+        if let Event::Closed(acc, _) = e {
             out.push(layout.finish_all(acc));
         }
     };

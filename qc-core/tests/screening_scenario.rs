@@ -115,7 +115,7 @@ fn simulate() -> Vec<Interval> {
     let mut plans = Vec::new();
     let mut closed: Vec<[Flags; 6]> = Vec::new();
     let mut emit = |e: Event<'_, 6, 3>| match e {
-        Event::Closed(acc) => closed.push(core::array::from_fn(|c| {
+        Event::Closed(acc, _) => closed.push(core::array::from_fn(|c| {
             layout.finish(acc, c).map(|r| r.flags).unwrap_or_default()
         })),
         Event::Gap(_) => panic!("no gaps are planted"),

@@ -53,7 +53,7 @@ fn anemometer_and_vane(samples: &[(f64, f64)]) -> (ChannelRecord, ChannelRecord)
     let t0 = utc(2024, 6, 1, 12, 0, 0).millis();
     let mut out = None;
     let mut keep = |e: Event<'_, 2, 3>| {
-        if let Event::Closed(acc) = e {
+        if let Event::Closed(acc, _) = e {
             out = Some((
                 layout.finish(acc, 0).unwrap(),
                 layout.finish(acc, 1).unwrap(),
@@ -224,7 +224,7 @@ fn recovery_of(valid: usize) -> (f64, ChannelRecord) {
     let t0 = utc(2024, 6, 1, 0, 0, 0).millis();
     let mut rec = None;
     let mut keep = |e: Event<'_, 1, 3>| {
-        if let Event::Closed(acc) = e {
+        if let Event::Closed(acc, _) = e {
             rec = layout.finish(acc, 0);
         }
     };

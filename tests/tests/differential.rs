@@ -324,7 +324,7 @@ proptest! {
         let mut station: Station<4, G> = Station::new(layout);
         let mut closed: Vec<(i64, [ChannelRecord; 4])> = Vec::new();
         let mut on_event = |e: Event<'_, 4, G>| {
-            if let Event::Closed(acc) = e {
+            if let Event::Closed(acc, _) = e {
                 closed.push((acc.index(), std::array::from_fn(|ch| layout.finish(acc, ch).unwrap())));
             }
         };

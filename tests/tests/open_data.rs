@@ -112,7 +112,7 @@ fn core_intervals() -> BTreeMap<Timestamp, Interval> {
     let mut out = BTreeMap::new();
     let mut raw: BTreeMap<i64, Vec<f64>> = BTreeMap::new();
     let mut keep = |e: Event<'_, 2, 3>| {
-        if let Event::Closed(acc) = e {
+        if let Event::Closed(acc, _) = e {
             let start = layout.interval_start(acc.index());
             out.insert(
                 start,

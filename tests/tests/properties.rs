@@ -435,7 +435,7 @@ proptest! {
         {
             let mut on_event = |e: Event<'_, 4, G>| {
                 let (first, count) = match e {
-                    Event::Closed(acc) => {
+                    Event::Closed(acc, _) => {
                         for (ch, c) in acc.channels().iter().enumerate() {
                             counted[ch] += c.tally().total();
                             closed_possible[ch] += u64::from(layout.finish(acc, ch).unwrap().n_possible);
@@ -516,7 +516,7 @@ fn long_jumps_are_one_gap() {
     for t in [utc(2000, 1, 1, 0, 0, 0), utc(3000, 1, 1, 0, 0, 0)] {
         station.push(t, &row, |e| match e {
             Event::Gap(g) => gaps.push(g),
-            Event::Closed(_) => closed += 1,
+            Event::Closed(..) => closed += 1,
         });
     }
     let intervals = 365_243u64 * 144;

@@ -105,21 +105,31 @@ fn station_case<const C: usize>(
     let work = pushes(&mut st, T0 + 10_000, table, N, true);
     let base = pushes(&mut st, T0 + 10_000, table, N, false);
     let per_sample = m.per_op(N, work, base);
-    // Fill the interval, then time the push that closes it.
+    // Fill the interval, then time the push that closes it: the first close of
+    // a calendar month (the station works out the month's span once).
     pushes(&mut st, T0 + i64::from(10 + N) * 1000, table, 590 - N, true);
-    let start = now();
     let r = black_box(&table[0]);
-    st.push(Timestamp::from_millis(T0 + 600_000), r, |e| {
-        black_box(&e);
-    });
-    let closing = ticks(start, now());
-    let close = m.per_op(1, closing, 0).saturating_sub(per_sample);
+    let closing_push = |st: &mut Station<C, 3>, at: i64| {
+        let start = now();
+        st.push(Timestamp::from_millis(at), r, |e| {
+            black_box(&e);
+        });
+        ticks(start, now())
+    };
+    let first = m
+        .per_op(1, closing_push(&mut st, T0 + 600_000), 0)
+        .saturating_sub(per_sample);
+    // The next interval's close: the steady state.
+    pushes(&mut st, T0 + 600_000 + 1000, table, 599, true);
+    let close = m
+        .per_op(1, closing_push(&mut st, T0 + 1_200_000), 0)
+        .saturating_sub(per_sample);
     // Time `finish` of every channel of a full interval.
     let mut finish = 0u64;
     let lay = layout;
-    pushes(&mut st, T0 + 600_000 + 1000, table, 599, true);
-    st.push(Timestamp::from_millis(T0 + 1_200_000), r, |e| {
-        if let Event::Closed(acc) = e {
+    pushes(&mut st, T0 + 1_200_000 + 1000, table, 599, true);
+    st.push(Timestamp::from_millis(T0 + 1_800_000), r, |e| {
+        if let Event::Closed(acc, _) = e {
             let start = now();
             for ch in 0..C {
                 black_box(lay.finish(acc, ch));
@@ -128,10 +138,11 @@ fn station_case<const C: usize>(
         }
     });
     println!(
-        "budget: {:<34} per sample {:>6}   interval close {:>6}   finish {:>6} ({} per channel)",
+        "budget: {:<34} per sample {:>6}   interval close {:>6}   first of a month {:>6}   finish {:>6} ({} per channel)",
         name,
         per_sample,
         close,
+        first,
         finish,
         finish / C.max(1) as u64
     );
@@ -397,12 +408,16 @@ fn scenario_case(m: &Meter, slot: &mut LoggerSlot) -> Option<()> {
     let per_sample = m.per_op(N, work, base);
     run(&mut logger, T0 + i64::from(10 + N) * 1000, 590 - N, true);
     let closing = run(&mut logger, T0 + 600_000, 1, true);
+    let first = m.per_op(1, closing, 0).saturating_sub(per_sample);
+    run(&mut logger, T0 + 601_000, 599, true);
+    let closing = run(&mut logger, T0 + 1_200_000, 1, true);
     let close = m.per_op(1, closing, 0).saturating_sub(per_sample);
     println!(
-        "budget: {:<34} per sample {:>6}   interval close {:>6}   ({} per channel, incl. frames)",
+        "budget: {:<34} per sample {:>6}   interval close {:>6}   first of a month {:>6}   ({} per channel, incl. frames)",
         "scenario logger (8 channels)",
         per_sample,
         close,
+        first,
         close / CHANNELS as u64
     );
     // One record frame: encode only.
