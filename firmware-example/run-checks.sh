@@ -173,67 +173,89 @@ echo "(Cortex-M4F, for comparison)"
 timeout 120 "${qemu_m4[@]}" -icount shift=0 -semihosting-config "$semi" \
   -kernel "$(elf thumbv7em-none-eabihf budget)" | tee budget-m4.txt
 
+step "budgets: the minimal 8-channel logger runs a day under QEMU (footprint, footprint_base)"
+for b in footprint footprint_base; do
+  timeout 60 "${qemu_m0[@]}" -semihosting-config "$semi" -kernel "$(elf thumbv6m-none-eabi $b)" \
+    || fail "$b on the Cortex-M0"
+  timeout 60 "${qemu_m4[@]}" -semihosting-config "$semi" -kernel "$(elf thumbv7em-none-eabihf $b)" \
+    || fail "$b on the Cortex-M4F"
+done
+echo "footprint and footprint_base ran a day of samples on both targets"
+
 step "budgets: flash and RAM (llvm-size, bytes)"
 sections() { # sections ELF -> "vector text rodata data bss"
   llvm-size -A "$1" | awk '
     $1==".vector_table"{v=$2} $1==".text"{t=$2} $1==".rodata"{r=$2} $1==".data"{d=$2} $1==".bss"{b=$2}
     END{printf "%d %d %d %d %d\n", v, t, r, d, b}'
 }
-printf '%-34s %8s %8s %8s %8s %8s %8s %8s\n' binary vectors .text .rodata .data .bss flash RAM
+printf '%-38s %8s %8s %8s %8s %8s %8s %8s\n' binary vectors .text .rodata .data .bss flash RAM
 for t in thumbv6m-none-eabi thumbv7em-none-eabihf; do
-  for b in replay baseline; do
+  for b in footprint footprint_base replay baseline; do
     read -r v tx ro da bs < <(sections "$(elf "$t" "$b")")
-    printf '%-34s %8d %8d %8d %8d %8d %8d %8d\n' "$b ($t)" "$v" "$tx" "$ro" "$da" "$bs" \
+    printf '%-38s %8d %8d %8d %8d %8d %8d %8d\n' "$b ($t)" "$v" "$tx" "$ro" "$da" "$bs" \
       $((v + tx + ro + da)) $((da + bs))
   done
 done
 flash() { read -r v tx ro da _ < <(sections "$1"); echo $((v + tx + ro + da)); }
-m0_replay=$(flash "$(elf thumbv6m-none-eabi replay)")
-m0_base=$(flash "$(elf thumbv6m-none-eabi baseline)")
-share=$((m0_replay - m0_base))
+share=$(($(flash "$(elf thumbv6m-none-eabi footprint)") - $(flash "$(elf thumbv6m-none-eabi footprint_base)")))
+replay_share=$(($(flash "$(elf thumbv6m-none-eabi replay)") - $(flash "$(elf thumbv6m-none-eabi baseline)")))
 
 echo
-echo "qc-core share of flash on thumbv6m, by symbol (llvm-nm sizes; code qc-core inlined into"
-echo "the firmware's functions is counted under firmware):"
-llvm-nm -S -C --size-sort --radix=d "$(elf thumbv6m-none-eabi replay)" | awk '
-  $3 ~ /^[tTrR]$/ { size=$2+0; $1=""; $2=""; $3=""; n=substr($0,4);
+echo "what the minimal logger adds to flash on thumbv6m, by symbol (llvm-nm sizes of the symbols"
+echo "footprint has and footprint_base has not; qc-core inlined into the logger counts as logger):"
+llvm-nm -C "$(elf thumbv6m-none-eabi footprint_base)" | awk '{ $1=""; $2=""; print substr($0,3) }' \
+  | sed 's/::h[0-9a-f]\{16\}$//' | sort -u >"$out/base.syms"
+llvm-nm -S -C --radix=d "$(elf thumbv6m-none-eabi footprint)" | awk '
+  NR==FNR { base[$0]=1; next }
+  $3 ~ /^[tTrRdD]$/ { size=$2+0; $1=""; $2=""; $3=""; n=substr($0,4); sub(/::h[0-9a-f]+$/, "", n);
+    if (n in base) next;
     if (n ~ /qc_core/) c="qc-core";
     else if (n ~ /^libm::/) c="libm (qc-core dependency)";
     else if (n ~ /compiler_builtins|^__/) c="compiler-builtins (soft f64, 64-bit int, mem*)";
-    else if (n ~ /firmware_example|^replay::/) c="firmware (logger, replay loop, inlined qc-core)";
-    else if (n ~ /semihosting/) c="semihosting";
-    else if (n ~ /cortex_m/) c="cortex-m, cortex-m-rt";
-    else c="core (fmt, slices) and other";
+    else if (n ~ /scenario::LAYOUT/) c="the validated layout (data, in flash)";
+    else if (n ~ /firmware_example/) c="logger (firmware_example::logger, inlined qc-core)";
+    else c="the program itself and core";
     sum[c]+=size }
-  END { for (c in sum) printf "  %7d  %s\n", sum[c], c }' | sort -rn
+  END { for (c in sum) printf "  %7d  %s\n", sum[c], c }' "$out/base.syms" - | sort -rn
 
 m0_ram=$(sections "$(elf thumbv6m-none-eabi replay)" | awk '{print $4 + $5}')
-station=$(sed -n 's/.*Station<8,3> \([0-9]*\) B.*/\1/p' budget-m0.txt)
-acc=$(sed -n 's/.*IntervalAcc<8,3> \([0-9]*\) B.*/\1/p' budget-m0.txt)
-layout=$(sed -n 's/.*Layout<8> \([0-9]*\) B.*/\1/p' budget-m0.txt)
-replay_station=$(sed -n 's/.*replay logger: Station<8,12> \([0-9]*\) B.*/\1/p' budget-m0.txt)
-replay_slot=$(sed -n 's/.*replay logger: .*slot (station and a closed interval) \([0-9]*\) B.*/\1/p' budget-m0.txt)
-per() { sed -n "s/^budget: $1 *per sample *\([0-9]*\).*/\1/p" budget-m0.txt; }
-close_of() { sed -n "s/^budget: $1 *per sample *[0-9]* *interval close *\([0-9]*\).*/\1/p" budget-m0.txt; }
+fp_ram=$(sections "$(elf thumbv6m-none-eabi footprint)" | awk '{print $4 + $5}')
+field() { sed -n "s/.*$1 \([0-9]*\) B.*/\1/p" budget-m0.txt | head -1; }
+state=$(field 'Station<8,3,&Layout>')
+layout=$(field 'Layout<8>')
+acc=$(field 'IntervalAcc<8,3>')
+rec=$(field '8 x Recovery')
+scr=$(field 'Screener<8>')
+# budget_line NAME: the numbers after "per sample" on the budget line NAME
+line() { grep -F "budget: $1 " budget-m0.txt | head -1; }
+num() { line "$1" | sed -n "s/.*$2 *\([0-9]*\).*/\1/p"; }
 verdict() { if [ "$1" -le "$2" ]; then echo met; else echo "missed by $(($1 - $2))"; fi; }
 
 step "budgets table (Cortex-M0, thumbv6m-none-eabi, QEMU microbit)"
-printf '%-58s %10s %10s  %s\n' measure measured target verdict
-row() { printf '%-58s %10s %10s  %s\n' "$1" "$2" "$3" "$(verdict "$2" "$3")"; }
-row "qc-core flash share: replay - baseline (bytes)" "$share" 16384
-row "channel state, 8 channels: Station<8,3> (bytes)" "$station" 2048
-row "  of which per-interval accumulators IntervalAcc<8,3>" "$acc" 2048
-printf '%-58s %10s\n' "  of which validated layout Layout<8> (could live in flash)" "$layout"
-printf '%-58s %10s\n' "replay board's station, 12-sample gusts: Station<8,12>" "$replay_station"
-printf '%-58s %10s\n' "  its static slot (station and a closed interval)" "$replay_slot"
-printf '%-58s %10s\n' "replay board RAM, static (.data + .bss, bytes)" "$m0_ram"
-printf '%-58s %10s\n' "replay board stack region (memory/microbit.x, bytes)" $((stack_top - stack_bottom))
-row "instructions per speed sample (cup, Reading::Counts)" "$(per 'speed, Reading::Counts (cup)')" 150
-row "instructions per speed sample (Reading::Value)" "$(per 'speed, Reading::Value')" 150
-row "instructions per direction sample (vane, Reading::Counts)" "$(per 'direction, Reading::Counts (vane)')" 300
-row "instructions per direction sample (Reading::Value)" "$(per 'direction, Reading::Value')" 300
-row "interval close, speed channel (instructions)" "$(close_of 'speed, Reading::Counts (cup)')" 20000
-row "interval close, direction channel (instructions)" "$(close_of 'direction, Reading::Counts (vane)')" 20000
-row "interval close, scalar channel (instructions)" "$(close_of 'scalar, Reading::Value')" 20000
+printf '%-64s %10s %8s  %s\n' measure measured target verdict
+row() { printf '%-64s %10s %8s  %s\n' "$1" "$2" "$3" "$(verdict "$2" "$3")"; }
+info() { printf '%-64s %10s\n' "$1" "$2"; }
+row "qc-core flash share, 8-channel logger: footprint - base (B)" "$share" 16384
+info "  the replay board: replay - baseline (B)" "$replay_share"
+row "channel state, 8 channels: Station<8,3,&Layout> (B)" "$state" 2048
+info "  of which interval accumulators IntervalAcc<8,3>" "$acc"
+info "  of which running recovery, 8 x Recovery" "$rec"
+info "  of which flat-line history, Screener<8>" "$scr"
+info "  the validated layout Layout<8>, in flash (B)" "$layout"
+info "  the 8-channel logger's static RAM (.data + .bss, B)" "$fp_ram"
+info "  the replay board's static RAM (.data + .bss, B)" "$m0_ram"
+info "  the replay board's stack region (memory/microbit.x, B)" $((stack_top - stack_bottom))
+row "instructions per speed sample, 8 cups (counts), per channel" "$(num '8 x speed, Reading::Counts (cup)' 'per channel')" 150
+row "instructions per speed sample, 1-channel station (counts)" "$(num 'speed, Reading::Counts (cup)' 'per sample')" 150
+info "  the same, Reading::Value (soft floating point)" "$(num 'speed, Reading::Value' 'per sample')"
+row "instructions per direction sample, 8 vanes (counts), per channel" "$(num '8 x direction, Reading::Counts' 'per channel')" 300
+row "instructions per direction sample, 1-channel station (counts)" "$(num 'direction, Reading::Counts (vane)' 'per sample')" 300
+info "  the same, Reading::Value (soft floating point)" "$(num 'direction, Reading::Value' 'per sample')"
+info "  the station's own work per sample (no channel)" "$(num 'station alone (0 channels)' 'per sample')"
+row "interval close, speed channel (steady state)" "$(num 'speed, Reading::Counts (cup)' 'interval close')" 20000
+row "interval close, direction channel (steady state)" "$(num 'direction, Reading::Counts (vane)' 'interval close')" 20000
+row "interval close, scalar channel (steady state)" "$(num 'scalar, Reading::Value' 'interval close')" 20000
+row "interval close, 8-channel scenario logger incl. frames, per channel" "$(line 'scenario logger (8 channels)' | sed -n 's/.*(\([0-9]*\) per channel.*/\1/p')" 20000
+info "  the first close of a calendar month, station alone" "$(num 'station alone (0 channels)' 'first of a month')"
 echo
 echo "run-checks.sh: firmware checks passed (budgets are reported, not enforced)"
