@@ -229,6 +229,12 @@ pub fn parse(path: &Path, text: &str) -> Result<StationFile> {
             &format!("`sample_rate_hz` {rate} times `interval_s` {interval_s} must be a whole number of samples")
         ));
     }
+    if rate > 1000.0 {
+        bail!(at.err(
+            logging.sample_rate_hz.span(),
+            &format!("`sample_rate_hz` {rate}: at most 1000 (timestamps are whole milliseconds)")
+        ));
+    }
     if n.round() > f64::from(qc_core::MAX_SAMPLES_PER_INTERVAL) {
         bail!(at.err(
             logging.sample_rate_hz.span(),
@@ -876,6 +882,16 @@ offset = 1
                 "sample_rate_hz = 1",
                 "sample_rate_hz = 1\ninterval_s = 7",
                 "divide 86400",
+            ),
+            (
+                "sample_rate_hz = 1",
+                "sample_rate_hz = 2000",
+                "st.toml:3: `sample_rate_hz` 2000: at most 1000",
+            ),
+            (
+                "offset_deg = 5",
+                "offset_deg = 400",
+                "mounting offset must be within -360 to 360 degrees",
             ),
             (
                 "sample_rate_hz = 1",

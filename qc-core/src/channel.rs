@@ -101,7 +101,8 @@ pub struct ChannelConfig {
     pub range: (f64, f64),
     /// Gust window in samples (speed channels).
     pub gust_window: u16,
-    /// Vane mounting offset, degrees: `true = (raw + offset) mod 360` (common practice).
+    /// Vane mounting offset, degrees, -360 to 360: `true = (raw + offset) mod 360`
+    /// (common practice).
     pub mounting_offset_deg: f64,
     /// Index of the speed channel that weights this direction's resultant vector.
     pub speed_channel: Option<u8>,
@@ -1113,6 +1114,36 @@ impl ChannelRecord {
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    #[test]
+    fn limits_of_the_compact_state_are_refused_at_configuration() {
+        // A speed range whose quanta times the gust window would not fit i32.
+        let wide = ChannelConfig::speed(0.001).with_range(0.0, 1e6);
+        assert_eq!(Channel::new(wide, 3), Err(ChannelProblem::RangeTooWide));
+        assert!(Channel::new(ChannelConfig::speed(0.001).with_range(0.0, 1e5), 3).is_ok());
+        // Mounting offsets beyond a turn either way.
+        let vane = |deg| ChannelConfig::direction().with_mounting_offset(deg);
+        assert_eq!(
+            Channel::new(vane(360.5), 1),
+            Err(ChannelProblem::MountingOffset)
+        );
+        assert_eq!(
+            Channel::new(vane(-361.0), 1),
+            Err(ChannelProblem::MountingOffset)
+        );
+        assert!(Channel::new(vane(-360.0), 1).is_ok());
+        // More samples per interval than milliseconds.
+        let mut st = crate::StationConfig::ten_minute_1hz();
+        st.interval_s = 1;
+        st.samples_per_interval = 1_001;
+        let ch = [ChannelConfig::scalar(1.0)];
+        assert_eq!(
+            crate::Layout::new::<1>(st, &ch).err(),
+            Some(crate::ConfigError::SampleCount)
+        );
+        st.samples_per_interval = 1_000;
+        assert!(crate::Layout::new::<1>(st, &ch).is_ok());
+    }
 
     #[test]
     fn direction_counts_fast_path_is_the_general_formula() {

@@ -44,7 +44,7 @@ pub enum ChannelProblem {
     SpeedLink,
     /// A direction calibration slope above 300 degrees per count.
     DirectionSlope,
-    /// The mounting offset is not finite.
+    /// The mounting offset is not finite or beyond +/-360 degrees.
     MountingOffset,
     /// A screening setting is out of its domain (NaN, negative limit, low end
     /// above high end, recovery outside 0 to 1).
@@ -59,11 +59,11 @@ impl fmt::Display for ChannelProblem {
         f.write_str(match self {
             ChannelProblem::Scale => "resolution or calibration slope must be finite and positive, offset finite",
             ChannelProblem::Range => "range must be finite with low <= high",
-            ChannelProblem::RangeTooWide => "range is too wide for the resolution (quanta must fit 31 bits; directions within +/-1e6 degrees)",
+            ChannelProblem::RangeTooWide => "range is too wide for the resolution (quanta must fit 31 bits, and for speed a gust window of them too; directions within +/-1e6 degrees)",
             ChannelProblem::GustWindow => "gust window must be at least one sample and within the station's gust capacity",
             ChannelProblem::SpeedLink => "linked speed channel must exist and be of kind speed",
             ChannelProblem::DirectionSlope => "direction calibration slope must be at most 300 degrees per count",
-            ChannelProblem::MountingOffset => "mounting offset must be finite",
+            ChannelProblem::MountingOffset => "mounting offset must be within -360 to 360 degrees",
             ChannelProblem::Screen => "screening setting out of range (NaN, negative limit, low above high, or recovery outside 0..1)",
             ChannelProblem::ScreenLink => "screening names a missing channel or one of the wrong kind (partner/above: speed; icing: scalar temperature and humidity)",
         })

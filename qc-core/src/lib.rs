@@ -69,20 +69,26 @@
 //!
 //! | state | bytes |
 //! |---|---|
-//! | [`SpeedAcc<3>`] (speed, 3-sample gust window) | 96 |
+//! | [`SpeedAcc<3>`] (speed, 3-sample gust window) | 88 |
 //! | [`DirectionAcc`] (vane) | 32 |
 //! | [`LinkedDirectionAcc`] (vane with speed-weighted resultant) | 88 |
 //! | [`ScalarAcc`] | 48 |
-//! | [`Recovery`] (running recovery of one channel) | 128 |
+//! | [`Recovery`] (running recovery of one channel) | 88 |
 //! | [`screen::Spikes`] (spike test, one channel, one interval) | 16 |
-//! | [`Screener<1>`] (flat-line history, per channel) | 48 |
-//! | [`IntervalAcc<8, 3>`] (open interval, 8 channels, with spikes and flags) | 1,016 |
-//! | [`Layout<8>`] (validated configuration of 8 channels) | 2,384 |
-//! | [`Station<8, 3>`] (all of the above for 8 channels) | 4,936 |
+//! | [`Screener<1>`] (flat-line history: 32 per channel, 8 per station) | 40 |
+//! | [`IntervalAcc<8, 3>`] (open interval, 8 channels, with spikes and flags) | 936 |
+//! | [`Layout<8>`] (validated configuration of 8 channels) | 2,448 |
+//! | [`Station<8, 3>`] (all of the above for 8 channels, owning its layout) | 4,456 |
+//! | `Station<8, 3, &Layout<8>>` (the running state, the layout elsewhere) | 2,008 on 32-bit targets, 2,016 on 64-bit |
 //!
 //! Each gust sample beyond 3 adds 8 bytes to a speed channel (4 in the running
 //! window, 4 in the head kept for exact merging). The sizes are asserted in
 //! this crate's tests.
+//!
+//! A logger with a fixed configuration validates its layout at compile time
+//! ([`Layout::new`] is a `const fn`) into a `static`, which stays in flash, and
+//! gives the station a reference to it: the station's RAM is then its running
+//! state alone.
 //!
 //! # Panics
 //!
