@@ -475,18 +475,18 @@ fn first_quadrant(x: u64, y: u64, with_len: bool) -> Polar {
     }
 }
 
-/// One CORDIC turn, `i = S / 2`, on `x` and `w = y 2^i`: turns by
-/// `-atan(2^-i)` when `y >= 0`, else by `+atan(2^-i)`, and adds that to `z`.
-/// `w' = 2 (w -+ x)` is exact; `x` moves by `y 2^-i = w 2^-S`, shifted down.
-/// Inlined with a constant shift and angle, so that each turn is a handful of
-/// 32-bit instructions on a Cortex-M0.
+/// CORDIC turn `i` (1 to 23) on `x` and `w = y 2^i`: turns by `-atan(2^-i)`
+/// when `y >= 0`, else by `+atan(2^-i)`, and adds that to `z`. `w' = 2 (w -+
+/// x)` is exact; `x` moves by `y 2^-i = w 2^-2i`, shifted down.
 #[inline(always)]
-fn turn<const S: u32>(x: &mut i64, w: &mut i64, z: &mut i64) {
-    let a = ATAN_STEP[(S / 2) as usize];
-    let dx = if S < 32 {
-        asr64(*w, S)
+fn turn(x: &mut i64, w: &mut i64, z: &mut i64, i: usize) {
+    let a = ATAN_STEP.get(i).copied().unwrap_or(0);
+    let s = 2 * i as u32;
+    // |w| < 2^61, so past 32 bits of shift the result fits the high word.
+    let dx = if s < 32 {
+        asr64(*w, s)
     } else {
-        i64::from(((*w >> 32) as i32) >> (S - 32))
+        i64::from(((*w >> 32) as i32) >> (s - 32))
     };
     if *w >= 0 {
         *w = (*w - *x) * 2;
@@ -510,10 +510,13 @@ fn vectoring(x0: u64, y0: u64, with_len: bool) -> (i64, u64) {
     let mut x = (x0 + y0) as i64;
     let mut w = (y0 as i64 - x0 as i64) * 2;
     let mut z = ATAN_STEP[0];
-    macro_rules! turns {
-        ($($s:literal)*) => { $( turn::<$s>(&mut x, &mut w, &mut z); )* };
+    // Turns 1 to 23 in a loop (unrolled, they cost 2.5 KB of flash on a
+    // Cortex-M0 for some 700 instructions less per interval).
+    let mut i = 1;
+    while i < 24 {
+        turn(&mut x, &mut w, &mut z, i);
+        i += 1;
     }
-    turns!(2 4 6 8 10 12 14 16 18 20 22 24 26 28 30 32 34 36 38 40 42 44 46);
     // Now x is in [2^58.7, 2^60.3) and t = |y| / x = |w| / (x 2^24) < 2^-23.
     // With the top 32 bits of x, d = x 2^-sx, and r = |w| 2^-(sx + 2) < d / 2:
     // q = r (2^63 / d) 2^-31 = t 2^54, within 2 units.

@@ -99,7 +99,7 @@ fn station_case<const C: usize>(
     layout: &Layout<C>,
     table: &[[Reading; C]; 8],
 ) -> (u64, u64) {
-    let mut st: Station<C, 3> = Station::new(*layout);
+    let mut st: Station<C, 3, &Layout<C>> = Station::new(layout);
     // Warm up: open the interval and fill the gust window.
     pushes(&mut st, T0, table, 10, true);
     let work = pushes(&mut st, T0 + 10_000, table, N, true);
@@ -109,7 +109,7 @@ fn station_case<const C: usize>(
     // a calendar month (the station works out the month's span once).
     pushes(&mut st, T0 + i64::from(10 + N) * 1000, table, 590 - N, true);
     let r = black_box(&table[0]);
-    let closing_push = |st: &mut Station<C, 3>, at: i64| {
+    let closing_push = |st: &mut Station<C, 3, &Layout<C>>, at: i64| {
         let start = now();
         st.push(Timestamp::from_millis(at), r, |e| {
             black_box(&e);
