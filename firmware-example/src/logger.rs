@@ -54,21 +54,30 @@ impl<const C: usize> LayoutSlot<C> {
         LayoutSlot::Empty
     }
 
-    /// Fills the slot with the layout `make` returns, or returns `make`'s
-    /// error (the slot is then empty). [`LayoutSlot::get`] hands it out.
-    ///
-    /// `make` should build the layout in its return place (end with the call of
-    /// `Layout::new`); the result is bound by reference and copied once, into
-    /// the slot, so the layout is on the stack once.
-    pub fn fill<E>(&mut self, make: impl FnOnce() -> Result<Layout<C>, E>) -> Result<(), E> {
-        *self = LayoutSlot::Empty;
-        match make() {
-            Ok(ref layout) => {
-                *self = LayoutSlot::Full(*layout);
-                Ok(())
-            }
-            Err(e) => Err(e),
+    /// Fills the slot with a layout that `build` validates in place (with
+    /// `Layout::rebuild`, so that no second layout is on the stack), or
+    /// returns `build`'s error (the slot is then empty). [`LayoutSlot::get`]
+    /// hands it out.
+    pub fn fill<E>(
+        &mut self,
+        build: impl FnOnce(&mut Layout<C>) -> Result<(), E>,
+    ) -> Result<(), E> {
+        self.clear_to_placeholder();
+        let result = match self {
+            LayoutSlot::Full(layout) => build(layout),
+            LayoutSlot::Empty => Ok(()),
+        };
+        if result.is_err() {
+            *self = LayoutSlot::Empty;
         }
+        result
+    }
+
+    /// Not inlined: whatever temporary the compiler makes for the placeholder
+    /// is gone from the stack before the layout is validated.
+    #[inline(never)]
+    fn clear_to_placeholder(&mut self) {
+        *self = LayoutSlot::Full(Layout::PLACEHOLDER);
     }
 
     /// The layout, once filled.
@@ -109,7 +118,7 @@ impl<'a, const C: usize, const G: usize> LoggerSlot<'a, C, G> {
     /// frame sequence numbers start at 0. `None` only if the slot could not be
     /// filled (which does not happen).
     pub fn start(&mut self, layout: &'a Layout<C>) -> Option<Logger<'_, 'a, C, G>> {
-        *self = new_slot(layout);
+        put_station(self, layout);
         match self {
             LoggerSlot::Full(station) => Some(Logger {
                 station,
@@ -122,11 +131,14 @@ impl<'a, const C: usize, const G: usize> LoggerSlot<'a, C, G> {
     }
 }
 
-/// Not inlined: builds the station in its return place, so that it is on
-/// the stack at most once before it is copied into the slot.
+/// Not inlined: whatever temporary the compiler makes for the new station
+/// takes stack only while this runs, not in the caller's frame.
 #[inline(never)]
-fn new_slot<'a, const C: usize, const G: usize>(layout: &'a Layout<C>) -> LoggerSlot<'a, C, G> {
-    LoggerSlot::Full(Station::new(layout))
+fn put_station<'a, const C: usize, const G: usize>(
+    slot: &mut LoggerSlot<'a, C, G>,
+    layout: &'a Layout<C>,
+) {
+    *slot = LoggerSlot::Full(Station::new(layout));
 }
 
 /// A running logger: a station in a [`LoggerSlot`], its layout and the frame

@@ -239,33 +239,32 @@ fn read_header<S: Source, W>(
     Ok((part.station, count))
 }
 
-/// The core's layout of the station, built in the caller's place. Not
-/// inlined: the core's temporaries take stack only while it runs.
+/// Validates the station into `layout`, in place. Not inlined: the core's
+/// temporaries take stack only while it runs.
 #[inline(never)]
 fn build_layout(
+    layout: &mut Layout<CAPACITY>,
     station: StationConfig,
     configs: &[ChannelConfig; CAPACITY],
-) -> Result<Layout<CAPACITY>, ConfigError> {
-    Layout::new::<GUST_CAPACITY>(station, configs)
+) -> Result<(), ConfigError> {
+    layout.rebuild::<GUST_CAPACITY>(station, configs)
 }
 
-/// Reads the header and returns the core's layout of its station, built in
-/// the caller's place (this is the closure of `LayoutSlot::fill`).
-/// Header problems go to `header`, with a stand-in layout error that is never
-/// shown: converting the core's `Result<Layout, ConfigError>` into a result
-/// of another error type would copy the 2.4 KiB layout once more on the
-/// stack. Not inlined: the channel configurations (1.8 KiB) take stack only
-/// while it runs.
+/// Reads the header and validates its station into `layout` (this is the
+/// closure of `LayoutSlot::fill`). Header problems go to `header`, with a
+/// stand-in layout error that is never shown. Not inlined: the channel
+/// configurations (1.8 KiB) take stack only while it runs.
 #[inline(never)]
 fn header_layout<S: Source, W>(
+    layout: &mut Layout<CAPACITY>,
     input: &mut Input<'_, S>,
     header: &mut Result<u8, ReplayError<S::Error, W>>,
-) -> Result<Layout<CAPACITY>, ConfigError> {
+) -> Result<(), ConfigError> {
     let mut configs = [ChannelConfig::scalar(1.0); CAPACITY];
     match read_header(input, &mut configs) {
         Ok((station, count)) => {
             *header = Ok(count);
-            build_layout(station, &configs)
+            build_layout(layout, station, &configs)
         }
         Err(e) => {
             *header = Err(e);
@@ -283,7 +282,7 @@ fn start<'s, 'a, S: Source, W>(
     slot: &'s mut ReplaySlot<'a>,
 ) -> Result<ReplayLogger<'s, 'a>, ReplayError<S::Error, W>> {
     let mut header = Ok(0);
-    let built = layouts.fill(|| header_layout(input, &mut header));
+    let built = layouts.fill(|layout| header_layout(layout, input, &mut header));
     let count = header?;
     built.map_err(ReplayError::Layout)?;
     let layouts: &'a ReplayLayoutSlot = layouts;

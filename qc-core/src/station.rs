@@ -73,6 +73,14 @@ pub struct Sentinels {
 }
 
 impl Sentinels {
+    /// No codes.
+    const NONE: Sentinels = Sentinels {
+        values: [0.0; MAX_SENTINELS],
+        counts: [0; MAX_SENTINELS],
+        n_values: 0,
+        n_counts: 0,
+    };
+
     pub(crate) const fn new(codes: &[Option<f64>; MAX_SENTINELS]) -> Result<Self, ConfigError> {
         let mut s = Sentinels {
             values: [0.0; MAX_SENTINELS],
@@ -166,6 +174,47 @@ impl<const C: usize> Layout<C> {
         station: StationConfig,
         channels: &[ChannelConfig; C],
     ) -> Result<Self, ConfigError> {
+        let mut layout = Self::PLACEHOLDER;
+        match layout.validate::<G>(station, channels) {
+            Ok(()) => Ok(layout),
+            Err(e) => Err(e),
+        }
+    }
+
+    /// A stand-in for [`Layout::rebuild`] to fill: ten-minute intervals of 600
+    /// samples and placeholder channels that take no reading as valid.
+    pub const PLACEHOLDER: Self = Layout {
+        interval_ms: 600_000,
+        samples: 600,
+        max_step_ms: 1_500,
+        sentinels: Sentinels::NONE,
+        channels: [Channel::placeholder(); C],
+    };
+
+    /// [`Layout::new`] in place: validates the station into `self`, without a
+    /// second layout on the stack (2.4 KiB for 8 channels, on a logger whose
+    /// stack is a few KiB). On an error `self` is [`Layout::PLACEHOLDER`].
+    pub const fn rebuild<const G: usize>(
+        &mut self,
+        station: StationConfig,
+        channels: &[ChannelConfig; C],
+    ) -> Result<(), ConfigError> {
+        match self.validate::<G>(station, channels) {
+            Ok(()) => Ok(()),
+            Err(e) => {
+                *self = Self::PLACEHOLDER;
+                Err(e)
+            }
+        }
+    }
+
+    /// The work of [`Layout::new`] and [`Layout::rebuild`]: writes the
+    /// validated station into `self` (partly, on an error).
+    const fn validate<const G: usize>(
+        &mut self,
+        station: StationConfig,
+        channels: &[ChannelConfig; C],
+    ) -> Result<(), ConfigError> {
         if C > 255 {
             return Err(ConfigError::TooManyChannels);
         }
@@ -181,16 +230,15 @@ impl<const C: usize> Layout<C> {
             Ok(s) => s,
             Err(e) => return Err(e),
         };
-        let mut out = [Channel::placeholder(); C];
         let mut i = 0;
         while i < C {
             let index = i as u8;
             let cfg = &channels[i];
-            out[i] = match Channel::new(*cfg, G) {
+            self.channels[i] = match Channel::new(*cfg, G) {
                 Ok(ch) => ch,
                 Err(problem) => return Err(ConfigError::Channel { index, problem }),
             };
-            out[i].note_codes(&sentinels);
+            self.channels[i].note_codes(&sentinels);
             let sc = &cfg.screen;
             let icing_ok = match sc.icing {
                 Some(ice) => {
@@ -220,13 +268,11 @@ impl<const C: usize> Layout<C> {
             i += 1;
         }
         let interval_ms = station.interval_s as i64 * 1000;
-        Ok(Layout {
-            interval_ms,
-            samples: n,
-            max_step_ms: 3 * interval_ms / (2 * n as i64),
-            sentinels,
-            channels: out,
-        })
+        self.interval_ms = interval_ms;
+        self.samples = n;
+        self.max_step_ms = 3 * interval_ms / (2 * n as i64);
+        self.sentinels = sentinels;
+        Ok(())
     }
 
     /// Interval length, ms.
@@ -636,12 +682,26 @@ impl<const C: usize, const G: usize, L: Borrow<Layout<C>>> Station<C, G, L> {
         // interval (`open_end` is `i64::MIN` when none is open), which lies in
         // the supported years, so none of the checks below can reject it.
         let ms = t.millis();
-        if ms < self.open_end && ms > self.last {
-            self.open.push(self.layout.borrow(), t, readings);
-            self.last = ms;
-            self.totals.accepted += 1;
-            return Pushed::Accepted;
+        if !(ms < self.open_end && ms > self.last) {
+            if let Err(reason) = self.enter(t, &mut emit) {
+                return Pushed::Rejected(reason);
+            }
         }
+        self.open.push(self.layout.borrow(), t, readings);
+        self.last = ms;
+        self.totals.accepted += 1;
+        Pushed::Accepted
+    }
+
+    /// The rare part of [`Station::push`], out of line: checks the time of a
+    /// sample that is not simply the next one in the open interval, counts a
+    /// rejection, or closes intervals and opens the sample's.
+    #[inline(never)]
+    fn enter<F: FnMut(Event<'_, C, G>)>(
+        &mut self,
+        t: Timestamp,
+        emit: &mut F,
+    ) -> Result<(), Reject> {
         if let Some(reason) = self.check_time(t) {
             match reason {
                 Reject::Duplicate => self.totals.duplicate += 1,
@@ -654,20 +714,17 @@ impl<const C: usize, const G: usize, L: Borrow<Layout<C>>> Station<C, G, L> {
             } else {
                 self.totals.unplaced += 1;
             }
-            return Pushed::Rejected(reason);
+            return Err(reason);
         }
         if t.millis() >= self.open_end {
             let k = self.layout.borrow().interval_of(t);
-            self.close(&mut emit);
-            self.gap_to(k, &mut emit);
+            self.close(&mut *emit);
+            self.gap_to(k, emit);
             self.open.reset(self.layout.borrow(), k);
             self.live = true;
             self.open_end = self.layout.borrow().interval_start(k + 1).millis();
         }
-        self.open.push(self.layout.borrow(), t, readings);
-        self.last = ms;
-        self.totals.accepted += 1;
-        Pushed::Accepted
+        Ok(())
     }
 
     fn check_time(&self, t: Timestamp) -> Option<Reject> {
