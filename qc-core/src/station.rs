@@ -429,6 +429,12 @@ impl<const C: usize, const G: usize> IntervalAcc<C, G> {
             layout.is_gap(ms.wrapping_sub(self.last))
         };
         self.last = ms;
+        if broken {
+            for (acc, spikes) in self.channels.iter_mut().zip(self.spikes.iter_mut()) {
+                acc.break_run();
+                spikes.break_chain();
+            }
+        }
         let sentinels = &layout.sentinels;
         // One pass over the channels (a Cortex-M0 pays for every extra load and
         // store); a direction linked to a speed classifies that speed's reading
@@ -439,10 +445,6 @@ impl<const C: usize, const G: usize> IntervalAcc<C, G> {
             .zip(layout.channels.iter())
             .zip(readings.iter().zip(self.spikes.iter_mut()))
         {
-            if broken {
-                acc.break_run();
-                spikes.break_chain();
-            }
             let speed = || {
                 let s = usize::from(ch.config().speed_channel?);
                 match (layout.channels.get(s), readings.get(s)) {
