@@ -58,9 +58,12 @@
 //!
 //! On a Cortex-M0 (`thumbv6m`) there is no FPU: the per-sample path for raw
 //! counts ([`Reading::Counts`]) is integer only; [`Reading::Value`] costs a
-//! software division and rounding per sample; finishing an interval costs a
-//! few software `f64` operations (`sqrt`, `atan2`, `asin`) per channel. A
-//! Cortex-M4F has a single-precision FPU only, so `f64` is in software there too.
+//! software multiply and rounding per sample. Finishing an interval costs a few
+//! software `f64` operations per speed or scalar channel (one division per
+//! statistic, a square root); the direction finish is integer (CORDIC and
+//! Newton steps in [`angle`]) up to the final conversion. A Cortex-M4F has a
+//! single-precision FPU only, so `f64` is in software there too. The firmware
+//! README has the instruction counts.
 //!
 //! # Memory
 //!
