@@ -252,6 +252,8 @@ row "instructions per direction sample, 8 vanes (counts), per channel" "$(num '8
 row "instructions per direction sample, 1-channel station (counts)" "$(num 'direction, Reading::Counts (vane)' 'per sample')" 300
 info "  the same, Reading::Value (soft floating point)" "$(num 'direction, Reading::Value' 'per sample')"
 info "  the station's own work per sample (no channel)" "$(num 'station alone (0 channels)' 'per sample')"
+info "instructions per scalar sample, raw counts, 1-channel station" "$(num 'scalar, Reading::Counts (ADC)' 'per sample')"
+info "  the same, Reading::Value (soft floating point)" "$(num 'scalar, Reading::Value' 'per sample')"
 row "interval close, speed channel (steady state)" "$(num 'speed, Reading::Counts (cup)' 'interval close')" 20000
 row "interval close, direction channel (steady state)" "$(num 'direction, Reading::Counts (vane)' 'interval close')" 20000
 row "interval close, scalar channel (steady state)" "$(num 'scalar, Reading::Value' 'interval close')" 20000

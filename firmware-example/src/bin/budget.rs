@@ -200,6 +200,16 @@ fn single_channel_cases(m: &Meter) -> Option<()> {
         [ChannelConfig::scalar(0.01)],
         &t,
     )?;
+    // A temperature on a 12-bit ADC: counts calibrated to deg C.
+    let t: [[Reading; 1]; 8] = core::array::from_fn(|i| [Reading::Counts(1_850 + i as i32 * 3)]);
+    case(
+        m,
+        "scalar, Reading::Counts (ADC)",
+        [ChannelConfig::scalar(1.0)
+            .with_calibration(100.0 / 4095.0, -40.0)
+            .with_range(-40.0, 60.0)],
+        &t,
+    )?;
     // A direction linked to a speed: the two-channel station less the speed alone.
     let t: [[Reading; 2]; 8] = core::array::from_fn(|i| {
         [
