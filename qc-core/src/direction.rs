@@ -322,22 +322,7 @@ mod tests {
     use super::*;
     use crate::angle::{FULL_TURN_CD, ONE_Q30};
 
-    /// SplitMix64 (public domain): reproducible test inputs.
-    struct Rng(u64);
-
-    impl Rng {
-        fn next(&mut self) -> u64 {
-            self.0 = self.0.wrapping_add(0x9E37_79B9_7F4A_7C15);
-            let mut z = self.0;
-            z = (z ^ (z >> 30)).wrapping_mul(0xBF58_476D_1CE4_E5B9);
-            z = (z ^ (z >> 27)).wrapping_mul(0x94D0_49BB_1331_11EB);
-            z ^ (z >> 31)
-        }
-
-        fn unit(&mut self) -> f64 {
-            (self.next() >> 11) as f64 / (1u64 << 53) as f64
-        }
-    }
+    use crate::test_rng::Rng;
 
     const B: f64 = 0.154_700_538_379_251_5; // 2/sqrt(3) - 1
 

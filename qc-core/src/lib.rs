@@ -114,6 +114,8 @@ pub mod moments;
 mod recovery;
 pub mod screen;
 mod station;
+#[cfg(test)]
+mod test_rng;
 pub mod time;
 pub mod wire;
 

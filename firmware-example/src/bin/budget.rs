@@ -300,6 +300,33 @@ static SCENARIO_TABLE: [[Reading; CHANNELS]; 8] = {
     t
 };
 
+/// Pushes `n` samples from `t0`, one a second, cycling through `table`, into
+/// a logger whose frames go nowhere; with `push` false the same loop without
+/// the logger (the baseline). SysTick ticks taken.
+fn logger_pushes(
+    logger: &mut Logger<'_>,
+    table: &[[Reading; CHANNELS]; 8],
+    t0: i64,
+    n: u32,
+    push: bool,
+) -> u32 {
+    let mut sink = |f: &[u8; FRAME_LEN]| -> Result<(), ()> {
+        black_box(f);
+        Ok(())
+    };
+    let start = now();
+    for i in 0..n {
+        let t = Timestamp::from_millis(t0 + i64::from(i) * 1000);
+        let r = black_box(&table[(i & 7) as usize]);
+        if push {
+            black_box(logger.push(t, r, &mut sink).is_ok());
+        } else {
+            black_box((t, r));
+        }
+    }
+    ticks(start, now())
+}
+
 /// Eight channels of one kind in the logger slot (8 x 3 channels, as the
 /// scenario's): instructions per sample of the whole logger, and per channel.
 #[inline(never)]
@@ -311,22 +338,8 @@ fn eight_case(
     table: &[[Reading; CHANNELS]; 8],
 ) -> Option<()> {
     let mut logger = slot.start(layout)?;
-    let mut sink = |f: &[u8; FRAME_LEN]| -> Result<(), ()> {
-        black_box(f);
-        Ok(())
-    };
-    let mut run = |logger: &mut Logger<'_>, t0: i64, n: u32, push: bool| {
-        let start = now();
-        for i in 0..n {
-            let t = Timestamp::from_millis(t0 + i64::from(i) * 1000);
-            let r = black_box(&table[(i & 7) as usize]);
-            if push {
-                black_box(logger.push(t, r, &mut sink).is_ok());
-            } else {
-                black_box((t, r));
-            }
-        }
-        ticks(start, now())
+    let run = |logger: &mut Logger<'_>, t0: i64, n: u32, push: bool| {
+        logger_pushes(logger, table, t0, n, push)
     };
     run(&mut logger, T0, 10, true);
     let work = run(&mut logger, T0 + 10_000, N, true);
@@ -395,22 +408,8 @@ static EIGHT_VANES: [[Reading; CHANNELS]; 8] = {
 fn scenario_case(m: &Meter, slot: &mut LoggerSlot) -> Option<()> {
     let mut logger = scenario::start_in(slot)?;
     let table = &SCENARIO_TABLE;
-    let mut sink = |f: &[u8; FRAME_LEN]| -> Result<(), ()> {
-        black_box(f);
-        Ok(())
-    };
-    let mut run = |logger: &mut Logger<'_>, t0: i64, n: u32, push: bool| {
-        let start = now();
-        for i in 0..n {
-            let t = Timestamp::from_millis(t0 + i64::from(i) * 1000);
-            let r = black_box(&table[(i & 7) as usize]);
-            if push {
-                black_box(logger.push(t, r, &mut sink).is_ok());
-            } else {
-                black_box((t, r));
-            }
-        }
-        ticks(start, now())
+    let run = |logger: &mut Logger<'_>, t0: i64, n: u32, push: bool| {
+        logger_pushes(logger, table, t0, n, push)
     };
     run(&mut logger, T0, 10, true);
     let work = run(&mut logger, T0 + 10_000, N, true);
