@@ -82,12 +82,7 @@ impl Sentinels {
     };
 
     pub(crate) const fn new(codes: &[Option<f64>; MAX_SENTINELS]) -> Result<Self, ConfigError> {
-        let mut s = Sentinels {
-            values: [0.0; MAX_SENTINELS],
-            counts: [0; MAX_SENTINELS],
-            n_values: 0,
-            n_counts: 0,
-        };
+        let mut s = Sentinels::NONE;
         let mut i = 0;
         while i < MAX_SENTINELS {
             if let Some(v) = codes[i] {
