@@ -4,6 +4,8 @@
 
 use core::cell::Cell;
 
+use embedded_hal::delay::DelayNs;
+use embedded_hal::digital::{self, ErrorKind as PinErrorKind, OutputPin};
 use embedded_hal::i2c::{self, ErrorKind as I2cErrorKind, NoAcknowledgeSource};
 use embedded_hal::spi::{self, ErrorKind as SpiErrorKind};
 
@@ -147,6 +149,56 @@ impl PulseCounter for SimPulses<'_> {
     }
 }
 
+/// A simulated output pin: its level, how often it was switched, and whether
+/// it fails (a broken load switch), shared with whoever drives the simulation.
+#[derive(Clone, Debug)]
+pub struct SimPin<'a> {
+    /// The level: `true` is high.
+    pub high: &'a Cell<bool>,
+    /// Level changes asked for.
+    pub switches: &'a Cell<u32>,
+    /// When set, every change fails with this error.
+    pub broken: &'a Cell<bool>,
+}
+
+impl digital::ErrorType for SimPin<'_> {
+    type Error = PinErrorKind;
+}
+
+impl OutputPin for SimPin<'_> {
+    fn set_low(&mut self) -> Result<(), PinErrorKind> {
+        self.set(false)
+    }
+
+    fn set_high(&mut self) -> Result<(), PinErrorKind> {
+        self.set(true)
+    }
+}
+
+impl SimPin<'_> {
+    fn set(&mut self, high: bool) -> Result<(), PinErrorKind> {
+        self.switches.set(self.switches.get() + 1);
+        if self.broken.get() {
+            return Err(PinErrorKind::Other);
+        }
+        self.high.set(high);
+        Ok(())
+    }
+}
+
+/// A simulated delay: adds up the time waited, in nanoseconds.
+#[derive(Clone, Debug)]
+pub struct SimDelay<'a> {
+    /// Nanoseconds waited so far.
+    pub waited_ns: &'a Cell<u64>,
+}
+
+impl DelayNs for SimDelay<'_> {
+    fn delay_ns(&mut self, ns: u32) {
+        self.waited_ns.set(self.waited_ns.get() + u64::from(ns));
+    }
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;
@@ -193,6 +245,38 @@ mod tests {
             adc.sample(0, &t),
             Ok(Reading::Value(-40.0 + 100.0 / 4096.0 * 2048.0))
         );
+    }
+
+    #[test]
+    fn supply_is_on_and_settled_only_while_the_sensors_are_read() {
+        use crate::drivers::power::SwitchedSupply;
+        let (high, switches, broken) = (Cell::new(true), Cell::new(0), Cell::new(false));
+        let waited = Cell::new(0u64);
+        let pin = SimPin {
+            high: &high,
+            switches: &switches,
+            broken: &broken,
+        };
+        let mut supply = SwitchedSupply::new(pin, SimDelay { waited_ns: &waited }, 50_000).unwrap();
+        assert!(!high.get(), "switched off at start");
+        // While reading: on, and the settling time has passed.
+        let seen = supply.powered(|| (high.get(), waited.get())).unwrap();
+        assert_eq!(seen, (true, 50_000_000));
+        assert!(!high.get(), "off again after the reading");
+        assert_eq!((switches.get(), supply.faults()), (3, 0));
+        // A switch that does not switch on: the sensors are not read.
+        broken.set(true);
+        let mut read = false;
+        assert_eq!(supply.powered(|| read = true), Err(PinErrorKind::Other));
+        assert!(!read);
+        // A switch that fails only when switching off: the reading is kept,
+        // the fault counted.
+        broken.set(false);
+        let value = supply.powered(|| {
+            broken.set(true);
+            7
+        });
+        assert_eq!((value, supply.faults()), (Ok(7), 1));
     }
 
     #[test]

@@ -1,6 +1,6 @@
 //! Sensor board demo: the drivers sample simulated devices (an ADS1115 for the
-//! vane, an MCP3208 for the analog sensors, pulse counters for the cups) once a
-//! second for 25 minutes of invented wind, and feed the scenario's station
+//! vane, an MCP3208 for the analog sensors behind a switched supply, pulse
+//! counters for the cups) once a second for 25 minutes of invented wind, and feed the scenario's station
 //! exactly as a logger would. Prints each closed interval and exits 0 when two
 //! full intervals of 8 channels were recorded.
 
@@ -12,9 +12,10 @@ use core::cell::Cell;
 use cortex_m_rt::entry;
 use firmware_example::drivers::analog::{AnalogFrontEnd, Linear};
 use firmware_example::drivers::cup::CupAnemometer;
+use firmware_example::drivers::power::SwitchedSupply;
 use firmware_example::drivers::vane::{Vane, ADDRESS_GND};
 use firmware_example::scenario::{self, LoggerSlot, CHANNELS};
-use firmware_example::sim::{SimAds1115, SimMcp3208, SimPulses};
+use firmware_example::sim::{SimAds1115, SimDelay, SimMcp3208, SimPin, SimPulses};
 use qc_core::wire::{decode_record, FRAME_LEN};
 use qc_core::{Reading, Stat, Timestamp};
 use semihosting::{println, process};
@@ -49,6 +50,19 @@ fn main() -> ! {
         process::exit(1)
     };
     let mut adc = AnalogFrontEnd::new(SimMcp3208 { inputs: &analog_in });
+    // The analog sensors' supply, on for 50 ms of settling and the reading
+    // (an invented figure: use the sensor maker's).
+    let (supply_on, switches, broken) = (Cell::new(false), Cell::new(0u32), Cell::new(false));
+    let waited = Cell::new(0u64);
+    let pin = SimPin {
+        high: &supply_on,
+        switches: &switches,
+        broken: &broken,
+    };
+    let Ok(mut supply) = SwitchedSupply::new(pin, SimDelay { waited_ns: &waited }, 50_000) else {
+        println!("sensors: supply switch did not respond");
+        process::exit(1)
+    };
     let mut cup_a = CupAnemometer::new(SimPulses { pending: &pulses_a });
     let mut cup_b = CupAnemometer::new(SimPulses { pending: &pulses_b });
     // Transfer functions: 0-3.3 V outputs on a 3.3 V reference.
@@ -89,15 +103,27 @@ fn main() -> ! {
 
         // The sampling step a logger runs every second: a failed read is a
         // missing reading, never a stopped logger.
+        // The analog sensors are powered only while they are read; without
+        // supply (a switch that failed) they count as missing.
+        let analog = supply
+            .powered(|| {
+                let on = supply_on.get();
+                let transfers = [&temperature, &humidity, &pressure, &battery];
+                core::array::from_fn::<Reading, 4, _>(|ch| match transfers.get(ch) {
+                    Some(t) if on => ok(adc.sample(ch as u8, t)),
+                    _ => Reading::Missing,
+                })
+            })
+            .unwrap_or([Reading::Missing; 4]);
         let readings: [Reading; CHANNELS] = [
             ok(cup_a.sample()),
             ok(cup_b.sample()),
             Reading::Value(7.0 + f64::from(swell) / 60.0),
             ok(vane.sample()),
-            ok(adc.sample(0, &temperature)),
-            ok(adc.sample(1, &humidity)),
-            ok(adc.sample(2, &pressure)),
-            ok(adc.sample(3, &battery)),
+            analog[0],
+            analog[1],
+            analog[2],
+            analog[3],
         ];
         let t = Timestamp::from_millis(T0 + i64::from(i) * 1000);
         let _ = logger.push(t, &readings, &mut on_frame);

@@ -9,7 +9,9 @@
 //!   through a divider) on inputs 0 to 3 of a Microchip MCP3208 12-bit SPI ADC
 //!   ([`analog::AnalogFrontEnd`]);
 //! - cup anemometers: reed or opto pulse outputs on timer/counter inputs that
-//!   the board exposes through [`cup::PulseCounter`].
+//!   the board exposes through [`cup::PulseCounter`];
+//! - the analog sensors' supply: a load switch on a GPIO, on only while they
+//!   are read ([`power::SwitchedSupply`], an output pin and a delay).
 //!
 //! Register maps and command formats are from memory of the parts' datasheets
 //! (TI SBAS444 for the ADS1115, Microchip DS21298 for the MCP3208): check them
@@ -17,4 +19,5 @@
 
 pub mod analog;
 pub mod cup;
+pub mod power;
 pub mod vane;
