@@ -219,12 +219,13 @@ pub struct Channel {
     /// Counts `0..=dir_fast_k` take the 32-bit path of [`Channel::classify`]
     /// (`k * dir_mul` fits a `u32`, `dir_add` is non-negative); -1 for none.
     dir_fast_k: i32,
+    /// Spike step limit in quanta (centidegrees for direction); `u32::MAX`
+    /// without one (no two samples differ by more).
+    spike_lim: u32,
+    offset_cd: i32,
     /// Direction counts to centidegrees, Q16: `cd = (k * mul + add) >> 16`.
     dir_mul: i64,
     dir_add: i64,
-    /// Spike step limit in quanta (centidegrees for direction).
-    step_q: Option<i64>,
-    offset_cd: i32,
     /// Gust window in samples (speed), a copy of the configuration's.
     gust_w: u16,
     /// Whether a missing-value code lies in the valid range, as counts and as a
@@ -313,11 +314,11 @@ impl Channel {
             dir_add: 0,
             dir_fast_k: -1,
             offset_cd: 0,
-            step_q: None,
             code_in_counts: true,
             code_in_values: true,
             dir_inline_lo: i32::MAX,
             gust_w: 1,
+            spike_lim: u32::MAX,
         }
     }
 
@@ -349,11 +350,11 @@ impl Channel {
             dir_add: 0,
             dir_fast_k: -1,
             offset_cd: 0,
-            step_q: None,
             code_in_counts: true,
             code_in_values: true,
             dir_inline_lo: i32::MAX,
             gust_w: cfg.gust_window,
+            spike_lim: u32::MAX,
         };
         let sc = &cfg.screen;
         if let Some(l) = sc.step_limit {
@@ -365,7 +366,14 @@ impl Channel {
             } else {
                 l / step
             };
-            ch.step_q = Some(cmath::floor(q.min(1e15)) as i64);
+            // Steps are at most u32::MAX quanta, so a limit there or above is
+            // never exceeded: the same as none.
+            let limit = cmath::floor(q.min(1e15));
+            ch.spike_lim = if limit < u32::MAX as f64 {
+                limit as u32
+            } else {
+                u32::MAX
+            };
         }
         if !screen_valid(sc) {
             return Err(ChannelProblem::Screen);
@@ -413,9 +421,10 @@ impl Channel {
         &self.cfg
     }
 
-    /// Spike step limit in quanta (centidegrees for direction).
-    pub(crate) const fn step_q(&self) -> Option<i64> {
-        self.step_q
+    /// Spike step limit in quanta (centidegrees for direction); `u32::MAX`
+    /// without one.
+    pub(crate) const fn spike_lim(&self) -> u32 {
+        self.spike_lim
     }
 
     /// Gust window in samples (0 for channels without a gust).
@@ -910,8 +919,8 @@ fn push_speed<const G: usize>(
         Class::Valid(q) => {
             a.moments.push(q);
             a.gust.push(q, usize::from(ch.gust_w));
-            if let Some(limit) = ch.step_q {
-                spikes.push(q, limit, false);
+            if ch.spike_lim != u32::MAX {
+                spikes.push(q, ch.spike_lim, false);
             }
         }
         _ => {
@@ -935,8 +944,8 @@ fn push_scalar(
     match class {
         Class::Valid(q) => {
             a.moments.push(q);
-            if let Some(limit) = ch.step_q {
-                spikes.push(q, limit, false);
+            if ch.spike_lim != u32::MAX {
+                spikes.push(q, ch.spike_lim, false);
             }
         }
         _ => spikes.break_chain(),
@@ -958,8 +967,8 @@ fn push_direction(
     tally.count(class);
     match class {
         Class::Valid(cd) => {
-            if let Some(limit) = ch.step_q {
-                spikes.push(cd, limit, true);
+            if ch.spike_lim != u32::MAX {
+                spikes.push(cd, ch.spike_lim, true);
             }
             Some(sums.push_q30(cd))
         }

@@ -180,7 +180,7 @@ impl Spikes {
     /// A valid sample `q` with step limit `limit` (in quanta, or centidegrees
     /// when `circular`).
     #[inline]
-    pub(crate) fn push(&mut self, q: i32, limit: i64, circular: bool) {
+    pub(crate) fn push(&mut self, q: i32, limit: u32, circular: bool) {
         if self.flags & SEEN == 0 {
             self.flags = SEEN | OPENS_VALID;
             self.first = q;
@@ -198,7 +198,7 @@ impl Spikes {
     }
 
     /// Merges the following piece; `joined` when no gap separates them.
-    pub(crate) fn merge(&mut self, later: &Spikes, limit: i64, circular: bool, joined: bool) {
+    pub(crate) fn merge(&mut self, later: &Spikes, limit: u32, circular: bool, joined: bool) {
         if later.flags & SEEN == 0 {
             return;
         }
@@ -219,16 +219,16 @@ impl Spikes {
     }
 }
 
-fn step(a: i32, b: i32, circular: bool) -> i64 {
+fn step(a: i32, b: i32, circular: bool) -> u32 {
     // 32-bit arithmetic (cheap on a logger core): |a - b| always fits a u32.
     let d = a.abs_diff(b);
     if circular {
         // Directions are in 0..36_000, so one turn at most: no division (a
         // Cortex-M0 has none); the remainder keeps any other input in range.
         let d = if d < 36_000 { d } else { d % 36_000 };
-        i64::from(d.min(36_000 - d))
+        d.min(36_000 - d)
     } else {
-        i64::from(d)
+        d
     }
 }
 

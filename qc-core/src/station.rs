@@ -496,7 +496,7 @@ impl<const C: usize, const G: usize> IntervalAcc<C, G> {
             let ch = &layout.channels[i];
             a.merge(b, ch.window(), joined);
             let circular = ch.config().kind == crate::Kind::Direction;
-            let limit = ch.step_q().unwrap_or(i64::MAX);
+            let limit = ch.spike_lim();
             self.spikes[i].merge(&later.spikes[i], limit, circular, joined);
         }
         self.clear_flags();
