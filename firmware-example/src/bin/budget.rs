@@ -327,6 +327,15 @@ fn logger_pushes(
     ticks(start, now())
 }
 
+/// Steady-state instructions per sample of a logger fed `table` from `T0`:
+/// a warm-up of 10 samples, then `N` timed less the same loop without it.
+fn logger_per_sample(m: &Meter, logger: &mut Logger<'_>, table: &[[Reading; CHANNELS]; 8]) -> u64 {
+    logger_pushes(logger, table, T0, 10, true);
+    let work = logger_pushes(logger, table, T0 + 10_000, N, true);
+    let base = logger_pushes(logger, table, T0 + 10_000, N, false);
+    m.per_op(N, work, base)
+}
+
 /// Eight channels of one kind in the logger slot (8 x 3 channels, as the
 /// scenario's): instructions per sample of the whole logger, and per channel.
 #[inline(never)]
@@ -338,13 +347,7 @@ fn eight_case(
     table: &[[Reading; CHANNELS]; 8],
 ) -> Option<()> {
     let mut logger = slot.start(layout)?;
-    let run = |logger: &mut Logger<'_>, t0: i64, n: u32, push: bool| {
-        logger_pushes(logger, table, t0, n, push)
-    };
-    run(&mut logger, T0, 10, true);
-    let work = run(&mut logger, T0 + 10_000, N, true);
-    let base = run(&mut logger, T0 + 10_000, N, false);
-    let per_sample = m.per_op(N, work, base);
+    let per_sample = logger_per_sample(m, &mut logger, table);
     println!(
         "budget: {:<34} per sample {:>6}   per channel {:>6}",
         name,
@@ -411,10 +414,7 @@ fn scenario_case(m: &Meter, slot: &mut LoggerSlot) -> Option<()> {
     let run = |logger: &mut Logger<'_>, t0: i64, n: u32, push: bool| {
         logger_pushes(logger, table, t0, n, push)
     };
-    run(&mut logger, T0, 10, true);
-    let work = run(&mut logger, T0 + 10_000, N, true);
-    let base = run(&mut logger, T0 + 10_000, N, false);
-    let per_sample = m.per_op(N, work, base);
+    let per_sample = logger_per_sample(m, &mut logger, table);
     run(&mut logger, T0 + i64::from(10 + N) * 1000, 590 - N, true);
     let closing = run(&mut logger, T0 + 600_000, 1, true);
     let first = m.per_op(1, closing, 0).saturating_sub(per_sample);
