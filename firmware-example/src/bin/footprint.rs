@@ -71,6 +71,7 @@ static REGISTERS: [[Reading; CHANNELS]; 4] = [
 
 #[entry]
 fn main() -> ! {
+    // The running state (2 KiB) in static memory; the layout is in flash.
     static mut LOGGER: LoggerSlot = LoggerSlot::new();
     let Some(mut logger) = scenario::start_in(LOGGER) else {
         process::exit(1)

@@ -33,8 +33,9 @@ fn show(s: Stat) -> f64 {
 
 #[entry]
 fn main() -> ! {
-    // cortex-m-rt turns this into a `&'static mut` owned by `main`: the logger
-    // (about 5 KiB) lives in static memory, not on the 16 KiB part's stack.
+    // cortex-m-rt turns this into a `&'static mut` owned by `main`: the logger's
+    // running state (2 KiB; its layout is in flash) lives in static memory,
+    // not on the 16 KiB part's stack.
     static mut LOGGER: LoggerSlot = LoggerSlot::new();
     let Some(mut logger) = scenario::start_in(LOGGER) else {
         println!("sensors: scenario layout refused");
