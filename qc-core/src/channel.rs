@@ -1146,6 +1146,37 @@ mod tests {
     }
 
     #[test]
+    fn rebuild_in_place_is_new_or_the_placeholder() {
+        use crate::{ConfigError, Layout, StationConfig};
+        let st = StationConfig::ten_minute_1hz();
+        let good = [
+            ChannelConfig::speed(0.01),
+            ChannelConfig::direction().with_speed_channel(0),
+        ];
+        let mut layout = Layout::<2>::PLACEHOLDER;
+        assert_eq!(layout.rebuild::<3>(st, &good), Ok(()));
+        assert_eq!(Some(layout), Layout::new::<3>(st, &good).ok());
+        // A refused station: the same error as `new`, and the placeholder left.
+        let bad = [
+            ChannelConfig::speed(0.01),
+            ChannelConfig::direction().with_speed_channel(1),
+        ];
+        let want = Layout::new::<3>(st, &bad).err();
+        assert!(matches!(want, Some(ConfigError::Channel { index: 1, .. })));
+        assert_eq!(layout.rebuild::<3>(st, &bad).err(), want);
+        assert_eq!(layout, Layout::<2>::PLACEHOLDER);
+        // And a layout validated at compile time equals one validated at run time.
+        const AT_COMPILE_TIME: Result<Layout<2>, ConfigError> = Layout::new::<3>(
+            StationConfig::ten_minute_1hz(),
+            &[
+                ChannelConfig::speed(0.01),
+                ChannelConfig::direction().with_speed_channel(0),
+            ],
+        );
+        assert_eq!(AT_COMPILE_TIME.ok(), Layout::new::<3>(st, &good).ok());
+    }
+
+    #[test]
     fn direction_counts_fast_path_is_the_general_formula() {
         let sentinels = crate::Sentinels::new(&[None; crate::MAX_SENTINELS]).unwrap();
         for (slope, offset, mount) in [
