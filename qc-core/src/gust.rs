@@ -84,18 +84,12 @@ impl<const G: usize> Gust<G> {
     /// Adds one valid sample. `w` must be in `1..=G` (the caller validated it).
     #[inline]
     pub fn push(&mut self, q: i32, w: usize) {
-        let head_len = usize::from(self.head_len);
-        if head_len + 1 < w && self.flags & BROKEN == 0 {
-            if let Some(slot) = self.head.get_mut(head_len) {
-                *slot = q;
-                self.head_len += 1;
-            }
-        }
-        let run = self.run;
+        let run = usize::from(self.run);
         let pos = usize::from(self.pos);
+        let full = run >= w;
         let mut window = self.window;
         if let Some(slot) = self.tail.get_mut(pos) {
-            if usize::from(run) >= w {
+            if full {
                 window = window.wrapping_sub(*slot);
             }
             *slot = q;
@@ -103,11 +97,22 @@ impl<const G: usize> Gust<G> {
         window = window.wrapping_add(q);
         self.window = window;
         self.pos = if pos + 1 >= w { 0 } else { pos as u8 + 1 };
-        let run = run.saturating_add(1);
-        self.run = run;
-        if usize::from(run) >= w {
-            self.offer(window);
+        if !full {
+            // Still filling the window (the run counts up to `w` and then
+            // stays: nothing needs more). While the piece is unbroken, its run
+            // is its first samples: the head keeps the first `w - 1`.
+            if self.flags & BROKEN == 0 && run + 1 < w {
+                if let Some(slot) = self.head.get_mut(run) {
+                    *slot = q;
+                }
+                self.head_len = (run + 1) as u8;
+            }
+            self.run = (run + 1) as u16;
+            if run + 1 < w {
+                return;
+            }
         }
+        self.offer(window);
     }
 
     /// Breaks the run: the next window starts afresh.
@@ -200,7 +205,7 @@ impl<const G: usize> Gust<G> {
             self.tail[..keep].copy_from_slice(&seq[..keep]);
             self.window = seq[..keep].iter().fold(0i32, |acc, &v| acc.wrapping_add(v));
             self.pos = if keep >= w { 0 } else { keep as u8 };
-            self.run = total;
+            self.run = total.min(w as u16);
         } else {
             self.tail = later.tail;
             self.window = later.window;

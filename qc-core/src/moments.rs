@@ -44,7 +44,10 @@ impl Wide {
     pub fn add_u64(&mut self, v: u64) {
         let (lo, carry) = self.lo.overflowing_add(v);
         self.lo = lo;
-        self.hi = self.hi.wrapping_add(u64::from(carry));
+        // Rare: a branch, not a 64-bit add of the carry on every call.
+        if carry {
+            self.hi = self.hi.wrapping_add(1);
+        }
     }
 
     /// Adds a signed 64-bit value (sign-extended): adds with carry, no
@@ -157,8 +160,13 @@ impl Moments {
             mul_u32(a, a)
         };
         self.sum_sq.add_u64(sq);
-        self.min = self.min.min(q);
-        self.max = self.max.max(q);
+        // Stores only when the extreme moves (rare once an interval is under way).
+        if q < self.min {
+            self.min = q;
+        }
+        if q > self.max {
+            self.max = q;
+        }
     }
 
     /// Adds all samples of `other`.

@@ -181,14 +181,19 @@ impl Spikes {
     /// when `circular`).
     #[inline]
     pub(crate) fn push(&mut self, q: i32, limit: u32, circular: bool) {
-        if self.flags & SEEN == 0 {
-            self.flags = SEEN | OPENS_VALID;
+        let f = self.flags;
+        if f & ENDS_VALID != 0 {
+            // The common case, a chain going on: no store of the flags.
+            if step(self.last, q, circular) > limit {
+                self.count = self.count.saturating_add(1);
+            }
+        } else if f & SEEN == 0 {
+            self.flags = SEEN | OPENS_VALID | ENDS_VALID;
             self.first = q;
-        } else if self.flags & ENDS_VALID != 0 && step(self.last, q, circular) > limit {
-            self.count = self.count.saturating_add(1);
+        } else {
+            self.flags = f | ENDS_VALID;
         }
         self.last = q;
-        self.flags |= ENDS_VALID;
     }
 
     /// A break in the chain.
