@@ -761,46 +761,6 @@ impl<const G: usize> ChannelAcc<G> {
         }
     }
 
-    /// Classifies one reading of `ch` and adds it, with its spike check;
-    /// `speed` gives the linked speed's class, if any.
-    ///
-    /// One out-of-line function per kind of channel with everything else
-    /// inlined into it, and the rare paths (engineering values, readings out of
-    /// range) out of line: on a Cortex-M0, calls, their stack frames and
-    /// register spills cost as much as the statistics themselves.
-    #[inline(always)]
-    pub(crate) fn push_reading(
-        &mut self,
-        ch: &Channel,
-        r: Reading,
-        codes: &crate::Sentinels,
-        spikes: &mut Spikes,
-        speed: impl FnOnce() -> Option<Class>,
-    ) {
-        match self {
-            ChannelAcc::Speed(a) => push_speed(a, ch, r, codes, spikes),
-            ChannelAcc::Direction(a) => {
-                push_direction(&mut a.tally, &mut a.sums, ch, r, codes, spikes);
-            }
-            ChannelAcc::LinkedDirection(a) => {
-                let class = push_direction(
-                    &mut a.direction.tally,
-                    &mut a.direction.sums,
-                    ch,
-                    r,
-                    codes,
-                    spikes,
-                );
-                if let Some((s, c)) = class {
-                    if let Some(Class::Valid(q)) = speed() {
-                        a.resultant.push_q30(s, c, q);
-                    }
-                }
-            }
-            ChannelAcc::Scalar(a) => push_scalar(a, ch, r, codes, spikes),
-        }
-    }
-
     /// Merges `later` (same channel, same interval, later in time). `joined`
     /// says whether the two pieces are contiguous in time.
     pub(crate) fn merge(&mut self, later: &Self, w: usize, joined: bool) {
@@ -904,16 +864,87 @@ impl<const G: usize> ChannelAcc<G> {
     }
 }
 
+/// One channel's state in an interval: the accumulator of its kind and its
+/// spike chain, side by side, so that the per-sample path passes one pointer a
+/// channel.
+#[derive(Clone, Copy, Debug, PartialEq, Eq, Hash)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+pub(crate) struct Slot<const G: usize> {
+    pub(crate) acc: ChannelAcc<G>,
+    pub(crate) spikes: Spikes,
+}
+
+impl<const G: usize> Slot<G> {
+    /// An empty slot for `ch`.
+    pub(crate) fn new(ch: &Channel) -> Self {
+        Slot {
+            acc: ChannelAcc::new(ch),
+            spikes: Spikes::EMPTY,
+        }
+    }
+
+    /// A stand-in for array initialisation.
+    pub(crate) const EMPTY: Self = Slot {
+        acc: ChannelAcc::EMPTY,
+        spikes: Spikes::EMPTY,
+    };
+
+    /// Classifies one reading of `ch` and adds it, with its spike check;
+    /// `speed` gives the linked speed's class, if any.
+    ///
+    /// One out-of-line function per kind of channel with everything else
+    /// inlined into it, and the rare paths (engineering values, readings out of
+    /// range) out of line: on a Cortex-M0, calls, their stack frames and
+    /// register spills cost as much as the statistics themselves.
+    #[inline(always)]
+    pub(crate) fn push_reading(
+        &mut self,
+        ch: &Channel,
+        r: &Reading,
+        codes: &crate::Sentinels,
+        speed: impl FnOnce() -> Option<Class>,
+    ) {
+        match self.acc {
+            ChannelAcc::Speed(_) => push_speed(self, ch, r, codes),
+            ChannelAcc::Direction(_) => {
+                push_direction(self, ch, r, codes);
+            }
+            ChannelAcc::LinkedDirection(_) => {
+                if let Some((s, c)) = push_direction(self, ch, r, codes) {
+                    if let (Some(Class::Valid(q)), ChannelAcc::LinkedDirection(a)) =
+                        (speed(), &mut self.acc)
+                    {
+                        a.resultant.push_q30(s, c, q);
+                    }
+                }
+            }
+            ChannelAcc::Scalar(_) => push_scalar(self, ch, r, codes),
+        }
+    }
+
+    /// Breaks the gust run and the spike chain (a gap in time).
+    pub(crate) fn break_run(&mut self) {
+        self.acc.break_run();
+        self.spikes.break_chain();
+    }
+}
+
 /// One reading of a speed channel (see [`ChannelAcc::push_reading`]).
 #[inline(never)]
 fn push_speed<const G: usize>(
-    a: &mut SpeedAcc<G>,
+    slot: &mut Slot<G>,
     ch: &Channel,
-    r: Reading,
+    r: &Reading,
     codes: &crate::Sentinels,
-    spikes: &mut Spikes,
 ) {
-    let class = ch.classify_linear(r, codes);
+    let Slot {
+        acc: ChannelAcc::Speed(a),
+        spikes,
+    } = slot
+    else {
+        return;
+    };
+    let class = ch.classify_linear(*r, codes);
     a.tally.count(class);
     match class {
         Class::Valid(q) => {
@@ -932,14 +963,20 @@ fn push_speed<const G: usize>(
 
 /// One reading of a scalar channel.
 #[inline(never)]
-fn push_scalar(
-    a: &mut ScalarAcc,
+fn push_scalar<const G: usize>(
+    slot: &mut Slot<G>,
     ch: &Channel,
-    r: Reading,
+    r: &Reading,
     codes: &crate::Sentinels,
-    spikes: &mut Spikes,
 ) {
-    let class = ch.classify_linear(r, codes);
+    let Slot {
+        acc: ChannelAcc::Scalar(a),
+        spikes,
+    } = slot
+    else {
+        return;
+    };
+    let class = ch.classify_linear(*r, codes);
     a.tally.count(class);
     match class {
         Class::Valid(q) => {
@@ -952,28 +989,31 @@ fn push_scalar(
     }
 }
 
-/// One reading of a direction channel; its Q30 unit vector if valid (for a
-/// linked resultant).
+/// One reading of a direction channel, linked or not; its Q30 unit vector if
+/// valid (for a linked resultant).
 #[inline(never)]
-fn push_direction(
-    tally: &mut Tally,
-    sums: &mut DirectionSums,
+fn push_direction<const G: usize>(
+    slot: &mut Slot<G>,
     ch: &Channel,
-    r: Reading,
+    r: &Reading,
     codes: &crate::Sentinels,
-    spikes: &mut Spikes,
 ) -> Option<(i32, i32)> {
-    let class = ch.classify_direction(r, codes);
+    let (tally, sums) = match &mut slot.acc {
+        ChannelAcc::Direction(a) => (&mut a.tally, &mut a.sums),
+        ChannelAcc::LinkedDirection(a) => (&mut a.direction.tally, &mut a.direction.sums),
+        _ => return None,
+    };
+    let class = ch.classify_direction(*r, codes);
     tally.count(class);
     match class {
         Class::Valid(cd) => {
             if ch.spike_lim != u32::MAX {
-                spikes.push(cd, ch.spike_lim, true);
+                slot.spikes.push(cd, ch.spike_lim, true);
             }
             Some(sums.push_q30(cd))
         }
         _ => {
-            spikes.break_chain();
+            slot.spikes.break_chain();
             None
         }
     }

@@ -20,12 +20,12 @@
 //!
 //! Nothing here panics, whatever the input.
 
-use crate::channel::{Channel, ChannelAcc, ChannelConfig, ChannelRecord, Kind, Reading};
+use crate::channel::{Channel, ChannelAcc, ChannelConfig, ChannelRecord, Kind, Reading, Slot};
 use crate::cmath;
 use crate::error::{ChannelProblem, ConfigError};
 use crate::flags::Flags;
 use crate::recovery::Recovery;
-use crate::screen::{interval_flags, passes, Screener, Spikes};
+use crate::screen::{interval_flags, passes, Screener};
 use crate::time::{Month, Timestamp};
 use core::borrow::Borrow;
 
@@ -317,8 +317,9 @@ impl<const C: usize> Layout<C> {
             .config()
             .speed_channel
             .and_then(|s| self.channels.get(usize::from(s)));
-        let mut r = acc.channels.get(ch)?.finish(channel, self.samples, speed);
-        r.spikes = acc.spikes[ch].count();
+        let slot = acc.slots.get(ch)?;
+        let mut r = slot.acc.finish(channel, self.samples, speed);
+        r.spikes = slot.spikes.count();
         r.flags = Flags::from_bits(
             interval_flags(&r, &channel.config().screen, r.spikes).bits() | acc.flags[ch].bits(),
         );
@@ -329,8 +330,11 @@ impl<const C: usize> Layout<C> {
     pub fn finish_all<const G: usize>(&self, acc: &IntervalAcc<C, G>) -> [ChannelRecord; C] {
         core::array::from_fn(|i| {
             // `i < C`, so `finish` always has a record; the fallback is never used.
-            self.finish(acc, i)
-                .unwrap_or_else(|| acc.channels[i].finish(&self.channels[i], self.samples, None))
+            self.finish(acc, i).unwrap_or_else(|| {
+                acc.slots[i]
+                    .acc
+                    .finish(&self.channels[i], self.samples, None)
+            })
         })
     }
 
@@ -359,8 +363,7 @@ pub struct IntervalAcc<const C: usize, const G: usize> {
     /// First and last accepted sample times, ms; [`NONE_MS`] before any.
     first: i64,
     last: i64,
-    channels: [ChannelAcc<G>; C],
-    spikes: [Spikes; C],
+    slots: [Slot<G>; C],
     flags: [Flags; C],
 }
 
@@ -371,8 +374,7 @@ impl<const C: usize, const G: usize> IntervalAcc<C, G> {
             index,
             first: NONE_MS,
             last: NONE_MS,
-            channels: core::array::from_fn(|i| ChannelAcc::new(&layout.channels[i])),
-            spikes: [Spikes::default(); C],
+            slots: core::array::from_fn(|i| Slot::new(&layout.channels[i])),
             flags: [Flags::EMPTY; C],
         }
     }
@@ -384,8 +386,7 @@ impl<const C: usize, const G: usize> IntervalAcc<C, G> {
             index: 0,
             first: NONE_MS,
             last: NONE_MS,
-            channels: [ChannelAcc::EMPTY; C],
-            spikes: [Spikes::EMPTY; C],
+            slots: [Slot::EMPTY; C],
             flags: [Flags::EMPTY; C],
         }
     }
@@ -407,9 +408,14 @@ impl<const C: usize, const G: usize> IntervalAcc<C, G> {
         }
     }
 
-    /// The per-channel states.
-    pub const fn channels(&self) -> &[ChannelAcc<G>; C] {
-        &self.channels
+    /// The per-channel states, in channel order.
+    pub fn channels(&self) -> impl ExactSizeIterator<Item = &ChannelAcc<G>> + '_ {
+        self.slots.iter().map(|s| &s.acc)
+    }
+
+    /// The state of channel `ch`, if `ch < C`.
+    pub fn channel(&self, ch: usize) -> Option<&ChannelAcc<G>> {
+        self.slots.get(ch).map(|s| &s.acc)
     }
 
     /// Adds one accepted sample at `t` (the caller keeps `t` increasing and within
@@ -425,20 +431,19 @@ impl<const C: usize, const G: usize> IntervalAcc<C, G> {
         };
         self.last = ms;
         if broken {
-            for (acc, spikes) in self.channels.iter_mut().zip(self.spikes.iter_mut()) {
-                acc.break_run();
-                spikes.break_chain();
+            for slot in &mut self.slots {
+                slot.break_run();
             }
         }
         let sentinels = &layout.sentinels;
         // One pass over the channels (a Cortex-M0 pays for every extra load and
         // store); a direction linked to a speed classifies that speed's reading
         // again rather than keeping every channel's class in an array.
-        for ((acc, ch), (reading, spikes)) in self
-            .channels
+        for ((slot, ch), reading) in self
+            .slots
             .iter_mut()
             .zip(layout.channels.iter())
-            .zip(readings.iter().zip(self.spikes.iter_mut()))
+            .zip(readings.iter())
         {
             let speed = || {
                 let s = usize::from(ch.config().speed_channel?);
@@ -447,7 +452,7 @@ impl<const C: usize, const G: usize> IntervalAcc<C, G> {
                     _ => None,
                 }
             };
-            acc.push_reading(ch, *reading, sentinels, spikes, speed);
+            slot.push_reading(ch, reading, sentinels, speed);
         }
     }
 
@@ -457,10 +462,9 @@ impl<const C: usize, const G: usize> IntervalAcc<C, G> {
         self.index = index;
         self.first = NONE_MS;
         self.last = NONE_MS;
-        for (acc, ch) in self.channels.iter_mut().zip(layout.channels.iter()) {
-            *acc = ChannelAcc::new(ch);
+        for (slot, ch) in self.slots.iter_mut().zip(layout.channels.iter()) {
+            *slot = Slot::new(ch);
         }
-        self.spikes = [Spikes::default(); C];
         self.flags = [Flags::EMPTY; C];
     }
 
@@ -472,8 +476,8 @@ impl<const C: usize, const G: usize> IntervalAcc<C, G> {
 
     /// Counts one sample rejected for its timestamp, on every channel.
     pub fn reject(&mut self) {
-        for c in &mut self.channels {
-            c.reject();
+        for s in &mut self.slots {
+            s.acc.reject();
         }
     }
 
@@ -487,17 +491,15 @@ impl<const C: usize, const G: usize> IntervalAcc<C, G> {
         let joined = self.last == NONE_MS
             || later.first == NONE_MS
             || !layout.is_gap(later.first.saturating_sub(self.last));
-        for (i, (a, b)) in self
-            .channels
+        for ((a, b), ch) in self
+            .slots
             .iter_mut()
-            .zip(later.channels.iter())
-            .enumerate()
+            .zip(later.slots.iter())
+            .zip(layout.channels.iter())
         {
-            let ch = &layout.channels[i];
-            a.merge(b, ch.window(), joined);
+            a.acc.merge(&b.acc, ch.window(), joined);
             let circular = ch.config().kind == crate::Kind::Direction;
-            let limit = ch.spike_lim();
-            self.spikes[i].merge(&later.spikes[i], limit, circular, joined);
+            a.spikes.merge(&b.spikes, ch.spike_lim(), circular, joined);
         }
         self.clear_flags();
         if self.first == NONE_MS {

@@ -436,7 +436,7 @@ proptest! {
             let mut on_event = |e: Event<'_, 4, G>| {
                 let (first, count) = match e {
                     Event::Closed(acc, _) => {
-                        for (ch, c) in acc.channels().iter().enumerate() {
+                        for (ch, c) in acc.channels().enumerate() {
                             counted[ch] += c.tally().total();
                             closed_possible[ch] += u64::from(layout.finish(acc, ch).unwrap().n_possible);
                         }
