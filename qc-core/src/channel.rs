@@ -212,6 +212,15 @@ pub struct Channel {
     /// Valid counts (and, for speed and scalar, valid quanta), inclusive.
     lo_k: i32,
     hi_k: i32,
+    /// Whether a missing-value code lies in the valid range, as counts and as a
+    /// value (when not, a reading in range needs no comparison with the codes).
+    code_in_counts: bool,
+    code_in_values: bool,
+    /// Gust window in samples (speed), a copy of the configuration's.
+    gust_w: u16,
+    /// Spike step limit in quanta (centidegrees for direction); `u32::MAX`
+    /// without one (no two samples differ by more).
+    spike_lim: u32,
     /// Direction counts `dir_inline_lo..=dir_fast_k` are in range, on the 32-bit
     /// path, and no missing-value code: [`Channel::classify_direction`] takes
     /// them inline (`i32::MAX` for none).
@@ -219,19 +228,10 @@ pub struct Channel {
     /// Counts `0..=dir_fast_k` take the 32-bit path of [`Channel::classify`]
     /// (`k * dir_mul` fits a `u32`, `dir_add` is non-negative); -1 for none.
     dir_fast_k: i32,
-    /// Spike step limit in quanta (centidegrees for direction); `u32::MAX`
-    /// without one (no two samples differ by more).
-    spike_lim: u32,
     offset_cd: i32,
     /// Direction counts to centidegrees, Q16: `cd = (k * mul + add) >> 16`.
     dir_mul: i64,
     dir_add: i64,
-    /// Gust window in samples (speed), a copy of the configuration's.
-    gust_w: u16,
-    /// Whether a missing-value code lies in the valid range, as counts and as a
-    /// value (when not, a reading in range needs no comparison with the codes).
-    code_in_counts: bool,
-    code_in_values: bool,
     inv_step: Option<f64>,
     cfg: ChannelConfig,
 }
@@ -674,8 +674,12 @@ pub struct ScalarAcc {
 }
 
 /// Interval state of one channel, of its kind.
+///
+/// `repr(u8)`: a one-byte tag, one load and compare on a 32-bit core (the
+/// size is the same, the largest variant's 8-byte alignment pads it anyway).
 #[derive(Clone, Copy, Debug, PartialEq, Eq, Hash)]
 #[cfg_attr(feature = "defmt", derive(defmt::Format))]
+#[repr(u8)]
 pub enum ChannelAcc<const G: usize> {
     /// Speed.
     Speed(SpeedAcc<G>),
@@ -950,9 +954,9 @@ fn push_speed<const G: usize>(
         Class::Valid(q) => {
             a.moments.push(q);
             a.gust.push(q, usize::from(ch.gust_w));
-            if ch.spike_lim != u32::MAX {
-                spikes.push(q, ch.spike_lim, false);
-            }
+            // Speed channels screen spikes by default: no test for a limit
+            // (without one, `u32::MAX` is never exceeded).
+            spikes.push(q, ch.spike_lim, false);
         }
         _ => {
             a.gust.break_run();
