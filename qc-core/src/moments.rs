@@ -50,6 +50,18 @@ impl Wide {
         }
     }
 
+    /// Adds a 32-bit value: on a 32-bit core one add to the low word, and the
+    /// carry through the other words only when there is one.
+    #[inline]
+    pub fn add_u32(&mut self, v: u32) {
+        let (low, carry) = (self.lo as u32).overflowing_add(v);
+        if carry {
+            self.add_u64(u64::from(v));
+        } else {
+            self.lo = (self.lo & !0xFFFF_FFFF) | u64::from(low);
+        }
+    }
+
     /// Adds a signed 64-bit value (sign-extended): adds with carry, no
     /// 128-bit arithmetic.
     #[inline]
@@ -153,13 +165,13 @@ impl Moments {
     pub fn push(&mut self, q: i32) {
         self.sum += i64::from(q);
         let a = q.unsigned_abs();
-        // Quanta below 2^16 (0.01 m/s up to 655 m/s) square in one 32-bit multiply.
-        let sq = if a < 1 << 16 {
-            u64::from(a * a)
+        // Quanta below 2^16 (0.01 m/s up to 655 m/s) square in one 32-bit
+        // multiply, and add to the low word alone but for a rare carry.
+        if a < 1 << 16 {
+            self.sum_sq.add_u32(a * a);
         } else {
-            mul_u32(a, a)
-        };
-        self.sum_sq.add_u64(sq);
+            self.sum_sq.add_u64(mul_u32(a, a));
+        }
         // Stores only when the extreme moves (rare once an interval is under way).
         if q < self.min {
             self.min = q;
@@ -274,6 +286,20 @@ mod tests {
             let want = i128::from(n) * sq - sum * sum;
             assert_eq!(m.variance_numerator(n) as i128, want, "case {case}");
         }
+    }
+
+    #[test]
+    fn small_adds_carry_through_every_word() {
+        let mut w = Wide::new(i128::from(u32::MAX) - 1);
+        let mut r = i128::from(u32::MAX) - 1;
+        for v in [1u32, 1, u32::MAX, 7, u32::MAX, u32::MAX] {
+            w.add_u32(v);
+            r += i128::from(v);
+            assert_eq!(w.get(), r);
+        }
+        let mut w = Wide::new(i128::from(u64::MAX));
+        w.add_u32(5);
+        assert_eq!(w.get(), i128::from(u64::MAX) + 5);
     }
 
     #[test]
