@@ -246,10 +246,10 @@ info "  the 8-channel logger's static RAM (.data + .bss, B)" "$fp_ram"
 info "  the replay board's static RAM (.data + .bss, B)" "$m0_ram"
 info "  the replay board's stack region (memory/microbit.x, B)" $((stack_top - stack_bottom))
 row "instructions per speed sample, 8 cups (counts), per channel" "$(num '8 x speed, Reading::Counts (cup)' 'per channel')" 150
-row "instructions per speed sample, 1-channel station (counts)" "$(num 'speed, Reading::Counts (cup)' 'per sample')" 150
+info "  the same, a 1-channel station (station's work not shared)" "$(num 'speed, Reading::Counts (cup)' 'per sample')"
 info "  the same, Reading::Value (soft floating point)" "$(num 'speed, Reading::Value' 'per sample')"
 row "instructions per direction sample, 8 vanes (counts), per channel" "$(num '8 x direction, Reading::Counts' 'per channel')" 300
-row "instructions per direction sample, 1-channel station (counts)" "$(num 'direction, Reading::Counts (vane)' 'per sample')" 300
+info "  the same, a 1-channel station (station's work not shared)" "$(num 'direction, Reading::Counts (vane)' 'per sample')"
 info "  the same, Reading::Value (soft floating point)" "$(num 'direction, Reading::Value' 'per sample')"
 info "  the station's own work per sample (no channel)" "$(num 'station alone (0 channels)' 'per sample')"
 info "instructions per scalar sample, raw counts, 1-channel station" "$(num 'scalar, Reading::Counts (ADC)' 'per sample')"
