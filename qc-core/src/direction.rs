@@ -343,8 +343,8 @@ mod tests {
         }
     }
 
-    /// The same statistics in f64 with libm's `sqrt`, `atan2` and `asin`, on
-    /// the same exact sums (`N^2 - |V|^2` formed exactly, as in `finish`, so
+    /// The same statistics in f64 with the libm crate's (0.2.16, a port of
+    /// FreeBSD msun) `sqrt`, `atan2` and `asin`, on the same exact sums (`N^2 - |V|^2` formed exactly, as in `finish`, so
     /// that the reference keeps its precision when r is close to 1). Where
     /// `asin(eps)` is ill-conditioned (eps near 1, where a rounding of eps by
     /// 1e-16 moves it by 1e-16 / r), the reference takes `acos(r)` instead,
