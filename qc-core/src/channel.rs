@@ -933,7 +933,7 @@ impl<const G: usize> Slot<G> {
     }
 }
 
-/// One reading of a speed channel (see [`ChannelAcc::push_reading`]).
+/// One reading of a speed channel (see [`Slot::push_reading`]).
 #[inline(never)]
 fn push_speed<const G: usize>(
     slot: &mut Slot<G>,
