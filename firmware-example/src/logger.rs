@@ -23,8 +23,8 @@
 //! frames; the replay runs with the stack below the statics
 //! (`memory/microbit.x`), so an overflow faults instead of corrupting them.
 
-use qc_core::wire::{self, RecordFrame, FRAME_LEN};
-use qc_core::{Event, Layout, Pushed, Reading, Station, Timestamp};
+use qc_core::wire::{self, RecordFrame, StateFrame, FRAME_LEN};
+use qc_core::{Ended, Event, Layout, Pushed, Reading, Sampler, Station, Timestamp};
 
 /// A station whose layout lives elsewhere (in flash, or in a [`LayoutSlot`]).
 pub type LayoutStation<'a, const C: usize, const G: usize> = Station<C, G, &'a Layout<C>>;
@@ -252,6 +252,181 @@ impl<const C: usize, E> Frames<'_, '_, C, E> {
             };
             wire::encode_record(&f, &mut frame);
             self.result = write(&frame);
+            if self.result.is_err() {
+                return;
+            }
+            *self.sequence = self.sequence.wrapping_add(1);
+        }
+    }
+}
+
+/// A sampler whose layout lives elsewhere: the sampling half of a station, for
+/// a logger that leaves finishing to a PC.
+pub type LayoutSampler<'a, const C: usize, const G: usize> = Sampler<C, G, &'a Layout<C>>;
+
+/// Storage for a state logger's sampler, meant for a `static` (as
+/// [`LoggerSlot`]).
+#[repr(u64)]
+#[derive(Clone, Debug)]
+#[allow(clippy::large_enum_variant)]
+pub enum SamplerSlot<'a, const C: usize, const G: usize> {
+    /// Not started.
+    Empty,
+    /// A running sampler.
+    Full(LayoutSampler<'a, C, G>),
+}
+
+impl<const C: usize, const G: usize> Default for SamplerSlot<'_, C, G> {
+    fn default() -> Self {
+        Self::new()
+    }
+}
+
+impl<'a, const C: usize, const G: usize> SamplerSlot<'a, C, G> {
+    /// An empty slot.
+    pub const fn new() -> Self {
+        SamplerSlot::Empty
+    }
+
+    /// Starts a new state logger of `layout` in the slot, writing state frames
+    /// for every channel, stamped with `layout.fingerprint()` (see
+    /// [`StateLogger::with_active`]); sequence numbers start at 0. `None` only
+    /// if the slot could not be filled (which does not happen).
+    pub fn start(&mut self, layout: &'a Layout<C>) -> Option<StateLogger<'_, 'a, C, G>> {
+        put_sampler(self, layout);
+        match self {
+            SamplerSlot::Full(sampler) => Some(StateLogger {
+                sampler,
+                active: C.min(255) as u8,
+                fingerprint: layout.fingerprint(),
+                sequence: 0,
+            }),
+            SamplerSlot::Empty => None,
+        }
+    }
+}
+
+/// Not inlined, as [`put_station`].
+#[inline(never)]
+fn put_sampler<'a, const C: usize, const G: usize>(
+    slot: &mut SamplerSlot<'a, C, G>,
+    layout: &'a Layout<C>,
+) {
+    *slot = SamplerSlot::Full(Sampler::new(layout));
+}
+
+/// A running state logger: a sampler in a [`SamplerSlot`] that writes one
+/// state frame (`qc_core::wire::encode_state`) per channel for every interval
+/// it closes, for a PC to finish (`tenmin decode --station`). Neither
+/// finishing nor screening runs here, so their code is not in the firmware.
+#[derive(Debug)]
+pub struct StateLogger<'s, 'a, const C: usize, const G: usize> {
+    sampler: &'s mut LayoutSampler<'a, C, G>,
+    /// Frames are written for channels `0..active`.
+    active: u8,
+    fingerprint: u32,
+    sequence: u32,
+}
+
+impl<'a, const C: usize, const G: usize> StateLogger<'_, 'a, C, G> {
+    /// Writes frames only for the first `active` channels (at most `C`), whose
+    /// configuration has the fingerprint `fingerprint`
+    /// (`qc_core::config_fingerprint` of those channels): a station of fewer
+    /// channels than the logger's capacity.
+    pub fn with_active(mut self, active: usize, fingerprint: u32) -> Self {
+        self.active = active.min(C).min(255) as u8;
+        self.fingerprint = fingerprint;
+        self
+    }
+
+    /// The sampler.
+    pub fn sampler(&self) -> &LayoutSampler<'a, C, G> {
+        self.sampler
+    }
+
+    /// Frames written so far.
+    pub const fn frames(&self) -> u32 {
+        self.sequence
+    }
+
+    /// Adds one sample; every interval it closes goes to `write` as state
+    /// frames, in channel order. Stops writing at the first error of `write`
+    /// and returns it.
+    #[inline(never)]
+    pub fn push<E>(
+        &mut self,
+        t: Timestamp,
+        readings: &[Reading; C],
+        write: &mut impl FnMut(&[u8; FRAME_LEN]) -> Result<(), E>,
+    ) -> Result<Pushed, E> {
+        let mut frames = StateFrames {
+            active: self.active,
+            fingerprint: self.fingerprint,
+            sequence: &mut self.sequence,
+            result: Ok(()),
+        };
+        let pushed = self
+            .sampler
+            .push(t, readings, |ended| frames.ended(ended, write));
+        frames.result.map(|()| pushed)
+    }
+
+    /// Closes the open interval (end of data) and writes its frames.
+    #[inline(never)]
+    pub fn close<E>(
+        &mut self,
+        write: &mut impl FnMut(&[u8; FRAME_LEN]) -> Result<(), E>,
+    ) -> Result<(), E> {
+        let mut frames = StateFrames {
+            active: self.active,
+            fingerprint: self.fingerprint,
+            sequence: &mut self.sequence,
+            result: Ok(()),
+        };
+        self.sampler.close(|ended| frames.ended(ended, write));
+        frames.result
+    }
+}
+
+/// The state frame writer of one push.
+struct StateFrames<'f, E> {
+    active: u8,
+    fingerprint: u32,
+    sequence: &'f mut u32,
+    result: Result<(), E>,
+}
+
+impl<E> StateFrames<'_, E> {
+    /// Writes one state frame per active channel of a closed interval (after
+    /// an error, nothing more). Gaps write no frames.
+    #[inline(never)]
+    fn ended<const C: usize, const G: usize>(
+        &mut self,
+        ended: Ended<'_, C, G>,
+        write: &mut impl FnMut(&[u8; FRAME_LEN]) -> Result<(), E>,
+    ) {
+        let Ended::Interval(layout, acc) = ended else {
+            return;
+        };
+        if self.result.is_err() {
+            return;
+        }
+        let mut bytes = [0u8; FRAME_LEN];
+        let interval_start = layout.interval_start(acc.index());
+        for channel in 0..usize::from(self.active) {
+            let Some(state) = acc.state(channel) else {
+                return;
+            };
+            let f = StateFrame {
+                sequence: *self.sequence,
+                interval_start,
+                channel: channel as u8,
+                channels: self.active,
+                fingerprint: self.fingerprint,
+                state,
+            };
+            wire::encode_state(&f, &mut bytes);
+            self.result = write(&bytes);
             if self.result.is_err() {
                 return;
             }

@@ -117,3 +117,16 @@ pub type LoggerSlot = crate::logger::LoggerSlot<'static, CHANNELS, GUST>;
 pub fn start_in(slot: &mut LoggerSlot) -> Option<Logger<'_>> {
     slot.start(&LAYOUT)
 }
+
+/// The scenario's state logger: the station's sampling half, a state frame for
+/// every channel, finished on a PC.
+pub type StateLogger<'s> = crate::logger::StateLogger<'s, 'static, CHANNELS, GUST>;
+
+/// Static storage for the scenario's [`StateLogger`].
+pub type SamplerSlot = crate::logger::SamplerSlot<'static, CHANNELS, GUST>;
+
+/// A new state logger of the scenario's layout ([`LAYOUT`], in flash),
+/// started in `slot`; `None` only if the slot could not be filled.
+pub fn start_states_in(slot: &mut SamplerSlot) -> Option<StateLogger<'_>> {
+    slot.start(&LAYOUT)
+}

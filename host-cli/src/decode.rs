@@ -154,6 +154,12 @@ fn decode_with<const C: usize, W: Write>(
     for span in wire::scan(log) {
         let (offset, frame) = match span {
             Span::Frame { offset, frame } => (offset, frame),
+            Span::State { offset, .. } => {
+                bail!(
+                    "{}: byte {offset}: a state frame; this decoder reads record frames only",
+                    path.display()
+                )
+            }
             Span::Damaged { offset, len } => {
                 d.damaged_spans += 1;
                 d.damaged_bytes += len as u64;

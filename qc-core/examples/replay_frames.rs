@@ -253,6 +253,11 @@ fn frames_of(log: &[u8], path: &str) -> Result<Vec<RecordFrame>, String> {
     for span in wire::scan(log) {
         match span {
             Span::Frame { frame, .. } => frames.push(frame),
+            Span::State { offset, .. } => {
+                return Err(format!(
+                    "{path}: a state frame at byte {offset}, not a record"
+                ))
+            }
             Span::Damaged { offset, len } | Span::Torn { offset, len } => {
                 return Err(format!("{path}: {len} damaged bytes at byte {offset}"))
             }

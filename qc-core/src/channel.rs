@@ -579,7 +579,8 @@ impl Channel {
             }
             c
         } else {
-            cd.rem_euclid(36_000) as i32
+            // Rare (raw counts far outside a turn): no 64-bit division helper.
+            (cd - crate::station::div_floor(cd, 36_000) * 36_000) as i32
         }
     }
 }
@@ -1020,6 +1021,155 @@ fn push_direction<const G: usize>(
             slot.spikes.break_chain();
             None
         }
+    }
+}
+
+/// Which accumulator a [`ChannelState`] comes from.
+#[derive(Clone, Copy, Debug, PartialEq, Eq, Hash)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+pub enum StateForm {
+    /// A speed channel.
+    Speed,
+    /// A direction channel without a linked speed.
+    Direction,
+    /// A direction channel with a linked speed (speed-weighted resultant).
+    LinkedDirection,
+    /// A scalar channel.
+    Scalar,
+}
+
+impl StateForm {
+    /// The form of `ch`'s accumulator.
+    pub const fn of(cfg: &ChannelConfig) -> StateForm {
+        match (cfg.kind, cfg.speed_channel) {
+            (Kind::Speed, _) => StateForm::Speed,
+            (Kind::Direction, None) => StateForm::Direction,
+            (Kind::Direction, Some(_)) => StateForm::LinkedDirection,
+            (Kind::Scalar, _) => StateForm::Scalar,
+        }
+    }
+}
+
+/// The exact end state of one channel in one complete interval: the integer
+/// sums, extremes, largest gust window sum, spike count and sample counts that
+/// finishing needs, and nothing more (not the gust window or spike chain that
+/// merging needs).
+///
+/// A logger that leaves finishing to a PC sends one per channel and interval
+/// ([`crate::wire::encode_state`]); the PC puts them back into an
+/// [`crate::IntervalAcc`] ([`crate::IntervalAcc::set_state`]) and finishes it
+/// with a [`crate::Finisher`], with the same records, bit for bit, as a
+/// station on the logger.
+#[derive(Clone, Copy, Debug, PartialEq, Eq, Hash)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+pub struct ChannelState {
+    pub(crate) form: StateForm,
+    pub(crate) tally: Tally,
+    pub(crate) spikes: u32,
+    pub(crate) moments: Moments,
+    pub(crate) gust_best: Option<i32>,
+    pub(crate) sums: DirectionSums,
+    pub(crate) resultant: ResultantSums,
+}
+
+impl ChannelState {
+    /// The accumulator it comes from.
+    pub const fn form(&self) -> StateForm {
+        self.form
+    }
+
+    /// Counts by outcome.
+    pub const fn tally(&self) -> &Tally {
+        &self.tally
+    }
+
+    /// Spikes counted.
+    pub const fn spikes(&self) -> u32 {
+        self.spikes
+    }
+
+    /// An empty state of `form`.
+    pub(crate) const fn empty(form: StateForm) -> ChannelState {
+        ChannelState {
+            form,
+            tally: Tally {
+                valid: 0,
+                missing: 0,
+                out_of_range: 0,
+                rejected: 0,
+            },
+            spikes: 0,
+            moments: Moments::new(),
+            gust_best: None,
+            sums: DirectionSums::new(),
+            resultant: ResultantSums::new(),
+        }
+    }
+}
+
+impl<const G: usize> Slot<G> {
+    /// The slot's end state (see [`ChannelState`]).
+    pub(crate) fn state(&self) -> ChannelState {
+        let mut s = ChannelState::empty(StateForm::Scalar);
+        s.spikes = self.spikes.count();
+        match &self.acc {
+            ChannelAcc::Speed(a) => {
+                s.form = StateForm::Speed;
+                s.tally = a.tally;
+                s.moments = a.moments;
+                s.gust_best = a.gust.best();
+            }
+            ChannelAcc::Direction(a) => {
+                s.form = StateForm::Direction;
+                s.tally = a.tally;
+                s.sums = a.sums;
+            }
+            ChannelAcc::LinkedDirection(a) => {
+                s.form = StateForm::LinkedDirection;
+                s.tally = a.direction.tally;
+                s.sums = a.direction.sums;
+                s.resultant = a.resultant;
+            }
+            ChannelAcc::Scalar(a) => {
+                s.tally = a.tally;
+                s.moments = a.moments;
+            }
+        }
+        s
+    }
+
+    /// A slot holding `s` for finishing, if `s` is of `ch`'s form.
+    pub(crate) fn from_state(ch: &Channel, s: &ChannelState) -> Option<Self> {
+        if StateForm::of(&ch.cfg) != s.form {
+            return None;
+        }
+        let tally = s.tally;
+        let acc = match s.form {
+            StateForm::Speed => ChannelAcc::Speed(SpeedAcc {
+                tally,
+                moments: s.moments,
+                gust: Gust::with_best(s.gust_best),
+            }),
+            StateForm::Direction => ChannelAcc::Direction(DirectionAcc {
+                tally,
+                sums: s.sums,
+            }),
+            StateForm::LinkedDirection => ChannelAcc::LinkedDirection(LinkedDirectionAcc {
+                direction: DirectionAcc {
+                    tally,
+                    sums: s.sums,
+                },
+                resultant: s.resultant,
+            }),
+            StateForm::Scalar => ChannelAcc::Scalar(ScalarAcc {
+                tally,
+                moments: s.moments,
+            }),
+        };
+        Some(Slot {
+            acc,
+            spikes: Spikes::with_count(s.spikes),
+        })
     }
 }
 

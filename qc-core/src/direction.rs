@@ -47,8 +47,8 @@ pub const SPREAD_FLOOR: f64 = 1.0 / (1u64 << 28) as f64;
 #[derive(Clone, Copy, Debug, Default, PartialEq, Eq, Hash)]
 #[cfg_attr(feature = "defmt", derive(defmt::Format))]
 pub struct DirectionSums {
-    sin: i64,
-    cos: i64,
+    pub(crate) sin: i64,
+    pub(crate) cos: i64,
 }
 
 /// Finished direction statistics.
@@ -212,11 +212,11 @@ pub fn yamartino_deg(r2: f64) -> f64 {
 #[derive(Clone, Copy, Debug, Default, PartialEq, Eq, Hash)]
 #[cfg_attr(feature = "defmt", derive(defmt::Format))]
 pub struct ResultantSums {
-    q_sin: Wide,
-    q_cos: Wide,
-    sin: i64,
-    cos: i64,
-    n: u32,
+    pub(crate) q_sin: Wide,
+    pub(crate) q_cos: Wide,
+    pub(crate) sin: i64,
+    pub(crate) cos: i64,
+    pub(crate) n: u32,
 }
 
 /// The resultant (speed-weighted) wind vector.

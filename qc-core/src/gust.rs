@@ -59,6 +59,26 @@ impl<const G: usize> Gust<G> {
         }
     }
 
+    /// A window that holds only its largest sum (what finishing needs): the
+    /// state a PC rebuilds from a logger's interval state. Not for merging.
+    pub(crate) const fn with_best(best: Option<i32>) -> Self {
+        let mut g = Self::new();
+        if let Some(b) = best {
+            g.best = b;
+            g.flags = HAS_BEST;
+        }
+        g
+    }
+
+    /// [`Gust::best_sum`] as it is kept.
+    pub(crate) const fn best(&self) -> Option<i32> {
+        if self.flags & HAS_BEST != 0 {
+            Some(self.best)
+        } else {
+            None
+        }
+    }
+
     /// The largest window sum seen, if any run reached `w` samples.
     pub const fn best_sum(&self) -> Option<i64> {
         if self.flags & HAS_BEST != 0 {

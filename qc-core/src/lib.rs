@@ -120,16 +120,16 @@ pub mod time;
 pub mod wire;
 
 pub use channel::{
-    Absent, Channel, ChannelAcc, ChannelConfig, ChannelRecord, DirectionAcc, Kind,
-    LinkedDirectionAcc, Reading, ScalarAcc, Scale, SpeedAcc, Stat, Tally,
+    Absent, Channel, ChannelAcc, ChannelConfig, ChannelRecord, ChannelState, DirectionAcc, Kind,
+    LinkedDirectionAcc, Reading, ScalarAcc, Scale, SpeedAcc, Stat, StateForm, Tally,
 };
 pub use error::{ChannelProblem, ConfigError};
 pub use flags::{Flag, Flags};
 pub use recovery::{Recovery, Totals};
 pub use screen::{Icing, Screen, Screener};
 pub use station::{
-    Event, Gap, IntervalAcc, Layout, PushTotals, Pushed, Reject, Sentinels, Station, StationConfig,
-    MAX_SAMPLES_PER_INTERVAL, MAX_SENTINELS,
+    Ended, Event, Finisher, Gap, IntervalAcc, Layout, PushTotals, Pushed, Reject, Sampler,
+    Sentinels, StateError, Station, StationConfig, MAX_SAMPLES_PER_INTERVAL, MAX_SENTINELS,
 };
 pub use time::{Civil, Month, Timestamp};
 

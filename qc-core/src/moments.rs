@@ -11,8 +11,8 @@
 #[derive(Clone, Copy, Debug, Default, PartialEq, Eq, Hash)]
 #[cfg_attr(feature = "defmt", derive(defmt::Format))]
 pub struct Wide {
-    lo: u64,
-    hi: u64,
+    pub(crate) lo: u64,
+    pub(crate) hi: u64,
 }
 
 impl Wide {
@@ -123,10 +123,10 @@ pub const fn mul_i32(a: i32, b: i32) -> i64 {
 #[derive(Clone, Copy, Debug, PartialEq, Eq, Hash)]
 #[cfg_attr(feature = "defmt", derive(defmt::Format))]
 pub struct Moments {
-    sum_sq: Wide,
-    sum: i64,
-    min: i32,
-    max: i32,
+    pub(crate) sum_sq: Wide,
+    pub(crate) sum: i64,
+    pub(crate) min: i32,
+    pub(crate) max: i32,
 }
 
 /// Finished moments in quanta.

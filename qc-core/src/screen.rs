@@ -172,6 +172,17 @@ impl Spikes {
         flags: 0,
     };
 
+    /// A chain that holds only its count (what finishing needs): the state a
+    /// PC rebuilds from a logger's interval state. Not for merging.
+    pub(crate) const fn with_count(count: u32) -> Spikes {
+        Spikes {
+            count,
+            first: 0,
+            last: 0,
+            flags: 0,
+        }
+    }
+
     /// Spikes counted.
     pub const fn count(&self) -> u32 {
         self.count

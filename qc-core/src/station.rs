@@ -20,13 +20,16 @@
 //!
 //! Nothing here panics, whatever the input.
 
-use crate::channel::{Channel, ChannelAcc, ChannelConfig, ChannelRecord, Kind, Reading, Slot};
+use crate::channel::{
+    Channel, ChannelAcc, ChannelConfig, ChannelRecord, ChannelState, Kind, Reading, Slot,
+};
 use crate::cmath;
 use crate::error::{ChannelProblem, ConfigError};
 use crate::flags::Flags;
 use crate::recovery::Recovery;
 use crate::screen::{interval_flags, passes, Screener};
 use crate::time::{Month, Timestamp};
+use crate::wire::Crc32;
 use core::borrow::Borrow;
 
 /// "No time yet" in a millisecond field: below every supported timestamp.
@@ -135,6 +138,133 @@ const fn link_is(channels: &[ChannelConfig], idx: Option<u8>, kind: Kind) -> boo
     }
 }
 
+/// Feeds `Option<f64>` to a fingerprint: presence, then the bit pattern.
+const fn fp_opt(c: Crc32, v: Option<f64>) -> Crc32 {
+    match v {
+        Some(x) => c.word(1).word(x.to_bits()),
+        None => c.word(0).word(0),
+    }
+}
+
+/// Feeds `Option<u8>` (a channel index) to a fingerprint.
+const fn fp_index(c: Crc32, v: Option<u8>) -> Crc32 {
+    match v {
+        Some(i) => c.word(1 << 8 | i as u64),
+        None => c.word(0),
+    }
+}
+
+/// [`Layout::fingerprint`]: the CRC-32 of the configuration's fields, each fed
+/// as one little-endian `u64` word, in declaration order (an `Option` as a
+/// presence word and its value).
+const fn fingerprint(station: &StationConfig, channels: &[ChannelConfig]) -> u32 {
+    let mut c = Crc32::new()
+        .word(station.interval_s as u64)
+        .word(station.samples_per_interval as u64);
+    let mut i = 0;
+    while i < MAX_SENTINELS {
+        c = fp_opt(c, station.missing_values[i]);
+        i += 1;
+    }
+    c = c.word(channels.len() as u64);
+    let mut k = 0;
+    while k < channels.len() {
+        let ch = &channels[k];
+        let s = &ch.screen;
+        c = c
+            .word(ch.kind as u64)
+            .word(ch.scale.offset.to_bits())
+            .word(ch.scale.step.to_bits())
+            .word(ch.range.0.to_bits())
+            .word(ch.range.1.to_bits())
+            .word(ch.gust_window as u64)
+            .word(ch.mounting_offset_deg.to_bits());
+        c = fp_index(c, ch.speed_channel);
+        c = fp_opt(c, s.step_limit);
+        let (mean, sd) = (s.mean_range, s.sd_range);
+        c = fp_opt(
+            c,
+            match mean {
+                Some(r) => Some(r.0),
+                None => None,
+            },
+        );
+        c = fp_opt(
+            c,
+            match mean {
+                Some(r) => Some(r.1),
+                None => None,
+            },
+        );
+        c = fp_opt(
+            c,
+            match sd {
+                Some(r) => Some(r.0),
+                None => None,
+            },
+        );
+        c = fp_opt(
+            c,
+            match sd {
+                Some(r) => Some(r.1),
+                None => None,
+            },
+        );
+        c = fp_opt(c, s.gust_max);
+        c = fp_opt(c, s.min_recovery);
+        c = match s.flat_span_s {
+            Some(v) => c.word(1).word(v as u64),
+            None => c.word(0).word(0),
+        };
+        c = c.word(s.flat_tolerance.to_bits());
+        c = fp_index(c, s.partner);
+        c = c
+            .word(s.pair_mean_diff.to_bits())
+            .word(s.pair_max_diff.to_bits());
+        c = fp_index(c, s.above);
+        c = c.word(s.shear_tolerance.to_bits());
+        c = match s.icing {
+            Some(ice) => c
+                .word(1)
+                .word(ice.temperature as u64)
+                .word(ice.humidity as u64)
+                .word(ice.max_temperature.to_bits())
+                .word(ice.min_humidity.to_bits()),
+            None => c.word(0),
+        };
+        k += 1;
+    }
+    c.value()
+}
+
+/// `n.div_euclid(d)` for `d > 0`, by shifts and subtractions: a Cortex-M0 has
+/// no divide instruction, and a logger that only samples ([`Sampler`]) then
+/// links no 64-bit division routine (900 bytes). Called once per interval;
+/// one step per significant bit of `n`.
+pub(crate) const fn div_floor(n: i64, d: i64) -> i64 {
+    // For n < 0: floor(n / d) = -(floor((-n - 1) / d) + 1) = !floor(!n / d).
+    let neg = n < 0;
+    let m = if neg { !n as u64 } else { n as u64 };
+    let d = d as u64;
+    let mut q = 0u64;
+    let mut r = 0u64;
+    let mut i = 64 - m.leading_zeros();
+    while i > 0 {
+        i -= 1;
+        r = (r << 1) | ((m >> i) & 1);
+        q <<= 1;
+        if r >= d {
+            r -= d;
+            q |= 1;
+        }
+    }
+    if neg {
+        !(q as i64)
+    } else {
+        q as i64
+    }
+}
+
 /// A validated station configuration for `C` channels.
 #[derive(Clone, Copy, Debug, PartialEq)]
 #[cfg_attr(feature = "defmt", derive(defmt::Format))]
@@ -144,6 +274,8 @@ pub struct Layout<const C: usize> {
     /// Largest step between samples that is not a gap, ms.
     max_step_ms: i64,
     sentinels: Sentinels,
+    /// [`Layout::fingerprint`].
+    fingerprint: u32,
     channels: [Channel; C],
 }
 
@@ -183,6 +315,7 @@ impl<const C: usize> Layout<C> {
         samples: 600,
         max_step_ms: 1_500,
         sentinels: Sentinels::NONE,
+        fingerprint: 0,
         channels: [Channel::placeholder(); C],
     };
 
@@ -267,7 +400,19 @@ impl<const C: usize> Layout<C> {
         self.samples = n;
         self.max_step_ms = 3 * interval_ms / (2 * n as i64);
         self.sentinels = sentinels;
+        self.fingerprint = fingerprint(&station, channels);
         Ok(())
+    }
+
+    /// A CRC-32 of the whole configuration the layout was validated from (the
+    /// station and every field of every channel, [`Screen`](crate::Screen)
+    /// settings included), computed when the layout is validated (at compile
+    /// time for a `static` layout). A logger puts it in every interval state
+    /// it sends ([`crate::wire::encode_state`]) so that a PC finishing them
+    /// with a different configuration refuses instead of computing wrong
+    /// records.
+    pub const fn fingerprint(&self) -> u32 {
+        self.fingerprint
     }
 
     /// Interval length, ms.
@@ -287,7 +432,7 @@ impl<const C: usize> Layout<C> {
 
     /// The index of the interval holding `t`.
     pub const fn interval_of(&self, t: Timestamp) -> i64 {
-        t.millis().div_euclid(self.interval_ms)
+        div_floor(t.millis(), self.interval_ms)
     }
 
     /// The start of interval `index`.
@@ -418,6 +563,29 @@ impl<const C: usize, const G: usize> IntervalAcc<C, G> {
         self.slots.get(ch).map(|s| &s.acc)
     }
 
+    /// The end state of channel `ch`, to send to a PC that finishes it
+    /// ([`crate::wire::encode_state`]); `None` if `ch >= C`.
+    pub fn state(&self, ch: usize) -> Option<ChannelState> {
+        self.slots.get(ch).map(Slot::state)
+    }
+
+    /// Puts a channel's end state, received from a logger, into this
+    /// interval, for finishing ([`Finisher::interval`]). The result finishes
+    /// exactly as the logger's own interval would; it cannot be merged
+    /// ([`IntervalAcc::merge`] needs the gust window and spike chain, which a
+    /// state leaves out).
+    pub fn set_state(
+        &mut self,
+        layout: &Layout<C>,
+        ch: usize,
+        state: &ChannelState,
+    ) -> Result<(), StateError> {
+        let channel = layout.channels.get(ch).ok_or(StateError::NoSuchChannel)?;
+        let slot = self.slots.get_mut(ch).ok_or(StateError::NoSuchChannel)?;
+        *slot = Slot::from_state(channel, state).ok_or(StateError::WrongForm)?;
+        Ok(())
+    }
+
     /// Adds one accepted sample at `t` (the caller keeps `t` increasing and within
     /// this interval; [`Station::push`] does).
     pub fn push(&mut self, layout: &Layout<C>, t: Timestamp, readings: &[Reading; C]) {
@@ -511,6 +679,27 @@ impl<const C: usize, const G: usize> IntervalAcc<C, G> {
     }
 }
 
+/// Why [`IntervalAcc::set_state`] refused a state.
+#[derive(Clone, Copy, Debug, PartialEq, Eq, Hash)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+pub enum StateError {
+    /// The layout has no channel of that index.
+    NoSuchChannel,
+    /// The state is not of the channel's form (kind, or linked speed).
+    WrongForm,
+}
+
+impl core::fmt::Display for StateError {
+    fn fmt(&self, f: &mut core::fmt::Formatter<'_>) -> core::fmt::Result {
+        f.write_str(match self {
+            StateError::NoSuchChannel => "no channel of that index in the station",
+            StateError::WrongForm => {
+                "the state is not of the channel's kind (speed, direction with or without a linked speed, scalar)"
+            }
+        })
+    }
+}
+
 /// Why a sample was rejected for its timestamp.
 #[derive(Clone, Copy, Debug, PartialEq, Eq, Hash)]
 #[cfg_attr(feature = "defmt", derive(defmt::Format))]
@@ -588,17 +777,28 @@ impl PushTotals {
     }
 }
 
-/// A logging station: channels, the open interval, running recovery.
+/// What a [`Sampler`] hands to its callback.
+#[derive(Debug)]
+pub enum Ended<'a, const C: usize, const G: usize> {
+    /// An interval closed: the layout and the interval's exact state, not yet
+    /// finished or screened ([`Finisher::interval`] does both).
+    Interval(&'a Layout<C>, &'a mut IntervalAcc<C, G>),
+    /// Intervals that held no samples ([`Finisher::gap`] counts them).
+    Gap(&'a Layout<C>, Gap),
+}
+
+/// The sampling half of a [`Station`]: takes timestamped samples, keeps the open
+/// interval, rejects and counts samples out of time order, and hands each
+/// closed interval's exact state (and each run of empty intervals) to a
+/// callback, without finishing it.
 ///
-/// `C` is the number of channels, `G` the largest gust window in samples. The
-/// whole state has a fixed size known at compile time (see the crate docs).
-///
-/// `L` holds the layout: the station owns it by default; a logger can give a
-/// reference instead (`Station<C, G, &'static Layout<C>>`), so that a layout
-/// validated at compile time stays in flash and the station's RAM is only its
-/// running state.
+/// A logger that sends interval states ([`crate::wire::encode_state`]) for a PC
+/// to finish with a [`Finisher`] runs a sampler alone: the finishing and
+/// screening code (and the software floating point it needs on a core
+/// without an FPU) then stays off the logger. The PC's records are those a
+/// [`Station`] on the logger would have made, bit for bit.
 #[derive(Clone, Debug)]
-pub struct Station<const C: usize, const G: usize, L: Borrow<Layout<C>> = Layout<C>> {
+pub struct Sampler<const C: usize, const G: usize, L: Borrow<Layout<C>> = Layout<C>> {
     layout: L,
     /// The interval state; kept after an interval closes and reset in place for
     /// the next (no copies of it on the stack of a small logger).
@@ -611,31 +811,19 @@ pub struct Station<const C: usize, const G: usize, L: Borrow<Layout<C>> = Layout
     last: i64,
     /// End (ms, exclusive) of the open interval; `i64::MIN` when none is open.
     open_end: i64,
-    /// The month of the latest closed interval and its span `[from, to)`, ms
-    /// (an empty span before the first).
-    month: Month,
-    month_from: i64,
-    month_to: i64,
-    recovery: [Recovery; C],
-    screener: Screener<C>,
     totals: PushTotals,
 }
 
-impl<const C: usize, const G: usize, L: Borrow<Layout<C>>> Station<C, G, L> {
-    /// A station with nothing recorded yet.
+impl<const C: usize, const G: usize, L: Borrow<Layout<C>>> Sampler<C, G, L> {
+    /// A sampler with nothing recorded yet.
     pub const fn new(layout: L) -> Self {
-        Station {
+        Sampler {
             layout,
             open: IntervalAcc::placeholder(),
             live: false,
             cursor: i64::MIN,
             last: NONE_MS,
             open_end: i64::MIN,
-            month: Month { year: 0, month: 1 },
-            month_from: 0,
-            month_to: 0,
-            recovery: [Recovery::new(); C],
-            screener: Screener::new(),
             totals: PushTotals {
                 accepted: 0,
                 duplicate: 0,
@@ -650,11 +838,6 @@ impl<const C: usize, const G: usize, L: Borrow<Layout<C>>> Station<C, G, L> {
     /// The layout.
     pub fn layout(&self) -> &Layout<C> {
         self.layout.borrow()
-    }
-
-    /// Running recovery of each channel (updated as intervals close).
-    pub const fn recovery(&self) -> &[Recovery; C] {
-        &self.recovery
     }
 
     /// Samples pushed, by outcome.
@@ -673,9 +856,10 @@ impl<const C: usize, const G: usize, L: Borrow<Layout<C>>> Station<C, G, L> {
 
     /// Adds one sample: a time and one reading per channel. Closed intervals and
     /// gaps that this sample ends are handed to `emit` first, in time order.
+    #[inline]
     pub fn push<F>(&mut self, t: Timestamp, readings: &[Reading; C], mut emit: F) -> Pushed
     where
-        F: FnMut(Event<'_, C, G>),
+        F: FnMut(Ended<'_, C, G>),
     {
         // Steady state: after the last accepted sample and inside the open
         // interval (`open_end` is `i64::MIN` when none is open), which lies in
@@ -692,11 +876,11 @@ impl<const C: usize, const G: usize, L: Borrow<Layout<C>>> Station<C, G, L> {
         Pushed::Accepted
     }
 
-    /// The rare part of [`Station::push`], out of line: checks the time of a
+    /// The rare part of [`Sampler::push`], out of line: checks the time of a
     /// sample that is not simply the next one in the open interval, counts a
     /// rejection, or closes intervals and opens the sample's.
     #[inline(never)]
-    fn enter<F: FnMut(Event<'_, C, G>)>(
+    fn enter<F: FnMut(Ended<'_, C, G>)>(
         &mut self,
         t: Timestamp,
         emit: &mut F,
@@ -749,7 +933,7 @@ impl<const C: usize, const G: usize, L: Borrow<Layout<C>>> Station<C, G, L> {
     }
 
     /// Reports intervals before `k` not yet reported as one gap.
-    fn gap_to<F: FnMut(Event<'_, C, G>)>(&mut self, k: i64, emit: &mut F) {
+    fn gap_to<F: FnMut(Ended<'_, C, G>)>(&mut self, k: i64, emit: &mut F) {
         if self.cursor == i64::MIN {
             self.cursor = k;
         }
@@ -759,18 +943,104 @@ impl<const C: usize, const G: usize, L: Borrow<Layout<C>>> Station<C, G, L> {
                 first,
                 count: (k - first) as u64,
             };
-            let start = self.layout.borrow().interval_start(first);
-            for r in &mut self.recovery {
-                r.add_gap(
-                    start,
-                    gap.count,
-                    self.layout.borrow().interval_ms,
-                    self.layout.borrow().samples,
-                );
-            }
-            emit(Event::Gap(gap));
+            emit(Ended::Gap(self.layout.borrow(), gap));
         }
         self.cursor = k.max(first);
+    }
+
+    /// Closes the open interval, if any, and hands it to `emit` (end of data).
+    /// Later samples in that interval are rejected as [`Reject::ClosedInterval`].
+    pub fn close<F: FnMut(Ended<'_, C, G>)>(&mut self, mut emit: F) {
+        self.open_end = i64::MIN;
+        if !self.live {
+            return;
+        }
+        self.live = false;
+        self.cursor = self.open.index + 1;
+        emit(Ended::Interval(self.layout.borrow(), &mut self.open));
+    }
+
+    /// Tells the sampler the time is `now` without a sample (a timer at an
+    /// interval boundary): closes the open interval if it has ended, and reports
+    /// intervals that have ended with no samples as a gap.
+    pub fn tick<F: FnMut(Ended<'_, C, G>)>(&mut self, now: Timestamp, mut emit: F) {
+        if !now.is_supported() {
+            return;
+        }
+        let k = self.layout.borrow().interval_of(now);
+        if self.live && self.open.index < k {
+            self.close(&mut emit);
+        }
+        if !self.live && self.cursor != i64::MIN {
+            self.gap_to(k, &mut emit);
+        }
+    }
+}
+
+/// The finishing half of a [`Station`]: finishes and screens complete
+/// intervals, in time order, and keeps the running recovery and the screening
+/// history between them.
+///
+/// A [`Station`] holds one beside its [`Sampler`]. A PC that finishes interval
+/// states sent by a logger ([`crate::wire::decode_state`]) holds one of its own
+/// and feeds it the same intervals and gaps, in the same order: the records
+/// and recovery come out as the logger's own station would have made them.
+#[derive(Clone, Debug)]
+pub struct Finisher<const C: usize> {
+    /// The month of the latest closed interval and its span `[from, to)`, ms
+    /// (an empty span before the first).
+    month: Month,
+    month_from: i64,
+    month_to: i64,
+    recovery: [Recovery; C],
+    screener: Screener<C>,
+}
+
+impl<const C: usize> Default for Finisher<C> {
+    fn default() -> Self {
+        Self::new()
+    }
+}
+
+impl<const C: usize> Finisher<C> {
+    /// No intervals yet.
+    pub const fn new() -> Self {
+        Finisher {
+            month: Month { year: 0, month: 1 },
+            month_from: 0,
+            month_to: 0,
+            recovery: [Recovery::new(); C],
+            screener: Screener::new(),
+        }
+    }
+
+    /// Running recovery of each channel.
+    pub const fn recovery(&self) -> &[Recovery; C] {
+        &self.recovery
+    }
+
+    /// Finishes and screens `acc`, a complete interval later than any before
+    /// (its screening flags are stored in it), counts it in the running
+    /// recovery, and returns its records.
+    pub fn interval<const G: usize>(
+        &mut self,
+        layout: &Layout<C>,
+        acc: &mut IntervalAcc<C, G>,
+    ) -> [ChannelRecord; C] {
+        let month = self.month_of(layout.interval_start(acc.index));
+        let records = layout.screen(&mut self.screener, acc);
+        for (r, rec) in self.recovery.iter_mut().zip(records.iter()) {
+            r.add_interval_in(month, layout.samples, &rec.tally, passes(rec));
+        }
+        records
+    }
+
+    /// Counts `gap`, intervals with no samples, as possible and lost.
+    pub fn gap(&mut self, layout: &Layout<C>, gap: Gap) {
+        let start = layout.interval_start(gap.first);
+        for r in &mut self.recovery {
+            r.add_gap(start, gap.count, layout.interval_ms, layout.samples);
+        }
     }
 
     /// The calendar month of `t`, from a cache of the current month's span.
@@ -784,41 +1054,122 @@ impl<const C: usize, const G: usize, L: Borrow<Layout<C>>> Station<C, G, L> {
         self.month_to = m.next().start().millis();
         m
     }
+}
+
+/// A logging station: a [`Sampler`] and a [`Finisher`]. Hands out each closed
+/// interval with its finished, screened records, and keeps running recovery.
+///
+/// `C` is the number of channels, `G` the largest gust window in samples. The
+/// whole state has a fixed size known at compile time (see the crate docs).
+///
+/// `L` holds the layout: the station owns it by default; a logger can give a
+/// reference instead (`Station<C, G, &'static Layout<C>>`), so that a layout
+/// validated at compile time stays in flash and the station's RAM is only its
+/// running state.
+#[derive(Clone, Debug)]
+pub struct Station<const C: usize, const G: usize, L: Borrow<Layout<C>> = Layout<C>> {
+    sampler: Sampler<C, G, L>,
+    finisher: Finisher<C>,
+}
+
+/// Finishes what a sampler ended and hands it on as an [`Event`].
+fn finish_ended<const C: usize, const G: usize>(
+    finisher: &mut Finisher<C>,
+    ended: Ended<'_, C, G>,
+    emit: &mut impl FnMut(Event<'_, C, G>),
+) {
+    match ended {
+        Ended::Interval(layout, acc) => {
+            let records = finisher.interval(layout, acc);
+            emit(Event::Closed(acc, &records));
+        }
+        Ended::Gap(layout, gap) => {
+            finisher.gap(layout, gap);
+            emit(Event::Gap(gap));
+        }
+    }
+}
+
+impl<const C: usize, const G: usize, L: Borrow<Layout<C>>> Station<C, G, L> {
+    /// A station with nothing recorded yet.
+    pub const fn new(layout: L) -> Self {
+        Station {
+            sampler: Sampler::new(layout),
+            finisher: Finisher::new(),
+        }
+    }
+
+    /// The layout.
+    pub fn layout(&self) -> &Layout<C> {
+        self.sampler.layout()
+    }
+
+    /// Running recovery of each channel (updated as intervals close).
+    pub const fn recovery(&self) -> &[Recovery; C] {
+        self.finisher.recovery()
+    }
+
+    /// Samples pushed, by outcome.
+    pub const fn totals(&self) -> &PushTotals {
+        self.sampler.totals()
+    }
+
+    /// The open interval, if any.
+    pub const fn open(&self) -> Option<&IntervalAcc<C, G>> {
+        self.sampler.open()
+    }
+
+    /// Adds one sample: a time and one reading per channel. Closed intervals and
+    /// gaps that this sample ends are handed to `emit` first, in time order.
+    #[inline]
+    pub fn push<F>(&mut self, t: Timestamp, readings: &[Reading; C], mut emit: F) -> Pushed
+    where
+        F: FnMut(Event<'_, C, G>),
+    {
+        let finisher = &mut self.finisher;
+        self.sampler
+            .push(t, readings, |e| finish_ended(finisher, e, &mut emit))
+    }
 
     /// Closes the open interval, if any, and hands it to `emit` (end of data).
     /// Later samples in that interval are rejected as [`Reject::ClosedInterval`].
     pub fn close<F: FnMut(Event<'_, C, G>)>(&mut self, mut emit: F) {
-        self.open_end = i64::MIN;
-        if !self.live {
-            return;
-        }
-        let index = self.open.index;
-        self.live = false;
-        let month = self.month_of(self.layout.borrow().interval_start(index));
-        self.cursor = index + 1;
-        let records = self
-            .layout
-            .borrow()
-            .screen(&mut self.screener, &mut self.open);
-        for (r, rec) in self.recovery.iter_mut().zip(records.iter()) {
-            r.add_interval_in(month, self.layout.borrow().samples, &rec.tally, passes(rec));
-        }
-        emit(Event::Closed(&self.open, &records));
+        let finisher = &mut self.finisher;
+        self.sampler.close(|e| finish_ended(finisher, e, &mut emit));
     }
 
     /// Tells the station the time is `now` without a sample (a timer at an
     /// interval boundary): closes the open interval if it has ended, and reports
     /// intervals that have ended with no samples as a gap.
     pub fn tick<F: FnMut(Event<'_, C, G>)>(&mut self, now: Timestamp, mut emit: F) {
-        if !now.is_supported() {
-            return;
+        let finisher = &mut self.finisher;
+        self.sampler
+            .tick(now, |e| finish_ended(finisher, e, &mut emit));
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::div_floor;
+
+    #[test]
+    fn div_floor_is_div_euclid() {
+        let mut rng = crate::test_rng::Rng(7);
+        let ds = [1i64, 2, 3, 1000, 60_000, 600_000, 86_400_000];
+        for i in 0..200_000u64 {
+            let n = match i % 4 {
+                0 => rng.next() as i64,
+                1 => rng.wide() as i64,
+                2 => -(rng.wide() as i64),
+                _ => (rng.next() % 2_000_001) as i64 - 1_000_000,
+            };
+            let d = ds[(i % ds.len() as u64) as usize];
+            assert_eq!(div_floor(n, d), n.div_euclid(d), "{n} / {d}");
         }
-        let k = self.layout.borrow().interval_of(now);
-        if self.live && self.open.index < k {
-            self.close(&mut emit);
-        }
-        if !self.live && self.cursor != i64::MIN {
-            self.gap_to(k, &mut emit);
+        for n in [i64::MIN, i64::MIN + 1, -1, 0, 1, i64::MAX] {
+            for d in ds {
+                assert_eq!(div_floor(n, d), n.div_euclid(d), "{n} / {d}");
+            }
         }
     }
 }
