@@ -99,6 +99,9 @@ pub enum LoggerSlot<'a, const C: usize, const G: usize> {
     Empty,
     /// A running station.
     Full(LayoutStation<'a, C, G>),
+    /// A running sampler, for a state logger ([`LoggerSlot::start_states`]):
+    /// one slot serves a logger that can run either way.
+    States(LayoutSampler<'a, C, G>),
 }
 
 impl<const C: usize, const G: usize> Default for LoggerSlot<'_, C, G> {
@@ -126,9 +129,33 @@ impl<'a, const C: usize, const G: usize> LoggerSlot<'a, C, G> {
                 active: C.min(255) as u8,
                 sequence: 0,
             }),
-            LoggerSlot::Empty => None,
+            LoggerSlot::Empty | LoggerSlot::States(_) => None,
         }
     }
+
+    /// Starts a new state logger of `layout` in the slot (replacing any
+    /// earlier logger), as [`SamplerSlot::start`] does.
+    pub fn start_states(&mut self, layout: &'a Layout<C>) -> Option<StateLogger<'_, 'a, C, G>> {
+        put_states(self, layout);
+        match self {
+            LoggerSlot::States(sampler) => Some(StateLogger {
+                sampler,
+                active: C.min(255) as u8,
+                fingerprint: layout.fingerprint(),
+                sequence: 0,
+            }),
+            LoggerSlot::Empty | LoggerSlot::Full(_) => None,
+        }
+    }
+}
+
+/// Not inlined, as [`put_station`].
+#[inline(never)]
+fn put_states<'a, const C: usize, const G: usize>(
+    slot: &mut LoggerSlot<'a, C, G>,
+    layout: &'a Layout<C>,
+) {
+    *slot = LoggerSlot::States(Sampler::new(layout));
 }
 
 /// Not inlined: whatever temporary the compiler makes for the new station
@@ -432,5 +459,64 @@ impl<E> StateFrames<'_, E> {
             }
             *self.sequence = self.sequence.wrapping_add(1);
         }
+    }
+}
+
+/// A logger that writes frames as samples arrive: [`Logger`] (record frames)
+/// or [`StateLogger`] (state frames), for a loop that runs either.
+pub trait FrameLogger<const C: usize> {
+    /// Adds one sample; frames of the intervals it closes go to `write`.
+    fn push_sample<E>(
+        &mut self,
+        t: Timestamp,
+        readings: &[Reading; C],
+        write: &mut impl FnMut(&[u8; FRAME_LEN]) -> Result<(), E>,
+    ) -> Result<Pushed, E>;
+    /// Closes the open interval (end of data) and writes its frames.
+    fn close_all<E>(
+        &mut self,
+        write: &mut impl FnMut(&[u8; FRAME_LEN]) -> Result<(), E>,
+    ) -> Result<(), E>;
+    /// Frames written so far.
+    fn frame_count(&self) -> u32;
+}
+
+impl<const C: usize, const G: usize> FrameLogger<C> for Logger<'_, '_, C, G> {
+    fn push_sample<E>(
+        &mut self,
+        t: Timestamp,
+        readings: &[Reading; C],
+        write: &mut impl FnMut(&[u8; FRAME_LEN]) -> Result<(), E>,
+    ) -> Result<Pushed, E> {
+        self.push(t, readings, write)
+    }
+    fn close_all<E>(
+        &mut self,
+        write: &mut impl FnMut(&[u8; FRAME_LEN]) -> Result<(), E>,
+    ) -> Result<(), E> {
+        self.close(write)
+    }
+    fn frame_count(&self) -> u32 {
+        self.frames()
+    }
+}
+
+impl<const C: usize, const G: usize> FrameLogger<C> for StateLogger<'_, '_, C, G> {
+    fn push_sample<E>(
+        &mut self,
+        t: Timestamp,
+        readings: &[Reading; C],
+        write: &mut impl FnMut(&[u8; FRAME_LEN]) -> Result<(), E>,
+    ) -> Result<Pushed, E> {
+        self.push(t, readings, write)
+    }
+    fn close_all<E>(
+        &mut self,
+        write: &mut impl FnMut(&[u8; FRAME_LEN]) -> Result<(), E>,
+    ) -> Result<(), E> {
+        self.close(write)
+    }
+    fn frame_count(&self) -> u32 {
+        self.frames()
     }
 }

@@ -18,9 +18,11 @@ use qc_core::wire::{
     decode_channel_part, decode_sample, decode_station_part, sample_frame_max_len, Crc32,
     SampleDecode, WireError, CHANNEL_PART_LEN, FRAME_LEN, HEADER_CRC_LEN, STATION_PART_LEN,
 };
-use qc_core::{ChannelConfig, ConfigError, Kind, Layout, Pushed, Reading, StationConfig};
+use qc_core::{
+    config_fingerprint, ChannelConfig, ConfigError, Kind, Layout, Pushed, Reading, StationConfig,
+};
 
-use crate::logger::{LayoutSlot, Logger, LoggerSlot};
+use crate::logger::{FrameLogger, LayoutSlot, Logger, LoggerSlot};
 
 /// Most channels the replay logger holds.
 pub const CAPACITY: usize = 8;
@@ -141,7 +143,18 @@ struct Input<'s, S: Source> {
     eof: bool,
 }
 
-impl<S: Source> Input<'_, S> {
+impl<'s, S: Source> Input<'s, S> {
+    fn new(source: &'s mut S) -> Self {
+        Input {
+            source,
+            buf: [0u8; CHUNK],
+            start: 0,
+            filled: 0,
+            offset: 0,
+            eof: false,
+        }
+    }
+
     fn pending(&self) -> &[u8] {
         self.buf.get(self.start..self.filled).unwrap_or(&[])
     }
@@ -258,12 +271,13 @@ fn build_layout(
 fn header_layout<S: Source, W>(
     layout: &mut Layout<CAPACITY>,
     input: &mut Input<'_, S>,
-    header: &mut Result<u8, ReplayError<S::Error, W>>,
+    header: &mut Result<(u8, u32), ReplayError<S::Error, W>>,
 ) -> Result<(), ConfigError> {
     let mut configs = [ChannelConfig::scalar(1.0); CAPACITY];
     match read_header(input, &mut configs) {
         Ok((station, count)) => {
-            *header = Ok(count);
+            let used = configs.get(..usize::from(count)).unwrap_or(&[]);
+            *header = Ok((count, config_fingerprint(&station, used)));
             build_layout(layout, station, &configs)
         }
         Err(e) => {
@@ -273,32 +287,30 @@ fn header_layout<S: Source, W>(
     }
 }
 
-/// Reads the header, builds the layout of its station in `layouts` and starts
-/// a logger for it in `slot`.
+/// Reads the header and builds the layout of its station in `layouts`;
+/// returns it, the file's channel count and the fingerprint of its channels.
 #[inline(never)]
-fn start<'s, 'a, S: Source, W>(
+fn start<'a, S: Source, W>(
     input: &mut Input<'_, S>,
     layouts: &'a mut ReplayLayoutSlot,
-    slot: &'s mut ReplaySlot<'a>,
-) -> Result<ReplayLogger<'s, 'a>, ReplayError<S::Error, W>> {
-    let mut header = Ok(0);
+) -> Result<(&'a Layout<CAPACITY>, u8, u32), ReplayError<S::Error, W>> {
+    let mut header = Ok((0, 0));
     let built = layouts.fill(|layout| header_layout(layout, input, &mut header));
-    let count = header?;
+    let (count, fingerprint) = header?;
     built.map_err(ReplayError::Layout)?;
     let layouts: &'a ReplayLayoutSlot = layouts;
-    // `fill` filled both slots whenever the layout is good.
-    let not_filled = ReplayError::Capacity { channels: count };
-    let layout = layouts.get().ok_or(not_filled)?;
-    match slot.start(layout) {
-        Some(logger) => Ok(logger.with_active(usize::from(count))),
-        None => Err(ReplayError::Capacity { channels: count }),
-    }
+    // `fill` filled the slot whenever the layout is good.
+    let layout = layouts
+        .get()
+        .ok_or(ReplayError::Capacity { channels: count })?;
+    Ok((layout, count, fingerprint))
 }
 
-/// Replays the whole sample file from `source` into `sink`, with the layout of
-/// the file's station built in `layouts` and a logger for it in `slot` (the
-/// caller chooses where they live: on a 16 KiB part, in static memory rather
-/// than on the stack).
+/// Replays the whole sample file from `source` into `sink` as record frames
+/// (a [`Logger`], the station on the logger), with the layout of the file's
+/// station built in `layouts` and the logger's state in `slot` (the caller
+/// chooses where they live: on a 16 KiB part, in static memory rather than
+/// on the stack).
 #[inline(never)]
 pub fn replay<'a, S: Source, K: Sink>(
     source: &mut S,
@@ -306,18 +318,47 @@ pub fn replay<'a, S: Source, K: Sink>(
     layouts: &'a mut ReplayLayoutSlot,
     slot: &mut ReplaySlot<'a>,
 ) -> Result<ReplaySummary, ReplayError<S::Error, K::Error>> {
-    let mut input = Input {
-        source,
-        buf: [0u8; CHUNK],
-        start: 0,
-        filled: 0,
-        offset: 0,
-        eof: false,
-    };
-    let mut logger = start(&mut input, layouts, slot)?;
-    let n = logger.active();
+    let mut input = Input::new(source);
+    let (layout, count, _) = start(&mut input, layouts)?;
+    let logger = slot
+        .start(layout)
+        .ok_or(ReplayError::Capacity { channels: count })?;
+    run(input, sink, logger.with_active(usize::from(count)), count)
+}
+
+/// [`replay`] writing state frames (a [`crate::logger::StateLogger`]: the
+/// logger samples, a PC finishes with `tenmin decode --config`), stamped with
+/// the fingerprint of the file's channels.
+#[inline(never)]
+pub fn replay_states<'a, S: Source, K: Sink>(
+    source: &mut S,
+    sink: &mut K,
+    layouts: &'a mut ReplayLayoutSlot,
+    slot: &mut ReplaySlot<'a>,
+) -> Result<ReplaySummary, ReplayError<S::Error, K::Error>> {
+    let mut input = Input::new(source);
+    let (layout, count, fingerprint) = start(&mut input, layouts)?;
+    let logger = slot
+        .start_states(layout)
+        .ok_or(ReplayError::Capacity { channels: count })?;
+    run(
+        input,
+        sink,
+        logger.with_active(usize::from(count), fingerprint),
+        count,
+    )
+}
+
+/// Feeds every sample after the header to `logger` and its frames to `sink`.
+fn run<S: Source, K: Sink, L: FrameLogger<CAPACITY>>(
+    mut input: Input<'_, S>,
+    sink: &mut K,
+    mut logger: L,
+    count: u8,
+) -> Result<ReplaySummary, ReplayError<S::Error, K::Error>> {
+    let n = usize::from(count);
     let mut summary = ReplaySummary {
-        channels: n as u8,
+        channels: count,
         ..ReplaySummary::default()
     };
     let mut write = |f: &[u8; FRAME_LEN]| sink.write_frame(f);
@@ -328,7 +369,7 @@ pub fn replay<'a, S: Source, K: Sink>(
         match decoded {
             SampleDecode::Sample { time, len } => {
                 summary.samples += 1;
-                match logger.push(time, &readings, &mut write) {
+                match logger.push_sample(time, &readings, &mut write) {
                     Ok(Pushed::Accepted) => summary.accepted += 1,
                     Ok(Pushed::Rejected(_)) => summary.rejected += 1,
                     Err(e) => return Err(ReplayError::Write(e)),
@@ -351,8 +392,8 @@ pub fn replay<'a, S: Source, K: Sink>(
             }
         }
     }
-    logger.close(&mut write).map_err(ReplayError::Write)?;
-    summary.frames = logger.frames();
+    logger.close_all(&mut write).map_err(ReplayError::Write)?;
+    summary.frames = logger.frame_count();
     #[cfg(feature = "defmt")]
     defmt::info!("replay done: {}", summary);
     Ok(summary)
@@ -511,6 +552,92 @@ mod tests {
         st.close(&mut on);
         assert_eq!(want.len(), 3 * 3 * FRAME_LEN);
         assert_eq!(log, want);
+    }
+
+    /// A state log finished on the host, as `tenmin decode` does it, and
+    /// written as record frames (sequence numbers counted again).
+    fn finish_states<const N: usize>(log: &[u8], layout: &Layout<N>) -> Vec<u8> {
+        let mut finisher: qc_core::Finisher<N> = qc_core::Finisher::new();
+        let mut acc: qc_core::IntervalAcc<N, GUST_CAPACITY> = qc_core::IntervalAcc::new(layout, 0);
+        let mut out = Vec::new();
+        let mut next = None;
+        for span in scan(log) {
+            let Span::State { frame, .. } = span else {
+                panic!("not a state frame: {span:?}")
+            };
+            assert_eq!(usize::from(frame.channels), N);
+            let k = layout.interval_of(frame.interval_start);
+            if frame.channel == 0 {
+                if let Some(n) = next.filter(|&n| k > n) {
+                    let count = (k - n) as u64;
+                    finisher.gap(layout, qc_core::Gap { first: n, count });
+                }
+                acc = qc_core::IntervalAcc::new(layout, k);
+            }
+            acc.set_state(layout, usize::from(frame.channel), &frame.state)
+                .unwrap();
+            if usize::from(frame.channel) == N - 1 {
+                for (ch, record) in finisher.interval(layout, &mut acc).iter().enumerate() {
+                    let f = RecordFrame {
+                        sequence: (out.len() / FRAME_LEN) as u32,
+                        interval_start: frame.interval_start,
+                        channel: ch as u8,
+                        record: *record,
+                    };
+                    let mut b = [0u8; FRAME_LEN];
+                    qc_core::wire::encode_record(&f, &mut b);
+                    out.extend_from_slice(&b);
+                }
+                next = Some(k + 1);
+            }
+        }
+        out
+    }
+
+    #[test]
+    fn state_replay_finished_on_the_host_gives_the_record_replay() {
+        // The whole scenario station, and three of its channels padded to 8
+        // (the frames carry the fingerprint of the three).
+        let (f, cfgs) = file(8, 2500);
+        let (_, records) = run(&f, 100).unwrap();
+        let mut log = Vec::new();
+        let s = replay_states(
+            &mut Slice {
+                bytes: &f,
+                chunk: 77,
+            },
+            &mut log,
+            &mut ReplayLayoutSlot::new(),
+            &mut ReplaySlot::new(),
+        )
+        .unwrap();
+        assert_eq!(s.frames as usize, 5 * 8);
+        let layout = scenario::layout().unwrap();
+        assert!(scan(&log).all(|sp| matches!(sp, Span::State { frame, .. } if frame.fingerprint == layout.fingerprint())));
+        assert_eq!(finish_states(&log, &layout), records);
+        assert_eq!(cfgs.len(), 8);
+
+        let (f, cfgs) = file(3, 1300);
+        let (_, records) = run(&f, 100).unwrap();
+        let mut log = Vec::new();
+        replay_states(
+            &mut Slice {
+                bytes: &f,
+                chunk: 100,
+            },
+            &mut log,
+            &mut ReplayLayoutSlot::new(),
+            &mut ReplaySlot::new(),
+        )
+        .unwrap();
+        let layout =
+            Layout::new::<GUST_CAPACITY>(scenario::station(), &[cfgs[0], cfgs[1], cfgs[2]])
+                .unwrap();
+        let Some(Span::State { frame, .. }) = scan(&log).next() else {
+            panic!("no state frame")
+        };
+        assert_eq!(frame.fingerprint, layout.fingerprint());
+        assert_eq!(finish_states(&log, &layout), records);
     }
 
     #[test]

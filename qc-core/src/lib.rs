@@ -128,8 +128,9 @@ pub use flags::{Flag, Flags};
 pub use recovery::{Recovery, Totals};
 pub use screen::{Icing, Screen, Screener};
 pub use station::{
-    Ended, Event, Finisher, Gap, IntervalAcc, Layout, PushTotals, Pushed, Reject, Sampler,
-    Sentinels, StateError, Station, StationConfig, MAX_SAMPLES_PER_INTERVAL, MAX_SENTINELS,
+    config_fingerprint, Ended, Event, Finisher, Gap, IntervalAcc, Layout, PushTotals, Pushed,
+    Reject, Sampler, Sentinels, StateError, Station, StationConfig, MAX_SAMPLES_PER_INTERVAL,
+    MAX_SENTINELS,
 };
 pub use time::{Civil, Month, Timestamp};
 

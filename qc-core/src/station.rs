@@ -154,10 +154,14 @@ const fn fp_index(c: Crc32, v: Option<u8>) -> Crc32 {
     }
 }
 
-/// [`Layout::fingerprint`]: the CRC-32 of the configuration's fields, each fed
-/// as one little-endian `u64` word, in declaration order (an `Option` as a
-/// presence word and its value).
-const fn fingerprint(station: &StationConfig, channels: &[ChannelConfig]) -> u32 {
+/// The fingerprint of a configuration ([`Layout::fingerprint`]): the CRC-32 of
+/// its fields, each fed as one little-endian `u64` word, in declaration order
+/// (an `Option` as a presence word and its value), the channel count first.
+///
+/// A logger whose station uses only its first `n` channel slots stamps its
+/// state frames with the fingerprint of those `n` channels, which is what a PC
+/// computes from a station of `n` channels.
+pub const fn config_fingerprint(station: &StationConfig, channels: &[ChannelConfig]) -> u32 {
     let mut c = Crc32::new()
         .word(station.interval_s as u64)
         .word(station.samples_per_interval as u64);
@@ -400,7 +404,7 @@ impl<const C: usize> Layout<C> {
         self.samples = n;
         self.max_step_ms = 3 * interval_ms / (2 * n as i64);
         self.sentinels = sentinels;
-        self.fingerprint = fingerprint(&station, channels);
+        self.fingerprint = config_fingerprint(&station, channels);
         Ok(())
     }
 
@@ -899,8 +903,15 @@ impl<const C: usize, const G: usize, L: Borrow<Layout<C>>> Sampler<C, G, L> {
             }
             return Err(reason);
         }
-        if t.millis() >= self.open_end {
-            let k = self.layout.borrow().interval_of(t);
+        let ms = t.millis();
+        if ms >= self.open_end {
+            let layout = self.layout.borrow();
+            // Usually the next interval: no division.
+            let k = if self.live && ms - self.open_end < layout.interval_ms {
+                self.open.index + 1
+            } else {
+                layout.interval_of(t)
+            };
             self.close(&mut *emit);
             self.gap_to(k, emit);
             self.open.reset(self.layout.borrow(), k);

@@ -17,6 +17,7 @@ use core::hint::black_box;
 use cortex_m::peripheral::syst::SystClkSource;
 use cortex_m::peripheral::{Peripherals, SYST};
 use cortex_m_rt::entry;
+use firmware_example::logger::FrameLogger;
 use firmware_example::scenario::{self, Logger, LoggerSlot, CHANNELS};
 use qc_core::wire::{encode_record, RecordFrame, FRAME_LEN};
 use qc_core::{ChannelConfig, Event, Layout, Reading, Station, StationConfig, Timestamp};
@@ -304,7 +305,7 @@ static SCENARIO_TABLE: [[Reading; CHANNELS]; 8] = {
 /// a logger whose frames go nowhere; with `push` false the same loop without
 /// the logger (the baseline). SysTick ticks taken.
 fn logger_pushes(
-    logger: &mut Logger<'_>,
+    logger: &mut impl FrameLogger<CHANNELS>,
     table: &[[Reading; CHANNELS]; 8],
     t0: i64,
     n: u32,
@@ -319,7 +320,7 @@ fn logger_pushes(
         let t = Timestamp::from_millis(t0 + i64::from(i) * 1000);
         let r = black_box(&table[(i & 7) as usize]);
         if push {
-            black_box(logger.push(t, r, &mut sink).is_ok());
+            black_box(logger.push_sample(t, r, &mut sink).is_ok());
         } else {
             black_box((t, r));
         }
@@ -329,7 +330,11 @@ fn logger_pushes(
 
 /// Steady-state instructions per sample of a logger fed `table` from `T0`:
 /// a warm-up of 10 samples, then `N` timed less the same loop without it.
-fn logger_per_sample(m: &Meter, logger: &mut Logger<'_>, table: &[[Reading; CHANNELS]; 8]) -> u64 {
+fn logger_per_sample(
+    m: &Meter,
+    logger: &mut impl FrameLogger<CHANNELS>,
+    table: &[[Reading; CHANNELS]; 8],
+) -> u64 {
     logger_pushes(logger, table, T0, 10, true);
     let work = logger_pushes(logger, table, T0 + 10_000, N, true);
     let base = logger_pushes(logger, table, T0 + 10_000, N, false);
@@ -472,6 +477,35 @@ fn scenario_case(m: &Meter, slot: &mut LoggerSlot) -> Option<()> {
     Some(())
 }
 
+/// The scenario's state logger (the sampling half only, state frames for the
+/// PC to finish): instructions per sample, and the interval close with its 8
+/// state frames.
+#[inline(never)]
+fn state_case(m: &Meter, slot: &mut LoggerSlot) -> Option<()> {
+    let mut logger = slot.start_states(&scenario::LAYOUT)?;
+    let table = &SCENARIO_TABLE;
+    let per_sample = logger_per_sample(m, &mut logger, table);
+    logger_pushes(
+        &mut logger,
+        table,
+        T0 + i64::from(10 + N) * 1000,
+        590 - N,
+        true,
+    );
+    logger_pushes(&mut logger, table, T0 + 600_000, 1, true);
+    logger_pushes(&mut logger, table, T0 + 601_000, 599, true);
+    let closing = logger_pushes(&mut logger, table, T0 + 1_200_000, 1, true);
+    let close = m.per_op(1, closing, 0).saturating_sub(per_sample);
+    println!(
+        "budget: {:<34} per sample {:>6}   interval close {:>6}   ({} per channel, incl. state frames)",
+        "state logger (8 channels)",
+        per_sample,
+        close,
+        close / CHANNELS as u64
+    );
+    Some(())
+}
+
 #[entry]
 fn main() -> ! {
     // The 8-channel logger lives in static memory (see the replay binary).
@@ -523,6 +557,7 @@ fn main() -> ! {
         )
         .is_none()
         || scenario_case(&m, LOGGER).is_none()
+        || state_case(&m, LOGGER).is_none()
     {
         println!("budget: a case did not run");
         process::exit(1)

@@ -3,9 +3,12 @@
 //! every sample through a [`Logger`](firmware_example::logger::Logger)
 //! (qc-core's `Station`), and appends the record-log frames to an output file.
 //!
-//! Paths come from the semihosting command line (`replay SAMPLES LOG`, set by
-//! QEMU's `-semihosting-config ...,arg=replay,arg=SAMPLES,arg=LOG`), or default to
-//! `replay-day.tmsf` and `replay-day.log` in QEMU's working directory. Exit
+//! Paths come from the semihosting command line (`replay SAMPLES LOG [states]`,
+//! set by QEMU's `-semihosting-config ...,arg=replay,arg=SAMPLES,arg=LOG`), or
+//! default to `replay-day.tmsf` and `replay-day.log` in QEMU's working
+//! directory. With a third argument `states`, the board runs a state logger
+//! instead (qc-core's `Sampler`: one state frame per channel and interval, for
+//! `tenmin decode --config` to finish on the PC). Exit
 //! status 0 on success, 1 on any error, printed to the host's stderr (a station
 //! that does not fit this logger, a damaged or truncated file, a file error).
 
@@ -15,7 +18,7 @@
 use core::ffi::CStr;
 
 use cortex_m_rt::entry;
-use firmware_example::replay::{replay, ReplayLayoutSlot, ReplaySlot, Sink, Source};
+use firmware_example::replay::{replay, replay_states, ReplayLayoutSlot, ReplaySlot, Sink, Source};
 use qc_core::wire::FRAME_LEN;
 use semihosting::experimental::env;
 use semihosting::fs::File;
@@ -48,10 +51,11 @@ fn c_path<'a>(arg: &str, buf: &'a mut [u8; 256]) -> Option<&'a CStr> {
 
 /// Opens the files named on the command line (or the defaults).
 #[inline(never)]
-fn open_files() -> Result<(HostFile, HostFile), ()> {
+fn open_files() -> Result<(HostFile, HostFile, bool), ()> {
     let mut in_buf = [0u8; 256];
     let mut out_buf = [0u8; 256];
     let (mut input, mut output) = (c"replay-day.tmsf", c"replay-day.log");
+    let mut states = false;
     if let Ok(args) = env::args::<512>() {
         let mut args = (&args).skip(1);
         if let Some(Ok(a)) = args.next() {
@@ -62,6 +66,14 @@ fn open_files() -> Result<(HostFile, HostFile), ()> {
             output = c_path(a, &mut out_buf)
                 .ok_or_else(|| eprintln!("replay: log file path longer than 255 bytes"))?;
         }
+        match args.next() {
+            Some(Ok("states")) => states = true,
+            None => {}
+            Some(_) => {
+                eprintln!("replay: the third argument can only be `states`");
+                return Err(());
+            }
+        }
     }
     let source = File::open(input)
         .map(HostFile)
@@ -69,7 +81,7 @@ fn open_files() -> Result<(HostFile, HostFile), ()> {
     let sink = File::create(output)
         .map(HostFile)
         .map_err(|e| eprintln!("replay: cannot create {output:?}: {e:?}"))?;
-    Ok((source, sink))
+    Ok((source, sink, states))
 }
 
 #[entry]
@@ -79,10 +91,11 @@ fn main() -> ! {
     // live in static memory, not on the 16 KiB part's stack.
     static mut LAYOUT: ReplayLayoutSlot = ReplayLayoutSlot::new();
     static mut LOGGER: ReplaySlot<'static> = ReplaySlot::new();
-    let Ok((mut source, mut sink)) = open_files() else {
+    let Ok((mut source, mut sink, states)) = open_files() else {
         process::exit(1)
     };
-    match replay(
+    let how = if states { replay_states } else { replay };
+    match how(
         &mut source,
         &mut sink,
         LAYOUT,
@@ -90,8 +103,13 @@ fn main() -> ! {
     ) {
         Ok(s) => {
             println!(
-                "replay: {} channels, {} samples ({} accepted, {} rejected), {} frames",
-                s.channels, s.samples, s.accepted, s.rejected, s.frames
+                "replay: {} channels, {} samples ({} accepted, {} rejected), {} {} frames",
+                s.channels,
+                s.samples,
+                s.accepted,
+                s.rejected,
+                s.frames,
+                if states { "state" } else { "record" }
             );
             process::exit(0)
         }
