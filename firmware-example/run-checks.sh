@@ -57,7 +57,9 @@ replay_on() {
   if [ "$1" = m0 ]; then q=("${qemu_m0[@]}"); else q=("${qemu_m4[@]}"); fi
   local t=thumbv6m-none-eabi
   [ "$1" = m4 ] && t=thumbv7em-none-eabihf
-  timeout 120 "${q[@]}" -semihosting-config "$semi,arg=replay,arg=$2,arg=$3" -kernel "$(elf "$t" replay)"
+  local extra=""
+  [ -n "${4:-}" ] && extra=",arg=$4"
+  timeout 120 "${q[@]}" -semihosting-config "$semi,arg=replay,arg=$2,arg=$3$extra" -kernel "$(elf "$t" replay)"
 }
 
 step "stack guard: the stack lies below the statics (memory/microbit.x)"
@@ -95,6 +97,19 @@ for m in m0 m4; do
 done
 cmp demo-m0.log demo-m4.log && echo "Cortex-M0 and Cortex-M4F logs are identical"
 rows=$(($(wc -l <decoded-m0.csv) - 1))
+
+step "state logger: replay under QEMU writing state frames, finished by tenmin decode on the PC"
+rm -f states-m0.log states-m4.log
+replay_on m0 demo.tmsf states-m0.log states
+replay_on m4 demo.tmsf states-m4.log states
+cmp states-m0.log states-m4.log && echo "Cortex-M0 and Cortex-M4F state logs are identical"
+for m in m0 m4; do
+  "$tenmin" decode --strict --config demo/station.toml "states-$m.log" -o "states-$m.csv"
+  "$tenmin" verify -q --config demo/station.toml --samples demo/samples-*.csv --records "states-$m.csv" \
+    || fail "tenmin verify of the $m state log"
+done
+cmp states-m0.csv decoded-m0.csv \
+  && echo "records finished on the PC from the state log = records finished on the logger"
 
 step "damaged logs: tenmin decode reports the damage, everything before it verifies"
 # damage_check NAME FILE: FILE is a damaged copy of the M0 log. decode --strict
@@ -190,7 +205,7 @@ sections() { # sections ELF -> "vector text rodata data bss"
 }
 printf '%-38s %8s %8s %8s %8s %8s %8s %8s\n' binary vectors .text .rodata .data .bss flash RAM
 for t in thumbv6m-none-eabi thumbv7em-none-eabihf; do
-  for b in footprint footprint_base replay baseline; do
+  for b in footprint footprint_states footprint_base replay baseline; do
     read -r v tx ro da bs < <(sections "$(elf "$t" "$b")")
     printf '%-38s %8d %8d %8d %8d %8d %8d %8d\n' "$b ($t)" "$v" "$tx" "$ro" "$da" "$bs" \
       $((v + tx + ro + da)) $((da + bs))
@@ -198,25 +213,34 @@ for t in thumbv6m-none-eabi thumbv7em-none-eabihf; do
 done
 flash() { read -r v tx ro da _ < <(sections "$1"); echo $((v + tx + ro + da)); }
 share=$(($(flash "$(elf thumbv6m-none-eabi footprint)") - $(flash "$(elf thumbv6m-none-eabi footprint_base)")))
+state_share=$(($(flash "$(elf thumbv6m-none-eabi footprint_states)") - $(flash "$(elf thumbv6m-none-eabi footprint_base)")))
 replay_share=$(($(flash "$(elf thumbv6m-none-eabi replay)") - $(flash "$(elf thumbv6m-none-eabi baseline)")))
 
 echo
-echo "what the minimal logger adds to flash on thumbv6m, by symbol (llvm-nm sizes of the symbols"
-echo "footprint has and footprint_base has not; qc-core inlined into the logger counts as logger):"
-llvm-nm -C "$(elf thumbv6m-none-eabi footprint_base)" | awk '{ $1=""; $2=""; print substr($0,3) }' \
-  | sed 's/::h[0-9a-f]\{16\}$//' | sort -u >"$out/base.syms"
-llvm-nm -S -C --radix=d "$(elf thumbv6m-none-eabi footprint)" | awk '
-  NR==FNR { base[$0]=1; next }
-  $3 ~ /^[tTrRdD]$/ { size=$2+0; $1=""; $2=""; $3=""; n=substr($0,4); sub(/::h[0-9a-f]+$/, "", n);
-    if (n in base) next;
-    if (n ~ /qc_core/) c="qc-core";
-    else if (n ~ /^libm::/) c="libm (qc-core dependency)";
-    else if (n ~ /compiler_builtins|^__/) c="compiler-builtins (soft f64, 64-bit int, mem*)";
-    else if (n ~ /scenario::LAYOUT/) c="the validated layout (data, in flash)";
-    else if (n ~ /firmware_example/) c="logger (firmware_example::logger, inlined qc-core)";
-    else c="the program itself and core";
-    sum[c]+=size }
-  END { for (c in sum) printf "  %7d  %s\n", sum[c], c }' "$out/base.syms" - | sort -rn
+# split BINARY: what BINARY adds to flash over footprint_base, by symbol (llvm-nm
+# sizes of the symbols it has and footprint_base has not; qc-core inlined into
+# the logger counts as logger).
+split() {
+  llvm-nm -C "$(elf thumbv6m-none-eabi footprint_base)" | awk '{ $1=""; $2=""; print substr($0,3) }' \
+    | sed 's/::h[0-9a-f]\{16\}$//' | sort -u >"$out/base.syms"
+  llvm-nm -S -C --radix=d "$(elf thumbv6m-none-eabi "$1")" | awk '
+    NR==FNR { base[$0]=1; next }
+    $3 ~ /^[tTrRdD]$/ { size=$2+0; $1=""; $2=""; $3=""; n=substr($0,4); sub(/::h[0-9a-f]+$/, "", n);
+      if (n in base) next;
+      if (n ~ /qc_core/) c="qc-core";
+      else if (n ~ /^libm::/) c="libm (qc-core dependency)";
+      else if (n ~ /compiler_builtins|^__/) c="compiler-builtins (soft f64, 64-bit int, mem*)";
+      else if (n ~ /scenario::LAYOUT/) c="the validated layout (data, in flash)";
+      else if (n ~ /firmware_example/) c="logger (firmware_example::logger, inlined qc-core)";
+      else c="the program itself and core";
+      sum[c]+=size }
+    END { for (c in sum) printf "  %7d  %s\n", sum[c], c }' "$out/base.syms" - | sort -rn
+}
+echo
+echo "what the minimal logger that finishes on board (footprint) adds to flash on thumbv6m, by symbol:"
+split footprint
+echo "what the minimal state logger (footprint_states) adds, by symbol:"
+split footprint_states
 
 m0_ram=$(sections "$(elf thumbv6m-none-eabi replay)" | awk '{print $4 + $5}')
 fp_ram=$(sections "$(elf thumbv6m-none-eabi footprint)" | awk '{print $4 + $5}')
@@ -235,12 +259,14 @@ step "budgets table (Cortex-M0, thumbv6m-none-eabi, QEMU microbit)"
 printf '%-64s %10s %8s  %s\n' measure measured target verdict
 row() { printf '%-64s %10s %8s  %s\n' "$1" "$2" "$3" "$(verdict "$2" "$3")"; }
 info() { printf '%-64s %10s\n' "$1" "$2"; }
-row "qc-core flash share, 8-channel logger: footprint - base (B)" "$share" 16384
-info "  the replay board: replay - baseline (B)" "$replay_share"
+row "qc-core flash share, 8-channel state logger: footprint_states - base (B)" "$state_share" 16384
+info "  a logger that also finishes and screens: footprint - base (B)" "$share"
+info "  the replay board (both kinds of logger): replay - baseline (B)" "$replay_share"
 row "channel state, 8 channels: Station<8,3,&Layout> (B)" "$state" 2048
 info "  of which interval accumulators IntervalAcc<8,3>" "$acc"
 info "  of which running recovery, 8 x Recovery" "$rec"
 info "  of which flat-line history, Screener<8>" "$scr"
+info "  the state logger's running state, Sampler<8,3,&Layout> (B)" "$(field 'Sampler<8,3,&Layout>')"
 info "  the validated layout Layout<8>, in flash (B)" "$layout"
 info "  the 8-channel logger's static RAM (.data + .bss, B)" "$fp_ram"
 info "  the replay board's static RAM (.data + .bss, B)" "$m0_ram"
@@ -258,6 +284,7 @@ row "interval close, speed channel (steady state)" "$(num 'speed, Reading::Count
 row "interval close, direction channel (steady state)" "$(num 'direction, Reading::Counts (vane)' 'interval close')" 20000
 row "interval close, scalar channel (steady state)" "$(num 'scalar, Reading::Value' 'interval close')" 20000
 row "interval close, 8-channel scenario logger incl. frames, per channel" "$(line 'scenario logger (8 channels)' | sed -n 's/.*(\([0-9]*\) per channel.*/\1/p')" 20000
+row "interval close, 8-channel state logger incl. state frames, per channel" "$(line 'state logger (8 channels)' | sed -n 's/.*(\([0-9]*\) per channel.*/\1/p')" 20000
 info "  the first close of a calendar month, station alone" "$(num 'station alone (0 channels)' 'first of a month')"
 echo
 echo "run-checks.sh: firmware checks passed (budgets are reported, not enforced)"

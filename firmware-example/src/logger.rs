@@ -344,7 +344,7 @@ fn put_sampler<'a, const C: usize, const G: usize>(
 
 /// A running state logger: a sampler in a [`SamplerSlot`] that writes one
 /// state frame (`qc_core::wire::encode_state`) per channel for every interval
-/// it closes, for a PC to finish (`tenmin decode --station`). Neither
+/// it closes, for a PC to finish (`tenmin decode --config`). Neither
 /// finishing nor screening runs here, so their code is not in the firmware.
 #[derive(Debug)]
 pub struct StateLogger<'s, 'a, const C: usize, const G: usize> {

@@ -1,36 +1,65 @@
-//! `tenmin decode`: a logger's record log (`qc_core::wire` record frames) to
-//! records CSV, with damaged and torn spans reported by byte offset.
+//! `tenmin decode`: a logger's log (`qc_core::wire` frames) to records CSV,
+//! with damaged and torn spans reported by byte offset.
+//!
+//! A log holds one of two kinds of frame, and its first good frame decides
+//! which; a good frame of the other kind later in the log is bad input:
+//!
+//! - **Record log**: one record frame per channel per interval, the
+//!   statistics the logger finished itself. Every good frame becomes a row.
+//! - **State log**: one state frame per channel per interval, the channel's
+//!   exact integer end state, written by a logger that leaves finishing to
+//!   the PC (a `qc_core::Sampler` alone). The states of each interval are put
+//!   back into an interval (`IntervalAcc::set_state`) and finished and
+//!   screened here, in time order, by one `qc_core::Finisher` kept across the
+//!   whole log: the rows are those the logger's own station would have
+//!   written, bit for bit. Every state frame carries the fingerprint of the
+//!   logger's configuration (`qc_core::config_fingerprint`), which must equal
+//!   that of the station file: a state log can only be finished with the
+//!   station file its logger was built with. A frame of another fingerprint
+//!   is bad input (exit 2), as is a state that does not fit its channel.
 //!
 //! The log is scanned with the core's scanner (`qc_core::wire::scan`), which
-//! resynchronises on the sync marker after damage. Every good frame becomes a
-//! row, written by the CLI's own records writer ([`crate::records::write_row`]) in
-//! the replay's column layout. Frames must match the station file (channel
-//! index, kind, interval alignment, samples per interval): a frame that does
-//! not is bad input (exit 2), most likely the log of another station.
+//! resynchronises on the sync marker after damage. Rows are written by the
+//! CLI's own records writer ([`crate::records::write_row`]) in the replay's
+//! column layout. Frames must match the station file (channel index, kind or
+//! fingerprint, channel count, interval alignment, samples per interval): a
+//! frame that does not is bad input (exit 2), most likely the log of another
+//! station.
 //!
 //! A logger writes no frames for intervals without samples; the replay writes
 //! them as rows with empty statistics. Between the first and the last frame,
 //! such intervals are written here the way the replay writes them (an empty
-//! `IntervalAcc::new(&layout, k)` finished by the core), so that `tenmin
-//! verify` against the replay passes. The frames' sequence numbers tell a gap
-//! from lost frames: when frames are missing between two good ones (their
-//! sequence numbers are not consecutive), the intervals with no frame between
-//! them are not written, since whether they held samples is unknown; rows of
-//! lost frames are simply absent, and `tenmin verify` lists them as missing.
+//! `IntervalAcc::new(&layout, k)` finished by the core; in a state log they
+//! are also counted by the finisher as a `Gap`), so that `tenmin verify`
+//! against the replay passes. The frames' sequence numbers tell a gap from
+//! lost frames: when frames are missing between two good ones (their sequence
+//! numbers are not consecutive), the intervals with no frame between them are
+//! neither written nor finished, since whether they held samples is unknown;
+//! rows of lost frames are simply absent, and `tenmin verify` lists them as
+//! missing.
+//!
+//! In a state log, an interval some of whose states were lost (frames lost or
+//! damaged) is still finished, the lost channels left empty, and written
+//! without rows for them; its cross-channel screening flags (pair, shear,
+//! icing) then treat the lost channels as having no samples, and their
+//! flat-line runs start again. Each such interval is reported.
 //!
 //! Exit codes: 0 when the log was read, damage or not (problems are reported
 //! on stderr); with `--strict`, 1 when anything was damaged, torn, lost or
-//! out of order; 2 on bad input (unreadable file, frames that do not match the
-//! station file).
+//! out of order, or an interval of a state log incomplete; 2 on bad input
+//! (unreadable file, frames that do not match the station file, a log mixing
+//! both kinds of frame).
 
 use std::fmt::Write as _;
 use std::io::{self, BufWriter, Write};
 use std::path::Path;
 use std::process::ExitCode;
 
-use anyhow::{bail, Context, Result};
-use qc_core::wire::{self, RecordFrame, Span, FRAME_LEN};
-use qc_core::{IntervalAcc, Layout};
+use anyhow::{anyhow, bail, Context, Result};
+use qc_core::wire::{self, RecordFrame, Span, StateFrame, FRAME_LEN};
+use qc_core::{
+    config_fingerprint, ChannelConfig, Finisher, Gap, IntervalAcc, Layout, StateForm, Timestamp,
+};
 
 use crate::config::{self, StationFile, MAX_CHANNELS};
 use crate::engine::G;
@@ -40,14 +69,22 @@ use crate::timefmt::Rfc3339;
 /// What a decode found.
 #[derive(Clone, Debug, Default, PartialEq, Eq)]
 pub struct Decoded {
-    /// Good frames, each a row.
+    /// Whether the log is a state log (its first good frame is a state frame).
+    pub states: bool,
+    /// Good frames: record frames (each a row) or state frames (each one
+    /// channel's state in one interval).
     pub frames: u64,
-    /// Rows written (frames and empty intervals).
+    /// Rows written (frames or finished states, and empty intervals).
     pub rows: u64,
     /// Intervals written as empty rows (no frames, none lost around them).
     pub empty_intervals: u64,
     /// Rows written for them.
     pub empty_rows: u64,
+    /// State log: intervals with states finished here, incomplete ones
+    /// included (empty intervals not).
+    pub finished_intervals: u64,
+    /// State log: intervals finished without the states of some channels.
+    pub incomplete_intervals: u64,
     /// Damaged spans, torn tail included.
     pub damaged_spans: u64,
     /// Bytes in damaged spans.
@@ -68,12 +105,14 @@ pub struct Decoded {
 }
 
 impl Decoded {
-    /// Whether anything was damaged, torn, lost or out of order.
+    /// Whether anything was damaged, torn, lost or out of order, or an
+    /// interval of a state log is incomplete.
     pub fn damaged(&self) -> bool {
         self.damaged_spans > 0
             || self.lost_frames > 0
             || self.sequence_breaks > 0
             || self.out_of_order > 0
+            || self.incomplete_intervals > 0
     }
 
     /// The summary on stderr.
@@ -81,13 +120,28 @@ impl Decoded {
         for p in &self.problems {
             writeln!(w, "decode: {}: {p}", log.display())?;
         }
+        if self.states {
+            write!(
+                w,
+                "decode: {}: state log: {} good state frames, {} intervals finished here ({} of them incomplete), ",
+                log.display(),
+                self.frames,
+                self.finished_intervals,
+                self.incomplete_intervals,
+            )?;
+        } else {
+            write!(
+                w,
+                "decode: {}: {} good frames, ",
+                log.display(),
+                self.frames
+            )?;
+        }
         writeln!(
             w,
-            "decode: {}: {} good frames, {} rows written ({} of them for {} intervals with no samples); \
+            "{} rows written ({} of them for {} intervals with no samples); \
              {} damaged spans ({} bytes), {} frames lost, {} sequence restarts, {} frames out of order, \
              {} bytes of erased flash",
-            log.display(),
-            self.frames,
             self.rows,
             self.empty_rows,
             self.empty_intervals,
@@ -101,17 +155,8 @@ impl Decoded {
     }
 }
 
-/// The last good frame written.
-#[derive(Clone, Copy)]
-struct Prev {
-    index: i64,
-    channel: u8,
-    sequence: u32,
-    offset: usize,
-}
-
-/// Decodes the record log `log` of the station `cfg` into records CSV on
-/// `out`. `path` names the log in messages.
+/// Decodes the log `log` (record or state frames) of the station `cfg` into
+/// records CSV on `out`. `path` names the log in messages.
 pub fn decode<W: Write>(
     cfg: &StationFile,
     log: &[u8],
@@ -135,190 +180,435 @@ fn decode_with<const C: usize, W: Write>(
     out: &mut W,
 ) -> Result<Decoded> {
     let layout: Layout<C> = cfg.layout::<C>()?;
-    let ids: Vec<&str> = cfg.channels.iter().map(|c| c.id.as_str()).collect();
-    let mut d = Decoded::default();
+    let cores: Vec<ChannelConfig> = cfg.channels.iter().map(|c| c.core).collect();
     write_header(out)?;
-    let mut prev: Option<Prev> = None;
-    let row = |out: &mut W, k: i64, ch: usize, frame: Option<&RecordFrame>| {
-        let start = layout.interval_start(k);
-        let end = layout.interval_start(k.saturating_add(1));
-        let record = match frame {
-            Some(f) => Some(f.record),
-            None => layout.finish(&IntervalAcc::<C, G>::new(&layout, k), ch),
-        };
-        match (record, ids.get(ch)) {
-            (Some(r), Some(id)) => write_row(out, start, end, id, &r),
-            _ => Ok(()),
-        }
+    let mut d = Decoder {
+        cfg,
+        path,
+        ids: cfg.channels.iter().map(|c| c.id.as_str()).collect(),
+        fingerprint: config_fingerprint(&cfg.station, &cores),
+        layout,
+        out,
+        d: Decoded::default(),
+        first: None,
+        prev: None,
+        finisher: Finisher::new(),
+        open: None,
     };
     for span in wire::scan(log) {
-        let (offset, frame) = match span {
-            Span::Frame { offset, frame } => (offset, frame),
-            Span::State { offset, .. } => {
-                bail!(
-                    "{}: byte {offset}: a state frame; this decoder reads record frames only",
-                    path.display()
-                )
-            }
+        d.span(span)?;
+    }
+    d.close_open()?;
+    Ok(d.d)
+}
+
+/// A good frame of either kind.
+enum Good {
+    Record(RecordFrame),
+    State(StateFrame),
+}
+
+impl Good {
+    fn kind(&self) -> &'static str {
+        match self {
+            Good::Record(_) => "record",
+            Good::State(_) => "state",
+        }
+    }
+}
+
+/// The last good frame taken.
+#[derive(Clone, Copy)]
+struct Prev {
+    index: i64,
+    channel: u8,
+    sequence: u32,
+    offset: usize,
+}
+
+/// The interval of a state log whose states are arriving.
+struct Open<const C: usize> {
+    acc: Box<IntervalAcc<C, G>>,
+    /// Which channels' states arrived.
+    arrived: Vec<bool>,
+}
+
+/// The decoding of one log.
+struct Decoder<'a, const C: usize, W: Write> {
+    cfg: &'a StationFile,
+    path: &'a Path,
+    ids: Vec<&'a str>,
+    /// `config_fingerprint` of the station file (its real channels).
+    fingerprint: u32,
+    layout: Layout<C>,
+    out: &'a mut W,
+    d: Decoded,
+    /// Whether the log holds state frames, and the offset of its first good
+    /// frame.
+    first: Option<(bool, usize)>,
+    prev: Option<Prev>,
+    /// State log: finishes the intervals, in time order.
+    finisher: Finisher<C>,
+    /// State log: the interval whose states are arriving.
+    open: Option<Open<C>>,
+}
+
+impl<const C: usize, W: Write> Decoder<'_, C, W> {
+    /// Takes one span of the scan.
+    fn span(&mut self, span: Span) -> Result<()> {
+        let (offset, good) = match span {
+            Span::Frame { offset, frame } => (offset, Good::Record(frame)),
+            Span::State { offset, frame } => (offset, Good::State(frame)),
             Span::Damaged { offset, len } => {
-                d.damaged_spans += 1;
-                d.damaged_bytes += len as u64;
-                d.problems.push(format!(
+                self.d.damaged_spans += 1;
+                self.d.damaged_bytes += len as u64;
+                self.d.problems.push(format!(
                     "bytes {offset} to {} ({len} bytes): damaged (no good frame there); skipped",
                     offset + len
                 ));
-                continue;
+                return Ok(());
             }
             Span::Torn { offset, len } => {
-                d.damaged_spans += 1;
-                d.damaged_bytes += len as u64;
-                d.problems.push(format!(
+                self.d.damaged_spans += 1;
+                self.d.damaged_bytes += len as u64;
+                self.d.problems.push(format!(
                     "bytes {offset} to {} ({len} bytes): torn tail (an append cut short, shorter than a {FRAME_LEN}-byte frame); skipped",
                     offset + len
                 ));
-                continue;
+                return Ok(());
             }
             Span::Erased { len, .. } => {
-                d.erased_bytes += len as u64;
-                continue;
+                self.d.erased_bytes += len as u64;
+                return Ok(());
             }
         };
-        let k = check(cfg, &layout, &frame, offset, path)?;
-        let ch = frame.channel;
-        match prev {
-            Some(p) if (k, ch) <= (p.index, p.channel) => {
-                d.out_of_order += 1;
-                d.problems.push(format!(
-                    "byte {offset}: frame of {} channel {} is not after the frame before it (byte {}); skipped",
-                    Rfc3339(layout.interval_start(k)),
-                    ids.get(usize::from(ch)).unwrap_or(&"?"),
-                    p.offset
-                ));
-                continue;
+        let states = matches!(good, Good::State(_));
+        match self.first {
+            None => {
+                self.first = Some((states, offset));
+                self.d.states = states;
             }
-            Some(p) => {
-                let lost = frame.sequence.wrapping_sub(p.sequence).wrapping_sub(1);
-                // Sequence numbers wrap after 2^32 frames; a jump of more than
-                // half of that is a restart, not a loss.
-                let restart = lost > u32::MAX / 2;
-                if restart {
-                    d.sequence_breaks += 1;
-                    d.problems.push(format!(
-                        "byte {offset}: the sequence number goes back from {} to {} (a new logging session in the same log?)",
-                        p.sequence, frame.sequence
-                    ));
-                } else if lost != 0 {
-                    d.lost_frames += u64::from(lost);
-                    let (first, last) =
-                        (p.sequence.wrapping_add(1), frame.sequence.wrapping_sub(1));
-                    let which = if lost == 1 {
-                        format!("1 frame lost (sequence number {first})")
-                    } else {
-                        format!("{lost} frames lost (sequence numbers {first} to {last})")
-                    };
-                    d.problems.push(format!(
-                        "bytes {} to {offset}: {which}",
-                        p.offset + FRAME_LEN
-                    ));
-                }
-                let empty = k.saturating_sub(p.index).saturating_sub(1);
-                if empty > 0 {
-                    if lost == 0 && !restart {
-                        // No frame lost: the logger wrote none, so these
-                        // intervals held no samples. Rows as the replay's.
-                        for j in p.index + 1..k {
-                            for c in 0..ids.len() {
-                                row(out, j, c, None)?;
-                                d.rows += 1;
-                                d.empty_rows += 1;
-                            }
-                        }
-                        d.empty_intervals += empty as u64;
-                    } else {
-                        d.unknown_intervals += empty as u64;
-                        d.problems.push(format!(
-                            "{} to {}: {empty} intervals without frames where frames were lost; no rows written for them",
-                            Rfc3339(layout.interval_start(p.index + 1)),
-                            Rfc3339(layout.interval_start(k))
-                        ));
-                    }
-                }
+            Some((s, at)) if s != states => {
+                let first = if s { "state" } else { "record" };
+                bail!(
+                    "{}: byte {offset}: a {} frame in a {first} log (its first good frame, at byte {at}, is a {first} frame); a log holds frames of one kind only",
+                    self.path.display(),
+                    good.kind(),
+                );
             }
-            None if frame.sequence != 0 => {
-                d.lost_frames += u64::from(frame.sequence);
-                d.problems.push(format!(
-                    "byte {offset}: the first good frame has sequence number {}: the frames before it are lost (or the log does not start where the logger started)",
-                    frame.sequence
-                ));
-            }
-            None => {}
+            Some(_) => {}
         }
-        row(out, k, usize::from(ch), Some(&frame))?;
-        d.rows += 1;
-        d.frames += 1;
-        prev = Some(Prev {
+        let (k, channel, sequence) = match &good {
+            Good::Record(f) => (self.check_record(f, offset)?, f.channel, f.sequence),
+            Good::State(f) => (self.check_state(f, offset)?, f.channel, f.sequence),
+        };
+        if !self.in_order(offset, k, channel) {
+            return Ok(());
+        }
+        let before = self.follow(offset, k, channel, sequence);
+        if states && self.open.as_ref().is_some_and(|o| o.acc.index() != k) {
+            self.close_open()?;
+        }
+        if let Some((p, broken)) = before {
+            self.between(p, k, broken)?;
+        }
+        self.d.frames += 1;
+        match good {
+            Good::Record(f) => {
+                let r = f.record;
+                self.row(k, usize::from(channel), &r)?;
+            }
+            Good::State(f) => self.state(&f, k, offset)?,
+        }
+        Ok(())
+    }
+
+    /// One row of interval `k`, channel `ch`.
+    fn row(&mut self, k: i64, ch: usize, record: &qc_core::ChannelRecord) -> Result<()> {
+        if let Some(id) = self.ids.get(ch) {
+            let start = self.layout.interval_start(k);
+            let end = self.layout.interval_start(k.saturating_add(1));
+            write_row(self.out, start, end, id, record)?;
+            self.d.rows += 1;
+        }
+        Ok(())
+    }
+
+    /// Whether a good frame of interval `k`, channel `ch` comes after the
+    /// frame before it; reports it when not.
+    fn in_order(&mut self, offset: usize, k: i64, ch: u8) -> bool {
+        let Some(p) = self.prev else {
+            return true;
+        };
+        if (k, ch) > (p.index, p.channel) {
+            return true;
+        }
+        self.d.out_of_order += 1;
+        self.d.problems.push(format!(
+            "byte {offset}: frame of {} channel {} is not after the frame before it (byte {}); skipped",
+            Rfc3339(self.layout.interval_start(k)),
+            self.ids.get(usize::from(ch)).unwrap_or(&"?"),
+            p.offset
+        ));
+        false
+    }
+
+    /// Checks the sequence number of a good frame in order against the one
+    /// before it, reporting lost frames and restarts, and takes it as the
+    /// last frame. Returns the frame before it and whether frames were lost
+    /// or the sequence started again between them.
+    fn follow(&mut self, offset: usize, k: i64, ch: u8, sequence: u32) -> Option<(Prev, bool)> {
+        let d = &mut self.d;
+        let prev = self.prev.replace(Prev {
             index: k,
             channel: ch,
-            sequence: frame.sequence,
+            sequence,
             offset,
         });
+        let Some(p) = prev else {
+            if sequence != 0 {
+                d.lost_frames += u64::from(sequence);
+                d.problems.push(format!(
+                    "byte {offset}: the first good frame has sequence number {sequence}: the frames before it are lost (or the log does not start where the logger started)",
+                ));
+            }
+            return None;
+        };
+        let lost = sequence.wrapping_sub(p.sequence).wrapping_sub(1);
+        // Sequence numbers wrap after 2^32 frames; a jump of more than half of
+        // that is a restart, not a loss.
+        if lost > u32::MAX / 2 {
+            d.sequence_breaks += 1;
+            d.problems.push(format!(
+                "byte {offset}: the sequence number goes back from {} to {sequence} (a new logging session in the same log?)",
+                p.sequence
+            ));
+        } else if lost != 0 {
+            d.lost_frames += u64::from(lost);
+            let (first, last) = (p.sequence.wrapping_add(1), sequence.wrapping_sub(1));
+            let which = if lost == 1 {
+                format!("1 frame lost (sequence number {first})")
+            } else {
+                format!("{lost} frames lost (sequence numbers {first} to {last})")
+            };
+            d.problems.push(format!(
+                "bytes {} to {offset}: {which}",
+                p.offset + FRAME_LEN
+            ));
+        }
+        Some((p, lost != 0))
     }
-    Ok(d)
-}
 
-/// The interval index of a good frame, after checking it belongs to `cfg`.
-fn check<const C: usize>(
-    cfg: &StationFile,
-    layout: &Layout<C>,
-    f: &RecordFrame,
-    offset: usize,
-    path: &Path,
-) -> Result<i64> {
-    let t = f.interval_start;
-    let mut why = String::new();
-    match cfg.channels.get(usize::from(f.channel)) {
-        None => {
-            let _ = write!(
-                why,
-                "channel index {}, but the station has {} channels",
-                f.channel,
-                cfg.channels.len()
-            );
+    /// The intervals between the frame before (`p`) and interval `k`: written
+    /// as empty when no frame was lost between (`broken` false: the logger
+    /// wrote none, so they held no samples), else only reported.
+    fn between(&mut self, p: Prev, k: i64, broken: bool) -> Result<()> {
+        let (first, count) = (p.index + 1, k.saturating_sub(p.index).saturating_sub(1));
+        if count <= 0 {
+            return Ok(());
         }
-        Some(c) if c.kind != f.record.kind => {
-            let _ = write!(
-                why,
-                "channel {} ({}) is a {:?} channel, the frame holds {:?} statistics",
-                f.channel, c.id, c.kind, f.record.kind
-            );
+        if !broken {
+            return self.empty(first, k);
         }
-        Some(_) => {}
+        self.d.unknown_intervals += count as u64;
+        let screening = if self.d.states {
+            ", none finished (flat-line runs start again after them)"
+        } else {
+            ""
+        };
+        self.d.problems.push(format!(
+            "{} to {}: {count} intervals without frames where frames were lost; no rows written for them{screening}",
+            Rfc3339(self.layout.interval_start(first)),
+            Rfc3339(self.layout.interval_start(k))
+        ));
+        Ok(())
     }
-    let k = layout.interval_of(t);
-    if why.is_empty() && layout.interval_start(k) != t {
-        let _ = write!(
-            why,
-            "interval start {} is not on a {} s boundary",
-            Rfc3339(t),
-            layout.interval_ms() / 1000
-        );
+
+    /// Intervals `first..end`, which held no samples: rows as the replay
+    /// writes them (an empty interval finished by the core, unscreened), and
+    /// in a state log one gap for the finisher.
+    fn empty(&mut self, first: i64, end: i64) -> Result<()> {
+        if self.d.states {
+            let gap = Gap {
+                first,
+                count: end.saturating_sub(first) as u64,
+            };
+            self.finisher.gap(&self.layout, gap);
+        }
+        for k in first..end {
+            let acc = IntervalAcc::<C, G>::new(&self.layout, k);
+            for c in 0..self.ids.len() {
+                if let Some(r) = self.layout.finish(&acc, c) {
+                    self.row(k, c, &r)?;
+                    self.d.empty_rows += 1;
+                }
+            }
+            self.d.empty_intervals += 1;
+        }
+        Ok(())
     }
-    if why.is_empty() && f.record.n_possible != layout.samples_per_interval() {
-        let _ = write!(
-            why,
-            "{} samples possible per interval, the station has {}",
-            f.record.n_possible,
-            layout.samples_per_interval()
-        );
+
+    /// Puts the state of a good state frame of interval `k` into the open
+    /// interval (opening it first); finishes it after its last channel.
+    fn state(&mut self, f: &StateFrame, k: i64, offset: usize) -> Result<()> {
+        let ch = usize::from(f.channel);
+        let n = self.ids.len();
+        let open = self.open.get_or_insert_with(|| Open {
+            acc: Box::new(IntervalAcc::new(&self.layout, k)),
+            arrived: vec![false; n],
+        });
+        if let Err(e) = open.acc.set_state(&self.layout, ch, &f.state) {
+            let why = match self.cfg.channels.get(ch) {
+                Some(c) => format!(
+                    "channel {ch} ({}) takes a {:?} state, the frame holds a {:?} state",
+                    c.id,
+                    StateForm::of(&c.core),
+                    f.state.form()
+                ),
+                None => format!("channel {ch}: {e}"),
+            };
+            return Err(self.mismatch(offset, &why));
+        }
+        if let Some(a) = open.arrived.get_mut(ch) {
+            *a = true;
+        }
+        if ch + 1 == n {
+            self.close_open()?;
+        }
+        Ok(())
     }
-    if !why.is_empty() {
-        bail!(
+
+    /// Finishes the open interval of a state log, if any, and writes the rows
+    /// of the channels whose states arrived.
+    fn close_open(&mut self) -> Result<()> {
+        let Some(mut open) = self.open.take() else {
+            return Ok(());
+        };
+        let records = self.finisher.interval(&self.layout, &mut open.acc);
+        let k = open.acc.index();
+        for (c, (record, arrived)) in records.iter().zip(&open.arrived).enumerate() {
+            if *arrived {
+                self.row(k, c, record)?;
+            }
+        }
+        self.d.finished_intervals += 1;
+        let lost: Vec<&str> = self
+            .ids
+            .iter()
+            .zip(&open.arrived)
+            .filter(|(_, a)| !**a)
+            .map(|(id, _)| *id)
+            .collect();
+        if !lost.is_empty() {
+            self.d.incomplete_intervals += 1;
+            self.d.problems.push(format!(
+                "{}: the states of {} did not arrive (frames lost or damaged): interval finished without them, no rows for them; its cross-channel screening flags (pair, shear, icing) treat them as having no samples, and their flat-line runs start again",
+                Rfc3339(self.layout.interval_start(k)),
+                lost.join(", ")
+            ));
+        }
+        Ok(())
+    }
+
+    /// Bad input: a frame that does not fit the station file.
+    fn mismatch(&self, offset: usize, why: &str) -> anyhow::Error {
+        anyhow!(
             "{}: byte {offset}: the frame does not match {}: {why} (is this the log of another station?)",
-            path.display(),
-            cfg.path.display()
-        );
+            self.path.display(),
+            self.cfg.path.display()
+        )
     }
-    Ok(k)
+
+    /// The interval index of a frame's interval start, or why it is not on
+    /// an interval boundary.
+    fn interval(&self, t: Timestamp) -> Result<i64, String> {
+        if !t.is_supported() {
+            return Err(format!(
+                "interval start {} ms since 1970 is outside the supported years",
+                t.millis()
+            ));
+        }
+        let k = self.layout.interval_of(t);
+        if self.layout.interval_start(k) == t {
+            Ok(k)
+        } else {
+            Err(format!(
+                "interval start {} is not on a {} s boundary",
+                Rfc3339(t),
+                self.layout.interval_ms() / 1000
+            ))
+        }
+    }
+
+    /// The interval index of a good record frame, after checking it belongs
+    /// to the station file.
+    fn check_record(&self, f: &RecordFrame, offset: usize) -> Result<i64> {
+        let mut why = String::new();
+        match self.cfg.channels.get(usize::from(f.channel)) {
+            None => {
+                let _ = write!(
+                    why,
+                    "channel index {}, but the station has {} channels",
+                    f.channel,
+                    self.cfg.channels.len()
+                );
+            }
+            Some(c) if c.kind != f.record.kind => {
+                let _ = write!(
+                    why,
+                    "channel {} ({}) is a {:?} channel, the frame holds {:?} statistics",
+                    f.channel, c.id, c.kind, f.record.kind
+                );
+            }
+            Some(_) => {}
+        }
+        if !why.is_empty() {
+            return Err(self.mismatch(offset, &why));
+        }
+        let k = self
+            .interval(f.interval_start)
+            .map_err(|why| self.mismatch(offset, &why))?;
+        if f.record.n_possible != self.layout.samples_per_interval() {
+            let why = format!(
+                "{} samples possible per interval, the station has {}",
+                f.record.n_possible,
+                self.layout.samples_per_interval()
+            );
+            return Err(self.mismatch(offset, &why));
+        }
+        Ok(k)
+    }
+
+    /// The interval index of a good state frame, after checking it comes from
+    /// a logger built with the station file.
+    fn check_state(&self, f: &StateFrame, offset: usize) -> Result<i64> {
+        let n = self.cfg.channels.len();
+        if usize::from(f.channels) != n {
+            let why = format!(
+                "the logger's station has {} channels, the station file {n}",
+                f.channels
+            );
+            return Err(self.mismatch(offset, &why));
+        }
+        if usize::from(f.channel) >= n {
+            let why = format!(
+                "channel index {}, but the station has {n} channels",
+                f.channel
+            );
+            return Err(self.mismatch(offset, &why));
+        }
+        if f.fingerprint != self.fingerprint {
+            bail!(
+                "{}: byte {offset}: state frame of another station configuration (fingerprint {:#010x}, the station file's is {:#010x}): a state log can only be finished with the station file its logger was built with, and {} is not that file",
+                self.path.display(),
+                f.fingerprint,
+                self.fingerprint,
+                self.cfg.path.display()
+            );
+        }
+        self.interval(f.interval_start)
+            .map_err(|why| self.mismatch(offset, &why))
+    }
 }
 
 /// `tenmin decode`.

@@ -165,18 +165,33 @@ the replay's does. The format is qc_core::wire (see CONTRACT.md, `Export`). A su
         )
     )]
     Export(ExportArgs),
-    /// Turn a logger's record log into records CSV, reporting damaged frames.
+    /// Turn a logger's log (record or state frames) into records CSV, reporting damaged frames.
     #[command(
-        long_about = "Read a logger's record log (qc_core::wire record frames, as the example firmware \
-writes them), report damaged and torn spans with their byte offsets on stderr, and write the good \
-frames as records CSV in the replay's columns. Intervals with no samples between the first and last \
-frame (the logger writes no frames for them) are written as the replay writes them, so that \
-`tenmin verify` can check the log against the samples. Lost frames (a gap in the frames' sequence \
-numbers) leave their rows out, and the intervals around them with no frame are not written. Frames \
-that do not match the station file are an error.",
+        long_about = "Read a logger's log (qc_core::wire frames, as the example firmware writes them), \
+report damaged and torn spans with their byte offsets on stderr, and write records CSV in the \
+replay's columns. The first good frame decides the kind of log; a frame of the other kind later is \
+an error.
+
+A record log holds the statistics the logger finished itself: every good frame is a row.
+
+A state log holds, per interval and channel, the exact integer end state, written by a logger that \
+leaves finishing to the PC: the states of each interval are finished and screened here, in time \
+order, and the rows are those the logger's own station would have written, bit for bit. A state log \
+needs the same station file the logger was built with: every state frame carries the fingerprint of \
+the logger's configuration, and a frame whose fingerprint differs from the station file's (a \
+setting of the statistics or the screening changed) stops the command. An interval some of whose states were lost \
+is finished without them: rows only for the channels whose states arrived, and its cross-channel \
+screening flags (pair, shear, icing) treat the lost channels as having no samples (reported on \
+stderr).
+
+Intervals with no samples between the first and last frame (the logger writes no frames for them) \
+are written as the replay writes them, so that `tenmin verify` can check the log against the \
+samples. Lost frames (a gap in the frames' sequence numbers) leave their rows out, and the \
+intervals around them with no frame are not written. Frames that do not match the station file are \
+an error.",
         after_long_help = concat!(
             "Example:\n  tenmin decode --config station.toml logger.log -o records.csv\n  tenmin verify --config station.toml --samples day-*.csv --records records.csv\n\n",
-            "Exit codes:\n  0  the log was read (damage, if any, reported on stderr)\n  1  with --strict: damaged, torn, lost or out-of-order frames (records still written)\n  2  bad input, bad usage or an I/O error; frames that do not match the station file"
+            "Exit codes:\n  0  the log was read (damage, if any, reported on stderr)\n  1  with --strict: damaged, torn, lost or out-of-order frames, or an interval of a state log\n     without some channels' states (records still written)\n  2  bad input, bad usage or an I/O error; frames that do not match the station file (a state\n     log of another configuration); a log mixing record and state frames"
         )
     )]
     Decode(DecodeArgs),
@@ -208,16 +223,18 @@ struct ExportArgs {
 
 #[derive(Args, Debug)]
 struct DecodeArgs {
-    /// Station file (TOML) of the logger that wrote the log.
+    /// Station file (TOML) of the logger that wrote the log (for a state log, the one
+    /// the logger was built with).
     #[arg(long, short = 'c', value_name = "STATION.toml")]
     config: PathBuf,
-    /// The record log.
+    /// The log: record frames or state frames.
     #[arg(value_name = "LOG")]
     log: PathBuf,
     /// Write records here instead of stdout.
     #[arg(long, short = 'o', value_name = "RECORDS.csv")]
     output: Option<PathBuf>,
-    /// Exit with 1 when anything was damaged, torn, lost or out of order.
+    /// Exit with 1 when anything was damaged, torn, lost or out of order (in a state log,
+    /// also when an interval lacks some channels' states).
     #[arg(long)]
     strict: bool,
     /// Print on stderr only the problems, not the summary of a clean log.

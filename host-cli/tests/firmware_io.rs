@@ -3,8 +3,11 @@
 //! (`firmware-example/src/{replay,logger}.rs`, compiled here by `#[path]`) turn
 //! it into a record log on the host, `tenmin decode` turns the log into records
 //! CSV and `tenmin verify` checks it against the samples; then the same with
-//! damaged logs. `firmware-example/run-checks.sh` does the same under QEMU on
-//! Cortex-M0 and Cortex-M4F.
+//! damaged logs. The same firmware replay run as a state logger
+//! (`replay::replay_states`: the logger samples, the PC finishes) writes a
+//! state log, which `tenmin decode` finishes into the same records.
+//! `firmware-example/run-checks.sh` does the same under QEMU on Cortex-M0 and
+//! Cortex-M4F.
 //!
 //! The reference is the replay's own output (`tenmin replay` of the same
 //! samples): two independent paths through the core (the CLI's station with
@@ -18,7 +21,7 @@
 use std::path::PathBuf;
 use std::process::Output;
 
-use qc_core::wire::{self, FRAME_LEN};
+use qc_core::wire::{self, Span, StateFrame, FRAME_LEN};
 use qc_core::{Kind, Screen};
 
 #[allow(dead_code)]
@@ -196,12 +199,24 @@ fn firmware_replay(tmsf: &[u8]) -> Result<Vec<u8>, String> {
     Ok(log.0)
 }
 
+/// The firmware's replay of a sample file as a state logger: its state log.
+fn firmware_replay_states(tmsf: &[u8]) -> Result<Vec<u8>, String> {
+    let mut layouts = Box::new(replay::ReplayLayoutSlot::new());
+    let mut slot = Box::new(replay::ReplaySlot::new());
+    let mut log = Log(Vec::new());
+    replay::replay_states(&mut Bytes(tmsf), &mut log, &mut layouts, &mut slot)
+        .map_err(|e| e.to_string())?;
+    Ok(log.0)
+}
+
 struct Setup {
     dir: tempfile::TempDir,
     /// The replay's records of the samples.
     replay_csv: String,
     /// The firmware's record log.
     log: Vec<u8>,
+    /// The firmware's state log of the same samples.
+    states: Vec<u8>,
 }
 
 impl Setup {
@@ -216,11 +231,13 @@ impl Setup {
         ok(&o, "export");
         let tmsf = std::fs::read(dir.path().join("s.tmsf")).unwrap();
         let log = firmware_replay(&tmsf).unwrap();
+        let states = firmware_replay_states(&tmsf).unwrap();
         let o = tenmin(&["replay", "-q", "-c", "st.toml", "s.csv"], dir.path());
         ok(&o, "replay");
         Setup {
             replay_csv: text(&o.stdout),
             log,
+            states,
             dir,
         }
     }
@@ -526,5 +543,441 @@ fn the_firmware_refuses_stations_that_do_not_fit() {
     assert_eq!(
         e,
         "the sample file's station has 9 channels; this logger holds at most 8"
+    );
+}
+
+// ---------------------------------------------------------------------------
+// State logs: the logger samples, `tenmin decode` finishes.
+
+/// The good state frames of a state log, in log order.
+fn state_frames(log: &[u8]) -> Vec<StateFrame> {
+    wire::scan(log)
+        .filter_map(|span| match span {
+            Span::State { frame, .. } => Some(frame),
+            _ => None,
+        })
+        .collect()
+}
+
+/// Channels of [`STATION`].
+const CHANNELS: usize = 5;
+
+/// The interval of `f`, counted from [`T0`] (10-minute intervals).
+fn interval_of(f: &StateFrame) -> usize {
+    ((f.interval_start.millis() / 1000 - T0) / 600) as usize
+}
+
+/// The line of `f`'s row in the replay's records (the header is line 0).
+fn line_of(f: &StateFrame) -> usize {
+    1 + interval_of(f) * CHANNELS + usize::from(f.channel)
+}
+
+/// The interval of the replay's records line `line` (not the header).
+fn interval_of_line(line: usize) -> usize {
+    (line - 1) / CHANNELS
+}
+
+/// Checks that the decoded `records` are the replay's lines that `keep`
+/// keeps, in order. Rows of the intervals in `incomplete` (finished without
+/// some channels' states) may differ from the replay's in their flags only:
+/// the cross-channel tests saw the lost channels without samples. Every
+/// other row is identical, text and all.
+fn assert_rows(
+    records: &str,
+    replay: &str,
+    keep: impl Fn(usize) -> bool,
+    incomplete: &[usize],
+    what: &str,
+) {
+    let want: Vec<(usize, &str)> = replay
+        .lines()
+        .enumerate()
+        .filter(|(i, _)| keep(*i))
+        .collect();
+    let got: Vec<&str> = records.lines().collect();
+    assert_eq!(got.len(), want.len(), "{what}: rows\n{records}");
+    for (g, (i, w)) in got.iter().zip(&want) {
+        if *i > 0 && incomplete.contains(&interval_of_line(*i)) {
+            let strip = |l: &str| {
+                let mut f: Vec<String> = l.split(',').map(String::from).collect();
+                f[10].clear();
+                f
+            };
+            assert_eq!(strip(g), strip(w), "{what}: line {i} (flags aside)");
+        } else {
+            assert_eq!(g, w, "{what}: line {i}");
+        }
+    }
+}
+
+#[test]
+fn state_log_finished_by_decode_gives_the_replay_records() {
+    let s = Setup::new();
+    // The same 19 intervals of 5 channels as the record log: 95 state frames,
+    // stamped with the fingerprint of the station file's configuration.
+    assert_eq!(s.states.len(), 95 * FRAME_LEN);
+    let frames = state_frames(&s.states);
+    assert_eq!(frames.len(), 95);
+    assert!(frames.iter().all(|f| f.channels == 5));
+    // The samples hold rejected times (a duplicate and a backward one) and
+    // an outage of two intervals: both reach the records.
+    let rejected = s
+        .replay_csv
+        .lines()
+        .skip(1)
+        .filter(|l| l.split(',').nth(13) != Some("0"))
+        .count();
+    assert_eq!(rejected, CHANNELS, "{}", s.replay_csv);
+    let (o, records) = s.decode("st.log", &s.states, true);
+    ok(&o, "decode --strict of a clean state log");
+    let err = text(&o.stderr);
+    assert!(
+        err.contains(
+            "state log: 95 good state frames, 19 intervals finished here (0 of them incomplete), \
+             105 rows written (10 of them for 2 intervals with no samples)"
+        ),
+        "{err}"
+    );
+    // Finished on the PC, bit for bit the replay's records.
+    assert_eq!(records, s.replay_csv);
+    let v = s.verify("st.log.csv");
+    ok(&v, "verify of the state log's records");
+    assert!(text(&v.stdout).contains("every field identical"));
+    // The record log of the same samples decodes to the same text.
+    let (_, from_records) = s.decode("fw.log", &s.log, true);
+    assert_eq!(records, from_records);
+}
+
+#[test]
+fn state_log_cut_anywhere_loses_only_the_cut_frame() {
+    let s = Setup::new();
+    let frames = state_frames(&s.states);
+    let n = frames.len();
+    // Every byte of the first three frames, and a stride over the rest that
+    // meets every offset within a frame class by class.
+    let cuts: Vec<usize> = (0..3 * FRAME_LEN)
+        .chain((3 * FRAME_LEN..s.states.len()).step_by(41))
+        .collect();
+    for &cut in &cuts {
+        let (i, j) = (cut / FRAME_LEN, cut % FRAME_LEN);
+        // 1. The log ends at `cut` (power lost while frame `i` was written,
+        //    and nothing after): the frames before `i` are all there.
+        let (o, records) = s.decode("cut.log", &s.states[..cut], false);
+        ok(&o, &format!("decode of the log cut at byte {cut}"));
+        let err = text(&o.stderr);
+        assert_eq!(j != 0, err.contains("torn tail"), "cut at {cut}: {err}");
+        let last = i.checked_sub(1).map(|p| &frames[p]);
+        let incomplete: Vec<usize> = last
+            .filter(|f| usize::from(f.channel) + 1 < CHANNELS)
+            .map(interval_of)
+            .into_iter()
+            .collect();
+        assert_eq!(
+            !incomplete.is_empty(),
+            err.contains("did not arrive"),
+            "cut at {cut}: {err}"
+        );
+        let end = last.map_or(0, line_of);
+        assert_rows(
+            &records,
+            &s.replay_csv,
+            |l| l <= end,
+            &incomplete,
+            &format!("log cut at byte {cut}"),
+        );
+        // 2. Frame `i` torn after `j` bytes and the log going on after it
+        //    (a write cut short, the next one appended behind it): only its
+        //    row is lost, and the intervals without samples next to it. (The
+        //    last frame torn is the cut log above.)
+        if i + 1 >= n {
+            continue;
+        }
+        let mut torn = s.states[..cut].to_vec();
+        torn.extend_from_slice(&s.states[(i + 1) * FRAME_LEN..]);
+        let (o, records) = s.decode("torn.log", &torn, false);
+        ok(&o, &format!("decode with frame {i} torn after {j} bytes"));
+        let err = text(&o.stderr);
+        let lost = if i == 0 {
+            "the first good frame has sequence number 1: the frames before it are lost".to_string()
+        } else {
+            format!("1 frame lost (sequence number {i})")
+        };
+        assert!(err.contains(&lost), "frame {i} torn after {j} bytes: {err}");
+        assert_eq!(
+            j != 0,
+            err.contains("): damaged (no good frame there)"),
+            "{err}"
+        );
+        assert_rows_lost(
+            &s,
+            &records,
+            &frames,
+            i,
+            &format!("frame {i} torn after {j} bytes"),
+        );
+    }
+}
+
+/// Checks the records of the state log less frame `i`: the replay's rows
+/// without frame `i`'s row nor those of the intervals without samples next to
+/// it (whether they held samples is unknown once a frame is lost); the other
+/// rows of frame `i`'s interval may differ in their flags.
+fn assert_rows_lost(s: &Setup, records: &str, frames: &[StateFrame], i: usize, what: &str) {
+    let lost = line_of(&frames[i]);
+    let before = i.checked_sub(1).map_or(0, |p| interval_of(&frames[p]));
+    let after = frames.get(i + 1).map_or(usize::MAX, interval_of);
+    let unknown = |l: usize| l > 0 && (before + 1..after).contains(&interval_of_line(l));
+    assert_rows(
+        records,
+        &s.replay_csv,
+        |l| l != lost && !unknown(l),
+        &[interval_of(&frames[i])],
+        what,
+    );
+}
+
+#[test]
+fn a_flipped_bit_in_a_state_frame_loses_that_frame_only() {
+    let s = Setup::new();
+    let frames = state_frames(&s.states);
+    // A byte of every field of the state frame layout (qc_core::wire).
+    let classes: [(usize, &str); 15] = [
+        (1, "sync marker"),
+        (4, "version"),
+        (5, "form"),
+        (6, "channel"),
+        (7, "channel count"),
+        (9, "sequence number"),
+        (15, "interval start"),
+        (21, "fingerprint"),
+        (30, "sample counts"),
+        (41, "spikes"),
+        (44, "gust flag"),
+        (46, "reserved"),
+        (60, "sums"),
+        (118, "unused bytes"),
+        (126, "CRC"),
+    ];
+    for (c, (at, class)) in classes.iter().enumerate() {
+        // A different frame and bit each time, never the first or the last.
+        let i = 1 + (c * 13) % (frames.len() - 2);
+        let mut bad = s.states.clone();
+        bad[i * FRAME_LEN + at] ^= 1 << (c % 8);
+        let (o, records) = s.decode("flip.log", &bad, false);
+        let what = format!("bit {} of the {class} (byte {at}) of frame {i}", c % 8);
+        ok(&o, &what);
+        let err = text(&o.stderr);
+        let (from, to) = (i * FRAME_LEN, (i + 1) * FRAME_LEN);
+        assert!(
+            err.contains(&format!("bytes {from} to {to} (128 bytes): damaged")),
+            "{what}: {err}"
+        );
+        assert!(
+            err.contains(&format!("1 frame lost (sequence number {i})")),
+            "{what}: {err}"
+        );
+        assert!(err.contains("1 damaged spans (128 bytes)"), "{what}: {err}");
+        assert_rows_lost(&s, &records, &frames, i, &what);
+        if c == 0 {
+            let (o, strict) = s.decode("flip.log", &bad, true);
+            assert_eq!(o.status.code(), Some(1), "--strict: {what}");
+            assert_eq!(strict, records);
+        }
+    }
+}
+
+#[test]
+fn an_incomplete_interval_names_its_lost_channels() {
+    let s = Setup::new();
+    let frames = state_frames(&s.states);
+    // Frames 12 and 13 (interval 2, "wd" and "t") cut out.
+    let mut log = s.states[..12 * FRAME_LEN].to_vec();
+    log.extend_from_slice(&s.states[14 * FRAME_LEN..]);
+    let (o, records) = s.decode("two.log", &log, true);
+    assert_eq!(o.status.code(), Some(1), "--strict with frames lost");
+    let err = text(&o.stderr);
+    assert!(
+        err.contains("2 frames lost (sequence numbers 12 to 13)"),
+        "{err}"
+    );
+    assert!(
+        err.contains(
+            "2025-01-20T00:20:00Z: the states of wd, t did not arrive (frames lost or damaged)"
+        ),
+        "{err}"
+    );
+    assert!(
+        err.contains(
+            "cross-channel screening flags (pair, shear, icing) treat them as having no samples"
+        ),
+        "{err}"
+    );
+    assert!(
+        err.contains("19 intervals finished here (1 of them incomplete)"),
+        "{err}"
+    );
+    let lost = [line_of(&frames[12]), line_of(&frames[13])];
+    assert_rows(
+        &records,
+        &s.replay_csv,
+        |l| !lost.contains(&l),
+        &[2],
+        "wd, t lost",
+    );
+    // The rh state of 02:00 lost: the icing test of wd, which needs the
+    // humidity, finds none in that interval and stays quiet there.
+    let i = frames
+        .iter()
+        .position(|f| interval_of(f) == 12 && f.channel == 4)
+        .unwrap();
+    let mut log = s.states[..i * FRAME_LEN].to_vec();
+    log.extend_from_slice(&s.states[(i + 1) * FRAME_LEN..]);
+    let (o, records) = s.decode("rh.log", &log, false);
+    ok(&o, "decode with rh of 02:00 lost");
+    let wd = |csv: &str| {
+        csv.lines()
+            .find(|l| l.starts_with("2025-01-20T02:00:00Z,2025-01-20T02:10:00Z,wd,"))
+            .map(|l| l.split(',').nth(10).unwrap().to_string())
+    };
+    assert_eq!(wd(&s.replay_csv).as_deref(), Some("range|icing"));
+    assert_eq!(wd(&records).as_deref(), Some("range"));
+    assert_rows_lost(&s, &records, &frames, i, "rh of 02:00 lost");
+    // A whole interval lost with the empty ones after it: none of them is
+    // written or finished, and the next interval is finished as usual.
+    let mut log = s.states[..30 * FRAME_LEN].to_vec();
+    log.extend_from_slice(&s.states[35 * FRAME_LEN..]);
+    let (o, records) = s.decode("whole.log", &log, false);
+    ok(&o, "decode with interval 6 lost");
+    let err = text(&o.stderr);
+    assert!(
+        err.contains("3 intervals without frames where frames were lost; no rows written for them"),
+        "{err}"
+    );
+    assert!(!err.contains("did not arrive"), "{err}");
+    assert!(
+        err.contains("18 intervals finished here (0 of them incomplete)"),
+        "{err}"
+    );
+    assert_rows(
+        &records,
+        &s.replay_csv,
+        |l| l == 0 || !(6..9).contains(&interval_of_line(l)),
+        &[],
+        "interval 6 lost",
+    );
+}
+
+#[test]
+fn a_state_log_written_twice_is_read_once() {
+    let s = Setup::new();
+    let mut twice = s.states.clone();
+    twice.extend_from_slice(&s.states);
+    let (o, records) = s.decode("twice.log", &twice, true);
+    assert_eq!(o.status.code(), Some(1));
+    let err = text(&o.stderr);
+    assert!(err.contains("95 frames out of order"), "{err}");
+    assert_eq!(records, s.replay_csv);
+}
+
+#[test]
+fn a_state_log_of_another_configuration_is_refused() {
+    let s = Setup::new();
+    let fingerprint = state_frames(&s.states)[0].fingerprint;
+    std::fs::write(s.path("st.log"), &s.states).unwrap();
+    // One screening setting changed: the statistics would be the same, the
+    // flags not; the fingerprint tells.
+    let changed = STATION.replace("step_limit = 8", "step_limit = 9");
+    assert_ne!(changed, STATION);
+    std::fs::write(s.path("changed.toml"), changed).unwrap();
+    let o = tenmin(
+        &["decode", "-c", "changed.toml", "st.log", "-o", "c.csv"],
+        s.dir.path(),
+    );
+    assert_eq!(o.status.code(), Some(2), "{}", text(&o.stderr));
+    let err = text(&o.stderr);
+    assert!(
+        err.contains(&format!(
+            "st.log: byte 0: state frame of another station configuration (fingerprint {fingerprint:#010x}, the station file's is 0x"
+        )),
+        "{err}"
+    );
+    assert!(err.contains("changed.toml"), "{err}");
+    assert!(!s.path("c.csv").exists() && !s.path("c.csv.partial").exists());
+    // The record log of the same logger does not carry the fingerprint.
+    let o = tenmin(&["decode", "-c", "changed.toml", "fw.log"], s.dir.path());
+    assert_eq!(o.status.code(), Some(2), "no fw.log yet");
+    std::fs::write(s.path("fw.log"), &s.log).unwrap();
+    ok(
+        &tenmin(
+            &["decode", "-q", "-c", "changed.toml", "fw.log"],
+            s.dir.path(),
+        ),
+        "a record log with a screening setting changed",
+    );
+    // A state that does not fit its channel (the vane's state in a frame of
+    // the first anemometer, fingerprint and CRC good) names the channel.
+    let frames = state_frames(&s.states);
+    let mut wrong = s.states.clone();
+    let mut bytes = [0u8; FRAME_LEN];
+    wire::encode_state(
+        &StateFrame {
+            state: frames[2].state,
+            ..frames[0]
+        },
+        &mut bytes,
+    );
+    wrong[..FRAME_LEN].copy_from_slice(&bytes);
+    let (o, _) = s.decode("wrong.log", &wrong, false);
+    assert_eq!(o.status.code(), Some(2), "{}", text(&o.stderr));
+    assert!(
+        text(&o.stderr).contains(
+            "wrong.log: byte 0: the frame does not match st.toml: channel 0 (ws) takes a Speed state, the frame holds a LinkedDirection state"
+        ),
+        "{}",
+        text(&o.stderr)
+    );
+    // A station of another channel count says so.
+    let fewer = STATION
+        .rsplit_once("[[channel]]")
+        .unwrap()
+        .0
+        .replace("humidity = \"rh\"", "humidity = \"t\"");
+    std::fs::write(s.path("fewer.toml"), fewer).unwrap();
+    let o = tenmin(&["decode", "-c", "fewer.toml", "st.log"], s.dir.path());
+    assert_eq!(o.status.code(), Some(2), "{}", text(&o.stderr));
+    assert!(
+        text(&o.stderr).contains("byte 0: the frame does not match fewer.toml: the logger's station has 5 channels, the station file 4"),
+        "{}",
+        text(&o.stderr)
+    );
+}
+
+#[test]
+fn a_log_mixing_record_and_state_frames_is_refused() {
+    let s = Setup::new();
+    let at = 10 * FRAME_LEN;
+    let mut mixed = s.states[..at].to_vec();
+    mixed.extend_from_slice(&s.log[at..]);
+    let (o, _) = s.decode("mixed.log", &mixed, false);
+    assert_eq!(o.status.code(), Some(2), "{}", text(&o.stderr));
+    assert!(
+        text(&o.stderr).contains(
+            "mixed.log: byte 1280: a record frame in a state log (its first good frame, at byte 0, is a state frame)"
+        ),
+        "{}",
+        text(&o.stderr)
+    );
+    // And the other way round, after a damaged span.
+    let mut mixed = s.log[..at].to_vec();
+    mixed.extend_from_slice(&[0x55; 7]);
+    mixed.extend_from_slice(&s.states[at..]);
+    let (o, _) = s.decode("mixed.log", &mixed, false);
+    assert_eq!(o.status.code(), Some(2), "{}", text(&o.stderr));
+    assert!(
+        text(&o.stderr).contains(
+            "mixed.log: byte 1287: a state frame in a record log (its first good frame, at byte 0, is a record frame)"
+        ),
+        "{}",
+        text(&o.stderr)
     );
 }

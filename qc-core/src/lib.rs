@@ -83,10 +83,26 @@
 //! | [`Layout<8>`] (validated configuration of 8 channels) | 2,384 |
 //! | [`Station<8, 3>`] (all of the above for 8 channels, owning its layout) | 4,392 |
 //! | `Station<8, 3, &Layout<8>>` (the running state, the layout elsewhere) | 2,008 on 32-bit targets, 2,016 on 64-bit |
+//! | `Sampler<8, 3, &Layout<8>>` (a state logger's running state: no recovery or screening history) | 1,024 on 64-bit targets |
 //!
 //! Each gust sample beyond 3 adds 8 bytes to a speed channel (4 in the running
 //! window, 4 in the head kept for exact merging). The sizes are asserted in
 //! this crate's tests.
+//!
+//! # Finishing on the logger, or on a PC
+//!
+//! A [`Station`] is a [`Sampler`] (samples in, exact interval states out)
+//! and a [`Finisher`] (interval states in, screened records and running
+//! recovery out). A logger runs both, and writes records. A logger short of
+//! flash runs the sampler alone and sends each interval's exact state
+//! ([`wire::encode_state`], [`IntervalAcc::state`]); a PC puts the states back
+//! ([`IntervalAcc::set_state`]) and finishes them with its own [`Finisher`].
+//! The records are the same, bit for bit, either way; the sampler alone
+//! leaves the finishing code and most of the software floating point off the
+//! logger (on a Cortex-M0 about 15 KB of flash instead of 29 KB for an
+//! 8-channel logger; the firmware README has the figures). A
+//! [`Layout::fingerprint`] in every state frame makes a PC refuse states of a
+//! different configuration.
 //!
 //! A logger with a fixed configuration validates its layout at compile time
 //! ([`Layout::new`] is a `const fn`) into a `static`, which stays in flash, and
@@ -160,5 +176,7 @@ mod tests {
         assert!(size_of::<Station<8, 3, &'static Layout<8>>>() <= 2048);
         assert!(size_of::<SpeedAcc<3>>() <= 96);
         assert!(size_of::<DirectionAcc>() <= 64);
+        // A state logger's running state: the sampling half alone.
+        assert_eq!(size_of::<Sampler<8, 3, &'static Layout<8>>>(), 1024);
     }
 }

@@ -4,6 +4,11 @@
 //! [`Layout`] is the validated configuration. [`Station`] takes timestamped
 //! samples, keeps one open [`IntervalAcc`], and hands each closed interval (and
 //! each run of intervals with no samples, as one [`Gap`]) to a callback.
+//! It is two halves: a [`Sampler`] (time rules, the open interval, the
+//! interval's exact state handed out as it closes) and a [`Finisher`]
+//! (finishing, screening and running recovery, interval by interval in time
+//! order). A logger may run the sampler alone and leave the finisher to a PC
+//! (see [`crate::wire`], state frames).
 //! [`IntervalAcc::merge`] joins pieces of one interval accumulated apart, with the
 //! same result, bit for bit, as accumulating them in one pass.
 //!
@@ -1032,23 +1037,36 @@ impl<const C: usize> Finisher<C> {
 
     /// Finishes and screens `acc`, a complete interval later than any before
     /// (its screening flags are stored in it), counts it in the running
-    /// recovery, and returns its records.
+    /// recovery, and returns its records. An interval outside the supported
+    /// years ([`Timestamp::is_supported`]) is finished but not counted (a
+    /// [`Sampler`] never closes one).
     pub fn interval<const G: usize>(
         &mut self,
         layout: &Layout<C>,
         acc: &mut IntervalAcc<C, G>,
     ) -> [ChannelRecord; C] {
-        let month = self.month_of(layout.interval_start(acc.index));
+        let start = layout.interval_start(acc.index);
         let records = layout.screen(&mut self.screener, acc);
+        if !start.is_supported() {
+            return records;
+        }
+        let month = self.month_of(start);
         for (r, rec) in self.recovery.iter_mut().zip(records.iter()) {
             r.add_interval_in(month, layout.samples, &rec.tally, passes(rec));
         }
         records
     }
 
-    /// Counts `gap`, intervals with no samples, as possible and lost.
+    /// Counts `gap`, intervals with no samples, as possible and lost. A gap
+    /// reaching outside the supported years ([`Timestamp::is_supported`]) is
+    /// not counted (a [`Sampler`] never reports one).
     pub fn gap(&mut self, layout: &Layout<C>, gap: Gap) {
         let start = layout.interval_start(gap.first);
+        let span = i64::try_from(gap.count).unwrap_or(i64::MAX);
+        let last = layout.interval_start(gap.first.saturating_add(span.saturating_sub(1)));
+        if !(start.is_supported() && last.is_supported()) {
+            return;
+        }
         for r in &mut self.recovery {
             r.add_gap(start, gap.count, layout.interval_ms, layout.samples);
         }
@@ -1182,5 +1200,28 @@ mod tests {
                 assert_eq!(div_floor(n, d), n.div_euclid(d), "{n} / {d}");
             }
         }
+    }
+
+    #[test]
+    fn finisher_takes_any_gap_or_interval_without_panic() {
+        use super::{Finisher, Gap, IntervalAcc, Layout, StationConfig};
+        use crate::ChannelConfig;
+        let layout = Layout::<1>::new::<3>(
+            StationConfig::ten_minute_1hz(),
+            &[ChannelConfig::speed(0.1)],
+        )
+        .unwrap();
+        let mut f: Finisher<1> = Finisher::new();
+        for first in [i64::MIN, -1, 0, 2_833_000, i64::MAX / 600_000, i64::MAX] {
+            for count in [0, 1, 1 << 40, u64::MAX] {
+                f.gap(&layout, Gap { first, count });
+            }
+            let mut acc: IntervalAcc<1, 3> = IntervalAcc::new(&layout, first);
+            f.interval(&layout, &mut acc);
+        }
+        // Only the supported ones count (years 0 to 9999): at -1, 0 and
+        // 2,833,000 (1969, 1970, 2023) the one-interval gap and the interval;
+        // the 2^40-interval gaps reach past the year 9999 and count nothing.
+        assert_eq!(f.recovery()[0].since_start.intervals, 6);
     }
 }

@@ -7,6 +7,11 @@
 //!   card. [`encode_record`] writes one frame into a caller's buffer; [`scan`]
 //!   walks a log, resynchronises on the sync marker after damage, and reports
 //!   good frames, damaged spans, a torn tail and erased flash ([`Span`]).
+//!   A log may hold **state frames** instead ([`StateFrame`], [`encode_state`],
+//!   [`decode_state`]): the same size, sync marker and CRC, one per interval
+//!   of one channel, carrying the channel's exact integer end state for a PC
+//!   to finish (a logger that runs only a [`Sampler`](crate::Sampler));
+//!   [`scan`] reports them as [`Span::State`].
 //! - **Sample file**: a header holding the whole station configuration
 //!   ([`encode_sample_header`], [`decode_sample_header`]), then variable-length
 //!   sample frames, each one timestamped sample of every channel
@@ -83,6 +88,43 @@
 //! frame decodes to exactly the [`RecordFrame`] that was encoded, bit for bit.
 //! Gaps (intervals without any sample) write no frames: a reader finds them as
 //! missing interval starts.
+//!
+//! # State frame layout
+//!
+//! Also [`FRAME_LEN`] = 128 bytes, with the record frame's sync marker,
+//! channel, sequence number, interval start, counts and CRC at the same
+//! places; the version byte [`STATE_VERSION`] = `0x81` tells the two apart.
+//!
+//! | offset | bytes | field |
+//! |---:|---:|---|
+//! | 0 | 4 | sync marker [`SYNC`] |
+//! | 4 | 1 | format version, [`STATE_VERSION`] = `0x81` |
+//! | 5 | 1 | form: 0 speed, 1 direction, 2 direction with a linked speed, 3 scalar ([`StateForm`]) |
+//! | 6 | 1 | channel index in the station |
+//! | 7 | 1 | channels in the station |
+//! | 8 | 4 | sequence number, u32 |
+//! | 12 | 8 | interval start, i64 ms since 1970-01-01T00:00Z |
+//! | 20 | 4 | fingerprint of the logger's configuration, u32 ([`crate::config_fingerprint`]) |
+//! | 24 | 16 | valid, missing, out-of-range and rejected samples, u32 each |
+//! | 40 | 4 | spikes, u32 |
+//! | 44 | 1 | 1 when a speed channel's gust window filled at least once, else 0 |
+//! | 45 | 3 | reserved, 0 |
+//! | 48 | 76 | the sums, by form (below); unused bytes 0 |
+//! | 124 | 4 | CRC-32 of bytes 0 to 123 |
+//!
+//! Speed and scalar: at 48 the sum of squares of the quanta (i128 as two
+//! u64, low first), at 64 their sum (i64), at 72 the least and at 76 the
+//! greatest quantum (i32; `i32::MAX` and `i32::MIN` when none was valid), at
+//! 80 the largest gust window sum (i32, speed only, when byte 44 is 1).
+//! Direction: at 48 and 56 the sums of the Q30 sines and cosines (i64). With a
+//! linked speed also at 64 and 80 the speed-weighted sums of sines and
+//! cosines (i128 each, two u64, low first), at 96 and 104 the unweighted sums
+//! over the pairs (i64), at 112 the number of pairs (u32).
+//!
+//! A PC puts each state back with [`crate::IntervalAcc::set_state`] and
+//! finishes the intervals in time order with one [`crate::Finisher`] (gaps
+//! with [`crate::Finisher::gap`]): the records are those the logger's own
+//! [`crate::Station`] would have made, bit for bit.
 //!
 //! # Crash safety
 //!

@@ -464,6 +464,10 @@ fn scenario_case(m: &Meter, slot: &mut LoggerSlot) -> Option<()> {
         core::mem::size_of::<qc_core::Screener<CHANNELS>>(),
         core::mem::size_of::<qc_core::ChannelRecord>(),
     );
+    println!(
+        "budget: sizes: Sampler<8,3,&Layout> {} B (the state logger's running state)",
+        core::mem::size_of::<qc_core::Sampler<CHANNELS, 3, &'static Layout<CHANNELS>>>(),
+    );
     {
         use firmware_example::replay::{ReplayLayoutSlot, ReplaySlot, CAPACITY, GUST_CAPACITY};
         println!(
