@@ -83,7 +83,7 @@
 //! | [`Layout<8>`] (validated configuration of 8 channels) | 2,384 |
 //! | [`Station<8, 3>`] (all of the above for 8 channels, owning its layout) | 4,392 |
 //! | `Station<8, 3, &Layout<8>>` (the running state, the layout elsewhere) | 2,008 on 32-bit targets, 2,016 on 64-bit |
-//! | `Sampler<8, 3, &Layout<8>>` (a state logger's running state: no recovery or screening history) | 1,024 on 64-bit targets |
+//! | `Sampler<8, 3, &Layout<8>>` (a state logger's running state: no recovery or screening history) | 1,016 on 32-bit targets, 1,024 on 64-bit |
 //!
 //! Each gust sample beyond 3 adds 8 bytes to a speed channel (4 in the running
 //! window, 4 in the head kept for exact merging). The sizes are asserted in
