@@ -216,14 +216,16 @@ impl<'a, const C: usize, const G: usize> Logger<'_, 'a, C, G> {
     ) -> Result<Pushed, E> {
         let mut frames = Frames {
             layout: self.layout,
-            active: self.active,
-            sequence: &mut self.sequence,
-            result: Ok(()),
+            out: Out {
+                active: self.active,
+                sequence: &mut self.sequence,
+                result: Ok(()),
+            },
         };
         let pushed = self
             .station
             .push(t, readings, |event| frames.event(event, write));
-        frames.result.map(|()| pushed)
+        frames.out.result.map(|()| pushed)
     }
 
     /// Closes the open interval (end of data) and writes its frames.
@@ -234,12 +236,14 @@ impl<'a, const C: usize, const G: usize> Logger<'_, 'a, C, G> {
     ) -> Result<(), E> {
         let mut frames = Frames {
             layout: self.layout,
-            active: self.active,
-            sequence: &mut self.sequence,
-            result: Ok(()),
+            out: Out {
+                active: self.active,
+                sequence: &mut self.sequence,
+                result: Ok(()),
+            },
         };
         self.station.close(|event| frames.event(event, write));
-        frames.result
+        frames.out.result
     }
 }
 
@@ -247,9 +251,38 @@ impl<'a, const C: usize, const G: usize> Logger<'_, 'a, C, G> {
 /// apart from the station.
 struct Frames<'f, 'a, const C: usize, E> {
     layout: &'a Layout<C>,
+    out: Out<'f, E>,
+}
+
+/// Where the frames of one push go: the channels that write frames, the frame
+/// counter, and the first error of the writer.
+struct Out<'f, E> {
     active: u8,
     sequence: &'f mut u32,
     result: Result<(), E>,
+}
+
+impl<E> Out<'_, E> {
+    /// Writes one frame per active channel, each filled by `encode(channel,
+    /// sequence, frame)`, counting them; after an error, nothing more.
+    fn frames(
+        &mut self,
+        write: &mut impl FnMut(&[u8; FRAME_LEN]) -> Result<(), E>,
+        mut encode: impl FnMut(usize, u32, &mut [u8; FRAME_LEN]),
+    ) {
+        if self.result.is_err() {
+            return;
+        }
+        let mut frame = [0u8; FRAME_LEN];
+        for channel in 0..usize::from(self.active) {
+            encode(channel, *self.sequence, &mut frame);
+            self.result = write(&frame);
+            if self.result.is_err() {
+                return;
+            }
+            *self.sequence = self.sequence.wrapping_add(1);
+        }
+    }
 }
 
 impl<const C: usize, E> Frames<'_, '_, C, E> {
@@ -265,25 +298,18 @@ impl<const C: usize, E> Frames<'_, '_, C, E> {
         let Event::Closed(acc, records) = event else {
             return;
         };
-        if self.result.is_err() {
-            return;
-        }
-        let mut frame = [0u8; FRAME_LEN];
         let interval_start = self.layout.interval_start(acc.index());
-        for (channel, record) in records.iter().enumerate().take(usize::from(self.active)) {
-            let f = RecordFrame {
-                sequence: *self.sequence,
-                interval_start,
-                channel: channel as u8,
-                record: *record,
-            };
-            wire::encode_record(&f, &mut frame);
-            self.result = write(&frame);
-            if self.result.is_err() {
-                return;
+        self.out.frames(write, |channel, sequence, frame| {
+            if let Some(record) = records.get(channel) {
+                let f = RecordFrame {
+                    sequence,
+                    interval_start,
+                    channel: channel as u8,
+                    record: *record,
+                };
+                wire::encode_record(&f, frame);
             }
-            *self.sequence = self.sequence.wrapping_add(1);
-        }
+        });
     }
 }
 
@@ -387,15 +413,17 @@ impl<'a, const C: usize, const G: usize> StateLogger<'_, 'a, C, G> {
         write: &mut impl FnMut(&[u8; FRAME_LEN]) -> Result<(), E>,
     ) -> Result<Pushed, E> {
         let mut frames = StateFrames {
-            active: self.active,
             fingerprint: self.fingerprint,
-            sequence: &mut self.sequence,
-            result: Ok(()),
+            out: Out {
+                active: self.active,
+                sequence: &mut self.sequence,
+                result: Ok(()),
+            },
         };
         let pushed = self
             .sampler
             .push(t, readings, |ended| frames.ended(ended, write));
-        frames.result.map(|()| pushed)
+        frames.out.result.map(|()| pushed)
     }
 
     /// Closes the open interval (end of data) and writes its frames.
@@ -405,22 +433,22 @@ impl<'a, const C: usize, const G: usize> StateLogger<'_, 'a, C, G> {
         write: &mut impl FnMut(&[u8; FRAME_LEN]) -> Result<(), E>,
     ) -> Result<(), E> {
         let mut frames = StateFrames {
-            active: self.active,
             fingerprint: self.fingerprint,
-            sequence: &mut self.sequence,
-            result: Ok(()),
+            out: Out {
+                active: self.active,
+                sequence: &mut self.sequence,
+                result: Ok(()),
+            },
         };
         self.sampler.close(|ended| frames.ended(ended, write));
-        frames.result
+        frames.out.result
     }
 }
 
 /// The state frame writer of one push.
 struct StateFrames<'f, E> {
-    active: u8,
     fingerprint: u32,
-    sequence: &'f mut u32,
-    result: Result<(), E>,
+    out: Out<'f, E>,
 }
 
 impl<E> StateFrames<'_, E> {
@@ -435,30 +463,21 @@ impl<E> StateFrames<'_, E> {
         let Ended::Interval(layout, acc) = ended else {
             return;
         };
-        if self.result.is_err() {
-            return;
-        }
-        let mut bytes = [0u8; FRAME_LEN];
         let interval_start = layout.interval_start(acc.index());
-        for channel in 0..usize::from(self.active) {
-            let Some(state) = acc.state(channel) else {
-                return;
-            };
-            let f = StateFrame {
-                sequence: *self.sequence,
-                interval_start,
-                channel: channel as u8,
-                channels: self.active,
-                fingerprint: self.fingerprint,
-                state,
-            };
-            wire::encode_state(&f, &mut bytes);
-            self.result = write(&bytes);
-            if self.result.is_err() {
-                return;
+        let (channels, fingerprint) = (self.out.active, self.fingerprint);
+        self.out.frames(write, |channel, sequence, frame| {
+            if let Some(state) = acc.state(channel) {
+                let f = StateFrame {
+                    sequence,
+                    interval_start,
+                    channel: channel as u8,
+                    channels,
+                    fingerprint,
+                    state,
+                };
+                wire::encode_state(&f, frame);
             }
-            *self.sequence = self.sequence.wrapping_add(1);
-        }
+        });
     }
 }
 

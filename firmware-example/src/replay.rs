@@ -311,42 +311,47 @@ fn start<'a, S: Source, W>(
 /// station built in `layouts` and the logger's state in `slot` (the caller
 /// chooses where they live: on a 16 KiB part, in static memory rather than
 /// on the stack).
-#[inline(never)]
 pub fn replay<'a, S: Source, K: Sink>(
     source: &mut S,
     sink: &mut K,
     layouts: &'a mut ReplayLayoutSlot,
     slot: &mut ReplaySlot<'a>,
 ) -> Result<ReplaySummary, ReplayError<S::Error, K::Error>> {
-    let mut input = Input::new(source);
-    let (layout, count, _) = start(&mut input, layouts)?;
-    let logger = slot
-        .start(layout)
-        .ok_or(ReplayError::Capacity { channels: count })?;
-    run(input, sink, logger.with_active(usize::from(count)), count)
+    replay_as(source, sink, layouts, slot, false)
 }
 
 /// [`replay`] writing state frames (a [`crate::logger::StateLogger`]: the
 /// logger samples, a PC finishes with `tenmin decode --config`), stamped with
 /// the fingerprint of the file's channels.
-#[inline(never)]
 pub fn replay_states<'a, S: Source, K: Sink>(
     source: &mut S,
     sink: &mut K,
     layouts: &'a mut ReplayLayoutSlot,
     slot: &mut ReplaySlot<'a>,
 ) -> Result<ReplaySummary, ReplayError<S::Error, K::Error>> {
+    replay_as(source, sink, layouts, slot, true)
+}
+
+/// [`replay`] or, with `states`, [`replay_states`].
+#[inline(never)]
+fn replay_as<'a, S: Source, K: Sink>(
+    source: &mut S,
+    sink: &mut K,
+    layouts: &'a mut ReplayLayoutSlot,
+    slot: &mut ReplaySlot<'a>,
+    states: bool,
+) -> Result<ReplaySummary, ReplayError<S::Error, K::Error>> {
     let mut input = Input::new(source);
     let (layout, count, fingerprint) = start(&mut input, layouts)?;
-    let logger = slot
-        .start_states(layout)
-        .ok_or(ReplayError::Capacity { channels: count })?;
-    run(
-        input,
-        sink,
-        logger.with_active(usize::from(count), fingerprint),
-        count,
-    )
+    let full = ReplayError::Capacity { channels: count };
+    let n = usize::from(count);
+    if states {
+        let logger = slot.start_states(layout).ok_or(full)?;
+        run(input, sink, logger.with_active(n, fingerprint), count)
+    } else {
+        let logger = slot.start(layout).ok_or(full)?;
+        run(input, sink, logger.with_active(n), count)
+    }
 }
 
 /// Feeds every sample after the header to `logger` and its frames to `sink`.

@@ -470,6 +470,43 @@ fn get_u32(b: &[u8; FRAME_LEN], at: usize) -> u32 {
     u32::from_le_bytes(get(b, at))
 }
 
+/// Checks a frame's sync marker, CRC and version.
+fn check_frame(b: &[u8; FRAME_LEN], version: u8) -> Result<(), WireError> {
+    if get::<4>(b, 0) != SYNC {
+        return Err(WireError::BadMagic);
+    }
+    if crc32(&b[..O_CRC]) != get_u32(b, O_CRC) {
+        return Err(WireError::BadCrc);
+    }
+    if b[O_VERSION] != version {
+        return Err(WireError::UnsupportedVersion(b[O_VERSION]));
+    }
+    Ok(())
+}
+
+/// Writes the CRC-32 of a frame's bytes before it.
+fn seal(out: &mut [u8; FRAME_LEN]) {
+    let crc = crc32(&out[..O_CRC]);
+    put(out, O_CRC, crc.to_le_bytes());
+}
+
+/// The sample counts, at the same place in both kinds of frame.
+fn put_tally(out: &mut [u8; FRAME_LEN], t: &Tally) {
+    put(out, O_VALID, t.valid.to_le_bytes());
+    put(out, O_MISSING, t.missing.to_le_bytes());
+    put(out, O_OUT_OF_RANGE, t.out_of_range.to_le_bytes());
+    put(out, O_REJECTED, t.rejected.to_le_bytes());
+}
+
+fn get_tally(b: &[u8; FRAME_LEN]) -> Tally {
+    Tally {
+        valid: get_u32(b, O_VALID),
+        missing: get_u32(b, O_MISSING),
+        out_of_range: get_u32(b, O_OUT_OF_RANGE),
+        rejected: get_u32(b, O_REJECTED),
+    }
+}
+
 /// Writes `frame` into `out` as one record frame (layout in the module docs).
 pub fn encode_record(frame: &RecordFrame, out: &mut [u8; FRAME_LEN]) {
     let r = &frame.record;
@@ -481,10 +518,7 @@ pub fn encode_record(frame: &RecordFrame, out: &mut [u8; FRAME_LEN]) {
     put(out, O_SEQUENCE, frame.sequence.to_le_bytes());
     put(out, O_START, frame.interval_start.millis().to_le_bytes());
     put(out, O_POSSIBLE, r.n_possible.to_le_bytes());
-    put(out, O_VALID, r.tally.valid.to_le_bytes());
-    put(out, O_MISSING, r.tally.missing.to_le_bytes());
-    put(out, O_OUT_OF_RANGE, r.tally.out_of_range.to_le_bytes());
-    put(out, O_REJECTED, r.tally.rejected.to_le_bytes());
+    put_tally(out, &r.tally);
     put(out, O_SPIKES, r.spikes.to_le_bytes());
     put(out, O_FLAGS, r.flags.bits().to_le_bytes());
     let mut absent = [0u8; 5];
@@ -499,21 +533,12 @@ pub fn encode_record(frame: &RecordFrame, out: &mut [u8; FRAME_LEN]) {
         put(out, O_STATS + 8 * i, bits.to_le_bytes());
     }
     put(out, O_ABSENT, absent);
-    let crc = crc32(&out[..O_CRC]);
-    put(out, O_CRC, crc.to_le_bytes());
+    seal(out);
 }
 
 /// Reads one record frame, checking its sync marker, CRC and every field.
 pub fn decode_record(b: &[u8; FRAME_LEN]) -> Result<RecordFrame, WireError> {
-    if get::<4>(b, 0) != SYNC {
-        return Err(WireError::BadMagic);
-    }
-    if crc32(&b[..O_CRC]) != get_u32(b, O_CRC) {
-        return Err(WireError::BadCrc);
-    }
-    if b[O_VERSION] != RECORD_VERSION {
-        return Err(WireError::UnsupportedVersion(b[O_VERSION]));
-    }
+    check_frame(b, RECORD_VERSION)?;
     let kind = kind_of(b[O_KIND]).ok_or(WireError::BadKind(b[O_KIND]))?;
     let absent: [u8; 5] = get(b, O_ABSENT);
     if b[O_RESERVED_A] != 0 || b[O_RESERVED_B] != 0 || absent[4] >> 4 != 0 {
@@ -547,12 +572,7 @@ pub fn decode_record(b: &[u8; FRAME_LEN]) -> Result<RecordFrame, WireError> {
         record: ChannelRecord {
             kind,
             n_possible: get_u32(b, O_POSSIBLE),
-            tally: Tally {
-                valid: get_u32(b, O_VALID),
-                missing: get_u32(b, O_MISSING),
-                out_of_range: get_u32(b, O_OUT_OF_RANGE),
-                rejected: get_u32(b, O_REJECTED),
-            },
+            tally: get_tally(b),
             mean,
             sd,
             min,
@@ -646,10 +666,7 @@ pub fn encode_state(frame: &StateFrame, out: &mut [u8; FRAME_LEN]) {
     put(out, O_SEQUENCE, frame.sequence.to_le_bytes());
     put(out, O_START, frame.interval_start.millis().to_le_bytes());
     put(out, T_FINGERPRINT, frame.fingerprint.to_le_bytes());
-    put(out, O_VALID, s.tally.valid.to_le_bytes());
-    put(out, O_MISSING, s.tally.missing.to_le_bytes());
-    put(out, O_OUT_OF_RANGE, s.tally.out_of_range.to_le_bytes());
-    put(out, O_REJECTED, s.tally.rejected.to_le_bytes());
+    put_tally(out, &s.tally);
     put(out, O_SPIKES, s.spikes.to_le_bytes());
     let p = T_PAYLOAD;
     match s.form {
@@ -677,30 +694,16 @@ pub fn encode_state(frame: &StateFrame, out: &mut [u8; FRAME_LEN]) {
             }
         }
     }
-    let crc = crc32(&out[..O_CRC]);
-    put(out, O_CRC, crc.to_le_bytes());
+    seal(out);
 }
 
 /// Reads one state frame, checking its sync marker, CRC and every field
 /// (unused bytes must be 0, a gust only on a speed channel).
 pub fn decode_state(b: &[u8; FRAME_LEN]) -> Result<StateFrame, WireError> {
-    if get::<4>(b, 0) != SYNC {
-        return Err(WireError::BadMagic);
-    }
-    if crc32(&b[..O_CRC]) != get_u32(b, O_CRC) {
-        return Err(WireError::BadCrc);
-    }
-    if b[O_VERSION] != STATE_VERSION {
-        return Err(WireError::UnsupportedVersion(b[O_VERSION]));
-    }
+    check_frame(b, STATE_VERSION)?;
     let form = form_of(b[T_FORM]).ok_or(WireError::BadKind(b[T_FORM]))?;
     let mut s = ChannelState::empty(form);
-    s.tally = Tally {
-        valid: get_u32(b, O_VALID),
-        missing: get_u32(b, O_MISSING),
-        out_of_range: get_u32(b, O_OUT_OF_RANGE),
-        rejected: get_u32(b, O_REJECTED),
-    };
+    s.tally = get_tally(b);
     s.spikes = get_u32(b, O_SPIKES);
     let p = T_PAYLOAD;
     let gust = b[T_GUST_PRESENT];
