@@ -2048,8 +2048,11 @@ mod tests {
         top.partner = Some(1);
         top.icing = Some(Icing::new(5, 6));
         top.flat_span_s = Some(1200);
+        // Steps of the random speeds reach 5 m/s: spikes on every channel.
+        top.step_limit = Some(2.0);
         let mut low = Screen::for_kind(Kind::Speed);
         low.above = Some(0);
+        low.step_limit = Some(3.0);
         Layout::new::<4>(
             cfg,
             &[
@@ -2106,6 +2109,7 @@ mod tests {
     #[test]
     fn state_frames_finish_as_the_station_does() {
         let layout = all_forms();
+        let mut seen = [0u32; 4]; // spikes, gusts, resultants, flags
         for seed in 1..=6 {
             let input = mixed_input(seed, 40);
             // The station on the logger.
@@ -2114,6 +2118,10 @@ mod tests {
             let mut keep = |e: Event<'_, 7, 4>| {
                 if let Event::Closed(acc, records) = e {
                     for (c, rec) in records.iter().enumerate() {
+                        seen[0] += rec.spikes;
+                        seen[1] += u32::from(matches!(rec.gust, Stat::Value(_)));
+                        seen[2] += u32::from(matches!(rec.resultant_speed, Stat::Value(_)));
+                        seen[3] += u32::from(!rec.flags.is_empty());
                         want.push(encode(&RecordFrame {
                             sequence: 0,
                             interval_start: layout.interval_start(acc.index()),
@@ -2205,6 +2213,8 @@ mod tests {
             }
             assert_eq!(finisher.recovery(), station.recovery(), "seed {seed}");
         }
+        // The input exercises what the states carry.
+        assert!(seen.iter().all(|&n| n > 0), "{seen:?}");
     }
 
     #[test]
