@@ -1,5 +1,11 @@
-//! A logger: a `qc_core::Station` that writes one record-log frame
-//! (`qc_core::wire`) per channel for every interval it closes.
+//! A logger: samples in, one frame (`qc_core::wire`) per channel for every
+//! interval it closes out. Two kinds, one [`Logger`] generic over what it runs
+//! ([`Core`]): a [`RecordLogger`] runs a `qc_core::Station` and writes record
+//! frames (finished, screened statistics); a [`StateLogger`] runs only the
+//! station's sampling half, a `qc_core::Sampler`, and writes state frames
+//! (each channel's exact interval state, stamped with the configuration's
+//! fingerprint), which `tenmin decode --config` finishes on the PC into the
+//! same records, bit for bit.
 //!
 //! This one file is compiled into the firmware (`firmware_example::logger`), into
 //! the host example `qc-core/examples/replay_frames.rs` and into the host test
@@ -28,6 +34,10 @@ use qc_core::{Ended, Event, Layout, Pushed, Reading, Sampler, Station, Timestamp
 
 /// A station whose layout lives elsewhere (in flash, or in a [`LayoutSlot`]).
 pub type LayoutStation<'a, const C: usize, const G: usize> = Station<C, G, &'a Layout<C>>;
+
+/// A sampler whose layout lives elsewhere: the sampling half of a station, for
+/// a logger that leaves finishing to a PC.
+pub type LayoutSampler<'a, const C: usize, const G: usize> = Sampler<C, G, &'a Layout<C>>;
 
 /// Storage for a layout built at run time, meant for a `static` (all zero
 /// bytes until filled, so it lands in `.bss`; `#[repr(u64)]` makes the empty
@@ -89,18 +99,19 @@ impl<const C: usize> LayoutSlot<C> {
     }
 }
 
-/// Storage for a logger's station, meant for a `static` (all zero bytes until
-/// started, so it lands in `.bss`; `#[repr(u64)]` as for [`LayoutSlot`]).
+/// Storage for a logger's running state, meant for a `static` (all zero bytes
+/// until started, so it lands in `.bss`; `#[repr(u64)]` as for
+/// [`LayoutSlot`]). One slot serves a logger that can run either way; a logger
+/// that only ever sends states uses a [`SamplerSlot`] (half the RAM).
 #[repr(u64)]
 #[derive(Clone, Debug)]
 #[allow(clippy::large_enum_variant)]
 pub enum LoggerSlot<'a, const C: usize, const G: usize> {
     /// Not started.
     Empty,
-    /// A running station.
+    /// A running station (a [`RecordLogger`]).
     Full(LayoutStation<'a, C, G>),
-    /// A running sampler, for a state logger ([`LoggerSlot::start_states`]):
-    /// one slot serves a logger that can run either way.
+    /// A running sampler (a [`StateLogger`]).
     States(LayoutSampler<'a, C, G>),
 }
 
@@ -116,19 +127,14 @@ impl<'a, const C: usize, const G: usize> LoggerSlot<'a, C, G> {
         LoggerSlot::Empty
     }
 
-    /// Starts a new logger of `layout` in the slot (replacing any earlier
-    /// one), writing frames for every channel (see [`Logger::with_active`]);
-    /// frame sequence numbers start at 0. `None` only if the slot could not be
-    /// filled (which does not happen).
-    pub fn start(&mut self, layout: &'a Layout<C>) -> Option<Logger<'_, 'a, C, G>> {
+    /// Starts a new record logger of `layout` in the slot (replacing any
+    /// earlier one), writing frames for every channel (see
+    /// [`Logger::with_active`]); frame sequence numbers start at 0. `None` only
+    /// if the slot could not be filled (which does not happen).
+    pub fn start(&mut self, layout: &'a Layout<C>) -> Option<RecordLogger<'_, 'a, C, G>> {
         put_station(self, layout);
         match self {
-            LoggerSlot::Full(station) => Some(Logger {
-                station,
-                layout,
-                active: C.min(255) as u8,
-                sequence: 0,
-            }),
+            LoggerSlot::Full(station) => Some(Logger::new(station, layout)),
             LoggerSlot::Empty | LoggerSlot::States(_) => None,
         }
     }
@@ -138,24 +144,10 @@ impl<'a, const C: usize, const G: usize> LoggerSlot<'a, C, G> {
     pub fn start_states(&mut self, layout: &'a Layout<C>) -> Option<StateLogger<'_, 'a, C, G>> {
         put_states(self, layout);
         match self {
-            LoggerSlot::States(sampler) => Some(StateLogger {
-                sampler,
-                active: C.min(255) as u8,
-                fingerprint: layout.fingerprint(),
-                sequence: 0,
-            }),
+            LoggerSlot::States(sampler) => Some(Logger::new(sampler, layout)),
             LoggerSlot::Empty | LoggerSlot::Full(_) => None,
         }
     }
-}
-
-/// Not inlined, as [`put_station`].
-#[inline(never)]
-fn put_states<'a, const C: usize, const G: usize>(
-    slot: &mut LoggerSlot<'a, C, G>,
-    layout: &'a Layout<C>,
-) {
-    *slot = LoggerSlot::States(Sampler::new(layout));
 }
 
 /// Not inlined: whatever temporary the compiler makes for the new station
@@ -168,157 +160,17 @@ fn put_station<'a, const C: usize, const G: usize>(
     *slot = LoggerSlot::Full(Station::new(layout));
 }
 
-/// A running logger: a station in a [`LoggerSlot`], its layout and the frame
-/// counter.
-#[derive(Debug)]
-pub struct Logger<'s, 'a, const C: usize, const G: usize> {
-    station: &'s mut LayoutStation<'a, C, G>,
+/// Not inlined, as [`put_station`].
+#[inline(never)]
+fn put_states<'a, const C: usize, const G: usize>(
+    slot: &mut LoggerSlot<'a, C, G>,
     layout: &'a Layout<C>,
-    /// Frames are written for channels `0..active`.
-    active: u8,
-    sequence: u32,
+) {
+    *slot = LoggerSlot::States(Sampler::new(layout));
 }
-
-impl<'a, const C: usize, const G: usize> Logger<'_, 'a, C, G> {
-    /// Writes frames only for the first `active` channels (at most `C`): a
-    /// station of fewer channels than the logger's capacity.
-    pub fn with_active(mut self, active: usize) -> Self {
-        self.active = active.min(C).min(255) as u8;
-        self
-    }
-
-    /// The station.
-    pub fn station(&self) -> &LayoutStation<'a, C, G> {
-        self.station
-    }
-
-    /// Channels that write frames.
-    pub const fn active(&self) -> usize {
-        self.active as usize
-    }
-
-    /// Frames written so far.
-    pub const fn frames(&self) -> u32 {
-        self.sequence
-    }
-
-    /// Adds one sample; every interval it closes goes to `write` as frames, in
-    /// channel order, while the station hands it out. Stops writing at the
-    /// first error of `write` and returns it.
-    ///
-    /// Not inlined, so that its temporaries take stack only while it runs.
-    #[inline(never)]
-    pub fn push<E>(
-        &mut self,
-        t: Timestamp,
-        readings: &[Reading; C],
-        write: &mut impl FnMut(&[u8; FRAME_LEN]) -> Result<(), E>,
-    ) -> Result<Pushed, E> {
-        let mut frames = Frames {
-            layout: self.layout,
-            out: Out {
-                active: self.active,
-                sequence: &mut self.sequence,
-                result: Ok(()),
-            },
-        };
-        let pushed = self
-            .station
-            .push(t, readings, |event| frames.event(event, write));
-        frames.out.result.map(|()| pushed)
-    }
-
-    /// Closes the open interval (end of data) and writes its frames.
-    #[inline(never)]
-    pub fn close<E>(
-        &mut self,
-        write: &mut impl FnMut(&[u8; FRAME_LEN]) -> Result<(), E>,
-    ) -> Result<(), E> {
-        let mut frames = Frames {
-            layout: self.layout,
-            out: Out {
-                active: self.active,
-                sequence: &mut self.sequence,
-                result: Ok(()),
-            },
-        };
-        self.station.close(|event| frames.event(event, write));
-        frames.out.result
-    }
-}
-
-/// The frame writer of one push: what the station's callback needs, borrowed
-/// apart from the station.
-struct Frames<'f, 'a, const C: usize, E> {
-    layout: &'a Layout<C>,
-    out: Out<'f, E>,
-}
-
-/// Where the frames of one push go: the channels that write frames, the frame
-/// counter, and the first error of the writer.
-struct Out<'f, E> {
-    active: u8,
-    sequence: &'f mut u32,
-    result: Result<(), E>,
-}
-
-impl<E> Out<'_, E> {
-    /// Writes one frame per active channel, each filled by `encode(channel,
-    /// sequence, frame)`, counting them; after an error, nothing more.
-    fn frames(
-        &mut self,
-        write: &mut impl FnMut(&[u8; FRAME_LEN]) -> Result<(), E>,
-        mut encode: impl FnMut(usize, u32, &mut [u8; FRAME_LEN]),
-    ) {
-        if self.result.is_err() {
-            return;
-        }
-        let mut frame = [0u8; FRAME_LEN];
-        for channel in 0..usize::from(self.active) {
-            encode(channel, *self.sequence, &mut frame);
-            self.result = write(&frame);
-            if self.result.is_err() {
-                return;
-            }
-            *self.sequence = self.sequence.wrapping_add(1);
-        }
-    }
-}
-
-impl<const C: usize, E> Frames<'_, '_, C, E> {
-    /// Writes one frame per active channel of a closed interval (after an
-    /// error, nothing more). Gaps (intervals with no sample at all) write no
-    /// frames.
-    #[inline(never)]
-    fn event<const G: usize>(
-        &mut self,
-        event: Event<'_, C, G>,
-        write: &mut impl FnMut(&[u8; FRAME_LEN]) -> Result<(), E>,
-    ) {
-        let Event::Closed(acc, records) = event else {
-            return;
-        };
-        let interval_start = self.layout.interval_start(acc.index());
-        self.out.frames(write, |channel, sequence, frame| {
-            if let Some(record) = records.get(channel) {
-                let f = RecordFrame {
-                    sequence,
-                    interval_start,
-                    channel: channel as u8,
-                    record: *record,
-                };
-                wire::encode_record(&f, frame);
-            }
-        });
-    }
-}
-
-/// A sampler whose layout lives elsewhere: the sampling half of a station, for
-/// a logger that leaves finishing to a PC.
-pub type LayoutSampler<'a, const C: usize, const G: usize> = Sampler<C, G, &'a Layout<C>>;
 
 /// Storage for a state logger's sampler, meant for a `static` (as
-/// [`LoggerSlot`]).
+/// [`LoggerSlot`], 1 KiB for 8 channels instead of 2).
 #[repr(u64)]
 #[derive(Clone, Debug)]
 #[allow(clippy::large_enum_variant)]
@@ -343,17 +195,13 @@ impl<'a, const C: usize, const G: usize> SamplerSlot<'a, C, G> {
 
     /// Starts a new state logger of `layout` in the slot, writing state frames
     /// for every channel, stamped with `layout.fingerprint()` (see
-    /// [`StateLogger::with_active`]); sequence numbers start at 0. `None` only
-    /// if the slot could not be filled (which does not happen).
+    /// [`Logger::with_active`], [`Logger::with_fingerprint`]); sequence
+    /// numbers start at 0. `None` only if the slot could not be filled (which
+    /// does not happen).
     pub fn start(&mut self, layout: &'a Layout<C>) -> Option<StateLogger<'_, 'a, C, G>> {
         put_sampler(self, layout);
         match self {
-            SamplerSlot::Full(sampler) => Some(StateLogger {
-                sampler,
-                active: C.min(255) as u8,
-                fingerprint: layout.fingerprint(),
-                sequence: 0,
-            }),
+            SamplerSlot::Full(sampler) => Some(Logger::new(sampler, layout)),
             SamplerSlot::Empty => None,
         }
     }
@@ -368,43 +216,143 @@ fn put_sampler<'a, const C: usize, const G: usize>(
     *slot = SamplerSlot::Full(Sampler::new(layout));
 }
 
-/// A running state logger: a sampler in a [`SamplerSlot`] that writes one
-/// state frame (`qc_core::wire::encode_state`) per channel for every interval
-/// it closes, for a PC to finish (`tenmin decode --config`). Neither
-/// finishing nor screening runs here, so their code is not in the firmware.
+/// What a [`Logger`] runs: a station (record frames) or a sampler (state
+/// frames).
+pub trait Core<const C: usize> {
+    /// Adds one sample; the frames of the intervals it closes go through `out`.
+    fn push_frames<E>(
+        &mut self,
+        t: Timestamp,
+        readings: &[Reading; C],
+        out: &mut Out<'_, '_, C, E>,
+        write: &mut impl FnMut(&[u8; FRAME_LEN]) -> Result<(), E>,
+    ) -> Pushed;
+    /// Closes the open interval (end of data); its frames go through `out`.
+    fn close_frames<E>(
+        &mut self,
+        out: &mut Out<'_, '_, C, E>,
+        write: &mut impl FnMut(&[u8; FRAME_LEN]) -> Result<(), E>,
+    );
+}
+
+impl<const C: usize, const G: usize> Core<C> for LayoutStation<'_, C, G> {
+    #[inline]
+    fn push_frames<E>(
+        &mut self,
+        t: Timestamp,
+        readings: &[Reading; C],
+        out: &mut Out<'_, '_, C, E>,
+        write: &mut impl FnMut(&[u8; FRAME_LEN]) -> Result<(), E>,
+    ) -> Pushed {
+        self.push(t, readings, |event| out.records(event, write))
+    }
+    fn close_frames<E>(
+        &mut self,
+        out: &mut Out<'_, '_, C, E>,
+        write: &mut impl FnMut(&[u8; FRAME_LEN]) -> Result<(), E>,
+    ) {
+        self.close(|event| out.records(event, write));
+    }
+}
+
+impl<const C: usize, const G: usize> Core<C> for LayoutSampler<'_, C, G> {
+    #[inline]
+    fn push_frames<E>(
+        &mut self,
+        t: Timestamp,
+        readings: &[Reading; C],
+        out: &mut Out<'_, '_, C, E>,
+        write: &mut impl FnMut(&[u8; FRAME_LEN]) -> Result<(), E>,
+    ) -> Pushed {
+        self.push(t, readings, |ended| out.states(ended, write))
+    }
+    fn close_frames<E>(
+        &mut self,
+        out: &mut Out<'_, '_, C, E>,
+        write: &mut impl FnMut(&[u8; FRAME_LEN]) -> Result<(), E>,
+    ) {
+        self.close(|ended| out.states(ended, write));
+    }
+}
+
+/// A running logger: what it runs (`K`, in a slot), its layout, and the frame
+/// counter.
 #[derive(Debug)]
-pub struct StateLogger<'s, 'a, const C: usize, const G: usize> {
-    sampler: &'s mut LayoutSampler<'a, C, G>,
+pub struct Logger<'s, 'a, const C: usize, K> {
+    core: &'s mut K,
+    meta: Meta<'a, C>,
+}
+
+/// What the frames need besides the interval: passed to the callback as one
+/// pointer (the per-sample path sets up nothing more).
+#[derive(Debug)]
+struct Meta<'a, const C: usize> {
+    layout: &'a Layout<C>,
     /// Frames are written for channels `0..active`.
     active: u8,
+    /// Stamped on state frames.
     fingerprint: u32,
     sequence: u32,
 }
 
-impl<'a, const C: usize, const G: usize> StateLogger<'_, 'a, C, G> {
-    /// Writes frames only for the first `active` channels (at most `C`), whose
-    /// configuration has the fingerprint `fingerprint`
-    /// (`qc_core::config_fingerprint` of those channels): a station of fewer
-    /// channels than the logger's capacity.
-    pub fn with_active(mut self, active: usize, fingerprint: u32) -> Self {
-        self.active = active.min(C).min(255) as u8;
-        self.fingerprint = fingerprint;
+/// A logger that finishes on board and writes record frames.
+pub type RecordLogger<'s, 'a, const C: usize, const G: usize> =
+    Logger<'s, 'a, C, LayoutStation<'a, C, G>>;
+
+/// A logger that samples only and writes state frames for a PC to finish.
+pub type StateLogger<'s, 'a, const C: usize, const G: usize> =
+    Logger<'s, 'a, C, LayoutSampler<'a, C, G>>;
+
+impl<'s, 'a, const C: usize, K: Core<C>> Logger<'s, 'a, C, K> {
+    /// A logger of `core`, whose layout is `layout`, writing frames for every
+    /// channel, state frames stamped with `layout.fingerprint()`.
+    fn new(core: &'s mut K, layout: &'a Layout<C>) -> Self {
+        Logger {
+            core,
+            meta: Meta {
+                layout,
+                active: C.min(255) as u8,
+                fingerprint: layout.fingerprint(),
+                sequence: 0,
+            },
+        }
+    }
+
+    /// Writes frames only for the first `active` channels (at most `C`): a
+    /// station of fewer channels than the logger's capacity.
+    pub fn with_active(mut self, active: usize) -> Self {
+        self.meta.active = active.min(C).min(255) as u8;
         self
     }
 
-    /// The sampler.
-    pub fn sampler(&self) -> &LayoutSampler<'a, C, G> {
-        self.sampler
+    /// Stamps state frames with `fingerprint`: for a station of fewer
+    /// channels than the logger's capacity, `qc_core::config_fingerprint` of
+    /// the channels in use (what a PC computes from that station).
+    pub fn with_fingerprint(mut self, fingerprint: u32) -> Self {
+        self.meta.fingerprint = fingerprint;
+        self
+    }
+
+    /// What the logger runs: its station or sampler.
+    pub fn core(&self) -> &K {
+        self.core
+    }
+
+    /// Channels that write frames.
+    pub const fn active(&self) -> usize {
+        self.meta.active as usize
     }
 
     /// Frames written so far.
     pub const fn frames(&self) -> u32 {
-        self.sequence
+        self.meta.sequence
     }
 
-    /// Adds one sample; every interval it closes goes to `write` as state
-    /// frames, in channel order. Stops writing at the first error of `write`
-    /// and returns it.
+    /// Adds one sample; every interval it closes goes to `write` as frames, in
+    /// channel order, while the station or sampler hands it out. Stops writing
+    /// at the first error of `write` and returns it.
+    ///
+    /// Not inlined, so that its temporaries take stack only while it runs.
     #[inline(never)]
     pub fn push<E>(
         &mut self,
@@ -412,18 +360,12 @@ impl<'a, const C: usize, const G: usize> StateLogger<'_, 'a, C, G> {
         readings: &[Reading; C],
         write: &mut impl FnMut(&[u8; FRAME_LEN]) -> Result<(), E>,
     ) -> Result<Pushed, E> {
-        let mut frames = StateFrames {
-            fingerprint: self.fingerprint,
-            out: Out {
-                active: self.active,
-                sequence: &mut self.sequence,
-                result: Ok(()),
-            },
+        let mut out = Out {
+            meta: &mut self.meta,
+            result: Ok(()),
         };
-        let pushed = self
-            .sampler
-            .push(t, readings, |ended| frames.ended(ended, write));
-        frames.out.result.map(|()| pushed)
+        let pushed = self.core.push_frames(t, readings, &mut out, write);
+        out.result.map(|()| pushed)
     }
 
     /// Closes the open interval (end of data) and writes its frames.
@@ -432,40 +374,83 @@ impl<'a, const C: usize, const G: usize> StateLogger<'_, 'a, C, G> {
         &mut self,
         write: &mut impl FnMut(&[u8; FRAME_LEN]) -> Result<(), E>,
     ) -> Result<(), E> {
-        let mut frames = StateFrames {
-            fingerprint: self.fingerprint,
-            out: Out {
-                active: self.active,
-                sequence: &mut self.sequence,
-                result: Ok(()),
-            },
+        let mut out = Out {
+            meta: &mut self.meta,
+            result: Ok(()),
         };
-        self.sampler.close(|ended| frames.ended(ended, write));
-        frames.out.result
+        self.core.close_frames(&mut out, write);
+        out.result
     }
 }
 
-/// The state frame writer of one push.
-struct StateFrames<'f, E> {
-    fingerprint: u32,
-    out: Out<'f, E>,
+/// The frame writer of one push: what the station's or sampler's callback
+/// needs, borrowed apart from it.
+#[derive(Debug)]
+pub struct Out<'f, 'a, const C: usize, E> {
+    meta: &'f mut Meta<'a, C>,
+    result: Result<(), E>,
 }
 
-impl<E> StateFrames<'_, E> {
-    /// Writes one state frame per active channel of a closed interval (after
-    /// an error, nothing more). Gaps write no frames.
+impl<const C: usize, E> Out<'_, '_, C, E> {
+    /// Writes one frame per active channel, each filled by `encode(channel,
+    /// sequence, frame)`, counting them; after an error, nothing more.
+    fn frames(
+        &mut self,
+        write: &mut impl FnMut(&[u8; FRAME_LEN]) -> Result<(), E>,
+        mut encode: impl FnMut(usize, u32, &mut [u8; FRAME_LEN]),
+    ) {
+        if self.result.is_err() {
+            return;
+        }
+        let mut frame = [0u8; FRAME_LEN];
+        for channel in 0..usize::from(self.meta.active) {
+            encode(channel, self.meta.sequence, &mut frame);
+            self.result = write(&frame);
+            if self.result.is_err() {
+                return;
+            }
+            self.meta.sequence = self.meta.sequence.wrapping_add(1);
+        }
+    }
+
+    /// The record frames of a closed interval. Gaps (intervals with no sample
+    /// at all) write no frames.
     #[inline(never)]
-    fn ended<const C: usize, const G: usize>(
+    fn records<const G: usize>(
+        &mut self,
+        event: Event<'_, C, G>,
+        write: &mut impl FnMut(&[u8; FRAME_LEN]) -> Result<(), E>,
+    ) {
+        let Event::Closed(acc, records) = event else {
+            return;
+        };
+        let interval_start = self.meta.layout.interval_start(acc.index());
+        self.frames(write, |channel, sequence, frame| {
+            if let Some(record) = records.get(channel) {
+                let f = RecordFrame {
+                    sequence,
+                    interval_start,
+                    channel: channel as u8,
+                    record: *record,
+                };
+                wire::encode_record(&f, frame);
+            }
+        });
+    }
+
+    /// The state frames of a closed interval. Gaps write no frames.
+    #[inline(never)]
+    fn states<const G: usize>(
         &mut self,
         ended: Ended<'_, C, G>,
         write: &mut impl FnMut(&[u8; FRAME_LEN]) -> Result<(), E>,
     ) {
-        let Ended::Interval(layout, acc) = ended else {
+        let Ended::Interval(_, acc) = ended else {
             return;
         };
-        let interval_start = layout.interval_start(acc.index());
-        let (channels, fingerprint) = (self.out.active, self.fingerprint);
-        self.out.frames(write, |channel, sequence, frame| {
+        let interval_start = self.meta.layout.interval_start(acc.index());
+        let (channels, fingerprint) = (self.meta.active, self.meta.fingerprint);
+        self.frames(write, |channel, sequence, frame| {
             if let Some(state) = acc.state(channel) {
                 let f = StateFrame {
                     sequence,
@@ -478,64 +463,5 @@ impl<E> StateFrames<'_, E> {
                 wire::encode_state(&f, frame);
             }
         });
-    }
-}
-
-/// A logger that writes frames as samples arrive: [`Logger`] (record frames)
-/// or [`StateLogger`] (state frames), for a loop that runs either.
-pub trait FrameLogger<const C: usize> {
-    /// Adds one sample; frames of the intervals it closes go to `write`.
-    fn push_sample<E>(
-        &mut self,
-        t: Timestamp,
-        readings: &[Reading; C],
-        write: &mut impl FnMut(&[u8; FRAME_LEN]) -> Result<(), E>,
-    ) -> Result<Pushed, E>;
-    /// Closes the open interval (end of data) and writes its frames.
-    fn close_all<E>(
-        &mut self,
-        write: &mut impl FnMut(&[u8; FRAME_LEN]) -> Result<(), E>,
-    ) -> Result<(), E>;
-    /// Frames written so far.
-    fn frame_count(&self) -> u32;
-}
-
-impl<const C: usize, const G: usize> FrameLogger<C> for Logger<'_, '_, C, G> {
-    fn push_sample<E>(
-        &mut self,
-        t: Timestamp,
-        readings: &[Reading; C],
-        write: &mut impl FnMut(&[u8; FRAME_LEN]) -> Result<(), E>,
-    ) -> Result<Pushed, E> {
-        self.push(t, readings, write)
-    }
-    fn close_all<E>(
-        &mut self,
-        write: &mut impl FnMut(&[u8; FRAME_LEN]) -> Result<(), E>,
-    ) -> Result<(), E> {
-        self.close(write)
-    }
-    fn frame_count(&self) -> u32 {
-        self.frames()
-    }
-}
-
-impl<const C: usize, const G: usize> FrameLogger<C> for StateLogger<'_, '_, C, G> {
-    fn push_sample<E>(
-        &mut self,
-        t: Timestamp,
-        readings: &[Reading; C],
-        write: &mut impl FnMut(&[u8; FRAME_LEN]) -> Result<(), E>,
-    ) -> Result<Pushed, E> {
-        self.push(t, readings, write)
-    }
-    fn close_all<E>(
-        &mut self,
-        write: &mut impl FnMut(&[u8; FRAME_LEN]) -> Result<(), E>,
-    ) -> Result<(), E> {
-        self.close(write)
-    }
-    fn frame_count(&self) -> u32 {
-        self.frames()
     }
 }

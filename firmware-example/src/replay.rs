@@ -1,6 +1,7 @@
 //! The replay loop: reads a sample file (`qc_core::wire`, as `tenmin export`
 //! writes it) in small chunks, builds the station from the file's header, feeds
-//! every sample to a [`Logger`], and writes the record frames it produces.
+//! every sample to a [`Logger`], and writes the record (or state) frames it
+//! produces.
 //!
 //! The logger holds up to [`CAPACITY`] channels with gust windows of up to
 //! [`GUST_CAPACITY`] samples. A station of fewer channels is padded with
@@ -22,7 +23,7 @@ use qc_core::{
     config_fingerprint, ChannelConfig, ConfigError, Kind, Layout, Pushed, Reading, StationConfig,
 };
 
-use crate::logger::{FrameLogger, LayoutSlot, Logger, LoggerSlot};
+use crate::logger::{Core, LayoutSlot, Logger, LoggerSlot, RecordLogger};
 
 /// Most channels the replay logger holds.
 pub const CAPACITY: usize = 8;
@@ -30,7 +31,7 @@ pub const CAPACITY: usize = 8;
 pub const GUST_CAPACITY: usize = 12;
 
 /// The replay logger.
-pub type ReplayLogger<'s, 'a> = Logger<'s, 'a, CAPACITY, GUST_CAPACITY>;
+pub type ReplayLogger<'s, 'a> = RecordLogger<'s, 'a, CAPACITY, GUST_CAPACITY>;
 /// Static storage for the replay logger's station (running state).
 pub type ReplaySlot<'a> = LoggerSlot<'a, CAPACITY, GUST_CAPACITY>;
 /// Static storage for the layout the replay logger builds from the file header.
@@ -347,7 +348,8 @@ fn replay_as<'a, S: Source, K: Sink>(
     let n = usize::from(count);
     if states {
         let logger = slot.start_states(layout).ok_or(full)?;
-        run(input, sink, logger.with_active(n, fingerprint), count)
+        let logger = logger.with_active(n).with_fingerprint(fingerprint);
+        run(input, sink, logger, count)
     } else {
         let logger = slot.start(layout).ok_or(full)?;
         run(input, sink, logger.with_active(n), count)
@@ -355,10 +357,10 @@ fn replay_as<'a, S: Source, K: Sink>(
 }
 
 /// Feeds every sample after the header to `logger` and its frames to `sink`.
-fn run<S: Source, K: Sink, L: FrameLogger<CAPACITY>>(
+fn run<S: Source, K: Sink, R: Core<CAPACITY>>(
     mut input: Input<'_, S>,
     sink: &mut K,
-    mut logger: L,
+    mut logger: Logger<'_, '_, CAPACITY, R>,
     count: u8,
 ) -> Result<ReplaySummary, ReplayError<S::Error, K::Error>> {
     let n = usize::from(count);
@@ -374,7 +376,7 @@ fn run<S: Source, K: Sink, L: FrameLogger<CAPACITY>>(
         match decoded {
             SampleDecode::Sample { time, len } => {
                 summary.samples += 1;
-                match logger.push_sample(time, &readings, &mut write) {
+                match logger.push(time, &readings, &mut write) {
                     Ok(Pushed::Accepted) => summary.accepted += 1,
                     Ok(Pushed::Rejected(_)) => summary.rejected += 1,
                     Err(e) => return Err(ReplayError::Write(e)),
@@ -397,8 +399,8 @@ fn run<S: Source, K: Sink, L: FrameLogger<CAPACITY>>(
             }
         }
     }
-    logger.close_all(&mut write).map_err(ReplayError::Write)?;
-    summary.frames = logger.frame_count();
+    logger.close(&mut write).map_err(ReplayError::Write)?;
+    summary.frames = logger.frames();
     #[cfg(feature = "defmt")]
     defmt::info!("replay done: {}", summary);
     Ok(summary)

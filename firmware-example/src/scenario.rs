@@ -107,7 +107,7 @@ pub fn layout() -> Result<Layout<CHANNELS>, ConfigError> {
 }
 
 /// The scenario's logger: the station above, a frame for every channel.
-pub type Logger<'s> = crate::logger::Logger<'s, 'static, CHANNELS, GUST>;
+pub type Logger<'s> = crate::logger::RecordLogger<'s, 'static, CHANNELS, GUST>;
 
 /// Static storage for the scenario's [`Logger`].
 pub type LoggerSlot = crate::logger::LoggerSlot<'static, CHANNELS, GUST>;

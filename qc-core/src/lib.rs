@@ -99,7 +99,7 @@
 //! ([`IntervalAcc::set_state`]) and finishes them with its own [`Finisher`].
 //! The records are the same, bit for bit, either way; the sampler alone
 //! leaves the finishing code and most of the software floating point off the
-//! logger (on a Cortex-M0 about 15 KB of flash instead of 29 KB for an
+//! logger (on a Cortex-M0 about 15 KB of flash instead of 30 KB for an
 //! 8-channel logger; the firmware README has the figures). A
 //! [`Layout::fingerprint`] in every state frame makes a PC refuse states of a
 //! different configuration.

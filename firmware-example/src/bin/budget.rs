@@ -17,7 +17,7 @@ use core::hint::black_box;
 use cortex_m::peripheral::syst::SystClkSource;
 use cortex_m::peripheral::{Peripherals, SYST};
 use cortex_m_rt::entry;
-use firmware_example::logger::FrameLogger;
+use firmware_example::logger::{Core, Logger as AnyLogger};
 use firmware_example::scenario::{self, Logger, LoggerSlot, CHANNELS};
 use qc_core::wire::{encode_record, RecordFrame, FRAME_LEN};
 use qc_core::{ChannelConfig, Event, Layout, Reading, Station, StationConfig, Timestamp};
@@ -305,7 +305,7 @@ static SCENARIO_TABLE: [[Reading; CHANNELS]; 8] = {
 /// a logger whose frames go nowhere; with `push` false the same loop without
 /// the logger (the baseline). SysTick ticks taken.
 fn logger_pushes(
-    logger: &mut impl FrameLogger<CHANNELS>,
+    logger: &mut AnyLogger<'_, '_, CHANNELS, impl Core<CHANNELS>>,
     table: &[[Reading; CHANNELS]; 8],
     t0: i64,
     n: u32,
@@ -320,7 +320,7 @@ fn logger_pushes(
         let t = Timestamp::from_millis(t0 + i64::from(i) * 1000);
         let r = black_box(&table[(i & 7) as usize]);
         if push {
-            black_box(logger.push_sample(t, r, &mut sink).is_ok());
+            black_box(logger.push(t, r, &mut sink).is_ok());
         } else {
             black_box((t, r));
         }
@@ -332,7 +332,7 @@ fn logger_pushes(
 /// a warm-up of 10 samples, then `N` timed less the same loop without it.
 fn logger_per_sample(
     m: &Meter,
-    logger: &mut impl FrameLogger<CHANNELS>,
+    logger: &mut AnyLogger<'_, '_, CHANNELS, impl Core<CHANNELS>>,
     table: &[[Reading; CHANNELS]; 8],
 ) -> u64 {
     logger_pushes(logger, table, T0, 10, true);
@@ -439,10 +439,7 @@ fn scenario_case(m: &Meter, slot: &mut LoggerSlot) -> Option<()> {
         sequence: 7,
         interval_start: Timestamp::from_millis(T0),
         channel: 3,
-        record: logger
-            .station()
-            .layout()
-            .finish(logger.station().open()?, 3)?,
+        record: logger.core().layout().finish(logger.core().open()?, 3)?,
     };
     let mut out = [0u8; FRAME_LEN];
     let start = now();

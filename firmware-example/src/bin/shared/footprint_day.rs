@@ -6,7 +6,7 @@
 
 use core::hint::black_box;
 
-use firmware_example::logger::FrameLogger;
+use firmware_example::logger::{Core, Logger};
 use firmware_example::scenario::CHANNELS;
 use qc_core::wire::FRAME_LEN;
 use qc_core::{Reading, Timestamp};
@@ -62,7 +62,7 @@ static REGISTERS: [[Reading; CHANNELS]; 4] = [
 
 /// Runs a day of samples through `logger` and exits 0 if it wrote the
 /// expected 144 intervals of 8 frames, else 1.
-pub fn run_day(logger: &mut impl FrameLogger<CHANNELS>) -> ! {
+pub fn run_day(logger: &mut Logger<'_, '_, CHANNELS, impl Core<CHANNELS>>) -> ! {
     let mut frames = 0u32;
     let mut flash = |f: &[u8; FRAME_LEN]| -> Result<(), ()> {
         black_box(f);
@@ -73,11 +73,11 @@ pub fn run_day(logger: &mut impl FrameLogger<CHANNELS>) -> ! {
     for i in 0..n {
         let t = Timestamp::from_millis(black_box(T0 + i64::from(i) * 1000));
         let r = black_box(&REGISTERS[(i & 3) as usize]);
-        if logger.push_sample(t, r, &mut flash).is_err() {
+        if logger.push(t, r, &mut flash).is_err() {
             process::exit(1)
         }
     }
-    if logger.close_all(&mut flash).is_err() {
+    if logger.close(&mut flash).is_err() {
         process::exit(1)
     }
     // 144 intervals of 8 frames.
