@@ -2281,6 +2281,79 @@ mod tests {
     }
 
     #[test]
+    fn state_log_cut_at_every_byte_offset_loses_only_the_cut_frame() {
+        // The state frames of two intervals of every form, then a torn write
+        // at every byte offset, and appends resumed after it.
+        let layout = all_forms();
+        let mut sampler: crate::Sampler<7, 4> = crate::Sampler::new(layout);
+        let mut frames = Vec::new();
+        let mut send = |e: crate::Ended<'_, 7, 4>| {
+            if let crate::Ended::Interval(l, acc) = e {
+                for c in 0..7 {
+                    frames.push(StateFrame {
+                        sequence: frames.len() as u32,
+                        interval_start: l.interval_start(acc.index()),
+                        channel: c as u8,
+                        channels: 7,
+                        fingerprint: l.fingerprint(),
+                        state: acc.state(c).unwrap(),
+                    });
+                }
+            }
+        };
+        for (t, r) in mixed_input(5, 2) {
+            sampler.push(t, &r, &mut send);
+        }
+        sampler.close(&mut send);
+        let log: Vec<u8> = frames
+            .iter()
+            .flat_map(|f| {
+                let mut b = [0u8; FRAME_LEN];
+                encode_state(f, &mut b);
+                b
+            })
+            .collect();
+        let states = |bytes: &[u8]| -> (Vec<StateFrame>, Vec<Span>) {
+            let (mut good, mut other) = (Vec::new(), Vec::new());
+            for span in scan(bytes) {
+                match span {
+                    Span::State { frame, .. } => good.push(frame),
+                    s => other.push(s),
+                }
+            }
+            (good, other)
+        };
+        for cut in 0..=log.len() {
+            let whole = cut / FRAME_LEN;
+            let (good, other) = states(&log[..cut]);
+            assert_eq!(good, frames[..whole], "cut {cut}");
+            let torn = Span::Torn {
+                offset: whole * FRAME_LEN,
+                len: cut % FRAME_LEN,
+            };
+            assert_eq!(
+                other,
+                if cut % FRAME_LEN == 0 {
+                    vec![]
+                } else {
+                    vec![torn]
+                },
+                "cut {cut}"
+            );
+            // Power came back: the writer appends the rest after the torn bytes.
+            if cut % FRAME_LEN != 0 && whole + 1 < frames.len() {
+                let mut resumed = log[..cut].to_vec();
+                resumed.extend_from_slice(&log[(whole + 1) * FRAME_LEN..]);
+                let (good, other) = states(&resumed);
+                let mut want = frames.clone();
+                want.remove(whole);
+                assert_eq!(good, want, "cut {cut}, resumed");
+                assert_eq!(other.len(), 1, "cut {cut}, resumed");
+            }
+        }
+    }
+
+    #[test]
     fn fingerprint_tells_configurations_apart() {
         let a = all_forms();
         assert_eq!(a.fingerprint(), all_forms().fingerprint());
