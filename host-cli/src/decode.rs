@@ -162,13 +162,15 @@ pub fn decode<W: Write>(
     log: &[u8],
     path: &Path,
     out: &mut W,
+    max_gap_days: u32,
 ) -> Result<Decoded> {
+    let g = max_gap_days;
     match cfg.channels.len() {
         0 => bail!("{}: no channels", cfg.path.display()),
-        1..=4 => decode_with::<4, W>(cfg, log, path, out),
-        5..=8 => decode_with::<8, W>(cfg, log, path, out),
-        9..=16 => decode_with::<16, W>(cfg, log, path, out),
-        17..=MAX_CHANNELS => decode_with::<32, W>(cfg, log, path, out),
+        1..=4 => decode_with::<4, W>(cfg, log, path, out, g),
+        5..=8 => decode_with::<8, W>(cfg, log, path, out, g),
+        9..=16 => decode_with::<16, W>(cfg, log, path, out, g),
+        17..=MAX_CHANNELS => decode_with::<32, W>(cfg, log, path, out, g),
         n => bail!("{n} channels: at most {MAX_CHANNELS} are supported"),
     }
 }
@@ -178,6 +180,7 @@ fn decode_with<const C: usize, W: Write>(
     log: &[u8],
     path: &Path,
     out: &mut W,
+    max_gap_days: u32,
 ) -> Result<Decoded> {
     let layout: Layout<C> = cfg.layout::<C>()?;
     let cores: Vec<ChannelConfig> = cfg.channels.iter().map(|c| c.core).collect();
@@ -194,6 +197,7 @@ fn decode_with<const C: usize, W: Write>(
         prev: None,
         finisher: Finisher::new(),
         open: None,
+        max_gap_days,
     };
     for span in wire::scan(log) {
         d.span(span)?;
@@ -242,6 +246,8 @@ struct Decoder<'a, const C: usize, W: Write> {
     fingerprint: u32,
     layout: Layout<C>,
     out: &'a mut W,
+    /// Longest run of empty intervals written, days (`--max-gap-days`).
+    max_gap_days: u32,
     d: Decoded,
     /// Whether the log holds state frames, and the offset of its first good
     /// frame.
@@ -408,6 +414,18 @@ impl<const C: usize, W: Write> Decoder<'_, C, W> {
             return Ok(());
         }
         if !broken {
+            let days = count as f64 * self.layout.interval_ms() as f64 / 86_400_000.0;
+            if days > f64::from(self.max_gap_days) {
+                bail!(
+                    "{}: after the frame at byte {}: the frames jump forward {days:.1} days, from {} to {}, with no frame lost between: \
+                     more than --max-gap-days {} allows; check the logger clock, or raise --max-gap-days",
+                    self.path.display(),
+                    p.offset,
+                    Rfc3339(self.layout.interval_start(p.index)),
+                    Rfc3339(self.layout.interval_start(k)),
+                    self.max_gap_days
+                );
+            }
             return self.empty(first, k);
         }
         self.d.unknown_intervals += count as u64;
@@ -616,11 +634,13 @@ pub fn run(a: &crate::DecodeArgs) -> Result<ExitCode> {
     let cfg = config::load(&a.config)?;
     let log = std::fs::read(&a.log).with_context(|| format!("cannot read {}", a.log.display()))?;
     let decoded = match &a.output {
-        Some(path) => crate::write_atomically(path, |w| decode(&cfg, &log, &a.log, w))?,
+        Some(path) => {
+            crate::write_atomically(path, |w| decode(&cfg, &log, &a.log, w, a.max_gap_days))?
+        }
         None => {
             let stdout = io::stdout();
             let mut w = BufWriter::new(stdout.lock());
-            let d = decode(&cfg, &log, &a.log, &mut w)?;
+            let d = decode(&cfg, &log, &a.log, &mut w, a.max_gap_days)?;
             w.flush()?;
             d
         }

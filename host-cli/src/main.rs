@@ -240,6 +240,12 @@ struct DecodeArgs {
     /// Print on stderr only the problems, not the summary of a clean log.
     #[arg(long, short = 'q')]
     quiet: bool,
+    /// Empty intervals between two frames (consecutive sequence numbers) spanning more
+    /// than this many days stop the command: a wrong logger clock would otherwise write an
+    /// empty row per interval, as in `tenmin replay`.
+    #[arg(long, default_value_t = samples::DEFAULT_MAX_GAP_DAYS, value_name = "D",
+          value_parser = clap::value_parser!(u32).range(1..))]
+    max_gap_days: u32,
 }
 
 #[derive(Args, Debug)]

@@ -981,3 +981,55 @@ fn a_log_mixing_record_and_state_frames_is_refused() {
         text(&o.stderr)
     );
 }
+
+#[test]
+fn a_clock_jump_between_frames_is_refused_unless_allowed() {
+    let s = Setup::new();
+    // The record log with the interval starts of its second half moved 400
+    // days on (sequence numbers still consecutive: no frame lost, so the
+    // intervals between would be written as empty).
+    let half = (s.log.len() / FRAME_LEN / 2) * FRAME_LEN;
+    let mut jumped = s.log[..half].to_vec();
+    for span in wire::scan(&s.log[half..]) {
+        let Span::Frame { mut frame, .. } = span else {
+            panic!("{span:?}")
+        };
+        frame.interval_start =
+            qc_core::Timestamp::from_millis(frame.interval_start.millis() + 400 * 86_400_000);
+        let mut b = [0u8; FRAME_LEN];
+        wire::encode_record(&frame, &mut b);
+        jumped.extend_from_slice(&b);
+    }
+    let (o, _) = s.decode("jump.log", &jumped, false);
+    assert_eq!(o.status.code(), Some(2), "{}", text(&o.stderr));
+    let err = text(&o.stderr);
+    assert!(
+        err.contains(&format!(
+            "jump.log: after the frame at byte {}: the frames jump forward 400.",
+            half - FRAME_LEN
+        )) && err.contains("more than --max-gap-days 366 allows"),
+        "{err}"
+    );
+    assert!(!s.path("jump.log.csv").exists());
+    // Allowed: every interval between is written as an empty row.
+    std::fs::write(s.path("jump.log"), &jumped).unwrap();
+    let o = tenmin(
+        &[
+            "decode",
+            "-c",
+            "st.toml",
+            "jump.log",
+            "-o",
+            "jump.csv",
+            "--max-gap-days",
+            "401",
+        ],
+        s.dir.path(),
+    );
+    ok(&o, "decode --max-gap-days 401");
+    let rows = std::fs::read_to_string(s.path("jump.csv"))
+        .unwrap()
+        .lines()
+        .count();
+    assert!(rows > lines(&s.replay_csv).len() + 400 * 144, "{rows}");
+}
