@@ -11,6 +11,7 @@ mod decode;
 mod demo;
 mod engine;
 mod export;
+mod logscan;
 mod parallel;
 mod records;
 mod replay;
