@@ -1,7 +1,11 @@
 //! Charts as SVG text, drawn with `plotters` (SVG backend, no fonts embedded:
 //! text is SVG `<text>` in the page's sans-serif).
 
+use std::ops::Range;
+
 use anyhow::Result;
+use plotters::chart::{MeshStyle, SeriesAnno};
+use plotters::coord::types::RangedCoordf64;
 use plotters::coord::Shift;
 use plotters::prelude::*;
 use plotters::style::text_anchor::{HPos, Pos, VPos};
@@ -70,6 +74,102 @@ fn style(px: u32) -> TextStyle<'static> {
     TextStyle::from((FONT, f64::from(px) * 1.24).into_font()).color(&INK)
 }
 
+/// A chart with numeric x and y axes, drawn into an [`Area`].
+type Chart<'a, 'b> = ChartContext<'a, SVGBackend<'b>, Cartesian2d<RangedCoordf64, RangedCoordf64>>;
+
+/// Label areas (x axis height, y axis width, pixels) of most charts.
+const LABEL_AREAS: (u32, u32) = (40, 55);
+
+/// A chart over `x` by `y` in `root`, with a 12-pixel margin and label areas
+/// of `(x axis height, y axis width)` pixels.
+fn cartesian<'a, 'b>(
+    root: &Area<'b>,
+    (x_area, y_area): (u32, u32),
+    x: Range<f64>,
+    y: Range<f64>,
+) -> Result<Chart<'a, 'b>> {
+    Ok(ChartBuilder::on(root)
+        .margin(12)
+        .x_label_area_size(x_area)
+        .y_label_area_size(y_area)
+        .build_cartesian_2d(x, y)?)
+}
+
+/// The mesh of `chart` in the house style: faint and grid-coloured lines,
+/// 13-pixel tick labels, 14-pixel axis descriptions. The caller adds what is
+/// specific to the chart (label counts and formatters, descriptions) and
+/// calls `draw`.
+fn mesh<'c, 'a, 'b>(
+    chart: &'c mut Chart<'a, 'b>,
+) -> MeshStyle<'a, 'c, RangedCoordf64, RangedCoordf64, SVGBackend<'b>> {
+    let mut mesh = chart.configure_mesh();
+    mesh.light_line_style(FAINT)
+        .bold_line_style(GRID)
+        .label_style(style(13))
+        .axis_desc_style(style(14));
+    mesh
+}
+
+/// Draws the legend of the labelled series of `chart` at `pos`: 14-pixel
+/// text on a nearly opaque white box with a grid-coloured border.
+fn legend<'a, 'b: 'a>(chart: &mut Chart<'a, 'b>, pos: SeriesLabelPosition) -> Result<()> {
+    chart
+        .configure_series_labels()
+        .position(pos)
+        .background_style(WHITE.mix(0.9))
+        .border_style(GRID)
+        .label_font(style(14))
+        .draw()?;
+    Ok(())
+}
+
+/// Legend key of a bar series: a 14 by 10 pixel box in `fill`.
+fn box_key(fill: ShapeStyle) -> impl Fn((i32, i32)) -> Rectangle<(i32, i32)> {
+    move |(x, y)| Rectangle::new([(x, y - 5), (x + 14, y + 5)], fill)
+}
+
+/// Legend key of a line series: a line `len` pixels long in `stroke` (16 in
+/// most charts; 14, the width of a box key, in the recovery chart).
+fn line_key(len: i32, stroke: ShapeStyle) -> impl Fn((i32, i32)) -> PathElement<(i32, i32)> {
+    move |(x, y)| PathElement::new([(x, y), (x + len, y)], stroke)
+}
+
+/// Draws the dashed horizontal reference line at `y` across `0..x_end` in
+/// the mark colour; the caller labels it.
+fn reference_line<'c, 'a, 'b>(
+    chart: &'c mut Chart<'a, 'b>,
+    y: f64,
+    x_end: f64,
+) -> Result<&'c mut SeriesAnno<'a, SVGBackend<'b>>> {
+    Ok(chart.draw_series(DashedLineSeries::new(
+        [(0.0, y), (x_end, y)],
+        6,
+        4,
+        MARK.stroke_width(2),
+    ))?)
+}
+
+/// Draws `points` as a line `width` pixels wide in `c`, labelled `label` in
+/// the legend, with a dot of `radius` pixels on each point.
+fn dotted_line(
+    chart: &mut Chart<'_, '_>,
+    points: &[(f64, f64)],
+    c: RGBColor,
+    width: u32,
+    radius: i32,
+    label: impl Into<String>,
+) -> Result<()> {
+    chart
+        .draw_series(LineSeries::new(
+            points.iter().copied(),
+            c.stroke_width(width),
+        ))?
+        .label(label)
+        .legend(line_key(16, c.stroke_width(width)));
+    chart.draw_series(points.iter().map(|&p| Circle::new(p, radius, c.filled())))?;
+    Ok(())
+}
+
 /// Labels a categorical x axis drawn on `0..n` with ticks at half steps: the
 /// label of category `i` at `i + 0.5`, every `every`-th one, nothing elsewhere.
 fn category_labels(labels: &[String], every: usize) -> impl Fn(&f64) -> String + '_ {
@@ -128,16 +228,9 @@ pub fn availability(d: &Dataset) -> Result<String> {
                 String::new()
             }
         };
-        let mut chart = ChartBuilder::on(root)
-            .margin(12)
-            .x_label_area_size(30)
-            .y_label_area_size(70)
-            .build_cartesian_2d(0.0..days, 0.0..n as f64)?;
-        chart
-            .configure_mesh()
+        let mut chart = cartesian(root, (30, 70), 0.0..days, 0.0..n as f64)?;
+        mesh(&mut chart)
             .disable_y_mesh()
-            .light_line_style(FAINT)
-            .bold_line_style(GRID)
             .x_labels(8)
             .y_labels(2 * n + 1)
             .x_label_formatter(&fmt_x)
@@ -192,16 +285,9 @@ pub fn recovery(d: &Dataset, r: &Recovery) -> Result<String> {
                 String::new()
             }
         };
-        let mut chart = ChartBuilder::on(root)
-            .margin(12)
-            .x_label_area_size(30)
-            .y_label_area_size(50)
-            .build_cartesian_2d(0.0..n as f64, 0.0..160.0)?;
-        chart
-            .configure_mesh()
+        let mut chart = cartesian(root, (30, 50), 0.0..n as f64, 0.0..160.0)?;
+        mesh(&mut chart)
             .disable_x_mesh()
-            .light_line_style(FAINT)
-            .bold_line_style(GRID)
             .x_labels(2 * n + 1)
             .x_label_formatter(&fmt_x)
             .y_labels(8)
@@ -213,8 +299,6 @@ pub fn recovery(d: &Dataset, r: &Recovery) -> Result<String> {
                 }
             })
             .y_desc("recovery (%)")
-            .label_style(style(13))
-            .axis_desc_style(style(14))
             .draw()?;
         let bars = |k: usize, f: &dyn Fn(&qc_core::Totals) -> Option<f64>| {
             r.channels
@@ -230,27 +314,15 @@ pub fn recovery(d: &Dataset, r: &Recovery) -> Result<String> {
         chart
             .draw_series(bars(0, &|t| t.rate()))?
             .label("samples valid / possible")
-            .legend(|(x, y)| Rectangle::new([(x, y - 5), (x + 14, y + 5)], colour(0).filled()));
+            .legend(box_key(colour(0).filled()));
         chart
             .draw_series(bars(1, &|t| t.interval_rate()))?
             .label("intervals passing screening / possible")
-            .legend(|(x, y)| Rectangle::new([(x, y - 5), (x + 14, y + 5)], colour(1).filled()));
-        chart
-            .draw_series(DashedLineSeries::new(
-                [(0.0, 100.0 * TARGET), (n as f64, 100.0 * TARGET)],
-                6,
-                4,
-                MARK.stroke_width(2),
-            ))?
+            .legend(box_key(colour(1).filled()));
+        reference_line(&mut chart, 100.0 * TARGET, n as f64)?
             .label("90 % target (EPA-454/R-99-005 sec. 5.3.2)")
-            .legend(|(x, y)| PathElement::new([(x, y), (x + 14, y)], MARK.stroke_width(2)));
-        chart
-            .configure_series_labels()
-            .position(SeriesLabelPosition::UpperRight)
-            .background_style(WHITE.mix(0.9))
-            .border_style(GRID)
-            .label_font(style(14))
-            .draw()?;
+            .legend(line_key(14, MARK.stroke_width(2)));
+        legend(&mut chart, SeriesLabelPosition::UpperRight)?;
         Ok(())
     })
 }
@@ -322,37 +394,17 @@ pub fn missing_share(d: &Dataset, diags: &[Diagnosis], kind: FactorKind) -> Resu
     let every = if nb > 14 { 3 } else { 1 };
     svg((880, 320), |root| {
         let fmt_x = category_labels(&labels, every);
-        let mut chart = ChartBuilder::on(root)
-            .margin(12)
-            .x_label_area_size(40)
-            .y_label_area_size(55)
-            .build_cartesian_2d(0.0..nb as f64, 0.0..ymax)?;
-        chart
-            .configure_mesh()
-            .light_line_style(FAINT)
-            .bold_line_style(GRID)
+        let mut chart = cartesian(root, LABEL_AREAS, 0.0..nb as f64, 0.0..ymax)?;
+        mesh(&mut chart)
             .x_labels(2 * nb + 1)
             .x_label_formatter(&fmt_x)
             .x_desc(xdesc)
             .y_desc("intervals missing (%)")
-            .label_style(style(13))
-            .axis_desc_style(style(14))
             .draw()?;
         for (k, l) in lines.iter().enumerate() {
-            let c = colour(k);
-            chart
-                .draw_series(LineSeries::new(l.points.iter().copied(), c.stroke_width(2)))?
-                .label(l.name.clone())
-                .legend(move |(x, y)| PathElement::new([(x, y), (x + 16, y)], c.stroke_width(2)));
-            chart.draw_series(l.points.iter().map(|&p| Circle::new(p, 3, c.filled())))?;
+            dotted_line(&mut chart, &l.points, colour(k), 2, 3, l.name.clone())?;
         }
-        chart
-            .configure_series_labels()
-            .position(SeriesLabelPosition::UpperLeft)
-            .background_style(WHITE.mix(0.9))
-            .border_style(GRID)
-            .label_font(style(14))
-            .draw()?;
+        legend(&mut chart, SeriesLabelPosition::UpperLeft)?;
         Ok(())
     })
     .map(Some)
@@ -498,22 +550,13 @@ pub fn histogram(d: &Dataset, x: &Distribution, rho: f64) -> Result<String> {
     );
     let xmax = bins.n as f64;
     svg((880, 340), |root| {
-        let mut chart = ChartBuilder::on(root)
-            .margin(12)
-            .x_label_area_size(40)
-            .y_label_area_size(55)
-            .build_cartesian_2d(0.0..xmax, 0.0..ymax)?;
-        chart
-            .configure_mesh()
-            .light_line_style(FAINT)
-            .bold_line_style(GRID)
+        let mut chart = cartesian(root, LABEL_AREAS, 0.0..xmax, 0.0..ymax)?;
+        mesh(&mut chart)
             .x_desc(format!(
                 "10-minute mean speed at {} (m/s)",
                 d.channels[x.channel].id()
             ))
             .y_desc("frequency (% per m/s)")
-            .label_style(style(13))
-            .axis_desc_style(style(14))
             .draw()?;
         chart
             .draw_series(freq.iter().enumerate().map(|(i, &f)| {
@@ -523,9 +566,7 @@ pub fn histogram(d: &Dataset, x: &Distribution, rho: f64) -> Result<String> {
                 )
             }))?
             .label(format!("measured, {} intervals", x.speeds.len()))
-            .legend(|(x, y)| {
-                Rectangle::new([(x, y - 5), (x + 14, y + 5)], colour(0).mix(0.75).filled())
-            });
+            .legend(box_key(colour(0).mix(0.75).filled()));
         if let Some(w) = x.ml {
             chart
                 .draw_series(LineSeries::new(
@@ -539,17 +580,9 @@ pub fn histogram(d: &Dataset, x: &Distribution, rho: f64) -> Result<String> {
                     w.mean(),
                     w.power_density(rho)
                 ))
-                .legend(|(x, y)| {
-                    PathElement::new([(x, y), (x + 16, y)], colour(1).stroke_width(3))
-                });
+                .legend(line_key(16, colour(1).stroke_width(3)));
         }
-        chart
-            .configure_series_labels()
-            .position(SeriesLabelPosition::UpperRight)
-            .background_style(WHITE.mix(0.9))
-            .border_style(GRID)
-            .label_font(style(14))
-            .draw()?;
+        legend(&mut chart, SeriesLabelPosition::UpperRight)?;
         Ok(())
     })
 }
@@ -565,19 +598,10 @@ pub fn turbulence(d: &Dataset, c: usize, bins: &[TiBin]) -> Result<String> {
         .clamp(0.3, 1.0);
     let ymax = nice_max(tmax * 1.1);
     svg((880, 360), |root| {
-        let mut chart = ChartBuilder::on(root)
-            .margin(12)
-            .x_label_area_size(40)
-            .y_label_area_size(55)
-            .build_cartesian_2d(0.0..vmax, 0.0..ymax)?;
-        chart
-            .configure_mesh()
-            .light_line_style(FAINT)
-            .bold_line_style(GRID)
+        let mut chart = cartesian(root, LABEL_AREAS, 0.0..vmax, 0.0..ymax)?;
+        mesh(&mut chart)
             .x_desc(format!("speed bin at {} (m/s)", d.channels[c].id()))
             .y_desc("turbulence intensity")
-            .label_style(style(13))
-            .axis_desc_style(style(14))
             .draw()?;
         for (k, cat) in TurbulenceCategory::ALL.iter().enumerate() {
             let col = RGBColor(
@@ -593,7 +617,7 @@ pub fn turbulence(d: &Dataset, c: usize, bins: &[TiBin]) -> Result<String> {
             chart
                 .draw_series(DashedLineSeries::new(pts, 5, 3, col.stroke_width(2)))?
                 .label(format!("NTM {} (Iref {})", cat.name(), cat.iref()))
-                .legend(move |(x, y)| PathElement::new([(x, y), (x + 16, y)], col.stroke_width(2)));
+                .legend(line_key(16, col.stroke_width(2)));
         }
         let mean: Vec<(f64, f64)> = shown
             .iter()
@@ -603,23 +627,16 @@ pub fn turbulence(d: &Dataset, c: usize, bins: &[TiBin]) -> Result<String> {
             .iter()
             .filter_map(|b| Some((b.centre, b.p90?)))
             .collect();
-        chart
-            .draw_series(LineSeries::new(p90.clone(), colour(1).stroke_width(3)))?
-            .label("measured 90th percentile")
-            .legend(|(x, y)| PathElement::new([(x, y), (x + 16, y)], colour(1).stroke_width(3)));
-        chart.draw_series(p90.iter().map(|&p| Circle::new(p, 4, colour(1).filled())))?;
-        chart
-            .draw_series(LineSeries::new(mean.clone(), colour(0).stroke_width(2)))?
-            .label("measured mean")
-            .legend(|(x, y)| PathElement::new([(x, y), (x + 16, y)], colour(0).stroke_width(2)));
-        chart.draw_series(mean.iter().map(|&p| Circle::new(p, 3, colour(0).filled())))?;
-        chart
-            .configure_series_labels()
-            .position(SeriesLabelPosition::UpperRight)
-            .background_style(WHITE.mix(0.9))
-            .border_style(GRID)
-            .label_font(style(14))
-            .draw()?;
+        dotted_line(
+            &mut chart,
+            &p90,
+            colour(1),
+            3,
+            4,
+            "measured 90th percentile",
+        )?;
+        dotted_line(&mut chart, &mean, colour(0), 2, 3, "measured mean")?;
+        legend(&mut chart, SeriesLabelPosition::UpperRight)?;
         Ok(())
     })
 }
@@ -638,16 +655,9 @@ pub fn shear(d: &Dataset, s: &Shear, by_sector: bool) -> Result<Option<String>> 
     let every = if nb > 16 { 2 } else { 1 };
     svg((880, 300), |root| {
         let fmt_x = category_labels(&labels, every);
-        let mut chart = ChartBuilder::on(root)
-            .margin(12)
-            .x_label_area_size(40)
-            .y_label_area_size(55)
-            .build_cartesian_2d(0.0..nb as f64, (lo * 1.15)..hi)?;
-        chart
-            .configure_mesh()
+        let mut chart = cartesian(root, LABEL_AREAS, 0.0..nb as f64, (lo * 1.15)..hi)?;
+        mesh(&mut chart)
             .disable_x_mesh()
-            .light_line_style(FAINT)
-            .bold_line_style(GRID)
             .x_labels(2 * nb + 1)
             .x_label_formatter(&fmt_x)
             .x_desc(if by_sector {
@@ -660,8 +670,6 @@ pub fn shear(d: &Dataset, s: &Shear, by_sector: bool) -> Result<Option<String>> 
                 d.channels[s.low].id(),
                 d.channels[s.high].id()
             ))
-            .label_style(style(13))
-            .axis_desc_style(style(14))
             .draw()?;
         chart
             .draw_series(bins.iter().enumerate().filter_map(|(i, b)| {
@@ -672,23 +680,11 @@ pub fn shear(d: &Dataset, s: &Shear, by_sector: bool) -> Result<Option<String>> 
                 ))
             }))?
             .label("power-law exponent from mean speeds")
-            .legend(|(x, y)| Rectangle::new([(x, y - 5), (x + 14, y + 5)], colour(2).filled()));
-        chart
-            .draw_series(DashedLineSeries::new(
-                [(0.0, 1.0 / 7.0), (nb as f64, 1.0 / 7.0)],
-                6,
-                4,
-                MARK.stroke_width(2),
-            ))?
+            .legend(box_key(colour(2).filled()));
+        reference_line(&mut chart, 1.0 / 7.0, nb as f64)?
             .label("1/7, the conventional value")
-            .legend(|(x, y)| PathElement::new([(x, y), (x + 16, y)], MARK.stroke_width(2)));
-        chart
-            .configure_series_labels()
-            .position(SeriesLabelPosition::UpperRight)
-            .background_style(WHITE.mix(0.9))
-            .border_style(GRID)
-            .label_font(style(14))
-            .draw()?;
+            .legend(line_key(16, MARK.stroke_width(2)));
+        legend(&mut chart, SeriesLabelPosition::UpperRight)?;
         Ok(())
     })
     .map(Some)
@@ -734,15 +730,8 @@ pub fn time_series(d: &Dataset) -> Result<Option<String>> {
     let ymax = nice_max(vmax * 1.05);
     svg((900, 340), |root| {
         let fmt_x = |x: &f64| time_label(d.t0_ms, *x, days);
-        let mut chart = ChartBuilder::on(root)
-            .margin(12)
-            .x_label_area_size(40)
-            .y_label_area_size(55)
-            .build_cartesian_2d(0.0..days, 0.0..ymax)?;
-        chart
-            .configure_mesh()
-            .light_line_style(FAINT)
-            .bold_line_style(GRID)
+        let mut chart = cartesian(root, LABEL_AREAS, 0.0..days, 0.0..ymax)?;
+        mesh(&mut chart)
             .x_labels(8)
             .x_label_formatter(&fmt_x)
             .x_desc(if per > 1 {
@@ -751,8 +740,6 @@ pub fn time_series(d: &Dataset) -> Result<Option<String>> {
                 "time (UTC)".to_string()
             })
             .y_desc("mean speed (m/s)")
-            .label_style(style(13))
-            .axis_desc_style(style(14))
             .draw()?;
         for (k, (segs, &c)) in lines.iter().zip(&speeds).enumerate() {
             let col = colour(k);
@@ -763,20 +750,12 @@ pub fn time_series(d: &Dataset) -> Result<Option<String>> {
                 if first {
                     series
                         .label(d.channels[c].id().to_string())
-                        .legend(move |(x, y)| {
-                            PathElement::new([(x, y), (x + 16, y)], col.stroke_width(2))
-                        });
+                        .legend(line_key(16, col.stroke_width(2)));
                     first = false;
                 }
             }
         }
-        chart
-            .configure_series_labels()
-            .position(SeriesLabelPosition::UpperRight)
-            .background_style(WHITE.mix(0.9))
-            .border_style(GRID)
-            .label_font(style(14))
-            .draw()?;
+        legend(&mut chart, SeriesLabelPosition::UpperRight)?;
         Ok(())
     })
     .map(Some)
@@ -795,15 +774,8 @@ pub fn scatter(d: &Dataset, r: &Rose) -> Result<String> {
                 String::new()
             }
         };
-        let mut chart = ChartBuilder::on(root)
-            .margin(12)
-            .x_label_area_size(40)
-            .y_label_area_size(55)
-            .build_cartesian_2d(0.0..360.0, 0.0..vmax)?;
-        chart
-            .configure_mesh()
-            .light_line_style(FAINT)
-            .bold_line_style(GRID)
+        let mut chart = cartesian(root, LABEL_AREAS, 0.0..360.0, 0.0..vmax)?;
+        mesh(&mut chart)
             .x_labels(9)
             .x_label_formatter(&fmt_x)
             .x_desc(format!(
@@ -811,8 +783,6 @@ pub fn scatter(d: &Dataset, r: &Rose) -> Result<String> {
                 d.channels[r.vane].id()
             ))
             .y_desc(format!("mean speed at {} (m/s)", d.channels[r.speed].id()))
-            .label_style(style(13))
-            .axis_desc_style(style(14))
             .draw()?;
         chart.draw_series(r.points.iter().step_by(every).map(|&(a, v)| {
             Circle::new((a.rem_euclid(360.0), v), 2, colour(0).mix(0.45).filled())
