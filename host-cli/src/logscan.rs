@@ -45,20 +45,9 @@ pub fn scan_reader<E: From<io::Error>>(
         let mut consumed = 0;
         for span in wire::scan(&buf) {
             match span {
-                Span::Frame { offset, frame } => {
+                Span::Frame { offset, .. } | Span::State { offset, .. } => {
                     flush(&mut pending, false, &mut f)?;
-                    f(Span::Frame {
-                        offset: base + offset,
-                        frame,
-                    })?;
-                    consumed = offset + FRAME_LEN;
-                }
-                Span::State { offset, frame } => {
-                    flush(&mut pending, false, &mut f)?;
-                    f(Span::State {
-                        offset: base + offset,
-                        frame,
-                    })?;
+                    f(moved(span, base))?;
                     consumed = offset + FRAME_LEN;
                 }
                 Span::Damaged { offset, len }
@@ -92,6 +81,22 @@ pub fn scan_reader<E: From<io::Error>>(
             flush(&mut pending, true, &mut f)?;
             return Ok(total);
         }
+    }
+}
+
+/// A good frame's span with its offset moved `base` bytes on (offsets in
+/// the buffer become offsets in the log).
+fn moved(span: Span, base: usize) -> Span {
+    match span {
+        Span::Frame { offset, frame } => Span::Frame {
+            offset: base + offset,
+            frame,
+        },
+        Span::State { offset, frame } => Span::State {
+            offset: base + offset,
+            frame,
+        },
+        other => other,
     }
 }
 

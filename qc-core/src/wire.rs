@@ -484,6 +484,28 @@ fn check_frame(b: &[u8; FRAME_LEN], version: u8) -> Result<(), WireError> {
     Ok(())
 }
 
+/// Clears `out` and writes the fields both kinds of frame hold at the same
+/// places: sync marker, version, kind or form (byte 5), `(sequence, interval
+/// start, channel)`, the sample counts and the spike count.
+fn start_frame(
+    out: &mut [u8; FRAME_LEN],
+    version: u8,
+    kind: u8,
+    (sequence, start, channel): (u32, Timestamp, u8),
+    tally: &Tally,
+    spikes: u32,
+) {
+    out.fill(0);
+    put(out, 0, SYNC);
+    out[O_VERSION] = version;
+    out[O_KIND] = kind;
+    out[O_CHANNEL] = channel;
+    put(out, O_SEQUENCE, sequence.to_le_bytes());
+    put(out, O_START, start.millis().to_le_bytes());
+    put_tally(out, tally);
+    put(out, O_SPIKES, spikes.to_le_bytes());
+}
+
 /// Writes the CRC-32 of a frame's bytes before it.
 fn seal(out: &mut [u8; FRAME_LEN]) {
     let crc = crc32(&out[..O_CRC]);
@@ -510,16 +532,16 @@ fn get_tally(b: &[u8; FRAME_LEN]) -> Tally {
 /// Writes `frame` into `out` as one record frame (layout in the module docs).
 pub fn encode_record(frame: &RecordFrame, out: &mut [u8; FRAME_LEN]) {
     let r = &frame.record;
-    out.fill(0);
-    put(out, 0, SYNC);
-    out[O_VERSION] = RECORD_VERSION;
-    out[O_KIND] = kind_code(r.kind);
-    out[O_CHANNEL] = frame.channel;
-    put(out, O_SEQUENCE, frame.sequence.to_le_bytes());
-    put(out, O_START, frame.interval_start.millis().to_le_bytes());
+    let head = (frame.sequence, frame.interval_start, frame.channel);
+    start_frame(
+        out,
+        RECORD_VERSION,
+        kind_code(r.kind),
+        head,
+        &r.tally,
+        r.spikes,
+    );
     put(out, O_POSSIBLE, r.n_possible.to_le_bytes());
-    put_tally(out, &r.tally);
-    put(out, O_SPIKES, r.spikes.to_le_bytes());
     put(out, O_FLAGS, r.flags.bits().to_le_bytes());
     let mut absent = [0u8; 5];
     for (i, s) in stats_of(r).iter().enumerate() {
@@ -596,7 +618,7 @@ pub fn decode_record(b: &[u8; FRAME_LEN]) -> Result<RecordFrame, WireError> {
 /// [`RECORD_VERSION`]).
 pub const STATE_VERSION: u8 = 0x81;
 
-const T_FORM: usize = 5;
+const T_FORM: usize = O_KIND;
 const T_CHANNELS: usize = 7;
 const T_FINGERPRINT: usize = 20;
 const T_GUST_PRESENT: usize = 44;
@@ -657,17 +679,17 @@ fn get_wide(b: &[u8; FRAME_LEN], at: usize) -> Wide {
 /// Writes `frame` into `out` as one state frame (layout in the module docs).
 pub fn encode_state(frame: &StateFrame, out: &mut [u8; FRAME_LEN]) {
     let s = &frame.state;
-    out.fill(0);
-    put(out, 0, SYNC);
-    out[O_VERSION] = STATE_VERSION;
-    out[T_FORM] = form_code(s.form);
-    out[O_CHANNEL] = frame.channel;
+    let head = (frame.sequence, frame.interval_start, frame.channel);
+    start_frame(
+        out,
+        STATE_VERSION,
+        form_code(s.form),
+        head,
+        &s.tally,
+        s.spikes,
+    );
     out[T_CHANNELS] = frame.channels;
-    put(out, O_SEQUENCE, frame.sequence.to_le_bytes());
-    put(out, O_START, frame.interval_start.millis().to_le_bytes());
     put(out, T_FINGERPRINT, frame.fingerprint.to_le_bytes());
-    put_tally(out, &s.tally);
-    put(out, O_SPIKES, s.spikes.to_le_bytes());
     let p = T_PAYLOAD;
     match s.form {
         StateForm::Speed | StateForm::Scalar => {
