@@ -342,7 +342,7 @@ impl Sequential<'_> {
         let mut parser: Option<Parser> = None;
         loop {
             let (offset, block) = blocks
-                .next()
+                .next_block()
                 .with_context(|| format!("cannot read {}", path.display()))?;
             if block.is_empty() {
                 break;
@@ -466,7 +466,7 @@ impl Blocks {
     /// The next block and its file offset: whole records up to the last
     /// terminator read so far, or the rest at the end of the file; empty at
     /// the end of the file.
-    pub fn next(&mut self) -> io::Result<(u64, &[u8])> {
+    pub fn next_block(&mut self) -> io::Result<(u64, &[u8])> {
         loop {
             let pending = &self.buf[self.start..self.end];
             let cut = match memchr::memrchr2(b'\n', b'\r', pending) {

@@ -1,0 +1,448 @@
+//! `tenmin`: replay wind-measurement field files through `qc-core`, the same
+//! statistics core the logger runs, and check a logger's records bit for bit.
+//!
+//! The CLI is thin: it reads files into core types, calls the core and writes
+//! what the core returns. See `CONTRACT.md` for the file formats and exit codes.
+
+#![forbid(unsafe_code)]
+// The library is the binary's body, public so that tests, fuzz targets and other
+// front ends reach the same code; its docs are for contributors and may link
+// private helpers.
+#![allow(rustdoc::private_intra_doc_links)]
+
+pub mod config;
+pub mod decode;
+pub mod demo;
+pub mod engine;
+pub mod export;
+pub mod logscan;
+pub mod parallel;
+pub mod records;
+pub mod replay;
+pub mod report;
+pub mod samples;
+pub mod summary;
+pub mod timefmt;
+pub mod verify;
+
+use std::fs::File;
+use std::io::{self, BufWriter, Write};
+use std::path::{Path, PathBuf};
+use std::process::ExitCode;
+
+use anyhow::{Context, Result};
+use clap::{Args, Parser, Subcommand};
+
+/// The file formats in brief, for `--help`.
+macro_rules! formats {
+    () => {
+        "Files:
+  station.toml  [logging] interval_s (default 600), sample_rate_hz (required),
+                missing_values (default [-999, -9999]); [station] name;
+                [[channel]] id, kind (speed | direction | scalar), unit, height_m,
+                range = [lo, hi], resolution, gust_window_s (speed, default 3),
+                offset_deg and speed_channel (direction), slope/offset for raw
+                counts (the column then holds integer counts); optional
+                [channel.screen] table overriding the screening defaults
+                (step_limit, mean_range, sd_range, gust_max, min_recovery,
+                flat_span_s, flat_tolerance, partner, above, icing, off = [...]).
+  samples CSV   header `time,<channel ids>` in any order; time RFC 3339
+                (2025-01-20T00:00:01Z, offsets like +01:00, up to .mmm) or epoch
+                seconds (decimal to ms); missing = empty, NaN or a missing-value code.
+  records CSV   start,end,channel,n_possible,n_valid,mean,sd,min,max,gust,flags,
+                n_missing,n_out_of_range,n_rejected,ti,resultant_length,
+                resultant_speed,resultant_direction,n_spikes: one row per interval
+                and channel, times UTC; empty field = no value; for direction, mean
+                is the unit-vector mean and sd is sigma-theta.
+"
+    };
+}
+
+/// The exit codes, for `--help`.
+macro_rules! exit_codes {
+    () => {
+        "Exit codes:
+  0  success (verify: every field of every row identical)
+  1  verify found differences
+  2  bad input, bad usage or an I/O error (the message names file, line and field)"
+    };
+}
+
+/// Replay wind-measurement samples through the logger's statistics core.
+#[derive(Parser, Debug)]
+#[command(
+    name = "tenmin",
+    version,
+    about = "Replay wind-measurement samples through the logger's statistics core",
+    long_about = "Replay wind-measurement samples (anemometers, vanes, thermometers) through \
+qc-core, the statistics core a logger runs, to get 10-minute records (mean, standard \
+deviation, min, max, gust, vector-mean direction, sigma-theta, recovery) bit-identical \
+to the logger's, or to check a logger's records against its samples.\n\n\
+Start with `tenmin demo`: it writes an invented station's files and walks through \
+replay and verify.",
+    after_help = exit_codes!(),
+    after_long_help = concat!(
+        "Examples:\n  tenmin demo\n  tenmin replay --config tenmin-demo/station.toml tenmin-demo/samples-*.csv -o records.csv\n\n",
+        formats!(),
+        "\n",
+        exit_codes!()
+    )
+)]
+pub struct Cli {
+    #[command(subcommand)]
+    command: Command,
+}
+
+#[derive(Subcommand, Debug)]
+pub enum Command {
+    /// Compute interval records from samples files.
+    #[command(
+        long_about = "Compute interval records (one row per interval and channel) from samples \
+files, replayed in the order given as one continuous record: duplicate and backward times \
+are rejected and counted by the core, also across files. Intervals with no samples are \
+written as rows with empty statistics. A summary (rows read, rejections, per-channel \
+recovery) goes to stderr.",
+        after_long_help = concat!(
+            "Example:\n  tenmin replay --config station.toml day-2025-01-20.csv day-2025-01-21.csv -o records.csv\n\n",
+formats!(),
+            "\n",
+            "Exit codes:\n  0  success\n  2  bad input, bad usage or an I/O error (the message names file, line and field)"
+        )
+    )]
+    Replay(ReplayArgs),
+    /// Check a logger's records file against its samples, field by field.
+    #[command(
+        long_about = "Replay the samples and compare every field of every row with a records \
+file written by the logger. Numbers must have identical bits; a difference is listed with \
+the interval start, channel, field, both values and how many units in the last place (ulps) \
+they are apart. Missing and extra rows are differences too. The logger's file must be in \
+time order; channels within an interval may come in any order.",
+        after_long_help = concat!(
+            "Example:\n  tenmin verify --config station.toml --samples day-*.csv --records logger-records.csv\n\n",
+            "Files: as for `tenmin replay --help`; --records is a records CSV.\n\n",
+            "Exit codes:\n  0  every field of every row identical\n  1  differences found (listed on stdout)\n  2  bad input, bad usage or an I/O error (the message names file, line and field)"
+        )
+    )]
+    Verify(VerifyArgs),
+    /// Write an invented station's files, then replay and verify them.
+    #[command(
+        long_about = "Write an invented scenario: a station file, daily 1 Hz samples files with \
+planted problems (logger outages with rows absent, missing-value code blocks, a vane stuck \
+in a cold humid spell, an anemometer that drops out only in strong wind), and the logger's \
+records computed through qc-core as the logger firmware would. Then replay the samples from \
+disk, verify them against the logger's records and print a short summary. Needs nothing \
+downloaded; the data are made up and describe no real site.",
+        after_long_help = concat!(
+            "Example:\n  tenmin demo --out tenmin-demo --days 2 --seed 1\n\n",
+            "Writes DIR/station.toml, DIR/samples-YYYY-MM-DD.csv (one per day), DIR/logger-records.csv.\n\n",
+            "Exit codes:\n  0  success\n  1  the demo's verify found differences (a bug: please report it)\n  2  bad usage or an I/O error"
+        )
+    )]
+    Demo(DemoArgs),
+    /// Write an HTML report (recovery, missing data, wind rose, distributions) from records.
+    #[command(
+        long_about = "Read records files (as `tenmin replay` writes them) and write DIR/report.html, \
+one self-contained page with SVG charts: recovery per channel and month against the usual 90 % target, \
+missing-data diagnostics (are gaps independent of hour, month, wind speed, direction and temperature?), \
+the wind rose, the speed distribution with its Weibull fit, turbulence intensity against the IEC 61400-1 \
+normal turbulence model, and wind shear. The tables go to DIR as CSV files; a short summary goes to stdout. \
+See host-cli/REPORT.md.",
+        after_long_help = concat!(
+            "Example:\n  tenmin report --config station.toml records.csv --out report --sectors 12\n\n",
+            "Files: station and records as for `tenmin replay --help`.\n\n",
+            "Exit codes:\n  0  success\n  2  bad input, bad usage or an I/O error (the message names file, line and field)"
+        )
+    )]
+    Report(report::ReportArgs),
+    /// Write samples files as a binary sample file for a logger under test to replay.
+    #[command(
+        long_about = "Read samples files exactly as `tenmin replay` reads them (same columns, times, \
+missing readings, errors and --skip-bad-rows) and write them as one binary sample file: a header \
+holding the station file's whole configuration (interval, samples per interval, missing-value codes, \
+every channel's kind, scale, range, gust window, mounting offset, speed link and screening settings), \
+then one CRC-protected frame per row with the readings as the core receives them (values, raw counts \
+or missing). Duplicate and backward times are kept: the logger's station rejects and counts them as \
+the replay's does. The format is qc_core::wire (see CONTRACT.md, `Export`). A summary goes to stderr.",
+        after_long_help = concat!(
+            "Example:\n  tenmin export --config station.toml day-2025-01-20.csv -o day.tmsf\n\n",
+            "Files: station and samples as for `tenmin replay --help`.\n\n",
+            "Exit codes:\n  0  success\n  2  bad input, bad usage or an I/O error (the message names file, line and field)"
+        )
+    )]
+    Export(ExportArgs),
+    /// Turn a logger's log (record or state frames) into records CSV, reporting damaged frames.
+    #[command(
+        long_about = "Read a logger's log (qc_core::wire frames, as the example firmware writes them), \
+report damaged and torn spans with their byte offsets on stderr, and write records CSV in the \
+replay's columns. The first good frame decides the kind of log; a frame of the other kind later is \
+an error.
+
+A record log holds the statistics the logger finished itself: every good frame is a row.
+
+A state log holds, per interval and channel, the exact integer end state, written by a logger that \
+leaves finishing to the PC: the states of each interval are finished and screened here, in time \
+order, and the rows are those the logger's own station would have written, bit for bit. A state log \
+needs the same station file the logger was built with: every state frame carries the fingerprint of \
+the logger's configuration, and a frame whose fingerprint differs from the station file's (a \
+setting of the statistics or the screening changed) stops the command. An interval some of whose states were lost \
+is finished without them: rows only for the channels whose states arrived, and its cross-channel \
+screening flags (pair, shear, icing) treat the lost channels as having no samples (reported on \
+stderr).
+
+Intervals with no samples between the first and last frame (the logger writes no frames for them) \
+are written as the replay writes them, so that `tenmin verify` can check the log against the \
+samples. Lost frames (a gap in the frames' sequence numbers) leave their rows out, and the \
+intervals around them with no frame are not written. Frames that do not match the station file are \
+an error.",
+        after_long_help = concat!(
+            "Example:\n  tenmin decode --config station.toml logger.log -o records.csv\n  tenmin verify --config station.toml --samples day-*.csv --records records.csv\n\n",
+            "Exit codes:\n  0  the log was read (damage, if any, reported on stderr)\n  1  with --strict: damaged, torn, lost or out-of-order frames, or an interval of a state log\n     without some channels' states (records still written)\n  2  bad input, bad usage or an I/O error; frames that do not match the station file (a state\n     log of another configuration); a log mixing record and state frames"
+        )
+    )]
+    Decode(DecodeArgs),
+}
+
+#[derive(Args, Debug)]
+pub struct ExportArgs {
+    /// Station file (TOML).
+    #[arg(long, short = 'c', value_name = "STATION.toml")]
+    config: PathBuf,
+    /// Samples CSV files, in this order as one record.
+    #[arg(required = true, value_name = "SAMPLES")]
+    samples: Vec<PathBuf>,
+    /// The sample file to write.
+    #[arg(long, short = 'o', value_name = "OUT.tmsf")]
+    output: PathBuf,
+    /// Count bad rows in the summary and go on, instead of stopping at the first.
+    #[arg(long)]
+    skip_bad_rows: bool,
+    /// Do not print the summary on stderr.
+    #[arg(long, short = 'q')]
+    quiet: bool,
+    /// A forward jump between consecutive samples larger than this many days stops the
+    /// command, as in `tenmin replay`.
+    #[arg(long, default_value_t = samples::DEFAULT_MAX_GAP_DAYS, value_name = "D",
+          value_parser = clap::value_parser!(u32).range(1..))]
+    max_gap_days: u32,
+}
+
+#[derive(Args, Debug)]
+pub struct DecodeArgs {
+    /// Station file (TOML) of the logger that wrote the log (for a state log, the one
+    /// the logger was built with).
+    #[arg(long, short = 'c', value_name = "STATION.toml")]
+    config: PathBuf,
+    /// The log: record frames or state frames.
+    #[arg(value_name = "LOG")]
+    log: PathBuf,
+    /// Write records here instead of stdout.
+    #[arg(long, short = 'o', value_name = "RECORDS.csv")]
+    output: Option<PathBuf>,
+    /// Exit with 1 when anything was damaged, torn, lost or out of order (in a state log,
+    /// also when an interval lacks some channels' states).
+    #[arg(long)]
+    strict: bool,
+    /// Print on stderr only the problems, not the summary of a clean log.
+    #[arg(long, short = 'q')]
+    quiet: bool,
+    /// Empty intervals between two frames (consecutive sequence numbers) spanning more
+    /// than this many days stop the command: a wrong logger clock would otherwise write an
+    /// empty row per interval, as in `tenmin replay`.
+    #[arg(long, default_value_t = samples::DEFAULT_MAX_GAP_DAYS, value_name = "D",
+          value_parser = clap::value_parser!(u32).range(1..))]
+    max_gap_days: u32,
+}
+
+#[derive(Args, Debug)]
+pub struct ReplayArgs {
+    /// Station file (TOML).
+    #[arg(long, short = 'c', value_name = "STATION.toml")]
+    config: PathBuf,
+    /// Samples CSV files, replayed in this order as one record.
+    #[arg(required = true, value_name = "SAMPLES")]
+    samples: Vec<PathBuf>,
+    /// Write records here instead of stdout.
+    #[arg(long, short = 'o', value_name = "RECORDS.csv")]
+    output: Option<PathBuf>,
+    #[command(flatten)]
+    input: InputArgs,
+}
+
+#[derive(Args, Debug)]
+pub struct InputArgs {
+    /// Count bad rows in the summary and go on, instead of stopping at the first.
+    #[arg(long)]
+    skip_bad_rows: bool,
+    /// Do not print the summary on stderr.
+    #[arg(long, short = 'q')]
+    quiet: bool,
+    /// Threads reading samples [default: the available cores, at most 2]. With 1, one
+    /// thread reads and replays; the records are the same either way.
+    #[arg(long, short = 'j', value_name = "N", value_parser = clap::value_parser!(u16).range(1..))]
+    jobs: Option<u16>,
+    /// A forward jump between consecutive samples larger than this many days stops the
+    /// command (a wrong logger clock would otherwise write an empty row per interval).
+    #[arg(long, default_value_t = samples::DEFAULT_MAX_GAP_DAYS, value_name = "D",
+          value_parser = clap::value_parser!(u32).range(1..))]
+    max_gap_days: u32,
+    /// Bytes per chunk of parallel replay (for testing).
+    #[arg(long, hide = true, default_value_t = samples::DEFAULT_CHUNK_SIZE as u64,
+          value_parser = clap::value_parser!(u64).range(64..=1 << 30))]
+    chunk_size: u64,
+}
+
+#[derive(Args, Debug)]
+pub struct VerifyArgs {
+    /// Station file (TOML).
+    #[arg(long, short = 'c', value_name = "STATION.toml")]
+    config: PathBuf,
+    /// Samples CSV files, replayed in this order as one record.
+    #[arg(long, required = true, num_args = 1.., value_name = "SAMPLES")]
+    samples: Vec<PathBuf>,
+    /// The logger's records CSV.
+    #[arg(long, value_name = "LOGGER.csv")]
+    records: PathBuf,
+    /// List at most this many differences (the rest are counted).
+    #[arg(long, default_value_t = 20, value_name = "N")]
+    max_diffs: usize,
+    #[command(flatten)]
+    input: InputArgs,
+}
+
+#[derive(Args, Debug)]
+pub struct DemoArgs {
+    /// Folder to write into (created if needed).
+    #[arg(long, default_value = "tenmin-demo", value_name = "DIR")]
+    out: PathBuf,
+    /// Days of 1 Hz samples.
+    #[arg(long, default_value_t = 2, value_parser = clap::value_parser!(u32).range(1..=366), value_name = "N")]
+    days: u32,
+    /// Random seed of the invented weather and faults.
+    #[arg(long, default_value_t = 1, value_name = "N")]
+    seed: u64,
+}
+
+/// The whole command: parses the arguments, runs, prints errors; the binary's `main`.
+pub fn main() -> ExitCode {
+    let cli = match Cli::try_parse() {
+        Ok(cli) => cli,
+        Err(e) => {
+            let code = if e.use_stderr() { 2 } else { 0 };
+            let _ = e.print();
+            return ExitCode::from(code);
+        }
+    };
+    match run(cli) {
+        Ok(code) => code,
+        Err(e) if is_broken_pipe(&e) => ExitCode::SUCCESS,
+        Err(e) => {
+            eprintln!("tenmin: error: {e:#}");
+            ExitCode::from(2)
+        }
+    }
+}
+
+fn is_broken_pipe(e: &anyhow::Error) -> bool {
+    e.chain().any(|c| {
+        c.downcast_ref::<io::Error>()
+            .is_some_and(|io| io.kind() == io::ErrorKind::BrokenPipe)
+    })
+}
+
+fn run(cli: Cli) -> Result<ExitCode> {
+    match cli.command {
+        Command::Replay(a) => replay_cmd(a),
+        Command::Verify(a) => verify_cmd(a),
+        Command::Demo(a) => demo::run(&a.out, a.days, a.seed),
+        Command::Report(a) => report::run(&a),
+        Command::Export(a) => export::run(&a),
+        Command::Decode(a) => decode::run(&a),
+    }
+}
+
+fn options(a: &InputArgs) -> samples::Options {
+    samples::Options {
+        skip_bad_rows: a.skip_bad_rows,
+        progress: true,
+        jobs: a.jobs.map_or_else(replay::default_jobs, usize::from),
+        chunk_size: a.chunk_size as usize,
+        max_gap_days: a.max_gap_days,
+    }
+}
+
+fn ids(cfg: &config::StationFile) -> Vec<String> {
+    cfg.channels.iter().map(|c| c.id.clone()).collect()
+}
+
+fn replay_cmd(a: ReplayArgs) -> Result<ExitCode> {
+    let cfg = config::load(&a.config)?;
+    let summary = match &a.output {
+        Some(path) => write_atomically(path, |w| {
+            let mut writer = records::Writer::new(w, ids(&cfg))?;
+            let s = replay::replay(&cfg, &a.samples, options(&a.input), &mut writer)?;
+            writer.finish()?;
+            Ok(s)
+        })?,
+        None => {
+            let stdout = io::stdout();
+            let mut writer = records::Writer::new(BufWriter::new(stdout.lock()), ids(&cfg))?;
+            let s = replay::replay(&cfg, &a.samples, options(&a.input), &mut writer)?;
+            writer.finish()?;
+            s
+        }
+    };
+    if !a.input.quiet {
+        let _ = summary.write(&mut io::stderr().lock(), &cfg);
+    }
+    Ok(ExitCode::SUCCESS)
+}
+
+/// Writes `path` through a sibling `.partial` file renamed on success, so an
+/// error never leaves a truncated records file under the real name.
+fn write_atomically<T>(
+    path: &Path,
+    f: impl FnOnce(&mut BufWriter<File>) -> Result<T>,
+) -> Result<T> {
+    let mut tmp = path.as_os_str().to_owned();
+    tmp.push(".partial");
+    let tmp = PathBuf::from(tmp);
+    let file = File::create(&tmp).with_context(|| format!("cannot create {}", tmp.display()))?;
+    let mut w = BufWriter::new(file);
+    let result = f(&mut w).and_then(|v| {
+        w.flush()
+            .with_context(|| format!("cannot write {}", tmp.display()))?;
+        Ok(v)
+    });
+    match result {
+        Ok(v) => {
+            drop(w);
+            std::fs::rename(&tmp, path).with_context(|| {
+                format!("cannot rename {} to {}", tmp.display(), path.display())
+            })?;
+            Ok(v)
+        }
+        Err(e) => {
+            drop(w);
+            let _ = std::fs::remove_file(&tmp);
+            Err(e)
+        }
+    }
+}
+
+fn verify_cmd(a: VerifyArgs) -> Result<ExitCode> {
+    let cfg = config::load(&a.config)?;
+    let mut cmp = verify::Comparer::open(&a.records, ids(&cfg), a.max_diffs)?;
+    let summary = replay::replay(&cfg, &a.samples, options(&a.input), &mut cmp)?;
+    let report = cmp.finish()?;
+    if !a.input.quiet {
+        let _ = summary.write(&mut io::stderr().lock(), &cfg);
+    }
+    let mut out = io::stdout().lock();
+    verify::print_report(&mut out, &report, &a.records)?;
+    out.flush()?;
+    Ok(if report.total == 0 {
+        ExitCode::SUCCESS
+    } else {
+        ExitCode::from(1)
+    })
+}
