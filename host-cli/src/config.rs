@@ -526,7 +526,11 @@ fn build_channel(
     // Screening settings: the core's defaults for the kind (`Screen::for_kind`),
     // already in `core`, overridden by the `[channel.screen]` table.
     if let Some(sc) = &raw.screen {
-        core = core.with_screen(build_screen(sc, core.screen, rk, ids, kinds, &err)?);
+        let own = ids
+            .iter()
+            .position(|x| *x == id.as_str())
+            .unwrap_or(usize::MAX);
+        core = core.with_screen(build_screen(sc, core.screen, rk, (ids, kinds, own), &err)?);
     }
     Ok(ChannelSpec {
         id: id.clone(),
@@ -548,8 +552,7 @@ fn build_screen(
     spanned: &Spanned<RawScreen>,
     base: Screen,
     rk: RawKind,
-    ids: &[&str],
-    kinds: &[RawKind],
+    (ids, kinds, own): (&[&str], &[RawKind], usize),
     err: &dyn Fn(Range<usize>, String) -> anyhow::Error,
 ) -> Result<Screen> {
     let raw = spanned.get_ref();
@@ -578,6 +581,12 @@ fn build_screen(
     };
     let channel = |key: &str, name: &str, span: Range<usize>, want: RawKind| -> Result<u8> {
         match ids.iter().position(|x| *x == name) {
+            Some(i) if i == own && matches!(key, "partner" | "above") => Err(err(
+                span,
+                format!(
+                    "`screen.{key}` names {name:?}, the channel itself: name another speed channel (partner: the redundant anemometer; above: the next higher one)"
+                ),
+            )),
             Some(i) if std::mem::discriminant(&kinds[i]) == std::mem::discriminant(&want) => {
                 Ok(i as u8)
             }
@@ -834,6 +843,14 @@ offset = 1
         );
         let e = with("partner = \"nope\"");
         assert!(e.contains("not a channel id"), "{e}");
+        // A channel compared with itself: the pair and shear tests could never fire.
+        for key in ["partner", "above"] {
+            let e = with(&format!("{key} = \"ws\""));
+            assert!(
+                e.contains("the channel itself") && e.contains("st.toml:16:"),
+                "{e}"
+            );
+        }
         let e = with("min_recovery = 1.5");
         assert!(e.contains("fraction"), "{e}");
         let e = with("off = [\"clock\"]");

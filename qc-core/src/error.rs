@@ -49,8 +49,9 @@ pub enum ChannelProblem {
     /// A screening setting is out of its domain (NaN, negative limit, low end
     /// above high end, recovery outside 0 to 1).
     Screen,
-    /// A screening test names a channel that does not exist or is of the wrong
-    /// kind (partner and above: speed; icing: scalar temperature and humidity).
+    /// A screening test names a channel that does not exist, is of the wrong
+    /// kind (partner and above: speed; icing: scalar temperature and humidity),
+    /// or is the channel itself (partner, above).
     ScreenLink,
 }
 
@@ -65,7 +66,7 @@ impl fmt::Display for ChannelProblem {
             ChannelProblem::DirectionSlope => "direction calibration slope must be at most 300 degrees per count",
             ChannelProblem::MountingOffset => "mounting offset must be within -360 to 360 degrees",
             ChannelProblem::Screen => "screening setting out of range (NaN, negative limit, low above high, or recovery outside 0..1)",
-            ChannelProblem::ScreenLink => "screening names a missing channel or one of the wrong kind (partner/above: speed; icing: scalar temperature and humidity)",
+            ChannelProblem::ScreenLink => "screening names a missing channel, one of the wrong kind (partner/above: speed; icing: scalar temperature and humidity) or the channel itself (partner/above)",
         })
     }
 }

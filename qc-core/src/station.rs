@@ -384,9 +384,14 @@ impl<const C: usize> Layout<C> {
                 }
                 None => true,
             };
+            // A pair or shear test of a channel against itself would compare
+            // equal means and never fire: refused like a missing channel.
+            let not_itself = !matches!(sc.partner, Some(j) if j == index)
+                && !matches!(sc.above, Some(j) if j == index);
             if !(link_is(channels, sc.partner, Kind::Speed)
                 && link_is(channels, sc.above, Kind::Speed)
-                && icing_ok)
+                && icing_ok
+                && not_itself)
             {
                 return Err(ConfigError::Channel {
                     index,
@@ -1198,6 +1203,41 @@ mod tests {
         for n in [i64::MIN, i64::MIN + 1, -1, 0, 1, i64::MAX] {
             for d in ds {
                 assert_eq!(div_floor(n, d), n.div_euclid(d), "{n} / {d}");
+            }
+        }
+    }
+
+    #[test]
+    fn a_pair_or_shear_test_against_the_channel_itself_is_refused() {
+        use super::{Layout, StationConfig};
+        use crate::{ChannelConfig, ChannelProblem, ConfigError, Kind, Screen};
+        for self_link in [true, false] {
+            for pair in [true, false] {
+                let mut s = Screen::for_kind(Kind::Speed);
+                let other = if self_link { 0 } else { 1 };
+                if pair {
+                    s.partner = Some(other);
+                } else {
+                    s.above = Some(other);
+                }
+                let r = Layout::<2>::new::<3>(
+                    StationConfig::ten_minute_1hz(),
+                    &[
+                        ChannelConfig::speed(0.01).with_screen(s),
+                        ChannelConfig::speed(0.01),
+                    ],
+                );
+                if self_link {
+                    assert_eq!(
+                        r.err(),
+                        Some(ConfigError::Channel {
+                            index: 0,
+                            problem: ChannelProblem::ScreenLink
+                        })
+                    );
+                } else {
+                    assert!(r.is_ok());
+                }
             }
         }
     }
