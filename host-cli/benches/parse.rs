@@ -2,22 +2,6 @@
 //! generated day of 1 Hz samples from a demo-like station (6 channels): how
 //! many MB/s of CSV the reader alone, the core alone, and both together
 //! manage on one thread. `cargo bench -p host-cli --bench parse`.
-//!
-//! `host-cli` is a binary crate, so the modules are included by path.
-
-#![allow(dead_code)]
-// The included modules' unit tests are compiled out here (no test harness),
-// which leaves their `use super::*` unused when clippy checks all targets.
-#![cfg_attr(test, allow(unused_imports))]
-
-#[path = "../src/config.rs"]
-mod config;
-#[path = "../src/engine.rs"]
-mod engine;
-#[path = "../src/samples.rs"]
-mod samples;
-#[path = "../src/timefmt.rs"]
-mod timefmt;
 
 use std::hint::black_box;
 use std::path::Path;
@@ -25,8 +9,9 @@ use std::path::Path;
 use criterion::{criterion_group, criterion_main, Criterion, Throughput};
 use qc_core::{ChannelRecord, Reading, Timestamp};
 
-use crate::engine::Sink;
-use crate::samples::{Parser, Records};
+use host_cli::engine::Sink;
+use host_cli::samples::{Parser, Records};
+use host_cli::{config, engine, samples};
 
 const STATION: &str = r#"
 [logging]

@@ -52,7 +52,7 @@
 use std::ops::Range;
 use std::path::{Path, PathBuf};
 
-use anyhow::{anyhow, bail, Context, Result};
+use anyhow::{anyhow, bail, Result};
 use qc_core::{
     ChannelConfig, ConfigError, Icing, Kind, Layout, Screen, StationConfig, MAX_SENTINELS,
 };
@@ -191,8 +191,7 @@ pub struct StationFile {
 
 /// Reads and checks a station file.
 pub fn load(path: &Path) -> Result<StationFile> {
-    let bytes = std::fs::read(path)
-        .with_context(|| format!("cannot read station file {}", path.display()))?;
+    let bytes = crate::limits::read_station_file(path)?;
     let text = String::from_utf8(bytes).map_err(|e| {
         let line = 1 + e.as_bytes()[..e.utf8_error().valid_up_to()]
             .iter()

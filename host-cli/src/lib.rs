@@ -15,6 +15,7 @@ pub mod decode;
 pub mod demo;
 pub mod engine;
 pub mod export;
+pub mod limits;
 pub mod logscan;
 pub mod parallel;
 pub mod records;
@@ -285,9 +286,13 @@ pub struct InputArgs {
     #[arg(long, default_value_t = samples::DEFAULT_MAX_GAP_DAYS, value_name = "D",
           value_parser = clap::value_parser!(u32).range(1..))]
     max_gap_days: u32,
+    /// Accept data rows that give no records at all (every row bad and skipped with
+    /// --skip-bad-rows); without it, that is an error (exit 2).
+    #[arg(long)]
+    allow_no_records: bool,
     /// Bytes per chunk of parallel replay (for testing).
     #[arg(long, hide = true, default_value_t = samples::DEFAULT_CHUNK_SIZE as u64,
-          value_parser = clap::value_parser!(u64).range(64..=1 << 30))]
+          value_parser = clap::value_parser!(u64).range(64..=1 << 23))]
     chunk_size: u64,
 }
 
@@ -367,6 +372,7 @@ fn options(a: &InputArgs) -> samples::Options {
         jobs: a.jobs.map_or_else(replay::default_jobs, usize::from),
         chunk_size: a.chunk_size as usize,
         max_gap_days: a.max_gap_days,
+        allow_no_records: a.allow_no_records,
     }
 }
 

@@ -42,6 +42,7 @@ use qc_core::{
 
 use crate::config::{StationFile, MAX_CHANNELS};
 use crate::engine::{Out, Sink, G};
+use crate::limits::{self, LongRecord, MAX_RECORD_BYTES};
 use crate::samples::{
     check_jump, csv_rows, file_len, split_fields, BadRow, InputStats, Options, Parser, Progress,
     Records,
@@ -695,7 +696,10 @@ impl Chunks {
                 self.carry.extend_from_slice(&buf[p + 1..]);
                 buf.truncate(p + 1);
             } else if !self.eof {
-                // A record longer than the chunk: read on.
+                // A record longer than the chunk: read on, up to the limit.
+                if buf.len() > MAX_RECORD_BYTES {
+                    return Err(LongRecord::io());
+                }
                 buf.reserve(buf.len());
                 continue;
             }
@@ -744,7 +748,7 @@ fn read_file(
     loop {
         let Some((offset, block)) = chunks
             .next(opts.chunk_size)
-            .with_context(|| format!("cannot read {}", path.display()))?
+            .map_err(|e| limits::read_error(e, path, line))?
         else {
             break;
         };

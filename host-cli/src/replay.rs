@@ -3,7 +3,7 @@
 
 use std::path::PathBuf;
 
-use anyhow::Result;
+use anyhow::{bail, Result};
 
 use crate::config::StationFile;
 use crate::engine::{self, Sink};
@@ -57,24 +57,38 @@ pub fn replay(
     sink: &mut dyn Sink,
 ) -> Result<Summary> {
     let mut counting = Counting::new(sink, cfg.channels.len());
-    if opts.jobs > 1 {
-        let (input, pushed, recovery) = parallel::replay(cfg, files, opts, &mut counting)?;
-        return Ok(Summary {
-            input,
-            pushed,
-            recovery,
-            record_rows: counting.rows,
-        });
-    }
-    let (input, pushed, recovery) = {
+    let (input, pushed, recovery) = if opts.jobs > 1 {
+        parallel::replay(cfg, files, opts, &mut counting)?
+    } else {
         let mut engine = engine::new(cfg, &mut counting)?;
         let input = samples::feed(files, cfg, opts, engine.as_mut())?;
         (input, engine.totals(), engine.recovery())
     };
-    Ok(Summary {
+    let summary = Summary {
         input,
         pushed,
         recovery,
         record_rows: counting.rows,
-    })
+    };
+    no_records_unless_allowed(&summary, files, opts)?;
+    Ok(summary)
+}
+
+/// Data rows that gave no records at all (every one bad, and skipped) are an
+/// error unless `--allow-no-records` says they may be: an empty records file
+/// from a non-empty input is never a silent success.
+fn no_records_unless_allowed(s: &Summary, files: &[PathBuf], opts: Options) -> Result<()> {
+    if s.input.rows == 0 || s.record_rows > 0 || opts.allow_no_records {
+        return Ok(());
+    }
+    let names: Vec<String> = files.iter().map(|f| f.display().to_string()).collect();
+    bail!(
+        "{}: {} data row(s) read, no records: every row was bad (skipped: {} wrong field count, {} bad time, {} bad value, {} not UTF-8); add --allow-no-records to accept an empty result",
+        names.join(", "),
+        s.input.rows,
+        s.input.bad.field_count,
+        s.input.bad.time,
+        s.input.bad.value,
+        s.input.bad.encoding
+    )
 }

@@ -27,6 +27,7 @@ use qc_core::{Pushed, Reading, Timestamp};
 
 use crate::config::{Decode, StationFile};
 use crate::engine::Engine;
+use crate::limits::{self, LongRecord, MAX_RECORD_BYTES};
 use crate::timefmt::{parse_time, Rfc3339, TimeError};
 
 /// Default `--max-gap-days`.
@@ -52,6 +53,9 @@ pub struct Options {
     /// A forward time jump between consecutive accepted samples larger than
     /// this many days is an error.
     pub max_gap_days: u32,
+    /// Data rows that give no records (every one bad and skipped) are not an
+    /// error.
+    pub allow_no_records: bool,
 }
 
 impl Default for Options {
@@ -62,6 +66,7 @@ impl Default for Options {
             jobs: 1,
             chunk_size: DEFAULT_CHUNK_SIZE,
             max_gap_days: DEFAULT_MAX_GAP_DAYS,
+            allow_no_records: false,
         }
     }
 }
@@ -343,7 +348,7 @@ impl Sequential<'_> {
         loop {
             let (offset, block) = blocks
                 .next_block()
-                .with_context(|| format!("cannot read {}", path.display()))?;
+                .map_err(|e| limits::read_error(e, path, line))?;
             if block.is_empty() {
                 break;
             }
@@ -411,17 +416,17 @@ pub fn csv_rows<E: From<anyhow::Error>>(
     parser: &mut Option<Parser>,
     mut row: impl FnMut(&mut Parser, u64, &ByteRecord) -> Result<(), E>,
 ) -> Result<bool, E> {
-    let mut rdr = csv::ReaderBuilder::new()
-        .has_headers(false)
-        .flexible(true)
-        .from_reader(rest);
+    let mut rdr = limits::csv_reader(rest);
     let mut rec = ByteRecord::new();
     // The csv reader numbers lines from 1 at `rest`.
     let at = |rec: &ByteRecord| line - 1 + rec.position().map_or(1, |p| p.line());
     loop {
-        let more = rdr
-            .read_byte_record(&mut rec)
-            .with_context(|| format!("cannot read {}", path.display()))?;
+        let next = line - 1 + rdr.position().line();
+        let more = limits::read_csv(&mut rdr, &mut rec).map_err(|e| {
+            limits::csv_long_record(&e, path, next).unwrap_or_else(|| {
+                anyhow::Error::new(e).context(format!("cannot read {}", path.display()))
+            })
+        })?;
         if !more {
             return Ok(parser.is_some());
         }
@@ -465,7 +470,8 @@ impl Blocks {
 
     /// The next block and its file offset: whole records up to the last
     /// terminator read so far, or the rest at the end of the file; empty at
-    /// the end of the file.
+    /// the end of the file. A record longer than [`MAX_RECORD_BYTES`] is a
+    /// [`LongRecord`] error, so the buffer stays bounded.
     pub fn next_block(&mut self) -> io::Result<(u64, &[u8])> {
         loop {
             let pending = &self.buf[self.start..self.end];
@@ -489,6 +495,9 @@ impl Blocks {
                 self.end -= self.start;
                 self.start = 0;
                 self.last = 0;
+            }
+            if self.end > MAX_RECORD_BYTES {
+                return Err(LongRecord::io());
             }
             if self.end == self.buf.len() {
                 // A record longer than the buffer.
@@ -955,8 +964,10 @@ impl TimeCache {
                 return Some((Timestamp::from_millis(base + ms), 20));
             }
         }
-        let n = b.iter().take(16).take_while(|c| c.is_ascii_digit()).count();
-        if n == 0 || n > 15 {
+        // At most 11 digits (year 5138), inside the supported span: longer
+        // numbers take the checked way of `parse_time`.
+        let n = b.iter().take(12).take_while(|c| c.is_ascii_digit()).count();
+        if n == 0 || n > 11 {
             return None;
         }
         let secs = b[..n]
@@ -975,7 +986,7 @@ impl TimeCache {
                 }
             }
         }
-        if !f.is_empty() && f.len() <= 15 && f.iter().all(u8::is_ascii_digit) {
+        if !f.is_empty() && f.len() <= 11 && f.iter().all(u8::is_ascii_digit) {
             let secs = f.iter().fold(0i64, |s, c| s * 10 + i64::from(c - b'0'));
             return Ok(Timestamp::from_millis(secs * 1000));
         }

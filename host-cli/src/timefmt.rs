@@ -27,7 +27,19 @@ pub enum TimeError {
     Overflow,
     /// Not UTF-8 text.
     Encoding,
+    /// A valid time outside the supported span of sample times
+    /// ([`SAMPLES_FROM`] to [`SAMPLES_END`]).
+    Unsupported,
 }
+
+/// The first supported sample time, 0000-01-01T00:00:00Z.
+pub const SAMPLES_FROM: Timestamp = Timestamp::MIN;
+
+/// The end of the supported sample times (exclusive), 9999-12-31T00:00:00Z: the
+/// last day of the year 9999 stays free, so that every interval of a supported
+/// sample (at most a day long) ends at a time RFC 3339 can write, and every
+/// records file tenmin writes reads back.
+pub const SAMPLES_END: Timestamp = Timestamp::from_millis(253_402_214_400_000);
 
 impl fmt::Display for TimeError {
     fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
@@ -44,16 +56,29 @@ impl fmt::Display for TimeError {
             TimeError::Precision => "time finer than a millisecond: at most 3 non-zero decimals of a second",
             TimeError::Overflow => "epoch seconds out of range",
             TimeError::Encoding => "the time is not valid UTF-8",
+            TimeError::Unsupported => "the time is outside the supported span of sample times, 0000-01-01T00:00:00Z to 9999-12-30T23:59:59.999Z (a 13-digit epoch number is milliseconds: tenmin reads epoch seconds)",
         })
     }
 }
 
 /// Parses a sample time: RFC 3339 (`Z` or a numeric offset, optional fraction
 /// of a second to the millisecond) or epoch seconds (integer, or decimal to the
-/// millisecond). Surrounding ASCII spaces are ignored. The result may lie
-/// outside the years 0000-9999 (epoch seconds, or an offset at the edge); the
-/// station then rejects and counts the sample.
+/// millisecond). Surrounding ASCII spaces are ignored. A time outside
+/// [`SAMPLES_FROM`]..[`SAMPLES_END`] is [`TimeError::Unsupported`]: refused
+/// when read, never dropped later.
 pub fn parse_time(field: &[u8]) -> Result<Timestamp, TimeError> {
+    let t = parse_time_any(field)?;
+    if t >= SAMPLES_FROM && t < SAMPLES_END {
+        Ok(t)
+    } else {
+        Err(TimeError::Unsupported)
+    }
+}
+
+/// [`parse_time`] without the span check, for the times of records files
+/// (an interval's end may be [`SAMPLES_END`] itself). The result may lie
+/// outside the years 0000-9999 (epoch seconds, or an offset at the edge).
+pub fn parse_time_any(field: &[u8]) -> Result<Timestamp, TimeError> {
     let b = field.trim_ascii();
     if b.is_empty() {
         return Err(TimeError::Empty);

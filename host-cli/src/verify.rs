@@ -17,8 +17,9 @@ use anyhow::{anyhow, bail, Context, Result};
 use qc_core::{ChannelRecord, Flag, Timestamp};
 
 use crate::engine::Sink;
+use crate::limits::{self, Capped};
 use crate::records::{ulp_distance, write_row, Type, COLUMNS};
-use crate::timefmt::{parse_time, Rfc3339};
+use crate::timefmt::{parse_time_any as parse_time, Rfc3339};
 
 /// One difference found.
 #[derive(Clone, Debug)]
@@ -152,7 +153,7 @@ struct Group {
 /// The logger's records file, read one interval at a time.
 struct LoggerFile {
     path: PathBuf,
-    rdr: csv::Reader<BufReader<File>>,
+    rdr: csv::Reader<Capped<BufReader<File>>>,
     record: csv::StringRecord,
     n_fields: usize,
     /// For each of our columns, its index in the logger file.
@@ -165,14 +166,12 @@ struct LoggerFile {
 impl LoggerFile {
     fn open(path: &Path, report: &mut Report) -> Result<Self> {
         let file = File::open(path).with_context(|| format!("cannot open {}", path.display()))?;
-        let mut rdr = csv::ReaderBuilder::new()
-            .has_headers(false)
-            .flexible(true)
-            .from_reader(BufReader::new(file));
+        let mut rdr = limits::csv_reader(BufReader::new(file));
         let mut record = csv::StringRecord::new();
         let got = rdr
             .read_record(&mut record)
-            .map_err(|e| csv_error(path, e))?;
+            .map_err(|e| csv_error(path, e, 1))?;
+        limits::rearm(&mut rdr);
         if !got {
             bail!(
                 "{}:1: empty file: expected a records header starting `start,end,channel,...`",
@@ -241,11 +240,13 @@ impl LoggerFile {
     }
 
     fn read_row(&mut self) -> Result<Option<(i64, String, LoggerRow)>> {
-        if !self
+        let next_line = self.rdr.position().line();
+        let more = self
             .rdr
             .read_record(&mut self.record)
-            .map_err(|e| csv_error(&self.path, e))?
-        {
+            .map_err(|e| csv_error(&self.path, e, next_line))?;
+        limits::rearm(&mut self.rdr);
+        if !more {
             return Ok(None);
         }
         let line = self.record.position().map_or(0, |p| p.line());
@@ -311,8 +312,12 @@ impl LoggerFile {
     }
 }
 
-fn csv_error(path: &Path, e: csv::Error) -> anyhow::Error {
-    let line = e.position().map_or(0, |p| p.line());
+/// A `csv` error of `path`, where the record being read starts on `next_line`.
+fn csv_error(path: &Path, e: csv::Error, next_line: u64) -> anyhow::Error {
+    if let Some(long) = limits::csv_long_record(&e, path, next_line) {
+        return long;
+    }
+    let line = e.position().map_or(next_line, |p| p.line());
     match e.kind() {
         csv::ErrorKind::Utf8 { .. } => anyhow!("{}:{line}: not valid UTF-8", path.display()),
         _ => anyhow!("{}:{line}: {e}", path.display()),

@@ -17,8 +17,9 @@ use anyhow::{anyhow, bail, Context, Result};
 use qc_core::{Absent, ChannelRecord, Flag, Flags, Kind, Stat, Tally, Timestamp};
 
 use crate::config::{ChannelSpec, StationFile};
+use crate::limits;
 use crate::records::COLUMNS;
-use crate::timefmt::{parse_time, Rfc3339};
+use crate::timefmt::{parse_time_any as parse_time, Rfc3339};
 
 /// The longest grid accepted, in intervals (about 19 years of 10-minute
 /// intervals): a guard against a stray time in a file.
@@ -258,13 +259,13 @@ pub fn read(cfg: &StationFile, paths: &[PathBuf]) -> Result<Dataset> {
     let mut ti_column = true;
     for (file_no, path) in paths.iter().enumerate() {
         let file = File::open(path).with_context(|| format!("cannot open {}", path.display()))?;
-        let mut rdr = csv::ReaderBuilder::new()
-            .has_headers(false)
-            .flexible(true)
-            .from_reader(BufReader::new(file));
+        let mut rdr = limits::csv_reader(BufReader::new(file));
         let mut rec = csv::ByteRecord::new();
-        let bad = |e: csv::Error| anyhow!("{}: {e}", path.display());
-        if !rdr.read_byte_record(&mut rec).map_err(bad)? {
+        let bad = |e: csv::Error, line: u64| {
+            limits::csv_long_record(&e, path, line)
+                .unwrap_or_else(|| anyhow!("{}: {e}", path.display()))
+        };
+        if !limits::read_csv(&mut rdr, &mut rec).map_err(|e| bad(e, 1))? {
             bail!(
                 "{}:1: empty file: expected a records header starting `start,end,channel,...`",
                 path.display()
@@ -273,7 +274,7 @@ pub fn read(cfg: &StationFile, paths: &[PathBuf]) -> Result<Dataset> {
         let cols = columns(path, &rec)?;
         ti_column &= cols.ti.is_some();
         let mut line = 1u64;
-        while rdr.read_byte_record(&mut rec).map_err(bad)? {
+        while limits::read_csv(&mut rdr, &mut rec).map_err(|e| bad(e, line + 1))? {
             line = rec.position().map_or(line + 1, |p| p.line());
             let at = Place { path, line };
             if rec.len() != cols.width {
