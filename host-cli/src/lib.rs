@@ -18,6 +18,7 @@ pub mod export;
 pub mod limits;
 pub mod logscan;
 pub mod parallel;
+pub mod reader;
 pub mod records;
 pub mod replay;
 pub mod report;

@@ -26,14 +26,13 @@
 //! few chunks ahead (bounded queues), and workers send closed intervals in
 //! small batches.
 
-use std::fs::File;
-use std::io::{self, Cursor, Read};
+use std::io::Read;
 use std::mem;
 use std::path::{Path, PathBuf};
 use std::sync::mpsc::{sync_channel, Receiver, SyncSender};
 use std::sync::Arc;
 
-use anyhow::{anyhow, bail, Context, Result};
+use anyhow::{anyhow, bail, Result};
 use qc_core::screen::passes;
 use qc_core::{
     Event, Gap, IntervalAcc, Layout, PushTotals, Pushed, Reading, Recovery, Screener, Station,
@@ -42,10 +41,9 @@ use qc_core::{
 
 use crate::config::{StationFile, MAX_CHANNELS};
 use crate::engine::{Out, Sink, G};
-use crate::limits::{self, LongRecord, MAX_RECORD_BYTES};
+use crate::reader::{FileReader, Piece};
 use crate::samples::{
-    check_jump, csv_rows, file_len, split_fields, BadRow, InputStats, Options, Parser, Progress,
-    Records,
+    check_jump, csv_rows, file_len, BadRow, InputStats, Options, Parser, Progress, Records,
 };
 
 /// Closed intervals per message from a worker.
@@ -667,65 +665,6 @@ fn reader(
     }
 }
 
-/// A file cut into owned chunks that end just after a record terminator
-/// (`\n` or `\r`), or at the end of the file: read straight into each
-/// chunk's buffer, only the partial record at its end copied to the next.
-struct Chunks {
-    file: File,
-    /// The partial record after the last chunk.
-    carry: Vec<u8>,
-    /// File offset of `carry`.
-    offset: u64,
-    eof: bool,
-}
-
-impl Chunks {
-    /// The next chunk of about `size` bytes (more if a record is longer) and
-    /// its file offset; `None` at the end of the file.
-    fn next(&mut self, size: usize) -> io::Result<Option<(u64, Vec<u8>)>> {
-        let mut buf = Vec::with_capacity(size.max(self.carry.len() * 2));
-        buf.append(&mut self.carry);
-        let offset = self.offset;
-        loop {
-            if !self.eof {
-                let want = buf.capacity().saturating_sub(buf.len()).max(1);
-                let got = (&mut self.file).take(want as u64).read_to_end(&mut buf)?;
-                self.eof = got < want;
-            }
-            if let Some(p) = memchr::memrchr2(b'\n', b'\r', &buf) {
-                self.carry.extend_from_slice(&buf[p + 1..]);
-                buf.truncate(p + 1);
-            } else if !self.eof {
-                // A record longer than the chunk: read on, up to the limit.
-                if buf.len() > MAX_RECORD_BYTES {
-                    return Err(LongRecord::io());
-                }
-                buf.reserve(buf.len());
-                continue;
-            }
-            self.offset = offset + buf.len() as u64;
-            return Ok((!buf.is_empty()).then_some((offset, buf)));
-        }
-    }
-
-    /// The file from the start of `chunk` (the last one handed out) on.
-    fn rest(self, chunk: Vec<u8>) -> impl Read + Send {
-        Cursor::new(chunk)
-            .chain(Cursor::new(self.carry))
-            .chain(self.file)
-    }
-}
-
-/// The `\n` bytes in `b`, 64 at a time (a shape the compiler vectorizes).
-fn count_newlines(b: &[u8]) -> u64 {
-    let mut blocks = b.chunks_exact(64);
-    let mut n = 0u64;
-    for block in &mut blocks {
-        n += u64::from(block.iter().map(|&c| u8::from(c == b'\n')).sum::<u8>());
-    }
-    n + blocks.remainder().iter().filter(|&&c| c == b'\n').count() as u64
-}
-
 fn read_file(
     index: usize,
     path: &Path,
@@ -736,102 +675,53 @@ fn read_file(
     next: &mut usize,
 ) -> Result<()> {
     let closed = || anyhow!("closed");
-    let file = File::open(path).with_context(|| format!("cannot open {}", path.display()))?;
-    let mut chunks = Chunks {
-        file,
-        carry: Vec::new(),
-        offset: 0,
-        eof: false,
-    };
-    let mut line = 1u64;
-    let mut parser: Option<Arc<Parser>> = None;
-    loop {
-        let Some((offset, block)) = chunks
-            .next(opts.chunk_size)
-            .map_err(|e| limits::read_error(e, path, line))?
-        else {
-            break;
-        };
-        if memchr::memchr(b'"', &block).is_some() {
-            let parser = parser.map(|p| (*p).clone());
-            let rest = Box::new(chunks.rest(block));
-            return order
-                .send(Item::Tail {
-                    file: index,
-                    line,
-                    rest,
-                    parser,
-                })
-                .map_err(|_| closed());
-        }
-        let end = offset + block.len() as u64;
-        let mut body_line = line;
-        let body = if parser.is_none() {
-            let mut recs = Records::new(&block, line);
-            match recs.next() {
-                Some((hl, h)) => {
-                    parser = Some(Arc::new(Parser::new(path, hl, split_fields(h), cfg)?));
-                    body_line = recs.line();
-                    block[recs.pos()..].to_vec()
-                }
-                None => {
-                    line = recs.line();
-                    continue;
-                }
+    let mut reader = FileReader::open(path, cfg)?;
+    while let Some(piece) = reader.next_piece(opts.chunk_size)? {
+        match piece {
+            Piece::Tail { line, rest, parser } => {
+                return order
+                    .send(Item::Tail {
+                        file: index,
+                        line,
+                        rest,
+                        parser,
+                    })
+                    .map_err(|_| closed());
             }
-        } else {
-            block
-        };
-        line = body_line + count_newlines(&body);
-        let Some(parser) = parser.clone() else {
-            continue;
-        };
-        if body.is_empty() {
-            continue;
-        }
-        let bytes = Arc::new(body);
-        let worker = *next;
-        *next = (*next + 1) % workers.len();
-        workers[worker]
-            .send(Job {
-                file: index,
-                line: body_line,
-                bytes: Arc::clone(&bytes),
-                parser: Arc::clone(&parser),
-            })
-            .map_err(|_| closed())?;
-        order
-            .send(Item::Chunk {
-                worker,
-                file: index,
-                line: body_line,
+            Piece::Rows {
+                line,
                 end,
                 bytes,
                 parser,
-            })
-            .map_err(|_| closed())?;
+            } => {
+                let bytes = Arc::new(bytes);
+                let worker = *next;
+                *next = (*next + 1) % workers.len();
+                workers[worker]
+                    .send(Job {
+                        file: index,
+                        line,
+                        bytes: Arc::clone(&bytes),
+                        parser: Arc::clone(&parser),
+                    })
+                    .map_err(|_| closed())?;
+                order
+                    .send(Item::Chunk {
+                        worker,
+                        file: index,
+                        line,
+                        end,
+                        bytes,
+                        parser,
+                    })
+                    .map_err(|_| closed())?;
+            }
+        }
     }
-    if parser.is_none() {
+    if !reader.saw_header() {
         order
             .send(Item::Empty { file: index })
             .map_err(|_| closed())?;
     }
     Ok(())
-}
-
-#[cfg(test)]
-mod tests {
-    use super::*;
-
-    #[test]
-    fn newlines_counted_in_blocks() {
-        for len in [0, 1, 63, 64, 65, 200, 1000] {
-            let b: Vec<u8> = (0..len)
-                .map(|i| if i % 7 == 0 { b'\n' } else { b'x' })
-                .collect();
-            let want = b.iter().filter(|&&c| c == b'\n').count() as u64;
-            assert_eq!(count_newlines(&b), want, "{len}");
-        }
-        assert_eq!(count_newlines(&[b'\n'; 64]), 64);
-    }
 }

@@ -6,8 +6,9 @@
 //! or one of the station's missing-value codes (the core counts the last two).
 //! Several files replay as one record, in the order given.
 //!
-//! The hot path reads each file in large blocks that end at a record
-//! terminator ([`Blocks`]), splits records at `\n`/`\r` and fields at `,`
+//! The hot path reads each file in large pieces that end at a record
+//! terminator ([`crate::reader::FileReader`], shared with the parallel
+//! replay), splits records at `\n`/`\r` and fields at `,`
 //! ([`Records`]), and parses times and numbers from bytes ([`Parser`]) with
 //! exact fast paths: nothing is allocated per row unless the row is bad. The
 //! splitting is the CSV dialect of the `csv` crate's defaults for text without
@@ -16,18 +17,18 @@
 //! crate itself, so quoted fields keep working.
 
 use std::fmt;
-use std::fs::File;
-use std::io::{self, Cursor, IsTerminal, Read};
+use std::io::{self, IsTerminal, Read};
 use std::path::{Path, PathBuf};
 
-use anyhow::{anyhow, bail, Context, Result};
+use anyhow::{anyhow, bail, Result};
 use csv::ByteRecord;
 use indicatif::{ProgressBar, ProgressDrawTarget, ProgressStyle};
 use qc_core::{Pushed, Reading, Timestamp};
 
 use crate::config::{Decode, StationFile};
 use crate::engine::Engine;
-use crate::limits::{self, LongRecord, MAX_RECORD_BYTES};
+use crate::limits;
+use crate::reader::{FileReader, Piece};
 use crate::timefmt::{parse_time, Rfc3339, TimeError};
 
 /// Default `--max-gap-days`.
@@ -36,7 +37,7 @@ pub const DEFAULT_MAX_GAP_DAYS: u32 = 366;
 /// Default bytes per chunk of parallel replay.
 pub const DEFAULT_CHUNK_SIZE: usize = 1 << 20;
 
-/// Bytes read at a time by the sequential replay.
+/// Bytes per piece of the sequential replay.
 const BLOCK: usize = 256 << 10;
 
 /// How to read samples.
@@ -342,42 +343,41 @@ struct Sequential<'a> {
 
 impl Sequential<'_> {
     fn file(&mut self, path: &Path, progress: &Progress, done_bytes: u64) -> Result<()> {
-        let mut blocks = Blocks::open(path, BLOCK)?;
-        let mut line = 1u64;
+        let mut reader = FileReader::open(path, self.cfg)?;
         let mut parser: Option<Parser> = None;
-        loop {
-            let (offset, block) = blocks
-                .next_block()
-                .map_err(|e| limits::read_error(e, path, line))?;
-            if block.is_empty() {
-                break;
-            }
-            if memchr::memchr(b'"', block).is_some() {
-                let rest = blocks.rest();
-                let cfg = self.cfg;
-                return csv_rows(path, rest, line, cfg, &mut parser, |p, line, rec| {
-                    let parsed = p.parse_record(rec, &mut self.readings);
-                    self.row(path, line, parsed)
-                })
-                .and_then(|seen| self.empty_unless(seen, path));
-            }
-            let mut recs = Records::new(block, line);
-            if parser.is_none() {
-                if let Some((hl, h)) = recs.next() {
-                    parser = Some(Parser::new(path, hl, split_fields(h), self.cfg)?);
+        while let Some(piece) = reader.next_piece(BLOCK)? {
+            match piece {
+                Piece::Rows {
+                    line,
+                    end,
+                    bytes,
+                    parser: header,
+                } => {
+                    let p = parser.get_or_insert_with(|| (*header).clone());
+                    let mut recs = Records::new(&bytes, line);
+                    while let Some((ln, parsed)) =
+                        recs.next_row(p, &mut self.readings, &mut self.commas)
+                    {
+                        self.row(path, ln, parsed)?;
+                    }
+                    progress.at(done_bytes + end);
+                }
+                Piece::Tail {
+                    line,
+                    rest,
+                    parser: header,
+                } => {
+                    let mut parser = parser.or(header);
+                    let cfg = self.cfg;
+                    return csv_rows(path, rest, line, cfg, &mut parser, |p, line, rec| {
+                        let parsed = p.parse_record(rec, &mut self.readings);
+                        self.row(path, line, parsed)
+                    })
+                    .and_then(|seen| self.empty_unless(seen, path));
                 }
             }
-            if let Some(p) = parser.as_mut() {
-                while let Some((ln, parsed)) =
-                    recs.next_row(p, &mut self.readings, &mut self.commas)
-                {
-                    self.row(path, ln, parsed)?;
-                }
-            }
-            line = recs.line();
-            progress.at(done_bytes + offset + block.len() as u64);
         }
-        self.empty_unless(parser.is_some(), path)
+        self.empty_unless(reader.saw_header(), path)
     }
 
     fn empty_unless(&mut self, seen_header: bool, path: &Path) -> Result<()> {
@@ -434,99 +434,6 @@ pub fn csv_rows<E: From<anyhow::Error>>(
             Some(p) => row(p, at(&rec), &rec)?,
             None => *parser = Some(Parser::new(path, at(&rec), rec.iter(), cfg)?),
         }
-    }
-}
-
-/// A file read in blocks that end just after a record terminator (`\n` or
-/// `\r`), or at the end of the file.
-pub struct Blocks {
-    file: File,
-    buf: Vec<u8>,
-    /// Start of the last block handed out.
-    last: usize,
-    /// First byte not handed out yet.
-    start: usize,
-    /// End of the bytes read.
-    end: usize,
-    eof: bool,
-    /// File offset of `buf[0]`.
-    base: u64,
-}
-
-impl Blocks {
-    /// Opens `path`, to be read about `block` bytes at a time.
-    pub fn open(path: &Path, block: usize) -> Result<Self> {
-        let file = File::open(path).with_context(|| format!("cannot open {}", path.display()))?;
-        Ok(Blocks {
-            file,
-            buf: vec![0; block.max(64)],
-            last: 0,
-            start: 0,
-            end: 0,
-            eof: false,
-            base: 0,
-        })
-    }
-
-    /// The next block and its file offset: whole records up to the last
-    /// terminator read so far, or the rest at the end of the file; empty at
-    /// the end of the file. A record longer than [`MAX_RECORD_BYTES`] is a
-    /// [`LongRecord`] error, so the buffer stays bounded.
-    pub fn next_block(&mut self) -> io::Result<(u64, &[u8])> {
-        loop {
-            let pending = &self.buf[self.start..self.end];
-            let cut = match memchr::memrchr2(b'\n', b'\r', pending) {
-                Some(p) => Some(p + 1),
-                None if self.eof => Some(pending.len()),
-                None => None,
-            };
-            if let Some(n) = cut {
-                self.last = self.start;
-                self.start += n;
-                return Ok((
-                    self.base + self.last as u64,
-                    &self.buf[self.last..self.start],
-                ));
-            }
-            // Keep the partial record, then read more after it.
-            if self.start > 0 {
-                self.buf.copy_within(self.start..self.end, 0);
-                self.base += self.start as u64;
-                self.end -= self.start;
-                self.start = 0;
-                self.last = 0;
-            }
-            if self.end > MAX_RECORD_BYTES {
-                return Err(LongRecord::io());
-            }
-            if self.end == self.buf.len() {
-                // A record longer than the buffer.
-                self.buf.resize(self.buf.len() * 2, 0);
-            }
-            self.fill()?;
-        }
-    }
-
-    fn fill(&mut self) -> io::Result<()> {
-        loop {
-            match self.file.read(&mut self.buf[self.end..]) {
-                Ok(0) => {
-                    self.eof = true;
-                    return Ok(());
-                }
-                Ok(n) => {
-                    self.end += n;
-                    return Ok(());
-                }
-                Err(e) if e.kind() == io::ErrorKind::Interrupted => {}
-                Err(e) => return Err(e),
-            }
-        }
-    }
-
-    /// The file from the start of the last block handed out to its end.
-    pub fn rest(self) -> impl Read + Send {
-        Cursor::new(self.buf[self.last..self.end].to_vec()).chain(self.file)
     }
 }
 

@@ -1,0 +1,207 @@
+//! The one way a samples file is read, shared by the sequential and the
+//! parallel replay (and so by `verify` and `export`).
+//!
+//! A [`FileReader`] cuts a file into [`Piece`]s in file order:
+//! - [`Piece::Rows`]: a chunk of whole records (ending just after a record
+//!   terminator, `\n` or `\r`, or at the end of the file) without quotes, from
+//!   a known line on, with the [`Parser`] that reads them (built from the
+//!   file's header). Chunks are independent: any thread may read one.
+//! - [`Piece::Tail`]: the rest of a file from the first chunk holding a `"`
+//!   on, to be read in order by the `csv` crate ([`csv_rows`]), so quoted
+//!   fields keep working.
+//!
+//! The header is read here, once, on the thread that reads the file; the rows
+//! of every piece are read by [`Records::next_row`] or [`csv_rows`], wherever
+//! the caller runs them. Records are capped at
+//! [`MAX_RECORD_BYTES`](crate::limits::MAX_RECORD_BYTES), so a chunk is at
+//! most its size plus one record.
+
+use std::fs::File;
+use std::io::{self, Cursor, Read};
+use std::path::Path;
+use std::sync::Arc;
+
+use anyhow::{Context, Result};
+
+use crate::config::StationFile;
+use crate::limits::{self, LongRecord, MAX_RECORD_BYTES};
+use crate::samples::{split_fields, Parser, Records};
+
+/// A piece of a samples file, in file order.
+pub enum Piece {
+    /// Records without quotes, the first on `line`; `end` is the file offset
+    /// after them.
+    Rows {
+        /// Line of the first byte of `bytes`.
+        line: u64,
+        /// File offset after the chunk.
+        end: u64,
+        /// Whole records.
+        bytes: Vec<u8>,
+        /// Reads the records (the file's header).
+        parser: Arc<Parser>,
+    },
+    /// The rest of the file, from line `line`, holding quotes: read in order
+    /// with [`csv_rows`]; `parser` is `None` when the header is still to come.
+    Tail {
+        /// Line of the first byte of `rest`.
+        line: u64,
+        /// The bytes from the start of the chunk with the first quote on.
+        rest: Box<dyn Read + Send>,
+        /// The file's header, if read before the quotes.
+        parser: Option<Parser>,
+    },
+}
+
+/// A samples file read piece by piece.
+pub struct FileReader<'a> {
+    path: &'a Path,
+    cfg: &'a StationFile,
+    /// The bytes not read yet (`None` after a tail was handed out).
+    file: Option<Box<dyn Read + Send>>,
+    /// The partial record after the last chunk.
+    carry: Vec<u8>,
+    /// File offset of `carry`.
+    offset: u64,
+    eof: bool,
+    /// Line of the first byte of `carry`.
+    line: u64,
+    parser: Option<Arc<Parser>>,
+}
+
+impl<'a> FileReader<'a> {
+    /// Opens `path`, a samples file of the station `cfg`.
+    pub fn open(path: &'a Path, cfg: &'a StationFile) -> Result<Self> {
+        let file = File::open(path).with_context(|| format!("cannot open {}", path.display()))?;
+        Ok(FileReader {
+            path,
+            cfg,
+            file: Some(Box::new(file)),
+            carry: Vec::new(),
+            offset: 0,
+            eof: false,
+            line: 1,
+            parser: None,
+        })
+    }
+
+    /// Whether the file held a header (false at the end: an empty file).
+    pub fn saw_header(&self) -> bool {
+        self.parser.is_some()
+    }
+
+    /// The next piece of about `size` bytes; `None` at the end of the file
+    /// (and after a [`Piece::Tail`]). A header problem, a record longer than
+    /// the limit or an I/O error is an error naming the file and line.
+    pub fn next_piece(&mut self, size: usize) -> Result<Option<Piece>> {
+        loop {
+            let Some((offset, block)) = self
+                .chunk(size)
+                .map_err(|e| limits::read_error(e, self.path, self.line))?
+            else {
+                return Ok(None);
+            };
+            let line = self.line;
+            if memchr::memchr(b'"', &block).is_some() {
+                let file = self.file.take().unwrap_or_else(|| Box::new(io::empty()));
+                let rest = Cursor::new(block)
+                    .chain(Cursor::new(std::mem::take(&mut self.carry)))
+                    .chain(file);
+                return Ok(Some(Piece::Tail {
+                    line,
+                    rest: Box::new(rest),
+                    parser: self.parser.as_deref().cloned(),
+                }));
+            }
+            let end = offset + block.len() as u64;
+            let (body, body_line) = match &self.parser {
+                Some(_) => (block, line),
+                None => {
+                    let mut recs = Records::new(&block, line);
+                    match recs.next() {
+                        Some((hl, h)) => {
+                            let p = Parser::new(self.path, hl, split_fields(h), self.cfg)?;
+                            self.parser = Some(Arc::new(p));
+                            (block[recs.pos()..].to_vec(), recs.line())
+                        }
+                        None => {
+                            self.line = recs.line();
+                            continue;
+                        }
+                    }
+                }
+            };
+            self.line = body_line + count_newlines(&body);
+            let Some(parser) = self.parser.clone() else {
+                continue;
+            };
+            if body.is_empty() {
+                continue;
+            }
+            return Ok(Some(Piece::Rows {
+                line: body_line,
+                end,
+                bytes: body,
+                parser,
+            }));
+        }
+    }
+
+    /// The next chunk of about `size` bytes (more if a record is longer, up
+    /// to the limit) and its file offset; `None` at the end of the file.
+    fn chunk(&mut self, size: usize) -> io::Result<Option<(u64, Vec<u8>)>> {
+        let Some(file) = self.file.as_mut() else {
+            return Ok(None);
+        };
+        let mut buf = Vec::with_capacity(size.max(self.carry.len() * 2).max(64));
+        buf.append(&mut self.carry);
+        let offset = self.offset;
+        loop {
+            if !self.eof {
+                let want = buf.capacity().saturating_sub(buf.len()).max(1);
+                let got = file.take(want as u64).read_to_end(&mut buf)?;
+                self.eof = got < want;
+            }
+            if let Some(p) = memchr::memrchr2(b'\n', b'\r', &buf) {
+                self.carry.extend_from_slice(&buf[p + 1..]);
+                buf.truncate(p + 1);
+            } else if !self.eof {
+                // A record longer than the chunk: read on, up to the limit.
+                if buf.len() > MAX_RECORD_BYTES {
+                    return Err(LongRecord::io());
+                }
+                buf.reserve(buf.len());
+                continue;
+            }
+            self.offset = offset + buf.len() as u64;
+            return Ok((!buf.is_empty()).then_some((offset, buf)));
+        }
+    }
+}
+
+/// The `\n` bytes in `b`, 64 at a time (a shape the compiler vectorizes).
+pub fn count_newlines(b: &[u8]) -> u64 {
+    let mut blocks = b.chunks_exact(64);
+    let mut n = 0u64;
+    for block in &mut blocks {
+        n += u64::from(block.iter().map(|&c| u8::from(c == b'\n')).sum::<u8>());
+    }
+    n + blocks.remainder().iter().filter(|&&c| c == b'\n').count() as u64
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn newlines_counted_in_blocks() {
+        for len in [0, 1, 63, 64, 65, 200, 1000] {
+            let b: Vec<u8> = (0..len)
+                .map(|i| if i % 7 == 0 { b'\n' } else { b'x' })
+                .collect();
+            let want = b.iter().filter(|&&c| c == b'\n').count() as u64;
+            assert_eq!(count_newlines(&b), want, "{len}");
+        }
+        assert_eq!(count_newlines(&[b'\n'; 64]), 64);
+    }
+}
