@@ -16,6 +16,7 @@ pub mod demo;
 pub mod engine;
 pub mod export;
 pub mod limits;
+pub mod localtime;
 pub mod logscan;
 pub mod parallel;
 pub mod reader;
@@ -25,6 +26,7 @@ pub mod report;
 pub mod samples;
 pub mod summary;
 pub mod timefmt;
+pub mod units;
 pub mod verify;
 
 use std::fs::File;

@@ -1,0 +1,722 @@
+//! Times of field files as they are written: one or several columns, a format
+//! string, epoch seconds or milliseconds, UTC, a fixed offset or a named time
+//! zone, stamps at the start or the end of the sample's period.
+//!
+//! A format is a string of literal bytes and specifiers, applied to the time
+//! columns joined by one space:
+//!
+//! | specifier | reads |
+//! |---|---|
+//! | `%Y` | year, 1 to 4 digits |
+//! | `%y` | year of the century, 2 digits: 69-99 are 1969-1999, 00-68 are 2000-2068 (POSIX) |
+//! | `%m` `%d` | month, day: 1 or 2 digits |
+//! | `%j` | day of the year, 1 to 3 digits |
+//! | `%H` `%M` `%S` | hour (0-24, 24 only as 24:00:00), minute, second: 1 or 2 digits |
+//! | `%f` | a fraction of a second, 1 to 9 digits (non-zero past milliseconds is an error) |
+//! | `%{hhmm}` | hours and minutes as one number, `HHMM` with leading zeros optional (`5` is 00:05, `2400` is 24:00) |
+//! | `%%` | a `%` |
+//!
+//! A space in the format matches one or more spaces; any other byte matches
+//! itself. Numbers read their digits greedily up to their width, so `%H%M`
+//! reads `0005` as 00:05 and `%m/%d/%Y %H:%M` reads `1/1/2022 0:05`.
+//!
+//! Local times become UTC through the zone: a fixed offset, or a named zone of
+//! the IANA database bundled with `jiff` (daylight saving resolved there, no
+//! hand-written rules). A local time that does not exist (skipped at a change
+//! of clock) or occurs twice is refused, naming both candidate instants,
+//! unless the station file picks the earlier or the later.
+//!
+//! The label says what the stamp marks: `start` (the sample's period begins
+//! at the stamp, the core's own convention) or `end` (it ends there): an end
+//! stamp is moved back by one sample period, so that a 10-minute mean stamped
+//! 00:10 belongs to the interval 00:00-00:10. `24:00` is accepted only for
+//! end labels.
+
+use std::fmt;
+
+use jiff::tz::{AmbiguousOffset, TimeZone};
+use qc_core::{Civil, Timestamp};
+
+use crate::timefmt::{self, Rfc3339, TimeError, SAMPLES_END, SAMPLES_FROM};
+
+/// How the time columns are written.
+#[derive(Clone, Debug)]
+pub enum Form {
+    /// One column: RFC 3339 or epoch seconds (tenmin's own samples).
+    Auto,
+    /// Epoch seconds (integer or decimal).
+    EpochSeconds,
+    /// Epoch milliseconds (integer).
+    EpochMillis,
+    /// A format string (see the module docs).
+    Format(Format),
+}
+
+/// The zone local times are in.
+#[derive(Clone, Debug)]
+pub enum Zone {
+    /// UTC.
+    Utc,
+    /// A fixed offset from UTC, in minutes (east positive).
+    Fixed(i32),
+    /// A named zone of the IANA database.
+    Named(String, TimeZone),
+}
+
+/// What a stamp marks.
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+pub enum Label {
+    /// The start of the sample's period.
+    Start,
+    /// The end of the sample's period.
+    End,
+}
+
+/// What to do with a local time that does not exist or occurs twice.
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+pub enum Pick {
+    /// Refuse the row, naming both candidates.
+    Refuse,
+    /// The earlier candidate instant.
+    Earlier,
+    /// The later candidate instant.
+    Later,
+}
+
+/// Everything about a file's time.
+#[derive(Clone, Debug)]
+pub struct TimeSpec {
+    /// How it is written.
+    pub form: Form,
+    /// The zone of local times (not used by RFC 3339 with its own offset, nor epochs).
+    pub zone: Zone,
+    /// What the stamp marks.
+    pub label: Label,
+    /// The sample period in milliseconds (end labels move back by it).
+    pub period_ms: i64,
+    /// For local times that do not exist.
+    pub skipped: Pick,
+    /// For local times that occur twice.
+    pub repeated: Pick,
+}
+
+/// Why a time could not be read.
+#[derive(Clone, Debug, PartialEq, Eq)]
+pub enum TimeProblem {
+    /// As in tenmin's own samples.
+    Parse(TimeError),
+    /// The text does not match the format at byte `at` of the joined columns.
+    Format { at: usize },
+    /// A field is out of its range (month 13, day 366 of a common year ...).
+    Field,
+    /// `24:00` with a start label, or past 24:00:00.
+    Hour24,
+    /// A local time that does not exist in the zone: the two candidates.
+    Skipped(Timestamp, Timestamp),
+    /// A local time that occurs twice in the zone: the two candidates.
+    Repeated(Timestamp, Timestamp),
+}
+
+impl fmt::Display for TimeProblem {
+    fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
+        match self {
+            TimeProblem::Parse(e) => write!(f, "{e}"),
+            TimeProblem::Format { at } => write!(
+                f,
+                "does not match the time format of the station file (from byte {} of the time columns joined by a space)",
+                at + 1
+            ),
+            TimeProblem::Field => f.write_str("a date or time field is out of range"),
+            TimeProblem::Hour24 => f.write_str(
+                "24:00 is accepted only as 24:00:00 with `label = \"end\"` (the end of a day)",
+            ),
+            TimeProblem::Skipped(a, b) => write!(
+                f,
+                "this local time does not exist in the zone (skipped at a change of clock): it could be {} or {}; set `skipped = \"earlier\"` or `\"later\"` in [input.time] to pick one",
+                Rfc3339(*a),
+                Rfc3339(*b)
+            ),
+            TimeProblem::Repeated(a, b) => write!(
+                f,
+                "this local time occurs twice in the zone (at a change of clock): it is {} or {}; set `repeated = \"earlier\"` or `\"later\"` in [input.time] to pick one",
+                Rfc3339(*a),
+                Rfc3339(*b)
+            ),
+        }
+    }
+}
+
+impl From<TimeError> for TimeProblem {
+    fn from(e: TimeError) -> Self {
+        TimeProblem::Parse(e)
+    }
+}
+
+/// One step of a format.
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+enum Tok {
+    /// A byte that must be there.
+    Lit(u8),
+    /// One or more spaces.
+    Space,
+    Year,
+    Year2,
+    Month,
+    Day,
+    DayOfYear,
+    Hour,
+    Minute,
+    Second,
+    Fraction,
+    HourMinute,
+}
+
+/// A compiled format string.
+#[derive(Clone, Debug, PartialEq, Eq)]
+pub struct Format {
+    toks: Vec<Tok>,
+}
+
+impl Format {
+    /// Compiles `s`; an unknown specifier or a format that cannot give a date
+    /// is an error saying why.
+    pub fn new(s: &str) -> Result<Format, String> {
+        let b = s.as_bytes();
+        let mut toks = Vec::new();
+        let mut i = 0;
+        while i < b.len() {
+            let c = b[i];
+            if c == b'%' {
+                let rest = &s[i + 1..];
+                let (tok, len) = if let Some(r) = rest.strip_prefix("{hhmm}") {
+                    let _ = r;
+                    (Some(Tok::HourMinute), 7)
+                } else {
+                    let t = match rest.as_bytes().first() {
+                        Some(b'Y') => Some(Tok::Year),
+                        Some(b'y') => Some(Tok::Year2),
+                        Some(b'm') => Some(Tok::Month),
+                        Some(b'd') => Some(Tok::Day),
+                        Some(b'j') => Some(Tok::DayOfYear),
+                        Some(b'H') => Some(Tok::Hour),
+                        Some(b'M') => Some(Tok::Minute),
+                        Some(b'S') => Some(Tok::Second),
+                        Some(b'f') => Some(Tok::Fraction),
+                        Some(b'%') => Some(Tok::Lit(b'%')),
+                        _ => None,
+                    };
+                    (t, 2)
+                };
+                let Some(tok) = tok else {
+                    return Err(format!(
+                        "unknown specifier at byte {} of {s:?}: use %Y %y %m %d %j %H %M %S %f %{{hhmm}} %%",
+                        i + 1
+                    ));
+                };
+                toks.push(tok);
+                i += len;
+            } else if c == b' ' {
+                if toks.last() != Some(&Tok::Space) {
+                    toks.push(Tok::Space);
+                }
+                i += 1;
+            } else {
+                toks.push(Tok::Lit(c));
+                i += 1;
+            }
+        }
+        let has = |t: Tok| toks.contains(&t);
+        let year = has(Tok::Year) || has(Tok::Year2);
+        let date = has(Tok::DayOfYear) || (has(Tok::Month) && has(Tok::Day));
+        if !(year && date) {
+            return Err(format!(
+                "{s:?} gives no full date: it needs a year (%Y or %y) and either %j or %m and %d"
+            ));
+        }
+        Ok(Format { toks })
+    }
+
+    /// Reads `text` into local civil fields (hour may be 24).
+    fn read(&self, text: &[u8]) -> Result<Local, TimeProblem> {
+        let mut l = Local::default();
+        let mut p = 0usize;
+        let bad = |p: usize| TimeProblem::Format { at: p };
+        for tok in &self.toks {
+            match *tok {
+                Tok::Lit(c) => {
+                    if text.get(p) != Some(&c) {
+                        return Err(bad(p));
+                    }
+                    p += 1;
+                }
+                Tok::Space => {
+                    let n = text[p.min(text.len())..]
+                        .iter()
+                        .take_while(|&&c| c == b' ')
+                        .count();
+                    if n == 0 {
+                        return Err(bad(p));
+                    }
+                    p += n;
+                }
+                Tok::Fraction => {
+                    let n = digits(text, p, 9);
+                    if n == 0 {
+                        return Err(bad(p));
+                    }
+                    let f = &text[p..p + n];
+                    let mut ms = 0u32;
+                    for (k, &c) in f.iter().enumerate() {
+                        let d = u32::from(c - b'0');
+                        if k < 3 {
+                            ms = ms * 10 + d;
+                        } else if d != 0 {
+                            return Err(TimeProblem::Parse(TimeError::Precision));
+                        }
+                    }
+                    for _ in n..3 {
+                        ms *= 10;
+                    }
+                    l.milli = ms;
+                    p += n;
+                }
+                _ => {
+                    let width = match *tok {
+                        Tok::Year | Tok::HourMinute => 4,
+                        Tok::DayOfYear => 3,
+                        _ => 2,
+                    };
+                    let n = digits(text, p, width);
+                    if n == 0 {
+                        return Err(bad(p));
+                    }
+                    let v = text[p..p + n]
+                        .iter()
+                        .fold(0u32, |v, c| v * 10 + u32::from(c - b'0'));
+                    p += n;
+                    match *tok {
+                        Tok::Year => l.year = Some(v as i32),
+                        Tok::Year2 => l.year = Some(if v >= 69 { 1900 } else { 2000 } + v as i32),
+                        Tok::Month => l.month = Some(v),
+                        Tok::Day => l.day = Some(v),
+                        Tok::DayOfYear => l.yday = Some(v),
+                        Tok::Hour => l.hour = v,
+                        Tok::Minute => l.minute = v,
+                        Tok::Second => l.second = v,
+                        Tok::HourMinute => {
+                            l.hour = v / 100;
+                            l.minute = v % 100;
+                        }
+                        _ => {}
+                    }
+                }
+            }
+        }
+        if p != text.len() {
+            return Err(bad(p));
+        }
+        Ok(l)
+    }
+}
+
+/// The digits at `text[p..]`, at most `width`.
+fn digits(text: &[u8], p: usize, width: usize) -> usize {
+    text.get(p..)
+        .unwrap_or_default()
+        .iter()
+        .take(width)
+        .take_while(|c| c.is_ascii_digit())
+        .count()
+}
+
+/// Civil fields as read.
+#[derive(Clone, Copy, Debug, Default)]
+struct Local {
+    year: Option<i32>,
+    month: Option<u32>,
+    day: Option<u32>,
+    yday: Option<u32>,
+    hour: u32,
+    minute: u32,
+    second: u32,
+    milli: u32,
+}
+
+impl Local {
+    /// Milliseconds of this local time as if it were UTC; `Hour24` for 24:00
+    /// (allowed only with `end_ok`).
+    fn as_utc_ms(&self, end_ok: bool) -> Result<i64, TimeProblem> {
+        let year = self.year.ok_or(TimeProblem::Field)?;
+        if !(0..=9999).contains(&year) {
+            return Err(TimeProblem::Parse(TimeError::Unsupported));
+        }
+        let (month, day) = match (self.month, self.day, self.yday) {
+            (Some(m), Some(d), _) => (m, d),
+            (_, _, Some(j)) => month_day(year, j).ok_or(TimeProblem::Field)?,
+            _ => return Err(TimeProblem::Field),
+        };
+        let mut extra_day = 0i64;
+        let mut hour = self.hour;
+        if hour == 24 {
+            if !(end_ok && self.minute == 0 && self.second == 0 && self.milli == 0) {
+                return Err(TimeProblem::Hour24);
+            }
+            hour = 0;
+            extra_day = 86_400_000;
+        }
+        if self.minute > 59 || self.second > 59 {
+            return Err(if self.second == 60 {
+                TimeProblem::Parse(TimeError::LeapSecond)
+            } else {
+                TimeProblem::Field
+            });
+        }
+        let field = |v: u32| u8::try_from(v).map_err(|_| TimeProblem::Field);
+        let civil = Civil {
+            year,
+            month: field(month)?,
+            day: field(day)?,
+            hour: field(hour)?,
+            minute: field(self.minute)?,
+            second: field(self.second)?,
+            milli: self.milli as u16,
+        };
+        let t = Timestamp::from_civil(civil).ok_or(TimeProblem::Field)?;
+        Ok(t.millis() + extra_day)
+    }
+}
+
+/// Month and day of day-of-year `j` (1-based) of `year`.
+fn month_day(year: i32, j: u32) -> Option<(u32, u32)> {
+    let mut left = j;
+    if left == 0 {
+        return None;
+    }
+    for m in 1..=12u8 {
+        let n = u32::from(qc_core::time::days_in_month(year, m));
+        if left <= n {
+            return Some((u32::from(m), left));
+        }
+        left -= n;
+    }
+    None
+}
+
+impl TimeSpec {
+    /// The sample time of `text` (the time columns joined by one space): in
+    /// UTC, moved to the start of its period, inside the supported span.
+    pub fn parse(&self, text: &[u8]) -> Result<Timestamp, TimeProblem> {
+        let utc = match &self.form {
+            Form::Auto => timefmt::parse_time_any(text)?.millis(),
+            Form::EpochSeconds => {
+                let t = text.trim_ascii();
+                if t.is_empty() {
+                    return Err(TimeError::Empty.into());
+                }
+                if !t
+                    .iter()
+                    .all(|c| c.is_ascii_digit() || *c == b'.' || *c == b'-')
+                {
+                    return Err(TimeError::Shape.into());
+                }
+                timefmt::parse_time_any(t)?.millis()
+            }
+            Form::EpochMillis => {
+                let t = text.trim_ascii();
+                let (neg, digits) = match t.strip_prefix(b"-") {
+                    Some(d) => (true, d),
+                    None => (false, t),
+                };
+                if digits.is_empty() || !digits.iter().all(u8::is_ascii_digit) || digits.len() > 18
+                {
+                    return Err(TimeError::Shape.into());
+                }
+                let v = digits
+                    .iter()
+                    .fold(0i64, |v, c| v * 10 + i64::from(c - b'0'));
+                if neg {
+                    -v
+                } else {
+                    v
+                }
+            }
+            Form::Format(f) => {
+                let local = f.read(text.trim_ascii())?;
+                let ms = local.as_utc_ms(self.label == Label::End)?;
+                self.to_utc(ms)?
+            }
+        };
+        let start = match self.label {
+            Label::Start => utc,
+            Label::End => utc - self.period_ms,
+        };
+        let t = Timestamp::from_millis(start);
+        if t >= SAMPLES_FROM && t < SAMPLES_END {
+            Ok(t)
+        } else {
+            Err(TimeError::Unsupported.into())
+        }
+    }
+
+    /// A local time (as milliseconds read as if UTC) in UTC.
+    fn to_utc(&self, local_ms: i64) -> Result<i64, TimeProblem> {
+        match &self.zone {
+            Zone::Utc => Ok(local_ms),
+            Zone::Fixed(min) => Ok(local_ms - i64::from(*min) * 60_000),
+            Zone::Named(_, tz) => {
+                let dt = civil_of(local_ms).ok_or(TimeProblem::Field)?;
+                let amb = tz.to_ambiguous_timestamp(dt);
+                let at = |off: jiff::tz::Offset| local_ms - i64::from(off.seconds()) * 1000;
+                match amb.offset() {
+                    AmbiguousOffset::Unambiguous { offset } => Ok(at(offset)),
+                    AmbiguousOffset::Gap { before, after } => {
+                        // Read with the offset before the change, the instant is
+                        // after it; with the one after, before it.
+                        let (a, b) = order(at(before), at(after));
+                        pick(self.skipped, a, b, TimeProblem::Skipped)
+                    }
+                    AmbiguousOffset::Fold { before, after } => {
+                        let (a, b) = order(at(before), at(after));
+                        pick(self.repeated, a, b, TimeProblem::Repeated)
+                    }
+                }
+            }
+        }
+    }
+}
+
+fn order(a: i64, b: i64) -> (i64, i64) {
+    (a.min(b), a.max(b))
+}
+
+fn pick(
+    p: Pick,
+    a: i64,
+    b: i64,
+    err: fn(Timestamp, Timestamp) -> TimeProblem,
+) -> Result<i64, TimeProblem> {
+    match p {
+        Pick::Refuse => Err(err(Timestamp::from_millis(a), Timestamp::from_millis(b))),
+        Pick::Earlier => Ok(a),
+        Pick::Later => Ok(b),
+    }
+}
+
+/// `jiff`'s civil date-time of milliseconds read as UTC.
+fn civil_of(ms: i64) -> Option<jiff::civil::DateTime> {
+    let c = Timestamp::from_millis(ms).civil();
+    jiff::civil::DateTime::new(
+        i16::try_from(c.year).ok()?,
+        i8::try_from(c.month).ok()?,
+        i8::try_from(c.day).ok()?,
+        i8::try_from(c.hour).ok()?,
+        i8::try_from(c.minute).ok()?,
+        i8::try_from(c.second).ok()?,
+        i32::from(c.milli) * 1_000_000,
+    )
+    .ok()
+}
+
+/// The zone named `s`: `UTC`, a fixed offset `+01:00` / `-07:00`, or an IANA
+/// name such as `Europe/Berlin`.
+pub fn zone(s: &str) -> Result<Zone, String> {
+    let t = s.trim();
+    if t.eq_ignore_ascii_case("utc") || t == "Z" {
+        return Ok(Zone::Utc);
+    }
+    if let Some(rest) = t.strip_prefix(['+', '-']) {
+        let b = rest.as_bytes();
+        let ok = b.len() == 5
+            && b[2] == b':'
+            && b.iter()
+                .enumerate()
+                .all(|(i, c)| i == 2 || c.is_ascii_digit());
+        if !ok {
+            return Err(format!("{s:?}: a fixed offset is written +HH:MM or -HH:MM"));
+        }
+        let h = i32::from(b[0] - b'0') * 10 + i32::from(b[1] - b'0');
+        let m = i32::from(b[3] - b'0') * 10 + i32::from(b[4] - b'0');
+        if h > 23 || m > 59 {
+            return Err(format!("{s:?}: offset out of range"));
+        }
+        let v = h * 60 + m;
+        return Ok(Zone::Fixed(if t.starts_with('-') { -v } else { v }));
+    }
+    TimeZone::get(t).map(|tz| Zone::Named(t.to_string(), tz)).map_err(|_| {
+        format!("{s:?} is not UTC, a fixed offset (+01:00) or a time zone of the IANA database (such as Europe/Berlin)")
+    })
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    fn spec(form: Form, zone: Zone, label: Label, period_ms: i64) -> TimeSpec {
+        TimeSpec {
+            form,
+            zone,
+            label,
+            period_ms,
+            skipped: Pick::Refuse,
+            repeated: Pick::Refuse,
+        }
+    }
+
+    fn fmt(s: &str) -> Form {
+        Form::Format(Format::new(s).unwrap())
+    }
+
+    fn iso(t: Timestamp) -> String {
+        Rfc3339(t).to_string()
+    }
+
+    #[test]
+    fn formats_read_field_files() {
+        let utc = |f: &str, text: &str| {
+            spec(fmt(f), Zone::Utc, Label::Start, 1000)
+                .parse(text.as_bytes())
+                .map(iso)
+        };
+        // Unpadded month, day and hour.
+        assert_eq!(
+            utc("%m/%d/%Y %H:%M", "1/1/2022 0:05").unwrap(),
+            "2022-01-01T00:05:00Z"
+        );
+        // Year, day of year (2018-10-18 is day 291: 273 days to the end of
+        // September plus 18, common practice), HHMM without leading zeros.
+        assert_eq!(
+            utc("%Y %j %{hhmm}", "2018 291 5").unwrap(),
+            "2018-10-18T00:05:00Z"
+        );
+        assert_eq!(
+            utc("%Y %j %{hhmm}", "2018 291 2359").unwrap(),
+            "2018-10-18T23:59:00Z"
+        );
+        // Several spaces where the format has one; adjacent fixed-width numbers.
+        assert_eq!(
+            utc("%Y %m %d %H %M", " 2016   1  1  0  7").unwrap(),
+            "2016-01-01T00:07:00Z"
+        );
+        assert_eq!(
+            utc("%Y%m%d%H%M%S", "20250120000102").unwrap(),
+            "2025-01-20T00:01:02Z"
+        );
+        assert_eq!(
+            utc("%Y-%m-%d %H:%M:%S.%f", "2025-01-20 00:01:02.25").unwrap(),
+            "2025-01-20T00:01:02.250Z"
+        );
+        assert_eq!(
+            utc("%y-%m-%d %H", "69-01-01 00").unwrap(),
+            "1969-01-01T00:00:00Z"
+        );
+        assert_eq!(
+            utc("%y-%m-%d %H", "68-01-01 00").unwrap(),
+            "2068-01-01T00:00:00Z"
+        );
+        // Wrong shapes and fields.
+        assert!(matches!(
+            utc("%Y-%m-%d", "2025/01/20"),
+            Err(TimeProblem::Format { at: 4 })
+        ));
+        assert!(matches!(
+            utc("%Y-%m-%d", "2025-02-30"),
+            Err(TimeProblem::Field)
+        ));
+        assert!(matches!(utc("%Y %j", "2025 366"), Err(TimeProblem::Field)));
+        assert!(utc("%Y %j", "2024 366").is_ok());
+        assert!(matches!(
+            utc("%Y %j %H", "2024 1 24"),
+            Err(TimeProblem::Hour24)
+        ));
+        assert!(Format::new("%H:%M").is_err());
+        assert!(Format::new("%Y-%q").is_err());
+    }
+
+    #[test]
+    fn end_labels_move_back_one_period_and_take_24_00() {
+        let s = spec(fmt("%Y-%m-%d %H:%M"), Zone::Utc, Label::End, 60_000);
+        assert_eq!(
+            iso(s.parse(b"2022-01-01 00:01").unwrap()),
+            "2022-01-01T00:00:00Z"
+        );
+        assert_eq!(
+            iso(s.parse(b"2022-01-01 24:00").unwrap()),
+            "2022-01-01T23:59:00Z"
+        );
+        assert!(matches!(
+            s.parse(b"2022-01-01 24:01"),
+            Err(TimeProblem::Hour24)
+        ));
+    }
+
+    #[test]
+    fn fixed_offsets_and_epochs() {
+        let s = spec(
+            fmt("%Y %j %{hhmm}"),
+            zone("-07:00").unwrap(),
+            Label::Start,
+            60_000,
+        );
+        // Local standard time UTC-7: 00:00 local is 07:00 UTC.
+        assert_eq!(iso(s.parse(b"2018 291 0").unwrap()), "2018-10-18T07:00:00Z");
+        let ms = spec(Form::EpochMillis, Zone::Utc, Label::Start, 1000);
+        // 2025-01-20T00:00:00Z = 1737331200 s (POSIX time, common practice).
+        assert_eq!(
+            iso(ms.parse(b"1737331200250").unwrap()),
+            "2025-01-20T00:00:00.250Z"
+        );
+        let s = spec(Form::EpochSeconds, Zone::Utc, Label::Start, 1000);
+        assert_eq!(
+            iso(s.parse(b"1737331200.5").unwrap()),
+            "2025-01-20T00:00:00.500Z"
+        );
+        assert!(s.parse(b"2025-01-20T00:00:00Z").is_err());
+        assert!(zone("+1:00").is_err());
+        assert!(zone("Mars/Olympus_Mons").is_err());
+    }
+
+    #[test]
+    fn daylight_saving_is_resolved_by_the_zone_database() {
+        // Europe/Berlin: clocks go from 02:00 CET to 03:00 CEST on 2025-03-30
+        // and from 03:00 CEST back to 02:00 CET on 2025-10-26 (EU Directive
+        // 2000/84/EC: the last Sundays of March and October at 01:00 UTC).
+        let z = zone("Europe/Berlin").unwrap();
+        let mut s = spec(fmt("%Y-%m-%d %H:%M"), z, Label::Start, 60_000);
+        assert_eq!(
+            iso(s.parse(b"2025-01-20 12:00").unwrap()),
+            "2025-01-20T11:00:00Z"
+        );
+        assert_eq!(
+            iso(s.parse(b"2025-07-01 12:00").unwrap()),
+            "2025-07-01T10:00:00Z"
+        );
+        match s.parse(b"2025-03-30 02:30") {
+            Err(TimeProblem::Skipped(a, b)) => {
+                assert_eq!(
+                    (iso(a).as_str(), iso(b).as_str()),
+                    ("2025-03-30T00:30:00Z", "2025-03-30T01:30:00Z")
+                );
+            }
+            other => panic!("{other:?}"),
+        }
+        match s.parse(b"2025-10-26 02:30") {
+            Err(TimeProblem::Repeated(a, b)) => {
+                assert_eq!(
+                    (iso(a).as_str(), iso(b).as_str()),
+                    ("2025-10-26T00:30:00Z", "2025-10-26T01:30:00Z")
+                );
+            }
+            other => panic!("{other:?}"),
+        }
+        s.repeated = Pick::Later;
+        assert_eq!(
+            iso(s.parse(b"2025-10-26 02:30").unwrap()),
+            "2025-10-26T01:30:00Z"
+        );
+        s.skipped = Pick::Earlier;
+        assert_eq!(
+            iso(s.parse(b"2025-03-30 02:30").unwrap()),
+            "2025-03-30T00:30:00Z"
+        );
+    }
+}
