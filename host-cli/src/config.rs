@@ -57,10 +57,15 @@ use qc_core::{
     ChannelConfig, ConfigError, Icing, Kind, Layout, Screen, StationConfig, MAX_SENTINELS,
 };
 use serde::Deserialize;
+
+use crate::table::{self, RawColumn, RawInput, RawQuality, RawSource, Table};
 use toml::Spanned;
 
 /// Most channels a station may have in this build.
 pub const MAX_CHANNELS: usize = 32;
+/// The gust window of a speed channel without `gust_window_s`, seconds (the
+/// 3-second gust, WMO-No. 8, part I, 5.8.3).
+pub const DEFAULT_GUST_S: f64 = 3.0;
 /// Gust-window capacity in samples of this build (the core's `G`).
 pub const GUST_CAPACITY: usize = 64;
 
@@ -69,6 +74,7 @@ pub const GUST_CAPACITY: usize = 64;
 struct RawFile {
     logging: Spanned<RawLogging>,
     station: Option<RawStation>,
+    input: Option<Spanned<RawInput>>,
     #[serde(default)]
     channel: Vec<Spanned<RawChannel>>,
 }
@@ -77,7 +83,8 @@ struct RawFile {
 #[serde(deny_unknown_fields)]
 struct RawLogging {
     interval_s: Option<Spanned<u32>>,
-    sample_rate_hz: Spanned<f64>,
+    sample_rate_hz: Option<Spanned<f64>>,
+    sample_period_s: Option<Spanned<f64>>,
     missing_values: Option<Spanned<Vec<f64>>>,
 }
 
@@ -111,6 +118,9 @@ struct RawChannel {
     slope: Option<Spanned<f64>>,
     offset: Option<Spanned<f64>>,
     screen: Option<Spanned<RawScreen>>,
+    column: Option<Spanned<RawColumn>>,
+    source_unit: Option<Spanned<String>>,
+    quality: Option<Spanned<RawQuality>>,
 }
 
 /// A channel's `[channel.screen]` table: screening settings over the core's
@@ -183,6 +193,10 @@ pub struct StationFile {
     pub name: Option<String>,
     /// Sampling rate, Hz.
     pub sample_rate_hz: f64,
+    /// The sample period in whole milliseconds.
+    pub sample_period_ms: i64,
+    /// How the samples files are laid out.
+    pub table: Table,
     /// The core's station-wide settings.
     pub station: StationConfig,
     /// Channels, in file order.
@@ -220,23 +234,44 @@ pub fn parse(path: &Path, text: &str) -> Result<StationFile> {
             "`interval_s` must divide 86400 (a day) evenly, such as 600 for 10 minutes"
         ));
     }
-    let rate = *logging.sample_rate_hz.get_ref();
+    // The rate, or the period (sub-1 Hz data need no 17-digit rate).
+    let (rate, rate_span) = match (&logging.sample_rate_hz, &logging.sample_period_s) {
+        (Some(_), Some(p)) => bail!(at.err(
+            p.span(),
+            "give `sample_rate_hz` or `sample_period_s`, not both"
+        )),
+        (Some(r), None) => (*r.get_ref(), r.span()),
+        (None, Some(p)) => {
+            let period = *p.get_ref();
+            if !(0.05..=3600.0).contains(&period) || ((period * 1000.0).round() - period * 1000.0).abs() > 1e-6 {
+                bail!(at.err(
+                    p.span(),
+                    &format!("`sample_period_s` {period}: from 0.05 to 3600 seconds, in whole milliseconds")
+                ));
+            }
+            (1000.0 / (period * 1000.0).round(), p.span())
+        }
+        (None, None) => bail!(at.err(
+            raw.logging.span(),
+            "[logging] needs `sample_rate_hz` (such as 1) or `sample_period_s` (such as 60 for 1-minute data)"
+        )),
+    };
     let n = f64::from(interval_s) * rate;
     if !(rate.is_finite() && rate > 0.0) || (n - n.round()).abs() > 1e-9 * n.max(1.0) || n < 1.0 {
         bail!(at.err(
-            logging.sample_rate_hz.span(),
-            &format!("`sample_rate_hz` {rate} times `interval_s` {interval_s} must be a whole number of samples")
+            rate_span,
+            &format!("`sample_rate_hz` {rate} (or 1 / `sample_period_s`) times `interval_s` {interval_s} must be a whole number of samples")
         ));
     }
     if rate > 1000.0 {
         bail!(at.err(
-            logging.sample_rate_hz.span(),
+            rate_span,
             &format!("`sample_rate_hz` {rate}: at most 1000 (timestamps are whole milliseconds)")
         ));
     }
     if n.round() > f64::from(qc_core::MAX_SAMPLES_PER_INTERVAL) {
         bail!(at.err(
-            logging.sample_rate_hz.span(),
+            rate_span,
             &format!(
                 "{n} samples per interval: at most {}",
                 qc_core::MAX_SAMPLES_PER_INTERVAL
@@ -317,10 +352,36 @@ pub fn parse(path: &Path, text: &str) -> Result<StationFile> {
     for ch in &raw.channel {
         channels.push(build_channel(&at, ch, rate, &ids, &kinds)?);
     }
+    let sample_period_ms = (1000.0 / rate).round() as i64;
+    let sources: Vec<RawSource<'_>> = raw
+        .channel
+        .iter()
+        .zip(&channels)
+        .map(|(ch, spec)| {
+            let c = ch.get_ref();
+            RawSource {
+                column: c.column.as_ref(),
+                source_unit: c.source_unit.as_ref(),
+                quality: c.quality.as_ref(),
+                unit: c.unit.as_deref(),
+                kind: spec.kind,
+                id: c.id.get_ref(),
+                span: ch.span(),
+            }
+        })
+        .collect();
+    let table = table::build(
+        raw.input.as_ref(),
+        &sources,
+        sample_period_ms,
+        &|span, msg| at.err(span, &msg),
+    )?;
     let file = StationFile {
         path: path.to_path_buf(),
         name: raw.station.and_then(|s| s.name),
         sample_rate_hz: rate,
+        sample_period_ms,
+        table,
         station,
         channels,
     };
@@ -476,20 +537,24 @@ fn build_channel(
     if is_speed {
         let secs = match &raw.gust_window_s {
             Some(g) => num("gust_window_s", g)?,
-            None => 3.0,
+            None => DEFAULT_GUST_S,
         };
         let w = secs * rate;
+        // No gust: asked for (0), or the default 3-second window is shorter
+        // than one sample (a 3-second gust cannot come from 1-minute means).
+        let none = secs == 0.0 || (raw.gust_window_s.is_none() && w < 1.0);
         let span = raw
             .gust_window_s
             .as_ref()
             .map_or(table.clone(), Spanned::span);
-        if w.is_nan() || w < 1.0 || (w - w.round()).abs() > 1e-9 * w {
+        if none {
+            core = core.with_gust_window(0);
+        } else if w.is_nan() || w < 1.0 || (w - w.round()).abs() > 1e-9 * w {
             return Err(err(
                 span,
-                format!("gust window {secs} s at {rate} Hz must be a whole number of samples, at least 1"),
+                format!("gust window {secs} s at {rate} Hz must be a whole number of samples, at least 1 (or 0: no gust)"),
             ));
-        }
-        if w.round() > GUST_CAPACITY as f64 {
+        } else if w.round() > GUST_CAPACITY as f64 {
             return Err(err(
                 span,
                 format!(
@@ -497,8 +562,9 @@ fn build_channel(
                     w.round()
                 ),
             ));
+        } else {
+            core = core.with_gust_window(w.round() as u16);
         }
-        core = core.with_gust_window(w.round() as u16);
     }
     if let Some(o) = &raw.offset_deg {
         core = core.with_mounting_offset(num("offset_deg", o)?);

@@ -25,6 +25,7 @@ pub mod replay;
 pub mod report;
 pub mod samples;
 pub mod summary;
+pub mod table;
 pub mod timefmt;
 pub mod units;
 pub mod verify;

@@ -120,9 +120,15 @@ impl<R: Read> Read for Capped<R> {
 
 /// A `csv` reader over `inner` whose records are capped.
 pub fn csv_reader<R: Read>(inner: R) -> csv::Reader<Capped<R>> {
+    csv_reader_with(inner, b',')
+}
+
+/// A `csv` reader of fields separated by `delimiter` whose records are capped.
+pub fn csv_reader_with<R: Read>(inner: R, delimiter: u8) -> csv::Reader<Capped<R>> {
     csv::ReaderBuilder::new()
         .has_headers(false)
         .flexible(true)
+        .delimiter(delimiter)
         .from_reader(Capped::new(inner))
 }
 

@@ -41,7 +41,7 @@ use qc_core::{
 
 use crate::config::{StationFile, MAX_CHANNELS};
 use crate::engine::{Out, Sink, G};
-use crate::reader::{FileReader, Piece};
+use crate::reader::{FileReader, Head, Piece};
 use crate::samples::{
     check_jump, csv_rows, file_len, BadRow, InputStats, Options, Parser, Progress, Records,
 };
@@ -93,7 +93,7 @@ enum Item {
         file: usize,
         line: u64,
         rest: Box<dyn Read + Send>,
-        parser: Option<Parser>,
+        head: Head,
     },
     /// A file with no record at all.
     Empty { file: usize },
@@ -463,16 +463,18 @@ impl<const C: usize> Joiner<'_, C> {
         path: &Path,
         rest: Box<dyn Read + Send>,
         line: u64,
-        mut parser: Option<Parser>,
+        mut head: Head,
     ) -> Result<()> {
         let layout = self.layout;
         let mut run = Run::new(&layout, self.opts, self.last);
         let mut halt = None;
         let seen = {
             let mut send = |m| self.here(m, path);
-            let read = csv_rows(path, rest, line, cfg, &mut parser, |p, ln, rec| {
-                let parsed = p.parse_record(rec, &mut run.readings);
-                run.row(path, ln, parsed, &mut send)
+            let read = csv_rows(path, rest, line, cfg, &mut head, |p, ln, rec| {
+                match p.parse_record(rec, &mut run.readings) {
+                    Some(parsed) => run.row(path, ln, parsed, &mut send),
+                    None => Ok(()),
+                }
             });
             match read {
                 Ok(seen) => {
@@ -591,8 +593,8 @@ fn run<const C: usize>(
                     file: f,
                     line,
                     rest,
-                    parser,
-                } => joiner.tail(cfg, &files[f], rest, line, parser)?,
+                    head,
+                } => joiner.tail(cfg, &files[f], rest, line, head)?,
                 Item::Empty { file: f } => joiner.stats.empty_file(&opts, &files[f])?,
                 Item::FileDone => {
                     done += file_len(&files[file]);
@@ -678,13 +680,13 @@ fn read_file(
     let mut reader = FileReader::open(path, cfg)?;
     while let Some(piece) = reader.next_piece(opts.chunk_size)? {
         match piece {
-            Piece::Tail { line, rest, parser } => {
+            Piece::Tail { line, rest, head } => {
                 return order
                     .send(Item::Tail {
                         file: index,
                         line,
                         rest,
-                        parser,
+                        head,
                     })
                     .map_err(|_| closed());
             }

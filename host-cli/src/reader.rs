@@ -26,6 +26,7 @@ use anyhow::{Context, Result};
 use crate::config::StationFile;
 use crate::limits::{self, LongRecord, MAX_RECORD_BYTES};
 use crate::samples::{split_fields, Parser, Records};
+use crate::table::{Delimiter, Table};
 
 /// A piece of a samples file, in file order.
 pub enum Piece {
@@ -42,14 +43,14 @@ pub enum Piece {
         parser: Arc<Parser>,
     },
     /// The rest of the file, from line `line`, holding quotes: read in order
-    /// with [`csv_rows`]; `parser` is `None` when the header is still to come.
+    /// with [`csv_rows`], going on from where `head` stands.
     Tail {
         /// Line of the first byte of `rest`.
         line: u64,
         /// The bytes from the start of the chunk with the first quote on.
         rest: Box<dyn Read + Send>,
-        /// The file's header, if read before the quotes.
-        parser: Option<Parser>,
+        /// The file's preamble read so far (and its parser once read).
+        head: Head,
     },
 }
 
@@ -66,6 +67,9 @@ pub struct FileReader<'a> {
     eof: bool,
     /// Line of the first byte of `carry`.
     line: u64,
+    /// The preamble: lines skipped, the header, the units line.
+    head: Head,
+    /// The parser of the rows, once the preamble is read.
     parser: Option<Arc<Parser>>,
 }
 
@@ -81,13 +85,15 @@ impl<'a> FileReader<'a> {
             offset: 0,
             eof: false,
             line: 1,
+            head: Head::default(),
             parser: None,
         })
     }
 
-    /// Whether the file held a header (false at the end: an empty file).
+    /// Whether the file held a header, or data rows for a layout without
+    /// one (false at the end: an empty file).
     pub fn saw_header(&self) -> bool {
-        self.parser.is_some()
+        self.parser.is_some() || self.head.parser.is_some()
     }
 
     /// The next piece of about `size` bytes; `None` at the end of the file
@@ -102,7 +108,8 @@ impl<'a> FileReader<'a> {
                 return Ok(None);
             };
             let line = self.line;
-            if memchr::memchr(b'"', &block).is_some() {
+            let quotes = self.cfg.table.csv_delimiter().is_some();
+            if quotes && memchr::memchr(b'"', &block).is_some() {
                 let file = self.file.take().unwrap_or_else(|| Box::new(io::empty()));
                 let rest = Cursor::new(block)
                     .chain(Cursor::new(std::mem::take(&mut self.carry)))
@@ -110,21 +117,41 @@ impl<'a> FileReader<'a> {
                 return Ok(Some(Piece::Tail {
                     line,
                     rest: Box::new(rest),
-                    parser: self.parser.as_deref().cloned(),
+                    head: std::mem::take(&mut self.head),
                 }));
             }
             let end = offset + block.len() as u64;
             let (body, body_line) = match &self.parser {
                 Some(_) => (block, line),
                 None => {
+                    let table = &self.cfg.table;
                     let mut recs = Records::new(&block, line);
-                    match recs.next() {
-                        Some((hl, h)) => {
-                            let p = Parser::new(self.path, hl, split_fields(h), self.cfg)?;
-                            self.parser = Some(Arc::new(p));
-                            (block[recs.pos()..].to_vec(), recs.line())
+                    let mut start = None;
+                    loop {
+                        let (pos, at) = (recs.pos(), recs.line());
+                        let Some((ln, rec)) = recs.next() else { break };
+                        let data = self.head.feed(
+                            self.path,
+                            self.cfg,
+                            ln,
+                            table.is_comment(rec),
+                            split_header(table, rec),
+                        )?;
+                        if data {
+                            start = Some((pos, at));
+                            break;
                         }
-                        None => {
+                        if self.head.ready().is_some() {
+                            start = Some((recs.pos(), recs.line()));
+                            break;
+                        }
+                    }
+                    match (start, self.head.ready()) {
+                        (Some((pos, at)), Some(p)) => {
+                            self.parser = Some(Arc::new(p.clone()));
+                            (block[pos..].to_vec(), at)
+                        }
+                        _ => {
                             self.line = recs.line();
                             continue;
                         }
@@ -176,6 +203,77 @@ impl<'a> FileReader<'a> {
             self.offset = offset + buf.len() as u64;
             return Ok((!buf.is_empty()).then_some((offset, buf)));
         }
+    }
+}
+
+/// The fields of a header record of `table`'s layout.
+fn split_header<'r>(table: &Table, rec: &'r [u8]) -> Box<dyn Iterator<Item = &'r [u8]> + 'r> {
+    match table.delimiter {
+        Delimiter::Byte(b',') => Box::new(split_fields(rec)),
+        Delimiter::Byte(d) => Box::new(rec.split(move |c| *c == d)),
+        Delimiter::Whitespace => Box::new(
+            rec.split(|c| *c == b' ' || *c == b'\t')
+                .filter(|f| !f.is_empty()),
+        ),
+    }
+}
+
+/// How far the preamble of a file is read: the lines to skip, comment lines,
+/// the header and the units line (see [`Table`]). One state, fed by the
+/// block reader and by the `csv` crate's tail alike.
+#[derive(Clone, Debug, Default)]
+pub struct Head {
+    parser: Option<Parser>,
+    units_pending: bool,
+}
+
+impl Head {
+    /// The parser, once the preamble is read.
+    pub fn ready(&self) -> Option<&Parser> {
+        (!self.units_pending)
+            .then_some(self.parser.as_ref())
+            .flatten()
+    }
+
+    /// The parser, once the preamble is read.
+    pub fn ready_mut(&mut self) -> Option<&mut Parser> {
+        if self.units_pending {
+            return None;
+        }
+        self.parser.as_mut()
+    }
+
+    /// Whether a header (or data, without one) was read.
+    pub fn seen(&self) -> bool {
+        self.parser.is_some()
+    }
+
+    /// Feeds the preamble's next record (`line`, its fields, whether it is a
+    /// comment) while not [`Head::ready`]. Returns true when this record is
+    /// already data (a layout without a header).
+    pub fn feed<'f>(
+        &mut self,
+        path: &Path,
+        cfg: &StationFile,
+        line: u64,
+        comment: bool,
+        fields: impl Iterator<Item = &'f [u8]>,
+    ) -> Result<bool> {
+        let table = &cfg.table;
+        if line <= table.skip_lines || comment {
+            return Ok(false);
+        }
+        if self.units_pending {
+            self.units_pending = false;
+            return Ok(false);
+        }
+        if table.header {
+            self.parser = Some(Parser::new(path, line, fields, cfg)?);
+            self.units_pending = table.units_line;
+            return Ok(false);
+        }
+        self.parser = Some(Parser::new(path, line, std::iter::empty(), cfg)?);
+        Ok(true)
     }
 }
 

@@ -19,6 +19,7 @@
 use std::fmt;
 use std::io::{self, IsTerminal, Read};
 use std::path::{Path, PathBuf};
+use std::sync::Arc;
 
 use anyhow::{anyhow, bail, Result};
 use csv::ByteRecord;
@@ -28,7 +29,9 @@ use qc_core::{Pushed, Reading, Timestamp};
 use crate::config::{Decode, StationFile};
 use crate::engine::Engine;
 use crate::limits;
-use crate::reader::{FileReader, Piece};
+use crate::localtime::TimeProblem;
+use crate::reader::{FileReader, Head, Piece};
+use crate::table::{Column, Delimiter, Table};
 use crate::timefmt::{parse_time, Rfc3339, TimeError};
 
 /// Default `--max-gap-days`.
@@ -90,6 +93,8 @@ pub enum BadKind {
     Value,
     /// A field is not valid UTF-8.
     Encoding,
+    /// Not bad: a row of another station, left out by `[input] filter`.
+    Filtered,
 }
 
 /// Bad rows by kind.
@@ -103,10 +108,13 @@ pub struct BadCounts {
     pub value: u64,
     /// Not UTF-8.
     pub encoding: u64,
+    /// Rows of other stations left out by `[input] filter` (not bad, counted
+    /// here so that every row is accounted for).
+    pub filtered: u64,
 }
 
 impl BadCounts {
-    /// All bad rows.
+    /// All bad rows (rows of other stations are not bad).
     pub fn total(&self) -> u64 {
         self.field_count + self.time + self.value + self.encoding
     }
@@ -117,6 +125,7 @@ impl BadCounts {
             BadKind::Time => self.time += 1,
             BadKind::Value => self.value += 1,
             BadKind::Encoding => self.encoding += 1,
+            BadKind::Filtered => self.filtered += 1,
         }
     }
 
@@ -125,6 +134,7 @@ impl BadCounts {
         self.time += o.time;
         self.value += o.value;
         self.encoding += o.encoding;
+        self.filtered += o.filtered;
     }
 }
 
@@ -157,6 +167,10 @@ impl InputStats {
 
     /// Counts a bad row at `path:line`: an error without `--skip-bad-rows`.
     pub fn bad_row(&mut self, opts: &Options, path: &Path, line: u64, bad: BadRow) -> Result<()> {
+        if bad.0.kind == BadKind::Filtered {
+            self.bad.add(BadKind::Filtered);
+            return Ok(());
+        }
         if !opts.skip_bad_rows {
             bail!("{}:{line}: {bad}", path.display());
         }
@@ -365,13 +379,14 @@ impl Sequential<'_> {
                 Piece::Tail {
                     line,
                     rest,
-                    parser: header,
+                    mut head,
                 } => {
-                    let mut parser = parser.or(header);
                     let cfg = self.cfg;
-                    return csv_rows(path, rest, line, cfg, &mut parser, |p, line, rec| {
-                        let parsed = p.parse_record(rec, &mut self.readings);
-                        self.row(path, line, parsed)
+                    return csv_rows(path, rest, line, cfg, &mut head, |p, line, rec| {
+                        match p.parse_record(rec, &mut self.readings) {
+                            Some(parsed) => self.row(path, line, parsed),
+                            None => Ok(()),
+                        }
                     })
                     .and_then(|seen| self.empty_unless(seen, path));
                 }
@@ -405,18 +420,19 @@ impl Sequential<'_> {
 }
 
 /// Reads the rest of a file with the `csv` crate (text with quotes), from a
-/// record boundary on line `line`. Parses the header first unless `parser`
-/// already holds one; calls `row` for every data record with its line.
-/// Returns whether a header was seen (false: the file held no record).
+/// record boundary on line `line`, going on with the preamble from where
+/// `head` stands; calls `row` for every data record with its line. Returns
+/// whether a header (or data) was seen (false: the file held no record).
 pub fn csv_rows<E: From<anyhow::Error>>(
     path: &Path,
     rest: impl Read,
     line: u64,
     cfg: &StationFile,
-    parser: &mut Option<Parser>,
+    head: &mut Head,
     mut row: impl FnMut(&mut Parser, u64, &ByteRecord) -> Result<(), E>,
 ) -> Result<bool, E> {
-    let mut rdr = limits::csv_reader(rest);
+    let delimiter = cfg.table.csv_delimiter().unwrap_or(b',');
+    let mut rdr = limits::csv_reader_with(rest, delimiter);
     let mut rec = ByteRecord::new();
     // The csv reader numbers lines from 1 at `rest`.
     let at = |rec: &ByteRecord| line - 1 + rec.position().map_or(1, |p| p.line());
@@ -428,11 +444,17 @@ pub fn csv_rows<E: From<anyhow::Error>>(
             })
         })?;
         if !more {
-            return Ok(parser.is_some());
+            return Ok(head.seen());
         }
-        match parser {
-            Some(p) => row(p, at(&rec), &rec)?,
-            None => *parser = Some(Parser::new(path, at(&rec), rec.iter(), cfg)?),
+        if let Some(p) = head.ready_mut() {
+            row(p, at(&rec), &rec)?;
+            continue;
+        }
+        let comment = rec.get(0).is_some_and(|f| cfg.table.is_comment(f));
+        if head.feed(path, cfg, at(&rec), comment, rec.iter())? {
+            if let Some(p) = head.ready_mut() {
+                row(p, at(&rec), &rec)?;
+            }
         }
     }
 }
@@ -472,6 +494,14 @@ impl<'a> Records<'a> {
         readings: &mut [Reading],
         commas: &mut Vec<u32>,
     ) -> Option<(u64, Result<Timestamp, BadRow>)> {
+        if parser.is_declared() {
+            loop {
+                let (line, rec) = self.next()?;
+                if let Some(parsed) = parser.parse_declared(rec, readings) {
+                    return Some((line, parsed));
+                }
+            }
+        }
         let buf = self.buf;
         let i = self.skip_blank()?;
         if let Some((t, end)) = parser.parse_plain(buf, i, readings) {
@@ -594,22 +624,59 @@ pub struct Parser {
     /// Channel ids in station-file order, for messages.
     ids: Vec<String>,
     time: TimeCache,
+    /// A declared layout (`[input]`), read by [`Declared`]; `None` for
+    /// tenmin's own samples CSV.
+    declared: Option<Box<Declared>>,
 }
 
 impl Parser {
-    /// A parser for the header `fields` on `path:line`; header problems are
-    /// errors naming the field.
+    /// A parser for the header `fields` on `path:line` (none for a declared
+    /// layout without a header); header problems are errors naming the field
+    /// and, for a declared layout, the station file's key.
     pub fn new<'f>(
         path: &Path,
         line: u64,
         fields: impl Iterator<Item = &'f [u8]>,
         cfg: &StationFile,
     ) -> Result<Self> {
+        let ids: Vec<String> = cfg.channels.iter().map(|c| c.id.clone()).collect();
+        if cfg.table.own {
+            return Ok(Parser {
+                cols: header(path, line, fields, cfg)?,
+                ids,
+                time: TimeCache::default(),
+                declared: None,
+            });
+        }
         Ok(Parser {
-            cols: header(path, line, fields, cfg)?,
-            ids: cfg.channels.iter().map(|c| c.id.clone()).collect(),
+            cols: Vec::new(),
+            declared: Some(Box::new(Declared::new(path, line, fields, cfg)?)),
+            ids,
             time: TimeCache::default(),
         })
+    }
+
+    /// Whether this reads a declared layout (no comma fast path).
+    #[inline]
+    pub fn is_declared(&self) -> bool {
+        self.declared.is_some()
+    }
+
+    /// Reads one record of a declared layout: `None` for a comment line.
+    pub fn parse_declared(
+        &mut self,
+        rec: &[u8],
+        readings: &mut [Reading],
+    ) -> Option<Result<Timestamp, BadRow>> {
+        let d = self.declared.as_deref_mut()?;
+        if d.table.is_comment(rec) {
+            return None;
+        }
+        let mut spans = std::mem::take(&mut d.spans);
+        split(d.table.delimiter, rec, &mut spans);
+        let r = d.row(&Line(rec, &spans), readings, &self.ids);
+        d.spans = spans;
+        Some(r)
     }
 
     /// Reads a plain record starting at `buf[start]` in one pass: every field
@@ -679,13 +746,19 @@ impl Parser {
         self.fields(commas.len() + 1, fields, readings)
     }
 
-    /// Reads a record of the `csv` crate.
+    /// Reads a record of the `csv` crate (`None`: a comment line).
     pub fn parse_record(
         &mut self,
         rec: &ByteRecord,
         readings: &mut [Reading],
-    ) -> Result<Timestamp, BadRow> {
-        self.fields(rec.len(), rec.iter(), readings)
+    ) -> Option<Result<Timestamp, BadRow>> {
+        if let Some(d) = self.declared.as_deref_mut() {
+            if rec.get(0).is_some_and(|f| d.table.is_comment(f)) {
+                return None;
+            }
+            return Some(d.row(rec, readings, &self.ids));
+        }
+        Some(self.fields(rec.len(), rec.iter(), readings))
     }
 
     #[inline]
@@ -730,6 +803,265 @@ impl Parser {
         }
         // The header guarantees one time column.
         time.ok_or_else(|| BadRow::new(BadKind::Time, None, "no time".into()))
+    }
+}
+
+/// The fields of one record, by index.
+trait Fields {
+    fn count(&self) -> usize;
+    fn field(&self, i: usize) -> &[u8];
+}
+
+/// A record and the spans of its fields.
+struct Line<'a>(&'a [u8], &'a [(u32, u32)]);
+
+impl Fields for Line<'_> {
+    fn count(&self) -> usize {
+        self.1.len()
+    }
+    fn field(&self, i: usize) -> &[u8] {
+        self.1
+            .get(i)
+            .and_then(|&(a, b)| self.0.get(a as usize..b as usize))
+            .unwrap_or_default()
+    }
+}
+
+impl Fields for ByteRecord {
+    fn count(&self) -> usize {
+        self.len()
+    }
+    fn field(&self, i: usize) -> &[u8] {
+        self.get(i).unwrap_or_default()
+    }
+}
+
+/// The spans of the fields of `rec` split at `delim` into `spans`.
+fn split(delim: Delimiter, rec: &[u8], spans: &mut Vec<(u32, u32)>) {
+    spans.clear();
+    match delim {
+        Delimiter::Byte(b) => {
+            let mut start = 0u32;
+            for p in memchr::memchr_iter(b, rec) {
+                spans.push((start, p as u32));
+                start = p as u32 + 1;
+            }
+            spans.push((start, rec.len() as u32));
+        }
+        Delimiter::Whitespace => {
+            let mut i = 0usize;
+            while i < rec.len() {
+                while i < rec.len() && matches!(rec[i], b' ' | b'\t') {
+                    i += 1;
+                }
+                let start = i;
+                while i < rec.len() && !matches!(rec[i], b' ' | b'\t') {
+                    i += 1;
+                }
+                if i > start {
+                    spans.push((start as u32, i as u32));
+                }
+            }
+        }
+    }
+}
+
+/// A file of a declared layout (`[input]`): where each field goes.
+#[derive(Clone, Debug)]
+pub struct Declared {
+    table: Arc<Table>,
+    /// Fields a row must have: exactly (with a header) or at least.
+    fields: usize,
+    exact: bool,
+    /// The time columns' field indices, in the order they are joined.
+    time: Vec<usize>,
+    /// Per channel: the field index, how it is read, its quality field.
+    chan: Vec<(usize, Decode, Option<usize>)>,
+    filter: Option<usize>,
+    /// Names of the fields (header, or "column N"), for messages.
+    names: Vec<String>,
+    /// Scratch: field spans and the joined time.
+    spans: Vec<(u32, u32)>,
+    tbuf: Vec<u8>,
+}
+
+impl Declared {
+    fn new<'f>(
+        path: &Path,
+        line: u64,
+        header: impl Iterator<Item = &'f [u8]>,
+        cfg: &StationFile,
+    ) -> Result<Self> {
+        let table = Arc::new(cfg.table.clone());
+        let station = cfg.path.display();
+        let names: Vec<String> = if table.header {
+            header
+                .enumerate()
+                .map(|(i, raw)| {
+                    let raw = if i == 0 {
+                        raw.strip_prefix(b"\xEF\xBB\xBF").unwrap_or(raw)
+                    } else {
+                        raw
+                    };
+                    let raw = raw.trim_ascii();
+                    let raw = raw
+                        .strip_prefix(b"\"")
+                        .and_then(|r| r.strip_suffix(b"\""))
+                        .unwrap_or(raw);
+                    String::from_utf8_lossy(raw).trim().to_string()
+                })
+                .collect()
+        } else {
+            Vec::new()
+        };
+        let find = |c: &Column, key: &str| -> Result<usize> {
+            match c {
+                Column::Index(i) => {
+                    if table.header && *i >= names.len() {
+                        bail!(
+                            "{}:{line}: the header has {} columns; {key} in {station} names column {} (positions count from 1)",
+                            path.display(),
+                            names.len(),
+                            i + 1
+                        );
+                    }
+                    Ok(*i)
+                }
+                Column::Name(n) => names.iter().position(|h| h == n).ok_or_else(|| {
+                    anyhow!(
+                        "{}:{line}: no column {n:?} in the header, which {key} in {station} names; the header has {}",
+                        path.display(),
+                        names.iter().map(|h| format!("{h:?}")).collect::<Vec<_>>().join(", ")
+                    )
+                }),
+            }
+        };
+        let time = table
+            .time_columns
+            .iter()
+            .map(|c| find(c, "[input.time]"))
+            .collect::<Result<Vec<_>>>()?;
+        let mut chan = Vec::with_capacity(cfg.channels.len());
+        for (spec, src) in cfg.channels.iter().zip(&table.sources) {
+            let key = format!("channel {:?}", spec.id);
+            let col = find(&src.column, &key)?;
+            let q = match &src.quality {
+                Some(q) => Some(find(&q.column, &format!("the `quality` of {key}"))?),
+                None => None,
+            };
+            chan.push((col, spec.decode, q));
+        }
+        let filter = match &table.filter {
+            Some(f) => Some(find(&f.column, "[input] filter")?),
+            None => None,
+        };
+        let highest = time
+            .iter()
+            .chain(chan.iter().map(|c| &c.0))
+            .chain(chan.iter().filter_map(|c| c.2.as_ref()))
+            .chain(filter.iter())
+            .max()
+            .copied()
+            .unwrap_or(0);
+        let (fields, exact) = if table.header {
+            (names.len(), true)
+        } else {
+            (highest + 1, false)
+        };
+        Ok(Declared {
+            table,
+            fields,
+            exact,
+            time,
+            chan,
+            filter,
+            names,
+            spans: Vec::with_capacity(64),
+            tbuf: Vec::with_capacity(64),
+        })
+    }
+
+    fn name(&self, i: usize) -> String {
+        self.names
+            .get(i)
+            .cloned()
+            .unwrap_or_else(|| format!("column {}", i + 1))
+    }
+
+    /// Reads one row's fields into `readings`; its time, or why it is bad
+    /// (or [`BadKind::Filtered`] for a row of another station).
+    fn row(
+        &mut self,
+        f: &impl Fields,
+        readings: &mut [Reading],
+        ids: &[String],
+    ) -> Result<Timestamp, BadRow> {
+        let n = f.count();
+        if (self.exact && n != self.fields) || n < self.fields {
+            let what = if self.exact { "" } else { "at least " };
+            return Err(BadRow::new(
+                BadKind::FieldCount,
+                None,
+                format!(
+                    "expected {what}{} fields as the station file's [input] declares, found {n}",
+                    self.fields
+                ),
+            ));
+        }
+        let table = &*self.table;
+        if let (Some(i), Some(flt)) = (self.filter, &table.filter) {
+            if f.field(i).trim_ascii() != flt.value.as_slice() {
+                return Err(BadRow::new(BadKind::Filtered, None, String::new()));
+            }
+        }
+        self.tbuf.clear();
+        for (k, &i) in self.time.iter().enumerate() {
+            if k > 0 {
+                self.tbuf.push(b' ');
+            }
+            self.tbuf.extend_from_slice(f.field(i).trim_ascii());
+        }
+        let t = match table.time.parse(&self.tbuf) {
+            Ok(t) => t,
+            Err(e) => {
+                let i = self.time[0];
+                let kind = if e == TimeProblem::Parse(TimeError::Encoding) {
+                    BadKind::Encoding
+                } else {
+                    BadKind::Time
+                };
+                return Err(BadRow::new(
+                    kind,
+                    Some((i, self.name(i))),
+                    format!("{e}, found {}", shown(&self.tbuf)),
+                ));
+            }
+        };
+        for (c, (&(i, decode, q), src)) in self.chan.iter().zip(&table.sources).enumerate() {
+            let field = f.field(i).trim_ascii();
+            let reading = if field.is_empty() || table.missing.iter().any(|m| m == field) {
+                Reading::Missing
+            } else if table.decimal_comma && field.contains(&b',') {
+                let mut buf = [0u8; 64];
+                let Some(b) = buf.get_mut(..field.len()) else {
+                    return Err(value_error(i, &ids[c], BadKind::Value, decode, field));
+                };
+                for (o, &x) in b.iter_mut().zip(field) {
+                    *o = if x == b',' { b'.' } else { x };
+                }
+                parse_reading(b, decode).map_err(|k| value_error(i, &ids[c], k, decode, field))?
+            } else {
+                parse_reading(field, decode)
+                    .map_err(|k| value_error(i, &ids[c], k, decode, field))?
+            };
+            let reading = match (reading, src.convert) {
+                (Reading::Value(v), Some(conv)) => Reading::Value(conv.apply(v)),
+                (r, _) => r,
+            };
+            let _ = q;
+            readings[c] = reading;
+        }
+        Ok(t)
     }
 }
 

@@ -58,14 +58,14 @@ pub fn write_skipped(w: &mut dyn Write, input: &InputStats) -> io::Result<()> {
 impl Summary {
     /// Rows accounted for: accepted, rejected by reason, bad.
     pub fn rows_accounted(&self) -> u64 {
-        self.pushed.pushed() + self.input.bad.total()
+        self.pushed.pushed() + self.input.bad.total() + self.input.bad.filtered
     }
 
     /// Writes the summary.
     pub fn write(&self, w: &mut dyn Write, cfg: &StationFile) -> io::Result<()> {
         let p = &self.pushed;
         let b = &self.input.bad;
-        writeln!(
+        write!(
             w,
             "rows read: {} from {} file(s) = {} accepted + {} rejected (duplicate {}, backward {}, closed interval {}, unsupported time {}) + {} bad rows",
             self.input.rows,
@@ -78,6 +78,14 @@ impl Summary {
             p.unsupported_time,
             b.total()
         )?;
+        if b.filtered > 0 {
+            write!(
+                w,
+                " + {} rows of other stations (left out by [input] filter)",
+                b.filtered
+            )?;
+        }
+        writeln!(w)?;
         write_skipped(w, &self.input)?;
         if self.rows_accounted() != self.input.rows {
             // Cannot happen: every row is pushed or counted bad. Said loudly if it does.

@@ -99,7 +99,10 @@ pub struct ChannelConfig {
     /// Physically possible values, inclusive; readings outside are counted out
     /// of range and left out of the statistics.
     pub range: (f64, f64),
-    /// Gust window in samples (speed channels).
+    /// Gust window in samples (speed channels); 0 computes no gust (for
+    /// samples slower than any gust window: a 3-second gust cannot come from
+    /// 1-minute means), and the record's gust is
+    /// [`Absent::NotApplicable`].
     pub gust_window: u16,
     /// Vane mounting offset, degrees, -360 to 360: `true = (raw + offset) mod 360`
     /// (common practice).
@@ -353,7 +356,13 @@ impl Channel {
             code_in_counts: true,
             code_in_values: true,
             dir_inline_lo: i32::MAX,
-            gust_w: cfg.gust_window,
+            // A channel without a gust still keeps a 1-sample window: the
+            // per-sample path stays the same, and the finish leaves it out.
+            gust_w: if cfg.gust_window == 0 {
+                1
+            } else {
+                cfg.gust_window
+            },
             spike_lim: u32::MAX,
         };
         let sc = &cfg.screen;
@@ -380,8 +389,8 @@ impl Channel {
         }
         match cfg.kind {
             Kind::Speed => {
-                let w = cfg.gust_window as usize;
-                if w == 0 || w > gust_capacity {
+                let w = ch.gust_w as usize;
+                if w > gust_capacity {
                     return Err(ChannelProblem::GustWindow);
                 }
                 // Gust window sums are i32 (crate::gust): any `w` quanta in range
@@ -427,10 +436,11 @@ impl Channel {
         self.spike_lim
     }
 
-    /// Gust window in samples (0 for channels without a gust).
+    /// Gust window in samples (0 for channels other than speed; 1 for a
+    /// speed channel that computes no gust).
     pub(crate) fn window(&self) -> usize {
         match self.cfg.kind {
-            Kind::Speed => usize::from(self.cfg.gust_window),
+            Kind::Speed => usize::from(self.gust_w),
             _ => 0,
         }
     }
@@ -829,6 +839,7 @@ impl<const G: usize> ChannelAcc<G> {
                             Stat::Absent(Absent::ZeroMean)
                         };
                         r.gust = match a.gust.best_sum() {
+                            _ if ch.cfg.gust_window == 0 => Stat::Absent(Absent::NotApplicable),
                             Some(b) => Stat::Value(scale.ratio(inv, b as f64, ch.window() as f64)),
                             None => Stat::Absent(Absent::NoFullWindow),
                         };
@@ -1189,7 +1200,8 @@ fn fill_direction(r: &mut ChannelRecord, sums: &DirectionSums, n: u32) {
 #[cfg_attr(feature = "defmt", derive(defmt::Format))]
 #[non_exhaustive]
 pub enum Absent {
-    /// The statistic does not exist for this kind of channel.
+    /// The statistic does not exist for this kind of channel, or was not
+    /// asked for (the gust of a speed channel with `gust_window` 0).
     NotApplicable,
     /// No valid samples in the interval.
     NoValidSamples,

@@ -38,7 +38,7 @@ pub enum ChannelProblem {
     /// The range, at this resolution, does not fit 31-bit quanta (speed, scalar)
     /// or lies beyond +/-1e6 degrees (direction).
     RangeTooWide,
-    /// The gust window is 0 samples or longer than the station's gust capacity `G`.
+    /// The gust window is longer than the station's gust capacity `G`.
     GustWindow,
     /// The linked speed channel does not exist or is not a speed channel.
     SpeedLink,
@@ -61,7 +61,7 @@ impl fmt::Display for ChannelProblem {
             ChannelProblem::Scale => "resolution or calibration slope must be finite and positive, offset finite",
             ChannelProblem::Range => "range must be finite with low <= high",
             ChannelProblem::RangeTooWide => "range is too wide for the resolution (quanta must fit 31 bits, and for speed a gust window of them too; directions within +/-1e6 degrees)",
-            ChannelProblem::GustWindow => "gust window must be at least one sample and within the station's gust capacity",
+            ChannelProblem::GustWindow => "gust window must be within the station's gust capacity (0: no gust)",
             ChannelProblem::SpeedLink => "linked speed channel must exist and be of kind speed",
             ChannelProblem::DirectionSlope => "direction calibration slope must be at most 300 degrees per count",
             ChannelProblem::MountingOffset => "mounting offset must be within -360 to 360 degrees",

@@ -1208,6 +1208,41 @@ mod tests {
     }
 
     #[test]
+    fn a_speed_channel_with_gust_window_0_has_no_gust_and_the_same_statistics() {
+        use super::{Event, Layout, Station, StationConfig};
+        use crate::{Absent, ChannelConfig, Reading, Stat, Timestamp};
+        // Two anemometers reading the same values, one with a 1-sample window.
+        let layout = Layout::<2>::new::<3>(
+            StationConfig::ten_minute_1hz(),
+            &[
+                ChannelConfig::speed(0.01).with_gust_window(0),
+                ChannelConfig::speed(0.01).with_gust_window(1),
+            ],
+        )
+        .unwrap();
+        let mut st: Station<2, 3> = Station::new(layout);
+        let mut seen = 0;
+        for s in 0..1200i64 {
+            let v = 5.0 + (s % 7) as f64 * 0.3;
+            st.push(
+                Timestamp::from_millis(s * 1000),
+                &[Reading::Value(v), Reading::Value(v)],
+                |e| {
+                    if let Event::Closed(_, records) = e {
+                        let (a, b) = (records[0], records[1]);
+                        assert_eq!(a.gust, Stat::Absent(Absent::NotApplicable));
+                        assert!(matches!(b.gust, Stat::Value(_)));
+                        assert_eq!((a.mean, a.sd, a.min, a.max), (b.mean, b.sd, b.min, b.max));
+                        assert_eq!((a.tally, a.flags), (b.tally, b.flags));
+                        seen += 1;
+                    }
+                },
+            );
+        }
+        assert_eq!(seen, 1);
+    }
+
+    #[test]
     fn a_pair_or_shear_test_against_the_channel_itself_is_refused() {
         use super::{Layout, StationConfig};
         use crate::{ChannelConfig, ChannelProblem, ConfigError, Kind, Screen};
