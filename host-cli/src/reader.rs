@@ -74,13 +74,13 @@ pub struct FileReader<'a> {
 }
 
 impl<'a> FileReader<'a> {
-    /// Opens `path`, a samples file of the station `cfg`.
+    /// Opens `path`, a samples file of the station `cfg`: read as it is, or
+    /// decompressed as a stream when it ends in `.gz` or `.zst`.
     pub fn open(path: &'a Path, cfg: &'a StationFile) -> Result<Self> {
-        let file = File::open(path).with_context(|| format!("cannot open {}", path.display()))?;
         Ok(FileReader {
             path,
             cfg,
-            file: Some(Box::new(file)),
+            file: Some(open_maybe_compressed(path)?),
             carry: Vec::new(),
             offset: 0,
             eof: false,
@@ -204,6 +204,55 @@ impl<'a> FileReader<'a> {
             return Ok((!buf.is_empty()).then_some((offset, buf)));
         }
     }
+}
+
+/// How a file is compressed, from its name.
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+pub enum Compression {
+    /// Not compressed.
+    None,
+    /// gzip (`.gz`), one member or several.
+    Gzip,
+    /// Zstandard (`.zst`).
+    Zstd,
+}
+
+impl Compression {
+    /// From the file name's extension.
+    pub fn of(path: &Path) -> Compression {
+        match path.extension().and_then(|e| e.to_str()) {
+            Some(e) if e.eq_ignore_ascii_case("gz") => Compression::Gzip,
+            Some(e) if e.eq_ignore_ascii_case("zst") => Compression::Zstd,
+            _ => Compression::None,
+        }
+    }
+}
+
+/// `path` as a stream of its (decompressed) bytes. Decompression keeps a
+/// fixed window (gzip 32 KiB; Zstandard its frame's window, at most 128 MiB
+/// by the format's decoder default, 8 MiB for files written at the usual
+/// levels), so memory stays constant whatever the file's length.
+pub fn open_maybe_compressed(path: &Path) -> Result<Box<dyn Read + Send>> {
+    let file = File::open(path).with_context(|| format!("cannot open {}", path.display()))?;
+    let compression = Compression::of(path);
+    if compression == Compression::None {
+        return Ok(Box::new(file));
+    }
+    let file = io::BufReader::with_capacity(256 << 10, file);
+    Ok(match compression {
+        Compression::None | Compression::Gzip => {
+            Box::new(flate2::bufread::MultiGzDecoder::new(file))
+        }
+        Compression::Zstd => {
+            let mut d = zstd::stream::read::Decoder::with_buffer(file)
+                .with_context(|| format!("cannot read {} as Zstandard", path.display()))?;
+            // At most an 8 MiB window (2^23): the levels `zstd` writes by
+            // default stay below it; a file asking for more is refused.
+            d.window_log_max(23)
+                .with_context(|| format!("cannot read {} as Zstandard", path.display()))?;
+            Box::new(d)
+        }
+    })
 }
 
 /// The fields of a header record of `table`'s layout.
