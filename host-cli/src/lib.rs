@@ -16,6 +16,8 @@ pub mod demo;
 pub mod engine;
 pub mod export;
 pub mod logscan;
+pub mod options;
+pub mod output;
 pub mod parallel;
 pub mod records;
 pub mod replay;
@@ -25,12 +27,11 @@ pub mod summary;
 pub mod timefmt;
 pub mod verify;
 
-use std::fs::File;
-use std::io::{self, BufWriter, Write};
+use std::io::{self, Write};
 use std::path::{Path, PathBuf};
 use std::process::ExitCode;
 
-use anyhow::{Context, Result};
+use anyhow::Result;
 use clap::{Args, Parser, Subcommand};
 
 /// The file formats in brief, for `--help`.
@@ -222,7 +223,7 @@ pub struct ExportArgs {
     /// A forward jump between consecutive samples larger than this many days stops the
     /// command, as in `tenmin replay`.
     #[arg(long, default_value_t = samples::DEFAULT_MAX_GAP_DAYS, value_name = "D",
-          value_parser = clap::value_parser!(u32).range(1..))]
+          allow_negative_numbers = true, value_parser = options::whole::<u32>(1, u32::MAX as u64))]
     max_gap_days: u32,
 }
 
@@ -249,7 +250,7 @@ pub struct DecodeArgs {
     /// than this many days stop the command: a wrong logger clock would otherwise write an
     /// empty row per interval, as in `tenmin replay`.
     #[arg(long, default_value_t = samples::DEFAULT_MAX_GAP_DAYS, value_name = "D",
-          value_parser = clap::value_parser!(u32).range(1..))]
+          allow_negative_numbers = true, value_parser = options::whole::<u32>(1, u32::MAX as u64))]
     max_gap_days: u32,
 }
 
@@ -278,16 +279,17 @@ pub struct InputArgs {
     quiet: bool,
     /// Threads reading samples [default: the available cores, at most 2]. With 1, one
     /// thread reads and replays; the records are the same either way.
-    #[arg(long, short = 'j', value_name = "N", value_parser = clap::value_parser!(u16).range(1..))]
+    #[arg(long, short = 'j', value_name = "N", allow_negative_numbers = true,
+          value_parser = options::whole::<u16>(1, u16::MAX as u64))]
     jobs: Option<u16>,
     /// A forward jump between consecutive samples larger than this many days stops the
     /// command (a wrong logger clock would otherwise write an empty row per interval).
     #[arg(long, default_value_t = samples::DEFAULT_MAX_GAP_DAYS, value_name = "D",
-          value_parser = clap::value_parser!(u32).range(1..))]
+          allow_negative_numbers = true, value_parser = options::whole::<u32>(1, u32::MAX as u64))]
     max_gap_days: u32,
     /// Bytes per chunk of parallel replay (for testing).
     #[arg(long, hide = true, default_value_t = samples::DEFAULT_CHUNK_SIZE as u64,
-          value_parser = clap::value_parser!(u64).range(64..=1 << 30))]
+          allow_negative_numbers = true, value_parser = options::whole::<u64>(64, 1 << 30))]
     chunk_size: u64,
 }
 
@@ -303,7 +305,8 @@ pub struct VerifyArgs {
     #[arg(long, value_name = "LOGGER.csv")]
     records: PathBuf,
     /// List at most this many differences (the rest are counted).
-    #[arg(long, default_value_t = 20, value_name = "N")]
+    #[arg(long, default_value_t = 20, value_name = "N", allow_negative_numbers = true,
+          value_parser = options::whole::<usize>(0, u32::MAX as u64))]
     max_diffs: usize,
     #[command(flatten)]
     input: InputArgs,
@@ -311,14 +314,22 @@ pub struct VerifyArgs {
 
 #[derive(Args, Debug)]
 pub struct DemoArgs {
-    /// Folder to write into (created if needed).
-    #[arg(long, default_value = "tenmin-demo", value_name = "DIR")]
-    out: PathBuf,
+    /// Folder to write the demo's files into (created if needed).
+    #[arg(
+        long = "output",
+        short = 'o',
+        alias = "out",
+        default_value = "tenmin-demo",
+        value_name = "DIR"
+    )]
+    output: PathBuf,
     /// Days of 1 Hz samples.
-    #[arg(long, default_value_t = 2, value_parser = clap::value_parser!(u32).range(1..=366), value_name = "N")]
+    #[arg(long, default_value_t = 2, value_name = "N", allow_negative_numbers = true,
+          value_parser = options::whole::<u32>(1, 366))]
     days: u32,
     /// Random seed of the invented weather and faults.
-    #[arg(long, default_value_t = 1, value_name = "N")]
+    #[arg(long, default_value_t = 1, value_name = "N", allow_negative_numbers = true,
+          value_parser = options::whole::<u64>(0, u64::MAX))]
     seed: u64,
 }
 
@@ -353,7 +364,7 @@ fn run(cli: Cli) -> Result<ExitCode> {
     match cli.command {
         Command::Replay(a) => replay_cmd(a),
         Command::Verify(a) => verify_cmd(a),
-        Command::Demo(a) => demo::run(&a.out, a.days, a.seed),
+        Command::Demo(a) => demo::run(&a.output, a.days, a.seed),
         Command::Report(a) => report::run(&a),
         Command::Export(a) => export::run(&a),
         Command::Decode(a) => decode::run(&a),
@@ -375,58 +386,28 @@ fn ids(cfg: &config::StationFile) -> Vec<String> {
 }
 
 fn replay_cmd(a: ReplayArgs) -> Result<ExitCode> {
+    if let Some(out) = &a.output {
+        output::refuse_inputs(out, &inputs(&a.config, "samples file", &a.samples))?;
+    }
     let cfg = config::load(&a.config)?;
-    let summary = match &a.output {
-        Some(path) => write_atomically(path, |w| {
-            let mut writer = records::Writer::new(w, ids(&cfg))?;
-            let s = replay::replay(&cfg, &a.samples, options(&a.input), &mut writer)?;
-            writer.finish()?;
-            Ok(s)
-        })?,
-        None => {
-            let stdout = io::stdout();
-            let mut writer = records::Writer::new(BufWriter::new(stdout.lock()), ids(&cfg))?;
-            let s = replay::replay(&cfg, &a.samples, options(&a.input), &mut writer)?;
-            writer.finish()?;
-            s
-        }
-    };
+    let summary = output::write_to(a.output.as_deref(), "records", |w| {
+        let mut writer = records::Writer::new(w, ids(&cfg))?;
+        let s = replay::replay(&cfg, &a.samples, options(&a.input), &mut writer)?;
+        writer.finish()?;
+        Ok(s)
+    })?;
     if !a.input.quiet {
         let _ = summary.write(&mut io::stderr().lock(), &cfg);
     }
     Ok(ExitCode::SUCCESS)
 }
 
-/// Writes `path` through a sibling `.partial` file renamed on success, so an
-/// error never leaves a truncated records file under the real name.
-fn write_atomically<T>(
-    path: &Path,
-    f: impl FnOnce(&mut BufWriter<File>) -> Result<T>,
-) -> Result<T> {
-    let mut tmp = path.as_os_str().to_owned();
-    tmp.push(".partial");
-    let tmp = PathBuf::from(tmp);
-    let file = File::create(&tmp).with_context(|| format!("cannot create {}", tmp.display()))?;
-    let mut w = BufWriter::new(file);
-    let result = f(&mut w).and_then(|v| {
-        w.flush()
-            .with_context(|| format!("cannot write {}", tmp.display()))?;
-        Ok(v)
-    });
-    match result {
-        Ok(v) => {
-            drop(w);
-            std::fs::rename(&tmp, path).with_context(|| {
-                format!("cannot rename {} to {}", tmp.display(), path.display())
-            })?;
-            Ok(v)
-        }
-        Err(e) => {
-            drop(w);
-            let _ = std::fs::remove_file(&tmp);
-            Err(e)
-        }
-    }
+/// The inputs of a command, for [`output::refuse_inputs`]: the station file
+/// and the `files` (each a `what`).
+fn inputs<'a>(config: &'a Path, what: &'a str, files: &'a [PathBuf]) -> Vec<(&'a str, &'a Path)> {
+    let mut v = vec![("station file", config)];
+    v.extend(files.iter().map(|f| (what, f.as_path())));
+    v
 }
 
 fn verify_cmd(a: VerifyArgs) -> Result<ExitCode> {
