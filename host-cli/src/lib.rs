@@ -59,6 +59,27 @@ macro_rules! formats {
     };
 }
 
+/// The options every command spells the same way, for `--help`.
+macro_rules! shared {
+    () => {
+        "Options shared by all commands (each takes those that apply to it):
+  -c, --config FILE    the station file (TOML)
+  -o, --output PATH    where results go: a file for replay, export and decode
+                       (replay and decode: stdout without it), a folder for report
+                       and demo; a file is written whole or not at all (through a
+                       temporary file in its folder, renamed at the end; through a
+                       symbolic link, the link's target), a device or FIFO directly,
+                       and never over one of the command's inputs
+  -q, --quiet          no summary on stderr (replay, verify, export, decode)
+  -j, --jobs N         threads reading samples (replay, verify)
+  --skip-bad-rows      count bad sample rows and go on (replay, verify, export)
+  --max-gap-days D     a larger forward jump in time stops the command (replay,
+                       verify, export, decode)
+  --strict             exit 1 on any damage in a log (decode)
+"
+    };
+}
+
 /// The exit codes, for `--help`.
 macro_rules! exit_codes {
     () => {
@@ -84,6 +105,8 @@ replay and verify.",
     after_help = exit_codes!(),
     after_long_help = concat!(
         "Examples:\n  tenmin demo\n  tenmin replay --config tenmin-demo/station.toml tenmin-demo/samples-*.csv -o records.csv\n\n",
+        shared!(),
+        "\n",
         formats!(),
         "\n",
         exit_codes!()
@@ -134,8 +157,11 @@ records computed through qc-core as the logger firmware would. Then replay the s
 disk, verify them against the logger's records and print a short summary. Needs nothing \
 downloaded; the data are made up and describe no real site.",
         after_long_help = concat!(
-            "Example:\n  tenmin demo --out tenmin-demo --days 2 --seed 1\n\n",
-            "Writes DIR/station.toml, DIR/samples-YYYY-MM-DD.csv (one per day), DIR/logger-records.csv.\n\n",
+            "Example:\n  tenmin demo -o tenmin-demo --days 2 --seed 1\n\n",
+            "Writes into the folder DIR (-o, default tenmin-demo): DIR/station.toml, \
+DIR/samples-YYYY-MM-DD.csv (one per day), DIR/logger-records.csv (the logger's records) and \
+DIR/logger.log (the same records as the logger's record log, for `tenmin decode`). Each file \
+is written whole or not at all.\n\n",
             "Exit codes:\n  0  success\n  1  the demo's verify found differences (a bug: please report it)\n  2  bad usage or an I/O error"
         )
     )]
@@ -149,7 +175,7 @@ the wind rose, the speed distribution with its Weibull fit, turbulence intensity
 normal turbulence model, and wind shear. The tables go to DIR as CSV files; a short summary goes to stdout. \
 See host-cli/REPORT.md.",
         after_long_help = concat!(
-            "Example:\n  tenmin report --config station.toml records.csv --out report --sectors 12\n\n",
+            "Example:\n  tenmin report --config station.toml records.csv -o report --sectors 12\n\n",
             "Files: station and records as for `tenmin replay --help`.\n\n",
             "Exit codes:\n  0  success\n  2  bad input, bad usage or an I/O error (the message names file, line and field)"
         )
@@ -211,7 +237,7 @@ pub struct ExportArgs {
     /// Samples CSV files, in this order as one record.
     #[arg(required = true, value_name = "SAMPLES")]
     samples: Vec<PathBuf>,
-    /// The sample file to write.
+    /// File to write the sample file to: written whole or not at all, never over an input.
     #[arg(long, short = 'o', value_name = "OUT.tmsf")]
     output: PathBuf,
     /// Count bad rows in the summary and go on, instead of stopping at the first.
@@ -236,7 +262,8 @@ pub struct DecodeArgs {
     /// The log: record frames or state frames.
     #[arg(value_name = "LOG")]
     log: PathBuf,
-    /// Write records here instead of stdout.
+    /// File to write the records to [default: stdout]: written whole or not at all, never
+    /// over an input.
     #[arg(long, short = 'o', value_name = "RECORDS.csv")]
     output: Option<PathBuf>,
     /// Exit with 1 when anything was damaged, torn, lost or out of order (in a state log,
@@ -262,7 +289,8 @@ pub struct ReplayArgs {
     /// Samples CSV files, replayed in this order as one record.
     #[arg(required = true, value_name = "SAMPLES")]
     samples: Vec<PathBuf>,
-    /// Write records here instead of stdout.
+    /// File to write the records to [default: stdout]: written whole or not at all, never
+    /// over an input.
     #[arg(long, short = 'o', value_name = "RECORDS.csv")]
     output: Option<PathBuf>,
     #[command(flatten)]
