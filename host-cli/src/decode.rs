@@ -676,11 +676,15 @@ fn read_head(r: &mut impl Read) -> io::Result<Vec<u8>> {
 /// other text (a log is binary frames, each starting with the sync marker,
 /// which is not text).
 pub fn not_a_log(head: &[u8]) -> Option<String> {
-    const LOG: &str = "a logger's log is binary frames of 128 bytes, each starting with the sync marker D3 7A 1C 5E";
+    let [a, b, c, d] = qc_core::wire::SYNC;
+    let log = format!(
+        "a logger's log is binary frames of {FRAME_LEN} bytes, each starting with the sync marker \
+         {a:02X} {b:02X} {c:02X} {d:02X}"
+    );
     if head.starts_with(&qc_core::wire::SAMPLE_MAGIC) {
         return Some(format!(
             "this is a sample file (it starts with `TMSF`, as `tenmin export` writes it), not a logger's log: \
-             a logger under test replays a sample file, and `tenmin decode` reads the log that logger writes ({LOG})"
+             a logger under test replays a sample file, and `tenmin decode` reads the log that logger writes ({log})"
         ));
     }
     let text = head.strip_prefix(b"\xEF\xBB\xBF").unwrap_or(head);
@@ -704,17 +708,17 @@ pub fn not_a_log(head: &[u8]) -> Option<String> {
         if first.starts_with("time,") || first.starts_with("\"time\",") {
             format!(
             "this is a samples CSV (its header starts with `{}`), not a logger's log: \
-             `tenmin replay` reads samples, `tenmin export` turns them into a sample file for a logger ({LOG})",
+             `tenmin replay` reads samples, `tenmin export` turns them into a sample file for a logger ({log})",
             cut(&first)
         )
         } else if first.starts_with("start,end,") {
             format!(
                 "this is a records CSV (its header starts with `{}`), not a logger's log: \
-             `tenmin verify --records` and `tenmin report` read records ({LOG})",
+             `tenmin verify --records` and `tenmin report` read records ({log})",
                 cut(&first)
             )
         } else {
-            format!("this is a text file, not a logger's log ({LOG})")
+            format!("this is a text file, not a logger's log ({log})")
         },
     )
 }

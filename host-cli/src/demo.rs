@@ -583,8 +583,7 @@ pub fn run(out: &Path, days: u32, seed: u64) -> Result<ExitCode> {
     let summary = replay::replay(&cfg, &files, opts, &mut cmp)?;
     let report = cmp.finish()?;
 
-    let o = std::io::stdout();
-    let mut o = o.lock();
+    let mut o = Output::stdout("the demo's summary");
     writeln!(
         o,
         "tenmin demo: {}, {days} day(s) at 1 Hz from 2025-01-20, seed {seed}",
@@ -724,7 +723,7 @@ pub fn run(out: &Path, days: u32, seed: u64) -> Result<ExitCode> {
         o,
         "Invented data for learning the tool; real measurement campaigns and energy estimates need qualified review."
     )?;
-    o.flush()?;
+    o.finish()?;
     Ok(if report.total == 0 {
         ExitCode::SUCCESS
     } else {

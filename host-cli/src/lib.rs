@@ -27,7 +27,7 @@ pub mod summary;
 pub mod timefmt;
 pub mod verify;
 
-use std::io::{self, Write};
+use std::io;
 use std::path::{Path, PathBuf};
 use std::process::ExitCode;
 
@@ -446,9 +446,9 @@ fn verify_cmd(a: VerifyArgs) -> Result<ExitCode> {
     if !a.input.quiet {
         let _ = summary.write(&mut io::stderr().lock(), &cfg);
     }
-    let mut out = io::stdout().lock();
+    let mut out = output::Output::stdout("the comparison");
     verify::print_report(&mut out, &report, &a.records)?;
-    out.flush()?;
+    out.finish()?;
     Ok(if report.total == 0 {
         ExitCode::SUCCESS
     } else {

@@ -414,19 +414,38 @@ fn a_full_device_is_an_error_naming_it() {
         assert!(t.is_char_device(), "{full} was replaced by a regular file");
     }
     // stdout on the full device: the error names stdout.
-    for args in [
-        &["replay", "-c", "station.toml", "samples.csv"][..],
-        &["decode", "-c", "station.toml", "log.bin"],
-    ] {
+    let st = "station.toml";
+    let cases: [(&[&str], &str); 4] = [
+        (&["replay", "-c", st, "samples.csv"], "records"),
+        (&["decode", "-c", st, "log.bin"], "records"),
+        (
+            &[
+                "verify",
+                "-c",
+                st,
+                "--samples",
+                "samples.csv",
+                "--records",
+                "records.csv",
+            ],
+            "the comparison",
+        ),
+        (
+            &["report", "-c", st, "records.csv", "-o", "rep"],
+            "the report's summary",
+        ),
+    ];
+    for (args, what) in cases {
         let dev = fs::OpenOptions::new().write(true).open(full).unwrap();
         let o = tenmin_to(args, d, Stdio::from(dev));
         let err = text(&o.stderr);
         assert_eq!(code(&o), Some(2), "{args:?}: {err}");
         assert!(
-            err.contains("tenmin: error: cannot write records to stdout: "),
+            err.contains(&format!("tenmin: error: cannot write {what} to stdout: ")),
             "{args:?}: {err}"
         );
     }
+    fs::remove_dir_all(d.join("rep")).unwrap();
     assert_eq!(snapshot(d), before);
 }
 
@@ -809,11 +828,18 @@ fn the_demo_writes_where_it_says_and_its_log_decodes_to_its_records() {
     assert_eq!(code(&dec), Some(0), "{}", text(&dec.stderr));
     let records = fs::read(d.join("my demo/logger-records.csv")).unwrap();
     assert_eq!(dec.stdout, records);
-    // A log: 128-byte frames, each opening with the sync marker (qc_core::wire docs).
+    // A log: frames of the wire format's length, each opening with its sync
+    // marker, fewer than the rows (none for intervals without samples).
+    use qc_core::wire::{FRAME_LEN, SYNC};
     let log = fs::read(d.join("my demo/logger.log")).unwrap();
-    assert_eq!(log.len() % 128, 0);
-    assert!(log.chunks(128).all(|f| f[..4] == [0xD3, 0x7A, 0x1C, 0x5E]));
-    assert!(log.len() / 128 < records.iter().filter(|&&b| b == b'\n').count());
+    assert_eq!(log.len() % FRAME_LEN, 0);
+    assert!(log.chunks(FRAME_LEN).all(|f| f[..4] == SYNC));
+    let rows = records.iter().filter(|&&b| b == b'\n').count() - 1;
+    assert!(
+        log.len() / FRAME_LEN < rows,
+        "{} frames, {rows} rows",
+        log.len() / FRAME_LEN
+    );
 
     // The commands it prints run as printed (paths quoted for the shell).
     let tries: Vec<&str> = out

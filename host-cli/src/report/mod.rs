@@ -188,9 +188,9 @@ pub fn run(a: &ReportArgs) -> Result<ExitCode> {
         t.write(&a.output)?;
     }
     output::write_file(&a.output.join("report.html"), "the report", page.as_bytes())?;
-    let mut out = io::stdout().lock();
+    let mut out = output::Output::stdout("the report's summary");
     summary(&mut out, &d, &r, a, tables.len())?;
-    out.flush()?;
+    out.finish()?;
     Ok(ExitCode::SUCCESS)
 }
 
