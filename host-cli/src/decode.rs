@@ -54,7 +54,7 @@
 //! both kinds of frame).
 
 use std::fmt::Write as _;
-use std::io::{self, BufWriter, Read, Write};
+use std::io::{self, Read, Write};
 use std::path::Path;
 use std::process::ExitCode;
 
@@ -637,21 +637,20 @@ impl<const C: usize, W: Write> Decoder<'_, C, W> {
 
 /// `tenmin decode`.
 pub fn run(a: &crate::DecodeArgs) -> Result<ExitCode> {
-    let cfg = config::load(&a.config)?;
-    let log =
+    if let Some(out) = &a.output {
+        crate::output::refuse_inputs(out, &[("station file", &a.config), ("log", &a.log)])?;
+    }
+    let mut log =
         std::fs::File::open(&a.log).with_context(|| format!("cannot read {}", a.log.display()))?;
-    let decoded = match &a.output {
-        Some(path) => {
-            crate::write_atomically(path, |w| decode(&cfg, log, &a.log, w, a.max_gap_days))?
-        }
-        None => {
-            let stdout = io::stdout();
-            let mut w = BufWriter::new(stdout.lock());
-            let d = decode(&cfg, log, &a.log, &mut w, a.max_gap_days)?;
-            w.flush()?;
-            d
-        }
-    };
+    let head = read_head(&mut log).with_context(|| format!("cannot read {}", a.log.display()))?;
+    if let Some(what) = not_a_log(&head) {
+        bail!("{}: {what}", a.log.display());
+    }
+    let log = io::Cursor::new(head).chain(log);
+    let cfg = config::load(&a.config)?;
+    let decoded = crate::output::write_to(a.output.as_deref(), "records", |w| {
+        decode(&cfg, log, &a.log, w, a.max_gap_days)
+    })?;
     if !a.quiet || decoded.damaged() {
         let _ = decoded.write(&mut io::stderr().lock(), &a.log);
     }
@@ -660,4 +659,66 @@ pub fn run(a: &crate::DecodeArgs) -> Result<ExitCode> {
     } else {
         ExitCode::SUCCESS
     })
+}
+
+/// Bytes looked at to tell a log from the files people mistake for one.
+const HEAD_LEN: usize = 4096;
+
+/// The first [`HEAD_LEN`] bytes of `r` (fewer when it ends first).
+fn read_head(r: &mut impl Read) -> io::Result<Vec<u8>> {
+    let mut head = Vec::with_capacity(HEAD_LEN);
+    r.take(HEAD_LEN as u64).read_to_end(&mut head)?;
+    Ok(head)
+}
+
+/// What the file starting with `head` is, when it is plainly not a logger's
+/// log: a sample file (`tenmin export`'s), a samples or records CSV, or some
+/// other text (a log is binary frames, each starting with the sync marker,
+/// which is not text).
+pub fn not_a_log(head: &[u8]) -> Option<String> {
+    let [a, b, c, d] = qc_core::wire::SYNC;
+    let log = format!(
+        "a logger's log is binary frames of {FRAME_LEN} bytes, each starting with the sync marker \
+         {a:02X} {b:02X} {c:02X} {d:02X}"
+    );
+    if head.starts_with(&qc_core::wire::SAMPLE_MAGIC) {
+        return Some(format!(
+            "this is a sample file (it starts with `TMSF`, as `tenmin export` writes it), not a logger's log: \
+             a logger under test replays a sample file, and `tenmin decode` reads the log that logger writes ({log})"
+        ));
+    }
+    let text = head.strip_prefix(b"\xEF\xBB\xBF").unwrap_or(head);
+    let is_text = !text.is_empty()
+        && match std::str::from_utf8(text) {
+            Ok(_) => true,
+            // A character cut at the end of the head (not of a short file).
+            Err(e) => e.error_len().is_none() && head.len() == HEAD_LEN,
+        }
+        && !text
+            .iter()
+            .any(|&b| b < 0x20 && !matches!(b, b'\t' | b'\n' | b'\r'));
+    if !is_text {
+        return None;
+    }
+    let first = text.split(|&b| b == b'\n').next().unwrap_or(&[]);
+    let first = String::from_utf8_lossy(first);
+    let first = first.trim_end_matches('\r').to_ascii_lowercase();
+    let cut = |s: &str| s.chars().take(40).collect::<String>();
+    Some(
+        if first.starts_with("time,") || first.starts_with("\"time\",") {
+            format!(
+            "this is a samples CSV (its header starts with `{}`), not a logger's log: \
+             `tenmin replay` reads samples, `tenmin export` turns them into a sample file for a logger ({log})",
+            cut(&first)
+        )
+        } else if first.starts_with("start,end,") {
+            format!(
+                "this is a records CSV (its header starts with `{}`), not a logger's log: \
+             `tenmin verify --records` and `tenmin report` read records ({log})",
+                cut(&first)
+            )
+        } else {
+            format!("this is a text file, not a logger's log ({log})")
+        },
+    )
 }

@@ -12,16 +12,18 @@
 //! math library, so `tenmin demo --seed N` writes the same bytes on every
 //! machine.
 
-use std::fs::{self, File};
-use std::io::{BufWriter, Write};
+use std::fs;
+use std::io::Write;
 use std::path::{Path, PathBuf};
 use std::process::ExitCode;
 
-use anyhow::{Context, Result};
+use anyhow::{bail, Context, Result};
+use qc_core::wire::{encode_record, RecordFrame, FRAME_LEN};
 use qc_core::{ChannelRecord, Flag, Reading, Timestamp};
 
 use crate::config;
 use crate::engine::{self, Sink};
+use crate::output::{self, Output};
 use crate::records;
 use crate::replay;
 use crate::samples::Options;
@@ -374,17 +376,56 @@ impl Weather {
     }
 }
 
-/// The logger's sink: writes its records and keeps what the summary reports.
-struct Logger<W: Write> {
+/// The logger's sink: writes its records (as CSV, and as the record frames of
+/// its log) and keeps what the summary reports.
+struct Logger<W: Write, L: Write> {
     writer: records::Writer<W>,
+    log: LogWriter<L>,
     flags: Vec<[u64; Flag::ALL.len()]>,
     pair_all: (f64, u64),
     pair_strong: (f64, u64),
 }
 
-impl<W: Write> Sink for Logger<W> {
+/// A record log as a logger writes it: one `qc_core::wire` record frame per
+/// channel of each closed interval, numbered from 0, and none for an interval
+/// without samples (the engine hands those out too, with every count 0).
+struct LogWriter<L: Write> {
+    out: L,
+    sequence: u32,
+}
+
+impl<L: Write> LogWriter<L> {
+    fn interval(&mut self, start: Timestamp, recs: &[ChannelRecord]) -> Result<()> {
+        let held = |r: &ChannelRecord| {
+            let t = &r.tally;
+            u64::from(t.valid)
+                + u64::from(t.missing)
+                + u64::from(t.out_of_range)
+                + u64::from(t.rejected)
+        };
+        if recs.iter().all(|r| held(r) == 0) {
+            return Ok(());
+        }
+        let mut frame = [0u8; FRAME_LEN];
+        for (channel, record) in recs.iter().enumerate() {
+            let f = RecordFrame {
+                sequence: self.sequence,
+                interval_start: start,
+                channel: channel as u8,
+                record: *record,
+            };
+            encode_record(&f, &mut frame);
+            self.out.write_all(&frame)?;
+            self.sequence = self.sequence.wrapping_add(1);
+        }
+        Ok(())
+    }
+}
+
+impl<W: Write, L: Write> Sink for Logger<W, L> {
     fn interval(&mut self, start: Timestamp, end: Timestamp, recs: &[ChannelRecord]) -> Result<()> {
         self.writer.interval(start, end, recs)?;
+        self.log.interval(start, recs)?;
         for (counts, r) in self.flags.iter_mut().zip(recs) {
             for f in r.flags.iter() {
                 counts[f as usize] += 1;
@@ -417,12 +458,38 @@ fn write_fields(w: &mut impl Write, t: i64, fields: &[Field; 6]) -> std::io::Res
     w.write_all(b"\n")
 }
 
-/// Runs the demo into `out`.
+/// A path as a shell word: as it is when it holds only characters no shell
+/// treats specially, else in single quotes.
+fn shell_word(p: &Path) -> String {
+    let s = p.display().to_string();
+    let plain = !s.is_empty()
+        && s.chars()
+            .all(|c| c.is_ascii_alphanumeric() || "/._-+,:@%=".contains(c));
+    if plain {
+        s
+    } else {
+        format!("'{}'", s.replace('\'', "'\\''"))
+    }
+}
+
+/// Runs the demo into the folder `out`: every file it writes goes through
+/// [`crate::output`] (replaced atomically), and the paths it prints are the
+/// paths it wrote.
 pub fn run(out: &Path, days: u32, seed: u64) -> Result<ExitCode> {
-    fs::create_dir_all(out).with_context(|| format!("cannot create {}", out.display()))?;
+    if out.exists() && !out.is_dir() {
+        bail!(
+            "{}: is a file; the output of `tenmin demo` is a folder to write its files into",
+            out.display()
+        );
+    }
+    fs::create_dir_all(out)
+        .with_context(|| format!("cannot create the folder {}", out.display()))?;
     let station_path = out.join("station.toml");
-    fs::write(&station_path, STATION_TOML)
-        .with_context(|| format!("cannot write {}", station_path.display()))?;
+    output::write_file(
+        &station_path,
+        "the demo station file",
+        STATION_TOML.as_bytes(),
+    )?;
     let cfg = config::parse(&station_path, STATION_TOML)?;
     let ids: Vec<String> = cfg.channels.iter().map(|c| c.id.clone()).collect();
     debug_assert_eq!(ids, IDS);
@@ -433,10 +500,13 @@ pub fn run(out: &Path, days: u32, seed: u64) -> Result<ExitCode> {
 
     // The logger: every sample goes through the core as the firmware would push it.
     let logger_path = out.join("logger-records.csv");
-    let logger_file = File::create(&logger_path)
-        .with_context(|| format!("cannot create {}", logger_path.display()))?;
+    let log_path = out.join("logger.log");
     let mut logger = Logger {
-        writer: records::Writer::new(BufWriter::new(logger_file), ids.clone())?,
+        writer: records::Writer::new(Output::file(&logger_path, "records")?, ids.clone())?,
+        log: LogWriter {
+            out: Output::file(&log_path, "the demo logger's log")?,
+            sequence: 0,
+        },
         flags: vec![[0; Flag::ALL.len()]; ids.len()],
         pair_all: (0.0, 0),
         pair_strong: (0.0, 0),
@@ -447,18 +517,15 @@ pub fn run(out: &Path, days: u32, seed: u64) -> Result<ExitCode> {
     {
         let mut station = engine::new(&cfg, &mut logger)?;
         let mut readings = [Reading::Missing; 6];
-        let mut file: Option<BufWriter<File>> = None;
+        let mut file: Option<Output> = None;
         for s in 0..i64::from(days) * DAY_S {
             if s % DAY_S == 0 {
-                if let Some(mut f) = file.take() {
-                    f.flush()?;
+                if let Some(f) = file.take() {
+                    f.finish()?;
                 }
                 let date = &Rfc3339(Timestamp::from_millis((START_S + s) * 1000)).to_string()[..10];
                 let path = out.join(format!("samples-{date}.csv"));
-                let mut f = BufWriter::new(
-                    File::create(&path)
-                        .with_context(|| format!("cannot create {}", path.display()))?,
-                );
+                let mut f = Output::file(&path, "samples")?;
                 writeln!(f, "time,{}", IDS.join(","))?;
                 files.push(path);
                 file = Some(f);
@@ -489,19 +556,22 @@ pub fn run(out: &Path, days: u32, seed: u64) -> Result<ExitCode> {
             }
             station.push(Timestamp::from_millis(t * 1000), &readings)?;
         }
-        if let Some(mut f) = file.take() {
-            f.flush()?;
+        if let Some(f) = file.take() {
+            f.finish()?;
         }
         station.close()?;
     }
     let logger_rows = logger.writer.rows;
     let Logger {
         writer,
+        log,
         flags,
         pair_all,
         pair_strong,
     } = logger;
-    writer.finish()?;
+    writer.finish()?.finish()?;
+    let log_frames = log.sequence;
+    log.out.finish()?;
 
     // Replay from disk (on all cores, up to two) and verify against the
     // logger's records.
@@ -513,22 +583,34 @@ pub fn run(out: &Path, days: u32, seed: u64) -> Result<ExitCode> {
     let summary = replay::replay(&cfg, &files, opts, &mut cmp)?;
     let report = cmp.finish()?;
 
-    let o = std::io::stdout();
-    let mut o = o.lock();
+    let mut o = Output::stdout("the demo's summary");
     writeln!(
         o,
         "tenmin demo: {}, {days} day(s) at 1 Hz from 2025-01-20, seed {seed}",
         cfg.name.as_deref().unwrap_or("station")
     )?;
+    writeln!(o, "wrote:")?;
+    writeln!(o, "  {}: the station", station_path.display())?;
+    match (files.first(), files.last()) {
+        (Some(a), Some(b)) if files.len() > 1 => writeln!(
+            o,
+            "  {} to {}: samples, one file per day ({} files)",
+            a.display(),
+            b.display(),
+            files.len()
+        )?,
+        (Some(a), _) => writeln!(o, "  {}: samples of one day", a.display())?,
+        _ => {}
+    }
     writeln!(
         o,
-        "wrote {}, {} samples file(s) ({} ...), {} ({logger_rows} rows)",
-        station_path.display(),
-        files.len(),
-        files
-            .first()
-            .map_or(String::new(), |f| f.display().to_string()),
+        "  {}: the logger's records ({logger_rows} rows)",
         logger_path.display()
+    )?;
+    writeln!(
+        o,
+        "  {}: the logger's log, the same records as {log_frames} record frames",
+        log_path.display()
     )?;
     writeln!(o)?;
     writeln!(o, "planted problems (invented):")?;
@@ -621,20 +703,27 @@ pub fn run(out: &Path, days: u32, seed: u64) -> Result<ExitCode> {
     writeln!(o, "  even when recovery looks fine.")?;
     writeln!(o)?;
     writeln!(o, "try:")?;
-    let dir = out.display();
+    let station = shell_word(&station_path);
+    let samples = format!("{}*.csv", shell_word(&out.join("samples-")));
     writeln!(
         o,
-        "  tenmin replay --config {dir}/station.toml {dir}/samples-*.csv -o records.csv"
+        "  tenmin replay --config {station} {samples} -o records.csv"
     )?;
     writeln!(
         o,
-        "  tenmin verify --config {dir}/station.toml --samples {dir}/samples-*.csv --records {dir}/logger-records.csv"
+        "  tenmin verify --config {station} --samples {samples} --records {}",
+        shell_word(&logger_path)
+    )?;
+    writeln!(
+        o,
+        "  tenmin decode --config {station} {} -o decoded.csv",
+        shell_word(&log_path)
     )?;
     writeln!(
         o,
         "Invented data for learning the tool; real measurement campaigns and energy estimates need qualified review."
     )?;
-    o.flush()?;
+    o.finish()?;
     Ok(if report.total == 0 {
         ExitCode::SUCCESS
     } else {

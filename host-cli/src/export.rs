@@ -156,9 +156,13 @@ impl Exported {
 }
 
 /// `tenmin export`: reads the station file and the samples, writes the
-/// sample file through a `.partial` file renamed on success, and prints the
-/// summary on stderr unless `--quiet`.
+/// sample file ([`crate::output`]: replaced atomically, never over an input),
+/// and prints the summary on stderr unless `--quiet`.
 pub fn run(a: &crate::ExportArgs) -> Result<ExitCode> {
+    crate::output::refuse_inputs(
+        &a.output,
+        &crate::inputs(&a.config, "samples file", &a.samples),
+    )?;
     let cfg = config::load(&a.config)?;
     let opts = Options {
         skip_bad_rows: a.skip_bad_rows,
@@ -166,7 +170,9 @@ pub fn run(a: &crate::ExportArgs) -> Result<ExitCode> {
         max_gap_days: a.max_gap_days,
         ..Options::default()
     };
-    let done = crate::write_atomically(&a.output, |w| export(&cfg, &a.samples, opts, w))?;
+    let done = crate::output::write_to(Some(&a.output), "the sample file", |w| {
+        export(&cfg, &a.samples, opts, w)
+    })?;
     if !a.quiet {
         let _ = done.write(&mut io::stderr().lock(), &cfg, &a.output);
     }

@@ -18,6 +18,8 @@ pub mod export;
 pub mod limits;
 pub mod localtime;
 pub mod logscan;
+pub mod options;
+pub mod output;
 pub mod parallel;
 pub mod reader;
 pub mod records;
@@ -30,12 +32,11 @@ pub mod timefmt;
 pub mod units;
 pub mod verify;
 
-use std::fs::File;
-use std::io::{self, BufWriter, Write};
+use std::io;
 use std::path::{Path, PathBuf};
 use std::process::ExitCode;
 
-use anyhow::{Context, Result};
+use anyhow::Result;
 use clap::{Args, Parser, Subcommand};
 
 /// The file formats in brief, for `--help`.
@@ -59,6 +60,27 @@ macro_rules! formats {
                 resultant_speed,resultant_direction,n_spikes: one row per interval
                 and channel, times UTC; empty field = no value; for direction, mean
                 is the unit-vector mean and sd is sigma-theta.
+"
+    };
+}
+
+/// The options every command spells the same way, for `--help`.
+macro_rules! shared {
+    () => {
+        "Options shared by all commands (each takes those that apply to it):
+  -c, --config FILE    the station file (TOML)
+  -o, --output PATH    where results go: a file for replay, export and decode
+                       (replay and decode: stdout without it), a folder for report
+                       and demo; a file is written whole or not at all (through a
+                       temporary file in its folder, renamed at the end; through a
+                       symbolic link, the link's target), a device or FIFO directly,
+                       and never over one of the command's inputs
+  -q, --quiet          no summary on stderr (replay, verify, export, decode)
+  -j, --jobs N         threads reading samples (replay, verify)
+  --skip-bad-rows      count bad sample rows and go on (replay, verify, export)
+  --max-gap-days D     a larger forward jump in time stops the command (replay,
+                       verify, export, decode)
+  --strict             exit 1 on any damage in a log (decode)
 "
     };
 }
@@ -88,6 +110,8 @@ replay and verify.",
     after_help = exit_codes!(),
     after_long_help = concat!(
         "Examples:\n  tenmin demo\n  tenmin replay --config tenmin-demo/station.toml tenmin-demo/samples-*.csv -o records.csv\n\n",
+        shared!(),
+        "\n",
         formats!(),
         "\n",
         exit_codes!()
@@ -138,8 +162,11 @@ records computed through qc-core as the logger firmware would. Then replay the s
 disk, verify them against the logger's records and print a short summary. Needs nothing \
 downloaded; the data are made up and describe no real site.",
         after_long_help = concat!(
-            "Example:\n  tenmin demo --out tenmin-demo --days 2 --seed 1\n\n",
-            "Writes DIR/station.toml, DIR/samples-YYYY-MM-DD.csv (one per day), DIR/logger-records.csv.\n\n",
+            "Example:\n  tenmin demo -o tenmin-demo --days 2 --seed 1\n\n",
+            "Writes into the folder DIR (-o, default tenmin-demo): DIR/station.toml, \
+DIR/samples-YYYY-MM-DD.csv (one per day), DIR/logger-records.csv (the logger's records) and \
+DIR/logger.log (the same records as the logger's record log, for `tenmin decode`). Each file \
+is written whole or not at all.\n\n",
             "Exit codes:\n  0  success\n  1  the demo's verify found differences (a bug: please report it)\n  2  bad usage or an I/O error"
         )
     )]
@@ -153,7 +180,7 @@ the wind rose, the speed distribution with its Weibull fit, turbulence intensity
 normal turbulence model, and wind shear. The tables go to DIR as CSV files; a short summary goes to stdout. \
 See host-cli/REPORT.md.",
         after_long_help = concat!(
-            "Example:\n  tenmin report --config station.toml records.csv --out report --sectors 12\n\n",
+            "Example:\n  tenmin report --config station.toml records.csv -o report --sectors 12\n\n",
             "Files: station and records as for `tenmin replay --help`.\n\n",
             "Exit codes:\n  0  success\n  2  bad input, bad usage or an I/O error (the message names file, line and field)"
         )
@@ -215,7 +242,7 @@ pub struct ExportArgs {
     /// Samples CSV files, in this order as one record.
     #[arg(required = true, value_name = "SAMPLES")]
     samples: Vec<PathBuf>,
-    /// The sample file to write.
+    /// File to write the sample file to: written whole or not at all, never over an input.
     #[arg(long, short = 'o', value_name = "OUT.tmsf")]
     output: PathBuf,
     /// Count bad rows in the summary and go on, instead of stopping at the first.
@@ -227,7 +254,7 @@ pub struct ExportArgs {
     /// A forward jump between consecutive samples larger than this many days stops the
     /// command, as in `tenmin replay`.
     #[arg(long, default_value_t = samples::DEFAULT_MAX_GAP_DAYS, value_name = "D",
-          value_parser = clap::value_parser!(u32).range(1..))]
+          allow_negative_numbers = true, value_parser = options::whole::<u32>(1, u32::MAX as u64))]
     max_gap_days: u32,
 }
 
@@ -240,7 +267,8 @@ pub struct DecodeArgs {
     /// The log: record frames or state frames.
     #[arg(value_name = "LOG")]
     log: PathBuf,
-    /// Write records here instead of stdout.
+    /// File to write the records to [default: stdout]: written whole or not at all, never
+    /// over an input.
     #[arg(long, short = 'o', value_name = "RECORDS.csv")]
     output: Option<PathBuf>,
     /// Exit with 1 when anything was damaged, torn, lost or out of order (in a state log,
@@ -254,7 +282,7 @@ pub struct DecodeArgs {
     /// than this many days stop the command: a wrong logger clock would otherwise write an
     /// empty row per interval, as in `tenmin replay`.
     #[arg(long, default_value_t = samples::DEFAULT_MAX_GAP_DAYS, value_name = "D",
-          value_parser = clap::value_parser!(u32).range(1..))]
+          allow_negative_numbers = true, value_parser = options::whole::<u32>(1, u32::MAX as u64))]
     max_gap_days: u32,
 }
 
@@ -266,7 +294,8 @@ pub struct ReplayArgs {
     /// Samples CSV files, replayed in this order as one record.
     #[arg(required = true, value_name = "SAMPLES")]
     samples: Vec<PathBuf>,
-    /// Write records here instead of stdout.
+    /// File to write the records to [default: stdout]: written whole or not at all, never
+    /// over an input.
     #[arg(long, short = 'o', value_name = "RECORDS.csv")]
     output: Option<PathBuf>,
     #[command(flatten)]
@@ -283,12 +312,13 @@ pub struct InputArgs {
     quiet: bool,
     /// Threads reading samples [default: the available cores, at most 2]. With 1, one
     /// thread reads and replays; the records are the same either way.
-    #[arg(long, short = 'j', value_name = "N", value_parser = clap::value_parser!(u16).range(1..))]
+    #[arg(long, short = 'j', value_name = "N", allow_negative_numbers = true,
+          value_parser = options::whole::<u16>(1, u16::MAX as u64))]
     jobs: Option<u16>,
     /// A forward jump between consecutive samples larger than this many days stops the
     /// command (a wrong logger clock would otherwise write an empty row per interval).
     #[arg(long, default_value_t = samples::DEFAULT_MAX_GAP_DAYS, value_name = "D",
-          value_parser = clap::value_parser!(u32).range(1..))]
+          allow_negative_numbers = true, value_parser = options::whole::<u32>(1, u32::MAX as u64))]
     max_gap_days: u32,
     /// Accept data rows that give no records at all (every row bad and skipped with
     /// --skip-bad-rows); without it, that is an error (exit 2).
@@ -296,7 +326,7 @@ pub struct InputArgs {
     allow_no_records: bool,
     /// Bytes per chunk of parallel replay (for testing).
     #[arg(long, hide = true, default_value_t = samples::DEFAULT_CHUNK_SIZE as u64,
-          value_parser = clap::value_parser!(u64).range(64..=1 << 23))]
+          allow_negative_numbers = true, value_parser = options::whole::<u64>(64, 1 << 23))]
     chunk_size: u64,
 }
 
@@ -312,7 +342,8 @@ pub struct VerifyArgs {
     #[arg(long, value_name = "LOGGER.csv")]
     records: PathBuf,
     /// List at most this many differences (the rest are counted).
-    #[arg(long, default_value_t = 20, value_name = "N")]
+    #[arg(long, default_value_t = 20, value_name = "N", allow_negative_numbers = true,
+          value_parser = options::whole::<usize>(0, u32::MAX as u64))]
     max_diffs: usize,
     #[command(flatten)]
     input: InputArgs,
@@ -320,14 +351,22 @@ pub struct VerifyArgs {
 
 #[derive(Args, Debug)]
 pub struct DemoArgs {
-    /// Folder to write into (created if needed).
-    #[arg(long, default_value = "tenmin-demo", value_name = "DIR")]
-    out: PathBuf,
+    /// Folder to write the demo's files into (created if needed).
+    #[arg(
+        long = "output",
+        short = 'o',
+        alias = "out",
+        default_value = "tenmin-demo",
+        value_name = "DIR"
+    )]
+    output: PathBuf,
     /// Days of 1 Hz samples.
-    #[arg(long, default_value_t = 2, value_parser = clap::value_parser!(u32).range(1..=366), value_name = "N")]
+    #[arg(long, default_value_t = 2, value_name = "N", allow_negative_numbers = true,
+          value_parser = options::whole::<u32>(1, 366))]
     days: u32,
     /// Random seed of the invented weather and faults.
-    #[arg(long, default_value_t = 1, value_name = "N")]
+    #[arg(long, default_value_t = 1, value_name = "N", allow_negative_numbers = true,
+          value_parser = options::whole::<u64>(0, u64::MAX))]
     seed: u64,
 }
 
@@ -362,7 +401,7 @@ fn run(cli: Cli) -> Result<ExitCode> {
     match cli.command {
         Command::Replay(a) => replay_cmd(a),
         Command::Verify(a) => verify_cmd(a),
-        Command::Demo(a) => demo::run(&a.out, a.days, a.seed),
+        Command::Demo(a) => demo::run(&a.output, a.days, a.seed),
         Command::Report(a) => report::run(&a),
         Command::Export(a) => export::run(&a),
         Command::Decode(a) => decode::run(&a),
@@ -385,58 +424,28 @@ fn ids(cfg: &config::StationFile) -> Vec<String> {
 }
 
 fn replay_cmd(a: ReplayArgs) -> Result<ExitCode> {
+    if let Some(out) = &a.output {
+        output::refuse_inputs(out, &inputs(&a.config, "samples file", &a.samples))?;
+    }
     let cfg = config::load(&a.config)?;
-    let summary = match &a.output {
-        Some(path) => write_atomically(path, |w| {
-            let mut writer = records::Writer::new(w, ids(&cfg))?;
-            let s = replay::replay(&cfg, &a.samples, options(&a.input), &mut writer)?;
-            writer.finish()?;
-            Ok(s)
-        })?,
-        None => {
-            let stdout = io::stdout();
-            let mut writer = records::Writer::new(BufWriter::new(stdout.lock()), ids(&cfg))?;
-            let s = replay::replay(&cfg, &a.samples, options(&a.input), &mut writer)?;
-            writer.finish()?;
-            s
-        }
-    };
+    let summary = output::write_to(a.output.as_deref(), "records", |w| {
+        let mut writer = records::Writer::new(w, ids(&cfg))?;
+        let s = replay::replay(&cfg, &a.samples, options(&a.input), &mut writer)?;
+        writer.finish()?;
+        Ok(s)
+    })?;
     if !a.input.quiet {
         let _ = summary.write(&mut io::stderr().lock(), &cfg);
     }
     Ok(ExitCode::SUCCESS)
 }
 
-/// Writes `path` through a sibling `.partial` file renamed on success, so an
-/// error never leaves a truncated records file under the real name.
-fn write_atomically<T>(
-    path: &Path,
-    f: impl FnOnce(&mut BufWriter<File>) -> Result<T>,
-) -> Result<T> {
-    let mut tmp = path.as_os_str().to_owned();
-    tmp.push(".partial");
-    let tmp = PathBuf::from(tmp);
-    let file = File::create(&tmp).with_context(|| format!("cannot create {}", tmp.display()))?;
-    let mut w = BufWriter::new(file);
-    let result = f(&mut w).and_then(|v| {
-        w.flush()
-            .with_context(|| format!("cannot write {}", tmp.display()))?;
-        Ok(v)
-    });
-    match result {
-        Ok(v) => {
-            drop(w);
-            std::fs::rename(&tmp, path).with_context(|| {
-                format!("cannot rename {} to {}", tmp.display(), path.display())
-            })?;
-            Ok(v)
-        }
-        Err(e) => {
-            drop(w);
-            let _ = std::fs::remove_file(&tmp);
-            Err(e)
-        }
-    }
+/// The inputs of a command, for [`output::refuse_inputs`]: the station file
+/// and the `files` (each a `what`).
+fn inputs<'a>(config: &'a Path, what: &'a str, files: &'a [PathBuf]) -> Vec<(&'a str, &'a Path)> {
+    let mut v = vec![("station file", config)];
+    v.extend(files.iter().map(|f| (what, f.as_path())));
+    v
 }
 
 fn verify_cmd(a: VerifyArgs) -> Result<ExitCode> {
@@ -447,9 +456,9 @@ fn verify_cmd(a: VerifyArgs) -> Result<ExitCode> {
     if !a.input.quiet {
         let _ = summary.write(&mut io::stderr().lock(), &cfg);
     }
-    let mut out = io::stdout().lock();
+    let mut out = output::Output::stdout("the comparison");
     verify::print_report(&mut out, &report, &a.records)?;
-    out.flush()?;
+    out.finish()?;
     Ok(if report.total == 0 {
         ExitCode::SUCCESS
     } else {

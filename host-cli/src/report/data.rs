@@ -251,6 +251,19 @@ fn stat(v: Option<f64>) -> Stat {
     v.map_or(Stat::Absent(Absent::NoValidSamples), Stat::Value)
 }
 
+/// The files `paths` for a message: every name up to five, then how many more.
+fn list(paths: &[PathBuf]) -> String {
+    let mut s: Vec<String> = paths
+        .iter()
+        .take(5)
+        .map(|p| p.display().to_string())
+        .collect();
+    if paths.len() > 5 {
+        s.push(format!("and {} more files", paths.len() - 5));
+    }
+    s.join(", ")
+}
+
 /// Reads records files for the station `cfg` onto one grid.
 pub fn read(cfg: &StationFile, paths: &[PathBuf]) -> Result<Dataset> {
     let interval_ms = i64::from(cfg.station.interval_s) * 1000;
@@ -368,16 +381,28 @@ pub fn read(cfg: &StationFile, paths: &[PathBuf]) -> Result<Dataset> {
         }
     }
     if cells.is_empty() {
-        bail!("no records rows in {} file(s)", paths.len());
+        bail!(
+            "no records rows in {}: expected rows after the header",
+            list(paths)
+        );
     }
-    let t0 = cells.iter().map(|c| c.0).min().unwrap_or(0);
-    let t1 = cells.iter().map(|c| c.0).max().unwrap_or(0) + interval_ms;
+    let first = cells.iter().min_by_key(|c| c.0);
+    let last = cells.iter().max_by_key(|c| c.0);
+    let t0 = first.map_or(0, |c| c.0);
+    let t1 = last.map_or(0, |c| c.0) + interval_ms;
     let len = (t1 - t0) / interval_ms;
     if len > MAX_INTERVALS {
+        let place = |c: Option<&(i64, usize, Row, u32, u64)>| {
+            c.map_or(String::new(), |c| {
+                format!("{}:{}", paths[c.3 as usize].display(), c.4)
+            })
+        };
         bail!(
-            "the records span {} to {}: {len} intervals, more than {MAX_INTERVALS}; is a time wrong?",
+            "the records span {} ({}) to {} ({}): {len} intervals, more than {MAX_INTERVALS}; is a time wrong?",
             Rfc3339(Timestamp::from_millis(t0)),
-            Rfc3339(Timestamp::from_millis(t1))
+            place(first),
+            Rfc3339(Timestamp::from_millis(t1)),
+            place(last)
         );
     }
     let len = len as usize;

@@ -28,6 +28,7 @@ use anyhow::{bail, Context, Result};
 use qc_core::Kind;
 
 use crate::config;
+use crate::output;
 use crate::timefmt::Rfc3339;
 
 use self::missing::{Diagnosis, FactorKind};
@@ -42,14 +43,22 @@ pub struct ReportArgs {
     /// Records CSV files (as `tenmin replay` writes them), in any order.
     #[arg(required = true, value_name = "RECORDS")]
     pub records: Vec<PathBuf>,
-    /// Folder for report.html and the tables (created if needed).
-    #[arg(long, default_value = "tenmin-report", value_name = "DIR")]
-    pub out: PathBuf,
+    /// Folder to write report.html and the tables into (created if needed).
+    #[arg(
+        long = "output",
+        short = 'o',
+        alias = "out",
+        default_value = "tenmin-report",
+        value_name = "DIR"
+    )]
+    pub output: PathBuf,
     /// Sectors of the wind rose: 8, 12, 16 or 36, the first centred on north.
-    #[arg(long, default_value_t = 16, value_parser = parse_sectors, value_name = "N")]
+    #[arg(long, default_value_t = 16, value_parser = parse_sectors, value_name = "N",
+          allow_negative_numbers = true)]
     pub sectors: u16,
     /// Air density for power density, kg/m^3 (1.225: ISO standard atmosphere at 15 C, sea level).
-    #[arg(long, default_value_t = 1.225, value_parser = parse_density, value_name = "KG/M3")]
+    #[arg(long, default_value_t = 1.225, value_parser = parse_density, value_name = "KG/M3",
+          allow_negative_numbers = true)]
     pub air_density: f64,
     /// Reference anemometer for the missing-data diagnostics (default: a
     /// redundant or nearest-height anemometer per channel).
@@ -104,8 +113,45 @@ fn compute(d: &data::Dataset, sectors: u16, rho: f64, reference: Option<usize>) 
     }
 }
 
+/// The tables a report writes (`<name>.csv` in its folder, beside
+/// `report.html`): every file name is known before anything is read, so that
+/// none of them can be an input.
+pub const TABLES: [&str; 13] = [
+    "recovery",
+    "recovery-joint",
+    "missing-tests",
+    "missing-bins",
+    "missing-verdicts",
+    "missing-tail",
+    "rose",
+    "rose-speed-sector",
+    "weibull",
+    "speed-histogram",
+    "turbulence",
+    "shear",
+    "shear-pairs",
+];
+
+/// Every file a report may write into `dir`.
+fn files(dir: &Path) -> Vec<PathBuf> {
+    std::iter::once(dir.join("report.html"))
+        .chain(TABLES.iter().map(|t| dir.join(format!("{t}.csv"))))
+        .collect()
+}
+
 /// Runs `tenmin report`.
 pub fn run(a: &ReportArgs) -> Result<ExitCode> {
+    let mut inputs = vec![("station file", a.config.as_path())];
+    inputs.extend(a.records.iter().map(|r| ("records file", r.as_path())));
+    if a.output.exists() && !a.output.is_dir() {
+        bail!(
+            "{}: is a file; the output of `tenmin report` is a folder to write report.html and the tables into",
+            a.output.display()
+        );
+    }
+    for f in files(&a.output) {
+        output::refuse_inputs(&f, &inputs)?;
+    }
     let cfg = config::load(&a.config)?;
     let reference = match &a.reference {
         None => None,
@@ -128,26 +174,24 @@ pub fn run(a: &ReportArgs) -> Result<ExitCode> {
     };
     let d = data::read(&cfg, &a.records)?;
     let r = compute(&d, a.sectors, a.air_density, reference);
-    fs::create_dir_all(&a.out).with_context(|| format!("cannot create {}", a.out.display()))?;
     let tables = tables(&d, &r, a.air_density);
-    for t in &tables {
-        t.write(&a.out)?;
+    if let Some(t) = tables.iter().find(|t| !TABLES.contains(&t.name)) {
+        bail!(
+            "table {:?} is missing from report::TABLES (a bug: please report it)",
+            t.name
+        );
     }
     let page = page(&d, &r, &tables, a)?;
-    write_atomically(&a.out.join("report.html"), page.as_bytes())?;
-    let mut out = io::stdout().lock();
+    fs::create_dir_all(&a.output)
+        .with_context(|| format!("cannot create the folder {}", a.output.display()))?;
+    for t in &tables {
+        t.write(&a.output)?;
+    }
+    output::write_file(&a.output.join("report.html"), "the report", page.as_bytes())?;
+    let mut out = output::Output::stdout("the report's summary");
     summary(&mut out, &d, &r, a, tables.len())?;
-    out.flush()?;
+    out.finish()?;
     Ok(ExitCode::SUCCESS)
-}
-
-fn write_atomically(path: &Path, bytes: &[u8]) -> Result<()> {
-    let mut tmp = path.as_os_str().to_owned();
-    tmp.push(".partial");
-    let tmp = PathBuf::from(tmp);
-    fs::write(&tmp, bytes).with_context(|| format!("cannot write {}", tmp.display()))?;
-    fs::rename(&tmp, path)
-        .with_context(|| format!("cannot rename {} to {}", tmp.display(), path.display()))
 }
 
 fn tables(d: &data::Dataset, r: &Results, rho: f64) -> Vec<Table> {
@@ -508,8 +552,8 @@ fn summary(
     writeln!(
         w,
         "wrote {} and {n_tables} tables (CSV) in {}",
-        a.out.join("report.html").display(),
-        a.out.display()
+        a.output.join("report.html").display(),
+        a.output.display()
     )?;
     writeln!(w, "{CAUTION}")
 }

@@ -1,10 +1,9 @@
 //! Tables written both as CSV files (full precision) and as HTML (rounded).
 
 use std::fmt::Write as _;
-use std::fs;
 use std::path::Path;
 
-use anyhow::{Context, Result};
+use anyhow::Result;
 
 /// One table cell: its CSV text, its HTML text, and an optional CSS class.
 #[derive(Clone, Debug)]
@@ -139,10 +138,10 @@ impl Table {
         s
     }
 
-    /// Writes `dir/<name>.csv`.
+    /// Writes `dir/<name>.csv` ([`crate::output`]: replaced atomically).
     pub fn write(&self, dir: &Path) -> Result<()> {
         let p = dir.join(format!("{}.csv", self.name));
-        fs::write(&p, self.csv()).with_context(|| format!("cannot write {}", p.display()))
+        crate::output::write_file(&p, "a report table", self.csv().as_bytes())
     }
 
     /// The table as HTML, with a link to its CSV file.

@@ -1,0 +1,416 @@
+//! Where results go: every file a command writes, and stdout, go through here.
+//!
+//! - A regular file, or a name not yet taken, is replaced atomically: the bytes
+//!   go to a temporary file in the same folder, which is flushed, synced to the
+//!   disk (`sync_all`) and renamed over the final name. Until then the old file
+//!   stays as it was; an error (or a panic) removes the temporary file, so a
+//!   failed run leaves neither a truncated output nor a stray temporary file.
+//! - A symbolic link is followed: its target is replaced that way and the link
+//!   stays a link.
+//! - A special file (a character device such as `/dev/null` or a terminal, a
+//!   FIFO) is written directly: it cannot be replaced by a regular file.
+//! - An existing folder is refused before anything is written.
+//! - stdout is written directly.
+//!
+//! Every write error (a full device, an error when the last bytes are flushed
+//! or synced) names the output, "stdout" for stdout, and is kept: the command
+//! reports it as it was, whatever the code writing the bytes made of it. The
+//! kind of the error is kept too, so that a closed pipe still ends the command
+//! quietly (`lib.rs`, `is_broken_pipe`).
+//!
+//! No output may be one of the command's inputs ([`refuse_inputs`]): files are
+//! compared by device and inode (after following links, so `./x`, a symbolic
+//! link and a hard link to an input are all caught), or by canonical path where
+//! there are no inodes.
+
+use std::fs::{self, File, OpenOptions};
+use std::io::{self, BufWriter, Write};
+use std::path::{Path, PathBuf};
+
+use anyhow::{bail, Context, Result};
+
+/// Symbolic links followed at most, as most systems do (`ELOOP` after 40).
+const MAX_LINKS: usize = 40;
+
+/// The identity of an existing file: device and inode on unix.
+#[derive(Clone, Debug, PartialEq, Eq)]
+struct FileId(#[cfg(unix)] (u64, u64), #[cfg(not(unix))] PathBuf);
+
+/// The identity of the file `path` names (links followed), with its metadata;
+/// `None` when there is no such file.
+fn identity(path: &Path) -> Option<(FileId, fs::Metadata)> {
+    let meta = fs::metadata(path).ok()?;
+    #[cfg(unix)]
+    let id = {
+        use std::os::unix::fs::MetadataExt;
+        FileId((meta.dev(), meta.ino()))
+    };
+    #[cfg(not(unix))]
+    let id = FileId(fs::canonicalize(path).ok()?);
+    Some((id, meta))
+}
+
+/// Fails when `output` is the same file as one of `inputs` (each `(what,
+/// path)`, `what` saying what the input is: "samples file", "station file").
+/// Only an existing regular file can be an input replaced by mistake: a name
+/// not yet taken, a device or a FIFO is no input's data.
+pub fn refuse_inputs(output: &Path, inputs: &[(&str, &Path)]) -> Result<()> {
+    let Some((out, meta)) = identity(output) else {
+        return Ok(());
+    };
+    if !meta.is_file() {
+        return Ok(());
+    }
+    for (what, input) in inputs {
+        if identity(input).is_some_and(|(id, _)| id == out) {
+            let other = if output == *input {
+                ""
+            } else {
+                " (the same file by another name)"
+            };
+            bail!(
+                "cannot write {}: it is the {what} {}{other}, an input of this command; \
+                 an output never replaces an input, choose another output",
+                output.display(),
+                input.display()
+            );
+        }
+    }
+    Ok(())
+}
+
+/// The file a name finally stands for: symbolic links followed, also when the
+/// last one points to a name not yet taken.
+fn resolve_links(path: &Path) -> Result<PathBuf> {
+    let mut p = path.to_path_buf();
+    for _ in 0..MAX_LINKS {
+        match fs::symlink_metadata(&p) {
+            Ok(m) if m.file_type().is_symlink() => {
+                let target = fs::read_link(&p)
+                    .with_context(|| format!("cannot read the link {}", p.display()))?;
+                p = match p.parent() {
+                    Some(dir) if target.is_relative() => dir.join(target),
+                    _ => target,
+                };
+            }
+            _ => return Ok(p),
+        }
+    }
+    bail!(
+        "{}: more than {MAX_LINKS} symbolic links in a row",
+        path.display()
+    )
+}
+
+/// A temporary file next to `target`, removed when dropped unless renamed
+/// over `target` first.
+struct Temp {
+    path: PathBuf,
+    target: PathBuf,
+    done: bool,
+}
+
+impl Drop for Temp {
+    fn drop(&mut self) {
+        if !self.done {
+            let _ = fs::remove_file(&self.path);
+        }
+    }
+}
+
+impl Temp {
+    /// Creates the temporary file for `target` (a name in an existing folder).
+    fn create(target: &Path) -> Result<(Temp, File)> {
+        let dir = match target.parent() {
+            Some(d) if !d.as_os_str().is_empty() => d.to_path_buf(),
+            _ => PathBuf::from("."),
+        };
+        let name = target.file_name().unwrap_or(target.as_os_str());
+        let pid = std::process::id();
+        let mut last = None;
+        for n in 0..100u32 {
+            let mut tmp = std::ffi::OsString::from(".");
+            tmp.push(name);
+            tmp.push(format!(".tenmin-{pid}-{n}.partial"));
+            let path = dir.join(tmp);
+            match OpenOptions::new().write(true).create_new(true).open(&path) {
+                Ok(file) => {
+                    let temp = Temp {
+                        path,
+                        target: target.to_path_buf(),
+                        done: false,
+                    };
+                    return Ok((temp, file));
+                }
+                Err(e) if e.kind() == io::ErrorKind::AlreadyExists => last = Some(e),
+                Err(e) => {
+                    return Err(e).with_context(|| {
+                        format!(
+                            "cannot write {}: cannot create a temporary file in {}",
+                            target.display(),
+                            dir.display()
+                        )
+                    })
+                }
+            }
+        }
+        Err(last.unwrap_or_else(|| io::Error::other("no free name"))).with_context(|| {
+            format!(
+                "cannot write {}: cannot create a temporary file in {}",
+                target.display(),
+                dir.display()
+            )
+        })
+    }
+}
+
+/// Where the bytes go.
+enum Dest {
+    /// A temporary file renamed over its target on success.
+    Replace(File),
+    /// A special file written in place.
+    Special(File),
+    /// The process's stdout.
+    Stdout(io::StdoutLock<'static>),
+}
+
+impl Write for Dest {
+    fn write(&mut self, buf: &[u8]) -> io::Result<usize> {
+        match self {
+            Dest::Replace(f) | Dest::Special(f) => f.write(buf),
+            Dest::Stdout(s) => s.write(buf),
+        }
+    }
+
+    fn flush(&mut self) -> io::Result<()> {
+        match self {
+            Dest::Replace(f) | Dest::Special(f) => f.flush(),
+            Dest::Stdout(s) => s.flush(),
+        }
+    }
+}
+
+/// One output of a command: a file (replaced atomically, or a special file
+/// written in place) or stdout. Buffered; [`Output::finish`] completes it.
+/// Dropped without `finish`, a file output leaves the old file as it was.
+pub struct Output {
+    /// What is written ("records", "the sample file"), for messages.
+    what: &'static str,
+    /// The output's name in messages: its path, or "stdout".
+    name: String,
+    buf: BufWriter<Dest>,
+    temp: Option<Temp>,
+    /// The first write error, as reported.
+    error: Option<io::Error>,
+}
+
+impl Output {
+    /// An output to the file `path`, for `what` ("records", "the sample
+    /// file"); nothing is written to `path` itself before [`Output::finish`]
+    /// unless it is a special file.
+    pub fn file(path: &Path, what: &'static str) -> Result<Output> {
+        let name = path.display().to_string();
+        let dest = match fs::metadata(path) {
+            Ok(m) if m.is_dir() => bail!(
+                "{name}: is a folder; the output here is a file to write {what} to, \
+                 give the file's name"
+            ),
+            Ok(m) if !m.is_file() => {
+                let f = OpenOptions::new()
+                    .write(true)
+                    .open(path)
+                    .with_context(|| format!("cannot write {what} to {name}"))?;
+                (Dest::Special(f), None)
+            }
+            Ok(_) => Self::replace(path, what)?,
+            Err(e) if e.kind() == io::ErrorKind::NotFound => Self::replace(path, what)?,
+            Err(e) => return Err(e).with_context(|| format!("cannot write {what} to {name}")),
+        };
+        Ok(Output {
+            what,
+            name,
+            buf: BufWriter::with_capacity(1 << 16, dest.0),
+            temp: dest.1,
+            error: None,
+        })
+    }
+
+    fn replace(path: &Path, what: &'static str) -> Result<(Dest, Option<Temp>)> {
+        let target = resolve_links(path)
+            .with_context(|| format!("cannot write {what} to {}", path.display()))?;
+        let (temp, file) = Temp::create(&target)?;
+        // Keep the permissions of the file replaced.
+        if let Ok(m) = fs::metadata(&target) {
+            let _ = file.set_permissions(m.permissions());
+        }
+        Ok((Dest::Replace(file), Some(temp)))
+    }
+
+    /// An output to stdout, for `what`.
+    pub fn stdout(what: &'static str) -> Output {
+        Output {
+            what,
+            name: "stdout".to_string(),
+            buf: BufWriter::with_capacity(1 << 16, Dest::Stdout(io::stdout().lock())),
+            temp: None,
+            error: None,
+        }
+    }
+
+    /// An output to `path`, or to stdout when `None`.
+    pub fn open(path: Option<&Path>, what: &'static str) -> Result<Output> {
+        match path {
+            Some(p) => Output::file(p, what),
+            None => Ok(Output::stdout(what)),
+        }
+    }
+
+    /// A write error naming the output; the first one is kept.
+    fn failed(&mut self, e: io::Error) -> io::Error {
+        let msg = format!("cannot write {} to {}: {e}", self.what, self.name);
+        if self.error.is_none() {
+            self.error = Some(io::Error::new(e.kind(), msg.clone()));
+        }
+        io::Error::new(e.kind(), msg)
+    }
+
+    /// The first write error, if any.
+    pub fn take_error(&mut self) -> Option<io::Error> {
+        self.error.take()
+    }
+
+    /// Completes the output: flushes it; a file replaced is synced to the
+    /// disk and renamed over its final name.
+    pub fn finish(mut self) -> Result<()> {
+        self.flush()?;
+        if let Some(e) = self.error.take() {
+            return Err(e.into());
+        }
+        let Output {
+            what,
+            name,
+            buf,
+            temp,
+            ..
+        } = self;
+        let dest = buf.into_inner().map_err(|e| {
+            let e = e.into_error();
+            anyhow::Error::from(io::Error::new(
+                e.kind(),
+                format!("cannot write {what} to {name}: {e}"),
+            ))
+        })?;
+        match dest {
+            Dest::Replace(file) => {
+                file.sync_all().map_err(|e| {
+                    io::Error::new(e.kind(), format!("cannot write {what} to {name}: {e}"))
+                })?;
+                drop(file);
+                if let Some(mut temp) = temp {
+                    fs::rename(&temp.path, &temp.target).with_context(|| {
+                        format!(
+                            "cannot write {what} to {name}: cannot rename {} to {}",
+                            temp.path.display(),
+                            temp.target.display()
+                        )
+                    })?;
+                    temp.done = true;
+                    sync_folder(&temp.target);
+                }
+            }
+            Dest::Special(_) | Dest::Stdout(_) => {}
+        }
+        Ok(())
+    }
+}
+
+/// Makes a rename in the folder of `path` durable, where the system allows
+/// (best effort: the data are already synced).
+fn sync_folder(path: &Path) {
+    #[cfg(unix)]
+    {
+        let dir = match path.parent() {
+            Some(d) if !d.as_os_str().is_empty() => d,
+            _ => Path::new("."),
+        };
+        if let Ok(d) = File::open(dir) {
+            let _ = d.sync_all();
+        }
+    }
+    #[cfg(not(unix))]
+    let _ = path;
+}
+
+impl Write for Output {
+    fn write(&mut self, buf: &[u8]) -> io::Result<usize> {
+        self.buf.write(buf).map_err(|e| self.failed(e))
+    }
+
+    fn write_all(&mut self, buf: &[u8]) -> io::Result<()> {
+        self.buf.write_all(buf).map_err(|e| self.failed(e))
+    }
+
+    fn flush(&mut self) -> io::Result<()> {
+        self.buf.flush().map_err(|e| self.failed(e))
+    }
+}
+
+/// Runs `f` writing `what` into `path` (stdout when `None`) and completes the
+/// output when `f` succeeds. When `f` fails, a file output is left as it was
+/// and the error is the first write error if there was one (it names the
+/// output), else `f`'s.
+pub fn write_to<T>(
+    path: Option<&Path>,
+    what: &'static str,
+    f: impl FnOnce(&mut Output) -> Result<T>,
+) -> Result<T> {
+    let mut out = Output::open(path, what)?;
+    match f(&mut out) {
+        Ok(v) => {
+            out.finish()?;
+            Ok(v)
+        }
+        Err(e) => Err(out.take_error().map_or(e, anyhow::Error::from)),
+    }
+}
+
+/// Writes `bytes` as the whole of the file `path` (see [`Output`]).
+pub fn write_file(path: &Path, what: &'static str, bytes: &[u8]) -> Result<()> {
+    write_to(Some(path), what, |w| Ok(w.write_all(bytes)?))
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn a_failed_write_leaves_the_old_file_and_no_temporary_file() {
+        let dir = tempfile::tempdir().unwrap();
+        let p = dir.path().join("out.csv");
+        fs::write(&p, "old\n").unwrap();
+        let r: Result<()> = write_to(Some(&p), "records", |w| {
+            w.write_all(b"new, half")?;
+            bail!("input broke")
+        });
+        assert_eq!(r.unwrap_err().to_string(), "input broke");
+        assert_eq!(fs::read_to_string(&p).unwrap(), "old\n");
+        let names: Vec<_> = fs::read_dir(dir.path()).unwrap().collect();
+        assert_eq!(names.len(), 1, "{names:?}");
+    }
+
+    #[test]
+    fn links_resolve_relative_to_their_folder() {
+        let dir = tempfile::tempdir().unwrap();
+        let sub = dir.path().join("sub");
+        fs::create_dir(&sub).unwrap();
+        #[cfg(unix)]
+        {
+            std::os::unix::fs::symlink("real.csv", sub.join("link.csv")).unwrap();
+            assert_eq!(
+                resolve_links(&sub.join("link.csv")).unwrap(),
+                sub.join("real.csv")
+            );
+        }
+        assert_eq!(resolve_links(&sub.join("x")).unwrap(), sub.join("x"));
+    }
+}
