@@ -245,7 +245,7 @@ fn a_layout_that_cannot_be_right_is_refused_before_any_sample() {
                 "column = \"speed\"\nsource_unit = \"degF\"",
                 "column = \"dir\"",
             ),
-            "does not fit a speed channel",
+            "cannot be converted to m/s",
         ),
         (
             station(RATE_1S, "", "column = \"speed\"", ""),
