@@ -83,12 +83,13 @@ fn no_records_unless_allowed(s: &Summary, files: &[PathBuf], opts: Options) -> R
     }
     let names: Vec<String> = files.iter().map(|f| f.display().to_string()).collect();
     bail!(
-        "{}: {} data row(s) read, no records: every row was bad (skipped: {} wrong field count, {} bad time, {} bad value, {} not UTF-8); add --allow-no-records to accept an empty result",
+        "{}: {} data row(s) read, no records: every row was bad or of another station (skipped: {} wrong field count, {} bad time, {} bad value, {} not UTF-8; {} left out by [input] filter); add --allow-no-records to accept an empty result",
         names.join(", "),
         s.input.rows,
         s.input.bad.field_count,
         s.input.bad.time,
         s.input.bad.value,
-        s.input.bad.encoding
+        s.input.bad.encoding,
+        s.input.bad.filtered
     )
 }
