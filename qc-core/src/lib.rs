@@ -139,7 +139,7 @@ pub use channel::{
     Absent, Channel, ChannelAcc, ChannelConfig, ChannelRecord, ChannelState, DirectionAcc, Kind,
     LinkedDirectionAcc, Reading, ScalarAcc, Scale, SpeedAcc, Stat, StateForm, Tally,
 };
-pub use error::{ChannelProblem, ConfigError};
+pub use error::{ChannelProblem, ConfigError, TallyError};
 pub use flags::{Flag, Flags};
 pub use recovery::{Recovery, Totals};
 pub use screen::{Icing, Screen, Screener};
