@@ -505,7 +505,7 @@ pub fn run(out: &Path, days: u32, seed: u64) -> Result<ExitCode> {
 
     // Replay from disk (on all cores, up to two) and verify against the
     // logger's records.
-    let mut cmp = verify::Comparer::open(&logger_path, ids.clone(), 10)?;
+    let mut cmp = verify::Comparer::open(&logger_path, cfg.station, ids.clone(), 10)?;
     let opts = Options {
         jobs: replay::default_jobs(),
         ..Options::default()

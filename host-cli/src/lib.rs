@@ -431,7 +431,7 @@ fn write_atomically<T>(
 
 fn verify_cmd(a: VerifyArgs) -> Result<ExitCode> {
     let cfg = config::load(&a.config)?;
-    let mut cmp = verify::Comparer::open(&a.records, ids(&cfg), a.max_diffs)?;
+    let mut cmp = verify::Comparer::open(&a.records, cfg.station, ids(&cfg), a.max_diffs)?;
     let summary = replay::replay(&cfg, &a.samples, options(&a.input), &mut cmp)?;
     let report = cmp.finish()?;
     if !a.input.quiet {
