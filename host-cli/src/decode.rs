@@ -156,8 +156,9 @@ pub struct Decoded {
     /// Good frames left out because the frames around them contradict their
     /// interval start (a clock glitch).
     pub glitched: u64,
-    /// Good frames left out because they are not after the frames already
-    /// written (repeated, or a clock set back).
+    /// Good frames left out because they repeat the frame before them or are
+    /// not after the frames already written (a log written twice, a clock
+    /// set back).
     pub behind: u64,
     /// Good record frames of format version 1, which carry no configuration
     /// fingerprint.
@@ -209,7 +210,7 @@ impl Decoded {
             "{} rows written ({} of them for {} intervals with no samples); \
              {} damaged spans ({} bytes), {} frames lost, {} sequence restarts, \
              {} frames out of order (put back in order), {} frames with a glitched time (left out), \
-             {} frames behind the log (left out), {} intervals unknown, \
+             {} frames repeated or behind the log (left out), {} intervals unknown, \
              {} frames without a configuration fingerprint, {} bytes of erased flash",
             self.rows,
             self.empty_rows,
@@ -391,8 +392,9 @@ struct Decoder<'a, const C: usize, W: Write> {
     first: Option<(bool, usize)>,
     /// Stage 1: frames in log order, looked at for the next sequence number.
     window: VecDeque<Item>,
-    /// Stage 2: the sequence number and offset of the last frame taken.
-    last_seq: Option<(u32, usize)>,
+    /// Stage 2: the sequence number, offset and time key of the last frame
+    /// taken.
+    last_seq: Option<(u32, usize, (i64, u8))>,
     /// Stage 3: frames in time order, held back before they are written.
     pending: VecDeque<Item>,
     /// Stage 3: a run contradicting the end of `pending`.
@@ -498,8 +500,15 @@ impl<const C: usize, W: Write> Decoder<'_, C, W> {
     /// Takes the frame that comes next from the window: the one whose
     /// sequence number follows the last one's, else the oldest.
     fn release(&mut self) -> Result<()> {
-        let next = self.last_seq.map(|(s, _)| s.wrapping_add(1));
+        let next = self.last_seq.map(|(s, _, _)| s.wrapping_add(1));
+        // A frame numbered before the next one (repeated, or a new session
+        // starting again) goes first: nothing to put before it.
+        let head_behind = match (next, self.window.front()) {
+            (Some(n), Some(h)) => (h.sequence.wrapping_sub(n) as i32) < 0,
+            _ => true,
+        };
         let at = next
+            .filter(|_| !head_behind)
             .and_then(|n| self.window.iter().position(|f| f.sequence == n))
             .unwrap_or(0);
         let Some(item) = self.window.remove(at) else {
@@ -523,8 +532,18 @@ impl<const C: usize, W: Write> Decoder<'_, C, W> {
     /// it (wrapping), reporting lost frames and restarts.
     fn follow(&mut self, mut item: Item) -> Result<()> {
         let (sequence, offset) = (item.sequence, item.offset);
+        if let Some((p, p_offset, key)) = self.last_seq {
+            if p == sequence && key == item.key() {
+                // The same frame written again (a retried write).
+                self.d.behind += 1;
+                self.d.problems.push(format!(
+                    "byte {offset}: the frame with sequence number {sequence} repeats the frame at byte {p_offset} (written twice?); left out"
+                ));
+                return Ok(());
+            }
+        }
         let d = &mut self.d;
-        match self.last_seq.replace((sequence, offset)) {
+        match self.last_seq.replace((sequence, offset, item.key())) {
             None => {
                 if sequence != 0 {
                     d.first_sequence = Some(sequence);
@@ -533,7 +552,7 @@ impl<const C: usize, W: Write> Decoder<'_, C, W> {
                     ));
                 }
             }
-            Some((p, p_offset)) => {
+            Some((p, p_offset, _)) => {
                 let lost = sequence.wrapping_sub(p).wrapping_sub(1);
                 // Sequence numbers wrap after 2^32 frames; a jump of more than
                 // half of that is a restart, not a loss.

@@ -337,8 +337,9 @@ pub fn read(cfg: &StationFile, paths: &[PathBuf]) -> Result<Dataset> {
             let n_possible = count(&rec, &at, cols.n_possible, "n_possible")?;
             if let Err(e) = cfg.station.check_tally(n_possible, &tally) {
                 bail!(
-                    "{}:{line}: {e}: these counts cannot come from a station",
-                    path.display()
+                    "{}:{line}: {} {id}: {e}: these counts cannot come from a station",
+                    path.display(),
+                    Rfc3339(Timestamp::from_millis(start))
                 );
             }
             let mean = number(&rec, &at, cols.mean, "mean")?;
