@@ -49,8 +49,8 @@
 //!    A first sequence number other than 0 is reported, not counted as lost.
 //! 3. **Time line.** Frames must come in time order (interval, then channel).
 //!    A frame that is not after the one before it either contradicts frames
-//!    held back a little ([`horizon`] frames are held before they are
-//!    written), or is behind them all. Of two time lines that disagree, the
+//!    held back a little ([`horizon`] frames, [`HORIZON_INTERVALS`] intervals'
+//!    worth, are held before they are written), or is behind them all. Of two time lines that disagree, the
 //!    one that more frames follow is kept: a run of frames whose interval
 //!    start jumps away and back while their sequence numbers run on (a clock
 //!    glitch, CRC good) is left out and reported as a glitch, and every good
@@ -62,10 +62,11 @@
 //! empty `IntervalAcc::new(&layout, k)` finished by the core; in a state log
 //! also counted by the finisher as a `Gap`) only between two frames that
 //! agree on sequence and time: consecutive sequence numbers, nothing left out
-//! between them, and the later one confirmed by a frame of a later interval
-//! after it. Anywhere else (frames lost, a restart, a glitch left out between,
-//! or a jump at the very end of the log that no frame confirms) whether they
-//! held samples is unknown: they are neither written nor finished, and
+//! between them, the later one confirmed by a frame of a later interval after
+//! it and the earlier one by a frame of an earlier interval before it.
+//! Anywhere else (frames lost, a restart, a glitch left out between, or a jump
+//! after the log's first interval or before its last that no frame confirms)
+//! whether they held samples is unknown: they are neither written nor finished, and
 //! `tenmin verify` lists their rows as missing.
 //!
 //! In a state log, an interval some of whose states were lost (frames lost or
@@ -103,16 +104,20 @@ use crate::timefmt::Rfc3339;
 pub const REORDER_WINDOW: usize = 64;
 
 /// Frames held back before they are written, so that a glitch of up to this
-/// many frames can still be taken back: four intervals of `channels`
-/// channels, and at least 16 frames.
+/// many frames can still be taken back: [`HORIZON_INTERVALS`] intervals of
+/// `channels` channels, and at least 32 frames.
 pub const fn horizon(channels: usize) -> usize {
-    let h = 4 * channels + 4;
-    if h < 16 {
-        16
+    let h = HORIZON_INTERVALS * channels;
+    if h < 32 {
+        32
     } else {
         h
     }
 }
+
+/// Intervals of frames held back before they are written (4 hours of
+/// 10-minute intervals): the longest clock glitch taken back.
+pub const HORIZON_INTERVALS: usize = 24;
 
 /// What a decode found.
 #[derive(Clone, Debug, Default, PartialEq, Eq)]
@@ -279,6 +284,7 @@ fn decode_with<const C: usize, W: Write>(
         behind_run: None,
         carry: false,
         prev: None,
+        first_interval: None,
         interval_tally: None,
         finisher: Finisher::new(),
         open: None,
@@ -405,6 +411,8 @@ struct Decoder<'a, const C: usize, W: Write> {
     carry: bool,
     /// The last frame written.
     prev: Option<Prev>,
+    /// The interval of the first frame written.
+    first_interval: Option<i64>,
     /// The first tally written in the current interval: (interval, tally,
     /// byte offset, channel).
     interval_tally: Option<(i64, Tally, usize, u8)>,
@@ -830,7 +838,18 @@ impl<const C: usize, W: Write> Decoder<'_, C, W> {
             channel: item.channel,
             offset,
         });
+        let mut broken = item.broken;
         if let Some(p) = before {
+            let first = *self.first_interval.get_or_insert(p.index);
+            if p.index == first && k > p.index + 1 && !broken {
+                // No frame before the log's first interval confirms its time.
+                broken = true;
+                self.d.problems.push(format!(
+                    "byte {offset}: the frames jump forward from the log's first interval, {}, to {} with no earlier frame to confirm the time of the first; the intervals between are not written",
+                    Rfc3339(self.layout.interval_start(p.index)),
+                    Rfc3339(self.layout.interval_start(k))
+                ));
+            }
             if (k, item.channel) <= (p.index, p.channel) {
                 // Stage 3 writes in time order only; a safeguard.
                 bail!(
@@ -838,7 +857,7 @@ impl<const C: usize, W: Write> Decoder<'_, C, W> {
                     self.path.display()
                 );
             }
-            self.between(p, k, item.broken)?;
+            self.between(p, k, broken)?;
         }
         self.same_samples(&item)?;
         match item.good {

@@ -199,8 +199,8 @@ sequence numbers count modulo 2^32. A run of frames whose time the frames around
 (a logger clock glitch) is left out and reported, and the good frames around it are kept; frames \
 behind everything read (a log written twice) are left out. Intervals with no samples are written \
 as the replay writes them only between two frames that agree on sequence and time; where frames \
-were lost or left out, or the log's last interval jumps forward with nothing after it to confirm \
-the time, the intervals without frames are not written, and `tenmin verify` lists them as missing. \
+were lost or left out, or the log's first or last interval jumps with nothing before or after it \
+to confirm the time, the intervals without frames are not written, and `tenmin verify` lists them as missing. \
 Frames that do not match the station file are an error.",
         after_long_help = concat!(
             "Example:\n  tenmin decode --config station.toml logger.log -o records.csv\n  tenmin verify --config station.toml --samples day-*.csv --records records.csv\n\n",

@@ -288,6 +288,28 @@ fn catalogue() -> Vec<Case> {
             never: &["clock glitch"],
         },
         Case {
+            // The first interval a day behind: nothing before it confirms
+            // its time, so no day of empty rows after it.
+            name: "first interval a day behind",
+            make: || {
+                let mut f = frames(0);
+                for c in 0..CHANNELS {
+                    shift(&mut f, at(0, c), -DAY_MS);
+                }
+                log_of(&f)
+            },
+            left_out: vec![],
+            moved: &[(
+                "2025-01-20T00:00:00Z,2025-01-20T00:10:00Z",
+                "2025-01-19T00:00:00Z,2025-01-19T00:10:00Z",
+            )],
+            says: &[
+                "byte 384: the frames jump forward from the log's first interval, 2025-01-19T00:00:00Z, to 2025-01-20T00:10:00Z with no earlier frame to confirm the time of the first; the intervals between are not written",
+                "0 of them for 0 intervals with no samples",
+            ],
+            never: &["clock glitch"],
+        },
+        Case {
             // Two frames swapped within an interval, and two across an
             // interval boundary: put back, nothing lost.
             name: "swapped frames",
