@@ -2634,6 +2634,40 @@ mod tests {
         assert_ne!(l.fingerprint(), base);
     }
 
+    #[test]
+    fn a_record_frame_tells_its_logger_configuration() {
+        // The stamp a logger puts in its record frames tells a station of a
+        // channel more, and one with two channels of different settings in
+        // the other order, from its own.
+        let cfg = StationConfig::ten_minute_1hz();
+        let (a, b, t) = (
+            ChannelConfig::speed(0.01),
+            ChannelConfig::speed(0.1),
+            ChannelConfig::scalar(0.1),
+        );
+        let stamp = |chans: &[ChannelConfig]| ConfigStamp {
+            channels: chans.len() as u8,
+            fingerprint: crate::config_fingerprint(&cfg, chans),
+        };
+        let logger = stamp(&[a, b, t]);
+        let frame = RecordFrame {
+            sequence: 1,
+            interval_start: Timestamp::from_millis(1_737_331_200_000),
+            channel: 0,
+            config: Some(logger),
+            record: ChannelRecord::empty(Kind::Speed, 600, Tally::default()),
+        };
+        let read = decode_record(&encode(&frame)).unwrap().config.unwrap();
+        assert_eq!(read, logger);
+        // The same station file: the same stamp (and the layout's own).
+        let layout = Layout::<3>::new::<3>(cfg, &[a, b, t]).unwrap();
+        assert_eq!(read.fingerprint, layout.fingerprint());
+        for other in [stamp(&[a, b, t, t]), stamp(&[b, a, t]), stamp(&[a, b])] {
+            assert_ne!(read, other, "{other:?}");
+        }
+        assert_ne!(stamp(&[b, a, t]).fingerprint, read.fingerprint);
+    }
+
     fn readings_strategy() -> impl Strategy<Value = Vec<Reading>> {
         let one = prop_oneof![
             any::<u64>().prop_map(|b| Reading::Value(f64::from_bits(b))),
