@@ -3,9 +3,10 @@
 //! ([`Core`]): a [`RecordLogger`] runs a `qc_core::Station` and writes record
 //! frames (finished, screened statistics); a [`StateLogger`] runs only the
 //! station's sampling half, a `qc_core::Sampler`, and writes state frames
-//! (each channel's exact interval state, stamped with the configuration's
-//! fingerprint), which `tenmin decode --config` finishes on the PC into the
-//! same records, bit for bit.
+//! (each channel's exact interval state), which `tenmin decode --config`
+//! finishes on the PC into the same records, bit for bit. Both kinds of frame
+//! are stamped with the channel count and the configuration's fingerprint, so
+//! that `tenmin decode` refuses a station file that is not the logger's.
 //!
 //! This one file is compiled into the firmware (`firmware_example::logger`), into
 //! the host example `qc-core/examples/replay_frames.rs` and into the host test
@@ -29,7 +30,7 @@
 //! frames; the replay runs with the stack below the statics
 //! (`memory/microbit.x`), so an overflow faults instead of corrupting them.
 
-use qc_core::wire::{self, RecordFrame, StateFrame, FRAME_LEN};
+use qc_core::wire::{self, ConfigStamp, RecordFrame, StateFrame, FRAME_LEN};
 use qc_core::{Ended, Event, Layout, Pushed, Reading, Sampler, Station, Timestamp};
 
 /// A station whose layout lives elsewhere (in flash, or in a [`LayoutSlot`]).
@@ -128,8 +129,9 @@ impl<'a, const C: usize, const G: usize> LoggerSlot<'a, C, G> {
     }
 
     /// Starts a new record logger of `layout` in the slot (replacing any
-    /// earlier one), writing frames for every channel (see
-    /// [`Logger::with_active`]); frame sequence numbers start at 0. `None` only
+    /// earlier one), writing frames for every channel, stamped with
+    /// `layout.fingerprint()` (see [`Logger::with_active`],
+    /// [`Logger::with_fingerprint`]); frame sequence numbers start at 0. `None` only
     /// if the slot could not be filled (which does not happen).
     pub fn start(&mut self, layout: &'a Layout<C>) -> Option<RecordLogger<'_, 'a, C, G>> {
         put_station(self, layout);
@@ -290,7 +292,7 @@ struct Meta<'a, const C: usize> {
     layout: &'a Layout<C>,
     /// Frames are written for channels `0..active`.
     active: u8,
-    /// Stamped on state frames.
+    /// Stamped on every frame, with `active`.
     fingerprint: u32,
     sequence: u32,
 }
@@ -305,7 +307,7 @@ pub type StateLogger<'s, 'a, const C: usize, const G: usize> =
 
 impl<'s, 'a, const C: usize, K: Core<C>> Logger<'s, 'a, C, K> {
     /// A logger of `core`, whose layout is `layout`, writing frames for every
-    /// channel, state frames stamped with `layout.fingerprint()`.
+    /// channel, stamped with `layout.fingerprint()`.
     fn new(core: &'s mut K, layout: &'a Layout<C>) -> Self {
         Logger {
             core,
@@ -325,7 +327,7 @@ impl<'s, 'a, const C: usize, K: Core<C>> Logger<'s, 'a, C, K> {
         self
     }
 
-    /// Stamps state frames with `fingerprint`: for a station of fewer
+    /// Stamps frames (record and state) with `fingerprint`: for a station of fewer
     /// channels than the logger's capacity, `qc_core::config_fingerprint` of
     /// the channels in use (what a PC computes from that station).
     pub fn with_fingerprint(mut self, fingerprint: u32) -> Self {
@@ -425,12 +427,17 @@ impl<const C: usize, E> Out<'_, '_, C, E> {
             return;
         };
         let interval_start = self.meta.layout.interval_start(acc.index());
+        let stamp = ConfigStamp {
+            channels: self.meta.active,
+            fingerprint: self.meta.fingerprint,
+        };
         self.frames(write, |channel, sequence, frame| {
             if let Some(record) = records.get(channel) {
                 let f = RecordFrame {
                     sequence,
                     interval_start,
                     channel: channel as u8,
+                    config: Some(stamp),
                     record: *record,
                 };
                 wire::encode_record(&f, frame);

@@ -352,7 +352,8 @@ fn replay_as<'a, S: Source, K: Sink>(
         run(input, sink, logger, count)
     } else {
         let logger = slot.start(layout).ok_or(full)?;
-        run(input, sink, logger.with_active(n), count)
+        let logger = logger.with_active(n).with_fingerprint(fingerprint);
+        run(input, sink, logger, count)
     }
 }
 
@@ -540,6 +541,10 @@ mod tests {
                         sequence: (want.len() / FRAME_LEN) as u32,
                         interval_start: layout.interval_start(acc.index()),
                         channel: ch as u8,
+                        config: Some(qc_core::wire::ConfigStamp {
+                            channels: 3,
+                            fingerprint: layout.fingerprint(),
+                        }),
                         record: layout.finish(acc, ch).unwrap(),
                     };
                     let mut b = [0u8; FRAME_LEN];
@@ -589,6 +594,7 @@ mod tests {
                         sequence: (out.len() / FRAME_LEN) as u32,
                         interval_start: frame.interval_start,
                         channel: ch as u8,
+                        config: Some(frame.config()),
                         record: *record,
                     };
                     let mut b = [0u8; FRAME_LEN];

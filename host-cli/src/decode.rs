@@ -15,31 +15,59 @@
 //!   back into an interval (`IntervalAcc::set_state`) and finished and
 //!   screened here, in time order, by one `qc_core::Finisher` kept across the
 //!   whole log: the rows are those the logger's own station would have
-//!   written, bit for bit. Every state frame carries the fingerprint of the
-//!   logger's configuration (`qc_core::config_fingerprint`), which must equal
-//!   that of the station file: a state log can only be finished with the
-//!   station file its logger was built with. A frame of another fingerprint
-//!   is bad input (exit 2), as is a state that does not fit its channel.
+//!   written, bit for bit.
+//!
+//! Both kinds of frame carry the logger's channel count and the fingerprint
+//! of its configuration (`qc_core::config_fingerprint`; record frames from
+//! format version 2), which must equal those of the station file: a frame of
+//! another configuration is bad input (exit 2), so a station file with a
+//! channel more, or with channels of other settings in another order, is
+//! refused instead of labelling rows wrongly. Record frames of version 1
+//! carry no fingerprint: they are still read, with a warning that the
+//! station file cannot be checked.
 //!
 //! The log is scanned with the core's scanner (`qc_core::wire::scan`), which
 //! resynchronises on the sync marker after damage. Rows are written by the
 //! CLI's own records writer ([`crate::records::write_row`]) in the replay's
 //! column layout. Frames must match the station file (channel index, kind or
-//! fingerprint, channel count, interval alignment, samples per interval): a
-//! frame that does not is bad input (exit 2), most likely the log of another
-//! station.
+//! fingerprint, channel count, interval alignment, samples per interval) and
+//! hold counts a station can make (`qc_core::StationConfig::check_tally`, the
+//! channels of one interval holding the same samples): a frame that does not
+//! is bad input (exit 2).
+//!
+//! # Putting frames in order
+//!
+//! Good frames pass three stages, each with a bounded buffer:
+//!
+//! 1. **Sequence order.** The writer numbers its frames (a wrapping `u32`).
+//!    Of the next [`REORDER_WINDOW`] frames, the one whose sequence number
+//!    follows the last one's is taken first: frames written out of order (two
+//!    swapped) are put back and reported as out of order, not as lost.
+//! 2. **Sequence numbers.** Distances are taken modulo 2^32, so a log that
+//!    starts near 2^32 or wraps through 0 loses nothing. A jump forward is
+//!    frames lost; a jump back (more than half of 2^32 forward) is a restart.
+//!    A first sequence number other than 0 is reported, not counted as lost.
+//! 3. **Time line.** Frames must come in time order (interval, then channel).
+//!    A frame that is not after the one before it either contradicts frames
+//!    held back a little ([`horizon`] frames, [`HORIZON_INTERVALS`] intervals'
+//!    worth, are held before they are written), or is behind them all. Of two time lines that disagree, the
+//!    one that more frames follow is kept: a run of frames whose interval
+//!    start jumps away and back while their sequence numbers run on (a clock
+//!    glitch, CRC good) is left out and reported as a glitch, and every good
+//!    frame around it is kept. Frames behind what has been written (a log
+//!    written twice, a clock set back) are left out and reported.
 //!
 //! A logger writes no frames for intervals without samples; the replay writes
-//! them as rows with empty statistics. Between the first and the last frame,
-//! such intervals are written here the way the replay writes them (an empty
-//! `IntervalAcc::new(&layout, k)` finished by the core; in a state log they
-//! are also counted by the finisher as a `Gap`), so that `tenmin verify`
-//! against the replay passes. The frames' sequence numbers tell a gap from
-//! lost frames: when frames are missing between two good ones (their sequence
-//! numbers are not consecutive), the intervals with no frame between them are
-//! neither written nor finished, since whether they held samples is unknown;
-//! rows of lost frames are simply absent, and `tenmin verify` lists them as
-//! missing.
+//! them as rows with empty statistics. Such intervals are written here (an
+//! empty `IntervalAcc::new(&layout, k)` finished by the core; in a state log
+//! also counted by the finisher as a `Gap`) only between two frames that
+//! agree on sequence and time: consecutive sequence numbers, nothing left out
+//! between them, the later one confirmed by a frame of a later interval after
+//! it and the earlier one by a frame of an earlier interval before it.
+//! Anywhere else (frames lost, a restart, a glitch left out between, or a jump
+//! after the log's first interval or before its last that no frame confirms)
+//! whether they held samples is unknown: they are neither written nor finished, and
+//! `tenmin verify` lists their rows as missing.
 //!
 //! In a state log, an interval some of whose states were lost (frames lost or
 //! damaged) is still finished, the lost channels left empty, and written
@@ -48,26 +76,48 @@
 //! flat-line runs start again. Each such interval is reported.
 //!
 //! Exit codes: 0 when the log was read, damage or not (problems are reported
-//! on stderr); with `--strict`, 1 when anything was damaged, torn, lost or
-//! out of order, or an interval of a state log incomplete; 2 on bad input
-//! (unreadable file, frames that do not match the station file, a log mixing
-//! both kinds of frame).
+//! on stderr); with `--strict`, 1 when anything was damaged, torn, lost, out
+//! of order, glitched, left out or unchecked (version-1 frames), or an
+//! interval of a state log incomplete; 2 on bad input (unreadable file,
+//! frames that do not match the station file, counts no station makes, a log
+//! mixing both kinds of frame).
 
+use std::collections::VecDeque;
 use std::fmt::Write as _;
 use std::io::{self, Read, Write};
 use std::path::Path;
 use std::process::ExitCode;
 
 use anyhow::{anyhow, bail, Context, Result};
-use qc_core::wire::{RecordFrame, Span, StateFrame, FRAME_LEN};
+use qc_core::wire::{ConfigStamp, RecordFrame, Span, StateFrame, FRAME_LEN};
 use qc_core::{
-    config_fingerprint, ChannelConfig, Finisher, Gap, IntervalAcc, Layout, StateForm, Timestamp,
+    config_fingerprint, ChannelConfig, Finisher, Gap, IntervalAcc, Layout, StateForm, Tally,
+    Timestamp,
 };
 
 use crate::config::{self, StationFile, MAX_CHANNELS};
 use crate::engine::G;
 use crate::records::{write_header, write_row};
 use crate::timefmt::Rfc3339;
+
+/// Frames looked at ahead for the one whose sequence number comes next.
+pub const REORDER_WINDOW: usize = 64;
+
+/// Frames held back before they are written, so that a glitch of up to this
+/// many frames can still be taken back: [`HORIZON_INTERVALS`] intervals of
+/// `channels` channels, and at least 32 frames.
+pub const fn horizon(channels: usize) -> usize {
+    let h = HORIZON_INTERVALS * channels;
+    if h < 32 {
+        32
+    } else {
+        h
+    }
+}
+
+/// Intervals of frames held back before they are written (4 hours of
+/// 10-minute intervals): the longest clock glitch taken back.
+pub const HORIZON_INTERVALS: usize = 24;
 
 /// What a decode found.
 #[derive(Clone, Debug, Default, PartialEq, Eq)]
@@ -96,25 +146,45 @@ pub struct Decoded {
     pub erased_bytes: u64,
     /// Frames lost, from gaps in the sequence numbers (at least this many).
     pub lost_frames: u64,
+    /// The sequence number of the first good frame, when it is not 0 (the
+    /// frames before it lost, or the log cut).
+    pub first_sequence: Option<u32>,
     /// Places where the sequence numbers start again lower (a new logging
     /// session written to the same log?).
     pub sequence_breaks: u64,
-    /// Intervals not written because frames were lost around them.
+    /// Intervals not written because frames were lost or left out around
+    /// them, or a jump at the end of the log was not confirmed.
     pub unknown_intervals: u64,
-    /// Good frames skipped: not after the frame before them.
+    /// Good frames found after frames with later sequence numbers, put back
+    /// in sequence order (and kept).
     pub out_of_order: u64,
+    /// Good frames left out because the frames around them contradict their
+    /// interval start (a clock glitch).
+    pub glitched: u64,
+    /// Good frames left out because they repeat the frame before them or are
+    /// not after the frames already written (a log written twice, a clock
+    /// set back).
+    pub behind: u64,
+    /// Good record frames of format version 1, which carry no configuration
+    /// fingerprint.
+    pub unstamped: u64,
     /// Problems, one line each, for stderr.
     pub problems: Vec<String>,
 }
 
 impl Decoded {
-    /// Whether anything was damaged, torn, lost or out of order, or an
-    /// interval of a state log is incomplete.
+    /// Whether anything was damaged, torn, lost, out of order, glitched, left
+    /// out or unchecked, or an interval of a state log is incomplete.
     pub fn damaged(&self) -> bool {
         self.damaged_spans > 0
             || self.lost_frames > 0
+            || self.first_sequence.is_some()
             || self.sequence_breaks > 0
+            || self.unknown_intervals > 0
             || self.out_of_order > 0
+            || self.glitched > 0
+            || self.behind > 0
+            || self.unstamped > 0
             || self.incomplete_intervals > 0
     }
 
@@ -143,8 +213,10 @@ impl Decoded {
         writeln!(
             w,
             "{} rows written ({} of them for {} intervals with no samples); \
-             {} damaged spans ({} bytes), {} frames lost, {} sequence restarts, {} frames out of order, \
-             {} bytes of erased flash",
+             {} damaged spans ({} bytes), {} frames lost, {} sequence restarts, \
+             {} frames out of order (put back in order), {} frames with a glitched time (left out), \
+             {} frames repeated or behind the log (left out), {} intervals unknown, \
+             {} frames without a configuration fingerprint, {} bytes of erased flash",
             self.rows,
             self.empty_rows,
             self.empty_intervals,
@@ -153,6 +225,10 @@ impl Decoded {
             self.lost_frames,
             self.sequence_breaks,
             self.out_of_order,
+            self.glitched,
+            self.behind,
+            self.unknown_intervals,
+            self.unstamped,
             self.erased_bytes
         )
     }
@@ -196,11 +272,20 @@ fn decode_with<const C: usize, W: Write>(
         path,
         ids: cfg.channels.iter().map(|c| c.id.as_str()).collect(),
         fingerprint: config_fingerprint(&cfg.station, &cores),
+        horizon: horizon(cfg.channels.len()),
         layout,
         out,
         d: Decoded::default(),
         first: None,
+        window: VecDeque::new(),
+        last_seq: None,
+        pending: VecDeque::new(),
+        alt: None,
+        behind_run: None,
+        carry: false,
         prev: None,
+        first_interval: None,
+        interval_tally: None,
         finisher: Finisher::new(),
         open: None,
         max_gap_days,
@@ -208,7 +293,7 @@ fn decode_with<const C: usize, W: Write>(
     // Read a piece at a time: memory does not grow with the log.
     crate::logscan::scan_reader(log, READ_CHUNK, |span| d.span(span))
         .with_context(|| format!("cannot read {}", path.display()))?;
-    d.close_open()?;
+    d.finish()?;
     Ok(d.d)
 }
 
@@ -225,15 +310,66 @@ impl Good {
             Good::State(_) => "state",
         }
     }
+
+    fn tally(&self) -> Tally {
+        match self {
+            Good::Record(f) => f.record.tally,
+            Good::State(f) => *f.state.tally(),
+        }
+    }
 }
 
-/// The last good frame taken.
+/// A good frame that fits the station file, on its way through the stages.
+struct Item {
+    offset: usize,
+    /// Interval index.
+    k: i64,
+    channel: u8,
+    sequence: u32,
+    /// Whether something lies between this frame and the one before it that
+    /// makes the intervals between unknown: frames lost, a restart, frames
+    /// left out.
+    broken: bool,
+    good: Good,
+}
+
+impl Item {
+    /// Time order: interval, then channel.
+    fn key(&self) -> (i64, u8) {
+        (self.k, self.channel)
+    }
+}
+
+/// The last frame written.
 #[derive(Clone, Copy)]
 struct Prev {
     index: i64,
     channel: u8,
-    sequence: u32,
     offset: usize,
+}
+
+/// A run of frames that contradicts the last `t_len` frames held back: one
+/// of the two is out of line; the longer wins.
+struct Alt {
+    frames: Vec<Item>,
+    t_len: usize,
+}
+
+/// Frames behind everything written, not yet reported.
+#[derive(Clone, Copy)]
+struct Behind {
+    count: u64,
+    first: usize,
+    last: usize,
+}
+
+/// Why frames were left out.
+#[derive(Clone, Copy, PartialEq, Eq)]
+enum LeftOut {
+    /// The frames around them agree on another time.
+    Glitch,
+    /// Not after what came before them.
+    Behind,
 }
 
 /// The interval of a state log whose states are arriving.
@@ -250,6 +386,8 @@ struct Decoder<'a, const C: usize, W: Write> {
     ids: Vec<&'a str>,
     /// `config_fingerprint` of the station file (its real channels).
     fingerprint: u32,
+    /// Frames held back before they are written.
+    horizon: usize,
     layout: Layout<C>,
     out: &'a mut W,
     /// Longest run of empty intervals written, days (`--max-gap-days`).
@@ -258,7 +396,26 @@ struct Decoder<'a, const C: usize, W: Write> {
     /// Whether the log holds state frames, and the offset of its first good
     /// frame.
     first: Option<(bool, usize)>,
+    /// Stage 1: frames in log order, looked at for the next sequence number.
+    window: VecDeque<Item>,
+    /// Stage 2: the sequence number, offset and time key of the last frame
+    /// taken.
+    last_seq: Option<(u32, usize, (i64, u8))>,
+    /// Stage 3: frames in time order, held back before they are written.
+    pending: VecDeque<Item>,
+    /// Stage 3: a run contradicting the end of `pending`.
+    alt: Option<Alt>,
+    /// Stage 3: frames behind everything written, not yet reported.
+    behind_run: Option<Behind>,
+    /// Stage 3: frames were left out: the next frame taken is `broken`.
+    carry: bool,
+    /// The last frame written.
     prev: Option<Prev>,
+    /// The interval of the first frame written.
+    first_interval: Option<i64>,
+    /// The first tally written in the current interval: (interval, tally,
+    /// byte offset, channel).
+    interval_tally: Option<(i64, Tally, usize, u8)>,
     /// State log: finishes the intervals, in time order.
     finisher: Finisher<C>,
     /// State log: the interval whose states are arriving.
@@ -314,21 +471,399 @@ impl<const C: usize, W: Write> Decoder<'_, C, W> {
             Good::Record(f) => (self.check_record(f, offset)?, f.channel, f.sequence),
             Good::State(f) => (self.check_state(f, offset)?, f.channel, f.sequence),
         };
-        if !self.in_order(offset, k, channel) {
+        self.check_counts(&good, offset)?;
+        self.d.frames += 1;
+        self.window.push_back(Item {
+            offset,
+            k,
+            channel,
+            sequence,
+            broken: false,
+            good,
+        });
+        if self.window.len() > REORDER_WINDOW {
+            self.release()?;
+        }
+        Ok(())
+    }
+
+    /// The end of the log: every stage emptied, the open interval closed.
+    fn finish(&mut self) -> Result<()> {
+        while !self.window.is_empty() {
+            self.release()?;
+        }
+        if let Some(alt) = self.alt.take() {
+            self.settle(alt)?;
+        }
+        self.report_behind(false);
+        self.unconfirmed_end();
+        while let Some(item) = self.pending.pop_front() {
+            self.write(item)?;
+        }
+        self.close_open()
+    }
+
+    // -- Stage 1: sequence order ---------------------------------------------
+
+    /// Takes the frame that comes next from the window: the one whose
+    /// sequence number follows the last one's, else the oldest.
+    fn release(&mut self) -> Result<()> {
+        let next = self.last_seq.map(|(s, _, _)| s.wrapping_add(1));
+        // A frame numbered before the next one (repeated, or a new session
+        // starting again) goes first: nothing to put before it.
+        let head_behind = match (next, self.window.front()) {
+            (Some(n), Some(h)) => (h.sequence.wrapping_sub(n) as i32) < 0,
+            _ => true,
+        };
+        let at = next
+            .filter(|_| !head_behind)
+            .and_then(|n| self.window.iter().position(|f| f.sequence == n))
+            .unwrap_or(0);
+        let Some(item) = self.window.remove(at) else {
+            return Ok(());
+        };
+        if at > 0 {
+            if let Some(head) = self.window.front() {
+                self.d.out_of_order += 1;
+                self.d.problems.push(format!(
+                    "byte {}: the frame with sequence number {} comes after the frame at byte {} (sequence number {}) in the log; put back in sequence order",
+                    item.offset, item.sequence, head.offset, head.sequence
+                ));
+            }
+        }
+        self.follow(item)
+    }
+
+    // -- Stage 2: sequence numbers -------------------------------------------
+
+    /// Checks the sequence number of the next frame against the one before
+    /// it (wrapping), reporting lost frames and restarts.
+    fn follow(&mut self, mut item: Item) -> Result<()> {
+        let (sequence, offset) = (item.sequence, item.offset);
+        if let Some((p, p_offset, key)) = self.last_seq {
+            if p == sequence && key == item.key() {
+                // The same frame written again (a retried write).
+                self.d.behind += 1;
+                self.d.problems.push(format!(
+                    "byte {offset}: the frame with sequence number {sequence} repeats the frame at byte {p_offset} (written twice?); left out"
+                ));
+                return Ok(());
+            }
+        }
+        let d = &mut self.d;
+        match self.last_seq.replace((sequence, offset, item.key())) {
+            None => {
+                if sequence != 0 {
+                    d.first_sequence = Some(sequence);
+                    d.problems.push(format!(
+                        "byte {offset}: the first good frame has sequence number {sequence}, not 0: the frames before it are lost, or the log does not start where the logger started",
+                    ));
+                }
+            }
+            Some((p, p_offset, _)) => {
+                let lost = sequence.wrapping_sub(p).wrapping_sub(1);
+                // Sequence numbers wrap after 2^32 frames; a jump of more than
+                // half of that is a restart, not a loss.
+                if lost > u32::MAX / 2 {
+                    d.sequence_breaks += 1;
+                    item.broken = true;
+                    d.problems.push(format!(
+                        "byte {offset}: the sequence number goes back from {p} (byte {p_offset}) to {sequence} (a new logging session in the same log, or a frame written again?)",
+                    ));
+                } else if lost != 0 {
+                    d.lost_frames += u64::from(lost);
+                    item.broken = true;
+                    let (first, last) = (p.wrapping_add(1), sequence.wrapping_sub(1));
+                    let which = if lost == 1 {
+                        format!("1 frame lost (sequence number {first})")
+                    } else {
+                        format!("{lost} frames lost (sequence numbers {first} to {last})")
+                    };
+                    let (a, b) = (p_offset.min(offset), p_offset.max(offset));
+                    d.problems
+                        .push(format!("bytes {} to {b}: {which}", a + FRAME_LEN));
+                }
+            }
+        }
+        self.take(item)
+    }
+
+    // -- Stage 3: time line --------------------------------------------------
+
+    /// The key of the last frame held back, or else written.
+    fn last_key(&self) -> Option<(i64, u8)> {
+        self.pending
+            .back()
+            .map(Item::key)
+            .or(self.prev.map(|p| (p.index, p.channel)))
+    }
+
+    /// Takes the next frame in sequence order onto the time line.
+    fn take(&mut self, mut z: Item) -> Result<()> {
+        if let Some(mut alt) = self.alt.take() {
+            let t_last = self.pending.back().map(Item::key);
+            let a_last = alt.frames.last().map(Item::key);
+            if t_last.is_some_and(|t| z.key() > t) {
+                // The frames went on after the held-back ones: the
+                // contradicting run was out of line.
+                self.left_out(alt.frames, LeftOut::Glitch);
+                z.broken = true;
+            } else if a_last.is_some_and(|a| z.key() > a) {
+                alt.frames.push(z);
+                if alt.frames.len() > alt.t_len {
+                    // More frames follow the contradicting run than the
+                    // held-back ones it contradicts: those were out of line.
+                    let keep = self.pending.len().saturating_sub(alt.t_len);
+                    let t: Vec<Item> = self.pending.drain(keep..).collect();
+                    self.left_out(t, LeftOut::Glitch);
+                    self.report_behind(false);
+                    for (i, mut f) in alt.frames.into_iter().enumerate() {
+                        f.broken |= i == 0;
+                        self.hold(f)?;
+                    }
+                } else {
+                    self.alt = Some(alt);
+                }
+                return Ok(());
+            } else {
+                // A third time line: settle the two first, then try again.
+                self.settle(alt)?;
+                return self.take(z);
+            }
+        }
+        match self.last_key() {
+            Some(last) if z.key() <= last => {}
+            _ => {
+                if self.behind_run.is_some() {
+                    self.report_behind(true);
+                    z.broken = true;
+                }
+                return self.hold(z);
+            }
+        }
+        let written = self.prev.map(|p| (p.index, p.channel));
+        if written.is_some_and(|w| z.key() <= w) || self.pending.is_empty() {
+            // Behind what has been written: nothing to take back.
+            let b = self.behind_run.get_or_insert(Behind {
+                count: 0,
+                first: z.offset,
+                last: z.offset,
+            });
+            b.count += 1;
+            b.last = z.offset;
+            self.carry = true;
             return Ok(());
         }
-        let before = self.follow(offset, k, channel, sequence);
-        if states && self.open.as_ref().is_some_and(|o| o.acc.index() != k) {
+        let t_len = self
+            .pending
+            .iter()
+            .rev()
+            .take_while(|f| f.key() >= z.key())
+            .count();
+        self.alt = Some(Alt {
+            frames: vec![z],
+            t_len,
+        });
+        Ok(())
+    }
+
+    /// Holds a frame back (after the last one held), writing the oldest held
+    /// beyond the horizon.
+    fn hold(&mut self, mut f: Item) -> Result<()> {
+        if std::mem::take(&mut self.carry) {
+            f.broken = true;
+        }
+        self.pending.push_back(f);
+        while self.pending.len() > self.horizon {
+            if let Some(old) = self.pending.pop_front() {
+                self.write(old)?;
+            }
+        }
+        Ok(())
+    }
+
+    /// Decides between the held-back run and a contradicting one with
+    /// nothing more to go on (the end of the log, or a third time line): the
+    /// longer is kept; of two as long, the one nearer in time to the frame
+    /// before them both.
+    fn settle(&mut self, alt: Alt) -> Result<()> {
+        let t_len = alt.t_len.min(self.pending.len());
+        let keep = self.pending.len() - t_len;
+        let drop_t = if alt.frames.len() != t_len {
+            alt.frames.len() > t_len
+        } else {
+            let before = keep
+                .checked_sub(1)
+                .and_then(|i| self.pending.get(i))
+                .map(|f| f.k)
+                .or(self.prev.map(|p| p.index));
+            let t_first = self.pending.get(keep).map(|f| f.k);
+            let a_first = alt.frames.first().map(|f| f.k);
+            match (before, t_first, a_first) {
+                (Some(b), Some(t), Some(a)) => (a - b).abs() < (t - b).abs(),
+                _ => false,
+            }
+        };
+        if drop_t {
+            let t: Vec<Item> = self.pending.drain(keep..).collect();
+            self.left_out(t, LeftOut::Glitch);
+            for (i, mut f) in alt.frames.into_iter().enumerate() {
+                f.broken |= i == 0;
+                self.hold(f)?;
+            }
+        } else {
+            self.left_out(alt.frames, LeftOut::Behind);
+        }
+        Ok(())
+    }
+
+    /// Reports frames left out, as one run.
+    fn left_out(&mut self, run: Vec<Item>, why: LeftOut) {
+        let (Some(a), Some(b)) = (run.first(), run.last()) else {
+            return;
+        };
+        let n = run.len();
+        let (lo, hi) = run.iter().fold((usize::MAX, 0), |(lo, hi), f| {
+            (lo.min(f.offset), hi.max(f.offset))
+        });
+        let place = if n == 1 {
+            format!("byte {lo}: 1 frame")
+        } else {
+            format!("bytes {lo} to {}: {n} frames", hi + FRAME_LEN)
+        };
+        let span = if a.k == b.k {
+            format!("{}", Rfc3339(self.layout.interval_start(a.k)))
+        } else {
+            format!(
+                "{} to {}",
+                Rfc3339(self.layout.interval_start(a.k)),
+                Rfc3339(self.layout.interval_start(b.k))
+            )
+        };
+        let seqs = if n == 1 {
+            format!("sequence number {}", a.sequence)
+        } else {
+            format!("sequence numbers {} to {}", a.sequence, b.sequence)
+        };
+        match why {
+            LeftOut::Glitch => {
+                self.d.glitched += n as u64;
+                self.d.problems.push(format!(
+                    "{place} ({seqs}) for {span}, a time the frames around them contradict (a logger clock glitch?); left out"
+                ));
+            }
+            LeftOut::Behind => {
+                self.d.behind += n as u64;
+                self.d.problems.push(format!(
+                    "{place} ({seqs}) for {span}, not after the frames before them (written again, or a clock set back?); left out"
+                ));
+            }
+        }
+        self.carry = true;
+    }
+
+    /// Reports the frames behind everything written: a glitch if the frames
+    /// went on after them (`resumed`) and they were few, else frames behind.
+    fn report_behind(&mut self, resumed: bool) {
+        let Some(b) = self.behind_run.take() else {
+            return;
+        };
+        let place = if b.count == 1 {
+            format!("byte {}: 1 frame", b.first)
+        } else {
+            format!(
+                "bytes {} to {}: {} frames",
+                b.first,
+                b.last + FRAME_LEN,
+                b.count
+            )
+        };
+        if resumed && b.count <= self.horizon as u64 {
+            self.d.glitched += b.count;
+            self.d.problems.push(format!(
+                "{place} with a time before the frames already read, which the frames after them contradict (a logger clock glitch?); left out"
+            ));
+        } else {
+            self.d.behind += b.count;
+            self.d.problems.push(format!(
+                "{place} not after the frames already read (the log written again, or a clock set back?); left out"
+            ));
+        }
+    }
+
+    /// At the end of the log: if the last interval's frames jumped forward,
+    /// no later frame confirms their time, so the intervals before them are
+    /// unknown.
+    fn unconfirmed_end(&mut self) {
+        let Some(last) = self.pending.back().map(|f| f.k) else {
+            return;
+        };
+        let i = self
+            .pending
+            .iter()
+            .rposition(|f| f.k != last)
+            .map(|i| i + 1);
+        let before = match i {
+            Some(i) => self.pending.get(i - 1).map(|f| f.k),
+            None => self.prev.map(|p| p.index),
+        };
+        let i = i.unwrap_or(0);
+        let Some(f) = self.pending.get_mut(i) else {
+            return;
+        };
+        if let Some(b) = before {
+            if f.k > b + 1 && !f.broken {
+                f.broken = true;
+                self.d.problems.push(format!(
+                    "byte {}: the last frames jump forward from {} to {} with no later frame to confirm the time; the intervals between are not written",
+                    f.offset,
+                    Rfc3339(self.layout.interval_start(b)),
+                    Rfc3339(self.layout.interval_start(f.k))
+                ));
+            }
+        }
+    }
+
+    // -- Writing ------------------------------------------------------------
+
+    /// Writes a frame taken in time order: the intervals between it and the
+    /// frame before, then its row (record log) or its state (state log).
+    fn write(&mut self, item: Item) -> Result<()> {
+        let (k, offset) = (item.k, item.offset);
+        if self.d.states && self.open.as_ref().is_some_and(|o| o.acc.index() != k) {
             self.close_open()?;
         }
-        if let Some((p, broken)) = before {
+        let before = self.prev.replace(Prev {
+            index: k,
+            channel: item.channel,
+            offset,
+        });
+        let mut broken = item.broken;
+        if let Some(p) = before {
+            let first = *self.first_interval.get_or_insert(p.index);
+            if p.index == first && k > p.index + 1 && !broken {
+                // No frame before the log's first interval confirms its time.
+                broken = true;
+                self.d.problems.push(format!(
+                    "byte {offset}: the frames jump forward from the log's first interval, {}, to {} with no earlier frame to confirm the time of the first; the intervals between are not written",
+                    Rfc3339(self.layout.interval_start(p.index)),
+                    Rfc3339(self.layout.interval_start(k))
+                ));
+            }
+            if (k, item.channel) <= (p.index, p.channel) {
+                // Stage 3 writes in time order only; a safeguard.
+                bail!(
+                    "{}: byte {offset}: internal error: frames written out of time order",
+                    self.path.display()
+                );
+            }
             self.between(p, k, broken)?;
         }
-        self.d.frames += 1;
-        match good {
+        self.same_samples(&item)?;
+        match item.good {
             Good::Record(f) => {
                 let r = f.record;
-                self.row(k, usize::from(channel), &r)?;
+                self.row(k, usize::from(item.channel), &r)?;
             }
             Good::State(f) => self.state(&f, k, offset)?,
         }
@@ -346,74 +881,37 @@ impl<const C: usize, W: Write> Decoder<'_, C, W> {
         Ok(())
     }
 
-    /// Whether a good frame of interval `k`, channel `ch` comes after the
-    /// frame before it; reports it when not.
-    fn in_order(&mut self, offset: usize, k: i64, ch: u8) -> bool {
-        let Some(p) = self.prev else {
-            return true;
-        };
-        if (k, ch) > (p.index, p.channel) {
-            return true;
-        }
-        self.d.out_of_order += 1;
-        self.d.problems.push(format!(
-            "byte {offset}: frame of {} channel {} is not after the frame before it (byte {}); skipped",
-            Rfc3339(self.layout.interval_start(k)),
-            self.ids.get(usize::from(ch)).unwrap_or(&"?"),
-            p.offset
-        ));
-        false
-    }
-
-    /// Checks the sequence number of a good frame in order against the one
-    /// before it, reporting lost frames and restarts, and takes it as the
-    /// last frame. Returns the frame before it and whether frames were lost
-    /// or the sequence started again between them.
-    fn follow(&mut self, offset: usize, k: i64, ch: u8, sequence: u32) -> Option<(Prev, bool)> {
-        let d = &mut self.d;
-        let prev = self.prev.replace(Prev {
-            index: k,
-            channel: ch,
-            sequence,
-            offset,
-        });
-        let Some(p) = prev else {
-            if sequence != 0 {
-                d.lost_frames += u64::from(sequence);
-                d.problems.push(format!(
-                    "byte {offset}: the first good frame has sequence number {sequence}: the frames before it are lost (or the log does not start where the logger started)",
-                ));
+    /// Every sample is counted once on every channel: the frames of one
+    /// interval must hold the same samples.
+    fn same_samples(&mut self, item: &Item) -> Result<()> {
+        let t = item.good.tally();
+        match self.interval_tally {
+            Some((k, first, at, ch)) if k == item.k => {
+                if !first.same_samples(&t) {
+                    let id = |c: u8| self.ids.get(usize::from(c)).copied().unwrap_or("?");
+                    bail!(
+                        "{}: byte {}: the frame of {} channel {} counts {} samples held (valid + missing + out of range) and {} rejected, but the frame of channel {} of the same interval (byte {at}) counts {} and {}: every sample is counted once on every channel, so these counts cannot come from a station",
+                        self.path.display(),
+                        item.offset,
+                        Rfc3339(self.layout.interval_start(k)),
+                        id(item.channel),
+                        t.held(),
+                        t.rejected,
+                        id(ch),
+                        first.held(),
+                        first.rejected
+                    );
+                }
             }
-            return None;
-        };
-        let lost = sequence.wrapping_sub(p.sequence).wrapping_sub(1);
-        // Sequence numbers wrap after 2^32 frames; a jump of more than half of
-        // that is a restart, not a loss.
-        if lost > u32::MAX / 2 {
-            d.sequence_breaks += 1;
-            d.problems.push(format!(
-                "byte {offset}: the sequence number goes back from {} to {sequence} (a new logging session in the same log?)",
-                p.sequence
-            ));
-        } else if lost != 0 {
-            d.lost_frames += u64::from(lost);
-            let (first, last) = (p.sequence.wrapping_add(1), sequence.wrapping_sub(1));
-            let which = if lost == 1 {
-                format!("1 frame lost (sequence number {first})")
-            } else {
-                format!("{lost} frames lost (sequence numbers {first} to {last})")
-            };
-            d.problems.push(format!(
-                "bytes {} to {offset}: {which}",
-                p.offset + FRAME_LEN
-            ));
+            _ => self.interval_tally = Some((item.k, t, item.offset, item.channel)),
         }
-        Some((p, lost != 0))
+        Ok(())
     }
 
     /// The intervals between the frame before (`p`) and interval `k`: written
-    /// as empty when no frame was lost between (`broken` false: the logger
-    /// wrote none, so they held no samples), else only reported.
+    /// as empty when nothing was lost or left out between (`broken` false:
+    /// the logger wrote no frames, so they held no samples), else only
+    /// reported.
     fn between(&mut self, p: Prev, k: i64, broken: bool) -> Result<()> {
         let (first, count) = (p.index + 1, k.saturating_sub(p.index).saturating_sub(1));
         if count <= 0 {
@@ -441,7 +939,7 @@ impl<const C: usize, W: Write> Decoder<'_, C, W> {
             ""
         };
         self.d.problems.push(format!(
-            "{} to {}: {count} intervals without frames where frames were lost; no rows written for them{screening}",
+            "{} to {}: {count} intervals without frames where frames were lost or left out; no rows written for them{screening}",
             Rfc3339(self.layout.interval_start(first)),
             Rfc3339(self.layout.interval_start(k))
         ));
@@ -526,13 +1024,15 @@ impl<const C: usize, W: Write> Decoder<'_, C, W> {
         if !lost.is_empty() {
             self.d.incomplete_intervals += 1;
             self.d.problems.push(format!(
-                "{}: the states of {} did not arrive (frames lost or damaged): interval finished without them, no rows for them; its cross-channel screening flags (pair, shear, icing) treat them as having no samples, and their flat-line runs start again",
+                "{}: the states of {} did not arrive (frames lost, damaged or left out): interval finished without them, no rows for them; its cross-channel screening flags (pair, shear, icing) treat them as having no samples, and their flat-line runs start again",
                 Rfc3339(self.layout.interval_start(k)),
                 lost.join(", ")
             ));
         }
         Ok(())
     }
+
+    // -- Checks against the station file ------------------------------------
 
     /// Bad input: a frame that does not fit the station file.
     fn mismatch(&self, offset: usize, why: &str) -> anyhow::Error {
@@ -564,9 +1064,63 @@ impl<const C: usize, W: Write> Decoder<'_, C, W> {
         }
     }
 
+    /// Checks the configuration a frame carries: channel count, then
+    /// fingerprint.
+    fn check_stamp(&self, stamp: ConfigStamp, kind: &str, offset: usize) -> Result<()> {
+        let n = self.cfg.channels.len();
+        if usize::from(stamp.channels) != n {
+            let why = format!(
+                "the logger's station has {} channels, the station file {n}",
+                stamp.channels
+            );
+            return Err(self.mismatch(offset, &why));
+        }
+        if stamp.fingerprint != self.fingerprint {
+            bail!(
+                "{}: byte {offset}: {kind} frame of another station configuration (fingerprint {:#010x}, the station file's is {:#010x}): a log can only be read with the station file its logger was built with, and {} is not that file (a setting of the statistics or the screening, or the order of the channels, differs)",
+                self.path.display(),
+                stamp.fingerprint,
+                self.fingerprint,
+                self.cfg.path.display()
+            );
+        }
+        Ok(())
+    }
+
+    /// The counts of one frame: as a station makes them.
+    fn check_counts(&self, good: &Good, offset: usize) -> Result<()> {
+        let (n_possible, tally) = match good {
+            Good::Record(f) => (f.record.n_possible, f.record.tally),
+            // A state carries no samples possible: the station file's.
+            Good::State(f) => (self.layout.samples_per_interval(), *f.state.tally()),
+        };
+        if let Err(e) = self.layout.check_tally(n_possible, &tally) {
+            if matches!(e, qc_core::TallyError::Possible { .. }) {
+                return Err(self.mismatch(offset, &e.to_string()));
+            }
+            bail!(
+                "{}: byte {offset}: the frame's counts cannot come from a station: {e}",
+                self.path.display()
+            );
+        }
+        Ok(())
+    }
+
     /// The interval index of a good record frame, after checking it belongs
     /// to the station file.
-    fn check_record(&self, f: &RecordFrame, offset: usize) -> Result<i64> {
+    fn check_record(&mut self, f: &RecordFrame, offset: usize) -> Result<i64> {
+        match f.config {
+            Some(stamp) => self.check_stamp(stamp, "record", offset)?,
+            None => {
+                if self.d.unstamped == 0 {
+                    self.d.problems.push(format!(
+                        "byte {offset}: record frames of format version 1 carry no configuration fingerprint: whether {} is the station file of the logger that wrote them cannot be checked (only the channel index, kind and samples per interval are)",
+                        self.cfg.path.display()
+                    ));
+                }
+                self.d.unstamped += 1;
+            }
+        }
         let mut why = String::new();
         match self.cfg.channels.get(usize::from(f.channel)) {
             None => {
@@ -589,18 +1143,8 @@ impl<const C: usize, W: Write> Decoder<'_, C, W> {
         if !why.is_empty() {
             return Err(self.mismatch(offset, &why));
         }
-        let k = self
-            .interval(f.interval_start)
-            .map_err(|why| self.mismatch(offset, &why))?;
-        if f.record.n_possible != self.layout.samples_per_interval() {
-            let why = format!(
-                "{} samples possible per interval, the station has {}",
-                f.record.n_possible,
-                self.layout.samples_per_interval()
-            );
-            return Err(self.mismatch(offset, &why));
-        }
-        Ok(k)
+        self.interval(f.interval_start)
+            .map_err(|why| self.mismatch(offset, &why))
     }
 
     /// The interval index of a good state frame, after checking it comes from
@@ -621,15 +1165,7 @@ impl<const C: usize, W: Write> Decoder<'_, C, W> {
             );
             return Err(self.mismatch(offset, &why));
         }
-        if f.fingerprint != self.fingerprint {
-            bail!(
-                "{}: byte {offset}: state frame of another station configuration (fingerprint {:#010x}, the station file's is {:#010x}): a state log can only be finished with the station file its logger was built with, and {} is not that file",
-                self.path.display(),
-                f.fingerprint,
-                self.fingerprint,
-                self.cfg.path.display()
-            );
-        }
+        self.check_stamp(f.config(), "state", offset)?;
         self.interval(f.interval_start)
             .map_err(|why| self.mismatch(offset, &why))
     }

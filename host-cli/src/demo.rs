@@ -18,8 +18,8 @@ use std::path::{Path, PathBuf};
 use std::process::ExitCode;
 
 use anyhow::{bail, Context, Result};
-use qc_core::wire::{encode_record, RecordFrame, FRAME_LEN};
-use qc_core::{ChannelRecord, Flag, Reading, Timestamp};
+use qc_core::wire::{encode_record, ConfigStamp, RecordFrame, FRAME_LEN};
+use qc_core::{config_fingerprint, ChannelRecord, Flag, Reading, Timestamp};
 
 use crate::config;
 use crate::engine::{self, Sink};
@@ -392,6 +392,8 @@ struct Logger<W: Write, L: Write> {
 struct LogWriter<L: Write> {
     out: L,
     sequence: u32,
+    /// The logger's channel count and configuration fingerprint, in every frame.
+    stamp: ConfigStamp,
 }
 
 impl<L: Write> LogWriter<L> {
@@ -412,6 +414,7 @@ impl<L: Write> LogWriter<L> {
                 sequence: self.sequence,
                 interval_start: start,
                 channel: channel as u8,
+                config: Some(self.stamp),
                 record: *record,
             };
             encode_record(&f, &mut frame);
@@ -506,6 +509,13 @@ pub fn run(out: &Path, days: u32, seed: u64) -> Result<ExitCode> {
         log: LogWriter {
             out: Output::file(&log_path, "the demo logger's log")?,
             sequence: 0,
+            stamp: ConfigStamp {
+                channels: cfg.channels.len() as u8,
+                fingerprint: config_fingerprint(
+                    &cfg.station,
+                    &cfg.channels.iter().map(|c| c.core).collect::<Vec<_>>(),
+                ),
+            },
         },
         flags: vec![[0; Flag::ALL.len()]; ids.len()],
         pair_all: (0.0, 0),
@@ -575,7 +585,7 @@ pub fn run(out: &Path, days: u32, seed: u64) -> Result<ExitCode> {
 
     // Replay from disk (on all cores, up to two) and verify against the
     // logger's records.
-    let mut cmp = verify::Comparer::open(&logger_path, ids.clone(), 10)?;
+    let mut cmp = verify::Comparer::open(&logger_path, cfg.station, ids.clone(), 10)?;
     let opts = Options {
         jobs: replay::default_jobs(),
         ..Options::default()

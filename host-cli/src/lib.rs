@@ -213,22 +213,30 @@ A record log holds the statistics the logger finished itself: every good frame i
 
 A state log holds, per interval and channel, the exact integer end state, written by a logger that \
 leaves finishing to the PC: the states of each interval are finished and screened here, in time \
-order, and the rows are those the logger's own station would have written, bit for bit. A state log \
-needs the same station file the logger was built with: every state frame carries the fingerprint of \
-the logger's configuration, and a frame whose fingerprint differs from the station file's (a \
-setting of the statistics or the screening changed) stops the command. An interval some of whose states were lost \
-is finished without them: rows only for the channels whose states arrived, and its cross-channel \
-screening flags (pair, shear, icing) treat the lost channels as having no samples (reported on \
-stderr).
+order, and the rows are those the logger's own station would have written, bit for bit. An interval \
+some of whose states were lost is finished without them: rows only for the channels whose states \
+arrived, and its cross-channel screening flags (pair, shear, icing) treat the lost channels as \
+having no samples (reported on stderr).
 
-Intervals with no samples between the first and last frame (the logger writes no frames for them) \
-are written as the replay writes them, so that `tenmin verify` can check the log against the \
-samples. Lost frames (a gap in the frames' sequence numbers) leave their rows out, and the \
-intervals around them with no frame are not written. Frames that do not match the station file are \
-an error.",
+The station file must be the one the logger was built with: every state frame and every record \
+frame of format version 2 carries the logger's channel count and the fingerprint of its \
+configuration, and a frame of another channel count or fingerprint (a channel more or fewer, a \
+setting of the statistics or the screening changed, channels of other settings in another order) \
+stops the command. Record frames of version 1 carry no fingerprint: they are read with a warning. \
+Frames whose counts no station makes (more samples than the interval has milliseconds, channels of \
+one interval holding different samples) stop the command.
+
+Frames are put back in sequence order (frames written out of order are kept and reported); \
+sequence numbers count modulo 2^32. A run of frames whose time the frames around them contradict \
+(a logger clock glitch) is left out and reported, and the good frames around it are kept; frames \
+behind everything read (a log written twice) are left out. Intervals with no samples are written \
+as the replay writes them only between two frames that agree on sequence and time; where frames \
+were lost or left out, or the log's first or last interval jumps with nothing before or after it \
+to confirm the time, the intervals without frames are not written, and `tenmin verify` lists them as missing. \
+Frames that do not match the station file are an error.",
         after_long_help = concat!(
             "Example:\n  tenmin decode --config station.toml logger.log -o records.csv\n  tenmin verify --config station.toml --samples day-*.csv --records records.csv\n\n",
-            "Exit codes:\n  0  the log was read (damage, if any, reported on stderr)\n  1  with --strict: damaged, torn, lost or out-of-order frames, or an interval of a state log\n     without some channels' states (records still written)\n  2  bad input, bad usage or an I/O error; frames that do not match the station file (a state\n     log of another configuration); a log mixing record and state frames"
+            "Exit codes:\n  0  the log was read (damage, if any, reported on stderr)\n  1  with --strict: damaged, torn, lost, out-of-order, glitched, repeated or unchecked\n     (version 1) frames, a first sequence number other than 0, intervals left unknown, or an\n     interval of a state log without some channels' states (records still written)\n  2  bad input, bad usage or an I/O error; frames that do not match the station file (a log of\n     another configuration or channel count); counts no station makes; a log mixing record and\n     state frames"
         )
     )]
     Decode(DecodeArgs),
@@ -271,8 +279,8 @@ pub struct DecodeArgs {
     /// over an input.
     #[arg(long, short = 'o', value_name = "RECORDS.csv")]
     output: Option<PathBuf>,
-    /// Exit with 1 when anything was damaged, torn, lost or out of order (in a state log,
-    /// also when an interval lacks some channels' states).
+    /// Exit with 1 when anything was damaged, torn, lost, out of order, glitched, repeated
+    /// or unchecked (in a state log, also when an interval lacks some channels' states).
     #[arg(long)]
     strict: bool,
     /// Print on stderr only the problems, not the summary of a clean log.
@@ -450,7 +458,7 @@ fn inputs<'a>(config: &'a Path, what: &'a str, files: &'a [PathBuf]) -> Vec<(&'a
 
 fn verify_cmd(a: VerifyArgs) -> Result<ExitCode> {
     let cfg = config::load(&a.config)?;
-    let mut cmp = verify::Comparer::open(&a.records, ids(&cfg), a.max_diffs)?;
+    let mut cmp = verify::Comparer::open(&a.records, cfg.station, ids(&cfg), a.max_diffs)?;
     let summary = replay::replay(&cfg, &a.samples, options(&a.input), &mut cmp)?;
     let report = cmp.finish()?;
     if !a.input.quiet {

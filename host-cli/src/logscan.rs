@@ -168,7 +168,7 @@ fn flush<E>(
 #[cfg(test)]
 mod tests {
     use super::*;
-    use qc_core::wire::{encode_record, RecordFrame};
+    use qc_core::wire::{encode_record, ConfigStamp, RecordFrame};
     use qc_core::{ChannelConfig, Event, Layout, Reading, Station, StationConfig, Timestamp};
 
     /// A record log of `n` frames of a one-channel station (values from the
@@ -189,6 +189,10 @@ mod tests {
                     sequence: k,
                     interval_start: layout.interval_start(acc.index()),
                     channel: 0,
+                    config: Some(ConfigStamp {
+                        channels: 1,
+                        fingerprint: layout.fingerprint(),
+                    }),
                     record: records[0],
                 };
                 encode_record(&f, &mut b);

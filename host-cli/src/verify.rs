@@ -7,6 +7,13 @@
 //! number); otherwise the difference says how many units in the last place
 //! (ULP) apart they are. Counts compare as integers, flags as sets, times as
 //! instants.
+//!
+//! The logger's counts must be counts a station makes
+//! (`qc_core::StationConfig::check_tally`: `n_possible` the station file's
+//! samples per interval, no more samples held than the interval has
+//! milliseconds, and the channels of one interval holding the same samples):
+//! a row that breaks them is bad input (exit 2) naming its file and line,
+//! not a difference.
 
 use std::fmt;
 use std::fs::File;
@@ -14,7 +21,7 @@ use std::io::BufReader;
 use std::path::{Path, PathBuf};
 
 use anyhow::{anyhow, bail, Context, Result};
-use qc_core::{ChannelRecord, Flag, Timestamp};
+use qc_core::{ChannelRecord, Flag, StationConfig, Tally, Timestamp};
 
 use crate::engine::Sink;
 use crate::limits::{self, Capped};
@@ -161,10 +168,12 @@ struct LoggerFile {
     /// A row read ahead (the first of the next group).
     ahead: Option<(i64, String, LoggerRow)>,
     last_start: Option<i64>,
+    /// The station the counts must fit.
+    station: StationConfig,
 }
 
 impl LoggerFile {
-    fn open(path: &Path, report: &mut Report) -> Result<Self> {
+    fn open(path: &Path, station: StationConfig, report: &mut Report) -> Result<Self> {
         let file = File::open(path).with_context(|| format!("cannot open {}", path.display()))?;
         let mut rdr = limits::csv_reader(BufReader::new(file));
         let mut record = csv::StringRecord::new();
@@ -236,7 +245,71 @@ impl LoggerFile {
             index,
             ahead: None,
             last_start: None,
+            station,
         })
+    }
+
+    /// The counts of a row (`None` for a count that does not parse, which
+    /// the comparison reports), and whether it has every count column.
+    fn tally(&self, row: &LoggerRow) -> Option<(u32, Tally, bool)> {
+        let count = |k: usize| -> Option<Option<u32>> {
+            match self.index[k] {
+                Some(j) => row.fields.get(j)?.parse::<u32>().ok().map(Some),
+                None => Some(None),
+            }
+        };
+        let n_possible = count(3)??;
+        let valid = count(4)??;
+        let (missing, out_of_range, rejected) = (count(11)?, count(12)?, count(13)?);
+        let full = missing.is_some() && out_of_range.is_some() && rejected.is_some();
+        let tally = Tally {
+            valid,
+            missing: missing.unwrap_or(0),
+            out_of_range: out_of_range.unwrap_or(0),
+            rejected: rejected.unwrap_or(0),
+        };
+        Some((n_possible, tally, full))
+    }
+
+    /// Checks the counts of one interval's rows: each as a station makes
+    /// them, and the same samples on every channel.
+    fn check_counts(&self, group: &Group) -> Result<()> {
+        let mut first: Option<(&LoggerRow, Tally)> = None;
+        for row in &group.rows {
+            let Some((n_possible, t, full)) = self.tally(row) else {
+                continue;
+            };
+            if let Err(e) = self.station.check_tally(n_possible, &t) {
+                bail!(
+                    "{}:{}: {} {}: {e}: these counts cannot come from a station",
+                    self.path.display(),
+                    row.line,
+                    group.start,
+                    row.channel
+                );
+            }
+            if !full {
+                continue;
+            }
+            match first {
+                None => first = Some((row, t)),
+                Some((r0, t0)) if !t0.same_samples(&t) => bail!(
+                    "{}:{}: {} {}: {} samples held (n_valid + n_missing + n_out_of_range) and {} rejected, but {} of the same interval (line {}) has {} and {}: every sample is counted once on every channel, so these counts cannot come from a station",
+                    self.path.display(),
+                    row.line,
+                    group.start,
+                    row.channel,
+                    t.held(),
+                    t.rejected,
+                    r0.channel,
+                    r0.line,
+                    t0.held(),
+                    t0.rejected
+                ),
+                Some(_) => {}
+            }
+        }
+        Ok(())
     }
 
     fn read_row(&mut self) -> Result<Option<(i64, String, LoggerRow)>> {
@@ -308,6 +381,7 @@ impl LoggerFile {
                 break;
             }
         }
+        self.check_counts(&group)?;
         Ok(Some(group))
     }
 }
@@ -335,13 +409,14 @@ pub struct Comparer {
 }
 
 impl Comparer {
-    /// Opens the logger's records; keeps the first `cap` differences.
-    pub fn open(path: &Path, ids: Vec<String>, cap: usize) -> Result<Self> {
+    /// Opens the logger's records of the station `station` (whose counts
+    /// they must fit); keeps the first `cap` differences.
+    pub fn open(path: &Path, station: StationConfig, ids: Vec<String>, cap: usize) -> Result<Self> {
         let mut report = Report {
             cap,
             ..Report::default()
         };
-        let logger = LoggerFile::open(path, &mut report)?;
+        let logger = LoggerFile::open(path, station, &mut report)?;
         Ok(Comparer {
             logger,
             pending: None,

@@ -452,11 +452,11 @@ fn bad_input_is_refused_with_its_place() {
     let o = tenmin(&["decode", "-c", "four.toml", "fw.log"], s.dir.path());
     assert_eq!(o.status.code(), Some(2), "{}", text(&o.stderr));
     let err = text(&o.stderr);
+    // Every frame says how many channels its logger has: the first one tells.
     assert!(
-        err.contains("fw.log: byte 512: the frame does not match"),
+        err.contains("fw.log: byte 0: the frame does not match four.toml: the logger's station has 5 channels, the station file 4"),
         "{err}"
     );
-    assert!(err.contains("channel index 4, but the station has 4 channels"));
     // A bad row: export stops with the replay's own message...
     let mut csv = samples();
     csv = csv.replacen("\n1737331210,", "\n1737331210,8.3.1", 1);
@@ -678,10 +678,25 @@ fn state_log_cut_anywhere_loses_only_the_cut_frame() {
             "cut at {cut}: {err}"
         );
         let end = last.map_or(0, line_of);
+        // When the last interval left jumps forward, no frame after it
+        // confirms its time: the empty intervals before it are not written.
+        let unconfirmed = last
+            .map(interval_of)
+            .and_then(|k| {
+                let first = frames[..i].iter().position(|f| interval_of(f) == k)?;
+                let b = interval_of(frames.get(first.checked_sub(1)?)?);
+                (k > b + 1).then_some(b + 1..k)
+            })
+            .unwrap_or(0..0);
+        assert_eq!(
+            !unconfirmed.is_empty(),
+            err.contains("with no later frame to confirm the time"),
+            "cut at {cut}: {err}"
+        );
         assert_rows(
             &records,
             &s.replay_csv,
-            |l| l <= end,
+            |l| l <= end && (l == 0 || !unconfirmed.contains(&interval_of_line(l))),
             &incomplete,
             &format!("log cut at byte {cut}"),
         );
@@ -698,7 +713,8 @@ fn state_log_cut_anywhere_loses_only_the_cut_frame() {
         ok(&o, &format!("decode with frame {i} torn after {j} bytes"));
         let err = text(&o.stderr);
         let lost = if i == 0 {
-            "the first good frame has sequence number 1: the frames before it are lost".to_string()
+            "the first good frame has sequence number 1, not 0: the frames before it are lost"
+                .to_string()
         } else {
             format!("1 frame lost (sequence number {i})")
         };
@@ -802,7 +818,7 @@ fn an_incomplete_interval_names_its_lost_channels() {
     );
     assert!(
         err.contains(
-            "2025-01-20T00:20:00Z: the states of wd, t did not arrive (frames lost or damaged)"
+            "2025-01-20T00:20:00Z: the states of wd, t did not arrive (frames lost, damaged or left out)"
         ),
         "{err}"
     );
@@ -850,7 +866,7 @@ fn an_incomplete_interval_names_its_lost_channels() {
     ok(&o, "decode with interval 6 lost");
     let err = text(&o.stderr);
     assert!(
-        err.contains("3 intervals without frames where frames were lost; no rows written for them"),
+        err.contains("3 intervals without frames where frames were lost or left out; no rows written for them"),
         "{err}"
     );
     assert!(!err.contains("did not arrive"), "{err}");
@@ -875,7 +891,14 @@ fn a_state_log_written_twice_is_read_once() {
     let (o, records) = s.decode("twice.log", &twice, true);
     assert_eq!(o.status.code(), Some(1));
     let err = text(&o.stderr);
-    assert!(err.contains("95 frames out of order"), "{err}");
+    // The second copy is behind everything read (its sequence numbers start
+    // again): left out, not counted as out of order or lost.
+    assert!(
+        err.contains("95 frames repeated or behind the log (left out)"),
+        "{err}"
+    );
+    assert!(err.contains("1 sequence restarts"), "{err}");
+    assert!(err.contains("0 frames lost"), "{err}");
     assert_eq!(records, s.replay_csv);
 }
 
@@ -903,16 +926,22 @@ fn a_state_log_of_another_configuration_is_refused() {
     );
     assert!(err.contains("changed.toml"), "{err}");
     assert!(!s.path("c.csv").exists() && !s.path("c.csv.partial").exists());
-    // The record log of the same logger does not carry the fingerprint.
+    // The record log of the same logger carries it too (record frames of
+    // version 2).
     let o = tenmin(&["decode", "-c", "changed.toml", "fw.log"], s.dir.path());
     assert_eq!(o.status.code(), Some(2), "no fw.log yet");
     std::fs::write(s.path("fw.log"), &s.log).unwrap();
-    ok(
-        &tenmin(
-            &["decode", "-q", "-c", "changed.toml", "fw.log"],
-            s.dir.path(),
-        ),
-        "a record log with a screening setting changed",
+    let o = tenmin(
+        &["decode", "-q", "-c", "changed.toml", "fw.log"],
+        s.dir.path(),
+    );
+    assert_eq!(o.status.code(), Some(2), "{}", text(&o.stderr));
+    assert!(
+        text(&o.stderr).contains(&format!(
+            "fw.log: byte 0: record frame of another station configuration (fingerprint {fingerprint:#010x}, the station file's is 0x"
+        )),
+        "{}",
+        text(&o.stderr)
     );
     // A state that does not fit its channel (the vane's state in a frame of
     // the first anemometer, fingerprint and CRC good) names the channel.

@@ -637,6 +637,21 @@ impl Tally {
         self.valid as u64 + self.missing as u64 + self.out_of_range as u64 + self.rejected as u64
     }
 
+    /// Samples the interval held: valid, missing and out of range (the
+    /// rejected ones came with a time the station refused). Every accepted
+    /// sample holds one reading of every channel, so this is the same on
+    /// every channel of one interval.
+    pub const fn held(&self) -> u64 {
+        self.valid as u64 + self.missing as u64 + self.out_of_range as u64
+    }
+
+    /// Whether `self` and `other` can be two channels' tallies of the same
+    /// interval: every sample is counted once on every channel, so the
+    /// samples held and the samples rejected are the same on each.
+    pub const fn same_samples(&self, other: &Tally) -> bool {
+        self.held() == other.held() && self.rejected == other.rejected
+    }
+
     fn count(&mut self, c: Class) {
         let slot = match c {
             Class::Valid(_) => &mut self.valid,
@@ -1290,7 +1305,7 @@ pub struct ChannelRecord {
 }
 
 impl ChannelRecord {
-    fn empty(kind: Kind, n_possible: u32, tally: Tally) -> Self {
+    pub(crate) fn empty(kind: Kind, n_possible: u32, tally: Tally) -> Self {
         let none = Stat::Absent(Absent::NoValidSamples);
         let na = Stat::Absent(Absent::NotApplicable);
         let (minmax, gust, vector, resultant) = match kind {

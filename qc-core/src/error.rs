@@ -94,3 +94,44 @@ impl fmt::Display for ConfigError {
 }
 
 impl core::error::Error for ConfigError {}
+
+/// Why the counts of a record cannot be one channel's record of one interval
+/// of a layout ([`crate::Layout::check_tally`]).
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+#[non_exhaustive]
+pub enum TallyError {
+    /// `n_possible` is not the layout's samples per interval.
+    Possible {
+        /// The record's samples possible.
+        found: u32,
+        /// The layout's samples per interval.
+        expected: u32,
+    },
+    /// More samples held (valid, missing and out of range) than the interval
+    /// has milliseconds: a station accepts at most one sample per
+    /// millisecond (strictly increasing times).
+    TooManySamples {
+        /// Valid, missing and out-of-range samples of the record.
+        held: u64,
+        /// The interval's milliseconds.
+        most: u64,
+    },
+}
+
+impl fmt::Display for TallyError {
+    fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
+        match self {
+            TallyError::Possible { found, expected } => write!(
+                f,
+                "n_possible is {found}, the station's samples per interval are {expected}"
+            ),
+            TallyError::TooManySamples { held, most } => write!(
+                f,
+                "n_valid + n_missing + n_out_of_range = {held}, more than the {most} milliseconds of the interval (a station takes at most one sample per millisecond)"
+            ),
+        }
+    }
+}
+
+impl core::error::Error for TallyError {}

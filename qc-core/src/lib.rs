@@ -101,7 +101,8 @@
 //! leaves the finishing code and most of the software floating point off the
 //! logger (on a Cortex-M0 about 15 KB of flash instead of 30 KB for an
 //! 8-channel logger; the firmware README has the figures). A
-//! [`Layout::fingerprint`] in every state frame makes a PC refuse states of a
+//! [`Layout::fingerprint`] in every frame (state frames, and record frames
+//! from format version 2) makes a PC refuse the frames of a logger of a
 //! different configuration.
 //!
 //! A logger with a fixed configuration validates its layout at compile time
@@ -139,7 +140,7 @@ pub use channel::{
     Absent, Channel, ChannelAcc, ChannelConfig, ChannelRecord, ChannelState, DirectionAcc, Kind,
     LinkedDirectionAcc, Reading, ScalarAcc, Scale, SpeedAcc, Stat, StateForm, Tally,
 };
-pub use error::{ChannelProblem, ConfigError};
+pub use error::{ChannelProblem, ConfigError, TallyError};
 pub use flags::{Flag, Flags};
 pub use recovery::{Recovery, Totals};
 pub use screen::{Icing, Screen, Screener};

@@ -26,10 +26,10 @@
 //! Nothing here panics, whatever the input.
 
 use crate::channel::{
-    Channel, ChannelAcc, ChannelConfig, ChannelRecord, ChannelState, Kind, Reading, Slot,
+    Channel, ChannelAcc, ChannelConfig, ChannelRecord, ChannelState, Kind, Reading, Slot, Tally,
 };
 use crate::cmath;
-use crate::error::{ChannelProblem, ConfigError};
+use crate::error::{ChannelProblem, ConfigError, TallyError};
 use crate::flags::Flags;
 use crate::recovery::Recovery;
 use crate::screen::{interval_flags, passes, Screener};
@@ -68,6 +68,50 @@ impl StationConfig {
             missing_values: [Some(-999.0), Some(-9999.0), None, None],
         }
     }
+
+    /// Whether `n_possible` and `tally` can be the counts of one channel's
+    /// record of one interval of a station of these settings, as the station
+    /// counts: `n_possible` is always the samples per interval, and the
+    /// samples an interval holds (valid, missing and out of range, see
+    /// [`Tally::held`]) have strictly increasing millisecond times inside it,
+    /// so there are at most as many as the interval has milliseconds.
+    /// Rejected samples have no such bound.
+    ///
+    /// More valid samples than possible ones pass: the station counts every
+    /// sample it accepts, and samples that come faster than the nominal rate
+    /// (a fast clock, or a rate set wrong in the configuration) make more. The
+    /// channels of one interval must agree, too ([`Tally::same_samples`]);
+    /// that takes more than one record to check.
+    pub const fn check_tally(&self, n_possible: u32, tally: &Tally) -> Result<(), TallyError> {
+        let interval_ms = self.interval_s as i64 * 1000;
+        check_tally(self.samples_per_interval, interval_ms, n_possible, tally)
+    }
+}
+
+const fn check_tally(
+    samples: u32,
+    interval_ms: i64,
+    n_possible: u32,
+    tally: &Tally,
+) -> Result<(), TallyError> {
+    if n_possible != samples {
+        return Err(TallyError::Possible {
+            found: n_possible,
+            expected: samples,
+        });
+    }
+    let most = if interval_ms > 0 {
+        interval_ms as u64
+    } else {
+        0
+    };
+    if tally.held() > most {
+        return Err(TallyError::TooManySamples {
+            held: tally.held(),
+            most,
+        });
+    }
+    Ok(())
 }
 
 /// The station's missing-value codes, as values and as counts.
@@ -437,6 +481,12 @@ impl<const C: usize> Layout<C> {
     /// Samples per interval at the nominal rate.
     pub const fn samples_per_interval(&self) -> u32 {
         self.samples
+    }
+
+    /// Whether `n_possible` and `tally` can be the counts of one channel's
+    /// record of one interval of this layout ([`StationConfig::check_tally`]).
+    pub const fn check_tally(&self, n_possible: u32, tally: &Tally) -> Result<(), TallyError> {
+        check_tally(self.samples, self.interval_ms, n_possible, tally)
     }
 
     /// The channels.
@@ -1298,5 +1348,97 @@ mod tests {
         // 2,833,000 (1969, 1970, 2023) the one-interval gap and the interval;
         // the 2^40-interval gaps reach past the year 9999 and count nothing.
         assert_eq!(f.recovery()[0].since_start.intervals, 6);
+    }
+}
+
+#[cfg(test)]
+mod tally_tests {
+    use super::*;
+
+    #[test]
+    fn tallies_the_station_cannot_make_are_refused() {
+        let cfg = StationConfig::ten_minute_1hz();
+        let layout = Layout::new::<3>(cfg, &[ChannelConfig::speed(0.1)]).unwrap();
+        let t = |valid, missing, out_of_range, rejected| Tally {
+            valid,
+            missing,
+            out_of_range,
+            rejected,
+        };
+        // A full interval, a partial one, and one with a sample more than
+        // the nominal rate gives (a fast clock): all as a station counts.
+        for ok in [t(600, 0, 0, 0), t(10, 5, 3, 9_999), t(601, 0, 0, 0)] {
+            assert_eq!(cfg.check_tally(600, &ok), Ok(()));
+            assert_eq!(layout.check_tally(600, &ok), Ok(()));
+        }
+        // 600,000 ms in 10 minutes: at most one sample each.
+        assert_eq!(cfg.check_tally(600, &t(599_999, 1, 0, u32::MAX)), Ok(()));
+        assert_eq!(
+            cfg.check_tally(600, &t(599_999, 1, 1, 0)),
+            Err(TallyError::TooManySamples {
+                held: 600_001,
+                most: 600_000
+            })
+        );
+        assert_eq!(
+            layout.check_tally(600, &t(u32::MAX, u32::MAX, u32::MAX, 0)),
+            Err(TallyError::TooManySamples {
+                held: 3 * u64::from(u32::MAX),
+                most: 600_000
+            })
+        );
+        assert_eq!(
+            cfg.check_tally(599, &t(1, 0, 0, 0)),
+            Err(TallyError::Possible {
+                found: 599,
+                expected: 600
+            })
+        );
+        // Two channels of one interval hold the same samples.
+        assert!(t(590, 10, 0, 2).same_samples(&t(580, 12, 8, 2)));
+        assert!(!t(590, 10, 0, 2).same_samples(&t(591, 10, 0, 2)));
+        assert!(!t(590, 10, 0, 2).same_samples(&t(590, 10, 0, 3)));
+    }
+
+    #[test]
+    fn a_station_makes_only_tallies_that_pass() {
+        // Samples faster than the nominal rate, duplicates and backward
+        // times: every record the station writes passes, and the channels of
+        // one interval agree.
+        let cfg = StationConfig {
+            interval_s: 60,
+            samples_per_interval: 6,
+            missing_values: [None; MAX_SENTINELS],
+        };
+        let layout = Layout::new::<3>(
+            cfg,
+            &[
+                ChannelConfig::speed(0.1),
+                ChannelConfig::scalar(0.1).with_range(0.0, 10.0),
+            ],
+        )
+        .unwrap();
+        let mut station: Station<2, 3> = Station::new(layout);
+        let mut seen = 0;
+        let mut check = |e: Event<'_, 2, 3>| {
+            if let Event::Closed(_, records) = e {
+                for r in records {
+                    assert_eq!(cfg.check_tally(r.n_possible, &r.tally), Ok(()));
+                    assert!(r.tally.same_samples(&records[0].tally));
+                }
+                seen += 1;
+            }
+        };
+        let mut ms = 1_700_000_000_000i64;
+        for i in 0..500i64 {
+            ms += [700, 0, -300, 9_000, 1][(i % 5) as usize];
+            let r = [
+                Reading::Value((i % 9) as f64),
+                Reading::Value((i % 13) as f64),
+            ];
+            station.push(Timestamp::from_millis(ms), &r, &mut check);
+        }
+        station.close(&mut check);
+        assert!(seen > 10);
     }
 }

@@ -20,7 +20,7 @@
 //!   the samples.
 //!
 //! ```
-//! use qc_core::wire::{self, RecordFrame, Span, FRAME_LEN};
+//! use qc_core::wire::{self, ConfigStamp, RecordFrame, Span, FRAME_LEN};
 //! use qc_core::{ChannelConfig, Event, Layout, Reading, Station, StationConfig, Timestamp};
 //!
 //! let layout = Layout::new::<3>(StationConfig::ten_minute_1hz(), &[ChannelConfig::speed(0.1)])?;
@@ -32,6 +32,7 @@
 //!             sequence: (log.len() / FRAME_LEN) as u32,
 //!             interval_start: layout.interval_start(acc.index()),
 //!             channel: 0,
+//!             config: Some(ConfigStamp { channels: 1, fingerprint: layout.fingerprint() }),
 //!             record: layout.finish(acc, 0).unwrap(),
 //!         };
 //!         let mut bytes = [0u8; FRAME_LEN];
@@ -57,35 +58,49 @@
 //!
 //! Every frame is [`FRAME_LEN`] = 128 bytes, so frames never straddle a flash
 //! page of 256, 512 or 4096 bytes when the log starts on a page boundary.
+//! Version 2 ([`RECORD_VERSION`]), what this code writes:
 //!
 //! | offset | bytes | field |
 //! |---:|---:|---|
 //! | 0 | 4 | sync marker [`SYNC`] = `D3 7A 1C 5E` |
-//! | 4 | 1 | format version, [`RECORD_VERSION`] = 1 |
+//! | 4 | 1 | format version, [`RECORD_VERSION`] = 2 |
 //! | 5 | 1 | kind: 0 speed, 1 direction, 2 scalar |
 //! | 6 | 1 | channel index in the station |
-//! | 7 | 1 | reserved, 0 |
+//! | 7 | 1 | channels in the logger's station ([`ConfigStamp`]) |
 //! | 8 | 4 | sequence number, u32 (the writer counts frames; wraps) |
 //! | 12 | 8 | interval start, i64 ms since 1970-01-01T00:00Z |
-//! | 20 | 4 | samples possible at the nominal rate, u32 |
+//! | 20 | 4 | fingerprint of the logger's configuration, u32 ([`crate::config_fingerprint`]) |
 //! | 24 | 4 | valid samples, u32 |
 //! | 28 | 4 | missing samples, u32 |
 //! | 32 | 4 | out-of-range samples, u32 |
 //! | 36 | 4 | samples rejected for their timestamp, u32 |
 //! | 40 | 4 | spikes, u32 |
 //! | 44 | 2 | flag bits, u16 (bit `n` is the [`Flag`] with discriminant `n`) |
-//! | 46 | 5 | absent-reason codes of the 9 statistics, one 4-bit code each: statistic `i` in byte `46 + i / 2`, low nibble for even `i`; the tenth nibble is 0 |
-//! | 51 | 1 | reserved, 0 |
-//! | 52 | 72 | the 9 statistics, each an IEEE-754 `f64` bit pattern (0 when absent), in [`STAT_ORDER`] order: mean, sd, min, max, gust, ti, resultant length, resultant speed, resultant direction |
+//! | 46 | 2 | reserved, 0 |
+//! | 48 | 4 | samples possible at the nominal rate, u32 |
+//! | 52 | 72 | the 9 statistics, each an IEEE-754 `f64` bit pattern, in [`STAT_ORDER`] order: mean, sd, min, max, gust, ti, resultant length, resultant speed, resultant direction; an absent statistic is the NaN pattern [`ABSENT_MARK`] `7FFA B5E0 0000 00cc` with its absent-reason code `cc` in the low byte |
 //! | 124 | 4 | CRC-32 of bytes 0 to 123 |
 //!
-//! Absent-reason codes: 0 the value is present; 1 not applicable; 2 no valid
-//! samples; 3 no full gust window; 4 vectors cancel; 5 no speed/direction
-//! pairs; 6 zero mean ([`Absent`]).
+//! The channel count and fingerprint sit where a state frame holds them, so
+//! that a reader refuses the frames of a logger built with another
+//! configuration, whichever kind of log it reads.
+//!
+//! Version 1 ([`RECORD_VERSION_1`]), still read, carries no configuration:
+//! byte 7 is reserved (0), the samples possible are at byte 20, and the
+//! absent-reason codes are nibbles at 46: statistic `i` in byte `46 + i / 2`,
+//! low nibble for even `i`, the tenth nibble 0, with byte 51 reserved (0) and
+//! an absent statistic's 8 bytes 0. Everything else is as in version 2.
+//!
+//! Absent-reason codes: 0 the value is present (version 1 only); 1 not
+//! applicable; 2 no valid samples; 3 no full gust window; 4 vectors cancel;
+//! 5 no speed/direction pairs; 6 zero mean ([`Absent`]).
 //!
 //! A frame is good when its sync marker and CRC match and every field is in its
 //! domain (known version, kind, absent codes and flags; reserved bits 0). A good
-//! frame decodes to exactly the [`RecordFrame`] that was encoded, bit for bit.
+//! frame decodes to exactly the [`RecordFrame`] that was encoded, bit for bit
+//! (a statistic whose value is the absent mark itself is not in the domain: a
+//! [`Stat`] is never NaN). The counts are not checked here: whether they fit
+//! the station is for a reader that knows it ([`crate::Layout::check_tally`]).
 //! Gaps (intervals without any sample) write no frames: a reader finds them as
 //! missing interval starts.
 //!
@@ -350,8 +365,20 @@ pub const FRAME_LEN: usize = 128;
 /// flash `FF` nor zeroed memory, and not ASCII).
 pub const SYNC: [u8; 4] = [0xD3, 0x7A, 0x1C, 0x5E];
 
-/// The record frame format version this code writes and reads.
-pub const RECORD_VERSION: u8 = 1;
+/// The record frame format version this code writes: version 2, stamped with
+/// the logger's configuration ([`ConfigStamp`]). Version 1 frames
+/// ([`RECORD_VERSION_1`]) are still read.
+pub const RECORD_VERSION: u8 = 2;
+
+/// The first record frame format, without a configuration stamp: still read
+/// (and written for a [`RecordFrame`] whose `config` is `None`), but a reader
+/// cannot tell whether its station file is the logger's.
+pub const RECORD_VERSION_1: u8 = 1;
+
+/// How a version-2 record frame marks an absent statistic in its 8-byte
+/// slot: this NaN bit pattern with the absent-reason code in the low byte (a
+/// statistic is never NaN, [`Stat`]).
+pub const ABSENT_MARK: u64 = 0x7FFA_B5E0_0000_0000;
 
 /// Statistics of a [`ChannelRecord`] in frame order.
 pub const STAT_ORDER: [&str; 9] = [
@@ -383,6 +410,12 @@ const O_ABSENT: usize = 46;
 const O_RESERVED_B: usize = 51;
 const O_STATS: usize = 52;
 const O_CRC: usize = 124;
+// Version 2: channel count and fingerprint where state frames hold them,
+// the samples possible after the flags, absent statistics marked in place.
+const V2_CHANNELS: usize = 7;
+const V2_FINGERPRINT: usize = 20;
+const V2_RESERVED: usize = 46;
+const V2_POSSIBLE: usize = 48;
 
 /// One finished interval of one channel, as the record log holds it.
 #[derive(Clone, Copy, Debug, PartialEq)]
@@ -394,8 +427,25 @@ pub struct RecordFrame {
     pub interval_start: Timestamp,
     /// Channel index in the station.
     pub channel: u8,
+    /// The configuration of the logger that wrote the frame: `Some` in a
+    /// version-2 frame (what [`encode_record`] writes when it is `Some`),
+    /// `None` in a version-1 frame, which carries none.
+    pub config: Option<ConfigStamp>,
     /// The channel's finished statistics.
     pub record: ChannelRecord,
+}
+
+/// What a frame says about the configuration of the logger that wrote it, so
+/// that a reader can refuse a station file that is not the logger's. Record
+/// frames of version 2 and state frames carry it at the same places.
+#[derive(Clone, Copy, Debug, PartialEq, Eq, Hash)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+pub struct ConfigStamp {
+    /// Channels in the logger's station.
+    pub channels: u8,
+    /// [`Layout::fingerprint`](crate::Layout::fingerprint) of the logger's
+    /// configuration ([`crate::config_fingerprint`] of the channels in use).
+    pub fingerprint: u32,
 }
 
 fn stats_of(r: &ChannelRecord) -> [Stat; 9] {
@@ -470,15 +520,15 @@ fn get_u32(b: &[u8; FRAME_LEN], at: usize) -> u32 {
     u32::from_le_bytes(get(b, at))
 }
 
-/// Checks a frame's sync marker, CRC and version.
-fn check_frame(b: &[u8; FRAME_LEN], version: u8) -> Result<(), WireError> {
+/// Checks a frame's sync marker, CRC and version (one of `versions`).
+fn check_frame(b: &[u8; FRAME_LEN], versions: &[u8]) -> Result<(), WireError> {
     if get::<4>(b, 0) != SYNC {
         return Err(WireError::BadMagic);
     }
     if crc32(&b[..O_CRC]) != get_u32(b, O_CRC) {
         return Err(WireError::BadCrc);
     }
-    if b[O_VERSION] != version {
+    if !versions.contains(&b[O_VERSION]) {
         return Err(WireError::UnsupportedVersion(b[O_VERSION]));
     }
     Ok(())
@@ -529,71 +579,106 @@ fn get_tally(b: &[u8; FRAME_LEN]) -> Tally {
     }
 }
 
-/// Writes `frame` into `out` as one record frame (layout in the module docs).
+/// Writes `frame` into `out` as one record frame (layout in the module docs):
+/// version 2 when `frame.config` is `Some`, else version 1.
 pub fn encode_record(frame: &RecordFrame, out: &mut [u8; FRAME_LEN]) {
     let r = &frame.record;
     let head = (frame.sequence, frame.interval_start, frame.channel);
-    start_frame(
-        out,
-        RECORD_VERSION,
-        kind_code(r.kind),
-        head,
-        &r.tally,
-        r.spikes,
-    );
-    put(out, O_POSSIBLE, r.n_possible.to_le_bytes());
+    let version = match frame.config {
+        Some(_) => RECORD_VERSION,
+        None => RECORD_VERSION_1,
+    };
+    start_frame(out, version, kind_code(r.kind), head, &r.tally, r.spikes);
     put(out, O_FLAGS, r.flags.bits().to_le_bytes());
-    let mut absent = [0u8; 5];
-    for (i, s) in stats_of(r).iter().enumerate() {
-        let (code, bits) = match *s {
-            Stat::Value(v) => (0, v.to_bits()),
-            Stat::Absent(a) => (absent_code(a), 0),
-        };
-        if let Some(slot) = absent.get_mut(i / 2) {
-            *slot |= code << (4 * (i % 2));
+    let stats = stats_of(r);
+    if let Some(stamp) = frame.config {
+        out[V2_CHANNELS] = stamp.channels;
+        put(out, V2_FINGERPRINT, stamp.fingerprint.to_le_bytes());
+        put(out, V2_POSSIBLE, r.n_possible.to_le_bytes());
+        for (i, s) in stats.iter().enumerate() {
+            let bits = match *s {
+                Stat::Value(v) => v.to_bits(),
+                Stat::Absent(a) => ABSENT_MARK | u64::from(absent_code(a)),
+            };
+            put(out, O_STATS + 8 * i, bits.to_le_bytes());
         }
-        put(out, O_STATS + 8 * i, bits.to_le_bytes());
+    } else {
+        put(out, O_POSSIBLE, r.n_possible.to_le_bytes());
+        let mut absent = [0u8; 5];
+        for (i, s) in stats.iter().enumerate() {
+            let (code, bits) = match *s {
+                Stat::Value(v) => (0, v.to_bits()),
+                Stat::Absent(a) => (absent_code(a), 0),
+            };
+            if let Some(slot) = absent.get_mut(i / 2) {
+                *slot |= code << (4 * (i % 2));
+            }
+            put(out, O_STATS + 8 * i, bits.to_le_bytes());
+        }
+        put(out, O_ABSENT, absent);
     }
-    put(out, O_ABSENT, absent);
     seal(out);
 }
 
-/// Reads one record frame, checking its sync marker, CRC and every field.
+/// Reads one record frame of either version, checking its sync marker, CRC
+/// and every field.
 pub fn decode_record(b: &[u8; FRAME_LEN]) -> Result<RecordFrame, WireError> {
-    check_frame(b, RECORD_VERSION)?;
+    check_frame(b, &[RECORD_VERSION_1, RECORD_VERSION])?;
     let kind = kind_of(b[O_KIND]).ok_or(WireError::BadKind(b[O_KIND]))?;
-    let absent: [u8; 5] = get(b, O_ABSENT);
-    if b[O_RESERVED_A] != 0 || b[O_RESERVED_B] != 0 || absent[4] >> 4 != 0 {
-        return Err(WireError::Reserved);
-    }
     let flag_bits = u16::from_le_bytes(get(b, O_FLAGS));
     let flags = Flags::from_bits(flag_bits);
     if flags.bits() != flag_bits {
         return Err(WireError::UnknownFlags(flag_bits));
     }
     let mut stats = [Stat::Absent(Absent::NotApplicable); 9];
-    for (i, s) in stats.iter_mut().enumerate() {
-        let code = absent.get(i / 2).map_or(0, |a| (a >> (4 * (i % 2))) & 0xF);
-        let bits = u64::from_le_bytes(get(b, O_STATS + 8 * i));
-        *s = if code == 0 {
-            Stat::Value(f64::from_bits(bits))
-        } else {
-            let a = absent_of(code).ok_or(WireError::BadAbsent(code))?;
-            if bits != 0 {
-                return Err(WireError::Reserved);
-            }
-            Stat::Absent(a)
+    let (config, n_possible) = if b[O_VERSION] == RECORD_VERSION {
+        if get::<2>(b, V2_RESERVED) != [0, 0] {
+            return Err(WireError::Reserved);
+        }
+        for (i, s) in stats.iter_mut().enumerate() {
+            let bits = u64::from_le_bytes(get(b, O_STATS + 8 * i));
+            *s = if bits & !0xFF == ABSENT_MARK {
+                let code = (bits & 0xFF) as u8;
+                Stat::Absent(absent_of(code).ok_or(WireError::BadAbsent(code))?)
+            } else {
+                Stat::Value(f64::from_bits(bits))
+            };
+        }
+        let stamp = ConfigStamp {
+            channels: b[V2_CHANNELS],
+            fingerprint: get_u32(b, V2_FINGERPRINT),
         };
-    }
+        (Some(stamp), get_u32(b, V2_POSSIBLE))
+    } else {
+        let absent: [u8; 5] = get(b, O_ABSENT);
+        if b[O_RESERVED_A] != 0 || b[O_RESERVED_B] != 0 || absent[4] >> 4 != 0 {
+            return Err(WireError::Reserved);
+        }
+        for (i, s) in stats.iter_mut().enumerate() {
+            let code = absent.get(i / 2).map_or(0, |a| (a >> (4 * (i % 2))) & 0xF);
+            let bits = u64::from_le_bytes(get(b, O_STATS + 8 * i));
+            *s = if code == 0 {
+                Stat::Value(f64::from_bits(bits))
+            } else {
+                let a = absent_of(code).ok_or(WireError::BadAbsent(code))?;
+                if bits != 0 {
+                    return Err(WireError::Reserved);
+                }
+                Stat::Absent(a)
+            };
+        }
+        (None, get_u32(b, O_POSSIBLE))
+    };
     let [mean, sd, min, max, gust, ti, resultant_length, resultant_speed, resultant_direction] =
         stats;
     Ok(RecordFrame {
         sequence: get_u32(b, O_SEQUENCE),
         interval_start: Timestamp::from_millis(i64::from_le_bytes(get(b, O_START))),
         channel: b[O_CHANNEL],
+        config,
         record: ChannelRecord {
             kind,
-            n_possible: get_u32(b, O_POSSIBLE),
+            n_possible,
             tally: get_tally(b),
             mean,
             sd,
@@ -643,6 +728,17 @@ pub struct StateFrame {
     pub fingerprint: u32,
     /// The channel's state ([`crate::IntervalAcc::state`]).
     pub state: ChannelState,
+}
+
+impl StateFrame {
+    /// The configuration stamp the frame carries (as a version-2 record
+    /// frame carries it).
+    pub const fn config(&self) -> ConfigStamp {
+        ConfigStamp {
+            channels: self.channels,
+            fingerprint: self.fingerprint,
+        }
+    }
 }
 
 const fn form_code(f: StateForm) -> u8 {
@@ -722,7 +818,7 @@ pub fn encode_state(frame: &StateFrame, out: &mut [u8; FRAME_LEN]) {
 /// Reads one state frame, checking its sync marker, CRC and every field
 /// (unused bytes must be 0, a gust only on a speed channel).
 pub fn decode_state(b: &[u8; FRAME_LEN]) -> Result<StateFrame, WireError> {
-    check_frame(b, STATE_VERSION)?;
+    check_frame(b, &[STATE_VERSION])?;
     let form = form_of(b[T_FORM]).ok_or(WireError::BadKind(b[T_FORM]))?;
     let mut s = ChannelState::empty(form);
     s.tally = get_tally(b);
@@ -1766,6 +1862,10 @@ mod tests {
                         1_700_000_400_000 + 600_000 * (a as i64) - (k as i64) * 86_400_000_000,
                     ),
                     channel: (seed >> 24) as u8,
+                    config: (a % 3 != 2).then_some(ConfigStamp {
+                        channels: (seed >> 16) as u8,
+                        fingerprint: seed.rotate_left(13),
+                    }),
                     record: record(kind, stats, seed & 0x1FF),
                 });
             }
@@ -1844,6 +1944,10 @@ mod tests {
                             sequence: frames.len() as u32,
                             interval_start: layout.interval_start(acc.index()),
                             channel: c as u8,
+                            config: Some(ConfigStamp {
+                                channels: 4,
+                                fingerprint: layout.fingerprint(),
+                            }),
                             record: layout.finish(acc, c).unwrap(),
                         });
                     }
@@ -2023,16 +2127,20 @@ mod tests {
         );
     }
 
+    fn reseal_frame(mut b: [u8; FRAME_LEN]) -> [u8; FRAME_LEN] {
+        let crc = crc32(&b[..O_CRC]);
+        b[O_CRC..].copy_from_slice(&crc.to_le_bytes());
+        b
+    }
+
     #[test]
     fn out_of_domain_fields_with_good_crc_are_refused() {
-        let f = varied_frames()[0];
-        let reseal = |mut b: [u8; FRAME_LEN]| {
-            let crc = crc32(&b[..O_CRC]);
-            b[O_CRC..].copy_from_slice(&crc.to_le_bytes());
-            b
-        };
+        // Version 1 (varied_frames()[2] has no stamp).
+        let f = varied_frames()[2];
+        assert_eq!(f.config, None);
+        assert_eq!(encode(&f)[O_VERSION], 1);
         let cases: [(usize, u8, WireError); 6] = [
-            (O_VERSION, 2, WireError::UnsupportedVersion(2)),
+            (O_VERSION, 3, WireError::UnsupportedVersion(3)),
             (O_KIND, 3, WireError::BadKind(3)),
             (O_RESERVED_A, 1, WireError::Reserved),
             (O_RESERVED_B, 1, WireError::Reserved),
@@ -2050,12 +2158,136 @@ mod tests {
         for (at, v, want) in cases {
             let mut b = encode(&f);
             b[at] = v;
-            assert_eq!(decode_record(&reseal(b)), Err(want), "offset {at}");
+            assert_eq!(decode_record(&reseal_frame(b)), Err(want), "offset {at}");
         }
         // An absent-reason code of 7.
         let mut b = encode(&f);
         b[O_ABSENT] = (b[O_ABSENT] & 0xF0) | 7;
-        assert_eq!(decode_record(&reseal(b)), Err(WireError::BadAbsent(7)));
+        assert_eq!(
+            decode_record(&reseal_frame(b)),
+            Err(WireError::BadAbsent(7))
+        );
+        // Version 2.
+        let f = varied_frames()[0];
+        assert!(f.config.is_some());
+        assert_eq!(encode(&f)[O_VERSION], 2);
+        for (at, v, want) in [
+            (O_VERSION, 0, WireError::UnsupportedVersion(0)),
+            (O_KIND, 7, WireError::BadKind(7)),
+            (V2_RESERVED, 1, WireError::Reserved),
+            (V2_RESERVED + 1, 0x80, WireError::Reserved),
+        ] {
+            let mut b = encode(&f);
+            b[at] = v;
+            assert_eq!(decode_record(&reseal_frame(b)), Err(want), "offset {at}");
+        }
+        // The absent mark with a code that names no reason, in any slot.
+        for slot in 0..9 {
+            for code in [0u8, 7, 0xFF] {
+                let mut b = encode(&f);
+                put(
+                    &mut b,
+                    O_STATS + 8 * slot,
+                    (ABSENT_MARK | u64::from(code)).to_le_bytes(),
+                );
+                assert_eq!(
+                    decode_record(&reseal_frame(b)),
+                    Err(WireError::BadAbsent(code)),
+                    "slot {slot}"
+                );
+            }
+        }
+    }
+
+    #[test]
+    fn record_frame_version_2_bytes() {
+        // The layout in the module docs, byte by byte, for a frame written
+        // here: every field at its documented place.
+        let record = ChannelRecord {
+            n_possible: 600,
+            tally: Tally {
+                valid: 590,
+                missing: 7,
+                out_of_range: 2,
+                rejected: 1,
+            },
+            mean: Stat::Value(8.25),
+            gust: Stat::Absent(Absent::NoFullWindow),
+            spikes: 3,
+            ..ChannelRecord::empty(Kind::Speed, 600, Tally::default())
+        };
+        let f = RecordFrame {
+            sequence: 0x0102_0304,
+            interval_start: Timestamp::from_millis(1_737_331_200_000),
+            channel: 4,
+            config: Some(ConfigStamp {
+                channels: 5,
+                fingerprint: 0xDEAD_BEEF,
+            }),
+            record,
+        };
+        let b = encode(&f);
+        assert_eq!(b[..4], [0xD3, 0x7A, 0x1C, 0x5E]);
+        assert_eq!(b[4..8], [2, 0, 4, 5]);
+        assert_eq!(b[8..12], [4, 3, 2, 1]);
+        assert_eq!(b[12..20], 1_737_331_200_000i64.to_le_bytes());
+        assert_eq!(b[20..24], [0xEF, 0xBE, 0xAD, 0xDE]);
+        assert_eq!(b[24..28], 590u32.to_le_bytes());
+        assert_eq!(b[28..32], 7u32.to_le_bytes());
+        assert_eq!(b[32..36], 2u32.to_le_bytes());
+        assert_eq!(b[36..40], 1u32.to_le_bytes());
+        assert_eq!(b[40..44], 3u32.to_le_bytes());
+        assert_eq!(b[44..48], [0, 0, 0, 0]);
+        assert_eq!(b[48..52], 600u32.to_le_bytes());
+        assert_eq!(b[52..60], 8.25f64.to_bits().to_le_bytes());
+        // sd: no valid samples (code 2); gust: no full window (code 3); the
+        // resultants: not applicable (code 1).
+        assert_eq!(b[60..68], [2, 0, 0, 0, 0xE0, 0xB5, 0xFA, 0x7F]);
+        assert_eq!(b[84..92], [3, 0, 0, 0, 0xE0, 0xB5, 0xFA, 0x7F]);
+        assert_eq!(b[116..124], [1, 0, 0, 0, 0xE0, 0xB5, 0xFA, 0x7F]);
+        assert_eq!(b[124..], crc32(&b[..124]).to_le_bytes());
+        let back = decode_record(&b).unwrap();
+        assert!(same(&f, &back));
+        // The same frame without a stamp is version 1, and reads back so.
+        let old = RecordFrame { config: None, ..f };
+        let b = encode(&old);
+        assert_eq!(b[4..8], [1, 0, 4, 0]);
+        assert_eq!(b[20..24], 600u32.to_le_bytes());
+        // Statistic 1 (sd) absent, code 2 in the high nibble of byte 46.
+        assert_eq!(b[46] >> 4, 2);
+        assert_eq!(b[60..68], [0; 8]);
+        assert!(same(&old, &decode_record(&b).unwrap()));
+    }
+
+    #[test]
+    fn version_1_frames_written_before_the_stamp_still_read() {
+        // A version-1 frame as the first format wrote it, byte by byte from
+        // its layout (module docs), not by this code's encoder.
+        let mut b = [0u8; FRAME_LEN];
+        b[..4].copy_from_slice(&SYNC);
+        b[4] = 1; // version
+        b[5] = 2; // scalar
+        b[6] = 3; // channel
+        b[8..12].copy_from_slice(&7u32.to_le_bytes());
+        b[12..20].copy_from_slice(&1_737_331_800_000i64.to_le_bytes());
+        b[20..24].copy_from_slice(&600u32.to_le_bytes());
+        b[24..28].copy_from_slice(&600u32.to_le_bytes());
+        // mean and sd present; min, max present; gust, ti, resultants not
+        // applicable (code 1): nibbles 0,0 | 0,0 | 1,1 | 1,1 | 1,0.
+        b[46..51].copy_from_slice(&[0x00, 0x00, 0x11, 0x11, 0x01]);
+        for (i, v) in [12.5f64, 0.25, 12.0, 13.0].iter().enumerate() {
+            b[52 + 8 * i..60 + 8 * i].copy_from_slice(&v.to_bits().to_le_bytes());
+        }
+        let b = reseal_frame(b);
+        let f = decode_record(&b).unwrap();
+        assert_eq!(f.config, None);
+        assert_eq!((f.sequence, f.channel), (7, 3));
+        assert_eq!(f.record.kind, Kind::Scalar);
+        assert_eq!((f.record.n_possible, f.record.tally.valid), (600, 600));
+        assert_eq!(f.record.max, Stat::Value(13.0));
+        assert_eq!(f.record.gust, Stat::Absent(Absent::NotApplicable));
+        // And the scanner finds it as a record frame.
+        assert!(matches!(scan(&b).next(), Some(Span::Frame { offset: 0, frame }) if frame == f));
     }
 
     /// A station of every form, with cross-channel screening: 0 top
@@ -2148,6 +2380,7 @@ mod tests {
                             sequence: 0,
                             interval_start: layout.interval_start(acc.index()),
                             channel: c as u8,
+                            config: None,
                             record: *rec,
                         }));
                     }
@@ -2217,6 +2450,7 @@ mod tests {
                             sequence: 0,
                             interval_start: frame.interval_start,
                             channel: c as u8,
+                            config: None,
                             record: *rec,
                         }));
                     }
@@ -2400,6 +2634,40 @@ mod tests {
         assert_ne!(l.fingerprint(), base);
     }
 
+    #[test]
+    fn a_record_frame_tells_its_logger_configuration() {
+        // The stamp a logger puts in its record frames tells a station of a
+        // channel more, and one with two channels of different settings in
+        // the other order, from its own.
+        let cfg = StationConfig::ten_minute_1hz();
+        let (a, b, t) = (
+            ChannelConfig::speed(0.01),
+            ChannelConfig::speed(0.1),
+            ChannelConfig::scalar(0.1),
+        );
+        let stamp = |chans: &[ChannelConfig]| ConfigStamp {
+            channels: chans.len() as u8,
+            fingerprint: crate::config_fingerprint(&cfg, chans),
+        };
+        let logger = stamp(&[a, b, t]);
+        let frame = RecordFrame {
+            sequence: 1,
+            interval_start: Timestamp::from_millis(1_737_331_200_000),
+            channel: 0,
+            config: Some(logger),
+            record: ChannelRecord::empty(Kind::Speed, 600, Tally::default()),
+        };
+        let read = decode_record(&encode(&frame)).unwrap().config.unwrap();
+        assert_eq!(read, logger);
+        // The same station file: the same stamp (and the layout's own).
+        let layout = Layout::<3>::new::<3>(cfg, &[a, b, t]).unwrap();
+        assert_eq!(read.fingerprint, layout.fingerprint());
+        for other in [stamp(&[a, b, t, t]), stamp(&[b, a, t]), stamp(&[a, b])] {
+            assert_ne!(read, other, "{other:?}");
+        }
+        assert_ne!(stamp(&[b, a, t]).fingerprint, read.fingerprint);
+    }
+
     fn readings_strategy() -> impl Strategy<Value = Vec<Reading>> {
         let one = prop_oneof![
             any::<u64>().prop_map(|b| Reading::Value(f64::from_bits(b))),
@@ -2445,8 +2713,20 @@ mod tests {
                 sequence: seq,
                 interval_start: Timestamp::from_millis(t),
                 channel: (seq % 256) as u8,
+                config: Some(ConfigStamp { channels: 3, fingerprint: seq ^ 0x5A5A }),
                 record: record(Kind::Scalar, stats, seq % 512),
             };
+            // The absent mark itself is not a value a statistic can hold.
+            prop_assume!(bits.iter().all(|b| b & !0xFF != ABSENT_MARK));
+            for config in [f.config, None] {
+                let f = RecordFrame { config, ..f };
+                let back = decode_record(&encode(&f)).unwrap();
+                prop_assert_eq!(back.config, config);
+                prop_assert_eq!(
+                    stats_of(&back.record).map(|s| match s { Stat::Value(v) => v.to_bits(), Stat::Absent(_) => 1 }),
+                    bits
+                );
+            }
             let back = decode_record(&encode(&f)).unwrap();
             prop_assert_eq!(
                 stats_of(&back.record).map(|s| match s { Stat::Value(v) => v.to_bits(), Stat::Absent(_) => 1 }),

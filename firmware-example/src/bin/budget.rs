@@ -19,7 +19,7 @@ use cortex_m::peripheral::{Peripherals, SYST};
 use cortex_m_rt::entry;
 use firmware_example::logger::{Core, Logger as AnyLogger};
 use firmware_example::scenario::{self, Logger, LoggerSlot, CHANNELS};
-use qc_core::wire::{encode_record, RecordFrame, FRAME_LEN};
+use qc_core::wire::{encode_record, ConfigStamp, RecordFrame, FRAME_LEN};
 use qc_core::{ChannelConfig, Event, Layout, Reading, Station, StationConfig, Timestamp};
 use semihosting::{println, process};
 
@@ -439,6 +439,10 @@ fn scenario_case(m: &Meter, slot: &mut LoggerSlot) -> Option<()> {
         sequence: 7,
         interval_start: Timestamp::from_millis(T0),
         channel: 3,
+        config: Some(ConfigStamp {
+            channels: CHANNELS as u8,
+            fingerprint: logger.core().layout().fingerprint(),
+        }),
         record: logger.core().layout().finish(logger.core().open()?, 3)?,
     };
     let mut out = [0u8; FRAME_LEN];

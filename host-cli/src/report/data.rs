@@ -8,6 +8,13 @@
 //! Whether an interval passes screening is the core's decision
 //! ([`qc_core::screen::passes`]): it has valid samples and no flag other than
 //! `partial` and `clock`.
+//!
+//! Counts that no station makes stop the reading with the file and line
+//! (`qc_core::StationConfig::check_tally`: `n_possible` the station file's
+//! samples per interval, no more samples held than the interval has
+//! milliseconds; and the channels of one interval holding the same samples,
+//! checked where the files have every count column), since they would skew
+//! the recovery.
 
 use std::fs::File;
 use std::io::BufReader;
@@ -267,7 +274,9 @@ fn list(paths: &[PathBuf]) -> String {
 /// Reads records files for the station `cfg` onto one grid.
 pub fn read(cfg: &StationFile, paths: &[PathBuf]) -> Result<Dataset> {
     let interval_ms = i64::from(cfg.station.interval_s) * 1000;
-    let mut cells: Vec<(i64, usize, Row, u32, u64)> = Vec::new();
+    // Interval start, channel, row, file, line, whether the file has every
+    // count column.
+    let mut cells: Vec<(i64, usize, Row, u32, u64, bool)> = Vec::new();
     let mut rows_read = 0u64;
     let mut ti_column = true;
     for (file_no, path) in paths.iter().enumerate() {
@@ -340,6 +349,13 @@ pub fn read(cfg: &StationFile, paths: &[PathBuf]) -> Result<Dataset> {
                 rejected: opt(cols.n_rejected, "n_rejected")?,
             };
             let n_possible = count(&rec, &at, cols.n_possible, "n_possible")?;
+            if let Err(e) = cfg.station.check_tally(n_possible, &tally) {
+                bail!(
+                    "{}:{line}: {} {id}: {e}: these counts cannot come from a station",
+                    path.display(),
+                    Rfc3339(Timestamp::from_millis(start))
+                );
+            }
             let mean = number(&rec, &at, cols.mean, "mean")?;
             let sd = number(&rec, &at, cols.sd, "sd")?;
             let ti = match cols.ti {
@@ -376,7 +392,10 @@ pub fn read(cfg: &StationFile, paths: &[PathBuf]) -> Result<Dataset> {
                 flags,
                 passed: qc_core::screen::passes(&record),
             };
-            cells.push((start, ch, row, file_no as u32, line));
+            let full = cols.n_missing.is_some()
+                && cols.n_out_of_range.is_some()
+                && cols.n_rejected.is_some();
+            cells.push((start, ch, row, file_no as u32, line, full));
             rows_read += 1;
         }
     }
@@ -392,7 +411,7 @@ pub fn read(cfg: &StationFile, paths: &[PathBuf]) -> Result<Dataset> {
     let t1 = last.map_or(0, |c| c.0) + interval_ms;
     let len = (t1 - t0) / interval_ms;
     if len > MAX_INTERVALS {
-        let place = |c: Option<&(i64, usize, Row, u32, u64)>| {
+        let place = |c: Option<&(i64, usize, Row, u32, u64, bool)>| {
             c.map_or(String::new(), |c| {
                 format!("{}:{}", paths[c.3 as usize].display(), c.4)
             })
@@ -415,7 +434,9 @@ pub fn read(cfg: &StationFile, paths: &[PathBuf]) -> Result<Dataset> {
         })
         .collect();
     let mut seen: Vec<Vec<(u32, u64)>> = vec![vec![(0, 0); len]; cfg.channels.len()];
-    for (start, ch, row, file_no, line) in cells {
+    // Per interval: the first row with every count, its tally and place.
+    let mut held: Vec<Option<(Tally, usize, u32, u64)>> = vec![None; len];
+    for (start, ch, row, file_no, line, full) in cells {
         let i = ((start - t0) / interval_ms) as usize;
         if channels[ch].rows[i].is_some() {
             let (f0, l0) = seen[ch][i];
@@ -426,6 +447,24 @@ pub fn read(cfg: &StationFile, paths: &[PathBuf]) -> Result<Dataset> {
                 Rfc3339(Timestamp::from_millis(start)),
                 paths[f0 as usize].display()
             );
+        }
+        if full {
+            match held[i] {
+                None => held[i] = Some((row.tally, ch, file_no, line)),
+                Some((t0, ch0, f0, l0)) if !t0.same_samples(&row.tally) => bail!(
+                    "{}:{line}: {} {}: {} samples held (n_valid + n_missing + n_out_of_range) and {} rejected, but {} of the same interval ({}:{l0}) has {} and {}: every sample is counted once on every channel, so these counts cannot come from a station",
+                    paths[file_no as usize].display(),
+                    Rfc3339(Timestamp::from_millis(start)),
+                    cfg.channels[ch].id,
+                    row.tally.held(),
+                    row.tally.rejected,
+                    cfg.channels[ch0].id,
+                    paths[f0 as usize].display(),
+                    t0.held(),
+                    t0.rejected
+                ),
+                Some(_) => {}
+            }
         }
         channels[ch].rows[i] = Some(row);
         seen[ch][i] = (file_no, line);
