@@ -15,6 +15,7 @@ pub mod decode;
 pub mod demo;
 pub mod engine;
 pub mod export;
+pub mod fuzzing;
 pub mod logscan;
 pub mod parallel;
 pub mod records;

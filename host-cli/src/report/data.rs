@@ -367,7 +367,11 @@ pub fn read(cfg: &StationFile, paths: &[PathBuf]) -> Result<Dataset> {
         }
     }
     if cells.is_empty() {
-        bail!("no records rows in {} file(s)", paths.len());
+        let names: Vec<String> = paths.iter().map(|p| p.display().to_string()).collect();
+        bail!(
+            "{}: no records rows (only a header): nothing to report",
+            names.join(", ")
+        );
     }
     let t0 = cells.iter().map(|c| c.0).min().unwrap_or(0);
     let t1 = cells.iter().map(|c| c.0).max().unwrap_or(0) + interval_ms;
@@ -505,6 +509,8 @@ resolution = 0.01
             "{msg}"
         );
         assert!(format!("{:#}", load("").unwrap_err()).contains("empty file"));
-        assert!(format!("{:#}", load(HEAD).unwrap_err()).contains("no records rows"));
+        // A file with only a header: the message names it.
+        let msg = format!("{:#}", load(HEAD).unwrap_err());
+        assert!(msg.contains("r.csv: no records rows"), "{msg}");
     }
 }
