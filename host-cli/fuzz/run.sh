@@ -37,6 +37,7 @@ command -v cargo-fuzz >/dev/null 2>&1 || cargo install cargo-fuzz --locked
 export RUSTC_BOOTSTRAP="${RUSTC_BOOTSTRAP:-1}"
 cd "$here/.."   # host-cli: cargo fuzz finds fuzz/ here
 
+failed=()
 for t in "${targets[@]}"; do
   mkdir -p "fuzz/new/$t" "fuzz/artifacts-found/$t"
   if [ $merge = 1 ]; then
@@ -46,8 +47,13 @@ for t in "${targets[@]}"; do
     echo "== $t: $secs s"
     # The first corpus folder receives the new inputs; the committed one is read.
     cargo fuzz run "$t" "fuzz/new/$t" "fuzz/corpus/$t" -- \
-      -max_total_time="$secs" -timeout=10 -rss_limit_mb=2048 -print_final_stats=1 \
-      -artifact_prefix="fuzz/artifacts-found/$t/"
+      -max_total_time="$secs" -timeout=30 -rss_limit_mb=2048 -print_final_stats=1 \
+      -artifact_prefix="fuzz/artifacts-found/$t/" \
+      || { echo "== $t: stopped on a crash or hang, input in host-cli/fuzz/artifacts-found/$t/"; failed+=("$t"); }
   fi
 done
 du -sh fuzz/corpus/* 2>/dev/null || true
+if [ ${#failed[@]} -gt 0 ]; then
+  echo "run.sh: crashes or hangs in: ${failed[*]}" >&2
+  exit 1
+fi

@@ -173,8 +173,8 @@ head -n 7 "$work/demo/logger-records.csv" | awk -F, 'BEGIN{OFS=","}{t=$1;$1=$3;$
 {
   head -n 1 "$work/demo/logger-records.csv"
   sed -n '2p' "$work/demo/logger-records.csv"
-  sed -n '2p' "$work/demo/logger-records.csv" | sed 's/2025-01-20/2031-06-20/g'
-} >"$r/seed-years-apart.csv"
+  sed -n '2p' "$work/demo/logger-records.csv" | sed 's/2025-01-20/2025-03-20/g'
+} >"$r/seed-months-apart.csv"
 head -n 4 "$work/demo/logger-records.csv" | sed 's/,/","/g; s/^/"/; s/$/"/' >"$r/seed-quoted.csv"
 
 # --- frames: a sample file, and the frames of the logs below.
