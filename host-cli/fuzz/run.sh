@@ -9,7 +9,9 @@
 #
 # New inputs go to new/<target>/ (not committed). `--merge` adds those of them
 # that reach new code to corpus/<target>/ (libFuzzer's -merge=1, which keeps
-# the smallest input per feature), ready to commit; keep the corpus small.
+# the smallest input per edge), ready to commit. Keep the corpus small (a few
+# hundred KB in all): the committed one holds the seeds (seed-*, seed.sh) and
+# the smallest inputs the fuzzers found (found-*), about 45 KB a target.
 # A crash or hang is saved under artifacts-found/<target>/ (not committed) and
 # stops that target; `cargo test -p host-cli --test fuzz_corpus` replays a
 # file put into corpus/<target>/ on stable once the cause is fixed.
@@ -42,7 +44,7 @@ for t in "${targets[@]}"; do
   mkdir -p "fuzz/new/$t" "fuzz/artifacts-found/$t"
   if [ $merge = 1 ]; then
     echo "== $t: merging fuzz/new/$t into fuzz/corpus/$t"
-    cargo fuzz run "$t" "fuzz/corpus/$t" "fuzz/new/$t" -- -merge=1
+    cargo fuzz run "$t" "fuzz/corpus/$t" "fuzz/new/$t" -- -merge=1 -use_counters=0
   else
     echo "== $t: $secs s"
     # The first corpus folder receives the new inputs; the committed one is read.

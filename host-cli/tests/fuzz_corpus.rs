@@ -50,25 +50,25 @@ fn replay(target: &str, min: usize, body: fn(&[u8])) {
 
 #[test]
 fn samples_corpus() {
-    replay("samples", 4, fuzzing::samples);
+    replay("samples", 40, fuzzing::samples);
 }
 
 #[test]
 fn station_corpus() {
-    replay("station", 4, fuzzing::station);
+    replay("station", 40, fuzzing::station);
 }
 
 #[test]
 fn records_corpus() {
-    replay("records", 4, fuzzing::records);
+    replay("records", 40, fuzzing::records);
 }
 
 #[test]
 fn frames_corpus() {
-    replay("frames", 4, fuzzing::frames);
+    replay("frames", 40, fuzzing::frames);
 }
 
 #[test]
 fn logscan_corpus() {
-    replay("logscan", 4, fuzzing::logscan);
+    replay("logscan", 40, fuzzing::logscan);
 }
