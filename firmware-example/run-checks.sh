@@ -5,7 +5,9 @@
 # and check them with `tenmin verify` against the samples; cut and damage the
 # Cortex-M0 log and check what decode reports; refuse stations that do not fit;
 # replay the fixed 8-channel scenario day and compare it bit for bit with the
-# host; run the sensor-driver demo; print the budgets table (README "Budgets").
+# host; run the sensor-driver demo; print the budgets table (README "Budgets");
+# prove at link time that the minimal loggers have no reachable panic (README
+# "No-panic proof").
 # Installs what is missing (Rust targets, qemu-system-arm, llvm for llvm-size/nm).
 # Usage: firmware-example/run-checks.sh   (from anywhere; about a minute when built)
 set -euo pipefail
@@ -43,6 +45,26 @@ step "defmt feature compiles (check only: a board adds a global logger to link)"
 for t in thumbv6m-none-eabi thumbv7em-none-eabihf; do
   CARGO_TARGET_DIR="$fw_target" cargo check --release --target "$t" --features defmt --quiet
 done
+step "no-panic proof: the minimal loggers link with a panic handler that calls an undefined symbol"
+# README "No-panic proof". First the proof is shown able to fail: with one
+# planted out-of-bounds index the link must fail, naming the symbol.
+fw_m0=(--release --target thumbv6m-none-eabi --no-default-features)
+if CARGO_TARGET_DIR="$fw_target" cargo build "${fw_m0[@]}" --features nopanic-canary \
+  --bin nopanic_states --quiet >"$out/nopanic-canary.txt" 2>&1; then
+  fail "the no-panic proof linked with a planted panic: it proves nothing"
+fi
+grep -q 'undefined symbol: error_a_panic_is_reachable_in_the_logger' "$out/nopanic-canary.txt" \
+  || { cat "$out/nopanic-canary.txt"; fail "the canary build failed for another reason"; }
+echo "with a planted panic the link fails (undefined symbol error_a_panic_is_reachable_in_the_logger)"
+for b in nopanic_states nopanic_records; do
+  CARGO_TARGET_DIR="$fw_target" cargo build "${fw_m0[@]}" --features nopanic --bin "$b" --quiet \
+    || fail "$b: a panic is reachable in the logger (README \"No-panic proof\" says how to find it)"
+  timeout 60 qemu-system-arm -machine microbit -cpu cortex-m0 -nographic -monitor none -serial none \
+    -semihosting-config enable=on,target=native -kernel "$fw_target/thumbv6m-none-eabi/release/$b" \
+    || fail "$b did not run its day on the Cortex-M0"
+  echo "$b: linked without a panic handler's symbol, and ran a day of samples on the Cortex-M0"
+done
+
 step "firmware library tests on the host (drivers against simulated devices, replay loop)"
 host_triple="$(rustc -vV | sed -n 's/^host: //p')"
 CARGO_TARGET_DIR="$fw_target" cargo test --lib --target "$host_triple" --quiet

@@ -15,6 +15,7 @@ pub mod decode;
 pub mod demo;
 pub mod engine;
 pub mod export;
+pub mod fuzzing;
 pub mod limits;
 pub mod localtime;
 pub mod logscan;

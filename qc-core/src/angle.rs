@@ -580,7 +580,10 @@ pub fn sqrt_u128(v: u128) -> (u64, i32) {
     };
     // u = w / 2^62 in [1/4, 1), as Q32; g ~ 1/sqrt(u) in (1, 2], as Q30.
     let u = (w >> 30) as u32;
-    let mut g = u32::from(RSQRT_SEED[((w >> 55) - 32) as usize]) << 15;
+    // The index is 0 to 95 (w in [2^60, 2^62)); `get` costs what the bounds
+    // check costs and leaves no panic path.
+    let seed = RSQRT_SEED.get(((w >> 55) - 32) as usize).copied();
+    let mut g = u32::from(seed.unwrap_or(1 << 15)) << 15;
     for _ in 0..3 {
         // h = u g^2 in Q61 (g^2 in Q29 fits 32 bits); g' = g + g (1 - h) / 2.
         let h = mul_u32(u, (mul_u32(g, g) >> 31) as u32);

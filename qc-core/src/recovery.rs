@@ -213,7 +213,9 @@ impl Recovery {
         let last = first.millis() + (count as i64 - 1) * interval_ms;
         let month = Timestamp::from_millis(last).month();
         let from = first.millis().max(month.start().millis());
-        let in_month = ((last - from) / interval_ms + 1) as u64;
+        // `checked_div`: `interval_ms` is a validated, positive interval, so
+        // this is the plain division, without a panic path.
+        let in_month = ((last - from).checked_div(interval_ms).unwrap_or(0) + 1) as u64;
         self.enter_month(month);
         self.month_totals.add_empty(in_month, possible);
     }

@@ -194,6 +194,22 @@ pub fn run(a: &ReportArgs) -> Result<ExitCode> {
     Ok(ExitCode::SUCCESS)
 }
 
+/// What [`run`] makes of `a.records`, without writing a file: the page, the
+/// tables as CSV and the summary, as text (the reference channel chosen per
+/// channel). The fuzz target of the records reader (`crate::fuzzing::records`)
+/// goes through here.
+pub fn render(cfg: &config::StationFile, a: &ReportArgs) -> Result<Vec<String>> {
+    let d = data::read(cfg, &a.records)?;
+    let r = compute(&d, a.sectors, a.air_density, None);
+    let tables = tables(&d, &r, a.air_density);
+    let mut out: Vec<String> = tables.iter().map(Table::csv).collect();
+    out.push(page(&d, &r, &tables, a)?);
+    let mut text = Vec::new();
+    summary(&mut text, &d, &r, a, tables.len())?;
+    out.push(String::from_utf8_lossy(&text).into_owned());
+    Ok(out)
+}
+
 fn tables(d: &data::Dataset, r: &Results, rho: f64) -> Vec<Table> {
     let mut v = vec![
         recovery::table(d, &r.recovery),

@@ -1,0 +1,211 @@
+#!/usr/bin/env bash
+# Writes the seed inputs of the fuzz corpus (host-cli/fuzz/corpus/<target>/seed-*)
+# from real files: a `tenmin demo` day cut short, its records, `tenmin export`
+# of it, the logs the example firmware writes of it under QEMU (record and
+# state logs; skipped when the firmware or QEMU is missing), and hand-made
+# variants of each (bad rows, quoting, line ends, damaged and cut logs).
+# The inputs the fuzzers found are kept beside them (`cmin` keeps both kinds).
+# Usage: host-cli/fuzz/seed.sh   (from anywhere; run once, then commit)
+set -euo pipefail
+here="$(cd "$(dirname "$0")" && pwd)"
+root="$(cd "$here/../.." && pwd)"
+corpus="$here/corpus"
+work="$(mktemp -d)"
+trap 'rm -rf "$work"' EXIT
+cd "$root"
+cargo build -p host-cli --release --quiet
+tenmin="${CARGO_TARGET_DIR:-$root/target}/release/tenmin"
+mkdir -p "$corpus"/{samples,station,records,frames,logscan}
+
+"$tenmin" demo --days 1 --out "$work/demo" >/dev/null
+st="$work/demo/station.toml"
+day="$(ls "$work"/demo/samples-*.csv | head -1)"
+
+# --- samples: the first rows of the demo day, and variants.
+s="$corpus/samples"
+head -n 40 "$day" >"$s/seed-demo-40-rows.csv"
+head -n 622 "$day" >"$s/seed-demo-interval-boundary.csv"
+head -n 40 "$day" | sed 's/$/\r/' >"$s/seed-crlf.csv"
+head -n 20 "$day" | awk -F, 'NR==1{print; next}{printf "\"%s\",%s,\"%s\",%s,%s,%s,%s\n",$1,$2,$3,$4,$5,$6,$7}' >"$s/seed-quoted.csv"
+printf '\xef\xbb\xbf' | cat - <(head -n 5 "$day") >"$s/seed-bom.csv"
+head -n 1 "$day" >"$s/seed-header-only.csv"
+: >"$s/seed-empty.csv"
+cat >"$s/seed-epoch-and-offsets.csv" <<'EOF'
+time,ws80a,ws80b,ws60,wd78,t76,rh76
+1737331200,5.1,5.0,4.4,2710,1.1,80
+1737331201.25,5.2,5.1,4.5,2715,1.1,80
+2025-01-20T01:00:02+01:00,5.3,5.2,4.6,2720,1.2,81
+2025-01-20T00:00:03.5Z,5.4,5.3,4.7,2725,1.2,81
+2025-01-20T00:10:00Z,6.0,6.1,5.0,2730,1.3,82
+EOF
+cat >"$s/seed-missing-and-range.csv" <<'EOF'
+time,ws80a,ws80b,ws60,wd78,t76,rh76
+2025-01-20T00:00:00Z,,NaN,-999,-9999,1.1,80
+2025-01-20T00:00:01Z,80,5.1,4.5,3600,51,101
+2025-01-20T00:00:02Z,-0.5,5.1,4.5,-1,-41,-0.1
+2025-01-20T00:00:02Z,5,5,5,5,5,5
+2025-01-20T00:00:01Z,5,5,5,5,5,5
+2025-01-20T00:00:04Z,5.123456,5,5,2700.5,1e1,8E1
+EOF
+cat >"$s/seed-bad-rows.csv" <<'EOF'
+wd78,time,ws80b,ws80a,t76,rh76,ws60
+2710,2025-01-20T00:00:00Z,5,5,1,80,4
+2710,2025-01-20T00:00:01Z,5,5,1,80
+2710,not a time,5,5,1,80,4
+2710,2025-01-20T00:00:03Z,5.3.1,5,1,80,4
+2710,2025-01-20T00:00:04Z,5,5,1,80,4,9
+2710,2025-01-20T00:00:05.0001Z,5,5,1,80,4
+EOF
+cat >"$s/seed-clock-jump.csv" <<'EOF'
+time,ws80a,ws80b,ws60,wd78,t76,rh76
+2025-01-20T00:00:00Z,5,5,4,2710,1,80
+2025-01-21T23:59:00Z,5,5,4,2710,1,80
+2025-01-25T00:00:00Z,5,5,4,2710,1,80
+9999-12-31T23:59:59Z,5,5,4,2710,1,80
+EOF
+printf 'time,ws80a,ws80b,ws60,wd78,t76,rh76,extra\n' >"$s/seed-unknown-column.csv"
+printf 'time,ws80a\n2025-01-20T00:00:00Z,5\n' >"$s/seed-missing-columns.csv"
+printf 'time,ws80a,ws80b,ws60,wd78,t76,rh76\n2025-01-20T00:00:00Z,5,5,4,27\xff0,1,80\n' >"$s/seed-not-utf8.csv"
+
+# --- station: the demo's, the fuzz station's variants, files the core refuses.
+t="$corpus/station"
+cp "$st" "$t/seed-demo.toml"
+cat >"$t/seed-every-setting.toml" <<'EOF'
+[logging]
+interval_s = 300
+sample_rate_hz = 4
+missing_values = [-999, -9999, 9999.5]
+
+[station]
+name = "every setting"
+
+[[channel]]
+id = "ws"
+kind = "speed"
+unit = "m/s"
+height_m = 80
+range = [0, 75]
+resolution = 0.01
+gust_window_s = 3
+
+[channel.screen]
+step_limit = 10
+mean_range = [0, 25]
+sd_range = [0, 3]
+gust_max = 30
+min_recovery = 0.9
+flat_span_s = 10800
+flat_tolerance = 0.1
+partner = "wsb"
+above = "ws2"
+shear_tolerance = 0.5
+pair_mean_diff = 0.5
+pair_max_diff = 2.0
+icing = { temperature = "t", humidity = "rh", max_temperature = 2, min_humidity = 85 }
+off = ["spike", "flatline"]
+
+[[channel]]
+id = "wsb"
+kind = "speed"
+slope = 0.049
+offset = 0.25
+gust_window_s = 2
+
+[[channel]]
+id = "ws2"
+kind = "speed"
+resolution = 0.1
+
+[[channel]]
+id = "wd"
+kind = "direction"
+slope = 0.1
+offset_deg = -4
+speed_channel = "ws"
+
+[[channel]]
+id = "t"
+kind = "scalar"
+range = [-40, 50]
+resolution = 0.1
+
+[[channel]]
+id = "rh"
+kind = "scalar"
+range = [0, 100]
+slope = 0.025
+offset = -1
+EOF
+printf '[logging]\nsample_rate_hz = 1\n\n[[channel]]\nid = "ws"\nkind = "speed"\nresolution = 0.01\nspeed = 3\n' >"$t/seed-unknown-key.toml"
+printf '[logging]\nsample_rate_hz = 1\n\n[[channel]]\nid = "a"\nkind = "scalar"\nresolution = 0.1\n\n[[channel]]\nid = "a"\nkind = "scalar"\nresolution = 0.1\n' >"$t/seed-duplicate-id.toml"
+printf '[logging]\ninterval_s = 7\nsample_rate_hz = 1000\n\n[[channel]]\nid = "w"\nkind = "wind"\n' >"$t/seed-bad-kind.toml"
+printf '[logging]\nsample_rate_hz = 4\n\n[[channel]]\nid = "ws"\nkind = "speed"\nresolution = 0.01\ngust_window_s = 40\n' >"$t/seed-long-gust.toml"
+printf '[logging]\nsample_rate_hz = 1\n\n[[channel]]\nid = "wd"\nkind = "direction"\nspeed_channel = "nope"\n' >"$t/seed-bad-link.toml"
+printf '[logging]\nsample_rate_hz = 1\nmissing_values = []\n' >"$t/seed-no-channels.toml"
+{
+  printf '[logging]\nsample_rate_hz = 1\n'
+  for i in $(seq 1 33); do printf '\n[[channel]]\nid = "t%d"\nkind = "scalar"\nresolution = 0.1\n' "$i"; done
+} >"$t/seed-33-channels.toml"
+printf '[logging\nsample_rate_hz = 1\n' >"$t/seed-broken-toml.toml"
+
+# --- records: the demo logger's records, a replay's, and variants.
+r="$corpus/records"
+head -n 13 "$work/demo/logger-records.csv" >"$r/seed-demo-two-intervals.csv"
+"$tenmin" replay -q --config "$st" "$s/seed-demo-interval-boundary.csv" -o "$r/seed-replay.csv"
+head -n 7 "$work/demo/logger-records.csv" | cut -d, -f1-11 >"$r/seed-eleven-columns.csv"
+head -n 7 "$work/demo/logger-records.csv" | cut -d, -f1-14 >"$r/seed-no-ti-column.csv"
+head -n 1 "$work/demo/logger-records.csv" >"$r/seed-header-only.csv"
+head -n 7 "$work/demo/logger-records.csv" | awk -F, 'BEGIN{OFS=","}{t=$1;$1=$3;$3=t;print}' >"$r/seed-reordered.csv"
+{
+  head -n 1 "$work/demo/logger-records.csv"
+  sed -n '2p' "$work/demo/logger-records.csv"
+  sed -n '2p' "$work/demo/logger-records.csv"
+  sed -n '2p' "$work/demo/logger-records.csv" | sed 's/ws80a/nope/'
+  sed -n '3p' "$work/demo/logger-records.csv" | sed 's/,,0,0,0,/,spike|icing,0,0,0,/'
+  sed -n '4p' "$work/demo/logger-records.csv" | sed 's/,,0,0,0,/,frost,0,0,0,/'
+  sed -n '5p' "$work/demo/logger-records.csv" | sed 's/00:10:00Z/00:11:00Z/'
+} >"$r/seed-bad-rows.csv"
+{
+  head -n 1 "$work/demo/logger-records.csv"
+  sed -n '8,13p' "$work/demo/logger-records.csv"
+  sed -n '2,7p' "$work/demo/logger-records.csv"
+} >"$r/seed-out-of-order.csv"
+{
+  head -n 1 "$work/demo/logger-records.csv"
+  sed -n '2p' "$work/demo/logger-records.csv"
+  sed -n '2p' "$work/demo/logger-records.csv" | sed 's/2025-01-20/2025-03-20/g'
+} >"$r/seed-months-apart.csv"
+head -n 4 "$work/demo/logger-records.csv" | sed 's/,/","/g; s/^/"/; s/$/"/' >"$r/seed-quoted.csv"
+
+# --- frames: a sample file, and the frames of the logs below.
+f="$corpus/frames"
+"$tenmin" export -q --config "$st" "$s/seed-demo-40-rows.csv" -o "$f/seed-demo.tmsf"
+"$tenmin" export -q --config "$t/seed-every-setting.toml" <(printf 'time,ws,wsb,ws2,wd,t,rh\n2025-01-20T00:00:00Z,5,100,4,2710,1,3000\n2025-01-20T00:00:00.25Z,,NaN,-999,-9999,1,3000\n') -o "$f/seed-every-setting.tmsf"
+
+# --- logscan: the example firmware's record and state logs of the demo's first
+# hour, under QEMU (README of firmware-example); cut, damaged, erased variants.
+l="$corpus/logscan"
+fw="$root/firmware-example/target/thumbv6m-none-eabi/release/replay"
+if [ -x "$fw" ] && command -v qemu-system-arm >/dev/null; then
+  head -n 3601 "$day" >"$work/hour.csv"
+  "$tenmin" export -q --config "$st" "$work/hour.csv" -o "$work/hour.tmsf"
+  q=(qemu-system-arm -machine microbit -cpu cortex-m0 -nographic -monitor none -serial none -kernel "$fw")
+  (cd "$work" && timeout 120 "${q[@]}" -semihosting-config enable=on,target=native,arg=replay,arg=hour.tmsf,arg=records.log)
+  (cd "$work" && timeout 120 "${q[@]}" -semihosting-config enable=on,target=native,arg=replay,arg=hour.tmsf,arg=states.log,arg=states)
+  cp "$work/records.log" "$l/seed-record-log.bin"
+  cp "$work/states.log" "$l/seed-state-log.bin"
+  head -c 1000 "$work/records.log" >"$l/seed-record-log-cut.bin"
+  head -c 2000 "$work/states.log" >"$l/seed-state-log-cut.bin"
+  { head -c 640 "$work/states.log"; head -c 300 /dev/zero | tr '\0' '\377'; tail -c +641 "$work/states.log"; } >"$l/seed-state-log-erased-gap.bin"
+  { head -c 1280 "$work/records.log"; printf 'garbage in the log'; tail -c +1281 "$work/records.log"; } >"$l/seed-record-log-damaged.bin"
+  cat "$work/states.log" "$work/states.log" >"$l/seed-state-log-twice.bin"
+  { head -c 768 "$work/records.log"; head -c 768 "$work/states.log"; } >"$l/seed-mixed-kinds.bin"
+  head -c 256 "$work/records.log" >"$f/seed-record-frames.bin"
+  head -c 256 "$work/states.log" >"$f/seed-state-frames.bin"
+else
+  echo "seed.sh: no firmware or QEMU: logscan seeds without the firmware's logs" >&2
+fi
+head -c 500 /dev/zero | tr '\0' '\377' >"$l/seed-erased.bin"
+printf '\xd3\x7a\x1c\x5e' >"$l/seed-sync-only.bin"
+echo "seed.sh: seeds written to $corpus"
+du -sh "$corpus"/*

@@ -1,0 +1,711 @@
+//! The bodies of the fuzz targets (`host-cli/fuzz/`), here so that an ordinary
+//! test (`tests/fuzz_corpus.rs`) replays every committed corpus input through
+//! the same code on stable Rust.
+//!
+//! Each function takes any bytes, feeds them through the real reader (written
+//! to a scratch file when the reader takes paths), and asserts what must hold
+//! for every input: it returns (no panic, no hang), an error is an `Err` whose
+//! message names the file, and every sample is accounted for where samples can
+//! be counted. Where two paths must agree (sequential and parallel replay, a
+//! log read whole and in pieces, a frame decoded and encoded again) they are
+//! compared. A failed assertion is a crash for the fuzzer and a failed test for
+//! the corpus replay.
+//!
+//! | function | reader |
+//! |---|---|
+//! | [`samples`] | samples CSV through `tenmin replay` (one thread and two, strict and `--skip-bad-rows`) |
+//! | [`station`] | station file (TOML), the engine it builds, its sample-file header |
+//! | [`records`] | records CSV through `tenmin report` and `tenmin verify` |
+//! | [`frames`] | `qc_core::wire`: record frames, state frames, a sample file (header and sample frames) replayed through a core station |
+//! | [`logscan`] | a logger's log: the core's scanner whole and in pieces, and `tenmin decode` |
+//!
+//! Inputs with bytes that fail a CRC reach little beyond the check, so
+//! [`frames`] and [`logscan`] also try a copy with every CRC made right.
+
+use std::cell::RefCell;
+use std::fs;
+use std::io::{self, Read};
+use std::path::{Path, PathBuf};
+use std::sync::atomic::{AtomicU64, Ordering};
+
+use anyhow::Result;
+use qc_core::wire::{
+    self, crc32, decode_record, decode_state, encode_record, encode_sample, encode_sample_header,
+    encode_state, sample_header_len, SampleReader, Span, FRAME_LEN, SYNC,
+};
+use qc_core::{
+    config_fingerprint, ChannelConfig, ChannelRecord, Event, Layout, Station, Timestamp,
+};
+
+use crate::config::{self, Decode, StationFile};
+use crate::engine::{self, Sink};
+use crate::records::{write_header, write_row};
+use crate::samples::Options;
+use crate::summary::Summary;
+use crate::{decode, export, replay, report, verify};
+
+/// The station every target but [`station`] reads with: the `tenmin demo`
+/// station (a copy, so that the corpus keeps its meaning if the demo
+/// changes): three anemometers with a partner and a shear pair, a vane read as
+/// raw counts with a mounting offset and a speed link, temperature and
+/// humidity with icing tests.
+pub const STATION: &str = r#"[logging]
+interval_s = 600
+sample_rate_hz = 1
+missing_values = [-999, -9999]
+
+[station]
+name = "fuzz"
+
+[[channel]]
+id = "ws80a"
+kind = "speed"
+range = [0, 75]
+resolution = 0.01
+gust_window_s = 3
+
+[channel.screen]
+partner = "ws80b"
+icing = { temperature = "t76", humidity = "rh76" }
+
+[[channel]]
+id = "ws80b"
+kind = "speed"
+range = [0, 75]
+resolution = 0.01
+gust_window_s = 3
+
+[[channel]]
+id = "ws60"
+kind = "speed"
+range = [0, 75]
+resolution = 0.01
+
+[channel.screen]
+above = "ws80a"
+
+[[channel]]
+id = "wd78"
+kind = "direction"
+slope = 0.1
+offset_deg = 4
+speed_channel = "ws80a"
+
+[channel.screen]
+icing = { temperature = "t76", humidity = "rh76" }
+
+[[channel]]
+id = "t76"
+kind = "scalar"
+range = [-40, 50]
+resolution = 0.1
+
+[[channel]]
+id = "rh76"
+kind = "scalar"
+range = [0, 100]
+resolution = 0.1
+"#;
+
+/// `--max-gap-days` of the targets: small, so that a clock jump in an input
+/// does not write a year of empty rows (the check itself is still reached).
+const MAX_GAP_DAYS: u32 = 2;
+
+/// A folder of scratch files for one thread, removed when the thread ends.
+struct Scratch(PathBuf);
+
+impl Scratch {
+    fn new() -> Self {
+        static NEXT: AtomicU64 = AtomicU64::new(0);
+        let dir = std::env::temp_dir().join(format!(
+            "tenmin-fuzz-{}-{}",
+            std::process::id(),
+            NEXT.fetch_add(1, Ordering::Relaxed)
+        ));
+        fs::create_dir_all(&dir).expect("create a scratch folder for the fuzz target");
+        Scratch(dir)
+    }
+}
+
+impl Drop for Scratch {
+    fn drop(&mut self) {
+        let _ = fs::remove_dir_all(&self.0);
+    }
+}
+
+thread_local! {
+    static SCRATCH: RefCell<Option<Scratch>> = const { RefCell::new(None) };
+}
+
+/// Writes `bytes` to the scratch file `name` and returns its path.
+fn scratch(name: &str, bytes: &[u8]) -> PathBuf {
+    let dir = SCRATCH.with(|s| s.borrow_mut().get_or_insert_with(Scratch::new).0.clone());
+    let path = dir.join(name);
+    fs::write(&path, bytes).expect("write a scratch file for the fuzz target");
+    path
+}
+
+/// The [`STATION`], read from a scratch file as `tenmin` reads it.
+fn station_file() -> StationFile {
+    let path = scratch("station.toml", STATION.as_bytes());
+    config::load(&path).expect("the fuzz station file reads")
+}
+
+/// Asserts that an error message names `path` (the contract: errors name the
+/// place).
+fn names(e: &anyhow::Error, path: &Path) {
+    let msg = format!("{e:#}");
+    let name = path.file_name().and_then(|n| n.to_str()).unwrap_or("");
+    assert!(
+        msg.contains(name),
+        "the error does not name the file {name}: {msg}"
+    );
+}
+
+/// A sink keeping the rows as records CSV and, per channel, the samples the
+/// rows count.
+struct Rows {
+    ids: Vec<String>,
+    csv: Vec<u8>,
+    rows: u64,
+    held: Vec<u64>,
+}
+
+impl Rows {
+    fn new(cfg: &StationFile) -> Self {
+        let mut csv = Vec::new();
+        let _ = write_header(&mut csv);
+        Rows {
+            ids: cfg.channels.iter().map(|c| c.id.clone()).collect(),
+            csv,
+            rows: 0,
+            held: vec![0; cfg.channels.len()],
+        }
+    }
+}
+
+/// Samples a record counts: valid, missing, out of range and rejected.
+fn held(r: &ChannelRecord) -> u64 {
+    let t = &r.tally;
+    u64::from(t.valid) + u64::from(t.missing) + u64::from(t.out_of_range) + u64::from(t.rejected)
+}
+
+impl Sink for Rows {
+    fn interval(
+        &mut self,
+        start: Timestamp,
+        end: Timestamp,
+        records: &[ChannelRecord],
+    ) -> Result<()> {
+        assert!(end > start, "an interval ends before it starts");
+        for (i, (id, r)) in self.ids.iter().zip(records).enumerate() {
+            write_row(&mut self.csv, start, end, id, r)?;
+            self.rows += 1;
+            self.held[i] += held(r);
+        }
+        Ok(())
+    }
+}
+
+/// Every row is accepted, rejected or bad; every pushed sample is in one
+/// counter of every channel's rows, or unplaced.
+fn accounted(s: &Summary, rows: &Rows) {
+    assert_eq!(
+        s.rows_accounted(),
+        s.input.rows,
+        "rows read are not all accounted for: {s:?}"
+    );
+    assert_eq!(
+        s.record_rows, rows.rows,
+        "record rows counted twice or lost"
+    );
+    for (i, h) in rows.held.iter().enumerate() {
+        assert_eq!(
+            h + s.pushed.unplaced,
+            s.pushed.pushed(),
+            "channel {i}: {h} samples in its rows and {} unplaced, {} pushed",
+            s.pushed.unplaced,
+            s.pushed.pushed()
+        );
+    }
+}
+
+fn replay_rows(cfg: &StationFile, path: &Path, opts: Options) -> Result<(Summary, Rows)> {
+    let mut rows = Rows::new(cfg);
+    let s = replay::replay(cfg, &[path.to_path_buf()], opts, &mut rows)?;
+    Ok((s, rows))
+}
+
+/// Samples CSV: `tenmin replay` on one thread, strict and with
+/// `--skip-bad-rows`, and on two threads in 64-byte chunks with
+/// `--skip-bad-rows`.
+pub fn samples(data: &[u8]) {
+    let cfg = station_file();
+    let path = scratch("samples.csv", data);
+    let base = Options {
+        max_gap_days: MAX_GAP_DAYS,
+        ..Options::default()
+    };
+    let strict = replay_rows(&cfg, &path, base);
+    let skip = Options {
+        skip_bad_rows: true,
+        ..base
+    };
+    let lenient = replay_rows(&cfg, &path, skip);
+    let parallel = replay_rows(
+        &cfg,
+        &path,
+        Options {
+            jobs: 2,
+            chunk_size: 64,
+            ..skip
+        },
+    );
+    for r in [&strict, &lenient, &parallel] {
+        match r {
+            Ok((s, rows)) => accounted(s, rows),
+            Err(e) => names(e, &path),
+        }
+    }
+    match (&lenient, &parallel) {
+        (Ok((a, ra)), Ok((b, rb))) => {
+            assert!(
+                ra.csv == rb.csv,
+                "one thread and two write different records"
+            );
+            assert_eq!(a.pushed, b.pushed, "one thread and two push differently");
+            assert_eq!(a.input.rows, b.input.rows);
+            assert_eq!(a.input.bad, b.input.bad);
+        }
+        (Err(a), Err(b)) => assert_eq!(format!("{a:#}"), format!("{b:#}")),
+        (a, b) => panic!(
+            "one thread and two disagree: {:?} and {:?}",
+            a.as_ref().err(),
+            b.as_ref().err()
+        ),
+    }
+    if let Ok((s, rows)) = &strict {
+        let (l, lrows) = lenient
+            .as_ref()
+            .expect("--skip-bad-rows refuses what the strict read takes");
+        assert_eq!(l.input.bad.total(), 0, "bad rows the strict read took");
+        assert!(
+            rows.csv == lrows.csv,
+            "--skip-bad-rows changes good records"
+        );
+        assert_eq!(s.pushed, l.pushed);
+    }
+}
+
+/// One sample of every channel, as the samples reader hands it to the core.
+fn readings(cfg: &StationFile, i: i32) -> Vec<qc_core::Reading> {
+    cfg.channels
+        .iter()
+        .map(|c| match (c.decode, i % 5) {
+            (_, 4) => qc_core::Reading::Missing,
+            (Decode::Counts, _) => qc_core::Reading::Counts(i * 37 - 50),
+            (Decode::Value, _) => qc_core::Reading::Value(f64::from(i) * 0.73 - 1.5),
+        })
+        .collect()
+}
+
+/// Station file: `config::load`; for a file that reads, the engine it builds
+/// (a few samples across an interval boundary, every one accounted for), and
+/// its sample file header, which must read back to the same configuration.
+pub fn station(data: &[u8]) {
+    let path = scratch("station.toml", data);
+    let cfg = match config::load(&path) {
+        Ok(cfg) => cfg,
+        Err(e) => return names(&e, &path),
+    };
+    let mut rows = Rows::new(&cfg);
+    let pushed = match engine::new(&cfg, &mut rows) {
+        Err(e) => return names(&e, &path),
+        Ok(mut engine) => {
+            let t0 = 1_737_331_200_000i64 - 3_000;
+            for i in 0..12 {
+                let t = Timestamp::from_millis(t0 + i64::from(i) * 997);
+                engine
+                    .push(t, &readings(&cfg, i))
+                    .expect("the rows sink does not fail");
+            }
+            engine.close().expect("the rows sink does not fail");
+            engine.totals()
+        }
+    };
+    for (i, h) in rows.held.iter().enumerate() {
+        assert_eq!(
+            h + pushed.unplaced,
+            pushed.pushed(),
+            "channel {i} lost samples"
+        );
+    }
+    let cores: Vec<ChannelConfig> = cfg.channels.iter().map(|c| c.core).collect();
+    match export::header(&cfg) {
+        Err(e) => names(&e, &path),
+        Ok(head) => {
+            let h = wire::decode_sample_header::<{ config::MAX_CHANNELS }>(&head)
+                .expect("a header tenmin writes reads back");
+            assert_eq!(h.encoded_len(), head.len());
+            assert_eq!(
+                config_fingerprint(&h.station, h.configs()),
+                config_fingerprint(&cfg.station, &cores),
+                "the header carries another configuration"
+            );
+            let mut again = vec![0u8; head.len()];
+            encode_sample_header(&h.station, h.configs(), &mut again)
+                .expect("a header that reads writes again");
+            assert!(again == head, "a configuration with two encodings");
+        }
+    }
+}
+
+/// A samples file for [`records`]' `tenmin verify`: an hour at one sample in
+/// ten seconds, with a missing reading and a duplicate time.
+fn verify_samples() -> Vec<u8> {
+    let mut s = String::from("time,ws80a,ws80b,ws60,wd78,t76,rh76\n");
+    for i in 0..360i64 {
+        let t = 1_737_331_200 + i * 10;
+        let ws = 5.0 + (i % 17) as f64 * 0.13;
+        let t76 = if i == 40 {
+            String::new()
+        } else {
+            format!("{:.1}", 2.0 + (i % 7) as f64 * 0.1)
+        };
+        s.push_str(&format!(
+            "{t},{ws:.2},{:.2},{:.2},{},{t76},{:.1}\n",
+            ws - 0.02,
+            ws * 0.9,
+            2_400 + (i * 53) % 900,
+            80.0 + (i % 11) as f64
+        ));
+        if i == 100 {
+            s.push_str(&format!("{t},1,1,1,1,1,1\n"));
+        }
+    }
+    s.into_bytes()
+}
+
+/// Records CSV: `tenmin report` of the file (page, tables and summary, nothing
+/// written) and `tenmin verify` of an hour of samples against it.
+pub fn records(data: &[u8]) {
+    let cfg = station_file();
+    let path = scratch("records.csv", data);
+    let args = report::ReportArgs {
+        config: cfg.path.clone(),
+        records: vec![path.clone()],
+        output: path.with_extension("report"),
+        sectors: 16,
+        air_density: 1.225,
+        reference: None,
+    };
+    if let Err(e) = report::render(&cfg, &args) {
+        names(&e, &path);
+    }
+    let ids: Vec<String> = cfg.channels.iter().map(|c| c.id.clone()).collect();
+    let samples = scratch("verify-samples.csv", &verify_samples());
+    let opts = Options {
+        max_gap_days: MAX_GAP_DAYS,
+        ..Options::default()
+    };
+    let result = verify::Comparer::open(&path, cfg.station, ids, 5).and_then(|mut cmp| {
+        replay::replay(&cfg, &[samples], opts, &mut cmp)?;
+        cmp.finish()
+    });
+    match result {
+        Ok(report) => {
+            assert!(report.shown.len() as u64 <= report.total.min(5));
+            assert!(report.rows_compared <= report.replay_rows);
+        }
+        Err(e) => names(&e, &path),
+    }
+}
+
+/// Makes the CRC of `frame` (one frame: record, state) right.
+fn fix_frame_crc(frame: &mut [u8]) {
+    if frame.len() == FRAME_LEN {
+        let crc = crc32(&frame[..FRAME_LEN - 4]);
+        frame[FRAME_LEN - 4..].copy_from_slice(&crc.to_le_bytes());
+    }
+}
+
+/// A good record or state frame must encode again to the same bytes, and the
+/// scanner must find exactly it.
+fn one_frame(b: &[u8; FRAME_LEN]) {
+    let mut again = [0u8; FRAME_LEN];
+    let record = decode_record(b);
+    if let Ok(f) = &record {
+        encode_record(f, &mut again);
+        assert!(again == *b, "a record frame with two encodings: {f:?}");
+    }
+    let state = decode_state(b);
+    if let Ok(f) = &state {
+        encode_state(f, &mut again);
+        assert!(again == *b, "a state frame with two encodings: {f:?}");
+    }
+    assert!(record.is_err() || state.is_err(), "a frame of both kinds");
+    let spans: Vec<Span> = wire::scan(b).collect();
+    let good = record.is_ok() || state.is_ok();
+    match spans.as_slice() {
+        [Span::Frame { offset: 0, .. } | Span::State { offset: 0, .. }] => assert!(good),
+        [Span::Damaged { offset: 0, len } | Span::Erased { offset: 0, len }] => {
+            assert!(!good && *len == FRAME_LEN)
+        }
+        other => panic!("one frame scans as {other:?}"),
+    }
+}
+
+/// Makes the header CRC of a sample file and the CRC of every sample frame
+/// after it right, as far as the tags can be read.
+fn fix_sample_crcs(file: &mut [u8]) {
+    let count = usize::from(file.get(5).copied().unwrap_or(0));
+    let len = sample_header_len(count);
+    if file.len() < len || count == 0 {
+        return;
+    }
+    // The length field must agree with the count for the CRC to be reached.
+    if let Ok(n) = u16::try_from(len) {
+        file[6..8].copy_from_slice(&n.to_le_bytes());
+    }
+    let crc = crc32(&file[..len - 4]);
+    file[len - 4..len].copy_from_slice(&crc.to_le_bytes());
+    let mut at = len;
+    loop {
+        let mut end = at + 8;
+        for _ in 0..count {
+            end += match file.get(end) {
+                Some(0) => 1,
+                Some(1) => 9,
+                Some(2) => 5,
+                _ => return,
+            };
+        }
+        let Some(body) = file.get(at..end) else {
+            return;
+        };
+        let crc = crc32(body).to_le_bytes();
+        let Some(slot) = file.get_mut(end..end + 4) else {
+            return;
+        };
+        slot.copy_from_slice(&crc);
+        at = end + 4;
+    }
+}
+
+/// Channels of the station the sample-file check builds, and its gust
+/// capacity (the replay board's).
+const SAMPLE_C: usize = 8;
+const SAMPLE_G: usize = 12;
+
+/// A sample file: its header must encode again to the same bytes; if the core
+/// accepts its configuration, every sample goes through a station of the core
+/// and is accounted for in every channel; every sample frame encodes again to
+/// its bytes.
+fn sample_file(file: &[u8]) {
+    let Ok(reader) = SampleReader::<SAMPLE_C>::new(file) else {
+        return;
+    };
+    let h = *reader.header();
+    let len = h.encoded_len();
+    let mut again = vec![0u8; len];
+    encode_sample_header(&h.station, h.configs(), &mut again)
+        .expect("a header that reads writes again");
+    assert!(
+        again == file[..len],
+        "a sample file header with two encodings"
+    );
+    let layout = Layout::<SAMPLE_C>::new::<SAMPLE_G>(h.station, &h.channels).ok();
+    let mut station = layout.map(|l| Box::new(Station::<SAMPLE_C, SAMPLE_G>::new(l)));
+    let n = h.count();
+    let mut held = [0u64; SAMPLE_C];
+    let mut count = |e: Event<'_, SAMPLE_C, SAMPLE_G>| {
+        if let Event::Closed(_, records) = e {
+            for (h, r) in held.iter_mut().zip(records) {
+                *h += self::held(r);
+            }
+        }
+    };
+    let mut pushed = 0u64;
+    let mut frame = vec![0u8; wire::sample_frame_max_len(SAMPLE_C)];
+    let mut at = len;
+    for sample in reader {
+        let Ok((t, readings)) = sample else { break };
+        let k =
+            encode_sample(t, &readings[..n], &mut frame).expect("a sample that reads writes again");
+        assert!(
+            frame[..k] == file[at..at + k],
+            "a sample frame with two encodings"
+        );
+        at += k;
+        if let Some(st) = station.as_mut() {
+            st.push(t, &readings, &mut count);
+            pushed += 1;
+        }
+    }
+    if let Some(mut st) = station {
+        st.close(&mut count);
+        let totals = *st.totals();
+        assert_eq!(totals.pushed(), pushed);
+        for (i, h) in held.iter().enumerate().take(n) {
+            assert_eq!(h + totals.unplaced, pushed, "channel {i} lost samples");
+        }
+    }
+}
+
+/// `qc_core::wire`: every 128 bytes as a record or state frame, and the
+/// input as a sample file; each also with its CRCs made right.
+pub fn frames(data: &[u8]) {
+    for chunk in data.chunks_exact(FRAME_LEN) {
+        let mut b = [0u8; FRAME_LEN];
+        b.copy_from_slice(chunk);
+        one_frame(&b);
+        fix_frame_crc(&mut b);
+        one_frame(&b);
+    }
+    sample_file(data);
+    let mut fixed = data.to_vec();
+    fix_sample_crcs(&mut fixed);
+    sample_file(&fixed);
+}
+
+/// A reader handing out 1 to 7 bytes at a time.
+struct Trickle<'a>(&'a [u8], usize);
+
+impl Read for Trickle<'_> {
+    fn read(&mut self, buf: &mut [u8]) -> io::Result<usize> {
+        self.1 = self.1 % 7 + 1;
+        let n = self.1.min(buf.len()).min(self.0.len());
+        buf[..n].copy_from_slice(&self.0[..n]);
+        self.0 = &self.0[n..];
+        Ok(n)
+    }
+}
+
+/// Where a span is and what it is, for comparing scans.
+fn place(s: &Span) -> (u8, usize, usize) {
+    match *s {
+        Span::Frame { offset, .. } => (0, offset, FRAME_LEN),
+        Span::State { offset, .. } => (1, offset, FRAME_LEN),
+        Span::Damaged { offset, len } => (2, offset, len),
+        Span::Torn { offset, len } => (3, offset, len),
+        Span::Erased { offset, len } => (4, offset, len),
+    }
+}
+
+/// Makes the CRC of every frame that starts with the sync marker right.
+fn fix_log_crcs(log: &mut [u8]) {
+    let mut i = 0;
+    while i + FRAME_LEN <= log.len() {
+        if log[i..i + 4] == SYNC {
+            fix_frame_crc(&mut log[i..i + FRAME_LEN]);
+            i += FRAME_LEN;
+        } else {
+            i += 1;
+        }
+    }
+}
+
+/// `tenmin decode` of `log`: an error names the log; otherwise every byte is
+/// in a frame taken or skipped, damage or erased flash, and every row is
+/// counted.
+fn decode_log(cfg: &StationFile, log: &[u8]) {
+    let path = Path::new("fuzz.log");
+    let mut out = Vec::new();
+    match decode::decode(cfg, log, path, &mut out, MAX_GAP_DAYS) {
+        Err(e) => names(&e, path),
+        Ok(d) => {
+            let bytes =
+                d.damaged_bytes + d.erased_bytes + FRAME_LEN as u64 * (d.frames + d.out_of_order);
+            assert_eq!(
+                bytes,
+                log.len() as u64,
+                "bytes of the log unaccounted for: {d:?}"
+            );
+            let lines = out.iter().filter(|&&b| b == b'\n').count() as u64;
+            assert_eq!(lines, d.rows + 1, "rows written and counted differ");
+        }
+    }
+}
+
+/// A logger's log: `wire::scan` of the whole log covers every byte once, in
+/// order; `logscan::scan_reader` in pieces of every size finds the same spans;
+/// `tenmin decode` reads it (and a copy with every CRC made right).
+pub fn logscan(data: &[u8]) {
+    let whole: Vec<(u8, usize, usize)> = wire::scan(data).map(|s| place(&s)).collect();
+    let mut at = 0;
+    for (i, &(kind, offset, len)) in whole.iter().enumerate() {
+        assert_eq!(offset, at, "spans leave a hole or overlap");
+        assert!(len > 0, "an empty span");
+        if kind == 3 {
+            assert!(
+                i + 1 == whole.len() && len < FRAME_LEN,
+                "a torn span that is not a short tail"
+            );
+        }
+        if kind == 4 {
+            assert!(data[offset..offset + len].iter().all(|&b| b == 0xFF));
+        }
+        at += len;
+    }
+    assert_eq!(at, data.len(), "the spans do not reach the end");
+    for chunk in [1, FRAME_LEN, FRAME_LEN + 75, 1 << 20] {
+        let mut pieces = Vec::new();
+        let n = crate::logscan::scan_reader(data, chunk, |s| -> io::Result<()> {
+            pieces.push(place(&s));
+            Ok(())
+        })
+        .expect("reading from memory does not fail");
+        assert_eq!(n, data.len());
+        assert!(
+            pieces == whole,
+            "read {chunk} bytes at a time, the log scans otherwise"
+        );
+    }
+    let mut pieces = Vec::new();
+    crate::logscan::scan_reader(Trickle(data, 0), FRAME_LEN, |s| -> io::Result<()> {
+        pieces.push(place(&s));
+        Ok(())
+    })
+    .expect("reading from memory does not fail");
+    assert!(
+        pieces == whole,
+        "read a few bytes at a time, the log scans otherwise"
+    );
+    let cfg = station_file();
+    decode_log(&cfg, data);
+    let mut fixed = data.to_vec();
+    fix_log_crcs(&mut fixed);
+    if fixed != data {
+        decode_log(&cfg, &fixed);
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use std::panic::{catch_unwind, AssertUnwindSafe};
+
+    /// The checks the targets make can fail (a check that cannot would pass
+    /// every corpus): invented faults, each caught.
+    #[test]
+    fn the_checks_fire_on_invented_faults() {
+        // An error that does not name its file.
+        let e = anyhow::anyhow!("line 3: expected a number");
+        assert!(catch_unwind(|| names(&e, Path::new("/tmp/x/samples.csv"))).is_err());
+        names(
+            &anyhow::anyhow!("/tmp/x/samples.csv:3: bad"),
+            Path::new("/tmp/x/samples.csv"),
+        );
+        // A sample lost from a channel's rows.
+        let cfg = station_file();
+        let (s, mut rows) = replay_rows(
+            &cfg,
+            &scratch("s.csv", &verify_samples()),
+            Options::default(),
+        )
+        .expect("the verify samples replay");
+        accounted(&s, &rows);
+        rows.held[3] -= 1;
+        assert!(catch_unwind(AssertUnwindSafe(|| accounted(&s, &rows))).is_err());
+    }
+}

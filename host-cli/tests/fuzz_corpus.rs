@@ -1,0 +1,74 @@
+//! Replays the committed fuzz corpus (`host-cli/fuzz/corpus/<target>/`) through
+//! the fuzz targets' bodies (`host_cli::fuzzing`) on stable Rust, so that an
+//! input that once crashed a reader (kept in the corpus when it was fixed)
+//! keeps being checked by `cargo test`. `host-cli/fuzz/run.sh` runs the
+//! fuzzers themselves.
+
+use std::panic::{catch_unwind, AssertUnwindSafe};
+use std::path::PathBuf;
+
+use host_cli::fuzzing;
+
+fn corpus(target: &str) -> Vec<PathBuf> {
+    let dir = PathBuf::from(env!("CARGO_MANIFEST_DIR"))
+        .join("fuzz/corpus")
+        .join(target);
+    let mut files: Vec<PathBuf> = std::fs::read_dir(&dir)
+        .unwrap_or_else(|e| panic!("{}: {e}", dir.display()))
+        .map(|e| e.expect("read the corpus folder").path())
+        .filter(|p| p.is_file())
+        .collect();
+    files.sort();
+    files
+}
+
+/// Runs every input of `target`'s corpus through `body`; fails naming every
+/// input that panicked. At least `min` inputs must be there (a corpus that
+/// went missing would otherwise pass).
+fn replay(target: &str, min: usize, body: fn(&[u8])) {
+    let files = corpus(target);
+    assert!(
+        files.len() >= min,
+        "{target}: {} corpus inputs, expected at least {min}",
+        files.len()
+    );
+    let mut failed = Vec::new();
+    for f in &files {
+        let data = std::fs::read(f).expect("read a corpus input");
+        if catch_unwind(AssertUnwindSafe(|| body(&data))).is_err() {
+            failed.push(f.display().to_string());
+        }
+    }
+    assert!(
+        failed.is_empty(),
+        "{target}: {} of {} inputs failed:\n{}",
+        failed.len(),
+        files.len(),
+        failed.join("\n")
+    );
+}
+
+#[test]
+fn samples_corpus() {
+    replay("samples", 40, fuzzing::samples);
+}
+
+#[test]
+fn station_corpus() {
+    replay("station", 40, fuzzing::station);
+}
+
+#[test]
+fn records_corpus() {
+    replay("records", 40, fuzzing::records);
+}
+
+#[test]
+fn frames_corpus() {
+    replay("frames", 40, fuzzing::frames);
+}
+
+#[test]
+fn logscan_corpus() {
+    replay("logscan", 40, fuzzing::logscan);
+}
