@@ -8,6 +8,7 @@
 //! limits are far above any real file: a 1 Hz row of 32 channels is under
 //! 1 KiB, a station file of 32 channels with every key under 16 KiB.
 
+use std::collections::VecDeque;
 use std::error::Error;
 use std::fmt;
 use std::fs::File;
@@ -85,13 +86,30 @@ pub fn csv_long_record(e: &csv::Error, path: &Path, line: u64) -> Option<anyhow:
 
 /// A reader for the `csv` crate that fails with [`LongRecord`] once more than
 /// [`MAX_RECORD_BYTES`] were read past the end of the last record: re-armed at
-/// every record by [`read_csv`]. The `csv` reader buffers a few KiB ahead, so
-/// a record never holds more than the limit plus that buffer.
+/// every record by [`read_csv`]. The `csv` reader and this one buffer a few KiB
+/// ahead, so a record never holds more than the limit plus those buffers.
+///
+/// It also hands every `\r\n` on as `\n`: the `csv` crate ends a record at the
+/// `\r` and starts the next at the `\n`, before it counts that line, so the
+/// line numbers of its records would lag one behind after CRLF line ends (`\r`
+/// and `\n` end records either way; a lone `\r` is kept).
 #[derive(Debug)]
 pub struct Capped<R> {
     inner: R,
-    read: u64,
+    /// Bytes read from `inner` and not handed on yet: `buf[pos..len]`.
+    buf: Box<[u8]>,
+    pos: usize,
+    len: usize,
+    eof: bool,
+    /// The record being read may not reach this offset.
     until: u64,
+    /// Bytes handed on so far.
+    out: u64,
+    /// The line ends handed on at or after `kept` (offset, whether a `\n`),
+    /// and the `\n`s before `kept`.
+    ends: VecDeque<(u64, bool)>,
+    kept: u64,
+    lines_before: u64,
 }
 
 impl<R> Capped<R> {
@@ -99,22 +117,99 @@ impl<R> Capped<R> {
     pub fn new(inner: R) -> Self {
         Capped {
             inner,
-            read: 0,
+            buf: vec![0; 8 << 10].into_boxed_slice(),
+            pos: 0,
+            len: 0,
+            eof: false,
             until: MAX_RECORD_BYTES as u64,
+            out: 0,
+            ends: VecDeque::new(),
+            kept: 0,
+            lines_before: 0,
+        }
+    }
+
+    /// The line (from 1) of the first byte that is not a line end at or after
+    /// offset `start` of what was handed on: a record's line, where the `csv`
+    /// crate says it starts (before the blank lines it skipped). Forgets the
+    /// line ends before `start`: call it for records in order.
+    pub fn line_at(&mut self, start: u64) -> u64 {
+        while let Some(&(at, nl)) = self.ends.front() {
+            if at >= start {
+                break;
+            }
+            self.lines_before += u64::from(nl);
+            self.ends.pop_front();
+        }
+        self.kept = start;
+        // The line ends right at `start`, one byte each: blank lines the
+        // `csv` crate skipped before the record.
+        let blank = (start..)
+            .zip(&self.ends)
+            .take_while(|(next, (at, _))| at == next)
+            .filter(|(_, (_, nl))| *nl)
+            .count();
+        self.lines_before + 1 + blank as u64
+    }
+}
+
+impl<R: Read> Capped<R> {
+    /// Reads more after `buf[pos..len]`, which moves to the front.
+    fn fill(&mut self) -> io::Result<()> {
+        self.buf.copy_within(self.pos..self.len, 0);
+        self.len -= self.pos;
+        self.pos = 0;
+        // Offsets are of the bytes handed on (after `\r\n` became `\n`): those
+        // handed on, and those buffered here, at most as many.
+        let ahead = self.out + (self.len - self.pos) as u64;
+        let room = self.until.saturating_sub(ahead);
+        if room == 0 {
+            return Err(LongRecord::io());
+        }
+        let n = (self.buf.len() - self.len).min(usize::try_from(room).unwrap_or(usize::MAX));
+        loop {
+            match self.inner.read(&mut self.buf[self.len..self.len + n]) {
+                Ok(got) => {
+                    self.eof = got == 0;
+                    self.len += got;
+                    return Ok(());
+                }
+                Err(e) if e.kind() == io::ErrorKind::Interrupted => {}
+                Err(e) => return Err(e),
+            }
         }
     }
 }
 
 impl<R: Read> Read for Capped<R> {
-    fn read(&mut self, buf: &mut [u8]) -> io::Result<usize> {
-        let room = self.until.saturating_sub(self.read);
-        if room == 0 {
-            return Err(LongRecord::io());
+    fn read(&mut self, out: &mut [u8]) -> io::Result<usize> {
+        if out.is_empty() {
+            return Ok(0);
         }
-        let n = buf.len().min(usize::try_from(room).unwrap_or(usize::MAX));
-        let got = self.inner.read(&mut buf[..n])?;
-        self.read += got as u64;
-        Ok(got)
+        // Have at least two bytes (or all that is left), so that a `\r` can
+        // be seen with the byte after it.
+        while self.len - self.pos < 2 && !self.eof {
+            self.fill()?;
+        }
+        let mut w = 0;
+        while w < out.len() && self.pos < self.len {
+            let c = self.buf[self.pos];
+            if c == b'\r' && self.pos + 1 == self.len && !self.eof {
+                // The byte after it is not read yet: hand it on next time.
+                break;
+            }
+            self.pos += 1;
+            if c == b'\r' && self.buf.get(self.pos) == Some(&b'\n') && self.pos < self.len {
+                continue;
+            }
+            if c == b'\n' || c == b'\r' {
+                self.ends.push_back((self.out, c == b'\n'));
+            }
+            out[w] = c;
+            w += 1;
+            self.out += 1;
+        }
+        Ok(w)
     }
 }
 
@@ -132,22 +227,32 @@ pub fn csv_reader_with<R: Read>(inner: R, delimiter: u8) -> csv::Reader<Capped<R
         .from_reader(Capped::new(inner))
 }
 
-/// Reads the next record of a capped reader and allows the one after it
-/// [`MAX_RECORD_BYTES`] again.
+/// Reads the next record of a capped reader: its line (from 1), or `None` at
+/// the end; allows the record after it [`MAX_RECORD_BYTES`] again.
 pub fn read_csv<R: Read>(
     rdr: &mut csv::Reader<Capped<R>>,
     rec: &mut csv::ByteRecord,
-) -> csv::Result<bool> {
-    let more = rdr.read_byte_record(rec)?;
-    rearm(rdr);
-    Ok(more)
+) -> csv::Result<Option<u64>> {
+    if !rdr.read_byte_record(rec)? {
+        return Ok(None);
+    }
+    Ok(Some(next_record(rdr, rec.position())))
 }
 
-/// Allows the record after the one just read [`MAX_RECORD_BYTES`] again (for
-/// callers that read `StringRecord`s themselves).
-pub fn rearm<R: Read>(rdr: &mut csv::Reader<Capped<R>>) {
+/// For callers that read records themselves (`StringRecord`s): the line of
+/// the record just read at `position`, and the next record allowed
+/// [`MAX_RECORD_BYTES`] again. Call it once per record, in order.
+pub fn next_record<R: Read>(
+    rdr: &mut csv::Reader<Capped<R>>,
+    position: Option<&csv::Position>,
+) -> u64 {
+    // The `csv` crate's own line numbers lag behind after blank lines and
+    // quoted fields, so tenmin counts them itself.
+    let start = position.map_or(0, csv::Position::byte);
+    let line = rdr.get_mut().line_at(start);
     let at = rdr.position().byte();
     rdr.get_mut().until = at + MAX_RECORD_BYTES as u64;
+    line
 }
 
 /// Reads a station file whole: at most [`MAX_STATION_BYTES`], so that an
@@ -173,6 +278,36 @@ mod tests {
     use super::*;
 
     #[test]
+    fn csv_records_keep_their_lines_after_crlf_and_blank_lines() {
+        // Lines as a text editor counts them (a `\n` ends a line; a lone `\r`
+        // ends a record but not a line, as the block reader counts).
+        let text = b"h,1\r\na,\"2\"\r\n\r\nb,3\rc,4\r\n\nd,5\r";
+        // One byte at a time too, so that a `\r` at the end of a read is held.
+        for step in [1usize, 2, 3, 1 << 20] {
+            struct Trickle<'a>(&'a [u8], usize);
+            impl Read for Trickle<'_> {
+                fn read(&mut self, buf: &mut [u8]) -> io::Result<usize> {
+                    let n = self.1.min(buf.len()).min(self.0.len());
+                    buf[..n].copy_from_slice(&self.0[..n]);
+                    self.0 = &self.0[n..];
+                    Ok(n)
+                }
+            }
+            let mut rdr = csv_reader(Trickle(text, step));
+            let mut rec = csv::ByteRecord::new();
+            let mut got = Vec::new();
+            while let Some(line) = read_csv(&mut rdr, &mut rec).unwrap() {
+                got.push((String::from_utf8_lossy(&rec[0]).into_owned(), line));
+            }
+            let want: Vec<(String, u64)> = [("h", 1), ("a", 2), ("b", 4), ("c", 4), ("d", 6)]
+                .iter()
+                .map(|(s, l)| ((*s).to_string(), *l))
+                .collect();
+            assert_eq!(got, want, "step {step}");
+        }
+    }
+
+    #[test]
     fn a_long_csv_record_is_refused_and_short_ones_pass() {
         // Records just under the cap pass, one at a time; a longer one fails.
         let ok = MAX_RECORD_BYTES - 10;
@@ -184,7 +319,7 @@ mod tests {
         let mut rdr = csv_reader(&text[..]);
         let mut rec = csv::ByteRecord::new();
         let mut n = 0;
-        while read_csv(&mut rdr, &mut rec).unwrap() {
+        while read_csv(&mut rdr, &mut rec).unwrap().is_some() {
             assert_eq!(rec[0].len(), ok);
             n += 1;
         }
@@ -193,7 +328,7 @@ mod tests {
         let mut long = b"a,b\n\"".to_vec();
         long.extend(std::iter::repeat_n(b'y', 3 * MAX_RECORD_BYTES));
         let mut rdr = csv_reader(&long[..]);
-        assert!(read_csv(&mut rdr, &mut rec).unwrap());
+        assert!(read_csv(&mut rdr, &mut rec).unwrap().is_some());
         let e = read_csv(&mut rdr, &mut rec).unwrap_err();
         assert!(LongRecord::is(&e), "{e}");
         let line = rdr.position().line();

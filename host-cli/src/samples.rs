@@ -434,26 +434,26 @@ pub fn csv_rows<E: From<anyhow::Error>>(
     let delimiter = cfg.table.csv_delimiter().unwrap_or(b',');
     let mut rdr = limits::csv_reader_with(rest, delimiter);
     let mut rec = ByteRecord::new();
-    // The csv reader numbers lines from 1 at `rest`.
-    let at = |rec: &ByteRecord| line - 1 + rec.position().map_or(1, |p| p.line());
+    // Lines are counted from 1 at `rest`, which starts on line `line`.
+    let mut next = line;
     loop {
-        let next = line - 1 + rdr.position().line();
-        let more = limits::read_csv(&mut rdr, &mut rec).map_err(|e| {
+        let got = limits::read_csv(&mut rdr, &mut rec).map_err(|e| {
             limits::csv_long_record(&e, path, next).unwrap_or_else(|| {
                 anyhow::Error::new(e).context(format!("cannot read {}", path.display()))
             })
         })?;
-        if !more {
+        let Some(at) = got.map(|l| line - 1 + l) else {
             return Ok(head.seen());
-        }
+        };
+        next = at + 1;
         if let Some(p) = head.ready_mut() {
-            row(p, at(&rec), &rec)?;
+            row(p, at, &rec)?;
             continue;
         }
         let comment = rec.get(0).is_some_and(|f| cfg.table.is_comment(f));
-        if head.feed(path, cfg, at(&rec), comment, rec.iter())? {
+        if head.feed(path, cfg, at, comment, rec.iter())? {
             if let Some(p) = head.ready_mut() {
-                row(p, at(&rec), &rec)?;
+                row(p, at, &rec)?;
             }
         }
     }

@@ -170,6 +170,8 @@ struct LoggerFile {
     last_start: Option<i64>,
     /// The station the counts must fit.
     station: StationConfig,
+    /// The line of the last record read.
+    last_line: u64,
 }
 
 impl LoggerFile {
@@ -180,7 +182,9 @@ impl LoggerFile {
         let got = rdr
             .read_record(&mut record)
             .map_err(|e| csv_error(path, e, 1))?;
-        limits::rearm(&mut rdr);
+        if got {
+            limits::next_record(&mut rdr, record.position());
+        }
         if !got {
             bail!(
                 "{}:1: empty file: expected a records header starting `start,end,channel,...`",
@@ -246,6 +250,7 @@ impl LoggerFile {
             ahead: None,
             last_start: None,
             station,
+            last_line: 1,
         })
     }
 
@@ -313,16 +318,16 @@ impl LoggerFile {
     }
 
     fn read_row(&mut self) -> Result<Option<(i64, String, LoggerRow)>> {
-        let next_line = self.rdr.position().line();
+        let next_line = self.last_line + 1;
         let more = self
             .rdr
             .read_record(&mut self.record)
             .map_err(|e| csv_error(&self.path, e, next_line))?;
-        limits::rearm(&mut self.rdr);
         if !more {
             return Ok(None);
         }
-        let line = self.record.position().map_or(0, |p| p.line());
+        let line = limits::next_record(&mut self.rdr, self.record.position());
+        self.last_line = line;
         let at = |msg: String| anyhow!("{}:{line}: {msg}", self.path.display());
         if self.record.len() != self.n_fields {
             return Err(at(format!(

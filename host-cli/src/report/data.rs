@@ -287,7 +287,10 @@ pub fn read(cfg: &StationFile, paths: &[PathBuf]) -> Result<Dataset> {
             limits::csv_long_record(&e, path, line)
                 .unwrap_or_else(|| anyhow!("{}: {e}", path.display()))
         };
-        if !limits::read_csv(&mut rdr, &mut rec).map_err(|e| bad(e, 1))? {
+        if limits::read_csv(&mut rdr, &mut rec)
+            .map_err(|e| bad(e, 1))?
+            .is_none()
+        {
             bail!(
                 "{}:1: empty file: expected a records header starting `start,end,channel,...`",
                 path.display()
@@ -296,8 +299,8 @@ pub fn read(cfg: &StationFile, paths: &[PathBuf]) -> Result<Dataset> {
         let cols = columns(path, &rec)?;
         ti_column &= cols.ti.is_some();
         let mut line = 1u64;
-        while limits::read_csv(&mut rdr, &mut rec).map_err(|e| bad(e, line + 1))? {
-            line = rec.position().map_or(line + 1, |p| p.line());
+        while let Some(at) = limits::read_csv(&mut rdr, &mut rec).map_err(|e| bad(e, line + 1))? {
+            line = at;
             let at = Place { path, line };
             if rec.len() != cols.width {
                 bail!(
@@ -572,6 +575,9 @@ resolution = 0.01
         assert!(format!("{:#}", load("").unwrap_err()).contains("empty file"));
         // A file with only a header: the message names it.
         let msg = format!("{:#}", load(HEAD).unwrap_err());
-        assert!(msg.contains("no records rows in") && msg.contains("r.csv"), "{msg}");
+        assert!(
+            msg.contains("no records rows in") && msg.contains("r.csv"),
+            "{msg}"
+        );
     }
 }
