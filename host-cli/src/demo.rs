@@ -398,14 +398,7 @@ struct LogWriter<L: Write> {
 
 impl<L: Write> LogWriter<L> {
     fn interval(&mut self, start: Timestamp, recs: &[ChannelRecord]) -> Result<()> {
-        let held = |r: &ChannelRecord| {
-            let t = &r.tally;
-            u64::from(t.valid)
-                + u64::from(t.missing)
-                + u64::from(t.out_of_range)
-                + u64::from(t.rejected)
-        };
-        if recs.iter().all(|r| held(r) == 0) {
+        if recs.iter().all(|r| r.tally.total() == 0) {
             return Ok(());
         }
         let mut frame = [0u8; FRAME_LEN];

@@ -170,7 +170,7 @@ impl<const C: usize> Engine for Fixed<'_, C> {
     fn recovery(&self) -> Vec<Totals> {
         self.station.recovery()[..self.n]
             .iter()
-            .map(|r| r.since_start)
+            .map(|r| r.since_start())
             .collect()
     }
 }

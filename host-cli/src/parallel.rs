@@ -611,7 +611,10 @@ fn run<const C: usize>(
     })?;
     progress.finish();
     joiner.finish()?;
-    let recovery = joiner.recovery[..n].iter().map(|r| r.since_start).collect();
+    let recovery = joiner.recovery[..n]
+        .iter()
+        .map(|r| r.since_start())
+        .collect();
     Ok((joiner.stats, joiner.totals, recovery))
 }
 

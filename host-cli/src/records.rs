@@ -43,7 +43,7 @@ const fn col(name: &'static str, ty: Type) -> Column {
 }
 
 /// The records columns, in order. The first eleven are fixed by the contract.
-pub const COLUMNS: [Column; 19] = [
+pub const COLUMNS: [Column; 20] = [
     col("start", Type::Time),
     col("end", Type::Time),
     col("channel", Type::Text),
@@ -63,7 +63,12 @@ pub const COLUMNS: [Column; 19] = [
     col("resultant_speed", Type::Number),
     col("resultant_direction", Type::Number),
     col("n_spikes", Type::Count),
+    col("n_flagged", Type::Count),
 ];
+
+/// Index in [`COLUMNS`] of `n_flagged`, the readings the source marked bad:
+/// a records file written before it has no such column, which reads as 0.
+pub const N_FLAGGED: usize = 19;
 
 /// Writes the header line.
 pub fn write_header<W: Write>(w: &mut W) -> io::Result<()> {
@@ -99,7 +104,7 @@ pub fn write_row<W: Write>(
     let t = &r.tally;
     writeln!(
         w,
-        "{},{},{},{},{},{},{},{},{},{},{},{},{},{},{},{},{},{},{}",
+        "{},{},{},{},{},{},{},{},{},{},{},{},{},{},{},{},{},{},{},{}",
         Rfc3339(start),
         Rfc3339(end),
         channel,
@@ -119,6 +124,7 @@ pub fn write_row<W: Write>(
         S(r.resultant_speed),
         S(r.resultant_direction),
         r.spikes,
+        t.flagged,
     )
 }
 
@@ -200,5 +206,7 @@ mod tests {
         assert!(String::from_utf8(v)
             .unwrap()
             .starts_with("start,end,channel,n_possible,n_valid,mean,sd,min,max,gust,flags,"));
+        assert_eq!(COLUMNS[N_FLAGGED].name, "n_flagged");
+        assert_eq!(COLUMNS.len(), N_FLAGGED + 1, "n_flagged is the last column");
     }
 }

@@ -1038,6 +1038,15 @@ impl Declared {
             }
         };
         for (c, (&(i, decode, q), src)) in self.chan.iter().zip(&table.sources).enumerate() {
+            // A quality code not among the good ones: the source marked the
+            // reading bad, whatever its value (counted as flagged, never read).
+            if let (Some(qi), Some(quality)) = (q, &src.quality) {
+                let code = f.field(qi).trim_ascii();
+                if !quality.good.iter().any(|g| g.as_slice() == code) {
+                    readings[c] = Reading::Flagged;
+                    continue;
+                }
+            }
             let field = f.field(i).trim_ascii();
             let reading = if field.is_empty() || table.missing.iter().any(|m| m == field) {
                 Reading::Missing
@@ -1058,7 +1067,6 @@ impl Declared {
                 (Reading::Value(v), Some(conv)) => Reading::Value(conv.apply(v)),
                 (r, _) => r,
             };
-            let _ = q;
             readings[c] = reading;
         }
         Ok(t)

@@ -110,13 +110,14 @@ impl Summary {
             .max(7);
         writeln!(
             w,
-            "{:<width$} {:>10} {:>10} {:>10} {:>10} {:>10} {:>10} {:>9} {:>9}",
+            "{:<width$} {:>10} {:>10} {:>10} {:>10} {:>10} {:>10} {:>10} {:>9} {:>9}",
             "channel",
             "possible",
             "valid",
             "missing",
             "out_range",
             "rejected",
+            "flagged",
             "absent",
             "recovery",
             "screened"
@@ -124,13 +125,14 @@ impl Summary {
         for (ch, t) in cfg.channels.iter().zip(&self.recovery) {
             writeln!(
                 w,
-                "{:<width$} {:>10} {:>10} {:>10} {:>10} {:>10} {:>10} {:>9} {:>9}",
+                "{:<width$} {:>10} {:>10} {:>10} {:>10} {:>10} {:>10} {:>10} {:>9} {:>9}",
                 ch.id,
                 t.possible,
                 t.valid,
                 t.missing,
                 t.out_of_range,
                 t.rejected,
+                t.flagged,
                 t.absent(),
                 percent(t),
                 t.interval_rate()
@@ -139,7 +141,7 @@ impl Summary {
         }
         writeln!(
             w,
-            "(recovery = valid / possible samples since the first interval; screened = intervals with valid\n samples and no flag but partial or clock / possible intervals; absent = possible samples with no row)"
+            "(recovery = valid / possible samples since the first interval; screened = intervals with valid\n samples and no flag but partial or clock / possible intervals; flagged = readings the source's\n quality code marked bad; absent = possible samples with no row)"
         )
     }
 }

@@ -497,12 +497,6 @@ pub(crate) fn build(
             src.convert = (from != to).then_some(conv);
         }
         if let Some(q) = s.quality {
-            if q.span().start < usize::MAX {
-                return Err(err(
-                    q.span(),
-                    "`quality` columns are not read by this build yet".into(),
-                ));
-            }
             let good: Vec<Vec<u8>> = q
                 .get_ref()
                 .good

@@ -14,6 +14,10 @@
 //! milliseconds, and the channels of one interval holding the same samples):
 //! a row that breaks them is bad input (exit 2) naming its file and line,
 //! not a difference.
+//!
+//! A logger file without the `n_flagged` column (written before it existed)
+//! reads as 0 flagged readings on every row: no column difference is
+//! reported, and a replay row with flagged readings differs in `n_flagged`.
 
 use std::fmt;
 use std::fs::File;
@@ -25,7 +29,7 @@ use qc_core::{ChannelRecord, Flag, StationConfig, Tally, Timestamp};
 
 use crate::engine::Sink;
 use crate::limits::{self, Capped};
-use crate::records::{ulp_distance, write_row, Type, COLUMNS};
+use crate::records::{ulp_distance, write_row, Type, COLUMNS, N_FLAGGED};
 use crate::timefmt::{parse_time_any as parse_time, Rfc3339};
 
 /// One difference found.
@@ -217,8 +221,8 @@ impl LoggerFile {
             .iter()
             .map(|c| names.iter().position(|n| n == c.name))
             .collect();
-        for (c, i) in COLUMNS.iter().zip(&index) {
-            if i.is_none() {
+        for (k, (c, i)) in COLUMNS.iter().zip(&index).enumerate() {
+            if i.is_none() && k != N_FLAGGED {
                 report.add(Difference {
                     start: String::new(),
                     channel: String::new(),
@@ -272,6 +276,8 @@ impl LoggerFile {
             missing: missing.unwrap_or(0),
             out_of_range: out_of_range.unwrap_or(0),
             rejected: rejected.unwrap_or(0),
+            // No column: a file from before flagged readings, 0.
+            flagged: count(N_FLAGGED)?.unwrap_or(0),
         };
         Some((n_possible, tally, full))
     }
@@ -299,7 +305,7 @@ impl LoggerFile {
             match first {
                 None => first = Some((row, t)),
                 Some((r0, t0)) if !t0.same_samples(&t) => bail!(
-                    "{}:{}: {} {}: {} samples held (n_valid + n_missing + n_out_of_range) and {} rejected, but {} of the same interval (line {}) has {} and {}: every sample is counted once on every channel, so these counts cannot come from a station",
+                    "{}:{}: {} {}: {} samples held (n_valid + n_missing + n_out_of_range + n_flagged) and {} rejected, but {} of the same interval (line {}) has {} and {}: every sample is counted once on every channel, so these counts cannot come from a station",
                     self.path.display(),
                     row.line,
                     group.start,
@@ -455,11 +461,13 @@ impl Comparer {
 
     fn compare(&mut self, start: &str, id: &str, ours: &[&str], theirs: &LoggerRow) {
         for (k, c) in COLUMNS.iter().enumerate() {
-            let Some(j) = self.logger.index[k] else {
-                continue;
+            let b = match self.logger.index[k] {
+                Some(j) => theirs.fields.get(j).map_or("", String::as_str),
+                // A file from before the column: no flagged readings.
+                None if k == N_FLAGGED => "0",
+                None => continue,
             };
             let a = ours.get(k).copied().unwrap_or("");
-            let b = theirs.fields.get(j).map_or("", String::as_str);
             if let Some(ulps) = differs(c.ty, a, b) {
                 self.report.add(Difference {
                     start: start.to_string(),

@@ -40,6 +40,9 @@ pub enum Reading {
     Counts(i32),
     /// No reading (sensor absent, logger reported a fault).
     Missing,
+    /// The source marked this reading bad (a quality code): counted in
+    /// [`Tally::flagged`], whatever its value, and never used in statistics.
+    Flagged,
 }
 
 /// The linear map from integer quanta to engineering values: `offset + step * q`.
@@ -246,6 +249,8 @@ pub(crate) enum Class {
     Valid(i32),
     Missing,
     OutOfRange,
+    /// Marked bad by its source ([`Reading::Flagged`]).
+    Flagged,
 }
 
 const Q_LIMIT: f64 = 2_147_483_000.0;
@@ -494,6 +499,7 @@ impl Channel {
     fn classify_slow(&self, r: Reading, sentinels: &crate::Sentinels) -> Class {
         match r {
             Reading::Missing => Class::Missing,
+            Reading::Flagged => Class::Flagged,
             Reading::Counts(k) => {
                 // Range first: most readings are in range, and then the codes
                 // need checking only if one of them lies in the range too.
@@ -621,6 +627,8 @@ pub struct Tally {
     pub out_of_range: u32,
     /// Samples rejected for their timestamp (duplicate, backward, unsupported).
     pub rejected: u32,
+    /// Readings their source marked bad ([`Reading::Flagged`], a quality code).
+    pub flagged: u32,
 }
 
 impl Tally {
@@ -630,19 +638,20 @@ impl Tally {
         self.missing = self.missing.saturating_add(o.missing);
         self.out_of_range = self.out_of_range.saturating_add(o.out_of_range);
         self.rejected = self.rejected.saturating_add(o.rejected);
+        self.flagged = self.flagged.saturating_add(o.flagged);
     }
 
-    /// All samples counted.
+    /// All samples counted: valid, missing, out of range, rejected and flagged.
     pub const fn total(&self) -> u64 {
-        self.valid as u64 + self.missing as u64 + self.out_of_range as u64 + self.rejected as u64
+        self.held() + self.rejected as u64
     }
 
-    /// Samples the interval held: valid, missing and out of range (the
-    /// rejected ones came with a time the station refused). Every accepted
-    /// sample holds one reading of every channel, so this is the same on
-    /// every channel of one interval.
+    /// Samples the interval held: valid, missing, out of range and flagged
+    /// (the rejected ones came with a time the station refused). Every
+    /// accepted sample holds one reading of every channel, so this is the same
+    /// on every channel of one interval.
     pub const fn held(&self) -> u64 {
-        self.valid as u64 + self.missing as u64 + self.out_of_range as u64
+        self.valid as u64 + self.missing as u64 + self.out_of_range as u64 + self.flagged as u64
     }
 
     /// Whether `self` and `other` can be two channels' tallies of the same
@@ -651,12 +660,62 @@ impl Tally {
     pub const fn same_samples(&self, other: &Tally) -> bool {
         self.held() == other.held() && self.rejected == other.rejected
     }
+}
+
+/// One channel's sample counts in an interval, as the accumulators keep them:
+/// a [`Tally`] without the samples rejected for their timestamp, which the
+/// interval counts once for all its channels ([`crate::IntervalAcc::reject`]).
+#[derive(Clone, Copy, Debug, Default, PartialEq, Eq, Hash)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+pub(crate) struct Counts {
+    pub(crate) valid: u32,
+    pub(crate) missing: u32,
+    pub(crate) out_of_range: u32,
+    pub(crate) flagged: u32,
+}
+
+impl Counts {
+    pub(crate) const ZERO: Counts = Counts {
+        valid: 0,
+        missing: 0,
+        out_of_range: 0,
+        flagged: 0,
+    };
+
+    /// The counts as a [`Tally`], with the interval's `rejected`.
+    pub(crate) const fn tally(&self, rejected: u32) -> Tally {
+        Tally {
+            valid: self.valid,
+            missing: self.missing,
+            out_of_range: self.out_of_range,
+            rejected,
+            flagged: self.flagged,
+        }
+    }
+
+    /// The counts of `t` (its `rejected` left out).
+    pub(crate) const fn of(t: &Tally) -> Counts {
+        Counts {
+            valid: t.valid,
+            missing: t.missing,
+            out_of_range: t.out_of_range,
+            flagged: t.flagged,
+        }
+    }
+
+    fn merge(&mut self, o: &Counts) {
+        self.valid = self.valid.saturating_add(o.valid);
+        self.missing = self.missing.saturating_add(o.missing);
+        self.out_of_range = self.out_of_range.saturating_add(o.out_of_range);
+        self.flagged = self.flagged.saturating_add(o.flagged);
+    }
 
     fn count(&mut self, c: Class) {
         let slot = match c {
             Class::Valid(_) => &mut self.valid,
             Class::Missing => &mut self.missing,
             Class::OutOfRange => &mut self.out_of_range,
+            Class::Flagged => &mut self.flagged,
         };
         *slot = slot.saturating_add(1);
     }
@@ -666,8 +725,7 @@ impl Tally {
 #[derive(Clone, Copy, Debug, PartialEq, Eq, Hash)]
 #[cfg_attr(feature = "defmt", derive(defmt::Format))]
 pub struct SpeedAcc<const G: usize> {
-    /// Counts by outcome.
-    pub tally: Tally,
+    counts: Counts,
     moments: Moments,
     gust: Gust<G>,
 }
@@ -676,8 +734,7 @@ pub struct SpeedAcc<const G: usize> {
 #[derive(Clone, Copy, Debug, PartialEq, Eq, Hash)]
 #[cfg_attr(feature = "defmt", derive(defmt::Format))]
 pub struct DirectionAcc {
-    /// Counts by outcome.
-    pub tally: Tally,
+    counts: Counts,
     sums: DirectionSums,
 }
 
@@ -685,8 +742,7 @@ pub struct DirectionAcc {
 #[derive(Clone, Copy, Debug, PartialEq, Eq, Hash)]
 #[cfg_attr(feature = "defmt", derive(defmt::Format))]
 pub struct LinkedDirectionAcc {
-    /// The direction statistics.
-    pub direction: DirectionAcc,
+    direction: DirectionAcc,
     resultant: ResultantSums,
 }
 
@@ -694,8 +750,7 @@ pub struct LinkedDirectionAcc {
 #[derive(Clone, Copy, Debug, PartialEq, Eq, Hash)]
 #[cfg_attr(feature = "defmt", derive(defmt::Format))]
 pub struct ScalarAcc {
-    /// Counts by outcome.
-    pub tally: Tally,
+    counts: Counts,
     moments: Moments,
 }
 
@@ -721,27 +776,22 @@ impl<const G: usize> ChannelAcc<G> {
     /// A stand-in (an empty scalar) for array initialisation; replaced by
     /// [`ChannelAcc::new`] before use.
     pub(crate) const EMPTY: Self = ChannelAcc::Scalar(ScalarAcc {
-        tally: Tally {
-            valid: 0,
-            missing: 0,
-            out_of_range: 0,
-            rejected: 0,
-        },
+        counts: Counts::ZERO,
         moments: Moments::new(),
     });
 
     /// An empty accumulator for `ch`.
     pub(crate) fn new(ch: &Channel) -> Self {
-        let tally = Tally::default();
+        let counts = Counts::ZERO;
         match ch.cfg.kind {
             Kind::Speed => ChannelAcc::Speed(SpeedAcc {
-                tally,
+                counts,
                 moments: Moments::new(),
                 gust: Gust::new(),
             }),
             Kind::Direction => {
                 let direction = DirectionAcc {
-                    tally,
+                    counts,
                     sums: DirectionSums::new(),
                 };
                 match ch.cfg.speed_channel {
@@ -753,35 +803,21 @@ impl<const G: usize> ChannelAcc<G> {
                 }
             }
             Kind::Scalar => ChannelAcc::Scalar(ScalarAcc {
-                tally,
+                counts,
                 moments: Moments::new(),
             }),
         }
     }
 
-    /// Counts by outcome.
-    pub fn tally(&self) -> &Tally {
+    /// Counts by outcome, without the samples rejected for their timestamp
+    /// (the interval counts those: [`crate::IntervalAcc::tally`]).
+    pub(crate) const fn counts(&self) -> &Counts {
         match self {
-            ChannelAcc::Speed(a) => &a.tally,
-            ChannelAcc::Direction(a) => &a.tally,
-            ChannelAcc::LinkedDirection(a) => &a.direction.tally,
-            ChannelAcc::Scalar(a) => &a.tally,
+            ChannelAcc::Speed(a) => &a.counts,
+            ChannelAcc::Direction(a) => &a.counts,
+            ChannelAcc::LinkedDirection(a) => &a.direction.counts,
+            ChannelAcc::Scalar(a) => &a.counts,
         }
-    }
-
-    fn tally_mut(&mut self) -> &mut Tally {
-        match self {
-            ChannelAcc::Speed(a) => &mut a.tally,
-            ChannelAcc::Direction(a) => &mut a.tally,
-            ChannelAcc::LinkedDirection(a) => &mut a.direction.tally,
-            ChannelAcc::Scalar(a) => &mut a.tally,
-        }
-    }
-
-    /// Counts one sample rejected for its timestamp.
-    pub(crate) fn reject(&mut self) {
-        let t = self.tally_mut();
-        t.rejected = t.rejected.saturating_add(1);
     }
 
     /// Breaks the gust run (a gap in time).
@@ -796,21 +832,21 @@ impl<const G: usize> ChannelAcc<G> {
     pub(crate) fn merge(&mut self, later: &Self, w: usize, joined: bool) {
         match (self, later) {
             (ChannelAcc::Speed(a), ChannelAcc::Speed(b)) => {
-                a.tally.merge(&b.tally);
+                a.counts.merge(&b.counts);
                 a.moments.merge(&b.moments);
                 a.gust.merge(&b.gust, w, joined);
             }
             (ChannelAcc::Direction(a), ChannelAcc::Direction(b)) => {
-                a.tally.merge(&b.tally);
+                a.counts.merge(&b.counts);
                 a.sums.merge(&b.sums);
             }
             (ChannelAcc::LinkedDirection(a), ChannelAcc::LinkedDirection(b)) => {
-                a.direction.tally.merge(&b.direction.tally);
+                a.direction.counts.merge(&b.direction.counts);
                 a.direction.sums.merge(&b.direction.sums);
                 a.resultant.merge(&b.resultant);
             }
             (ChannelAcc::Scalar(a), ChannelAcc::Scalar(b)) => {
-                a.tally.merge(&b.tally);
+                a.counts.merge(&b.counts);
                 a.moments.merge(&b.moments);
             }
             // Accumulators come from the same layout, so kinds always match.
@@ -819,15 +855,18 @@ impl<const G: usize> ChannelAcc<G> {
     }
 
     /// Finishes the statistics. `speed` is the linked speed channel's config
-    /// (for the resultant's units).
+    /// (for the resultant's units); `rejected` the interval's samples rejected
+    /// for their timestamp.
     pub(crate) fn finish(
         &self,
         ch: &Channel,
         n_possible: u32,
         speed: Option<&Channel>,
+        rejected: u32,
     ) -> ChannelRecord {
-        let mut r = ChannelRecord::empty(ch.cfg.kind, n_possible, *self.tally());
-        let n = self.tally().valid;
+        let counts = self.counts();
+        let mut r = ChannelRecord::empty(ch.cfg.kind, n_possible, counts.tally(rejected));
+        let n = counts.valid;
         let (scale, inv) = (ch.cfg.scale, ch.inv_step);
         match self {
             ChannelAcc::Speed(SpeedAcc { moments, .. })
@@ -976,7 +1015,7 @@ fn push_speed<const G: usize>(
         return;
     };
     let class = ch.classify_linear(*r, codes);
-    a.tally.count(class);
+    a.counts.count(class);
     match class {
         Class::Valid(q) => {
             a.moments.push(q);
@@ -1008,7 +1047,7 @@ fn push_scalar<const G: usize>(
         return;
     };
     let class = ch.classify_linear(*r, codes);
-    a.tally.count(class);
+    a.counts.count(class);
     match class {
         Class::Valid(q) => {
             a.moments.push(q);
@@ -1030,8 +1069,8 @@ fn push_direction<const G: usize>(
     codes: &crate::Sentinels,
 ) -> Option<(i32, i32)> {
     let (tally, sums) = match &mut slot.acc {
-        ChannelAcc::Direction(a) => (&mut a.tally, &mut a.sums),
-        ChannelAcc::LinkedDirection(a) => (&mut a.direction.tally, &mut a.direction.sums),
+        ChannelAcc::Direction(a) => (&mut a.counts, &mut a.sums),
+        ChannelAcc::LinkedDirection(a) => (&mut a.direction.counts, &mut a.direction.sums),
         _ => return None,
     };
     let class = ch.classify_direction(*r, codes);
@@ -1123,6 +1162,7 @@ impl ChannelState {
                 missing: 0,
                 out_of_range: 0,
                 rejected: 0,
+                flagged: 0,
             },
             spikes: 0,
             moments: Moments::new(),
@@ -1134,30 +1174,28 @@ impl ChannelState {
 }
 
 impl<const G: usize> Slot<G> {
-    /// The slot's end state (see [`ChannelState`]).
-    pub(crate) fn state(&self) -> ChannelState {
+    /// The slot's end state (see [`ChannelState`]), with the interval's
+    /// `rejected`.
+    pub(crate) fn state(&self, rejected: u32) -> ChannelState {
         let mut s = ChannelState::empty(StateForm::Scalar);
         s.spikes = self.spikes.count();
+        s.tally = self.acc.counts().tally(rejected);
         match &self.acc {
             ChannelAcc::Speed(a) => {
                 s.form = StateForm::Speed;
-                s.tally = a.tally;
                 s.moments = a.moments;
                 s.gust_best = a.gust.best();
             }
             ChannelAcc::Direction(a) => {
                 s.form = StateForm::Direction;
-                s.tally = a.tally;
                 s.sums = a.sums;
             }
             ChannelAcc::LinkedDirection(a) => {
                 s.form = StateForm::LinkedDirection;
-                s.tally = a.direction.tally;
                 s.sums = a.direction.sums;
                 s.resultant = a.resultant;
             }
             ChannelAcc::Scalar(a) => {
-                s.tally = a.tally;
                 s.moments = a.moments;
             }
         }
@@ -1169,26 +1207,26 @@ impl<const G: usize> Slot<G> {
         if StateForm::of(&ch.cfg) != s.form {
             return None;
         }
-        let tally = s.tally;
+        let counts = Counts::of(&s.tally);
         let acc = match s.form {
             StateForm::Speed => ChannelAcc::Speed(SpeedAcc {
-                tally,
+                counts,
                 moments: s.moments,
                 gust: Gust::with_best(s.gust_best),
             }),
             StateForm::Direction => ChannelAcc::Direction(DirectionAcc {
-                tally,
+                counts,
                 sums: s.sums,
             }),
             StateForm::LinkedDirection => ChannelAcc::LinkedDirection(LinkedDirectionAcc {
                 direction: DirectionAcc {
-                    tally,
+                    counts,
                     sums: s.sums,
                 },
                 resultant: s.resultant,
             }),
             StateForm::Scalar => ChannelAcc::Scalar(ScalarAcc {
-                tally,
+                counts,
                 moments: s.moments,
             }),
         };

@@ -4,7 +4,8 @@
 //! sensors into interval statistics (usually 10 minutes): mean, standard
 //! deviation, min, max, gust, turbulence intensity; for direction the unit-vector
 //! mean, Yamartino sigma-theta and the speed-weighted resultant; and how many
-//! samples were possible, valid, missing, out of range or rejected. It runs the
+//! samples were possible, valid, missing, out of range, rejected or flagged bad
+//! by their source. It runs the
 //! same on a Cortex-M0 logger and on a PC, with the same bits in every result.
 //!
 //! ```
@@ -79,15 +80,18 @@
 //! | [`Recovery`] (running recovery of one channel) | 88 |
 //! | [`screen::Spikes`] (spike test, one channel, one interval) | 16 |
 //! | [`Screener<1>`] (flat-line history: 32 per channel, 8 per station) | 40 |
-//! | [`IntervalAcc<8, 3>`] (open interval, 8 channels, with spikes and flags) | 936 |
+//! | [`IntervalAcc<8, 3>`] (open interval, 8 channels, with spikes and flags) | 944 |
 //! | [`Layout<8>`] (validated configuration of 8 channels) | 2,384 |
-//! | [`Station<8, 3>`] (all of the above for 8 channels, owning its layout) | 4,392 |
-//! | `Station<8, 3, &Layout<8>>` (the running state, the layout elsewhere) | 2,008 on 32-bit targets, 2,016 on 64-bit |
-//! | `Sampler<8, 3, &Layout<8>>` (a state logger's running state: no recovery or screening history) | 1,016 on 32-bit targets, 1,024 on 64-bit |
+//! | [`Station<8, 3>`] (all of the above for 8 channels, owning its layout) | 4,400 |
+//! | `Station<8, 3, &Layout<8>>` (the running state, the layout elsewhere) | 2,016 on 32-bit targets, 2,024 on 64-bit |
+//! | `Sampler<8, 3, &Layout<8>>` (a state logger's running state: no recovery or screening history) | 1,024 on 32-bit targets, 1,032 on 64-bit |
 //!
 //! Each gust sample beyond 3 adds 8 bytes to a speed channel (4 in the running
-//! window, 4 in the head kept for exact merging). The sizes are asserted in
-//! this crate's tests.
+//! window, 4 in the head kept for exact merging). A channel's accumulator
+//! counts its valid, missing, out-of-range and flagged samples; the samples
+//! rejected for their timestamp are rejected on every channel alike, so the
+//! interval counts them once ([`IntervalAcc::reject`]) and each channel's
+//! [`Tally`] shows that count. The sizes are asserted in this crate's tests.
 //!
 //! # Finishing on the logger, or on a PC
 //!
@@ -165,19 +169,19 @@ mod tests {
         assert_eq!(size_of::<Recovery>(), 88);
         assert_eq!(size_of::<screen::Spikes>(), 16);
         assert_eq!(size_of::<Screener<1>>(), 40);
-        assert_eq!(size_of::<IntervalAcc<8, 3>>(), 936);
+        assert_eq!(size_of::<IntervalAcc<8, 3>>(), 944);
         assert_eq!(size_of::<Layout<8>>(), 2384);
-        assert_eq!(size_of::<Station<8, 3>>(), 4392);
+        assert_eq!(size_of::<Station<8, 3>>(), 4400);
         // With the layout by reference (in flash): the running state alone. On a
         // 32-bit target the reference is 4 bytes, so 4 less (checked there by
         // the firmware's budget program).
-        assert_eq!(size_of::<Station<8, 3, &'static Layout<8>>>(), 2016);
+        assert_eq!(size_of::<Station<8, 3, &'static Layout<8>>>(), 2024);
         // The issue's budgets: speed with a 3-sample window <= 96, direction <= 64,
         // 8 channels' running state within 2 KiB.
         assert!(size_of::<Station<8, 3, &'static Layout<8>>>() <= 2048);
         assert!(size_of::<SpeedAcc<3>>() <= 96);
         assert!(size_of::<DirectionAcc>() <= 64);
         // A state logger's running state: the sampling half alone.
-        assert_eq!(size_of::<Sampler<8, 3, &'static Layout<8>>>(), 1024);
+        assert_eq!(size_of::<Sampler<8, 3, &'static Layout<8>>>(), 1032);
     }
 }

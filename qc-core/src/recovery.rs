@@ -22,6 +22,8 @@ pub struct Totals {
     pub out_of_range: u64,
     /// Samples rejected for their timestamp.
     pub rejected: u64,
+    /// Readings their source marked bad ([`crate::Reading::Flagged`]).
+    pub flagged: u64,
     /// Intervals in the span (possible intervals).
     pub intervals: u64,
     /// Intervals with valid samples that passed screening
@@ -40,13 +42,15 @@ impl Totals {
         (self.intervals > 0).then(|| self.passed as f64 / self.intervals as f64)
     }
 
-    /// Possible samples never recorded at all: possible minus valid, missing and
-    /// out of range (0 if the record held more samples than the nominal rate).
+    /// Possible samples never recorded at all: possible minus valid, missing,
+    /// out of range and flagged (0 if the record held more samples than the
+    /// nominal rate).
     pub const fn absent(&self) -> u64 {
         self.possible
             .saturating_sub(self.valid)
             .saturating_sub(self.missing)
             .saturating_sub(self.out_of_range)
+            .saturating_sub(self.flagged)
     }
 
     /// Adds one interval's tally; `passed` if it passed screening.
@@ -58,6 +62,7 @@ impl Totals {
         self.missing += u64::from(t.missing);
         self.out_of_range += u64::from(t.out_of_range);
         self.rejected += u64::from(t.rejected);
+        self.flagged += u64::from(t.flagged);
     }
 
     /// Adds all counts of `other`.
@@ -67,6 +72,7 @@ impl Totals {
         self.missing += o.missing;
         self.out_of_range += o.out_of_range;
         self.rejected += o.rejected;
+        self.flagged += o.flagged;
         self.intervals += o.intervals;
         self.passed += o.passed;
     }
@@ -87,6 +93,7 @@ struct MonthTotals {
     valid: u32,
     missing: u32,
     out_of_range: u32,
+    flagged: u32,
     intervals: u32,
     passed: u32,
 }
@@ -98,6 +105,7 @@ impl MonthTotals {
         valid: 0,
         missing: 0,
         out_of_range: 0,
+        flagged: 0,
         intervals: 0,
         passed: 0,
     };
@@ -110,6 +118,7 @@ impl MonthTotals {
         self.missing = self.missing.saturating_add(t.missing);
         self.out_of_range = self.out_of_range.saturating_add(t.out_of_range);
         self.rejected = self.rejected.saturating_add(t.rejected);
+        self.flagged = self.flagged.saturating_add(t.flagged);
     }
 
     fn add_empty(&mut self, intervals: u64, possible: u32) {
@@ -125,6 +134,66 @@ impl MonthTotals {
             missing: self.missing as u64,
             out_of_range: self.out_of_range as u64,
             rejected: self.rejected as u64,
+            flagged: self.flagged as u64,
+            intervals: self.intervals as u64,
+            passed: self.passed as u64,
+        }
+    }
+}
+
+/// Totals since start as [`Recovery`] keeps them: the sample counts that a
+/// fast logger can push past 2^32 in 64 bits; the samples rejected for their
+/// timestamp and the interval counts in 32 bits, saturating (2^32 intervals
+/// of 1 s are 136 years), so that a channel's recovery stays 88 bytes. The
+/// month key sits here too, in what would otherwise be padding.
+#[derive(Clone, Copy, Debug, Default, PartialEq, Eq, Hash)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+struct SinceStart {
+    possible: u64,
+    valid: u64,
+    missing: u64,
+    out_of_range: u64,
+    flagged: u64,
+    rejected: u32,
+    intervals: u32,
+    passed: u32,
+    /// `year * 12 + month - 1` of the month [`Recovery::this_month`] counts,
+    /// plus 1; 0 before any.
+    month_key: u32,
+}
+
+impl SinceStart {
+    const ZERO: SinceStart = SinceStart {
+        possible: 0,
+        valid: 0,
+        missing: 0,
+        out_of_range: 0,
+        flagged: 0,
+        rejected: 0,
+        intervals: 0,
+        passed: 0,
+        month_key: 0,
+    };
+
+    fn add(&mut self, possible: u32, t: &Tally, passed: bool) {
+        self.intervals = self.intervals.saturating_add(1);
+        self.passed = self.passed.saturating_add(u32::from(passed));
+        self.possible += u64::from(possible);
+        self.valid += u64::from(t.valid);
+        self.missing += u64::from(t.missing);
+        self.out_of_range += u64::from(t.out_of_range);
+        self.flagged += u64::from(t.flagged);
+        self.rejected = self.rejected.saturating_add(t.rejected);
+    }
+
+    const fn totals(&self) -> Totals {
+        Totals {
+            possible: self.possible,
+            valid: self.valid,
+            missing: self.missing,
+            out_of_range: self.out_of_range,
+            rejected: self.rejected as u64,
+            flagged: self.flagged,
             intervals: self.intervals as u64,
             passed: self.passed as u64,
         }
@@ -136,29 +205,23 @@ impl MonthTotals {
 #[derive(Clone, Copy, Debug, Default, PartialEq, Eq, Hash)]
 #[cfg_attr(feature = "defmt", derive(defmt::Format))]
 pub struct Recovery {
-    /// Since the first interval.
-    pub since_start: Totals,
+    since: SinceStart,
     month_totals: MonthTotals,
-    /// `year * 12 + month - 1` of the month counted, plus 1; 0 before any.
-    month_key: u32,
 }
 
 impl Recovery {
     /// Nothing counted yet.
     pub const fn new() -> Self {
         Recovery {
-            since_start: Totals {
-                possible: 0,
-                valid: 0,
-                missing: 0,
-                out_of_range: 0,
-                rejected: 0,
-                intervals: 0,
-                passed: 0,
-            },
+            since: SinceStart::ZERO,
             month_totals: MonthTotals::ZERO,
-            month_key: 0,
         }
+    }
+
+    /// Since the first interval. The samples rejected for their timestamp
+    /// and the interval counts saturate at `u32::MAX`.
+    pub const fn since_start(&self) -> Totals {
+        self.since.totals()
     }
 
     /// For the calendar month of the latest interval ([`Recovery::month`]).
@@ -168,7 +231,7 @@ impl Recovery {
 
     /// The month [`Recovery::this_month`] counts, if any interval was added.
     pub const fn month(&self) -> Option<Month> {
-        match self.month_key {
+        match self.since.month_key {
             0 => None,
             k => {
                 let k = k - 1;
@@ -183,8 +246,8 @@ impl Recovery {
     fn enter_month(&mut self, m: Month) {
         // Supported years are 0 to 9999 (crate::Timestamp).
         let key = (m.year.max(0) as u32) * 12 + u32::from(m.month.saturating_sub(1)) + 1;
-        if self.month_key != key {
-            self.month_key = key;
+        if self.since.month_key != key {
+            self.since.month_key = key;
             self.month_totals = MonthTotals::ZERO;
         }
     }
@@ -197,7 +260,7 @@ impl Recovery {
     /// [`Recovery::add_interval`] for a caller that already knows the month of
     /// the interval (splitting a timestamp into a date costs 64-bit divisions).
     pub fn add_interval_in(&mut self, month: Month, possible: u32, t: &Tally, passed: bool) {
-        self.since_start.add(possible, t, passed);
+        self.since.add(possible, t, passed);
         self.enter_month(month);
         self.month_totals.add(possible, t, passed);
     }
@@ -208,8 +271,9 @@ impl Recovery {
         if count == 0 {
             return;
         }
-        self.since_start.possible += count * u64::from(possible);
-        self.since_start.intervals += count;
+        self.since.possible += count * u64::from(possible);
+        let n = u32::try_from(count).unwrap_or(u32::MAX);
+        self.since.intervals = self.since.intervals.saturating_add(n);
         let last = first.millis() + (count as i64 - 1) * interval_ms;
         let month = Timestamp::from_millis(last).month();
         let from = first.millis().max(month.start().millis());
@@ -250,7 +314,7 @@ mod tests {
         // From 2024-01-31 23:10 to 2024-02-01 00:50: 5 intervals in January, 6 in February.
         let first = Timestamp::from_millis(at(2024, 1, 31, 23).millis() + 600_000);
         r.add_gap(first, 11, 600_000, 600);
-        assert_eq!(r.since_start.possible, 12 * 600);
+        assert_eq!(r.since_start().possible, 12 * 600);
         assert_eq!(r.this_month().possible, 6 * 600);
         assert_eq!(r.month().unwrap().month, 2);
         r.add_interval(at(2024, 2, 1, 1), 600, &tally, false);

@@ -261,9 +261,7 @@ fn outside(v: Stat, range: Option<(f64, f64)>) -> bool {
 pub(crate) fn interval_flags(r: &ChannelRecord, s: &Screen, spikes: u32) -> Flags {
     let mut f = Flags::EMPTY;
     let t = r.tally;
-    if u64::from(t.valid) + u64::from(t.missing) + u64::from(t.out_of_range)
-        < u64::from(r.n_possible)
-    {
+    if t.held() < u64::from(r.n_possible) {
         f.insert(Flag::Partial);
     }
     if t.rejected > 0 {
@@ -728,7 +726,7 @@ mod tests {
         assert!(got[1].flags.contains(Flag::LowRecovery) && got[1].flags.contains(Flag::Partial));
         assert!(got[2].flags.contains(Flag::Clock) && !got[2].flags.contains(Flag::Partial));
         // Recovery twice: samples, and intervals that pass screening.
-        let rec = st.recovery()[0].since_start;
+        let rec = st.recovery()[0].since_start();
         assert_eq!((rec.valid, rec.possible), (54 + 53 + 60, 180));
         assert_eq!((rec.passed, rec.intervals), (2, 3));
     }

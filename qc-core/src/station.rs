@@ -72,7 +72,7 @@ impl StationConfig {
     /// Whether `n_possible` and `tally` can be the counts of one channel's
     /// record of one interval of a station of these settings, as the station
     /// counts: `n_possible` is always the samples per interval, and the
-    /// samples an interval holds (valid, missing and out of range, see
+    /// samples an interval holds (valid, missing, out of range and flagged, see
     /// [`Tally::held`]) have strictly increasing millisecond times inside it,
     /// so there are at most as many as the interval has milliseconds.
     /// Rejected samples have no such bound.
@@ -540,7 +540,7 @@ impl<const C: usize> Layout<C> {
             .speed_channel
             .and_then(|s| self.channels.get(usize::from(s)));
         let slot = acc.slots.get(ch)?;
-        let mut r = slot.acc.finish(channel, self.samples, speed);
+        let mut r = slot.acc.finish(channel, self.samples, speed, acc.rejected);
         r.spikes = slot.spikes.count();
         r.flags = Flags::from_bits(
             interval_flags(&r, &channel.config().screen, r.spikes).bits() | acc.flags[ch].bits(),
@@ -555,7 +555,7 @@ impl<const C: usize> Layout<C> {
             self.finish(acc, i).unwrap_or_else(|| {
                 acc.slots[i]
                     .acc
-                    .finish(&self.channels[i], self.samples, None)
+                    .finish(&self.channels[i], self.samples, None, acc.rejected)
             })
         })
     }
@@ -587,6 +587,12 @@ pub struct IntervalAcc<const C: usize, const G: usize> {
     last: i64,
     slots: [Slot<G>; C],
     flags: [Flags; C],
+    /// Samples rejected for their timestamp: a rejected sample is rejected on
+    /// every channel alike, so the interval counts it once.
+    rejected: u32,
+    /// Whether [`IntervalAcc::set_state`] has set a channel's state (and with
+    /// it `rejected`).
+    from_states: bool,
 }
 
 impl<const C: usize, const G: usize> IntervalAcc<C, G> {
@@ -598,6 +604,8 @@ impl<const C: usize, const G: usize> IntervalAcc<C, G> {
             last: NONE_MS,
             slots: core::array::from_fn(|i| Slot::new(&layout.channels[i])),
             flags: [Flags::EMPTY; C],
+            rejected: 0,
+            from_states: false,
         }
     }
 
@@ -610,6 +618,8 @@ impl<const C: usize, const G: usize> IntervalAcc<C, G> {
             last: NONE_MS,
             slots: [Slot::EMPTY; C],
             flags: [Flags::EMPTY; C],
+            rejected: 0,
+            from_states: false,
         }
     }
 
@@ -640,10 +650,25 @@ impl<const C: usize, const G: usize> IntervalAcc<C, G> {
         self.slots.get(ch).map(|s| &s.acc)
     }
 
+    /// The sample counts of channel `ch` by outcome, if `ch < C` (the
+    /// samples rejected for their timestamp are the interval's, the same on
+    /// every channel).
+    pub fn tally(&self, ch: usize) -> Option<Tally> {
+        self.slots
+            .get(ch)
+            .map(|s| s.acc.counts().tally(self.rejected))
+    }
+
+    /// Samples rejected for their timestamp while this interval was open.
+    pub const fn rejected(&self) -> u32 {
+        self.rejected
+    }
+
     /// The end state of channel `ch`, to send to a PC that finishes it
-    /// ([`crate::wire::encode_state`]); `None` if `ch >= C`.
+    /// ([`crate::wire::encode_state`]); `None` if `ch >= C`. Its tally
+    /// carries the interval's rejected samples.
     pub fn state(&self, ch: usize) -> Option<ChannelState> {
-        self.slots.get(ch).map(Slot::state)
+        self.slots.get(ch).map(|s| s.state(self.rejected))
     }
 
     /// Puts a channel's end state, received from a logger, into this
@@ -651,6 +676,11 @@ impl<const C: usize, const G: usize> IntervalAcc<C, G> {
     /// exactly as the logger's own interval would; it cannot be merged
     /// ([`IntervalAcc::merge`] needs the gust window and spike chain, which a
     /// state leaves out).
+    ///
+    /// The interval counts samples rejected for their timestamp once for all
+    /// channels: the first state set gives the count, and a later state of
+    /// another count is refused ([`StateError::RejectedDiffers`]), leaving the
+    /// interval as it was.
     pub fn set_state(
         &mut self,
         layout: &Layout<C>,
@@ -659,7 +689,17 @@ impl<const C: usize, const G: usize> IntervalAcc<C, G> {
     ) -> Result<(), StateError> {
         let channel = layout.channels.get(ch).ok_or(StateError::NoSuchChannel)?;
         let slot = self.slots.get_mut(ch).ok_or(StateError::NoSuchChannel)?;
-        *slot = Slot::from_state(channel, state).ok_or(StateError::WrongForm)?;
+        let new = Slot::from_state(channel, state).ok_or(StateError::WrongForm)?;
+        let rejected = state.tally().rejected;
+        if self.from_states && self.rejected != rejected {
+            return Err(StateError::RejectedDiffers {
+                interval: self.rejected,
+                state: rejected,
+            });
+        }
+        *slot = new;
+        self.rejected = rejected;
+        self.from_states = true;
         Ok(())
     }
 
@@ -711,6 +751,8 @@ impl<const C: usize, const G: usize> IntervalAcc<C, G> {
             *slot = Slot::new(ch);
         }
         self.flags = [Flags::EMPTY; C];
+        self.rejected = 0;
+        self.from_states = false;
     }
 
     /// Clears the flags set by [`Layout::screen`] (a piece screened on its own
@@ -719,11 +761,10 @@ impl<const C: usize, const G: usize> IntervalAcc<C, G> {
         self.flags = [Flags::EMPTY; C];
     }
 
-    /// Counts one sample rejected for its timestamp, on every channel.
+    /// Counts one sample rejected for its timestamp (on every channel: the
+    /// interval counts it once, and each channel's tally shows it).
     pub fn reject(&mut self) {
-        for s in &mut self.slots {
-            s.acc.reject();
-        }
+        self.rejected = self.rejected.saturating_add(1);
     }
 
     /// Merges `later`, a piece of the same interval whose samples all follow this
@@ -747,6 +788,7 @@ impl<const C: usize, const G: usize> IntervalAcc<C, G> {
             a.spikes.merge(&b.spikes, ch.spike_lim(), circular, joined);
         }
         self.clear_flags();
+        self.rejected = self.rejected.saturating_add(later.rejected);
         if self.first == NONE_MS {
             self.first = later.first;
         }
@@ -764,6 +806,15 @@ pub enum StateError {
     NoSuchChannel,
     /// The state is not of the channel's form (kind, or linked speed).
     WrongForm,
+    /// The state's count of samples rejected for their timestamp is not the
+    /// one another channel's state already set for this interval (a rejected
+    /// sample is rejected on every channel alike).
+    RejectedDiffers {
+        /// The count already set.
+        interval: u32,
+        /// The count of the state refused.
+        state: u32,
+    },
 }
 
 impl core::fmt::Display for StateError {
@@ -772,6 +823,12 @@ impl core::fmt::Display for StateError {
             StateError::NoSuchChannel => "no channel of that index in the station",
             StateError::WrongForm => {
                 "the state is not of the channel's kind (speed, direction with or without a linked speed, scalar)"
+            }
+            StateError::RejectedDiffers { interval, state } => {
+                return write!(
+                    f,
+                    "the state counts {state} samples rejected for their timestamp, another channel of the same interval {interval}"
+                );
             }
         })
     }
@@ -1360,7 +1417,7 @@ mod tests {
         // Only the supported ones count (years 0 to 9999): at -1, 0 and
         // 2,833,000 (1969, 1970, 2023) the one-interval gap and the interval;
         // the 2^40-interval gaps reach past the year 9999 and count nothing.
-        assert_eq!(f.recovery()[0].since_start.intervals, 6);
+        assert_eq!(f.recovery()[0].since_start().intervals, 6);
     }
 }
 
@@ -1377,6 +1434,7 @@ mod tally_tests {
             missing,
             out_of_range,
             rejected,
+            flagged: 0,
         };
         // A full interval, a partial one, and one with a sample more than
         // the nominal rate gives (a fast clock): all as a station counts.
@@ -1407,8 +1465,32 @@ mod tally_tests {
                 expected: 600
             })
         );
+        // Flagged readings are held samples too.
+        let flagged = Tally {
+            flagged: 2,
+            ..t(599_998, 0, 0, 0)
+        };
+        assert_eq!(flagged.held(), 600_000);
+        assert_eq!(flagged.total(), 600_000);
+        assert_eq!(cfg.check_tally(600, &flagged), Ok(()));
+        let over = Tally {
+            flagged: 3,
+            ..t(599_998, 0, 0, 7)
+        };
+        assert_eq!(over.total(), 600_008);
+        assert_eq!(
+            cfg.check_tally(600, &over),
+            Err(TallyError::TooManySamples {
+                held: 600_001,
+                most: 600_000
+            })
+        );
         // Two channels of one interval hold the same samples.
         assert!(t(590, 10, 0, 2).same_samples(&t(580, 12, 8, 2)));
+        assert!(t(590, 10, 0, 2).same_samples(&Tally {
+            flagged: 10,
+            ..t(590, 0, 0, 2)
+        }));
         assert!(!t(590, 10, 0, 2).same_samples(&t(591, 10, 0, 2)));
         assert!(!t(590, 10, 0, 2).same_samples(&t(590, 10, 0, 3)));
     }
@@ -1453,5 +1535,153 @@ mod tally_tests {
         }
         station.close(&mut check);
         assert!(seen > 10);
+    }
+}
+
+#[cfg(test)]
+mod flagged_tests {
+    use crate::{
+        Absent, ChannelConfig, Event, IntervalAcc, Layout, Reading, Stat, StateError, Station,
+        StationConfig, Tally, Timestamp,
+    };
+
+    const T0: i64 = 1_700_000_400_000;
+
+    fn layout() -> Layout<3> {
+        Layout::new::<3>(
+            StationConfig::ten_minute_1hz(),
+            &[
+                ChannelConfig::speed(0.1),
+                ChannelConfig::direction().with_speed_channel(0),
+                ChannelConfig::scalar(0.1).with_range(-50.0, 50.0),
+            ],
+        )
+        .unwrap()
+    }
+
+    /// The records of one interval of `rows` (1 s apart), closed by a sample
+    /// in the next interval.
+    fn records(rows: &[[Reading; 3]]) -> [crate::ChannelRecord; 3] {
+        let mut st: Station<3, 3> = Station::new(layout());
+        let mut out = None;
+        let mut keep = |e: Event<'_, 3, 3>| {
+            if let Event::Closed(_, r) = e {
+                out.get_or_insert(*r);
+            }
+        };
+        for (i, r) in rows.iter().enumerate() {
+            st.push(Timestamp::from_millis(T0 + 1000 * i as i64), r, &mut keep);
+        }
+        st.close(&mut keep);
+        out.unwrap()
+    }
+
+    #[test]
+    fn flagged_readings_are_counted_and_never_in_statistics() {
+        use Reading::{Flagged, Missing, Value};
+        // Speeds 9, 9, (flagged 30), 9: with a 3-sample gust window the
+        // flagged reading breaks the run as a missing one does, so no full
+        // window (were it skipped, 9, 9, 9 would make a gust of 9).
+        let v = |s: f64, d: f64, x: f64| [Value(s), Value(d), Value(x)];
+        let rows = [
+            v(9.0, 90.0, 1.0),
+            v(9.0, 90.0, 2.0),
+            [Flagged, Flagged, Flagged],
+            v(9.0, 90.0, 3.0),
+            [Value(9.0), Flagged, Value(4.0)],
+            v(9.0, 90.0, 5.0),
+        ];
+        let r = records(&rows);
+        assert_eq!(
+            r[0].tally,
+            Tally {
+                valid: 5,
+                flagged: 1,
+                ..Tally::default()
+            }
+        );
+        assert_eq!(r[1].tally.flagged, 2);
+        assert_eq!(r[1].tally.valid, 4);
+        assert_eq!(r[0].mean, Stat::Value(9.0));
+        assert_eq!(r[0].gust, Stat::Value(9.0));
+        // The mean of 1, 2, 3, 4, 5: the flagged reading is not in it.
+        assert_eq!(r[2].mean, Stat::Value(3.0));
+        assert_eq!(r[2].max, Stat::Value(5.0));
+        // Only 9, 9, F, 9: no full gust window.
+        let r = records(&rows[..4]);
+        assert_eq!(r[0].gust, Stat::Absent(Absent::NoFullWindow));
+        // Flagged whatever the value: a flagged reading is never valid.
+        // The same rows with the flagged readings missing: every statistic
+        // equal, missing and flagged swapped.
+        let as_missing: Vec<[Reading; 3]> = rows
+            .iter()
+            .map(|r| r.map(|x| if x == Flagged { Missing } else { x }))
+            .collect();
+        let (f, m) = (records(&rows), records(&as_missing));
+        for (a, b) in f.iter().zip(&m) {
+            assert_eq!(a.tally.missing, b.tally.flagged);
+            assert_eq!(a.tally.flagged, b.tally.missing);
+            let swapped = Tally {
+                missing: a.tally.flagged,
+                flagged: a.tally.missing,
+                ..a.tally
+            };
+            assert_eq!(
+                crate::ChannelRecord {
+                    tally: swapped,
+                    ..*a
+                },
+                *b
+            );
+        }
+    }
+
+    #[test]
+    fn rejected_is_the_intervals_and_states_must_agree_on_it() {
+        let layout = layout();
+        let mut acc: IntervalAcc<3, 3> = IntervalAcc::new(&layout, 0);
+        let r = [Reading::Value(5.0), Reading::Flagged, Reading::Missing];
+        acc.push(&layout, Timestamp::from_millis(0), &r);
+        acc.reject();
+        acc.reject();
+        for ch in 0..3 {
+            assert_eq!(acc.tally(ch).unwrap().rejected, 2);
+            assert_eq!(acc.state(ch).unwrap().tally().rejected, 2);
+        }
+        assert_eq!(acc.tally(1).unwrap().flagged, 1);
+        assert_eq!(acc.tally(3), None);
+        // Merging pieces adds the interval's rejected once.
+        let mut twice = acc;
+        twice.merge(&layout, &acc);
+        assert_eq!(twice.tally(0).unwrap().rejected, 4);
+        assert_eq!(twice.tally(1).unwrap().flagged, 2);
+        // States put back: the first sets the count, a different one is refused.
+        let mut back: IntervalAcc<3, 3> = IntervalAcc::new(&layout, 0);
+        back.set_state(&layout, 0, &acc.state(0).unwrap()).unwrap();
+        let mut other = acc;
+        other.reject();
+        let before = back;
+        assert_eq!(
+            back.set_state(&layout, 1, &other.state(1).unwrap()),
+            Err(StateError::RejectedDiffers {
+                interval: 2,
+                state: 3
+            })
+        );
+        assert_eq!(
+            back, before,
+            "a refused state leaves the interval as it was"
+        );
+        back.set_state(&layout, 1, &acc.state(1).unwrap()).unwrap();
+        back.set_state(&layout, 2, &acc.state(2).unwrap()).unwrap();
+        for ch in 0..3 {
+            assert_eq!(back.tally(ch), acc.tally(ch));
+            assert_eq!(layout.finish(&back, ch), layout.finish(&acc, ch));
+        }
+        // A reset interval takes a new count.
+        back.reset(&layout, 1);
+        back.set_state(&layout, 0, &other.state(0).unwrap())
+            .unwrap();
+        assert_eq!(back.rejected(), 3);
     }
 }

@@ -58,12 +58,12 @@
 //!
 //! Every frame is [`FRAME_LEN`] = 128 bytes, so frames never straddle a flash
 //! page of 256, 512 or 4096 bytes when the log starts on a page boundary.
-//! Version 2 ([`RECORD_VERSION`]), what this code writes:
+//! Version 3 ([`RECORD_VERSION`]), what this code writes:
 //!
 //! | offset | bytes | field |
 //! |---:|---:|---|
 //! | 0 | 4 | sync marker [`SYNC`] = `D3 7A 1C 5E` |
-//! | 4 | 1 | format version, [`RECORD_VERSION`] = 2 |
+//! | 4 | 1 | format version, [`RECORD_VERSION`] = 3 |
 //! | 5 | 1 | kind: 0 speed, 1 direction, 2 scalar |
 //! | 6 | 1 | channel index in the station |
 //! | 7 | 1 | channels in the logger's station ([`ConfigStamp`]) |
@@ -78,18 +78,33 @@
 //! | 44 | 2 | flag bits, u16 (bit `n` is the [`Flag`] with discriminant `n`) |
 //! | 46 | 2 | reserved, 0 |
 //! | 48 | 4 | samples possible at the nominal rate, u32 |
-//! | 52 | 72 | the 9 statistics, each an IEEE-754 `f64` bit pattern, in [`STAT_ORDER`] order: mean, sd, min, max, gust, ti, resultant length, resultant speed, resultant direction; an absent statistic is the NaN pattern [`ABSENT_MARK`] `7FFA B5E0 0000 00cc` with its absent-reason code `cc` in the low byte |
+//! | 52 | 40 | mean, sd, min, max, gust: each an IEEE-754 `f64` bit pattern; an absent statistic is the NaN pattern [`ABSENT_MARK`] `7FFA B5E0 0000 00cc` with its absent-reason code `cc` in the low byte |
+//! | 92 | 4 | readings their source marked bad ([`Tally::flagged`]), u32 |
+//! | 96 | 4 | reserved, 0 |
+//! | 100 | 24 | resultant length, resultant speed, resultant direction, as the statistics at 52 |
 //! | 124 | 4 | CRC-32 of bytes 0 to 123 |
 //!
+//! Turbulence intensity is not stored: the reader computes it from the
+//! frame's own mean and sd as [`Layout::finish`](crate::Layout::finish) does
+//! (speed: `sd / mean` when both are values and the mean is above 0, absent
+//! for a zero mean when it is not; absent for the mean's reason when the mean
+//! is absent, for the sd's when only the sd is; not applicable on other
+//! kinds), one IEEE division, the same bits on every target.
+//!
+//! Version 2 ([`RECORD_VERSION_2`]), still read, holds the turbulence
+//! intensity at 92 as the other statistics (the 9 statistics in
+//! [`STAT_ORDER`] order from 52) and no flagged count (read as 0).
 //! The channel count and fingerprint sit where a state frame holds them, so
 //! that a reader refuses the frames of a logger built with another
 //! configuration, whichever kind of log it reads.
 //!
-//! Version 1 ([`RECORD_VERSION_1`]), still read, carries no configuration:
-//! byte 7 is reserved (0), the samples possible are at byte 20, and the
-//! absent-reason codes are nibbles at 46: statistic `i` in byte `46 + i / 2`,
-//! low nibble for even `i`, the tenth nibble 0, with byte 51 reserved (0) and
-//! an absent statistic's 8 bytes 0. Everything else is as in version 2.
+//! Version 1 ([`RECORD_VERSION_1`]), still read (and written for a frame
+//! without a configuration stamp), carries no configuration and no flagged
+//! count (read as 0): byte 7 is reserved (0), the samples possible are at
+//! byte 20, and the absent-reason codes are nibbles at 46: statistic `i` in
+//! byte `46 + i / 2`, low nibble for even `i`, the tenth nibble 0, with byte
+//! 51 reserved (0) and an absent statistic's 8 bytes 0. Everything else is as
+//! in version 2.
 //!
 //! Absent-reason codes: 0 the value is present (version 1 only); 1 not
 //! applicable; 2 no valid samples; 3 no full gust window; 4 vectors cancel;
@@ -124,8 +139,14 @@
 //! | 40 | 4 | spikes, u32 |
 //! | 44 | 1 | 1 when a speed channel's gust window filled at least once, else 0 |
 //! | 45 | 3 | reserved, 0 |
-//! | 48 | 76 | the sums, by form (below); unused bytes 0 |
+//! | 48 | 68 | the sums, by form (below); unused bytes 0 |
+//! | 116 | 4 | readings their source marked bad ([`Tally::flagged`]), u32 |
+//! | 120 | 4 | reserved, 0 |
 //! | 124 | 4 | CRC-32 of bytes 0 to 123 |
+//!
+//! Frames written before the flagged count have 0 at 116 (unused bytes were
+//! 0), so they read as no flagged readings. The rejected count at 36 is the
+//! interval's: the same in every channel's frame of one interval.
 //!
 //! Speed and scalar: at 48 the sum of squares of the quanta (i128 as two
 //! u64, low first), at 64 their sum (i64), at 72 the least and at 76 the
@@ -205,8 +226,8 @@
 //! | part | bytes | field |
 //! |---|---:|---|
 //! | time | 8 | sample time, i64 ms since 1970-01-01T00:00Z |
-//! | reading, once per channel | 1 | tag: 0 missing, 1 value, 2 counts |
-//! | | 8 or 4 or 0 | value: `f64` bit pattern (tag 1); counts: `i32` (tag 2); nothing (tag 0) |
+//! | reading, once per channel | 1 | tag: 0 missing, 1 value, 2 counts, 3 flagged by its source ([`Reading::Flagged`]) |
+//! | | 8 or 4 or 0 | value: `f64` bit pattern (tag 1); counts: `i32` (tag 2); nothing (tags 0 and 3) |
 //! | check | 4 | CRC-32 of the frame's bytes before it |
 //!
 //! A sample frame is 12 to [`sample_frame_max_len`]`(C)` = `12 + 9 C` bytes.
@@ -286,7 +307,7 @@ pub enum WireError {
     BadAbsent(u8),
     /// Flag bits that name no flag.
     UnknownFlags(u16),
-    /// A reading tag other than 0, 1, 2.
+    /// A reading tag other than 0, 1, 2, 3.
     BadTag(u8),
     /// A sample file header with 0 channels.
     NoChannels,
@@ -365,10 +386,15 @@ pub const FRAME_LEN: usize = 128;
 /// flash `FF` nor zeroed memory, and not ASCII).
 pub const SYNC: [u8; 4] = [0xD3, 0x7A, 0x1C, 0x5E];
 
-/// The record frame format version this code writes: version 2, stamped with
-/// the logger's configuration ([`ConfigStamp`]). Version 1 frames
-/// ([`RECORD_VERSION_1`]) are still read.
-pub const RECORD_VERSION: u8 = 2;
+/// The record frame format version this code writes: version 3, stamped with
+/// the logger's configuration ([`ConfigStamp`]) and carrying the flagged
+/// count in place of the turbulence intensity, which the reader computes.
+/// Versions 1 and 2 ([`RECORD_VERSION_1`], [`RECORD_VERSION_2`]) are still read.
+pub const RECORD_VERSION: u8 = 3;
+
+/// The second record frame format: stamped, with the turbulence intensity
+/// stored and no flagged count. Still read (flagged 0).
+pub const RECORD_VERSION_2: u8 = 2;
 
 /// The first record frame format, without a configuration stamp: still read
 /// (and written for a [`RecordFrame`] whose `config` is `None`), but a reader
@@ -416,6 +442,10 @@ const V2_CHANNELS: usize = 7;
 const V2_FINGERPRINT: usize = 20;
 const V2_RESERVED: usize = 46;
 const V2_POSSIBLE: usize = 48;
+// Version 3: the flagged count and 4 reserved bytes in the slot of `ti`.
+const TI_INDEX: usize = 5;
+const V3_FLAGGED: usize = O_STATS + 8 * TI_INDEX;
+const V3_RESERVED: usize = V3_FLAGGED + 4;
 
 /// One finished interval of one channel, as the record log holds it.
 #[derive(Clone, Copy, Debug, PartialEq)]
@@ -428,8 +458,8 @@ pub struct RecordFrame {
     /// Channel index in the station.
     pub channel: u8,
     /// The configuration of the logger that wrote the frame: `Some` in a
-    /// version-2 frame (what [`encode_record`] writes when it is `Some`),
-    /// `None` in a version-1 frame, which carries none.
+    /// frame of version 2 or 3 (version 3 is what [`encode_record`] writes
+    /// when it is `Some`), `None` in a version-1 frame, which carries none.
     pub config: Option<ConfigStamp>,
     /// The channel's finished statistics.
     pub record: ChannelRecord,
@@ -576,11 +606,34 @@ fn get_tally(b: &[u8; FRAME_LEN]) -> Tally {
         missing: get_u32(b, O_MISSING),
         out_of_range: get_u32(b, O_OUT_OF_RANGE),
         rejected: get_u32(b, O_REJECTED),
+        flagged: 0,
+    }
+}
+
+/// The turbulence intensity of a speed record with `mean` and `sd`, as
+/// [`Layout::finish`](crate::Layout::finish) makes it; not applicable on
+/// other kinds.
+fn ti_of(kind: Kind, mean: Stat, sd: Stat) -> Stat {
+    match (kind, mean, sd) {
+        (Kind::Speed, Stat::Value(m), Stat::Value(sd)) => {
+            if m > 0.0 {
+                Stat::Value(sd / m)
+            } else {
+                Stat::Absent(Absent::ZeroMean)
+            }
+        }
+        (Kind::Speed, Stat::Absent(a), _) | (Kind::Speed, _, Stat::Absent(a)) => Stat::Absent(a),
+        _ => Stat::Absent(Absent::NotApplicable),
     }
 }
 
 /// Writes `frame` into `out` as one record frame (layout in the module docs):
-/// version 2 when `frame.config` is `Some`, else version 1.
+/// version 3 when `frame.config` is `Some`, else version 1 (which has no
+/// room for the flagged count: a version-1 frame reads back with flagged 0).
+///
+/// A version-3 frame does not store the turbulence intensity: the reader
+/// computes it from the mean and sd, so a record decodes as written when its
+/// `ti` is the one [`Layout::finish`](crate::Layout::finish) made.
 pub fn encode_record(frame: &RecordFrame, out: &mut [u8; FRAME_LEN]) {
     let r = &frame.record;
     let head = (frame.sequence, frame.interval_start, frame.channel);
@@ -602,6 +655,8 @@ pub fn encode_record(frame: &RecordFrame, out: &mut [u8; FRAME_LEN]) {
             };
             put(out, O_STATS + 8 * i, bits.to_le_bytes());
         }
+        put(out, V3_FLAGGED, r.tally.flagged.to_le_bytes());
+        put(out, V3_RESERVED, 0u32.to_le_bytes());
     } else {
         put(out, O_POSSIBLE, r.n_possible.to_le_bytes());
         let mut absent = [0u8; 5];
@@ -620,10 +675,10 @@ pub fn encode_record(frame: &RecordFrame, out: &mut [u8; FRAME_LEN]) {
     seal(out);
 }
 
-/// Reads one record frame of either version, checking its sync marker, CRC
+/// Reads one record frame of any version, checking its sync marker, CRC
 /// and every field.
 pub fn decode_record(b: &[u8; FRAME_LEN]) -> Result<RecordFrame, WireError> {
-    check_frame(b, &[RECORD_VERSION_1, RECORD_VERSION])?;
+    check_frame(b, &[RECORD_VERSION_1, RECORD_VERSION_2, RECORD_VERSION])?;
     let kind = kind_of(b[O_KIND]).ok_or(WireError::BadKind(b[O_KIND]))?;
     let flag_bits = u16::from_le_bytes(get(b, O_FLAGS));
     let flags = Flags::from_bits(flag_bits);
@@ -631,11 +686,23 @@ pub fn decode_record(b: &[u8; FRAME_LEN]) -> Result<RecordFrame, WireError> {
         return Err(WireError::UnknownFlags(flag_bits));
     }
     let mut stats = [Stat::Absent(Absent::NotApplicable); 9];
-    let (config, n_possible) = if b[O_VERSION] == RECORD_VERSION {
+    let mut tally = get_tally(b);
+    let version = b[O_VERSION];
+    let (config, n_possible) = if version != RECORD_VERSION_1 {
         if get::<2>(b, V2_RESERVED) != [0, 0] {
             return Err(WireError::Reserved);
         }
+        let v3 = version == RECORD_VERSION;
+        if v3 {
+            tally.flagged = get_u32(b, V3_FLAGGED);
+            if get_u32(b, V3_RESERVED) != 0 {
+                return Err(WireError::Reserved);
+            }
+        }
         for (i, s) in stats.iter_mut().enumerate() {
+            if v3 && i == TI_INDEX {
+                continue;
+            }
             let bits = u64::from_le_bytes(get(b, O_STATS + 8 * i));
             *s = if bits & !0xFF == ABSENT_MARK {
                 let code = (bits & 0xFF) as u8;
@@ -648,6 +715,10 @@ pub fn decode_record(b: &[u8; FRAME_LEN]) -> Result<RecordFrame, WireError> {
             channels: b[V2_CHANNELS],
             fingerprint: get_u32(b, V2_FINGERPRINT),
         };
+        if v3 {
+            let [mean, sd, ..] = stats;
+            stats[TI_INDEX] = ti_of(kind, mean, sd);
+        }
         (Some(stamp), get_u32(b, V2_POSSIBLE))
     } else {
         let absent: [u8; 5] = get(b, O_ABSENT);
@@ -679,7 +750,7 @@ pub fn decode_record(b: &[u8; FRAME_LEN]) -> Result<RecordFrame, WireError> {
         record: ChannelRecord {
             kind,
             n_possible,
-            tally: get_tally(b),
+            tally,
             mean,
             sd,
             min,
@@ -709,6 +780,7 @@ const T_FINGERPRINT: usize = 20;
 const T_GUST_PRESENT: usize = 44;
 const T_RESERVED: usize = 45;
 const T_PAYLOAD: usize = 48;
+const T_FLAGGED: usize = 116;
 
 /// One channel's exact end state in one interval, as a logger that leaves
 /// finishing to a PC writes it (module docs, "State frame layout").
@@ -786,6 +858,7 @@ pub fn encode_state(frame: &StateFrame, out: &mut [u8; FRAME_LEN]) {
     );
     out[T_CHANNELS] = frame.channels;
     put(out, T_FINGERPRINT, frame.fingerprint.to_le_bytes());
+    put(out, T_FLAGGED, s.tally.flagged.to_le_bytes());
     let p = T_PAYLOAD;
     match s.form {
         StateForm::Speed | StateForm::Scalar => {
@@ -822,6 +895,7 @@ pub fn decode_state(b: &[u8; FRAME_LEN]) -> Result<StateFrame, WireError> {
     let form = form_of(b[T_FORM]).ok_or(WireError::BadKind(b[T_FORM]))?;
     let mut s = ChannelState::empty(form);
     s.tally = get_tally(b);
+    s.tally.flagged = get_u32(b, T_FLAGGED);
     s.spikes = get_u32(b, O_SPIKES);
     let p = T_PAYLOAD;
     let gust = b[T_GUST_PRESENT];
@@ -858,9 +932,10 @@ pub fn decode_state(b: &[u8; FRAME_LEN]) -> Result<StateFrame, WireError> {
             }
         }
     };
-    let unused = b.get(p + used..O_CRC).unwrap_or(&[]);
+    let unused = b.get(p + used..T_FLAGGED).unwrap_or(&[]);
     let reserved = b.get(T_RESERVED..T_PAYLOAD).unwrap_or(&[]);
-    if unused.iter().chain(reserved).any(|&x| x != 0) {
+    let tail = b.get(T_FLAGGED + 4..O_CRC).unwrap_or(&[]);
+    if unused.iter().chain(reserved).chain(tail).any(|&x| x != 0) {
         return Err(WireError::Reserved);
     }
     Ok(StateFrame {
@@ -1038,6 +1113,7 @@ pub const fn sample_header_len(channels: usize) -> usize {
 const TAG_MISSING: u8 = 0;
 const TAG_VALUE: u8 = 1;
 const TAG_COUNTS: u8 = 2;
+const TAG_FLAGGED: u8 = 3;
 
 // Station part offsets.
 const S_VERSION: usize = 4;
@@ -1571,7 +1647,7 @@ pub fn encode_sample(
             .map(|r| match r {
                 Reading::Value(_) => 9,
                 Reading::Counts(_) => 5,
-                Reading::Missing => 1,
+                Reading::Missing | Reading::Flagged => 1,
             })
             .sum::<usize>();
     let Some(buf) = out.get_mut(..needed) else {
@@ -1590,6 +1666,7 @@ pub fn encode_sample(
                 w.put(&k.to_le_bytes());
             }
             Reading::Missing => w.put(&[TAG_MISSING]),
+            Reading::Flagged => w.put(&[TAG_FLAGGED]),
         }
     }
     let crc = crc32(w.buf.get(..w.at).unwrap_or(&[]));
@@ -1655,6 +1732,7 @@ pub fn decode_sample(input: &[u8], readings: &mut [Reading]) -> SampleDecode {
         };
         *slot = match tag {
             TAG_MISSING => Reading::Missing,
+            TAG_FLAGGED => Reading::Flagged,
             TAG_VALUE => match r.take::<8>() {
                 Some(v) => Reading::Value(f64::from_bits(u64::from_le_bytes(v))),
                 None => return SampleDecode::Incomplete,
@@ -1825,6 +1903,7 @@ mod tests {
                 missing: seed.wrapping_mul(3),
                 out_of_range: u32::MAX - seed,
                 rejected: seed ^ 0xA5A5,
+                flagged: seed.wrapping_mul(5) ^ 0x3C,
             },
             mean,
             sd,
@@ -1856,21 +1935,45 @@ mod tests {
                     }
                 });
                 seed = seed.wrapping_mul(2_654_435_761).wrapping_add(97);
+                let config = (a % 3 != 2).then_some(ConfigStamp {
+                    channels: (seed >> 16) as u8,
+                    fingerprint: seed.rotate_left(13),
+                });
+                let mut record = record(kind, stats, seed & 0x1FF);
+                if config.is_some() {
+                    // Version 3 stores no ti: a record as a finish makes it.
+                    record.ti = finished_ti(kind, record.mean, record.sd);
+                } else {
+                    // Version 1 has no room for the flagged count.
+                    record.tally.flagged = 0;
+                }
                 out.push(RecordFrame {
                     sequence: seed,
                     interval_start: Timestamp::from_millis(
                         1_700_000_400_000 + 600_000 * (a as i64) - (k as i64) * 86_400_000_000,
                     ),
                     channel: (seed >> 24) as u8,
-                    config: (a % 3 != 2).then_some(ConfigStamp {
-                        channels: (seed >> 16) as u8,
-                        fingerprint: seed.rotate_left(13),
-                    }),
-                    record: record(kind, stats, seed & 0x1FF),
+                    config,
+                    record,
                 });
             }
         }
         out
+    }
+
+    /// The turbulence intensity a finish gives a record of `kind` with
+    /// `mean` and `sd` (the rule of `ChannelAcc::finish` and
+    /// `ChannelRecord::empty`, written out again here).
+    fn finished_ti(kind: Kind, mean: Stat, sd: Stat) -> Stat {
+        if kind != Kind::Speed {
+            return Stat::Absent(Absent::NotApplicable);
+        }
+        match (mean, sd) {
+            (Stat::Absent(why), _) => Stat::Absent(why),
+            (_, Stat::Absent(why)) => Stat::Absent(why),
+            (Stat::Value(m), Stat::Value(s)) if m > 0.0 => Stat::Value(s / m),
+            _ => Stat::Absent(Absent::ZeroMean),
+        }
     }
 
     fn encode(f: &RecordFrame) -> [u8; FRAME_LEN] {
@@ -1899,14 +2002,24 @@ mod tests {
             let back = decode_record(&b).unwrap();
             assert!(same(f, &back), "frame {i}: {f:?} != {back:?}");
         }
-        // Every absent reason and odd value appears in every slot.
+        // Every absent reason and odd value appears in every slot (ti, which
+        // version 3 computes, in version-1 frames: absent reasons only where
+        // the rotation puts them there).
         for slot in 0..9 {
             for a in ALL_ABSENT {
-                assert!(frames
-                    .iter()
-                    .any(|f| stats_of(&f.record)[slot] == Stat::Absent(a)));
+                assert!(
+                    slot == TI_INDEX
+                        || frames
+                            .iter()
+                            .any(|f| stats_of(&f.record)[slot] == Stat::Absent(a)),
+                    "slot {slot} {a:?}"
+                );
             }
         }
+        // Flagged counts other than 0 travel in version 3.
+        assert!(frames
+            .iter()
+            .any(|f| f.config.is_some() && f.record.tally.flagged != 0));
     }
 
     #[test]
@@ -2140,7 +2253,7 @@ mod tests {
         assert_eq!(f.config, None);
         assert_eq!(encode(&f)[O_VERSION], 1);
         let cases: [(usize, u8, WireError); 6] = [
-            (O_VERSION, 3, WireError::UnsupportedVersion(3)),
+            (O_VERSION, 4, WireError::UnsupportedVersion(4)),
             (O_KIND, 3, WireError::BadKind(3)),
             (O_RESERVED_A, 1, WireError::Reserved),
             (O_RESERVED_B, 1, WireError::Reserved),
@@ -2167,40 +2280,50 @@ mod tests {
             decode_record(&reseal_frame(b)),
             Err(WireError::BadAbsent(7))
         );
-        // Version 2.
+        // Version 3.
         let f = varied_frames()[0];
         assert!(f.config.is_some());
-        assert_eq!(encode(&f)[O_VERSION], 2);
+        assert_eq!(encode(&f)[O_VERSION], 3);
         for (at, v, want) in [
             (O_VERSION, 0, WireError::UnsupportedVersion(0)),
             (O_KIND, 7, WireError::BadKind(7)),
             (V2_RESERVED, 1, WireError::Reserved),
             (V2_RESERVED + 1, 0x80, WireError::Reserved),
+            (V3_RESERVED, 1, WireError::Reserved),
+            (V3_RESERVED + 3, 0x80, WireError::Reserved),
         ] {
             let mut b = encode(&f);
             b[at] = v;
             assert_eq!(decode_record(&reseal_frame(b)), Err(want), "offset {at}");
         }
-        // The absent mark with a code that names no reason, in any slot.
-        for slot in 0..9 {
+        // The absent mark with a code that names no reason, in any slot (in
+        // version 2 also in the slot of ti, which version 3 does not store).
+        for (version, slot) in (0..9).map(|s| (3, s)).chain([(2, TI_INDEX)]) {
             for code in [0u8, 7, 0xFF] {
                 let mut b = encode(&f);
+                b[O_VERSION] = version;
                 put(
                     &mut b,
                     O_STATS + 8 * slot,
                     (ABSENT_MARK | u64::from(code)).to_le_bytes(),
                 );
+                let want = if version == 3 && slot == TI_INDEX {
+                    // The flagged count's reserved half is not 0.
+                    WireError::Reserved
+                } else {
+                    WireError::BadAbsent(code)
+                };
                 assert_eq!(
                     decode_record(&reseal_frame(b)),
-                    Err(WireError::BadAbsent(code)),
-                    "slot {slot}"
+                    Err(want),
+                    "version {version} slot {slot}"
                 );
             }
         }
     }
 
     #[test]
-    fn record_frame_version_2_bytes() {
+    fn record_frame_version_3_bytes() {
         // The layout in the module docs, byte by byte, for a frame written
         // here: every field at its documented place.
         let record = ChannelRecord {
@@ -2210,6 +2333,7 @@ mod tests {
                 missing: 7,
                 out_of_range: 2,
                 rejected: 1,
+                flagged: 0x0A0B_0C0D,
             },
             mean: Stat::Value(8.25),
             gust: Stat::Absent(Absent::NoFullWindow),
@@ -2228,7 +2352,7 @@ mod tests {
         };
         let b = encode(&f);
         assert_eq!(b[..4], [0xD3, 0x7A, 0x1C, 0x5E]);
-        assert_eq!(b[4..8], [2, 0, 4, 5]);
+        assert_eq!(b[4..8], [3, 0, 4, 5]);
         assert_eq!(b[8..12], [4, 3, 2, 1]);
         assert_eq!(b[12..20], 1_737_331_200_000i64.to_le_bytes());
         assert_eq!(b[20..24], [0xEF, 0xBE, 0xAD, 0xDE]);
@@ -2244,12 +2368,69 @@ mod tests {
         // resultants: not applicable (code 1).
         assert_eq!(b[60..68], [2, 0, 0, 0, 0xE0, 0xB5, 0xFA, 0x7F]);
         assert_eq!(b[84..92], [3, 0, 0, 0, 0xE0, 0xB5, 0xFA, 0x7F]);
+        // ti's slot: the flagged count and 4 reserved bytes.
+        assert_eq!(b[92..100], [0x0D, 0x0C, 0x0B, 0x0A, 0, 0, 0, 0]);
         assert_eq!(b[116..124], [1, 0, 0, 0, 0xE0, 0xB5, 0xFA, 0x7F]);
         assert_eq!(b[124..], crc32(&b[..124]).to_le_bytes());
         let back = decode_record(&b).unwrap();
+        // sd is absent (no valid samples), so ti is absent for that reason.
+        assert_eq!(back.record.ti, Stat::Absent(Absent::NoValidSamples));
         assert!(same(&f, &back));
-        // The same frame without a stamp is version 1, and reads back so.
-        let old = RecordFrame { config: None, ..f };
+        // With an sd, ti is sd / mean (2.0625 / 8.25 = 0.25 exactly).
+        let with_sd = RecordFrame {
+            record: ChannelRecord {
+                sd: Stat::Value(2.0625),
+                ..record
+            },
+            ..f
+        };
+        let back = decode_record(&encode(&with_sd)).unwrap();
+        assert_eq!(back.record.ti, Stat::Value(0.25));
+        // A zero mean: ti absent as zero mean; other kinds: not applicable.
+        for (kind, mean, want) in [
+            (Kind::Speed, 0.0, Absent::ZeroMean),
+            (Kind::Scalar, 8.25, Absent::NotApplicable),
+            (Kind::Direction, 8.25, Absent::NotApplicable),
+        ] {
+            let g = RecordFrame {
+                record: ChannelRecord {
+                    kind,
+                    mean: Stat::Value(mean),
+                    ..with_sd.record
+                },
+                ..f
+            };
+            let back = decode_record(&encode(&g)).unwrap();
+            assert_eq!(back.record.ti, Stat::Absent(want), "{kind:?}");
+        }
+        // The same frame written as version 2 (ti stored at 92, no flagged
+        // count): byte 4 and the slot of ti, by hand, still reads, flagged 0.
+        let mut v2 = encode(&with_sd);
+        v2[4] = 2;
+        v2[92..100].copy_from_slice(&0.75f64.to_bits().to_le_bytes());
+        let back = decode_record(&reseal_frame(v2)).unwrap();
+        assert_eq!(back.record.ti, Stat::Value(0.75));
+        assert_eq!(back.record.tally.flagged, 0);
+        assert_eq!(
+            back.record.tally,
+            Tally {
+                flagged: 0,
+                ..record.tally
+            }
+        );
+        // The same frame without a stamp is version 1, and reads back so
+        // (without the flagged count, which it has no room for).
+        let old = RecordFrame {
+            config: None,
+            record: ChannelRecord {
+                tally: Tally {
+                    flagged: 0,
+                    ..record.tally
+                },
+                ..record
+            },
+            ..f
+        };
         let b = encode(&old);
         assert_eq!(b[4..8], [1, 0, 4, 0]);
         assert_eq!(b[20..24], 600u32.to_le_bytes());
@@ -2345,9 +2526,10 @@ mod tests {
                     (_, 0..=2) => Reading::Missing,
                     (_, 3) => Reading::Value(-999.0),
                     (_, 4) => Reading::Value(1e6),
-                    (0..=2, 5..=50) => Reading::Counts((800.0 + 400.0 * u) as i32),
+                    (_, 5) => Reading::Flagged,
+                    (0..=2, 6..=50) => Reading::Counts((800.0 + 400.0 * u) as i32),
                     (0..=2, _) => Reading::Value(6.0 + 5.0 * u),
-                    (3 | 4, 5..=50) => Reading::Counts((u * 36_000.0) as i32),
+                    (3 | 4, 6..=50) => Reading::Counts((u * 36_000.0) as i32),
                     (3 | 4, _) => Reading::Value(250.0 + 60.0 * u),
                     (5, _) => Reading::Value(-2.0 + 4.0 * u),
                     _ => Reading::Value(80.0 + 20.0 * u),
@@ -2363,7 +2545,13 @@ mod tests {
     #[test]
     fn state_frames_finish_as_the_station_does() {
         let layout = all_forms();
-        let mut seen = [0u32; 4]; // spikes, gusts, resultants, flags
+        // spikes, gusts, resultants, flags, flagged readings, rejected samples
+        let mut seen = [0u32; 6];
+        // Version-3 record frames: with the flagged count.
+        let stamp = Some(ConfigStamp {
+            channels: 7,
+            fingerprint: layout.fingerprint(),
+        });
         for seed in 1..=6 {
             let input = mixed_input(seed, 40);
             // The station on the logger.
@@ -2376,11 +2564,13 @@ mod tests {
                         seen[1] += u32::from(matches!(rec.gust, Stat::Value(_)));
                         seen[2] += u32::from(matches!(rec.resultant_speed, Stat::Value(_)));
                         seen[3] += u32::from(!rec.flags.is_empty());
+                        seen[4] += rec.tally.flagged;
+                        seen[5] += rec.tally.rejected;
                         want.push(encode(&RecordFrame {
                             sequence: 0,
                             interval_start: layout.interval_start(acc.index()),
                             channel: c as u8,
-                            config: None,
+                            config: stamp,
                             record: *rec,
                         }));
                     }
@@ -2450,7 +2640,7 @@ mod tests {
                             sequence: 0,
                             interval_start: frame.interval_start,
                             channel: c as u8,
-                            config: None,
+                            config: stamp,
                             record: *rec,
                         }));
                     }
@@ -2673,6 +2863,7 @@ mod tests {
             any::<u64>().prop_map(|b| Reading::Value(f64::from_bits(b))),
             any::<i32>().prop_map(Reading::Counts),
             Just(Reading::Missing),
+            Just(Reading::Flagged),
         ];
         proptest::collection::vec(one, 3..=3)
     }
@@ -2718,20 +2909,23 @@ mod tests {
             };
             // The absent mark itself is not a value a statistic can hold.
             prop_assume!(bits.iter().all(|b| b & !0xFF != ABSENT_MARK));
-            for config in [f.config, None] {
+            // Version 3 stores no ti: on a scalar channel it reads back not
+            // applicable (1 below); version 1 carries it, and no flagged count.
+            let mut without_ti = bits;
+            without_ti[TI_INDEX] = 1;
+            for (config, want, flagged) in [
+                (f.config, without_ti, f.record.tally.flagged),
+                (None, bits, 0),
+            ] {
                 let f = RecordFrame { config, ..f };
                 let back = decode_record(&encode(&f)).unwrap();
                 prop_assert_eq!(back.config, config);
                 prop_assert_eq!(
                     stats_of(&back.record).map(|s| match s { Stat::Value(v) => v.to_bits(), Stat::Absent(_) => 1 }),
-                    bits
+                    want
                 );
+                prop_assert_eq!(back.record.tally, Tally { flagged, ..f.record.tally });
             }
-            let back = decode_record(&encode(&f)).unwrap();
-            prop_assert_eq!(
-                stats_of(&back.record).map(|s| match s { Stat::Value(v) => v.to_bits(), Stat::Absent(_) => 1 }),
-                bits
-            );
         }
     }
 

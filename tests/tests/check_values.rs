@@ -242,7 +242,7 @@ fn recovery_of(valid: usize) -> (f64, ChannelRecord) {
     }
     station.close(&mut keep);
     let rate = station.recovery()[0]
-        .since_start
+        .since_start()
         .rate()
         .expect("possible > 0");
     (rate, rec.expect("closed"))
@@ -281,7 +281,7 @@ fn recovery_18_of_24_hours() {
         station.push(utc(2024, 6, 1, hour, 0, 0), &[Reading::Value(15.0)], |_| {});
     }
     station.tick(utc(2024, 6, 2, 0, 0, 0), |_| {});
-    let totals = station.recovery()[0].since_start;
+    let totals = station.recovery()[0].since_start();
     assert_eq!((totals.valid, totals.possible), (18, 24));
     assert_eq!(totals.rate(), Some(0.75));
 }

@@ -57,7 +57,8 @@ fn out_of_range(ch: usize) -> BoxedStrategy<Reading> {
 }
 
 /// One channel's reading: mostly valid (as a value or as counts), sometimes
-/// missing (absent, NaN, a missing-value code as value or counts) or out of range.
+/// missing (absent, NaN, a missing-value code as value or counts), out of
+/// range, or flagged bad by its source.
 fn channel_reading(ch: usize) -> BoxedStrategy<Reading> {
     let pu = per_unit(ch);
     prop_oneof![
@@ -67,6 +68,7 @@ fn channel_reading(ch: usize) -> BoxedStrategy<Reading> {
         1 => prop_oneof![Just(-999.0), Just(-9999.0)].prop_map(Reading::Value),
         1 => prop_oneof![Just(-999), Just(-9999)].prop_map(Reading::Counts),
         2 => out_of_range(ch),
+        2 => Just(Reading::Flagged),
     ]
     .boxed()
 }
@@ -436,8 +438,8 @@ proptest! {
             let mut on_event = |e: Event<'_, 4, G>| {
                 let (first, count) = match e {
                     Event::Closed(acc, _) => {
-                        for (ch, c) in acc.channels().enumerate() {
-                            counted[ch] += c.tally().total();
+                        for (ch, counted) in counted.iter_mut().enumerate() {
+                            *counted += acc.tally(ch).unwrap().total();
                             closed_possible[ch] += u64::from(layout.finish(acc, ch).unwrap().n_possible);
                         }
                         (acc.index(), 1u64)
@@ -486,9 +488,9 @@ proptest! {
         prop_assert_eq!(totals.pushed(), pushed);
         for ch in 0..4 {
             prop_assert_eq!(counted[ch] + totals.unplaced, pushed, "channel {}", ch);
-            let rec = station.recovery()[ch].since_start;
+            let rec = station.recovery()[ch].since_start();
             prop_assert_eq!(rec.possible, closed_possible[ch] + gap_possible, "channel {}", ch);
-            prop_assert_eq!(rec.valid + rec.missing + rec.out_of_range + rec.rejected, counted[ch]);
+            prop_assert_eq!(rec.valid + rec.missing + rec.out_of_range + rec.rejected + rec.flagged, counted[ch]);
         }
     }
 }
@@ -525,7 +527,7 @@ fn long_jumps_are_one_gap() {
     assert_eq!(gaps[0].count, intervals - 1);
     // The closed first interval plus the gap; the last interval is still open.
     assert_eq!(
-        station.recovery()[SPEED].since_start.possible,
+        station.recovery()[SPEED].since_start().possible,
         intervals * 600
     );
 
@@ -548,5 +550,5 @@ fn long_jumps_are_one_gap() {
     let seconds = (last.millis() - first.millis()) / 1000;
     assert_eq!(gaps.len(), 1);
     assert_eq!(gaps[0].count, (seconds - 1) as u64);
-    assert_eq!(station.recovery()[0].since_start.possible, seconds as u64);
+    assert_eq!(station.recovery()[0].since_start().possible, seconds as u64);
 }
