@@ -91,8 +91,8 @@ use std::process::ExitCode;
 use anyhow::{anyhow, bail, Context, Result};
 use qc_core::wire::{ConfigStamp, RecordFrame, Span, StateFrame, FRAME_LEN};
 use qc_core::{
-    config_fingerprint, ChannelConfig, Finisher, Gap, IntervalAcc, Layout, StateForm, Tally,
-    Timestamp,
+    config_fingerprint, ChannelConfig, Finisher, Gap, IntervalAcc, Layout, StateError, StateForm,
+    Tally, Timestamp,
 };
 
 use crate::config::{self, StationFile, MAX_CHANNELS};
@@ -981,12 +981,13 @@ impl<const C: usize, W: Write> Decoder<'_, C, W> {
         });
         if let Err(e) = open.acc.set_state(&self.layout, ch, &f.state) {
             let why = match self.cfg.channels.get(ch) {
-                Some(c) => format!(
+                Some(c) if e == StateError::WrongForm => format!(
                     "channel {ch} ({}) takes a {:?} state, the frame holds a {:?} state",
                     c.id,
                     StateForm::of(&c.core),
                     f.state.form()
                 ),
+                Some(c) => format!("channel {ch} ({}): {e}", c.id),
                 None => format!("channel {ch}: {e}"),
             };
             return Err(self.mismatch(offset, &why));

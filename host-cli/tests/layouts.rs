@@ -263,3 +263,215 @@ fn a_layout_that_cannot_be_right_is_refused_before_any_sample() {
         );
     }
 }
+
+/// The rows of a records CSV, split into fields (header left out).
+fn rows(csv: &[u8]) -> Vec<Vec<String>> {
+    text(csv)
+        .lines()
+        .skip(1)
+        .map(|l| l.split(',').map(str::to_string).collect())
+        .collect()
+}
+
+const N_MISSING: usize = 11;
+const N_FLAGGED: usize = 19;
+
+#[test]
+fn quality_codes_not_good_count_as_flagged_and_stay_out_of_the_statistics() {
+    // Invented data. Good codes "0" and "1"; a bad code makes the reading
+    // flagged whatever its value: 99.9 (out of range were it read), "x" (not a
+    // number), and an empty code (not among the good ones) included.
+    let toml = station(
+        RATE_1S,
+        "[input]\n\n[input.time]\ncolumn = \"time\"",
+        "column = \"ws\"\nquality = { column = \"q1\", good = [\"0\", \"1\"] }",
+        "column = \"wd\"\nquality = { column = \"q2\", good = [\"0\"] }\nspeed_channel = \"ws\"",
+    );
+    let file = "time,ws,q1,wd,q2\n\
+        2025-01-20T00:00:00Z,4.5,0,270,0\n\
+        2025-01-20T00:00:01Z,5.0,1,275,0\n\
+        2025-01-20T00:00:02Z,99.9,2,280,0\n\
+        2025-01-20T00:00:03Z,5.5,0,x,9\n\
+        2025-01-20T00:00:04Z,6.0,0,290,\n\
+        2025-01-20T00:00:05Z,,0,300,0\n\
+        2025-01-20T00:00:06Z,6.5,0,310,0\n\
+        2025-01-20T00:10:00Z,7.0,3,320,0\n\
+        2025-01-20T00:10:01Z,7.5,0,330,0\n";
+    // The same samples in tenmin's own CSV, the flagged readings missing.
+    let own = "time,ws,wd\n\
+        2025-01-20T00:00:00Z,4.5,270\n\
+        2025-01-20T00:00:01Z,5.0,275\n\
+        2025-01-20T00:00:02Z,,280\n\
+        2025-01-20T00:00:03Z,5.5,\n\
+        2025-01-20T00:00:04Z,6.0,\n\
+        2025-01-20T00:00:05Z,,300\n\
+        2025-01-20T00:00:06Z,6.5,310\n\
+        2025-01-20T00:10:00Z,,320\n\
+        2025-01-20T00:10:01Z,7.5,330\n";
+    let own_toml = station(RATE_1S, "", "", "speed_channel = \"ws\"");
+    let dir = tempfile::tempdir().unwrap();
+    let d = dir.path();
+    write(d, "layout.toml", &toml);
+    write(d, "own.toml", &own_toml);
+    write(d, "field.csv", file);
+    write(d, "own.csv", own);
+    let o = tenmin(&["replay", "-c", "own.toml", "own.csv", "-q"], d);
+    assert!(o.status.success(), "{}", text(&o.stderr));
+    let f = tenmin(&["replay", "-c", "layout.toml", "field.csv"], d);
+    assert!(f.status.success(), "{}", text(&f.stderr));
+    assert!(text(&f.stdout).starts_with("start,"));
+    assert!(text(&f.stdout)
+        .lines()
+        .next()
+        .unwrap()
+        .ends_with(",n_spikes,n_flagged"));
+    let (fr, or) = (rows(&f.stdout), rows(&o.stdout));
+    assert_eq!(fr.len(), 4);
+    // Counted by hand from the file above: ws 1 flagged in the first
+    // interval and 1 in the second, wd 2 in the first.
+    let flagged: Vec<&str> = fr.iter().map(|r| r[N_FLAGGED].as_str()).collect();
+    assert_eq!(flagged, ["1", "2", "1", "0"]);
+    let valid: Vec<&str> = fr.iter().map(|r| r[4].as_str()).collect();
+    assert_eq!(valid, ["5", "5", "1", "2"]);
+    // The mean of 4.5, 5.0, 5.5, 6.0 and 6.5 m/s: 5.5, without the flagged 99.9.
+    assert_eq!(fr[0][5], "5.5");
+    for (a, b) in fr.iter().zip(&or) {
+        // Every other column equal; what the own CSV counts missing, the
+        // field file counts missing or flagged.
+        for k in 0..a.len() {
+            if k != N_MISSING && k != N_FLAGGED {
+                assert_eq!(a[k], b[k], "column {k}: {a:?} vs {b:?}");
+            }
+        }
+        let n = |s: &str| s.parse::<u32>().unwrap();
+        assert_eq!(n(&b[N_FLAGGED]), 0);
+        assert_eq!(n(&a[N_MISSING]) + n(&a[N_FLAGGED]), n(&b[N_MISSING]));
+    }
+    // The summary counts them per channel: ws 2, wd 2.
+    let summary = text(&f.stderr);
+    let header = summary.lines().find(|l| l.starts_with("channel")).unwrap();
+    let col = header
+        .split_whitespace()
+        .position(|w| w == "flagged")
+        .unwrap();
+    for (id, want) in [("ws", "2"), ("wd", "2")] {
+        let line = summary
+            .lines()
+            .find(|l| l.starts_with(&format!("{id} ")))
+            .unwrap();
+        assert_eq!(line.split_whitespace().nth(col), Some(want), "{summary}");
+    }
+    // Two threads: the same bytes.
+    let j2 = tenmin(
+        &[
+            "replay",
+            "-c",
+            "layout.toml",
+            "field.csv",
+            "-q",
+            "-j",
+            "2",
+            "--chunk-size",
+            "64",
+        ],
+        d,
+    );
+    assert!(j2.status.success(), "{}", text(&j2.stderr));
+    assert_eq!(j2.stdout, f.stdout);
+    // A logger's records without the n_flagged column read as 0 flagged:
+    // the own CSV's records verify against the own CSV; against the field
+    // file they differ in n_flagged (and n_missing).
+    let strip = |csv: &[u8]| -> String {
+        text(csv)
+            .lines()
+            .map(|l| &l[..l.rfind(',').unwrap()])
+            .map(|l| format!("{l}\n"))
+            .collect()
+    };
+    write(d, "old-own.csv", strip(&o.stdout));
+    let v = tenmin(
+        &[
+            "verify",
+            "-q",
+            "-c",
+            "own.toml",
+            "--samples",
+            "own.csv",
+            "--records",
+            "old-own.csv",
+        ],
+        d,
+    );
+    assert_eq!(
+        v.status.code(),
+        Some(0),
+        "{}{}",
+        text(&v.stdout),
+        text(&v.stderr)
+    );
+    let v = tenmin(
+        &[
+            "verify",
+            "-c",
+            "layout.toml",
+            "--samples",
+            "field.csv",
+            "--records",
+            "old-own.csv",
+        ],
+        d,
+    );
+    assert_eq!(
+        v.status.code(),
+        Some(1),
+        "{}{}",
+        text(&v.stdout),
+        text(&v.stderr)
+    );
+    let report = format!("{}{}", text(&v.stdout), text(&v.stderr));
+    assert!(report.contains("n_flagged"), "{report}");
+}
+
+#[test]
+fn the_network_example_with_quality_codes_replays_and_counts_bad_codes() {
+    let root = std::path::Path::new(env!("CARGO_MANIFEST_DIR"))
+        .join("../examples/field-files/surfrad-1min");
+    let toml = root.join("station.toml");
+    let data = root.join("surfrad-alamosa-2016-001-1min.dat");
+    let dir = tempfile::tempdir().unwrap();
+    let d = dir.path();
+    let (toml, data) = (toml.to_str().unwrap(), data.to_str().unwrap());
+    let whole = tenmin(&["replay", "-c", toml, data, "-q"], d);
+    assert!(whole.status.success(), "{}", text(&whole.stderr));
+    let rows_whole = rows(&whole.stdout);
+    // 144 ten-minute intervals of a day, five channels; every code in the
+    // file is 0 (good).
+    assert_eq!(rows_whole.len(), 144 * 5);
+    assert!(rows_whole.iter().all(|r| r[N_FLAGGED] == "0"));
+    // Fault injection: the first minute's wind speed code set to 1 (not
+    // among the good codes), fields joined by single spaces (the file's
+    // delimiter is any run of whitespace).
+    let original = std::fs::read_to_string(data).unwrap();
+    let mut lines: Vec<String> = original.lines().map(str::to_string).collect();
+    let mut fields: Vec<&str> = lines[2].split_whitespace().collect();
+    assert_eq!(fields[43], "0", "column 44 is the speed's code");
+    fields[43] = "1";
+    lines[2] = fields.join(" ");
+    write(d, "bad-code.dat", lines.join("\n") + "\n");
+    let bad = tenmin(&["replay", "-c", toml, "bad-code.dat", "-q"], d);
+    assert!(bad.status.success(), "{}", text(&bad.stderr));
+    let rows_bad = rows(&bad.stdout);
+    assert_eq!(rows_bad.len(), rows_whole.len());
+    assert_eq!(rows_bad[0][2], "ws");
+    assert_eq!(rows_bad[0][N_FLAGGED], "1");
+    assert_eq!(rows_bad[0][4], "9", "9 of 10 speeds valid");
+    assert_eq!(rows_whole[0][4], "10");
+    // The vane's resultant loses that minute's pair; its own statistics
+    // and counts, and every other row, are as before.
+    assert_eq!(rows_bad[1][..15], rows_whole[1][..15]);
+    assert_ne!(rows_bad[1][16], rows_whole[1][16], "resultant speed");
+    assert!(
+        rows_bad[2..] == rows_whole[2..],
+        "rows after the first interval's vane differ"
+    );
+}

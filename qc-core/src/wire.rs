@@ -2664,6 +2664,52 @@ mod tests {
     }
 
     #[test]
+    fn state_frames_carry_the_flagged_count_at_116_and_old_frames_read_as_0() {
+        let layout = all_forms();
+        let mut acc: crate::IntervalAcc<7, 4> = crate::IntervalAcc::new(&layout, 0);
+        let mut r = [Reading::Value(5.0); 7];
+        r[3] = Reading::Value(90.0);
+        r[4] = Reading::Value(90.0);
+        for i in 0..10 {
+            // Every channel flagged in 3 of the 10 samples.
+            let row = if i % 3 == 0 && i > 0 {
+                [Reading::Flagged; 7]
+            } else {
+                r
+            };
+            acc.push(&layout, Timestamp::from_millis(i * 1000), &row);
+        }
+        acc.reject();
+        for c in 0..7 {
+            let frame = StateFrame {
+                sequence: 9,
+                interval_start: Timestamp::from_millis(0),
+                channel: c as u8,
+                channels: 7,
+                fingerprint: layout.fingerprint(),
+                state: acc.state(c).unwrap(),
+            };
+            assert_eq!(frame.state.tally().flagged, 3);
+            assert_eq!(frame.state.tally().rejected, 1);
+            let mut b = [0u8; FRAME_LEN];
+            encode_state(&frame, &mut b);
+            assert_eq!(b[116..120], [3, 0, 0, 0], "channel {c}");
+            assert_eq!(b[120..124], [0; 4]);
+            assert_eq!(decode_state(&b), Ok(frame));
+            // A frame written before the count (0 at 116) reads as none flagged.
+            let mut old = b;
+            old[116] = 0;
+            let back = decode_state(&reseal_frame(old)).unwrap();
+            assert_eq!(back.state.tally().flagged, 0);
+            assert_eq!(back.state.tally().valid, frame.state.tally().valid);
+            // The bytes after the count are reserved.
+            let mut bad = b;
+            bad[121] = 1;
+            assert_eq!(decode_state(&reseal_frame(bad)), Err(WireError::Reserved));
+        }
+    }
+
+    #[test]
     fn state_frame_damage_is_refused() {
         let layout = all_forms();
         let mut sampler: crate::Sampler<7, 4> = crate::Sampler::new(layout);
