@@ -58,8 +58,9 @@ macro_rules! formats {
                 seconds (decimal to ms); missing = empty, NaN or a missing-value code.
   records CSV   start,end,channel,n_possible,n_valid,mean,sd,min,max,gust,flags,
                 n_missing,n_out_of_range,n_rejected,ti,resultant_length,
-                resultant_speed,resultant_direction,n_spikes,n_flagged: one row per
-                interval and channel, times UTC; empty field = no value; for direction, mean
+                resultant_speed,resultant_direction,n_spikes,n_flagged (readings
+                whose `quality` code is not good): one row per interval and
+                channel, times UTC; empty field = no value; for direction, mean
                 is the unit-vector mean and sd is sigma-theta.
 "
     };
