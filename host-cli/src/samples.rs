@@ -29,7 +29,7 @@ use qc_core::{Pushed, Reading, Timestamp};
 use crate::config::{Decode, StationFile};
 use crate::engine::Engine;
 use crate::limits;
-use crate::localtime::TimeProblem;
+use crate::localtime::{Memo, TimeProblem, ZoneCache};
 use crate::reader::{FileReader, Head, Piece};
 use crate::table::{Column, Delimiter, Table};
 use crate::timefmt::{parse_time, Rfc3339, TimeError};
@@ -841,10 +841,13 @@ fn split(delim: Delimiter, rec: &[u8], spans: &mut Vec<(u32, u32)>) {
     spans.clear();
     match delim {
         Delimiter::Byte(b) => {
+            // Records are short: a plain loop beats a search per field.
             let mut start = 0u32;
-            for p in memchr::memchr_iter(b, rec) {
-                spans.push((start, p as u32));
-                start = p as u32 + 1;
+            for (p, &c) in rec.iter().enumerate() {
+                if c == b {
+                    spans.push((start, p as u32));
+                    start = p as u32 + 1;
+                }
             }
             spans.push((start, rec.len() as u32));
         }
@@ -883,6 +886,9 @@ pub struct Declared {
     /// Scratch: field spans and the joined time.
     spans: Vec<(u32, u32)>,
     tbuf: Vec<u8>,
+    /// The last row's time and the zone's span, to read the next faster.
+    memo: Memo,
+    zone: ZoneCache,
 }
 
 impl Declared {
@@ -978,6 +984,8 @@ impl Declared {
             names,
             spans: Vec::with_capacity(64),
             tbuf: Vec::with_capacity(64),
+            memo: Memo::default(),
+            zone: ZoneCache::default(),
         })
     }
 
@@ -1021,7 +1029,10 @@ impl Declared {
             }
             self.tbuf.extend_from_slice(f.field(i).trim_ascii());
         }
-        let t = match table.time.parse(&self.tbuf) {
+        let t = match table
+            .time
+            .parse_with(&self.tbuf, &mut self.memo, &mut self.zone)
+        {
             Ok(t) => t,
             Err(e) => {
                 let i = self.time[0];
@@ -1037,9 +1048,18 @@ impl Declared {
                 ));
             }
         };
+        let sep = if table.decimal_comma { b',' } else { b'.' };
+        // With no missing-value texts, a plain number is a reading as it is.
+        let no_codes = table.missing.is_empty();
         for (c, (&(i, decode, q), src)) in self.chan.iter().zip(&table.sources).enumerate() {
             let field = f.field(i).trim_ascii();
-            let reading = if field.is_empty() || table.missing.iter().any(|m| m == field) {
+            let fast = match decode {
+                Decode::Value => fast_f64_sep(field, sep).map(Reading::Value),
+                Decode::Counts => fast_i32(field).map(Reading::Counts),
+            };
+            let reading = if let (Some(r), true) = (fast, no_codes) {
+                r
+            } else if field.is_empty() || table.missing.iter().any(|m| m == field) {
                 Reading::Missing
             } else if table.decimal_comma && field.contains(&b',') {
                 let mut buf = [0u8; 64];
@@ -1268,6 +1288,12 @@ const POW10: [f64; 16] = [
 /// fast path). `None` for anything else.
 #[inline]
 fn fast_f64(b: &[u8]) -> Option<f64> {
+    fast_f64_sep(b, b'.')
+}
+
+/// [`fast_f64`] with `sep` as the decimal separator (`.` or `,`).
+#[inline]
+fn fast_f64_sep(b: &[u8], sep: u8) -> Option<f64> {
     let (neg, digits) = match b.first()? {
         b'-' => (true, &b[1..]),
         b'+' => (false, &b[1..]),
@@ -1284,7 +1310,7 @@ fn fast_f64(b: &[u8]) -> Option<f64> {
             if n > 15 {
                 return None;
             }
-        } else if c == b'.' && dot.is_none() {
+        } else if c == sep && dot.is_none() {
             dot = Some(i);
         } else {
             return None;
