@@ -811,6 +811,35 @@ mod tests {
     }
 
     #[test]
+    fn the_memo_and_the_zone_cache_change_no_result() {
+        // Every 7 s and every 13 min over the days around both changes of
+        // clock of 2025 in Europe/Berlin, read with one memo and one zone
+        // cache as a file is, and each alone: the same instants and errors.
+        let z = zone("Europe/Berlin").unwrap();
+        for pick in [Pick::Refuse, Pick::Later] {
+            let mut s = spec(fmt("%d.%m.%Y %H:%M:%S"), z.clone(), Label::End, 1000);
+            s.skipped = pick;
+            s.repeated = pick;
+            let (mut memo, mut zc) = (Memo::default(), ZoneCache::default());
+            for day0 in ["2025-03-29T00:00:00Z", "2025-10-25T00:00:00Z"] {
+                let t0 = timefmt::parse_time(day0.as_bytes()).unwrap().millis();
+                for step in [7_000i64, 13 * 60_000] {
+                    for k in 0..(3 * 86_400_000 / step) {
+                        let c = Timestamp::from_millis(t0 + k * step).civil();
+                        let text = format!(
+                            "{:02}.{:02}.{:04} {:02}:{:02}:{:02}",
+                            c.day, c.month, c.year, c.hour, c.minute, c.second
+                        );
+                        let alone = s.parse(text.as_bytes());
+                        let kept = s.parse_with(text.as_bytes(), &mut memo, &mut zc);
+                        assert_eq!(alone, kept, "{text}");
+                    }
+                }
+            }
+        }
+    }
+
+    #[test]
     fn daylight_saving_is_resolved_by_the_zone_database() {
         // Europe/Berlin: clocks go from 02:00 CET to 03:00 CEST on 2025-03-30
         // and from 03:00 CEST back to 02:00 CET on 2025-10-26 (EU Directive
