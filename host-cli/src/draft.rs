@@ -136,7 +136,10 @@ pub fn sniff_bytes(name: &str, buf: &[u8]) -> Result<Sniff> {
     let text = String::from_utf8_lossy(buf);
     let bad = text.chars().filter(|&c| c == '\u{FFFD}').count();
     if bad * 20 > text.chars().count().max(1) {
-        bail!("{name}: not text: {bad} of the first {} bytes are not UTF-8 (nor ASCII)", buf.len());
+        bail!(
+            "{name}: not text: {bad} of the first {} bytes are not UTF-8 (nor ASCII)",
+            buf.len()
+        );
     }
     let ends = if text.contains('\n') { '\n' } else { '\r' };
     let mut parts: Vec<&str> = text.split(ends).collect();
@@ -340,7 +343,6 @@ impl Col {
     }
 }
 
-
 /// What a column measures, as guessed.
 #[derive(Clone, Copy, Debug, PartialEq, Eq)]
 enum Meaning {
@@ -485,14 +487,45 @@ fn meaning_by_name(name: &str, unit: Option<UnitOf>) -> Meaning {
     let has = |k: &[&str]| w.iter().any(|x| k.contains(&x.as_str()));
     let joined: String = w.concat();
     let statistic = has(&["sd", "std", "stdev", "stddev", "sigma", "sdev", "ti", "var"]);
-    let directional = has(&["dir", "direction", "wd", "wdir", "winddir", "dn", "dm", "dx"])
-        || joined.contains("winddir")
-        || unit == Some(UnitOf::Degrees) && has(&["wind", "vane"]);
+    let directional = has(&[
+        "dir",
+        "direction",
+        "wd",
+        "wdir",
+        "winddir",
+        "dn",
+        "dm",
+        "dx",
+    ]) || joined.contains("winddir")
+        || joined.contains("richtung")
+        || unit == Some(UnitOf::Degrees)
+            && !has(&[
+                "lat",
+                "latitude",
+                "lon",
+                "longitude",
+                "zenith",
+                "azimuth",
+                "elevation",
+                "angle",
+            ]);
     let gusty = has(&["gust", "gusts", "peak", "max", "maximum", "wsmax", "wgust"]);
     let speedy = has(&[
-        "speed", "ws", "wspd", "spd", "windspeed", "windspd", "wsavg", "wsmean", "vel", "ff",
-        "anemometer", "sknt", "wind",
+        "speed",
+        "ws",
+        "wspd",
+        "spd",
+        "windspeed",
+        "windspd",
+        "wsavg",
+        "wsmean",
+        "vel",
+        "ff",
+        "anemometer",
+        "sknt",
+        "wind",
     ]) || joined.contains("windspeed")
+        || joined.contains("geschwindigkeit")
         || joined.contains("windspd")
         || matches!(unit, Some(UnitOf::Speed(_)));
     if directional {
@@ -521,21 +554,42 @@ fn meaning_by_name(name: &str, unit: Option<UnitOf>) -> Meaning {
     }
     if has(&["rh", "humidity", "humid", "hum", "relh", "relhum"])
         || joined.contains("humidity")
+        || joined.contains("feuchte")
         || joined.contains("relhum")
     {
         return Meaning::Humidity;
     }
     let temp_word = has(&[
-        "temp", "temperature", "tair", "airtemp", "ta", "t", "tmp", "tc", "tf", "temps",
-    ]) || joined.contains("temperature")
+        "temp",
+        "temperature",
+        "tair",
+        "airtemp",
+        "ta",
+        "t",
+        "tmp",
+        "tc",
+        "tf",
+        "temps",
+    ]) || joined.contains("temperat")
         || joined.contains("airtemp");
     if temp_word || matches!(unit, Some(UnitOf::Temperature(_))) {
         return Meaning::Temperature;
     }
     if has(&[
-        "pressure", "pres", "press", "baro", "bp", "p", "slp", "mslp", "barometer", "pmsl",
-        "stnp", "prs",
+        "pressure",
+        "pres",
+        "press",
+        "baro",
+        "bp",
+        "p",
+        "slp",
+        "mslp",
+        "barometer",
+        "pmsl",
+        "stnp",
+        "prs",
     ]) || joined.contains("pressure")
+        || joined.contains("druck")
         || matches!(unit, Some(UnitOf::Pressure(_)))
     {
         return Meaning::Pressure;
@@ -547,15 +601,28 @@ fn meaning_by_name(name: &str, unit: Option<UnitOf>) -> Meaning {
         return Meaning::Other("a supply voltage");
     }
     if has(&[
-        "solar", "radiation", "ghi", "dni", "dhi", "global", "direct", "diffuse", "irradiance",
-        "swdn", "lw", "sw", "par",
+        "solar",
+        "radiation",
+        "ghi",
+        "dni",
+        "dhi",
+        "global",
+        "direct",
+        "diffuse",
+        "irradiance",
+        "swdn",
+        "lw",
+        "sw",
+        "par",
     ]) {
         return Meaning::Other("radiation");
     }
     if has(&["visib", "visibility", "vis", "vsby"]) {
         return Meaning::Other("visibility");
     }
-    if has(&["record", "rec", "recnbr", "index", "id", "no", "nr", "seq", "unnamed"]) {
+    if has(&[
+        "record", "rec", "recnbr", "index", "id", "no", "nr", "seq", "unnamed",
+    ]) {
         return Meaning::Other("a record number or index");
     }
     Meaning::Unknown
@@ -614,8 +681,8 @@ impl Role {
             Role::Minute => has(&["minute", "min", "mi", "minutes"]),
             Role::Second => has(&["second", "sec", "ss", "seconds"]),
             Role::HourMinute => has(&[
-                "hhmm", "hrmn", "hourmin", "hm", "time", "mst", "lst", "utc", "ut", "cst",
-                "est", "pst", "local",
+                "hhmm", "hrmn", "hourmin", "hm", "time", "mst", "lst", "utc", "ut", "cst", "est",
+                "pst", "local",
             ]),
         }
     }
@@ -623,9 +690,22 @@ impl Role {
 
 /// Orders of several time columns tried, in this order.
 const PATTERNS: &[&[Role]] = &[
-    &[Role::Year, Role::Month, Role::Day, Role::Hour, Role::Minute, Role::Second],
+    &[
+        Role::Year,
+        Role::Month,
+        Role::Day,
+        Role::Hour,
+        Role::Minute,
+        Role::Second,
+    ],
     &[Role::Year, Role::Month, Role::Day, Role::Hour, Role::Minute],
-    &[Role::Year, Role::DayOfYear, Role::Hour, Role::Minute, Role::Second],
+    &[
+        Role::Year,
+        Role::DayOfYear,
+        Role::Hour,
+        Role::Minute,
+        Role::Second,
+    ],
     &[Role::Year, Role::DayOfYear, Role::Hour, Role::Minute],
     &[Role::Year, Role::DayOfYear, Role::HourMinute],
     &[Role::Year, Role::Month, Role::Day, Role::HourMinute],
@@ -774,8 +854,9 @@ fn find_time(rows: &[Vec<String>], cols: &[Col], header: bool) -> Vec<TimeGuess>
     let named_time = |c: usize| {
         cols[c].name.as_deref().is_some_and(|n| {
             let w = words(n);
-            w.iter()
-                .any(|x| ["time", "date", "timestamp", "datetime", "ts", "utc"].contains(&x.as_str()))
+            w.iter().any(|x| {
+                ["time", "date", "timestamp", "datetime", "ts", "utc"].contains(&x.as_str())
+            })
         })
     };
     let mut push = |cols_: Vec<usize>, form: TimeForm, rank: u8, names: usize, gaps: i64| {
@@ -811,7 +892,10 @@ fn find_time(rows: &[Vec<String>], cols: &[Col], header: bool) -> Vec<TimeGuess>
         if let Some(shapes) = shapes {
             if shapes.iter().all(|&(i, _)| (9..=10).contains(&i)) {
                 push(vec![c], TimeForm::EpochS, 4, names, 0);
-            } else if shapes.iter().all(|&(i, f)| (12..=13).contains(&i) && f == 0) {
+            } else if shapes
+                .iter()
+                .all(|&(i, f)| (12..=13).contains(&i) && f == 0)
+            {
                 push(vec![c], TimeForm::EpochMs, 4, names, 0);
             }
         }
@@ -880,7 +964,7 @@ fn find_time(rows: &[Vec<String>], cols: &[Col], header: bool) -> Vec<TimeGuess>
             push(cs.to_vec(), TimeForm::Format(f.join(" ")), 2, names, gaps);
         });
     }
-    found.sort_by(|a, b| b.score.cmp(&a.score));
+    found.sort_by_key(|g| std::cmp::Reverse(g.score));
     found
 }
 
@@ -916,11 +1000,7 @@ struct Chan {
 
 /// Drafts a station file from the lines of `sniff` (of the file `name`).
 pub fn draft(name: &str, sniff: &Sniff) -> Result<Draft> {
-    let lines: Vec<(usize, &str)> = sniff
-        .lines
-        .iter()
-        .map(|(n, s)| (*n, s.as_str()))
-        .collect();
+    let lines: Vec<(usize, &str)> = sniff.lines.iter().map(|(n, s)| (*n, s.as_str())).collect();
     let comment_lines = lines
         .iter()
         .filter(|(_, s)| s.trim_start().starts_with('#'))
@@ -953,9 +1033,9 @@ pub fn draft(name: &str, sniff: &Sniff) -> Result<Draft> {
         }
         // The block: from the first line where this count holds on the next
         // few lines too.
-        let Some(start) = (0..counts.len()).find(|&i| {
-            counts[i..].iter().take(5).all(|&c| c == fields)
-        }) else {
+        let Some(start) =
+            (0..counts.len()).find(|&i| counts[i..].iter().take(5).all(|&c| c == fields))
+        else {
             continue;
         };
         let consistent = counts[start..].iter().filter(|&&c| c == fields).count();
@@ -1130,7 +1210,11 @@ pub fn draft(name: &str, sniff: &Sniff) -> Result<Draft> {
 
     // The time; rows of several stations filtered if that is what it takes.
     let mut filter: Option<(usize, String)> = None;
-    let mut guesses = find_time(&data.iter().map(|r| (*r).clone()).collect::<Vec<_>>(), &cols, header);
+    let mut guesses = find_time(
+        &data.iter().map(|r| (*r).clone()).collect::<Vec<_>>(),
+        &cols,
+        header,
+    );
     let station_col = (0..fields).find(|&c| {
         let col = &cols[c];
         col.numbers == 0 && !col.texts.is_empty() && col.texts.len() <= 8
@@ -1194,9 +1278,7 @@ pub fn draft(name: &str, sniff: &Sniff) -> Result<Draft> {
     let meaning: Vec<Meaning> = cols
         .iter()
         .map(|c| match c.name.as_deref() {
-            Some(n) if !positional => {
-                meaning_by_name(n, c.unit.as_deref().and_then(unit_of))
-            }
+            Some(n) if !positional => meaning_by_name(n, c.unit.as_deref().and_then(unit_of)),
             Some(n) => meaning_by_name(n, c.unit.as_deref().and_then(unit_of)),
             None => Meaning::Unknown,
         })
@@ -1244,7 +1326,14 @@ pub fn draft(name: &str, sniff: &Sniff) -> Result<Draft> {
         let col = &cols[c];
         match meaning[c] {
             Meaning::Speed | Meaning::Gust if col.min >= 0.0 || col.min > -1.0 => {
-                let why = format!("the name says {}", if meaning[c] == Meaning::Gust { "gust" } else { "wind speed" });
+                let why = format!(
+                    "the name says {}",
+                    if meaning[c] == Meaning::Gust {
+                        "gust"
+                    } else {
+                        "wind speed"
+                    }
+                );
                 speed_cols.push((c, meaning[c], why));
             }
             Meaning::Direction if col.min >= -1.0 && col.max <= 720.0 => {
@@ -1266,7 +1355,9 @@ pub fn draft(name: &str, sniff: &Sniff) -> Result<Draft> {
     let dir_like = |col: &Col| {
         col.min >= 0.0 && col.max <= 360.0 && col.max - col.min >= 45.0 && !col.monotone()
     };
-    let unknown = |c: usize| matches!(meaning[c], Meaning::Unknown) || positional && meaning[c] == Meaning::Unknown;
+    let unknown = |c: usize| {
+        matches!(meaning[c], Meaning::Unknown) || positional && meaning[c] == Meaning::Unknown
+    };
     if dir_cols.is_empty() {
         // Directions right after a speed-like column (quality codes between allowed).
         for c in 0..fields {
@@ -1276,35 +1367,68 @@ pub fn draft(name: &str, sniff: &Sniff) -> Result<Draft> {
             let before = (0..c)
                 .rev()
                 .find(|&b| !cols[b].codes_like() || !vc(&used, b))
-                .filter(|&b| vc(&used, b) && speed_like(&cols[b]) && (unknown(b) || matches!(meaning[b], Meaning::Speed)));
+                .filter(|&b| {
+                    vc(&used, b)
+                        && speed_like(&cols[b])
+                        && (unknown(b) || matches!(meaning[b], Meaning::Speed))
+                });
             if let Some(b) = before {
-                dir_cols.push((c, "CHECK: no name; values like a direction, after a column like a speed".to_string()));
+                dir_cols.push((
+                    c,
+                    "CHECK: no name; values like a direction, after a column like a speed"
+                        .to_string(),
+                ));
                 if !speed_cols.iter().any(|s| s.0 == b) {
-                    speed_cols.push((b, Meaning::Speed, "CHECK: no name; values like a speed, before a column like a direction".to_string()));
+                    speed_cols.push((
+                        b,
+                        Meaning::Speed,
+                        "CHECK: no name; values like a speed, before a column like a direction"
+                            .to_string(),
+                    ));
                 }
             }
         }
     }
     if speed_cols.iter().all(|s| s.1 != Meaning::Speed) {
-        if let Some(c) = (0..fields).find(|&c| vc(&used, c) && unknown(c) && speed_like(&cols[c]) && !dir_cols.iter().any(|d| d.0 == c)) {
-            speed_cols.push((c, Meaning::Speed, "CHECK: only the values suggest a speed".to_string()));
+        if let Some(c) = (0..fields).find(|&c| {
+            vc(&used, c) && unknown(c) && speed_like(&cols[c]) && !dir_cols.iter().any(|d| d.0 == c)
+        }) {
+            speed_cols.push((
+                c,
+                Meaning::Speed,
+                "CHECK: only the values suggest a speed".to_string(),
+            ));
         }
     }
     speed_cols.sort_by_key(|s| s.0);
     dir_cols.sort_by_key(|d| d.0);
     for (c, m, why) in speed_cols {
         let id = next_id(if m == Meaning::Gust { "gust" } else { "ws" });
-        chans.push(Chan { col: c, id, meaning: m, why, quality: None });
+        chans.push(Chan {
+            col: c,
+            id,
+            meaning: m,
+            why,
+            quality: None,
+        });
         used.insert(c);
     }
     for (c, why) in dir_cols {
         let id = next_id("wd");
-        chans.push(Chan { col: c, id, meaning: Meaning::Direction, why, quality: None });
+        chans.push(Chan {
+            col: c,
+            id,
+            meaning: Meaning::Direction,
+            why,
+            quality: None,
+        });
         used.insert(c);
     }
     // Temperature, humidity, pressure: the first of each (air temperature first).
     let scalar = |used: &BTreeSet<usize>, m: Meaning, prefer: &[&str]| -> Option<usize> {
-        let cands: Vec<usize> = (0..fields).filter(|&c| vc(used, c) && meaning[c] == m).collect();
+        let cands: Vec<usize> = (0..fields)
+            .filter(|&c| vc(used, c) && meaning[c] == m)
+            .collect();
         cands
             .iter()
             .copied()
@@ -1315,9 +1439,17 @@ pub fn draft(name: &str, sniff: &Sniff) -> Result<Draft> {
             .or_else(|| cands.first().copied())
     };
     for (m, base, prefer) in [
-        (Meaning::Temperature, "t", &["air", "tair", "ta", "airtemp"][..]),
+        (
+            Meaning::Temperature,
+            "t",
+            &["air", "tair", "ta", "airtemp"][..],
+        ),
         (Meaning::Humidity, "rh", &["rh", "relative"][..]),
-        (Meaning::Pressure, "p", &["station", "stn", "baro", "pressure"][..]),
+        (
+            Meaning::Pressure,
+            "p",
+            &["station", "stn", "baro", "pressure"][..],
+        ),
     ] {
         let c = scalar(&used, m, prefer);
         let c = c.or_else(|| {
@@ -1336,11 +1468,24 @@ pub fn draft(name: &str, sniff: &Sniff) -> Result<Draft> {
         });
         if let Some(c) = c {
             let why = if meaning[c] == m {
-                format!("the name says {}", match m { Meaning::Temperature => "temperature", Meaning::Humidity => "humidity", _ => "pressure" })
+                format!(
+                    "the name says {}",
+                    match m {
+                        Meaning::Temperature => "temperature",
+                        Meaning::Humidity => "humidity",
+                        _ => "pressure",
+                    }
+                )
             } else {
                 "CHECK: only the values suggest air pressure in hPa".to_string()
             };
-            chans.push(Chan { col: c, id: next_id(base), meaning: m, why, quality: None });
+            chans.push(Chan {
+                col: c,
+                id: next_id(base),
+                meaning: m,
+                why,
+                quality: None,
+            });
             used.insert(c);
         }
     }
@@ -1348,11 +1493,15 @@ pub fn draft(name: &str, sniff: &Sniff) -> Result<Draft> {
     // Quality codes right after a channel's column.
     for ch in &mut chans {
         let qc = ch.col + 1;
-        if qc < fields && !used.contains(&qc) && cols[qc].codes_like() && !cols[ch.col].codes_like() {
+        if qc < fields && !used.contains(&qc) && cols[qc].codes_like() && !cols[ch.col].codes_like()
+        {
             let named_q = cols[qc].name.as_deref().is_none_or(|n| {
                 let w = words(n);
-                w.iter().any(|x| ["qc", "q", "flag", "flg", "quality", "qa", "status"].contains(&x.as_str()))
-                    || w.iter().any(|x| x.starts_with("qc") || x.starts_with("flag"))
+                w.iter().any(|x| {
+                    ["qc", "q", "flag", "flg", "quality", "qa", "status"].contains(&x.as_str())
+                }) || w
+                    .iter()
+                    .any(|x| x.starts_with("qc") || x.starts_with("flag"))
             });
             if named_q {
                 let good = cols[qc].distinct.iter().next().copied().unwrap_or(0);
@@ -1368,7 +1517,8 @@ pub fn draft(name: &str, sniff: &Sniff) -> Result<Draft> {
                 col: c,
                 id: next_id("x"),
                 meaning: Meaning::Unknown,
-                why: "CHECK: nothing was recognised; the first column of numbers, as a placeholder".into(),
+                why: "CHECK: nothing was recognised; the first column of numbers, as a placeholder"
+                    .into(),
                 quality: None,
             });
             used.insert(c);
@@ -1400,11 +1550,25 @@ pub fn draft(name: &str, sniff: &Sniff) -> Result<Draft> {
     // The text.
     let mut o = String::new();
     let mut found: Vec<String> = Vec::new();
-    let _ = writeln!(o, "# Station file drafted by `tenmin draft` from {}.", q(name));
-    let _ = writeln!(o, "# A starting point to check and edit, not a finished station file: every");
+    let _ = writeln!(
+        o,
+        "# Station file drafted by `tenmin draft` from {}.",
+        q(name)
+    );
+    let _ = writeln!(
+        o,
+        "# A starting point to check and edit, not a finished station file: every"
+    );
     let _ = writeln!(o, "# guess below comes from the first {read} of the file.");
-    let _ = writeln!(o, "# Check the lines marked CHECK (the time zone first), then try it:");
-    let _ = writeln!(o, "#   tenmin replay --config THIS-FILE.toml {} -o records.csv", shell_word(name));
+    let _ = writeln!(
+        o,
+        "# Check the lines marked CHECK (the time zone first), then try it:"
+    );
+    let _ = writeln!(
+        o,
+        "#   tenmin replay --config THIS-FILE.toml {} -o records.csv",
+        shell_word(name)
+    );
     let _ = writeln!(o, "#");
     let _ = writeln!(o, "# What was found:");
     let _ = writeln!(
@@ -1415,10 +1579,18 @@ pub fn draft(name: &str, sniff: &Sniff) -> Result<Draft> {
         recs.len() - start,
         recs[start].0,
         fields,
-        if odd > 0 { format!("; {odd} lines with other counts were left out of the guesses") } else { String::new() }
+        if odd > 0 {
+            format!("; {odd} lines with other counts were left out of the guesses")
+        } else {
+            String::new()
+        }
     );
     found.push(format!("delimiter {}", delim.said()));
-    let skip = if positional { first_data_line - 1 } else { header_line - 1 };
+    let skip = if positional {
+        first_data_line - 1
+    } else {
+        header_line - 1
+    };
     if recs[start].0 > 1 {
         let first_pre = recs.first().map_or("", |r| r.1);
         let _ = writeln!(
@@ -1432,7 +1604,10 @@ pub fn draft(name: &str, sniff: &Sniff) -> Result<Draft> {
         let _ = writeln!(o, "#   comment lines starting with \"#\": {comment_lines}");
     }
     if header {
-        let _ = writeln!(o, "#   header: line {header_line} (its fields are names where the data hold numbers)");
+        let _ = writeln!(
+            o,
+            "#   header: line {header_line} (its fields are names where the data hold numbers)"
+        );
         found.push(format!("header line {header_line}"));
     } else if positional {
         let _ = writeln!(
@@ -1440,7 +1615,10 @@ pub fn draft(name: &str, sniff: &Sniff) -> Result<Draft> {
             "#   header: lines {header_line} to {} hold names and units, more than [input] declares",
             first_data_line - 1
         );
-        let _ = writeln!(o, "#     (a header and one units line): they are skipped and columns given by position");
+        let _ = writeln!(
+            o,
+            "#     (a header and one units line): they are skipped and columns given by position"
+        );
         found.push(format!("{pre} header lines, columns by position"));
     } else {
         let _ = writeln!(o, "#   header: none (line {first_data_line} is already data): columns by position, counted from 1");
@@ -1461,8 +1639,16 @@ pub fn draft(name: &str, sniff: &Sniff) -> Result<Draft> {
                 TimeForm::EpochMs => "milliseconds since 1970-01-01 UTC".to_string(),
                 TimeForm::Format(f) => format!("the format {}", q(f)),
             };
-            let _ = writeln!(o, "#   time: {} read as {how}: every one of the {} rows read", cs.join(", "), t.times.len());
-            if let Some(other) = guesses.iter().find(|g| g.times != t.times && g.cols != t.cols) {
+            let _ = writeln!(
+                o,
+                "#   time: {} read as {how}: every one of the {} rows read",
+                cs.join(", "),
+                t.times.len()
+            );
+            if let Some(other) = guesses
+                .iter()
+                .find(|g| g.times != t.times && g.cols != t.cols)
+            {
                 let cs: Vec<String> = other.cols.iter().map(|&c| col_said(c)).collect();
                 let how = match &other.form {
                     TimeForm::Format(f) => q(f),
@@ -1470,7 +1656,11 @@ pub fn draft(name: &str, sniff: &Sniff) -> Result<Draft> {
                     TimeForm::EpochS => "epoch seconds".into(),
                     TimeForm::EpochMs => "epoch milliseconds".into(),
                 };
-                let _ = writeln!(o, "#     CHECK: also readable, giving other times: {} as {how}", cs.join(", "));
+                let _ = writeln!(
+                    o,
+                    "#     CHECK: also readable, giving other times: {} as {how}",
+                    cs.join(", ")
+                );
             }
             found.push(format!("time {}", cs.join(", ")));
             true
@@ -1488,14 +1678,27 @@ pub fn draft(name: &str, sniff: &Sniff) -> Result<Draft> {
             secs(period_ms)
         );
     } else if time_said {
-        let _ = writeln!(o, "#   sample period: CHECK: unknown (fewer than two rows read), 60 s written");
+        let _ = writeln!(
+            o,
+            "#   sample period: CHECK: unknown (fewer than two rows read), 60 s written"
+        );
     }
     if let Some((c, v)) = &filter {
-        let _ = writeln!(o, "#   rows of several stations: {} holds {} values; the draft keeps {}", col_said(*c), cols[*c].texts.len(), q(v));
+        let _ = writeln!(
+            o,
+            "#   rows of several stations: {} holds {} values; the draft keeps {}",
+            col_said(*c),
+            cols[*c].texts.len(),
+            q(v)
+        );
     }
     if !missing.is_empty() {
         let shown: Vec<String> = missing.iter().map(|m| q(m)).collect();
-        let _ = writeln!(o, "#   missing values written as: {} (besides empty fields and NaN)", shown.join(", "));
+        let _ = writeln!(
+            o,
+            "#   missing values written as: {} (besides empty fields and NaN)",
+            shown.join(", ")
+        );
     }
     let _ = writeln!(o);
 
@@ -1510,14 +1713,22 @@ pub fn draft(name: &str, sniff: &Sniff) -> Result<Draft> {
                 86_400 => "daily records".to_string(),
                 _ => format!("{i}-second records"),
             };
-            let _ = writeln!(o, "interval_s = {i:<12} # {what}, {n} samples each (at least 3 per interval)");
+            let _ = writeln!(
+                o,
+                "interval_s = {i:<12} # {what}, {n} samples each (at least 3 per interval)"
+            );
         }
         None => {
             let _ = writeln!(o, "interval_s = 600           # CHECK: the sample period does not divide any interval of a day evenly");
         }
     }
     if period_ms <= 1000 && 1000 % period_ms == 0 {
-        let _ = writeln!(o, "sample_rate_hz = {:<8} # {} between rows", 1000 / period_ms, secs(period_ms));
+        let _ = writeln!(
+            o,
+            "sample_rate_hz = {:<8} # {} between rows",
+            1000 / period_ms,
+            secs(period_ms)
+        );
     } else if period_ms <= 3_600_000 {
         let _ = writeln!(
             o,
@@ -1528,13 +1739,21 @@ pub fn draft(name: &str, sniff: &Sniff) -> Result<Draft> {
     } else {
         let _ = writeln!(o, "sample_period_s = 3600   # CHECK: the rows are {} apart; this build takes at most 3600 s", secs(period_ms));
     }
-    let _ = writeln!(o, "missing_values = []       # the file's missing-value codes are texts in [input] missing");
+    let _ = writeln!(
+        o,
+        "missing_values = []       # the file's missing-value codes are texts in [input] missing"
+    );
     let _ = writeln!(o);
     let stem = Path::new(name)
         .file_stem()
         .map(|s| s.to_string_lossy().into_owned())
         .unwrap_or_default();
-    let stem = stem.strip_suffix(".csv").or(stem.strip_suffix(".dat")).or(stem.strip_suffix(".txt")).unwrap_or(&stem).to_string();
+    let stem = stem
+        .strip_suffix(".csv")
+        .or(stem.strip_suffix(".dat"))
+        .or(stem.strip_suffix(".txt"))
+        .unwrap_or(&stem)
+        .to_string();
     let _ = writeln!(o, "[station]");
     let _ = writeln!(o, "name = {}   # CHECK: from the file name", q(&stem));
     let _ = writeln!(o);
@@ -1543,13 +1762,24 @@ pub fn draft(name: &str, sniff: &Sniff) -> Result<Draft> {
     let _ = writeln!(o, "[input]");
     let _ = writeln!(o, "delimiter = {}", delim.toml());
     if skip > 0 {
-        let _ = writeln!(o, "skip_lines = {skip:<10} # lines before the {}", if header { "header" } else { "first data line" });
+        let _ = writeln!(
+            o,
+            "skip_lines = {skip:<10} # lines before the {}",
+            if header { "header" } else { "first data line" }
+        );
     }
     if !header {
-        let _ = writeln!(o, "header = false            # columns by position, counted from 1");
+        let _ = writeln!(
+            o,
+            "header = false            # columns by position, counted from 1"
+        );
     }
     if units_line {
-        let _ = writeln!(o, "units_line = true         # line {} holds units", block[1].0);
+        let _ = writeln!(
+            o,
+            "units_line = true         # line {} holds units",
+            block[1].0
+        );
     }
     if comment_lines > 0 {
         let _ = writeln!(o, "comment = \"#\"");
@@ -1559,10 +1789,19 @@ pub fn draft(name: &str, sniff: &Sniff) -> Result<Draft> {
     }
     if !missing.is_empty() {
         let shown: Vec<String> = missing.iter().map(|m| q(m)).collect();
-        let _ = writeln!(o, "missing = [{}]   # CHECK: texts seen among the numbers", shown.join(", "));
+        let _ = writeln!(
+            o,
+            "missing = [{}]   # CHECK: texts seen among the numbers",
+            shown.join(", ")
+        );
     }
     if let Some((c, v)) = &filter {
-        let _ = writeln!(o, "filter = {{ column = {}, value = {} }}   # CHECK: the rows of one station", col_ref(*c), q(v));
+        let _ = writeln!(
+            o,
+            "filter = {{ column = {}, value = {} }}   # CHECK: the rows of one station",
+            col_ref(*c),
+            q(v)
+        );
     } else if let Some(sc) = station_col.filter(|c| !used.contains(c)) {
         if let Some(v) = data.first().map(|r| r[sc].trim().to_string()) {
             let _ = writeln!(
@@ -1589,10 +1828,16 @@ pub fn draft(name: &str, sniff: &Sniff) -> Result<Draft> {
             }
             match &t.form {
                 TimeForm::Rfc3339 => {
-                    let _ = writeln!(o, "# RFC 3339: each time carries its UTC offset, no zone needed");
+                    let _ = writeln!(
+                        o,
+                        "# RFC 3339: each time carries its UTC offset, no zone needed"
+                    );
                 }
                 TimeForm::EpochS => {
-                    let _ = writeln!(o, "epoch = \"s\"               # CHECK: seconds since 1970-01-01T00:00:00Z");
+                    let _ = writeln!(
+                        o,
+                        "epoch = \"s\"               # CHECK: seconds since 1970-01-01T00:00:00Z"
+                    );
                 }
                 TimeForm::EpochMs => {
                     let _ = writeln!(o, "epoch = \"ms\"              # CHECK: milliseconds since 1970-01-01T00:00:00Z");
@@ -1600,8 +1845,15 @@ pub fn draft(name: &str, sniff: &Sniff) -> Result<Draft> {
                 TimeForm::Format(f) => {
                     let _ = writeln!(o, "format = {}", q(f));
                     if f.contains("%d/%m") || f.contains("%m/%d") {
-                        let other = if f.contains("%d/%m") { f.replace("%d/%m", "%m/%d") } else { f.replace("%m/%d", "%d/%m") };
-                        if guesses.iter().any(|g| g.form == TimeForm::Format(other.clone())) {
+                        let other = if f.contains("%d/%m") {
+                            f.replace("%d/%m", "%m/%d")
+                        } else {
+                            f.replace("%m/%d", "%d/%m")
+                        };
+                        if guesses
+                            .iter()
+                            .any(|g| g.form == TimeForm::Format(other.clone()))
+                        {
                             let _ = writeln!(o, "# CHECK: {} reads the rows too: day and month cannot be told apart here", q(&other));
                         }
                     }
@@ -1610,7 +1862,11 @@ pub fn draft(name: &str, sniff: &Sniff) -> Result<Draft> {
                         .filter_map(|c| names[c].as_deref())
                         .filter(|n| {
                             words(n).iter().any(|w| {
-                                ["mst", "lst", "local", "pst", "cst", "est", "akst", "hst", "cet", "eet", "lt", "standard"].contains(&w.as_str())
+                                [
+                                    "mst", "lst", "local", "pst", "cst", "est", "akst", "hst",
+                                    "cet", "eet", "lt", "standard",
+                                ]
+                                .contains(&w.as_str())
                             })
                         })
                         .map(q)
@@ -1631,16 +1887,31 @@ pub fn draft(name: &str, sniff: &Sniff) -> Result<Draft> {
             }
         }
         None => {
-            let _ = writeln!(o, "# CHECK: no time was found; name the column(s) and their format, such as");
-            let _ = writeln!(o, "# columns = [1, 2]");
-            let _ = writeln!(o, "# format = \"%Y-%m-%d %H:%M:%S\"");
-            let _ = writeln!(o, "column = 1");
+            let _ = writeln!(
+                o,
+                "# CHECK: no time was found: this draft does not load until you name the"
+            );
+            let _ = writeln!(
+                o,
+                "# time column(s) and their format here (see `tenmin draft --help`)."
+            );
+            let _ = writeln!(
+                o,
+                "columns = []              # CHECK: such as [1, 2] or [\"Date\", \"Time\"]"
+            );
+            let _ = writeln!(
+                o,
+                "format = \"\"               # CHECK: such as \"%Y-%m-%d %H:%M:%S\""
+            );
         }
     }
     let _ = writeln!(o);
 
     // The channels.
-    let first_speed = chans.iter().find(|c| c.meaning == Meaning::Speed).map(|c| (c.col, c.id.clone()));
+    let first_speed = chans
+        .iter()
+        .find(|c| c.meaning == Meaning::Speed)
+        .map(|c| (c.col, c.id.clone()));
     for ch in &chans {
         let col = &cols[ch.col];
         let unit = col.unit.as_deref().and_then(unit_of);
@@ -1689,7 +1960,10 @@ pub fn draft(name: &str, sniff: &Sniff) -> Result<Draft> {
                 _ => 0,
             };
             if col.numbers == 0 {
-                let _ = writeln!(o, "resolution = 0.01         # CHECK: no numbers in the rows read");
+                let _ = writeln!(
+                    o,
+                    "resolution = 0.01         # CHECK: no numbers in the rows read"
+                );
             } else {
                 let dec = (col.dec + extra).min(4);
                 let _ = writeln!(
@@ -1698,13 +1972,20 @@ pub fn draft(name: &str, sniff: &Sniff) -> Result<Draft> {
                     resolution(dec),
                     col.dec,
                     if col.dec == 1 { "" } else { "s" },
-                    if extra > 0 { ", finer after the unit conversion" } else { "" }
+                    if extra > 0 {
+                        ", finer after the unit conversion"
+                    } else {
+                        ""
+                    }
                 );
             }
         }
         match ch.meaning {
             Meaning::Temperature => {
-                let _ = writeln!(o, "range = [-50, 60]         # degC, common practice for air temperature: CHECK");
+                let _ = writeln!(
+                    o,
+                    "range = [-50, 60]         # degC, common practice for air temperature: CHECK"
+                );
             }
             Meaning::Humidity => {
                 let _ = writeln!(o, "range = [0, 100]          # %, common practice");
@@ -1728,13 +2009,25 @@ pub fn draft(name: &str, sniff: &Sniff) -> Result<Draft> {
                 let _ = writeln!(o, "speed_channel = {}", q(&l));
             }
         }
-        let _ = writeln!(o, "column = {:<16} # {}: {}, {}", col_ref(ch.col), col_said(ch.col), ch.why, col.values_said());
+        let _ = writeln!(
+            o,
+            "column = {:<16} # {}: {}, {}",
+            col_ref(ch.col),
+            col_said(ch.col),
+            ch.why,
+            col.values_said()
+        );
         if let Some(s) = source {
             let _ = writeln!(o, "source_unit = {}", q(s));
         }
         if let Some((qc, good)) = &ch.quality {
             let codes: Vec<String> = cols[*qc].distinct.iter().map(|v| v.to_string()).collect();
-            let _ = writeln!(o, "# quality = {{ column = {}, good = [{}] }}", col_ref(*qc), q(good));
+            let _ = writeln!(
+                o,
+                "# quality = {{ column = {}, good = [{}] }}",
+                col_ref(*qc),
+                q(good)
+            );
             let _ = writeln!(
                 o,
                 "#   {} holds codes {}: CHECK which mean good. This build does not read quality columns yet: uncomment when it does.",
@@ -1746,11 +2039,16 @@ pub fn draft(name: &str, sniff: &Sniff) -> Result<Draft> {
     }
 
     // Columns left out.
-    let rest: Vec<usize> = (0..fields).filter(|c| !used.contains(c) && !chans.iter().any(|ch| ch.col == *c)).collect();
+    let rest: Vec<usize> = (0..fields)
+        .filter(|c| !used.contains(c) && !chans.iter().any(|ch| ch.col == *c))
+        .collect();
     if !rest.is_empty() || !time_cols.is_empty() {
         let _ = writeln!(o, "# Columns not drafted as channels (add a [[channel]] with `column` for those you need):");
         for c in 0..fields {
-            if chans.iter().any(|ch| ch.col == c || ch.quality.as_ref().is_some_and(|q| q.0 == c)) {
+            if chans
+                .iter()
+                .any(|ch| ch.col == c || ch.quality.as_ref().is_some_and(|q| q.0 == c))
+            {
                 continue;
             }
             let col = &cols[c];
@@ -1759,20 +2057,38 @@ pub fn draft(name: &str, sniff: &Sniff) -> Result<Draft> {
             } else if filter.as_ref().is_some_and(|f| f.0 == c) {
                 "the station filter".to_string()
             } else if !col.numeric() {
-                format!("text ({})", col.texts.keys().take(3).map(|t| q(&clip(t, 20))).collect::<Vec<_>>().join(", "))
+                format!(
+                    "text ({})",
+                    col.texts
+                        .keys()
+                        .take(3)
+                        .map(|t| q(&clip(t, 20)))
+                        .collect::<Vec<_>>()
+                        .join(", ")
+                )
             } else {
                 let guess = match meaning[c] {
                     Meaning::Other(w) => format!("{w}?"),
                     Meaning::Temperature => "a temperature besides the air temperature?".into(),
                     Meaning::Humidity => "another humidity?".into(),
                     Meaning::Pressure => "another pressure?".into(),
-                    Meaning::Speed | Meaning::Gust | Meaning::Direction => "wind, but its values do not fit?".into(),
+                    Meaning::Speed | Meaning::Gust | Meaning::Direction => {
+                        "wind, but its values do not fit?".into()
+                    }
                     Meaning::Unknown if col.codes_like() => "codes (quality or status?)".into(),
                     Meaning::Unknown
                         if col.integer
-                            && [Role::Year, Role::Month, Role::Day, Role::DayOfYear, Role::Hour, Role::Minute, Role::Second]
-                                .iter()
-                                .any(|r| col.name.as_deref().is_some_and(|n| r.named(n))) =>
+                            && [
+                                Role::Year,
+                                Role::Month,
+                                Role::Day,
+                                Role::DayOfYear,
+                                Role::Hour,
+                                Role::Minute,
+                                Role::Second,
+                            ]
+                            .iter()
+                            .any(|r| col.name.as_deref().is_some_and(|n| r.named(n))) =>
                     {
                         "a date or time field, not used for the time?".into()
                     }
@@ -1784,7 +2100,10 @@ pub fn draft(name: &str, sniff: &Sniff) -> Result<Draft> {
         }
     }
 
-    let ids: Vec<String> = chans.iter().map(|c| format!("{} = {}", c.id, col_said(c.col))).collect();
+    let ids: Vec<String> = chans
+        .iter()
+        .map(|c| format!("{} = {}", c.id, col_said(c.col)))
+        .collect();
     let summary = format!(
         "{name}: {}; channels {}; check the lines marked CHECK (the time zone first)",
         found.join(", "),
@@ -1797,7 +2116,11 @@ pub fn draft(name: &str, sniff: &Sniff) -> Result<Draft> {
 fn gust_line(o: &mut String, period_ms: i64) {
     let per = 3000 / period_ms.max(1);
     if period_ms > 3000 {
-        let _ = writeln!(o, "# no gust_window_s: a 3-second gust cannot come from samples {} apart", secs(period_ms));
+        let _ = writeln!(
+            o,
+            "# no gust_window_s: a 3-second gust cannot come from samples {} apart",
+            secs(period_ms)
+        );
     } else if 3000 % period_ms != 0 || per > config::GUST_CAPACITY as i64 {
         let n = per.clamp(1, config::GUST_CAPACITY as i64);
         let _ = writeln!(
@@ -1813,7 +2136,9 @@ fn height(name: &str) -> Option<String> {
     let b = strip_unit(name).as_bytes();
     let mut i = 0;
     while i < b.len() {
-        if b[i].is_ascii_digit() && (i == 0 || !b[i - 1].is_ascii_alphanumeric() && b[i - 1] != b'.') {
+        if b[i].is_ascii_digit()
+            && (i == 0 || !b[i - 1].is_ascii_alphanumeric() && b[i - 1] != b'.')
+        {
             let s = i;
             while i < b.len() && (b[i].is_ascii_digit() || b[i] == b'.') {
                 i += 1;
@@ -1823,7 +2148,9 @@ fn height(name: &str) -> Option<String> {
                 j += 1;
             }
             let after = b.get(j + 1).copied();
-            if b.get(j) == Some(&b'm') && !after.is_some_and(|c| c.is_ascii_alphanumeric() || c == b'/') {
+            if b.get(j) == Some(&b'm')
+                && !after.is_some_and(|c| c.is_ascii_alphanumeric() || c == b'/')
+            {
                 let v = std::str::from_utf8(&b[s..i]).ok()?;
                 let x: f64 = v.parse().ok()?;
                 if x > 0.0 && x < 1000.0 {
@@ -1872,12 +2199,66 @@ fn clip(s: &str, n: usize) -> String {
 /// A path as one shell word (quoted when it needs it).
 fn shell_word(s: &str) -> String {
     if !s.is_empty()
-        && s
-            .bytes()
+        && s.bytes()
             .all(|b| b.is_ascii_alphanumeric() || b"/._-+=:,@".contains(&b))
     {
         s.to_string()
     } else {
         format!("'{}'", s.replace('\'', "'\\''"))
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn fields_split_with_quotes_and_spaces() {
+        assert_eq!(split("a,\"b,c\",d", Delim::Comma), ["a", "b,c", "d"]);
+        assert_eq!(
+            split("\"say \"\"hi\"\"\";2", Delim::Semicolon),
+            ["say \"hi\"", "2"]
+        );
+        assert_eq!(
+            split("  2016   1 -9999.9 ", Delim::Spaces),
+            ["2016", "1", "-9999.9"]
+        );
+    }
+
+    #[test]
+    fn decimals_without_printing_noise() {
+        // 1.512 printed from its nearest double (Python's repr, from memory).
+        assert_eq!(decimals("1.5119999999999998", 1.5119999999999998), 3);
+        assert_eq!(decimals("10.357019999999999", 10.357019999999999), 5);
+        assert_eq!(decimals("3,40", 3.4), 2);
+        assert_eq!(decimals("270", 270.0), 0);
+    }
+
+    #[test]
+    fn names_units_and_heights() {
+        let m = |n: &str| meaning_by_name(n, bracket_unit(n).as_deref().and_then(unit_of));
+        assert_eq!(m("Avg Wind Speed @ 3m [m/s]"), Meaning::Speed);
+        assert_eq!(m("Peak Wind Speed @ 3m [m/s]"), Meaning::Gust);
+        assert_eq!(
+            m("Avg Wind Direction @ 3m [deg from N]"),
+            Meaning::Direction
+        );
+        assert_eq!(m("WS_80m_SD"), Meaning::Other("speed standard deviation"));
+        assert_eq!(m("Air Temperature [deg C]"), Meaning::Temperature);
+        assert_eq!(m("Rel Humidity [%]"), Meaning::Humidity);
+        assert_eq!(m("Station Pressure [mBar]"), Meaning::Pressure);
+        assert_eq!(m("dewp"), Meaning::Other("dew point"));
+        assert_eq!(unit_of("mBar"), Some(UnitOf::Pressure(Some("mbar"))));
+        assert_eq!(unit_of("°F"), Some(UnitOf::Temperature(Some("degF"))));
+        assert_eq!(height("Avg Wind Speed @ 3m [m/s]").as_deref(), Some("3"));
+        assert_eq!(height("WS_80m_A").as_deref(), Some("80"));
+        assert_eq!(height("wind_speed_mph"), None);
+    }
+
+    #[test]
+    fn a_steady_time_needs_one_common_step() {
+        assert!(steady(&[0, 60, 120, 180, 240]));
+        assert!(!steady(&[0, 60, 0, 60, 0]));
+        assert!(!steady(&[0, 1, 3, 6, 10, 15]));
     }
 }
