@@ -181,7 +181,12 @@ fn angle_close(a: f64, b: f64) -> bool {
 /// records hold no row the reference does not.
 fn check_against_reference(folder: &str, file: &str) {
     let recs = replay(folder, &data(folder, file), &[]);
-    let (got, order) = records(&recs);
+    compare_with_reference(folder, &recs);
+}
+
+/// The comparison of [`check_against_reference`], on records already made.
+fn compare_with_reference(folder: &str, recs: &[u8]) {
+    let (got, order) = records(recs);
     let want = reference(folder);
     let direction_channels = ["wd"];
     let mut problems = Vec::new();
@@ -252,6 +257,37 @@ fn midc_1min_matches_the_pandas_reference() {
 fn surfrad_1min_matches_the_pandas_reference() {
     let (f, d) = EXAMPLES[1];
     check_against_reference(f, d);
+}
+
+/// Until quality columns are read: the network file's reader (runs of
+/// spaces, two lines skipped, columns by position, five time columns) against
+/// the reference, with the example's `quality` keys left out. Every quality
+/// code the example reads is 0 (good) in this file (checked here), so the
+/// reference holds for this station file too.
+#[test]
+fn surfrad_1min_without_quality_keys_matches_the_pandas_reference() {
+    let (folder, file) = EXAMPLES[1];
+    let original = std::fs::read_to_string(root().join(data(folder, file))).unwrap();
+    for l in original.lines().skip(2) {
+        let f: Vec<&str> = l.split_whitespace().collect();
+        for q in [40, 42, 44, 46, 48] {
+            assert_eq!(f[q - 1], "0", "quality column {q} of {l:?}");
+        }
+    }
+    let station = std::fs::read_to_string(root().join(config(folder))).unwrap();
+    let kept: Vec<&str> = station
+        .lines()
+        .filter(|l| !l.starts_with("quality ="))
+        .collect();
+    assert_eq!(station.lines().count() - kept.len(), 5, "5 quality keys");
+    let dir = tempfile::tempdir().unwrap();
+    let cfg = dir.path().join("station.toml");
+    std::fs::write(&cfg, kept.join("\n") + "\n").unwrap();
+    let cfg = cfg.to_str().expect("a UTF-8 temp path");
+    let input = data(folder, file);
+    let out = tenmin(&["replay", "--config", cfg, &input], &root());
+    assert_eq!(out.status.code(), Some(0), "{}", text(&out.stderr));
+    compare_with_reference(folder, &out.stdout);
 }
 
 #[test]
@@ -357,4 +393,130 @@ fn the_reference_file_covers_every_example() {
         };
         assert_eq!(rows.len(), expected, "{folder}");
     }
+}
+
+/// `line` with its `n`-th (1-based) whitespace-separated field replaced by
+/// `to`, padded on the left to the field's width so the columns stay aligned.
+fn replace_field(line: &str, n: usize, to: &str) -> String {
+    let bytes = line.as_bytes();
+    let mut i = 0;
+    let mut k = 0;
+    while i < bytes.len() {
+        while i < bytes.len() && bytes[i] == b' ' {
+            i += 1;
+        }
+        let start = i;
+        while i < bytes.len() && bytes[i] != b' ' {
+            i += 1;
+        }
+        k += 1;
+        if k == n {
+            let width = i - start;
+            return format!("{}{to:>width$}{}", &line[..start], &line[i..]);
+        }
+    }
+    panic!("line has no field {n}: {line:?}");
+}
+
+/// The network file's quality codes are all 0 (good) in the five columns the
+/// example reads (checked below), so the file as shipped puts no sample out by
+/// its code: plant bad codes in a copy and check that exactly those samples
+/// leave the statistics and are counted apart.
+#[test]
+#[ignore = "waits for quality columns"]
+fn surfrad_1min_a_bad_quality_code_takes_the_sample_out() {
+    let (folder, file) = EXAMPLES[1];
+    let original = std::fs::read_to_string(root().join(data(folder, file))).unwrap();
+    let mut lines: Vec<String> = original.lines().map(str::to_string).collect();
+    for l in &lines[2..] {
+        let f: Vec<&str> = l.split_whitespace().collect();
+        for q in [40, 42, 44, 46, 48] {
+            assert_eq!(f[q - 1], "0", "quality column {q} of {l:?}");
+        }
+    }
+    // File lines 3 to 5 are 00:00 to 00:02 UTC: the speed's code (field 44)
+    // set to 1. File line 13 is 00:10: the direction's code (field 46) set to 2.
+    for l in &mut lines[2..5] {
+        *l = replace_field(l, 44, "1");
+    }
+    lines[12] = replace_field(&lines[12], 46, "2");
+    let dir = tempfile::tempdir().unwrap();
+    let planted = dir.path().join(file);
+    std::fs::write(&planted, lines.join("\n") + "\n").unwrap();
+
+    let plain = String::from_utf8(replay(folder, &data(folder, file), &[])).unwrap();
+    let got = String::from_utf8(replay(folder, planted.to_str().unwrap(), &[])).unwrap();
+    let header: Vec<&str> = got.lines().next().unwrap().split(',').collect();
+    let col = |name: &str| {
+        header
+            .iter()
+            .position(|h| *h == name)
+            .unwrap_or_else(|| panic!("records have no column {name}: {header:?}"))
+    };
+    let (n_valid, mean, flagged) = (col("n_valid"), col("mean"), col("n_flagged"));
+    let held = [
+        "n_valid",
+        "n_missing",
+        "n_out_of_range",
+        "n_rejected",
+        "n_flagged",
+    ]
+    .map(col);
+    assert_eq!(plain.lines().count(), got.lines().count());
+    let mut changed = 0;
+    for (p, g) in plain.lines().zip(got.lines()).skip(1) {
+        let f: Vec<&str> = g.split(',').collect();
+        // Every sample in one tally: each interval holds 10 rows of the file.
+        let sum: u64 = held.iter().map(|&i| f[i].parse::<u64>().unwrap()).sum();
+        assert_eq!(sum, 10, "{g}");
+        match (f[0], f[2]) {
+            ("2016-01-01T00:00:00Z", "ws") => {
+                changed += 1;
+                assert_eq!((f[n_valid], f[flagged]), ("7", "3"), "{g}");
+                // The mean of the speeds of file lines 6 to 12 (00:03 to
+                // 00:09), in tenths of m/s (the channel's resolution).
+                let tenths: f64 = lines[5..12]
+                    .iter()
+                    .map(|l| {
+                        let v: f64 = l.split_whitespace().nth(42).unwrap().parse().unwrap();
+                        (v * 10.0).round()
+                    })
+                    .sum();
+                let want = tenths / 70.0;
+                let m: f64 = f[mean].parse().unwrap();
+                assert!(close(m, want), "{g}: mean {m}, expected {want}");
+            }
+            ("2016-01-01T00:10:00Z", "wd") => {
+                changed += 1;
+                assert_eq!((f[n_valid], f[flagged]), ("9", "1"), "{g}");
+            }
+            // The 00:00 direction keeps its 10 samples; only its
+            // speed-weighted resultant columns may change (3 speeds are out).
+            ("2016-01-01T00:00:00Z", "wd") => {
+                assert_eq!((f[n_valid], f[flagged]), ("10", "0"), "{g}");
+            }
+            _ => {
+                assert_eq!(f[flagged], "0", "{g}");
+                assert_eq!(p, g, "a row without planted codes changed");
+            }
+        }
+    }
+    assert_eq!(changed, 2);
+}
+
+#[test]
+fn replace_field_keeps_the_columns() {
+    let line = " 2016   1  1  1  0  0  0.000  91.65    -1.8 0    -0.8 0";
+    assert_eq!(
+        replace_field(line, 10, "1"),
+        " 2016   1  1  1  0  0  0.000  91.65    -1.8 1    -0.8 0"
+    );
+    assert_eq!(
+        replace_field(line, 11, "12.5"),
+        " 2016   1  1  1  0  0  0.000  91.65    -1.8 0    12.5 0"
+    );
+    assert_eq!(
+        replace_field(line, 1, "2017"),
+        " 2017   1  1  1  0  0  0.000  91.65    -1.8 0    -0.8 0"
+    );
 }
