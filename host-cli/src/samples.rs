@@ -1006,12 +1006,17 @@ impl Declared {
         } else {
             Vec::new()
         };
-        let find = |c: &Column, key: &str| -> Result<usize> {
+        // `key` is the station file's key, `at` its line there (0: a default).
+        let find = |c: &Column, key: &str, at: usize| -> Result<usize> {
+            let whose = match at {
+                0 => format!("{key} of {station} (by default)"),
+                _ => format!("{key} at {station}:{at}"),
+            };
             match c {
                 Column::Index(i) => {
                     if table.header && *i >= names.len() {
                         bail!(
-                            "{}:{line}: the header has {} columns; {key} in {station} names column {} (positions count from 1)",
+                            "{}:{line}: the header has {} columns; {whose} names column {} (positions count from 1)",
                             path.display(),
                             names.len(),
                             i + 1
@@ -1021,7 +1026,7 @@ impl Declared {
                 }
                 Column::Name(n) => names.iter().position(|h| h == n).ok_or_else(|| {
                     anyhow!(
-                        "{}:{line}: no column {n:?} in the header, which {key} in {station} names; the header has {}",
+                        "{}:{line}: no column {n:?} in the header, which {whose} names; the header has {}",
                         path.display(),
                         names.iter().map(|h| format!("{h:?}")).collect::<Vec<_>>().join(", ")
                     )
@@ -1031,20 +1036,24 @@ impl Declared {
         let time = table
             .time_columns
             .iter()
-            .map(|c| find(c, "[input.time]"))
+            .map(|c| find(c, "the time column of [input.time]", table.time_line))
             .collect::<Result<Vec<_>>>()?;
         let mut chan = Vec::with_capacity(cfg.channels.len());
         for (spec, src) in cfg.channels.iter().zip(&table.sources) {
-            let key = format!("channel {:?}", spec.id);
-            let col = find(&src.column, &key)?;
+            let key = format!("`column` of channel {:?}", spec.id);
+            let col = find(&src.column, &key, src.line)?;
             let q = match &src.quality {
-                Some(q) => Some(find(&q.column, &format!("the `quality` of {key}"))?),
+                Some(q) => Some(find(
+                    &q.column,
+                    &format!("`quality` of channel {:?}", spec.id),
+                    q.line,
+                )?),
                 None => None,
             };
             chan.push((col, spec.decode, q));
         }
         let filter = match &table.filter {
-            Some(f) => Some(find(&f.column, "[input] filter")?),
+            Some(f) => Some(find(&f.column, "`filter` of [input]", f.line)?),
             None => None,
         };
         let highest = time
