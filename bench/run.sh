@@ -90,6 +90,50 @@ else
 fi
 
 echo
+echo "## declared layout and compressed input (30 days, --jobs 1, alternating runs, median of $RUNS)"
+# The same samples as a field file (semicolons, decimal commas, local time with
+# end labels, bench/field_layout.py) and as a .zst of the own CSV: the same
+# records, so the ratios time the reader alone.
+python3 bench/field_layout.py "$STATION" "$S30" "$DIR"
+zstd -q -f -k "$S30" -o "$S30.zst" 2>/dev/null || true
+"$BIN" replay -q -j 1 -c "$STATION" "$S30" -o "$DIR/own.csv"
+"$BIN" replay -q -j 1 -c "$DIR/field.toml" "$DIR/field.csv" -o "$DIR/layout.csv"
+cmp -s "$DIR/own.csv" "$DIR/layout.csv" && echo "declared layout: records identical to the own CSV's"
+kinds="own layout"
+if [ -s "$S30.zst" ]; then
+    "$BIN" replay -q -j 1 -c "$STATION" "$S30.zst" -o "$DIR/zst.csv"
+    cmp -s "$DIR/own.csv" "$DIR/zst.csv" && echo ".zst: records identical to the plain file's"
+    kinds="$kinds zst"
+else
+    echo "(no zstd command: apt-get install zstd for the .zst comparison)"
+fi
+for k in $kinds; do : >"$DIR/t-$k"; done
+for _ in $(seq "$RUNS"); do
+    for k in $kinds; do
+        case $k in
+            own) args=(-c "$STATION" "$S30") ;;
+            layout) args=(-c "$DIR/field.toml" "$DIR/field.csv") ;;
+            zst) args=(-c "$STATION" "$S30.zst") ;;
+        esac
+        t0=$(now)
+        "$BIN" replay -q -j 1 "${args[@]}" -o "$DIR/x.csv"
+        t1=$(now)
+        echo "$t1 - $t0" | bc -l >>"$DIR/t-$k"
+    done
+done
+own=$(median <"$DIR/t-own")
+own_b=$(stat -c %s "$S30")
+for k in $kinds; do
+    t=$(median <"$DIR/t-$k")
+    case $k in
+        layout) b=$(stat -c %s "$DIR/field.csv") ;;
+        *) b=$own_b ;;
+    esac
+    awk -v k="$k" -v t="$t" -v o="$own" -v b="$b" -v ob="$own_b" \
+        'BEGIN {printf "%-7s %.3f s  %.2f times the own CSV'"'"'s time per input byte\n", k, t, (t / b) / (o / ob)}'
+done
+
+echo
 echo "## against numpy/pandas (30 days, alternating runs, median of $RUNS)"
 if python3 -c "import numpy, pandas" 2>/dev/null; then
     ref=(python3 bench/pandas_reference.py "$STATION" "$S30")

@@ -375,6 +375,7 @@ pub fn parse(path: &Path, text: &str) -> Result<StationFile> {
         &sources,
         sample_period_ms,
         &|span, msg| at.err(span, &msg),
+        &|span| at.line(&span),
     )?;
     let file = StationFile {
         path: path.to_path_buf(),

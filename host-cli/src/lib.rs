@@ -13,6 +13,7 @@
 pub mod config;
 pub mod decode;
 pub mod demo;
+pub mod draft;
 pub mod engine;
 pub mod export;
 pub mod fuzzing;
@@ -242,6 +243,37 @@ Frames that do not match the station file are an error.",
         )
     )]
     Decode(DecodeArgs),
+    /// Look at a field file as it is and print a starter station file for it.
+    #[command(
+        long_about = "Look at the start of a field file as the logger or the archive wrote it (at \
+most the first 1 MiB or 5000 lines; .gz and .zst are decompressed) and print a starter station \
+file declaring its layout, for you to check and edit rather than write from nothing.
+
+What it detects: the delimiter (comma, semicolon, tab or runs of spaces: the one giving the same \
+number of fields on the most lines), lines of metadata before the table, a header line (words \
+where the data hold numbers), a units line after it, comment lines starting with #, a decimal \
+comma; the time column or columns and their format (RFC 3339, epoch seconds or milliseconds, \
+dates like 2016-01-01 00:00:00 or 1/1/2022 0:05, or year, day-of-year or month and day, hour \
+and minute in columns of their own), kept only when it reads every row read and the times \
+increase with one common step; that step as the sample period, and an interval of 600 s (or an \
+hour or a day for slower data); missing-value codes among the numbers (-9999, -7999, NA ...); \
+and for each column a guess of what it measures from its name, its unit ([m/s], (mph), a units \
+line) and its values: wind speed (ws, ws2 ...), gust, wind direction (wd ...), air \
+temperature (t), humidity (rh) and pressure (p), with a resolution from the decimals written, \
+the usual range for the kind and a quality column after a value (written commented out: this \
+build does not read quality columns yet). Columns it does not draft are listed as comments.
+
+You must check the draft: the file rarely says its time zone (UTC is written, marked CHECK, with \
+a hint when a column name suggests local standard time, such as MST), whether a stamp marks the \
+start or the end of its period, the units the file does not name, and every guess of a column's \
+meaning. Lines to check are marked CHECK. The draft is a station file `tenmin replay` loads as \
+it is.",
+        after_long_help = concat!(
+            "Examples:\n  tenmin draft logger-2024-06.dat -o station.toml\n  tenmin replay --config station.toml logger-2024-06.dat -o records.csv\n\n",
+            "Exit codes:\n  0  a draft was written\n  2  bad input (an empty file, not text, no line end in the first 1 MiB, no table of\n     numbers), bad usage or an I/O error (the message names the file)"
+        )
+    )]
+    Draft(draft::DraftArgs),
 }
 
 #[derive(Args, Debug)]
@@ -415,6 +447,7 @@ fn run(cli: Cli) -> Result<ExitCode> {
         Command::Report(a) => report::run(&a),
         Command::Export(a) => export::run(&a),
         Command::Decode(a) => decode::run(&a),
+        Command::Draft(a) => draft::run(&a),
     }
 }
 

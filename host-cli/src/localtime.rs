@@ -236,8 +236,18 @@ impl Format {
         Ok(Format { toks })
     }
 
-    /// Reads `text` into local civil fields (hour may be 24).
-    fn read(&self, text: &[u8]) -> Result<Local, TimeProblem> {
+    /// Whether a row's time can come from the previous row's by its minute
+    /// and second alone ([`Memo`]): the format has both, and no fraction.
+    fn memo_ok(&self) -> bool {
+        self.toks.contains(&Tok::Minute)
+            && self.toks.contains(&Tok::Second)
+            && !self.toks.contains(&Tok::Fraction)
+    }
+
+    /// Reads `text` into local civil fields (hour may be 24), with the byte
+    /// spans of the minute and the second.
+    fn read_spans(&self, text: &[u8]) -> Result<(Local, [(usize, usize); 2]), TimeProblem> {
+        let mut spans = [(0usize, 0usize); 2];
         let mut l = Local::default();
         let mut p = 0usize;
         let bad = |p: usize| TimeProblem::Format { at: p };
@@ -293,6 +303,11 @@ impl Format {
                     let v = text[p..p + n]
                         .iter()
                         .fold(0u32, |v, c| v * 10 + u32::from(c - b'0'));
+                    match *tok {
+                        Tok::Minute => spans[0] = (p, n),
+                        Tok::Second => spans[1] = (p, n),
+                        _ => {}
+                    }
                     p += n;
                     match *tok {
                         Tok::Year => l.year = Some(v as i32),
@@ -315,8 +330,61 @@ impl Format {
         if p != text.len() {
             return Err(bad(p));
         }
-        Ok(l)
+        Ok((l, spans))
     }
+}
+
+/// The last time read with a format, so that the next row, whose text
+/// differs only in its minute and second digits (consecutive samples within
+/// an hour), is read without the format and the zone: the same result, as
+/// local civil time is affine in minutes and seconds within an hour, and the
+/// zone's offset is cached for the span it holds ([`ZoneCache`]).
+#[derive(Clone, Debug, Default)]
+pub struct Memo {
+    text: Vec<u8>,
+    /// Byte spans of the minute and the second in `text`.
+    spans: [(usize, usize); 2],
+    /// Local milliseconds (read as if UTC) of minute 0, second 0.
+    hour_ms: i64,
+    valid: bool,
+}
+
+impl Memo {
+    /// The local milliseconds of `text` if it differs from the memo's only in
+    /// the minute and second digits, each still below 60.
+    #[inline]
+    fn local_ms(&self, text: &[u8]) -> Option<i64> {
+        if !self.valid || text.len() != self.text.len() {
+            return None;
+        }
+        let [(m0, mn), (s0, sn)] = self.spans;
+        // Every byte equal but the minute's and the second's (short texts: a
+        // plain loop, no call).
+        for (k, (a, b)) in text.iter().zip(&self.text).enumerate() {
+            if a != b && k.wrapping_sub(m0) >= mn && k.wrapping_sub(s0) >= sn {
+                return None;
+            }
+        }
+        let num = |(at, n): (usize, usize)| -> Option<i64> {
+            let d = &text[at..at + n];
+            d.iter()
+                .all(u8::is_ascii_digit)
+                .then(|| d.iter().fold(0i64, |v, c| v * 10 + i64::from(c - b'0')))
+        };
+        let (m, s) = (num((m0, mn))?, num((s0, sn))?);
+        (m < 60 && s < 60).then_some(self.hour_ms + m * 60_000 + s * 1000)
+    }
+}
+
+/// A named zone's offset over the span of UTC instants it holds, so that
+/// only a row outside the span asks the zone database.
+#[derive(Clone, Copy, Debug, Default)]
+pub struct ZoneCache {
+    /// Local milliseconds (read as if UTC) from which, and before which, every
+    /// local time has exactly this offset.
+    from: i64,
+    to: i64,
+    offset_ms: i64,
 }
 
 /// The digits at `text[p..]`, at most `width`.
@@ -406,6 +474,17 @@ impl TimeSpec {
     /// The sample time of `text` (the time columns joined by one space): in
     /// UTC, moved to the start of its period, inside the supported span.
     pub fn parse(&self, text: &[u8]) -> Result<Timestamp, TimeProblem> {
+        self.parse_with(text, &mut Memo::default(), &mut ZoneCache::default())
+    }
+
+    /// [`TimeSpec::parse`] with the last row's time and the zone's span kept
+    /// (a reader keeps one of each per file): the same results, faster.
+    pub fn parse_with(
+        &self,
+        text: &[u8],
+        memo: &mut Memo,
+        zc: &mut ZoneCache,
+    ) -> Result<Timestamp, TimeProblem> {
         let utc = match &self.form {
             Form::Auto => timefmt::parse_time_any(text)?.millis(),
             Form::EpochSeconds => {
@@ -441,9 +520,33 @@ impl TimeSpec {
                 }
             }
             Form::Format(f) => {
-                let local = f.read(text.trim_ascii())?;
-                let ms = local.as_utc_ms(self.label == Label::End)?;
-                self.to_utc(ms)?
+                let text = match (text.first(), text.last()) {
+                    (Some(a), Some(b)) if a.is_ascii_whitespace() || b.is_ascii_whitespace() => {
+                        text.trim_ascii()
+                    }
+                    _ => text,
+                };
+                let ms = match memo.local_ms(text) {
+                    Some(ms) => ms,
+                    None => {
+                        let (local, spans) = f.read_spans(text)?;
+                        let ms = local.as_utc_ms(self.label == Label::End)?;
+                        memo.valid = f.memo_ok() && local.hour < 24;
+                        if memo.valid {
+                            memo.text.clear();
+                            memo.text.extend_from_slice(text);
+                            memo.spans = spans;
+                            memo.hour_ms = ms
+                                - i64::from(local.minute) * 60_000
+                                - i64::from(local.second) * 1000;
+                        }
+                        ms
+                    }
+                };
+                match &self.zone {
+                    Zone::Named(..) if ms >= zc.from && ms < zc.to => ms - zc.offset_ms,
+                    _ => self.to_utc(ms, zc)?,
+                }
             }
         };
         let start = match self.label {
@@ -458,8 +561,10 @@ impl TimeSpec {
         }
     }
 
-    /// A local time (as milliseconds read as if UTC) in UTC.
-    fn to_utc(&self, local_ms: i64) -> Result<i64, TimeProblem> {
+    /// A local time (as milliseconds read as if UTC) in UTC; for a named
+    /// zone, `zc` learns the span of local times around it with the same
+    /// offset.
+    fn to_utc(&self, local_ms: i64, zc: &mut ZoneCache) -> Result<i64, TimeProblem> {
         match &self.zone {
             Zone::Utc => Ok(local_ms),
             Zone::Fixed(min) => Ok(local_ms - i64::from(*min) * 60_000),
@@ -468,7 +573,11 @@ impl TimeSpec {
                 let amb = tz.to_ambiguous_timestamp(dt);
                 let at = |off: jiff::tz::Offset| local_ms - i64::from(off.seconds()) * 1000;
                 match amb.offset() {
-                    AmbiguousOffset::Unambiguous { offset } => Ok(at(offset)),
+                    AmbiguousOffset::Unambiguous { offset } => {
+                        let utc = at(offset);
+                        *zc = zone_span(tz, utc, offset).unwrap_or_default();
+                        Ok(utc)
+                    }
                     AmbiguousOffset::Gap { before, after } => {
                         // Read with the offset before the change, the instant is
                         // after it; with the one after, before it.
@@ -483,6 +592,33 @@ impl TimeSpec {
             }
         }
     }
+}
+
+/// The local times (as milliseconds read as if UTC) around the instant
+/// `utc` that all have `offset` with no other reading: from a day after the
+/// zone's last change before `utc` to a day before its next change (no change
+/// of clock moves local time by a day, so nothing near a change is cached).
+fn zone_span(tz: &TimeZone, utc: i64, offset: jiff::tz::Offset) -> Option<ZoneCache> {
+    const DAY: i64 = 86_400_000;
+    let ts = jiff::Timestamp::from_millisecond(utc).ok()?;
+    // A change at `utc` itself counts as before it.
+    let after = jiff::Timestamp::from_millisecond(utc + 1).ok()?;
+    let prev = tz
+        .preceding(after)
+        .next()
+        .map_or(i64::MIN / 4, |t| t.timestamp().as_millisecond());
+    let next = tz
+        .following(ts)
+        .next()
+        .map_or(i64::MAX / 4, |t| t.timestamp().as_millisecond());
+    let offset_ms = i64::from(offset.seconds()) * 1000;
+    let (from, to) = (prev + offset_ms + DAY, next + offset_ms - DAY);
+    let local = utc + offset_ms;
+    (from <= local && local < to).then_some(ZoneCache {
+        from,
+        to,
+        offset_ms,
+    })
 }
 
 fn order(a: i64, b: i64) -> (i64, i64) {
@@ -673,6 +809,35 @@ mod tests {
         assert!(s.parse(b"2025-01-20T00:00:00Z").is_err());
         assert!(zone("+1:00").is_err());
         assert!(zone("Mars/Olympus_Mons").is_err());
+    }
+
+    #[test]
+    fn the_memo_and_the_zone_cache_change_no_result() {
+        // Every 7 s and every 13 min over the days around both changes of
+        // clock of 2025 in Europe/Berlin, read with one memo and one zone
+        // cache as a file is, and each alone: the same instants and errors.
+        let z = zone("Europe/Berlin").unwrap();
+        for pick in [Pick::Refuse, Pick::Later] {
+            let mut s = spec(fmt("%d.%m.%Y %H:%M:%S"), z.clone(), Label::End, 1000);
+            s.skipped = pick;
+            s.repeated = pick;
+            let (mut memo, mut zc) = (Memo::default(), ZoneCache::default());
+            for day0 in ["2025-03-29T00:00:00Z", "2025-10-25T00:00:00Z"] {
+                let t0 = timefmt::parse_time(day0.as_bytes()).unwrap().millis();
+                for step in [7_000i64, 13 * 60_000] {
+                    for k in 0..(3 * 86_400_000 / step) {
+                        let c = Timestamp::from_millis(t0 + k * step).civil();
+                        let text = format!(
+                            "{:02}.{:02}.{:04} {:02}:{:02}:{:02}",
+                            c.day, c.month, c.year, c.hour, c.minute, c.second
+                        );
+                        let alone = s.parse(text.as_bytes());
+                        let kept = s.parse_with(text.as_bytes(), &mut memo, &mut zc);
+                        assert_eq!(alone, kept, "{text}");
+                    }
+                }
+            }
+        }
     }
 
     #[test]

@@ -7,13 +7,13 @@
 //!   a known line on, with the [`Parser`] that reads them (built from the
 //!   file's header). Chunks are independent: any thread may read one.
 //! - [`Piece::Tail`]: the rest of a file from the first chunk holding a `"`
-//!   on, to be read in order by the `csv` crate ([`csv_rows`]), so quoted
+//!   on, to be read in order by the `csv` crate ([`csv_rows`](crate::samples::csv_rows)), so quoted
 //!   fields keep working.
 //!
 //! The header is read here, once, on the thread that reads the file; the rows
-//! of every piece are read by [`Records::next_row`] or [`csv_rows`], wherever
+//! of every piece are read by [`Records::next_row`] or [`csv_rows`](crate::samples::csv_rows), wherever
 //! the caller runs them. Records are capped at
-//! [`MAX_RECORD_BYTES`](crate::limits::MAX_RECORD_BYTES), so a chunk is at
+//! [`MAX_RECORD_BYTES`], so a chunk is at
 //! most its size plus one record.
 
 use std::fs::File;
@@ -43,7 +43,7 @@ pub enum Piece {
         parser: Arc<Parser>,
     },
     /// The rest of the file, from line `line`, holding quotes: read in order
-    /// with [`csv_rows`], going on from where `head` stands.
+    /// with [`csv_rows`](crate::samples::csv_rows), going on from where `head` stands.
     Tail {
         /// Line of the first byte of `rest`.
         line: u64,

@@ -117,6 +117,8 @@ pub enum Delimiter {
 pub struct Filter {
     /// The column.
     pub column: Column,
+    /// The station file's line of the key.
+    pub line: usize,
     /// The text kept (surrounding spaces ignored).
     pub value: Vec<u8>,
 }
@@ -126,6 +128,8 @@ pub struct Filter {
 pub struct Quality {
     /// The column.
     pub column: Column,
+    /// The station file's line of the key.
+    pub line: usize,
     /// The good codes (surrounding spaces ignored).
     pub good: Vec<Vec<u8>>,
 }
@@ -135,6 +139,9 @@ pub struct Quality {
 pub struct Source {
     /// The column.
     pub column: Column,
+    /// The station file's line of its `column` key (of the channel's table
+    /// when the column is the channel id).
+    pub line: usize,
     /// The conversion of the file's unit to the channel's, if they differ.
     pub convert: Option<Convert>,
     /// A quality column beside the value.
@@ -164,6 +171,8 @@ pub struct Table {
     pub filter: Option<Filter>,
     /// The time columns, joined by one space before reading.
     pub time_columns: Vec<Column>,
+    /// The station file's line of the time columns' key (0: the default).
+    pub time_line: usize,
     /// How the time is read.
     pub time: TimeSpec,
     /// Per channel, in station-file order.
@@ -184,6 +193,7 @@ impl Table {
             missing: Vec::new(),
             filter: None,
             time_columns: vec![Column::Name("time".into())],
+            time_line: 0,
             time: TimeSpec {
                 form: Form::Auto,
                 zone: Zone::Utc,
@@ -196,6 +206,7 @@ impl Table {
                 .iter()
                 .map(|id| Source {
                     column: Column::Name((*id).to_string()),
+                    line: 0,
                     convert: None,
                     quality: None,
                 })
@@ -227,6 +238,7 @@ pub(crate) fn build(
     sources: &[RawSource<'_>],
     period_ms: i64,
     err: &dyn Fn(Range<usize>, String) -> anyhow::Error,
+    line_of: &dyn Fn(Range<usize>) -> usize,
 ) -> anyhow::Result<Table> {
     let ids: Vec<&str> = sources.iter().map(|s| s.id).collect();
     let declared_source = sources
@@ -335,6 +347,7 @@ pub(crate) fn build(
         }
         t.filter = Some(Filter {
             column: column(&f.get_ref().column, f.span(), "filter.column")?,
+            line: line_of(f.span()),
             value: v.as_bytes().to_vec(),
         });
     }
@@ -343,6 +356,11 @@ pub(crate) fn build(
     let time_span = raw.time.as_ref().map_or(whole.clone(), Spanned::span);
     if let Some(time) = &raw.time {
         let rt = time.get_ref();
+        t.time_line = match (&rt.column, &rt.columns) {
+            (Some(c), _) => line_of(c.span()),
+            (None, Some(c)) => line_of(c.span()),
+            (None, None) => line_of(time_span.clone()),
+        };
         t.time_columns = match (&rt.column, &rt.columns) {
             (Some(_), Some(c)) => {
                 return Err(err(
@@ -439,8 +457,10 @@ pub(crate) fn build(
     // The channels.
     for (i, s) in sources.iter().enumerate() {
         let src = &mut t.sources[i];
+        src.line = line_of(s.span.clone());
         if let Some(c) = s.column {
             src.column = column(c.get_ref(), c.span(), "column")?;
+            src.line = line_of(c.span());
         } else if !t.header {
             return Err(err(
                 s.span.clone(),
@@ -511,6 +531,7 @@ pub(crate) fn build(
             }
             src.quality = Some(Quality {
                 column: column(&q.get_ref().column, q.span(), "quality.column")?,
+                line: line_of(q.span()),
                 good,
             });
         }

@@ -210,7 +210,7 @@ fn a_layout_that_cannot_be_right_is_refused_before_any_sample() {
                 "column = \"spd\"",
                 "column = \"dir\"",
             ),
-            "no column \"spd\" in the header",
+            "no column \"spd\" in the header, which `column` of channel \"ws\" at bad.toml:13 names",
         ),
         (
             station(
