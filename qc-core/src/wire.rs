@@ -112,9 +112,10 @@
 //!
 //! A frame is good when its sync marker and CRC match and every field is in its
 //! domain (known version, kind, absent codes and flags; reserved bits 0). A good
-//! frame decodes to exactly the [`RecordFrame`] that was encoded, bit for bit
-//! (a statistic whose value is the absent mark itself is not in the domain: a
-//! [`Stat`] is never NaN). The counts are not checked here: whether they fit
+//! frame decodes to exactly the [`RecordFrame`] that was encoded, bit for bit,
+//! when that record came from a finish (version 3 recomputes `ti`, version 1
+//! has no flagged count; a statistic whose value is the absent mark itself is
+//! not in the domain: a [`Stat`] is never NaN). The counts are not checked here: whether they fit
 //! the station is for a reader that knows it ([`crate::Layout::check_tally`]).
 //! Gaps (intervals without any sample) write no frames: a reader finds them as
 //! missing interval starts.
