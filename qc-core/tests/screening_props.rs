@@ -49,6 +49,7 @@ fn reading() -> impl Strategy<Value = Reading> {
     prop_oneof![
         8 => (-5.0f64..60.0).prop_map(Reading::Value),
         1 => Just(Reading::Missing),
+        1 => Just(Reading::Flagged),
         1 => Just(Reading::Value(f64::NAN)),
         1 => Just(Reading::Value(-999.0)),
         1 => (-100i32..800).prop_map(Reading::Counts),
