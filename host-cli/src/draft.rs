@@ -2024,13 +2024,13 @@ pub fn draft(name: &str, sniff: &Sniff) -> Result<Draft> {
             let codes: Vec<String> = cols[*qc].distinct.iter().map(|v| v.to_string()).collect();
             let _ = writeln!(
                 o,
-                "# quality = {{ column = {}, good = [{}] }}",
+                "quality = {{ column = {}, good = [{}] }}",
                 col_ref(*qc),
                 q(good)
             );
             let _ = writeln!(
                 o,
-                "#   {} holds codes {}: CHECK which mean good. This build does not read quality columns yet: uncomment when it does.",
+                "#   CHECK: {} holds codes {}: which mean good? A reading with another code is counted flagged, never used.",
                 col_said(*qc),
                 codes.join(", ")
             );
