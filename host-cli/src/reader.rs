@@ -148,8 +148,10 @@ impl<'a> FileReader<'a> {
                     }
                     match (start, self.head.ready()) {
                         (Some((pos, at)), Some(p)) => {
+                            let body = block[pos..].to_vec();
+                            first_row_time(self.path, self.cfg, p, &body, at)?;
                             self.parser = Some(Arc::new(p.clone()));
-                            (block[pos..].to_vec(), at)
+                            (body, at)
                         }
                         _ => {
                             self.line = recs.line();
@@ -202,6 +204,48 @@ impl<'a> FileReader<'a> {
             }
             self.offset = offset + buf.len() as u64;
             return Ok((!buf.is_empty()).then_some((offset, buf)));
+        }
+    }
+}
+
+/// A declared layout whose time format cannot read the file's first data
+/// row cannot be right: refused before any sample is read (even with
+/// `--skip-bad-rows`), naming the station file's key and line.
+fn first_row_time(
+    path: &Path,
+    cfg: &StationFile,
+    parser: &Parser,
+    body: &[u8],
+    line: u64,
+) -> Result<()> {
+    let Some(delim) = parser.declared_delimiter() else {
+        return Ok(());
+    };
+    let mut p = parser.clone();
+    let mut recs = Records::new(body, line);
+    let mut at = Vec::new();
+    let mut readings = vec![qc_core::Reading::Missing; cfg.channels.len()];
+    loop {
+        let Some((ln, rec)) = (match delim {
+            Some(b) => recs.next_delimited(b, &mut at),
+            None => recs.next(),
+        }) else {
+            return Ok(());
+        };
+        match p.parse_declared(rec, &at, &mut readings) {
+            None => continue,
+            Some(Err(bad)) if bad.is_time() => {
+                let key = match cfg.table.time_line {
+                    0 => format!("the time of {} (by default)", cfg.path.display()),
+                    n => format!("[input.time] at {}:{n}", cfg.path.display()),
+                };
+                anyhow::bail!(
+                    "{}:{ln}: {bad}: {key} cannot read the first data row, so the layout cannot be right (check `format`, `epoch`, `columns`, `zone` and `label`)",
+                    path.display()
+                );
+            }
+            // Rows of other stations, or other problems: the rows' own business.
+            Some(_) => return Ok(()),
         }
     }
 }

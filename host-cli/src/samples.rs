@@ -212,6 +212,11 @@ struct Bad {
 }
 
 impl BadRow {
+    /// Whether the time could not be read.
+    pub fn is_time(&self) -> bool {
+        self.0.kind == BadKind::Time
+    }
+
     #[cold]
     fn new(kind: BadKind, column: Option<(usize, String)>, msg: String) -> Self {
         BadRow(Box::new(Bad { kind, column, msg }))

@@ -475,3 +475,33 @@ fn the_network_example_with_quality_codes_replays_and_counts_bad_codes() {
         "rows after the first interval's vane differ"
     );
 }
+
+#[test]
+fn a_time_format_that_cannot_read_the_first_row_is_refused_even_skipping_bad_rows() {
+    let dir = tempfile::tempdir().unwrap();
+    let d = dir.path();
+    write(d, "s.csv", "t,speed,dir\n2025-01-20T00:00:00Z,4,10\n");
+    let toml = station(
+        RATE_1S,
+        "[input]\n[input.time]\ncolumn = \"t\"\nformat = \"%d.%m.%Y %H:%M\"",
+        "column = \"speed\"",
+        "column = \"dir\"",
+    );
+    write(d, "bad.toml", &toml);
+    for extra in [None, Some("--skip-bad-rows")] {
+        let mut args = vec!["replay", "-c", "bad.toml", "s.csv"];
+        args.extend(extra);
+        let out = tenmin(&args, d);
+        let err = text(&out.stderr);
+        assert_eq!(out.status.code(), Some(2), "{err}");
+        assert!(
+            err.contains("s.csv:2: field 1 (t)")
+                && err.contains("[input.time] at bad.toml:7 cannot read the first data row"),
+            "{err}"
+        );
+        assert!(
+            out.stdout.is_empty() || !text(&out.stdout).contains("2025"),
+            "{err}"
+        );
+    }
+}
