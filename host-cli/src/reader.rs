@@ -71,6 +71,8 @@ pub struct FileReader<'a> {
     head: Head,
     /// The parser of the rows, once the preamble is read.
     parser: Option<Arc<Parser>>,
+    /// A piece's buffer handed back, to read the next into.
+    spare: Vec<u8>,
 }
 
 impl<'a> FileReader<'a> {
@@ -87,7 +89,14 @@ impl<'a> FileReader<'a> {
             line: 1,
             head: Head::default(),
             parser: None,
+            spare: Vec::new(),
         })
+    }
+
+    /// Hands a piece's bytes back, to be filled with the next piece (its
+    /// whole capacity is reused; only what lies past its length is zeroed).
+    pub fn recycle(&mut self, bytes: Vec<u8>) {
+        self.spare = bytes;
     }
 
     /// Whether the file held a header, or data rows for a layout without
@@ -182,28 +191,41 @@ impl<'a> FileReader<'a> {
         let Some(file) = self.file.as_mut() else {
             return Ok(None);
         };
-        let mut buf = Vec::with_capacity(size.max(self.carry.len() * 2).max(64));
-        buf.append(&mut self.carry);
+        // A piece handed back ([`FileReader::recycle`]) is filled again: no
+        // fresh allocation, zeroing or page faults per piece; reads go
+        // straight into it, as large as it is.
+        let mut buf = std::mem::take(&mut self.spare);
+        let room = size.max(self.carry.len() * 2).max(64);
+        if buf.len() < room {
+            buf.resize(room, 0);
+        }
+        let mut filled = self.carry.len();
+        buf[..filled].copy_from_slice(&self.carry);
+        self.carry.clear();
         let offset = self.offset;
         loop {
-            if !self.eof {
-                let want = buf.capacity().saturating_sub(buf.len()).max(1);
-                let got = file.take(want as u64).read_to_end(&mut buf)?;
-                self.eof = got < want;
+            while !self.eof && filled < buf.len() {
+                match file.read(&mut buf[filled..]) {
+                    Ok(0) => self.eof = true,
+                    Ok(n) => filled += n,
+                    Err(e) if e.kind() == io::ErrorKind::Interrupted => {}
+                    Err(e) => return Err(e),
+                }
             }
-            if let Some(p) = memchr::memrchr2(b'\n', b'\r', &buf) {
-                self.carry.extend_from_slice(&buf[p + 1..]);
-                buf.truncate(p + 1);
+            if let Some(p) = memchr::memrchr2(b'\n', b'\r', &buf[..filled]) {
+                self.carry.extend_from_slice(&buf[p + 1..filled]);
+                filled = p + 1;
             } else if !self.eof {
                 // A record longer than the chunk: read on, up to the limit.
-                if buf.len() > MAX_RECORD_BYTES {
+                if filled > MAX_RECORD_BYTES {
                     return Err(LongRecord::io());
                 }
-                buf.reserve(buf.len());
+                buf.resize(2 * buf.len(), 0);
                 continue;
             }
-            self.offset = offset + buf.len() as u64;
-            return Ok((!buf.is_empty()).then_some((offset, buf)));
+            buf.truncate(filled);
+            self.offset = offset + filled as u64;
+            return Ok((filled > 0).then_some((offset, buf)));
         }
     }
 }

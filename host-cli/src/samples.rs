@@ -379,6 +379,7 @@ impl Sequential<'_> {
                     {
                         self.row(path, ln, parsed)?;
                     }
+                    reader.recycle(bytes);
                     progress.at(done_bytes + end);
                 }
                 Piece::Tail {
