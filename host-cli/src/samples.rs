@@ -500,16 +500,8 @@ impl<'a> Records<'a> {
         readings: &mut [Reading],
         commas: &mut Vec<u32>,
     ) -> Option<(u64, Result<Timestamp, BadRow>)> {
-        if let Some(delim) = parser.declared_delimiter() {
-            loop {
-                let (line, rec) = match delim {
-                    Some(b) => self.next_delimited(b, commas)?,
-                    None => self.next()?,
-                };
-                if let Some(parsed) = parser.parse_declared(rec, commas, readings) {
-                    return Some((line, parsed));
-                }
-            }
+        if parser.declared.is_some() {
+            return self.next_declared_row(parser, readings, commas);
         }
         let buf = self.buf;
         let i = self.skip_blank()?;
@@ -528,6 +520,27 @@ impl<'a> Records<'a> {
         self.pos = i;
         let (line, rec) = self.next_split(commas)?;
         Some((line, parser.parse(rec, commas, readings)))
+    }
+
+    /// [`Records::next_row`] of a declared layout: out of line, so that the
+    /// own CSV's loop stays small.
+    #[inline(never)]
+    fn next_declared_row(
+        &mut self,
+        parser: &mut Parser,
+        readings: &mut [Reading],
+        delims: &mut Vec<u32>,
+    ) -> Option<(u64, Result<Timestamp, BadRow>)> {
+        let delim = parser.declared_delimiter()?;
+        loop {
+            let (line, rec) = match delim {
+                Some(b) => self.next_delimited(b, delims)?,
+                None => self.next()?,
+            };
+            if let Some(parsed) = parser.parse_declared(rec, delims, readings) {
+                return Some((line, parsed));
+            }
+        }
     }
 
     /// Skips line terminators (blank records), counting lines; the offset of
