@@ -984,7 +984,7 @@ pub struct Declared {
     /// The time columns' field indices, in the order they are joined.
     time: Vec<usize>,
     /// Per channel: the field index, how it is read, its quality field.
-    chan: Vec<(usize, Decode, Option<usize>)>,
+    chan: Vec<(usize, Decode, Option<usize>, bool)>,
     filter: Option<usize>,
     /// Names of the fields (header, or "column N"), for messages.
     names: Vec<String>,
@@ -1069,7 +1069,10 @@ impl Declared {
                 )?),
                 None => None,
             };
-            chan.push((col, spec.decode, q));
+            // Plain: no missing-value texts, no quality column, no unit to
+            // convert: a plain number is the reading as it stands.
+            let plain = table.missing.is_empty() && q.is_none() && src.convert.is_none();
+            chan.push((col, spec.decode, q, plain));
         }
         let filter = match &table.filter {
             Some(f) => Some(find(&f.column, "`filter` of [input]", f.line)?),
@@ -1167,20 +1170,11 @@ impl Declared {
         let sep = if table.decimal_comma { b',' } else { b'.' };
         // With no missing-value texts, a plain number is a reading as it is.
         let no_codes = table.missing.is_empty();
-        for (c, (&(i, decode, q), src)) in self.chan.iter().zip(&table.sources).enumerate() {
-            // A quality code not among the good ones: the source marked the
-            // reading bad, whatever its value (counted as flagged, never read).
-            if let (Some(qi), Some(quality)) = (q, &src.quality) {
-                let code = f.field(qi).trim_ascii();
-                if !quality.good.iter().any(|g| g.as_slice() == code) {
-                    readings[c] = Reading::Flagged;
-                    continue;
-                }
-            }
+        for (c, &(i, decode, q, plain)) in self.chan.iter().enumerate() {
             // A plain number as it stands (no spaces to trim, no code to
             // compare, nothing to convert) goes straight in.
-            let raw = f.field(i);
-            if no_codes && q.is_none() && src.convert.is_none() {
+            if plain {
+                let raw = f.field(i);
                 match decode {
                     Decode::Value => {
                         if let Some(v) = fast_f64_sep(raw, sep) {
@@ -1196,6 +1190,17 @@ impl Declared {
                     }
                 }
             }
+            let src = &table.sources[c];
+            // A quality code not among the good ones: the source marked the
+            // reading bad, whatever its value (counted as flagged, never read).
+            if let (Some(qi), Some(quality)) = (q, &src.quality) {
+                let code = f.field(qi).trim_ascii();
+                if !quality.good.iter().any(|g| g.as_slice() == code) {
+                    readings[c] = Reading::Flagged;
+                    continue;
+                }
+            }
+            let raw = f.field(i);
             let fast = match decode {
                 Decode::Value => fast_f64_sep(raw, sep).map(Reading::Value),
                 Decode::Counts => fast_i32(raw).map(Reading::Counts),
