@@ -124,6 +124,7 @@
 #![deny(missing_docs)]
 
 pub mod analysis;
+pub mod conventions;
 pub mod angle;
 mod channel;
 mod cmath;
