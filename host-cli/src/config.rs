@@ -49,6 +49,7 @@
 //! [`RawChannel`] and apply it in [`build_channel`] (screening settings go in
 //! the marked place there); spans give the line for error messages.
 
+use std::collections::BTreeMap;
 use std::ops::Range;
 use std::path::{Path, PathBuf};
 
@@ -58,6 +59,7 @@ use qc_core::{
 };
 use serde::Deserialize;
 
+use crate::logtable::{self, LoggerTable, RawConventions};
 use crate::table::{self, RawColumn, RawInput, RawQuality, RawSource, Table};
 use toml::Spanned;
 
@@ -75,6 +77,8 @@ struct RawFile {
     logging: Spanned<RawLogging>,
     station: Option<RawStation>,
     input: Option<Spanned<RawInput>>,
+    logger_table: Option<Spanned<RawInput>>,
+    conventions: Option<Spanned<BTreeMap<String, Spanned<RawConventions>>>>,
     #[serde(default)]
     channel: Vec<Spanned<RawChannel>>,
 }
@@ -201,6 +205,9 @@ pub struct StationFile {
     pub station: StationConfig,
     /// Channels, in file order.
     pub channels: Vec<ChannelSpec>,
+    /// Another logger's interval table and its conventions
+    /// (`[logger_table]`, `[conventions]`), for `tenmin verify`.
+    pub logger_table: Option<LoggerTable>,
 }
 
 /// Reads and checks a station file.
@@ -377,6 +384,14 @@ pub fn parse(path: &Path, text: &str) -> Result<StationFile> {
         &|span, msg| at.err(span, &msg),
         &|span| at.line(&span),
     )?;
+    let logger_table = logtable::build(
+        raw.logger_table.as_ref(),
+        raw.conventions.as_ref(),
+        &channels,
+        i64::from(interval_s) * 1000,
+        &|span, msg| at.err(span, &msg),
+        &|span| at.line(&span),
+    )?;
     let file = StationFile {
         path: path.to_path_buf(),
         name: raw.station.and_then(|s| s.name),
@@ -385,6 +400,7 @@ pub fn parse(path: &Path, text: &str) -> Result<StationFile> {
         table,
         station,
         channels,
+        logger_table,
     };
     // Let the core validate everything it checks, once, here.
     file.layout::<MAX_CHANNELS>()?;

@@ -7,6 +7,7 @@
 //! `ChannelConfig::scalar(1.0)`, fed `Reading::Missing` and never reported.
 
 use anyhow::{bail, Result};
+use qc_core::conventions::Alternatives;
 use qc_core::{
     ChannelRecord, Event, Gap, IntervalAcc, Layout, PushTotals, Pushed, Reading, Station,
     Timestamp, Totals,
@@ -27,6 +28,19 @@ pub trait Sink {
         end: Timestamp,
         records: &[ChannelRecord],
     ) -> Result<()>;
+
+    /// Whether the sink wants every interval's alternatives
+    /// ([`Sink::alternatives`]); false by default (they cost a little).
+    fn wants_alternatives(&self) -> bool {
+        false
+    }
+
+    /// The alternatives of interval `start`, one per configured channel in
+    /// station-file order, from its exact state (`qc_core::conventions`):
+    /// handed just before [`Sink::interval`] of the same interval.
+    fn alternatives(&mut self, _start: Timestamp, _alternatives: &[Alternatives]) -> Result<()> {
+        Ok(())
+    }
 }
 
 /// A station fed one sample at a time.
@@ -101,7 +115,9 @@ impl<'s, const C: usize> Out<'s, C> {
             return;
         }
         let result = match event {
-            Event::Closed(acc, records) => self.records(acc.index(), &records[..self.n]),
+            Event::Closed(acc, records) => self
+                .alternatives(acc)
+                .and_then(|()| self.records(acc.index(), &records[..self.n])),
             Event::Gap(gap) => self.gap(gap),
         };
         if let Err(e) = result {
@@ -121,8 +137,22 @@ impl<'s, const C: usize> Out<'s, C> {
         Ok(())
     }
 
+    /// The interval's alternatives, when the sink wants them.
+    fn alternatives(&mut self, acc: &IntervalAcc<C, G>) -> Result<()> {
+        if !self.sink.wants_alternatives() {
+            return Ok(());
+        }
+        let layout = &self.layout;
+        let alts: Vec<Alternatives> = (0..self.n)
+            .filter_map(|i| Alternatives::of(layout, i, &acc.state(i)?))
+            .collect();
+        self.sink
+            .alternatives(layout.interval_start(acc.index()), &alts)
+    }
+
     /// The rows of a closed, screened interval.
     pub fn interval(&mut self, acc: &IntervalAcc<C, G>) -> Result<()> {
+        self.alternatives(acc)?;
         self.records.clear();
         let layout = &self.layout;
         self.records

@@ -19,6 +19,7 @@ pub mod export;
 pub mod fuzzing;
 pub mod limits;
 pub mod localtime;
+pub mod logtable;
 pub mod logscan;
 pub mod options;
 pub mod output;
@@ -29,6 +30,7 @@ pub mod replay;
 pub mod report;
 pub mod samples;
 pub mod summary;
+pub mod tablecheck;
 pub mod table;
 pub mod timefmt;
 pub mod units;
@@ -387,6 +389,11 @@ pub struct VerifyArgs {
     #[arg(long, default_value_t = 20, value_name = "N", allow_negative_numbers = true,
           value_parser = options::whole::<usize>(0, u32::MAX as u64))]
     max_diffs: usize,
+    /// With a `[logger_table]` in the station file: instead of verifying, try every
+    /// convention on every declared column, report how many intervals each explains and
+    /// print the station-file lines declaring the winners.
+    #[arg(long)]
+    infer: bool,
     #[command(flatten)]
     input: InputArgs,
 }
@@ -493,6 +500,9 @@ fn inputs<'a>(config: &'a Path, what: &'a str, files: &'a [PathBuf]) -> Vec<(&'a
 
 fn verify_cmd(a: VerifyArgs) -> Result<ExitCode> {
     let cfg = config::load(&a.config)?;
+    if cfg.logger_table.is_some() || a.infer {
+        return table_cmd(&a, &cfg);
+    }
     let mut cmp = verify::Comparer::open(&a.records, cfg.station, ids(&cfg), a.max_diffs)?;
     let summary = replay::replay(&cfg, &a.samples, options(&a.input), &mut cmp)?;
     let report = cmp.finish()?;
@@ -507,4 +517,30 @@ fn verify_cmd(a: VerifyArgs) -> Result<ExitCode> {
     } else {
         ExitCode::from(1)
     })
+}
+
+/// `tenmin verify` of another logger's own table (`[logger_table]`), or `--infer`.
+fn table_cmd(a: &VerifyArgs, cfg: &config::StationFile) -> Result<ExitCode> {
+    if cfg.logger_table.is_none() {
+        anyhow::bail!(
+            "{}: --infer needs a [logger_table] and [conventions] naming the table's columns (see CONTRACT.md, \"Checking another logger's table\")",
+            a.config.display()
+        );
+    }
+    let rows = logtable::read(cfg, &a.records)?;
+    let mut collect = tablecheck::Collect::new(cfg.station.interval_s);
+    let summary = replay::replay(cfg, &a.samples, options(&a.input), &mut collect)?;
+    if !a.input.quiet {
+        let _ = summary.write(&mut io::stderr().lock(), cfg);
+    }
+    let mut buf = Vec::new();
+    let ok = if a.infer {
+        tablecheck::infer(cfg, &a.records, &rows, &collect, &mut buf)?
+    } else {
+        tablecheck::verify(cfg, &a.records, &rows, &collect, a.max_diffs, &mut buf)?.differences == 0
+    };
+    let mut out = output::Output::stdout("the comparison");
+    io::Write::write_all(&mut out, &buf)?;
+    out.finish()?;
+    Ok(if ok { ExitCode::SUCCESS } else { ExitCode::from(1) })
 }

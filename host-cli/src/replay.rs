@@ -45,6 +45,18 @@ impl Sink for Counting<'_> {
         self.rows += self.channels.min(records.len() as u64);
         self.inner.interval(start, end, records)
     }
+
+    fn wants_alternatives(&self) -> bool {
+        self.inner.wants_alternatives()
+    }
+
+    fn alternatives(
+        &mut self,
+        start: qc_core::Timestamp,
+        alternatives: &[qc_core::conventions::Alternatives],
+    ) -> Result<()> {
+        self.inner.alternatives(start, alternatives)
+    }
 }
 
 /// Replays `files` in order through a station built from `cfg`, handing every

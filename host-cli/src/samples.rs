@@ -746,6 +746,12 @@ impl Parser {
         })
     }
 
+    /// The header's field names of a declared layout (empty without a
+    /// header, and for tenmin's own CSV).
+    pub fn header_names(&self) -> &[String] {
+        self.declared.as_deref().map_or(&[], |d| &d.names)
+    }
+
     /// For a declared layout (no comma fast path): `Some` with its one-byte
     /// delimiter, or `Some(None)` for whitespace; `None` for the own CSV.
     #[inline]
