@@ -19,8 +19,8 @@ pub mod export;
 pub mod fuzzing;
 pub mod limits;
 pub mod localtime;
-pub mod logtable;
 pub mod logscan;
+pub mod logtable;
 pub mod options;
 pub mod output;
 pub mod parallel;
@@ -30,8 +30,8 @@ pub mod replay;
 pub mod report;
 pub mod samples;
 pub mod summary;
-pub mod tablecheck;
 pub mod table;
+pub mod tablecheck;
 pub mod timefmt;
 pub mod units;
 pub mod verify;
@@ -150,11 +150,29 @@ formats!(),
 file written by the logger. Numbers must have identical bits; a difference is listed with \
 the interval start, channel, field, both values and how many units in the last place (ulps) \
 they are apart. Missing and extra rows are differences too. The logger's file must be in \
-time order; channels within an interval may come in any order.",
+time order; channels within an interval may come in any order.
+
+Another logger's own table: when the station file has [logger_table] (the table's layout, \
+the keys of [input]) and [conventions.<channel id>] (which column holds which statistic: \
+mean, sd, min, max, gust; how the logger computes it: sd divisor \"n\" or \"n-1\", max and \
+gust of \"sample\" or \"running_mean\", direction mean method \"unit_vector\" or \
+\"speed_weighted\" and north \"0\" or \"360\", direction sd method \"yamartino\", \
+\"circular\" or \"angular\"; the decimals written, the rounding and min_samples), --records is \
+that table. Each field is compared with the statistic the core computes from the samples in \
+that convention: a value written with d decimals must be the statistic rounded to d decimals \
+(with rounding \"unknown\": within half a unit of the last decimal, plus the method's floating-point \
+bound). Each difference names the table's line, the interval, channel, statistic and column, \
+and the difference in the channel's unit; then the counts per channel and statistic.
+
+--infer tries every convention on every declared column, reports how many intervals each \
+explains, and prints the station-file lines declaring the winners: learn how a logger computes \
+its statistics from its raw samples and its own table.",
         after_long_help = concat!(
-            "Example:\n  tenmin verify --config station.toml --samples day-*.csv --records logger-records.csv\n\n",
-            "Files: as for `tenmin replay --help`; --records is a records CSV.\n\n",
-            "Exit codes:\n  0  every field of every row identical\n  1  differences found (listed on stdout)\n  2  bad input, bad usage or an I/O error (the message names file, line and field)"
+            "Examples:\n  tenmin verify --config station.toml --samples day-*.csv --records logger-records.csv\n",
+            "  tenmin verify -c examples/logger-table/station.toml --samples examples/logger-table/samples.csv \\\n      --records examples/logger-table/logger-table.csv [--infer]\n\n",
+            "Files: as for `tenmin replay --help`; --records is a records CSV, or the table [logger_table] \
+declares (see CONTRACT.md, \"Checking another logger's table\").\n\n",
+            "Exit codes:\n  0  every field of every row identical (a logger's table: every field accepted;\n     --infer: every column explained on every interval)\n  1  differences found (listed on stdout); --infer: intervals no convention explains\n  2  bad input, bad usage or an I/O error (the message names file, line and field)"
         )
     )]
     Verify(VerifyArgs),
@@ -382,7 +400,7 @@ pub struct VerifyArgs {
     /// Samples CSV files, replayed in this order as one record.
     #[arg(long, required = true, num_args = 1.., value_name = "SAMPLES")]
     samples: Vec<PathBuf>,
-    /// The logger's records CSV.
+    /// The logger's records CSV, or (with `[logger_table]`) the logger's own table.
     #[arg(long, value_name = "LOGGER.csv")]
     records: PathBuf,
     /// List at most this many differences (the rest are counted).
@@ -537,10 +555,15 @@ fn table_cmd(a: &VerifyArgs, cfg: &config::StationFile) -> Result<ExitCode> {
     let ok = if a.infer {
         tablecheck::infer(cfg, &a.records, &rows, &collect, &mut buf)?
     } else {
-        tablecheck::verify(cfg, &a.records, &rows, &collect, a.max_diffs, &mut buf)?.differences == 0
+        tablecheck::verify(cfg, &a.records, &rows, &collect, a.max_diffs, &mut buf)?.differences
+            == 0
     };
     let mut out = output::Output::stdout("the comparison");
     io::Write::write_all(&mut out, &buf)?;
     out.finish()?;
-    Ok(if ok { ExitCode::SUCCESS } else { ExitCode::from(1) })
+    Ok(if ok {
+        ExitCode::SUCCESS
+    } else {
+        ExitCode::from(1)
+    })
 }

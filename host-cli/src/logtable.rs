@@ -104,7 +104,10 @@ impl Key {
                 ),
             ],
             (Kind::Direction, Key::Sd) => vec![
-                (Statistic::Spread(Spread::Yamartino), "method = \"yamartino\""),
+                (
+                    Statistic::Spread(Spread::Yamartino),
+                    "method = \"yamartino\"",
+                ),
                 (Statistic::Spread(Spread::Circular), "method = \"circular\""),
                 (Statistic::Spread(Spread::Angular), "method = \"angular\""),
             ],
@@ -117,7 +120,10 @@ impl Key {
             (_, Key::Min) => vec![(Statistic::Min, "of = \"sample\"")],
             (Kind::Speed, Key::Max | Key::Gust) => vec![
                 (Statistic::Max(Largest::Sample), "of = \"sample\""),
-                (Statistic::Max(Largest::RunningMean), "of = \"running_mean\""),
+                (
+                    Statistic::Max(Largest::RunningMean),
+                    "of = \"running_mean\"",
+                ),
             ],
             (_, Key::Max) => vec![(Statistic::Max(Largest::Sample), "of = \"sample\"")],
             (_, Key::Gust) => Vec::new(),
@@ -194,7 +200,11 @@ pub(crate) fn build(
                 conv.span(),
                 format!(
                     "[conventions.{id}]: no channel {id:?} in this station file (channels: {})",
-                    channels.iter().map(|c| c.id.as_str()).collect::<Vec<_>>().join(", ")
+                    channels
+                        .iter()
+                        .map(|c| c.id.as_str())
+                        .collect::<Vec<_>>()
+                        .join(", ")
                 ),
             ));
         };
@@ -233,7 +243,11 @@ pub(crate) fn build(
             if choices.is_empty() {
                 return Err(at(
                     raw.span(),
-                    format!("a {} channel has no `{}` in a logger table", kind_name(kind), key.name()),
+                    format!(
+                        "a {} channel has no `{}` in a logger table",
+                        kind_name(kind),
+                        key.name()
+                    ),
                 ));
             }
             let mut stat = choices[0].0;
@@ -248,17 +262,18 @@ pub(crate) fn build(
                             format!(
                                 "`{name}` {:?}: use {}",
                                 v.get_ref(),
-                                options.iter().map(|(t, _)| format!("{t:?}")).collect::<Vec<_>>().join(" or ")
+                                options
+                                    .iter()
+                                    .map(|(t, _)| format!("{t:?}"))
+                                    .collect::<Vec<_>>()
+                                    .join(" or ")
                             ),
                         )
                     })
             };
             let not_here = |v: Option<&Spanned<String>>, name: &str| -> Result<()> {
                 match v {
-                    Some(v) => Err(at(
-                        v.span(),
-                        format!("`{name}` does not apply here"),
-                    )),
+                    Some(v) => Err(at(v.span(), format!("`{name}` does not apply here"))),
                     None => Ok(()),
                 }
             };
@@ -269,8 +284,14 @@ pub(crate) fn build(
                             m,
                             "method",
                             &[
-                                ("unit_vector", Statistic::Direction(DirectionMean::UnitVector)),
-                                ("speed_weighted", Statistic::Direction(DirectionMean::SpeedWeighted)),
+                                (
+                                    "unit_vector",
+                                    Statistic::Direction(DirectionMean::UnitVector),
+                                ),
+                                (
+                                    "speed_weighted",
+                                    Statistic::Direction(DirectionMean::SpeedWeighted),
+                                ),
                             ],
                         )?;
                     }
@@ -334,7 +355,11 @@ pub(crate) fn build(
                     if stat == Statistic::Max(Largest::RunningMean)
                         && channels[ch].core.gust_window == 0
                     {
-                        return Err(at(raw.span(), "a running mean needs the channel's gust window (`gust_window_s`)".into()));
+                        return Err(at(
+                            raw.span(),
+                            "a running mean needs the channel's gust window (`gust_window_s`)"
+                                .into(),
+                        ));
                     }
                     not_here(r.divisor.as_ref(), "divisor")?;
                 }
@@ -355,13 +380,19 @@ pub(crate) fn build(
                     "0" => North::Zero,
                     "360" => North::Full,
                     other => {
-                        return Err(at(n.span(), format!("`north` {other:?}: use \"0\" or \"360\"")))
+                        return Err(at(
+                            n.span(),
+                            format!("`north` {other:?}: use \"0\" or \"360\""),
+                        ))
                     }
                 },
             };
             let decimals = match &r.decimals {
                 Some(d) if *d.get_ref() > MAX_DECIMALS => {
-                    return Err(at(d.span(), format!("`decimals` {}: 0 to {MAX_DECIMALS}", d.get_ref())))
+                    return Err(at(
+                        d.span(),
+                        format!("`decimals` {}: 0 to {MAX_DECIMALS}", d.get_ref()),
+                    ))
                 }
                 Some(d) => Some(*d.get_ref()),
                 None => None,
@@ -408,7 +439,8 @@ pub(crate) fn build(
             span: col.span(),
         })
         .collect();
-    let layout = table::build(Some(input), &sources, interval_ms, err, line_of)?;
+    let mut layout = table::build(Some(input), &sources, interval_ms, err, line_of)?;
+    layout.section = "logger_table";
     let columns = columns
         .into_iter()
         .zip(&layout.sources)
@@ -479,7 +511,10 @@ pub fn read(cfg: &StationFile, path: &Path) -> Result<Rows> {
     };
     let mut readings = vec![Reading::Missing; n];
     let mut at = Vec::new();
-    let mut row = |line: u64, parsed: Result<Timestamp, crate::samples::BadRow>, readings: &[Reading]| -> Result<()> {
+    let mut row = |line: u64,
+                   parsed: Result<Timestamp, crate::samples::BadRow>,
+                   readings: &[Reading]|
+     -> Result<()> {
         let t = parsed.map_err(|bad| anyhow!("{}:{line}: {bad}", path.display()))?;
         let ms = t.millis();
         let time_col = describe_time(&lt.layout);
@@ -514,7 +549,12 @@ pub fn read(cfg: &StationFile, path: &Path) -> Result<Rows> {
     let mut header = None;
     while let Some(piece) = reader.next_piece(1 << 20)? {
         match piece {
-            Piece::Rows { line, bytes, parser, .. } => {
+            Piece::Rows {
+                line,
+                bytes,
+                parser,
+                ..
+            } => {
                 let mut p = (*parser).clone();
                 if header.is_none() {
                     header = Some(p.header_names().to_vec());
@@ -524,7 +564,11 @@ pub fn read(cfg: &StationFile, path: &Path) -> Result<Rows> {
                     row(ln, parsed, &readings)?;
                 }
             }
-            Piece::Tail { line, rest, mut head } => {
+            Piece::Tail {
+                line,
+                rest,
+                mut head,
+            } => {
                 csv_rows(path, rest, line, &tcfg, &mut head, |p, ln, rec| {
                     if header.is_none() {
                         header = Some(p.header_names().to_vec());

@@ -259,7 +259,7 @@ fn first_row_time(
             Some(Err(bad)) if bad.is_time() => {
                 let key = match cfg.table.time_line {
                     0 => format!("the time of {} (by default)", cfg.path.display()),
-                    n => format!("[input.time] at {}:{n}", cfg.path.display()),
+                    n => format!("[{}.time] at {}:{n}", cfg.table.section, cfg.path.display()),
                 };
                 anyhow::bail!(
                     "{}:{ln}: {bad}: {key} cannot read the first data row, so the layout cannot be right (check `format`, `epoch`, `columns`, `zone` and `label`)",

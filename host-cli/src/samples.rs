@@ -1061,7 +1061,10 @@ impl Declared {
         let time = table
             .time_columns
             .iter()
-            .map(|c| find(c, "the time column of [input.time]", table.time_line))
+            .map(|c| {
+                let key = format!("the time column of [{}.time]", table.section);
+                find(c, &key, table.time_line)
+            })
             .collect::<Result<Vec<_>>>()?;
         let mut chan = Vec::with_capacity(cfg.channels.len());
         for (spec, src) in cfg.channels.iter().zip(&table.sources) {
@@ -1081,7 +1084,11 @@ impl Declared {
             chan.push((col, spec.decode, q, plain));
         }
         let filter = match &table.filter {
-            Some(f) => Some(find(&f.column, "`filter` of [input]", f.line)?),
+            Some(f) => Some(find(
+                &f.column,
+                &format!("`filter` of [{}]", table.section),
+                f.line,
+            )?),
             None => None,
         };
         let highest = time
@@ -1134,8 +1141,8 @@ impl Declared {
                 BadKind::FieldCount,
                 None,
                 format!(
-                    "expected {what}{} fields as the station file's [input] declares, found {n}",
-                    self.fields
+                    "expected {what}{} fields as the station file's [{}] declares, found {n}",
+                    self.fields, self.table.section
                 ),
             ));
         }

@@ -177,6 +177,9 @@ pub struct Table {
     pub time: TimeSpec,
     /// Per channel, in station-file order.
     pub sources: Vec<Source>,
+    /// The station file's table declaring the layout, for messages:
+    /// `input` (or `logger_table` for another logger's table).
+    pub section: &'static str,
 }
 
 impl Table {
@@ -211,6 +214,7 @@ impl Table {
                     quality: None,
                 })
                 .collect(),
+            section: "input",
         }
     }
 

@@ -48,7 +48,12 @@ impl Collect {
 }
 
 impl Sink for Collect {
-    fn interval(&mut self, start: Timestamp, _end: Timestamp, records: &[ChannelRecord]) -> Result<()> {
+    fn interval(
+        &mut self,
+        start: Timestamp,
+        _end: Timestamp,
+        records: &[ChannelRecord],
+    ) -> Result<()> {
         let k = start.millis().div_euclid(self.interval_ms);
         let alts = match self.pending.take() {
             Some((p, a)) if p == start.millis() => a,
@@ -172,7 +177,9 @@ pub fn verify(
             continue;
         };
         for (i, c) in lt.columns.iter().enumerate() {
-            let Some(alt) = iv.alts.get(c.channel) else { continue };
+            let Some(alt) = iv.alts.get(c.channel) else {
+                continue;
+            };
             let d = c.decimals.unwrap_or(0);
             let north = is_direction_mean(c, cfg).then_some(c.north);
             let e = expected(c, c.stat, alt);
@@ -249,12 +256,25 @@ pub fn verify(
     if total as usize > shown {
         writeln!(out, "... and {} more differences", total - shown as u64)?;
     }
-    writeln!(out, "Checked {tp} against the samples (per channel and statistic):")?;
+    writeln!(
+        out,
+        "Checked {tp} against the samples (per channel and statistic):"
+    )?;
     for (c, (n, bad, worst)) in lt.columns.iter().zip(&per) {
         let id = &cfg.channels[c.channel].id;
-        write!(out, "  {id} {} ({}): {n} intervals, {bad} differ", c.key.name(), c.describe())?;
+        write!(
+            out,
+            "  {id} {} ({}): {n} intervals, {bad} differ",
+            c.key.name(),
+            c.describe()
+        )?;
         if *bad > 0 && *worst > 0.0 {
-            write!(out, ", largest difference {} {}", trim(*worst), unit(cfg, c.channel))?;
+            write!(
+                out,
+                ", largest difference {} {}",
+                trim(*worst),
+                unit(cfg, c.channel)
+            )?;
         }
         writeln!(out)?;
     }
@@ -262,7 +282,11 @@ pub fn verify(
         writeln!(
             out,
             "  not checked (no declaration names them): {}",
-            rows.undeclared.iter().map(|h| format!("{h:?}")).collect::<Vec<_>>().join(", ")
+            rows.undeclared
+                .iter()
+                .map(|h| format!("{h:?}"))
+                .collect::<Vec<_>>()
+                .join(", ")
         )?;
     }
     if total == 0 {
@@ -343,10 +367,15 @@ pub fn infer(
             north: dir.then_some((0, 0)),
         };
         for (k, row) in &rows.by_interval {
-            let (Some(iv), Some(w)) = (collected.intervals.get(k), row.values.get(i).copied().flatten()) else {
+            let (Some(iv), Some(w)) = (
+                collected.intervals.get(k),
+                row.values.get(i).copied().flatten(),
+            ) else {
                 continue;
             };
-            let Some(alt) = iv.alts.get(c.channel) else { continue };
+            let Some(alt) = iv.alts.get(c.channel) else {
+                continue;
+            };
             f.written += 1;
             for (stat, _, counts) in &mut f.choices {
                 let Some(e) = alt.get(*stat) else { continue };
@@ -366,7 +395,12 @@ pub fn infer(
     // The best choice of each column, then north.
     let best = |f: &Found| -> usize {
         (0..f.choices.len())
-            .max_by_key(|&j| (f.choices[j].2.iter().max().copied().unwrap_or(0), std::cmp::Reverse(j)))
+            .max_by_key(|&j| {
+                (
+                    f.choices[j].2.iter().max().copied().unwrap_or(0),
+                    std::cmp::Reverse(j),
+                )
+            })
             .unwrap_or(0)
     };
     for (i, c) in lt.columns.iter().enumerate() {
@@ -375,19 +409,28 @@ pub fn infer(
         if let Some(nc) = &mut f.north {
             let stat = f.choices.get(j).map(|x| x.0);
             for (k, row) in &rows.by_interval {
-                let (Some(iv), Some(w), Some(stat)) =
-                    (collected.intervals.get(k), row.values.get(i).copied().flatten(), stat)
-                else {
+                let (Some(iv), Some(w), Some(stat)) = (
+                    collected.intervals.get(k),
+                    row.values.get(i).copied().flatten(),
+                    stat,
+                ) else {
                     continue;
                 };
-                let Some(e) = iv.alts.get(c.channel).and_then(|a| a.get(stat)) else { continue };
-                nc.0 += u64::from(e.accepts_direction(w, f.decimals, Rounding::Unknown, North::Zero));
-                nc.1 += u64::from(e.accepts_direction(w, f.decimals, Rounding::Unknown, North::Full));
+                let Some(e) = iv.alts.get(c.channel).and_then(|a| a.get(stat)) else {
+                    continue;
+                };
+                nc.0 +=
+                    u64::from(e.accepts_direction(w, f.decimals, Rounding::Unknown, North::Zero));
+                nc.1 +=
+                    u64::from(e.accepts_direction(w, f.decimals, Rounding::Unknown, North::Full));
             }
         }
     }
     let tp = table_path.display();
-    writeln!(out, "Conventions of {tp}, tried on every interval with a value and samples behind it:")?;
+    writeln!(
+        out,
+        "Conventions of {tp}, tried on every interval with a value and samples behind it:"
+    )?;
     let mut all = true;
     let mut per_channel: BTreeMap<usize, Vec<usize>> = BTreeMap::new();
     for (i, c) in lt.columns.iter().enumerate() {
@@ -403,7 +446,8 @@ pub fn infer(
             f.written
         )?;
         let mut order: Vec<usize> = (0..f.choices.len()).collect();
-        order.sort_by_key(|&j| std::cmp::Reverse(f.choices[j].2.iter().max().copied().unwrap_or(0)));
+        order
+            .sort_by_key(|&j| std::cmp::Reverse(f.choices[j].2.iter().max().copied().unwrap_or(0)));
         for j in order {
             let (_, text, counts) = &f.choices[j];
             let label = if text.is_empty() { "arithmetic" } else { text };
@@ -421,10 +465,16 @@ pub fn infer(
             )?;
         }
         if let Some((z, full)) = f.north {
-            writeln!(out, "  north written as 0 explains {z}, as 360 explains {full}")?;
+            writeln!(
+                out,
+                "  north written as 0 explains {z}, as 360 explains {full}"
+            )?;
         }
         let j = best(f);
-        if f.choices.get(j).is_none_or(|x| x.2.iter().max().copied().unwrap_or(0) < f.written) {
+        if f.choices
+            .get(j)
+            .is_none_or(|x| x.2.iter().max().copied().unwrap_or(0) < f.written)
+        {
             all = false;
         }
     }
@@ -456,9 +506,15 @@ pub fn infer(
         for &i in cols {
             let c = &lt.columns[i];
             let f = &found[i];
-            let Some(&(stat, _, _)) = f.choices.get(best(f)) else { continue };
+            let Some(&(stat, _, _)) = f.choices.get(best(f)) else {
+                continue;
+            };
             for (k, row) in &rows.by_interval {
-                let Some(alt) = collected.intervals.get(k).and_then(|iv| iv.alts.get(c.channel)) else {
+                let Some(alt) = collected
+                    .intervals
+                    .get(k)
+                    .and_then(|iv| iv.alts.get(c.channel))
+                else {
                     continue;
                 };
                 if row.values.get(i).copied().flatten().is_none() && alt.get(stat).is_some() {
@@ -506,9 +562,15 @@ pub fn infer(
         writeln!(out)?;
     }
     if all {
-        writeln!(out, "Every column is explained on every interval by its winner.")?;
+        writeln!(
+            out,
+            "Every column is explained on every interval by its winner."
+        )?;
     } else {
-        writeln!(out, "Some intervals are explained by no convention tried (see the counts above).")?;
+        writeln!(
+            out,
+            "Some intervals are explained by no convention tried (see the counts above)."
+        )?;
     }
     Ok(all)
 }

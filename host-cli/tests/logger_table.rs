@@ -111,7 +111,14 @@ fn station(v: &[(String, String)], declare: bool) -> String {
 fn verify(dir: &Path, toml: &str, table: &str, infer: bool) -> std::process::Output {
     let samples = example("samples.csv");
     let mut args = vec![
-        "verify", "-q", "-c", toml, "--samples", &samples, "--records", table,
+        "verify",
+        "-q",
+        "-c",
+        toml,
+        "--samples",
+        &samples,
+        "--records",
+        table,
     ];
     if infer {
         args.push("--infer");
@@ -130,7 +137,10 @@ fn the_example_runs_as_it_is_and_passes() {
     assert_eq!(out.status.code(), Some(0), "{}", text(&out.stderr));
     let o = text(&out.stdout);
     assert!(o.contains("No differences."), "{o}");
-    assert!(o.contains("ws80a sd (column \"ws80a_sd\"): 12 intervals, 0 differ"), "{o}");
+    assert!(
+        o.contains("ws80a sd (column \"ws80a_sd\"): 12 intervals, 0 differ"),
+        "{o}"
+    );
 }
 
 /// The example's table with one field moved by `delta` hundredths (decimal
@@ -153,7 +163,12 @@ fn a_gust_off_by_four_hundredths_is_named() {
     // column 6 (0-based 5) is ws80a_gust.
     let off = with_field_moved(5, 5, 4);
     let p = write(dir.path(), "off.csv", off);
-    let out = verify(dir.path(), &example("station.toml"), p.to_str().unwrap(), false);
+    let out = verify(
+        dir.path(),
+        &example("station.toml"),
+        p.to_str().unwrap(),
+        false,
+    );
     assert_eq!(out.status.code(), Some(1), "{}", text(&out.stderr));
     let o = text(&out.stdout);
     assert!(o.contains("off.csv:5: 2026-03-01T00:30:00Z to 2026-03-01T00:40:00Z ws80a gust (column \"ws80a_gust\""), "{o}");
@@ -162,7 +177,12 @@ fn a_gust_off_by_four_hundredths_is_named() {
     assert!(o.contains("1 difference(s)."), "{o}");
     // One unit of the last decimal off (0.01 m/s on a mean) is a difference too.
     let p = write(dir.path(), "off1.csv", with_field_moved(5, 1, 1));
-    let out = verify(dir.path(), &example("station.toml"), p.to_str().unwrap(), false);
+    let out = verify(
+        dir.path(),
+        &example("station.toml"),
+        p.to_str().unwrap(),
+        false,
+    );
     assert_eq!(out.status.code(), Some(1));
     assert!(text(&out.stdout).contains("ws80a mean"));
 }
@@ -178,11 +198,22 @@ fn a_missing_row_and_an_empty_field_are_differences() {
     let l2 = l2.join(",");
     lines[1] = &l2;
     let p = write(dir.path(), "t.csv", lines.join("\n") + "\n");
-    let out = verify(dir.path(), &example("station.toml"), p.to_str().unwrap(), false);
+    let out = verify(
+        dir.path(),
+        &example("station.toml"),
+        p.to_str().unwrap(),
+        false,
+    );
     assert_eq!(out.status.code(), Some(1));
     let o = text(&out.stdout);
-    assert!(o.contains("no row for the interval 2026-03-01T00:20:00Z to 2026-03-01T00:30:00Z"), "{o}");
-    assert!(o.contains("ws80a sd (column \"ws80a_sd\"") && o.contains("empty in the table, expected"), "{o}");
+    assert!(
+        o.contains("no row for the interval 2026-03-01T00:20:00Z to 2026-03-01T00:30:00Z"),
+        "{o}"
+    );
+    assert!(
+        o.contains("ws80a sd (column \"ws80a_sd\"") && o.contains("empty in the table, expected"),
+        "{o}"
+    );
 }
 
 #[test]
@@ -205,7 +236,12 @@ fn inference_recovers_every_generating_convention() {
         write(dir.path(), "columns.toml", station(&v, false));
         let out = verify(dir.path(), "columns.toml", &table, true);
         let o = text(&out.stdout);
-        assert_eq!(out.status.code(), Some(0), "{name}: {o}{}", text(&out.stderr));
+        assert_eq!(
+            out.status.code(),
+            Some(0),
+            "{name}: {o}{}",
+            text(&out.stderr)
+        );
         let (ds, dsd, dd) = (
             get(&v, "speed_decimals"),
             get(&v, "sd_decimals"),
@@ -265,7 +301,13 @@ fn inference_recovers_every_generating_convention() {
         let head = toml.split("[conventions.ws80a]").next().unwrap();
         write(dir.path(), "printed.toml", format!("{head}{printed}"));
         let out = verify(dir.path(), "printed.toml", &table, false);
-        assert_eq!(out.status.code(), Some(0), "{name}: {}{}", text(&out.stdout), text(&out.stderr));
+        assert_eq!(
+            out.status.code(),
+            Some(0),
+            "{name}: {}{}",
+            text(&out.stdout),
+            text(&out.stderr)
+        );
     }
 }
 
@@ -274,35 +316,84 @@ fn bad_tables_are_exit_2_naming_file_line_and_column() {
     let dir = tempfile::tempdir().unwrap();
     let t = std::fs::read_to_string(example("logger-table.csv")).unwrap();
     // A column the declaration names is not in the header.
-    let p = write(dir.path(), "renamed.csv", t.replacen("ws80a_sd", "ws80a_std", 1));
-    let out = verify(dir.path(), &example("station.toml"), p.to_str().unwrap(), false);
+    let p = write(
+        dir.path(),
+        "renamed.csv",
+        t.replacen("ws80a_sd", "ws80a_std", 1),
+    );
+    let out = verify(
+        dir.path(),
+        &example("station.toml"),
+        p.to_str().unwrap(),
+        false,
+    );
     assert_eq!(out.status.code(), Some(2));
     let e = text(&out.stderr);
-    assert!(e.contains("renamed.csv:1:") && e.contains("no column \"ws80a_sd\""), "{e}");
+    assert!(
+        e.contains("renamed.csv:1:") && e.contains("no column \"ws80a_sd\""),
+        "{e}"
+    );
     // A time off the interval grid.
-    let p = write(dir.path(), "grid.csv", t.replacen("01:30:00,", "01:33:00,", 1));
-    let out = verify(dir.path(), &example("station.toml"), p.to_str().unwrap(), false);
+    let p = write(
+        dir.path(),
+        "grid.csv",
+        t.replacen("01:30:00,", "01:33:00,", 1),
+    );
+    let out = verify(
+        dir.path(),
+        &example("station.toml"),
+        p.to_str().unwrap(),
+        false,
+    );
     assert_eq!(out.status.code(), Some(2));
     let e = text(&out.stderr);
-    assert!(e.contains("grid.csv:4:") && e.contains("time column \"time_end\"") && e.contains("not on the 600 s interval grid"), "{e}");
+    assert!(
+        e.contains("grid.csv:4:")
+            && e.contains("time column \"time_end\"")
+            && e.contains("not on the 600 s interval grid"),
+        "{e}"
+    );
     // A field that is not a number.
     let p = write(dir.path(), "text.csv", t.replacen(",7.89,", ",7.8x,", 1));
-    let out = verify(dir.path(), &example("station.toml"), p.to_str().unwrap(), false);
+    let out = verify(
+        dir.path(),
+        &example("station.toml"),
+        p.to_str().unwrap(),
+        false,
+    );
     assert_eq!(out.status.code(), Some(2));
     let e = text(&out.stderr);
-    assert!(e.contains("text.csv:3:") && e.contains("field 2 (ws80a.mean)"), "{e}");
+    assert!(
+        e.contains("text.csv:3:") && e.contains("field 2 (ws80a.mean)"),
+        "{e}"
+    );
     // A row of fewer fields than the header.
     let p = write(dir.path(), "short.csv", t.replacen(",9.2\n", "\n", 1));
-    let out = verify(dir.path(), &example("station.toml"), p.to_str().unwrap(), false);
+    let out = verify(
+        dir.path(),
+        &example("station.toml"),
+        p.to_str().unwrap(),
+        false,
+    );
     assert_eq!(out.status.code(), Some(2));
-    assert!(text(&out.stderr).contains("short.csv:4:"), "{}", text(&out.stderr));
+    assert!(
+        text(&out.stderr).contains("short.csv:4:"),
+        "{}",
+        text(&out.stderr)
+    );
     // A declaration the core cannot compute.
     let bad = std::fs::read_to_string(example("station.toml"))
         .unwrap()
-        .replace("min = { column = \"ws80a_min\", decimals = 2, of = \"sample\" }", "min = { column = \"ws80a_min\", decimals = 2, of = \"running_mean\" }");
+        .replace(
+            "min = { column = \"ws80a_min\", decimals = 2, of = \"sample\" }",
+            "min = { column = \"ws80a_min\", decimals = 2, of = \"running_mean\" }",
+        );
     write(dir.path(), "bad.toml", bad);
     let out = verify(dir.path(), "bad.toml", &example("logger-table.csv"), false);
     assert_eq!(out.status.code(), Some(2));
     let e = text(&out.stderr);
-    assert!(e.contains("bad.toml:") && e.contains("smallest running mean"), "{e}");
+    assert!(
+        e.contains("bad.toml:") && e.contains("smallest running mean"),
+        "{e}"
+    );
 }

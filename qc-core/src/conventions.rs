@@ -268,7 +268,10 @@ impl Estimate {
     /// this statistic rounded under `rule`. A value with more decimals than
     /// declared is never accepted.
     pub fn accepts(&self, written: f64, decimals: u8, rule: Rounding) -> bool {
-        match (Self::units(written, decimals), self.rounds_to(decimals, rule)) {
+        match (
+            Self::units(written, decimals),
+            self.rounds_to(decimals, rule),
+        ) {
             (Some(k), Some((lo, hi))) => lo <= k && k <= hi,
             _ => false,
         }
@@ -431,8 +434,9 @@ impl Alternatives {
             }
             _ => {
                 let value = self.offset + self.step * v;
-                let bound =
-                    8.0 * EPS * (libm::fabs(self.offset) + libm::fabs(self.step * v) + libm::fabs(value));
+                let bound = 8.0
+                    * EPS
+                    * (libm::fabs(self.offset) + libm::fabs(self.step * v) + libm::fabs(value));
                 Estimate::approx(value, bound)
             }
         }
@@ -483,7 +487,10 @@ impl Alternatives {
                 let d = self.state.sums.finish(n)?;
                 let mean = d.mean_deg?;
                 let r = d.resultant_length;
-                Some(Estimate::approx(mean, angle_bound(TABLE_ERR + 8.0 * EPS, r)))
+                Some(Estimate::approx(
+                    mean,
+                    angle_bound(TABLE_ERR + 8.0 * EPS, r),
+                ))
             }
             Statistic::Direction(DirectionMean::SpeedWeighted) => {
                 let (offset, step, umax) = self.speed?;
@@ -537,7 +544,7 @@ fn deg(rad: f64) -> f64 {
 /// and the CORDIC (within an ulp of `libm`), or a half turn when `err` is not
 /// below `len`.
 fn angle_bound(err: f64, len: f64) -> f64 {
-    if !(len > 0.0) || err >= len {
+    if len.is_nan() || len <= 0.0 || err >= len {
         return 180.0;
     }
     deg(libm::asin(err / len)) * (1.0 + 1e-6) + 1e-12
@@ -663,13 +670,24 @@ mod tests {
             (Statistic::Direction(DirectionMean::UnitVector), mean),
             (Statistic::Direction(DirectionMean::SpeedWeighted), wmean),
             (Statistic::Spread(Spread::Yamartino), yamartino_deg(r * r)),
-            (Statistic::Spread(Spread::Circular), deg(libm::sqrt(-2.0 * libm::log(r)))),
-            (Statistic::Spread(Spread::Angular), deg(libm::sqrt(2.0 * (1.0 - r)))),
+            (
+                Statistic::Spread(Spread::Circular),
+                deg(libm::sqrt(-2.0 * libm::log(r))),
+            ),
+            (
+                Statistic::Spread(Spread::Angular),
+                deg(libm::sqrt(2.0 * (1.0 - r))),
+            ),
         ];
         for (st, want) in checks {
             let e = d.get(st).unwrap();
             let diff = e.difference(want, true);
-            assert!(diff <= e.bound, "{st:?}: {} vs {want}, bound {}", e.value, e.bound);
+            assert!(
+                diff <= e.bound,
+                "{st:?}: {} vs {want}, bound {}",
+                e.value,
+                e.bound
+            );
             assert!(e.bound < 1e-5, "{st:?}: bound {}", e.bound);
         }
     }

@@ -124,10 +124,10 @@
 #![deny(missing_docs)]
 
 pub mod analysis;
-pub mod conventions;
 pub mod angle;
 mod channel;
 mod cmath;
+pub mod conventions;
 pub mod direction;
 mod error;
 mod flags;
