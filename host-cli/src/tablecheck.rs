@@ -503,6 +503,8 @@ pub fn infer(
         };
         // Fields empty although the samples give a value: the logger's rule for few samples.
         let mut min_samples = 1u32;
+        // The fewest valid samples behind a value written: the rule's upper end.
+        let mut fewest_written = u32::MAX;
         for &i in cols {
             let c = &lt.columns[i];
             let f = &found[i];
@@ -517,8 +519,12 @@ pub fn infer(
                 else {
                     continue;
                 };
-                if row.values.get(i).copied().flatten().is_none() && alt.get(stat).is_some() {
+                let written = row.values.get(i).copied().flatten().is_some();
+                if !written && alt.get(stat).is_some() {
                     min_samples = min_samples.max(alt.valid() + 1);
+                }
+                if written {
+                    fewest_written = fewest_written.min(alt.valid());
                 }
             }
         }
@@ -558,7 +564,14 @@ pub fn infer(
             writeln!(out, "{line}")?;
         }
         writeln!(out, "rounding = \"{}\"", rule_name(rule))?;
-        writeln!(out, "min_samples = {min_samples}")?;
+        if fewest_written != u32::MAX && fewest_written > min_samples {
+            writeln!(
+                out,
+                "min_samples = {min_samples}  # any value from {min_samples} to {fewest_written} explains the table"
+            )?;
+        } else {
+            writeln!(out, "min_samples = {min_samples}")?;
+        }
         writeln!(out)?;
     }
     if all {

@@ -94,10 +94,11 @@ fn station(v: &[(String, String)], declare: bool) -> String {
     };
     if declare {
         s += &format!(
-            "[conventions.ws80a]\nmean = {{ column = \"ws80a_mean\", decimals = {ds} }}\nsd = {{ column = \"ws80a_sd\", decimals = {dsd}, divisor = \"{}\" }}\nmin = {{ column = \"ws80a_min\", decimals = {ds} }}\nmax = {{ column = \"ws80a_max\", decimals = {ds}, of = \"{}\" }}\ngust = {{ column = \"ws80a_gust\", decimals = {ds}, of = \"{}\" }}\nrounding = \"{rounding}\"\n\n[conventions.wd78]\nmean = {{ column = \"wd78_mean\", decimals = {dd}, method = \"{}\", north = \"{}\" }}\nsd = {{ column = \"wd78_sd\", decimals = {dd}, method = \"{}\" }}\nrounding = \"{rounding}\"\n",
+            "[conventions.ws80a]\nmean = {{ column = \"ws80a_mean\", decimals = {ds} }}\nsd = {{ column = \"ws80a_sd\", decimals = {dsd}, divisor = \"{}\" }}\nmin = {{ column = \"ws80a_min\", decimals = {ds} }}\nmax = {{ column = \"ws80a_max\", decimals = {ds}, of = \"{}\" }}\ngust = {{ column = \"ws80a_gust\", decimals = {ds}, of = \"{}\" }}\nrounding = \"{rounding}\"\nmin_samples = {}\n\n[conventions.wd78]\nmean = {{ column = \"wd78_mean\", decimals = {dd}, method = \"{}\", north = \"{}\" }}\nsd = {{ column = \"wd78_sd\", decimals = {dd}, method = \"{}\" }}\nrounding = \"{rounding}\"\n",
             get(v, "divisor"),
             get(v, "max"),
             get(v, "gust"),
+            get(v, "min_samples"),
             get(v, "direction_mean"),
             get(v, "north"),
             get(v, "spread"),
@@ -284,6 +285,17 @@ fn inference_recovers_every_generating_convention() {
                 "{name}: expected the line\n{w}\nin\n{o}"
             );
         }
+        // The rule for few samples: a range the table cannot narrow (no interval
+        // holds a number of samples in between), which must hold the script's.
+        let ws = o.split("[conventions.ws80a]").nth(1).unwrap();
+        let ms = ws.lines().find(|l| l.starts_with("min_samples = ")).unwrap();
+        let nums: Vec<u32> = ms
+            .split(|c: char| !c.is_ascii_digit())
+            .filter_map(|t| t.parse().ok())
+            .collect();
+        let want: u32 = get(&v, "min_samples").parse().unwrap();
+        let (lo, hi) = (nums[0], *nums.last().unwrap());
+        assert!(lo <= want && (want <= hi || (want == 1 && lo == 1)), "{name}: {ms}, script {want}");
         if get(&v, "rounding") == "truncate" {
             assert!(o.contains("rounding = \"truncate\""), "{name}: {o}");
         } else {

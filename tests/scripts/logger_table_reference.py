@@ -73,13 +73,15 @@ W = 3  # gust window, samples (3 s at 1 Hz)
 B = 2.0 / math.sqrt(3.0) - 1.0
 
 # name, label, zone (hours east of UTC), speed decimals, sd decimals, direction
-# decimals, divisor, gust, max, direction mean, spread, rounding, north
+# decimals, divisor, gust, max, direction mean, spread, rounding, north, and
+# the speed's min_samples (fewer valid speeds: every speed field left empty)
 VARIANTS = [
-    ("example", "end", 1, 2, 3, 1, "n-1", "sample", "sample", "unit_vector", "yamartino", "half_even", "0"),
-    ("start-utc-1dec", "start", 0, 1, 1, 1, "n", "running_mean", "sample", "speed_weighted", "circular", "half_even", "0"),
-    ("end-4dec", "end", 1, 4, 4, 4, "n-1", "running_mean", "running_mean", "unit_vector", "angular", "half_even", "0"),
-    ("start-3dec-truncate", "start", 1, 3, 3, 3, "n", "sample", "sample", "speed_weighted", "yamartino", "truncate", "0"),
-    ("end-utc-north360", "end", 0, 2, 2, 1, "n", "sample", "sample", "unit_vector", "angular", "half_even", "360"),
+    ("example", "end", 1, 2, 3, 1, "n-1", "sample", "sample", "unit_vector", "yamartino", "half_even", "0", 1),
+    ("start-utc-1dec", "start", 0, 1, 1, 1, "n", "running_mean", "sample", "speed_weighted", "circular", "half_even", "0", 1),
+    ("end-4dec", "end", 1, 4, 4, 4, "n-1", "running_mean", "running_mean", "unit_vector", "angular", "half_even", "0", 1),
+    ("start-3dec-truncate", "start", 1, 3, 3, 3, "n", "sample", "sample", "speed_weighted", "yamartino", "truncate", "0", 1),
+    ("end-utc-north360", "end", 0, 2, 2, 1, "n", "sample", "sample", "unit_vector", "angular", "half_even", "360", 1),
+    ("end-min-samples-300", "end", 1, 2, 3, 1, "n-1", "sample", "sample", "unit_vector", "yamartino", "half_even", "0", 300),
 ]
 
 
@@ -201,14 +203,18 @@ def north(text, d, rule):
 
 
 def table(samples, v):
-    name, label, zone, ds, dsd, dd, divisor, gust, mx, dmean, spread, rule, nth = v
+    name, label, zone, ds, dsd, dd, divisor, gust, mx, dmean, spread, rule, nth, few = v
     col = "time_end" if label == "end" else "time_start"
     rows = []
     t = np.arange(SECONDS)
     k = t // INTERVAL
     for kk in range(SECONDS // INTERVAL):
         m = k == kk
-        s = stats(samples["ws80a"].to_numpy()[m], samples["wd78"].to_numpy()[m])
+        ws = samples["ws80a"].to_numpy()[m]
+        s = stats(ws, samples["wd78"].to_numpy()[m])
+        if sum(1 for x in ws if x != "") < few:
+            for key in [x for x in s if not x.startswith(("dir", "spread"))]:
+                del s[key]
         start = START + pd.Timedelta(seconds=int(kk * INTERVAL))
         stamp = start + pd.Timedelta(seconds=INTERVAL if label == "end" else 0)
         local = (stamp + pd.Timedelta(hours=zone)).strftime("%Y-%m-%d %H:%M:%S")
@@ -242,7 +248,8 @@ def main():
             dict(
                 zip(
                     ["name", "label", "zone_h", "speed_decimals", "sd_decimals", "direction_decimals",
-                     "divisor", "gust", "max", "direction_mean", "spread", "rounding", "north"],
+                     "divisor", "gust", "max", "direction_mean", "spread", "rounding", "north",
+                     "min_samples"],
                     v,
                 )
             )
