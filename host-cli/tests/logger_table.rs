@@ -288,14 +288,20 @@ fn inference_recovers_every_generating_convention() {
         // The rule for few samples: a range the table cannot narrow (no interval
         // holds a number of samples in between), which must hold the script's.
         let ws = o.split("[conventions.ws80a]").nth(1).unwrap();
-        let ms = ws.lines().find(|l| l.starts_with("min_samples = ")).unwrap();
+        let ms = ws
+            .lines()
+            .find(|l| l.starts_with("min_samples = "))
+            .unwrap();
         let nums: Vec<u32> = ms
             .split(|c: char| !c.is_ascii_digit())
             .filter_map(|t| t.parse().ok())
             .collect();
         let want: u32 = get(&v, "min_samples").parse().unwrap();
         let (lo, hi) = (nums[0], *nums.last().unwrap());
-        assert!(lo <= want && (want <= hi || (want == 1 && lo == 1)), "{name}: {ms}, script {want}");
+        assert!(
+            lo <= want && (want <= hi || (want == 1 && lo == 1)),
+            "{name}: {ms}, script {want}"
+        );
         if get(&v, "rounding") == "truncate" {
             assert!(o.contains("rounding = \"truncate\""), "{name}: {o}");
         } else {
