@@ -202,15 +202,20 @@ pub fn verify(
                     let diff = e.difference(w, north.is_some());
                     per[i].1 += 1;
                     per[i].2 = per[i].2.max(diff);
+                    let more = if Estimate::units(w, d).is_none() {
+                        ", written with more decimals than declared"
+                    } else {
+                        ""
+                    };
                     note(
                         format!(
-                            "{what}: table {w:.d$}, expected {:.d$} ({} decimals, rounding {}; exact {}), differs by {} {u}",
+                            "{what}: table {w}, expected {:.dd$} ({d} decimals, rounding {}{more}; statistic {}{}), differs by {} {u}",
                             e.value,
-                            d,
                             rule_name(c.rounding),
                             e.value,
+                            if e.bound > 0.0 { format!(" +/- {:.1e}", e.bound) } else { String::new() },
                             trim(diff),
-                            d = usize::from(d)
+                            dd = usize::from(d)
                         ),
                         &mut total,
                     );
