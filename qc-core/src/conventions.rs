@@ -54,6 +54,7 @@
 
 use crate::channel::{ChannelState, Kind, StateForm};
 use crate::direction::{yamartino_deg, MIN_RESULTANT};
+use crate::moments::variance;
 use crate::station::Layout;
 
 /// The standard deviation's divisor.
@@ -425,18 +426,17 @@ impl Alternatives {
 
     /// A value `q` quanta (or `num / den` quanta) in the channel's unit.
     fn quanta(&self, num: i128, den: i128) -> Estimate {
-        let v = num as f64 / den as f64;
+        // As the core's finish computes it (`Scale::ratio`).
+        let scaled = match self.inv {
+            Some(inv) => num as f64 / (den as f64 * inv),
+            None => self.step * (num as f64 / den as f64),
+        };
+        let value = self.offset + scaled;
         match self.inv {
-            Some(inv) if self.offset == 0.0 => {
-                // Computed as the core's finish does: num / (den * inv).
-                let value = num as f64 / (den as f64 * inv);
-                Estimate::ratio(num, den * inv as i128, value)
-            }
+            Some(inv) if self.offset == 0.0 => Estimate::ratio(num, den * inv as i128, value),
             _ => {
-                let value = self.offset + self.step * v;
-                let bound = 8.0
-                    * EPS
-                    * (libm::fabs(self.offset) + libm::fabs(self.step * v) + libm::fabs(value));
+                let bound =
+                    8.0 * EPS * (libm::fabs(self.offset) + libm::fabs(scaled) + libm::fabs(value));
                 Estimate::approx(value, bound)
             }
         }
@@ -469,18 +469,19 @@ impl Alternatives {
             Statistic::Sd(div) => {
                 let num = m.variance_numerator(n);
                 let nf = f64::from(n);
-                let den = match div {
-                    Divisor::N => nf * nf,
-                    Divisor::NMinus1 if n >= 2 => nf * (nf - 1.0),
-                    Divisor::NMinus1 => return None,
+                let value = match (div, self.inv) {
+                    (Divisor::NMinus1, _) if n < 2 => return None,
+                    // As the core's finish computes it.
+                    (Divisor::N, Some(inv)) if n < 1 << 26 => libm::sqrt(num as f64) / (nf * inv),
+                    (Divisor::N, Some(inv)) => libm::sqrt(variance(num, n)) / inv,
+                    (Divisor::N, None) => self.step * libm::sqrt(variance(num, n)),
+                    (Divisor::NMinus1, Some(inv)) => libm::sqrt(num as f64 / nf / (nf - 1.0)) / inv,
+                    (Divisor::NMinus1, None) => {
+                        self.step * libm::sqrt(num as f64 / nf / (nf - 1.0))
+                    }
                 };
-                let sd_q = libm::sqrt(num as f64 / den);
-                let value = match self.inv {
-                    Some(inv) => sd_q / inv,
-                    None => self.step * sd_q,
-                };
-                // num to f64, n^2 (inexact above 2^26), the division, the
-                // square root and the scaling: each one rounding.
+                // num to f64, the divisions, the square root and the
+                // scaling: each one rounding.
                 Some(Estimate::approx(value, 8.0 * EPS * value))
             }
             Statistic::Direction(DirectionMean::UnitVector) => {
@@ -689,6 +690,79 @@ mod tests {
                 e.bound
             );
             assert!(e.bound < 1e-5, "{st:?}: bound {}", e.bound);
+        }
+    }
+
+    /// The alternatives that are the core's own statistics have the bits of
+    /// [`Layout::finish`], on random intervals of values and of calibrated
+    /// counts (an offset: no exact ratio).
+    #[test]
+    fn the_cores_own_conventions_have_the_bits_of_finish() {
+        let mut rng = crate::test_rng::Rng(7);
+        let layout = Layout::<3>::new::<4>(
+            StationConfig::ten_minute_1hz(),
+            &[
+                ChannelConfig::speed(0.01),
+                ChannelConfig::speed(0.0498).with_calibration(0.0498, 0.21),
+                ChannelConfig::direction(),
+            ],
+        )
+        .unwrap();
+        for case in 0..300 {
+            let mut acc = IntervalAcc::<3, 4>::new(&layout, 0);
+            let n = 1 + (rng.next() % 600) as i64;
+            for i in 0..n {
+                let miss = rng.next() % 10 == 0;
+                let r = [
+                    if miss {
+                        Reading::Missing
+                    } else {
+                        Reading::Value((rng.next() % 3000) as f64 / 100.0)
+                    },
+                    Reading::Counts((rng.next() % 800) as i32),
+                    Reading::Value(libm::fmod(
+                        200.0 + 120.0 * rng.unit() * (case % 3) as f64,
+                        360.0,
+                    )),
+                ];
+                acc.push(&layout, Timestamp::from_millis(i * 1000), &r);
+            }
+            for ch in 0..3 {
+                let rec = layout.finish(&acc, ch).unwrap();
+                let alt = Alternatives::of(&layout, ch, &acc.state(ch).unwrap()).unwrap();
+                let bits = |s: Option<Estimate>| s.map(|e| e.value.to_bits());
+                let stat = |s: crate::Stat| s.value().map(f64::to_bits);
+                if ch < 2 {
+                    assert_eq!(
+                        bits(alt.get(Statistic::Mean)),
+                        stat(rec.mean),
+                        "{case} {ch}"
+                    );
+                    assert_eq!(
+                        bits(alt.get(Statistic::Sd(Divisor::N))),
+                        stat(rec.sd),
+                        "{case} {ch}"
+                    );
+                    assert_eq!(bits(alt.get(Statistic::Min)), stat(rec.min), "{case} {ch}");
+                    assert_eq!(
+                        bits(alt.get(Statistic::Max(Largest::Sample))),
+                        stat(rec.max)
+                    );
+                    assert_eq!(
+                        bits(alt.get(Statistic::Max(Largest::RunningMean))),
+                        stat(rec.gust)
+                    );
+                    let exact = alt.get(Statistic::Mean).map(|e| e.is_exact());
+                    assert_eq!(exact, rec.mean.value().map(|_| ch == 0));
+                } else {
+                    let unit = alt.get(Statistic::Direction(DirectionMean::UnitVector));
+                    assert_eq!(bits(unit), stat(rec.mean), "{case}");
+                    assert_eq!(
+                        bits(alt.get(Statistic::Spread(Spread::Yamartino))),
+                        stat(rec.sd)
+                    );
+                }
+            }
         }
     }
 
