@@ -583,6 +583,28 @@ mod tests {
         assert_eq!(t.rounds_to(2, Rounding::HalfEven), Some((742, 742)));
     }
 
+    /// The `f64` path with its bound always contains what the exact path
+    /// decides, for every rule (random ratios, ties included).
+    #[test]
+    fn the_approximate_path_contains_the_exact_rounding() {
+        let mut rng = crate::test_rng::Rng(11);
+        for _ in 0..20_000 {
+            let den = 1 + (rng.next() % 60_000) as i128;
+            let num = (rng.next() % 4_000_000) as i128 - 2_000_000;
+            let exact = est(num, den);
+            let value = num as f64 / den as f64;
+            let approx = Estimate::approx(value, 4.0 * EPS * libm::fabs(value));
+            for d in 0..=4 {
+                for rule in Rounding::ALL {
+                    let (a, b) = exact.rounds_to(d, rule).unwrap();
+                    let (lo, hi) = approx.rounds_to(d, rule).unwrap();
+                    assert!(lo <= a && b <= hi, "{num}/{den} d {d} {rule:?}");
+                    assert!(hi - lo <= 1, "{num}/{den} d {d} {rule:?}");
+                }
+            }
+        }
+    }
+
     #[test]
     fn approximate_values_near_a_boundary_accept_both_neighbours() {
         let x = Estimate::approx(0.834_999_999_999_9, 1e-12);
