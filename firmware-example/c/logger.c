@@ -29,10 +29,11 @@ static uint64_t logger_mem[TM_RECORD_LOGGER_C8G3_SIZE / 8];
 /* One closed interval's frames. */
 static uint8_t frames[DEMO_CHANNELS * TM_FRAME_LEN];
 
-/* The sample file, read in chunks (large enough for the whole header). */
+/* The sample file, read in chunks of 256 bytes (more than the longest
+ * sample frame: 8 + 9 per channel + 4 bytes). */
 static struct {
     FILE *f;
-    uint8_t buf[2048];
+    uint8_t buf[256];
     size_t start, filled;
     unsigned long offset;
     int eof;
@@ -65,7 +66,9 @@ static uint32_t le32(const uint8_t *p) {
 static uint64_t le64(const uint8_t *p) { return (uint64_t)le32(p) | (uint64_t)le32(p + 4) << 32; }
 
 /* Sample file header (qc-core wire.rs, "Sample file"): magic "TMSF",
- * version, channel count at byte 5, header length at 6, ..., CRC-32 last. */
+ * version, channel count at byte 5, header length at 6, the station's
+ * settings (which this logger has in C, stations.c, and so only skips),
+ * CRC-32 last: checked piece by piece. */
 static int read_header(void) {
     if (!fill(56)) return fprintf(stderr, "logger: sample file: truncated header\n"), 0;
     const uint8_t *h = in.buf + in.start;
@@ -77,15 +80,19 @@ static int read_header(void) {
                 channels, DEMO_CHANNELS);
         return 0;
     }
-    if (len != 56 + 160 * channels + 4 || !fill(len)) {
-        return fprintf(stderr, "logger: sample file: bad header length\n"), 0;
-    }
+    if (len != 56 + 160 * channels + 4) return fprintf(stderr, "logger: sample file: bad header length\n"), 0;
     uint32_t crc = 0;
-    tm_crc32(in.buf + in.start, len - 4, &crc);
-    if (crc != le32(in.buf + in.start + len - 4)) {
+    for (size_t left = len - 4; left > 0;) {
+        size_t n = left < 128 ? left : 128;
+        if (!fill(n)) return fprintf(stderr, "logger: sample file: truncated header\n"), 0;
+        tm_crc32(crc, in.buf + in.start, n, &crc);
+        consume(n);
+        left -= n;
+    }
+    if (!fill(4) || crc != le32(in.buf + in.start)) {
         return fprintf(stderr, "logger: sample file: header CRC does not match\n"), 0;
     }
-    consume(len);
+    consume(4);
     return 1;
 }
 
@@ -125,7 +132,7 @@ static int decode_sample(int64_t *t, tm_reading *r, size_t *len) {
     }
     if (n < at + 4) return 0;
     uint32_t crc = 0;
-    tm_crc32(p, at, &crc);
+    tm_crc32(0, p, at, &crc);
     if (crc != le32(p + at)) return -1;
     *len = at + 4;
     return 1;
@@ -150,6 +157,9 @@ int main(int argc, char **argv) {
     int states = argc > 3 && strcmp(argv[3], "states") == 0;
     if (argc > 3 && !states) return fprintf(stderr, "logger: the third argument can only be `states`\n"), 1;
 
+    /* No stdio buffers (newlib would allocate them on the heap). */
+    setvbuf(stdout, NULL, _IONBF, 0);
+    setvbuf(stderr, NULL, _IONBF, 0);
     if (demo_station(layout_mem, sizeof layout_mem) != TM_OK) return 1;
     tm_status s = states ? tm_state_logger_start_c8g3(logger_mem, sizeof logger_mem, layout_mem)
                          : tm_record_logger_start_c8g3(logger_mem, sizeof logger_mem, layout_mem);
@@ -159,8 +169,8 @@ int main(int argc, char **argv) {
     if (!in.f) return fprintf(stderr, "logger: cannot open %s\n", samples), 1;
     out = fopen(log, "wb");
     if (!out) return fprintf(stderr, "logger: cannot create %s\n", log), 1;
-    /* No stdio buffers (newlib would allocate them): whole chunks and
-     * whole intervals of frames are read and written at a time. */
+    /* Whole chunks and whole intervals of frames are read and written at a
+     * time: no stdio buffers. */
     setvbuf(in.f, NULL, _IONBF, 0);
     setvbuf(out, NULL, _IONBF, 0);
     if (!read_header()) return 1;

@@ -479,16 +479,19 @@ tm_status tm_logger_recovery(void *logger,
 tm_status tm_logger_totals(void *logger,
                            struct tm_push_totals *out);
 
-// The CRC-32 of `len` bytes at `data` into `*out`: IEEE 802.3 (the CRC of
-// zlib, PNG and Ethernet, CRC-32/ISO-HDLC), the CRC every frame and sample
-// file carries. `data` may be NULL when `len` is 0.
+// The CRC-32 of `len` bytes at `data` following earlier bytes whose CRC
+// was `crc` (0 for none) into `*out`: IEEE 802.3 (the CRC of zlib, PNG and
+// Ethernet, CRC-32/ISO-HDLC), the CRC every frame and sample file carries.
+// Like zlib's `crc32(crc, buf, len)`, so a file read in pieces is checked
+// piece by piece. `data` may be NULL when `len` is 0.
 //
 // Returns `TM_OK`, `TM_ERR_NULL` or `TM_ERR_ALIGN`.
 //
 // # Safety
 //
 // `data` must be NULL or `len` readable bytes; `out` NULL or writable.
-tm_status tm_crc32(const uint8_t *data,
+tm_status tm_crc32(uint32_t crc,
+                   const uint8_t *data,
                    size_t len,
                    uint32_t *out);
 

@@ -551,9 +551,11 @@ pub unsafe extern "C" fn tm_logger_totals(
     }
 }
 
-/// The CRC-32 of `len` bytes at `data` into `*out`: IEEE 802.3 (the CRC of
-/// zlib, PNG and Ethernet, CRC-32/ISO-HDLC), the CRC every frame and sample
-/// file carries. `data` may be NULL when `len` is 0.
+/// The CRC-32 of `len` bytes at `data` following earlier bytes whose CRC
+/// was `crc` (0 for none) into `*out`: IEEE 802.3 (the CRC of zlib, PNG and
+/// Ethernet, CRC-32/ISO-HDLC), the CRC every frame and sample file carries.
+/// Like zlib's `crc32(crc, buf, len)`, so a file read in pieces is checked
+/// piece by piece. `data` may be NULL when `len` is 0.
 ///
 /// Returns `TM_OK`, `TM_ERR_NULL` or `TM_ERR_ALIGN`.
 ///
@@ -561,11 +563,20 @@ pub unsafe extern "C" fn tm_logger_totals(
 ///
 /// `data` must be NULL or `len` readable bytes; `out` NULL or writable.
 #[no_mangle]
-pub unsafe extern "C" fn tm_crc32(data: *const u8, len: usize, out: *mut u32) -> tm_status {
+pub unsafe extern "C" fn tm_crc32(
+    crc: u32,
+    data: *const u8,
+    len: usize,
+    out: *mut u32,
+) -> tm_status {
     // SAFETY: the caller promises `len` readable bytes at `data`.
     match unsafe { slice(data, len) } {
-        // SAFETY: passed on from the caller (see the function's Safety).
-        Ok(bytes) => unsafe { put(out, wire::crc32(bytes)) },
+        Ok(bytes) => {
+            let mut c = wire::Crc32::resume(crc);
+            c.update(bytes);
+            // SAFETY: passed on from the caller (see the function's Safety).
+            unsafe { put(out, c.value()) }
+        }
         Err(s) => s,
     }
 }
