@@ -4,7 +4,12 @@
 
 #include "stations.h"
 
+/* Prints why a station was refused (not in the footprint builds, which
+ * define STATIONS_QUIET: a minimal logger as the Rust footprint binaries). */
 static tm_status report(tm_status s, uint8_t channel) {
+#ifdef STATIONS_QUIET
+    (void)channel;
+#else
     if (s != TM_OK) {
         if (channel != 255) {
             fprintf(stderr, "station refused: channel %u: %s\n", channel, tm_message(s));
@@ -12,6 +17,7 @@ static tm_status report(tm_status s, uint8_t channel) {
             fprintf(stderr, "station refused: %s\n", tm_message(s));
         }
     }
+#endif
     return s;
 }
 

@@ -26,48 +26,44 @@
 #define TM_FRAME_STATE 1
 
 // Bytes of a layout block of shape `c4g3` (4 channels, gust windows up to
-// 3 samples), on any target (64-bit hosts need all of it; 32-bit targets
-// use a few bytes less). Align it to `TM_ALIGN`.
-#define TM_LAYOUT_C4G3_SIZE 1248
+// 3 samples), on any target. Align it to `TM_ALIGN`.
+#define TM_LAYOUT_C4G3_SIZE 1408
 
 // Bytes of a record logger block of shape `c4g3`, on any target.
-#define TM_RECORD_LOGGER_C4G3_SIZE 1128
+#define TM_RECORD_LOGGER_C4G3_SIZE 1280
 
 // Bytes of a state logger block of shape `c4g3`, on any target.
-#define TM_STATE_LOGGER_C4G3_SIZE 616
+#define TM_STATE_LOGGER_C4G3_SIZE 768
 
 // Bytes of a layout block of shape `c8g3` (8 channels, gust windows up to
-// 3 samples), on any target (64-bit hosts need all of it; 32-bit targets
-// use a few bytes less). Align it to `TM_ALIGN`.
-#define TM_LAYOUT_C8G3_SIZE 2400
+// 3 samples), on any target. Align it to `TM_ALIGN`.
+#define TM_LAYOUT_C8G3_SIZE 2560
 
 // Bytes of a record logger block of shape `c8g3`, on any target.
-#define TM_RECORD_LOGGER_C8G3_SIZE 2064
+#define TM_RECORD_LOGGER_C8G3_SIZE 2176
 
 // Bytes of a state logger block of shape `c8g3`, on any target.
-#define TM_STATE_LOGGER_C8G3_SIZE 1072
+#define TM_STATE_LOGGER_C8G3_SIZE 1152
 
 // Bytes of a layout block of shape `c8g12` (8 channels, gust windows up to
-// 12 samples), on any target (64-bit hosts need all of it; 32-bit targets
-// use a few bytes less). Align it to `TM_ALIGN`.
-#define TM_LAYOUT_C8G12_SIZE 2400
+// 12 samples), on any target. Align it to `TM_ALIGN`.
+#define TM_LAYOUT_C8G12_SIZE 2560
 
 // Bytes of a record logger block of shape `c8g12`, on any target.
-#define TM_RECORD_LOGGER_C8G12_SIZE 2640
+#define TM_RECORD_LOGGER_C8G12_SIZE 2816
 
 // Bytes of a state logger block of shape `c8g12`, on any target.
-#define TM_STATE_LOGGER_C8G12_SIZE 1648
+#define TM_STATE_LOGGER_C8G12_SIZE 1792
 
 // Bytes of a layout block of shape `c16g12` (16 channels, gust windows up to
-// 12 samples), on any target (64-bit hosts need all of it; 32-bit targets
-// use a few bytes less). Align it to `TM_ALIGN`.
-#define TM_LAYOUT_C16G12_SIZE 4704
+// 12 samples), on any target. Align it to `TM_ALIGN`.
+#define TM_LAYOUT_C16G12_SIZE 4864
 
 // Bytes of a record logger block of shape `c16g12`, on any target.
-#define TM_RECORD_LOGGER_C16G12_SIZE 5088
+#define TM_RECORD_LOGGER_C16G12_SIZE 5248
 
 // Bytes of a state logger block of shape `c16g12`, on any target.
-#define TM_STATE_LOGGER_C16G12_SIZE 3136
+#define TM_STATE_LOGGER_C16G12_SIZE 3200
 
 // `tm_reading.kind`: an engineering value in `value` (m/s, degrees, deg C
 // ...); NaN or a missing-value code counts as missing.
