@@ -569,7 +569,7 @@ pub unsafe extern "C" fn tm_crc32(
     len: usize,
     out: *mut u32,
 ) -> tm_status {
-    #[cfg(feature = "nopanic-canary")]
+    #[cfg(all(feature = "nopanic-canary", target_os = "none"))]
     let _ = [0u8; 4][core::hint::black_box(len)];
     // SAFETY: the caller promises `len` readable bytes at `data`.
     match unsafe { slice(data, len) } {
