@@ -123,17 +123,22 @@ pub(crate) trait Engine {
     fn totals(&self) -> qc_core::PushTotals;
 }
 
-/// The readings of a push as the core's, padded with missing readings.
+/// The readings of a push as the core's, padded with missing readings, into
+/// `out` (filled in place: returned by value, the array was copied twice
+/// per sample).
 #[inline]
-fn readings<const C: usize>(meta: &Meta, src: &[tm_reading]) -> Result<[Reading; C], tm_status> {
+fn convert<const C: usize>(
+    meta: &Meta,
+    src: &[tm_reading],
+    out: &mut [Reading; C],
+) -> Result<(), tm_status> {
     if src.len() != usize::from(meta.active) {
         return Err(tm_status::TM_ERR_CHANNELS);
     }
-    let mut out = [Reading::Missing; C];
     for (slot, r) in out.iter_mut().zip(src) {
         *slot = types::reading(r).ok_or(tm_status::TM_ERR_READING)?;
     }
-    Ok(out)
+    Ok(())
 }
 
 /// Checks that `out` holds a frame per channel.
@@ -252,7 +257,8 @@ impl<const C: usize, const G: usize> Engine for RecordBody<C, G> {
         src: &[tm_reading],
         out: &mut [u8],
     ) -> Result<tm_push_result, tm_status> {
-        let readings = readings::<C>(meta, src)?;
+        let mut readings = [Reading::Missing; C];
+        convert::<C>(meta, src, &mut readings)?;
         room(meta, out)?;
         let layout = self.layout;
         let mut result = tm_push_result::default();
@@ -294,7 +300,8 @@ impl<const C: usize, const G: usize> Engine for StateBody<C, G> {
         src: &[tm_reading],
         out: &mut [u8],
     ) -> Result<tm_push_result, tm_status> {
-        let readings = readings::<C>(meta, src)?;
+        let mut readings = [Reading::Missing; C];
+        convert::<C>(meta, src, &mut readings)?;
         room(meta, out)?;
         let mut result = tm_push_result::default();
         let pushed = self
