@@ -56,7 +56,10 @@ fn build_c_logger(dir: &Path) -> PathBuf {
         .arg(c.join("logger.c"))
         .arg(c.join("stations.c"))
         .arg(static_lib())
-        .args(["-lpthread", "-ldl", "-lm", "-o"])
+        // --gc-sections: only what the C logger calls is linked (with the
+        // workspace's `--all-features`, qc-core's defmt code is in the library,
+        // and it needs a defmt logger the C program does not have).
+        .args(["-Wl,--gc-sections", "-lpthread", "-ldl", "-lm", "-o"])
         .arg(&exe)
         .output()
         .expect("run cc (the system's C compiler)");
