@@ -38,8 +38,8 @@
 //! lengths) and alignment, and every memory block for the mark its build or
 //! start left. No panic crosses the boundary: the core has none reachable
 //! from input, an `extern "C"` function aborts rather than unwind, and
-//! `firmware-example/c/check.sh` proves at link time that the C logger's
-//! entry points reach no panic (feature `nopanic`).
+//! `firmware-example/c/check.sh` proves at link time that the
+//! entry points, all shapes, reach no panic (feature `nopanic`).
 
 #![no_std]
 #![deny(missing_docs)]
