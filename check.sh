@@ -40,6 +40,10 @@ if [ $quick = 0 ]; then
     step "firmware under QEMU"
     firmware-example/run-checks.sh
   fi
+  if [ -x firmware-example/c/check.sh ]; then
+    step "the C logger over the C interface, under QEMU"
+    firmware-example/c/check.sh
+  fi
 fi
 echo
 echo "check.sh: all checks passed"

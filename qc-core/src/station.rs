@@ -141,9 +141,19 @@ impl Sentinels {
                 if v.is_nan() {
                     return Err(ConfigError::Sentinels);
                 }
-                s.values[s.n_values as usize] = v;
-                s.n_values += 1;
-                if cmath::trunc(v) == v && v >= i32::MIN as f64 && v <= i32::MAX as f64 {
+                // The counters are at most `i` (< MAX_SENTINELS); the checks
+                // say so to the compiler, so no panic path is left (run at
+                // run time by `Layout::rebuild`, under the C interface's
+                // link-time no-panic proof).
+                if (s.n_values as usize) < MAX_SENTINELS {
+                    s.values[s.n_values as usize] = v;
+                    s.n_values += 1;
+                }
+                if cmath::trunc(v) == v
+                    && v >= i32::MIN as f64
+                    && v <= i32::MAX as f64
+                    && (s.n_counts as usize) < MAX_SENTINELS
+                {
                     s.counts[s.n_counts as usize] = v as i32;
                     s.n_counts += 1;
                 }
@@ -170,12 +180,19 @@ impl Sentinels {
 
     /// The codes as values.
     pub const fn values(&self) -> &[f64] {
-        self.values.split_at(self.n_values as usize).0
+        // `split_at_checked`: no panic path (the count is in range by construction).
+        match self.values.split_at_checked(self.n_values as usize) {
+            Some((codes, _)) => codes,
+            None => &[],
+        }
     }
 
     /// The codes that are whole numbers within `i32`, as counts.
     pub const fn counts(&self) -> &[i32] {
-        self.counts.split_at(self.n_counts as usize).0
+        match self.counts.split_at_checked(self.n_counts as usize) {
+            Some((codes, _)) => codes,
+            None => &[],
+        }
     }
 
     /// Whether raw counts `k` equal a missing-value code.

@@ -1223,6 +1223,13 @@ impl Crc32 {
     pub const fn value(&self) -> u32 {
         !self.state
     }
+
+    /// Goes on from a CRC-32 `value` of earlier bytes (what [`Crc32::value`]
+    /// gave): adding more bytes gives the CRC of all of them, as zlib's
+    /// `crc32(value, ...)` does. `resume(0)` is [`Crc32::new`].
+    pub const fn resume(value: u32) -> Self {
+        Crc32 { state: !value }
+    }
 }
 
 /// Bounds-checked little-endian access to a byte slice: out-of-range reads
@@ -1855,6 +1862,14 @@ mod tests {
         // "CRC-32/ISO-HDLC" entry: poly 0x04C11DB7 reflected, init and xorout
         // 0xFFFFFFFF, check 0xCBF43926).
         assert_eq!(crc32(b"123456789"), 0xCBF4_3926);
+        // A running CRC, as zlib's crc32(crc, buf, len) continues one (zlib
+        // manual, crc32()): Python 3.11.7 zlib.crc32(b"The quick brown fox ")
+        // == 0x88b075e2, and zlib.crc32(b"jumps over the lazy dog",
+        // 0x88b075e2) == 0x414fa339 (run for this check).
+        let mut c = Crc32::resume(0x88B0_75E2);
+        c.update(b"jumps over the lazy dog");
+        assert_eq!(c.value(), 0x414F_A339);
+        assert_eq!(Crc32::resume(0), Crc32::new());
         // Python 3.11.7 zlib.crc32 (zlib's CRC-32 is the same algorithm):
         // zlib.crc32(b"The quick brown fox jumps over the lazy dog") == 0x414fa339,
         // zlib.crc32(bytes(range(256))) == 0x29058c73, zlib.crc32(b"") == 0.

@@ -1,0 +1,329 @@
+//! The safe half of the interface: what lives in the caller's memory, and the
+//! loggers that run there, generic over the shape (channel capacity `C`, gust
+//! capacity `G`). `lib.rs` turns the caller's pointers into references to
+//! these types; nothing here is `unsafe`.
+
+use qc_core::wire::{self, ConfigStamp, RecordFrame, StateFrame, FRAME_LEN};
+use qc_core::{
+    config_fingerprint, ChannelConfig, Ended, Event, Layout, Reading, Recovery, Sampler, Station,
+    Timestamp,
+};
+
+use crate::status::tm_status;
+use crate::types::{self, tm_channel_settings, tm_push_result, tm_reading, tm_station_settings};
+
+/// Marks memory that holds a built layout ("TMLY").
+pub(crate) const LAYOUT_MAGIC: u32 = 0x594C_4D54;
+/// Marks memory that holds a started logger ("TMLG").
+pub(crate) const LOGGER_MAGIC: u32 = 0x474C_4D54;
+
+/// A layout in the caller's memory: the shape it was validated for, the
+/// channels in use, their fingerprint, and the core's layout (channels past
+/// `active` are unused `scalar(1.0)` slots, fed missing readings).
+#[repr(C)]
+pub(crate) struct LayoutMem<const C: usize> {
+    pub head: LayoutHead,
+    pub layout: Layout<C>,
+}
+
+/// The start of a layout block, the same for every shape.
+#[repr(C)]
+#[derive(Clone, Copy, Debug)]
+pub(crate) struct LayoutHead {
+    pub magic: u32,
+    pub capacity: u8,
+    pub gust: u8,
+    pub active: u8,
+    pub fingerprint: u32,
+}
+
+impl LayoutHead {
+    /// Whether the block holds a layout built for the shape `C`, `G`.
+    pub fn is_ready(&self, c: usize, g: usize) -> bool {
+        self.magic == LAYOUT_MAGIC && usize::from(self.capacity) == c && usize::from(self.gust) == g
+    }
+}
+
+impl<const C: usize> LayoutMem<C> {
+    /// An empty layout block (not yet valid: `magic` is 0).
+    pub const EMPTY: Self = LayoutMem {
+        head: LayoutHead {
+            magic: 0,
+            capacity: 0,
+            gust: 0,
+            active: 0,
+            fingerprint: 0,
+        },
+        layout: Layout::PLACEHOLDER,
+    };
+
+    /// Validates the station into `self`, in place. On an error the block
+    /// stays unusable (`magic` 0), and the channel the error names (or 255)
+    /// is returned beside it.
+    #[inline(never)]
+    pub fn build<const G: usize>(
+        &mut self,
+        station: &tm_station_settings,
+        channels: &[tm_channel_settings],
+    ) -> Result<(), (tm_status, u8)> {
+        self.head.magic = 0;
+        if channels.is_empty() || channels.len() > C || C > 255 || G > 255 {
+            return Err((tm_status::TM_CONFIG_CAPACITY, 255));
+        }
+        let station = types::station(station).map_err(|s| (s, 255))?;
+        let mut configs = [ChannelConfig::scalar(1.0); C];
+        for (i, (slot, c)) in configs.iter_mut().zip(channels).enumerate() {
+            *slot = types::channel(c).map_err(|s| (s, i as u8))?;
+        }
+        let used = configs.get(..channels.len()).unwrap_or(&[]);
+        let fingerprint = config_fingerprint(&station, used);
+        self.layout
+            .rebuild::<G>(station, &configs)
+            .map_err(types::config_error)?;
+        self.head = LayoutHead {
+            magic: LAYOUT_MAGIC,
+            capacity: C as u8,
+            gust: G as u8,
+            active: channels.len() as u8,
+            fingerprint,
+        };
+        Ok(())
+    }
+}
+
+/// What a logger's frames carry besides the interval, and the frame counter.
+#[repr(C)]
+#[derive(Clone, Copy, Debug)]
+pub(crate) struct Meta {
+    /// Channels that write frames (the layout's channels in use).
+    pub active: u8,
+    /// Stamped on every frame.
+    pub fingerprint: u32,
+    /// The next frame's sequence number (wraps).
+    pub sequence: u32,
+}
+
+/// What every logger does, whatever its shape: the entry points reach the
+/// logger in the caller's memory through this trait, so only the shapes a
+/// program starts are linked into it.
+pub(crate) trait Engine {
+    /// Adds one sample; the frames of an interval it closes go to `out`.
+    fn push(
+        &mut self,
+        meta: &mut Meta,
+        t: Timestamp,
+        readings: &[tm_reading],
+        out: &mut [u8],
+    ) -> Result<tm_push_result, tm_status>;
+    /// Closes the open interval (end of data); its frames go to `out`.
+    fn close(&mut self, meta: &mut Meta, out: &mut [u8]) -> tm_push_result;
+    /// The running recovery of a channel (record loggers).
+    fn recovery(&self, channel: usize) -> Result<Recovery, tm_status>;
+    /// Samples pushed, by outcome.
+    fn totals(&self) -> qc_core::PushTotals;
+}
+
+/// The readings of a push as the core's, padded with missing readings, into
+/// `out` (filled in place: returned by value, the array was copied twice
+/// per sample).
+#[inline]
+fn convert<const C: usize>(
+    meta: &Meta,
+    src: &[tm_reading],
+    out: &mut [Reading; C],
+) -> Result<(), tm_status> {
+    if src.len() != usize::from(meta.active) {
+        return Err(tm_status::TM_ERR_CHANNELS);
+    }
+    for (slot, r) in out.iter_mut().zip(src) {
+        *slot = types::reading(r).ok_or(tm_status::TM_ERR_READING)?;
+    }
+    Ok(())
+}
+
+/// Checks that `out` holds a frame per channel.
+fn room(meta: &Meta, out: &[u8]) -> Result<(), tm_status> {
+    if out.len() < usize::from(meta.active) * FRAME_LEN {
+        return Err(tm_status::TM_ERR_SIZE);
+    }
+    Ok(())
+}
+
+/// Writes one frame per active channel into `out`, each filled by
+/// `encode(channel, sequence, frame)`; returns how many.
+fn frames(
+    meta: &mut Meta,
+    out: &mut [u8],
+    mut encode: impl FnMut(usize, u32, &mut [u8; FRAME_LEN]),
+) -> u32 {
+    let mut n = 0;
+    for (channel, chunk) in out
+        .chunks_exact_mut(FRAME_LEN)
+        .take(usize::from(meta.active))
+        .enumerate()
+    {
+        if let Ok(frame) = <&mut [u8; FRAME_LEN]>::try_from(chunk) {
+            encode(channel, meta.sequence, frame);
+            meta.sequence = meta.sequence.wrapping_add(1);
+            n += 1;
+        }
+    }
+    n
+}
+
+/// The record frames of a closed interval (gaps write none).
+#[inline(never)]
+fn records<const C: usize, const G: usize>(
+    layout: &Layout<C>,
+    meta: &mut Meta,
+    out: &mut [u8],
+    result: &mut tm_push_result,
+    event: Event<'_, C, G>,
+) {
+    let Event::Closed(acc, recs) = event else {
+        return;
+    };
+    let interval_start = layout.interval_start(acc.index());
+    let stamp = ConfigStamp {
+        channels: meta.active,
+        fingerprint: meta.fingerprint,
+    };
+    result.interval_start_ms = interval_start.millis();
+    result.frames = frames(meta, out, |channel, sequence, frame| {
+        if let Some(record) = recs.get(channel) {
+            let f = RecordFrame {
+                sequence,
+                interval_start,
+                channel: channel as u8,
+                config: Some(stamp),
+                record: *record,
+            };
+            wire::encode_record(&f, frame);
+        }
+    });
+}
+
+/// The state frames of a closed interval (gaps write none).
+#[inline(never)]
+fn states<const C: usize, const G: usize>(
+    meta: &mut Meta,
+    out: &mut [u8],
+    result: &mut tm_push_result,
+    ended: Ended<'_, C, G>,
+) {
+    let Ended::Interval(layout, acc) = ended else {
+        return;
+    };
+    let interval_start = layout.interval_start(acc.index());
+    result.interval_start_ms = interval_start.millis();
+    let (channels, fingerprint) = (meta.active, meta.fingerprint);
+    result.frames = frames(meta, out, |channel, sequence, frame| {
+        if let Some(state) = acc.state(channel) {
+            let f = StateFrame {
+                sequence,
+                interval_start,
+                channel: channel as u8,
+                channels,
+                fingerprint,
+                state,
+            };
+            wire::encode_state(&f, frame);
+        }
+    });
+}
+
+/// A logger in the caller's memory, after its header: its layout (in the
+/// caller's layout block) and what it runs, a [`Station`] (record logger) or
+/// a [`Sampler`] (state logger).
+#[repr(C)]
+pub(crate) struct Body<const C: usize, K> {
+    pub layout: &'static Layout<C>,
+    pub core: K,
+}
+
+/// A record logger: the whole station (finishes, screens and counts the
+/// running recovery on board).
+pub(crate) type RecordBody<const C: usize, const G: usize> =
+    Body<C, Station<C, G, &'static Layout<C>>>;
+/// A state logger: the station's sampling half.
+pub(crate) type StateBody<const C: usize, const G: usize> =
+    Body<C, Sampler<C, G, &'static Layout<C>>>;
+
+impl<const C: usize, const G: usize> Engine for RecordBody<C, G> {
+    fn push(
+        &mut self,
+        meta: &mut Meta,
+        t: Timestamp,
+        src: &[tm_reading],
+        out: &mut [u8],
+    ) -> Result<tm_push_result, tm_status> {
+        let mut readings = [Reading::Missing; C];
+        convert::<C>(meta, src, &mut readings)?;
+        room(meta, out)?;
+        let layout = self.layout;
+        let mut result = tm_push_result::default();
+        let pushed = self
+            .core
+            .push(t, &readings, |e| records(layout, meta, out, &mut result, e));
+        result.outcome = types::outcome(pushed);
+        Ok(result)
+    }
+
+    fn close(&mut self, meta: &mut Meta, out: &mut [u8]) -> tm_push_result {
+        let layout = self.layout;
+        let mut result = tm_push_result::default();
+        if room(meta, out).is_ok() {
+            self.core
+                .close(|e| records(layout, meta, out, &mut result, e));
+        }
+        result
+    }
+
+    fn recovery(&self, channel: usize) -> Result<Recovery, tm_status> {
+        self.core
+            .recovery()
+            .get(channel)
+            .copied()
+            .ok_or(tm_status::TM_ERR_CHANNEL)
+    }
+
+    fn totals(&self) -> qc_core::PushTotals {
+        *self.core.totals()
+    }
+}
+
+impl<const C: usize, const G: usize> Engine for StateBody<C, G> {
+    fn push(
+        &mut self,
+        meta: &mut Meta,
+        t: Timestamp,
+        src: &[tm_reading],
+        out: &mut [u8],
+    ) -> Result<tm_push_result, tm_status> {
+        let mut readings = [Reading::Missing; C];
+        convert::<C>(meta, src, &mut readings)?;
+        room(meta, out)?;
+        let mut result = tm_push_result::default();
+        let pushed = self
+            .core
+            .push(t, &readings, |e| states(meta, out, &mut result, e));
+        result.outcome = types::outcome(pushed);
+        Ok(result)
+    }
+
+    fn close(&mut self, meta: &mut Meta, out: &mut [u8]) -> tm_push_result {
+        let mut result = tm_push_result::default();
+        if room(meta, out).is_ok() {
+            self.core.close(|e| states(meta, out, &mut result, e));
+        }
+        result
+    }
+
+    fn recovery(&self, _channel: usize) -> Result<Recovery, tm_status> {
+        Err(tm_status::TM_ERR_NO_RECOVERY)
+    }
+
+    fn totals(&self) -> qc_core::PushTotals {
+        *self.core.totals()
+    }
+}

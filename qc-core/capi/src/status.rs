@@ -1,0 +1,178 @@
+//! Status codes and their messages. No `unsafe` in this file.
+
+#![allow(non_camel_case_types)]
+
+use core::ffi::CStr;
+
+/// What a call did: `TM_OK`, a refused configuration (`TM_CONFIG_...`, one
+/// code for each way `Layout::new` refuses one) or a refused call
+/// (`TM_ERR_...`). `tm_message` gives each a sentence.
+#[repr(i32)]
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+pub enum tm_status {
+    /// Done.
+    TM_OK = 0,
+    /// The interval is 0 or does not divide a day (86,400 s) evenly.
+    TM_CONFIG_INTERVAL = 1,
+    /// Samples per interval is 0, too many, or more than one per millisecond.
+    TM_CONFIG_SAMPLE_COUNT = 2,
+    /// More than 4 missing-value codes, or a NaN code.
+    TM_CONFIG_SENTINELS = 3,
+    /// More than 255 channels.
+    TM_CONFIG_TOO_MANY_CHANNELS = 4,
+    /// A channel's resolution or slope is not finite and positive, or its
+    /// offset is not finite.
+    TM_CONFIG_SCALE = 5,
+    /// A channel's range is not finite, or low is above high.
+    TM_CONFIG_RANGE = 6,
+    /// A channel's range is too wide for its resolution.
+    TM_CONFIG_RANGE_TOO_WIDE = 7,
+    /// A gust window longer than the shape's gust capacity.
+    TM_CONFIG_GUST_WINDOW = 8,
+    /// A direction's speed channel does not exist or is not a speed channel.
+    TM_CONFIG_SPEED_LINK = 9,
+    /// A direction calibration slope above 300 degrees per count.
+    TM_CONFIG_DIRECTION_SLOPE = 10,
+    /// A mounting offset beyond +/-360 degrees.
+    TM_CONFIG_MOUNTING_OFFSET = 11,
+    /// A screening setting out of its domain.
+    TM_CONFIG_SCREEN = 12,
+    /// A screening test names a missing channel, one of the wrong kind, or
+    /// the channel itself.
+    TM_CONFIG_SCREEN_LINK = 13,
+    /// The core refused the configuration for a reason newer than this header.
+    TM_CONFIG_OTHER = 14,
+    /// A channel index in the settings is neither -1 nor 0 to 255, or an
+    /// icing test names a temperature channel but no humidity channel.
+    TM_CONFIG_CHANNEL_INDEX = 15,
+    /// More channels than the shape holds, or none.
+    TM_CONFIG_CAPACITY = 16,
+    /// A pointer argument is NULL.
+    TM_ERR_NULL = 100,
+    /// A memory block or buffer is shorter than the call needs.
+    TM_ERR_SIZE = 101,
+    /// A memory block is not aligned to `TM_ALIGN` bytes.
+    TM_ERR_ALIGN = 102,
+    /// The memory block holds no layout or logger of this shape (never
+    /// built, built for another shape, or overwritten).
+    TM_ERR_NOT_READY = 103,
+    /// A reading's kind is not one of `TM_READING_...`.
+    TM_ERR_READING = 104,
+    /// The number of readings is not the layout's channel count.
+    TM_ERR_CHANNELS = 105,
+    /// A channel kind code is not one of `TM_KIND_...`.
+    TM_ERR_KIND = 106,
+    /// Running recovery asked of a state logger (it has none: the PC counts it).
+    TM_ERR_NO_RECOVERY = 107,
+    /// A channel index beyond the layout's channels.
+    TM_ERR_CHANNEL = 108,
+    /// Bytes that are not a good frame (sync marker, version, CRC or contents).
+    TM_ERR_FRAME = 109,
+}
+
+/// The message of a status code (a static NUL-terminated string).
+pub(crate) fn message(code: i32) -> &'static CStr {
+    use tm_status::*;
+    const ALL: [tm_status; 27] = [
+        TM_OK,
+        TM_CONFIG_INTERVAL,
+        TM_CONFIG_SAMPLE_COUNT,
+        TM_CONFIG_SENTINELS,
+        TM_CONFIG_TOO_MANY_CHANNELS,
+        TM_CONFIG_SCALE,
+        TM_CONFIG_RANGE,
+        TM_CONFIG_RANGE_TOO_WIDE,
+        TM_CONFIG_GUST_WINDOW,
+        TM_CONFIG_SPEED_LINK,
+        TM_CONFIG_DIRECTION_SLOPE,
+        TM_CONFIG_MOUNTING_OFFSET,
+        TM_CONFIG_SCREEN,
+        TM_CONFIG_SCREEN_LINK,
+        TM_CONFIG_OTHER,
+        TM_CONFIG_CHANNEL_INDEX,
+        TM_CONFIG_CAPACITY,
+        TM_ERR_NULL,
+        TM_ERR_SIZE,
+        TM_ERR_ALIGN,
+        TM_ERR_NOT_READY,
+        TM_ERR_READING,
+        TM_ERR_CHANNELS,
+        TM_ERR_KIND,
+        TM_ERR_NO_RECOVERY,
+        TM_ERR_CHANNEL,
+        TM_ERR_FRAME,
+    ];
+    let status = ALL.iter().find(|s| **s as i32 == code).copied();
+    match status {
+        Some(TM_OK) => c"ok",
+        // The channel messages are the core's (`ChannelProblem`'s Display),
+        // checked by the test `messages_are_the_cores`.
+        Some(TM_CONFIG_INTERVAL) => c"interval must be a positive number of seconds dividing 86400",
+        Some(TM_CONFIG_SAMPLE_COUNT) => c"samples per interval must be 1 to the core's maximum, and at most one per millisecond",
+        Some(TM_CONFIG_SENTINELS) => c"at most 4 missing-value codes, none NaN",
+        Some(TM_CONFIG_TOO_MANY_CHANNELS) => c"at most 255 channels",
+        Some(TM_CONFIG_SCALE) => c"resolution or calibration slope must be finite and positive, offset finite",
+        Some(TM_CONFIG_RANGE) => c"range must be finite with low <= high",
+        Some(TM_CONFIG_RANGE_TOO_WIDE) => c"range is too wide for the resolution (quanta must fit 31 bits, and for speed a gust window of them too; directions within +/-1e6 degrees)",
+        Some(TM_CONFIG_GUST_WINDOW) => c"gust window must be within the station's gust capacity (0: no gust)",
+        Some(TM_CONFIG_SPEED_LINK) => c"linked speed channel must exist and be of kind speed",
+        Some(TM_CONFIG_DIRECTION_SLOPE) => c"direction calibration slope must be at most 300 degrees per count",
+        Some(TM_CONFIG_MOUNTING_OFFSET) => c"mounting offset must be within -360 to 360 degrees",
+        Some(TM_CONFIG_SCREEN) => c"screening setting out of range (NaN, negative limit, low above high, or recovery outside 0..1)",
+        Some(TM_CONFIG_SCREEN_LINK) => c"screening names a missing channel, one of the wrong kind (partner/above: speed; icing: scalar temperature and humidity) or the channel itself (partner/above)",
+        Some(TM_CONFIG_OTHER) => c"the core refused the configuration (a reason newer than this library's codes)",
+        Some(TM_CONFIG_CHANNEL_INDEX) => c"a channel index must be -1 (none) or 0 to 255, and an icing test needs both its channels",
+        Some(TM_CONFIG_CAPACITY) => c"the station has no channels, or more than the shape holds",
+        Some(TM_ERR_NULL) => c"a pointer argument is NULL",
+        Some(TM_ERR_SIZE) => c"a memory block or buffer is too short",
+        Some(TM_ERR_ALIGN) => c"a memory block is not aligned to TM_ALIGN bytes",
+        Some(TM_ERR_NOT_READY) => c"the memory holds no layout or logger of this shape",
+        Some(TM_ERR_READING) => c"a reading's kind is not a TM_READING_ code",
+        Some(TM_ERR_CHANNELS) => c"the number of readings is not the layout's channel count",
+        Some(TM_ERR_KIND) => c"a channel kind is not a TM_KIND_ code",
+        Some(TM_ERR_NO_RECOVERY) => c"a state logger keeps no running recovery (the PC counts it)",
+        Some(TM_ERR_CHANNEL) => c"the channel index is beyond the layout's channels",
+        Some(TM_ERR_FRAME) => c"not a good frame (sync marker, version, CRC or contents)",
+        None => c"unknown status code",
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use qc_core::{ChannelProblem, ConfigError};
+    use std::string::ToString;
+
+    #[test]
+    fn messages_are_the_cores() {
+        let problems = [
+            ChannelProblem::Scale,
+            ChannelProblem::Range,
+            ChannelProblem::RangeTooWide,
+            ChannelProblem::GustWindow,
+            ChannelProblem::SpeedLink,
+            ChannelProblem::DirectionSlope,
+            ChannelProblem::MountingOffset,
+            ChannelProblem::Screen,
+            ChannelProblem::ScreenLink,
+        ];
+        for problem in problems {
+            let (status, index) =
+                crate::types::config_error(ConfigError::Channel { index: 2, problem });
+            assert_eq!(index, 2);
+            assert_eq!(
+                message(status as i32).to_str().unwrap(),
+                problem.to_string()
+            );
+        }
+        for e in [
+            ConfigError::Interval,
+            ConfigError::Sentinels,
+            ConfigError::TooManyChannels,
+        ] {
+            let (status, _) = crate::types::config_error(e);
+            assert_eq!(message(status as i32).to_str().unwrap(), e.to_string());
+        }
+        assert_eq!(message(-5).to_str().unwrap(), "unknown status code");
+    }
+}
