@@ -41,7 +41,9 @@ p.csvlink { margin:2px 0 0; font-size:12px; color:var(--muted); }
 .tag.not_random { background:var(--bad); color:var(--badink); }
 .tag.possible { background:var(--warn); }
 .tag.random, .tag.no_gaps { background:var(--good); }
-.tag.too_few_gaps, .tag.no_data { background:#e6e8ea; }
+.tag.too_few_gaps, .tag.no_data, .tag.too_short { background:#e6e8ea; }
+.verdict .bias { font-size:13px; margin:4px 0 0; }
+.verdict .bias.above { color:var(--badink); font-weight:600; }
 .verdict p { margin:6px 0 0; font-size:13.5px; }
 details { margin:8px 0; }
 summary { cursor:pointer; color:#2f3b45; font-weight:600; }

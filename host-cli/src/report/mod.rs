@@ -299,8 +299,23 @@ fn page(d: &data::Dataset, r: &Results, tables: &[Table], a: &ReportArgs) -> Res
     p.p("A gap matters less by its size than by its cause. Data missing at random leave the mean of what remains unbiased; gaps that depend on the wind itself (an anemometer that drops out in storms, a vane that ices in the cold) bias it even when recovery looks fine (missing not at random, after Rubin 1976, Biometrika 63(3), 581-592). Each channel's missing intervals (no valid samples or failing screening) are tested against hour of day, month, wind speed from a reference anemometer, direction sector and temperature.");
     p.raw("<div class=\"verdicts\">");
     for g in &r.diags {
+        let bias = g.bias.map_or(String::new(), |b| {
+            let above = b.diff().abs() > missing::BIAS_MARK;
+            format!(
+                "<p class=\"bias{}\">bias estimate {:+.2} {} (on {}){}</p>",
+                if above { " above" } else { "" },
+                b.diff(),
+                esc(d.channels[b.reference].unit()),
+                esc(d.channels[b.reference].id()),
+                if above {
+                    format!(" &#9650; above {} m/s", missing::BIAS_MARK)
+                } else {
+                    String::new()
+                }
+            )
+        });
         p.raw(&format!(
-            "<div class=\"verdict\"><b>{}</b> <b class=\"tag {}\">{}</b><p>{}</p></div>",
+            "<div class=\"verdict\"><b>{}</b> <b class=\"tag {}\">{}</b>{bias}<p>{}</p></div>",
             esc(d.channels[g.channel].id()),
             g.verdict.code(),
             g.verdict.code().replace('_', " "),
@@ -309,10 +324,17 @@ fn page(d: &data::Dataset, r: &Results, tables: &[Table], a: &ReportArgs) -> Res
     }
     p.raw("</div>");
     p.note(&format!(
-        "Verdicts use the pooled tables (neighbouring bins merged until every bin expects 5 present and 5 missing intervals) with the chi-square divided by the mean run of consecutive missing intervals: \"not random\" at p < {} with Cramer's V >= {}, \"possible\" at p < {}. The thresholds are this report's choice.",
+        "Verdicts use the pooled tables (neighbouring bins merged until every bin expects 5 present and 5 missing intervals) with the chi-square divided by the mean run of consecutive missing intervals: \"not random\" at p < {} with Cramer's V >= {}, \"possible\" at p < {}. A large effect before that adjustment (p < {} and V >= {}) that the adjusted test cannot confirm is \"possible, too short to confirm\". \"Random\" needs power: every test at least {} separate gaps and {:.0} % power to see V = {} at p < {}; otherwise \"too short\". The bias estimate beside each verdict is a reference anemometer's mean where this channel passes minus its mean over all its passing intervals (screened 10-minute means, so it estimates the bias of the channel's mean of interval means, not of the raw sample mean); it is marked above {} m/s, about a good cup anemometer's calibration uncertainty (common practice). The thresholds are this report's choice.",
         missing::P_STRONG,
         missing::V_MIN,
-        missing::P_WEAK
+        missing::P_WEAK,
+        missing::P_STRONG,
+        missing::V_LARGE,
+        missing::MIN_RUNS,
+        100.0 * missing::POWER,
+        missing::V_DETECT,
+        missing::P_WEAK,
+        missing::BIAS_MARK
     ));
     if let Some(svg) = charts::missing_share(d, &r.diags, FactorKind::Speed)? {
         p.chart("missing-speed", &svg, "Share of intervals missing by reference wind speed (bins with at least 5 intervals). A flat line is what random gaps look like.");
@@ -518,7 +540,26 @@ fn summary(
     }
     writeln!(w, "missing data:")?;
     for g in &r.diags {
-        writeln!(w, "  {:<10} {}", d.channels[g.channel].id(), g.text)?;
+        let bias = g.bias.map_or(String::new(), |b| {
+            format!(
+                " [bias estimate {:+.2} {} on {}{}]",
+                b.diff(),
+                d.channels[b.reference].unit(),
+                d.channels[b.reference].id(),
+                if b.diff().abs() > missing::BIAS_MARK {
+                    format!(", above {} m/s", missing::BIAS_MARK)
+                } else {
+                    String::new()
+                }
+            )
+        });
+        writeln!(
+            w,
+            "  {:<10} {}: {}{bias}",
+            d.channels[g.channel].id(),
+            g.verdict.code(),
+            g.text
+        )?;
     }
     if let Some(rose) = &r.rose {
         let top = (0..usize::from(rose.sectors)).max_by_key(|&s| rose.counts[s]);
