@@ -21,6 +21,7 @@ pub mod limits;
 pub mod localtime;
 pub mod logscan;
 pub mod options;
+pub mod outages;
 pub mod output;
 pub mod parallel;
 pub mod reader;

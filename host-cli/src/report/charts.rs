@@ -23,6 +23,8 @@ const INK: RGBColor = RGBColor(0x22, 0x2b, 0x33);
 const GRID: RGBColor = RGBColor(0xdc, 0xe1, 0xe4);
 /// Faint grid.
 const FAINT: RGBColor = RGBColor(0xee, 0xf0, 0xf1);
+/// Darker grey for reference lines that are not targets.
+const GRID_DARK: RGBColor = RGBColor(0x7d, 0x86, 0x8c);
 /// Target and reference lines.
 const MARK: RGBColor = RGBColor(0xb2, 0x3a, 0x48);
 /// Series colours, in order.
@@ -789,4 +791,95 @@ pub fn scatter(d: &Dataset, r: &Rose) -> Result<String> {
         }))?;
         Ok(())
     })
+}
+
+/// Diurnal profile: the mean speed by hour of day (UTC), one line per
+/// anemometer.
+pub fn diurnal(d: &Dataset, profiles: &[(usize, [Option<f64>; 24])]) -> Result<Option<String>> {
+    if profiles.iter().all(|p| p.1.iter().all(Option::is_none)) {
+        return Ok(None);
+    }
+    let vmax = profiles
+        .iter()
+        .flat_map(|p| p.1.iter().flatten())
+        .fold(1.0f64, |a, &b| a.max(b));
+    let ymax = nice_max(vmax * 1.1);
+    svg((880, 340), |root| {
+        let mut chart = cartesian(root, LABEL_AREAS, 0.0..24.0, 0.0..ymax)?;
+        mesh(&mut chart)
+            .x_labels(13)
+            .x_label_formatter(&|x: &f64| format!("{:02}", x.round() as i64))
+            .x_desc("hour of day (UTC, interval start; point at the middle of the hour)")
+            .y_desc("mean speed (m/s)")
+            .draw()?;
+        for (k, (c, prof)) in profiles.iter().enumerate() {
+            let pts: Vec<(f64, f64)> = prof
+                .iter()
+                .enumerate()
+                .filter_map(|(h, v)| Some((h as f64 + 0.5, (*v)?)))
+                .collect();
+            let h = d.channels[*c]
+                .height()
+                .map(|h| format!(" ({h} m)"))
+                .unwrap_or_default();
+            dotted_line(
+                &mut chart,
+                &pts,
+                colour(k),
+                2,
+                3,
+                format!("{}{h}", d.channels[*c].id()),
+            )?;
+        }
+        legend(&mut chart, SeriesLabelPosition::LowerRight)?;
+        Ok(())
+    })
+    .map(Some)
+}
+
+/// A redundant pair: the two anemometers' interval means against each other,
+/// the least-squares line and the 1:1 line.
+pub fn pair(d: &Dataset, p: &super::site::Pair) -> Result<Option<String>> {
+    if p.points.is_empty() {
+        return Ok(None);
+    }
+    let every = p.points.len().div_ceil(5000).max(1);
+    let vmax = nice_max(p.points.iter().map(|q| q.0.max(q.1)).fold(1.0, f64::max) * 1.05);
+    svg((620, 560), |root| {
+        let mut chart = cartesian(root, LABEL_AREAS, 0.0..vmax, 0.0..vmax)?;
+        mesh(&mut chart)
+            .x_desc(format!("mean speed at {} (m/s)", d.channels[p.a].id()))
+            .y_desc(format!("mean speed at {} (m/s)", d.channels[p.b].id()))
+            .draw()?;
+        chart
+            .draw_series(
+                p.points
+                    .iter()
+                    .step_by(every)
+                    .map(|&q| Circle::new(q, 2, colour(0).mix(0.45).filled())),
+            )?
+            .label(format!("interval means ({})", p.points.len()))
+            .legend(|(x, y)| Circle::new((x + 7, y), 3, colour(0).filled()));
+        chart
+            .draw_series(DashedLineSeries::new(
+                [(0.0, 0.0), (vmax, vmax)],
+                6,
+                4,
+                GRID_DARK.stroke_width(2),
+            ))?
+            .label("1:1")
+            .legend(line_key(16, GRID_DARK.stroke_width(2)));
+        if let Some((s, o, r2)) = p.fit {
+            chart
+                .draw_series(LineSeries::new(
+                    [(0.0, o), (vmax, o + s * vmax)],
+                    colour(1).stroke_width(2),
+                ))?
+                .label(format!("least squares: y = {s:.4} x {o:+.3}, R² {r2:.4}"))
+                .legend(line_key(16, colour(1).stroke_width(2)));
+        }
+        legend(&mut chart, SeriesLabelPosition::UpperLeft)?;
+        Ok(())
+    })
+    .map(Some)
 }

@@ -15,6 +15,7 @@ mod data;
 mod html;
 mod missing;
 mod recovery;
+mod site;
 mod stats;
 mod table;
 mod wind;
@@ -96,6 +97,9 @@ struct Results {
     primary: Option<usize>,
     ti: Vec<wind::TiBin>,
     shear: Option<wind::Shear>,
+    outages: Vec<crate::outages::Outage>,
+    pairs: Vec<site::Pair>,
+    density: Option<site::Density>,
 }
 
 fn compute(d: &data::Dataset, sectors: u16, rho: f64, reference: Option<usize>) -> Results {
@@ -110,15 +114,24 @@ fn compute(d: &data::Dataset, sectors: u16, rho: f64, reference: Option<usize>) 
         ti: primary.map(|c| wind::turbulence(d, c)).unwrap_or_default(),
         primary,
         shear: wind::shear(d, sectors),
+        outages: site::outages(d),
+        pairs: site::pairs(d),
+        density: site::density(d),
     }
 }
 
 /// The tables a report writes (`<name>.csv` in its folder, beside
 /// `report.html`): every file name is known before anything is read, so that
 /// none of them can be an input.
-pub const TABLES: [&str; 13] = [
+pub const TABLES: [&str; 19] = [
     "recovery",
     "recovery-joint",
+    "outages",
+    "monthly",
+    "month-hour",
+    "thresholds",
+    "redundant-pairs",
+    "air-density",
     "missing-tests",
     "missing-bins",
     "missing-verdicts",
@@ -214,7 +227,15 @@ fn tables(d: &data::Dataset, r: &Results, rho: f64) -> Vec<Table> {
     let mut v = vec![
         recovery::table(d, &r.recovery),
         recovery::joint_table(d, &r.recovery),
+        site::outage_table(d, &r.outages),
+        site::monthly_table(d),
+        site::thresholds_table(d),
+        site::pair_table(d, &r.pairs),
+        site::density_table(d, r.density.as_ref(), rho),
     ];
+    if let Some(c) = r.primary {
+        v.push(site::month_hour_table(d, c));
+    }
     v.extend(missing::tables(d, &r.diags));
     if let Some(rose) = &r.rose {
         v.extend(wind::rose_tables(rose));
@@ -291,6 +312,19 @@ fn page(d: &data::Dataset, r: &Results, tables: &[Table], a: &ReportArgs) -> Res
         p.h3("Joint recovery of wind speed and direction");
         p.note("Intervals where the vane and its anemometer both pass screening.");
         p.raw(&t.html());
+    }
+    if let Some(t) = find(tables, "outages") {
+        p.h3("Outages");
+        p.note("Runs of intervals that fail screening, per channel, merged across adjacent intervals and across channels with the same start, end and causes. Causes: no row (the records hold none), excluded (samples excluded by decision: n_excluded or the excluded flag), no valid samples, flagged (with the flags seen).");
+        if t.rows.len() > 25 {
+            p.details(&format!("{} outages (table)", t.rows.len()));
+            p.raw(&t.html());
+            p.end_details();
+        } else if t.rows.is_empty() {
+            p.note("No outages: every interval of every channel passes screening.");
+        } else {
+            p.raw(&t.html());
+        }
     }
     p.end_section();
 
@@ -474,7 +508,89 @@ fn page(d: &data::Dataset, r: &Results, tables: &[Table], a: &ReportArgs) -> Res
         }
         None => p.note("Shear needs two anemometers with different configured heights (height_m)."),
     }
-    p.h3("Overview");
+    p.end_section();
+
+    // 5. Monthly and diurnal.
+    p.section("5", "monthly", "Monthly summary and diurnal profile");
+    p.p("Means are means of the interval means that pass screening; the largest gust is that of a passing interval. Interval recovery is passing intervals over the intervals of the month in the period.");
+    if let Some(t) = find(tables, "monthly") {
+        p.raw(&t.html());
+    }
+    if let Some(c) = r.primary {
+        if let Some(t) = find(tables, "month-hour") {
+            p.h3(&format!(
+                "Mean speed by month and hour of day (UTC) at {} (m/s)",
+                d.channels[c].id()
+            ));
+            p.note("Calendar months pooled over the years of the record; empty where no interval passes.");
+            p.raw(&t.html());
+        }
+    }
+    if let Some(svg) = charts::diurnal(d, &site::diurnal(d))? {
+        p.chart(
+            "diurnal",
+            &svg,
+            "Diurnal profile: mean speed by hour of day (UTC) per anemometer, over the whole period.",
+        );
+    }
+    p.end_section();
+
+    // 6. Redundant anemometers and air density.
+    p.section("6", "pairs", "Redundant anemometers and air density");
+    if r.pairs.is_empty() {
+        p.note("No redundant pair: a `partner` in a channel's [channel.screen] names one.");
+    }
+    for pr in &r.pairs {
+        p.h3(&format!(
+            "{} and {}",
+            d.channels[pr.a].id(),
+            d.channels[pr.b].id()
+        ));
+        if let Some(svg) = charts::pair(d, pr)? {
+            p.chart(
+                &format!("pair-{}-{}", d.channels[pr.a].id(), d.channels[pr.b].id()),
+                &svg,
+                "Interval means of the pair (intervals where neither carries a flag but partial, clock or pair_mismatch), the ordinary least-squares line of y on x and the 1:1 line.",
+            );
+        }
+    }
+    if let Some(t) = find(tables, "redundant-pairs").filter(|t| !t.rows.is_empty()) {
+        p.raw(&t.html());
+    }
+    p.h3("Air density");
+    match &r.density {
+        Some(x) => p.p(&format!(
+            "Air density per interval from the measured temperature ({}) and pressure ({}){}, with the ideal-gas formula as IEC 61400-12-1 uses it: rho = (1/T) (B/R0 - phi Pw (1/R0 - 1/Rw)), R0 = {} J/(kg K) for dry air, Rw = {} J/(kg K) for water vapour, Pw = 0.0000205 exp(0.0631846 T) Pa (constants from memory; common practice). Mean {}. Power density with it is 0.5 mean(rho v^3) over the intervals with both; the fixed --air-density {} kg/m3 is shown beside it.",
+            d.channels[x.temperature].id(),
+            d.channels[x.pressure].id(),
+            x.humidity
+                .map(|h| format!(" and relative humidity ({})", d.channels[h].id()))
+                .unwrap_or_else(|| ", dry air (no humidity channel)".into()),
+            site::R_DRY,
+            site::R_VAPOUR,
+            x.mean().map_or("-".into(), |m| format!("{m:.4} kg/m3")),
+            a.air_density
+        )),
+        None => p.p(&format!(
+            "The station has no pressure channel (a scalar with unit hPa, mbar, kPa or Pa) beside its temperature: power density uses the fixed --air-density {} kg/m3.",
+            a.air_density
+        )),
+    }
+    if let Some(t) = find(tables, "air-density") {
+        p.raw(&t.html());
+    }
+    p.end_section();
+
+    // 7. Screening thresholds.
+    p.section("7", "thresholds", "Screening thresholds in force");
+    p.p("Each channel's screening tests as the station file sets them: the value in force, the core's default for the channel's kind, whether the station file changed it, and where the default comes from.");
+    if let Some(t) = find(tables, "thresholds") {
+        p.raw(&t.html());
+    }
+    p.end_section();
+
+    // 8. Time series.
+    p.section("8", "timeseries", "Time series");
     if let Some(svg) = charts::time_series(d)? {
         p.chart(
             "timeseries",
