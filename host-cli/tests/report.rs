@@ -664,3 +664,170 @@ fn short_record_with_independent_gaps_stays_quiet() {
         );
     }
 }
+
+/// The site tables against pandas groupby and numpy.polyfit on the ASOS JFK
+/// 2013 hourly winds (values in tests/data/report-site-reference.csv, written
+/// by tests/scripts/report_site_reference.py with python 3.11.7, numpy 2.4.6,
+/// pandas 3.1.1; the rules, including the invented partner ws2, are in the
+/// script's docstring).
+#[test]
+fn monthly_month_hour_and_pair_tables_match_pandas_and_numpy() {
+    let reference: HashMap<(String, String), String> =
+        table(&data_dir().join("report-site-reference.csv"))
+            .into_iter()
+            .map(|r| ((r["check"].clone(), r["key"].clone()), r["value"].clone()))
+            .collect();
+    let get = |c: &str, k: &str| -> f64 {
+        num(reference
+            .get(&(c.to_string(), k.to_string()))
+            .unwrap_or_else(|| panic!("no reference {c} {k}")))
+    };
+    let dir = tempfile::tempdir().unwrap();
+    std::fs::write(
+        dir.path().join("st.toml"),
+        "[logging]\ninterval_s = 3600\nsample_period_s = 3600\n\n\
+         [[channel]]\nid = \"ws\"\nkind = \"speed\"\nunit = \"m/s\"\nheight_m = 10\nresolution = 0.01\n\
+         [channel.screen]\npartner = \"ws2\"\n\n\
+         [[channel]]\nid = \"ws2\"\nkind = \"speed\"\nunit = \"m/s\"\nheight_m = 10\nresolution = 0.01\n\n\
+         [[channel]]\nid = \"t\"\nkind = \"scalar\"\nunit = \"degC\"\nresolution = 0.1\n",
+    )
+    .unwrap();
+    let rows = table(&data_dir().join("report-asos-jfk-2013.csv"));
+    let opt = |s: &str| (s != "NA").then(|| num(s));
+    let mut s = String::from("start,end,channel,n_possible,n_valid,mean,sd,min,max,gust,flags\n");
+    for (k, x) in rows.iter().enumerate() {
+        let t = &x["time_hour"];
+        let secs = days_from_civil(
+            t[0..4].parse().unwrap(),
+            t[5..7].parse().unwrap(),
+            t[8..10].parse().unwrap(),
+        ) * 86_400
+            + t[11..13].parse::<i64>().unwrap() * 3600;
+        let (a, b) = (rfc3339(secs), rfc3339(secs + 3600));
+        let ws = opt(&x["wind_speed"]).map(|mph| mph * 0.44704);
+        let ws2 = ws.map(|v| {
+            let noise = 0.02 * (((37 * k) % 11) as f64 - 5.0);
+            format!("{:.3}", 0.97 * v + 0.1 + noise)
+        });
+        let temp = opt(&x["temp"]).map(|f| (f - 32.0) / 1.8);
+        for (id, v) in [
+            ("ws", ws.map(|v| format!("{v}"))),
+            ("ws2", ws2),
+            ("t", temp.map(|v| format!("{v}"))),
+        ] {
+            match v {
+                Some(x) => s.push_str(&format!("{a},{b},{id},1,1,{x},0,{x},{x},,\n")),
+                None => s.push_str(&format!("{a},{b},{id},1,0,,,,,,\n")),
+            }
+        }
+    }
+    std::fs::write(dir.path().join("records.csv"), s).unwrap();
+    let o = tenmin(
+        &["report", "-c", "st.toml", "records.csv", "--out", "rep"],
+        dir.path(),
+    );
+    assert!(o.status.success(), "{}", text(&o.stderr));
+    let rep = dir.path().join("rep");
+
+    let monthly = table(&rep.join("monthly.csv"));
+    let mut checked = 0;
+    for r in monthly.iter().filter(|r| r["month"] != "all") {
+        let key = |f: &str| format!("{}|{}|{f}", r["channel"], r["month"]);
+        assert_eq!(num(&r["intervals"]), get("monthly", &key("intervals")));
+        assert_eq!(num(&r["passing"]), get("monthly", &key("passing")));
+        for f in ["mean", "max_mean"] {
+            assert_close(num(&r[f]), get("monthly", &key(f)), 1e-12, &key(f));
+        }
+        checked += 1;
+    }
+    assert_eq!(checked, 36, "12 months x 3 channels");
+
+    let mh = table(&rep.join("month-hour.csv"));
+    assert_eq!(mh.len(), 12);
+    let mut cells = 0;
+    for r in &mh {
+        for h in 0..24 {
+            let col = format!("h{h:02}");
+            let key = format!("ws|{}|{col}", r["month"]);
+            if let Some(want) = reference.get(&("month_hour".to_string(), key.clone())) {
+                assert_close(num(&r[&col]), num(want), 1e-12, &key);
+                cells += 1;
+            } else {
+                assert_eq!(r[&col], "", "{key}");
+            }
+        }
+    }
+    assert_eq!(cells, 288, "12 x 24 cells");
+
+    // numpy.polyfit(ws, ws2, 1) and corrcoef^2.
+    let pair = table(&rep.join("redundant-pairs.csv"));
+    let p = &pair[0];
+    assert_eq!((p["x"].as_str(), p["y"].as_str()), ("ws", "ws2"));
+    assert_eq!(num(&p["n"]), get("pair", "n"));
+    assert_close(num(&p["slope"]), get("pair", "slope"), 1e-9, "slope");
+    assert_close(num(&p["offset"]), get("pair", "offset"), 1e-9, "offset");
+    assert_close(num(&p["r2"]), get("pair", "r2"), 1e-9, "r2");
+}
+
+/// Measured air density: a station with temperature, pressure and humidity
+/// gives per-interval densities by the IEC 61400-12-1 form, checked here by
+/// hand: rho = (1/T) (B/287.05 - phi 0.0000205 exp(0.0631846 T) (1/287.05 -
+/// 1/461.5)) (constants from memory, common practice).
+#[test]
+fn air_density_from_measured_temperature_and_pressure() {
+    let dir = tempfile::tempdir().unwrap();
+    std::fs::write(
+        dir.path().join("st.toml"),
+        "[logging]\ninterval_s = 600\nsample_rate_hz = 1\n\n\
+         [[channel]]\nid = \"ws\"\nkind = \"speed\"\nunit = \"m/s\"\nheight_m = 80\nresolution = 0.01\n\n\
+         [[channel]]\nid = \"t\"\nkind = \"scalar\"\nunit = \"degC\"\nresolution = 0.1\n\n\
+         [[channel]]\nid = \"p\"\nkind = \"scalar\"\nunit = \"hPa\"\nresolution = 0.1\n\n\
+         [[channel]]\nid = \"rh\"\nkind = \"scalar\"\nunit = \"%\"\nresolution = 0.1\n",
+    )
+    .unwrap();
+    let vals = [(8.0, 5.0, 990.0, 80.0), (10.0, -3.0, 1010.0, 95.0)];
+    let mut s = String::from("start,end,channel,n_possible,n_valid,mean,sd,min,max,gust,flags\n");
+    for (i, (v, t, p, rh)) in vals.iter().enumerate() {
+        let t0 = 1_737_331_200 + 600 * i as i64;
+        let (a, b) = (rfc3339(t0), rfc3339(t0 + 600));
+        for (id, x) in [("ws", v), ("t", t), ("p", p), ("rh", rh)] {
+            s.push_str(&format!("{a},{b},{id},600,600,{x},0.5,,,,\n"));
+        }
+    }
+    std::fs::write(dir.path().join("records.csv"), s).unwrap();
+    let o = tenmin(
+        &["report", "-c", "st.toml", "records.csv", "--out", "rep"],
+        dir.path(),
+    );
+    assert!(o.status.success(), "{}", text(&o.stderr));
+    let by_hand = |t_c: f64, p_hpa: f64, rh: f64| {
+        let tk = t_c + 273.15;
+        let pw = 0.000_020_5 * (0.063_184_6 * tk).exp();
+        (p_hpa * 100.0 / 287.05 - rh / 100.0 * pw * (1.0 / 287.05 - 1.0 / 461.5)) / tk
+    };
+    let r1 = by_hand(5.0, 990.0, 80.0);
+    let r2 = by_hand(-3.0, 1010.0, 95.0);
+    let t = table(&dir.path().join("rep/air-density.csv"));
+    let row = &t[0];
+    assert_close(
+        num(&row["rho_mean"]),
+        0.5 * (r1 + r2),
+        1e-12,
+        "mean density",
+    );
+    let pd = 0.5 * (0.5 * r1 * 8f64.powi(3) + 0.5 * r2 * 10f64.powi(3));
+    assert_close(
+        num(&row["power_density_measured"]),
+        pd,
+        1e-12,
+        "power density",
+    );
+    assert_eq!(num(&row["n"]), 2.0);
+    // The fixed density stays the fallback beside it.
+    assert_close(
+        num(&row["power_density_fixed"]),
+        0.5 * 1.225 * 0.5 * (512.0 + 1000.0),
+        1e-12,
+        "fixed",
+    );
+}
