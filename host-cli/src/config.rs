@@ -75,8 +75,18 @@ struct RawFile {
     logging: Spanned<RawLogging>,
     station: Option<RawStation>,
     input: Option<Spanned<RawInput>>,
+    campaign: Option<RawCampaign>,
     #[serde(default)]
     channel: Vec<Spanned<RawChannel>>,
+}
+
+/// `[campaign]`: the campaign's side files, paths relative to the station file.
+#[derive(Deserialize)]
+#[serde(deny_unknown_fields)]
+struct RawCampaign {
+    /// Events file (site visits, maintenance, logger resets), read by
+    /// `tenmin report` ([`crate::report`]'s events).
+    events: Option<Spanned<String>>,
 }
 
 #[derive(Deserialize)]
@@ -201,6 +211,9 @@ pub struct StationFile {
     pub station: StationConfig,
     /// Channels, in file order.
     pub channels: Vec<ChannelSpec>,
+    /// `[campaign] events`: the events file, resolved against the station
+    /// file's folder, with the key's line in the station file.
+    pub events: Option<(PathBuf, usize)>,
 }
 
 /// Reads and checks a station file.
@@ -377,8 +390,22 @@ pub fn parse(path: &Path, text: &str) -> Result<StationFile> {
         &|span, msg| at.err(span, &msg),
         &|span| at.line(&span),
     )?;
+    let events = match raw.campaign.as_ref().and_then(|c| c.events.as_ref()) {
+        None => None,
+        Some(e) => {
+            if e.get_ref().trim().is_empty() {
+                bail!(at.err(
+                    e.span(),
+                    "[campaign] `events`: a file name, relative to the station file, such as \"events.csv\""
+                ));
+            }
+            let base = path.parent().unwrap_or_else(|| Path::new(""));
+            Some((base.join(e.get_ref()), at.line(&e.span())))
+        }
+    };
     let file = StationFile {
         path: path.to_path_buf(),
+        events,
         name: raw.station.and_then(|s| s.name),
         sample_rate_hz: rate,
         sample_period_ms,

@@ -157,7 +157,8 @@ fn demo_report_calls_the_planted_dropout_not_random() {
         "demo station file changed"
     );
     std::fs::write(
-        d.join("nopair.toml"),
+        // Beside the demo's station file: its `[campaign] events` is relative to it.
+        d.join("demo/nopair.toml"),
         toml.replace("partner = \"ws80b\"\n", ""),
     )
     .unwrap();
@@ -172,7 +173,7 @@ fn demo_report_calls_the_planted_dropout_not_random() {
         "replay",
         "-q",
         "--config",
-        "nopair.toml",
+        "demo/nopair.toml",
         "-o",
         "nopair.csv",
     ];
@@ -183,7 +184,7 @@ fn demo_report_calls_the_planted_dropout_not_random() {
         &[
             "report",
             "-c",
-            "nopair.toml",
+            "demo/nopair.toml",
             "nopair.csv",
             "--out",
             "rep-nopair",
@@ -599,6 +600,36 @@ fn two_day_demo_never_calls_the_dropout_random() {
     assert_eq!(w["bias_above_mark"], "yes", "{w:?}");
     let html = std::fs::read_to_string(d.join("rep/report.html")).unwrap();
     assert!(html.contains("above 0.1 m/s"), "bias mark missing");
+    // The demo's site visit (events.csv, named by [campaign] events) is
+    // listed and marked on the time axes.
+    let ev = table(&d.join("rep/events.csv"));
+    assert_eq!(ev.len(), 1);
+    assert_eq!(ev[0]["kind"], "site visit");
+    assert_eq!(ev[0]["time"], "2025-01-20T14:00:00Z");
+    // The outages: the first logger outage of the demo (demo.rs: sample rows
+    // absent from 2025-01-20 05:50 for 21 min; the logger writes those
+    // intervals without valid samples, the partial ones flagged) is one
+    // outage of every channel, merged across its three intervals.
+    let out = table(&d.join("rep/outages.csv"));
+    let first = &out[0];
+    assert_eq!(first["start"], "2025-01-20T05:50:00Z", "{first:?}");
+    assert_eq!(first["channels"], "all channels", "{first:?}");
+    assert_eq!(first["end"], "2025-01-20T06:20:00Z", "{first:?}");
+    assert_eq!(
+        first["cause"], "no valid samples; flagged (low_recovery)",
+        "{first:?}"
+    );
+    // The replay summary lists the same outages.
+    let mut args = vec!["replay", "-c", "demo/station.toml", "-o", "replayed.csv"];
+    let samples = ["demo/samples-2025-01-20.csv", "demo/samples-2025-01-21.csv"];
+    args.extend(samples);
+    let o = tenmin(&args, d);
+    assert!(o.status.success(), "{}", text(&o.stderr));
+    let err = text(&o.stderr);
+    assert!(
+        err.contains("outages: ") && err.contains("2025-01-20T05:50:00Z to 2025-01-20T06:20:00Z"),
+        "{err}"
+    );
     // No p-value written as a long decimal: every field of the tests table
     // is short (scientific notation below 1e-4).
     let tests = std::fs::read_to_string(d.join("rep/missing-tests.csv")).unwrap();
@@ -830,4 +861,51 @@ fn air_density_from_measured_temperature_and_pressure() {
         1e-12,
         "fixed",
     );
+}
+
+/// A bad events file stops the report with the events file, line and field.
+#[test]
+fn events_file_errors_name_the_place() {
+    let dir = tempfile::tempdir().unwrap();
+    bernoulli_records(dir.path(), 1, 0.0, 1);
+    let toml = std::fs::read_to_string(dir.path().join("st.toml")).unwrap();
+    std::fs::write(
+        dir.path().join("st.toml"),
+        format!("[campaign]\nevents = \"ev.csv\"\n\n{toml}"),
+    )
+    .unwrap();
+    let run = || {
+        tenmin(
+            &["report", "-c", "st.toml", "records.csv", "--out", "rep"],
+            dir.path(),
+        )
+    };
+    let o = run();
+    assert_eq!(o.status.code(), Some(2), "{}", text(&o.stderr));
+    assert!(
+        text(&o.stderr).contains("st.toml:2: [campaign] events: cannot read"),
+        "{}",
+        text(&o.stderr)
+    );
+    std::fs::write(
+        dir.path().join("ev.csv"),
+        "time,kind,text\n2025-01-20T03:00:00Z,picnic,lunch on the mast\n",
+    )
+    .unwrap();
+    let o = run();
+    assert_eq!(o.status.code(), Some(2));
+    assert!(
+        text(&o.stderr).contains("ev.csv:2: field 2 (kind): unknown kind \"picnic\""),
+        "{}",
+        text(&o.stderr)
+    );
+    std::fs::write(
+        dir.path().join("ev.csv"),
+        "time,kind,text\n2025-01-20T03:00:00Z,logger_reset,Logger restarted, clock set\n",
+    )
+    .unwrap();
+    let o = run();
+    assert!(o.status.success(), "{}", text(&o.stderr));
+    let html = std::fs::read_to_string(dir.path().join("rep/report.html")).unwrap();
+    assert!(html.contains("Logger restarted, clock set"));
 }

@@ -12,6 +12,7 @@
 
 mod charts;
 mod data;
+mod events;
 mod html;
 mod missing;
 mod recovery;
@@ -100,9 +101,24 @@ struct Results {
     outages: Vec<crate::outages::Outage>,
     pairs: Vec<site::Pair>,
     density: Option<site::Density>,
+    events: Vec<events::Event>,
 }
 
-fn compute(d: &data::Dataset, sectors: u16, rho: f64, reference: Option<usize>) -> Results {
+/// The campaign's events, when the station file names an events file.
+fn load_events(cfg: &config::StationFile) -> Result<Vec<events::Event>> {
+    match &cfg.events {
+        Some((path, line)) => events::read(&cfg.path, path, *line),
+        None => Ok(Vec::new()),
+    }
+}
+
+fn compute(
+    d: &data::Dataset,
+    sectors: u16,
+    rho: f64,
+    reference: Option<usize>,
+    events: Vec<events::Event>,
+) -> Results {
     let primary = missing::top_speed(d);
     Results {
         recovery: recovery::compute(d),
@@ -117,13 +133,14 @@ fn compute(d: &data::Dataset, sectors: u16, rho: f64, reference: Option<usize>) 
         outages: site::outages(d),
         pairs: site::pairs(d),
         density: site::density(d),
+        events,
     }
 }
 
 /// The tables a report writes (`<name>.csv` in its folder, beside
 /// `report.html`): every file name is known before anything is read, so that
 /// none of them can be an input.
-pub const TABLES: [&str; 19] = [
+pub const TABLES: [&str; 20] = [
     "recovery",
     "recovery-joint",
     "outages",
@@ -132,6 +149,7 @@ pub const TABLES: [&str; 19] = [
     "thresholds",
     "redundant-pairs",
     "air-density",
+    "events",
     "missing-tests",
     "missing-bins",
     "missing-verdicts",
@@ -185,8 +203,14 @@ pub fn run(a: &ReportArgs) -> Result<ExitCode> {
             ),
         },
     };
+    if let Some((ev, _)) = &cfg.events {
+        for f in files(&a.output) {
+            output::refuse_inputs(&f, &[("events file", ev.as_path())])?;
+        }
+    }
+    let ev = load_events(&cfg)?;
     let d = data::read(&cfg, &a.records)?;
-    let r = compute(&d, a.sectors, a.air_density, reference);
+    let r = compute(&d, a.sectors, a.air_density, reference, ev);
     let tables = tables(&d, &r, a.air_density);
     if let Some(t) = tables.iter().find(|t| !TABLES.contains(&t.name)) {
         bail!(
@@ -213,7 +237,7 @@ pub fn run(a: &ReportArgs) -> Result<ExitCode> {
 /// goes through here.
 pub fn render(cfg: &config::StationFile, a: &ReportArgs) -> Result<Vec<String>> {
     let d = data::read(cfg, &a.records)?;
-    let r = compute(&d, a.sectors, a.air_density, None);
+    let r = compute(&d, a.sectors, a.air_density, None, load_events(cfg)?);
     let tables = tables(&d, &r, a.air_density);
     let mut out: Vec<String> = tables.iter().map(Table::csv).collect();
     out.push(page(&d, &r, &tables, a)?);
@@ -232,6 +256,7 @@ fn tables(d: &data::Dataset, r: &Results, rho: f64) -> Vec<Table> {
         site::thresholds_table(d),
         site::pair_table(d, &r.pairs),
         site::density_table(d, r.density.as_ref(), rho),
+        events::table(&r.events),
     ];
     if let Some(c) = r.primary {
         v.push(site::month_hour_table(d, c));
@@ -302,8 +327,8 @@ fn page(d: &data::Dataset, r: &Results, tables: &[Table], a: &ReportArgs) -> Res
     );
     p.chart(
         "availability",
-        &charts::availability(d)?,
-        "Availability: red where an interval has no valid samples or no row at all, amber where it fails screening.",
+        &charts::availability(d, &r.events)?,
+        "Availability: red where an interval has no valid samples or no row at all, amber where it fails screening; numbered dashed lines are events (table in section 8).",
     );
     if let Some(t) = find(tables, "recovery") {
         p.raw(&t.html());
@@ -589,14 +614,18 @@ fn page(d: &data::Dataset, r: &Results, tables: &[Table], a: &ReportArgs) -> Res
     }
     p.end_section();
 
-    // 8. Time series.
-    p.section("8", "timeseries", "Time series");
-    if let Some(svg) = charts::time_series(d)? {
-        p.chart(
-            "timeseries",
-            &svg,
-            "10-minute mean speeds that pass screening, over the period.",
-        );
+    // 8. Time series and events.
+    p.section("8", "timeseries", "Time series and events");
+    for (name, svg, caption) in charts::time_series(d, &r.events)? {
+        p.chart(&name, &svg, &caption);
+    }
+    match (&cfg_events_note(a), find(tables, "events")) {
+        (_, Some(t)) if !t.rows.is_empty() => {
+            p.h3("Events");
+            p.note("From the events file the station file names ([campaign] events); the numbers mark them on the time axes. Events outside the period are listed but not drawn.");
+            p.raw(&t.html());
+        }
+        (note, _) => p.note(note),
     }
     p.end_section();
     p.caution(CAUTION);
@@ -608,6 +637,10 @@ fn page(d: &data::Dataset, r: &Results, tables: &[Table], a: &ReportArgs) -> Res
             tables.len()
         ),
     ))
+}
+
+fn cfg_events_note(_a: &ReportArgs) -> String {
+    "No events: a station file lists site visits, maintenance and logger resets in a file named by `[campaign] events = \"FILE\"` (see REPORT.md).".into()
 }
 
 fn summary(

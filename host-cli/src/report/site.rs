@@ -203,7 +203,7 @@ pub fn month_hour_table(d: &Dataset, c: usize) -> Table {
             .filter_map(|i| s.value(i))
             .collect();
         let mut r = vec![text(s.id()), int(m as u64 + 1)];
-        r.extend(row.iter().map(|x| num((x.1 > 0).then_some(x.0), 2)));
+        r.extend(row.iter().map(|x| num((x.1 > 0).then_some(x.0), 1)));
         r.push(num(mean(&vals), 2));
         t.push(r);
     }
