@@ -30,9 +30,9 @@
 //! ```toml
 //! [channel.screen]
 //! step_limit = 10             # spike: largest change between samples
-//! mean_range = [0, 25]        # range: plausible interval mean
-//! sd_range = [0, 3]           # range: plausible sd (sigma-theta for direction)
-//! gust_max = 30               # range: gusts at or above are implausible
+//! mean_range = [0, 25]        # implausible: plausible interval mean
+//! sd_range = [0, 3]           # implausible: plausible sd (sigma-theta for direction)
+//! gust_max = 30               # implausible: gusts at or above are implausible
 //! min_recovery = 0.9          # low_recovery: valid / possible per interval
 //! flat_span_s = 10800         # flatline: span in seconds ...
 //! flat_tolerance = 0.1        # ... within which the sensor counts as still
@@ -780,7 +780,8 @@ fn build_screen(
         for name in list.get_ref() {
             match name.as_str() {
                 "spike" => s.step_limit = None,
-                "range" => {
+                // `range`: the name of earlier versions.
+                "implausible" | "range" => {
                     s.mean_range = None;
                     s.sd_range = None;
                     s.gust_max = None;
@@ -793,7 +794,7 @@ fn build_screen(
                 other => {
                     return Err(err(
                         list.span(),
-                        format!("`screen.off`: {other:?} is not a test that can be switched off (spike, range, low_recovery, flatline, icing, pair_mismatch, shear)"),
+                        format!("`screen.off`: {other:?} is not a test that can be switched off (spike, implausible, low_recovery, flatline, icing, pair_mismatch, shear)"),
                     ))
                 }
             }

@@ -105,7 +105,7 @@ impl Outage {
         self.end.millis() - self.start.millis()
     }
 
-    /// The causes with the flags, e.g. `no valid samples; flagged (range, icing)`.
+    /// The causes with the flags, e.g. `no valid samples; flagged (implausible, icing)`.
     pub fn cause_text(&self) -> String {
         let names: Vec<&str> = self.flags.iter().map(Flag::name).collect();
         self.causes
@@ -299,7 +299,7 @@ mod tests {
             5 * M,
             &[
                 ok(),
-                lost(Cause::Flagged, &[Flag::Range, Flag::Icing]),
+                lost(Cause::Flagged, &[Flag::Implausible, Flag::Icing]),
                 ok(),
             ],
         );
@@ -319,7 +319,7 @@ mod tests {
         assert_eq!(v[2].channels, [1]);
         assert_eq!((v[2].start.millis(), v[2].end.millis()), (4 * M, 6 * M));
         // Flags of the run, partial and clock left out, in the core's order.
-        assert_eq!(v[2].cause_text(), "flagged (range, icing)");
+        assert_eq!(v[2].cause_text(), "flagged (implausible, icing)");
         assert_eq!(v[3].causes, [Cause::Excluded]);
         assert_eq!(v[3].end.millis(), 7 * M);
     }

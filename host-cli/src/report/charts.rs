@@ -34,11 +34,11 @@ const MARK: RGBColor = RGBColor(0xb2, 0x3a, 0x48);
 /// CIE L* lightness by at least 10, so that they stay apart even in grey.
 pub const SERIES: [RGBColor; 8] = [
     RGBColor(0x1f, 0x4e, 0x79), // deep harbour blue, L* 32
-    RGBColor(0xe0, 0x8a, 0x2e), // kiln orange, L* 66
+    RGBColor(0xe0, 0x8a, 0x2e), // kiln orange, L* 65
     RGBColor(0x8c, 0xc2, 0xe0), // pale sky, L* 76
-    RGBColor(0x8c, 0x2d, 0x1e), // rust, L* 32
-    RGBColor(0x3a, 0x9a, 0x8c), // sea green, L* 57
-    RGBColor(0x6b, 0x4c, 0x9a), // heather, L* 38
+    RGBColor(0x8c, 0x2d, 0x1e), // rust, L* 33
+    RGBColor(0x3a, 0x9a, 0x8c), // sea green, L* 58
+    RGBColor(0x6b, 0x4c, 0x9a), // heather, L* 39
     RGBColor(0xd8, 0xc3, 0x7e), // dune, L* 79
     RGBColor(0x5f, 0x66, 0x6d), // slate, L* 43
 ];
@@ -1189,4 +1189,48 @@ pub fn pair(d: &Dataset, p: &super::site::Pair) -> Result<Option<String>> {
         draw_legend(&leg, &keys)
     })
     .map(Some)
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    /// CIE 1976 L* of an sRGB colour (IEC 61966-2-1 transfer function and
+    /// D65 luminance weights 0.2126, 0.7152, 0.0722; CIE L* = 116 f(Y) - 16;
+    /// from memory, common practice).
+    fn lightness(c: RGBColor) -> f64 {
+        let lin = |v: u8| {
+            let x = f64::from(v) / 255.0;
+            if x <= 0.04045 {
+                x / 12.92
+            } else {
+                ((x + 0.055) / 1.055).powf(2.4)
+            }
+        };
+        let y = 0.2126 * lin(c.0) + 0.7152 * lin(c.1) + 0.0722 * lin(c.2);
+        if y > 216.0 / 24389.0 {
+            116.0 * y.cbrt() - 16.0
+        } else {
+            y * 24389.0 / 27.0
+        }
+    }
+
+    #[test]
+    fn palette_stays_apart_in_lightness() {
+        // The rule of REPORT.md "Colours": neighbours in the cycle, and any two
+        // of the first three (the series most charts draw), differ by at least
+        // 10 in L*, so they stay apart for every kind of colour vision and in
+        // grey print.
+        let l: Vec<f64> = SERIES.iter().map(|&c| lightness(c)).collect();
+        for i in 0..SERIES.len() {
+            let j = (i + 1) % SERIES.len();
+            assert!((l[i] - l[j]).abs() >= 10.0, "{i} and {j}: {l:?}");
+        }
+        for (i, j) in [(0, 1), (0, 2), (1, 2)] {
+            assert!((l[i] - l[j]).abs() >= 10.0, "{i} and {j}: {l:?}");
+        }
+        // Check of the formula: white 100, mid grey #777777 about 50.
+        assert!((lightness(WHITE) - 100.0).abs() < 1e-9);
+        assert!((lightness(RGBColor(0x77, 0x77, 0x77)) - 50.0).abs() < 1.0);
+    }
 }

@@ -291,17 +291,22 @@ pub fn thresholds_table(d: &Dataset) -> Table {
             ),
             (
                 "mean_range",
-                "range",
+                "implausible",
                 range_text(now.mean_range),
                 range_text(def.mean_range),
             ),
             (
                 "sd_range",
-                "range",
+                "implausible",
                 range_text(now.sd_range),
                 range_text(def.sd_range),
             ),
-            ("gust_max", "range", opt(now.gust_max), opt(def.gust_max)),
+            (
+                "gust_max",
+                "implausible",
+                opt(now.gust_max),
+                opt(def.gust_max),
+            ),
             (
                 "min_recovery",
                 "low_recovery",
