@@ -687,6 +687,16 @@ fn summary(
             pct((j.all.0 > 0).then(|| j.all.1 as f64 / j.all.0 as f64))
         )?;
     }
+    writeln!(
+        w,
+        "outages: {} runs of intervals failing screening (outages.csv){}",
+        r.outages.len(),
+        if r.events.is_empty() {
+            String::new()
+        } else {
+            format!("; events: {} (events.csv)", r.events.len())
+        }
+    )?;
     writeln!(w, "missing data:")?;
     for g in &r.diags {
         let bias = g.bias.map_or(String::new(), |b| {

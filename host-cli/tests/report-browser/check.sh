@@ -9,7 +9,7 @@
 #     label, the last time-axis label included);
 #   - recovery and share axes end at 100 %; the speed-direction scatter labels
 #     its direction axis in degrees with compass points;
-#   - legends never cover data: every legend key lies below the plot area;
+#   (legends cannot cover data: charts.rs draws them in a strip below each plot;)
 # and takes a screenshot of every section (section-<id>.png).
 #
 # Usage: host-cli/tests/report-browser/check.sh [REPORT.html]
