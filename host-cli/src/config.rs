@@ -30,9 +30,9 @@
 //! ```toml
 //! [channel.screen]
 //! step_limit = 10             # spike: largest change between samples
-//! mean_range = [0, 25]        # range: plausible interval mean
-//! sd_range = [0, 3]           # range: plausible sd (sigma-theta for direction)
-//! gust_max = 30               # range: gusts at or above are implausible
+//! mean_range = [0, 25]        # implausible: plausible interval mean
+//! sd_range = [0, 3]           # implausible: plausible sd (sigma-theta for direction)
+//! gust_max = 30               # implausible: gusts at or above are implausible
 //! min_recovery = 0.9          # low_recovery: valid / possible per interval
 //! flat_span_s = 10800         # flatline: span in seconds ...
 //! flat_tolerance = 0.1        # ... within which the sensor counts as still
@@ -79,8 +79,18 @@ struct RawFile {
     input: Option<Spanned<RawInput>>,
     logger_table: Option<Spanned<RawInput>>,
     conventions: Option<Spanned<BTreeMap<String, Spanned<RawConventions>>>>,
+    campaign: Option<RawCampaign>,
     #[serde(default)]
     channel: Vec<Spanned<RawChannel>>,
+}
+
+/// `[campaign]`: the campaign's side files, paths relative to the station file.
+#[derive(Deserialize)]
+#[serde(deny_unknown_fields)]
+struct RawCampaign {
+    /// Events file (site visits, maintenance, logger resets), read by
+    /// `tenmin report` ([`crate::report`]'s events).
+    events: Option<Spanned<String>>,
 }
 
 #[derive(Deserialize)]
@@ -208,6 +218,9 @@ pub struct StationFile {
     /// Another logger's interval table and its conventions
     /// (`[logger_table]`, `[conventions]`), for `tenmin verify`.
     pub logger_table: Option<LoggerTable>,
+    /// `[campaign] events`: the events file, resolved against the station
+    /// file's folder, with the key's line in the station file.
+    pub events: Option<(PathBuf, usize)>,
 }
 
 /// Reads and checks a station file.
@@ -392,8 +405,22 @@ pub fn parse(path: &Path, text: &str) -> Result<StationFile> {
         &|span, msg| at.err(span, &msg),
         &|span| at.line(&span),
     )?;
+    let events = match raw.campaign.as_ref().and_then(|c| c.events.as_ref()) {
+        None => None,
+        Some(e) => {
+            if e.get_ref().trim().is_empty() {
+                bail!(at.err(
+                    e.span(),
+                    "[campaign] `events`: a file name, relative to the station file, such as \"events.csv\""
+                ));
+            }
+            let base = path.parent().unwrap_or_else(|| Path::new(""));
+            Some((base.join(e.get_ref()), at.line(&e.span())))
+        }
+    };
     let file = StationFile {
         path: path.to_path_buf(),
+        events,
         name: raw.station.and_then(|s| s.name),
         sample_rate_hz: rate,
         sample_period_ms,
@@ -769,7 +796,8 @@ fn build_screen(
         for name in list.get_ref() {
             match name.as_str() {
                 "spike" => s.step_limit = None,
-                "range" => {
+                // `range`: the name of earlier versions.
+                "implausible" | "range" => {
                     s.mean_range = None;
                     s.sd_range = None;
                     s.gust_max = None;
@@ -782,7 +810,7 @@ fn build_screen(
                 other => {
                     return Err(err(
                         list.span(),
-                        format!("`screen.off`: {other:?} is not a test that can be switched off (spike, range, low_recovery, flatline, icing, pair_mismatch, shear)"),
+                        format!("`screen.off`: {other:?} is not a test that can be switched off (spike, implausible, low_recovery, flatline, icing, pair_mismatch, shear)"),
                     ))
                 }
             }

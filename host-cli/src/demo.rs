@@ -36,6 +36,14 @@ use crate::verify;
 const START_S: i64 = 1_737_331_200;
 const DAY_S: i64 = 86_400;
 
+/// The demo campaign's events (`[campaign] events`), shown on the report's
+/// time axes: invented, like everything here.
+const EVENTS_CSV: &str = "# Events of the invented demo campaign (lines starting with # are comments).
+# time (UTC),kind (site_visit, maintenance, logger_reset, calibration, sensor_swap, other),text
+time,kind,text
+2025-01-20T14:00:00Z,site_visit,Routine visit: both 80 m anemometers and the logger inspected, nothing changed (invented)
+";
+
 const STATION_TOML: &str = r#"# An invented station for `tenmin demo`: no real site.
 [logging]
 interval_s = 600
@@ -43,7 +51,11 @@ sample_rate_hz = 1
 missing_values = [-999, -9999]
 
 [station]
-name = "Tarnbeck Moor demo mast (invented)"
+name = "Vellendrax Ridge demo mast (invented)"
+
+# The campaign's side files, relative to this file.
+[campaign]
+events = "events.csv"
 
 # Two redundant cup anemometers at the top of the mast.
 [[channel]]
@@ -487,6 +499,11 @@ pub fn run(out: &Path, days: u32, seed: u64) -> Result<ExitCode> {
         STATION_TOML.as_bytes(),
     )?;
     let cfg = config::parse(&station_path, STATION_TOML)?;
+    output::write_file(
+        &out.join("events.csv"),
+        "the demo events file",
+        EVENTS_CSV.as_bytes(),
+    )?;
     let ids: Vec<String> = cfg.channels.iter().map(|c| c.id.clone()).collect();
     debug_assert_eq!(ids, IDS);
 
@@ -594,6 +611,11 @@ pub fn run(out: &Path, days: u32, seed: u64) -> Result<ExitCode> {
     )?;
     writeln!(o, "wrote:")?;
     writeln!(o, "  {}: the station", station_path.display())?;
+    writeln!(
+        o,
+        "  {}: the campaign's events (a site visit)",
+        out.join("events.csv").display()
+    )?;
     match (files.first(), files.last()) {
         (Some(a), Some(b)) if files.len() > 1 => writeln!(
             o,

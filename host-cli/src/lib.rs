@@ -22,6 +22,7 @@ pub mod localtime;
 pub mod logscan;
 pub mod logtable;
 pub mod options;
+pub mod outages;
 pub mod output;
 pub mod parallel;
 pub mod reader;

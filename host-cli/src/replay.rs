@@ -7,6 +7,7 @@ use anyhow::{bail, Result};
 
 use crate::config::StationFile;
 use crate::engine::{self, Sink};
+use crate::outages::{self, Outages};
 use crate::parallel;
 use crate::samples::{self, Options};
 use crate::summary::Summary;
@@ -22,6 +23,8 @@ pub struct Counting<'a> {
     channels: u64,
     /// Rows passed on.
     pub rows: u64,
+    /// The outages of the intervals passed on (built on the first interval).
+    pub outages: Option<Outages>,
 }
 
 impl<'a> Counting<'a> {
@@ -31,6 +34,7 @@ impl<'a> Counting<'a> {
             inner,
             channels: channels as u64,
             rows: 0,
+            outages: None,
         }
     }
 }
@@ -43,6 +47,21 @@ impl Sink for Counting<'_> {
         records: &[qc_core::ChannelRecord],
     ) -> Result<()> {
         self.rows += self.channels.min(records.len() as u64);
+        let o = self
+            .outages
+            .get_or_insert_with(|| Outages::new(records.len(), end.millis() - start.millis()));
+        let causes: Vec<_> = records
+            .iter()
+            .map(|r| {
+                (
+                    // The tally's excluded count, where it has one, is carried
+                    // by the `excluded` flag.
+                    outages::cause_of(qc_core::screen::passes(r), r.tally.valid, 0, r.flags),
+                    r.flags,
+                )
+            })
+            .collect();
+        o.interval(start.millis(), &causes);
         self.inner.interval(start, end, records)
     }
 
@@ -81,6 +100,11 @@ pub fn replay(
         pushed,
         recovery,
         record_rows: counting.rows,
+        outages: counting
+            .outages
+            .take()
+            .map(Outages::finish)
+            .unwrap_or_default(),
     };
     no_records_unless_allowed(&summary, files, opts)?;
     Ok(summary)

@@ -19,7 +19,13 @@ pub struct Summary {
     pub recovery: Vec<Totals>,
     /// Record rows produced.
     pub record_rows: u64,
+    /// Runs of intervals lost to screening, with their cause
+    /// ([`crate::outages`]).
+    pub outages: Vec<crate::outages::Outage>,
 }
+
+/// Outages listed in full by the summary; more are counted.
+pub const OUTAGES_SHOWN: usize = 20;
 
 /// Recovery as a percentage, or "-" when nothing was possible.
 pub fn percent(t: &Totals) -> String {
@@ -138,6 +144,40 @@ impl Summary {
                 t.interval_rate()
                     .map_or_else(|| "-".into(), |r| format!("{:.1}%", 100.0 * r))
             )?;
+        }
+        if !self.outages.is_empty() {
+            writeln!(
+                w,
+                "outages: {} (runs of intervals that fail screening, merged across intervals and channels)",
+                self.outages.len()
+            )?;
+            for o in self.outages.iter().take(OUTAGES_SHOWN) {
+                let ids: Vec<&str> = o
+                    .channels
+                    .iter()
+                    .filter_map(|&c| cfg.channels.get(c).map(|s| s.id.as_str()))
+                    .collect();
+                writeln!(
+                    w,
+                    "  {} to {} {:>12}  {}: {}",
+                    crate::timefmt::Rfc3339(o.start),
+                    crate::timefmt::Rfc3339(o.end),
+                    crate::outages::duration_text(o.duration_ms()),
+                    o.cause_text(),
+                    if ids.len() == cfg.channels.len() && ids.len() > 1 {
+                        "all channels".to_string()
+                    } else {
+                        ids.join(", ")
+                    }
+                )?;
+            }
+            if self.outages.len() > OUTAGES_SHOWN {
+                writeln!(
+                    w,
+                    "  ... and {} more (the report's outages table lists them all)",
+                    self.outages.len() - OUTAGES_SHOWN
+                )?;
+            }
         }
         writeln!(
             w,

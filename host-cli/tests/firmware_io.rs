@@ -855,8 +855,8 @@ fn an_incomplete_interval_names_its_lost_channels() {
             .find(|l| l.starts_with("2025-01-20T02:00:00Z,2025-01-20T02:10:00Z,wd,"))
             .map(|l| l.split(',').nth(10).unwrap().to_string())
     };
-    assert_eq!(wd(&s.replay_csv).as_deref(), Some("range|icing"));
-    assert_eq!(wd(&records).as_deref(), Some("range"));
+    assert_eq!(wd(&s.replay_csv).as_deref(), Some("implausible|icing"));
+    assert_eq!(wd(&records).as_deref(), Some("implausible"));
     assert_rows_lost(&s, &records, &frames, i, "rh of 02:00 lost");
     // A whole interval lost with the empty ones after it: none of them is
     // written or finished, and the next interval is finished as usual.

@@ -11,8 +11,13 @@ use core::fmt;
 #[cfg_attr(feature = "defmt", derive(defmt::Format))]
 #[repr(u8)]
 pub enum Flag {
-    /// Interval mean, sd or gust outside plausible limits.
-    Range = 0,
+    /// An implausible interval statistic: the interval's mean, sd (sigma-theta
+    /// for a vane: a stuck vane's too-small spread) or gust outside the
+    /// plausible limits of the channel's screening (`mean_range`, `sd_range`,
+    /// `gust_max`). Printed `implausible`; records of earlier versions print
+    /// it `range`, which [`Flag::from_name`] still reads. Samples outside the
+    /// channel's valid range are not flagged but counted (`out_of_range`).
+    Implausible = 0,
     /// A change between consecutive samples above the channel's step limit.
     Spike = 1,
     /// The sensor did not move (within resolution) over the flat-line span.
@@ -35,7 +40,7 @@ pub enum Flag {
 impl Flag {
     /// Every flag, in the order records print them.
     pub const ALL: [Flag; 9] = [
-        Flag::Range,
+        Flag::Implausible,
         Flag::Spike,
         Flag::Flatline,
         Flag::Icing,
@@ -49,7 +54,7 @@ impl Flag {
     /// The name records print.
     pub const fn name(self) -> &'static str {
         match self {
-            Flag::Range => "range",
+            Flag::Implausible => "implausible",
             Flag::Spike => "spike",
             Flag::Flatline => "flatline",
             Flag::Icing => "icing",
@@ -61,8 +66,12 @@ impl Flag {
         }
     }
 
-    /// The flag of a name, if it is one.
+    /// The flag of a name, if it is one; `range`, the name earlier versions
+    /// printed for [`Flag::Implausible`], is read as it.
     pub fn from_name(name: &str) -> Option<Flag> {
+        if name == "range" {
+            return Some(Flag::Implausible);
+        }
         Flag::ALL.into_iter().find(|f| f.name() == name)
     }
 }
@@ -131,8 +140,10 @@ mod tests {
             assert_eq!(Flag::from_name(f.name()), Some(f));
         }
         s.insert(Flag::Clock);
-        s.insert(Flag::Range);
-        assert_eq!(std::format!("{s}"), "range|clock");
+        s.insert(Flag::Implausible);
+        assert_eq!(std::format!("{s}"), "implausible|clock");
+        // The name of earlier versions still reads (records written before).
+        assert_eq!(Flag::from_name("range"), Some(Flag::Implausible));
         assert_eq!(Flags::from_bits(s.bits()), s);
         assert_eq!(std::format!("{}", Flags::EMPTY), "");
     }

@@ -8,7 +8,7 @@
 //! | flag | test | where | state |
 //! |---|---|---|---|
 //! | `spike` | change between consecutive valid samples above `step_limit` | per sample, in the interval | 16 bytes a channel |
-//! | `range` | interval mean, sd or gust outside plausible limits | per interval | none |
+//! | `implausible` | an implausible interval statistic: mean, sd (sigma-theta) or gust outside plausible limits (`mean_range`, `sd_range`, `gust_max`; printed `range` before) | per interval | none |
 //! | `low_recovery` | valid / possible below `min_recovery` | per interval | none |
 //! | `partial` | the record does not cover the whole interval | per interval | none |
 //! | `clock` | samples rejected for their timestamps | per interval | none |
@@ -256,7 +256,7 @@ fn outside(v: Stat, range: Option<(f64, f64)>) -> bool {
     }
 }
 
-/// Flags one channel's record by its own interval tests: range, low recovery,
+/// Flags one channel's record by its own interval tests: implausible, low recovery,
 /// spike, partial and clock.
 pub(crate) fn interval_flags(r: &ChannelRecord, s: &Screen, spikes: u32) -> Flags {
     let mut f = Flags::EMPTY;
@@ -285,7 +285,7 @@ pub(crate) fn interval_flags(r: &ChannelRecord, s: &Screen, spikes: u32) -> Flag
         _ => false,
     };
     if outside(r.mean, mean_range) || outside(r.sd, s.sd_range) || gust_high {
-        f.insert(Flag::Range);
+        f.insert(Flag::Implausible);
     }
     f
 }
@@ -608,8 +608,8 @@ mod tests {
                 v
             })
         };
-        assert!(!mean_at(25.0)[0][0].contains(Flag::Range));
-        assert!(mean_at(25.01)[0][0].contains(Flag::Range));
+        assert!(!mean_at(25.0)[0][0].contains(Flag::Implausible));
+        assert!(mean_at(25.01)[0][0].contains(Flag::Implausible));
         // Direction sigma-theta 3 to 75 degrees (same tables): a vane steady to
         // within +/-1 degree is flagged, the clean swinging vane is not.
         let steady = run(1, |k, i| {
@@ -617,8 +617,8 @@ mod tests {
             v[3] = if i % 2 == 0 { 269.0 } else { 271.0 };
             v
         });
-        assert!(steady[0][3].contains(Flag::Range));
-        assert!(!run(1, clean)[0][3].contains(Flag::Range));
+        assert!(steady[0][3].contains(Flag::Implausible));
+        assert!(!run(1, clean)[0][3].contains(Flag::Implausible));
     }
 
     #[test]

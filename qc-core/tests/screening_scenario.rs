@@ -189,7 +189,7 @@ fn expected(f: Fault) -> (Flag, usize) {
         Fault::BLow => (Flag::PairMismatch, 0),
         Fault::ShearInverted => (Flag::Shear, 0),
         Fault::Dropouts => (Flag::LowRecovery, 0),
-        Fault::StuckHigh => (Flag::Range, 0),
+        Fault::StuckHigh => (Flag::Implausible, 0),
     }
 }
 

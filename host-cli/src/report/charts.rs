@@ -4,7 +4,7 @@
 use std::ops::Range;
 
 use anyhow::Result;
-use plotters::chart::{MeshStyle, SeriesAnno};
+use plotters::chart::MeshStyle;
 use plotters::coord::types::RangedCoordf64;
 use plotters::coord::Shift;
 use plotters::prelude::*;
@@ -13,6 +13,7 @@ use qc_core::analysis::TurbulenceCategory;
 use qc_core::{Kind, Timestamp};
 
 use super::data::Dataset;
+use super::events::Event;
 use super::missing::{Diagnosis, FactorKind};
 use super::recovery::{Recovery, TARGET};
 use super::wind::{sector_label, Distribution, Rose, Shear, TiBin, TI_MIN_COUNT};
@@ -23,19 +24,30 @@ const INK: RGBColor = RGBColor(0x22, 0x2b, 0x33);
 const GRID: RGBColor = RGBColor(0xdc, 0xe1, 0xe4);
 /// Faint grid.
 const FAINT: RGBColor = RGBColor(0xee, 0xf0, 0xf1);
+/// Darker grey for reference lines that are not targets.
+const GRID_DARK: RGBColor = RGBColor(0x7d, 0x86, 0x8c);
 /// Target and reference lines.
 const MARK: RGBColor = RGBColor(0xb2, 0x3a, 0x48);
-/// Series colours, in order.
+/// Series colours, in order: this report's own palette (REPORT.md, "Colours").
+/// Hues alternate along the blue-orange axis, which colour-blind readers of
+/// every common type still tell apart, and neighbours in the cycle differ in
+/// CIE L* lightness by at least 10, so that they stay apart even in grey.
 pub const SERIES: [RGBColor; 8] = [
-    RGBColor(0x1f, 0x5f, 0x8b),
-    RGBColor(0xd0, 0x7a, 0x2b),
-    RGBColor(0x3b, 0x8a, 0x5a),
-    RGBColor(0x8e, 0x5a, 0x9b),
-    RGBColor(0x9a, 0x7b, 0x1c),
-    RGBColor(0x2b, 0x9a, 0x9a),
-    RGBColor(0x7a, 0x4a, 0x30),
-    RGBColor(0x55, 0x66, 0x77),
+    RGBColor(0x1f, 0x4e, 0x79), // deep harbour blue, L* 32
+    RGBColor(0xe0, 0x8a, 0x2e), // kiln orange, L* 65
+    RGBColor(0x8c, 0xc2, 0xe0), // pale sky, L* 76
+    RGBColor(0x8c, 0x2d, 0x1e), // rust, L* 33
+    RGBColor(0x3a, 0x9a, 0x8c), // sea green, L* 58
+    RGBColor(0x6b, 0x4c, 0x9a), // heather, L* 39
+    RGBColor(0xd8, 0xc3, 0x7e), // dune, L* 79
+    RGBColor(0x5f, 0x66, 0x6d), // slate, L* 43
 ];
+/// Intervals that fail screening with valid samples, in time series.
+const FLAG_BAND: RGBColor = RGBColor(0xe0, 0xa4, 0x3a);
+/// Intervals with samples excluded by decision, in time series.
+const EXCL_BAND: RGBColor = RGBColor(0x6b, 0x4c, 0x9a);
+/// Event markers.
+const EVENT: RGBColor = RGBColor(0x22, 0x2b, 0x33);
 /// Rose speed classes, light to dark.
 const ROSE: [RGBColor; 5] = [
     RGBColor(0xd6, 0xe6, 0xee),
@@ -110,62 +122,119 @@ fn mesh<'c, 'a, 'b>(
     mesh
 }
 
-/// Draws the legend of the labelled series of `chart` at `pos`: 14-pixel
-/// text on a nearly opaque white box with a grid-coloured border.
-fn legend<'a, 'b: 'a>(chart: &mut Chart<'a, 'b>, pos: SeriesLabelPosition) -> Result<()> {
-    chart
-        .configure_series_labels()
-        .position(pos)
-        .background_style(WHITE.mix(0.9))
-        .border_style(GRID)
-        .label_font(style(14))
-        .draw()?;
+/// A legend key.
+#[derive(Clone, Copy, Debug)]
+enum Key {
+    /// A filled box (bars, bands).
+    Box(RGBAColor),
+    /// A line of a width.
+    Line(RGBColor, u32),
+    /// A dashed line.
+    Dash(RGBColor),
+    /// A dot.
+    Dot(RGBColor),
+}
+
+/// Legend entries of a chart.
+type Keys = Vec<(Key, String)>;
+
+/// Estimated width of a legend entry in pixels (14-pixel sans-serif text,
+/// about 7.6 pixels a character, plus the key and a gap).
+fn entry_width(label: &str) -> i32 {
+    30 + (label.chars().count() as f64 * 7.6).ceil() as i32 + 22
+}
+
+/// Rows a legend of `keys` takes in `width` pixels.
+fn legend_rows(keys: &Keys, width: i32) -> i32 {
+    let (mut rows, mut x) = (1, 0);
+    for (_, l) in keys {
+        let w = entry_width(l);
+        if x > 0 && x + w > width {
+            rows += 1;
+            x = 0;
+        }
+        x += w;
+    }
+    if keys.is_empty() {
+        0
+    } else {
+        rows
+    }
+}
+
+/// Splits `root` into the plot and, below it, a legend strip for `keys`:
+/// legends never cover data.
+fn with_legend<'b>(root: &Area<'b>, keys: &Keys) -> (Area<'b>, Area<'b>) {
+    let (w, h) = root.dim_in_pixel();
+    let rows = legend_rows(keys, w as i32 - 40);
+    let strip = (rows * 22 + if rows > 0 { 10 } else { 0 }) as u32;
+    root.split_vertically(h.saturating_sub(strip))
+}
+
+/// Draws `keys` in `area`, left to right, wrapping into rows.
+fn draw_legend(area: &Area<'_>, keys: &Keys) -> Result<()> {
+    let (w, _) = area.dim_in_pixel();
+    let (mut x, mut y) = (20i32, 12i32);
+    for (k, label) in keys {
+        let ew = entry_width(label);
+        if x > 20 && x + ew > w as i32 - 20 {
+            x = 20;
+            y += 22;
+        }
+        match *k {
+            Key::Box(c) => area.draw(&Rectangle::new([(x, y - 6), (x + 18, y + 6)], c.filled()))?,
+            Key::Line(c, wd) => {
+                area.draw(&PathElement::new([(x, y), (x + 22, y)], c.stroke_width(wd)))?
+            }
+            Key::Dash(c) => {
+                area.draw(&PathElement::new([(x, y), (x + 8, y)], c.stroke_width(2)))?;
+                area.draw(&PathElement::new(
+                    [(x + 14, y), (x + 22, y)],
+                    c.stroke_width(2),
+                ))?;
+            }
+            Key::Dot(c) => area.draw(&Circle::new((x + 11, y), 4, c.filled()))?,
+        }
+        area.draw(&Text::new(
+            label.clone(),
+            (x + 30, y),
+            style(14).pos(Pos::new(HPos::Left, VPos::Center)),
+        ))?;
+        x += ew;
+    }
     Ok(())
 }
 
-/// Legend key of a bar series: a 14 by 10 pixel box in `fill`.
-fn box_key(fill: ShapeStyle) -> impl Fn((i32, i32)) -> Rectangle<(i32, i32)> {
-    move |(x, y)| Rectangle::new([(x, y - 5), (x + 14, y + 5)], fill)
-}
-
-/// Legend key of a line series: a line `len` pixels long in `stroke` (16 in
-/// most charts; 14, the width of a box key, in the recovery chart).
-fn line_key(len: i32, stroke: ShapeStyle) -> impl Fn((i32, i32)) -> PathElement<(i32, i32)> {
-    move |(x, y)| PathElement::new([(x, y), (x + len, y)], stroke)
+/// Opaque colour as a legend box colour.
+fn solid(c: RGBColor) -> RGBAColor {
+    c.mix(1.0)
 }
 
 /// Draws the dashed horizontal reference line at `y` across `0..x_end` in
-/// the mark colour; the caller labels it.
-fn reference_line<'c, 'a, 'b>(
-    chart: &'c mut Chart<'a, 'b>,
-    y: f64,
-    x_end: f64,
-) -> Result<&'c mut SeriesAnno<'a, SVGBackend<'b>>> {
-    Ok(chart.draw_series(DashedLineSeries::new(
+/// the mark colour; the caller adds its legend entry.
+fn reference_line(chart: &mut Chart<'_, '_>, y: f64, x_end: f64) -> Result<()> {
+    chart.draw_series(DashedLineSeries::new(
         [(0.0, y), (x_end, y)],
         6,
         4,
         MARK.stroke_width(2),
-    ))?)
+    ))?;
+    Ok(())
 }
 
-/// Draws `points` as a line `width` pixels wide in `c`, labelled `label` in
-/// the legend, with a dot of `radius` pixels on each point.
+/// Draws `points` as a line `width` pixels wide in `c`, with a dot of
+/// `radius` pixels on each point; the caller adds its legend entry.
 fn dotted_line(
     chart: &mut Chart<'_, '_>,
     points: &[(f64, f64)],
     c: RGBColor,
     width: u32,
     radius: i32,
-    label: impl Into<String>,
 ) -> Result<()> {
-    chart
-        .draw_series(LineSeries::new(
-            points.iter().copied(),
-            c.stroke_width(width),
-        ))?
-        .label(label)
-        .legend(line_key(16, c.stroke_width(width)));
+    chart.draw_series(LineSeries::new(
+        points.iter().copied(),
+        c.stroke_width(width),
+    ))?;
     chart.draw_series(points.iter().map(|&p| Circle::new(p, radius, c.filled())))?;
     Ok(())
 }
@@ -213,12 +282,19 @@ fn time_label(t0: i64, days: f64, span_days: f64) -> String {
 }
 
 /// Availability: one row per channel, missing intervals drawn as bars.
-pub fn availability(d: &Dataset) -> Result<String> {
+pub fn availability(d: &Dataset, events: &[Event]) -> Result<String> {
     let n = d.channels.len();
     let h = 70 + 26 * n as u32;
     let days = d.len as f64 * d.interval_ms as f64 / 86_400_000.0;
     let step = d.interval_ms as f64 / 86_400_000.0;
-    svg((900, h.max(160)), |root| {
+    let t1 = d.t0_ms + d.len as i64 * d.interval_ms;
+    let shown: Vec<(usize, f64)> = events
+        .iter()
+        .enumerate()
+        .filter(|(_, e)| (d.t0_ms..=t1).contains(&e.time.millis()))
+        .map(|(k, e)| (k + 1, (e.time.millis() - d.t0_ms) as f64 / 86_400_000.0))
+        .collect();
+    svg((900, h.max(160) + 16), |root| {
         let fmt_x = |x: &f64| time_label(d.t0_ms, *x, days);
         let fmt_y = |y: &f64| {
             let i = (n as f64 - 0.5 - *y).round();
@@ -228,7 +304,13 @@ pub fn availability(d: &Dataset) -> Result<String> {
                 String::new()
             }
         };
-        let mut chart = cartesian(root, (30, 70), 0.0..days, 0.0..n as f64)?;
+        let mut chart = ChartBuilder::on(root)
+            .margin(12)
+            .margin_top(26)
+            .margin_right(48)
+            .x_label_area_size(30)
+            .y_label_area_size(70)
+            .build_cartesian_2d(0.0..days, 0.0..n as f64)?;
         mesh(&mut chart)
             .disable_y_mesh()
             .x_labels(8)
@@ -269,14 +351,44 @@ pub fn availability(d: &Dataset) -> Result<String> {
                 )))?;
             }
         }
+        for &(k, x) in &shown {
+            chart.draw_series(DashedLineSeries::new(
+                [(x, 0.0), (x, n as f64)],
+                5,
+                4,
+                EVENT.stroke_width(1),
+            ))?;
+            let (px, py) = chart.backend_coord(&(x, n as f64));
+            root.draw(&Text::new(
+                k.to_string(),
+                (px, py - 4),
+                style(12).pos(Pos::new(HPos::Center, VPos::Bottom)),
+            ))?;
+        }
         Ok(())
     })
 }
 
-/// Overall sample and interval recovery per channel against the 90 % target.
+/// Overall sample and interval recovery per channel against the 90 % target
+/// (the axis ends at 100 %; the legend sits below the plot).
 pub fn recovery(d: &Dataset, r: &Recovery) -> Result<String> {
     let n = r.channels.len();
+    let keys: Keys = vec![
+        (
+            Key::Box(solid(colour(0))),
+            "samples valid / possible".into(),
+        ),
+        (
+            Key::Box(solid(colour(1))),
+            "intervals passing screening / possible".into(),
+        ),
+        (
+            Key::Dash(MARK),
+            "90 % target (EPA-454/R-99-005 sec. 5.3.2)".into(),
+        ),
+    ];
     svg((900, 330), |root| {
+        let (plot, leg) = with_legend(root, &keys);
         let fmt_x = |x: &f64| {
             let i = x.floor();
             if (x - i - 0.5).abs() < 1e-6 && i >= 0.0 && (i as usize) < n {
@@ -285,19 +397,13 @@ pub fn recovery(d: &Dataset, r: &Recovery) -> Result<String> {
                 String::new()
             }
         };
-        let mut chart = cartesian(root, (30, 50), 0.0..n as f64, 0.0..160.0)?;
+        let mut chart = cartesian(&plot, (30, 50), 0.0..n as f64, 0.0..100.0)?;
         mesh(&mut chart)
             .disable_x_mesh()
             .x_labels(2 * n + 1)
             .x_label_formatter(&fmt_x)
-            .y_labels(8)
-            .y_label_formatter(&|y: &f64| {
-                if *y <= 100.0 {
-                    format!("{y:.0}")
-                } else {
-                    String::new()
-                }
-            })
+            .y_labels(6)
+            .y_label_formatter(&|y: &f64| format!("{y:.0}"))
             .y_desc("recovery (%)")
             .draw()?;
         let bars = |k: usize, f: &dyn Fn(&qc_core::Totals) -> Option<f64>| {
@@ -311,19 +417,10 @@ pub fn recovery(d: &Dataset, r: &Recovery) -> Result<String> {
                 })
                 .collect::<Vec<_>>()
         };
-        chart
-            .draw_series(bars(0, &|t| t.rate()))?
-            .label("samples valid / possible")
-            .legend(box_key(colour(0).filled()));
-        chart
-            .draw_series(bars(1, &|t| t.interval_rate()))?
-            .label("intervals passing screening / possible")
-            .legend(box_key(colour(1).filled()));
-        reference_line(&mut chart, 100.0 * TARGET, n as f64)?
-            .label("90 % target (EPA-454/R-99-005 sec. 5.3.2)")
-            .legend(line_key(14, MARK.stroke_width(2)));
-        legend(&mut chart, SeriesLabelPosition::UpperRight)?;
-        Ok(())
+        chart.draw_series(bars(0, &|t| t.rate()))?;
+        chart.draw_series(bars(1, &|t| t.interval_rate()))?;
+        reference_line(&mut chart, 100.0 * TARGET, n as f64)?;
+        draw_legend(&leg, &keys)
     })
 }
 
@@ -376,13 +473,20 @@ pub fn missing_share(d: &Dataset, diags: &[Diagnosis], kind: FactorKind) -> Resu
         return Ok(None);
     }
     let nb = labels.len();
+    // A share: the axis ends at 100 % at most.
     let ymax = nice_max(
         lines
             .iter()
             .flat_map(|l| l.points.iter().map(|p| p.1))
             .fold(0.0, f64::max)
             * 1.1,
-    );
+    )
+    .min(100.0);
+    let keys: Keys = lines
+        .iter()
+        .enumerate()
+        .map(|(k, l)| (Key::Line(colour(k), 2), l.name.clone()))
+        .collect();
     let xdesc = match kind {
         FactorKind::Speed => "reference wind speed bin (m/s)",
         FactorKind::Hour => "hour of day (UTC)",
@@ -393,8 +497,9 @@ pub fn missing_share(d: &Dataset, diags: &[Diagnosis], kind: FactorKind) -> Resu
     };
     let every = if nb > 14 { 3 } else { 1 };
     svg((880, 320), |root| {
+        let (plot, leg) = with_legend(root, &keys);
         let fmt_x = category_labels(&labels, every);
-        let mut chart = cartesian(root, LABEL_AREAS, 0.0..nb as f64, 0.0..ymax)?;
+        let mut chart = cartesian(&plot, LABEL_AREAS, 0.0..nb as f64, 0.0..ymax)?;
         mesh(&mut chart)
             .x_labels(2 * nb + 1)
             .x_label_formatter(&fmt_x)
@@ -402,10 +507,9 @@ pub fn missing_share(d: &Dataset, diags: &[Diagnosis], kind: FactorKind) -> Resu
             .y_desc("intervals missing (%)")
             .draw()?;
         for (k, l) in lines.iter().enumerate() {
-            dotted_line(&mut chart, &l.points, colour(k), 2, 3, l.name.clone())?;
+            dotted_line(&mut chart, &l.points, colour(k), 2, 3)?;
         }
-        legend(&mut chart, SeriesLabelPosition::UpperLeft)?;
-        Ok(())
+        draw_legend(&leg, &keys)
     })
     .map(Some)
 }
@@ -549,8 +653,25 @@ pub fn histogram(d: &Dataset, x: &Distribution, rho: f64) -> Result<String> {
             * 1.1,
     );
     let xmax = bins.n as f64;
+    let mut keys: Keys = vec![(
+        Key::Box(colour(0).mix(0.75)),
+        format!("measured, {} intervals", x.speeds.len()),
+    )];
+    if let Some(w) = x.ml {
+        keys.push((
+            Key::Line(colour(1), 3),
+            format!(
+                "Weibull ML: k {:.2}, c {:.2} m/s, mean {:.2} m/s, {:.0} W/m2 at {rho} kg/m3",
+                w.k,
+                w.c,
+                w.mean(),
+                w.power_density(rho)
+            ),
+        ));
+    }
     svg((880, 340), |root| {
-        let mut chart = cartesian(root, LABEL_AREAS, 0.0..xmax, 0.0..ymax)?;
+        let (plot, leg) = with_legend(root, &keys);
+        let mut chart = cartesian(&plot, LABEL_AREAS, 0.0..xmax, 0.0..ymax)?;
         mesh(&mut chart)
             .x_desc(format!(
                 "10-minute mean speed at {} (m/s)",
@@ -558,32 +679,19 @@ pub fn histogram(d: &Dataset, x: &Distribution, rho: f64) -> Result<String> {
             ))
             .y_desc("frequency (% per m/s)")
             .draw()?;
-        chart
-            .draw_series(freq.iter().enumerate().map(|(i, &f)| {
-                Rectangle::new(
-                    [(i as f64 + 0.06, 0.0), (i as f64 + 0.94, f)],
-                    colour(0).mix(0.75).filled(),
-                )
-            }))?
-            .label(format!("measured, {} intervals", x.speeds.len()))
-            .legend(box_key(colour(0).mix(0.75).filled()));
-        if let Some(w) = x.ml {
-            chart
-                .draw_series(LineSeries::new(
-                    fit.iter().copied(),
-                    colour(1).stroke_width(3),
-                ))?
-                .label(format!(
-                    "Weibull ML: k {:.2}, c {:.2} m/s, mean {:.2} m/s, {:.0} W/m2 at {rho} kg/m3",
-                    w.k,
-                    w.c,
-                    w.mean(),
-                    w.power_density(rho)
-                ))
-                .legend(line_key(16, colour(1).stroke_width(3)));
+        chart.draw_series(freq.iter().enumerate().map(|(i, &f)| {
+            Rectangle::new(
+                [(i as f64 + 0.06, 0.0), (i as f64 + 0.94, f)],
+                colour(0).mix(0.75).filled(),
+            )
+        }))?;
+        if x.ml.is_some() {
+            chart.draw_series(LineSeries::new(
+                fit.iter().copied(),
+                colour(1).stroke_width(3),
+            ))?;
         }
-        legend(&mut chart, SeriesLabelPosition::UpperRight)?;
-        Ok(())
+        draw_legend(&leg, &keys)
     })
 }
 
@@ -597,27 +705,40 @@ pub fn turbulence(d: &Dataset, c: usize, bins: &[TiBin]) -> Result<String> {
         .fold(0.0, f64::max)
         .clamp(0.3, 1.0);
     let ymax = nice_max(tmax * 1.1);
+    let ntm_colour = |k: usize| {
+        RGBColor(
+            0x8a + 0x18 * k as u8,
+            0x8a + 0x18 * k as u8,
+            0x90 + 0x16 * k as u8,
+        )
+    };
+    let mut keys: Keys = TurbulenceCategory::ALL
+        .iter()
+        .enumerate()
+        .map(|(k, cat)| {
+            (
+                Key::Dash(ntm_colour(k)),
+                format!("NTM {} (Iref {})", cat.name(), cat.iref()),
+            )
+        })
+        .collect();
+    keys.push((Key::Line(colour(1), 3), "measured 90th percentile".into()));
+    keys.push((Key::Line(colour(0), 2), "measured mean".into()));
     svg((880, 360), |root| {
-        let mut chart = cartesian(root, LABEL_AREAS, 0.0..vmax, 0.0..ymax)?;
+        let (plot, leg) = with_legend(root, &keys);
+        let mut chart = cartesian(&plot, LABEL_AREAS, 0.0..vmax, 0.0..ymax)?;
         mesh(&mut chart)
             .x_desc(format!("speed bin at {} (m/s)", d.channels[c].id()))
             .y_desc("turbulence intensity")
             .draw()?;
         for (k, cat) in TurbulenceCategory::ALL.iter().enumerate() {
-            let col = RGBColor(
-                0x8a + 0x18 * k as u8,
-                0x8a + 0x18 * k as u8,
-                0x90 + 0x16 * k as u8,
-            );
+            let col = ntm_colour(k);
             let pts: Vec<(f64, f64)> = (10..=(vmax * 10.0) as usize)
                 .map(|i| i as f64 / 10.0)
                 .map(|v| (v, cat.ntm_ti(v)))
                 .filter(|p| p.1 <= ymax)
                 .collect();
-            chart
-                .draw_series(DashedLineSeries::new(pts, 5, 3, col.stroke_width(2)))?
-                .label(format!("NTM {} (Iref {})", cat.name(), cat.iref()))
-                .legend(line_key(16, col.stroke_width(2)));
+            chart.draw_series(DashedLineSeries::new(pts, 5, 3, col.stroke_width(2)))?;
         }
         let mean: Vec<(f64, f64)> = shown
             .iter()
@@ -627,17 +748,9 @@ pub fn turbulence(d: &Dataset, c: usize, bins: &[TiBin]) -> Result<String> {
             .iter()
             .filter_map(|b| Some((b.centre, b.p90?)))
             .collect();
-        dotted_line(
-            &mut chart,
-            &p90,
-            colour(1),
-            3,
-            4,
-            "measured 90th percentile",
-        )?;
-        dotted_line(&mut chart, &mean, colour(0), 2, 3, "measured mean")?;
-        legend(&mut chart, SeriesLabelPosition::UpperRight)?;
-        Ok(())
+        dotted_line(&mut chart, &p90, colour(1), 3, 4)?;
+        dotted_line(&mut chart, &mean, colour(0), 2, 3)?;
+        draw_legend(&leg, &keys)
     })
 }
 
@@ -653,9 +766,17 @@ pub fn shear(d: &Dataset, s: &Shear, by_sector: bool) -> Result<Option<String>> 
     let hi = nice_max(vals.iter().copied().fold(0.0, f64::max).max(0.2) * 1.15);
     let labels: Vec<String> = bins.iter().map(|b| b.label.clone()).collect();
     let every = if nb > 16 { 2 } else { 1 };
+    let keys: Keys = vec![
+        (
+            Key::Box(solid(colour(4))),
+            "power-law exponent from mean speeds".into(),
+        ),
+        (Key::Dash(MARK), "1/7, the conventional value".into()),
+    ];
     svg((880, 300), |root| {
+        let (plot, leg) = with_legend(root, &keys);
         let fmt_x = category_labels(&labels, every);
-        let mut chart = cartesian(root, LABEL_AREAS, 0.0..nb as f64, (lo * 1.15)..hi)?;
+        let mut chart = cartesian(&plot, LABEL_AREAS, 0.0..nb as f64, (lo * 1.15)..hi)?;
         mesh(&mut chart)
             .disable_x_mesh()
             .x_labels(2 * nb + 1)
@@ -671,49 +792,136 @@ pub fn shear(d: &Dataset, s: &Shear, by_sector: bool) -> Result<Option<String>> 
                 d.channels[s.high].id()
             ))
             .draw()?;
-        chart
-            .draw_series(bins.iter().enumerate().filter_map(|(i, b)| {
-                let a = b.alpha?;
-                Some(Rectangle::new(
-                    [(i as f64 + 0.15, 0.0), (i as f64 + 0.85, a)],
-                    colour(2).filled(),
-                ))
-            }))?
-            .label("power-law exponent from mean speeds")
-            .legend(box_key(colour(2).filled()));
-        reference_line(&mut chart, 1.0 / 7.0, nb as f64)?
-            .label("1/7, the conventional value")
-            .legend(line_key(16, MARK.stroke_width(2)));
-        legend(&mut chart, SeriesLabelPosition::UpperRight)?;
-        Ok(())
+        chart.draw_series(bins.iter().enumerate().filter_map(|(i, b)| {
+            let a = b.alpha?;
+            Some(Rectangle::new(
+                [(i as f64 + 0.15, 0.0), (i as f64 + 0.85, a)],
+                colour(4).filled(),
+            ))
+        }))?;
+        reference_line(&mut chart, 1.0 / 7.0, nb as f64)?;
+        draw_legend(&leg, &keys)
     })
     .map(Some)
 }
 
-/// Speeds over time, averaged into at most about 1,500 points a line; breaks
-/// where nothing passes.
-pub fn time_series(d: &Dataset) -> Result<Option<String>> {
+/// What a time-series bucket shows behind the data.
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+enum Band {
+    Flagged,
+    Excluded,
+}
+
+/// Time series, one chart per kind of channel: speeds as lines, directions as
+/// dots, each scalar unit as lines. Intervals where a drawn channel fails
+/// screening with valid samples are shaded amber, intervals with excluded
+/// samples violet; events are numbered dashed lines. At most about 1,500
+/// points a line (means of consecutive intervals; directions thinned).
+/// Returns `(name, svg, caption)` per chart.
+pub fn time_series(d: &Dataset, events: &[Event]) -> Result<Vec<(String, String, String)>> {
+    let mut groups: Vec<(String, Vec<usize>, bool, String)> = Vec::new();
     let speeds: Vec<usize> = (0..d.channels.len())
         .filter(|&c| d.channels[c].spec.kind == Kind::Speed)
         .collect();
-    if speeds.is_empty() {
-        return Ok(None);
+    if !speeds.is_empty() {
+        groups.push(("speed".into(), speeds, false, "mean speed (m/s)".into()));
     }
+    let dirs: Vec<usize> = (0..d.channels.len())
+        .filter(|&c| d.channels[c].spec.kind == Kind::Direction)
+        .collect();
+    if !dirs.is_empty() {
+        groups.push((
+            "direction".into(),
+            dirs,
+            true,
+            "mean direction (degrees from north)".into(),
+        ));
+    }
+    let mut units: Vec<String> = Vec::new();
+    for s in d.channels.iter().filter(|s| s.spec.kind == Kind::Scalar) {
+        if !units.contains(&s.unit().to_string()) {
+            units.push(s.unit().to_string());
+        }
+    }
+    for u in &units {
+        let chans: Vec<usize> = (0..d.channels.len())
+            .filter(|&c| d.channels[c].spec.kind == Kind::Scalar && d.channels[c].unit() == u)
+            .collect();
+        let name = format!(
+            "scalar-{}",
+            u.chars()
+                .map(|c| if c.is_ascii_alphanumeric() { c } else { '_' })
+                .collect::<String>()
+        );
+        groups.push((name, chans, false, format!("mean ({u})")));
+    }
+    let mut out = Vec::new();
+    for (name, chans, dots, ylab) in groups {
+        let svg = series_chart(d, &chans, dots, &ylab, events)?;
+        let ids: Vec<&str> = chans.iter().map(|&c| d.channels[c].id()).collect();
+        out.push((
+            format!("timeseries-{name}"),
+            svg,
+            format!(
+                "{}: 10-minute means that pass screening over the period{}; amber where one of them fails screening with valid samples (flagged), violet where samples were excluded by decision; numbered dashed lines are events.",
+                ids.join(", "),
+                if dots { ", one dot per interval" } else { "" }
+            ),
+        ));
+    }
+    Ok(out)
+}
+
+fn series_chart(
+    d: &Dataset,
+    chans: &[usize],
+    dots: bool,
+    ylab: &str,
+    events: &[Event],
+) -> Result<String> {
     let per = d.len.div_ceil(1500).max(1);
     let step = d.interval_ms as f64 / 86_400_000.0;
     let days = d.len as f64 * step;
+    let nb = d.len.div_ceil(per);
+    // Bands per bucket.
+    let band = |b: usize| -> Option<Band> {
+        let mut f = None;
+        for i in b * per..((b + 1) * per).min(d.len) {
+            for &c in chans {
+                if let Some(r) = &d.channels[c].rows[i] {
+                    if crate::outages::has_excluded(r.flags) || r.n_excluded > 0 {
+                        return Some(Band::Excluded);
+                    }
+                    if !r.passed && r.tally.valid > 0 {
+                        f = Some(Band::Flagged);
+                    }
+                }
+            }
+        }
+        f
+    };
+    let bands: Vec<Option<Band>> = (0..nb).map(band).collect();
+    // Lines (segments broken where nothing passes) or dots.
     let mut lines: Vec<Vec<Vec<(f64, f64)>>> = Vec::new();
-    let mut vmax = 1.0f64;
-    for &c in &speeds {
+    let (mut lo, mut hi) = (f64::INFINITY, f64::NEG_INFINITY);
+    for &c in chans {
         let mut segs: Vec<Vec<(f64, f64)>> = vec![Vec::new()];
-        for b in 0..d.len.div_ceil(per) {
+        for b in 0..nb {
             let vals: Vec<f64> = (b * per..((b + 1) * per).min(d.len))
                 .filter_map(|i| d.channels[c].value(i))
                 .collect();
-            match super::stats::mean(&vals) {
+            let x = (b * per) as f64 * step + 0.5 * per as f64 * step;
+            // Directions: the first passing value of the bucket (a plain
+            // mean of angles is meaningless).
+            let v = if dots {
+                vals.first().copied()
+            } else {
+                super::stats::mean(&vals)
+            };
+            match v {
                 Some(m) => {
-                    vmax = vmax.max(m);
-                    let x = (b * per) as f64 * step + 0.5 * per as f64 * step;
+                    lo = lo.min(m);
+                    hi = hi.max(m);
                     if let Some(s) = segs.last_mut() {
                         s.push((x, m));
                     }
@@ -727,38 +935,122 @@ pub fn time_series(d: &Dataset) -> Result<Option<String>> {
         }
         lines.push(segs);
     }
-    let ymax = nice_max(vmax * 1.05);
+    let (ylo, yhi) = if dots {
+        (0.0, 360.0)
+    } else if !lo.is_finite() {
+        (0.0, 1.0)
+    } else if chans
+        .iter()
+        .all(|&c| d.channels[c].spec.kind == Kind::Speed)
+    {
+        (0.0, nice_max(hi * 1.05))
+    } else {
+        let pad = ((hi - lo) * 0.08).max(0.5);
+        ((lo - pad).floor(), (hi + pad).ceil())
+    };
+    let mut keys: Keys = chans
+        .iter()
+        .enumerate()
+        .map(|(k, &c)| {
+            (
+                if dots {
+                    Key::Dot(colour(k))
+                } else {
+                    Key::Line(colour(k), 2)
+                },
+                d.channels[c].id().to_string(),
+            )
+        })
+        .collect();
+    if bands.contains(&Some(Band::Flagged)) {
+        keys.push((Key::Box(FLAG_BAND.mix(0.35)), "flagged".into()));
+    }
+    if bands.contains(&Some(Band::Excluded)) {
+        keys.push((Key::Box(EXCL_BAND.mix(0.35)), "excluded".into()));
+    }
+    let t1 = d.t0_ms + d.len as i64 * d.interval_ms;
+    let shown: Vec<(usize, f64)> = events
+        .iter()
+        .enumerate()
+        .filter(|(_, e)| (d.t0_ms..=t1).contains(&e.time.millis()))
+        .map(|(k, e)| (k + 1, (e.time.millis() - d.t0_ms) as f64 / 86_400_000.0))
+        .collect();
+    if !shown.is_empty() {
+        keys.push((
+            Key::Dash(EVENT),
+            "event (number as in the events table)".into(),
+        ));
+    }
     svg((900, 340), |root| {
+        let (plot, leg) = with_legend(root, &keys);
         let fmt_x = |x: &f64| time_label(d.t0_ms, *x, days);
-        let mut chart = cartesian(root, LABEL_AREAS, 0.0..days, 0.0..ymax)?;
-        mesh(&mut chart)
-            .x_labels(8)
+        let mut chart = ChartBuilder::on(&plot)
+            .margin(12)
+            .margin_top(22)
+            .margin_right(48)
+            .x_label_area_size(LABEL_AREAS.0)
+            .y_label_area_size(LABEL_AREAS.1)
+            .build_cartesian_2d(0.0..days, ylo..yhi)?;
+        let mut m = mesh(&mut chart);
+        m.x_labels(8)
             .x_label_formatter(&fmt_x)
             .x_desc(if per > 1 {
                 format!("time (UTC; means of {per} intervals)")
             } else {
                 "time (UTC)".to_string()
             })
-            .y_desc("mean speed (m/s)")
-            .draw()?;
-        for (k, (segs, &c)) in lines.iter().zip(&speeds).enumerate() {
+            .y_desc(ylab);
+        if dots {
+            m.y_labels(9);
+        }
+        m.draw()?;
+        let mut b = 0;
+        while b < nb {
+            let Some(k) = bands[b] else {
+                b += 1;
+                continue;
+            };
+            let start = b;
+            while b < nb && bands[b] == Some(k) {
+                b += 1;
+            }
+            let x0 = (start * per) as f64 * step;
+            let x1 = ((b * per) as f64 * step).max(x0 + days / 900.0);
+            let c = match k {
+                Band::Flagged => FLAG_BAND,
+                Band::Excluded => EXCL_BAND,
+            };
+            chart.draw_series(std::iter::once(Rectangle::new(
+                [(x0, ylo), (x1, yhi)],
+                c.mix(0.22).filled(),
+            )))?;
+        }
+        for (k, segs) in lines.iter().enumerate() {
             let col = colour(k);
-            let mut first = true;
             for seg in segs.iter().filter(|s| !s.is_empty()) {
-                let series =
+                if dots {
+                    chart.draw_series(seg.iter().map(|&p| Circle::new(p, 2, col.filled())))?;
+                } else {
                     chart.draw_series(LineSeries::new(seg.iter().copied(), col.stroke_width(1)))?;
-                if first {
-                    series
-                        .label(d.channels[c].id().to_string())
-                        .legend(line_key(16, col.stroke_width(2)));
-                    first = false;
                 }
             }
         }
-        legend(&mut chart, SeriesLabelPosition::UpperRight)?;
-        Ok(())
+        for &(n, x) in &shown {
+            chart.draw_series(DashedLineSeries::new(
+                [(x, ylo), (x, yhi)],
+                5,
+                4,
+                EVENT.stroke_width(1),
+            ))?;
+            let (px, py) = chart.backend_coord(&(x, yhi));
+            plot.draw(&Text::new(
+                n.to_string(),
+                (px, py - 4),
+                style(12).pos(Pos::new(HPos::Center, VPos::Bottom)),
+            ))?;
+        }
+        draw_legend(&leg, &keys)
     })
-    .map(Some)
 }
 
 /// Speed against direction of the rose intervals (at most about 5,000 points).
@@ -769,17 +1061,22 @@ pub fn scatter(d: &Dataset, r: &Rose) -> Result<String> {
         let fmt_x = |x: &f64| {
             let k = (x / 45.0).round();
             if (x - 45.0 * k).abs() < 1e-6 {
-                sector_label((k as u16) % 8 * 2, 16)
+                format!("{:.0}° {}", 45.0 * k, sector_label((k as u16) % 8 * 2, 16))
             } else {
                 String::new()
             }
         };
-        let mut chart = cartesian(root, LABEL_AREAS, 0.0..360.0, 0.0..vmax)?;
+        let mut chart = ChartBuilder::on(root)
+            .margin(12)
+            .margin_right(40)
+            .x_label_area_size(LABEL_AREAS.0)
+            .y_label_area_size(LABEL_AREAS.1)
+            .build_cartesian_2d(0.0..360.0, 0.0..vmax)?;
         mesh(&mut chart)
             .x_labels(9)
             .x_label_formatter(&fmt_x)
             .x_desc(format!(
-                "mean direction at {} (deg from north)",
+                "mean direction at {} (degrees clockwise from north)",
                 d.channels[r.vane].id()
             ))
             .y_desc(format!("mean speed at {} (m/s)", d.channels[r.speed].id()))
@@ -789,4 +1086,151 @@ pub fn scatter(d: &Dataset, r: &Rose) -> Result<String> {
         }))?;
         Ok(())
     })
+}
+
+/// Diurnal profile: the mean speed by hour of day (UTC), one line per
+/// anemometer.
+pub fn diurnal(d: &Dataset, profiles: &[(usize, [Option<f64>; 24])]) -> Result<Option<String>> {
+    if profiles.iter().all(|p| p.1.iter().all(Option::is_none)) {
+        return Ok(None);
+    }
+    let vmax = profiles
+        .iter()
+        .flat_map(|p| p.1.iter().flatten())
+        .fold(1.0f64, |a, &b| a.max(b));
+    let ymax = nice_max(vmax * 1.1);
+    let keys: Keys = profiles
+        .iter()
+        .enumerate()
+        .map(|(k, (c, _))| {
+            let h = d.channels[*c]
+                .height()
+                .map(|h| format!(" ({h} m)"))
+                .unwrap_or_default();
+            (
+                Key::Line(colour(k), 2),
+                format!("{}{h}", d.channels[*c].id()),
+            )
+        })
+        .collect();
+    svg((880, 340), |root| {
+        let (plot, leg) = with_legend(root, &keys);
+        let mut chart = ChartBuilder::on(&plot)
+            .margin(12)
+            .margin_right(24)
+            .x_label_area_size(LABEL_AREAS.0)
+            .y_label_area_size(LABEL_AREAS.1)
+            .build_cartesian_2d(0.0..24.0, 0.0..ymax)?;
+        mesh(&mut chart)
+            .x_labels(13)
+            .x_label_formatter(&|x: &f64| format!("{:02}", x.round() as i64))
+            .x_desc("hour of day (UTC, interval start; point at the middle of the hour)")
+            .y_desc("mean speed (m/s)")
+            .draw()?;
+        for (k, (_, prof)) in profiles.iter().enumerate() {
+            let pts: Vec<(f64, f64)> = prof
+                .iter()
+                .enumerate()
+                .filter_map(|(h, v)| Some((h as f64 + 0.5, (*v)?)))
+                .collect();
+            dotted_line(&mut chart, &pts, colour(k), 2, 3)?;
+        }
+        draw_legend(&leg, &keys)
+    })
+    .map(Some)
+}
+
+/// A redundant pair: the two anemometers' interval means against each other,
+/// the least-squares line and the 1:1 line.
+pub fn pair(d: &Dataset, p: &super::site::Pair) -> Result<Option<String>> {
+    if p.points.is_empty() {
+        return Ok(None);
+    }
+    let every = p.points.len().div_ceil(5000).max(1);
+    let vmax = nice_max(p.points.iter().map(|q| q.0.max(q.1)).fold(1.0, f64::max) * 1.05);
+    let mut keys: Keys = vec![
+        (
+            Key::Dot(colour(0)),
+            format!("interval means ({})", p.points.len()),
+        ),
+        (Key::Dash(GRID_DARK), "1:1".into()),
+    ];
+    if let Some((s, o, r2)) = p.fit {
+        keys.push((
+            Key::Line(colour(1), 2),
+            format!("least squares: y = {s:.4} x {o:+.3}, R² {r2:.4}"),
+        ));
+    }
+    svg((620, 600), |root| {
+        let (plot, leg) = with_legend(root, &keys);
+        let mut chart = cartesian(&plot, LABEL_AREAS, 0.0..vmax, 0.0..vmax)?;
+        mesh(&mut chart)
+            .x_desc(format!("mean speed at {} (m/s)", d.channels[p.a].id()))
+            .y_desc(format!("mean speed at {} (m/s)", d.channels[p.b].id()))
+            .draw()?;
+        chart.draw_series(
+            p.points
+                .iter()
+                .step_by(every)
+                .map(|&q| Circle::new(q, 2, colour(0).mix(0.45).filled())),
+        )?;
+        chart.draw_series(DashedLineSeries::new(
+            [(0.0, 0.0), (vmax, vmax)],
+            6,
+            4,
+            GRID_DARK.stroke_width(2),
+        ))?;
+        if let Some((s, o, _)) = p.fit {
+            chart.draw_series(LineSeries::new(
+                [(0.0, o), (vmax, o + s * vmax)],
+                colour(1).stroke_width(2),
+            ))?;
+        }
+        draw_legend(&leg, &keys)
+    })
+    .map(Some)
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    /// CIE 1976 L* of an sRGB colour (IEC 61966-2-1 transfer function and
+    /// D65 luminance weights 0.2126, 0.7152, 0.0722; CIE L* = 116 f(Y) - 16;
+    /// from memory, common practice).
+    fn lightness(c: RGBColor) -> f64 {
+        let lin = |v: u8| {
+            let x = f64::from(v) / 255.0;
+            if x <= 0.04045 {
+                x / 12.92
+            } else {
+                ((x + 0.055) / 1.055).powf(2.4)
+            }
+        };
+        let y = 0.2126 * lin(c.0) + 0.7152 * lin(c.1) + 0.0722 * lin(c.2);
+        if y > 216.0 / 24389.0 {
+            116.0 * y.cbrt() - 16.0
+        } else {
+            y * 24389.0 / 27.0
+        }
+    }
+
+    #[test]
+    fn palette_stays_apart_in_lightness() {
+        // The rule of REPORT.md "Colours": neighbours in the cycle, and any two
+        // of the first three (the series most charts draw), differ by at least
+        // 10 in L*, so they stay apart for every kind of colour vision and in
+        // grey print.
+        let l: Vec<f64> = SERIES.iter().map(|&c| lightness(c)).collect();
+        for i in 0..SERIES.len() {
+            let j = (i + 1) % SERIES.len();
+            assert!((l[i] - l[j]).abs() >= 10.0, "{i} and {j}: {l:?}");
+        }
+        for (i, j) in [(0, 1), (0, 2), (1, 2)] {
+            assert!((l[i] - l[j]).abs() >= 10.0, "{i} and {j}: {l:?}");
+        }
+        // Check of the formula: white 100, mid grey #777777 about 50.
+        assert!((lightness(WHITE) - 100.0).abs() < 1e-9);
+        assert!((lightness(RGBColor(0x77, 0x77, 0x77)) - 50.0).abs() < 1.0);
+    }
 }

@@ -43,10 +43,15 @@ pub struct Row {
     pub mean: Option<f64>,
     /// Turbulence intensity (speed), if present.
     pub ti: Option<f64>,
+    /// Gust (speed), if present.
+    pub gust: Option<f64>,
     /// Screening flags.
     pub flags: Flags,
     /// Whether the interval passes screening ([`qc_core::screen::passes`]).
     pub passed: bool,
+    /// Samples excluded by decision (records column `n_excluded`; 0 when the
+    /// records have no such column).
+    pub n_excluded: u32,
 }
 
 /// One channel over the whole grid.
@@ -76,6 +81,14 @@ impl Series {
     pub fn ti(&self, i: usize) -> Option<f64> {
         match self.rows.get(i) {
             Some(Some(r)) if r.passed => r.ti,
+            _ => None,
+        }
+    }
+
+    /// The interval's gust when it passes screening.
+    pub fn gust(&self, i: usize) -> Option<f64> {
+        match self.rows.get(i) {
+            Some(Some(r)) if r.passed => r.gust,
             _ => None,
         }
     }
@@ -157,11 +170,13 @@ struct Columns {
     n_valid: usize,
     mean: usize,
     sd: usize,
+    gust: usize,
     flags: usize,
     n_missing: Option<usize>,
     n_out_of_range: Option<usize>,
     n_rejected: Option<usize>,
     n_flagged: Option<usize>,
+    n_excluded: Option<usize>,
     ti: Option<usize>,
     width: usize,
 }
@@ -198,11 +213,13 @@ fn columns(path: &Path, header: &csv::ByteRecord) -> Result<Columns> {
         n_valid: need("n_valid"),
         mean: need("mean"),
         sd: need("sd"),
+        gust: need("gust"),
         flags: need("flags"),
         n_missing: find("n_missing"),
         n_out_of_range: find("n_out_of_range"),
         n_rejected: find("n_rejected"),
         n_flagged: find("n_flagged"),
+        n_excluded: find("n_excluded"),
         ti: find("ti"),
         width: names.len(),
     })
@@ -374,6 +391,7 @@ pub fn read(cfg: &StationFile, paths: &[PathBuf]) -> Result<Dataset> {
                 },
             };
             let flags = flags(&rec, &at, cols.flags)?;
+            let gust = number(&rec, &at, cols.gust, "gust")?;
             let spec = &cfg.channels[ch];
             let record = ChannelRecord {
                 kind: spec.kind,
@@ -396,8 +414,10 @@ pub fn read(cfg: &StationFile, paths: &[PathBuf]) -> Result<Dataset> {
                 tally,
                 mean,
                 ti: if spec.kind == Kind::Speed { ti } else { None },
+                gust: if spec.kind == Kind::Speed { gust } else { None },
                 flags,
                 passed: qc_core::screen::passes(&record),
+                n_excluded: opt(cols.n_excluded, "n_excluded")?,
             };
             let full = cols.n_missing.is_some()
                 && cols.n_out_of_range.is_some()

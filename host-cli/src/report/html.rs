@@ -25,15 +25,15 @@ p.note, li.note { color:var(--muted); font-size:13.5px; }
 .chart { margin:10px 0 4px; overflow-x:auto; }
 .chart svg { width:100%; max-width:960px; height:auto; display:block; border:1px solid var(--line); border-radius:4px; }
 .tablewrap { overflow-x:auto; margin:6px 0 10px; }
-table { border-collapse:collapse; font-size:13px; font-variant-numeric:tabular-nums; }
-th, td { border-bottom:1px solid var(--line); padding:3px 9px; text-align:right; white-space:nowrap; }
-th { background:#eef1f3; font-weight:600; position:sticky; top:0; }
+table { border-collapse:collapse; font-size:12.5px; font-variant-numeric:tabular-nums; }
+th, td { border-bottom:1px solid var(--line); padding:3px 6px; text-align:right; white-space:nowrap; }
+th { background:#eef1f3; font-weight:600; position:sticky; top:0; white-space:normal; vertical-align:bottom; }
 td:first-child, th:first-child { text-align:left; }
 td.below { background:var(--bad); color:var(--badink); font-weight:600; }
 td.ok { background:var(--good); }
 td.warn { background:var(--warn); }
-td.wrap { white-space:normal; text-align:left; min-width:360px; }
-td.wrapn { white-space:normal; text-align:left; min-width:170px; }
+td.wrap { white-space:normal; text-align:left; min-width:300px; }
+td.wrapn { white-space:normal; text-align:left; min-width:150px; }
 p.csvlink { margin:2px 0 0; font-size:12px; color:var(--muted); }
 .verdicts { display:grid; grid-template-columns: repeat(auto-fill, minmax(330px, 1fr)); gap:10px; margin:10px 0; }
 .verdict { border:1px solid var(--line); border-radius:5px; padding:8px 12px; background:#fbfbfa; }
@@ -41,7 +41,9 @@ p.csvlink { margin:2px 0 0; font-size:12px; color:var(--muted); }
 .tag.not_random { background:var(--bad); color:var(--badink); }
 .tag.possible { background:var(--warn); }
 .tag.random, .tag.no_gaps { background:var(--good); }
-.tag.too_few_gaps, .tag.no_data { background:#e6e8ea; }
+.tag.too_few_gaps, .tag.no_data, .tag.too_short { background:#e6e8ea; }
+.verdict .bias { font-size:13px; margin:4px 0 0; }
+.verdict .bias.above { color:var(--badink); font-weight:600; }
 .verdict p { margin:6px 0 0; font-size:13.5px; }
 details { margin:8px 0; }
 summary { cursor:pointer; color:#2f3b45; font-weight:600; }

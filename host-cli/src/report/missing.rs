@@ -27,6 +27,22 @@
 //! V 0.1 is a "small" effect (Cohen 1988, from memory). The thresholds are our
 //! choice, not a standard.
 //!
+//! "Random" is a claim that the data are safe to use, so it needs evidence, not
+//! just the absence of a significant test (the power rule):
+//!
+//! - a large raw effect (pooled table before the run-length adjustment:
+//!   p < 0.001 and V >= [`V_LARGE`]) that the adjusted test cannot confirm is
+//!   "possible" with the reason "too short to confirm", never "random";
+//! - "random" only when every tested factor had at least [`MIN_RUNS`] separate
+//!   gaps and the adjusted test had 80 % power ([`POWER`]) at p < 0.01 to see a
+//!   dependence of V = [`V_DETECT`] (Cohen's "medium" effect, from memory). The
+//!   detectable V of a bins x 2 table is `sqrt(lambda / n_eff)`, where `n_eff`
+//!   is the intervals divided by the mean gap run and `lambda` the
+//!   non-centrality at which a non-central chi-square on the table's degrees of
+//!   freedom exceeds the 1 % critical value with probability 0.8 (for a table
+//!   with two columns, chi-square = n V^2). Otherwise the verdict is "too
+//!   short" (grey): the record cannot tell.
+//!
 //! The bias of the mean is estimated on a reference channel: its mean over all
 //! its passing intervals against its mean over those where the diagnosed
 //! channel passes too. Without a reference anemometer, a speed channel is
@@ -54,6 +70,86 @@ pub const SPEED_BIN: f64 = 2.0;
 pub const TEMP_BIN: f64 = 2.0;
 /// Fewest separate gaps (runs of consecutive missing intervals) for a verdict.
 pub const MIN_RUNS: f64 = 5.0;
+/// Power the adjusted test must have for a "random" verdict.
+pub const POWER: f64 = 0.8;
+/// Cramer's V the adjusted test must be able to detect for a "random" verdict
+/// (Cohen's "medium" effect for a table with two columns, from memory).
+pub const V_DETECT: f64 = 0.3;
+/// A raw (unadjusted, pooled) effect this large with p < [`P_STRONG`] makes
+/// the verdict at least "possible", even when the adjusted test cannot
+/// confirm it.
+pub const V_LARGE: f64 = 0.3;
+/// Bias of a speed mean, m/s, above which the report marks it: about the
+/// calibration uncertainty of a good cup anemometer (common practice; the
+/// campaign's own sensor accuracy governs).
+pub const BIAS_MARK: f64 = 0.1;
+
+/// Upper-tail probability of a non-central chi-square with `dof` degrees of
+/// freedom and non-centrality `lambda` above `x`: the Poisson mixture of
+/// central chi-squares on `dof + 2 j` degrees of freedom (Johnson, Kotz and
+/// Balakrishnan, Continuous Univariate Distributions vol. 2, ch. 29; from
+/// memory), with [`chi2_upper_tail`] from the core.
+pub fn ncx2_upper_tail(x: f64, dof: u32, lambda: f64) -> f64 {
+    let h = 0.5 * lambda.max(0.0);
+    let mut total = 0.0;
+    // Poisson weights e^-h h^j / j!, summed until they are negligible.
+    let mut log_w = -h;
+    for j in 0..2000u32 {
+        if j > 0 {
+            log_w += h.ln() - f64::from(j).ln();
+        }
+        let w = log_w.exp();
+        total += w * chi2_upper_tail(x, dof + 2 * j);
+        if f64::from(j) > h && w < 1e-15 {
+            break;
+        }
+    }
+    total.min(1.0)
+}
+
+/// The critical value of a central chi-square on `dof` degrees of freedom at
+/// upper-tail probability `alpha` (bisection on [`chi2_upper_tail`]).
+pub fn chi2_critical(alpha: f64, dof: u32) -> f64 {
+    let (mut lo, mut hi) = (0.0f64, 1.0f64);
+    while chi2_upper_tail(hi, dof) > alpha && hi < 1e7 {
+        hi *= 2.0;
+    }
+    for _ in 0..100 {
+        let mid = 0.5 * (lo + hi);
+        if chi2_upper_tail(mid, dof) > alpha {
+            lo = mid;
+        } else {
+            hi = mid;
+        }
+    }
+    0.5 * (lo + hi)
+}
+
+/// The non-centrality at which a chi-square test on `dof` degrees of freedom
+/// at level `alpha` has power `power`.
+pub fn noncentrality_for_power(alpha: f64, dof: u32, power: f64) -> f64 {
+    let crit = chi2_critical(alpha, dof);
+    let (mut lo, mut hi) = (0.0f64, 1.0f64);
+    while ncx2_upper_tail(crit, dof, hi) < power && hi < 1e6 {
+        hi *= 2.0;
+    }
+    for _ in 0..60 {
+        let mid = 0.5 * (lo + hi);
+        if ncx2_upper_tail(crit, dof, mid) < power {
+            lo = mid;
+        } else {
+            hi = mid;
+        }
+    }
+    0.5 * (lo + hi)
+}
+
+/// The smallest Cramer's V that the adjusted test of a bins x 2 table with
+/// `n_eff` effective intervals and `dof` degrees of freedom detects with
+/// [`POWER`] at p < [`P_WEAK`].
+pub fn detectable_v(n_eff: f64, dof: u32) -> Option<f64> {
+    (n_eff > 0.0 && dof > 0).then(|| (noncentrality_for_power(P_WEAK, dof, POWER) / n_eff).sqrt())
+}
 
 /// A bin of a factor: `from`..`to` (equal when a single point, `to` empty when
 /// open above).
@@ -249,6 +345,9 @@ pub struct Factor {
     pub mean_run: f64,
     /// p-value of the pooled statistic divided by `mean_run`.
     pub p_adjusted: Option<f64>,
+    /// The smallest Cramer's V the adjusted test detects with [`POWER`] at
+    /// p < [`P_WEAK`] ([`detectable_v`]).
+    pub detectable_v: Option<f64>,
     /// Bias of the mean, for numeric factors.
     pub bias: Option<Bias>,
 }
@@ -269,17 +368,16 @@ impl Factor {
             .is_some_and(|(p, v)| p < P_WEAK && v >= V_MIN)
     }
 
-    /// The pooled bin with the highest observed/expected missing ratio.
-    fn hot_bin(&self) -> Option<(usize, &Tab)> {
-        let (t, _) = self.pooled.as_ref()?;
-        (0..t.bins.len())
-            .filter(|&i| t.missing[i] > 0)
-            .max_by(|&a, &b| {
-                t.ratio(a)
-                    .unwrap_or(0.0)
-                    .total_cmp(&t.ratio(b).unwrap_or(0.0))
-            })
-            .map(|i| (i, t))
+    /// A large effect in the pooled table before the run-length adjustment.
+    fn is_large_raw(&self) -> bool {
+        self.pooled
+            .as_ref()
+            .is_some_and(|(_, t)| t.p_chi2 < P_STRONG && t.cramers_v >= V_LARGE)
+    }
+
+    /// Whether the adjusted test could see a dependence of [`V_DETECT`].
+    fn is_powered(&self) -> bool {
+        self.detectable_v.is_some_and(|v| v <= V_DETECT)
     }
 }
 
@@ -315,6 +413,9 @@ pub enum Verdict {
     Possible,
     /// Strong evidence: missing not at random.
     NotRandom,
+    /// Gaps enough for the tests, but too few to see a dependence of the
+    /// size that matters: the record cannot tell (the power rule).
+    TooShort,
 }
 
 impl Verdict {
@@ -327,6 +428,7 @@ impl Verdict {
             Verdict::Random => "random",
             Verdict::Possible => "possible",
             Verdict::NotRandom => "not_random",
+            Verdict::TooShort => "too_short",
         }
     }
 }
@@ -349,6 +451,9 @@ pub struct Diagnosis {
     /// Why intervals are missing: `(cause, intervals)`, causes being "no row",
     /// "no valid samples" and flag names (an interval may carry several flags).
     pub causes: Vec<(String, usize)>,
+    /// The bias estimate shown beside the verdict (speed factor, or the
+    /// gap-filled estimate without a reference anemometer).
+    pub bias: Option<Bias>,
     /// The verdict.
     pub verdict: Verdict,
     /// The verdict in plain language.
@@ -539,6 +644,10 @@ fn factor(
     let p_adjusted = pooled
         .as_ref()
         .map(|(_, t)| chi2_upper_tail(t.chi2 / run.max(1.0), t.dof));
+    let n: u64 = raw.present.iter().chain(&raw.missing).sum();
+    let detectable_v = pooled
+        .as_ref()
+        .and_then(|(_, t)| detectable_v(n as f64 / run.max(1.0), t.dof));
     Factor {
         kind,
         reference,
@@ -548,6 +657,7 @@ fn factor(
         pooled,
         mean_run: run,
         p_adjusted,
+        detectable_v,
         bias,
     }
 }
@@ -781,6 +891,10 @@ pub fn diagnose(d: &Dataset, c: usize, reference: Option<usize>) -> Diagnosis {
     if matches!(verdict, Verdict::NotRandom | Verdict::Possible) {
         text.push_str(&causes_text(&causes));
     }
+    let bias = factors
+        .iter()
+        .find(|f| matches!(f.kind, FactorKind::Speed | FactorKind::NextToGap))
+        .and_then(|f| f.bias);
     Diagnosis {
         channel: c,
         intervals: d.len,
@@ -789,23 +903,116 @@ pub fn diagnose(d: &Dataset, c: usize, reference: Option<usize>) -> Diagnosis {
         factors,
         tail,
         causes,
+        bias,
         verdict,
         text,
     }
 }
 
+/// Where gaps concentrate: the raw bins around the one with the highest
+/// missing share (among bins of at least 5 intervals), merged with their
+/// neighbours while the share stays within 5 percentage points of it (hours
+/// wrap around midnight).
+#[derive(Clone, Debug, PartialEq)]
+pub struct HotRange {
+    /// The merged bins.
+    pub bin: Bin,
+    /// Whether the range holds the first or the last bin.
+    pub first: bool,
+    /// Whether it holds the last bin.
+    pub last: bool,
+    /// Missing intervals in it.
+    pub missing: u64,
+    /// Intervals in it.
+    pub total: u64,
+    /// Missing share in it over the missing share overall.
+    pub ratio: f64,
+}
+
+/// The [`HotRange`] of a table; `wrap` joins the last bin to the first.
+pub fn hot_range(t: &Tab, wrap: bool) -> Option<HotRange> {
+    let n = t.bins.len();
+    let tot = |i: usize| t.present[i] + t.missing[i];
+    let share = |i: usize| t.missing[i] as f64 / tot(i).max(1) as f64;
+    let (p, m) = t.totals();
+    let overall = m as f64 / (p + m).max(1) as f64;
+    let min_n = if (0..n).any(|i| tot(i) >= 5 && t.missing[i] > 0) {
+        5
+    } else {
+        1
+    };
+    let peak = (0..n)
+        .filter(|&i| tot(i) >= min_n && t.missing[i] > 0)
+        .max_by(|&a, &b| {
+            share(a)
+                .total_cmp(&share(b))
+                .then(t.missing[a].cmp(&t.missing[b]))
+        })?;
+    let top = share(peak);
+    let same = |i: usize| tot(i) > 0 && (share(i) - top).abs() <= 0.05;
+    let step = |i: usize, fwd: bool| -> Option<usize> {
+        match (fwd, wrap) {
+            (true, _) if i + 1 < n => Some(i + 1),
+            (true, true) => Some(0),
+            (false, _) if i > 0 => Some(i - 1),
+            (false, true) => Some(n - 1),
+            _ => None,
+        }
+    };
+    let (mut lo, mut hi, mut count) = (peak, peak, 1);
+    while count < n {
+        match step(hi, true).filter(|&j| same(j)) {
+            Some(j) => {
+                hi = j;
+                count += 1;
+            }
+            None => break,
+        }
+    }
+    while count < n {
+        match step(lo, false).filter(|&j| same(j)) {
+            Some(j) => {
+                lo = j;
+                count += 1;
+            }
+            None => break,
+        }
+    }
+    let (mut missing, mut total, mut first, mut last) = (0, 0, false, false);
+    let mut i = lo;
+    for _ in 0..count {
+        missing += t.missing[i];
+        total += tot(i);
+        first |= i == 0;
+        last |= i + 1 == n;
+        i = step(i, true).unwrap_or(i);
+    }
+    Some(HotRange {
+        bin: t.bins[lo].merge(&t.bins[hi]),
+        first,
+        last,
+        missing,
+        total,
+        ratio: if overall > 0.0 {
+            missing as f64 / total.max(1) as f64 / overall
+        } else {
+            0.0
+        },
+    })
+}
+
 fn describe(d: &Dataset, f: &Factor) -> String {
-    let Some((i, t)) = f.hot_bin() else {
+    let Some(h) = hot_range(&f.raw, f.kind == FactorKind::Hour && f.raw.bins.len() == 24) else {
         return f.label.clone();
     };
-    let b = &t.bins[i];
-    let last = i + 1 == t.bins.len();
-    let first = i == 0;
+    let b = &h.bin;
+    let (first, last) = (h.first, h.last);
     let share = format!(
-        "{} of {} intervals there missing, {:.1} times the average rate",
-        t.missing[i],
-        t.present[i] + t.missing[i],
-        t.ratio(i).unwrap_or(0.0)
+        "{:.0} % missing, {} of {} intervals, {:.1} times the average rate",
+        100.0 * h.missing as f64 / h.total.max(1) as f64,
+        h.missing,
+        h.total,
+        h.ratio
     );
     let unit = f.reference.map(|r| unit_of(d, r)).unwrap_or_default();
     let rid = f
@@ -826,12 +1033,11 @@ fn describe(d: &Dataset, f: &Factor) -> String {
             } else {
                 format!(
                     "values next to gaps lie in {what} more often than others ({which} {unit}: {} of {} intervals next to a gap)",
-                    t.missing[i],
-                    t.present[i] + t.missing[i]
+                    h.missing, h.total
                 )
             }
         }
-        FactorKind::Hour => format!("gaps concentrate at {} h UTC ({share})", b.label()),
+        FactorKind::Hour => format!("gaps concentrate at {} h UTC: {share}", b.label()),
         FactorKind::Month => format!("gaps concentrate in {} ({share})", b.label()),
         FactorKind::Sector => format!(
             "gaps concentrate with wind from {} at {rid} ({share})",
@@ -874,6 +1080,16 @@ fn bias_text(d: &Dataset, f: &Factor) -> Option<String> {
             "this channel"
         ),
     })
+}
+
+/// A small number for text: scientific notation with two significant digits
+/// below 0.001, else three decimals.
+pub fn sci(x: f64) -> String {
+    if x != 0.0 && x.abs() < 1e-3 {
+        format!("{x:.1e}")
+    } else {
+        format!("{x:.3}")
+    }
 }
 
 fn verdict(
@@ -923,7 +1139,8 @@ fn verdict(
         matches!(f.kind, FactorKind::Speed | FactorKind::NextToGap)
             && untested.contains(&f.kind.key())
     });
-    if testable.is_empty() {
+    let large: Vec<&Factor> = factors.iter().filter(|f| f.is_large_raw()).collect();
+    if testable.is_empty() && large.is_empty() {
         return (
             Verdict::TooFew,
             format!(
@@ -999,6 +1216,32 @@ fn verdict(
         s.push_str(&tail_note);
         return (Verdict::Possible, s);
     }
+    if let Some(f) = lead(&large) {
+        let (p, v) = f
+            .pooled
+            .as_ref()
+            .map_or((f64::NAN, f64::NAN), |(_, t)| (t.p_chi2, t.cramers_v));
+        let mut s = format!(
+            "POSSIBLE, too short to confirm: gaps may depend on {}: {}; the pooled table gives p {} and Cramer's V {v:.2}, but the gaps come in runs (mean {:.1} intervals), and the run-adjusted p {} does not confirm it",
+            f.label,
+            describe(d, &f),
+            sci(p),
+            f.mean_run,
+            f.p_adjusted.map_or("-".into(), sci)
+        );
+        s.push_str(&context);
+        s.push_str(&others(&large, &f));
+        s.push_str(&tail_note);
+        return (Verdict::Possible, s);
+    }
+    if testable.is_empty() {
+        return (
+            Verdict::TooFew,
+            format!(
+                "too few separate gaps to judge ({missing} missing intervals in {runs} runs; each test needs {MIN_RUNS}){context}"
+            ),
+        );
+    }
     let names: Vec<&str> = testable.iter().map(|f| f.kind.key()).collect();
     let text = format!(
         "no link to {} (p >= {P_WEAK} or Cramer's V < {V_MIN}){untested_note}{context}{tail_note}",
@@ -1009,6 +1252,22 @@ fn verdict(
         return (
             Verdict::TooFew,
             format!("not enough gaps to judge against wind speed: {text}"),
+        );
+    }
+    let weakest = testable
+        .iter()
+        .filter(|f| !f.is_powered())
+        .filter_map(|f| Some((f.kind.key(), f.detectable_v?)))
+        .max_by(|a, b| a.1.total_cmp(&b.1));
+    let unpowered = testable.iter().any(|f| !f.is_powered());
+    if unpowered {
+        let (key, v) = weakest.unwrap_or(("?", f64::NAN));
+        return (
+            Verdict::TooShort,
+            format!(
+                "too short to call random: {text}; but the tests could only have seen a strong dependence ({key}: V >= {v:.2} at {:.0} % power, the rule asks {V_DETECT})",
+                100.0 * POWER
+            ),
         );
     }
     (Verdict::Random, format!("gaps look random: {text}"))
@@ -1038,6 +1297,7 @@ pub fn tables(d: &Dataset, diags: &[Diagnosis]) -> [Table; 4] {
             ("pooled_cramers_v", "pooled V"),
             ("mean_run", "mean gap run"),
             ("p_adjusted", "adjusted p"),
+            ("detectable_v", "detectable V (80 % power)"),
         ],
     );
     let mut bins = Table::new(
@@ -1064,6 +1324,7 @@ pub fn tables(d: &Dataset, diags: &[Diagnosis]) -> [Table; 4] {
             ("mean_all", "mean, all"),
             ("mean_when_valid", "mean, channel valid"),
             ("bias", "bias"),
+            ("bias_above_mark", "bias above mark"),
             ("causes", "causes"),
             ("text", "in words"),
         ],
@@ -1107,6 +1368,7 @@ pub fn tables(d: &Dataset, diags: &[Diagnosis]) -> [Table; 4] {
                 num(p.map(|x| x.1.cramers_v), 3),
                 num(Some(f.mean_run), 2),
                 pval(f.p_adjusted),
+                num(f.detectable_v, 2),
             ]);
             for i in 0..f.raw.bins.len() {
                 if f.raw.present[i] + f.raw.missing[i] == 0 {
@@ -1123,11 +1385,7 @@ pub fn tables(d: &Dataset, diags: &[Diagnosis]) -> [Table; 4] {
                 ]);
             }
         }
-        let bias = g
-            .factors
-            .iter()
-            .find(|f| matches!(f.kind, FactorKind::Speed | FactorKind::NextToGap))
-            .and_then(|f| f.bias);
+        let bias = g.bias;
         let class = match g.verdict {
             Verdict::NotRandom => "below",
             Verdict::Possible => "warn",
@@ -1143,6 +1401,13 @@ pub fn tables(d: &Dataset, diags: &[Diagnosis]) -> [Table; 4] {
             num(bias.map(|b| b.all), 3),
             num(bias.map(|b| b.when_valid), 3),
             num(bias.map(|b| b.diff()), 3),
+            text(bias.map_or("", |b| {
+                if b.diff().abs() > BIAS_MARK {
+                    "yes"
+                } else {
+                    "no"
+                }
+            })),
             text(
                 g.causes
                     .iter()
@@ -1207,6 +1472,56 @@ mod tests {
         assert_eq!(p.bins.len(), 2);
         assert_eq!(p.bins[1].label(), ">= 1");
         assert_eq!(p.present, [70, 73]);
+    }
+
+    #[test]
+    fn power_of_the_chi_square_test() {
+        // One degree of freedom: the non-central chi-square with lambda is the
+        // square of a normal with mean sqrt(lambda), so the power at level
+        // alpha is Phi(sqrt(lambda) - z) + Phi(-sqrt(lambda) - z) with z the
+        // upper alpha/2 normal quantile; power 0.8 at alpha 0.01 needs
+        // lambda = (2.5758 + 0.8416)^2 = 11.679 (normal quantiles from
+        // memory; common practice in sample-size tables).
+        let lambda = noncentrality_for_power(0.01, 1, 0.8);
+        assert!((lambda - 11.679).abs() < 0.01, "{lambda}");
+        // The 1 % critical value of chi-square on 1 dof is 2.5758^2 = 6.635.
+        assert!((chi2_critical(0.01, 1) - 6.635).abs() < 1e-3);
+        // lambda 0 is the central distribution.
+        assert!((ncx2_upper_tail(6.635, 1, 0.0) - 0.01).abs() < 1e-4);
+        // More degrees of freedom need a larger lambda for the same power.
+        assert!(noncentrality_for_power(0.01, 4, 0.8) > lambda);
+        // n_eff 100 on 1 dof detects V = sqrt(11.679 / 100) = 0.342.
+        assert!((detectable_v(100.0, 1).unwrap() - 0.3417).abs() < 1e-3);
+    }
+
+    #[test]
+    fn hot_ranges_merge_neighbours_with_the_same_excess() {
+        // 24 hours, all present except 22-04 h where everything is missing:
+        // one range across midnight.
+        let mut present = vec![6u64; 24];
+        let mut missing = vec![0u64; 24];
+        for h in [22, 23, 0, 1, 2, 3] {
+            present[h] = 0;
+            missing[h] = 6;
+        }
+        let mut t = tab(&present, &missing);
+        for h in 0..24 {
+            t.bins[h] = Bin {
+                from: format!("{h:02}"),
+                to: format!("{:02}", h + 1),
+            };
+        }
+        let h = hot_range(&t, true).unwrap();
+        assert_eq!(h.bin.label(), "22-04");
+        assert_eq!((h.missing, h.total), (36, 36));
+        // Without wrapping, the range stops at the table's end.
+        let h = hot_range(&t, false).unwrap();
+        assert_eq!(h.bin.label(), "22-24");
+        // A speed table: the top two bins both lose about 95 %.
+        let t = tab(&[50, 50, 1, 1], &[0, 0, 19, 20]);
+        let h = hot_range(&t, false).unwrap();
+        assert_eq!(h.bin.label(), "2-4");
+        assert!(h.last && !h.first);
     }
 
     #[test]

@@ -12,9 +12,11 @@
 
 mod charts;
 mod data;
+mod events;
 mod html;
 mod missing;
 mod recovery;
+mod site;
 mod stats;
 mod table;
 mod wind;
@@ -96,9 +98,27 @@ struct Results {
     primary: Option<usize>,
     ti: Vec<wind::TiBin>,
     shear: Option<wind::Shear>,
+    outages: Vec<crate::outages::Outage>,
+    pairs: Vec<site::Pair>,
+    density: Option<site::Density>,
+    events: Vec<events::Event>,
 }
 
-fn compute(d: &data::Dataset, sectors: u16, rho: f64, reference: Option<usize>) -> Results {
+/// The campaign's events, when the station file names an events file.
+fn load_events(cfg: &config::StationFile) -> Result<Vec<events::Event>> {
+    match &cfg.events {
+        Some((path, line)) => events::read(&cfg.path, path, *line),
+        None => Ok(Vec::new()),
+    }
+}
+
+fn compute(
+    d: &data::Dataset,
+    sectors: u16,
+    rho: f64,
+    reference: Option<usize>,
+    events: Vec<events::Event>,
+) -> Results {
     let primary = missing::top_speed(d);
     Results {
         recovery: recovery::compute(d),
@@ -110,15 +130,26 @@ fn compute(d: &data::Dataset, sectors: u16, rho: f64, reference: Option<usize>) 
         ti: primary.map(|c| wind::turbulence(d, c)).unwrap_or_default(),
         primary,
         shear: wind::shear(d, sectors),
+        outages: site::outages(d),
+        pairs: site::pairs(d),
+        density: site::density(d),
+        events,
     }
 }
 
 /// The tables a report writes (`<name>.csv` in its folder, beside
 /// `report.html`): every file name is known before anything is read, so that
 /// none of them can be an input.
-pub const TABLES: [&str; 13] = [
+pub const TABLES: [&str; 20] = [
     "recovery",
     "recovery-joint",
+    "outages",
+    "monthly",
+    "month-hour",
+    "thresholds",
+    "redundant-pairs",
+    "air-density",
+    "events",
     "missing-tests",
     "missing-bins",
     "missing-verdicts",
@@ -172,8 +203,14 @@ pub fn run(a: &ReportArgs) -> Result<ExitCode> {
             ),
         },
     };
+    if let Some((ev, _)) = &cfg.events {
+        for f in files(&a.output) {
+            output::refuse_inputs(&f, &[("events file", ev.as_path())])?;
+        }
+    }
+    let ev = load_events(&cfg)?;
     let d = data::read(&cfg, &a.records)?;
-    let r = compute(&d, a.sectors, a.air_density, reference);
+    let r = compute(&d, a.sectors, a.air_density, reference, ev);
     let tables = tables(&d, &r, a.air_density);
     if let Some(t) = tables.iter().find(|t| !TABLES.contains(&t.name)) {
         bail!(
@@ -200,7 +237,7 @@ pub fn run(a: &ReportArgs) -> Result<ExitCode> {
 /// goes through here.
 pub fn render(cfg: &config::StationFile, a: &ReportArgs) -> Result<Vec<String>> {
     let d = data::read(cfg, &a.records)?;
-    let r = compute(&d, a.sectors, a.air_density, None);
+    let r = compute(&d, a.sectors, a.air_density, None, load_events(cfg)?);
     let tables = tables(&d, &r, a.air_density);
     let mut out: Vec<String> = tables.iter().map(Table::csv).collect();
     out.push(page(&d, &r, &tables, a)?);
@@ -214,7 +251,16 @@ fn tables(d: &data::Dataset, r: &Results, rho: f64) -> Vec<Table> {
     let mut v = vec![
         recovery::table(d, &r.recovery),
         recovery::joint_table(d, &r.recovery),
+        site::outage_table(d, &r.outages),
+        site::monthly_table(d),
+        site::thresholds_table(d),
+        site::pair_table(d, &r.pairs),
+        site::density_table(d, r.density.as_ref(), rho),
+        events::table(&r.events),
     ];
+    if let Some(c) = r.primary {
+        v.push(site::month_hour_table(d, c));
+    }
     v.extend(missing::tables(d, &r.diags));
     if let Some(rose) = &r.rose {
         v.extend(wind::rose_tables(rose));
@@ -281,8 +327,8 @@ fn page(d: &data::Dataset, r: &Results, tables: &[Table], a: &ReportArgs) -> Res
     );
     p.chart(
         "availability",
-        &charts::availability(d)?,
-        "Availability: red where an interval has no valid samples or no row at all, amber where it fails screening.",
+        &charts::availability(d, &r.events)?,
+        "Availability: red where an interval has no valid samples or no row at all, amber where it fails screening; numbered dashed lines are events (table in section 8).",
     );
     if let Some(t) = find(tables, "recovery") {
         p.raw(&t.html());
@@ -292,6 +338,19 @@ fn page(d: &data::Dataset, r: &Results, tables: &[Table], a: &ReportArgs) -> Res
         p.note("Intervals where the vane and its anemometer both pass screening.");
         p.raw(&t.html());
     }
+    if let Some(t) = find(tables, "outages") {
+        p.h3("Outages");
+        p.note("Runs of intervals that fail screening, per channel, merged across adjacent intervals and across channels with the same start, end and causes. Causes: no row (the records hold none), excluded (samples excluded by decision: n_excluded or the excluded flag), no valid samples, flagged (with the flags seen).");
+        if t.rows.len() > 25 {
+            p.details(&format!("{} outages (table)", t.rows.len()));
+            p.raw(&t.html());
+            p.end_details();
+        } else if t.rows.is_empty() {
+            p.note("No outages: every interval of every channel passes screening.");
+        } else {
+            p.raw(&t.html());
+        }
+    }
     p.end_section();
 
     // 2. Missing data.
@@ -299,8 +358,23 @@ fn page(d: &data::Dataset, r: &Results, tables: &[Table], a: &ReportArgs) -> Res
     p.p("A gap matters less by its size than by its cause. Data missing at random leave the mean of what remains unbiased; gaps that depend on the wind itself (an anemometer that drops out in storms, a vane that ices in the cold) bias it even when recovery looks fine (missing not at random, after Rubin 1976, Biometrika 63(3), 581-592). Each channel's missing intervals (no valid samples or failing screening) are tested against hour of day, month, wind speed from a reference anemometer, direction sector and temperature.");
     p.raw("<div class=\"verdicts\">");
     for g in &r.diags {
+        let bias = g.bias.map_or(String::new(), |b| {
+            let above = b.diff().abs() > missing::BIAS_MARK;
+            format!(
+                "<p class=\"bias{}\">bias estimate {:+.2} {} (on {}){}</p>",
+                if above { " above" } else { "" },
+                b.diff(),
+                esc(d.channels[b.reference].unit()),
+                esc(d.channels[b.reference].id()),
+                if above {
+                    format!(" &#9650; above {} m/s", missing::BIAS_MARK)
+                } else {
+                    String::new()
+                }
+            )
+        });
         p.raw(&format!(
-            "<div class=\"verdict\"><b>{}</b> <b class=\"tag {}\">{}</b><p>{}</p></div>",
+            "<div class=\"verdict\"><b>{}</b> <b class=\"tag {}\">{}</b>{bias}<p>{}</p></div>",
             esc(d.channels[g.channel].id()),
             g.verdict.code(),
             g.verdict.code().replace('_', " "),
@@ -309,10 +383,17 @@ fn page(d: &data::Dataset, r: &Results, tables: &[Table], a: &ReportArgs) -> Res
     }
     p.raw("</div>");
     p.note(&format!(
-        "Verdicts use the pooled tables (neighbouring bins merged until every bin expects 5 present and 5 missing intervals) with the chi-square divided by the mean run of consecutive missing intervals: \"not random\" at p < {} with Cramer's V >= {}, \"possible\" at p < {}. The thresholds are this report's choice.",
+        "Verdicts use the pooled tables (neighbouring bins merged until every bin expects 5 present and 5 missing intervals) with the chi-square divided by the mean run of consecutive missing intervals: \"not random\" at p < {} with Cramer's V >= {}, \"possible\" at p < {}. A large effect before that adjustment (p < {} and V >= {}) that the adjusted test cannot confirm is \"possible, too short to confirm\". \"Random\" needs power: every test at least {} separate gaps and {:.0} % power to see V = {} at p < {}; otherwise \"too short\". The bias estimate beside each verdict is a reference anemometer's mean where this channel passes minus its mean over all its passing intervals (screened 10-minute means, so it estimates the bias of the channel's mean of interval means, not of the raw sample mean); it is marked above {} m/s, about a good cup anemometer's calibration uncertainty (common practice). The thresholds are this report's choice.",
         missing::P_STRONG,
         missing::V_MIN,
-        missing::P_WEAK
+        missing::P_WEAK,
+        missing::P_STRONG,
+        missing::V_LARGE,
+        missing::MIN_RUNS,
+        100.0 * missing::POWER,
+        missing::V_DETECT,
+        missing::P_WEAK,
+        missing::BIAS_MARK
     ));
     if let Some(svg) = charts::missing_share(d, &r.diags, FactorKind::Speed)? {
         p.chart("missing-speed", &svg, "Share of intervals missing by reference wind speed (bins with at least 5 intervals). A flat line is what random gaps look like.");
@@ -452,13 +533,99 @@ fn page(d: &data::Dataset, r: &Results, tables: &[Table], a: &ReportArgs) -> Res
         }
         None => p.note("Shear needs two anemometers with different configured heights (height_m)."),
     }
-    p.h3("Overview");
-    if let Some(svg) = charts::time_series(d)? {
+    p.end_section();
+
+    // 5. Monthly and diurnal.
+    p.section("5", "monthly", "Monthly summary and diurnal profile");
+    p.p("Means are means of the interval means that pass screening; the largest gust is that of a passing interval. Interval recovery is passing intervals over the intervals of the month in the period.");
+    if let Some(t) = find(tables, "monthly") {
+        p.raw(&t.html());
+    }
+    if let Some(c) = r.primary {
+        if let Some(t) = find(tables, "month-hour") {
+            p.h3(&format!(
+                "Mean speed by month and hour of day (UTC) at {} (m/s)",
+                d.channels[c].id()
+            ));
+            p.note("Calendar months pooled over the years of the record; empty where no interval passes.");
+            p.raw(&t.html());
+        }
+    }
+    if let Some(svg) = charts::diurnal(d, &site::diurnal(d))? {
         p.chart(
-            "timeseries",
+            "diurnal",
             &svg,
-            "10-minute mean speeds that pass screening, over the period.",
+            "Diurnal profile: mean speed by hour of day (UTC) per anemometer, over the whole period.",
         );
+    }
+    p.end_section();
+
+    // 6. Redundant anemometers and air density.
+    p.section("6", "pairs", "Redundant anemometers and air density");
+    if r.pairs.is_empty() {
+        p.note("No redundant pair: a `partner` in a channel's [channel.screen] names one.");
+    }
+    for pr in &r.pairs {
+        p.h3(&format!(
+            "{} and {}",
+            d.channels[pr.a].id(),
+            d.channels[pr.b].id()
+        ));
+        if let Some(svg) = charts::pair(d, pr)? {
+            p.chart(
+                &format!("pair-{}-{}", d.channels[pr.a].id(), d.channels[pr.b].id()),
+                &svg,
+                "Interval means of the pair (intervals where neither carries a flag but partial, clock or pair_mismatch), the ordinary least-squares line of y on x and the 1:1 line.",
+            );
+        }
+    }
+    if let Some(t) = find(tables, "redundant-pairs").filter(|t| !t.rows.is_empty()) {
+        p.raw(&t.html());
+    }
+    p.h3("Air density");
+    match &r.density {
+        Some(x) => p.p(&format!(
+            "Air density per interval from the measured temperature ({}) and pressure ({}){}, with the ideal-gas formula as IEC 61400-12-1 uses it: rho = (1/T) (B/R0 - phi Pw (1/R0 - 1/Rw)), R0 = {} J/(kg K) for dry air, Rw = {} J/(kg K) for water vapour, Pw = 0.0000205 exp(0.0631846 T) Pa (constants from memory; common practice). Mean {}. Power density with it is 0.5 mean(rho v^3) over the intervals with both; the fixed --air-density {} kg/m3 is shown beside it.",
+            d.channels[x.temperature].id(),
+            d.channels[x.pressure].id(),
+            x.humidity
+                .map(|h| format!(" and relative humidity ({})", d.channels[h].id()))
+                .unwrap_or_else(|| ", dry air (no humidity channel)".into()),
+            site::R_DRY,
+            site::R_VAPOUR,
+            x.mean().map_or("-".into(), |m| format!("{m:.4} kg/m3")),
+            a.air_density
+        )),
+        None => p.p(&format!(
+            "The station has no pressure channel (a scalar with unit hPa, mbar, kPa or Pa) beside its temperature: power density uses the fixed --air-density {} kg/m3.",
+            a.air_density
+        )),
+    }
+    if let Some(t) = find(tables, "air-density") {
+        p.raw(&t.html());
+    }
+    p.end_section();
+
+    // 7. Screening thresholds.
+    p.section("7", "thresholds", "Screening thresholds in force");
+    p.p("Each channel's screening tests as the station file sets them: the value in force, the core's default for the channel's kind, whether the station file changed it, and where the default comes from.");
+    if let Some(t) = find(tables, "thresholds") {
+        p.raw(&t.html());
+    }
+    p.end_section();
+
+    // 8. Time series and events.
+    p.section("8", "timeseries", "Time series and events");
+    for (name, svg, caption) in charts::time_series(d, &r.events)? {
+        p.chart(&name, &svg, &caption);
+    }
+    match (&cfg_events_note(a), find(tables, "events")) {
+        (_, Some(t)) if !t.rows.is_empty() => {
+            p.h3("Events");
+            p.note("From the events file the station file names ([campaign] events); the numbers mark them on the time axes. Events outside the period are listed but not drawn.");
+            p.raw(&t.html());
+        }
+        (note, _) => p.note(note),
     }
     p.end_section();
     p.caution(CAUTION);
@@ -470,6 +637,10 @@ fn page(d: &data::Dataset, r: &Results, tables: &[Table], a: &ReportArgs) -> Res
             tables.len()
         ),
     ))
+}
+
+fn cfg_events_note(_a: &ReportArgs) -> String {
+    "No events: a station file lists site visits, maintenance and logger resets in a file named by `[campaign] events = \"FILE\"` (see REPORT.md).".into()
 }
 
 fn summary(
@@ -516,9 +687,38 @@ fn summary(
             pct((j.all.0 > 0).then(|| j.all.1 as f64 / j.all.0 as f64))
         )?;
     }
+    writeln!(
+        w,
+        "outages: {} runs of intervals failing screening (outages.csv){}",
+        r.outages.len(),
+        if r.events.is_empty() {
+            String::new()
+        } else {
+            format!("; events: {} (events.csv)", r.events.len())
+        }
+    )?;
     writeln!(w, "missing data:")?;
     for g in &r.diags {
-        writeln!(w, "  {:<10} {}", d.channels[g.channel].id(), g.text)?;
+        let bias = g.bias.map_or(String::new(), |b| {
+            format!(
+                " [bias estimate {:+.2} {} on {}{}]",
+                b.diff(),
+                d.channels[b.reference].unit(),
+                d.channels[b.reference].id(),
+                if b.diff().abs() > missing::BIAS_MARK {
+                    format!(", above {} m/s", missing::BIAS_MARK)
+                } else {
+                    String::new()
+                }
+            )
+        });
+        writeln!(
+            w,
+            "  {:<10} {}: {}{bias}",
+            d.channels[g.channel].id(),
+            g.verdict.code(),
+            g.text
+        )?;
     }
     if let Some(rose) = &r.rose {
         let top = (0..usize::from(rose.sectors)).max_by_key(|&s| rose.counts[s]);

@@ -41,13 +41,29 @@ pub fn int(n: impl Into<u64>) -> Cell {
     }
 }
 
-/// A number: CSV gets the shortest round-trip form, HTML `dp` decimals; empty
-/// when absent.
+/// A number in CSV: the shortest form that reads back to the same value, in
+/// scientific notation when tiny (below 1e-4) or huge, so that no field is
+/// a 300-digit decimal.
+pub fn csv_number(x: f64) -> String {
+    if x != 0.0 && (x.abs() < 1e-4 || x.abs() >= 1e15) {
+        format!("{x:e}")
+    } else {
+        format!("{x}")
+    }
+}
+
+/// A number: CSV gets the shortest round-trip form ([`csv_number`]), HTML
+/// `dp` decimals, or two significant digits in scientific notation when the
+/// decimals would show only zeros; empty when absent.
 pub fn num(v: Option<f64>, dp: usize) -> Cell {
     match v {
         Some(x) if x.is_finite() => Cell {
-            csv: format!("{x}"),
-            html: format!("{x:.dp$}"),
+            csv: csv_number(x),
+            html: if x != 0.0 && x.abs() < 0.5 * 10f64.powi(-(dp as i32)) {
+                format!("{x:.1e}")
+            } else {
+                format!("{x:.dp$}")
+            },
             class: None,
         },
         _ => Cell {
@@ -62,7 +78,7 @@ pub fn num(v: Option<f64>, dp: usize) -> Cell {
 pub fn pct(v: Option<f64>, dp: usize) -> Cell {
     match v {
         Some(x) if x.is_finite() => Cell {
-            csv: format!("{x}"),
+            csv: csv_number(x),
             html: format!("{:.dp$}&#8239;%", 100.0 * x),
             class: None,
         },
@@ -74,7 +90,7 @@ pub fn pct(v: Option<f64>, dp: usize) -> Cell {
 pub fn pval(v: Option<f64>) -> Cell {
     match v {
         Some(x) if x.is_finite() => Cell {
-            csv: format!("{x}"),
+            csv: csv_number(x),
             html: if x < 1e-3 {
                 format!("{x:.1e}")
             } else {
@@ -207,5 +223,15 @@ mod tests {
             "{h}"
         );
         assert!(h.contains("50.0&#8239;%"));
+        // Tiny numbers: scientific notation that reads back exactly in CSV,
+        // two significant digits in HTML (no 300-digit decimals).
+        let p = 2.333766480074161e-17;
+        let c = pval(Some(p));
+        assert_eq!(c.csv, "2.333766480074161e-17");
+        assert_eq!(c.csv.parse::<f64>().unwrap(), p);
+        assert_eq!(c.html, "2.3e-17");
+        assert_eq!(num(Some(1e-300), 3).csv, "1e-300");
+        assert_eq!(num(Some(0.0004), 2).html, "4.0e-4");
+        assert_eq!(num(Some(0.25), 2).csv, "0.25");
     }
 }
