@@ -154,10 +154,10 @@ base=$(flash "$out/footprint-base.elf")
 share=$(($(flash "$out/footprint-states.elf") - base))
 record_share=$(($(flash "$out/footprint-records.elf") - base))
 arm-none-eabi-nm -C "$out/footprint-base.elf" | awk '{ $1=""; $2=""; print substr($0,3) }' | sort -u >base.syms
-split() { # what ELF adds over footprint-base, by kind of symbol
+split() { # split ELF SHARE: what ELF adds over footprint-base, by kind of symbol
   arm-none-eabi-nm -S -C --radix=d "$1" | awk '
     NR==FNR { base[$0]=1; next }
-    $3 ~ /^[tTrRdD]$/ { size=$2+0; $1=""; $2=""; $3=""; n=substr($0,4);
+    $3 ~ /^[tTrRdDwW]$/ { size=$2+0; $1=""; $2=""; $3=""; n=substr($0,4);
       if (n in base) next;
       if (n ~ /Channel::new|validate|Sentinels::new|config_fingerprint|note_codes|cmath::|LayoutMem|types::channel|types::station|_defaults|tm_layout_build|_station$|fp_opt|fp_index|Crc32::word|libm::/) c="building the layout at run time (the C settings, Layout::rebuild)";
       else if (n ~ /^tm_|tenmin_qc::/) c="the C interface (tm_*, frames into the caller buffer)";
@@ -165,12 +165,14 @@ split() { # what ELF adds over footprint-base, by kind of symbol
       else if (n ~ /compiler_builtins|^__/) c="compiler-builtins (soft f64, 64-bit int, mem*)";
       else c="other";
       sum[c]+=size }
-    END { for (c in sum) printf "  %7d  %s\n", sum[c], c }' base.syms - | sort -rn
+    END { for (c in sum) { printf "  %7d  %s\n", sum[c], c; all += sum[c] }
+      printf "  %7d  %s\n", share - all, "without a symbol of its own (constants such as the placeholder layout a run-time build starts from, alignment)" }' \
+    share="$2" base.syms - | sort -rn
 }
 echo "footprint-states - footprint-base = $share B:"
-split "$out/footprint-states.elf"
+split "$out/footprint-states.elf" "$share"
 echo "footprint-records - footprint-base = $record_share B:"
-split "$out/footprint-records.elf"
+split "$out/footprint-records.elf" "$record_share"
 
 step "budgets table (Cortex-M0, thumbv6m-none-eabi, QEMU microbit; C logger)"
 num() { grep -F "budget: $1" budget-m0.txt | head -1 | sed -n "s/.*$2 *\([0-9]*\).*/\1/p"; }

@@ -419,7 +419,14 @@ impl Channel {
                 ch.dir_mul = cmath::round(step * 100.0 * 65_536.0) as i64;
                 ch.dir_add = cmath::round(offset * 100.0 * 65_536.0) as i64 + (1 << 15);
                 if ch.dir_mul > 0 && ch.dir_add >= 0 && ch.dir_add < 1 << 32 {
-                    let k = u32::MAX as i64 / ch.dir_mul;
+                    // In 32 bits (the same quotient: `step <= 300` keeps
+                    // `dir_mul` below 2^31), so a run-time validation (the C
+                    // interface's) links no 64-bit division.
+                    let k = if ch.dir_mul <= u32::MAX as i64 {
+                        (u32::MAX / ch.dir_mul as u32) as i64
+                    } else {
+                        0
+                    };
                     ch.dir_fast_k = min_i64(min_i64(k, ch.hi_k as i64), i32::MAX as i64) as i32;
                 }
                 // Within one turn either way; a whole turn is 0 once wrapped.

@@ -486,7 +486,9 @@ impl<const C: usize> Layout<C> {
         let interval_ms = station.interval_s as i64 * 1000;
         self.interval_ms = interval_ms;
         self.samples = n;
-        self.max_step_ms = 3 * interval_ms / (2 * n as i64);
+        // In 32 bits (the same quotient: 3 * 86,400,000 < 2^32 and n <= 2^24),
+        // so a run-time validation (the C interface's) links no 64-bit division.
+        self.max_step_ms = (3 * (interval_ms as u32) / (2 * n)) as i64;
         self.sentinels = sentinels;
         self.fingerprint = config_fingerprint(&station, channels);
         Ok(())

@@ -45,16 +45,14 @@ impl LayoutHead {
 }
 
 impl<const C: usize> LayoutMem<C> {
-    /// An empty layout block (not yet valid: `magic` is 0).
-    pub const EMPTY: Self = LayoutMem {
-        head: LayoutHead {
-            magic: 0,
-            capacity: 0,
-            gust: 0,
-            active: 0,
-            fingerprint: 0,
-        },
-        layout: Layout::PLACEHOLDER,
+    /// The head of an empty layout block (not yet valid: `magic` is 0); its
+    /// layout is [`Layout::PLACEHOLDER`].
+    pub const EMPTY_HEAD: LayoutHead = LayoutHead {
+        magic: 0,
+        capacity: 0,
+        gust: 0,
+        active: 0,
+        fingerprint: 0,
     };
 
     /// Validates the station into `self`, in place. On an error the block
