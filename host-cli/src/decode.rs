@@ -890,7 +890,7 @@ impl<const C: usize, W: Write> Decoder<'_, C, W> {
                 if !first.same_samples(&t) {
                     let id = |c: u8| self.ids.get(usize::from(c)).copied().unwrap_or("?");
                     bail!(
-                        "{}: byte {}: the frame of {} channel {} counts {} samples held (valid + missing + out of range + flagged) and {} rejected, but the frame of channel {} of the same interval (byte {at}) counts {} and {}: every sample is counted once on every channel, so these counts cannot come from a station",
+                        "{}: byte {}: the frame of {} channel {} counts {} samples held (valid + missing + out of range + flagged + excluded) and {} rejected, but the frame of channel {} of the same interval (byte {at}) counts {} and {}: every sample is counted once on every channel, so these counts cannot come from a station",
                         self.path.display(),
                         item.offset,
                         Rfc3339(self.layout.interval_start(k)),

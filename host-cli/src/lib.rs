@@ -15,6 +15,7 @@ pub mod decode;
 pub mod demo;
 pub mod draft;
 pub mod engine;
+pub mod exclusions;
 pub mod export;
 pub mod fuzzing;
 pub mod limits;

@@ -29,7 +29,7 @@ use qc_core::{ChannelRecord, Flag, StationConfig, Tally, Timestamp};
 
 use crate::engine::Sink;
 use crate::limits::{self, Capped};
-use crate::records::{ulp_distance, write_row, Type, COLUMNS, N_FLAGGED};
+use crate::records::{optional, ulp_distance, write_row, Type, COLUMNS, N_EXCLUDED, N_FLAGGED};
 use crate::timefmt::{parse_time_any as parse_time, Rfc3339};
 
 /// One difference found.
@@ -222,7 +222,7 @@ impl LoggerFile {
             .map(|c| names.iter().position(|n| n == c.name))
             .collect();
         for (k, (c, i)) in COLUMNS.iter().zip(&index).enumerate() {
-            if i.is_none() && k != N_FLAGGED {
+            if i.is_none() && !optional(k) {
                 report.add(Difference {
                     start: String::new(),
                     channel: String::new(),
@@ -278,6 +278,8 @@ impl LoggerFile {
             rejected: rejected.unwrap_or(0),
             // No column: a file from before flagged readings, 0.
             flagged: count(N_FLAGGED)?.unwrap_or(0),
+            // No column: a file from before exclusions, 0.
+            excluded: count(N_EXCLUDED)?.unwrap_or(0),
         };
         Some((n_possible, tally, full))
     }
@@ -305,7 +307,7 @@ impl LoggerFile {
             match first {
                 None => first = Some((row, t)),
                 Some((r0, t0)) if !t0.same_samples(&t) => bail!(
-                    "{}:{}: {} {}: {} samples held (n_valid + n_missing + n_out_of_range + n_flagged) and {} rejected, but {} of the same interval (line {}) has {} and {}: every sample is counted once on every channel, so these counts cannot come from a station",
+                    "{}:{}: {} {}: {} samples held (n_valid + n_missing + n_out_of_range + n_flagged + n_excluded) and {} rejected, but {} of the same interval (line {}) has {} and {}: every sample is counted once on every channel, so these counts cannot come from a station",
                     self.path.display(),
                     row.line,
                     group.start,
@@ -464,7 +466,7 @@ impl Comparer {
             let b = match self.logger.index[k] {
                 Some(j) => theirs.fields.get(j).map_or("", String::as_str),
                 // A file from before the column: no flagged readings.
-                None if k == N_FLAGGED => "0",
+                None if optional(k) => "0",
                 None => continue,
             };
             let a = ours.get(k).copied().unwrap_or("");
