@@ -1188,6 +1188,10 @@ pub fn run(a: &crate::DecodeArgs) -> Result<ExitCode> {
     let decoded = crate::output::write_to(a.output.as_deref(), "records", |w| {
         decode(&cfg, log, &a.log, w, a.max_gap_days)
     })?;
+    if let Some(out) = &a.output {
+        let used = crate::provenance::inputs(&cfg, "log", [a.log.as_path()]);
+        crate::provenance::write(out, &cfg, &used)?;
+    }
     if !a.quiet || decoded.damaged() {
         let _ = decoded.write(&mut io::stderr().lock(), &a.log);
     }

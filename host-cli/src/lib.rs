@@ -24,6 +24,7 @@ pub mod logscan;
 pub mod options;
 pub mod output;
 pub mod parallel;
+pub mod provenance;
 pub mod reader;
 pub mod records;
 pub mod replay;
@@ -376,14 +377,28 @@ pub struct InputArgs {
 #[derive(Args, Debug)]
 pub struct VerifyArgs {
     /// Station file (TOML).
-    #[arg(long, short = 'c', value_name = "STATION.toml")]
-    config: PathBuf,
+    #[arg(
+        long,
+        short = 'c',
+        value_name = "STATION.toml",
+        required_unless_present = "provenance"
+    )]
+    config: Option<PathBuf>,
     /// Samples CSV files, replayed in this order as one record.
-    #[arg(long, required = true, num_args = 1.., value_name = "SAMPLES")]
+    #[arg(long, required_unless_present = "provenance", num_args = 1.., value_name = "SAMPLES")]
     samples: Vec<PathBuf>,
     /// The logger's records CSV.
-    #[arg(long, value_name = "LOGGER.csv")]
-    records: PathBuf,
+    #[arg(
+        long,
+        value_name = "LOGGER.csv",
+        required_unless_present = "provenance"
+    )]
+    records: Option<PathBuf>,
+    /// Instead of replaying: check that a records file (or report, or decoded log) and
+    /// every input its provenance file (OUTPUT.provenance.json, beside it) names still
+    /// have the recorded size and SHA-256. Give the output or its provenance file.
+    #[arg(long, value_name = "OUTPUT", conflicts_with_all = ["config", "samples", "records"])]
+    provenance: Option<PathBuf>,
     /// List at most this many differences (the rest are counted).
     #[arg(long, default_value_t = 20, value_name = "N", allow_negative_numbers = true,
           value_parser = options::whole::<usize>(0, u32::MAX as u64))]
@@ -472,12 +487,24 @@ fn replay_cmd(a: ReplayArgs) -> Result<ExitCode> {
         output::refuse_inputs(out, &inputs(&a.config, "samples file", &a.samples))?;
     }
     let cfg = config::load(&a.config)?;
+    let used = provenance::inputs(&cfg, "samples", a.samples.iter().map(PathBuf::as_path));
+    if let Some(out) = &a.output {
+        let named: Vec<(&str, &Path)> = used
+            .iter()
+            .map(|(r, p)| (r.as_str(), p.as_path()))
+            .collect();
+        output::refuse_inputs(out, &named)?;
+        output::refuse_inputs(&provenance::path_for(out), &named)?;
+    }
     let summary = output::write_to(a.output.as_deref(), "records", |w| {
         let mut writer = records::Writer::new(w, ids(&cfg))?;
         let s = replay::replay(&cfg, &a.samples, options(&a.input), &mut writer)?;
         writer.finish()?;
         Ok(s)
     })?;
+    if let Some(out) = &a.output {
+        provenance::write(out, &cfg, &used)?;
+    }
     if !a.input.quiet {
         let _ = summary.write(&mut io::stderr().lock(), &cfg);
     }
@@ -493,15 +520,24 @@ fn inputs<'a>(config: &'a Path, what: &'a str, files: &'a [PathBuf]) -> Vec<(&'a
 }
 
 fn verify_cmd(a: VerifyArgs) -> Result<ExitCode> {
-    let cfg = config::load(&a.config)?;
-    let mut cmp = verify::Comparer::open(&a.records, cfg.station, ids(&cfg), a.max_diffs)?;
+    if let Some(p) = &a.provenance {
+        return verify::provenance(p);
+    }
+    let (Some(config), Some(records)) = (&a.config, &a.records) else {
+        anyhow::bail!("verify needs --config, --samples and --records, or --provenance");
+    };
+    let mut cfg = config::load(config)?;
+    // A logger's records: a logger knows no exclusions, so the replay here
+    // applies none (CONTRACT.md, Verify).
+    cfg.exclusions = Default::default();
+    let mut cmp = verify::Comparer::open(records, cfg.station, ids(&cfg), a.max_diffs)?;
     let summary = replay::replay(&cfg, &a.samples, options(&a.input), &mut cmp)?;
     let report = cmp.finish()?;
     if !a.input.quiet {
         let _ = summary.write(&mut io::stderr().lock(), &cfg);
     }
     let mut out = output::Output::stdout("the comparison");
-    verify::print_report(&mut out, &report, &a.records)?;
+    verify::print_report(&mut out, &report, records)?;
     out.finish()?;
     Ok(if report.total == 0 {
         ExitCode::SUCCESS

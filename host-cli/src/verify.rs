@@ -21,8 +21,9 @@
 
 use std::fmt;
 use std::fs::File;
-use std::io::BufReader;
+use std::io::{BufReader, Write};
 use std::path::{Path, PathBuf};
+use std::process::ExitCode;
 
 use anyhow::{anyhow, bail, Context, Result};
 use qc_core::{ChannelRecord, Flag, StationConfig, Tally, Timestamp};
@@ -644,4 +645,51 @@ mod tests {
         .is_none());
         assert_eq!(differs(Type::Text, "a", "b"), Some(None));
     }
+}
+
+/// `tenmin verify --provenance OUTPUT`: checks `OUTPUT` (or, given a
+/// provenance file, the output it names) and every input its provenance file
+/// names against their recorded sizes and SHA-256; prints one line per file.
+/// Exit 1 when any changed or is gone; a provenance file that cannot be read
+/// is an error (exit 2).
+pub fn provenance(given: &Path) -> Result<ExitCode> {
+    use crate::provenance::{check, path_for};
+    let is_prov = given
+        .file_name()
+        .is_some_and(|n| n.to_string_lossy().ends_with(".provenance.json"));
+    let (prov, output) = if is_prov {
+        (given.to_path_buf(), None)
+    } else {
+        (path_for(given), Some(given))
+    };
+    let c = check(&prov, output)?;
+    let mut out = crate::output::Output::stdout("the provenance check");
+    for (what, p) in &c.same {
+        writeln!(out, "same     {what}: {}", p.display())?;
+    }
+    for (what, p, why) in &c.changed {
+        writeln!(out, "CHANGED  {what}: {}: {why}", p.display())?;
+    }
+    if c.changed.is_empty() {
+        writeln!(
+            out,
+            "{}: the output and all {} inputs match their provenance",
+            prov.display(),
+            c.same.len() - 1
+        )?;
+    } else {
+        writeln!(
+            out,
+            "{}: {} of {} files changed or are gone since the output was written",
+            prov.display(),
+            c.changed.len(),
+            c.changed.len() + c.same.len()
+        )?;
+    }
+    out.finish()?;
+    Ok(if c.changed.is_empty() {
+        ExitCode::SUCCESS
+    } else {
+        ExitCode::from(1)
+    })
 }

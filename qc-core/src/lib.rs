@@ -129,6 +129,9 @@
 #![forbid(unsafe_code)]
 #![deny(missing_docs)]
 
+/// This crate's version (`Cargo.toml`), for provenance records.
+pub const VERSION: &str = env!("CARGO_PKG_VERSION");
+
 pub mod analysis;
 pub mod angle;
 mod channel;
