@@ -135,7 +135,12 @@ pub enum Command {
 files, replayed in the order given as one continuous record: duplicate and backward times \
 are rejected and counted by the core, also across files. Intervals with no samples are \
 written as rows with empty statistics. A summary (rows read, rejections, per-channel \
-recovery) goes to stderr.",
+recovery) goes to stderr.\n\n\
+Readings the station file's exclusions file covers ([campaign] exclusions) are counted \
+`excluded` and left out of every statistic. With -o, RECORDS.csv.provenance.json is written \
+beside the records: tool and core versions, the command line, the configuration fingerprint \
+and the SHA-256 and size of every input and of the records (check it later with \
+`tenmin verify --provenance RECORDS.csv`); records to stdout get none.",
         after_long_help = concat!(
             "Example:\n  tenmin replay --config station.toml day-2025-01-20.csv day-2025-01-21.csv -o records.csv\n\n",
 formats!(),
@@ -150,11 +155,15 @@ formats!(),
 file written by the logger. Numbers must have identical bits; a difference is listed with \
 the interval start, channel, field, both values and how many units in the last place (ulps) \
 they are apart. Missing and extra rows are differences too. The logger's file must be in \
-time order; channels within an interval may come in any order.",
+time order; channels within an interval may come in any order. A logger knows no \
+exclusions, so the replay here applies none.\n\n\
+With --provenance OUTPUT instead: check that a records file, decoded log or report and every \
+input named in its provenance file (OUTPUT.provenance.json) still have the recorded size and \
+SHA-256; one line per file, exit 1 naming a file that changed.",
         after_long_help = concat!(
-            "Example:\n  tenmin verify --config station.toml --samples day-*.csv --records logger-records.csv\n\n",
+            "Examples:\n  tenmin verify --config station.toml --samples day-*.csv --records logger-records.csv\n  tenmin verify --provenance records.csv\n\n",
             "Files: as for `tenmin replay --help`; --records is a records CSV.\n\n",
-            "Exit codes:\n  0  every field of every row identical\n  1  differences found (listed on stdout)\n  2  bad input, bad usage or an I/O error (the message names file, line and field)"
+            "Exit codes:\n  0  every field of every row identical (--provenance: every file unchanged)\n  1  differences found (listed on stdout; --provenance: a file changed or is gone)\n  2  bad input, bad usage or an I/O error (the message names file, line and field); an\n     unreadable provenance file"
         )
     )]
     Verify(VerifyArgs),
@@ -182,7 +191,8 @@ is written whole or not at all.\n\n",
 one self-contained page with SVG charts: recovery per channel and month against the usual 90 % target, \
 missing-data diagnostics (are gaps independent of hour, month, wind speed, direction and temperature?), \
 the wind rose, the speed distribution with its Weibull fit, turbulence intensity against the IEC 61400-1 \
-normal turbulence model, and wind shear. The tables go to DIR as CSV files; a short summary goes to stdout. \
+normal turbulence model, and wind shear. The tables go to DIR as CSV files; a short summary goes to stdout; \
+DIR/report.html.provenance.json names the records and station files read, with their SHA-256. \
 See host-cli/REPORT.md.",
         after_long_help = concat!(
             "Example:\n  tenmin report --config station.toml records.csv -o report --sectors 12\n\n",
@@ -238,7 +248,9 @@ behind everything read (a log written twice) are left out. Intervals with no sam
 as the replay writes them only between two frames that agree on sequence and time; where frames \
 were lost or left out, or the log's first or last interval jumps with nothing before or after it \
 to confirm the time, the intervals without frames are not written, and `tenmin verify` lists them as missing. \
-Frames that do not match the station file are an error.",
+Frames that do not match the station file are an error. With -o, RECORDS.csv.provenance.json \
+beside the records names the log, the station file and its side files with their SHA-256 \
+(see `tenmin verify --provenance`).",
         after_long_help = concat!(
             "Example:\n  tenmin decode --config station.toml logger.log -o records.csv\n  tenmin verify --config station.toml --samples day-*.csv --records records.csv\n\n",
             "Exit codes:\n  0  the log was read (damage, if any, reported on stderr)\n  1  with --strict: damaged, torn, lost, out-of-order, glitched, repeated or unchecked\n     (version 1) frames, a first sequence number other than 0, intervals left unknown, or an\n     interval of a state log without some channels' states (records still written)\n  2  bad input, bad usage or an I/O error; frames that do not match the station file (a log of\n     another configuration or channel count); counts no station makes; a log mixing record and\n     state frames"

@@ -158,7 +158,9 @@ fn demo_report_calls_the_planted_dropout_not_random() {
     );
     std::fs::write(
         d.join("nopair.toml"),
-        toml.replace("partner = \"ws80b\"\n", ""),
+        // (the side file named relative to the station file: it moved here)
+        toml.replace("partner = \"ws80b\"\n", "")
+            .replace("\"exclusions.csv\"", "\"demo/exclusions.csv\""),
     )
     .unwrap();
     let mut samples: Vec<String> = std::fs::read_dir(d.join("demo"))

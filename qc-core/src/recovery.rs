@@ -101,7 +101,7 @@ impl Totals {
 /// them in 32 bits already ([`Tally`]). The adds saturate, so that a caller
 /// outside those bounds gets a capped count, never a wrapped one or a panic.
 /// The possible samples are not stored: they are the intervals times the
-/// samples per interval ([`SinceStart::samples`]).
+/// samples per interval (kept in [`SinceStart`]).
 #[derive(Clone, Copy, Debug, Default, PartialEq, Eq, Hash)]
 #[cfg_attr(feature = "defmt", derive(defmt::Format))]
 struct MonthTotals {
@@ -159,15 +159,24 @@ impl MonthTotals {
     }
 }
 
+/// Bits of [`SinceStart::span`] holding the interval count: 2^39 intervals of
+/// the shortest interval, 1 s, are 17,400 years, more than the supported
+/// years 0000 to 9999 hold.
+const INTERVAL_BITS: u32 = 39;
+const INTERVAL_MASK: u64 = (1 << INTERVAL_BITS) - 1;
+/// Largest samples per interval the span holds (25 bits; the station allows
+/// at most [`crate::MAX_SAMPLES_PER_INTERVAL`] = 2^24).
+const SAMPLES_MAX: u32 = (1 << (64 - INTERVAL_BITS)) - 1;
+
 /// Totals since start as [`Recovery`] keeps them: the sample counts that a
 /// fast logger can push past 2^32 in 64 bits; the samples rejected for their
-/// timestamp, the readings excluded by decision and the interval counts in 32
-/// bits, saturating (2^32 intervals of 1 s are 136 years; 2^32 excluded
-/// readings are 6.8 years of exclusions at 20 Hz), so that a channel's
-/// recovery stays 88 bytes. The possible samples are the intervals times the
-/// samples per interval, which every interval of a station shares (the
-/// layout's), so that they take 4 bytes here instead of 8 here and 4 a month.
-/// The month key sits here too.
+/// timestamp, the readings excluded by decision and the passed intervals in
+/// 32 bits, saturating (2^32 excluded readings are 6.8 years of exclusions at
+/// 20 Hz). The possible samples are not stored: they are the intervals times
+/// the samples per interval, which every interval of a station shares (the
+/// layout's); both sit in one 64-bit `span` (intervals in the low 39 bits,
+/// samples per interval in the high 25), so that a channel's recovery stays
+/// 88 bytes with the excluded counts in it. The month key sits here too.
 #[derive(Clone, Copy, Debug, Default, PartialEq, Eq, Hash)]
 #[cfg_attr(feature = "defmt", derive(defmt::Format))]
 struct SinceStart {
@@ -175,12 +184,12 @@ struct SinceStart {
     missing: u64,
     out_of_range: u64,
     flagged: u64,
+    /// Intervals (low [`INTERVAL_BITS`] bits, saturating) and samples per
+    /// interval at the nominal rate, as last given (the bits above).
+    span: u64,
     rejected: u32,
     excluded: u32,
-    intervals: u32,
     passed: u32,
-    /// Samples per interval at the nominal rate, as last given.
-    samples: u32,
     /// `year * 12 + month - 1` of the month [`Recovery::this_month`] counts,
     /// plus 1; 0 before any.
     month_key: u32,
@@ -192,16 +201,30 @@ impl SinceStart {
         missing: 0,
         out_of_range: 0,
         flagged: 0,
+        span: 0,
         rejected: 0,
         excluded: 0,
-        intervals: 0,
         passed: 0,
-        samples: 0,
         month_key: 0,
     };
 
-    fn add(&mut self, t: &Tally, passed: bool) {
-        self.intervals = self.intervals.saturating_add(1);
+    const fn intervals(&self) -> u64 {
+        self.span & INTERVAL_MASK
+    }
+
+    const fn samples(&self) -> u32 {
+        (self.span >> INTERVAL_BITS) as u32
+    }
+
+    /// Sets the samples per interval and adds `n` intervals (saturating).
+    fn add_intervals(&mut self, samples: u32, n: u64) {
+        let i = self.intervals().saturating_add(n).min(INTERVAL_MASK);
+        let s = u64::from(samples.min(SAMPLES_MAX));
+        self.span = s << INTERVAL_BITS | i;
+    }
+
+    fn add(&mut self, samples: u32, t: &Tally, passed: bool) {
+        self.add_intervals(samples, 1);
         self.passed = self.passed.saturating_add(u32::from(passed));
         self.valid += u64::from(t.valid);
         self.missing += u64::from(t.missing);
@@ -213,14 +236,14 @@ impl SinceStart {
 
     const fn totals(&self) -> Totals {
         Totals {
-            possible: self.intervals as u64 * self.samples as u64,
+            possible: self.intervals() * self.samples() as u64,
             valid: self.valid,
             missing: self.missing,
             out_of_range: self.out_of_range,
             rejected: self.rejected as u64,
             flagged: self.flagged,
             excluded: self.excluded as u64,
-            intervals: self.intervals as u64,
+            intervals: self.intervals(),
             passed: self.passed as u64,
         }
     }
@@ -244,15 +267,16 @@ impl Recovery {
         }
     }
 
-    /// Since the first interval. The samples rejected for their timestamp
-    /// and the interval counts saturate at `u32::MAX`.
+    /// Since the first interval. The samples rejected for their timestamp,
+    /// the excluded readings and the passed intervals saturate at `u32::MAX`,
+    /// the intervals at 2^39 - 1.
     pub const fn since_start(&self) -> Totals {
         self.since.totals()
     }
 
     /// For the calendar month of the latest interval ([`Recovery::month`]).
     pub const fn this_month(&self) -> Totals {
-        self.month_totals.totals(self.since.samples)
+        self.month_totals.totals(self.since.samples())
     }
 
     /// The month [`Recovery::this_month`] counts, if any interval was added.
@@ -291,8 +315,7 @@ impl Recovery {
     /// value, the latest given, and counts possible samples as intervals times
     /// that value.
     pub fn add_interval_in(&mut self, month: Month, possible: u32, t: &Tally, passed: bool) {
-        self.since.samples = possible;
-        self.since.add(t, passed);
+        self.since.add(possible, t, passed);
         self.enter_month(month);
         self.month_totals.add(t, passed);
     }
@@ -303,9 +326,7 @@ impl Recovery {
         if count == 0 {
             return;
         }
-        self.since.samples = possible;
-        let n = u32::try_from(count).unwrap_or(u32::MAX);
-        self.since.intervals = self.since.intervals.saturating_add(n);
+        self.since.add_intervals(possible, count);
         let last = first.millis() + (count as i64 - 1) * interval_ms;
         let month = Timestamp::from_millis(last).month();
         let from = first.millis().max(month.start().millis());

@@ -2544,9 +2544,10 @@ mod tests {
                     (_, 3) => Reading::Value(-999.0),
                     (_, 4) => Reading::Value(1e6),
                     (_, 5) => Reading::Flagged,
-                    (0..=2, 6..=50) => Reading::Counts((800.0 + 400.0 * u) as i32),
+                    (_, 6) => Reading::Excluded,
+                    (0..=2, 7..=50) => Reading::Counts((800.0 + 400.0 * u) as i32),
                     (0..=2, _) => Reading::Value(6.0 + 5.0 * u),
-                    (3 | 4, 6..=50) => Reading::Counts((u * 36_000.0) as i32),
+                    (3 | 4, 7..=50) => Reading::Counts((u * 36_000.0) as i32),
                     (3 | 4, _) => Reading::Value(250.0 + 60.0 * u),
                     (5, _) => Reading::Value(-2.0 + 4.0 * u),
                     _ => Reading::Value(80.0 + 20.0 * u),
@@ -2927,6 +2928,7 @@ mod tests {
             any::<i32>().prop_map(Reading::Counts),
             Just(Reading::Missing),
             Just(Reading::Flagged),
+            Just(Reading::Excluded),
         ];
         proptest::collection::vec(one, 3..=3)
     }
