@@ -618,35 +618,6 @@ pub fn print_report(w: &mut dyn std::io::Write, r: &Report, logger: &Path) -> st
     Ok(())
 }
 
-#[cfg(test)]
-mod tests {
-    use super::*;
-
-    #[test]
-    fn field_comparison() {
-        assert!(differs(Type::Number, "8", "8.0").is_none());
-        assert!(differs(Type::Number, "", "").is_none());
-        assert_eq!(differs(Type::Number, "", "8"), Some(None));
-        assert_eq!(
-            differs(Type::Number, "1", "1.0000000000000002"),
-            Some(Some(1))
-        );
-        assert_eq!(differs(Type::Number, "0", "-0"), Some(Some(1)));
-        assert!(differs(Type::Count, "600", "0600").is_none());
-        assert_eq!(differs(Type::Count, "600", "599"), Some(None));
-        assert!(differs(Type::Flags, "partial|clock", "clock|partial").is_none());
-        assert_eq!(differs(Type::Flags, "partial", ""), Some(None));
-        assert_eq!(differs(Type::Flags, "partial", "bogus"), Some(None));
-        assert!(differs(
-            Type::Time,
-            "2025-01-20T00:00:00Z",
-            "2025-01-20T01:00:00+01:00"
-        )
-        .is_none());
-        assert_eq!(differs(Type::Text, "a", "b"), Some(None));
-    }
-}
-
 /// `tenmin verify --provenance OUTPUT`: checks `OUTPUT` (or, given a
 /// provenance file, the output it names) and every input its provenance file
 /// names against their recorded sizes and SHA-256; prints one line per file.
@@ -692,4 +663,33 @@ pub fn provenance(given: &Path) -> Result<ExitCode> {
     } else {
         ExitCode::from(1)
     })
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn field_comparison() {
+        assert!(differs(Type::Number, "8", "8.0").is_none());
+        assert!(differs(Type::Number, "", "").is_none());
+        assert_eq!(differs(Type::Number, "", "8"), Some(None));
+        assert_eq!(
+            differs(Type::Number, "1", "1.0000000000000002"),
+            Some(Some(1))
+        );
+        assert_eq!(differs(Type::Number, "0", "-0"), Some(Some(1)));
+        assert!(differs(Type::Count, "600", "0600").is_none());
+        assert_eq!(differs(Type::Count, "600", "599"), Some(None));
+        assert!(differs(Type::Flags, "partial|clock", "clock|partial").is_none());
+        assert_eq!(differs(Type::Flags, "partial", ""), Some(None));
+        assert_eq!(differs(Type::Flags, "partial", "bogus"), Some(None));
+        assert!(differs(
+            Type::Time,
+            "2025-01-20T00:00:00Z",
+            "2025-01-20T01:00:00+01:00"
+        )
+        .is_none());
+        assert_eq!(differs(Type::Text, "a", "b"), Some(None));
+    }
 }
