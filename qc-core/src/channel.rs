@@ -681,9 +681,11 @@ impl Tally {
 /// One channel's sample counts in an interval, as the accumulators keep them:
 /// a [`Tally`] without the samples rejected for their timestamp, which the
 /// interval counts once for all its channels ([`crate::IntervalAcc::reject`]),
-/// and without the excluded readings, which the interval counts per channel
-/// beside the accumulators (`IntervalAcc::excluded`: inside a speed
-/// accumulator a fifth count would cost 8 bytes a channel in alignment).
+/// and without the excluded readings: every accepted sample holds one reading
+/// of every channel, so a channel's excluded readings are the interval's
+/// accepted samples minus the four counts here (`IntervalAcc::accepted`, one
+/// count for all channels, as `rejected`: a fifth count here would cost 8
+/// bytes a channel in alignment, and the per-sample path nothing).
 #[derive(Clone, Copy, Debug, Default, PartialEq, Eq, Hash)]
 #[cfg_attr(feature = "defmt", derive(defmt::Format))]
 pub(crate) struct Counts {
@@ -731,15 +733,23 @@ impl Counts {
         self.flagged = self.flagged.saturating_add(o.flagged);
     }
 
-    /// Counts `c`; an excluded reading in `excluded` (the interval's count
-    /// of the channel).
-    fn count(&mut self, c: Class, excluded: &mut u32) {
+    /// The readings counted here: valid, missing, out of range and flagged.
+    pub(crate) const fn counted(&self) -> u32 {
+        self.valid
+            .saturating_add(self.missing)
+            .saturating_add(self.out_of_range)
+            .saturating_add(self.flagged)
+    }
+
+    /// Counts `c`. An excluded reading is counted by difference: the
+    /// interval's accepted samples minus [`Counts::counted`].
+    fn count(&mut self, c: Class) {
         let slot = match c {
             Class::Valid(_) => &mut self.valid,
             Class::Missing => &mut self.missing,
             Class::OutOfRange => &mut self.out_of_range,
             Class::Flagged => &mut self.flagged,
-            Class::Excluded => excluded,
+            Class::Excluded => return,
         };
         *slot = slot.saturating_add(1);
     }
@@ -985,8 +995,8 @@ impl<const G: usize> Slot<G> {
     };
 
     /// Classifies one reading of `ch` and adds it, with its spike check;
-    /// `speed` gives the linked speed's class, if any; an excluded reading
-    /// is counted in `excluded` (the interval keeps that count per channel).
+    /// `speed` gives the linked speed's class, if any (an excluded reading is
+    /// counted by difference, see [`Counts::count`]).
     ///
     /// One out-of-line function per kind of channel with everything else
     /// inlined into it, and the rare paths (engineering values, readings out of
@@ -999,15 +1009,14 @@ impl<const G: usize> Slot<G> {
         r: &Reading,
         codes: &crate::Sentinels,
         speed: impl FnOnce() -> Option<Class>,
-        excluded: &mut u32,
     ) {
         match self.acc {
-            ChannelAcc::Speed(_) => push_speed(self, ch, r, codes, excluded),
+            ChannelAcc::Speed(_) => push_speed(self, ch, r, codes),
             ChannelAcc::Direction(_) => {
-                push_direction(self, ch, r, codes, excluded);
+                push_direction(self, ch, r, codes);
             }
             ChannelAcc::LinkedDirection(_) => {
-                if let Some((s, c)) = push_direction(self, ch, r, codes, excluded) {
+                if let Some((s, c)) = push_direction(self, ch, r, codes) {
                     if let (Some(Class::Valid(q)), ChannelAcc::LinkedDirection(a)) =
                         (speed(), &mut self.acc)
                     {
@@ -1015,7 +1024,7 @@ impl<const G: usize> Slot<G> {
                     }
                 }
             }
-            ChannelAcc::Scalar(_) => push_scalar(self, ch, r, codes, excluded),
+            ChannelAcc::Scalar(_) => push_scalar(self, ch, r, codes),
         }
     }
 
@@ -1033,7 +1042,6 @@ fn push_speed<const G: usize>(
     ch: &Channel,
     r: &Reading,
     codes: &crate::Sentinels,
-    excluded: &mut u32,
 ) {
     let Slot {
         acc: ChannelAcc::Speed(a),
@@ -1043,7 +1051,7 @@ fn push_speed<const G: usize>(
         return;
     };
     let class = ch.classify_linear(*r, codes);
-    a.counts.count(class, excluded);
+    a.counts.count(class);
     match class {
         Class::Valid(q) => {
             a.moments.push(q);
@@ -1066,7 +1074,6 @@ fn push_scalar<const G: usize>(
     ch: &Channel,
     r: &Reading,
     codes: &crate::Sentinels,
-    excluded: &mut u32,
 ) {
     let Slot {
         acc: ChannelAcc::Scalar(a),
@@ -1076,7 +1083,7 @@ fn push_scalar<const G: usize>(
         return;
     };
     let class = ch.classify_linear(*r, codes);
-    a.counts.count(class, excluded);
+    a.counts.count(class);
     match class {
         Class::Valid(q) => {
             a.moments.push(q);
@@ -1096,7 +1103,6 @@ fn push_direction<const G: usize>(
     ch: &Channel,
     r: &Reading,
     codes: &crate::Sentinels,
-    excluded: &mut u32,
 ) -> Option<(i32, i32)> {
     let (tally, sums) = match &mut slot.acc {
         ChannelAcc::Direction(a) => (&mut a.counts, &mut a.sums),
@@ -1104,7 +1110,7 @@ fn push_direction<const G: usize>(
         _ => return None,
     };
     let class = ch.classify_direction(*r, codes);
-    tally.count(class, excluded);
+    tally.count(class);
     match class {
         Class::Valid(cd) => {
             if ch.spike_lim != u32::MAX {

@@ -540,7 +540,7 @@ impl<const C: usize> Layout<C> {
             .speed_channel
             .and_then(|s| self.channels.get(usize::from(s)));
         let slot = acc.slots.get(ch)?;
-        let excluded = acc.excluded.get(ch).copied().unwrap_or(0);
+        let excluded = acc.excluded_of(slot);
         let mut r = slot
             .acc
             .finish(channel, self.samples, speed, (acc.rejected, excluded));
@@ -560,7 +560,7 @@ impl<const C: usize> Layout<C> {
                     &self.channels[i],
                     self.samples,
                     None,
-                    (acc.rejected, acc.excluded[i]),
+                    (acc.rejected, acc.excluded_of(&acc.slots[i])),
                 )
             })
         })
@@ -599,10 +599,12 @@ pub struct IntervalAcc<const C: usize, const G: usize> {
     /// Whether [`IntervalAcc::set_state`] has set a channel's state (and with
     /// it `rejected`).
     from_states: bool,
-    /// Readings excluded by decision ([`Reading::Excluded`]), per channel:
-    /// beside the accumulators rather than in them, where a fifth count would
-    /// cost 8 bytes a channel in alignment (the crate docs' memory table).
-    excluded: [u32; C],
+    /// Samples accepted into the interval. Every one holds a reading of
+    /// every channel, so a channel's readings excluded by decision
+    /// ([`Reading::Excluded`]) are this minus the readings its accumulator
+    /// counted: one count for all channels, as `rejected`, instead of one per
+    /// channel (4 bytes a channel, or 8 in an accumulator's alignment).
+    accepted: u32,
 }
 
 impl<const C: usize, const G: usize> IntervalAcc<C, G> {
@@ -616,7 +618,7 @@ impl<const C: usize, const G: usize> IntervalAcc<C, G> {
             flags: [Flags::EMPTY; C],
             rejected: 0,
             from_states: false,
-            excluded: [0; C],
+            accepted: 0,
         }
     }
 
@@ -631,7 +633,7 @@ impl<const C: usize, const G: usize> IntervalAcc<C, G> {
             flags: [Flags::EMPTY; C],
             rejected: 0,
             from_states: false,
-            excluded: [0; C],
+            accepted: 0,
         }
     }
 
@@ -668,8 +670,7 @@ impl<const C: usize, const G: usize> IntervalAcc<C, G> {
     pub fn tally(&self, ch: usize) -> Option<Tally> {
         self.slots
             .get(ch)
-            .zip(self.excluded.get(ch))
-            .map(|(s, &x)| s.acc.counts().tally(self.rejected, x))
+            .map(|s| s.acc.counts().tally(self.rejected, self.excluded_of(s)))
     }
 
     /// Samples rejected for their timestamp while this interval was open.
@@ -677,12 +678,19 @@ impl<const C: usize, const G: usize> IntervalAcc<C, G> {
         self.rejected
     }
 
+    /// The readings of `slot` excluded by decision: the accepted samples
+    /// minus the readings its accumulator counted.
+    const fn excluded_of(&self, slot: &Slot<G>) -> u32 {
+        self.accepted.saturating_sub(slot.acc.counts().counted())
+    }
+
     /// The end state of channel `ch`, to send to a PC that finishes it
     /// ([`crate::wire::encode_state`]); `None` if `ch >= C`. Its tally
     /// carries the interval's rejected samples.
     pub fn state(&self, ch: usize) -> Option<ChannelState> {
-        let x = self.excluded.get(ch).copied().unwrap_or(0);
-        self.slots.get(ch).map(|s| s.state(self.rejected, x))
+        self.slots
+            .get(ch)
+            .map(|s| s.state(self.rejected, self.excluded_of(s)))
     }
 
     /// Puts a channel's end state, received from a logger, into this
@@ -712,9 +720,9 @@ impl<const C: usize, const G: usize> IntervalAcc<C, G> {
             });
         }
         *slot = new;
-        if let Some(x) = self.excluded.get_mut(ch) {
-            *x = state.tally().excluded;
-        }
+        // The samples the state's interval held: the same on every channel
+        // (readers check `Tally::same_samples`), so the last state's stands.
+        self.accepted = u32::try_from(state.tally().held()).unwrap_or(u32::MAX);
         self.rejected = rejected;
         self.from_states = true;
         Ok(())
@@ -741,12 +749,12 @@ impl<const C: usize, const G: usize> IntervalAcc<C, G> {
         // One pass over the channels (a Cortex-M0 pays for every extra load and
         // store); a direction linked to a speed classifies that speed's reading
         // again rather than keeping every channel's class in an array.
-        for (((slot, ch), reading), excluded) in self
+        self.accepted = self.accepted.saturating_add(1);
+        for ((slot, ch), reading) in self
             .slots
             .iter_mut()
             .zip(layout.channels.iter())
             .zip(readings.iter())
-            .zip(self.excluded.iter_mut())
         {
             let speed = || {
                 let s = usize::from(ch.config().speed_channel?);
@@ -755,7 +763,7 @@ impl<const C: usize, const G: usize> IntervalAcc<C, G> {
                     _ => None,
                 }
             };
-            slot.push_reading(ch, reading, sentinels, speed, excluded);
+            slot.push_reading(ch, reading, sentinels, speed);
         }
     }
 
@@ -771,7 +779,7 @@ impl<const C: usize, const G: usize> IntervalAcc<C, G> {
         self.flags = [Flags::EMPTY; C];
         self.rejected = 0;
         self.from_states = false;
-        self.excluded = [0; C];
+        self.accepted = 0;
     }
 
     /// Clears the flags set by [`Layout::screen`] (a piece screened on its own
@@ -808,9 +816,7 @@ impl<const C: usize, const G: usize> IntervalAcc<C, G> {
         }
         self.clear_flags();
         self.rejected = self.rejected.saturating_add(later.rejected);
-        for (a, b) in self.excluded.iter_mut().zip(later.excluded.iter()) {
-            *a = a.saturating_add(*b);
-        }
+        self.accepted = self.accepted.saturating_add(later.accepted);
         if self.first == NONE_MS {
             self.first = later.first;
         }
