@@ -84,10 +84,13 @@ struct RawFile {
     channel: Vec<Spanned<RawChannel>>,
 }
 
-/// `[campaign]`: the campaign's side files, paths relative to the station file.
+/// `[campaign]`: the campaign's side files, paths relative to the station
+/// file. An absent key means none.
 #[derive(Deserialize)]
 #[serde(deny_unknown_fields)]
 struct RawCampaign {
+    /// Readings excluded by decision (`exclusions.rs`).
+    exclusions: Option<Spanned<String>>,
     /// Events file (site visits, maintenance, logger resets), read by
     /// `tenmin report` ([`crate::report`]'s events).
     events: Option<Spanned<String>>,
@@ -221,6 +224,26 @@ pub struct StationFile {
     /// `[campaign] events`: the events file, resolved against the station
     /// file's folder, with the key's line in the station file.
     pub events: Option<(PathBuf, usize)>,
+    /// `[campaign] exclusions`: the exclusions file, relative paths resolved
+    /// against the station file's folder; read by [`load`].
+    pub exclusions_file: Option<PathBuf>,
+    /// The exclusions ([`load`] reads them; empty without the key).
+    pub exclusions: crate::exclusions::Exclusions,
+}
+
+impl StationFile {
+    /// Every file the station file names (the `[campaign]` side files), in a
+    /// fixed order, for provenance; the station file itself is not in it.
+    pub fn side_files(&self) -> Vec<(&'static str, PathBuf)> {
+        let mut v = Vec::new();
+        if let Some(p) = &self.exclusions_file {
+            v.push(("exclusions", p.clone()));
+        }
+        if let Some((p, _)) = &self.events {
+            v.push(("events", p.clone()));
+        }
+        v
+    }
 }
 
 /// Reads and checks a station file.
@@ -233,7 +256,12 @@ pub fn load(path: &Path) -> Result<StationFile> {
             .count();
         anyhow!("{}:{line}: not valid UTF-8", path.display())
     })?;
-    parse(path, &text)
+    let mut file = parse(path, &text)?;
+    if let Some(x) = &file.exclusions_file {
+        let ids: Vec<&str> = file.channels.iter().map(|c| c.id.as_str()).collect();
+        file.exclusions = crate::exclusions::Exclusions::load(x, &ids)?;
+    }
+    Ok(file)
 }
 
 /// Checks a station file given as text; `path` is used in messages.
@@ -418,6 +446,18 @@ pub fn parse(path: &Path, text: &str) -> Result<StationFile> {
             Some((base.join(e.get_ref()), at.line(&e.span())))
         }
     };
+    let exclusions_file = match raw.campaign.as_ref().and_then(|c| c.exclusions.as_ref()) {
+        Some(x) if x.get_ref().trim().is_empty() => bail!(at.err(
+            x.span(),
+            "`exclusions` is empty: name the exclusions file, relative to this station file"
+        )),
+        Some(x) => Some(
+            path.parent()
+                .unwrap_or(Path::new(""))
+                .join(x.get_ref().as_str()),
+        ),
+        None => None,
+    };
     let file = StationFile {
         path: path.to_path_buf(),
         events,
@@ -428,6 +468,8 @@ pub fn parse(path: &Path, text: &str) -> Result<StationFile> {
         station,
         channels,
         logger_table,
+        exclusions_file,
+        exclusions: crate::exclusions::Exclusions::default(),
     };
     // Let the core validate everything it checks, once, here.
     file.layout::<MAX_CHANNELS>()?;

@@ -890,7 +890,7 @@ impl<const C: usize, W: Write> Decoder<'_, C, W> {
                 if !first.same_samples(&t) {
                     let id = |c: u8| self.ids.get(usize::from(c)).copied().unwrap_or("?");
                     bail!(
-                        "{}: byte {}: the frame of {} channel {} counts {} samples held (valid + missing + out of range + flagged) and {} rejected, but the frame of channel {} of the same interval (byte {at}) counts {} and {}: every sample is counted once on every channel, so these counts cannot come from a station",
+                        "{}: byte {}: the frame of {} channel {} counts {} samples held (valid + missing + out of range + flagged + excluded) and {} rejected, but the frame of channel {} of the same interval (byte {at}) counts {} and {}: every sample is counted once on every channel, so these counts cannot come from a station",
                         self.path.display(),
                         item.offset,
                         Rfc3339(self.layout.interval_start(k)),
@@ -1188,6 +1188,10 @@ pub fn run(a: &crate::DecodeArgs) -> Result<ExitCode> {
     let decoded = crate::output::write_to(a.output.as_deref(), "records", |w| {
         decode(&cfg, log, &a.log, w, a.max_gap_days)
     })?;
+    if let Some(out) = &a.output {
+        let used = crate::provenance::inputs(&cfg, "log", [a.log.as_path()]);
+        crate::provenance::write(out, &cfg, &used)?;
+    }
     if !a.quiet || decoded.damaged() {
         let _ = decoded.write(&mut io::stderr().lock(), &a.log);
     }

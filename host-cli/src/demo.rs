@@ -54,8 +54,11 @@ missing_values = [-999, -9999]
 name = "Vellendrax Ridge demo mast (invented)"
 
 # The campaign's side files, relative to this file.
+# Readings excluded by decision (tower work and the like), kept apart from the
+# samples: `tenmin replay` counts them `excluded`; the logger knew nothing of it.
 [campaign]
 events = "events.csv"
+exclusions = "exclusions.csv"
 
 # Two redundant cup anemometers at the top of the mast.
 [[channel]]
@@ -123,6 +126,15 @@ height_m = 76
 range = [0, 100]
 resolution = 0.1
 "#;
+
+/// The demo's exclusions: the ws60 boom re-levelled on a mast climb on the
+/// first day, 09:00 to 11:30 UTC (invented).
+const EXCLUSIONS_CSV: &str = "\
+# Readings excluded by decision, for `tenmin replay` (invented, like the rest of the demo).
+# channels: `all` or ids joined by |; from, to: RFC 3339, a reading at from <= t < to is excluded.
+channels,from,to,reason,who,entered
+ws60,2025-01-20T09:00:00Z,2025-01-20T11:30:00Z,mast climb: ws60 boom re-levelled (invented),demo crew,2025-01-21
+";
 
 const IDS: [&str; 6] = ["ws80a", "ws80b", "ws60", "wd78", "t76", "rh76"];
 const WS80A: usize = 0;
@@ -498,6 +510,13 @@ pub fn run(out: &Path, days: u32, seed: u64) -> Result<ExitCode> {
         "the demo station file",
         STATION_TOML.as_bytes(),
     )?;
+    let exclusions_path = out.join("exclusions.csv");
+    output::write_file(
+        &exclusions_path,
+        "the demo's exclusions",
+        EXCLUSIONS_CSV.as_bytes(),
+    )?;
+    // Parsed, not loaded: the logger and the verify below know no exclusions.
     let cfg = config::parse(&station_path, STATION_TOML)?;
     output::write_file(
         &out.join("events.csv"),
@@ -616,6 +635,11 @@ pub fn run(out: &Path, days: u32, seed: u64) -> Result<ExitCode> {
         "  {}: the campaign's events (a site visit)",
         out.join("events.csv").display()
     )?;
+    writeln!(
+        o,
+        "  {}: readings excluded by decision (for `tenmin replay`)",
+        exclusions_path.display()
+    )?;
     match (files.first(), files.last()) {
         (Some(a), Some(b)) if files.len() > 1 => writeln!(
             o,
@@ -662,6 +686,10 @@ pub fn run(out: &Path, days: u32, seed: u64) -> Result<ExitCode> {
         })
         .collect();
     writeln!(o, "  missing-value code blocks: {}", block_list.join(", "))?;
+    writeln!(
+        o,
+        "  excluded by decision: ws60 on 2025-01-20 from 09:00 to 11:30 (exclusions.csv): `tenmin replay`\n    counts those readings `excluded` and flags the intervals; the logger's records do not"
+    )?;
     writeln!(
         o,
         "  vane wd78 stuck from {} to {} in a cold humid spell (about -1.5 degC, 96 % RH)",

@@ -163,7 +163,10 @@ pub fn run(a: &crate::ExportArgs) -> Result<ExitCode> {
         &a.output,
         &crate::inputs(&a.config, "samples file", &a.samples),
     )?;
-    let cfg = config::load(&a.config)?;
+    let mut cfg = config::load(&a.config)?;
+    // The sample file is a logger's input: a logger knows no exclusions (they
+    // are decided afterwards, on a PC), so the readings go as the file has them.
+    cfg.exclusions = Default::default();
     let opts = Options {
         skip_bad_rows: a.skip_bad_rows,
         progress: true,

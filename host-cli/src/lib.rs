@@ -15,6 +15,7 @@ pub mod decode;
 pub mod demo;
 pub mod draft;
 pub mod engine;
+pub mod exclusions;
 pub mod export;
 pub mod fuzzing;
 pub mod limits;
@@ -25,6 +26,7 @@ pub mod options;
 pub mod outages;
 pub mod output;
 pub mod parallel;
+pub mod provenance;
 pub mod reader;
 pub mod records;
 pub mod replay;
@@ -136,7 +138,12 @@ pub enum Command {
 files, replayed in the order given as one continuous record: duplicate and backward times \
 are rejected and counted by the core, also across files. Intervals with no samples are \
 written as rows with empty statistics. A summary (rows read, rejections, per-channel \
-recovery) goes to stderr.",
+recovery) goes to stderr.\n\n\
+Readings the station file's exclusions file covers ([campaign] exclusions) are counted \
+`excluded` and left out of every statistic. With -o, RECORDS.csv.provenance.json is written \
+beside the records: tool and core versions, the command line, the configuration fingerprint \
+and the SHA-256 and size of every input and of the records (check it later with \
+`tenmin verify --provenance RECORDS.csv`); records to stdout get none.",
         after_long_help = concat!(
             "Example:\n  tenmin replay --config station.toml day-2025-01-20.csv day-2025-01-21.csv -o records.csv\n\n",
 formats!(),
@@ -151,7 +158,8 @@ formats!(),
 file written by the logger. Numbers must have identical bits; a difference is listed with \
 the interval start, channel, field, both values and how many units in the last place (ulps) \
 they are apart. Missing and extra rows are differences too. The logger's file must be in \
-time order; channels within an interval may come in any order.
+time order; channels within an interval may come in any order. A logger knows no \
+exclusions, so the replay here applies none.
 
 Another logger's own table: when the station file has [logger_table] (the table's layout, \
 the keys of [input]) and [conventions.<channel id>] (which column holds which statistic: \
@@ -167,13 +175,17 @@ and the difference in the channel's unit; then the counts per channel and statis
 
 --infer tries every convention on every declared column, reports how many intervals each \
 explains, and prints the station-file lines declaring the winners: learn how a logger computes \
-its statistics from its raw samples and its own table.",
+its statistics from its raw samples and its own table.
+
+With --provenance OUTPUT instead: check that a records file, decoded log or report and every \
+input named in its provenance file (OUTPUT.provenance.json) still have the recorded size and \
+SHA-256; one line per file, exit 1 naming a file that changed.",
         after_long_help = concat!(
-            "Examples:\n  tenmin verify --config station.toml --samples day-*.csv --records logger-records.csv\n",
+            "Examples:\n  tenmin verify --config station.toml --samples day-*.csv --records logger-records.csv\n  tenmin verify --provenance records.csv\n",
             "  tenmin verify -c examples/logger-table/station.toml --samples examples/logger-table/samples.csv \\\n      --records examples/logger-table/logger-table.csv [--infer]\n\n",
             "Files: as for `tenmin replay --help`; --records is a records CSV, or the table [logger_table] \
 declares (see CONTRACT.md, \"Checking another logger's table\").\n\n",
-            "Exit codes:\n  0  every field of every row identical (a logger's table: every field accepted;\n     --infer: every column explained on every interval)\n  1  differences found (listed on stdout); --infer: intervals no convention explains\n  2  bad input, bad usage or an I/O error (the message names file, line and field)"
+            "Exit codes:\n  0  every field of every row identical (a logger's table: every field accepted;\n     --infer: every column explained on every interval; --provenance: every file unchanged)\n  1  differences found (listed on stdout); --infer: intervals no convention explains;\n     --provenance: a file changed or is gone\n  2  bad input, bad usage or an I/O error (the message names file, line and field); an\n     unreadable provenance file"
         )
     )]
     Verify(VerifyArgs),
@@ -201,7 +213,8 @@ is written whole or not at all.\n\n",
 one self-contained page with SVG charts: recovery per channel and month against the usual 90 % target, \
 missing-data diagnostics (are gaps independent of hour, month, wind speed, direction and temperature?), \
 the wind rose, the speed distribution with its Weibull fit, turbulence intensity against the IEC 61400-1 \
-normal turbulence model, and wind shear. The tables go to DIR as CSV files; a short summary goes to stdout. \
+normal turbulence model, and wind shear. The tables go to DIR as CSV files; a short summary goes to stdout; \
+DIR/report.html.provenance.json names the records and station files read, with their SHA-256. \
 See host-cli/REPORT.md.",
         after_long_help = concat!(
             "Example:\n  tenmin report --config station.toml records.csv -o report --sectors 12\n\n",
@@ -257,7 +270,9 @@ behind everything read (a log written twice) are left out. Intervals with no sam
 as the replay writes them only between two frames that agree on sequence and time; where frames \
 were lost or left out, or the log's first or last interval jumps with nothing before or after it \
 to confirm the time, the intervals without frames are not written, and `tenmin verify` lists them as missing. \
-Frames that do not match the station file are an error.",
+Frames that do not match the station file are an error. With -o, RECORDS.csv.provenance.json \
+beside the records names the log, the station file and its side files with their SHA-256 \
+(see `tenmin verify --provenance`).",
         after_long_help = concat!(
             "Example:\n  tenmin decode --config station.toml logger.log -o records.csv\n  tenmin verify --config station.toml --samples day-*.csv --records records.csv\n\n",
             "Exit codes:\n  0  the log was read (damage, if any, reported on stderr)\n  1  with --strict: damaged, torn, lost, out-of-order, glitched, repeated or unchecked\n     (version 1) frames, a first sequence number other than 0, intervals left unknown, or an\n     interval of a state log without some channels' states (records still written)\n  2  bad input, bad usage or an I/O error; frames that do not match the station file (a log of\n     another configuration or channel count); counts no station makes; a log mixing record and\n     state frames"
@@ -396,14 +411,28 @@ pub struct InputArgs {
 #[derive(Args, Debug)]
 pub struct VerifyArgs {
     /// Station file (TOML).
-    #[arg(long, short = 'c', value_name = "STATION.toml")]
-    config: PathBuf,
+    #[arg(
+        long,
+        short = 'c',
+        value_name = "STATION.toml",
+        required_unless_present = "provenance"
+    )]
+    config: Option<PathBuf>,
     /// Samples CSV files, replayed in this order as one record.
-    #[arg(long, required = true, num_args = 1.., value_name = "SAMPLES")]
+    #[arg(long, required_unless_present = "provenance", num_args = 1.., value_name = "SAMPLES")]
     samples: Vec<PathBuf>,
     /// The logger's records CSV, or (with `[logger_table]`) the logger's own table.
-    #[arg(long, value_name = "LOGGER.csv")]
-    records: PathBuf,
+    #[arg(
+        long,
+        value_name = "LOGGER.csv",
+        required_unless_present = "provenance"
+    )]
+    records: Option<PathBuf>,
+    /// Instead of replaying: check that a records file (or report, or decoded log) and
+    /// every input its provenance file (OUTPUT.provenance.json, beside it) names still
+    /// have the recorded size and SHA-256. Give the output or its provenance file.
+    #[arg(long, value_name = "OUTPUT", conflicts_with_all = ["config", "samples", "records"])]
+    provenance: Option<PathBuf>,
     /// List at most this many differences (the rest are counted).
     #[arg(long, default_value_t = 20, value_name = "N", allow_negative_numbers = true,
           value_parser = options::whole::<usize>(0, u32::MAX as u64))]
@@ -497,12 +526,24 @@ fn replay_cmd(a: ReplayArgs) -> Result<ExitCode> {
         output::refuse_inputs(out, &inputs(&a.config, "samples file", &a.samples))?;
     }
     let cfg = config::load(&a.config)?;
+    let used = provenance::inputs(&cfg, "samples", a.samples.iter().map(PathBuf::as_path));
+    if let Some(out) = &a.output {
+        let named: Vec<(&str, &Path)> = used
+            .iter()
+            .map(|(r, p)| (r.as_str(), p.as_path()))
+            .collect();
+        output::refuse_inputs(out, &named)?;
+        output::refuse_inputs(&provenance::path_for(out), &named)?;
+    }
     let summary = output::write_to(a.output.as_deref(), "records", |w| {
         let mut writer = records::Writer::new(w, ids(&cfg))?;
         let s = replay::replay(&cfg, &a.samples, options(&a.input), &mut writer)?;
         writer.finish()?;
         Ok(s)
     })?;
+    if let Some(out) = &a.output {
+        provenance::write(out, &cfg, &used)?;
+    }
     if !a.input.quiet {
         let _ = summary.write(&mut io::stderr().lock(), &cfg);
     }
@@ -518,18 +559,27 @@ fn inputs<'a>(config: &'a Path, what: &'a str, files: &'a [PathBuf]) -> Vec<(&'a
 }
 
 fn verify_cmd(a: VerifyArgs) -> Result<ExitCode> {
-    let cfg = config::load(&a.config)?;
-    if cfg.logger_table.is_some() || a.infer {
-        return table_cmd(&a, &cfg);
+    if let Some(p) = &a.provenance {
+        return verify::provenance(p);
     }
-    let mut cmp = verify::Comparer::open(&a.records, cfg.station, ids(&cfg), a.max_diffs)?;
+    let (Some(config), Some(records)) = (&a.config, &a.records) else {
+        anyhow::bail!("verify needs --config, --samples and --records, or --provenance");
+    };
+    let mut cfg = config::load(config)?;
+    // A logger's records: a logger knows no exclusions, so the replay here
+    // applies none (CONTRACT.md, Verify).
+    cfg.exclusions = Default::default();
+    if cfg.logger_table.is_some() || a.infer {
+        return table_cmd(&a, config, records, &cfg);
+    }
+    let mut cmp = verify::Comparer::open(records, cfg.station, ids(&cfg), a.max_diffs)?;
     let summary = replay::replay(&cfg, &a.samples, options(&a.input), &mut cmp)?;
     let report = cmp.finish()?;
     if !a.input.quiet {
         let _ = summary.write(&mut io::stderr().lock(), &cfg);
     }
     let mut out = output::Output::stdout("the comparison");
-    verify::print_report(&mut out, &report, &a.records)?;
+    verify::print_report(&mut out, &report, records)?;
     out.finish()?;
     Ok(if report.total == 0 {
         ExitCode::SUCCESS
@@ -539,14 +589,19 @@ fn verify_cmd(a: VerifyArgs) -> Result<ExitCode> {
 }
 
 /// `tenmin verify` of another logger's own table (`[logger_table]`), or `--infer`.
-fn table_cmd(a: &VerifyArgs, cfg: &config::StationFile) -> Result<ExitCode> {
+fn table_cmd(
+    a: &VerifyArgs,
+    config: &std::path::Path,
+    records: &std::path::Path,
+    cfg: &config::StationFile,
+) -> Result<ExitCode> {
     if cfg.logger_table.is_none() {
         anyhow::bail!(
             "{}: --infer needs a [logger_table] and [conventions] naming the table's columns (see CONTRACT.md, \"Checking another logger's table\")",
-            a.config.display()
+            config.display()
         );
     }
-    let rows = logtable::read(cfg, &a.records)?;
+    let rows = logtable::read(cfg, records)?;
     let mut collect = tablecheck::Collect::new(cfg.station.interval_s);
     let summary = replay::replay(cfg, &a.samples, options(&a.input), &mut collect)?;
     if !a.input.quiet {
@@ -554,9 +609,9 @@ fn table_cmd(a: &VerifyArgs, cfg: &config::StationFile) -> Result<ExitCode> {
     }
     let mut buf = Vec::new();
     let ok = if a.infer {
-        tablecheck::infer(cfg, &a.records, &rows, &collect, &mut buf)?
+        tablecheck::infer(cfg, records, &rows, &collect, &mut buf)?
     } else {
-        tablecheck::verify(cfg, &a.records, &rows, &collect, a.max_diffs, &mut buf)?.differences
+        tablecheck::verify(cfg, records, &rows, &collect, a.max_diffs, &mut buf)?.differences
             == 0
     };
     let mut out = output::Output::stdout("the comparison");

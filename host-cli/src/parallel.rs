@@ -26,6 +26,7 @@
 //! few chunks ahead (bounded queues), and workers send closed intervals in
 //! small batches.
 
+use crate::exclusions::Exclusions;
 use std::io::Read;
 use std::mem;
 use std::path::{Path, PathBuf};
@@ -157,6 +158,8 @@ type Emit<'a, const C: usize> = dyn FnMut(Msg<C>) -> Result<()> + 'a;
 /// One chunk's replay through a fresh station.
 struct Run<'a, const C: usize> {
     layout: &'a Layout<C>,
+    /// Readings excluded by decision, marked before each push.
+    excl: &'a Exclusions,
     opts: Options,
     /// The last sample accepted before the chunk, when known.
     floor: Option<Timestamp>,
@@ -170,9 +173,15 @@ struct Run<'a, const C: usize> {
 }
 
 impl<'a, const C: usize> Run<'a, C> {
-    fn new(layout: &'a Layout<C>, opts: Options, floor: Option<Timestamp>) -> Self {
+    fn new(
+        layout: &'a Layout<C>,
+        excl: &'a Exclusions,
+        opts: Options,
+        floor: Option<Timestamp>,
+    ) -> Self {
         Run {
             layout,
+            excl,
             opts,
             floor,
             probe: None,
@@ -211,6 +220,7 @@ impl<'a, const C: usize> Run<'a, C> {
             Ok(t) => t,
             Err(bad) => return Ok(self.stats.bad_row(&self.opts, path, line, bad)?),
         };
+        self.excl.apply(t, &mut self.readings);
         if let Some(st) = self.station.as_mut() {
             check_jump(&self.opts, self.last, t, path, line)?;
             let events = &mut self.events;
@@ -308,6 +318,7 @@ enum Flow {
 /// Joins the chunks' pieces in time order and hands the records out.
 struct Joiner<'s, const C: usize> {
     layout: Layout<C>,
+    excl: &'s Exclusions,
     opts: Options,
     screener: Screener<C>,
     recovery: [Recovery; C],
@@ -451,7 +462,7 @@ impl<const C: usize> Joiner<'_, C> {
     /// A chunk replayed here, knowing the last accepted sample before it.
     fn redo(&mut self, parser: &Parser, bytes: &[u8], line: u64, path: &Path) -> Result<()> {
         let layout = self.layout;
-        let run = Run::new(&layout, self.opts, self.last);
+        let run = Run::new(&layout, self.excl, self.opts, self.last);
         let mut parser = parser.clone();
         run.chunk(&mut parser, bytes, line, path, &mut |m| self.here(m, path))
     }
@@ -466,7 +477,7 @@ impl<const C: usize> Joiner<'_, C> {
         mut head: Head,
     ) -> Result<()> {
         let layout = self.layout;
-        let mut run = Run::new(&layout, self.opts, self.last);
+        let mut run = Run::new(&layout, self.excl, self.opts, self.last);
         let mut halt = None;
         let seen = {
             let mut send = |m| self.here(m, path);
@@ -533,6 +544,7 @@ fn run<const C: usize>(
     let progress = Progress::new(files, &opts);
     let mut joiner = Joiner {
         layout,
+        excl: &cfg.exclusions,
         opts,
         screener: Screener::new(),
         recovery: [Recovery::new(); C],
@@ -551,7 +563,8 @@ fn run<const C: usize>(
             let (job_tx, job_rx) = sync_channel::<Job>(2);
             let (msg_tx, msg_rx) = sync_channel::<Msg<C>>(4);
             let layout = &layout;
-            s.spawn(move || worker(layout, files, opts, job_rx, msg_tx));
+            let excl = &cfg.exclusions;
+            s.spawn(move || worker(layout, excl, files, opts, job_rx, msg_tx));
             to_workers.push(job_tx);
             from_workers.push(msg_rx);
         }
@@ -620,6 +633,7 @@ fn run<const C: usize>(
 
 fn worker<const C: usize>(
     layout: &Layout<C>,
+    excl: &Exclusions,
     files: &[PathBuf],
     opts: Options,
     jobs: Receiver<Job>,
@@ -628,7 +642,7 @@ fn worker<const C: usize>(
     let mut send = |m| out.send(m).map_err(|_| anyhow!("closed"));
     for job in jobs {
         let mut parser = (*job.parser).clone();
-        let run = Run::new(layout, opts, None);
+        let run = Run::new(layout, excl, opts, None);
         if run
             .chunk(
                 &mut parser,

@@ -43,7 +43,7 @@ const fn col(name: &'static str, ty: Type) -> Column {
 }
 
 /// The records columns, in order. The first eleven are fixed by the contract.
-pub const COLUMNS: [Column; 20] = [
+pub const COLUMNS: [Column; 21] = [
     col("start", Type::Time),
     col("end", Type::Time),
     col("channel", Type::Text),
@@ -64,11 +64,23 @@ pub const COLUMNS: [Column; 20] = [
     col("resultant_direction", Type::Number),
     col("n_spikes", Type::Count),
     col("n_flagged", Type::Count),
+    col("n_excluded", Type::Count),
 ];
 
 /// Index in [`COLUMNS`] of `n_flagged`, the readings the source marked bad:
 /// a records file written before it has no such column, which reads as 0.
 pub const N_FLAGGED: usize = 19;
+
+/// Index in [`COLUMNS`] of `n_excluded`, the readings excluded by decision
+/// (the station file's exclusions): a records file written before it has no
+/// such column, which reads as 0.
+pub const N_EXCLUDED: usize = 20;
+
+/// Whether column `k` may be absent from a records file (added after the
+/// first version; absent reads as 0).
+pub const fn optional(k: usize) -> bool {
+    k == N_FLAGGED || k == N_EXCLUDED
+}
 
 /// Writes the header line.
 pub fn write_header<W: Write>(w: &mut W) -> io::Result<()> {
@@ -104,7 +116,7 @@ pub fn write_row<W: Write>(
     let t = &r.tally;
     writeln!(
         w,
-        "{},{},{},{},{},{},{},{},{},{},{},{},{},{},{},{},{},{},{},{}",
+        "{},{},{},{},{},{},{},{},{},{},{},{},{},{},{},{},{},{},{},{},{}",
         Rfc3339(start),
         Rfc3339(end),
         channel,
@@ -125,6 +137,7 @@ pub fn write_row<W: Write>(
         S(r.resultant_direction),
         r.spikes,
         t.flagged,
+        t.excluded,
     )
 }
 
@@ -207,6 +220,11 @@ mod tests {
             .unwrap()
             .starts_with("start,end,channel,n_possible,n_valid,mean,sd,min,max,gust,flags,"));
         assert_eq!(COLUMNS[N_FLAGGED].name, "n_flagged");
-        assert_eq!(COLUMNS.len(), N_FLAGGED + 1, "n_flagged is the last column");
+        assert_eq!(COLUMNS[N_EXCLUDED].name, "n_excluded");
+        assert_eq!(
+            COLUMNS.len(),
+            N_EXCLUDED + 1,
+            "n_excluded is the last column"
+        );
     }
 }

@@ -415,6 +415,7 @@ impl Sequential<'_> {
         match parsed {
             Ok(t) => {
                 check_jump(&self.opts, self.last, t, path, line)?;
+                self.cfg.exclusions.apply(t, &mut self.readings);
                 if self.engine.push(t, &self.readings)? == Pushed::Accepted {
                     self.last = Some(t);
                 }

@@ -116,7 +116,7 @@ impl Summary {
             .max(7);
         writeln!(
             w,
-            "{:<width$} {:>10} {:>10} {:>10} {:>10} {:>10} {:>10} {:>10} {:>9} {:>9}",
+            "{:<width$} {:>10} {:>10} {:>10} {:>10} {:>10} {:>10} {:>10} {:>10} {:>10} {:>9} {:>9}",
             "channel",
             "possible",
             "valid",
@@ -124,14 +124,16 @@ impl Summary {
             "out_range",
             "rejected",
             "flagged",
+            "excluded",
             "absent",
+            "lost",
             "recovery",
             "screened"
         )?;
         for (ch, t) in cfg.channels.iter().zip(&self.recovery) {
             writeln!(
                 w,
-                "{:<width$} {:>10} {:>10} {:>10} {:>10} {:>10} {:>10} {:>10} {:>9} {:>9}",
+                "{:<width$} {:>10} {:>10} {:>10} {:>10} {:>10} {:>10} {:>10} {:>10} {:>10} {:>9} {:>9}",
                 ch.id,
                 t.possible,
                 t.valid,
@@ -139,7 +141,9 @@ impl Summary {
                 t.out_of_range,
                 t.rejected,
                 t.flagged,
+                t.excluded,
                 t.absent(),
+                t.lost(),
                 percent(t),
                 t.interval_rate()
                     .map_or_else(|| "-".into(), |r| format!("{:.1}%", 100.0 * r))
@@ -181,7 +185,7 @@ impl Summary {
         }
         writeln!(
             w,
-            "(recovery = valid / possible samples since the first interval; screened = intervals with valid\n samples and no flag but partial or clock / possible intervals; flagged = readings the source's\n quality code marked bad; absent = possible samples with no row)"
+            "(recovery = valid / possible samples since the first interval; screened = intervals with valid\n samples and no flag but partial, clock or excluded / possible intervals; flagged = readings the source's\n quality code marked bad; excluded = readings excluded by decision (the station file's exclusions);\n absent = possible samples with no row; lost = possible samples neither valid nor excluded)"
         )
     }
 }

@@ -21,15 +21,16 @@
 
 use std::fmt;
 use std::fs::File;
-use std::io::BufReader;
+use std::io::{BufReader, Write};
 use std::path::{Path, PathBuf};
+use std::process::ExitCode;
 
 use anyhow::{anyhow, bail, Context, Result};
 use qc_core::{ChannelRecord, Flag, StationConfig, Tally, Timestamp};
 
 use crate::engine::Sink;
 use crate::limits::{self, Capped};
-use crate::records::{ulp_distance, write_row, Type, COLUMNS, N_FLAGGED};
+use crate::records::{optional, ulp_distance, write_row, Type, COLUMNS, N_EXCLUDED, N_FLAGGED};
 use crate::timefmt::{parse_time_any as parse_time, Rfc3339};
 
 /// One difference found.
@@ -222,7 +223,7 @@ impl LoggerFile {
             .map(|c| names.iter().position(|n| n == c.name))
             .collect();
         for (k, (c, i)) in COLUMNS.iter().zip(&index).enumerate() {
-            if i.is_none() && k != N_FLAGGED {
+            if i.is_none() && !optional(k) {
                 report.add(Difference {
                     start: String::new(),
                     channel: String::new(),
@@ -278,6 +279,8 @@ impl LoggerFile {
             rejected: rejected.unwrap_or(0),
             // No column: a file from before flagged readings, 0.
             flagged: count(N_FLAGGED)?.unwrap_or(0),
+            // No column: a file from before exclusions, 0.
+            excluded: count(N_EXCLUDED)?.unwrap_or(0),
         };
         Some((n_possible, tally, full))
     }
@@ -305,7 +308,7 @@ impl LoggerFile {
             match first {
                 None => first = Some((row, t)),
                 Some((r0, t0)) if !t0.same_samples(&t) => bail!(
-                    "{}:{}: {} {}: {} samples held (n_valid + n_missing + n_out_of_range + n_flagged) and {} rejected, but {} of the same interval (line {}) has {} and {}: every sample is counted once on every channel, so these counts cannot come from a station",
+                    "{}:{}: {} {}: {} samples held (n_valid + n_missing + n_out_of_range + n_flagged + n_excluded) and {} rejected, but {} of the same interval (line {}) has {} and {}: every sample is counted once on every channel, so these counts cannot come from a station",
                     self.path.display(),
                     row.line,
                     group.start,
@@ -464,7 +467,7 @@ impl Comparer {
             let b = match self.logger.index[k] {
                 Some(j) => theirs.fields.get(j).map_or("", String::as_str),
                 // A file from before the column: no flagged readings.
-                None if k == N_FLAGGED => "0",
+                None if optional(k) => "0",
                 None => continue,
             };
             let a = ours.get(k).copied().unwrap_or("");
@@ -613,6 +616,53 @@ pub fn print_report(w: &mut dyn std::io::Write, r: &Report, logger: &Path) -> st
         )?;
     }
     Ok(())
+}
+
+/// `tenmin verify --provenance OUTPUT`: checks `OUTPUT` (or, given a
+/// provenance file, the output it names) and every input its provenance file
+/// names against their recorded sizes and SHA-256; prints one line per file.
+/// Exit 1 when any changed or is gone; a provenance file that cannot be read
+/// is an error (exit 2).
+pub fn provenance(given: &Path) -> Result<ExitCode> {
+    use crate::provenance::{check, path_for};
+    let is_prov = given
+        .file_name()
+        .is_some_and(|n| n.to_string_lossy().ends_with(".provenance.json"));
+    let (prov, output) = if is_prov {
+        (given.to_path_buf(), None)
+    } else {
+        (path_for(given), Some(given))
+    };
+    let c = check(&prov, output)?;
+    let mut out = crate::output::Output::stdout("the provenance check");
+    for (what, p) in &c.same {
+        writeln!(out, "same     {what}: {}", p.display())?;
+    }
+    for (what, p, why) in &c.changed {
+        writeln!(out, "CHANGED  {what}: {}: {why}", p.display())?;
+    }
+    if c.changed.is_empty() {
+        writeln!(
+            out,
+            "{}: the output and all {} inputs match their provenance",
+            prov.display(),
+            c.same.len() - 1
+        )?;
+    } else {
+        writeln!(
+            out,
+            "{}: {} of {} files changed or are gone since the output was written",
+            prov.display(),
+            c.changed.len(),
+            c.changed.len() + c.same.len()
+        )?;
+    }
+    out.finish()?;
+    Ok(if c.changed.is_empty() {
+        ExitCode::SUCCESS
+    } else {
+        ExitCode::from(1)
+    })
 }
 
 #[cfg(test)]

@@ -492,7 +492,7 @@ fn frame_counts_no_station_makes_are_refused() {
     assert_eq!(o.status.code(), Some(2), "{}", text(&o.stderr));
     assert!(
         text(&o.stderr).contains(
-            "x.log: byte 7808: the frame of 2025-01-20T03:20:00Z channel ws60 counts 61 samples held (valid + missing + out of range + flagged) and 0 rejected, but the frame of channel ws80 of the same interval (byte 7680) counts 60 and 0"
+            "x.log: byte 7808: the frame of 2025-01-20T03:20:00Z channel ws60 counts 61 samples held (valid + missing + out of range + flagged + excluded) and 0 rejected, but the frame of channel ws80 of the same interval (byte 7680) counts 60 and 0"
         ),
         "{}",
         text(&o.stderr)
@@ -542,7 +542,7 @@ fn records_rows_no_station_makes_are_refused() {
         // Row 62 is interval 20, ws60 (line 63 of the file).
         (
             edit(62, 4, "61"),
-            "bad.csv:63: 2025-01-20T03:20:00Z ws60: 61 samples held (n_valid + n_missing + n_out_of_range + n_flagged) and 0 rejected, but ws80 of the same interval",
+            "bad.csv:63: 2025-01-20T03:20:00Z ws60: 61 samples held (n_valid + n_missing + n_out_of_range + n_flagged + n_excluded) and 0 rejected, but ws80 of the same interval",
         ),
         (
             edit(10, 3, "600"),

@@ -43,6 +43,11 @@ pub enum Reading {
     /// The source marked this reading bad (a quality code): counted in
     /// [`Tally::flagged`], whatever its value, and never used in statistics.
     Flagged,
+    /// Excluded by a decision after the fact (an exclusion list: tower work, a
+    /// broken cable confirmed on site): counted in [`Tally::excluded`],
+    /// whatever its value, and never used in statistics. The core judges
+    /// nothing else of it; the caller decides which readings are excluded.
+    Excluded,
 }
 
 /// The linear map from integer quanta to engineering values: `offset + step * q`.
@@ -251,6 +256,8 @@ pub(crate) enum Class {
     OutOfRange,
     /// Marked bad by its source ([`Reading::Flagged`]).
     Flagged,
+    /// Excluded by decision ([`Reading::Excluded`]).
+    Excluded,
 }
 
 const Q_LIMIT: f64 = 2_147_483_000.0;
@@ -507,6 +514,7 @@ impl Channel {
         match r {
             Reading::Missing => Class::Missing,
             Reading::Flagged => Class::Flagged,
+            Reading::Excluded => Class::Excluded,
             Reading::Counts(k) => {
                 // Range first: most readings are in range, and then the codes
                 // need checking only if one of them lies in the range too.
@@ -636,6 +644,8 @@ pub struct Tally {
     pub rejected: u32,
     /// Readings their source marked bad ([`Reading::Flagged`], a quality code).
     pub flagged: u32,
+    /// Readings excluded by decision ([`Reading::Excluded`], an exclusion list).
+    pub excluded: u32,
 }
 
 impl Tally {
@@ -646,19 +656,25 @@ impl Tally {
         self.out_of_range = self.out_of_range.saturating_add(o.out_of_range);
         self.rejected = self.rejected.saturating_add(o.rejected);
         self.flagged = self.flagged.saturating_add(o.flagged);
+        self.excluded = self.excluded.saturating_add(o.excluded);
     }
 
-    /// All samples counted: valid, missing, out of range, rejected and flagged.
+    /// All samples counted: valid, missing, out of range, rejected, flagged
+    /// and excluded.
     pub const fn total(&self) -> u64 {
         self.held() + self.rejected as u64
     }
 
-    /// Samples the interval held: valid, missing, out of range and flagged
-    /// (the rejected ones came with a time the station refused). Every
-    /// accepted sample holds one reading of every channel, so this is the same
-    /// on every channel of one interval.
+    /// Samples the interval held: valid, missing, out of range, flagged and
+    /// excluded (the rejected ones came with a time the station refused).
+    /// Every accepted sample holds one reading of every channel, so this is
+    /// the same on every channel of one interval.
     pub const fn held(&self) -> u64 {
-        self.valid as u64 + self.missing as u64 + self.out_of_range as u64 + self.flagged as u64
+        self.valid as u64
+            + self.missing as u64
+            + self.out_of_range as u64
+            + self.flagged as u64
+            + self.excluded as u64
     }
 
     /// Whether `self` and `other` can be two channels' tallies of the same
@@ -671,7 +687,12 @@ impl Tally {
 
 /// One channel's sample counts in an interval, as the accumulators keep them:
 /// a [`Tally`] without the samples rejected for their timestamp, which the
-/// interval counts once for all its channels ([`crate::IntervalAcc::reject`]).
+/// interval counts once for all its channels ([`crate::IntervalAcc::reject`]),
+/// and without the excluded readings: every accepted sample holds one reading
+/// of every channel, so a channel's excluded readings are the interval's
+/// accepted samples minus the four counts here (`IntervalAcc::accepted`, one
+/// count for all channels, as `rejected`: a fifth count here would cost 8
+/// bytes a channel in alignment, and the per-sample path nothing).
 #[derive(Clone, Copy, Debug, Default, PartialEq, Eq, Hash)]
 #[cfg_attr(feature = "defmt", derive(defmt::Format))]
 pub(crate) struct Counts {
@@ -689,18 +710,20 @@ impl Counts {
         flagged: 0,
     };
 
-    /// The counts as a [`Tally`], with the interval's `rejected`.
-    pub(crate) const fn tally(&self, rejected: u32) -> Tally {
+    /// The counts as a [`Tally`], with the interval's `rejected` and the
+    /// channel's `excluded`.
+    pub(crate) const fn tally(&self, rejected: u32, excluded: u32) -> Tally {
         Tally {
             valid: self.valid,
             missing: self.missing,
             out_of_range: self.out_of_range,
             rejected,
             flagged: self.flagged,
+            excluded,
         }
     }
 
-    /// The counts of `t` (its `rejected` left out).
+    /// The counts of `t` (its `rejected` and `excluded` left out).
     pub(crate) const fn of(t: &Tally) -> Counts {
         Counts {
             valid: t.valid,
@@ -717,12 +740,23 @@ impl Counts {
         self.flagged = self.flagged.saturating_add(o.flagged);
     }
 
+    /// The readings counted here: valid, missing, out of range and flagged.
+    pub(crate) const fn counted(&self) -> u32 {
+        self.valid
+            .saturating_add(self.missing)
+            .saturating_add(self.out_of_range)
+            .saturating_add(self.flagged)
+    }
+
+    /// Counts `c`. An excluded reading is counted by difference: the
+    /// interval's accepted samples minus [`Counts::counted`].
     fn count(&mut self, c: Class) {
         let slot = match c {
             Class::Valid(_) => &mut self.valid,
             Class::Missing => &mut self.missing,
             Class::OutOfRange => &mut self.out_of_range,
             Class::Flagged => &mut self.flagged,
+            Class::Excluded => return,
         };
         *slot = slot.saturating_add(1);
     }
@@ -863,16 +897,17 @@ impl<const G: usize> ChannelAcc<G> {
 
     /// Finishes the statistics. `speed` is the linked speed channel's config
     /// (for the resultant's units); `rejected` the interval's samples rejected
-    /// for their timestamp.
+    /// for their timestamp, `excluded` the channel's readings excluded.
     pub(crate) fn finish(
         &self,
         ch: &Channel,
         n_possible: u32,
         speed: Option<&Channel>,
-        rejected: u32,
+        (rejected, excluded): (u32, u32),
     ) -> ChannelRecord {
         let counts = self.counts();
-        let mut r = ChannelRecord::empty(ch.cfg.kind, n_possible, counts.tally(rejected));
+        let tally = counts.tally(rejected, excluded);
+        let mut r = ChannelRecord::empty(ch.cfg.kind, n_possible, tally);
         let n = counts.valid;
         let (scale, inv) = (ch.cfg.scale, ch.inv_step);
         match self {
@@ -967,7 +1002,8 @@ impl<const G: usize> Slot<G> {
     };
 
     /// Classifies one reading of `ch` and adds it, with its spike check;
-    /// `speed` gives the linked speed's class, if any.
+    /// `speed` gives the linked speed's class, if any (an excluded reading is
+    /// counted by difference, see [`Counts::count`]).
     ///
     /// One out-of-line function per kind of channel with everything else
     /// inlined into it, and the rare paths (engineering values, readings out of
@@ -1170,6 +1206,7 @@ impl ChannelState {
                 out_of_range: 0,
                 rejected: 0,
                 flagged: 0,
+                excluded: 0,
             },
             spikes: 0,
             moments: Moments::new(),
@@ -1182,11 +1219,11 @@ impl ChannelState {
 
 impl<const G: usize> Slot<G> {
     /// The slot's end state (see [`ChannelState`]), with the interval's
-    /// `rejected`.
-    pub(crate) fn state(&self, rejected: u32) -> ChannelState {
+    /// `rejected` and the channel's `excluded`.
+    pub(crate) fn state(&self, rejected: u32, excluded: u32) -> ChannelState {
         let mut s = ChannelState::empty(StateForm::Scalar);
         s.spikes = self.spikes.count();
-        s.tally = self.acc.counts().tally(rejected);
+        s.tally = self.acc.counts().tally(rejected, excluded);
         match &self.acc {
             ChannelAcc::Speed(a) => {
                 s.form = StateForm::Speed;

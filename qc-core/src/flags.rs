@@ -35,11 +35,13 @@ pub enum Flag {
     Partial = 7,
     /// Samples in the interval were rejected for their timestamps.
     Clock = 8,
+    /// Readings in the interval were excluded by decision (an exclusion list).
+    Excluded = 9,
 }
 
 impl Flag {
     /// Every flag, in the order records print them.
-    pub const ALL: [Flag; 9] = [
+    pub const ALL: [Flag; 10] = [
         Flag::Implausible,
         Flag::Spike,
         Flag::Flatline,
@@ -49,6 +51,7 @@ impl Flag {
         Flag::LowRecovery,
         Flag::Partial,
         Flag::Clock,
+        Flag::Excluded,
     ];
 
     /// The name records print.
@@ -63,6 +66,7 @@ impl Flag {
             Flag::LowRecovery => "low_recovery",
             Flag::Partial => "partial",
             Flag::Clock => "clock",
+            Flag::Excluded => "excluded",
         }
     }
 

@@ -24,6 +24,8 @@ pub struct Totals {
     pub rejected: u64,
     /// Readings their source marked bad ([`crate::Reading::Flagged`]).
     pub flagged: u64,
+    /// Readings excluded by decision ([`crate::Reading::Excluded`]).
+    pub excluded: u64,
     /// Intervals in the span (possible intervals).
     pub intervals: u64,
     /// Intervals with valid samples that passed screening
@@ -43,14 +45,25 @@ impl Totals {
     }
 
     /// Possible samples never recorded at all: possible minus valid, missing,
-    /// out of range and flagged (0 if the record held more samples than the
-    /// nominal rate).
+    /// out of range, flagged and excluded (0 if the record held more samples
+    /// than the nominal rate).
     pub const fn absent(&self) -> u64 {
         self.possible
             .saturating_sub(self.valid)
             .saturating_sub(self.missing)
             .saturating_sub(self.out_of_range)
             .saturating_sub(self.flagged)
+            .saturating_sub(self.excluded)
+    }
+
+    /// Possible samples lost: neither valid nor excluded by decision
+    /// (possible minus valid minus excluded, 0 if negative). The possible
+    /// samples are `valid + excluded + lost` when the record held no more
+    /// samples than the nominal rate.
+    pub const fn lost(&self) -> u64 {
+        self.possible
+            .saturating_sub(self.valid)
+            .saturating_sub(self.excluded)
     }
 
     /// Adds one interval's tally; `passed` if it passed screening.
@@ -63,6 +76,7 @@ impl Totals {
         self.out_of_range += u64::from(t.out_of_range);
         self.rejected += u64::from(t.rejected);
         self.flagged += u64::from(t.flagged);
+        self.excluded += u64::from(t.excluded);
     }
 
     /// Adds all counts of `other`.
@@ -73,6 +87,7 @@ impl Totals {
         self.out_of_range += o.out_of_range;
         self.rejected += o.rejected;
         self.flagged += o.flagged;
+        self.excluded += o.excluded;
         self.intervals += o.intervals;
         self.passed += o.passed;
     }
@@ -85,11 +100,13 @@ impl Totals {
 /// milliseconds). Rejected samples have no such bound, but an interval counts
 /// them in 32 bits already ([`Tally`]). The adds saturate, so that a caller
 /// outside those bounds gets a capped count, never a wrapped one or a panic.
+/// The possible samples are not stored: they are the intervals times the
+/// samples per interval (kept in [`SinceStart`]).
 #[derive(Clone, Copy, Debug, Default, PartialEq, Eq, Hash)]
 #[cfg_attr(feature = "defmt", derive(defmt::Format))]
 struct MonthTotals {
     rejected: u32,
-    possible: u32,
+    excluded: u32,
     valid: u32,
     missing: u32,
     out_of_range: u32,
@@ -101,7 +118,7 @@ struct MonthTotals {
 impl MonthTotals {
     const ZERO: MonthTotals = MonthTotals {
         rejected: 0,
-        possible: 0,
+        excluded: 0,
         valid: 0,
         missing: 0,
         out_of_range: 0,
@@ -110,52 +127,68 @@ impl MonthTotals {
         passed: 0,
     };
 
-    fn add(&mut self, possible: u32, t: &Tally, passed: bool) {
+    fn add(&mut self, t: &Tally, passed: bool) {
         self.intervals = self.intervals.saturating_add(1);
         self.passed = self.passed.saturating_add(u32::from(passed));
-        self.possible = self.possible.saturating_add(possible);
         self.valid = self.valid.saturating_add(t.valid);
         self.missing = self.missing.saturating_add(t.missing);
         self.out_of_range = self.out_of_range.saturating_add(t.out_of_range);
         self.rejected = self.rejected.saturating_add(t.rejected);
         self.flagged = self.flagged.saturating_add(t.flagged);
+        self.excluded = self.excluded.saturating_add(t.excluded);
     }
 
-    fn add_empty(&mut self, intervals: u64, possible: u32) {
+    fn add_empty(&mut self, intervals: u64) {
         let n = u32::try_from(intervals).unwrap_or(u32::MAX);
         self.intervals = self.intervals.saturating_add(n);
-        self.possible = self.possible.saturating_add(n.saturating_mul(possible));
     }
 
-    const fn totals(&self) -> Totals {
+    /// The totals, with `samples` per interval.
+    const fn totals(&self, samples: u32) -> Totals {
         Totals {
-            possible: self.possible as u64,
+            possible: self.intervals.saturating_mul(samples) as u64,
             valid: self.valid as u64,
             missing: self.missing as u64,
             out_of_range: self.out_of_range as u64,
             rejected: self.rejected as u64,
             flagged: self.flagged as u64,
+            excluded: self.excluded as u64,
             intervals: self.intervals as u64,
             passed: self.passed as u64,
         }
     }
 }
 
+/// Bits of [`SinceStart::span`] holding the interval count: 2^39 intervals of
+/// the shortest interval, 1 s, are 17,400 years, more than the supported
+/// years 0000 to 9999 hold.
+const INTERVAL_BITS: u32 = 39;
+const INTERVAL_MASK: u64 = (1 << INTERVAL_BITS) - 1;
+/// Largest samples per interval the span holds (25 bits; the station allows
+/// at most [`crate::MAX_SAMPLES_PER_INTERVAL`] = 2^24).
+const SAMPLES_MAX: u32 = (1 << (64 - INTERVAL_BITS)) - 1;
+
 /// Totals since start as [`Recovery`] keeps them: the sample counts that a
 /// fast logger can push past 2^32 in 64 bits; the samples rejected for their
-/// timestamp and the interval counts in 32 bits, saturating (2^32 intervals
-/// of 1 s are 136 years), so that a channel's recovery stays 88 bytes. The
-/// month key sits here too, in what would otherwise be padding.
+/// timestamp, the readings excluded by decision and the passed intervals in
+/// 32 bits, saturating (2^32 excluded readings are 6.8 years of exclusions at
+/// 20 Hz). The possible samples are not stored: they are the intervals times
+/// the samples per interval, which every interval of a station shares (the
+/// layout's); both sit in one 64-bit `span` (intervals in the low 39 bits,
+/// samples per interval in the high 25), so that a channel's recovery stays
+/// 88 bytes with the excluded counts in it. The month key sits here too.
 #[derive(Clone, Copy, Debug, Default, PartialEq, Eq, Hash)]
 #[cfg_attr(feature = "defmt", derive(defmt::Format))]
 struct SinceStart {
-    possible: u64,
     valid: u64,
     missing: u64,
     out_of_range: u64,
     flagged: u64,
+    /// Intervals (low [`INTERVAL_BITS`] bits, saturating) and samples per
+    /// interval at the nominal rate, as last given (the bits above).
+    span: u64,
     rejected: u32,
-    intervals: u32,
+    excluded: u32,
     passed: u32,
     /// `year * 12 + month - 1` of the month [`Recovery::this_month`] counts,
     /// plus 1; 0 before any.
@@ -164,37 +197,53 @@ struct SinceStart {
 
 impl SinceStart {
     const ZERO: SinceStart = SinceStart {
-        possible: 0,
         valid: 0,
         missing: 0,
         out_of_range: 0,
         flagged: 0,
+        span: 0,
         rejected: 0,
-        intervals: 0,
+        excluded: 0,
         passed: 0,
         month_key: 0,
     };
 
-    fn add(&mut self, possible: u32, t: &Tally, passed: bool) {
-        self.intervals = self.intervals.saturating_add(1);
+    const fn intervals(&self) -> u64 {
+        self.span & INTERVAL_MASK
+    }
+
+    const fn samples(&self) -> u32 {
+        (self.span >> INTERVAL_BITS) as u32
+    }
+
+    /// Sets the samples per interval and adds `n` intervals (saturating).
+    fn add_intervals(&mut self, samples: u32, n: u64) {
+        let i = self.intervals().saturating_add(n).min(INTERVAL_MASK);
+        let s = u64::from(samples.min(SAMPLES_MAX));
+        self.span = s << INTERVAL_BITS | i;
+    }
+
+    fn add(&mut self, samples: u32, t: &Tally, passed: bool) {
+        self.add_intervals(samples, 1);
         self.passed = self.passed.saturating_add(u32::from(passed));
-        self.possible += u64::from(possible);
         self.valid += u64::from(t.valid);
         self.missing += u64::from(t.missing);
         self.out_of_range += u64::from(t.out_of_range);
         self.flagged += u64::from(t.flagged);
         self.rejected = self.rejected.saturating_add(t.rejected);
+        self.excluded = self.excluded.saturating_add(t.excluded);
     }
 
     const fn totals(&self) -> Totals {
         Totals {
-            possible: self.possible,
+            possible: self.intervals() * self.samples() as u64,
             valid: self.valid,
             missing: self.missing,
             out_of_range: self.out_of_range,
             rejected: self.rejected as u64,
             flagged: self.flagged,
-            intervals: self.intervals as u64,
+            excluded: self.excluded as u64,
+            intervals: self.intervals(),
             passed: self.passed as u64,
         }
     }
@@ -218,15 +267,16 @@ impl Recovery {
         }
     }
 
-    /// Since the first interval. The samples rejected for their timestamp
-    /// and the interval counts saturate at `u32::MAX`.
+    /// Since the first interval. The samples rejected for their timestamp,
+    /// the excluded readings and the passed intervals saturate at `u32::MAX`,
+    /// the intervals at 2^39 - 1.
     pub const fn since_start(&self) -> Totals {
         self.since.totals()
     }
 
     /// For the calendar month of the latest interval ([`Recovery::month`]).
     pub const fn this_month(&self) -> Totals {
-        self.month_totals.totals()
+        self.month_totals.totals(self.since.samples())
     }
 
     /// The month [`Recovery::this_month`] counts, if any interval was added.
@@ -259,10 +309,15 @@ impl Recovery {
 
     /// [`Recovery::add_interval`] for a caller that already knows the month of
     /// the interval (splitting a timestamp into a date costs 64-bit divisions).
+    ///
+    /// `possible` is the samples per interval at the nominal rate, the same
+    /// for every interval of a station (its layout's): the recovery keeps one
+    /// value, the latest given, and counts possible samples as intervals times
+    /// that value.
     pub fn add_interval_in(&mut self, month: Month, possible: u32, t: &Tally, passed: bool) {
         self.since.add(possible, t, passed);
         self.enter_month(month);
-        self.month_totals.add(possible, t, passed);
+        self.month_totals.add(t, passed);
     }
 
     /// Adds `count` intervals with no samples at all, the first starting at
@@ -271,9 +326,7 @@ impl Recovery {
         if count == 0 {
             return;
         }
-        self.since.possible += count * u64::from(possible);
-        let n = u32::try_from(count).unwrap_or(u32::MAX);
-        self.since.intervals = self.since.intervals.saturating_add(n);
+        self.since.add_intervals(possible, count);
         let last = first.millis() + (count as i64 - 1) * interval_ms;
         let month = Timestamp::from_millis(last).month();
         let from = first.millis().max(month.start().millis());
@@ -281,7 +334,7 @@ impl Recovery {
         // this is the plain division, without a panic path.
         let in_month = ((last - from).checked_div(interval_ms).unwrap_or(0) + 1) as u64;
         self.enter_month(month);
-        self.month_totals.add_empty(in_month, possible);
+        self.month_totals.add_empty(in_month);
     }
 }
 

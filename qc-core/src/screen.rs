@@ -267,6 +267,9 @@ pub(crate) fn interval_flags(r: &ChannelRecord, s: &Screen, spikes: u32) -> Flag
     if t.rejected > 0 {
         f.insert(Flag::Clock);
     }
+    if t.excluded > 0 {
+        f.insert(Flag::Excluded);
+    }
     if spikes > 0 {
         f.insert(Flag::Spike);
     }
@@ -486,12 +489,14 @@ fn diff(a: Option<f64>, b: Option<f64>) -> Option<f64> {
 }
 
 /// Whether an interval with these flags passes screening: it has valid samples
-/// and no flag other than the record-coverage flags `partial` and `clock`.
+/// and no flag other than the record-coverage flags `partial`, `clock` and
+/// `excluded` (what is left after an exclusion is judged by the other tests:
+/// `low_recovery` catches an interval with too few valid samples left).
 pub fn passes(r: &ChannelRecord) -> bool {
     r.tally.valid > 0
         && r.flags
             .iter()
-            .all(|f| matches!(f, Flag::Partial | Flag::Clock))
+            .all(|f| matches!(f, Flag::Partial | Flag::Clock | Flag::Excluded))
 }
 
 #[cfg(test)]

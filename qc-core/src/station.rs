@@ -559,7 +559,10 @@ impl<const C: usize> Layout<C> {
             .speed_channel
             .and_then(|s| self.channels.get(usize::from(s)));
         let slot = acc.slots.get(ch)?;
-        let mut r = slot.acc.finish(channel, self.samples, speed, acc.rejected);
+        let excluded = acc.excluded_of(slot);
+        let mut r = slot
+            .acc
+            .finish(channel, self.samples, speed, (acc.rejected, excluded));
         r.spikes = slot.spikes.count();
         r.flags = Flags::from_bits(
             interval_flags(&r, &channel.config().screen, r.spikes).bits() | acc.flags[ch].bits(),
@@ -572,9 +575,12 @@ impl<const C: usize> Layout<C> {
         core::array::from_fn(|i| {
             // `i < C`, so `finish` always has a record; the fallback is never used.
             self.finish(acc, i).unwrap_or_else(|| {
-                acc.slots[i]
-                    .acc
-                    .finish(&self.channels[i], self.samples, None, acc.rejected)
+                acc.slots[i].acc.finish(
+                    &self.channels[i],
+                    self.samples,
+                    None,
+                    (acc.rejected, acc.excluded_of(&acc.slots[i])),
+                )
             })
         })
     }
@@ -612,6 +618,12 @@ pub struct IntervalAcc<const C: usize, const G: usize> {
     /// Whether [`IntervalAcc::set_state`] has set a channel's state (and with
     /// it `rejected`).
     from_states: bool,
+    /// Samples accepted into the interval. Every one holds a reading of
+    /// every channel, so a channel's readings excluded by decision
+    /// ([`Reading::Excluded`]) are this minus the readings its accumulator
+    /// counted: one count for all channels, as `rejected`, instead of one per
+    /// channel (4 bytes a channel, or 8 in an accumulator's alignment).
+    accepted: u32,
 }
 
 impl<const C: usize, const G: usize> IntervalAcc<C, G> {
@@ -625,6 +637,7 @@ impl<const C: usize, const G: usize> IntervalAcc<C, G> {
             flags: [Flags::EMPTY; C],
             rejected: 0,
             from_states: false,
+            accepted: 0,
         }
     }
 
@@ -639,6 +652,7 @@ impl<const C: usize, const G: usize> IntervalAcc<C, G> {
             flags: [Flags::EMPTY; C],
             rejected: 0,
             from_states: false,
+            accepted: 0,
         }
     }
 
@@ -675,7 +689,7 @@ impl<const C: usize, const G: usize> IntervalAcc<C, G> {
     pub fn tally(&self, ch: usize) -> Option<Tally> {
         self.slots
             .get(ch)
-            .map(|s| s.acc.counts().tally(self.rejected))
+            .map(|s| s.acc.counts().tally(self.rejected, self.excluded_of(s)))
     }
 
     /// Samples rejected for their timestamp while this interval was open.
@@ -683,11 +697,19 @@ impl<const C: usize, const G: usize> IntervalAcc<C, G> {
         self.rejected
     }
 
+    /// The readings of `slot` excluded by decision: the accepted samples
+    /// minus the readings its accumulator counted.
+    const fn excluded_of(&self, slot: &Slot<G>) -> u32 {
+        self.accepted.saturating_sub(slot.acc.counts().counted())
+    }
+
     /// The end state of channel `ch`, to send to a PC that finishes it
     /// ([`crate::wire::encode_state`]); `None` if `ch >= C`. Its tally
     /// carries the interval's rejected samples.
     pub fn state(&self, ch: usize) -> Option<ChannelState> {
-        self.slots.get(ch).map(|s| s.state(self.rejected))
+        self.slots
+            .get(ch)
+            .map(|s| s.state(self.rejected, self.excluded_of(s)))
     }
 
     /// Puts a channel's end state, received from a logger, into this
@@ -717,6 +739,9 @@ impl<const C: usize, const G: usize> IntervalAcc<C, G> {
             });
         }
         *slot = new;
+        // The samples the state's interval held: the same on every channel
+        // (readers check `Tally::same_samples`), so the last state's stands.
+        self.accepted = u32::try_from(state.tally().held()).unwrap_or(u32::MAX);
         self.rejected = rejected;
         self.from_states = true;
         Ok(())
@@ -743,6 +768,7 @@ impl<const C: usize, const G: usize> IntervalAcc<C, G> {
         // One pass over the channels (a Cortex-M0 pays for every extra load and
         // store); a direction linked to a speed classifies that speed's reading
         // again rather than keeping every channel's class in an array.
+        self.accepted = self.accepted.saturating_add(1);
         for ((slot, ch), reading) in self
             .slots
             .iter_mut()
@@ -772,6 +798,7 @@ impl<const C: usize, const G: usize> IntervalAcc<C, G> {
         self.flags = [Flags::EMPTY; C];
         self.rejected = 0;
         self.from_states = false;
+        self.accepted = 0;
     }
 
     /// Clears the flags set by [`Layout::screen`] (a piece screened on its own
@@ -808,6 +835,7 @@ impl<const C: usize, const G: usize> IntervalAcc<C, G> {
         }
         self.clear_flags();
         self.rejected = self.rejected.saturating_add(later.rejected);
+        self.accepted = self.accepted.saturating_add(later.accepted);
         if self.first == NONE_MS {
             self.first = later.first;
         }
@@ -1454,6 +1482,7 @@ mod tally_tests {
             out_of_range,
             rejected,
             flagged: 0,
+            excluded: 0,
         };
         // A full interval, a partial one, and one with a sample more than
         // the nominal rate gives (a fast clock): all as a station counts.
@@ -1702,5 +1731,182 @@ mod flagged_tests {
         back.set_state(&layout, 0, &other.state(0).unwrap())
             .unwrap();
         assert_eq!(back.rejected(), 3);
+    }
+}
+
+#[cfg(test)]
+mod excluded_tests {
+    use crate::{
+        ChannelConfig, Event, Flag, IntervalAcc, Layout, Reading, Stat, Station, StationConfig,
+        Tally, Timestamp,
+    };
+
+    const T0: i64 = 1_700_000_400_000; // 2023-11-14T22:20:00Z, an interval start
+
+    fn layout() -> Layout<3> {
+        Layout::new::<3>(
+            StationConfig::ten_minute_1hz(),
+            &[
+                ChannelConfig::speed(0.1),
+                ChannelConfig::direction().with_speed_channel(0),
+                ChannelConfig::scalar(0.1).with_range(-50.0, 50.0),
+            ],
+        )
+        .unwrap()
+    }
+
+    /// 600 rows of one interval, 1 s apart: speed 5 + (i mod 7) m/s,
+    /// direction 90, temperature 10; the speed excluded from row 100 to 219
+    /// (120 rows), every channel from row 400 to 459 (60 rows), rows 10 and 11
+    /// missing on every channel, row 20 out of range on the temperature.
+    fn rows() -> Vec<[Reading; 3]> {
+        use Reading::{Excluded, Missing, Value};
+        (0..600)
+            .map(|i| {
+                let mut r = [Value(5.0 + (i % 7) as f64), Value(90.0), Value(10.0)];
+                if (100..220).contains(&i) {
+                    r[0] = Excluded;
+                }
+                if (400..460).contains(&i) {
+                    r = [Excluded; 3];
+                }
+                if i == 10 || i == 11 {
+                    r = [Missing; 3];
+                }
+                if i == 20 {
+                    r[2] = Value(99.0);
+                }
+                r
+            })
+            .collect()
+    }
+
+    fn run(rows: &[[Reading; 3]]) -> ([crate::ChannelRecord; 3], [crate::Totals; 3]) {
+        let mut st: Station<3, 3> = Station::new(layout());
+        let mut out = None;
+        let mut keep = |e: Event<'_, 3, 3>| {
+            if let Event::Closed(_, r) = e {
+                out.get_or_insert(*r);
+            }
+        };
+        for (i, r) in rows.iter().enumerate() {
+            st.push(Timestamp::from_millis(T0 + 1000 * i as i64), r, &mut keep);
+        }
+        st.close(&mut keep);
+        let rec = st.recovery();
+        (
+            out.unwrap(),
+            [
+                rec[0].since_start(),
+                rec[1].since_start(),
+                rec[2].since_start(),
+            ],
+        )
+    }
+
+    #[test]
+    fn excluded_readings_are_counted_by_hand_and_never_in_statistics() {
+        let (r, totals) = run(&rows());
+        // By hand: 600 rows; speed: 120 + 60 excluded, 2 missing, 418 valid.
+        assert_eq!(
+            r[0].tally,
+            Tally {
+                valid: 418,
+                missing: 2,
+                excluded: 180,
+                ..Tally::default()
+            }
+        );
+        // Direction: 60 excluded, 2 missing, 538 valid.
+        assert_eq!(
+            r[1].tally,
+            Tally {
+                valid: 538,
+                missing: 2,
+                excluded: 60,
+                ..Tally::default()
+            }
+        );
+        // Temperature: 60 excluded, 2 missing, 1 out of range, 537 valid.
+        assert_eq!(
+            r[2].tally,
+            Tally {
+                valid: 537,
+                missing: 2,
+                out_of_range: 1,
+                excluded: 60,
+                ..Tally::default()
+            }
+        );
+        // The partition: every sample in exactly one counter, on every channel.
+        for rec in &r {
+            assert_eq!(rec.tally.total(), 600);
+            assert!(rec.flags.contains(Flag::Excluded));
+        }
+        assert!(r[0].tally.same_samples(&r[2].tally));
+        // Never in the statistics: the speed mean is the mean of the valid
+        // speeds alone, computed here in plain f64 from the rows.
+        let valid: Vec<f64> = rows()
+            .iter()
+            .filter_map(|x| match x[0] {
+                Reading::Value(v) => Some(v),
+                _ => None,
+            })
+            .collect();
+        assert_eq!(valid.len(), 418);
+        let mean = valid.iter().sum::<f64>() / valid.len() as f64;
+        let Stat::Value(got) = r[0].mean else {
+            panic!("no mean")
+        };
+        assert!((got - mean).abs() < 1e-9, "{got} {mean}");
+        // Running recovery: lost and excluded apart. 600 possible: 418 valid,
+        // 180 excluded by decision, 2 lost.
+        assert_eq!(totals[0].possible, 600);
+        assert_eq!(totals[0].excluded, 180);
+        assert_eq!(totals[0].lost(), 2);
+        assert_eq!(totals[2].excluded, 60);
+        assert_eq!(totals[2].lost(), 3);
+        assert_eq!(totals[2].absent(), 0);
+    }
+
+    #[test]
+    fn excluded_counts_merge_exactly_and_travel_in_states() {
+        let l = layout();
+        let rows = rows();
+        let whole = {
+            let mut acc: IntervalAcc<3, 3> = IntervalAcc::new(&l, 0);
+            for (i, r) in rows.iter().enumerate() {
+                acc.push(&l, Timestamp::from_millis(1000 * i as i64), r);
+            }
+            acc
+        };
+        for cut in [0, 1, 100, 150, 219, 220, 430, 599, 600] {
+            let mut a: IntervalAcc<3, 3> = IntervalAcc::new(&l, 0);
+            let mut b: IntervalAcc<3, 3> = IntervalAcc::new(&l, 0);
+            for (i, r) in rows.iter().enumerate() {
+                let t = Timestamp::from_millis(1000 * i as i64);
+                if i < cut {
+                    a.push(&l, t, r);
+                } else {
+                    b.push(&l, t, r);
+                }
+            }
+            a.merge(&l, &b);
+            for ch in 0..3 {
+                assert_eq!(a.tally(ch), whole.tally(ch), "cut at {cut}");
+                assert_eq!(l.finish(&a, ch), l.finish(&whole, ch), "cut at {cut}");
+            }
+        }
+        // A channel's state carries its excluded count, and puts it back.
+        let mut back: IntervalAcc<3, 3> = IntervalAcc::new(&l, 0);
+        for ch in 0..3 {
+            let s = whole.state(ch).unwrap();
+            assert_eq!(*s.tally(), whole.tally(ch).unwrap());
+            back.set_state(&l, ch, &s).unwrap();
+        }
+        for ch in 0..3 {
+            assert_eq!(back.tally(ch), whole.tally(ch));
+            assert_eq!(l.finish(&back, ch), l.finish(&whole, ch));
+        }
     }
 }

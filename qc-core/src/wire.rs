@@ -142,11 +142,14 @@
 //! | 45 | 3 | reserved, 0 |
 //! | 48 | 68 | the sums, by form (below); unused bytes 0 |
 //! | 116 | 4 | readings their source marked bad ([`Tally::flagged`]), u32 |
-//! | 120 | 4 | reserved, 0 |
+//! | 120 | 4 | readings excluded by decision ([`Tally::excluded`]), u32 |
 //! | 124 | 4 | CRC-32 of bytes 0 to 123 |
 //!
-//! Frames written before the flagged count have 0 at 116 (unused bytes were
-//! 0), so they read as no flagged readings. The rejected count at 36 is the
+//! Frames written before the flagged count have 0 at 116, and frames written
+//! before the excluded count 0 at 120 (unused bytes were 0), so they read as
+//! no flagged and no excluded readings. A logger never excludes (exclusions
+//! are a decision made afterwards, on a PC), so its frames carry 0 there; the
+//! field lets a state travel whole between PC tools. The rejected count at 36 is the
 //! interval's: the same in every channel's frame of one interval.
 //!
 //! Speed and scalar: at 48 the sum of squares of the quanta (i128 as two
@@ -227,8 +230,8 @@
 //! | part | bytes | field |
 //! |---|---:|---|
 //! | time | 8 | sample time, i64 ms since 1970-01-01T00:00Z |
-//! | reading, once per channel | 1 | tag: 0 missing, 1 value, 2 counts, 3 flagged by its source ([`Reading::Flagged`]) |
-//! | | 8 or 4 or 0 | value: `f64` bit pattern (tag 1); counts: `i32` (tag 2); nothing (tags 0 and 3) |
+//! | reading, once per channel | 1 | tag: 0 missing, 1 value, 2 counts, 3 flagged by its source ([`Reading::Flagged`]), 4 excluded by decision ([`Reading::Excluded`]) |
+//! | | 8 or 4 or 0 | value: `f64` bit pattern (tag 1); counts: `i32` (tag 2); nothing (tags 0, 3 and 4) |
 //! | check | 4 | CRC-32 of the frame's bytes before it |
 //!
 //! A sample frame is 12 to [`sample_frame_max_len`]`(C)` = `12 + 9 C` bytes.
@@ -608,6 +611,7 @@ fn get_tally(b: &[u8; FRAME_LEN]) -> Tally {
         out_of_range: get_u32(b, O_OUT_OF_RANGE),
         rejected: get_u32(b, O_REJECTED),
         flagged: 0,
+        excluded: 0,
     }
 }
 
@@ -631,6 +635,10 @@ fn ti_of(kind: Kind, mean: Stat, sd: Stat) -> Stat {
 /// Writes `frame` into `out` as one record frame (layout in the module docs):
 /// version 3 when `frame.config` is `Some`, else version 1 (which has no
 /// room for the flagged count: a version-1 frame reads back with flagged 0).
+///
+/// No version stores [`Tally::excluded`]: a logger never excludes readings
+/// (exclusions are decided afterwards, on a PC), so a record frame reads back
+/// with excluded 0.
 ///
 /// A version-3 frame does not store the turbulence intensity: the reader
 /// computes it from the mean and sd, so a record decodes as written when its
@@ -782,6 +790,7 @@ const T_GUST_PRESENT: usize = 44;
 const T_RESERVED: usize = 45;
 const T_PAYLOAD: usize = 48;
 const T_FLAGGED: usize = 116;
+const T_EXCLUDED: usize = 120;
 
 /// One channel's exact end state in one interval, as a logger that leaves
 /// finishing to a PC writes it (module docs, "State frame layout").
@@ -860,6 +869,7 @@ pub fn encode_state(frame: &StateFrame, out: &mut [u8; FRAME_LEN]) {
     out[T_CHANNELS] = frame.channels;
     put(out, T_FINGERPRINT, frame.fingerprint.to_le_bytes());
     put(out, T_FLAGGED, s.tally.flagged.to_le_bytes());
+    put(out, T_EXCLUDED, s.tally.excluded.to_le_bytes());
     let p = T_PAYLOAD;
     match s.form {
         StateForm::Speed | StateForm::Scalar => {
@@ -897,6 +907,7 @@ pub fn decode_state(b: &[u8; FRAME_LEN]) -> Result<StateFrame, WireError> {
     let mut s = ChannelState::empty(form);
     s.tally = get_tally(b);
     s.tally.flagged = get_u32(b, T_FLAGGED);
+    s.tally.excluded = get_u32(b, T_EXCLUDED);
     s.spikes = get_u32(b, O_SPIKES);
     let p = T_PAYLOAD;
     let gust = b[T_GUST_PRESENT];
@@ -935,7 +946,7 @@ pub fn decode_state(b: &[u8; FRAME_LEN]) -> Result<StateFrame, WireError> {
     };
     let unused = b.get(p + used..T_FLAGGED).unwrap_or(&[]);
     let reserved = b.get(T_RESERVED..T_PAYLOAD).unwrap_or(&[]);
-    let tail = b.get(T_FLAGGED + 4..O_CRC).unwrap_or(&[]);
+    let tail = b.get(T_EXCLUDED + 4..O_CRC).unwrap_or(&[]);
     if unused.iter().chain(reserved).chain(tail).any(|&x| x != 0) {
         return Err(WireError::Reserved);
     }
@@ -1115,6 +1126,7 @@ const TAG_MISSING: u8 = 0;
 const TAG_VALUE: u8 = 1;
 const TAG_COUNTS: u8 = 2;
 const TAG_FLAGGED: u8 = 3;
+const TAG_EXCLUDED: u8 = 4;
 
 // Station part offsets.
 const S_VERSION: usize = 4;
@@ -1655,7 +1667,7 @@ pub fn encode_sample(
             .map(|r| match r {
                 Reading::Value(_) => 9,
                 Reading::Counts(_) => 5,
-                Reading::Missing | Reading::Flagged => 1,
+                Reading::Missing | Reading::Flagged | Reading::Excluded => 1,
             })
             .sum::<usize>();
     let Some(buf) = out.get_mut(..needed) else {
@@ -1675,6 +1687,7 @@ pub fn encode_sample(
             }
             Reading::Missing => w.put(&[TAG_MISSING]),
             Reading::Flagged => w.put(&[TAG_FLAGGED]),
+            Reading::Excluded => w.put(&[TAG_EXCLUDED]),
         }
     }
     let crc = crc32(w.buf.get(..w.at).unwrap_or(&[]));
@@ -1741,6 +1754,7 @@ pub fn decode_sample(input: &[u8], readings: &mut [Reading]) -> SampleDecode {
         *slot = match tag {
             TAG_MISSING => Reading::Missing,
             TAG_FLAGGED => Reading::Flagged,
+            TAG_EXCLUDED => Reading::Excluded,
             TAG_VALUE => match r.take::<8>() {
                 Some(v) => Reading::Value(f64::from_bits(u64::from_le_bytes(v))),
                 None => return SampleDecode::Incomplete,
@@ -1920,6 +1934,7 @@ mod tests {
                 out_of_range: u32::MAX - seed,
                 rejected: seed ^ 0xA5A5,
                 flagged: seed.wrapping_mul(5) ^ 0x3C,
+                excluded: 0,
             },
             mean,
             sd,
@@ -2350,6 +2365,7 @@ mod tests {
                 out_of_range: 2,
                 rejected: 1,
                 flagged: 0x0A0B_0C0D,
+                excluded: 0,
             },
             mean: Stat::Value(8.25),
             gust: Stat::Absent(Absent::NoFullWindow),
@@ -2543,9 +2559,10 @@ mod tests {
                     (_, 3) => Reading::Value(-999.0),
                     (_, 4) => Reading::Value(1e6),
                     (_, 5) => Reading::Flagged,
-                    (0..=2, 6..=50) => Reading::Counts((800.0 + 400.0 * u) as i32),
+                    (_, 6) => Reading::Excluded,
+                    (0..=2, 7..=50) => Reading::Counts((800.0 + 400.0 * u) as i32),
                     (0..=2, _) => Reading::Value(6.0 + 5.0 * u),
-                    (3 | 4, 6..=50) => Reading::Counts((u * 36_000.0) as i32),
+                    (3 | 4, 7..=50) => Reading::Counts((u * 36_000.0) as i32),
                     (3 | 4, _) => Reading::Value(250.0 + 60.0 * u),
                     (5, _) => Reading::Value(-2.0 + 4.0 * u),
                     _ => Reading::Value(80.0 + 20.0 * u),
@@ -2718,10 +2735,13 @@ mod tests {
             let back = decode_state(&reseal_frame(old)).unwrap();
             assert_eq!(back.state.tally().flagged, 0);
             assert_eq!(back.state.tally().valid, frame.state.tally().valid);
-            // The bytes after the count are reserved.
-            let mut bad = b;
-            bad[121] = 1;
-            assert_eq!(decode_state(&reseal_frame(bad)), Err(WireError::Reserved));
+            // The excluded count follows at 120 (u32, little-endian); a
+            // logger's frames carry 0 there, so they read as none excluded.
+            let mut ex = b;
+            ex[121] = 1;
+            let back = decode_state(&reseal_frame(ex)).unwrap();
+            assert_eq!(back.state.tally().excluded, 256);
+            assert_eq!(back.state.tally().flagged, 3);
         }
     }
 
@@ -2762,13 +2782,10 @@ mod tests {
                 assert!(decode_state(&d).is_err(), "bit {bit}");
             }
             // A field out of its domain with a good CRC is refused too.
-            let state = decode_state(b).unwrap();
-            for at in [T_FORM, T_RESERVED, 47, O_CRC - 1] {
+            assert!(decode_state(b).is_ok());
+            for at in [T_FORM, T_RESERVED, 47] {
                 let mut d = *b;
                 d[at] = if at == T_FORM { 9 } else { 1 };
-                if at == O_CRC - 1 && state.state.form() == StateForm::LinkedDirection {
-                    d[at] = 1;
-                }
                 let crc = crc32(&d[..O_CRC]);
                 d[O_CRC..].copy_from_slice(&crc.to_le_bytes());
                 assert!(decode_state(&d).is_err(), "byte {at}");
@@ -2926,6 +2943,7 @@ mod tests {
             any::<i32>().prop_map(Reading::Counts),
             Just(Reading::Missing),
             Just(Reading::Flagged),
+            Just(Reading::Excluded),
         ];
         proptest::collection::vec(one, 3..=3)
     }

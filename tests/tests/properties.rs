@@ -58,7 +58,7 @@ fn out_of_range(ch: usize) -> BoxedStrategy<Reading> {
 
 /// One channel's reading: mostly valid (as a value or as counts), sometimes
 /// missing (absent, NaN, a missing-value code as value or counts), out of
-/// range, or flagged bad by its source.
+/// range, flagged bad by its source, or excluded by decision.
 fn channel_reading(ch: usize) -> BoxedStrategy<Reading> {
     let pu = per_unit(ch);
     prop_oneof![
@@ -69,6 +69,7 @@ fn channel_reading(ch: usize) -> BoxedStrategy<Reading> {
         1 => prop_oneof![Just(-999), Just(-9999)].prop_map(Reading::Counts),
         2 => out_of_range(ch),
         2 => Just(Reading::Flagged),
+        2 => Just(Reading::Excluded),
     ]
     .boxed()
 }
@@ -490,7 +491,10 @@ proptest! {
             prop_assert_eq!(counted[ch] + totals.unplaced, pushed, "channel {}", ch);
             let rec = station.recovery()[ch].since_start();
             prop_assert_eq!(rec.possible, closed_possible[ch] + gap_possible, "channel {}", ch);
-            prop_assert_eq!(rec.valid + rec.missing + rec.out_of_range + rec.rejected + rec.flagged, counted[ch]);
+            prop_assert_eq!(
+                rec.valid + rec.missing + rec.out_of_range + rec.rejected + rec.flagged + rec.excluded,
+                counted[ch]
+            );
         }
     }
 }

@@ -371,6 +371,8 @@ pub fn read(cfg: &StationFile, paths: &[PathBuf]) -> Result<Dataset> {
                 rejected: opt(cols.n_rejected, "n_rejected")?,
                 // Records from before the column: no flagged readings.
                 flagged: opt(cols.n_flagged, "n_flagged")?,
+                // Records from before the column: no excluded readings.
+                excluded: opt(cols.n_excluded, "n_excluded")?,
             };
             let n_possible = count(&rec, &at, cols.n_possible, "n_possible")?;
             if let Err(e) = cfg.station.check_tally(n_possible, &tally) {
@@ -479,7 +481,7 @@ pub fn read(cfg: &StationFile, paths: &[PathBuf]) -> Result<Dataset> {
             match held[i] {
                 None => held[i] = Some((row.tally, ch, file_no, line)),
                 Some((t0, ch0, f0, l0)) if !t0.same_samples(&row.tally) => bail!(
-                    "{}:{line}: {} {}: {} samples held (n_valid + n_missing + n_out_of_range + n_flagged) and {} rejected, but {} of the same interval ({}:{l0}) has {} and {}: every sample is counted once on every channel, so these counts cannot come from a station",
+                    "{}:{line}: {} {}: {} samples held (n_valid + n_missing + n_out_of_range + n_flagged + n_excluded) and {} rejected, but {} of the same interval ({}:{l0}) has {} and {}: every sample is counted once on every channel, so these counts cannot come from a station",
                     paths[file_no as usize].display(),
                     Rfc3339(Timestamp::from_millis(start)),
                     cfg.channels[ch].id,

@@ -224,7 +224,10 @@ pub fn run(a: &ReportArgs) -> Result<ExitCode> {
     for t in &tables {
         t.write(&a.output)?;
     }
-    output::write_file(&a.output.join("report.html"), "the report", page.as_bytes())?;
+    let html = a.output.join("report.html");
+    output::write_file(&html, "the report", page.as_bytes())?;
+    let used = crate::provenance::inputs(&cfg, "records", a.records.iter().map(|p| p.as_path()));
+    crate::provenance::write(&html, &cfg, &used)?;
     let mut out = output::Output::stdout("the report's summary");
     summary(&mut out, &d, &r, a, tables.len())?;
     out.finish()?;

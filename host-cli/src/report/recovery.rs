@@ -1,7 +1,10 @@
 //! Recovery per channel and calendar month, and joint recovery of speed and
 //! direction.
 //!
-//! Sample recovery is valid / possible samples; interval recovery is intervals
+//! Sample recovery is valid / possible samples; the possible samples not valid
+//! are split into those excluded by decision (the station file's exclusions,
+//! `n_excluded`) and those lost (`possible - valid - excluded`: never recorded,
+//! missing, out of range, flagged by their source). Interval recovery is intervals
 //! passing screening / possible intervals ([`qc_core::Totals`]). Possible
 //! intervals are those of the period the records cover, month by month. The
 //! usual target is 90 % (US EPA-454/R-99-005 sec. 5.3.2, there per quarter,
@@ -161,6 +164,8 @@ pub fn table(d: &Dataset, r: &Recovery) -> Table {
             ("month", "month"),
             ("n_possible", "samples possible"),
             ("n_valid", "valid"),
+            ("n_excluded", "excluded by decision"),
+            ("n_lost", "lost"),
             ("sample_recovery", "sample recovery"),
             ("intervals", "intervals"),
             ("intervals_passed", "passing"),
@@ -183,6 +188,8 @@ pub fn table(d: &Dataset, r: &Recovery) -> Table {
                 text(label),
                 int(tot.possible),
                 int(tot.valid),
+                int(tot.excluded),
+                int(tot.lost()),
                 marked(s),
                 int(tot.intervals),
                 int(tot.passed),
