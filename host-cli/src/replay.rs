@@ -54,9 +54,12 @@ impl Sink for Counting<'_> {
             .iter()
             .map(|r| {
                 (
-                    // The tally's excluded count, where it has one, is carried
-                    // by the `excluded` flag.
-                    outages::cause_of(qc_core::screen::passes(r), r.tally.valid, 0, r.flags),
+                    outages::cause_of(
+                        qc_core::screen::passes(r),
+                        r.tally.valid,
+                        r.tally.excluded,
+                        r.flags,
+                    ),
                     r.flags,
                 )
             })
