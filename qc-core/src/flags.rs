@@ -30,11 +30,16 @@ pub enum Flag {
     Partial = 7,
     /// Samples in the interval were rejected for their timestamps.
     Clock = 8,
+    /// The sensor-history entry in force changed inside the interval (a
+    /// sensor swapped, re-calibrated or a vane re-aligned): its samples were
+    /// converted with two entries. Set by the reader of the history (the
+    /// `tenmin` command), not by screening; not a fault of the data.
+    SensorChange = 9,
 }
 
 impl Flag {
     /// Every flag, in the order records print them.
-    pub const ALL: [Flag; 9] = [
+    pub const ALL: [Flag; 10] = [
         Flag::Range,
         Flag::Spike,
         Flag::Flatline,
@@ -44,6 +49,7 @@ impl Flag {
         Flag::LowRecovery,
         Flag::Partial,
         Flag::Clock,
+        Flag::SensorChange,
     ];
 
     /// The name records print.
@@ -58,6 +64,7 @@ impl Flag {
             Flag::LowRecovery => "low_recovery",
             Flag::Partial => "partial",
             Flag::Clock => "clock",
+            Flag::SensorChange => "sensor_change",
         }
     }
 

@@ -486,12 +486,13 @@ fn diff(a: Option<f64>, b: Option<f64>) -> Option<f64> {
 }
 
 /// Whether an interval with these flags passes screening: it has valid samples
-/// and no flag other than the record-coverage flags `partial` and `clock`.
+/// and no flag other than the record-coverage flags `partial` and `clock`
+/// and `sensor_change` (a change of sensor-history entry, not a fault).
 pub fn passes(r: &ChannelRecord) -> bool {
     r.tally.valid > 0
         && r.flags
             .iter()
-            .all(|f| matches!(f, Flag::Partial | Flag::Clock))
+            .all(|f| matches!(f, Flag::Partial | Flag::Clock | Flag::SensorChange))
 }
 
 #[cfg(test)]
