@@ -75,8 +75,17 @@ struct RawFile {
     logging: Spanned<RawLogging>,
     station: Option<RawStation>,
     input: Option<Spanned<RawInput>>,
+    campaign: Option<RawCampaign>,
     #[serde(default)]
     channel: Vec<Spanned<RawChannel>>,
+}
+
+/// `[campaign]`: the campaign's side files, paths relative to the station file.
+#[derive(Deserialize)]
+#[serde(deny_unknown_fields)]
+struct RawCampaign {
+    /// The sensor history ([`crate::sensors`]).
+    sensors: Option<Spanned<String>>,
 }
 
 #[derive(Deserialize)]
@@ -110,6 +119,14 @@ struct RawChannel {
     kind: Spanned<RawKind>,
     unit: Option<String>,
     height_m: Option<Spanned<f64>>,
+    // Informational: the sensor (its history, if it changes, goes in the
+    // `[campaign] sensors` file).
+    #[allow(dead_code)]
+    model: Option<String>,
+    #[allow(dead_code)]
+    serial: Option<String>,
+    #[allow(dead_code)]
+    note: Option<String>,
     range: Option<Spanned<[f64; 2]>>,
     resolution: Option<Spanned<f64>>,
     gust_window_s: Option<Spanned<f64>>,
@@ -201,6 +218,8 @@ pub struct StationFile {
     pub station: StationConfig,
     /// Channels, in file order.
     pub channels: Vec<ChannelSpec>,
+    /// The sensor history named by `[campaign] sensors`, if any.
+    pub sensors: Option<std::sync::Arc<crate::sensors::History>>,
 }
 
 /// Reads and checks a station file.
@@ -377,6 +396,26 @@ pub fn parse(path: &Path, text: &str) -> Result<StationFile> {
         &|span, msg| at.err(span, &msg),
         &|span| at.line(&span),
     )?;
+    let sensors = match raw.campaign.as_ref().and_then(|c| c.sensors.as_ref()) {
+        Some(name) => {
+            if name.get_ref().is_empty() {
+                bail!(at.err(name.span(), "`sensors`: the sensor history's file name"));
+            }
+            let dir = path.parent().unwrap_or(Path::new(""));
+            let file = dir.join(name.get_ref());
+            if !file.is_file() {
+                bail!(at.err(
+                    name.span(),
+                    &format!(
+                        "`sensors`: {} is not a file (the path is relative to the station file)",
+                        file.display()
+                    )
+                ));
+            }
+            Some(std::sync::Arc::new(crate::sensors::load(&file, &channels)?))
+        }
+        None => None,
+    };
     let file = StationFile {
         path: path.to_path_buf(),
         name: raw.station.and_then(|s| s.name),
@@ -385,9 +424,11 @@ pub fn parse(path: &Path, text: &str) -> Result<StationFile> {
         table,
         station,
         channels,
+        sensors,
     };
     // Let the core validate everything it checks, once, here.
     file.layout::<MAX_CHANNELS>()?;
+    file.epochs::<MAX_CHANNELS>()?;
     Ok(file)
 }
 
@@ -788,6 +829,23 @@ impl StationFile {
                 .map_or(ChannelConfig::scalar(1.0), |c| c.core)
         });
         Layout::new::<GUST_CAPACITY>(self.station, &cfgs).map_err(|e| self.config_error(e))
+    }
+
+    /// The layouts of the sensor history's periods ([`crate::sensors::Epochs`]),
+    /// `None` without a history.
+    pub fn epochs<const C: usize>(&self) -> Result<Option<crate::sensors::Epochs<C>>> {
+        let Some(h) = &self.sensors else {
+            return Ok(None);
+        };
+        if self.channels.len() > C {
+            bail!("{} channels do not fit {C} slots", self.channels.len());
+        }
+        let cfgs: [ChannelConfig; C] = core::array::from_fn(|i| {
+            self.channels
+                .get(i)
+                .map_or(ChannelConfig::scalar(1.0), |c| c.core)
+        });
+        crate::sensors::Epochs::new(h, self.station, &cfgs).map(Some)
     }
 
     fn config_error(&self, e: ConfigError) -> anyhow::Error {

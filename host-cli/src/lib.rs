@@ -28,6 +28,7 @@ pub mod records;
 pub mod replay;
 pub mod report;
 pub mod samples;
+pub mod sensors;
 pub mod summary;
 pub mod table;
 pub mod timefmt;
@@ -472,7 +473,7 @@ fn replay_cmd(a: ReplayArgs) -> Result<ExitCode> {
     }
     let cfg = config::load(&a.config)?;
     let summary = output::write_to(a.output.as_deref(), "records", |w| {
-        let mut writer = records::Writer::new(w, ids(&cfg))?;
+        let mut writer = records::Writer::new(w, ids(&cfg))?.with_sensors(cfg.sensors.clone());
         let s = replay::replay(&cfg, &a.samples, options(&a.input), &mut writer)?;
         writer.finish()?;
         Ok(s)
@@ -493,7 +494,8 @@ fn inputs<'a>(config: &'a Path, what: &'a str, files: &'a [PathBuf]) -> Vec<(&'a
 
 fn verify_cmd(a: VerifyArgs) -> Result<ExitCode> {
     let cfg = config::load(&a.config)?;
-    let mut cmp = verify::Comparer::open(&a.records, cfg.station, ids(&cfg), a.max_diffs)?;
+    let mut cmp = verify::Comparer::open(&a.records, cfg.station, ids(&cfg), a.max_diffs)?
+        .with_sensors(cfg.sensors.clone());
     let summary = replay::replay(&cfg, &a.samples, options(&a.input), &mut cmp)?;
     let report = cmp.finish()?;
     if !a.input.quiet {

@@ -41,6 +41,7 @@ use qc_core::{
 
 use crate::config::{StationFile, MAX_CHANNELS};
 use crate::engine::{Out, Sink, G};
+use crate::sensors::Epochs;
 use crate::reader::{FileReader, Head, Piece};
 use crate::samples::{
     check_jump, csv_rows, file_len, BadRow, InputStats, Options, Parser, Progress, Records,
@@ -157,6 +158,9 @@ type Emit<'a, const C: usize> = dyn FnMut(Msg<C>) -> Result<()> + 'a;
 /// One chunk's replay through a fresh station.
 struct Run<'a, const C: usize> {
     layout: &'a Layout<C>,
+    /// With a sensor history: the layout in force at each sample's time.
+    epochs: Option<Arc<Epochs<C>>>,
+    cursor: usize,
     opts: Options,
     /// The last sample accepted before the chunk, when known.
     floor: Option<Timestamp>,
@@ -170,9 +174,16 @@ struct Run<'a, const C: usize> {
 }
 
 impl<'a, const C: usize> Run<'a, C> {
-    fn new(layout: &'a Layout<C>, opts: Options, floor: Option<Timestamp>) -> Self {
+    fn new(
+        layout: &'a Layout<C>,
+        epochs: Option<Arc<Epochs<C>>>,
+        opts: Options,
+        floor: Option<Timestamp>,
+    ) -> Self {
         Run {
             layout,
+            epochs,
+            cursor: 0,
             opts,
             floor,
             probe: None,
@@ -214,12 +225,18 @@ impl<'a, const C: usize> Run<'a, C> {
         if let Some(st) = self.station.as_mut() {
             check_jump(&self.opts, self.last, t, path, line)?;
             let events = &mut self.events;
-            let pushed = st.push(t, &self.readings, |e| {
+            let emit = |e: Event<'_, C, G>| {
                 events.push(match e {
                     Event::Closed(acc, _) => Ev::Closed(Box::new(*acc)),
                     Event::Gap(g) => Ev::Gap(g),
                 })
-            });
+            };
+            let pushed = match &self.epochs {
+                None => st.push(t, &self.readings, emit),
+                Some(ep) => st
+                    .push_with(ep.at(t, &mut self.cursor), t, &self.readings, emit)
+                    .map_err(anyhow::Error::from)?,
+            };
             if pushed == Pushed::Accepted {
                 self.last = Some(t);
             }
@@ -241,7 +258,12 @@ impl<'a, const C: usize> Run<'a, C> {
         }
         let lead = self.lead();
         let mut st = Box::new(Station::new(*layout));
-        st.push(t, &self.readings, |_| {});
+        match &self.epochs {
+            None => st.push(t, &self.readings, |_| {}),
+            Some(ep) => st
+                .push_with(ep.at(t, &mut self.cursor), t, &self.readings, |_| {})
+                .map_err(anyhow::Error::from)?,
+        };
         self.station = Some(st);
         self.probe = None;
         self.last = Some(t);
@@ -308,6 +330,7 @@ enum Flow {
 /// Joins the chunks' pieces in time order and hands the records out.
 struct Joiner<'s, const C: usize> {
     layout: Layout<C>,
+    epochs: Option<Arc<Epochs<C>>>,
     opts: Options,
     screener: Screener<C>,
     recovery: [Recovery; C],
@@ -451,7 +474,7 @@ impl<const C: usize> Joiner<'_, C> {
     /// A chunk replayed here, knowing the last accepted sample before it.
     fn redo(&mut self, parser: &Parser, bytes: &[u8], line: u64, path: &Path) -> Result<()> {
         let layout = self.layout;
-        let run = Run::new(&layout, self.opts, self.last);
+        let run = Run::new(&layout, self.epochs.clone(), self.opts, self.last);
         let mut parser = parser.clone();
         run.chunk(&mut parser, bytes, line, path, &mut |m| self.here(m, path))
     }
@@ -466,7 +489,7 @@ impl<const C: usize> Joiner<'_, C> {
         mut head: Head,
     ) -> Result<()> {
         let layout = self.layout;
-        let mut run = Run::new(&layout, self.opts, self.last);
+        let mut run = Run::new(&layout, self.epochs.clone(), self.opts, self.last);
         let mut halt = None;
         let seen = {
             let mut send = |m| self.here(m, path);
@@ -528,11 +551,13 @@ fn run<const C: usize>(
     sink: &mut dyn Sink,
 ) -> Result<(InputStats, PushTotals, Vec<Totals>)> {
     let layout = cfg.layout::<C>()?;
+    let epochs = cfg.epochs::<C>()?.map(Arc::new);
     let n = cfg.channels.len();
     let jobs = opts.jobs.max(1);
     let progress = Progress::new(files, &opts);
     let mut joiner = Joiner {
         layout,
+        epochs: epochs.clone(),
         opts,
         screener: Screener::new(),
         recovery: [Recovery::new(); C],
@@ -551,7 +576,8 @@ fn run<const C: usize>(
             let (job_tx, job_rx) = sync_channel::<Job>(2);
             let (msg_tx, msg_rx) = sync_channel::<Msg<C>>(4);
             let layout = &layout;
-            s.spawn(move || worker(layout, files, opts, job_rx, msg_tx));
+            let epochs = epochs.clone();
+            s.spawn(move || worker(layout, epochs, files, opts, job_rx, msg_tx));
             to_workers.push(job_tx);
             from_workers.push(msg_rx);
         }
@@ -620,6 +646,7 @@ fn run<const C: usize>(
 
 fn worker<const C: usize>(
     layout: &Layout<C>,
+    epochs: Option<Arc<Epochs<C>>>,
     files: &[PathBuf],
     opts: Options,
     jobs: Receiver<Job>,
@@ -628,7 +655,7 @@ fn worker<const C: usize>(
     let mut send = |m| out.send(m).map_err(|_| anyhow!("closed"));
     for job in jobs {
         let mut parser = (*job.parser).clone();
-        let run = Run::new(layout, opts, None);
+        let run = Run::new(layout, epochs.clone(), opts, None);
         if run
             .chunk(
                 &mut parser,

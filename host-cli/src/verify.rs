@@ -29,7 +29,7 @@ use qc_core::{ChannelRecord, Flag, StationConfig, Tally, Timestamp};
 
 use crate::engine::Sink;
 use crate::limits::{self, Capped};
-use crate::records::{ulp_distance, write_row, Type, COLUMNS, N_FLAGGED};
+use crate::records::{ulp_distance, write_row, Type, COLUMNS, N_FLAGGED, SENSOR_ENTRIES};
 use crate::timefmt::{parse_time_any as parse_time, Rfc3339};
 
 /// One difference found.
@@ -222,7 +222,7 @@ impl LoggerFile {
             .map(|c| names.iter().position(|n| n == c.name))
             .collect();
         for (k, (c, i)) in COLUMNS.iter().zip(&index).enumerate() {
-            if i.is_none() && k != N_FLAGGED {
+            if i.is_none() && k != N_FLAGGED && k != SENSOR_ENTRIES {
                 report.add(Difference {
                     start: String::new(),
                     channel: String::new(),
@@ -415,6 +415,7 @@ pub struct Comparer {
     pending: Option<Group>,
     ids: Vec<String>,
     buf: Vec<u8>,
+    sensors: Option<std::sync::Arc<crate::sensors::History>>,
     /// Differences so far.
     pub report: Report,
 }
@@ -433,8 +434,16 @@ impl Comparer {
             pending: None,
             ids,
             buf: Vec::with_capacity(256),
+            sensors: None,
             report,
         })
+    }
+
+    /// Marks the replay's rows with the sensor history (the station file's),
+    /// as `tenmin replay` writes them.
+    pub fn with_sensors(mut self, sensors: Option<std::sync::Arc<crate::sensors::History>>) -> Self {
+        self.sensors = sensors;
+        self
     }
 
     fn extra_rows(&mut self, g: Group) {
@@ -465,6 +474,8 @@ impl Comparer {
                 Some(j) => theirs.fields.get(j).map_or("", String::as_str),
                 // A file from before the column: no flagged readings.
                 None if k == N_FLAGGED => "0",
+                // A file from before the column: no sensor history.
+                None if k == SENSOR_ENTRIES => "",
                 None => continue,
             };
             let a = ours.get(k).copied().unwrap_or("");
@@ -549,11 +560,11 @@ impl Sink for Comparer {
         let start_text = Rfc3339(start).to_string();
         let mut rows = group.map(|g| g.rows).unwrap_or_default();
         let ids = std::mem::take(&mut self.ids);
-        for (id, r) in ids.iter().zip(records) {
+        for (ch, (id, r)) in ids.iter().zip(records).enumerate() {
             self.report.replay_rows += 1;
             let mut buf = std::mem::take(&mut self.buf);
             buf.clear();
-            write_row(&mut buf, start, end, id, r)?;
+            write_row(&mut buf, start, end, (id, ch), r, self.sensors.as_deref())?;
             let line = std::str::from_utf8(&buf).unwrap_or("").trim_end();
             let ours: Vec<&str> = line.split(',').collect();
             match rows.iter().position(|row| row.channel == *id) {
