@@ -164,9 +164,9 @@ pub fn run(a: &crate::ExportArgs) -> Result<ExitCode> {
         &crate::inputs(&a.config, "samples file", &a.samples),
     )?;
     let cfg = config::load(&a.config)?;
-    if let Some(h) = cfg.sensors.as_deref().filter(|h| h.rescales()) {
+    if let Some(h) = cfg.sensors.as_deref().filter(|h| h.converts()) {
         anyhow::bail!(
-            "{}: the sensor history {} re-scales values, and a sample file carries one configuration: a logger holds only the entry in force, so export the samples of one period with a station file giving that entry alone",
+            "{}: the sensor history {} sets re-scalings or mounting offsets, and a sample file carries one configuration: a logger holds only the entry in force, so export the samples of one period with a station file giving that entry alone",
             a.config.display(),
             h.path.display()
         );

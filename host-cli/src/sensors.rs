@@ -467,10 +467,14 @@ impl History {
         f
     }
 
-    /// Whether any entry re-scales values (a logger under test replays values
-    /// as logged: `tenmin export` refuses such a station).
-    pub fn rescales(&self) -> bool {
-        self.channels.iter().flatten().any(|e| e.recal.is_some())
+    /// Whether any entry changes how values are converted (a re-scaling or a
+    /// mounting offset): a sample file carries one configuration, so `tenmin
+    /// export` refuses such a station.
+    pub fn converts(&self) -> bool {
+        self.channels
+            .iter()
+            .flatten()
+            .any(|e| e.recal.is_some() || e.offset_deg.is_some())
     }
 
     /// The instants at which some channel's entry in force changes, sorted.
