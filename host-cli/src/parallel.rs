@@ -41,11 +41,11 @@ use qc_core::{
 
 use crate::config::{StationFile, MAX_CHANNELS};
 use crate::engine::{Out, Sink, G};
-use crate::sensors::Epochs;
 use crate::reader::{FileReader, Head, Piece};
 use crate::samples::{
     check_jump, csv_rows, file_len, BadRow, InputStats, Options, Parser, Progress, Records,
 };
+use crate::sensors::Epochs;
 
 /// Closed intervals per message from a worker.
 const BATCH: usize = 16;

@@ -243,6 +243,10 @@ mod tests {
             .starts_with("start,end,channel,n_possible,n_valid,mean,sd,min,max,gust,flags,"));
         assert_eq!(COLUMNS[N_FLAGGED].name, "n_flagged");
         assert_eq!(COLUMNS[SENSOR_ENTRIES].name, "sensor_entries");
-        assert_eq!(COLUMNS.len(), SENSOR_ENTRIES + 1, "sensor_entries is the last column");
+        assert_eq!(
+            COLUMNS.len(),
+            SENSOR_ENTRIES + 1,
+            "sensor_entries is the last column"
+        );
     }
 }

@@ -159,8 +159,8 @@ impl At<'_> {
 
 /// Reads the history `path` for `channels`, capped as a station file is.
 pub fn load(path: &Path, channels: &[ChannelSpec]) -> Result<History> {
-    let bytes = crate::limits::read_station_file(path)
-        .map_err(|e| anyhow!("sensor history: {e:#}"))?;
+    let bytes =
+        crate::limits::read_station_file(path).map_err(|e| anyhow!("sensor history: {e:#}"))?;
     let text = String::from_utf8(bytes)
         .map_err(|_| anyhow!("{}: the sensor history is not valid UTF-8", path.display()))?;
     parse(path, &text, channels)
@@ -230,11 +230,7 @@ pub fn parse(path: &Path, text: &str, channels: &[ChannelSpec]) -> Result<Histor
         let to = r.to.as_ref().map(|t| instant(&at, "to", t)).transpose()?;
         if let (Some(t), Some(span)) = (to, r.to.as_ref()) {
             if t <= from {
-                return Err(at.err(
-                    &span.span(),
-                    "to",
-                    "must be after the entry's `from`",
-                ));
+                return Err(at.err(&span.span(), "to", "must be after the entry's `from`"));
             }
         }
         if let Some(prev) = per[ch].last_mut() {
@@ -274,7 +270,9 @@ pub fn parse(path: &Path, text: &str, channels: &[ChannelSpec]) -> Result<Histor
                 return Err(at.err(
                     &o.span(),
                     "offset_deg",
-                    &format!("a mounting offset applies to direction channels; {name:?} is not one"),
+                    &format!(
+                        "a mounting offset applies to direction channels; {name:?} is not one"
+                    ),
                 ));
             }
             let v = *o.get_ref();
@@ -367,8 +365,8 @@ pub fn parse(path: &Path, text: &str, channels: &[ChannelSpec]) -> Result<Histor
 fn certificate(at: &At<'_>, c: &Spanned<RawCertificate>) -> Result<Certificate> {
     let r = c.get_ref();
     if let Some(d) = &r.date {
-        let ok = jiff::civil::Date::strptime("%Y-%m-%d", d.get_ref()).is_ok()
-            && d.get_ref().len() == 10;
+        let ok =
+            jiff::civil::Date::strptime("%Y-%m-%d", d.get_ref()).is_ok() && d.get_ref().len() == 10;
         if !ok {
             return Err(at.err(
                 &d.span(),
@@ -425,9 +423,8 @@ impl History {
     /// (an entry starting or ending strictly inside the interval).
     pub fn changes_within(&self, ch: usize, start: i64, end: i64) -> bool {
         self.channels.get(ch).is_some_and(|es| {
-            es.iter().any(|e| {
-                (start < e.from && e.from < end) || (start < e.until && e.until < end)
-            })
+            es.iter()
+                .any(|e| (start < e.from && e.from < end) || (start < e.until && e.until < end))
         })
     }
 
@@ -580,13 +577,23 @@ impl<const C: usize> Epochs<C> {
         &self.layouts[*cursor]
     }
 
-    /// The fingerprints of the layouts in force during `[start, end)` (ms):
-    /// a logger holding the entry in force stamps its frames with one of them.
+    /// The fingerprint (over the station's real channels) of the layout in
+    /// force at `t`: what a logger holding that entry stamps in its frames.
+    pub fn fingerprint_at(&self, t: Timestamp) -> u32 {
+        let mut cursor = 0;
+        self.at(t, &mut cursor);
+        self.prints[cursor]
+    }
+
+    /// The fingerprints of the layouts in force during the interval
+    /// `[start, end)` (ms) or at its end: a logger holding the entry in force
+    /// stamps its frames with one of them (it writes an interval's frames when
+    /// the next interval starts, possibly under a new entry).
     pub fn fingerprints(&self, start: i64, end: i64) -> Vec<u32> {
         (0..self.starts.len())
             .filter(|&i| {
                 let until = self.starts.get(i + 1).copied().unwrap_or(i64::MAX);
-                self.starts[i] < end && start < until
+                self.starts[i] <= end && start < until
             })
             .map(|i| self.prints[i])
             .collect()

@@ -441,7 +441,10 @@ impl Comparer {
 
     /// Marks the replay's rows with the sensor history (the station file's),
     /// as `tenmin replay` writes them.
-    pub fn with_sensors(mut self, sensors: Option<std::sync::Arc<crate::sensors::History>>) -> Self {
+    pub fn with_sensors(
+        mut self,
+        sensors: Option<std::sync::Arc<crate::sensors::History>>,
+    ) -> Self {
         self.sensors = sensors;
         self
     }
