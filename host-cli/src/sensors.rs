@@ -23,8 +23,10 @@
 //! ```
 //!
 //! What the core does with an entry: [`qc_core::Recal`] (re-scaling of logged
-//! values, in a stated order of operations) and the mounting offset of a
-//! direction channel. Everything else is kept for people reading the file.
+//! values, in a stated order of operations, when the logger's transfer
+//! function is not the certificate's; a logger programmed with the sensor's
+//! own certificate logs calibrated values, taken as they are) and the
+//! mounting offset of a direction channel. Everything else is kept for people reading the file.
 //! The station uses one [`qc_core::Layout`] per period in which the same
 //! entries are in force ([`Epochs`]); every such layout has the station's
 //! frame ([`qc_core::Layout::frame`]): quanta, ranges, gust windows and
@@ -317,6 +319,18 @@ pub fn parse(path: &Path, text: &str, channels: &[ChannelSpec]) -> Result<Histor
                     "certificate",
                     "re-scaling to the certificate needs the transfer function programmed in the logger: `logger = { slope = ..., offset = ... }`",
                 ));
+            }
+            // The logger was programmed with this sensor's own certificate:
+            // the values are logged calibrated, nothing to re-scale.
+            (Some((ls, lo, span)), Some((cs, co))) if ls == cs && lo == co => {
+                if !(ls.is_finite() && ls > 0.0 && lo.is_finite()) {
+                    return Err(at.err(
+                        &span,
+                        "logger",
+                        "the slope must be finite and positive, the offset finite",
+                    ));
+                }
+                None
             }
             (Some((ls, lo, span)), Some((cs, co))) => {
                 if spec.decode == Decode::Counts {

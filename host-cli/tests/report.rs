@@ -158,7 +158,12 @@ fn demo_report_calls_the_planted_dropout_not_random() {
     );
     std::fs::write(
         d.join("nopair.toml"),
-        toml.replace("partner = \"ws80b\"\n", ""),
+        toml.replace("partner = \"ws80b\"\n", "")
+            // The side files are named relative to the station file.
+            .replace(
+                "sensors = \"sensors.toml\"",
+                "sensors = \"demo/sensors.toml\"",
+            ),
     )
     .unwrap();
     let mut samples: Vec<String> = std::fs::read_dir(d.join("demo"))
