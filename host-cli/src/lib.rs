@@ -54,14 +54,25 @@ macro_rules! formats {
                 counts (the column then holds integer counts); optional
                 [channel.screen] table overriding the screening defaults
                 (step_limit, mean_range, sd_range, gust_max, min_recovery,
-                flat_span_s, flat_tolerance, partner, above, icing, off = [...]).
+                flat_span_s, flat_tolerance, partner, above, icing, off = [...]);
+                informational model, serial, note; [campaign] sensors = FILE,
+                the sensor history.
+  sensors.toml  [[entry]] id, channel, from (RFC 3339; in force until the
+                channel's next entry or its `to`), model, serial, note,
+                logger = { slope, offset } (the logger's transfer function),
+                certificate = { id, date, slope, offset, uncertainty },
+                offset_deg (vane): samples are converted with the entry in force,
+                v = (v_logged - logger.offset) / logger.slope * cert.slope
+                + cert.offset (speed and scalar values).
   samples CSV   header `time,<channel ids>` in any order; time RFC 3339
                 (2025-01-20T00:00:01Z, offsets like +01:00, up to .mmm) or epoch
                 seconds (decimal to ms); missing = empty, NaN or a missing-value code.
   records CSV   start,end,channel,n_possible,n_valid,mean,sd,min,max,gust,flags,
                 n_missing,n_out_of_range,n_rejected,ti,resultant_length,
                 resultant_speed,resultant_direction,n_spikes,n_flagged (readings
-                whose `quality` code is not good): one row per interval and
+                whose `quality` code is not good),sensor_entries (the sensor
+                history's entries in force; flag sensor_change where one
+                changed inside the interval): one row per interval and
                 channel, times UTC; empty field = no value; for direction, mean
                 is the unit-vector mean and sd is sigma-theta.
 "
