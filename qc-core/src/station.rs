@@ -1926,4 +1926,36 @@ mod recalibration {
     }
 
     const FINGERPRINT_BEFORE: u32 = 0x994b_ee3e;
+
+    use proptest::prelude::*;
+
+    proptest! {
+        /// A re-scaled channel gives the records of a plain channel fed the
+        /// re-scaled values (computed here by the formula, in its order): the
+        /// re-scaling path judges and quantises as the value path does.
+        #[test]
+        fn rescaling_in_the_core_is_feeding_the_rescaled_values(
+            logged in proptest::collection::vec(-5.0f64..80.0, 1..700),
+            ls in 0.02f64..2.0,
+            lo in -1.0f64..1.0,
+            cs in 0.02f64..2.0,
+            co in -1.0f64..1.0,
+        ) {
+            let recal = Recal { logger_slope: ls, logger_offset: lo, cert_slope: cs, cert_offset: co };
+            let mut a: Station<2, 3> = Station::new(layout(Some(recal), 0.0));
+            let mut b: Station<2, 3> = Station::new(layout(None, 0.0));
+            let t0 = 1_700_000_400_000;
+            for (i, v) in logged.iter().enumerate() {
+                let t = Timestamp::from_millis(t0 + i as i64 * 1000);
+                let w = (v - lo) / ls * cs + co;
+                a.push(t, &[Reading::Value(*v), Reading::Missing], |_| {});
+                b.push(t, &[Reading::Value(w), Reading::Missing], |_| {});
+            }
+            let mut ra = None;
+            let mut rb = None;
+            a.close(|e| if let Event::Closed(_, r) = e { ra = Some(r[0]) });
+            b.close(|e| if let Event::Closed(_, r) = e { rb = Some(r[0]) });
+            prop_assert_eq!(ra, rb);
+        }
+    }
 }
