@@ -102,7 +102,7 @@ impl Scale {
 /// rounded to nearest: a subtraction, a division, a multiplication, an
 /// addition (no fused multiply-add: Rust never contracts them). The result is
 /// then judged against the channel's range and rounded to the channel's
-/// quantum as any value is ([`Channel::classify`] is the only place this
+/// quantum as any value is (`Channel::classify` is the only place this
 /// happens), so every target gives the same integer.
 #[derive(Clone, Copy, Debug, PartialEq)]
 #[cfg_attr(feature = "defmt", derive(defmt::Format))]
