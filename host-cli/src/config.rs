@@ -94,6 +94,8 @@ struct RawCampaign {
     /// Events file (site visits, maintenance, logger resets), read by
     /// `tenmin report` ([`crate::report`]'s events).
     events: Option<Spanned<String>>,
+    /// The sensor history ([`crate::sensors`]).
+    sensors: Option<Spanned<String>>,
 }
 
 #[derive(Deserialize)]
@@ -127,6 +129,14 @@ struct RawChannel {
     kind: Spanned<RawKind>,
     unit: Option<String>,
     height_m: Option<Spanned<f64>>,
+    // Informational: the sensor (its history, if it changes, goes in the
+    // `[campaign] sensors` file).
+    #[allow(dead_code)]
+    model: Option<String>,
+    #[allow(dead_code)]
+    serial: Option<String>,
+    #[allow(dead_code)]
+    note: Option<String>,
     range: Option<Spanned<[f64; 2]>>,
     resolution: Option<Spanned<f64>>,
     gust_window_s: Option<Spanned<f64>>,
@@ -229,6 +239,8 @@ pub struct StationFile {
     pub exclusions_file: Option<PathBuf>,
     /// The exclusions ([`load`] reads them; empty without the key).
     pub exclusions: crate::exclusions::Exclusions,
+    /// The sensor history named by `[campaign] sensors`, if any.
+    pub sensors: Option<std::sync::Arc<crate::sensors::History>>,
 }
 
 impl StationFile {
@@ -238,6 +250,9 @@ impl StationFile {
         let mut v = Vec::new();
         if let Some(p) = &self.exclusions_file {
             v.push(("exclusions", p.clone()));
+        }
+        if let Some(h) = &self.sensors {
+            v.push(("sensors", h.path.clone()));
         }
         if let Some((p, _)) = &self.events {
             v.push(("events", p.clone()));
@@ -458,6 +473,26 @@ pub fn parse(path: &Path, text: &str) -> Result<StationFile> {
         ),
         None => None,
     };
+    let sensors = match raw.campaign.as_ref().and_then(|c| c.sensors.as_ref()) {
+        Some(name) => {
+            if name.get_ref().is_empty() {
+                bail!(at.err(name.span(), "`sensors`: the sensor history's file name"));
+            }
+            let dir = path.parent().unwrap_or(Path::new(""));
+            let file = dir.join(name.get_ref());
+            if !file.is_file() {
+                bail!(at.err(
+                    name.span(),
+                    &format!(
+                        "`sensors`: {} is not a file (the path is relative to the station file)",
+                        file.display()
+                    )
+                ));
+            }
+            Some(std::sync::Arc::new(crate::sensors::load(&file, &channels)?))
+        }
+        None => None,
+    };
     let file = StationFile {
         path: path.to_path_buf(),
         events,
@@ -470,9 +505,11 @@ pub fn parse(path: &Path, text: &str) -> Result<StationFile> {
         logger_table,
         exclusions_file,
         exclusions: crate::exclusions::Exclusions::default(),
+        sensors,
     };
     // Let the core validate everything it checks, once, here.
     file.layout::<MAX_CHANNELS>()?;
+    file.epochs::<MAX_CHANNELS>()?;
     Ok(file)
 }
 
@@ -874,6 +911,23 @@ impl StationFile {
                 .map_or(ChannelConfig::scalar(1.0), |c| c.core)
         });
         Layout::new::<GUST_CAPACITY>(self.station, &cfgs).map_err(|e| self.config_error(e))
+    }
+
+    /// The layouts of the sensor history's periods ([`crate::sensors::Epochs`]),
+    /// `None` without a history.
+    pub fn epochs<const C: usize>(&self) -> Result<Option<crate::sensors::Epochs<C>>> {
+        let Some(h) = &self.sensors else {
+            return Ok(None);
+        };
+        if self.channels.len() > C {
+            bail!("{} channels do not fit {C} slots", self.channels.len());
+        }
+        let cfgs: [ChannelConfig; C] = core::array::from_fn(|i| {
+            self.channels
+                .get(i)
+                .map_or(ChannelConfig::scalar(1.0), |c| c.core)
+        });
+        crate::sensors::Epochs::new(h, self.station, &cfgs).map(Some)
     }
 
     fn config_error(&self, e: ConfigError) -> anyhow::Error {

@@ -272,6 +272,7 @@ fn decode_with<const C: usize, W: Write>(
         path,
         ids: cfg.channels.iter().map(|c| c.id.as_str()).collect(),
         fingerprint: config_fingerprint(&cfg.station, &cores),
+        epochs: cfg.epochs::<C>()?,
         horizon: horizon(cfg.channels.len()),
         layout,
         out,
@@ -386,6 +387,9 @@ struct Decoder<'a, const C: usize, W: Write> {
     ids: Vec<&'a str>,
     /// `config_fingerprint` of the station file (its real channels).
     fingerprint: u32,
+    /// With a sensor history: the layouts of its periods, whose fingerprints
+    /// a logger holding the entry in force stamps in its frames.
+    epochs: Option<crate::sensors::Epochs<C>>,
     /// Frames held back before they are written.
     horizon: usize,
     layout: Layout<C>,
@@ -875,7 +879,8 @@ impl<const C: usize, W: Write> Decoder<'_, C, W> {
         if let Some(id) = self.ids.get(ch) {
             let start = self.layout.interval_start(k);
             let end = self.layout.interval_start(k.saturating_add(1));
-            write_row(self.out, start, end, id, record)?;
+            let sensors = self.cfg.sensors.as_deref();
+            write_row(self.out, start, end, (id, ch), record, sensors)?;
             self.d.rows += 1;
         }
         Ok(())
@@ -1067,7 +1072,13 @@ impl<const C: usize, W: Write> Decoder<'_, C, W> {
 
     /// Checks the configuration a frame carries: channel count, then
     /// fingerprint.
-    fn check_stamp(&self, stamp: ConfigStamp, kind: &str, offset: usize) -> Result<()> {
+    fn check_stamp(
+        &self,
+        stamp: ConfigStamp,
+        kind: &str,
+        offset: usize,
+        start: Timestamp,
+    ) -> Result<()> {
         let n = self.cfg.channels.len();
         if usize::from(stamp.channels) != n {
             let why = format!(
@@ -1075,6 +1086,23 @@ impl<const C: usize, W: Write> Decoder<'_, C, W> {
                 stamp.channels
             );
             return Err(self.mismatch(offset, &why));
+        }
+        if let Some(epochs) = &self.epochs {
+            let from = start.millis();
+            let to = from.saturating_add(self.layout.interval_ms());
+            let allowed = epochs.fingerprints(from, to);
+            if allowed.contains(&stamp.fingerprint) {
+                return Ok(());
+            }
+            let list: Vec<String> = allowed.iter().map(|f| format!("{f:#010x}")).collect();
+            bail!(
+                "{}: byte {offset}: {kind} frame of interval {} with configuration fingerprint {:#010x}, not that of the sensor-history entries in force then ({}): the logger held another entry (a record logger's records are never re-scaled afterwards: replay its samples with the history instead), or {} is not its station file",
+                self.path.display(),
+                Rfc3339(start),
+                stamp.fingerprint,
+                list.join(", "),
+                self.cfg.path.display()
+            );
         }
         if stamp.fingerprint != self.fingerprint {
             bail!(
@@ -1111,7 +1139,7 @@ impl<const C: usize, W: Write> Decoder<'_, C, W> {
     /// to the station file.
     fn check_record(&mut self, f: &RecordFrame, offset: usize) -> Result<i64> {
         match f.config {
-            Some(stamp) => self.check_stamp(stamp, "record", offset)?,
+            Some(stamp) => self.check_stamp(stamp, "record", offset, f.interval_start)?,
             None => {
                 if self.d.unstamped == 0 {
                     self.d.problems.push(format!(
@@ -1166,7 +1194,7 @@ impl<const C: usize, W: Write> Decoder<'_, C, W> {
             );
             return Err(self.mismatch(offset, &why));
         }
-        self.check_stamp(f.config(), "state", offset)?;
+        self.check_stamp(f.config(), "state", offset, f.interval_start)?;
         self.interval(f.interval_start)
             .map_err(|why| self.mismatch(offset, &why))
     }

@@ -53,12 +53,14 @@ missing_values = [-999, -9999]
 [station]
 name = "Vellendrax Ridge demo mast (invented)"
 
-# The campaign's side files, relative to this file.
-# Readings excluded by decision (tower work and the like), kept apart from the
-# samples: `tenmin replay` counts them `excluded`; the logger knew nothing of it.
+# The campaign's side files, relative to this file. Readings excluded by
+# decision (tower work and the like) are kept apart from the samples: `tenmin
+# replay` counts them `excluded`; the logger knew nothing of it. The sensor
+# history: ws80b was swapped at a site visit.
 [campaign]
 events = "events.csv"
 exclusions = "exclusions.csv"
+sensors = "sensors.toml"
 
 # Two redundant cup anemometers at the top of the mast.
 [[channel]]
@@ -135,6 +137,42 @@ const EXCLUSIONS_CSV: &str = "\
 channels,from,to,reason,who,entered
 ws60,2025-01-20T09:00:00Z,2025-01-20T11:30:00Z,mast climb: ws60 boom re-levelled (invented),demo crew,2025-01-21
 ";
+
+/// The demo's sensor history: the redundant anemometer ws80b swapped at the
+/// site visit of the first day, the logger re-programmed with the new
+/// sensor's certificate (so its values are logged calibrated and nothing is
+/// re-scaled: the statistics are those of a station without a history; the
+/// intervals of the swap carry `sensor_change`).
+const SENSORS_TOML: &str = r#"# The demo mast's sensor history (invented: sensors, serials and
+# certificates are made up). Each entry is in force from `from` until the
+# channel's next entry.
+#
+# CAUTION: certificates and transfer functions decide every wind speed;
+# check them against the campaign's measurement procedures and the
+# accredited calibration certificates themselves.
+
+[[entry]]
+id = "ws80b-B0931"
+channel = "ws80b"
+from = "2025-01-20T00:00:00Z"
+model = "cup anemometer, class 1"
+serial = "B0931"
+certificate = { id = "TM-CAL-2024-091", date = "2024-10-08", slope = 0.04598, offset = 0.2087 }
+logger = { slope = 0.04598, offset = 0.2087 }   # programmed with its own certificate
+
+[[entry]]
+id = "ws80b-B1220"
+channel = "ws80b"
+from = "2025-01-20T13:05:00Z"
+model = "cup anemometer, class 1"
+serial = "B1220"
+certificate = { id = "TM-CAL-2025-002", date = "2025-01-09", slope = 0.04611, offset = 0.1995 }
+logger = { slope = 0.04611, offset = 0.1995 }   # re-programmed at the swap
+note = "swapped at the site visit of 2025-01-20 (disconnected from 13:02)"
+"#;
+
+/// The swap of [`SENSORS_TOML`], seconds after the start.
+const SWAP_S: i64 = 13 * 3600 + 5 * 60;
 
 const IDS: [&str; 6] = ["ws80a", "ws80b", "ws60", "wd78", "t76", "rh76"];
 const WS80A: usize = 0;
@@ -510,6 +548,11 @@ pub fn run(out: &Path, days: u32, seed: u64) -> Result<ExitCode> {
         "the demo station file",
         STATION_TOML.as_bytes(),
     )?;
+    output::write_file(
+        &out.join("sensors.toml"),
+        "the demo's sensor history",
+        SENSORS_TOML.as_bytes(),
+    )?;
     let exclusions_path = out.join("exclusions.csv");
     output::write_file(
         &exclusions_path,
@@ -534,7 +577,8 @@ pub fn run(out: &Path, days: u32, seed: u64) -> Result<ExitCode> {
     let logger_path = out.join("logger-records.csv");
     let log_path = out.join("logger.log");
     let mut logger = Logger {
-        writer: records::Writer::new(Output::file(&logger_path, "records")?, ids.clone())?,
+        writer: records::Writer::new(Output::file(&logger_path, "records")?, ids.clone())?
+            .with_sensors(cfg.sensors.clone()),
         log: LogWriter {
             out: Output::file(&log_path, "the demo logger's log")?,
             sequence: 0,
@@ -582,6 +626,10 @@ pub fn run(out: &Path, days: u32, seed: u64) -> Result<ExitCode> {
                     fields[*ch] = Field::Value(*code);
                 }
             }
+            // ws80b disconnected for the swap: the logger's missing code.
+            if (SWAP_S - 180..SWAP_S).contains(&s) {
+                fields[WS80B] = Field::Value(-999.0);
+            }
             if outage {
                 outage_rows += 1;
                 continue;
@@ -614,7 +662,8 @@ pub fn run(out: &Path, days: u32, seed: u64) -> Result<ExitCode> {
 
     // Replay from disk (on all cores, up to two) and verify against the
     // logger's records.
-    let mut cmp = verify::Comparer::open(&logger_path, cfg.station, ids.clone(), 10)?;
+    let mut cmp = verify::Comparer::open(&logger_path, cfg.station, ids.clone(), 10)?
+        .with_sensors(cfg.sensors.clone());
     let opts = Options {
         jobs: replay::default_jobs(),
         ..Options::default()
@@ -639,6 +688,11 @@ pub fn run(out: &Path, days: u32, seed: u64) -> Result<ExitCode> {
         o,
         "  {}: readings excluded by decision (for `tenmin replay`)",
         exclusions_path.display()
+    )?;
+    writeln!(
+        o,
+        "  {}: its sensor history (a swap of ws80b)",
+        out.join("sensors.toml").display()
     )?;
     match (files.first(), files.last()) {
         (Some(a), Some(b)) if files.len() > 1 => writeln!(
@@ -699,6 +753,11 @@ pub fn run(out: &Path, days: u32, seed: u64) -> Result<ExitCode> {
     writeln!(
         o,
         "  ws80b drops out above {DROPOUT_ABOVE} m/s (half the samples there): {dropped} samples lost"
+    )?;
+    writeln!(
+        o,
+        "  ws80b swapped at {} (sensors.toml: B0931 for B1220, disconnected 3 min before; the interval is flagged sensor_change)",
+        clock(SWAP_S)
     )?;
     writeln!(o)?;
     let p = &summary.pushed;

@@ -14,6 +14,7 @@ use qc_core::{
 };
 
 use crate::config::{StationFile, GUST_CAPACITY, MAX_CHANNELS};
+use crate::sensors::Epochs;
 
 /// The gust-window capacity of every station the CLI builds.
 pub const G: usize = GUST_CAPACITY;
@@ -70,6 +71,9 @@ pub fn new<'s>(cfg: &StationFile, sink: &'s mut dyn Sink) -> Result<Box<dyn Engi
 
 struct Fixed<'s, const C: usize> {
     station: Box<Station<C, G>>,
+    /// With a sensor history: the layout in force at each sample's time.
+    epochs: Option<Epochs<C>>,
+    cursor: usize,
     out: Out<'s, C>,
     readings: [Reading; C],
     n: usize,
@@ -91,6 +95,8 @@ impl<'s, const C: usize> Fixed<'s, C> {
         let n = cfg.channels.len();
         Ok(Fixed {
             station: Box::new(Station::new(layout)),
+            epochs: cfg.epochs::<C>()?,
+            cursor: 0,
             out: Out::new(layout, n, sink),
             readings: [Reading::Missing; C],
             n,
@@ -182,7 +188,14 @@ impl<const C: usize> Engine for Fixed<'_, C> {
         let n = self.n.min(readings.len());
         self.readings[..n].copy_from_slice(&readings[..n]);
         let out = &mut self.out;
-        let pushed = self.station.push(t, &self.readings, |e| out.emit(e));
+        let pushed = match &mut self.epochs {
+            None => self.station.push(t, &self.readings, |e| out.emit(e)),
+            Some(epochs) => {
+                let entry = epochs.at(t, &mut self.cursor);
+                self.station
+                    .push_with(entry, t, &self.readings, |e| out.emit(e))?
+            }
+        };
         self.out.check()?;
         Ok(pushed)
     }

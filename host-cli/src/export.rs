@@ -167,6 +167,13 @@ pub fn run(a: &crate::ExportArgs) -> Result<ExitCode> {
     // The sample file is a logger's input: a logger knows no exclusions (they
     // are decided afterwards, on a PC), so the readings go as the file has them.
     cfg.exclusions = Default::default();
+    if let Some(h) = cfg.sensors.as_deref().filter(|h| h.converts()) {
+        anyhow::bail!(
+            "{}: the sensor history {} sets re-scalings or mounting offsets, and a sample file carries one configuration: a logger holds only the entry in force, so export the samples of one period with a station file giving that entry alone",
+            a.config.display(),
+            h.path.display()
+        );
+    }
     let opts = Options {
         skip_bad_rows: a.skip_bad_rows,
         progress: true,

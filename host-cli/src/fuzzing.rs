@@ -199,7 +199,7 @@ impl Sink for Rows {
     ) -> Result<()> {
         assert!(end > start, "an interval ends before it starts");
         for (i, (id, r)) in self.ids.iter().zip(records).enumerate() {
-            write_row(&mut self.csv, start, end, id, r)?;
+            write_row(&mut self.csv, start, end, (id, i), r, None)?;
             self.rows += 1;
             self.held[i] += held(r);
         }

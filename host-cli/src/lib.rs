@@ -32,6 +32,7 @@ pub mod records;
 pub mod replay;
 pub mod report;
 pub mod samples;
+pub mod sensors;
 pub mod summary;
 pub mod table;
 pub mod tablecheck;
@@ -58,14 +59,25 @@ macro_rules! formats {
                 counts (the column then holds integer counts); optional
                 [channel.screen] table overriding the screening defaults
                 (step_limit, mean_range, sd_range, gust_max, min_recovery,
-                flat_span_s, flat_tolerance, partner, above, icing, off = [...]).
+                flat_span_s, flat_tolerance, partner, above, icing, off = [...]);
+                informational model, serial, note; [campaign] sensors = FILE,
+                the sensor history.
+  sensors.toml  [[entry]] id, channel, from (RFC 3339; in force until the
+                channel's next entry or its `to`), model, serial, note,
+                logger = { slope, offset } (the logger's transfer function),
+                certificate = { id, date, slope, offset, uncertainty },
+                offset_deg (vane): samples are converted with the entry in force,
+                v = (v_logged - logger.offset) / logger.slope * cert.slope
+                + cert.offset (speed and scalar values).
   samples CSV   header `time,<channel ids>` in any order; time RFC 3339
                 (2025-01-20T00:00:01Z, offsets like +01:00, up to .mmm) or epoch
                 seconds (decimal to ms); missing = empty, NaN or a missing-value code.
   records CSV   start,end,channel,n_possible,n_valid,mean,sd,min,max,gust,flags,
                 n_missing,n_out_of_range,n_rejected,ti,resultant_length,
                 resultant_speed,resultant_direction,n_spikes,n_flagged (readings
-                whose `quality` code is not good): one row per interval and
+                whose `quality` code is not good),sensor_entries (the sensor
+                history's entries in force; flag sensor_change where one
+                changed inside the interval): one row per interval and
                 channel, times UTC; empty field = no value; for direction, mean
                 is the unit-vector mean and sd is sigma-theta.
 "
@@ -536,7 +548,7 @@ fn replay_cmd(a: ReplayArgs) -> Result<ExitCode> {
         output::refuse_inputs(&provenance::path_for(out), &named)?;
     }
     let summary = output::write_to(a.output.as_deref(), "records", |w| {
-        let mut writer = records::Writer::new(w, ids(&cfg))?;
+        let mut writer = records::Writer::new(w, ids(&cfg))?.with_sensors(cfg.sensors.clone());
         let s = replay::replay(&cfg, &a.samples, options(&a.input), &mut writer)?;
         writer.finish()?;
         Ok(s)
@@ -572,7 +584,8 @@ fn verify_cmd(a: VerifyArgs) -> Result<ExitCode> {
     if cfg.logger_table.is_some() || a.infer {
         return table_cmd(&a, config, records, &cfg);
     }
-    let mut cmp = verify::Comparer::open(records, cfg.station, ids(&cfg), a.max_diffs)?;
+    let mut cmp = verify::Comparer::open(records, cfg.station, ids(&cfg), a.max_diffs)?
+        .with_sensors(cfg.sensors.clone());
     let summary = replay::replay(&cfg, &a.samples, options(&a.input), &mut cmp)?;
     let report = cmp.finish()?;
     if !a.input.quiet {

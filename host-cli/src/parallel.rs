@@ -46,6 +46,7 @@ use crate::reader::{FileReader, Head, Piece};
 use crate::samples::{
     check_jump, csv_rows, file_len, BadRow, InputStats, Options, Parser, Progress, Records,
 };
+use crate::sensors::Epochs;
 
 /// Closed intervals per message from a worker.
 const BATCH: usize = 16;
@@ -160,6 +161,9 @@ struct Run<'a, const C: usize> {
     layout: &'a Layout<C>,
     /// Readings excluded by decision, marked before each push.
     excl: &'a Exclusions,
+    /// With a sensor history: the layout in force at each sample's time.
+    epochs: Option<Arc<Epochs<C>>>,
+    cursor: usize,
     opts: Options,
     /// The last sample accepted before the chunk, when known.
     floor: Option<Timestamp>,
@@ -176,12 +180,15 @@ impl<'a, const C: usize> Run<'a, C> {
     fn new(
         layout: &'a Layout<C>,
         excl: &'a Exclusions,
+        epochs: Option<Arc<Epochs<C>>>,
         opts: Options,
         floor: Option<Timestamp>,
     ) -> Self {
         Run {
             layout,
             excl,
+            epochs,
+            cursor: 0,
             opts,
             floor,
             probe: None,
@@ -224,12 +231,18 @@ impl<'a, const C: usize> Run<'a, C> {
         if let Some(st) = self.station.as_mut() {
             check_jump(&self.opts, self.last, t, path, line)?;
             let events = &mut self.events;
-            let pushed = st.push(t, &self.readings, |e| {
+            let emit = |e: Event<'_, C, G>| {
                 events.push(match e {
                     Event::Closed(acc, _) => Ev::Closed(Box::new(*acc)),
                     Event::Gap(g) => Ev::Gap(g),
                 })
-            });
+            };
+            let pushed = match &self.epochs {
+                None => st.push(t, &self.readings, emit),
+                Some(ep) => st
+                    .push_with(ep.at(t, &mut self.cursor), t, &self.readings, emit)
+                    .map_err(anyhow::Error::from)?,
+            };
             if pushed == Pushed::Accepted {
                 self.last = Some(t);
             }
@@ -251,7 +264,12 @@ impl<'a, const C: usize> Run<'a, C> {
         }
         let lead = self.lead();
         let mut st = Box::new(Station::new(*layout));
-        st.push(t, &self.readings, |_| {});
+        match &self.epochs {
+            None => st.push(t, &self.readings, |_| {}),
+            Some(ep) => st
+                .push_with(ep.at(t, &mut self.cursor), t, &self.readings, |_| {})
+                .map_err(anyhow::Error::from)?,
+        };
         self.station = Some(st);
         self.probe = None;
         self.last = Some(t);
@@ -319,6 +337,7 @@ enum Flow {
 struct Joiner<'s, const C: usize> {
     layout: Layout<C>,
     excl: &'s Exclusions,
+    epochs: Option<Arc<Epochs<C>>>,
     opts: Options,
     screener: Screener<C>,
     recovery: [Recovery; C],
@@ -462,7 +481,7 @@ impl<const C: usize> Joiner<'_, C> {
     /// A chunk replayed here, knowing the last accepted sample before it.
     fn redo(&mut self, parser: &Parser, bytes: &[u8], line: u64, path: &Path) -> Result<()> {
         let layout = self.layout;
-        let run = Run::new(&layout, self.excl, self.opts, self.last);
+        let run = Run::new(&layout, self.excl, self.epochs.clone(), self.opts, self.last);
         let mut parser = parser.clone();
         run.chunk(&mut parser, bytes, line, path, &mut |m| self.here(m, path))
     }
@@ -477,7 +496,7 @@ impl<const C: usize> Joiner<'_, C> {
         mut head: Head,
     ) -> Result<()> {
         let layout = self.layout;
-        let mut run = Run::new(&layout, self.excl, self.opts, self.last);
+        let mut run = Run::new(&layout, self.excl, self.epochs.clone(), self.opts, self.last);
         let mut halt = None;
         let seen = {
             let mut send = |m| self.here(m, path);
@@ -539,12 +558,14 @@ fn run<const C: usize>(
     sink: &mut dyn Sink,
 ) -> Result<(InputStats, PushTotals, Vec<Totals>)> {
     let layout = cfg.layout::<C>()?;
+    let epochs = cfg.epochs::<C>()?.map(Arc::new);
     let n = cfg.channels.len();
     let jobs = opts.jobs.max(1);
     let progress = Progress::new(files, &opts);
     let mut joiner = Joiner {
         layout,
         excl: &cfg.exclusions,
+        epochs: epochs.clone(),
         opts,
         screener: Screener::new(),
         recovery: [Recovery::new(); C],
@@ -564,7 +585,8 @@ fn run<const C: usize>(
             let (msg_tx, msg_rx) = sync_channel::<Msg<C>>(4);
             let layout = &layout;
             let excl = &cfg.exclusions;
-            s.spawn(move || worker(layout, excl, files, opts, job_rx, msg_tx));
+            let epochs = epochs.clone();
+            s.spawn(move || worker(layout, excl, epochs, files, opts, job_rx, msg_tx));
             to_workers.push(job_tx);
             from_workers.push(msg_rx);
         }
@@ -634,6 +656,7 @@ fn run<const C: usize>(
 fn worker<const C: usize>(
     layout: &Layout<C>,
     excl: &Exclusions,
+    epochs: Option<Arc<Epochs<C>>>,
     files: &[PathBuf],
     opts: Options,
     jobs: Receiver<Job>,
@@ -642,7 +665,7 @@ fn worker<const C: usize>(
     let mut send = |m| out.send(m).map_err(|_| anyhow!("closed"));
     for job in jobs {
         let mut parser = (*job.parser).clone();
-        let run = Run::new(layout, excl, opts, None);
+        let run = Run::new(layout, excl, epochs.clone(), opts, None);
         if run
             .chunk(
                 &mut parser,

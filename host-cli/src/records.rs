@@ -5,13 +5,19 @@
 //! print with Rust's `{}` for `f64`: the shortest decimal that parses back to
 //! the same bits, so a records file carries the core's results exactly.
 //! `flags` is `qc_core::Flags` printed (names joined with `|`).
+//! With a sensor history (`[campaign] sensors`), `sensor_entries` names the
+//! history's entries in force during the interval (ids joined with `|`) and
+//! `flags` holds `sensor_change` when the entry changed inside it
+//! ([`crate::sensors::History::mark`]); without one the column is empty.
 
 use std::io::{self, Write};
+use std::sync::Arc;
 
 use anyhow::Result;
 use qc_core::{ChannelRecord, Stat, Timestamp};
 
 use crate::engine::Sink;
+use crate::sensors::History;
 use crate::timefmt::Rfc3339;
 
 /// How a column is compared by `verify`.
@@ -43,7 +49,7 @@ const fn col(name: &'static str, ty: Type) -> Column {
 }
 
 /// The records columns, in order. The first eleven are fixed by the contract.
-pub const COLUMNS: [Column; 21] = [
+pub const COLUMNS: [Column; 22] = [
     col("start", Type::Time),
     col("end", Type::Time),
     col("channel", Type::Text),
@@ -65,6 +71,7 @@ pub const COLUMNS: [Column; 21] = [
     col("n_spikes", Type::Count),
     col("n_flagged", Type::Count),
     col("n_excluded", Type::Count),
+    col("sensor_entries", Type::Text),
 ];
 
 /// Index in [`COLUMNS`] of `n_flagged`, the readings the source marked bad:
@@ -79,8 +86,13 @@ pub const N_EXCLUDED: usize = 20;
 /// Whether column `k` may be absent from a records file (added after the
 /// first version; absent reads as 0).
 pub const fn optional(k: usize) -> bool {
-    k == N_FLAGGED || k == N_EXCLUDED
+    k == N_FLAGGED || k == N_EXCLUDED || k == SENSOR_ENTRIES
 }
+
+/// Index in [`COLUMNS`] of `sensor_entries`, the sensor-history entries in
+/// force: a records file written before it has no such column, which reads
+/// as empty (no history).
+pub const SENSOR_ENTRIES: usize = 21;
 
 /// Writes the header line.
 pub fn write_header<W: Write>(w: &mut W) -> io::Result<()> {
@@ -104,19 +116,28 @@ impl std::fmt::Display for S {
     }
 }
 
-/// Writes one row. Channel ids hold no commas or quotes (the station file
-/// checks), and no other field can, so no quoting is ever needed.
+/// Writes one row of channel `ch` (`channel` its id). Channel ids hold no
+/// commas or quotes (the station file checks), nor do entry ids (the sensor
+/// history checks), and no other field can, so no quoting is ever needed.
+/// With `sensors`, the row carries the history's mark
+/// ([`crate::sensors::History::mark`]).
 pub fn write_row<W: Write>(
     w: &mut W,
     start: Timestamp,
     end: Timestamp,
-    channel: &str,
+    (channel, ch): (&str, usize),
     r: &ChannelRecord,
+    sensors: Option<&History>,
 ) -> io::Result<()> {
     let t = &r.tally;
+    let mut entries = String::new();
+    let flags = match sensors {
+        Some(h) => h.mark(ch, start, end, r.flags, &mut entries),
+        None => r.flags,
+    };
     writeln!(
         w,
-        "{},{},{},{},{},{},{},{},{},{},{},{},{},{},{},{},{},{},{},{},{}",
+        "{},{},{},{},{},{},{},{},{},{},{},{},{},{},{},{},{},{},{},{},{},{}",
         Rfc3339(start),
         Rfc3339(end),
         channel,
@@ -127,7 +148,7 @@ pub fn write_row<W: Write>(
         S(r.min),
         S(r.max),
         S(r.gust),
-        r.flags,
+        flags,
         t.missing,
         t.out_of_range,
         t.rejected,
@@ -138,6 +159,7 @@ pub fn write_row<W: Write>(
         r.spikes,
         t.flagged,
         t.excluded,
+        entries,
     )
 }
 
@@ -145,6 +167,7 @@ pub fn write_row<W: Write>(
 pub struct Writer<W: Write> {
     out: W,
     ids: Vec<String>,
+    sensors: Option<Arc<History>>,
     /// Rows written.
     pub rows: u64,
 }
@@ -153,7 +176,18 @@ impl<W: Write> Writer<W> {
     /// A writer for channels `ids`; writes the header at once.
     pub fn new(mut out: W, ids: Vec<String>) -> io::Result<Self> {
         write_header(&mut out)?;
-        Ok(Writer { out, ids, rows: 0 })
+        Ok(Writer {
+            out,
+            ids,
+            sensors: None,
+            rows: 0,
+        })
+    }
+
+    /// Marks the rows with the sensor history `sensors` (the station file's).
+    pub fn with_sensors(mut self, sensors: Option<Arc<History>>) -> Self {
+        self.sensors = sensors;
+        self
     }
 
     /// Flushes and returns the output.
@@ -170,8 +204,9 @@ impl<W: Write> Sink for Writer<W> {
         end: Timestamp,
         records: &[ChannelRecord],
     ) -> Result<()> {
-        for (id, r) in self.ids.iter().zip(records) {
-            write_row(&mut self.out, start, end, id, r)?;
+        let sensors = self.sensors.as_deref();
+        for (ch, (id, r)) in self.ids.iter().zip(records).enumerate() {
+            write_row(&mut self.out, start, end, (id, ch), r, sensors)?;
             self.rows += 1;
         }
         Ok(())
@@ -220,11 +255,11 @@ mod tests {
             .unwrap()
             .starts_with("start,end,channel,n_possible,n_valid,mean,sd,min,max,gust,flags,"));
         assert_eq!(COLUMNS[N_FLAGGED].name, "n_flagged");
-        assert_eq!(COLUMNS[N_EXCLUDED].name, "n_excluded");
+        assert_eq!(COLUMNS[SENSOR_ENTRIES].name, "sensor_entries");
         assert_eq!(
             COLUMNS.len(),
-            N_EXCLUDED + 1,
-            "n_excluded is the last column"
+            SENSOR_ENTRIES + 1,
+            "sensor_entries is the last column"
         );
     }
 }

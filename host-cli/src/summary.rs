@@ -107,6 +107,25 @@ impl Summary {
             "records: {} rows (intervals x channels)",
             self.record_rows
         )?;
+        if let Some(h) = &cfg.sensors {
+            let with: Vec<String> = cfg
+                .channels
+                .iter()
+                .zip(&h.channels)
+                .filter(|(_, es)| !es.is_empty())
+                .map(|(c, es)| format!("{} {}", c.id, es.len()))
+                .collect();
+            writeln!(
+                w,
+                "sensor history {}: entries per channel: {} (records: sensor_entries, flag sensor_change)",
+                h.path.display(),
+                if with.is_empty() {
+                    "none".to_string()
+                } else {
+                    with.join(", ")
+                }
+            )?;
+        }
         let width = cfg
             .channels
             .iter()

@@ -30,7 +30,9 @@ use qc_core::{ChannelRecord, Flag, StationConfig, Tally, Timestamp};
 
 use crate::engine::Sink;
 use crate::limits::{self, Capped};
-use crate::records::{optional, ulp_distance, write_row, Type, COLUMNS, N_EXCLUDED, N_FLAGGED};
+use crate::records::{
+    optional, ulp_distance, write_row, Type, COLUMNS, N_EXCLUDED, N_FLAGGED, SENSOR_ENTRIES,
+};
 use crate::timefmt::{parse_time_any as parse_time, Rfc3339};
 
 /// One difference found.
@@ -418,6 +420,7 @@ pub struct Comparer {
     pending: Option<Group>,
     ids: Vec<String>,
     buf: Vec<u8>,
+    sensors: Option<std::sync::Arc<crate::sensors::History>>,
     /// Differences so far.
     pub report: Report,
 }
@@ -436,8 +439,19 @@ impl Comparer {
             pending: None,
             ids,
             buf: Vec::with_capacity(256),
+            sensors: None,
             report,
         })
+    }
+
+    /// Marks the replay's rows with the sensor history (the station file's),
+    /// as `tenmin replay` writes them.
+    pub fn with_sensors(
+        mut self,
+        sensors: Option<std::sync::Arc<crate::sensors::History>>,
+    ) -> Self {
+        self.sensors = sensors;
+        self
     }
 
     fn extra_rows(&mut self, g: Group) {
@@ -467,6 +481,8 @@ impl Comparer {
             let b = match self.logger.index[k] {
                 Some(j) => theirs.fields.get(j).map_or("", String::as_str),
                 // A file from before the column: no flagged readings.
+                // A file from before the column: no sensor history.
+                None if k == SENSOR_ENTRIES => "",
                 None if optional(k) => "0",
                 None => continue,
             };
@@ -552,11 +568,11 @@ impl Sink for Comparer {
         let start_text = Rfc3339(start).to_string();
         let mut rows = group.map(|g| g.rows).unwrap_or_default();
         let ids = std::mem::take(&mut self.ids);
-        for (id, r) in ids.iter().zip(records) {
+        for (ch, (id, r)) in ids.iter().zip(records).enumerate() {
             self.report.replay_rows += 1;
             let mut buf = std::mem::take(&mut self.buf);
             buf.clear();
-            write_row(&mut buf, start, end, id, r)?;
+            write_row(&mut buf, start, end, (id, ch), r, self.sensors.as_deref())?;
             let line = std::str::from_utf8(&buf).unwrap_or("").trim_end();
             let ours: Vec<&str> = line.split(',').collect();
             match rows.iter().position(|row| row.channel == *id) {

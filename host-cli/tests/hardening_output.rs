@@ -807,6 +807,7 @@ fn the_demo_writes_where_it_says_and_its_log_decodes_to_its_records() {
             "my demo/station.toml",
             "my demo/events.csv",
             "my demo/exclusions.csv",
+            "my demo/sensors.toml",
             "my demo/samples-2025-01-20.csv",
             "my demo/samples-2025-01-21.csv",
             "my demo/logger-records.csv",

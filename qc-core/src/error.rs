@@ -53,6 +53,10 @@ pub enum ChannelProblem {
     /// kind (partner and above: speed; icing: scalar temperature and humidity),
     /// or is the channel itself (partner, above).
     ScreenLink,
+    /// A re-calibration ([`crate::Recal`]) with a slope not finite and
+    /// positive or an offset not finite, or one on a direction channel (a
+    /// vane's history changes its mounting offset only).
+    Recalibration,
 }
 
 impl fmt::Display for ChannelProblem {
@@ -66,6 +70,7 @@ impl fmt::Display for ChannelProblem {
             ChannelProblem::DirectionSlope => "direction calibration slope must be at most 300 degrees per count",
             ChannelProblem::MountingOffset => "mounting offset must be within -360 to 360 degrees",
             ChannelProblem::Screen => "screening setting out of range (NaN, negative limit, low above high, or recovery outside 0..1)",
+            ChannelProblem::Recalibration => "re-calibration slopes must be finite and positive, offsets finite, and only on speed and scalar channels (a vane's history changes its mounting offset)",
             ChannelProblem::ScreenLink => "screening names a missing channel, one of the wrong kind (partner/above: speed; icing: scalar temperature and humidity) or the channel itself (partner/above)",
         })
     }

@@ -37,11 +37,16 @@ pub enum Flag {
     Clock = 8,
     /// Readings in the interval were excluded by decision (an exclusion list).
     Excluded = 9,
+    /// The sensor-history entry in force changed inside the interval (a
+    /// sensor swapped, re-calibrated or a vane re-aligned): its samples were
+    /// converted with two entries. Set by the reader of the history (the
+    /// `tenmin` command), not by screening; not a fault of the data.
+    SensorChange = 10,
 }
 
 impl Flag {
     /// Every flag, in the order records print them.
-    pub const ALL: [Flag; 10] = [
+    pub const ALL: [Flag; 11] = [
         Flag::Implausible,
         Flag::Spike,
         Flag::Flatline,
@@ -52,6 +57,7 @@ impl Flag {
         Flag::Partial,
         Flag::Clock,
         Flag::Excluded,
+        Flag::SensorChange,
     ];
 
     /// The name records print.
@@ -67,6 +73,7 @@ impl Flag {
             Flag::Partial => "partial",
             Flag::Clock => "clock",
             Flag::Excluded => "excluded",
+            Flag::SensorChange => "sensor_change",
         }
     }
 

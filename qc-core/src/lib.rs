@@ -81,8 +81,8 @@
 //! | [`screen::Spikes`] (spike test, one channel, one interval) | 16 |
 //! | [`Screener<1>`] (flat-line history: 32 per channel, 8 per station) | 40 |
 //! | [`IntervalAcc<8, 3>`] (open interval, 8 channels, with spikes and flags) | 952 |
-//! | [`Layout<8>`] (validated configuration of 8 channels) | 2,384 |
-//! | [`Station<8, 3>`] (all of the above for 8 channels, owning its layout) | 4,408 |
+//! | [`Layout<8>`] (validated configuration of 8 channels) | 2,712 |
+//! | [`Station<8, 3>`] (all of the above for 8 channels, owning its layout) | 4,736 |
 //! | `Station<8, 3, &Layout<8>>` (the running state, the layout elsewhere) | 2,024 on 32-bit targets, 2,032 on 64-bit |
 //! | `Sampler<8, 3, &Layout<8>>` (a state logger's running state: no recovery or screening history) | 1,032 on 32-bit targets, 1,040 on 64-bit |
 //!
@@ -154,16 +154,16 @@ pub mod wire;
 
 pub use channel::{
     Absent, Channel, ChannelAcc, ChannelConfig, ChannelRecord, ChannelState, DirectionAcc, Kind,
-    LinkedDirectionAcc, Reading, ScalarAcc, Scale, SpeedAcc, Stat, StateForm, Tally,
+    LinkedDirectionAcc, Reading, Recal, ScalarAcc, Scale, SpeedAcc, Stat, StateForm, Tally,
 };
 pub use error::{ChannelProblem, ConfigError, TallyError};
 pub use flags::{Flag, Flags};
 pub use recovery::{Recovery, Totals};
 pub use screen::{Icing, Screen, Screener};
 pub use station::{
-    config_fingerprint, Ended, Event, Finisher, Gap, IntervalAcc, Layout, PushTotals, Pushed,
-    Reject, Sampler, Sentinels, StateError, Station, StationConfig, MAX_SAMPLES_PER_INTERVAL,
-    MAX_SENTINELS,
+    config_fingerprint, Ended, Event, Finisher, Gap, IntervalAcc, Layout, OtherFrame, PushTotals,
+    Pushed, Reject, Sampler, Sentinels, StateError, Station, StationConfig,
+    MAX_SAMPLES_PER_INTERVAL, MAX_SENTINELS,
 };
 pub use time::{Civil, Month, Timestamp};
 
@@ -182,8 +182,8 @@ mod tests {
         assert_eq!(size_of::<screen::Spikes>(), 16);
         assert_eq!(size_of::<Screener<1>>(), 40);
         assert_eq!(size_of::<IntervalAcc<8, 3>>(), 952);
-        assert_eq!(size_of::<Layout<8>>(), 2384);
-        assert_eq!(size_of::<Station<8, 3>>(), 4408);
+        assert_eq!(size_of::<Layout<8>>(), 2712);
+        assert_eq!(size_of::<Station<8, 3>>(), 4736);
         // With the layout by reference (in flash): the running state alone. On a
         // 32-bit target the reference is 4 bytes, so 4 less (checked there by
         // the firmware's budget program).

@@ -489,14 +489,20 @@ fn diff(a: Option<f64>, b: Option<f64>) -> Option<f64> {
 }
 
 /// Whether an interval with these flags passes screening: it has valid samples
-/// and no flag other than the record-coverage flags `partial`, `clock` and
+/// and no flag other than the record-coverage flags `partial`, `clock`,
+/// `sensor_change` (a change of sensor-history entry, not a fault) and
 /// `excluded` (what is left after an exclusion is judged by the other tests:
 /// `low_recovery` catches an interval with too few valid samples left).
 pub fn passes(r: &ChannelRecord) -> bool {
     r.tally.valid > 0
         && r.flags
             .iter()
-            .all(|f| matches!(f, Flag::Partial | Flag::Clock | Flag::Excluded))
+            .all(|f| {
+                matches!(
+                    f,
+                    Flag::Partial | Flag::Clock | Flag::Excluded | Flag::SensorChange
+                )
+            })
 }
 
 #[cfg(test)]

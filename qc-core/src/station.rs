@@ -241,6 +241,17 @@ const fn fp_index(c: Crc32, v: Option<u8>) -> Crc32 {
 /// state frames with the fingerprint of those `n` channels, which is what a PC
 /// computes from a station of `n` channels.
 pub const fn config_fingerprint(station: &StationConfig, channels: &[ChannelConfig]) -> u32 {
+    fingerprint_of(station, channels, true)
+}
+
+/// [`config_fingerprint`], or with `entry` false the fingerprint of the
+/// station's frame ([`Layout::frame`]): every field but those a sensor-history
+/// entry sets (mounting offset, re-calibration).
+///
+/// A re-calibration feeds its presence word and four values only when there
+/// is one, so the fingerprint of a configuration without any is what it was
+/// before re-calibrations existed.
+const fn fingerprint_of(station: &StationConfig, channels: &[ChannelConfig], entry: bool) -> u32 {
     let mut c = Crc32::new()
         .word(station.interval_s as u64)
         .word(station.samples_per_interval as u64);
@@ -261,7 +272,21 @@ pub const fn config_fingerprint(station: &StationConfig, channels: &[ChannelConf
             .word(ch.range.0.to_bits())
             .word(ch.range.1.to_bits())
             .word(ch.gust_window as u64)
-            .word(ch.mounting_offset_deg.to_bits());
+            .word(if entry {
+                ch.mounting_offset_deg.to_bits()
+            } else {
+                0
+            });
+        if entry {
+            if let Some(r) = ch.recal {
+                c = c
+                    .word(1)
+                    .word(r.logger_slope.to_bits())
+                    .word(r.logger_offset.to_bits())
+                    .word(r.cert_slope.to_bits())
+                    .word(r.cert_offset.to_bits());
+            }
+        }
         c = fp_index(c, ch.speed_channel);
         c = fp_opt(c, s.step_limit);
         let (mean, sd) = (s.mean_range, s.sd_range);
@@ -359,6 +384,8 @@ pub struct Layout<const C: usize> {
     sentinels: Sentinels,
     /// [`Layout::fingerprint`].
     fingerprint: u32,
+    /// [`Layout::frame`].
+    frame: u32,
     channels: [Channel; C],
 }
 
@@ -399,6 +426,7 @@ impl<const C: usize> Layout<C> {
         max_step_ms: 1_500,
         sentinels: Sentinels::NONE,
         fingerprint: 0,
+        frame: 0,
         channels: [Channel::placeholder(); C],
     };
 
@@ -491,6 +519,7 @@ impl<const C: usize> Layout<C> {
         self.max_step_ms = (3 * (interval_ms as u32) / (2 * n)) as i64;
         self.sentinels = sentinels;
         self.fingerprint = config_fingerprint(&station, channels);
+        self.frame = fingerprint_of(&station, channels, false);
         Ok(())
     }
 
@@ -503,6 +532,15 @@ impl<const C: usize> Layout<C> {
     /// records.
     pub const fn fingerprint(&self) -> u32 {
         self.fingerprint
+    }
+
+    /// A CRC-32 of the configuration without what a sensor-history entry
+    /// sets (each channel's mounting offset and [`crate::Recal`]): two layouts
+    /// of one frame count samples in the same quanta, ranges, windows and
+    /// screening, so an interval's samples may be classified by either
+    /// ([`Station::push_with`]) and finished by either.
+    pub const fn frame(&self) -> u32 {
+        self.frame
     }
 
     /// Interval length, ms.
@@ -896,6 +934,21 @@ pub enum Reject {
     UnsupportedTime,
 }
 
+/// [`Station::push_with`] was given a layout of another frame
+/// ([`Layout::frame`]): its quanta, ranges or screening are not the station's,
+/// so the sample was handed back, not pushed.
+#[derive(Clone, Copy, Debug, PartialEq, Eq, Hash)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+pub struct OtherFrame;
+
+impl core::fmt::Display for OtherFrame {
+    fn fmt(&self, f: &mut core::fmt::Formatter<'_>) -> core::fmt::Result {
+        f.write_str("the layout in force differs from the station's in more than mounting offsets and re-calibrations")
+    }
+}
+
+impl core::error::Error for OtherFrame {}
+
 /// What [`Station::push`] did with a sample.
 #[derive(Clone, Copy, Debug, PartialEq, Eq, Hash)]
 #[cfg_attr(feature = "defmt", derive(defmt::Format))]
@@ -1055,6 +1108,38 @@ impl<const C: usize, const G: usize, L: Borrow<Layout<C>>> Sampler<C, G, L> {
         self.last = ms;
         self.totals.accepted += 1;
         Pushed::Accepted
+    }
+
+    /// [`Sampler::push`] with the readings classified by `entry` instead of
+    /// the sampler's own layout: the configuration in force at `t` when a
+    /// sensor history changes mounting offsets or re-calibrations
+    /// ([`crate::Recal`]) over time. The time rules, the interval and the
+    /// finish stay the sampler's. `entry` must be of the sampler's frame
+    /// ([`Layout::frame`]); one that is not is handed back
+    /// ([`OtherFrame`]) and the sample is neither pushed nor counted.
+    pub fn push_with<F>(
+        &mut self,
+        entry: &Layout<C>,
+        t: Timestamp,
+        readings: &[Reading; C],
+        mut emit: F,
+    ) -> Result<Pushed, OtherFrame>
+    where
+        F: FnMut(Ended<'_, C, G>),
+    {
+        if entry.frame != self.layout.borrow().frame {
+            return Err(OtherFrame);
+        }
+        let ms = t.millis();
+        if !(ms < self.open_end && ms > self.last) {
+            if let Err(reason) = self.enter(t, &mut emit) {
+                return Ok(Pushed::Rejected(reason));
+            }
+        }
+        self.open.push(entry, t, readings);
+        self.last = ms;
+        self.totals.accepted += 1;
+        Ok(Pushed::Accepted)
     }
 
     /// The rare part of [`Sampler::push`], out of line: checks the time of a
@@ -1330,6 +1415,23 @@ impl<const C: usize, const G: usize, L: Borrow<Layout<C>>> Station<C, G, L> {
         let finisher = &mut self.finisher;
         self.sampler
             .push(t, readings, |e| finish_ended(finisher, e, &mut emit))
+    }
+
+    /// [`Station::push`] with the readings classified by `entry`, the
+    /// configuration in force at `t` ([`Sampler::push_with`]).
+    pub fn push_with<F>(
+        &mut self,
+        entry: &Layout<C>,
+        t: Timestamp,
+        readings: &[Reading; C],
+        mut emit: F,
+    ) -> Result<Pushed, OtherFrame>
+    where
+        F: FnMut(Event<'_, C, G>),
+    {
+        let finisher = &mut self.finisher;
+        self.sampler
+            .push_with(entry, t, readings, |e| finish_ended(finisher, e, &mut emit))
     }
 
     /// Closes the open interval, if any, and hands it to `emit` (end of data).
@@ -1907,6 +2009,178 @@ mod excluded_tests {
         for ch in 0..3 {
             assert_eq!(back.tally(ch), whole.tally(ch));
             assert_eq!(l.finish(&back, ch), l.finish(&whole, ch));
+        }
+    }
+}
+
+#[cfg(test)]
+mod recalibration {
+    use crate::{
+        ChannelConfig, Event, Layout, OtherFrame, Pushed, Reading, Recal, Station, StationConfig,
+        Timestamp,
+    };
+
+    // A generic logger transfer function and a certificate; values invented.
+    const RECAL: Recal = Recal {
+        logger_slope: 0.765,
+        logger_offset: 0.35,
+        cert_slope: 0.7612,
+        cert_offset: 0.2143,
+    };
+
+    fn channels(recal: Option<Recal>, mount: f64) -> [ChannelConfig; 2] {
+        let mut speed = ChannelConfig::speed(0.01);
+        speed.recal = recal;
+        [
+            speed,
+            ChannelConfig::direction()
+                .with_speed_channel(0)
+                .with_mounting_offset(mount),
+        ]
+    }
+
+    fn layout(recal: Option<Recal>, mount: f64) -> Layout<2> {
+        Layout::new::<3>(StationConfig::ten_minute_1hz(), &channels(recal, mount)).unwrap()
+    }
+
+    #[test]
+    fn the_value_is_rescaled_in_the_stated_order_then_quantised() {
+        let l = layout(Some(RECAL), 0.0);
+        let mut st: Station<2, 3> = Station::new(l);
+        let t0 = 1_700_000_400_000;
+        let logged = [8.0, 12.37, 0.35, 30.0];
+        for (i, v) in logged.iter().enumerate() {
+            st.push(
+                Timestamp::from_millis(t0 + i as i64 * 1000),
+                &[Reading::Value(*v), Reading::Value(90.0)],
+                |_| {},
+            );
+        }
+        let mut got = None;
+        st.close(|e| {
+            if let Event::Closed(_, r) = e {
+                got = Some(r[0]);
+            }
+        });
+        let r = got.unwrap();
+        // The formula of the issue (common practice), evaluated here in the
+        // stated order and rounded to the 0.01 quantum by hand.
+        let q = |v: f64| ((v - 0.35) / 0.765 * 0.7612 + 0.2143) * 100.0;
+        let qs: Vec<f64> = logged.iter().map(|v| q(*v).round()).collect();
+        let min = qs.iter().cloned().fold(f64::MAX, f64::min) / 100.0;
+        let max = qs.iter().cloned().fold(f64::MIN, f64::max) / 100.0;
+        assert_eq!(r.min.value(), Some(min));
+        assert_eq!(r.max.value(), Some(max));
+        assert_eq!(r.tally.valid, 4);
+    }
+
+    #[test]
+    fn missing_codes_are_logged_values_and_the_range_is_the_rescaled_ones() {
+        // -999 is a code: missing, not re-scaled. A logged 0.0 re-scales to
+        // below 0 (0.2143 - 0.35 * 0.7612 / 0.765 < 0): out of range.
+        let l = layout(Some(RECAL), 0.0);
+        let mut st: Station<2, 3> = Station::new(l);
+        let t0 = 1_700_000_400_000;
+        for (i, v) in [-999.0, 0.0, 5.0, f64::NAN].iter().enumerate() {
+            st.push(
+                Timestamp::from_millis(t0 + i as i64 * 1000),
+                &[Reading::Value(*v), Reading::Missing],
+                |_| {},
+            );
+        }
+        let t = st.open().unwrap().tally(0).unwrap();
+        assert_eq!((t.valid, t.missing, t.out_of_range), (1, 2, 1));
+    }
+
+    #[test]
+    fn raw_counts_of_a_rescaled_channel_take_the_value_path() {
+        let mut speed = ChannelConfig::speed(0.01);
+        speed.scale.step = 0.05; // counts of 0.05 m/s
+        speed.recal = Some(RECAL);
+        let l = Layout::new::<3>(StationConfig::ten_minute_1hz(), &[speed]).unwrap();
+        let mut st: Station<1, 3> = Station::new(l);
+        st.push(
+            Timestamp::from_millis(1_700_000_400_000),
+            &[Reading::Counts(160)],
+            |_| {},
+        );
+        let t = st.open().unwrap().tally(0).unwrap();
+        assert_eq!(t.valid, 1);
+    }
+
+    #[test]
+    fn a_rescaling_of_a_vane_or_with_a_zero_slope_is_refused() {
+        let mut vane = ChannelConfig::direction();
+        vane.recal = Some(RECAL);
+        assert!(Layout::<1>::new::<3>(StationConfig::ten_minute_1hz(), &[vane]).is_err());
+        let mut speed = ChannelConfig::speed(0.01);
+        speed.recal = Some(Recal {
+            logger_slope: 0.0,
+            ..RECAL
+        });
+        assert!(Layout::<1>::new::<3>(StationConfig::ten_minute_1hz(), &[speed]).is_err());
+    }
+
+    #[test]
+    fn entries_share_the_frame_and_differ_in_fingerprint() {
+        let a = layout(None, 0.0);
+        let b = layout(Some(RECAL), 7.5);
+        assert_eq!(a.frame(), b.frame());
+        assert_ne!(a.fingerprint(), b.fingerprint());
+        let other = Layout::<2>::new::<3>(
+            StationConfig::ten_minute_1hz(),
+            &[ChannelConfig::speed(0.1), ChannelConfig::direction()],
+        )
+        .unwrap();
+        assert_ne!(a.frame(), other.frame());
+        let mut st: Station<2, 3> = Station::new(a);
+        let t = Timestamp::from_millis(1_700_000_400_000);
+        let r = [Reading::Value(5.0), Reading::Value(10.0)];
+        assert_eq!(st.push_with(&other, t, &r, |_| {}), Err(OtherFrame));
+        assert_eq!(st.totals().pushed(), 0);
+        assert_eq!(st.push_with(&b, t, &r, |_| {}), Ok(Pushed::Accepted));
+    }
+
+    #[test]
+    fn the_fingerprint_without_a_rescaling_is_unchanged() {
+        // The fingerprint of a station without re-calibration must stay what
+        // loggers built before re-calibrations stamp in their frames: the
+        // value below was printed by this crate before `Recal` was added.
+        let l = layout(None, 4.0);
+        assert_eq!(l.fingerprint(), FINGERPRINT_BEFORE);
+    }
+
+    const FINGERPRINT_BEFORE: u32 = 0x994b_ee3e;
+
+    use proptest::prelude::*;
+
+    proptest! {
+        /// A re-scaled channel gives the records of a plain channel fed the
+        /// re-scaled values (computed here by the formula, in its order): the
+        /// re-scaling path judges and quantises as the value path does.
+        #[test]
+        fn rescaling_in_the_core_is_feeding_the_rescaled_values(
+            logged in proptest::collection::vec(-5.0f64..80.0, 1..700),
+            ls in 0.02f64..2.0,
+            lo in -1.0f64..1.0,
+            cs in 0.02f64..2.0,
+            co in -1.0f64..1.0,
+        ) {
+            let recal = Recal { logger_slope: ls, logger_offset: lo, cert_slope: cs, cert_offset: co };
+            let mut a: Station<2, 3> = Station::new(layout(Some(recal), 0.0));
+            let mut b: Station<2, 3> = Station::new(layout(None, 0.0));
+            let t0 = 1_700_000_400_000;
+            for (i, v) in logged.iter().enumerate() {
+                let t = Timestamp::from_millis(t0 + i as i64 * 1000);
+                let w = (v - lo) / ls * cs + co;
+                a.push(t, &[Reading::Value(*v), Reading::Missing], |_| {});
+                b.push(t, &[Reading::Value(w), Reading::Missing], |_| {});
+            }
+            let mut ra = None;
+            let mut rb = None;
+            a.close(|e| if let Event::Closed(_, r) = e { ra = Some(r[0]) });
+            b.close(|e| if let Event::Closed(_, r) = e { rb = Some(r[0]) });
+            prop_assert_eq!(ra, rb);
         }
     }
 }

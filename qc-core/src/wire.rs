@@ -1512,6 +1512,10 @@ pub fn decode_channel_part(bytes: &[u8], channels: u8) -> Result<ChannelConfig, 
         gust_window: b.u16(C_GUST),
         mounting_offset_deg: real(R_MOUNTING),
         speed_channel: index(P_SPEED_CHANNEL, C_SPEED),
+        // Sample frames carry no re-calibration: a logger under test replays
+        // values as its transfer function gives them (`tenmin export`
+        // refuses a station whose sensor history re-scales).
+        recal: None,
         screen: Screen {
             step_limit: has(P_STEP_LIMIT).then(|| real(R_STEP_LIMIT)),
             mean_range: has(P_MEAN_RANGE).then(|| (real(R_MEAN_LO), real(R_MEAN_HI))),
@@ -3365,6 +3369,7 @@ mod tests {
                     mounting_offset_deg: mount,
                     speed_channel: speed,
                     screen,
+                    recal: None,
                 },
             )
     }
