@@ -624,8 +624,7 @@ fn table_cmd(
     let ok = if a.infer {
         tablecheck::infer(cfg, records, &rows, &collect, &mut buf)?
     } else {
-        tablecheck::verify(cfg, records, &rows, &collect, a.max_diffs, &mut buf)?.differences
-            == 0
+        tablecheck::verify(cfg, records, &rows, &collect, a.max_diffs, &mut buf)?.differences == 0
     };
     let mut out = output::Output::stdout("the comparison");
     io::Write::write_all(&mut out, &buf)?;

@@ -481,7 +481,13 @@ impl<const C: usize> Joiner<'_, C> {
     /// A chunk replayed here, knowing the last accepted sample before it.
     fn redo(&mut self, parser: &Parser, bytes: &[u8], line: u64, path: &Path) -> Result<()> {
         let layout = self.layout;
-        let run = Run::new(&layout, self.excl, self.epochs.clone(), self.opts, self.last);
+        let run = Run::new(
+            &layout,
+            self.excl,
+            self.epochs.clone(),
+            self.opts,
+            self.last,
+        );
         let mut parser = parser.clone();
         run.chunk(&mut parser, bytes, line, path, &mut |m| self.here(m, path))
     }
@@ -496,7 +502,13 @@ impl<const C: usize> Joiner<'_, C> {
         mut head: Head,
     ) -> Result<()> {
         let layout = self.layout;
-        let mut run = Run::new(&layout, self.excl, self.epochs.clone(), self.opts, self.last);
+        let mut run = Run::new(
+            &layout,
+            self.excl,
+            self.epochs.clone(),
+            self.opts,
+            self.last,
+        );
         let mut halt = None;
         let seen = {
             let mut send = |m| self.here(m, path);

@@ -495,14 +495,12 @@ fn diff(a: Option<f64>, b: Option<f64>) -> Option<f64> {
 /// `low_recovery` catches an interval with too few valid samples left).
 pub fn passes(r: &ChannelRecord) -> bool {
     r.tally.valid > 0
-        && r.flags
-            .iter()
-            .all(|f| {
-                matches!(
-                    f,
-                    Flag::Partial | Flag::Clock | Flag::Excluded | Flag::SensorChange
-                )
-            })
+        && r.flags.iter().all(|f| {
+            matches!(
+                f,
+                Flag::Partial | Flag::Clock | Flag::Excluded | Flag::SensorChange
+            )
+        })
 }
 
 #[cfg(test)]
