@@ -27,7 +27,7 @@
 
 // Bytes of a layout block of shape `c4g3` (4 channels, gust windows up to
 // 3 samples), on any target. Align it to `TM_ALIGN`.
-#define TM_LAYOUT_C4G3_SIZE 1408
+#define TM_LAYOUT_C4G3_SIZE 1536
 
 // Bytes of a record logger block of shape `c4g3`, on any target.
 #define TM_RECORD_LOGGER_C4G3_SIZE 1280
@@ -37,7 +37,7 @@
 
 // Bytes of a layout block of shape `c8g3` (8 channels, gust windows up to
 // 3 samples), on any target. Align it to `TM_ALIGN`.
-#define TM_LAYOUT_C8G3_SIZE 2560
+#define TM_LAYOUT_C8G3_SIZE 2816
 
 // Bytes of a record logger block of shape `c8g3`, on any target.
 #define TM_RECORD_LOGGER_C8G3_SIZE 2176
@@ -47,7 +47,7 @@
 
 // Bytes of a layout block of shape `c8g12` (8 channels, gust windows up to
 // 12 samples), on any target. Align it to `TM_ALIGN`.
-#define TM_LAYOUT_C8G12_SIZE 2560
+#define TM_LAYOUT_C8G12_SIZE 2816
 
 // Bytes of a record logger block of shape `c8g12`, on any target.
 #define TM_RECORD_LOGGER_C8G12_SIZE 2816
@@ -57,13 +57,13 @@
 
 // Bytes of a layout block of shape `c16g12` (16 channels, gust windows up to
 // 12 samples), on any target. Align it to `TM_ALIGN`.
-#define TM_LAYOUT_C16G12_SIZE 4864
+#define TM_LAYOUT_C16G12_SIZE 5504
 
 // Bytes of a record logger block of shape `c16g12`, on any target.
 #define TM_RECORD_LOGGER_C16G12_SIZE 5248
 
 // Bytes of a state logger block of shape `c16g12`, on any target.
-#define TM_STATE_LOGGER_C16G12_SIZE 3200
+#define TM_STATE_LOGGER_C16G12_SIZE 3328
 
 // `tm_reading.kind`: an engineering value in `value` (m/s, degrees, deg C
 // ...); NaN or a missing-value code counts as missing.

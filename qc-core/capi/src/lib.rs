@@ -682,7 +682,7 @@ const HEADROOM: usize = 64;
 
 /// Bytes of a layout block of shape `c4g3` (4 channels, gust windows up to
 /// 3 samples), on any target. Align it to `TM_ALIGN`.
-pub const TM_LAYOUT_C4G3_SIZE: usize = 1408;
+pub const TM_LAYOUT_C4G3_SIZE: usize = 1536;
 /// Bytes of a record logger block of shape `c4g3`, on any target.
 pub const TM_RECORD_LOGGER_C4G3_SIZE: usize = 1280;
 /// Bytes of a state logger block of shape `c4g3`, on any target.
@@ -771,7 +771,7 @@ pub unsafe extern "C" fn tm_state_logger_start_c4g3(
 
 /// Bytes of a layout block of shape `c8g3` (8 channels, gust windows up to
 /// 3 samples), on any target. Align it to `TM_ALIGN`.
-pub const TM_LAYOUT_C8G3_SIZE: usize = 2560;
+pub const TM_LAYOUT_C8G3_SIZE: usize = 2816;
 /// Bytes of a record logger block of shape `c8g3`, on any target.
 pub const TM_RECORD_LOGGER_C8G3_SIZE: usize = 2176;
 /// Bytes of a state logger block of shape `c8g3`, on any target.
@@ -860,7 +860,7 @@ pub unsafe extern "C" fn tm_state_logger_start_c8g3(
 
 /// Bytes of a layout block of shape `c8g12` (8 channels, gust windows up to
 /// 12 samples), on any target. Align it to `TM_ALIGN`.
-pub const TM_LAYOUT_C8G12_SIZE: usize = 2560;
+pub const TM_LAYOUT_C8G12_SIZE: usize = 2816;
 /// Bytes of a record logger block of shape `c8g12`, on any target.
 pub const TM_RECORD_LOGGER_C8G12_SIZE: usize = 2816;
 /// Bytes of a state logger block of shape `c8g12`, on any target.
@@ -949,11 +949,11 @@ pub unsafe extern "C" fn tm_state_logger_start_c8g12(
 
 /// Bytes of a layout block of shape `c16g12` (16 channels, gust windows up to
 /// 12 samples), on any target. Align it to `TM_ALIGN`.
-pub const TM_LAYOUT_C16G12_SIZE: usize = 4864;
+pub const TM_LAYOUT_C16G12_SIZE: usize = 5504;
 /// Bytes of a record logger block of shape `c16g12`, on any target.
 pub const TM_RECORD_LOGGER_C16G12_SIZE: usize = 5248;
 /// Bytes of a state logger block of shape `c16g12`, on any target.
-pub const TM_STATE_LOGGER_C16G12_SIZE: usize = 3200;
+pub const TM_STATE_LOGGER_C16G12_SIZE: usize = 3328;
 const _: () = assert!(
     size_of::<LayoutMem<16>>() + HEADROOM <= TM_LAYOUT_C16G12_SIZE
         && size_of::<LoggerMem<RecordBody<16, 12>>>() + HEADROOM <= TM_RECORD_LOGGER_C16G12_SIZE
