@@ -452,9 +452,10 @@ fn decode_and_report_write_provenance_beside_their_outputs() {
         .iter()
         .map(|i| i["role"].as_str().unwrap())
         .collect();
-    assert_eq!(roles, ["station", "exclusions", "log"]);
+    // The demo's station names its exclusions, sensor history and events.
+    assert_eq!(roles, ["station", "exclusions", "sensors", "events", "log"]);
     assert_eq!(
-        prov["inputs"][2]["sha256"].as_str().unwrap(),
+        prov["inputs"][4]["sha256"].as_str().unwrap(),
         sha256sum(&d.join("demo/logger.log"))
     );
     assert_eq!(

@@ -198,6 +198,7 @@ fn rescaled_statistics_match_numpy() {
         .unwrap()
         .replace("sensors = \"sensors.toml\"", "");
     let st = write(dir.path(), "station.toml", plain);
+    copy_exclusions(dir.path());
     let r = rows(&ok(&[
         "replay",
         "-q",
@@ -208,6 +209,16 @@ fn rescaled_statistics_match_numpy() {
     ]));
     let logged: f64 = r[1][c("mean")].parse().unwrap();
     assert!((logged - reference[0].1[1]).abs() > 0.01, "{logged}");
+}
+
+/// The example's exclusions file beside a copied station file (it names it
+/// relative to itself): the exclusions apply alike in both replays compared.
+fn copy_exclusions(dir: &std::path::Path) {
+    std::fs::copy(
+        root().join("examples/station-history/exclusions.csv"),
+        dir.join("exclusions.csv"),
+    )
+    .unwrap();
 }
 
 /// The example's sensors file with only the entries in force at `t`, each
@@ -280,6 +291,7 @@ fn a_history_equals_its_periods_replayed_alone() {
         let dir = tempfile::tempdir().unwrap();
         write(dir.path(), "sensors.toml", one_period(from));
         let st = write(dir.path(), "station.toml", &station);
+        copy_exclusions(dir.path());
         // The period's samples alone.
         let mut csv = String::from("time,ws80a,ws60,wd78\n");
         for l in samples.iter().filter(|l| {
@@ -366,8 +378,23 @@ fn a_state_logger_recalibrated_at_the_visit_decodes_as_the_replay() {
     sampler.close(|e| emit(e, last_stamp));
     let dir = tempfile::tempdir().unwrap();
     let lp = write(dir.path(), "state.log", &log);
-    let decoded = ok(&["decode", "-q", "-c", STATION, lp.to_str().unwrap()]);
-    let replayed = ok(&["replay", "-q", "-c", STATION, SAMPLES[0], SAMPLES[1]]);
+    // A logger knows no exclusions (decided afterwards, on a PC): compare
+    // with a replay of the example's station without its exclusions file.
+    std::fs::copy(
+        root().join("examples/station-history/sensors.toml"),
+        dir.path().join("sensors.toml"),
+    )
+    .unwrap();
+    let no_excl = std::fs::read_to_string(root().join(STATION))
+        .unwrap()
+        .lines()
+        .filter(|l| !l.starts_with("exclusions ="))
+        .collect::<Vec<_>>()
+        .join("\n");
+    let st = write(dir.path(), "station.toml", no_excl);
+    let st = st.to_str().unwrap();
+    let decoded = ok(&["decode", "-q", "-c", st, lp.to_str().unwrap()]);
+    let replayed = ok(&["replay", "-q", "-c", st, SAMPLES[0], SAMPLES[1]]);
     assert_eq!(text(&decoded), text(&replayed));
     // A log whose logger kept the first entry after the swap (never
     // re-programmed) is refused at the first interval past the change.
