@@ -347,9 +347,59 @@ pub struct Memo {
     /// Local milliseconds (read as if UTC) of minute 0, second 0.
     hour_ms: i64,
     valid: bool,
+    /// For texts of 8 to 32 bytes: the memo's text as four 8-byte words at
+    /// [`window`] offsets, and per word a mask of the bytes that must be
+    /// equal (all but the minute's and the second's): one compare a word
+    /// instead of one a byte. Unused (`words == 0`) for other lengths.
+    words: usize,
+    word: [u64; 4],
+    mask: [u64; 4],
+}
+
+/// The offset of word `k` of a text of `len` bytes (8 to 32): words at 0, 8
+/// and 16, and the last 8 bytes, overlapping when the text is shorter.
+#[inline]
+fn window(k: usize, len: usize) -> usize {
+    (8 * k).min(len - 8)
+}
+
+/// The 8 bytes of `text` at `at`, little-endian (0 where `text` is short).
+#[inline]
+fn word_at(text: &[u8], at: usize) -> u64 {
+    text.get(at..at + 8)
+        .and_then(|w| w.try_into().ok())
+        .map_or(0, u64::from_le_bytes)
 }
 
 impl Memo {
+    /// Keeps `text` with the spans of its minute and second, and the local
+    /// milliseconds of its minute 0, second 0.
+    fn set(&mut self, text: &[u8], spans: [(usize, usize); 2], hour_ms: i64) {
+        self.text.clear();
+        self.text.extend_from_slice(text);
+        self.spans = spans;
+        self.hour_ms = hour_ms;
+        self.valid = true;
+        self.words = 0;
+        let len = text.len();
+        if (8..=32).contains(&len) {
+            let [(m0, mn), (s0, sn)] = spans;
+            for k in 0..4 {
+                let at = window(k, len);
+                let mut mask = 0u64;
+                for b in 0..8 {
+                    let i = at + b;
+                    if i.wrapping_sub(m0) >= mn && i.wrapping_sub(s0) >= sn {
+                        mask |= 0xff << (8 * b);
+                    }
+                }
+                self.word[k] = word_at(text, at);
+                self.mask[k] = mask;
+            }
+            self.words = 4;
+        }
+    }
+
     /// The local milliseconds of `text` if it differs from the memo's only in
     /// the minute and second digits, each still below 60.
     #[inline]
@@ -358,15 +408,24 @@ impl Memo {
             return None;
         }
         let [(m0, mn), (s0, sn)] = self.spans;
-        // Every byte equal but the minute's and the second's (short texts: a
-        // plain loop, no call).
-        for (k, (a, b)) in text.iter().zip(&self.text).enumerate() {
-            if a != b && k.wrapping_sub(m0) >= mn && k.wrapping_sub(s0) >= sn {
-                return None;
+        if self.words == 4 {
+            let len = text.len();
+            for k in 0..4 {
+                if (word_at(text, window(k, len)) ^ self.word[k]) & self.mask[k] != 0 {
+                    return None;
+                }
+            }
+        } else {
+            // Every byte equal but the minute's and the second's (short texts: a
+            // plain loop, no call).
+            for (k, (a, b)) in text.iter().zip(&self.text).enumerate() {
+                if a != b && k.wrapping_sub(m0) >= mn && k.wrapping_sub(s0) >= sn {
+                    return None;
+                }
             }
         }
         let num = |(at, n): (usize, usize)| -> Option<i64> {
-            let d = &text[at..at + n];
+            let d = text.get(at..at + n)?;
             d.iter()
                 .all(u8::is_ascii_digit)
                 .then(|| d.iter().fold(0i64, |v, c| v * 10 + i64::from(c - b'0')))
@@ -531,14 +590,12 @@ impl TimeSpec {
                     None => {
                         let (local, spans) = f.read_spans(text)?;
                         let ms = local.as_utc_ms(self.label == Label::End)?;
-                        memo.valid = f.memo_ok() && local.hour < 24;
-                        if memo.valid {
-                            memo.text.clear();
-                            memo.text.extend_from_slice(text);
-                            memo.spans = spans;
-                            memo.hour_ms = ms
+                        memo.valid = false;
+                        if f.memo_ok() && local.hour < 24 {
+                            let hour_ms = ms
                                 - i64::from(local.minute) * 60_000
                                 - i64::from(local.second) * 1000;
+                            memo.set(text, spans, hour_ms);
                         }
                         ms
                     }

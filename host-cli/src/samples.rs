@@ -532,6 +532,20 @@ impl<'a> Records<'a> {
         delims: &mut Vec<u32>,
     ) -> Option<(u64, Result<Timestamp, BadRow>)> {
         let delim = parser.declared_delimiter()?;
+        if let (Some(d), Some(i)) = (parser.declared.as_deref_mut(), self.skip_blank()) {
+            if let Some((t, end)) = d.one_pass(self.buf, i, readings) {
+                let line = self.line;
+                match self.buf.get(end) {
+                    Some(b'\n') => {
+                        self.line += 1;
+                        self.pos = end + 1;
+                    }
+                    Some(_) => self.pos = end + 1,
+                    None => self.pos = end,
+                }
+                return Some((line, Ok(t)));
+            }
+        }
         loop {
             let (line, rec) = match delim {
                 Some(b) => self.next_delimited(b, delims)?,
@@ -974,6 +988,75 @@ fn split_whitespace(rec: &[u8], spans: &mut Vec<(u32, u32)>) {
     }
 }
 
+/// The plan of [`Declared::one_pass`] for a layout, if it can be read so:
+/// one-byte delimiter, one time column, every channel plain (no missing-value
+/// texts, quality column or conversion), no filter, each field read once.
+fn one_pass_plan(
+    table: &Table,
+    time: &[usize],
+    chan: &[(usize, Decode, Option<usize>, bool)],
+    filter: Option<usize>,
+    fields: usize,
+) -> Option<Vec<Step>> {
+    let Delimiter::Byte(delim) = table.delimiter else {
+        return None;
+    };
+    if matches!(delim, b'\n' | b'\r' | b'"') || filter.is_some() {
+        return None;
+    }
+    let [t] = time else { return None };
+    let mut plan = vec![Step::Skip; fields];
+    let mut put = |i: usize, step: Step| match plan.get_mut(i) {
+        Some(s @ Step::Skip) => {
+            *s = step;
+            Some(())
+        }
+        _ => None,
+    };
+    put(*t, Step::Time)?;
+    for (c, &(i, decode, q, plain)) in chan.iter().enumerate() {
+        if !plain || q.is_some() {
+            return None;
+        }
+        put(
+            i,
+            match decode {
+                Decode::Value => Step::Value(c),
+                Decode::Counts => Step::Counts(c),
+            },
+        )?;
+    }
+    Some(plan)
+}
+
+/// The length of the field at the start of `b`: up to the first `delim`, `\n`
+/// or `\r` (or the end of `b`), eight bytes at a time (as [`find_byte`]).
+#[inline]
+fn field_len(b: &[u8], delim: u8) -> usize {
+    const LOW7: u64 = 0x7f7f_7f7f_7f7f_7f7f;
+    let zero_bytes = |x: u64| !(((x & LOW7).wrapping_add(LOW7)) | x | LOW7);
+    let (d, nl, cr) = (
+        u64::from_le_bytes([delim; 8]),
+        u64::from_le_bytes([b'\n'; 8]),
+        u64::from_le_bytes([b'\r'; 8]),
+    );
+    let mut words = b.chunks_exact(8);
+    let mut base = 0usize;
+    for w in &mut words {
+        let x = u64::from_le_bytes(w.try_into().unwrap_or([0; 8]));
+        let hits = zero_bytes(x ^ d) | zero_bytes(x ^ nl) | zero_bytes(x ^ cr);
+        if hits != 0 {
+            return base + (hits.trailing_zeros() / 8) as usize;
+        }
+        base += 8;
+    }
+    base + words
+        .remainder()
+        .iter()
+        .position(|&c| c == delim || c == b'\n' || c == b'\r')
+        .unwrap_or(words.remainder().len())
+}
+
 /// A file of a declared layout (`[input]`): where each field goes.
 #[derive(Clone, Debug)]
 pub struct Declared {
@@ -994,6 +1077,20 @@ pub struct Declared {
     /// The last row's time and the zone's span, to read the next faster.
     memo: Memo,
     zone: ZoneCache,
+    /// A row read in one pass ([`Declared::one_pass`]): what each field
+    /// holds, up to the last one read; `None` when the layout needs more
+    /// (several time columns, a filter, quality columns, missing-value texts,
+    /// unit conversions, whitespace, a column read twice).
+    plan: Option<Vec<Step>>,
+}
+
+/// What one field of a row read in one pass holds.
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+enum Step {
+    Time,
+    Value(usize),
+    Counts(usize),
+    Skip,
 }
 
 impl Declared {
@@ -1091,6 +1188,7 @@ impl Declared {
         } else {
             (highest + 1, false)
         };
+        let plan = one_pass_plan(&table, &time, &chan, filter, fields);
         Ok(Declared {
             table,
             fields,
@@ -1103,7 +1201,80 @@ impl Declared {
             tbuf: Vec::with_capacity(64),
             memo: Memo::default(),
             zone: ZoneCache::default(),
+            plan,
         })
+    }
+
+    /// Reads a row starting at `buf[start]` in one pass, as
+    /// [`Parser::parse_plain`] reads the own CSV: fields left to right while
+    /// the delimiters are found, every channel's field a plain number or
+    /// empty, the time through the memo of the last row. Returns the time and
+    /// the offset of the row's end (its terminator, or the end of `buf`);
+    /// `None` for any other row (a comment, spaces, a bad field, the wrong
+    /// number of fields), which [`Declared::row`] then reads (`readings` may
+    /// be partly written): the same result.
+    #[inline]
+    fn one_pass(
+        &mut self,
+        buf: &[u8],
+        start: usize,
+        readings: &mut [Reading],
+    ) -> Option<(Timestamp, usize)> {
+        let plan = self.plan.as_deref()?;
+        let table = &*self.table;
+        let Delimiter::Byte(delim) = table.delimiter else {
+            return None;
+        };
+        if let Some(c) = &table.comment {
+            // A row that may be a comment (or starts with spaces) is read by
+            // the general way.
+            let first = *buf.get(start)?;
+            if c.first().is_none_or(|&c0| c0 == first) || first.is_ascii_whitespace() {
+                return None;
+            }
+        }
+        let sep = if table.decimal_comma { b',' } else { b'.' };
+        let mut p = start;
+        let mut time = None;
+        for (i, step) in plan.iter().enumerate() {
+            if i > 0 {
+                if buf.get(p) != Some(&delim) {
+                    return None;
+                }
+                p += 1;
+            }
+            let rest = buf.get(p..)?;
+            match *step {
+                Step::Time => {
+                    let n = field_len(rest, delim);
+                    let t = table
+                        .time
+                        .parse_with(&rest[..n], &mut self.memo, &mut self.zone)
+                        .ok()?;
+                    time = Some(t);
+                    p += n;
+                }
+                Step::Value(c) => {
+                    let (v, n) = plain_f64_in(rest, sep, delim)?;
+                    *readings.get_mut(c)? = v;
+                    p += n;
+                }
+                Step::Counts(c) => {
+                    let (k, n) = plain_i32_in(rest, delim)?;
+                    *readings.get_mut(c)? = k;
+                    p += n;
+                }
+                Step::Skip => p += field_len(rest, delim),
+            }
+        }
+        if !self.exact && buf.get(p) == Some(&delim) {
+            // At least the fields read: the rest of the row is not read.
+            p += field_len(buf.get(p..)?, b'\n');
+        }
+        match buf.get(p) {
+            None | Some(b'\n' | b'\r') => Some((time?, p)),
+            Some(_) => None,
+        }
     }
 
     fn name(&self, i: usize) -> String {
@@ -1483,8 +1654,16 @@ fn fast_f64_sep(b: &[u8], sep: u8) -> Option<f64> {
 /// that a delimiter follows.
 #[inline]
 fn plain_f64(b: &[u8]) -> Option<(Reading, usize)> {
+    plain_f64_in(b, b'.', b',')
+}
+
+/// [`plain_f64`] with `sep` as the decimal separator and `delim` as the
+/// field delimiter.
+#[inline(always)]
+fn plain_f64_in(b: &[u8], sep: u8, delim: u8) -> Option<(Reading, usize)> {
     let (neg, skip) = match b.first() {
-        None | Some(b',' | b'\n' | b'\r') => return Some((Reading::Missing, 0)),
+        None | Some(b'\n' | b'\r') => return Some((Reading::Missing, 0)),
+        Some(&c) if c == delim => return Some((Reading::Missing, 0)),
         Some(b'-') => (true, 1),
         Some(b'+') => (false, 1),
         Some(_) => (false, 0),
@@ -1498,7 +1677,7 @@ fn plain_f64(b: &[u8]) -> Option<(Reading, usize)> {
         let d = c.wrapping_sub(b'0');
         if d < 10 {
             m = m.wrapping_mul(10).wrapping_add(u64::from(d));
-        } else if c == b'.' && dot == usize::MAX {
+        } else if c == sep && dot == usize::MAX {
             dot = i;
         } else {
             break;
@@ -1552,8 +1731,15 @@ fn quotient(m: u64, frac: usize) -> f64 {
 /// its length; the caller checks that a delimiter follows.
 #[inline]
 fn plain_i32(b: &[u8]) -> Option<(Reading, usize)> {
+    plain_i32_in(b, b',')
+}
+
+/// [`plain_i32`] with `delim` as the field delimiter.
+#[inline(always)]
+fn plain_i32_in(b: &[u8], delim: u8) -> Option<(Reading, usize)> {
     let (neg, skip) = match b.first() {
-        None | Some(b',' | b'\n' | b'\r') => return Some((Reading::Missing, 0)),
+        None | Some(b'\n' | b'\r') => return Some((Reading::Missing, 0)),
+        Some(&c) if c == delim => return Some((Reading::Missing, 0)),
         Some(b'-') => (true, 1),
         Some(b'+') => (false, 1),
         Some(_) => (false, 0),
