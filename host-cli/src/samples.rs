@@ -287,6 +287,7 @@ pub fn feed(
         readings: vec![Reading::Missing; cfg.channels.len()],
         commas: Vec::with_capacity(64),
         last: None,
+        block: Block::new(cfg.channels.len()),
     };
     let mut done_bytes = 0u64;
     for path in files {
@@ -358,6 +359,85 @@ struct Sequential<'a> {
     commas: Vec<u32>,
     /// The last accepted sample time.
     last: Option<Timestamp>,
+    /// Good rows read but not pushed yet.
+    block: Block,
+}
+
+/// Rows per block of the block path ([`Block`]).
+pub const BLOCK_ROWS: usize = 512;
+
+/// Good rows read but not pushed yet, by channel column, so that runs of
+/// them go into the core channel by channel ([`qc_core::Station::push_run`]).
+#[derive(Debug)]
+pub struct Block {
+    /// Each row's time and line.
+    pub times: Vec<Timestamp>,
+    pub lines: Vec<u64>,
+    /// Per channel (station-file order), one reading per row.
+    pub cols: Vec<Vec<Reading>>,
+}
+
+impl Block {
+    /// An empty block for `n` channels.
+    pub fn new(n: usize) -> Self {
+        Block {
+            times: Vec::with_capacity(BLOCK_ROWS),
+            lines: Vec::with_capacity(BLOCK_ROWS),
+            cols: (0..n).map(|_| Vec::with_capacity(BLOCK_ROWS)).collect(),
+        }
+    }
+
+    /// Adds a row.
+    #[inline]
+    pub fn add(&mut self, t: Timestamp, line: u64, readings: &[Reading]) {
+        self.times.push(t);
+        self.lines.push(line);
+        for (col, r) in self.cols.iter_mut().zip(readings) {
+            col.push(*r);
+        }
+    }
+
+    /// Whether it holds [`BLOCK_ROWS`] rows.
+    #[inline]
+    pub fn is_full(&self) -> bool {
+        self.times.len() >= BLOCK_ROWS
+    }
+
+    /// Row `i`'s readings into `readings`.
+    pub fn row(&self, i: usize, readings: &mut [Reading]) {
+        for (r, col) in readings.iter_mut().zip(&self.cols) {
+            if let Some(x) = col.get(i) {
+                *r = *x;
+            }
+        }
+    }
+
+    /// Empties it.
+    pub fn clear(&mut self) {
+        self.times.clear();
+        self.lines.clear();
+        for col in &mut self.cols {
+            col.clear();
+        }
+    }
+}
+
+/// How many of `times` (from the start) would each be accepted after `last`
+/// and the one before, without a jump over `max_gap_ms`: those may go into
+/// the core as a run with no check of their own ([`check_jump`] passes each).
+pub fn steady_prefix(times: &[Timestamp], last: Option<Timestamp>, max_gap_ms: i64) -> usize {
+    let Some(last) = last else { return 0 };
+    let mut prev = last.millis();
+    let mut n = 0;
+    for t in times {
+        let ms = t.millis();
+        if ms <= prev || ms - prev > max_gap_ms {
+            break;
+        }
+        prev = ms;
+        n += 1;
+    }
+    n
 }
 
 impl Sequential<'_> {
@@ -377,8 +457,21 @@ impl Sequential<'_> {
                     while let Some((ln, parsed)) =
                         recs.next_row(p, &mut self.readings, &mut self.commas)
                     {
-                        self.row(path, ln, parsed)?;
+                        match parsed {
+                            Ok(t) => {
+                                self.stats.rows += 1;
+                                self.block.add(t, ln, &self.readings);
+                                if self.block.is_full() {
+                                    self.flush(path)?;
+                                }
+                            }
+                            Err(_) => {
+                                self.flush(path)?;
+                                self.row(path, ln, parsed)?;
+                            }
+                        }
                     }
+                    self.flush(path)?;
                     reader.recycle(bytes);
                     progress.at(done_bytes + end);
                 }
@@ -407,6 +500,35 @@ impl Sequential<'_> {
         } else {
             self.stats.empty_file(&self.opts, path)
         }
+    }
+
+    /// Pushes the rows of the block: runs of steady rows channel by channel,
+    /// the others one by one, as [`Sequential::row`] would each.
+    fn flush(&mut self, path: &Path) -> Result<()> {
+        let n = self.block.times.len();
+        let max_gap = self.opts.max_gap_ms();
+        let mut i = 0;
+        while i < n {
+            let b = &self.block;
+            let m = steady_prefix(&b.times[i..], self.last, max_gap);
+            if m > 0 {
+                let k = self.engine.push_run(&b.times[i..i + m], &b.cols, i);
+                if k > 0 {
+                    self.last = Some(b.times[i + k - 1]);
+                    i += k;
+                    continue;
+                }
+            }
+            let (t, line) = (b.times[i], b.lines[i]);
+            b.row(i, &mut self.readings);
+            check_jump(&self.opts, self.last, t, path, line)?;
+            if self.engine.push(t, &self.readings)? == Pushed::Accepted {
+                self.last = Some(t);
+            }
+            i += 1;
+        }
+        self.block.clear();
+        Ok(())
     }
 
     #[inline]
