@@ -1369,10 +1369,14 @@ impl Declared {
             match *step {
                 Step::Time => {
                     let n = field_len(rest, delim);
-                    let t = table
-                        .time
-                        .parse_with(&rest[..n], &mut self.memo, &mut self.zone)
-                        .ok()?;
+                    let text = &rest[..n];
+                    let t = match table.time.parse_memo(text, &self.memo, &self.zone) {
+                        Some(t) => t,
+                        None => table
+                            .time
+                            .parse_with(text, &mut self.memo, &mut self.zone)
+                            .ok()?,
+                    };
                     time = Some(t);
                     p += n;
                 }
@@ -1839,7 +1843,7 @@ static TENTHS: [f64; TABLE] = quotients(1);
 static HUNDREDTHS: [f64; TABLE] = quotients(2);
 
 /// `m / 10^frac`, correctly rounded (`m < 2^53`, `frac <= 15`).
-#[inline]
+#[inline(always)]
 fn quotient(m: u64, frac: usize) -> f64 {
     match (frac, usize::try_from(m)) {
         (0, _) => m as f64,
