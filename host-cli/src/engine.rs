@@ -49,6 +49,16 @@ pub trait Engine {
     /// Pushes one sample; `readings` holds one reading per configured channel.
     /// Intervals it closes (and gaps it ends) go to the sink first.
     fn push(&mut self, t: Timestamp, readings: &[Reading]) -> Result<Pushed>;
+    /// Pushes the leading rows of a block that are each simply the next
+    /// sample of the open interval, channel by channel (`columns[c]` holds
+    /// channel `c`'s readings, one per time), and returns how many: every one
+    /// accepted, nothing emitted ([`qc_core::Station::push_run`]). The row
+    /// after them, if any, goes through [`Engine::push`]. `from` is the
+    /// first row of `columns` to read. By default none: every row one by one.
+    fn push_run(&mut self, times: &[Timestamp], columns: &[Vec<Reading>], from: usize) -> usize {
+        let _ = (times, columns, from);
+        0
+    }
     /// End of data: closes the open interval.
     fn close(&mut self) -> Result<()>;
     /// Samples pushed, by outcome.
@@ -77,6 +87,8 @@ struct Fixed<'s, const C: usize> {
     out: Out<'s, C>,
     readings: [Reading; C],
     n: usize,
+    /// The readings of the unused channel slots in a run: all missing.
+    pad: Vec<Reading>,
 }
 
 /// Hands intervals to a sink as records: what the emit callback needs,
@@ -100,6 +112,7 @@ impl<'s, const C: usize> Fixed<'s, C> {
             out: Out::new(layout, n, sink),
             readings: [Reading::Missing; C],
             n,
+            pad: Vec::new(),
         })
     }
 }
@@ -198,6 +211,23 @@ impl<const C: usize> Engine for Fixed<'_, C> {
         };
         self.out.check()?;
         Ok(pushed)
+    }
+
+    fn push_run(&mut self, times: &[Timestamp], columns: &[Vec<Reading>], from: usize) -> usize {
+        // With a sensor history each sample is classified by the entry in
+        // force at its time: those rows go one by one through `push`.
+        if self.epochs.is_some() {
+            return 0;
+        }
+        if self.pad.len() < times.len() {
+            self.pad.resize(times.len(), Reading::Missing);
+        }
+        let pad = &self.pad[..];
+        let cols: [&[Reading]; C] = std::array::from_fn(|c| match columns.get(c) {
+            Some(col) if c < self.n => col.get(from..).unwrap_or_default(),
+            _ => pad,
+        });
+        self.station.push_run(times, &cols)
     }
 
     fn close(&mut self) -> Result<()> {

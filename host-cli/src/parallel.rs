@@ -44,7 +44,8 @@ use crate::config::{StationFile, MAX_CHANNELS};
 use crate::engine::{Out, Sink, G};
 use crate::reader::{FileReader, Head, Piece};
 use crate::samples::{
-    check_jump, csv_rows, file_len, BadRow, InputStats, Options, Parser, Progress, Records,
+    check_jump, csv_rows, file_len, steady_prefix, BadRow, Block, InputStats, Options, Parser,
+    Progress, Records,
 };
 use crate::sensors::Epochs;
 
@@ -174,6 +175,9 @@ struct Run<'a, const C: usize> {
     events: Vec<Ev<C>>,
     stats: InputStats,
     readings: [Reading; C],
+    /// Good rows read after the first accepted one, not pushed yet (every
+    /// channel slot, the unused ones missing).
+    block: Block,
 }
 
 impl<'a, const C: usize> Run<'a, C> {
@@ -197,6 +201,7 @@ impl<'a, const C: usize> Run<'a, C> {
             events: Vec::new(),
             stats: InputStats::default(),
             readings: [Reading::Missing; C],
+            block: Block::new(C),
         }
     }
 
@@ -228,28 +233,8 @@ impl<'a, const C: usize> Run<'a, C> {
             Err(bad) => return Ok(self.stats.bad_row(&self.opts, path, line, bad)?),
         };
         self.excl.apply(t, &mut self.readings);
-        if let Some(st) = self.station.as_mut() {
-            check_jump(&self.opts, self.last, t, path, line)?;
-            let events = &mut self.events;
-            let emit = |e: Event<'_, C, G>| {
-                events.push(match e {
-                    Event::Closed(acc, _) => Ev::Closed(Box::new(*acc)),
-                    Event::Gap(g) => Ev::Gap(g),
-                })
-            };
-            let pushed = match &self.epochs {
-                None => st.push(t, &self.readings, emit),
-                Some(ep) => st
-                    .push_with(ep.at(t, &mut self.cursor), t, &self.readings, emit)
-                    .map_err(anyhow::Error::from)?,
-            };
-            if pushed == Pushed::Accepted {
-                self.last = Some(t);
-            }
-            if self.events.len() >= BATCH {
-                send(Msg::Events(mem::take(&mut self.events))).map_err(Halt::Send)?;
-            }
-            return Ok(());
+        if self.station.is_some() {
+            return self.push(path, line, t, send);
         }
         let (layout, floor) = (self.layout, self.floor);
         let probe = self.probe.get_or_insert_with(|| {
@@ -279,6 +264,73 @@ impl<'a, const C: usize> Run<'a, C> {
             lead,
         })
         .map_err(Halt::Send)
+    }
+
+    /// One row (its readings in `self.readings`) into the station, once the
+    /// chunk has accepted a sample.
+    fn push(
+        &mut self,
+        path: &Path,
+        line: u64,
+        t: Timestamp,
+        send: &mut Emit<'_, C>,
+    ) -> Result<(), Halt> {
+        let Some(st) = self.station.as_mut() else {
+            return Ok(());
+        };
+        check_jump(&self.opts, self.last, t, path, line)?;
+        let events = &mut self.events;
+        let emit = |e: Event<'_, C, G>| {
+            events.push(match e {
+                Event::Closed(acc, _) => Ev::Closed(Box::new(*acc)),
+                Event::Gap(g) => Ev::Gap(g),
+            })
+        };
+        let pushed = match &self.epochs {
+            None => st.push(t, &self.readings, emit),
+            Some(ep) => st
+                .push_with(ep.at(t, &mut self.cursor), t, &self.readings, emit)
+                .map_err(anyhow::Error::from)?,
+        };
+        if pushed == Pushed::Accepted {
+            self.last = Some(t);
+        }
+        if self.events.len() >= BATCH {
+            send(Msg::Events(mem::take(&mut self.events))).map_err(Halt::Send)?;
+        }
+        Ok(())
+    }
+
+    /// Pushes the rows of the block: runs of steady rows channel by channel,
+    /// the others one by one ([`Run::push`]), as each would go alone.
+    fn flush(&mut self, path: &Path, send: &mut Emit<'_, C>) -> Result<(), Halt> {
+        let n = self.block.times.len();
+        let max_gap = self.opts.max_gap_ms();
+        let mut i = 0;
+        while i < n {
+            let b = &self.block;
+            let m = steady_prefix(&b.times[i..], self.last, max_gap);
+            if let (true, Some(st)) = (m > 0, self.station.as_mut()) {
+                let cols: [&[Reading]; C] = std::array::from_fn(|c| {
+                    b.cols
+                        .get(c)
+                        .and_then(|col| col.get(i..))
+                        .unwrap_or_default()
+                });
+                let k = st.push_run(&b.times[i..i + m], &cols);
+                if k > 0 {
+                    self.last = Some(b.times[i + k - 1]);
+                    i += k;
+                    continue;
+                }
+            }
+            let (t, line) = (b.times[i], b.lines[i]);
+            b.row(i, &mut self.readings);
+            self.push(path, line, t, send)?;
+            i += 1;
+        }
+        self.block.clear();
+        Ok(())
     }
 
     /// Ends the chunk after the rows read (and `error`, if it stopped early).
@@ -314,9 +366,24 @@ impl<'a, const C: usize> Run<'a, C> {
         let mut commas = Vec::with_capacity(64);
         let mut rows = || -> Result<(), Halt> {
             while let Some((ln, parsed)) = recs.next_row(parser, &mut self.readings, &mut commas) {
-                self.row(path, ln, parsed, send)?;
+                match parsed {
+                    // The block path classifies with the station's own layout:
+                    // with a sensor history each row goes alone, with its entry.
+                    Ok(t) if self.station.is_some() && self.epochs.is_none() => {
+                        self.stats.rows += 1;
+                        self.excl.apply(t, &mut self.readings);
+                        self.block.add(t, ln, &self.readings);
+                        if self.block.is_full() {
+                            self.flush(path, send)?;
+                        }
+                    }
+                    _ => {
+                        self.flush(path, send)?;
+                        self.row(path, ln, parsed, send)?;
+                    }
+                }
             }
-            Ok(())
+            self.flush(path, send)
         };
         match rows() {
             Ok(()) => self.end(None, send),

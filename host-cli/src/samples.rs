@@ -287,6 +287,7 @@ pub fn feed(
         readings: vec![Reading::Missing; cfg.channels.len()],
         commas: Vec::with_capacity(64),
         last: None,
+        block: Block::new(cfg.channels.len()),
     };
     let mut done_bytes = 0u64;
     for path in files {
@@ -358,6 +359,85 @@ struct Sequential<'a> {
     commas: Vec<u32>,
     /// The last accepted sample time.
     last: Option<Timestamp>,
+    /// Good rows read but not pushed yet.
+    block: Block,
+}
+
+/// Rows per block of the block path ([`Block`]).
+pub const BLOCK_ROWS: usize = 512;
+
+/// Good rows read but not pushed yet, by channel column, so that runs of
+/// them go into the core channel by channel ([`qc_core::Station::push_run`]).
+#[derive(Debug)]
+pub struct Block {
+    /// Each row's time and line.
+    pub times: Vec<Timestamp>,
+    pub lines: Vec<u64>,
+    /// Per channel (station-file order), one reading per row.
+    pub cols: Vec<Vec<Reading>>,
+}
+
+impl Block {
+    /// An empty block for `n` channels.
+    pub fn new(n: usize) -> Self {
+        Block {
+            times: Vec::with_capacity(BLOCK_ROWS),
+            lines: Vec::with_capacity(BLOCK_ROWS),
+            cols: (0..n).map(|_| Vec::with_capacity(BLOCK_ROWS)).collect(),
+        }
+    }
+
+    /// Adds a row.
+    #[inline]
+    pub fn add(&mut self, t: Timestamp, line: u64, readings: &[Reading]) {
+        self.times.push(t);
+        self.lines.push(line);
+        for (col, r) in self.cols.iter_mut().zip(readings) {
+            col.push(*r);
+        }
+    }
+
+    /// Whether it holds [`BLOCK_ROWS`] rows.
+    #[inline]
+    pub fn is_full(&self) -> bool {
+        self.times.len() >= BLOCK_ROWS
+    }
+
+    /// Row `i`'s readings into `readings`.
+    pub fn row(&self, i: usize, readings: &mut [Reading]) {
+        for (r, col) in readings.iter_mut().zip(&self.cols) {
+            if let Some(x) = col.get(i) {
+                *r = *x;
+            }
+        }
+    }
+
+    /// Empties it.
+    pub fn clear(&mut self) {
+        self.times.clear();
+        self.lines.clear();
+        for col in &mut self.cols {
+            col.clear();
+        }
+    }
+}
+
+/// How many of `times` (from the start) would each be accepted after `last`
+/// and the one before, without a jump over `max_gap_ms`: those may go into
+/// the core as a run with no check of their own ([`check_jump`] passes each).
+pub fn steady_prefix(times: &[Timestamp], last: Option<Timestamp>, max_gap_ms: i64) -> usize {
+    let Some(last) = last else { return 0 };
+    let mut prev = last.millis();
+    let mut n = 0;
+    for t in times {
+        let ms = t.millis();
+        if ms <= prev || ms - prev > max_gap_ms {
+            break;
+        }
+        prev = ms;
+        n += 1;
+    }
+    n
 }
 
 impl Sequential<'_> {
@@ -377,8 +457,22 @@ impl Sequential<'_> {
                     while let Some((ln, parsed)) =
                         recs.next_row(p, &mut self.readings, &mut self.commas)
                     {
-                        self.row(path, ln, parsed)?;
+                        match parsed {
+                            Ok(t) => {
+                                self.stats.rows += 1;
+                                self.cfg.exclusions.apply(t, &mut self.readings);
+                                self.block.add(t, ln, &self.readings);
+                                if self.block.is_full() {
+                                    self.flush(path)?;
+                                }
+                            }
+                            Err(_) => {
+                                self.flush(path)?;
+                                self.row(path, ln, parsed)?;
+                            }
+                        }
                     }
+                    self.flush(path)?;
                     reader.recycle(bytes);
                     progress.at(done_bytes + end);
                 }
@@ -407,6 +501,35 @@ impl Sequential<'_> {
         } else {
             self.stats.empty_file(&self.opts, path)
         }
+    }
+
+    /// Pushes the rows of the block: runs of steady rows channel by channel,
+    /// the others one by one, as [`Sequential::row`] would each.
+    fn flush(&mut self, path: &Path) -> Result<()> {
+        let n = self.block.times.len();
+        let max_gap = self.opts.max_gap_ms();
+        let mut i = 0;
+        while i < n {
+            let b = &self.block;
+            let m = steady_prefix(&b.times[i..], self.last, max_gap);
+            if m > 0 {
+                let k = self.engine.push_run(&b.times[i..i + m], &b.cols, i);
+                if k > 0 {
+                    self.last = Some(b.times[i + k - 1]);
+                    i += k;
+                    continue;
+                }
+            }
+            let (t, line) = (b.times[i], b.lines[i]);
+            b.row(i, &mut self.readings);
+            check_jump(&self.opts, self.last, t, path, line)?;
+            if self.engine.push(t, &self.readings)? == Pushed::Accepted {
+                self.last = Some(t);
+            }
+            i += 1;
+        }
+        self.block.clear();
+        Ok(())
     }
 
     #[inline]
@@ -533,6 +656,20 @@ impl<'a> Records<'a> {
         delims: &mut Vec<u32>,
     ) -> Option<(u64, Result<Timestamp, BadRow>)> {
         let delim = parser.declared_delimiter()?;
+        if let (Some(d), Some(i)) = (parser.declared.as_deref_mut(), self.skip_blank()) {
+            if let Some((t, end)) = d.one_pass(self.buf, i, readings) {
+                let line = self.line;
+                match self.buf.get(end) {
+                    Some(b'\n') => {
+                        self.line += 1;
+                        self.pos = end + 1;
+                    }
+                    Some(_) => self.pos = end + 1,
+                    None => self.pos = end,
+                }
+                return Some((line, Ok(t)));
+            }
+        }
         loop {
             let (line, rec) = match delim {
                 Some(b) => self.next_delimited(b, delims)?,
@@ -981,6 +1118,75 @@ fn split_whitespace(rec: &[u8], spans: &mut Vec<(u32, u32)>) {
     }
 }
 
+/// The plan of [`Declared::one_pass`] for a layout, if it can be read so:
+/// one-byte delimiter, one time column, every channel plain (no missing-value
+/// texts, quality column or conversion), no filter, each field read once.
+fn one_pass_plan(
+    table: &Table,
+    time: &[usize],
+    chan: &[(usize, Decode, Option<usize>, bool)],
+    filter: Option<usize>,
+    fields: usize,
+) -> Option<Vec<Step>> {
+    let Delimiter::Byte(delim) = table.delimiter else {
+        return None;
+    };
+    if matches!(delim, b'\n' | b'\r' | b'"') || filter.is_some() {
+        return None;
+    }
+    let [t] = time else { return None };
+    let mut plan = vec![Step::Skip; fields];
+    let mut put = |i: usize, step: Step| match plan.get_mut(i) {
+        Some(s @ Step::Skip) => {
+            *s = step;
+            Some(())
+        }
+        _ => None,
+    };
+    put(*t, Step::Time)?;
+    for (c, &(i, decode, q, plain)) in chan.iter().enumerate() {
+        if !plain || q.is_some() {
+            return None;
+        }
+        put(
+            i,
+            match decode {
+                Decode::Value => Step::Value(c),
+                Decode::Counts => Step::Counts(c),
+            },
+        )?;
+    }
+    Some(plan)
+}
+
+/// The length of the field at the start of `b`: up to the first `delim`, `\n`
+/// or `\r` (or the end of `b`), eight bytes at a time (as [`find_byte`]).
+#[inline]
+fn field_len(b: &[u8], delim: u8) -> usize {
+    const LOW7: u64 = 0x7f7f_7f7f_7f7f_7f7f;
+    let zero_bytes = |x: u64| !(((x & LOW7).wrapping_add(LOW7)) | x | LOW7);
+    let (d, nl, cr) = (
+        u64::from_le_bytes([delim; 8]),
+        u64::from_le_bytes([b'\n'; 8]),
+        u64::from_le_bytes([b'\r'; 8]),
+    );
+    let mut words = b.chunks_exact(8);
+    let mut base = 0usize;
+    for w in &mut words {
+        let x = u64::from_le_bytes(w.try_into().unwrap_or([0; 8]));
+        let hits = zero_bytes(x ^ d) | zero_bytes(x ^ nl) | zero_bytes(x ^ cr);
+        if hits != 0 {
+            return base + (hits.trailing_zeros() / 8) as usize;
+        }
+        base += 8;
+    }
+    base + words
+        .remainder()
+        .iter()
+        .position(|&c| c == delim || c == b'\n' || c == b'\r')
+        .unwrap_or(words.remainder().len())
+}
+
 /// A file of a declared layout (`[input]`): where each field goes.
 #[derive(Clone, Debug)]
 pub struct Declared {
@@ -1001,6 +1207,20 @@ pub struct Declared {
     /// The last row's time and the zone's span, to read the next faster.
     memo: Memo,
     zone: ZoneCache,
+    /// A row read in one pass ([`Declared::one_pass`]): what each field
+    /// holds, up to the last one read; `None` when the layout needs more
+    /// (several time columns, a filter, quality columns, missing-value texts,
+    /// unit conversions, whitespace, a column read twice).
+    plan: Option<Vec<Step>>,
+}
+
+/// What one field of a row read in one pass holds.
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+enum Step {
+    Time,
+    Value(usize),
+    Counts(usize),
+    Skip,
 }
 
 impl Declared {
@@ -1105,6 +1325,7 @@ impl Declared {
         } else {
             (highest + 1, false)
         };
+        let plan = one_pass_plan(&table, &time, &chan, filter, fields);
         Ok(Declared {
             table,
             fields,
@@ -1117,7 +1338,84 @@ impl Declared {
             tbuf: Vec::with_capacity(64),
             memo: Memo::default(),
             zone: ZoneCache::default(),
+            plan,
         })
+    }
+
+    /// Reads a row starting at `buf[start]` in one pass, as
+    /// [`Parser::parse_plain`] reads the own CSV: fields left to right while
+    /// the delimiters are found, every channel's field a plain number or
+    /// empty, the time through the memo of the last row. Returns the time and
+    /// the offset of the row's end (its terminator, or the end of `buf`);
+    /// `None` for any other row (a comment, spaces, a bad field, the wrong
+    /// number of fields), which [`Declared::row`] then reads (`readings` may
+    /// be partly written): the same result.
+    #[inline]
+    fn one_pass(
+        &mut self,
+        buf: &[u8],
+        start: usize,
+        readings: &mut [Reading],
+    ) -> Option<(Timestamp, usize)> {
+        let plan = self.plan.as_deref()?;
+        let table = &*self.table;
+        let Delimiter::Byte(delim) = table.delimiter else {
+            return None;
+        };
+        if let Some(c) = &table.comment {
+            // A row that may be a comment (or starts with spaces) is read by
+            // the general way.
+            let first = *buf.get(start)?;
+            if c.first().is_none_or(|&c0| c0 == first) || first.is_ascii_whitespace() {
+                return None;
+            }
+        }
+        let sep = if table.decimal_comma { b',' } else { b'.' };
+        let mut p = start;
+        let mut time = None;
+        for (i, step) in plan.iter().enumerate() {
+            if i > 0 {
+                if buf.get(p) != Some(&delim) {
+                    return None;
+                }
+                p += 1;
+            }
+            let rest = buf.get(p..)?;
+            match *step {
+                Step::Time => {
+                    let n = field_len(rest, delim);
+                    let text = &rest[..n];
+                    let t = match table.time.parse_memo(text, &self.memo, &self.zone) {
+                        Some(t) => t,
+                        None => table
+                            .time
+                            .parse_with(text, &mut self.memo, &mut self.zone)
+                            .ok()?,
+                    };
+                    time = Some(t);
+                    p += n;
+                }
+                Step::Value(c) => {
+                    let (v, n) = plain_f64_in(rest, sep, delim)?;
+                    *readings.get_mut(c)? = v;
+                    p += n;
+                }
+                Step::Counts(c) => {
+                    let (k, n) = plain_i32_in(rest, delim)?;
+                    *readings.get_mut(c)? = k;
+                    p += n;
+                }
+                Step::Skip => p += field_len(rest, delim),
+            }
+        }
+        if !self.exact && buf.get(p) == Some(&delim) {
+            // At least the fields read: the rest of the row is not read.
+            p += field_len(buf.get(p..)?, b'\n');
+        }
+        match buf.get(p) {
+            None | Some(b'\n' | b'\r') => Some((time?, p)),
+            Some(_) => None,
+        }
     }
 
     fn name(&self, i: usize) -> String {
@@ -1497,8 +1795,16 @@ fn fast_f64_sep(b: &[u8], sep: u8) -> Option<f64> {
 /// that a delimiter follows.
 #[inline]
 fn plain_f64(b: &[u8]) -> Option<(Reading, usize)> {
+    plain_f64_in(b, b'.', b',')
+}
+
+/// [`plain_f64`] with `sep` as the decimal separator and `delim` as the
+/// field delimiter.
+#[inline(always)]
+fn plain_f64_in(b: &[u8], sep: u8, delim: u8) -> Option<(Reading, usize)> {
     let (neg, skip) = match b.first() {
-        None | Some(b',' | b'\n' | b'\r') => return Some((Reading::Missing, 0)),
+        None | Some(b'\n' | b'\r') => return Some((Reading::Missing, 0)),
+        Some(&c) if c == delim => return Some((Reading::Missing, 0)),
         Some(b'-') => (true, 1),
         Some(b'+') => (false, 1),
         Some(_) => (false, 0),
@@ -1512,7 +1818,7 @@ fn plain_f64(b: &[u8]) -> Option<(Reading, usize)> {
         let d = c.wrapping_sub(b'0');
         if d < 10 {
             m = m.wrapping_mul(10).wrapping_add(u64::from(d));
-        } else if c == b'.' && dot == usize::MAX {
+        } else if c == sep && dot == usize::MAX {
             dot = i;
         } else {
             break;
@@ -1552,7 +1858,7 @@ static TENTHS: [f64; TABLE] = quotients(1);
 static HUNDREDTHS: [f64; TABLE] = quotients(2);
 
 /// `m / 10^frac`, correctly rounded (`m < 2^53`, `frac <= 15`).
-#[inline]
+#[inline(always)]
 fn quotient(m: u64, frac: usize) -> f64 {
     match (frac, usize::try_from(m)) {
         (0, _) => m as f64,
@@ -1566,8 +1872,15 @@ fn quotient(m: u64, frac: usize) -> f64 {
 /// its length; the caller checks that a delimiter follows.
 #[inline]
 fn plain_i32(b: &[u8]) -> Option<(Reading, usize)> {
+    plain_i32_in(b, b',')
+}
+
+/// [`plain_i32`] with `delim` as the field delimiter.
+#[inline(always)]
+fn plain_i32_in(b: &[u8], delim: u8) -> Option<(Reading, usize)> {
     let (neg, skip) = match b.first() {
-        None | Some(b',' | b'\n' | b'\r') => return Some((Reading::Missing, 0)),
+        None | Some(b'\n' | b'\r') => return Some((Reading::Missing, 0)),
+        Some(&c) if c == delim => return Some((Reading::Missing, 0)),
         Some(b'-') => (true, 1),
         Some(b'+') => (false, 1),
         Some(_) => (false, 0),

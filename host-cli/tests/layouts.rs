@@ -505,3 +505,64 @@ fn a_time_format_that_cannot_read_the_first_row_is_refused_even_skipping_bad_row
         );
     }
 }
+
+#[test]
+fn rows_read_in_one_pass_and_the_general_way_give_the_same_records() {
+    // Invented rows, mostly plain (read in one pass), mixed with rows that
+    // take the general way (spaces around a number, a comment line, an
+    // unused column holding text), empty fields, and times with gaps,
+    // duplicates and backward steps: the records must be those of the same
+    // samples in tenmin's own CSV.
+    let toml = station(
+        RATE_1S,
+        "[input]\ndelimiter = \";\"\ndecimal = \",\"\ncomment = \"#\"\n\n[input.time]\ncolumn = \"Zeit\"\nformat = \"%Y-%m-%d %H:%M:%S\"",
+        "column = \"WG\"",
+        "column = \"WR\"",
+    );
+    let mut x = 0x2545_F491_4F6C_DD1Du64;
+    let mut next = move || {
+        x ^= x << 13;
+        x ^= x >> 7;
+        x ^= x << 17;
+        x
+    };
+    let mut file = String::from("Zeit;Notiz;WG;WR\n");
+    let mut own = String::from("time,ws,wd\n");
+    let mut s = 1_737_331_200i64; // 2025-01-20T00:00:00Z
+    for _ in 0..5000 {
+        s += match next() % 50 {
+            0 => 0,
+            1 => -3,
+            2 => 700,
+            _ => 1,
+        };
+        let t = qc_core::Timestamp::from_millis(s * 1000).civil();
+        let (date, clock) = (
+            format!("{:04}-{:02}-{:02}", t.year, t.month, t.day),
+            format!("{:02}:{:02}:{:02}", t.hour, t.minute, t.second),
+        );
+        let ws = (next() % 3000) as f64 / 100.0;
+        let wd = (next() % 3600) as f64 / 10.0;
+        let (ws_f, ws_o) = match next() % 20 {
+            0 => (String::new(), String::new()),
+            1 => (format!(" {} ", ws).replace('.', ","), ws.to_string()),
+            _ => (ws.to_string().replace('.', ","), ws.to_string()),
+        };
+        let note = if next() % 10 == 0 { "Wartung" } else { "" };
+        if next() % 40 == 0 {
+            file.push_str("# Kommentar; 1,5\n");
+        }
+        file.push_str(&format!(
+            "{date} {clock};{note};{ws_f};{}\n",
+            wd.to_string().replace('.', ",")
+        ));
+        own.push_str(&format!("{date}T{clock}Z,{ws_o},{wd}\n"));
+    }
+    same_records(
+        "one-pass.csv",
+        &toml,
+        file.as_bytes(),
+        &own,
+        &station(RATE_1S, "", "", ""),
+    );
+}

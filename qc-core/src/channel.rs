@@ -1161,6 +1161,18 @@ fn push_speed<const G: usize>(
         return;
     };
     let class = ch.classify_linear(*r, codes);
+    speed_step(a, spikes, ch, class);
+}
+
+/// A classified reading of a speed channel into its state: the one
+/// per-sample step of [`push_speed`] and [`Slot::push_column`].
+#[inline(always)]
+fn speed_step<const G: usize>(
+    a: &mut SpeedAcc<G>,
+    spikes: &mut Spikes,
+    ch: &Channel,
+    class: Class,
+) {
     a.counts.count(class);
     match class {
         Class::Valid(q) => {
@@ -1193,6 +1205,13 @@ fn push_scalar<const G: usize>(
         return;
     };
     let class = ch.classify_linear(*r, codes);
+    scalar_step(a, spikes, ch, class);
+}
+
+/// A classified reading of a scalar channel into its state (see
+/// [`speed_step`]).
+#[inline(always)]
+fn scalar_step(a: &mut ScalarAcc, spikes: &mut Spikes, ch: &Channel, class: Class) {
     a.counts.count(class);
     match class {
         Class::Valid(q) => {
@@ -1220,17 +1239,83 @@ fn push_direction<const G: usize>(
         _ => return None,
     };
     let class = ch.classify_direction(*r, codes);
+    direction_step(tally, sums, &mut slot.spikes, ch, class)
+}
+
+/// A classified reading of a direction channel into its state; its Q30 unit
+/// vector if valid (see [`speed_step`]).
+#[inline(always)]
+fn direction_step(
+    tally: &mut Counts,
+    sums: &mut DirectionSums,
+    spikes: &mut Spikes,
+    ch: &Channel,
+    class: Class,
+) -> Option<(i32, i32)> {
     tally.count(class);
     match class {
         Class::Valid(cd) => {
             if ch.spike_lim != u32::MAX {
-                slot.spikes.push(cd, ch.spike_lim, true);
+                spikes.push(cd, ch.spike_lim, true);
             }
             Some(sums.push_q30(cd))
         }
         _ => {
-            slot.spikes.break_chain();
+            spikes.break_chain();
             None
+        }
+    }
+}
+
+impl<const G: usize> Slot<G> {
+    /// Adds a run of readings of `ch` in sample order, with no gap in time
+    /// between them: the same state as [`Slot::push_reading`] of each in
+    /// turn, by construction (the same classification and the same
+    /// per-sample step, in a loop over one channel's column instead of one
+    /// call per channel and sample). `speed` is the linked speed channel and
+    /// its column (at least as long as `rs`), if any. For hosts, which feed
+    /// blocks of rows ([`crate::Sampler::push_run`]).
+    pub(crate) fn push_column(
+        &mut self,
+        ch: &Channel,
+        rs: &[Reading],
+        codes: &crate::Sentinels,
+        speed: Option<(&Channel, &[Reading])>,
+    ) {
+        let spikes = &mut self.spikes;
+        match &mut self.acc {
+            ChannelAcc::Speed(a) => {
+                for r in rs {
+                    speed_step(a, spikes, ch, ch.classify_linear(*r, codes));
+                }
+            }
+            ChannelAcc::Scalar(a) => {
+                for r in rs {
+                    scalar_step(a, spikes, ch, ch.classify_linear(*r, codes));
+                }
+            }
+            ChannelAcc::Direction(a) => {
+                for r in rs {
+                    let class = ch.classify_direction(*r, codes);
+                    direction_step(&mut a.counts, &mut a.sums, spikes, ch, class);
+                }
+            }
+            ChannelAcc::LinkedDirection(a) => {
+                let d = &mut a.direction;
+                for (i, r) in rs.iter().enumerate() {
+                    let class = ch.classify_direction(*r, codes);
+                    let Some((s, c)) =
+                        direction_step(&mut d.counts, &mut d.sums, spikes, ch, class)
+                    else {
+                        continue;
+                    };
+                    if let Some((sc, Some(sr))) = speed.map(|(sc, col)| (sc, col.get(i))) {
+                        if let Class::Valid(q) = sc.classify(*sr, codes) {
+                            a.resultant.push_q30(s, c, q);
+                        }
+                    }
+                }
+            }
         }
     }
 }

@@ -824,6 +824,29 @@ impl<const C: usize, const G: usize> IntervalAcc<C, G> {
         }
     }
 
+    /// Adds `n` accepted samples at once, channel by channel: `columns[c]`
+    /// holds channel `c`'s readings (at least `n`), `last_ms` is the time of
+    /// the last. The caller ([`Sampler::push_run`]) has checked that every one
+    /// follows the one before, this interval's last included, within the
+    /// interval and with no gap: the same state as [`IntervalAcc::push`] of
+    /// each in turn.
+    fn push_run(&mut self, layout: &Layout<C>, n: usize, last_ms: i64, columns: &[&[Reading]; C]) {
+        let sentinels = &layout.sentinels;
+        for ((slot, ch), col) in self
+            .slots
+            .iter_mut()
+            .zip(layout.channels.iter())
+            .zip(columns.iter())
+        {
+            let speed = ch.config().speed_channel.and_then(|s| {
+                let s = usize::from(s);
+                Some((layout.channels.get(s)?, *columns.get(s)?))
+            });
+            slot.push_column(ch, col.get(..n).unwrap_or(col), sentinels, speed);
+        }
+        self.last = last_ms;
+    }
+
     /// Empties the accumulator in place for interval `index` of `layout`, as
     /// [`IntervalAcc::new`] would make it.
     pub fn reset(&mut self, layout: &Layout<C>, index: i64) {
@@ -1142,6 +1165,45 @@ impl<const C: usize, const G: usize, L: Borrow<Layout<C>>> Sampler<C, G, L> {
         Ok(Pushed::Accepted)
     }
 
+    /// Adds the leading samples of a block that are each simply the next one
+    /// of the open interval (after the last accepted sample, inside the
+    /// interval, with no gap in time), channel by channel; returns how many
+    /// (0 when the first is not). `columns[c]` holds channel `c`'s readings,
+    /// one per time (a shorter column shortens the run).
+    ///
+    /// The state is the one [`Sampler::push`] of each sample in turn makes,
+    /// by construction: the same classification and per-sample steps, the
+    /// channels taken one after the other (they are independent; a linked
+    /// direction reads its speed's readings, not its state). A host feeds
+    /// blocks of rows so: one loop per channel instead of one call per channel
+    /// and sample. The sample after the run (if any) goes through
+    /// [`Sampler::push`], which opens intervals, ends gaps and rejects, and
+    /// the next run starts after it. Nothing is emitted.
+    pub fn push_run(&mut self, times: &[Timestamp], columns: &[&[Reading]; C]) -> usize {
+        if !self.live || self.open.last == NONE_MS {
+            return 0;
+        }
+        let layout = self.layout.borrow();
+        let len = columns.iter().fold(times.len(), |n, col| n.min(col.len()));
+        let mut prev = self.last;
+        let mut n = 0;
+        for t in &times[..len] {
+            let ms = t.millis();
+            // Supported times are far from the i64 limits: no overflow.
+            if !(ms < self.open_end && ms > prev) || layout.is_gap(ms.wrapping_sub(prev)) {
+                break;
+            }
+            prev = ms;
+            n += 1;
+        }
+        if n > 0 {
+            self.open.push_run(layout, n, prev, columns);
+            self.last = prev;
+            self.totals.accepted += n as u64;
+        }
+        n
+    }
+
     /// The rare part of [`Sampler::push`], out of line: checks the time of a
     /// sample that is not simply the next one in the open interval, counts a
     /// rejection, or closes intervals and opens the sample's.
@@ -1432,6 +1494,13 @@ impl<const C: usize, const G: usize, L: Borrow<Layout<C>>> Station<C, G, L> {
         let finisher = &mut self.finisher;
         self.sampler
             .push_with(entry, t, readings, |e| finish_ended(finisher, e, &mut emit))
+    }
+
+    /// Adds the leading samples of a block that are each simply the next one
+    /// of the open interval, channel by channel, and returns how many
+    /// ([`Sampler::push_run`]): the same state as [`Station::push`] of each.
+    pub fn push_run(&mut self, times: &[Timestamp], columns: &[&[Reading]; C]) -> usize {
+        self.sampler.push_run(times, columns)
     }
 
     /// Closes the open interval, if any, and hands it to `emit` (end of data).
@@ -2181,6 +2250,160 @@ mod recalibration {
             a.close(|e| if let Event::Closed(_, r) = e { ra = Some(r[0]) });
             b.close(|e| if let Event::Closed(_, r) = e { rb = Some(r[0]) });
             prop_assert_eq!(ra, rb);
+        }
+    }
+}
+
+#[cfg(test)]
+mod run_tests {
+    use crate::test_rng::Rng;
+    use crate::{
+        ChannelConfig, ChannelRecord, Event, IntervalAcc, Layout, PushTotals, Reading, Screen,
+        Station, StationConfig, Timestamp,
+    };
+
+    const C: usize = 8;
+    const G: usize = 5;
+
+    /// Every kind of channel: speeds (with and without a gust window, spikes
+    /// on and off), direction as counts and as values, linked and not,
+    /// scalars with and without a spike limit; one channel left a padding
+    /// scalar.
+    fn layout() -> Layout<C> {
+        let mut no_spikes = Screen::for_kind(crate::Kind::Scalar);
+        no_spikes.step_limit = None;
+        let mut spiky = Screen::for_kind(crate::Kind::Scalar);
+        spiky.step_limit = Some(2.0);
+        Layout::new::<G>(
+            StationConfig::ten_minute_1hz(),
+            &[
+                ChannelConfig::speed(0.01).with_gust_window(3),
+                ChannelConfig::speed(0.1).with_gust_window(0),
+                ChannelConfig::direction()
+                    .with_calibration(0.1, 0.0)
+                    .with_mounting_offset(4.0)
+                    .with_speed_channel(0),
+                ChannelConfig::direction(),
+                ChannelConfig::scalar(0.1)
+                    .with_range(-40.0, 50.0)
+                    .with_screen(spiky),
+                ChannelConfig::scalar(0.1)
+                    .with_range(0.0, 100.0)
+                    .with_screen(no_spikes),
+                ChannelConfig::direction().with_speed_channel(1),
+                ChannelConfig::scalar(1.0),
+            ],
+        )
+        .unwrap()
+    }
+
+    /// A random reading of channel `c`: mostly valid, some missing, flagged,
+    /// NaN, out of range or a missing-value code.
+    fn reading(rng: &mut Rng, c: usize) -> Reading {
+        match rng.next() % 40 {
+            0 => Reading::Missing,
+            1 => Reading::Flagged,
+            2 => Reading::Value(f64::NAN),
+            3 => Reading::Value(-999.0),
+            4 => Reading::Value(1e6),
+            5 => Reading::Counts(-9999),
+            6 => Reading::Counts(rng.next() as i32),
+            _ => {
+                let u = rng.unit();
+                match c {
+                    0 | 1 => Reading::Value((u * 3000.0).round() / 100.0),
+                    2 => Reading::Counts((u * 3600.0) as i32),
+                    3 | 6 => Reading::Value((u * 36000.0).round() / 100.0),
+                    4 => Reading::Value((u * 900.0).round() / 10.0 - 40.0),
+                    5 => Reading::Counts((u * 1000.0) as i32),
+                    _ => Reading::Missing,
+                }
+            }
+        }
+    }
+
+    type Out = (
+        Vec<(IntervalAcc<C, G>, [ChannelRecord; C])>,
+        Vec<crate::Gap>,
+    );
+
+    fn keep(out: &mut Out) -> impl FnMut(Event<'_, C, G>) + '_ {
+        |e| match e {
+            Event::Closed(acc, r) => out.0.push((*acc, *r)),
+            Event::Gap(g) => out.1.push(g),
+        }
+    }
+
+    fn same(a: &ChannelRecord, b: &ChannelRecord) -> bool {
+        // Bit for bit (NaN-free, but compare the bits of every f64 anyway).
+        format!("{a:?}") == format!("{b:?}")
+    }
+
+    #[test]
+    fn runs_pushed_by_column_equal_samples_pushed_one_by_one() {
+        let layout = layout();
+        let mut rng = Rng(11);
+        for round in 0..40 {
+            // Times: mostly 1 s steps, with gaps, duplicates, backward steps,
+            // sub-second steps and jumps over whole intervals.
+            let n = 200 + (rng.next() % 3000) as usize;
+            let mut ms = 1_700_000_400_000i64 + (rng.next() % 600_000) as i64;
+            let mut times = Vec::with_capacity(n);
+            for _ in 0..n {
+                ms += match rng.next() % 100 {
+                    0 => 0,
+                    1 => -2000,
+                    2 => 7_000,
+                    3 => 1_900_000,
+                    4 => 250,
+                    _ => 1000,
+                };
+                times.push(Timestamp::from_millis(ms));
+            }
+            let cols: Vec<Vec<Reading>> = (0..C)
+                .map(|c| (0..n).map(|_| reading(&mut rng, c)).collect())
+                .collect();
+            let row = |i: usize| -> [Reading; C] { core::array::from_fn(|c| cols[c][i]) };
+
+            let mut one: Station<C, G> = Station::new(layout);
+            let mut a: Out = (Vec::new(), Vec::new());
+            for (i, t) in times.iter().enumerate() {
+                one.push(*t, &row(i), keep(&mut a));
+            }
+
+            let mut block: Station<C, G> = Station::new(layout);
+            let mut b: Out = (Vec::new(), Vec::new());
+            let mut i = 0;
+            let mut runs = 0usize;
+            while i < n {
+                // Blocks of random length, split anywhere.
+                let end = (i + 1 + (rng.next() % 700) as usize).min(n);
+                while i < end {
+                    let cols_at: [&[Reading]; C] = core::array::from_fn(|c| &cols[c][i..end]);
+                    let k = block.push_run(&times[i..end], &cols_at);
+                    runs += usize::from(k > 0);
+                    i += k;
+                    if i < end {
+                        block.push(times[i], &row(i), keep(&mut b));
+                        i += 1;
+                    }
+                }
+            }
+            one.close(keep(&mut a));
+            block.close(keep(&mut b));
+            assert!(runs > 0, "round {round}");
+            let totals = |s: &Station<C, G>| -> PushTotals { *s.totals() };
+            assert_eq!(totals(&one), totals(&block), "round {round}");
+            assert_eq!(a.1, b.1, "round {round}: gaps");
+            assert_eq!(a.0.len(), b.0.len(), "round {round}");
+            for ((acc_a, ra), (acc_b, rb)) in a.0.iter().zip(&b.0) {
+                assert_eq!(acc_a, acc_b, "round {round}: interval state");
+                for (x, y) in ra.iter().zip(rb) {
+                    assert!(same(x, y), "round {round}: {x:?} != {y:?}");
+                }
+            }
+            let rec = |s: &Station<C, G>| format!("{:?}", s.recovery());
+            assert_eq!(rec(&one), rec(&block), "round {round}");
         }
     }
 }
