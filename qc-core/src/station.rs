@@ -845,6 +845,10 @@ impl<const C: usize, const G: usize> IntervalAcc<C, G> {
             slot.push_column(ch, col.get(..n).unwrap_or(col), sentinels, speed);
         }
         self.last = last_ms;
+        // As `push` of each: every sample holds a reading of every channel.
+        self.accepted = self
+            .accepted
+            .saturating_add(u32::try_from(n).unwrap_or(u32::MAX));
     }
 
     /// Empties the accumulator in place for interval `index` of `layout`, as
