@@ -520,6 +520,83 @@ fn finish_state<'py>(
     Ok(PyBytes::new_bound(py, &out))
 }
 
+/// One difference of `verify`: start, channel, kind, column, replay value,
+/// logger value, ULPs apart, and the CLI's line for it.
+type Diff = (
+    String,
+    String,
+    &'static str,
+    Option<String>,
+    Option<String>,
+    Option<String>,
+    Option<u64>,
+    String,
+);
+
+/// Replays `paths` and compares with the logger's records file, as `tenmin
+/// verify` does: (differences in all, rows compared, replay rows, the first
+/// `max_diffs` differences).
+#[pyfunction]
+#[pyo3(signature = (paths, records, station_path=None, station_toml=None, jobs=1, max_diffs=1000))]
+fn verify_files(
+    py: Python<'_>,
+    paths: Vec<PathBuf>,
+    records: PathBuf,
+    station_path: Option<&str>,
+    station_toml: Option<&str>,
+    jobs: usize,
+    max_diffs: usize,
+) -> PyResult<(u64, u64, u64, Vec<Diff>)> {
+    use host_cli::verify::{Comparer, What};
+    let run = || -> Result<(u64, u64, u64, Vec<Diff>)> {
+        let cfg = station(station_path, station_toml)?;
+        let mut cmp = Comparer::open(&records, cfg.station, ids(&cfg), max_diffs)?;
+        let opts = Options {
+            jobs: jobs.max(1),
+            progress: false,
+            ..Options::default()
+        };
+        host_cli::replay::replay(&cfg, &paths, opts, &mut cmp)?;
+        let r = cmp.finish()?;
+        let shown = r
+            .shown
+            .iter()
+            .map(|d| {
+                let line = d.to_string();
+                let (kind, column, replay, logger, ulps) = match &d.what {
+                    What::Field {
+                        column,
+                        replay,
+                        logger,
+                        ulps,
+                    } => (
+                        "field",
+                        Some(column.to_string()),
+                        Some(replay.clone()),
+                        Some(logger.clone()),
+                        *ulps,
+                    ),
+                    What::MissingRow => ("missing_row", None, None, None, None),
+                    What::ExtraRow(_) => ("extra_row", None, None, None, None),
+                    What::Column { name, .. } => ("column", Some(name.clone()), None, None, None),
+                };
+                (
+                    d.start.clone(),
+                    d.channel.clone(),
+                    kind,
+                    column,
+                    replay,
+                    logger,
+                    ulps,
+                    line,
+                )
+            })
+            .collect();
+        Ok((r.total, r.rows_compared, r.replay_rows, shown))
+    };
+    py.allow_threads(run).map_err(py_err)
+}
+
 /// Channel ids of a station file, in file order.
 #[pyfunction]
 #[pyo3(signature = (station_path=None, station_toml=None))]
@@ -537,5 +614,6 @@ fn _tenmin(m: &Bound<'_, PyModule>) -> PyResult<()> {
     m.add_function(wrap_pyfunction!(merge_states, m)?)?;
     m.add_function(wrap_pyfunction!(finish_state, m)?)?;
     m.add_function(wrap_pyfunction!(channel_ids, m)?)?;
+    m.add_function(wrap_pyfunction!(verify_files, m)?)?;
     Ok(())
 }

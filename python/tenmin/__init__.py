@@ -31,6 +31,7 @@ __all__ = [
     "chunk_state",
     "merge",
     "finish",
+    "verify",
 ]
 
 
@@ -240,3 +241,26 @@ def replay(
         )
         return Records(csv)
     return finish(chunk_state(data, station, time=time), station)
+
+
+def verify(samples, logger_records, station, *, jobs: int = 1, max_diffs: int = 1000):
+    """Replays ``samples`` (path or paths) and compares with the logger's
+    records file, as ``tenmin verify``: a pandas DataFrame of the first
+    ``max_diffs`` differences (start, channel, kind, column, replay, logger,
+    ulps, message), with ``.attrs`` total, rows_compared and replay_rows.
+    No differences: an empty frame and ``attrs["total"] == 0``."""
+    import pandas as pd
+
+    station = Station(station)
+    paths = [samples] if isinstance(samples, (str, os.PathLike)) else list(samples)
+    total, compared, rows, shown = _call(
+        _tenmin.verify_files,
+        [os.fspath(p) for p in paths],
+        os.fspath(logger_records),
+        jobs=jobs,
+        max_diffs=max_diffs,
+        **station._kw(),
+    )
+    df = pd.DataFrame(shown, columns=["start", "channel", "kind", "column", "replay", "logger", "ulps", "message"])
+    df.attrs.update(total=total, rows_compared=compared, replay_rows=rows)
+    return df

@@ -183,3 +183,23 @@ def test_unordered_frame_is_an_error(demo):
     df = demo["df"].iloc[[0, 2, 1]]
     with pytest.raises(tenmin.TenminError, match="strictly increasing"):
         tenmin.replay(df, demo["station"])
+
+
+def test_verify_finds_the_logger_equal_and_a_changed_field(demo, tmp_path):
+    logger = demo["dir"] / "demo" / "logger-records.csv"
+    days = sorted((demo["dir"] / "demo").glob("samples-*.csv"))
+    df = tenmin.verify(days, logger, demo["station"])
+    assert df.attrs["total"] == 0 and df.attrs["rows_compared"] > 0 and len(df) == 0
+    # One mean changed in the logger's file: found, named, as the CLI says it.
+    lines = logger.read_text().splitlines()
+    f = lines[1].split(",")
+    f[5] = "123.5"
+    lines[1] = ",".join(f)
+    changed = tmp_path / "logger.csv"
+    changed.write_text("\n".join(lines) + "\n")
+    df = tenmin.verify(days, changed, demo["station"])
+    assert df.attrs["total"] == 1
+    assert (df.loc[0, "kind"], df.loc[0, "column"], df.loc[0, "logger"]) == ("field", "mean", "123.5")
+    cli = subprocess.run([demo["exe"], "verify", "-q", "-c", str(demo["station"]), "--records", str(changed), "--samples"] + [str(d) for d in days], capture_output=True, text=True)
+    assert cli.returncode == 1
+    assert df.loc[0, "message"] in cli.stdout
