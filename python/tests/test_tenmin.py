@@ -203,3 +203,15 @@ def test_verify_finds_the_logger_equal_and_a_changed_field(demo, tmp_path):
     cli = subprocess.run([demo["exe"], "verify", "-q", "-c", str(demo["station"]), "--records", str(changed), "--samples"] + [str(d) for d in days], capture_output=True, text=True)
     assert cli.returncode == 1
     assert df.loc[0, "message"] in cli.stdout
+
+
+def test_dask_list_of_files_equals_cli(demo):
+    from dask.distributed import Client, LocalCluster
+
+    import tenmin.dask
+
+    days = sorted((demo["dir"] / "demo").glob("samples-*.csv"))
+    cli = subprocess.run([demo["exe"], "replay", "-q", "-j", "1", "-c", str(demo["station"])] + [str(d) for d in days], capture_output=True, check=True).stdout
+    with LocalCluster(n_workers=2, threads_per_worker=1, processes=True, dashboard_address=None) as c, Client(c) as client:
+        recs = tenmin.dask.replay([str(d) for d in days], demo["station"], client=client, split_every=2)
+    assert recs.csv == cli
