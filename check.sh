@@ -27,6 +27,23 @@ RUSTDOCFLAGS="-D warnings" cargo doc --workspace --no-deps --all-features --quie
 step "tests"
 cargo test --workspace --all-features
 
+step "Python package (python/, its own cargo workspace): format, clippy, wheel, pytest"
+# pyo3's extension module leaves Python's symbols to the interpreter, so the
+# crate stays out of `cargo test --workspace`; its Rust is checked here.
+export CARGO_TARGET_DIR="$PWD/target"
+cargo fmt --manifest-path python/Cargo.toml --check
+cargo clippy --manifest-path python/Cargo.toml --all-targets -- -D warnings
+venv=target/pyvenv
+[ -x "$venv/bin/python" ] || python3 -m venv "$venv"
+"$venv/bin/pip" install -q maturin pytest "dask[distributed]" pandas polars pyarrow
+cargo build --release -p host-cli
+"$venv/bin/pip" install -q ./python
+# --quick: fewer random splits (the other checks are the same).
+trials=12
+[ $quick = 1 ] && trials=4
+TENMIN_BIN="$PWD/target/release/tenmin" TENMIN_SPLIT_TRIALS=$trials "$venv/bin/python" -m pytest -q python/tests
+unset CARGO_TARGET_DIR
+
 if [ $quick = 0 ]; then
   step "qc-core on bare-metal targets (no std available there), with and without defmt"
   for target in thumbv6m-none-eabi thumbv7em-none-eabihf; do

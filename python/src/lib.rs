@@ -1,0 +1,619 @@
+//! `tenmin._tenmin`: the Python extension module. Thin: every statistic comes
+//! from `qc-core`, every file is read and every record written by `host_cli`.
+//!
+//! # Exact chunk states
+//!
+//! A chunk of samples becomes a [`State`]: its intervals in time order. The
+//! first and the last interval of a chunk may continue in the chunks next to
+//! it, so they are kept open as their samples (the core's interval state holds
+//! a gust window and a spike chain that its state frames leave out, so the
+//! samples are what travels); every interval in between is complete and is
+//! kept as its records, finished by the core ([`Layout::finish_all`]) with its
+//! own flags only, in the core's record frames ([`wire::encode_record`],
+//! 128 bytes a channel). Merging two states of consecutive chunks joins the
+//! open interval at the seam when both hold the same one, and finishes every
+//! interval that is no longer at an end. Finishing screens every interval in
+//! time order with one [`Screener`] (the cross-interval history is
+//! sequential, so it runs once, at the end, as `host_cli::parallel` does) and
+//! writes the rows of empty intervals between them as the station does.
+//!
+//! Any split of a time-ordered sample sequence, merged in any tree order,
+//! thus gives the one-pass records bit for bit: each complete interval is
+//! accumulated from all its samples by one station, and screening sees the
+//! same records in the same order.
+
+#![forbid(unsafe_code)]
+// pyo3 0.22's `create_exception!` tests a `gil-refs` cfg of its own.
+#![allow(unexpected_cfgs)]
+// ... and its `#[pyfunction]` expansion converts a `PyErr` into itself.
+#![allow(clippy::useless_conversion)]
+
+use std::path::{Path, PathBuf};
+
+use anyhow::{anyhow, bail, Result};
+use host_cli::config::{self, Decode, StationFile, MAX_CHANNELS};
+use host_cli::engine::{Sink, G};
+use host_cli::records::Writer;
+use host_cli::samples::Options;
+use pyo3::create_exception;
+use pyo3::prelude::*;
+use pyo3::types::PyBytes;
+use qc_core::wire::{self, ConfigStamp, RecordFrame, FRAME_LEN};
+use qc_core::{ChannelRecord, Event, IntervalAcc, Layout, Reading, Screener, Station, Timestamp};
+
+create_exception!(
+    _tenmin,
+    TenminError,
+    pyo3::exceptions::PyException,
+    "An error of tenmin: the CLI's message (file, line, field) in args[0], its exit code (2) in args[1]."
+);
+
+/// The CLI's exit code for an error.
+const EXIT_ERROR: u8 = 2;
+
+fn py_err(e: anyhow::Error) -> PyErr {
+    TenminError::new_err((format!("{e:#}"), EXIT_ERROR))
+}
+
+/// The station file from a path or from TOML text (named `name` in messages).
+fn station(path: Option<&str>, text: Option<&str>) -> Result<StationFile> {
+    match (path, text) {
+        (Some(p), None) => config::load(Path::new(p)),
+        (p, Some(t)) => config::parse(Path::new(p.unwrap_or("<station TOML>")), t),
+        (None, None) => bail!("no station file given"),
+    }
+}
+
+fn ids(cfg: &StationFile) -> Vec<String> {
+    cfg.channels.iter().map(|c| c.id.clone()).collect()
+}
+
+/// Replays samples files (any layout the station file declares) as `tenmin
+/// replay` does; returns the records CSV.
+#[pyfunction]
+#[pyo3(signature = (paths, station_path=None, station_toml=None, jobs=1, skip_bad_rows=false, allow_no_records=false))]
+fn replay_files<'py>(
+    py: Python<'py>,
+    paths: Vec<PathBuf>,
+    station_path: Option<&str>,
+    station_toml: Option<&str>,
+    jobs: usize,
+    skip_bad_rows: bool,
+    allow_no_records: bool,
+) -> PyResult<Bound<'py, PyBytes>> {
+    let run = || -> Result<Vec<u8>> {
+        let cfg = station(station_path, station_toml)?;
+        let mut w = Writer::new(Vec::new(), ids(&cfg))?;
+        let opts = Options {
+            jobs: jobs.max(1),
+            skip_bad_rows,
+            allow_no_records,
+            progress: false,
+            ..Options::default()
+        };
+        host_cli::replay::replay(&cfg, &paths, opts, &mut w)?;
+        Ok(w.finish()?)
+    };
+    let out = py.allow_threads(run).map_err(py_err)?;
+    Ok(PyBytes::new_bound(py, &out))
+}
+
+/// An interval open at a chunk's end: its samples, in time order.
+#[derive(Clone, Debug)]
+struct Piece<const C: usize> {
+    index: i64,
+    samples: Vec<(i64, [Reading; C])>,
+}
+
+/// One interval of a state.
+#[derive(Clone, Debug)]
+enum Item<const C: usize> {
+    /// At an end of the chunk: may continue next door.
+    Open(Piece<C>),
+    /// Complete: its records with their own flags (not yet screened).
+    Done(i64, Box<[ChannelRecord; C]>),
+}
+
+/// The exact state of a chunk (or of consecutive chunks merged).
+#[derive(Clone, Debug, Default)]
+struct State<const C: usize> {
+    items: Vec<Item<C>>,
+}
+
+/// The records of one complete interval, from all its samples, with the
+/// flags of its own tests only.
+fn finish_piece<const C: usize>(layout: &Layout<C>, p: &Piece<C>) -> Result<[ChannelRecord; C]> {
+    let mut st = Box::new(Station::<C, G>::new(*layout));
+    let mut acc: Option<IntervalAcc<C, G>> = None;
+    let mut keep = |e: Event<'_, C, G>| {
+        if let Event::Closed(a, _) = e {
+            acc = Some(*a);
+        }
+    };
+    for (t, r) in &p.samples {
+        st.push(Timestamp::from_millis(*t), r, &mut keep);
+    }
+    st.close(&mut keep);
+    let mut acc = acc.ok_or_else(|| anyhow!("interval {}: no samples accepted", p.index))?;
+    acc.clear_flags();
+    Ok(layout.finish_all(&acc))
+}
+
+impl<const C: usize> State<C> {
+    fn first_time(&self) -> Option<i64> {
+        match self.items.first() {
+            Some(Item::Open(p)) => p.samples.first().map(|s| s.0),
+            _ => None,
+        }
+    }
+
+    fn last_time(&self) -> Option<i64> {
+        match self.items.last() {
+            Some(Item::Open(p)) => p.samples.last().map(|s| s.0),
+            _ => None,
+        }
+    }
+
+    /// Finishes every open interval that is not at an end.
+    fn settle(&mut self, layout: &Layout<C>) -> Result<()> {
+        let n = self.items.len();
+        for i in 1..n.saturating_sub(1) {
+            if let Item::Open(p) = &self.items[i] {
+                let recs = finish_piece(layout, p)?;
+                self.items[i] = Item::Done(p.index, Box::new(recs));
+            }
+        }
+        Ok(())
+    }
+
+    /// The state of samples at `times` (ms, strictly increasing).
+    fn chunk(layout: &Layout<C>, times: &[i64], readings: &[[Reading; C]]) -> Result<Self> {
+        let mut items: Vec<Item<C>> = Vec::new();
+        let mut prev: Option<i64> = None;
+        for (k, (&t, r)) in times.iter().zip(readings).enumerate() {
+            let ts = Timestamp::from_millis(t);
+            if !ts.is_supported() {
+                bail!("sample {k}: time {t} ms is outside the supported range (years 0 to 9999)");
+            }
+            if prev.is_some_and(|p| t <= p) {
+                bail!("sample {k}: time {t} ms is not after the sample before it: samples given as arrays must be in strictly increasing time order (the samples-file readers count duplicates and backward times instead)");
+            }
+            prev = Some(t);
+            let index = layout.interval_of(ts);
+            match items.last_mut() {
+                Some(Item::Open(p)) if p.index == index => p.samples.push((t, *r)),
+                _ => items.push(Item::Open(Piece {
+                    index,
+                    samples: vec![(t, *r)],
+                })),
+            }
+        }
+        let mut s = State { items };
+        s.settle(layout)?;
+        Ok(s)
+    }
+
+    /// `self` followed by `later`, whose samples all come after.
+    fn merge(mut self, layout: &Layout<C>, later: Self) -> Result<Self> {
+        if let (Some(a), Some(b)) = (self.last_time(), later.first_time()) {
+            if b <= a {
+                bail!("states out of order: the later state starts at {b} ms, not after the earlier one's last sample at {a} ms");
+            }
+        }
+        let mut rest = later.items.into_iter();
+        if let Some(first) = rest.next() {
+            match (self.items.last_mut(), first) {
+                (Some(Item::Open(a)), Item::Open(b)) if a.index == b.index => {
+                    a.samples.extend(b.samples)
+                }
+                (_, first) => self.items.push(first),
+            }
+        }
+        self.items.extend(rest);
+        self.settle(layout)?;
+        Ok(self)
+    }
+
+    /// Screens every interval in time order and hands the records of the
+    /// first `n` channels to `sink`, with rows for empty intervals between.
+    fn finish(self, layout: &Layout<C>, n: usize, sink: &mut dyn Sink) -> Result<()> {
+        let mut screener = Screener::<C>::default();
+        let mut prev: Option<i64> = None;
+        for item in self.items {
+            let (index, mut recs) = match item {
+                Item::Open(p) => (p.index, finish_piece(layout, &p)?),
+                Item::Done(i, r) => (i, *r),
+            };
+            if let Some(p) = prev {
+                for k in p.saturating_add(1)..index {
+                    let acc = IntervalAcc::<C, G>::new(layout, k);
+                    let empty = layout.finish_all(&acc);
+                    emit(layout, k, &empty[..n], sink)?;
+                }
+            }
+            screener.screen(index, layout.interval_ms(), layout.channels(), &mut recs);
+            emit(layout, index, &recs[..n], sink)?;
+            prev = Some(index);
+        }
+        Ok(())
+    }
+
+    fn encode(&self, layout: &Layout<C>) -> Vec<u8> {
+        let mut out = Vec::new();
+        out.extend_from_slice(MAGIC);
+        out.push(C as u8);
+        out.extend_from_slice(&layout.fingerprint().to_le_bytes());
+        out.extend_from_slice(&(self.items.len() as u64).to_le_bytes());
+        for item in &self.items {
+            match item {
+                Item::Open(p) => {
+                    out.push(0);
+                    out.extend_from_slice(&p.index.to_le_bytes());
+                    out.extend_from_slice(&(p.samples.len() as u64).to_le_bytes());
+                    for (t, rs) in &p.samples {
+                        out.extend_from_slice(&t.to_le_bytes());
+                        for r in rs {
+                            let (tag, bits) = match *r {
+                                Reading::Value(v) => (1u8, v.to_bits()),
+                                Reading::Counts(k) => (2, u64::from(k as u32)),
+                                _ => (0, 0),
+                            };
+                            out.push(tag);
+                            out.extend_from_slice(&bits.to_le_bytes());
+                        }
+                    }
+                }
+                Item::Done(index, recs) => {
+                    out.push(1);
+                    out.extend_from_slice(&index.to_le_bytes());
+                    for (ch, record) in recs.iter().enumerate() {
+                        let frame = RecordFrame {
+                            sequence: 0,
+                            interval_start: layout.interval_start(*index),
+                            channel: ch as u8,
+                            config: Some(ConfigStamp {
+                                channels: C as u8,
+                                fingerprint: layout.fingerprint(),
+                            }),
+                            record: *record,
+                        };
+                        let mut b = [0u8; FRAME_LEN];
+                        wire::encode_record(&frame, &mut b);
+                        out.extend_from_slice(&b);
+                    }
+                }
+            }
+        }
+        out
+    }
+
+    fn decode(layout: &Layout<C>, bytes: &[u8]) -> Result<Self> {
+        let mut r = Bytes(bytes);
+        if r.take(MAGIC.len())? != MAGIC {
+            bail!("not a tenmin chunk state");
+        }
+        if usize::from(r.u8()?) != C || r.u32()? != layout.fingerprint() {
+            bail!("a chunk state of another station file");
+        }
+        let count = r.u64()?;
+        let mut items = Vec::new();
+        for _ in 0..count {
+            match r.u8()? {
+                0 => {
+                    let index = r.i64()?;
+                    let n = r.u64()?;
+                    let mut samples = Vec::new();
+                    for _ in 0..n {
+                        let t = r.i64()?;
+                        let mut rs = [Reading::Missing; C];
+                        for x in &mut rs {
+                            let tag = r.u8()?;
+                            let bits = r.u64()?;
+                            *x = match tag {
+                                0 => Reading::Missing,
+                                1 => Reading::Value(f64::from_bits(bits)),
+                                2 => Reading::Counts(bits as u32 as i32),
+                                _ => bail!("chunk state: bad reading tag {tag}"),
+                            };
+                        }
+                        samples.push((t, rs));
+                    }
+                    items.push(Item::Open(Piece { index, samples }));
+                }
+                1 => {
+                    let index = r.i64()?;
+                    let mut recs =
+                        Box::new(layout.finish_all(&IntervalAcc::<C, G>::new(layout, index)));
+                    for rec in recs.iter_mut() {
+                        let b: &[u8; FRAME_LEN] = r.take(FRAME_LEN)?.try_into()?;
+                        *rec = wire::decode_record(b)
+                            .map_err(|e| anyhow!("chunk state: record frame: {e:?}"))?
+                            .record;
+                    }
+                    items.push(Item::Done(index, recs));
+                }
+                tag => bail!("chunk state: bad item tag {tag}"),
+            }
+        }
+        if !r.0.is_empty() {
+            bail!("chunk state: {} bytes after its end", r.0.len());
+        }
+        Ok(State { items })
+    }
+}
+
+const MAGIC: &[u8] = b"TMSTATE1";
+
+/// Reads a state's bytes front to back.
+struct Bytes<'a>(&'a [u8]);
+
+impl<'a> Bytes<'a> {
+    fn take(&mut self, n: usize) -> Result<&'a [u8]> {
+        if self.0.len() < n {
+            bail!("chunk state: cut short");
+        }
+        let (a, b) = self.0.split_at(n);
+        self.0 = b;
+        Ok(a)
+    }
+    fn u8(&mut self) -> Result<u8> {
+        Ok(self.take(1)?[0])
+    }
+    fn u32(&mut self) -> Result<u32> {
+        Ok(u32::from_le_bytes(self.take(4)?.try_into()?))
+    }
+    fn u64(&mut self) -> Result<u64> {
+        Ok(u64::from_le_bytes(self.take(8)?.try_into()?))
+    }
+    fn i64(&mut self) -> Result<i64> {
+        Ok(i64::from_le_bytes(self.take(8)?.try_into()?))
+    }
+}
+
+/// The rows of interval `index`.
+fn emit<const C: usize>(
+    layout: &Layout<C>,
+    index: i64,
+    records: &[ChannelRecord],
+    sink: &mut dyn Sink,
+) -> Result<()> {
+    let start = layout.interval_start(index);
+    let end = layout.interval_start(index.saturating_add(1));
+    sink.interval(start, end, records)
+}
+
+/// Calls `$f::<C>(args)` with the station size `C` for `$cfg`, as
+/// `host_cli::engine` picks it.
+macro_rules! by_size {
+    ($cfg:expr, $f:ident ( $($a:expr),* )) => {
+        match $cfg.channels.len() {
+            0 => bail!("{}: no channels", $cfg.path.display()),
+            1..=4 => $f::<4>($($a),*),
+            5..=8 => $f::<8>($($a),*),
+            9..=16 => $f::<16>($($a),*),
+            17..=MAX_CHANNELS => $f::<32>($($a),*),
+            n => bail!("{n} channels: at most {MAX_CHANNELS} are supported"),
+        }
+    };
+}
+
+/// Little-endian 8-byte words of `b`.
+fn words<'a>(b: &'a [u8], what: &str) -> Result<impl Iterator<Item = [u8; 8]> + 'a> {
+    if b.len() % 8 != 0 {
+        bail!(
+            "{what}: {} bytes, not a whole number of 8-byte values",
+            b.len()
+        );
+    }
+    Ok(b.chunks_exact(8).map(|c| {
+        let mut w = [0u8; 8];
+        w.copy_from_slice(c);
+        w
+    }))
+}
+
+fn chunk_c<const C: usize>(cfg: &StationFile, times: &[u8], cols: &[Vec<u8>]) -> Result<Vec<u8>> {
+    let layout = cfg.layout::<C>()?;
+    let times: Vec<i64> = words(times, "times")?.map(i64::from_le_bytes).collect();
+    if cols.len() != cfg.channels.len() {
+        bail!(
+            "{} value columns for {} channels ({})",
+            cols.len(),
+            cfg.channels.len(),
+            ids(cfg).join(", ")
+        );
+    }
+    let mut readings = vec![[Reading::Missing; C]; times.len()];
+    for (ch, (col, spec)) in cols.iter().zip(&cfg.channels).enumerate() {
+        let n = col.len() / 8;
+        if n != times.len() {
+            bail!("column {}: {n} values for {} times", spec.id, times.len());
+        }
+        for (k, w) in words(col, &spec.id)?.enumerate() {
+            let v = f64::from_le_bytes(w);
+            readings[k][ch] = match spec.decode {
+                Decode::Value => Reading::Value(v),
+                Decode::Counts if v.is_nan() => Reading::Missing,
+                Decode::Counts => {
+                    if v.fract() != 0.0 || v < f64::from(i32::MIN) || v > f64::from(i32::MAX) {
+                        bail!(
+                            "column {}, sample {k}: {v} is not an integer count",
+                            spec.id
+                        );
+                    }
+                    Reading::Counts(v as i32)
+                }
+            };
+        }
+    }
+    Ok(State::<C>::chunk(&layout, &times, &readings)?.encode(&layout))
+}
+
+fn merge_c<const C: usize>(cfg: &StationFile, states: &[Vec<u8>]) -> Result<Vec<u8>> {
+    let layout = cfg.layout::<C>()?;
+    let mut acc = State::<C>::default();
+    for s in states {
+        acc = acc.merge(&layout, State::decode(&layout, s)?)?;
+    }
+    Ok(acc.encode(&layout))
+}
+
+fn finish_c<const C: usize>(cfg: &StationFile, state: &[u8]) -> Result<Vec<u8>> {
+    let layout = cfg.layout::<C>()?;
+    let s = State::<C>::decode(&layout, state)?;
+    let mut w = Writer::new(Vec::new(), ids(cfg))?;
+    s.finish(&layout, cfg.channels.len(), &mut w)?;
+    Ok(w.finish()?)
+}
+
+/// The exact state of a chunk of samples: `times` little-endian i64
+/// milliseconds since 1970 UTC, strictly increasing; `columns` one per
+/// channel in station-file order, little-endian f64 (NaN: missing).
+#[pyfunction]
+#[pyo3(signature = (times, columns, station_path=None, station_toml=None))]
+fn chunk_state<'py>(
+    py: Python<'py>,
+    times: Vec<u8>,
+    columns: Vec<Vec<u8>>,
+    station_path: Option<&str>,
+    station_toml: Option<&str>,
+) -> PyResult<Bound<'py, PyBytes>> {
+    let run = || -> Result<Vec<u8>> {
+        let cfg = station(station_path, station_toml)?;
+        by_size!(cfg, chunk_c(&cfg, &times, &columns))
+    };
+    let out = py.allow_threads(run).map_err(py_err)?;
+    Ok(PyBytes::new_bound(py, &out))
+}
+
+/// The states of consecutive chunks, in time order, merged exactly into one.
+#[pyfunction]
+#[pyo3(signature = (states, station_path=None, station_toml=None))]
+fn merge_states<'py>(
+    py: Python<'py>,
+    states: Vec<Vec<u8>>,
+    station_path: Option<&str>,
+    station_toml: Option<&str>,
+) -> PyResult<Bound<'py, PyBytes>> {
+    let run = || -> Result<Vec<u8>> {
+        let cfg = station(station_path, station_toml)?;
+        by_size!(cfg, merge_c(&cfg, &states))
+    };
+    let out = py.allow_threads(run).map_err(py_err)?;
+    Ok(PyBytes::new_bound(py, &out))
+}
+
+/// The records CSV of a state holding all the samples.
+#[pyfunction]
+#[pyo3(signature = (state, station_path=None, station_toml=None))]
+fn finish_state<'py>(
+    py: Python<'py>,
+    state: Vec<u8>,
+    station_path: Option<&str>,
+    station_toml: Option<&str>,
+) -> PyResult<Bound<'py, PyBytes>> {
+    let run = || -> Result<Vec<u8>> {
+        let cfg = station(station_path, station_toml)?;
+        by_size!(cfg, finish_c(&cfg, &state))
+    };
+    let out = py.allow_threads(run).map_err(py_err)?;
+    Ok(PyBytes::new_bound(py, &out))
+}
+
+/// One difference of `verify`: start, channel, kind, column, replay value,
+/// logger value, ULPs apart, and the CLI's line for it.
+type Diff = (
+    String,
+    String,
+    &'static str,
+    Option<String>,
+    Option<String>,
+    Option<String>,
+    Option<u64>,
+    String,
+);
+
+/// Replays `paths` and compares with the logger's records file, as `tenmin
+/// verify` does: (differences in all, rows compared, replay rows, the first
+/// `max_diffs` differences).
+#[pyfunction]
+#[pyo3(signature = (paths, records, station_path=None, station_toml=None, jobs=1, max_diffs=1000))]
+fn verify_files(
+    py: Python<'_>,
+    paths: Vec<PathBuf>,
+    records: PathBuf,
+    station_path: Option<&str>,
+    station_toml: Option<&str>,
+    jobs: usize,
+    max_diffs: usize,
+) -> PyResult<(u64, u64, u64, Vec<Diff>)> {
+    use host_cli::verify::{Comparer, What};
+    let run = || -> Result<(u64, u64, u64, Vec<Diff>)> {
+        let cfg = station(station_path, station_toml)?;
+        let mut cmp = Comparer::open(&records, cfg.station, ids(&cfg), max_diffs)?;
+        let opts = Options {
+            jobs: jobs.max(1),
+            progress: false,
+            ..Options::default()
+        };
+        host_cli::replay::replay(&cfg, &paths, opts, &mut cmp)?;
+        let r = cmp.finish()?;
+        let shown = r
+            .shown
+            .iter()
+            .map(|d| {
+                let line = d.to_string();
+                let (kind, column, replay, logger, ulps) = match &d.what {
+                    What::Field {
+                        column,
+                        replay,
+                        logger,
+                        ulps,
+                    } => (
+                        "field",
+                        Some(column.to_string()),
+                        Some(replay.clone()),
+                        Some(logger.clone()),
+                        *ulps,
+                    ),
+                    What::MissingRow => ("missing_row", None, None, None, None),
+                    What::ExtraRow(_) => ("extra_row", None, None, None, None),
+                    What::Column { name, .. } => ("column", Some(name.clone()), None, None, None),
+                };
+                (
+                    d.start.clone(),
+                    d.channel.clone(),
+                    kind,
+                    column,
+                    replay,
+                    logger,
+                    ulps,
+                    line,
+                )
+            })
+            .collect();
+        Ok((r.total, r.rows_compared, r.replay_rows, shown))
+    };
+    py.allow_threads(run).map_err(py_err)
+}
+
+/// Channel ids of a station file, in file order.
+#[pyfunction]
+#[pyo3(signature = (station_path=None, station_toml=None))]
+fn channel_ids(station_path: Option<&str>, station_toml: Option<&str>) -> PyResult<Vec<String>> {
+    let cfg = station(station_path, station_toml).map_err(py_err)?;
+    Ok(ids(&cfg))
+}
+
+/// The module.
+#[pymodule]
+fn _tenmin(m: &Bound<'_, PyModule>) -> PyResult<()> {
+    m.add("TenminError", m.py().get_type_bound::<TenminError>())?;
+    m.add_function(wrap_pyfunction!(replay_files, m)?)?;
+    m.add_function(wrap_pyfunction!(chunk_state, m)?)?;
+    m.add_function(wrap_pyfunction!(merge_states, m)?)?;
+    m.add_function(wrap_pyfunction!(finish_state, m)?)?;
+    m.add_function(wrap_pyfunction!(channel_ids, m)?)?;
+    m.add_function(wrap_pyfunction!(verify_files, m)?)?;
+    Ok(())
+}

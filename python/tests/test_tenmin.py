@@ -1,0 +1,217 @@
+"""The Python package against the `tenmin` command on the same inputs.
+
+The reference is the CLI's records CSV (the CLI is checked against numpy and
+published values elsewhere, tests/ and host-cli/tests/); values are read back
+with pandas (its `round_trip` float parser, pandas as installed by check.sh).
+Demo data: `tenmin demo --days 3` (an invented scenario).
+"""
+
+import os
+import random
+import subprocess
+import sys
+from pathlib import Path
+
+import pandas as pd
+import pyarrow as pa
+import pytest
+
+import tenmin
+
+# pandas 3 deprecates `float_precision`; "round_trip" keeps older pandas exact too.
+pytestmark = pytest.mark.filterwarnings("ignore:The 'float_precision' argument:FutureWarning", "ignore::DeprecationWarning")
+
+ROOT = Path(__file__).resolve().parents[2]
+
+
+def tenmin_bin():
+    env = os.environ.get("TENMIN_BIN")
+    if env:
+        return env
+    for p in (ROOT / "target/release/tenmin", ROOT / "target/debug/tenmin"):
+        if p.exists():
+            return str(p)
+    pytest.skip("no tenmin binary: build it (cargo build --release -p host-cli) or set TENMIN_BIN")
+
+
+def read_samples(path):
+    return pd.read_csv(path, dtype={"time": str}, float_precision="round_trip", keep_default_na=False, na_values=[""])
+
+
+@pytest.fixture(scope="session")
+def demo(tmp_path_factory):
+    d = tmp_path_factory.mktemp("demo")
+    exe = tenmin_bin()
+    subprocess.run([exe, "demo", "-o", str(d / "demo"), "--days", "3"], check=True, capture_output=True)
+    parts = sorted((d / "demo").glob("samples-*.csv"))
+    assert parts, "the demo wrote no samples"
+    # One file: the header once, the days in order.
+    with open(d / "all.csv", "wb") as out:
+        for i, p in enumerate(parts):
+            lines = p.read_bytes().splitlines(keepends=True)
+            out.writelines(lines if i == 0 else lines[1:])
+    station = d / "demo" / "station.toml"
+    subprocess.run([exe, "replay", "-q", "-j", "1", "-c", str(station), "-o", str(d / "cli.csv"), str(d / "all.csv")], check=True)
+    return {
+        "dir": d,
+        "samples": d / "all.csv",
+        "station": station,
+        "cli": (d / "cli.csv").read_bytes(),
+        "df": read_samples(d / "all.csv"),
+        "exe": exe,
+    }
+
+
+def test_files_equal_cli(demo):
+    assert tenmin.replay(demo["samples"], demo["station"]).csv == demo["cli"]
+    assert tenmin.replay([str(demo["samples"])], demo["station"], jobs=2).csv == demo["cli"]
+
+
+@pytest.mark.parametrize("kind", ["pandas", "polars", "arrow", "stream"])
+def test_frames_equal_cli_after_writing(demo, kind, tmp_path):
+    df = demo["df"]
+    if kind == "polars":
+        import polars as pl
+
+        data = pl.from_pandas(df)
+    elif kind == "arrow":
+        data = pa.Table.from_pandas(df, preserve_index=False)
+    elif kind == "stream":
+        tab = pa.Table.from_pandas(df, preserve_index=False)
+        data = pa.RecordBatchReader.from_batches(tab.schema, tab.to_batches(max_chunksize=7_777))
+    else:
+        data = df
+    recs = tenmin.replay(data, str(demo["station"]))
+    recs.write_csv(tmp_path / "py.csv")
+    assert (tmp_path / "py.csv").read_bytes() == demo["cli"]
+
+
+def test_station_from_toml_text(demo):
+    text = demo["station"].read_text()
+    st = tenmin.Station(text, name=str(demo["station"]))
+    assert tenmin.replay(demo["df"], st).csv == demo["cli"]
+
+
+def assert_same_values(got: pd.DataFrame, want: pd.DataFrame):
+    assert list(got.columns) == list(want.columns)
+    assert len(got) == len(want)
+    for c in want.columns:
+        if c in ("start", "end"):
+            w = pd.to_datetime(want[c], utc=True, format="ISO8601")
+            g = got[c].dt.tz_convert("UTC").dt.as_unit("ms").astype("int64")
+            assert (g == w.dt.as_unit("ms").astype("int64")).all(), c
+        elif c in ("channel", "flags"):
+            assert got[c].fillna("").tolist() == want[c].fillna("").tolist(), c
+        else:
+            g, w = got[c].astype("float64"), want[c].astype("float64")
+            assert (g.isna() == w.isna()).all(), c
+            assert (g[~g.isna()].to_numpy() == w[~w.isna()].to_numpy()).all(), c
+
+
+def cli_frame(demo):
+    import io
+
+    return pd.read_csv(io.BytesIO(demo["cli"]), float_precision="round_trip", keep_default_na=False, na_values=[""], dtype={"channel": str, "flags": str})
+
+
+def test_arrow_values_equal_csv(demo):
+    assert_same_values(tenmin.replay(demo["df"], demo["station"]).to_pandas(), cli_frame(demo))
+
+
+def test_parquet_round_trip(demo, tmp_path):
+    import pyarrow.parquet as pq
+
+    pq.write_table(tenmin.replay(demo["df"], demo["station"]).to_arrow(), tmp_path / "r.parquet")
+    assert_same_values(pd.read_parquet(tmp_path / "r.parquet"), cli_frame(demo))
+
+
+def random_tree_merge(rng, states, station):
+    """Merges consecutive states in a random order, a random number at a time."""
+    states = list(states)
+    while len(states) > 1:
+        i = rng.randrange(len(states) - 1)
+        k = rng.randint(2, min(4, len(states) - i))
+        states[i : i + k] = [tenmin.merge(states[i : i + k], station)]
+    return states[0]
+
+
+def test_random_splits_merge_exactly(demo):
+    df, st = demo["df"], tenmin.Station(demo["station"])
+    rng = random.Random(16)
+    trials = int(os.environ.get("TENMIN_SPLIT_TRIALS", "12"))
+    for trial in range(trials):
+        k = rng.randint(2, 50)
+        cuts = sorted(rng.sample(range(1, len(df)), k - 1))
+        # Some cuts one sample apart, to land on interval edges and inside gust windows.
+        bounds = [0] + cuts + [len(df)]
+        states = [tenmin.chunk_state(df.iloc[a:b], st) for a, b in zip(bounds, bounds[1:]) if b > a]
+        got = tenmin.finish(random_tree_merge(rng, states, st), st).csv
+        assert got == demo["cli"], f"trial {trial}: {k} chunks at {cuts}"
+
+
+def test_dask_example_equals_cli(demo, tmp_path):
+    ex = Path(__file__).resolve().parents[1] / "examples" / "dask_replay.py"
+    out = tmp_path / "dask.csv"
+    subprocess.run([sys.executable, str(ex), str(demo["samples"]), str(demo["station"]), str(out)], check=True, timeout=600)
+    assert out.read_bytes() == demo["cli"]
+
+
+def test_error_messages_match_cli(demo, tmp_path):
+    bad = tmp_path / "bad.toml"
+    text = demo["station"].read_text().replace("sample_rate_hz", "sample_rate_hz_typo", 1)
+    bad.write_text(text)
+    cli = subprocess.run([demo["exe"], "replay", "-q", "-c", str(bad), str(demo["samples"])], capture_output=True, text=True)
+    assert cli.returncode == 2
+    with pytest.raises(tenmin.TenminError) as e:
+        tenmin.replay(demo["samples"], bad)
+    assert e.value.exit_code == 2
+    assert cli.stderr.strip() == f"tenmin: error: {e.value}"
+    assert str(bad) in str(e.value)
+    # A bad row: the CLI's file and line.
+    rows = demo["samples"].read_text().splitlines()
+    rows[5] = rows[5].split(",")[0] + ",x" + "," * (rows[5].count(",") - 1)
+    badrows = tmp_path / "badrows.csv"
+    badrows.write_text("\n".join(rows) + "\n")
+    cli = subprocess.run([demo["exe"], "replay", "-q", "-c", str(demo["station"]), str(badrows)], capture_output=True, text=True)
+    with pytest.raises(tenmin.TenminError) as e:
+        tenmin.replay(badrows, demo["station"])
+    assert cli.stderr.strip() == f"tenmin: error: {e.value}"
+    assert f"{badrows}:6" in str(e.value)
+
+
+def test_unordered_frame_is_an_error(demo):
+    df = demo["df"].iloc[[0, 2, 1]]
+    with pytest.raises(tenmin.TenminError, match="strictly increasing"):
+        tenmin.replay(df, demo["station"])
+
+
+def test_verify_finds_the_logger_equal_and_a_changed_field(demo, tmp_path):
+    logger = demo["dir"] / "demo" / "logger-records.csv"
+    days = sorted((demo["dir"] / "demo").glob("samples-*.csv"))
+    df = tenmin.verify(days, logger, demo["station"])
+    assert df.attrs["total"] == 0 and df.attrs["rows_compared"] > 0 and len(df) == 0
+    # One mean changed in the logger's file: found, named, as the CLI says it.
+    lines = logger.read_text().splitlines()
+    f = lines[1].split(",")
+    f[5] = "123.5"
+    lines[1] = ",".join(f)
+    changed = tmp_path / "logger.csv"
+    changed.write_text("\n".join(lines) + "\n")
+    df = tenmin.verify(days, changed, demo["station"])
+    assert df.attrs["total"] == 1
+    assert (df.loc[0, "kind"], df.loc[0, "column"], df.loc[0, "logger"]) == ("field", "mean", "123.5")
+    cli = subprocess.run([demo["exe"], "verify", "-q", "-c", str(demo["station"]), "--records", str(changed), "--samples"] + [str(d) for d in days], capture_output=True, text=True)
+    assert cli.returncode == 1
+    assert df.loc[0, "message"] in cli.stdout
+
+
+def test_dask_list_of_files_equals_cli(demo):
+    from dask.distributed import Client, LocalCluster
+
+    import tenmin.dask
+
+    days = sorted((demo["dir"] / "demo").glob("samples-*.csv"))
+    cli = subprocess.run([demo["exe"], "replay", "-q", "-j", "1", "-c", str(demo["station"])] + [str(d) for d in days], capture_output=True, check=True).stdout
+    with LocalCluster(n_workers=2, threads_per_worker=1, processes=True, dashboard_address=None) as c, Client(c) as client:
+        recs = tenmin.dask.replay([str(d) for d in days], demo["station"], client=client, split_every=2)
+    assert recs.csv == cli
