@@ -171,7 +171,8 @@ file written by the logger. Numbers must have identical bits; a difference is li
 the interval start, channel, field, both values and how many units in the last place (ulps) \
 they are apart. Missing and extra rows are differences too. The logger's file must be in \
 time order; channels within an interval may come in any order. A logger knows no \
-exclusions, so the replay here applies none.
+exclusions, so the replay here applies none; --with-exclusions applies the station file's, \
+for records that `tenmin replay` wrote.
 
 Another logger's own table: when the station file has [logger_table] (the table's layout, \
 the keys of [input]) and [conventions.<channel id>] (which column holds which statistic: \
@@ -454,6 +455,11 @@ pub struct VerifyArgs {
     /// print the station-file lines declaring the winners.
     #[arg(long)]
     infer: bool,
+    /// Apply the station file's exclusions ([campaign] exclusions) in the replay, as
+    /// `tenmin replay` does: for a records file that tenmin wrote. Without it none are
+    /// applied, since a logger's own records know no exclusions.
+    #[arg(long)]
+    with_exclusions: bool,
     #[command(flatten)]
     input: InputArgs,
 }
@@ -579,8 +585,10 @@ fn verify_cmd(a: VerifyArgs) -> Result<ExitCode> {
     };
     let mut cfg = config::load(config)?;
     // A logger's records: a logger knows no exclusions, so the replay here
-    // applies none (CONTRACT.md, Verify).
-    cfg.exclusions = Default::default();
+    // applies none (CONTRACT.md, Verify), unless asked for records tenmin wrote.
+    if !a.with_exclusions {
+        cfg.exclusions = Default::default();
+    }
     if cfg.logger_table.is_some() || a.infer {
         return table_cmd(&a, config, records, &cfg);
     }

@@ -119,12 +119,23 @@ impl Drop for Temp {
 }
 
 impl Temp {
-    /// Creates the temporary file for `target` (a name in an existing folder).
+    /// Creates the temporary file for `target`, making its folder if missing.
     fn create(target: &Path) -> Result<(Temp, File)> {
         let dir = match target.parent() {
             Some(d) if !d.as_os_str().is_empty() => d.to_path_buf(),
             _ => PathBuf::from("."),
         };
+        // A missing folder of the output is made, as `-o DIR/records.csv`
+        // reads (what is already there is never changed).
+        if !dir.exists() {
+            fs::create_dir_all(&dir).with_context(|| {
+                format!(
+                    "cannot write {}: cannot create the folder {}",
+                    target.display(),
+                    dir.display()
+                )
+            })?;
+        }
         let name = target.file_name().unwrap_or(target.as_os_str());
         let pid = std::process::id();
         let mut last = None;

@@ -100,6 +100,8 @@ fn the_example_runs_as_documented_and_marks_the_changes() {
             SAMPLES[1],
             "--records",
             out_s,
+            // Records tenmin wrote, with the example's exclusions applied.
+            "--with-exclusions",
         ],
         &root(),
     );
