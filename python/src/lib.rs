@@ -59,7 +59,15 @@ fn py_err(e: anyhow::Error) -> PyErr {
 fn station(path: Option<&str>, text: Option<&str>) -> Result<StationFile> {
     match (path, text) {
         (Some(p), None) => config::load(Path::new(p)),
-        (p, Some(t)) => config::parse(Path::new(p.unwrap_or("<station TOML>")), t),
+        (p, Some(t)) => {
+            let mut cfg = config::parse(Path::new(p.unwrap_or("<station TOML>")), t)?;
+            // As `config::load`: the exclusions file the station file names.
+            if let Some(x) = &cfg.exclusions_file {
+                let ids: Vec<&str> = cfg.channels.iter().map(|c| c.id.as_str()).collect();
+                cfg.exclusions = host_cli::exclusions::Exclusions::load(x, &ids)?;
+            }
+            Ok(cfg)
+        }
         (None, None) => bail!("no station file given"),
     }
 }
@@ -83,7 +91,7 @@ fn replay_files<'py>(
 ) -> PyResult<Bound<'py, PyBytes>> {
     let run = || -> Result<Vec<u8>> {
         let cfg = station(station_path, station_toml)?;
-        let mut w = Writer::new(Vec::new(), ids(&cfg))?;
+        let mut w = Writer::new(Vec::new(), ids(&cfg))?.with_sensors(cfg.sensors.clone());
         let opts = Options {
             jobs: jobs.max(1),
             skip_bad_rows,
@@ -256,6 +264,8 @@ impl<const C: usize> State<C> {
                             let (tag, bits) = match *r {
                                 Reading::Value(v) => (1u8, v.to_bits()),
                                 Reading::Counts(k) => (2, u64::from(k as u32)),
+                                Reading::Flagged => (3, 0),
+                                Reading::Excluded => (4, 0),
                                 _ => (0, 0),
                             };
                             out.push(tag);
@@ -280,6 +290,9 @@ impl<const C: usize> State<C> {
                         let mut b = [0u8; FRAME_LEN];
                         wire::encode_record(&frame, &mut b);
                         out.extend_from_slice(&b);
+                        // Record frames carry no excluded count (a logger
+                        // excludes nothing): it follows each frame.
+                        out.extend_from_slice(&record.tally.excluded.to_le_bytes());
                     }
                 }
             }
@@ -313,6 +326,8 @@ impl<const C: usize> State<C> {
                                 0 => Reading::Missing,
                                 1 => Reading::Value(f64::from_bits(bits)),
                                 2 => Reading::Counts(bits as u32 as i32),
+                                3 => Reading::Flagged,
+                                4 => Reading::Excluded,
                                 _ => bail!("chunk state: bad reading tag {tag}"),
                             };
                         }
@@ -329,6 +344,7 @@ impl<const C: usize> State<C> {
                         *rec = wire::decode_record(b)
                             .map_err(|e| anyhow!("chunk state: record frame: {e:?}"))?
                             .record;
+                        rec.tally.excluded = r.u32()?;
                     }
                     items.push(Item::Done(index, recs));
                 }
@@ -342,7 +358,7 @@ impl<const C: usize> State<C> {
     }
 }
 
-const MAGIC: &[u8] = b"TMSTATE1";
+const MAGIC: &[u8] = b"TMSTATE2";
 
 /// Reads a state's bytes front to back.
 struct Bytes<'a>(&'a [u8]);
@@ -413,6 +429,12 @@ fn words<'a>(b: &'a [u8], what: &str) -> Result<impl Iterator<Item = [u8; 8]> + 
 }
 
 fn chunk_c<const C: usize>(cfg: &StationFile, times: &[u8], cols: &[Vec<u8>]) -> Result<Vec<u8>> {
+    if let Some(h) = cfg.sensors.as_deref().filter(|h| h.converts()) {
+        bail!(
+            "the sensor history {} re-scales readings or changes mounting offsets: chunk states do not apply it yet; replay the samples files instead (tenmin.replay with paths)",
+            h.path.display()
+        );
+    }
     let layout = cfg.layout::<C>()?;
     let times: Vec<i64> = words(times, "times")?.map(i64::from_le_bytes).collect();
     if cols.len() != cfg.channels.len() {
@@ -446,6 +468,10 @@ fn chunk_c<const C: usize>(cfg: &StationFile, times: &[u8], cols: &[Vec<u8>]) ->
             };
         }
     }
+    // Readings the station file's exclusions cover, as `tenmin replay` marks them.
+    for (t, r) in times.iter().zip(readings.iter_mut()) {
+        cfg.exclusions.apply(Timestamp::from_millis(*t), r);
+    }
     Ok(State::<C>::chunk(&layout, &times, &readings)?.encode(&layout))
 }
 
@@ -461,7 +487,7 @@ fn merge_c<const C: usize>(cfg: &StationFile, states: &[Vec<u8>]) -> Result<Vec<
 fn finish_c<const C: usize>(cfg: &StationFile, state: &[u8]) -> Result<Vec<u8>> {
     let layout = cfg.layout::<C>()?;
     let s = State::<C>::decode(&layout, state)?;
-    let mut w = Writer::new(Vec::new(), ids(cfg))?;
+    let mut w = Writer::new(Vec::new(), ids(cfg))?.with_sensors(cfg.sensors.clone());
     s.finish(&layout, cfg.channels.len(), &mut w)?;
     Ok(w.finish()?)
 }
@@ -550,7 +576,11 @@ fn verify_files(
     use host_cli::verify::{Comparer, What};
     let run = || -> Result<(u64, u64, u64, Vec<Diff>)> {
         let cfg = station(station_path, station_toml)?;
-        let mut cmp = Comparer::open(&records, cfg.station, ids(&cfg), max_diffs)?;
+        let mut cfg = cfg;
+        // A logger's records: a logger knows no exclusions (as `tenmin verify`).
+        cfg.exclusions = Default::default();
+        let mut cmp = Comparer::open(&records, cfg.station, ids(&cfg), max_diffs)?
+            .with_sensors(cfg.sensors.clone());
         let opts = Options {
             jobs: jobs.max(1),
             progress: false,

@@ -86,7 +86,7 @@ def _from_text(path, text):
 
 
 # Records CSV columns (host-cli/src/records.rs COLUMNS): text, counts, numbers.
-_TEXT = ("channel", "flags")
+_TEXT = ("channel", "flags", "sensor_entries")
 _TIMES = ("start", "end")
 
 

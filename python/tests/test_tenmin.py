@@ -100,7 +100,7 @@ def assert_same_values(got: pd.DataFrame, want: pd.DataFrame):
             w = pd.to_datetime(want[c], utc=True, format="ISO8601")
             g = got[c].dt.tz_convert("UTC").dt.as_unit("ms").astype("int64")
             assert (g == w.dt.as_unit("ms").astype("int64")).all(), c
-        elif c in ("channel", "flags"):
+        elif c in ("channel", "flags", "sensor_entries"):
             assert got[c].fillna("").tolist() == want[c].fillna("").tolist(), c
         else:
             g, w = got[c].astype("float64"), want[c].astype("float64")
@@ -111,7 +111,7 @@ def assert_same_values(got: pd.DataFrame, want: pd.DataFrame):
 def cli_frame(demo):
     import io
 
-    return pd.read_csv(io.BytesIO(demo["cli"]), float_precision="round_trip", keep_default_na=False, na_values=[""], dtype={"channel": str, "flags": str})
+    return pd.read_csv(io.BytesIO(demo["cli"]), float_precision="round_trip", keep_default_na=False, na_values=[""], dtype={"channel": str, "flags": str, "sensor_entries": str})
 
 
 def test_arrow_values_equal_csv(demo):
