@@ -7,24 +7,7 @@ use std::io::Read;
 use std::process::{Command, Stdio};
 
 mod common;
-use common::{tenmin, text, write, BIN};
-
-/// Records CSV as rows of column -> field (no field is ever quoted).
-fn rows(csv: &str) -> Vec<HashMap<String, String>> {
-    let mut lines = csv.lines();
-    let header: Vec<&str> = lines.next().expect("header").split(',').collect();
-    lines
-        .map(|l| {
-            let f: Vec<&str> = l.split(',').collect();
-            assert_eq!(f.len(), header.len(), "{l}");
-            header
-                .iter()
-                .zip(f)
-                .map(|(h, v)| (h.to_string(), v.to_string()))
-                .collect()
-        })
-        .collect()
-}
+use common::{records, tenmin, text, write, BIN};
 
 fn num(r: &HashMap<String, String>, col: &str) -> f64 {
     r[col]
@@ -100,7 +83,7 @@ fn replay_small_input_matches_hand_computed_values() {
         dir.path(),
     );
     assert!(out.status.success(), "{}", text(&out.stderr));
-    let rows = rows(&text(&out.stdout));
+    let rows = records(&text(&out.stdout));
     // Intervals 00:00, 00:01, 00:02 (empty) and 00:03, four channels each, in config order.
     assert_eq!(rows.len(), 16);
     let chans: Vec<&str> = rows.iter().map(|r| r["channel"].as_str()).collect();
@@ -218,7 +201,7 @@ fn gust_sd_and_vector_check_values() {
     write(dir.path(), "s.csv", csv);
     let out = tenmin(&["replay", "-c", "st.toml", "s.csv"], dir.path());
     assert!(out.status.success(), "{}", text(&out.stderr));
-    let rows = rows(&text(&out.stdout));
+    let rows = records(&text(&out.stdout));
     let ws = &rows[0];
     assert_close(num(ws, "mean"), 8.035, 1e-12, "mean");
     assert_close(num(ws, "min"), 8.0, 0.0, "min");
@@ -239,7 +222,7 @@ fn numbers_round_trip_through_the_shortest_decimal() {
     assert!(out.status.success(), "{}", text(&out.stderr));
     let csv = std::fs::read_to_string(dir.path().join("d/logger-records.csv")).unwrap();
     let mut checked = 0;
-    for r in rows(&csv) {
+    for r in records(&csv) {
         for col in [
             "mean",
             "sd",
@@ -501,7 +484,7 @@ fn duplicate_and_backward_times_are_counted_not_errors() {
         err.contains("= 3 accepted + 2 rejected (duplicate 1, backward 1,"),
         "{err}"
     );
-    let rows = rows(&text(&out.stdout));
+    let rows = records(&text(&out.stdout));
     assert_eq!(rows[0]["n_valid"], "3");
     assert_eq!(rows[0]["n_rejected"], "2");
     assert_close(
@@ -563,7 +546,7 @@ fn several_files_replay_as_one() {
     );
     // And the duplicate changes nothing but the rejected count.
     let plain = tenmin(&["replay", "-c", "station.toml", "samples.csv"], d);
-    let (a, b) = (rows(&text(&split.stdout)), rows(&text(&plain.stdout)));
+    let (a, b) = (records(&text(&split.stdout)), records(&text(&plain.stdout)));
     assert_eq!(a[0]["n_rejected"], "1");
     assert_eq!((&a[0]["mean"], &a[0]["sd"]), (&b[0]["mean"], &b[0]["sd"]));
 }
@@ -593,7 +576,7 @@ fn demo_one_day_runs_and_verifies() {
     assert_eq!(v.status.code(), Some(0), "{}", text(&v.stdout));
     // 144 ten-minute intervals in a day, six channels.
     let csv = std::fs::read_to_string(d.join("demo/logger-records.csv")).unwrap();
-    assert_eq!(rows(&csv).len(), 144 * 6);
+    assert_eq!(records(&csv).len(), 144 * 6);
 }
 
 #[test]

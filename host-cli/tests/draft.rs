@@ -7,7 +7,7 @@
 use std::path::{Path, PathBuf};
 
 mod common;
-use common::{tenmin, text, write};
+use common::{refused, tenmin, text, write};
 
 fn examples() -> PathBuf {
     Path::new(env!("CARGO_MANIFEST_DIR")).join("../examples/field-files")
@@ -35,15 +35,21 @@ fn table<'a>(t: &'a toml::Table, path: &[&str]) -> &'a toml::Table {
         .fold(t, |t, k| t[*k].as_table().unwrap_or_else(|| panic!("{k}")))
 }
 
-/// Drafts `file` into `dir/d.toml` (exit 0), replays it with the draft
-/// (exit 0), returns the draft and the records.
-fn draft_and_replay(dir: &Path, file: &Path) -> (toml::Table, String) {
+/// Drafts `file` into `dir/d.toml` (exit 0); returns that path.
+fn draft(dir: &Path, file: &Path) -> PathBuf {
     let d = dir.join("d.toml");
     let out = tenmin(
         &["draft", file.to_str().unwrap(), "-o", d.to_str().unwrap()],
         dir,
     );
     assert_eq!(out.status.code(), Some(0), "{}", text(&out.stderr));
+    d
+}
+
+/// Drafts `file` into `dir/d.toml` (exit 0), replays it with the draft
+/// (exit 0), returns the draft and the records.
+fn draft_and_replay(dir: &Path, file: &Path) -> (toml::Table, String) {
+    let d = draft(dir, file);
     let r = dir.join("r.csv");
     let out = tenmin(
         &[
@@ -68,16 +74,8 @@ fn draft_and_replay(dir: &Path, file: &Path) -> (toml::Table, String) {
 
 /// Records rows of one channel as column -> field maps.
 fn rows_of(records: &str, id: &str) -> Vec<std::collections::HashMap<String, String>> {
-    let mut lines = records.lines();
-    let header: Vec<&str> = lines.next().unwrap().split(',').collect();
-    lines
-        .map(|l| {
-            header
-                .iter()
-                .zip(l.split(','))
-                .map(|(h, v)| (h.to_string(), v.to_string()))
-                .collect::<std::collections::HashMap<_, _>>()
-        })
+    common::records(records)
+        .into_iter()
         .filter(|r| r["channel"] == id)
         .collect()
 }
@@ -124,13 +122,10 @@ fn the_example_field_files_replay_with_their_drafts_and_map_speed_and_direction(
 #[test]
 fn midc_draft_hints_at_local_standard_time_and_leaves_the_zone_to_check() {
     let dir = tempfile::tempdir().unwrap();
-    let f = examples().join("midc-1min/midc-uat-20181018-1min.csv");
-    let d = dir.path().join("d.toml");
-    let out = tenmin(
-        &["draft", f.to_str().unwrap(), "-o", d.to_str().unwrap()],
+    let d = draft(
         dir.path(),
+        &examples().join("midc-1min/midc-uat-20181018-1min.csv"),
     );
-    assert_eq!(out.status.code(), Some(0));
     let s = std::fs::read_to_string(&d).unwrap();
     let zone = s.lines().find(|l| l.starts_with("zone = ")).unwrap();
     assert!(
@@ -151,13 +146,10 @@ fn midc_draft_hints_at_local_standard_time_and_leaves_the_zone_to_check() {
 #[test]
 fn surfrad_quality_columns_are_drafted() {
     let dir = tempfile::tempdir().unwrap();
-    let f = examples().join("surfrad-1min/surfrad-alamosa-2016-001-1min.dat");
-    let d = dir.path().join("d.toml");
-    let out = tenmin(
-        &["draft", f.to_str().unwrap(), "-o", d.to_str().unwrap()],
+    let d = draft(
         dir.path(),
+        &examples().join("surfrad-1min/surfrad-alamosa-2016-001-1min.dat"),
     );
-    assert_eq!(out.status.code(), Some(0));
     let s = std::fs::read_to_string(&d).unwrap();
     // Columns 44 and 46 hold the quality codes of 43 and 45 (the
     // hand-written station file says so).
@@ -439,10 +431,5 @@ fn without_a_time_the_draft_is_written_but_says_it_does_not_load() {
         &["replay", "-c", d.to_str().unwrap(), f.to_str().unwrap()],
         dir.path(),
     );
-    assert_eq!(out.status.code(), Some(2));
-    assert!(
-        text(&out.stderr).contains("`columns`"),
-        "{}",
-        text(&out.stderr)
-    );
+    refused(&out, &["`columns`"]);
 }

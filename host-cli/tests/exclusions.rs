@@ -8,7 +8,7 @@ use std::path::Path;
 use std::process::Command;
 
 mod common;
-use common::{tenmin, text, write};
+use common::{exits, records, refused, tenmin, text, write};
 
 /// A 1-minute, 1 Hz station: anemometer, linked vane, thermometer (range
 /// -40..50), with an exclusions file.
@@ -79,20 +79,6 @@ fn setup() -> tempfile::TempDir {
     dir
 }
 
-fn rows(csv: &str) -> Vec<HashMap<String, String>> {
-    let mut lines = csv.lines();
-    let header: Vec<&str> = lines.next().expect("header").split(',').collect();
-    lines
-        .map(|l| {
-            header
-                .iter()
-                .zip(l.split(','))
-                .map(|(h, v)| (h.to_string(), v.to_string()))
-                .collect()
-        })
-        .collect()
-}
-
 fn n(r: &HashMap<String, String>, col: &str) -> u64 {
     r[col]
         .parse()
@@ -108,7 +94,7 @@ fn excluded_readings_are_tallied_by_hand_and_every_sample_counted_once() {
     );
     assert!(out.status.success(), "{}", text(&out.stderr));
     let csv = std::fs::read_to_string(dir.path().join("r.csv")).unwrap();
-    let r = rows(&csv);
+    let r = records(&csv);
     assert_eq!(r.len(), 6);
     // (n_valid, n_missing, n_out_of_range, n_excluded) by hand:
     // minute 0 (60 rows): ws excluded 5..=19 (15), which includes the missing
@@ -194,7 +180,7 @@ fn excluded_readings_are_tallied_by_hand_and_every_sample_counted_once() {
     );
     assert!(rep.status.success(), "{}", text(&rep.stderr));
     let rec = std::fs::read_to_string(dir.path().join("rep/recovery.csv")).unwrap();
-    let all_ws = rows(&rec)
+    let all_ws = records(&rec)
         .into_iter()
         .find(|r| r["channel"] == "ws" && r["month"] == "all")
         .unwrap();
@@ -234,33 +220,21 @@ fn bad_exclusion_files_are_refused_with_file_line_and_field() {
         let dir = setup();
         write(dir.path(), "side/exclusions.csv", format!("{head}{body}"));
         let out = tenmin(&["replay", "-c", "station.toml", "samples.csv"], dir.path());
-        let err = text(&out.stderr);
-        assert_eq!(out.status.code(), Some(2), "{err}");
-        assert!(err.contains(want), "{err}\nwanted: {want}");
+        refused(&out, &[want]);
         assert!(out.stdout.is_empty());
     }
     // A missing file, and an empty key, name the file and the key.
     let dir = setup();
     std::fs::remove_file(dir.path().join("side/exclusions.csv")).unwrap();
     let out = tenmin(&["replay", "-c", "station.toml", "samples.csv"], dir.path());
-    assert_eq!(out.status.code(), Some(2));
-    assert!(
-        text(&out.stderr).contains("side/exclusions.csv"),
-        "{}",
-        text(&out.stderr)
-    );
+    refused(&out, &["side/exclusions.csv"]);
     write(
         dir.path(),
         "station.toml",
         STATION.replace("side/exclusions.csv", ""),
     );
     let out = tenmin(&["replay", "-c", "station.toml", "samples.csv"], dir.path());
-    assert_eq!(out.status.code(), Some(2));
-    assert!(
-        text(&out.stderr).contains("station.toml:"),
-        "{}",
-        text(&out.stderr)
-    );
+    refused(&out, &["station.toml:"]);
 }
 
 /// `sha256sum FILE` (coreutils), lowercase hex.
@@ -354,13 +328,7 @@ fn provenance_names_every_input_with_sha256_and_size_and_verify_checks_it() {
 
     // verify --provenance: all match.
     let v = tenmin(&["verify", "--provenance", "r.csv"], d);
-    assert_eq!(
-        v.status.code(),
-        Some(0),
-        "{}{}",
-        text(&v.stdout),
-        text(&v.stderr)
-    );
+    exits(&v, 0);
     // From another folder, through the provenance file itself.
     let v = tenmin(
         &[
@@ -370,13 +338,7 @@ fn provenance_names_every_input_with_sha256_and_size_and_verify_checks_it() {
         ],
         Path::new("/"),
     );
-    assert_eq!(
-        v.status.code(),
-        Some(0),
-        "{}{}",
-        text(&v.stdout),
-        text(&v.stderr)
-    );
+    exits(&v, 0);
 
     // One byte of one input changed: exit 1, naming that file alone.
     for (file, role) in [
@@ -412,12 +374,7 @@ fn provenance_names_every_input_with_sha256_and_size_and_verify_checks_it() {
     // An unreadable provenance file: exit 2, naming it.
     write(d, "r.csv.provenance.json", "{\"format\": 3}");
     let v = tenmin(&["verify", "--provenance", "r.csv"], d);
-    assert_eq!(v.status.code(), Some(2));
-    assert!(
-        text(&v.stderr).contains("r.csv.provenance.json"),
-        "{}",
-        text(&v.stderr)
-    );
+    refused(&v, &["r.csv.provenance.json"]);
     // To stdout: no provenance file (nowhere beside it).
     std::fs::remove_file(d.join("r.csv.provenance.json")).unwrap();
     let out = tenmin(&["replay", "-q", "-c", "station.toml", "samples.csv"], d);

@@ -13,10 +13,9 @@
 
 use std::collections::BTreeMap;
 use std::io::Write;
-use std::path::{Path, PathBuf};
 
 mod common;
-use common::{tenmin, text};
+use common::{root, tenmin, text};
 
 /// The examples: folder, data file.
 const EXAMPLES: [(&str, &str); 3] = [
@@ -24,6 +23,19 @@ const EXAMPLES: [(&str, &str); 3] = [
     ("surfrad-1min", "surfrad-alamosa-2016-001-1min.dat"),
     ("asos-ewr-hourly", "asos-nyc-2013-hourly.csv"),
 ];
+
+/// One test for each example (by its index in `EXAMPLES`) calling `$check`.
+macro_rules! each_example {
+    ($check:ident: $($name:ident = $i:literal),+ $(,)?) => {
+        $(
+            #[test]
+            fn $name() {
+                let (folder, file) = EXAMPLES[$i];
+                $check(folder, file);
+            }
+        )+
+    };
+}
 
 /// Relative tolerance of means, minima and maxima. The reference quantizes
 /// each value to the channel's resolution exactly as the core does (half away
@@ -44,13 +56,6 @@ const REL_TOL: f64 = 1e-9;
 /// vectors partly cancel, the most). 1e-6 degree is still far below a
 /// quantum of direction (0.01 degree).
 const DIR_TOL_DEG: f64 = 1e-6;
-
-fn root() -> PathBuf {
-    Path::new(env!("CARGO_MANIFEST_DIR"))
-        .parent()
-        .expect("workspace root")
-        .to_path_buf()
-}
 
 fn config(folder: &str) -> String {
     format!("examples/field-files/{folder}/station.toml")
@@ -184,6 +189,12 @@ fn check_against_reference(folder: &str, file: &str) {
     compare_with_reference(folder, &recs);
 }
 
+each_example!(check_against_reference:
+    midc_1min_matches_the_pandas_reference = 0,
+    surfrad_1min_matches_the_pandas_reference = 1,
+    asos_ewr_hourly_matches_the_pandas_reference = 2,
+);
+
 /// The comparison of [`check_against_reference`], on records already made.
 fn compare_with_reference(folder: &str, recs: &[u8]) {
     let (got, order) = records(recs);
@@ -246,18 +257,6 @@ fn compare_with_reference(folder: &str, recs: &[u8]) {
     assert_eq!(got.len(), want.len());
 }
 
-#[test]
-fn midc_1min_matches_the_pandas_reference() {
-    let (f, d) = EXAMPLES[0];
-    check_against_reference(f, d);
-}
-
-#[test]
-fn surfrad_1min_matches_the_pandas_reference() {
-    let (f, d) = EXAMPLES[1];
-    check_against_reference(f, d);
-}
-
 /// The network file's reader (runs of
 /// spaces, two lines skipped, columns by position, five time columns) against
 /// the reference, with the example's `quality` keys left out. Every quality
@@ -289,12 +288,6 @@ fn surfrad_1min_without_quality_keys_matches_the_pandas_reference() {
     compare_with_reference(folder, &out.stdout);
 }
 
-#[test]
-fn asos_ewr_hourly_matches_the_pandas_reference() {
-    let (f, d) = EXAMPLES[2];
-    check_against_reference(f, d);
-}
-
 /// One thread, two threads, and two threads with 4 KiB chunks (hundreds of
 /// chunks per file, boundaries inside intervals) write the same records.
 fn same_records_for_every_job_count(folder: &str, file: &str) {
@@ -312,23 +305,11 @@ fn same_records_for_every_job_count(folder: &str, file: &str) {
     }
 }
 
-#[test]
-fn midc_1min_same_records_for_every_job_count() {
-    let (f, d) = EXAMPLES[0];
-    same_records_for_every_job_count(f, d);
-}
-
-#[test]
-fn surfrad_1min_same_records_for_every_job_count() {
-    let (f, d) = EXAMPLES[1];
-    same_records_for_every_job_count(f, d);
-}
-
-#[test]
-fn asos_ewr_hourly_same_records_for_every_job_count() {
-    let (f, d) = EXAMPLES[2];
-    same_records_for_every_job_count(f, d);
-}
+each_example!(same_records_for_every_job_count:
+    midc_1min_same_records_for_every_job_count = 0,
+    surfrad_1min_same_records_for_every_job_count = 1,
+    asos_ewr_hourly_same_records_for_every_job_count = 2,
+);
 
 /// The `.gz` and `.zst` of the file (made here with the flate2 and zstd
 /// crates) give the same records as the plain file.
@@ -358,23 +339,11 @@ fn same_records_compressed(folder: &str, file: &str) {
     }
 }
 
-#[test]
-fn midc_1min_compressed_same_records() {
-    let (f, d) = EXAMPLES[0];
-    same_records_compressed(f, d);
-}
-
-#[test]
-fn surfrad_1min_compressed_same_records() {
-    let (f, d) = EXAMPLES[1];
-    same_records_compressed(f, d);
-}
-
-#[test]
-fn asos_ewr_hourly_compressed_same_records() {
-    let (f, d) = EXAMPLES[2];
-    same_records_compressed(f, d);
-}
+each_example!(same_records_compressed:
+    midc_1min_compressed_same_records = 0,
+    surfrad_1min_compressed_same_records = 1,
+    asos_ewr_hourly_compressed_same_records = 2,
+);
 
 /// The reference covers every example and was not cut short.
 #[test]

@@ -59,11 +59,7 @@ fn replay(dir: &Path, station: &str, data: &str, extra: &[&str]) -> Output {
 
 /// Exit code 2, a message containing every `needle`, and no output file.
 fn refused(dir: &Path, out: &Output, needles: &[&str]) -> String {
-    let err = text(&out.stderr);
-    assert_eq!(out.status.code(), Some(2), "stderr: {err}");
-    for n in needles {
-        assert!(err.contains(n), "{n:?} not in the message: {err}");
-    }
+    let err = common::refused(out, needles);
     assert!(
         !dir.join("out.csv").exists(),
         "a failed replay left out.csv"
@@ -280,16 +276,21 @@ column = "Speed"
 // those Sundays are 30 March and 26 October: local 02:00 to 03:00 is skipped
 // on 30 March and local 02:00 to 03:00 occurs twice on 26 October.
 
+/// Replays `rows` (a file `berlin.csv`) with the station `BERLIN` in `dir`.
+fn berlin(dir: &Path, rows: &str, extra: &[&str]) -> Output {
+    write(dir, "station.toml", BERLIN);
+    write(dir, "berlin.csv", rows);
+    replay(dir, "station.toml", "berlin.csv", extra)
+}
+
 #[test]
 fn a_local_time_in_the_spring_gap_names_both_candidates() {
     let dir = tempfile::tempdir().unwrap();
-    write(dir.path(), "station.toml", BERLIN);
-    write(
+    let out = berlin(
         dir.path(),
-        "berlin.csv",
         "Zeit,Speed\n2025-03-30 01:59,3.1\n2025-03-30 02:30,3.2\n2025-03-30 03:00,3.3\n",
+        &[],
     );
-    let out = replay(dir.path(), "station.toml", "berlin.csv", &[]);
     // 02:30 read as summer time (UTC+2) is 00:30 UTC, as winter time (UTC+1)
     // 01:30 UTC.
     refused(
@@ -309,13 +310,11 @@ fn a_local_time_in_the_spring_gap_names_both_candidates() {
 #[test]
 fn a_local_time_repeated_in_autumn_names_both_candidates() {
     let dir = tempfile::tempdir().unwrap();
-    write(dir.path(), "station.toml", BERLIN);
-    write(
+    let out = berlin(
         dir.path(),
-        "berlin.csv",
         "Zeit,Speed\n2025-10-26 01:59,3.1\n2025-10-26 02:30,3.2\n",
+        &[],
     );
-    let out = replay(dir.path(), "station.toml", "berlin.csv", &[]);
     // 02:30 summer time (UTC+2) is 00:30 UTC; 02:30 winter time (UTC+1) is
     // 01:30 UTC.
     refused(
@@ -334,16 +333,9 @@ fn a_local_time_repeated_in_autumn_names_both_candidates() {
 #[test]
 fn skip_bad_rows_counts_a_time_in_the_gap_as_a_bad_time() {
     let dir = tempfile::tempdir().unwrap();
-    write(dir.path(), "station.toml", BERLIN);
-    write(
+    let out = berlin(
         dir.path(),
-        "berlin.csv",
         "Zeit,Speed\n2025-03-30 01:59,3.1\n2025-03-30 02:30,3.2\n2025-03-30 03:00,3.3\n",
-    );
-    let out = replay(
-        dir.path(),
-        "station.toml",
-        "berlin.csv",
         &["--skip-bad-rows"],
     );
     let err = text(&out.stderr);

@@ -8,7 +8,7 @@ use std::path::Path;
 use std::process::{Command, Output};
 
 mod common;
-use common::{tenmin, text, write, BIN};
+use common::{refused, tenmin, text, write, BIN};
 
 /// A 1-minute, 1 Hz station of one anemometer and one vane.
 const STATION: &str = r#"
@@ -60,14 +60,6 @@ fn tenmin_in_64_mib(args: &[&str], dir: &Path) -> Output {
         .expect("run tenmin under ulimit")
 }
 
-fn assert_refused(out: &Output, wants: &[&str]) {
-    let err = text(&out.stderr);
-    assert_eq!(out.status.code(), Some(2), "{err}");
-    for w in wants {
-        assert!(err.contains(w), "expected {w:?} in: {err}");
-    }
-}
-
 #[cfg(target_os = "linux")]
 #[test]
 fn an_endless_record_is_refused_in_bounded_memory() {
@@ -109,7 +101,7 @@ fn an_endless_record_is_refused_in_bounded_memory() {
                 ],
                 d,
             );
-            assert_refused(
+            refused(
                 &out,
                 &[&format!("{file}:{line}: a record (line) longer than")],
             );
@@ -147,7 +139,7 @@ fn an_endless_record_is_refused_in_bounded_memory() {
         ],
         d,
     );
-    assert_refused(&out, &[&at]);
+    refused(&out, &[&at]);
     let out = tenmin_in_64_mib(
         &[
             "report",
@@ -159,7 +151,7 @@ fn an_endless_record_is_refused_in_bounded_memory() {
         ],
         d,
     );
-    assert_refused(&out, &[&at]);
+    refused(&out, &[&at]);
 }
 
 #[cfg(target_os = "linux")]
@@ -175,7 +167,7 @@ fn an_oversized_or_endless_station_file_is_refused() {
     write(d, "huge.toml", &huge);
     for station in ["huge.toml", "/dev/zero"] {
         let out = tenmin_in_64_mib(&["replay", "-c", station, "samples.csv"], d);
-        assert_refused(&out, &[station, "not a station file"]);
+        refused(&out, &[station, "not a station file"]);
     }
 }
 
@@ -194,7 +186,7 @@ fn times_outside_the_supported_span_are_refused_when_read() {
         let file = format!("{name}.csv");
         write(d, &file, format!("{HEADER}{}{bad},5,100\n", good_rows(2)));
         let out = tenmin(&["replay", "-c", "station.toml", &file, "-q"], d);
-        assert_refused(
+        refused(
             &out,
             &[
                 &format!("{file}:4: field 1 (time)"),
@@ -280,7 +272,7 @@ fn rows_that_give_no_records_are_an_error_unless_allowed() {
             ],
             d,
         );
-        assert_refused(
+        refused(
             &out,
             &[
                 "all-bad.csv",

@@ -99,6 +99,19 @@ fn code(o: &Output) -> Option<i32> {
     o.status.code()
 }
 
+/// Runs `tenmin args` in `d` and checks exit code 2, a message holding every
+/// one of `wants`, and every file under `d` as in `before`; returns the output.
+fn refused_in(d: &Path, args: &[&str], wants: &[&str], before: &[(PathBuf, Vec<u8>)]) -> Output {
+    let o = tenmin(args, d);
+    let err = text(&o.stderr);
+    assert_eq!(code(&o), Some(2), "{args:?}: {err}");
+    for w in wants {
+        assert!(err.contains(w), "{args:?}: {err}");
+    }
+    assert_eq!(snapshot(d), before, "{args:?} changed a file");
+    o
+}
+
 /// Runs `tenmin` with stdout going to `stdout`.
 fn tenmin_to(args: &[&str], dir: &Path, stdout: Stdio) -> Output {
     Command::new(BIN)
@@ -183,15 +196,9 @@ fn an_output_that_is_an_input_by_any_name_is_refused_and_the_input_kept() {
     fs::create_dir(d.join("sub")).unwrap();
     let before_with_sub = snapshot(d);
     for (args, what) in cases {
-        let o = tenmin(args, d);
-        let err = text(&o.stderr);
-        assert_eq!(code(&o), Some(2), "{args:?}: {err}");
-        assert!(
-            err.contains(&format!("it is the {what} ")) && err.contains("an input"),
-            "{args:?}: {err}"
-        );
+        let it_is = format!("it is the {what} ");
+        let o = refused_in(d, args, &[&it_is, "an input"], &before_with_sub);
         assert!(o.stdout.is_empty(), "{args:?}");
-        assert_eq!(snapshot(d), before_with_sub, "{args:?} changed a file");
     }
     fs::remove_dir(d.join("sub")).unwrap();
     assert_eq!(snapshot(d), before);
@@ -234,14 +241,7 @@ fn no_file_a_report_writes_into_its_folder_may_be_an_input() {
             "records file",
         ),
     ] {
-        let o = tenmin(&args, d);
-        let err = text(&o.stderr);
-        assert_eq!(code(&o), Some(2), "{args:?}: {err}");
-        assert!(
-            err.contains(&format!("it is the {what} ")),
-            "{args:?}: {err}"
-        );
-        assert_eq!(snapshot(d), before, "{args:?} changed a file");
+        refused_in(d, &args, &[&format!("it is the {what} ")], &before);
     }
     // A records file in the folder under a name the report does not write is fine.
     fs::rename(d.join("rep/rose.csv"), d.join("rep/my-records.csv")).unwrap();
@@ -364,6 +364,16 @@ fn device(dir: &Path, name: &str) -> Option<PathBuf> {
     Some(PathBuf::from(format!("/dev/{name}")))
 }
 
+/// The three commands that write one file, each writing to `out`.
+#[cfg(target_os = "linux")]
+fn writers(out: &str) -> [[&str; 6]; 3] {
+    [
+        ["replay", "-c", "station.toml", "samples.csv", "-o", out],
+        ["export", "-c", "station.toml", "samples.csv", "-o", out],
+        ["decode", "-c", "station.toml", "log.bin", "-o", out],
+    ]
+}
+
 #[cfg(target_os = "linux")]
 #[test]
 fn the_null_device_is_written_in_place() {
@@ -375,12 +385,8 @@ fn the_null_device_is_written_in_place() {
     };
     let null = null.to_str().unwrap();
     let before = snapshot(d);
-    for args in [
-        &["replay", "-c", "station.toml", "samples.csv", "-o", null][..],
-        &["export", "-c", "station.toml", "samples.csv", "-o", null],
-        &["decode", "-c", "station.toml", "log.bin", "-o", null],
-    ] {
-        let o = tenmin(args, d);
+    for args in writers(null) {
+        let o = tenmin(&args, d);
         assert_eq!(code(&o), Some(0), "{args:?}: {}", text(&o.stderr));
         let t = fs::symlink_metadata(null).unwrap().file_type();
         assert!(t.is_char_device(), "{null} was replaced by a regular file");
@@ -399,12 +405,8 @@ fn a_full_device_is_an_error_naming_it() {
     };
     let full = full.to_str().unwrap();
     let before = snapshot(d);
-    for args in [
-        &["replay", "-c", "station.toml", "samples.csv", "-o", full][..],
-        &["export", "-c", "station.toml", "samples.csv", "-o", full],
-        &["decode", "-c", "station.toml", "log.bin", "-o", full],
-    ] {
-        let o = tenmin(args, d);
+    for args in writers(full) {
+        let o = tenmin(&args, d);
         let err = text(&o.stderr);
         assert_eq!(code(&o), Some(2), "{args:?}: {err}");
         assert!(err.contains("cannot write"), "{args:?}: {err}");
@@ -500,11 +502,7 @@ fn an_existing_folder_as_output_file_is_refused_without_a_temporary_file() {
         &["export", "-c", "station.toml", "samples.csv", "-o", "out"],
         &["decode", "-c", "station.toml", "log.bin", "-o", "out/"],
     ] {
-        let o = tenmin(args, d);
-        let err = text(&o.stderr);
-        assert_eq!(code(&o), Some(2), "{args:?}: {err}");
-        assert!(err.contains("is a folder"), "{args:?}: {err}");
-        assert_eq!(snapshot(d), before, "{args:?}");
+        refused_in(d, args, &["is a folder"], &before);
     }
     // And the other way round: a file where report and demo want a folder.
     for args in [
@@ -518,14 +516,7 @@ fn an_existing_folder_as_output_file_is_refused_without_a_temporary_file() {
         ][..],
         &["demo", "--days", "1", "-o", "records.csv"],
     ] {
-        let o = tenmin(args, d);
-        let err = text(&o.stderr);
-        assert_eq!(code(&o), Some(2), "{args:?}: {err}");
-        assert!(
-            err.contains("is a file") && err.contains("folder"),
-            "{args:?}: {err}"
-        );
-        assert_eq!(snapshot(d), before, "{args:?}");
+        refused_in(d, args, &["is a file", "folder"], &before);
     }
 }
 
@@ -567,11 +558,7 @@ fn a_failure_mid_run_leaves_the_old_output_and_no_temporary_file() {
         &["export", "-c", "station.toml", "bad.csv", "-o", "out.tmsf"],
         &["export", "-c", "station.toml", "bad.csv", "-o", "new.tmsf"],
     ] {
-        let o = tenmin(args, d);
-        let err = text(&o.stderr);
-        assert_eq!(code(&o), Some(2), "{args:?}: {err}");
-        assert!(err.contains("bad.csv:4:"), "{args:?}: {err}");
-        assert_eq!(snapshot(d), before, "{args:?}");
+        refused_in(d, args, &["bad.csv:4:"], &before);
     }
 }
 
@@ -671,15 +658,12 @@ fn negative_and_out_of_range_values_get_a_range_message() {
     ];
     let before = snapshot(d);
     for (args, want) in cases {
-        let o = tenmin(args, d);
+        let o = refused_in(d, args, &[want], &before);
         let err = text(&o.stderr);
-        assert_eq!(code(&o), Some(2), "{args:?}: {err}");
-        assert!(err.contains(want), "{args:?}: {err}");
         assert!(
             !err.contains("tip:") && !err.contains("-- -"),
             "{args:?}: {err}"
         );
-        assert_eq!(snapshot(d), before, "{args:?}");
     }
 }
 
@@ -1005,11 +989,7 @@ fn catalogue_of_bad_output_cases() {
         ),
     ];
     for (args, want) in cases {
-        let o = tenmin(args, d);
-        let err = text(&o.stderr);
-        assert_eq!(code(&o), Some(2), "{args:?}: {err}");
-        assert!(err.contains(want), "{args:?}: {err}");
+        let err = text(&refused_in(d, args, &[want], &before).stderr);
         assert!(!err.contains("panicked"), "{args:?}: {err}");
-        assert_eq!(snapshot(d), before, "{args:?}");
     }
 }

@@ -5,7 +5,7 @@
 //! used are cited where they matter.
 
 mod common;
-use common::{tenmin, text, write};
+use common::{exits, tenmin, text, write};
 
 /// A 10-minute station of one anemometer and one vane, with `extra` keys
 /// appended (an `[input]` table, channel keys).
@@ -402,13 +402,7 @@ fn quality_codes_not_good_count_as_flagged_and_stay_out_of_the_statistics() {
         ],
         d,
     );
-    assert_eq!(
-        v.status.code(),
-        Some(0),
-        "{}{}",
-        text(&v.stdout),
-        text(&v.stderr)
-    );
+    exits(&v, 0);
     let v = tenmin(
         &[
             "verify",
@@ -421,14 +415,7 @@ fn quality_codes_not_good_count_as_flagged_and_stay_out_of_the_statistics() {
         ],
         d,
     );
-    assert_eq!(
-        v.status.code(),
-        Some(1),
-        "{}{}",
-        text(&v.stdout),
-        text(&v.stderr)
-    );
-    let report = format!("{}{}", text(&v.stdout), text(&v.stderr));
+    let report = exits(&v, 1);
     assert!(report.contains("n_flagged"), "{report}");
 }
 

@@ -8,13 +8,9 @@
 //! script. Nothing expected here is produced by tenmin.
 
 mod common;
-use std::path::{Path, PathBuf};
+use std::path::Path;
 
-use common::{tenmin, text, write};
-
-fn root() -> PathBuf {
-    Path::new(env!("CARGO_MANIFEST_DIR")).join("..")
-}
+use common::{refused, root, tenmin, text, write};
 
 fn example(name: &str) -> String {
     root()
@@ -329,42 +325,27 @@ fn inference_recovers_every_generating_convention() {
     }
 }
 
+/// `t` with `from` replaced by `to` (the first time) written as `dir/name`,
+/// verified against the example's station file: exit 2, stderr returned.
+fn refused_table(dir: &Path, name: &str, t: &str, from: &str, to: &str) -> String {
+    let p = write(dir, name, t.replacen(from, to, 1));
+    let out = verify(dir, &example("station.toml"), p.to_str().unwrap(), false);
+    refused(&out, &[])
+}
+
 #[test]
 fn bad_tables_are_exit_2_naming_file_line_and_column() {
     let dir = tempfile::tempdir().unwrap();
+    let d = dir.path();
     let t = std::fs::read_to_string(example("logger-table.csv")).unwrap();
     // A column the declaration names is not in the header.
-    let p = write(
-        dir.path(),
-        "renamed.csv",
-        t.replacen("ws80a_sd", "ws80a_std", 1),
-    );
-    let out = verify(
-        dir.path(),
-        &example("station.toml"),
-        p.to_str().unwrap(),
-        false,
-    );
-    assert_eq!(out.status.code(), Some(2));
-    let e = text(&out.stderr);
+    let e = refused_table(d, "renamed.csv", &t, "ws80a_sd", "ws80a_std");
     assert!(
         e.contains("renamed.csv:1:") && e.contains("no column \"ws80a_sd\""),
         "{e}"
     );
     // A time off the interval grid.
-    let p = write(
-        dir.path(),
-        "grid.csv",
-        t.replacen("01:30:00,", "01:33:00,", 1),
-    );
-    let out = verify(
-        dir.path(),
-        &example("station.toml"),
-        p.to_str().unwrap(),
-        false,
-    );
-    assert_eq!(out.status.code(), Some(2));
-    let e = text(&out.stderr);
+    let e = refused_table(d, "grid.csv", &t, "01:30:00,", "01:33:00,");
     assert!(
         e.contains("grid.csv:4:")
             && e.contains("time column \"time_end\"")
@@ -372,33 +353,14 @@ fn bad_tables_are_exit_2_naming_file_line_and_column() {
         "{e}"
     );
     // A field that is not a number.
-    let p = write(dir.path(), "text.csv", t.replacen(",7.89,", ",7.8x,", 1));
-    let out = verify(
-        dir.path(),
-        &example("station.toml"),
-        p.to_str().unwrap(),
-        false,
-    );
-    assert_eq!(out.status.code(), Some(2));
-    let e = text(&out.stderr);
+    let e = refused_table(d, "text.csv", &t, ",7.89,", ",7.8x,");
     assert!(
         e.contains("text.csv:3:") && e.contains("field 2 (ws80a.mean)"),
         "{e}"
     );
     // A row of fewer fields than the header.
-    let p = write(dir.path(), "short.csv", t.replacen(",9.2\n", "\n", 1));
-    let out = verify(
-        dir.path(),
-        &example("station.toml"),
-        p.to_str().unwrap(),
-        false,
-    );
-    assert_eq!(out.status.code(), Some(2));
-    assert!(
-        text(&out.stderr).contains("short.csv:4:"),
-        "{}",
-        text(&out.stderr)
-    );
+    let e = refused_table(d, "short.csv", &t, ",9.2\n", "\n");
+    assert!(e.contains("short.csv:4:"), "{e}");
     // A declaration the core cannot compute.
     let bad = std::fs::read_to_string(example("station.toml"))
         .unwrap()
