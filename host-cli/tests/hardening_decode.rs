@@ -181,6 +181,22 @@ fn shift(frames: &mut [RecordFrame], i: usize, ms: i64) {
     frames[i].interval_start = Timestamp::from_millis(t);
 }
 
+/// The clean log with frame `i` moved by `ms` (see [`shift`]).
+fn frame_shifted(i: usize, ms: i64) -> Vec<u8> {
+    let mut f = frames(0);
+    shift(&mut f, i, ms);
+    log_of(&f)
+}
+
+/// The clean log with every channel's frame of interval `k` moved by `ms`.
+fn interval_shifted(k: usize, ms: i64) -> Vec<u8> {
+    let mut f = frames(0);
+    for c in 0..CHANNELS {
+        shift(&mut f, at(k, c), ms);
+    }
+    log_of(&f)
+}
+
 /// One class of bad log: how to make it from the clean frames, and what
 /// `decode` must do with it.
 struct Case {
@@ -217,13 +233,7 @@ fn catalogue() -> Vec<Case> {
             // numbers running on: no day of empty rows, and the 297 good
             // frames after it kept.
             name: "one interval a day ahead",
-            make: || {
-                let mut f = frames(0);
-                for c in 0..CHANNELS {
-                    shift(&mut f, at(100, c), DAY_MS);
-                }
-                log_of(&f)
-            },
+            make: || interval_shifted(100, DAY_MS),
             left_out: vec![at(100, 0), at(100, 1), at(100, 2)],
             moved: &[],
             says: &[
@@ -236,11 +246,7 @@ fn catalogue() -> Vec<Case> {
         },
         Case {
             name: "one frame a day ahead",
-            make: || {
-                let mut f = frames(0);
-                shift(&mut f, at(50, 0), DAY_MS);
-                log_of(&f)
-            },
+            make: || frame_shifted(at(50, 0), DAY_MS),
             left_out: vec![at(50, 0)],
             moved: &[],
             says: &[
@@ -252,11 +258,7 @@ fn catalogue() -> Vec<Case> {
         Case {
             // A frame a day behind what has been written already.
             name: "one frame a day behind",
-            make: || {
-                let mut f = frames(0);
-                shift(&mut f, at(170, 1), -DAY_MS);
-                log_of(&f)
-            },
+            make: || frame_shifted(at(170, 1), -DAY_MS),
             left_out: vec![at(170, 1)],
             moved: &[],
             says: &[
@@ -269,13 +271,7 @@ fn catalogue() -> Vec<Case> {
             // The last interval a day ahead: nothing after it confirms the
             // time, so no empty rows are written before it.
             name: "last interval a day ahead",
-            make: || {
-                let mut f = frames(0);
-                for c in 0..CHANNELS {
-                    shift(&mut f, at(199, c), DAY_MS);
-                }
-                log_of(&f)
-            },
+            make: || interval_shifted(199, DAY_MS),
             left_out: vec![],
             moved: &[(
                 "2025-01-21T09:10:00Z,2025-01-21T09:20:00Z",
@@ -291,13 +287,7 @@ fn catalogue() -> Vec<Case> {
             // The first interval a day behind: nothing before it confirms
             // its time, so no day of empty rows after it.
             name: "first interval a day behind",
-            make: || {
-                let mut f = frames(0);
-                for c in 0..CHANNELS {
-                    shift(&mut f, at(0, c), -DAY_MS);
-                }
-                log_of(&f)
-            },
+            make: || interval_shifted(0, -DAY_MS),
             left_out: vec![],
             moved: &[(
                 "2025-01-20T00:00:00Z,2025-01-20T00:10:00Z",

@@ -123,6 +123,12 @@ fn verify(dir: &Path, toml: &str, table: &str, infer: bool) -> std::process::Out
     tenmin(&args, dir)
 }
 
+/// `table` written as `dir/name`, verified against the example's station file.
+fn verify_table(dir: &Path, name: &str, table: impl AsRef<[u8]>) -> std::process::Output {
+    let p = write(dir, name, table);
+    verify(dir, &example("station.toml"), p.to_str().unwrap(), false)
+}
+
 #[test]
 fn the_example_runs_as_it_is_and_passes() {
     let out = verify(
@@ -159,13 +165,7 @@ fn a_gust_off_by_four_hundredths_is_named() {
     // Line 5 is the interval 00:30 to 00:40 UTC (01:40 local, end label);
     // column 6 (0-based 5) is ws80a_gust.
     let off = with_field_moved(5, 5, 4);
-    let p = write(dir.path(), "off.csv", off);
-    let out = verify(
-        dir.path(),
-        &example("station.toml"),
-        p.to_str().unwrap(),
-        false,
-    );
+    let out = verify_table(dir.path(), "off.csv", off);
     assert_eq!(out.status.code(), Some(1), "{}", text(&out.stderr));
     let o = text(&out.stdout);
     assert!(o.contains("off.csv:5: 2026-03-01T00:30:00Z to 2026-03-01T00:40:00Z ws80a gust (column \"ws80a_gust\""), "{o}");
@@ -173,13 +173,7 @@ fn a_gust_off_by_four_hundredths_is_named() {
     assert!(o.contains("ws80a gust (column \"ws80a_gust\"): 12 intervals, 1 differ, largest difference 0.04 m/s"), "{o}");
     assert!(o.contains("1 difference(s)."), "{o}");
     // One unit of the last decimal off (0.01 m/s on a mean) is a difference too.
-    let p = write(dir.path(), "off1.csv", with_field_moved(5, 1, 1));
-    let out = verify(
-        dir.path(),
-        &example("station.toml"),
-        p.to_str().unwrap(),
-        false,
-    );
+    let out = verify_table(dir.path(), "off1.csv", with_field_moved(5, 1, 1));
     assert_eq!(out.status.code(), Some(1));
     assert!(text(&out.stdout).contains("ws80a mean"));
 }
@@ -194,13 +188,7 @@ fn a_missing_row_and_an_empty_field_are_differences() {
     l2[2].clear();
     let l2 = l2.join(",");
     lines[1] = &l2;
-    let p = write(dir.path(), "t.csv", lines.join("\n") + "\n");
-    let out = verify(
-        dir.path(),
-        &example("station.toml"),
-        p.to_str().unwrap(),
-        false,
-    );
+    let out = verify_table(dir.path(), "t.csv", lines.join("\n") + "\n");
     assert_eq!(out.status.code(), Some(1));
     let o = text(&out.stdout);
     assert!(
@@ -328,9 +316,7 @@ fn inference_recovers_every_generating_convention() {
 /// `t` with `from` replaced by `to` (the first time) written as `dir/name`,
 /// verified against the example's station file: exit 2, stderr returned.
 fn refused_table(dir: &Path, name: &str, t: &str, from: &str, to: &str) -> String {
-    let p = write(dir, name, t.replacen(from, to, 1));
-    let out = verify(dir, &example("station.toml"), p.to_str().unwrap(), false);
-    refused(&out, &[])
+    refused(&verify_table(dir, name, t.replacen(from, to, 1)), &[])
 }
 
 #[test]
