@@ -264,13 +264,7 @@ impl StationFile {
 /// Reads and checks a station file.
 pub fn load(path: &Path) -> Result<StationFile> {
     let bytes = crate::limits::read_station_file(path)?;
-    let text = String::from_utf8(bytes).map_err(|e| {
-        let line = 1 + e.as_bytes()[..e.utf8_error().valid_up_to()]
-            .iter()
-            .filter(|b| **b == b'\n')
-            .count();
-        anyhow!("{}:{line}: not valid UTF-8", path.display())
-    })?;
+    let text = crate::limits::utf8_text(path, bytes)?;
     let mut file = parse(path, &text)?;
     if let Some(x) = &file.exclusions_file {
         let ids: Vec<&str> = file.channels.iter().map(|c| c.id.as_str()).collect();
@@ -520,11 +514,7 @@ struct Locator<'a> {
 
 impl Locator<'_> {
     fn line(&self, span: &Range<usize>) -> usize {
-        let end = span.start.min(self.text.len());
-        1 + self.text.as_bytes()[..end]
-            .iter()
-            .filter(|b| **b == b'\n')
-            .count()
+        crate::limits::line_at(self.text.as_bytes(), span.start)
     }
 
     fn err(&self, span: Range<usize>, msg: &str) -> anyhow::Error {

@@ -427,27 +427,33 @@ struct Decoder<'a, const C: usize, W: Write> {
 }
 
 impl<const C: usize, W: Write> Decoder<'_, C, W> {
+    /// Counts `len` bytes from `offset` skipped as damaged, and says why.
+    fn skipped(&mut self, offset: usize, len: usize, why: &str) {
+        self.d.damaged_spans += 1;
+        self.d.damaged_bytes += len as u64;
+        self.d.problems.push(format!(
+            "bytes {offset} to {} ({len} bytes): {why}; skipped",
+            offset + len
+        ));
+    }
+
     /// Takes one span of the scan.
     fn span(&mut self, span: Span) -> Result<()> {
         let (offset, good) = match span {
             Span::Frame { offset, frame } => (offset, Good::Record(frame)),
             Span::State { offset, frame } => (offset, Good::State(frame)),
             Span::Damaged { offset, len } => {
-                self.d.damaged_spans += 1;
-                self.d.damaged_bytes += len as u64;
-                self.d.problems.push(format!(
-                    "bytes {offset} to {} ({len} bytes): damaged (no good frame there); skipped",
-                    offset + len
-                ));
+                self.skipped(offset, len, "damaged (no good frame there)");
                 return Ok(());
             }
             Span::Torn { offset, len } => {
-                self.d.damaged_spans += 1;
-                self.d.damaged_bytes += len as u64;
-                self.d.problems.push(format!(
-                    "bytes {offset} to {} ({len} bytes): torn tail (an append cut short, shorter than a {FRAME_LEN}-byte frame); skipped",
-                    offset + len
-                ));
+                self.skipped(
+                    offset,
+                    len,
+                    &format!(
+                        "torn tail (an append cut short, shorter than a {FRAME_LEN}-byte frame)"
+                    ),
+                );
                 return Ok(());
             }
             Span::Erased { len, .. } => {

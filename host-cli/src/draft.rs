@@ -642,6 +642,18 @@ enum Role {
 }
 
 impl Role {
+    /// Every role.
+    const ALL: [Role; 8] = [
+        Role::Year,
+        Role::Month,
+        Role::Day,
+        Role::DayOfYear,
+        Role::Hour,
+        Role::Minute,
+        Role::Second,
+        Role::HourMinute,
+    ];
+
     fn spec(self) -> &'static str {
         match self {
             Role::Year => "%Y",
@@ -922,17 +934,8 @@ fn find_time(rows: &[Vec<String>], cols: &[Col], header: bool) -> Vec<TimeGuess>
             if !(col.integer && col.numbers == rows.len() && col.codes.is_empty()) {
                 return Vec::new();
             }
-            let all = [
-                Role::Year,
-                Role::Month,
-                Role::Day,
-                Role::DayOfYear,
-                Role::Hour,
-                Role::Minute,
-                Role::Second,
-                Role::HourMinute,
-            ];
-            all.into_iter()
+            Role::ALL
+                .into_iter()
                 .filter(|r| {
                     r.fits(col.min, col.max)
                         && (*r != Role::HourMinute
@@ -2078,17 +2081,10 @@ pub fn draft(name: &str, sniff: &Sniff) -> Result<Draft> {
                     Meaning::Unknown if col.codes_like() => "codes (quality or status?)".into(),
                     Meaning::Unknown
                         if col.integer
-                            && [
-                                Role::Year,
-                                Role::Month,
-                                Role::Day,
-                                Role::DayOfYear,
-                                Role::Hour,
-                                Role::Minute,
-                                Role::Second,
-                            ]
-                            .iter()
-                            .any(|r| col.name.as_deref().is_some_and(|n| r.named(n))) =>
+                            && Role::ALL.iter().any(|r| {
+                                *r != Role::HourMinute
+                                    && col.name.as_deref().is_some_and(|n| r.named(n))
+                            }) =>
                     {
                         "a date or time field, not used for the time?".into()
                     }

@@ -116,13 +116,7 @@ impl Exclusions {
                 path.display()
             );
         }
-        let text = String::from_utf8(bytes).map_err(|e| {
-            let line = 1 + e.as_bytes()[..e.utf8_error().valid_up_to()]
-                .iter()
-                .filter(|b| **b == b'\n')
-                .count();
-            anyhow!("{}:{line}: not valid UTF-8", path.display())
-        })?;
+        let text = crate::limits::utf8_text(path, bytes)?;
         parse(path, &text, ids)
     }
 }

@@ -273,6 +273,24 @@ pub fn read_station_file(path: &Path) -> Result<Vec<u8>> {
     Ok(bytes)
 }
 
+/// The 1-based line of byte `offset` of `text` (a `\n` ends a line; an
+/// offset past the end is the last line).
+pub fn line_at(text: &[u8], offset: usize) -> usize {
+    1 + text[..offset.min(text.len())]
+        .iter()
+        .filter(|b| **b == b'\n')
+        .count()
+}
+
+/// A whole file read from `path` as text, or an error naming the file and the
+/// line of its first byte that is not UTF-8.
+pub fn utf8_text(path: &Path, bytes: Vec<u8>) -> Result<String> {
+    String::from_utf8(bytes).map_err(|e| {
+        let line = line_at(e.as_bytes(), e.utf8_error().valid_up_to());
+        anyhow!("{}:{line}: not valid UTF-8", path.display())
+    })
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;
@@ -335,5 +353,19 @@ mod tests {
         assert_eq!(line, 2);
         let msg = csv_long_record(&e, Path::new("f.csv"), line).unwrap();
         assert!(msg.to_string().starts_with("f.csv:2: a record"), "{msg}");
+    }
+
+    #[test]
+    fn lines_of_offsets_and_of_the_first_byte_not_utf8() {
+        // By hand: offsets 0..=1 are on line 1, 2..=3 on line 2, 4 and past
+        // the end on line 3.
+        let text = b"a\nb\nc";
+        let lines: Vec<usize> = (0..7).map(|i| line_at(text, i)).collect();
+        assert_eq!(lines, [1, 1, 2, 2, 3, 3, 3]);
+        let p = Path::new("x.toml");
+        assert_eq!(utf8_text(p, b"a\nb".to_vec()).unwrap(), "a\nb");
+        // 0xFF is never UTF-8 (RFC 3629, section 1); it stands on line 3.
+        let e = utf8_text(p, b"a\n\nb\xff\n".to_vec()).unwrap_err();
+        assert_eq!(e.to_string(), "x.toml:3: not valid UTF-8");
     }
 }

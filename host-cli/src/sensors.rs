@@ -143,11 +143,7 @@ struct At<'a> {
 
 impl At<'_> {
     fn line(&self, span: &Range<usize>) -> usize {
-        let end = span.start.min(self.text.len());
-        1 + self.text.as_bytes()[..end]
-            .iter()
-            .filter(|b| **b == b'\n')
-            .count()
+        crate::limits::line_at(self.text.as_bytes(), span.start)
     }
 
     fn err(&self, span: &Range<usize>, key: &str, msg: &str) -> anyhow::Error {

@@ -281,19 +281,26 @@ fn time_label(t0: i64, days: f64, span_days: f64) -> String {
     }
 }
 
+/// The events within the dataset's time span: each one's number (from 1, in
+/// the order of `events`, as the events table numbers them) and its time in
+/// days from the start.
+fn events_shown(d: &Dataset, events: &[Event]) -> Vec<(usize, f64)> {
+    let t1 = d.t0_ms + d.len as i64 * d.interval_ms;
+    events
+        .iter()
+        .enumerate()
+        .filter(|(_, e)| (d.t0_ms..=t1).contains(&e.time.millis()))
+        .map(|(k, e)| (k + 1, (e.time.millis() - d.t0_ms) as f64 / 86_400_000.0))
+        .collect()
+}
+
 /// Availability: one row per channel, missing intervals drawn as bars.
 pub fn availability(d: &Dataset, events: &[Event]) -> Result<String> {
     let n = d.channels.len();
     let h = 70 + 26 * n as u32;
     let days = d.len as f64 * d.interval_ms as f64 / 86_400_000.0;
     let step = d.interval_ms as f64 / 86_400_000.0;
-    let t1 = d.t0_ms + d.len as i64 * d.interval_ms;
-    let shown: Vec<(usize, f64)> = events
-        .iter()
-        .enumerate()
-        .filter(|(_, e)| (d.t0_ms..=t1).contains(&e.time.millis()))
-        .map(|(k, e)| (k + 1, (e.time.millis() - d.t0_ms) as f64 / 86_400_000.0))
-        .collect();
+    let shown = events_shown(d, events);
     svg((900, h.max(160) + 16), |root| {
         let fmt_x = |x: &f64| time_label(d.t0_ms, *x, days);
         let fmt_y = |y: &f64| {
@@ -968,13 +975,7 @@ fn series_chart(
     if bands.contains(&Some(Band::Excluded)) {
         keys.push((Key::Box(EXCL_BAND.mix(0.35)), "excluded".into()));
     }
-    let t1 = d.t0_ms + d.len as i64 * d.interval_ms;
-    let shown: Vec<(usize, f64)> = events
-        .iter()
-        .enumerate()
-        .filter(|(_, e)| (d.t0_ms..=t1).contains(&e.time.millis()))
-        .map(|(k, e)| (k + 1, (e.time.millis() - d.t0_ms) as f64 / 86_400_000.0))
-        .collect();
+    let shown = events_shown(d, events);
     if !shown.is_empty() {
         keys.push((
             Key::Dash(EVENT),

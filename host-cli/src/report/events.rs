@@ -131,13 +131,7 @@ pub fn read(station: &Path, path: &Path, line: usize) -> Result<Vec<Event>> {
         );
     }
     let bytes = std::fs::read(path).with_context(named)?;
-    let body = String::from_utf8(bytes).map_err(|e| {
-        let l = 1 + e.as_bytes()[..e.utf8_error().valid_up_to()]
-            .iter()
-            .filter(|b| **b == b'\n')
-            .count();
-        anyhow!("{}:{l}: not valid UTF-8", path.display())
-    })?;
+    let body = crate::limits::utf8_text(path, bytes)?;
     parse(path, &body)
 }
 
