@@ -148,6 +148,20 @@ impl Setup {
         tenmin(args, self.dir.path())
     }
 
+    /// `tenmin verify -q` of the records file `records` against the samples.
+    fn verify(&self, records: &str) -> Output {
+        self.run(&[
+            "verify",
+            "-q",
+            "-c",
+            "st.toml",
+            "--samples",
+            "s.csv",
+            "--records",
+            records,
+        ])
+    }
+
     /// `tenmin decode [--strict]` of `log` with station file `station`:
     /// its output and records (empty when none were written).
     fn decode(&self, log: &[u8], station: &str, strict: bool) -> (Output, String) {
@@ -515,16 +529,7 @@ fn records_rows_no_station_makes_are_refused() {
     ];
     for (csv, want) in cases {
         std::fs::write(s.dir.path().join("bad.csv"), &csv).unwrap();
-        let v = s.run(&[
-            "verify",
-            "-q",
-            "-c",
-            "st.toml",
-            "--samples",
-            "s.csv",
-            "--records",
-            "bad.csv",
-        ]);
+        let v = s.verify("bad.csv");
         assert_eq!(v.status.code(), Some(2), "verify: {}", text(&v.stderr));
         assert!(
             text(&v.stderr).contains(want),
@@ -544,16 +549,7 @@ fn records_rows_no_station_makes_are_refused() {
     }
     // The clean records pass both.
     std::fs::write(s.dir.path().join("good.csv"), &s.replay).unwrap();
-    let v = s.run(&[
-        "verify",
-        "-q",
-        "-c",
-        "st.toml",
-        "--samples",
-        "s.csv",
-        "--records",
-        "good.csv",
-    ]);
+    let v = s.verify("good.csv");
     assert_eq!(v.status.code(), Some(0), "{}", text(&v.stdout));
 }
 
