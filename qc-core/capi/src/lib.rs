@@ -54,11 +54,11 @@ mod status;
 mod types;
 
 use core::ffi::{c_char, c_void};
-use core::mem::{align_of, size_of};
+use core::mem::{align_of, size_of, MaybeUninit};
 use core::ptr::{self, addr_of_mut};
 
 use qc_core::wire::{self, FRAME_LEN};
-use qc_core::{ChannelConfig, Kind, Layout, Sampler, Station, StationConfig, Timestamp};
+use qc_core::{ChannelConfig, Kind, Layout, Reading, Sampler, Station, StationConfig, Timestamp};
 
 use engine::{Body, Engine, LayoutHead, LayoutMem, Meta, RecordBody, StateBody, LOGGER_MAGIC};
 pub use status::tm_status;
@@ -142,6 +142,43 @@ fn status(r: Result<(), tm_status>) -> tm_status {
     }
 }
 
+// `tm_reading` has the layout of `qc_core::Reading` (`#[repr(u8)]`: the tag
+// byte first, the counts at byte 4, the value at byte 8), and the kinds
+// `TM_READING_...` are its first four variants in order.
+const _: () = assert!(
+    size_of::<tm_reading>() == size_of::<Reading>()
+        && align_of::<tm_reading>() == align_of::<Reading>()
+        && core::mem::offset_of!(tm_reading, kind) == 0
+        && core::mem::offset_of!(tm_reading, counts) == 4
+        && core::mem::offset_of!(tm_reading, value) == 8
+        && TM_READING_VALUE == 0
+        && TM_READING_COUNTS == 1
+        && TM_READING_MISSING == 2
+        && TM_READING_FLAGGED == 3
+);
+
+/// The caller's row of readings as the core's, without converting or
+/// copying it; `None` if a kind is not a `TM_READING_...` code.
+#[inline(always)]
+pub(crate) fn core_row<const C: usize>(row: &[tm_reading; C]) -> Option<&[Reading; C]> {
+    // The codes are 0 to 3: all are iff no bit above the lowest two is set.
+    let kinds = row.iter().fold(0u8, |k, r| k | r.kind);
+    if kinds > TM_READING_FLAGGED {
+        return None;
+    }
+    let p: *const [tm_reading; C] = row;
+    // SAFETY: `tm_reading` and `Reading` have the same size and alignment
+    // (checked above), and every `tm_reading` of the row is a valid
+    // `Reading` of the variant its kind names: the tag byte is a valid
+    // discriminant (0 to 3, checked), and the field that variant carries
+    // lies at the same offset (`Reading` is `#[repr(u8)]`, whose layout is
+    // a union of `#[repr(C)]` structs each starting with the tag: `Counts`'
+    // `i32` at byte 4, `Value`'s `f64` at byte 8, as in `tm_reading`); the
+    // other bytes are padding to a `Reading`. The borrow keeps the row
+    // unchanged while the result lives.
+    Some(unsafe { &*p.cast::<[Reading; C]>() })
+}
+
 /// A slice of `n` values at `p` (NULL allowed when `n` is 0).
 ///
 /// # Safety
@@ -223,15 +260,15 @@ unsafe fn layout_build<const C: usize, const G: usize>(
         // SAFETY: the caller promises `n` valid settings at `channels`.
         let channels = unsafe { slice(channels, n) }?;
         // SAFETY: `p` is non-null, aligned and `len` covers a LayoutMem<C>;
-        // the caller gives this block to the library alone. The block is
-        // written whole (head, then layout) before a reference to it is
-        // made. Two writes, not one of a whole `LayoutMem::EMPTY`: the
-        // layout's placeholder is then the same constant the core writes
-        // back on a refused station, kept once in flash (2.4 KiB for 8
-        // channels) instead of twice.
+        // the caller gives this block to the library alone. A `MaybeUninit`
+        // needs no valid contents; the block is then written whole (head,
+        // then layout) before a reference to a `LayoutMem` is made. The
+        // layout is written from `Layout::placeholder`, made a channel at a
+        // time, not from the whole-layout constant `Layout::PLACEHOLDER`
+        // (2.7 KiB of flash for 8 channels).
         let layout = unsafe {
             addr_of_mut!((*p).head).write(LayoutMem::<C>::EMPTY_HEAD);
-            addr_of_mut!((*p).layout).write(Layout::PLACEHOLDER);
+            placeholder(&mut *addr_of_mut!((*p).layout).cast::<MaybeUninit<Layout<C>>>());
             &mut *p
         };
         layout.build::<G>(station, channels).map_err(|(s, ch)| {
@@ -244,6 +281,15 @@ unsafe fn layout_build<const C: usize, const G: usize>(
         unsafe { error_channel.write(bad) };
     }
     status(r)
+}
+
+/// Writes [`Layout::placeholder`] into `slot`. Not inlined: the compiler
+/// builds the layout in a temporary on the stack (2.7 KiB for 8 channels)
+/// and copies it, and out of line that temporary is gone before the
+/// validation, whose stack frame is larger, starts.
+#[inline(never)]
+fn placeholder<const C: usize>(slot: &mut MaybeUninit<Layout<C>>) {
+    slot.write(Layout::placeholder());
 }
 
 /// Starts a logger of shape `C`, `G` running `core` in the caller's block.
@@ -1034,4 +1080,71 @@ pub unsafe extern "C" fn tm_state_logger_start_c16g12(
 ) -> tm_status {
     // SAFETY: passed on from the caller (see the function's Safety).
     unsafe { logger_start::<16, 12, _>(mem, len, layout, Sampler::<16, 12, _>::new) }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use qc_core::ConfigError;
+
+    #[test]
+    fn a_c_row_is_the_cores_row() {
+        let r = |kind, counts, value| tm_reading {
+            kind,
+            counts,
+            value,
+        };
+        let row = [
+            r(TM_READING_VALUE, 99, 1.5),
+            r(TM_READING_COUNTS, -7, 2.5),
+            r(TM_READING_MISSING, 3, 4.0),
+            r(TM_READING_FLAGGED, 5, f64::NAN),
+            r(TM_READING_VALUE, 0, -0.0),
+            r(TM_READING_COUNTS, i32::MIN, 0.0),
+        ];
+        let want = [
+            Reading::Value(1.5),
+            Reading::Counts(-7),
+            Reading::Missing,
+            Reading::Flagged,
+            Reading::Value(-0.0),
+            Reading::Counts(i32::MIN),
+        ];
+        let got = core_row(&row).unwrap();
+        assert_eq!(got, &want);
+        // The same as the field-by-field conversion of the padded path.
+        for (c, g) in row.iter().zip(got) {
+            assert_eq!(types::reading(c).as_ref(), Some(g));
+        }
+        assert!(matches!(got[0], Reading::Value(v) if v.to_bits() == 1.5f64.to_bits()));
+        for bad in [4u8, 8, 255] {
+            let mut row = row;
+            row[3].kind = bad;
+            assert_eq!(core_row(&row), None, "kind {bad}");
+        }
+    }
+
+    #[test]
+    fn the_run_time_placeholder_is_the_constant() {
+        assert_eq!(Layout::<8>::placeholder(), Layout::<8>::PLACEHOLDER);
+        let mut slot = MaybeUninit::<Layout<3>>::uninit();
+        placeholder(&mut slot);
+        // SAFETY: `placeholder` wrote a whole layout.
+        let layout = unsafe { slot.assume_init_mut() };
+        assert_eq!(*layout, Layout::<3>::PLACEHOLDER);
+        // A refused station leaves the placeholder again, a good one its layout.
+        let ok = [ChannelConfig::speed(0.01); 3];
+        let st = StationConfig::ten_minute_1hz();
+        layout.rebuild_at_run_time::<3>(st, &ok).unwrap();
+        assert_eq!(*layout, Layout::new::<3>(st, &ok).unwrap());
+        let bad = StationConfig {
+            interval_s: 7,
+            ..st
+        };
+        assert_eq!(
+            layout.rebuild_at_run_time::<3>(bad, &ok),
+            Err(ConfigError::Interval)
+        );
+        assert_eq!(*layout, Layout::<3>::PLACEHOLDER);
+    }
 }
