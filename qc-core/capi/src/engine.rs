@@ -106,14 +106,20 @@ pub(crate) struct Meta {
 /// program starts are linked into it.
 pub(crate) trait Engine {
     /// Adds one sample (its readings checked: one per active channel, each
-    /// of a known kind); the frames of an interval it closes go to `out`.
+    /// of a known kind); the frames of an interval it closes go to `out`,
+    /// what it did to `result` (all zero before). Called only with the
+    /// logger's own type (`Self: Sized`: not in the table of the other
+    /// methods), so that it is inlined into its caller, `push_logger`.
     fn push(
         &mut self,
         meta: &mut Meta,
         t: Timestamp,
         readings: &[tm_reading],
         out: &mut [u8],
-    ) -> Result<tm_push_result, tm_status>;
+        result: &mut tm_push_result,
+    ) -> Result<(), tm_status>
+    where
+        Self: Sized;
     /// Closes the open interval (end of data); its frames go to `out`.
     fn close(&mut self, meta: &mut Meta, out: &mut [u8]) -> tm_push_result;
     /// The running recovery of a channel (record loggers).
@@ -266,13 +272,15 @@ pub(crate) type StateBody<const C: usize, const G: usize> =
     Body<C, Sampler<C, G, &'static Layout<C>>>;
 
 impl<const C: usize, const G: usize> Engine for RecordBody<C, G> {
+    #[inline]
     fn push(
         &mut self,
         meta: &mut Meta,
         t: Timestamp,
         src: &[tm_reading],
         out: &mut [u8],
-    ) -> Result<tm_push_result, tm_status> {
+        result: &mut tm_push_result,
+    ) -> Result<(), tm_status> {
         let pad;
         let readings = match row::<C>(meta, src, out)? {
             Some(full) => full,
@@ -282,12 +290,11 @@ impl<const C: usize, const G: usize> Engine for RecordBody<C, G> {
             }
         };
         let layout = self.layout;
-        let mut result = tm_push_result::default();
         let pushed = self
             .core
-            .push(t, readings, |e| records(layout, meta, out, &mut result, e));
+            .push(t, readings, |e| records(layout, meta, out, result, e));
         result.outcome = types::outcome(pushed);
-        Ok(result)
+        Ok(())
     }
 
     fn close(&mut self, meta: &mut Meta, out: &mut [u8]) -> tm_push_result {
@@ -314,13 +321,15 @@ impl<const C: usize, const G: usize> Engine for RecordBody<C, G> {
 }
 
 impl<const C: usize, const G: usize> Engine for StateBody<C, G> {
+    #[inline]
     fn push(
         &mut self,
         meta: &mut Meta,
         t: Timestamp,
         src: &[tm_reading],
         out: &mut [u8],
-    ) -> Result<tm_push_result, tm_status> {
+        result: &mut tm_push_result,
+    ) -> Result<(), tm_status> {
         let pad;
         let readings = match row::<C>(meta, src, out)? {
             Some(full) => full,
@@ -329,12 +338,11 @@ impl<const C: usize, const G: usize> Engine for StateBody<C, G> {
                 &pad
             }
         };
-        let mut result = tm_push_result::default();
         let pushed = self
             .core
-            .push(t, readings, |e| states(meta, out, &mut result, e));
+            .push(t, readings, |e| states(meta, out, result, e));
         result.outcome = types::outcome(pushed);
-        Ok(result)
+        Ok(())
     }
 
     fn close(&mut self, meta: &mut Meta, out: &mut [u8]) -> tm_push_result {
