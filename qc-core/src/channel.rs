@@ -28,6 +28,13 @@ pub enum Kind {
 }
 
 /// One sample of one channel, as the logger or file gives it.
+///
+/// `#[repr(u8)]`: a one-byte tag (the variants in order, from 0), the counts
+/// at byte 4 and the value at byte 8 (the layout the reference gives a
+/// primitive representation), so that the C interface (`qc-core/capi`,
+/// `tm_reading`) hands a C program's row of readings to the core without
+/// converting or copying it.
+#[repr(u8)]
 #[derive(Clone, Copy, Debug, PartialEq)]
 #[cfg_attr(feature = "defmt", derive(defmt::Format))]
 pub enum Reading {

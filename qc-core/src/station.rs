@@ -640,6 +640,52 @@ impl<const C: usize> Layout<C> {
     }
 }
 
+/// Building a layout at run time into memory of its own (the C interface's
+/// layout block, `qc-core/capi`), without the whole-layout constant
+/// [`Layout::PLACEHOLDER`] in flash: a `const fn` that starts from it, or
+/// writes it back, keeps a copy of all its channels (2.7 KiB for 8 channels)
+/// in the program; these write one placeholder channel into each slot in a
+/// loop (one channel's worth, 0.3 KiB).
+impl<const C: usize> Layout<C> {
+    /// [`Layout::PLACEHOLDER`], made at run time a channel at a time (equal
+    /// to it). For `MaybeUninit::write` into memory a layout is then built in
+    /// ([`Layout::rebuild_at_run_time`]).
+    #[inline]
+    pub fn placeholder() -> Self {
+        Layout {
+            interval_ms: 600_000,
+            samples: 600,
+            max_step_ms: 1_500,
+            sentinels: Sentinels::NONE,
+            fingerprint: 0,
+            frame: 0,
+            channels: [Channel::placeholder(); C],
+        }
+    }
+
+    /// [`Layout::rebuild`], not `const`: validates the station into `self`
+    /// in place; on an error `self` is [`Layout::placeholder`] again.
+    pub fn rebuild_at_run_time<const G: usize>(
+        &mut self,
+        station: StationConfig,
+        channels: &[ChannelConfig; C],
+    ) -> Result<(), ConfigError> {
+        let result = self.validate::<G>(station, channels);
+        if result.is_err() {
+            self.interval_ms = 600_000;
+            self.samples = 600;
+            self.max_step_ms = 1_500;
+            self.sentinels = Sentinels::NONE;
+            self.fingerprint = 0;
+            self.frame = 0;
+            for ch in self.channels.iter_mut() {
+                *ch = Channel::placeholder();
+            }
+        }
+        result
+    }
+}
+
 /// The accumulated state of one interval (or one piece of it).
 #[derive(Clone, Copy, Debug, PartialEq, Eq, Hash)]
 #[cfg_attr(feature = "defmt", derive(defmt::Format))]

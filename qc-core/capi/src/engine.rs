@@ -46,7 +46,7 @@ impl LayoutHead {
 
 impl<const C: usize> LayoutMem<C> {
     /// The head of an empty layout block (not yet valid: `magic` is 0); its
-    /// layout is [`Layout::PLACEHOLDER`].
+    /// layout is [`Layout::placeholder`].
     pub const EMPTY_HEAD: LayoutHead = LayoutHead {
         magic: 0,
         capacity: 0,
@@ -76,7 +76,7 @@ impl<const C: usize> LayoutMem<C> {
         let used = configs.get(..channels.len()).unwrap_or(&[]);
         let fingerprint = config_fingerprint(&station, used);
         self.layout
-            .rebuild::<G>(station, &configs)
+            .rebuild_at_run_time::<G>(station, &configs)
             .map_err(types::config_error)?;
         self.head = LayoutHead {
             magic: LAYOUT_MAGIC,
@@ -105,14 +105,21 @@ pub(crate) struct Meta {
 /// logger in the caller's memory through this trait, so only the shapes a
 /// program starts are linked into it.
 pub(crate) trait Engine {
-    /// Adds one sample; the frames of an interval it closes go to `out`.
+    /// Adds one sample (its readings checked: one per active channel, each
+    /// of a known kind); the frames of an interval it closes go to `out`,
+    /// what it did to `result` (all zero before). Called only with the
+    /// logger's own type (`Self: Sized`: not in the table of the other
+    /// methods), so that it is inlined into its caller, `push_logger`.
     fn push(
         &mut self,
         meta: &mut Meta,
         t: Timestamp,
         readings: &[tm_reading],
         out: &mut [u8],
-    ) -> Result<tm_push_result, tm_status>;
+        result: &mut tm_push_result,
+    ) -> Result<(), tm_status>
+    where
+        Self: Sized;
     /// Closes the open interval (end of data); its frames go to `out`.
     fn close(&mut self, meta: &mut Meta, out: &mut [u8]) -> tm_push_result;
     /// The running recovery of a channel (record loggers).
@@ -121,22 +128,39 @@ pub(crate) trait Engine {
     fn totals(&self) -> qc_core::PushTotals;
 }
 
-/// The readings of a push as the core's, padded with missing readings, into
-/// `out` (filled in place: returned by value, the array was copied twice
-/// per sample).
-#[inline]
-fn convert<const C: usize>(
+/// The caller's readings as the core's row of `C`, checked: one per active
+/// channel, each of a `TM_READING_...` kind, and room in `out` for a frame
+/// per channel. A station that fills its shape (`n == C`, the usual case)
+/// hands the caller's row to the core as it is ([`crate::core_row`]: no
+/// conversion, no copy): `Ok(Some(row))`. One of fewer channels gets
+/// `Ok(None)`, and its caller a copy from [`padded`].
+#[inline(always)]
+fn row<'a, const C: usize>(
     meta: &Meta,
-    src: &[tm_reading],
-    out: &mut [Reading; C],
-) -> Result<(), tm_status> {
+    src: &'a [tm_reading],
+    out: &[u8],
+) -> Result<Option<&'a [Reading; C]>, tm_status> {
     if src.len() != usize::from(meta.active) {
         return Err(tm_status::TM_ERR_CHANNELS);
     }
+    room(meta, out)?;
+    match <&[tm_reading; C]>::try_from(src) {
+        Ok(full) => crate::core_row(full)
+            .map(Some)
+            .ok_or(tm_status::TM_ERR_READING),
+        Err(_) => Ok(None),
+    }
+}
+
+/// The readings of a station with fewer channels than its shape, the slots
+/// after them missing (out of line: the rare case).
+#[inline(never)]
+fn padded<const C: usize>(src: &[tm_reading]) -> Result<[Reading; C], tm_status> {
+    let mut out = [Reading::Missing; C];
     for (slot, r) in out.iter_mut().zip(src) {
         *slot = types::reading(r).ok_or(tm_status::TM_ERR_READING)?;
     }
-    Ok(())
+    Ok(out)
 }
 
 /// Checks that `out` holds a frame per channel.
@@ -248,23 +272,29 @@ pub(crate) type StateBody<const C: usize, const G: usize> =
     Body<C, Sampler<C, G, &'static Layout<C>>>;
 
 impl<const C: usize, const G: usize> Engine for RecordBody<C, G> {
+    #[inline]
     fn push(
         &mut self,
         meta: &mut Meta,
         t: Timestamp,
         src: &[tm_reading],
         out: &mut [u8],
-    ) -> Result<tm_push_result, tm_status> {
-        let mut readings = [Reading::Missing; C];
-        convert::<C>(meta, src, &mut readings)?;
-        room(meta, out)?;
+        result: &mut tm_push_result,
+    ) -> Result<(), tm_status> {
+        let pad;
+        let readings = match row::<C>(meta, src, out)? {
+            Some(full) => full,
+            None => {
+                pad = padded::<C>(src)?;
+                &pad
+            }
+        };
         let layout = self.layout;
-        let mut result = tm_push_result::default();
         let pushed = self
             .core
-            .push(t, &readings, |e| records(layout, meta, out, &mut result, e));
+            .push(t, readings, |e| records(layout, meta, out, result, e));
         result.outcome = types::outcome(pushed);
-        Ok(result)
+        Ok(())
     }
 
     fn close(&mut self, meta: &mut Meta, out: &mut [u8]) -> tm_push_result {
@@ -291,22 +321,28 @@ impl<const C: usize, const G: usize> Engine for RecordBody<C, G> {
 }
 
 impl<const C: usize, const G: usize> Engine for StateBody<C, G> {
+    #[inline]
     fn push(
         &mut self,
         meta: &mut Meta,
         t: Timestamp,
         src: &[tm_reading],
         out: &mut [u8],
-    ) -> Result<tm_push_result, tm_status> {
-        let mut readings = [Reading::Missing; C];
-        convert::<C>(meta, src, &mut readings)?;
-        room(meta, out)?;
-        let mut result = tm_push_result::default();
+        result: &mut tm_push_result,
+    ) -> Result<(), tm_status> {
+        let pad;
+        let readings = match row::<C>(meta, src, out)? {
+            Some(full) => full,
+            None => {
+                pad = padded::<C>(src)?;
+                &pad
+            }
+        };
         let pushed = self
             .core
-            .push(t, &readings, |e| states(meta, out, &mut result, e));
+            .push(t, readings, |e| states(meta, out, result, e));
         result.outcome = types::outcome(pushed);
-        Ok(result)
+        Ok(())
     }
 
     fn close(&mut self, meta: &mut Meta, out: &mut [u8]) -> tm_push_result {

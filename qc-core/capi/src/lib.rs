@@ -54,11 +54,11 @@ mod status;
 mod types;
 
 use core::ffi::{c_char, c_void};
-use core::mem::{align_of, size_of};
+use core::mem::{align_of, size_of, MaybeUninit};
 use core::ptr::{self, addr_of_mut};
 
 use qc_core::wire::{self, FRAME_LEN};
-use qc_core::{ChannelConfig, Kind, Layout, Sampler, Station, StationConfig, Timestamp};
+use qc_core::{ChannelConfig, Kind, Layout, Reading, Sampler, Station, StationConfig, Timestamp};
 
 use engine::{Body, Engine, LayoutHead, LayoutMem, Meta, RecordBody, StateBody, LOGGER_MAGIC};
 pub use status::tm_status;
@@ -95,13 +95,28 @@ pub struct tm_frame_info {
 }
 
 /// The start of a logger block, the same for every shape: the mark of a
-/// started logger, the frame metadata, and the logger's code for its shape.
+/// started logger, the frame metadata, and the logger's code for its shape
+/// and kind: its push (the per-sample path, one function with the logger's
+/// own code inlined: [`push_logger`]) and the rest ([`Engine`]).
 #[repr(C)]
 struct Head {
     magic: u32,
     meta: Meta,
+    push: PushFn,
     engine: *mut dyn Engine,
 }
+
+/// [`push_logger`] of one shape and kind: `tm_logger_push`'s arguments,
+/// the readings second (so that four of them travel in registers).
+type PushFn = unsafe fn(
+    *mut c_void,
+    *const tm_reading,
+    i64,
+    usize,
+    *mut u8,
+    usize,
+    *mut tm_push_result,
+) -> tm_status;
 
 /// A logger block: the head, then the logger.
 #[repr(C)]
@@ -140,6 +155,54 @@ fn status(r: Result<(), tm_status>) -> tm_status {
         Ok(()) => tm_status::TM_OK,
         Err(s) => s,
     }
+}
+
+// `tm_reading` has the layout of `qc_core::Reading` (`#[repr(u8)]`: the tag
+// byte first, the counts at byte 4, the value at byte 8), and the kinds
+// `TM_READING_...` are its first four variants in order.
+const _: () = assert!(
+    size_of::<tm_reading>() == size_of::<Reading>()
+        && align_of::<tm_reading>() == align_of::<Reading>()
+        && core::mem::offset_of!(tm_reading, kind) == 0
+        && core::mem::offset_of!(tm_reading, counts) == 4
+        && core::mem::offset_of!(tm_reading, value) == 8
+        && TM_READING_VALUE == 0
+        && TM_READING_COUNTS == 1
+        && TM_READING_MISSING == 2
+        && TM_READING_FLAGGED == 3
+);
+
+/// The caller's row of readings as the core's, without converting or
+/// copying it; `None` if a kind is not a `TM_READING_...` code.
+#[inline(always)]
+pub(crate) fn core_row<const C: usize>(row: &[tm_reading; C]) -> Option<&[Reading; C]> {
+    // The codes are 0 to 3: all are iff no bit above the lowest two is set
+    // in any. Eight at a time (a loop of one costs a Cortex-M0 5
+    // instructions a channel, this 2).
+    let mut eights = row.chunks_exact(8);
+    let mut kinds = 0u8;
+    for e in &mut eights {
+        if let [a, b, c, d, e, f, g, h] = e {
+            kinds |= a.kind | b.kind | c.kind | d.kind | e.kind | f.kind | g.kind | h.kind;
+        }
+    }
+    for r in eights.remainder() {
+        kinds |= r.kind;
+    }
+    if kinds > TM_READING_FLAGGED {
+        return None;
+    }
+    let p: *const [tm_reading; C] = row;
+    // SAFETY: `tm_reading` and `Reading` have the same size and alignment
+    // (checked above), and every `tm_reading` of the row is a valid
+    // `Reading` of the variant its kind names: the tag byte is a valid
+    // discriminant (0 to 3, checked), and the field that variant carries
+    // lies at the same offset (`Reading` is `#[repr(u8)]`, whose layout is
+    // a union of `#[repr(C)]` structs each starting with the tag: `Counts`'
+    // `i32` at byte 4, `Value`'s `f64` at byte 8, as in `tm_reading`); the
+    // other bytes are padding to a `Reading`. The borrow keeps the row
+    // unchanged while the result lives.
+    Some(unsafe { &*p.cast::<[Reading; C]>() })
 }
 
 /// A slice of `n` values at `p` (NULL allowed when `n` is 0).
@@ -223,15 +286,15 @@ unsafe fn layout_build<const C: usize, const G: usize>(
         // SAFETY: the caller promises `n` valid settings at `channels`.
         let channels = unsafe { slice(channels, n) }?;
         // SAFETY: `p` is non-null, aligned and `len` covers a LayoutMem<C>;
-        // the caller gives this block to the library alone. The block is
-        // written whole (head, then layout) before a reference to it is
-        // made. Two writes, not one of a whole `LayoutMem::EMPTY`: the
-        // layout's placeholder is then the same constant the core writes
-        // back on a refused station, kept once in flash (2.4 KiB for 8
-        // channels) instead of twice.
+        // the caller gives this block to the library alone. A `MaybeUninit`
+        // needs no valid contents; the block is then written whole (head,
+        // then layout) before a reference to a `LayoutMem` is made. The
+        // layout is written from `Layout::placeholder`, made a channel at a
+        // time, not from the whole-layout constant `Layout::PLACEHOLDER`
+        // (2.7 KiB of flash for 8 channels).
         let layout = unsafe {
             addr_of_mut!((*p).head).write(LayoutMem::<C>::EMPTY_HEAD);
-            addr_of_mut!((*p).layout).write(Layout::PLACEHOLDER);
+            placeholder(&mut *addr_of_mut!((*p).layout).cast::<MaybeUninit<Layout<C>>>());
             &mut *p
         };
         layout.build::<G>(station, channels).map_err(|(s, ch)| {
@@ -244,6 +307,15 @@ unsafe fn layout_build<const C: usize, const G: usize>(
         unsafe { error_channel.write(bad) };
     }
     status(r)
+}
+
+/// Writes [`Layout::placeholder`] into `slot`. Not inlined: the compiler
+/// builds the layout in a temporary on the stack (2.7 KiB for 8 channels)
+/// and copies it, and out of line that temporary is gone before the
+/// validation, whose stack frame is larger, starts.
+#[inline(never)]
+fn placeholder<const C: usize>(slot: &mut MaybeUninit<Layout<C>>) {
+    slot.write(Layout::placeholder());
 }
 
 /// Starts a logger of shape `C`, `G` running `core` in the caller's block.
@@ -304,6 +376,7 @@ fn put_logger<B: Engine + 'static>(p: *mut LoggerMem<B>, meta: Meta, body: B) {
             head: Head {
                 magic: 0,
                 meta,
+                push: push_logger::<B>,
                 engine: dangling,
             },
             body,
@@ -445,19 +518,67 @@ pub unsafe extern "C" fn tm_logger_push(
     frames_len: usize,
     out: *mut tm_push_result,
 ) -> tm_status {
+    let push = match block::<Head>(logger, size_of::<Head>()) {
+        // SAFETY: non-null and aligned; the caller promises a logger block,
+        // whose head is readable (a block never started fails the mark
+        // check). The reference ends here, before the push borrows the block.
+        Ok(head) => match unsafe { &*head } {
+            h if h.magic == LOGGER_MAGIC => h.push,
+            _ => return tm_status::TM_ERR_NOT_READY,
+        },
+        Err(s) => return s,
+    };
+    // SAFETY: a marked block was written by `put_logger`, which set `push`
+    // to the push of the logger it wrote; the arguments are the caller's
+    // (see the function's Safety).
+    unsafe { push(logger, readings, time_ms, n, frames, frames_len, out) }
+}
+
+/// `tm_logger_push` of a started logger of body `B`: one function per shape
+/// and kind, the logger's push inlined into it (no second call, no result
+/// copied between calls: the per-sample cost counts on a Cortex-M0).
+///
+/// # Safety
+///
+/// `logger` must be a block `put_logger::<B>` wrote (marked); the other
+/// arguments as `tm_logger_push` says.
+unsafe fn push_logger<B: Engine>(
+    logger: *mut c_void,
+    readings: *const tm_reading,
+    time_ms: i64,
+    n: usize,
+    frames: *mut u8,
+    frames_len: usize,
+    out: *mut tm_push_result,
+) -> tm_status {
+    if let Err(s) = one(out.cast_const()) {
+        return s;
+    }
+    // SAFETY: the block holds a LoggerMem<B> (the caller's promise, from
+    // `put_logger::<B>`, whose caller checked its size and alignment), used
+    // by no one else during the call.
+    let LoggerMem { head, body } = unsafe { &mut *logger.cast::<LoggerMem<B>>() };
+    let mut result = tm_push_result::default();
     let r = (|| {
-        one(out.cast_const())?;
-        // SAFETY: passed on from the caller (see the function's Safety).
-        let (meta, engine) = unsafe { logger_of(logger) }?;
         // SAFETY: the caller promises `n` readings at `readings`.
         let readings = unsafe { slice(readings, n) }?;
         // SAFETY: the caller promises `frames_len` writable bytes at `frames`.
         let frames = unsafe { slice_mut(frames, frames_len) }?;
-        engine.push(meta, Timestamp::from_millis(time_ms), readings, frames)
+        body.push(
+            &mut head.meta,
+            Timestamp::from_millis(time_ms),
+            readings,
+            frames,
+            &mut result,
+        )
     })();
     match r {
-        // SAFETY: `out` checked above; the caller promises it is writable.
-        Ok(result) => unsafe { put(out, result) },
+        Ok(()) => {
+            // SAFETY: `out` checked non-null and aligned above; the caller
+            // promises it is writable.
+            unsafe { out.write(result) };
+            tm_status::TM_OK
+        }
         Err(s) => s,
     }
 }
@@ -671,13 +792,25 @@ fn panic(_: &core::panic::PanicInfo<'_>) -> ! {
 
 // ---------------------------------------------------------------------------
 // Shapes (see the crate docs): sizes, layout build and logger start of each.
+//
+// Written out per shape, not generated by a `macro_rules!`: cbindgen reads
+// this file's source as written and declares only the items it sees; it
+// expands macros only through `rustc -Zunpretty=expanded` (its
+// `parse.expand`), which needs a nightly compiler (or `RUSTC_BOOTSTRAP`,
+// which the cbindgen maintainers advise against), and the header's
+// freshness test runs on the stable toolchain of the gates. What a shape
+// does is in one place already (`layout_build`, `logger_start`, the
+// generic `Body`); each block below is its sizes, three one-line wrappers
+// and their documentation, and the `const` assertions check every size
+// against the state it must hold.
 
 /// Every block size below leaves at least this many bytes unused on every
 /// target (rounded up to 128), so that the library's state can grow a little
 /// in a later version without changing the sizes a C program was built with.
-/// On 32-bit targets the `c8g3` blocks use 2,400 B (layout), 2,048 B (record
-/// logger: the core's 2,016 and 32 of this interface) and 1,056 B (state
-/// logger: 1,024 and 32).
+/// On 32-bit targets the `c8g3` blocks use 2,728 B (layout), 2,064 B (record
+/// logger: the core's `Station` 2,024 and 40 of this interface: its head
+/// with the push of the logger's shape, and the layout pointer) and 1,072 B
+/// (state logger: `Sampler` 1,032 and 40).
 const HEADROOM: usize = 64;
 
 /// Bytes of a layout block of shape `c4g3` (4 channels, gust windows up to
@@ -1034,4 +1167,71 @@ pub unsafe extern "C" fn tm_state_logger_start_c16g12(
 ) -> tm_status {
     // SAFETY: passed on from the caller (see the function's Safety).
     unsafe { logger_start::<16, 12, _>(mem, len, layout, Sampler::<16, 12, _>::new) }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use qc_core::ConfigError;
+
+    #[test]
+    fn a_c_row_is_the_cores_row() {
+        let r = |kind, counts, value| tm_reading {
+            kind,
+            counts,
+            value,
+        };
+        let row = [
+            r(TM_READING_VALUE, 99, 1.5),
+            r(TM_READING_COUNTS, -7, 2.5),
+            r(TM_READING_MISSING, 3, 4.0),
+            r(TM_READING_FLAGGED, 5, f64::NAN),
+            r(TM_READING_VALUE, 0, -0.0),
+            r(TM_READING_COUNTS, i32::MIN, 0.0),
+        ];
+        let want = [
+            Reading::Value(1.5),
+            Reading::Counts(-7),
+            Reading::Missing,
+            Reading::Flagged,
+            Reading::Value(-0.0),
+            Reading::Counts(i32::MIN),
+        ];
+        let got = core_row(&row).unwrap();
+        assert_eq!(got, &want);
+        // The same as the field-by-field conversion of the padded path.
+        for (c, g) in row.iter().zip(got) {
+            assert_eq!(types::reading(c).as_ref(), Some(g));
+        }
+        assert!(matches!(got[0], Reading::Value(v) if v.to_bits() == 1.5f64.to_bits()));
+        for bad in [4u8, 8, 255] {
+            let mut row = row;
+            row[3].kind = bad;
+            assert_eq!(core_row(&row), None, "kind {bad}");
+        }
+    }
+
+    #[test]
+    fn the_run_time_placeholder_is_the_constant() {
+        assert_eq!(Layout::<8>::placeholder(), Layout::<8>::PLACEHOLDER);
+        let mut slot = MaybeUninit::<Layout<3>>::uninit();
+        placeholder(&mut slot);
+        // SAFETY: `placeholder` wrote a whole layout.
+        let layout = unsafe { slot.assume_init_mut() };
+        assert_eq!(*layout, Layout::<3>::PLACEHOLDER);
+        // A refused station leaves the placeholder again, a good one its layout.
+        let ok = [ChannelConfig::speed(0.01); 3];
+        let st = StationConfig::ten_minute_1hz();
+        layout.rebuild_at_run_time::<3>(st, &ok).unwrap();
+        assert_eq!(*layout, Layout::new::<3>(st, &ok).unwrap());
+        let bad = StationConfig {
+            interval_s: 7,
+            ..st
+        };
+        assert_eq!(
+            layout.rebuild_at_run_time::<3>(bad, &ok),
+            Err(ConfigError::Interval)
+        );
+        assert_eq!(*layout, Layout::<3>::PLACEHOLDER);
+    }
 }

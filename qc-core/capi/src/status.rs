@@ -71,6 +71,17 @@ pub enum tm_status {
 }
 
 /// The message of a status code (a static NUL-terminated string).
+///
+/// Not generated from one table with the variants' documentation: the
+/// header's comments are the variants' doc comments as cbindgen reads them
+/// in the source, and a table or macro producing both would have to be
+/// expanded first, which cbindgen does only with a nightly compiler
+/// (`parse.expand`); the messages of refused channels must besides be the
+/// core's own `Display` texts (`messages_are_the_cores`), which the header
+/// cannot quote. So the two are written side by side, the doc comment saying
+/// when a code is returned and the message what to fix, and the test
+/// `every_status_has_its_own_message` checks that every code has a message
+/// of its own.
 pub(crate) fn message(code: i32) -> &'static CStr {
     use tm_status::*;
     const ALL: [tm_status; 27] = [
@@ -174,5 +185,20 @@ mod tests {
             assert_eq!(message(status as i32).to_str().unwrap(), e.to_string());
         }
         assert_eq!(message(-5).to_str().unwrap(), "unknown status code");
+    }
+
+    #[test]
+    fn every_status_has_its_own_message() {
+        // Every code from 0 to 255 that is a status has a message other than
+        // the fallback, and no two share one.
+        let mut seen = std::vec::Vec::new();
+        for code in 0..256 {
+            let m = message(code).to_str().unwrap();
+            if m != "unknown status code" {
+                assert!(!seen.contains(&m), "{code}: {m}");
+                seen.push(m);
+            }
+        }
+        assert_eq!(seen.len(), 27);
     }
 }

@@ -40,8 +40,10 @@ pub struct tm_reading {
     pub value: f64,
 }
 
-/// A C reading as the core's, or `None` for an unknown kind.
-#[inline]
+/// A C reading as the core's, or `None` for an unknown kind: the meaning of
+/// the kinds, field by field. A row that fills its shape is not converted
+/// (`core_row` reads it as the core's, in place; the tests check that both
+/// agree), a shorter one is, into a padded row.
 pub(crate) fn reading(r: &tm_reading) -> Option<Reading> {
     match r.kind {
         TM_READING_VALUE => Some(Reading::Value(r.value)),
