@@ -13,7 +13,8 @@ use crate::error::ChannelProblem;
 use crate::flags::Flags;
 use crate::gust::Gust;
 use crate::moments::{mul_i32, variance, Moments};
-use crate::screen::{Screen, Spikes};
+use crate::sentinel::Sentinels;
+use crate::spike::Spikes;
 
 /// What a channel measures.
 #[derive(Clone, Copy, Debug, PartialEq, Eq, Hash)]
@@ -25,6 +26,127 @@ pub enum Kind {
     Direction,
     /// Any other quantity (temperature, humidity, pressure, voltage): mean, sd, min, max.
     Scalar,
+}
+
+/// Icing test settings of a speed or direction channel.
+#[derive(Clone, Copy, Debug, PartialEq)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+pub struct Icing {
+    /// Index of the air temperature channel (deg C).
+    pub temperature: u8,
+    /// Index of the relative humidity channel (%).
+    pub humidity: u8,
+    /// Icing is suspected at or below this interval mean temperature, deg C.
+    /// Default 2.0 (common practice; not from a found source).
+    pub max_temperature: f64,
+    /// ... and at or above this interval mean relative humidity, %.
+    /// Default 85.0 (common practice; not from a found source).
+    pub min_humidity: f64,
+}
+
+impl Icing {
+    /// Icing watched with the given temperature and humidity channels, at the
+    /// default 2 deg C and 85 % RH (common practice).
+    pub const fn new(temperature: u8, humidity: u8) -> Self {
+        Icing {
+            temperature,
+            humidity,
+            max_temperature: 2.0,
+            min_humidity: 85.0,
+        }
+    }
+}
+
+/// Screening settings of one channel. `None` switches a test off.
+///
+/// Defaults by kind (see [`Screen::for_kind`]) come from published screening
+/// criteria where one exists, and are marked common practice where not.
+#[derive(Clone, Copy, Debug, PartialEq)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+pub struct Screen {
+    /// Largest plausible change between consecutive valid samples (engineering
+    /// units; degrees for direction, along the shorter arc).
+    pub step_limit: Option<f64>,
+    /// Plausible interval mean, inclusive (not used for direction).
+    pub mean_range: Option<(f64, f64)>,
+    /// Plausible interval standard deviation (sigma-theta for direction), inclusive.
+    pub sd_range: Option<(f64, f64)>,
+    /// Gusts at or above this are implausible (speed).
+    pub gust_max: Option<f64>,
+    /// Smallest acceptable valid / possible in an interval, 0 to 1.
+    pub min_recovery: Option<f64>,
+    /// Flat-line span, seconds: flagged when the channel stays within
+    /// `flat_tolerance` at least this long.
+    pub flat_span_s: Option<u32>,
+    /// Flat-line tolerance: largest total variation still counted as flat
+    /// (engineering units; degrees for direction).
+    pub flat_tolerance: f64,
+    /// Index of the redundant anemometer at the same height (speed).
+    pub partner: Option<u8>,
+    /// Largest acceptable difference of the partners' interval means.
+    pub pair_mean_diff: f64,
+    /// Largest acceptable difference of the partners' interval maxima.
+    pub pair_max_diff: f64,
+    /// Index of the next higher anemometer (speed), for the shear test.
+    pub above: Option<u8>,
+    /// How much faster than the higher anemometer this one may read on average.
+    pub shear_tolerance: f64,
+    /// Icing test (speed with a partner, or direction).
+    pub icing: Option<Icing>,
+}
+
+impl Screen {
+    /// Every test off.
+    pub const OFF: Screen = Screen {
+        step_limit: None,
+        mean_range: None,
+        sd_range: None,
+        gust_max: None,
+        min_recovery: None,
+        flat_span_s: None,
+        flat_tolerance: 0.0,
+        partner: None,
+        pair_mean_diff: 0.5,
+        pair_max_diff: 2.0,
+        above: None,
+        shear_tolerance: 0.5,
+        icing: None,
+    };
+
+    /// Defaults for a kind of channel:
+    ///
+    /// - all kinds: `min_recovery` 0.9 per interval (the 90 % recovery target of
+    ///   EPA-454/R-99-005 sec. 5.3.2, there per quarter; per interval is common practice).
+    /// - speed: mean 0 to 25 m/s, sd 0 to 3 m/s, gust below 30 m/s (NREL/SR-440-22223
+    ///   tables 9.1-9.3, range tests); flat-line when varying <= 0.1 m/s over 3 hours
+    ///   (EPA-454/R-99-005 sec. 8); step limit 10 m/s between samples (common practice);
+    ///   partner limits 0.5 m/s mean and 2.0 m/s maximum difference (NREL relational
+    ///   tests); shear tolerance 0.5 m/s (common practice).
+    /// - direction: sigma-theta 3 to 75 degrees (NREL tables 9.1-9.3); flat-line when
+    ///   varying <= 1 degree over 3 hours (EPA sec. 8).
+    /// - scalar: recovery only; ranges depend on the quantity. EPA sec. 8 suggests for
+    ///   temperature a flat-line at <= 0.5 C over 12 hours: set it per channel.
+    pub const fn for_kind(kind: Kind) -> Screen {
+        let mut s = Screen::OFF;
+        s.min_recovery = Some(0.9);
+        match kind {
+            Kind::Speed => {
+                s.step_limit = Some(10.0);
+                s.mean_range = Some((0.0, 25.0));
+                s.sd_range = Some((0.0, 3.0));
+                s.gust_max = Some(30.0);
+                s.flat_span_s = Some(3 * 3600);
+                s.flat_tolerance = 0.1;
+            }
+            Kind::Direction => {
+                s.sd_range = Some((3.0, 75.0));
+                s.flat_span_s = Some(3 * 3600);
+                s.flat_tolerance = 1.0;
+            }
+            Kind::Scalar => {}
+        }
+        s
+    }
 }
 
 /// One sample of one channel, as the logger or file gives it.
@@ -543,7 +665,7 @@ impl Channel {
 
     /// Turns a reading into an integer, or says why it is not valid.
     /// `sentinels` are the station's missing-value codes.
-    pub(crate) fn classify(&self, r: Reading, sentinels: &crate::Sentinels) -> Class {
+    pub(crate) fn classify(&self, r: Reading, sentinels: &Sentinels) -> Class {
         match self.cfg.kind {
             Kind::Direction => self.classify_direction(r, sentinels),
             _ => self.classify_linear(r, sentinels),
@@ -553,7 +675,7 @@ impl Channel {
     /// [`Channel::classify`] for a speed or scalar channel: raw counts in range
     /// inline, the rest out of line.
     #[inline(always)]
-    fn classify_linear(&self, r: Reading, sentinels: &crate::Sentinels) -> Class {
+    fn classify_linear(&self, r: Reading, sentinels: &Sentinels) -> Class {
         match r {
             Reading::Counts(k) if k >= self.lo_k && k <= self.hi_k => {
                 if self.code_in_counts && sentinels.matches_counts(k) {
@@ -570,7 +692,7 @@ impl Channel {
     /// [`Channel::classify`] for a direction channel: ADC counts in range on the
     /// 32-bit path inline, the rest out of line.
     #[inline(always)]
-    fn classify_direction(&self, r: Reading, sentinels: &crate::Sentinels) -> Class {
+    fn classify_direction(&self, r: Reading, sentinels: &Sentinels) -> Class {
         match r {
             // In range, on the 32-bit path, no missing-value code in range.
             Reading::Counts(k) if k >= self.dir_inline_lo && k <= self.dir_fast_k => {
@@ -587,7 +709,7 @@ impl Channel {
     /// point on a core without an FPU, readings out of range, missing-value
     /// codes).
     #[inline(never)]
-    fn classify_slow(&self, r: Reading, sentinels: &crate::Sentinels) -> Class {
+    fn classify_slow(&self, r: Reading, sentinels: &Sentinels) -> Class {
         match r {
             Reading::Missing => Class::Missing,
             Reading::Flagged => Class::Flagged,
@@ -678,7 +800,7 @@ impl Channel {
 
     /// Records whether any of the station's missing-value codes lies in this
     /// channel's valid range (set by [`crate::Layout::new`]).
-    pub(crate) const fn note_codes(&mut self, sentinels: &crate::Sentinels) {
+    pub(crate) const fn note_codes(&mut self, sentinels: &Sentinels) {
         let (lo, hi) = self.cfg.range;
         let counts = sentinels.counts();
         let values = sentinels.values();
@@ -721,7 +843,7 @@ impl Channel {
             c
         } else {
             // Rare (raw counts far outside a turn): no 64-bit division helper.
-            (cd - crate::station::div_floor(cd, 36_000) * 36_000) as i32
+            (cd - cmath::div_floor(cd, 36_000) * 36_000) as i32
         }
     }
 }
@@ -1124,7 +1246,7 @@ impl<const G: usize> Slot<G> {
         &mut self,
         ch: &Channel,
         r: &Reading,
-        codes: &crate::Sentinels,
+        codes: &Sentinels,
         speed: impl FnOnce() -> Option<Class>,
     ) {
         match self.acc {
@@ -1154,12 +1276,7 @@ impl<const G: usize> Slot<G> {
 
 /// One reading of a speed channel (see [`Slot::push_reading`]).
 #[inline(never)]
-fn push_speed<const G: usize>(
-    slot: &mut Slot<G>,
-    ch: &Channel,
-    r: &Reading,
-    codes: &crate::Sentinels,
-) {
+fn push_speed<const G: usize>(slot: &mut Slot<G>, ch: &Channel, r: &Reading, codes: &Sentinels) {
     let Slot {
         acc: ChannelAcc::Speed(a),
         spikes,
@@ -1198,12 +1315,7 @@ fn speed_step<const G: usize>(
 
 /// One reading of a scalar channel.
 #[inline(never)]
-fn push_scalar<const G: usize>(
-    slot: &mut Slot<G>,
-    ch: &Channel,
-    r: &Reading,
-    codes: &crate::Sentinels,
-) {
+fn push_scalar<const G: usize>(slot: &mut Slot<G>, ch: &Channel, r: &Reading, codes: &Sentinels) {
     let Slot {
         acc: ChannelAcc::Scalar(a),
         spikes,
@@ -1238,7 +1350,7 @@ fn push_direction<const G: usize>(
     slot: &mut Slot<G>,
     ch: &Channel,
     r: &Reading,
-    codes: &crate::Sentinels,
+    codes: &Sentinels,
 ) -> Option<(i32, i32)> {
     let (tally, sums) = match &mut slot.acc {
         ChannelAcc::Direction(a) => (&mut a.counts, &mut a.sums),
@@ -1286,7 +1398,7 @@ impl<const G: usize> Slot<G> {
         &mut self,
         ch: &Channel,
         rs: &[Reading],
-        codes: &crate::Sentinels,
+        codes: &Sentinels,
         speed: Option<(&Channel, &[Reading])>,
     ) {
         let spikes = &mut self.spikes;

@@ -64,6 +64,34 @@ pub(crate) const fn round(x: f64) -> f64 {
     }
 }
 
+/// `n.div_euclid(d)` for `d > 0`, by shifts and subtractions: a Cortex-M0 has
+/// no divide instruction, and a logger that only samples ([`Sampler`]) then
+/// links no 64-bit division routine (900 bytes). Called once per interval;
+/// one step per significant bit of `n`.
+pub(crate) const fn div_floor(n: i64, d: i64) -> i64 {
+    // For n < 0: floor(n / d) = -(floor((-n - 1) / d) + 1) = !floor(!n / d).
+    let neg = n < 0;
+    let m = if neg { !n as u64 } else { n as u64 };
+    let d = d as u64;
+    let mut q = 0u64;
+    let mut r = 0u64;
+    let mut i = 64 - m.leading_zeros();
+    while i > 0 {
+        i -= 1;
+        r = (r << 1) | ((m >> i) & 1);
+        q <<= 1;
+        if r >= d {
+            r -= d;
+            q |= 1;
+        }
+    }
+    if neg {
+        !(q as i64)
+    } else {
+        q as i64
+    }
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;
@@ -113,6 +141,27 @@ mod tests {
             assert!(same(floor(v), libm::floor(v)), "floor {v:e}");
             assert!(same(ceil(v), libm::ceil(v)), "ceil {v:e}");
             assert!(same(round(v), libm::round(v)), "round {v:e}");
+        }
+    }
+
+    #[test]
+    fn div_floor_is_div_euclid() {
+        let mut rng = crate::test_rng::Rng(7);
+        let ds = [1i64, 2, 3, 1000, 60_000, 600_000, 86_400_000];
+        for i in 0..200_000u64 {
+            let n = match i % 4 {
+                0 => rng.next() as i64,
+                1 => rng.wide() as i64,
+                2 => -(rng.wide() as i64),
+                _ => (rng.next() % 2_000_001) as i64 - 1_000_000,
+            };
+            let d = ds[(i % ds.len() as u64) as usize];
+            assert_eq!(div_floor(n, d), n.div_euclid(d), "{n} / {d}");
+        }
+        for n in [i64::MIN, i64::MIN + 1, -1, 0, 1, i64::MAX] {
+            for d in ds {
+                assert_eq!(div_floor(n, d), n.div_euclid(d), "{n} / {d}");
+            }
         }
     }
 }

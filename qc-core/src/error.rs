@@ -85,12 +85,12 @@ impl fmt::Display for ConfigError {
             ConfigError::SampleCount => write!(
                 f,
                 "samples per interval must be 1 to {}, and at most one per millisecond",
-                crate::MAX_SAMPLES_PER_INTERVAL
+                crate::limits::MAX_SAMPLES_PER_INTERVAL
             ),
             ConfigError::Sentinels => write!(
                 f,
                 "at most {} missing-value codes, none NaN",
-                crate::MAX_SENTINELS
+                crate::limits::MAX_SENTINELS
             ),
             ConfigError::Channel { index, problem } => write!(f, "channel {index}: {problem}"),
             ConfigError::TooManyChannels => f.write_str("at most 255 channels"),

@@ -122,6 +122,38 @@
 //! gives the station a reference to it: the station's RAM is then its running
 //! state alone.
 //!
+//! # Layers
+//!
+//! The modules form layers that read bottom-up: each imports only from the
+//! layers below it and from the modules to its left in its own row, never
+//! from above, so there are no import circles. The crate root re-exports
+//! the public items; the old paths (`qc_core::screen::Screen`,
+//! `qc_core::wire::Crc32`, ...) stay. `qc-core/tests/layers.rs` checks the
+//! imports against this table, and this diagram against the test's table.
+//!
+//! ```text
+//! wire, analysis  wire::frame  wire::record  wire::state  wire::scan  wire::sample  wire  analysis  conventions
+//! station         station
+//! screen          screen  recovery
+//! channel         channel
+//! primitives      limits  error  flags  time  cmath  moments  angle  direction  gust  spike  crc  sentinel
+//! ```
+//!
+//! - primitives: fixed limits, errors, flags, time, exact integer and
+//!   rounding arithmetic ([`moments`], [`angle`], [`direction`] sums, [`gust`]
+//!   windows), the spike chain ([`screen::Spikes`]), CRC-32 ([`wire::Crc32`]),
+//!   missing-value codes ([`Sentinels`]);
+//! - channel: a channel's configuration and screening settings
+//!   ([`ChannelConfig`], [`Screen`]), classifying a reading, its accumulators
+//!   and finished [`ChannelRecord`];
+//! - screen: the per-interval and cross-interval tests ([`Screener`]), and
+//!   running [`Recovery`];
+//! - station: [`Layout`], [`IntervalAcc`], [`Sampler`], [`Finisher`],
+//!   [`Station`];
+//! - wire and analysis: the byte formats ([`wire`]: the frame both frame kinds
+//!   share, record frames, state frames, the log scanner, sample files), and
+//!   what reports build on ([`analysis`], [`conventions`]).
+//!
 //! # Panics
 //!
 //! None reachable from input: configurations are validated once by
@@ -139,13 +171,17 @@ pub mod angle;
 mod channel;
 mod cmath;
 pub mod conventions;
+mod crc;
 pub mod direction;
 mod error;
 mod flags;
 pub mod gust;
+mod limits;
 pub mod moments;
 mod recovery;
 pub mod screen;
+mod sentinel;
+mod spike;
 mod station;
 #[cfg(test)]
 mod test_rng;
@@ -158,12 +194,13 @@ pub use channel::{
 };
 pub use error::{ChannelProblem, ConfigError, TallyError};
 pub use flags::{Flag, Flags};
+pub use limits::{MAX_SAMPLES_PER_INTERVAL, MAX_SENTINELS};
 pub use recovery::{Recovery, Totals};
 pub use screen::{Icing, Screen, Screener};
+pub use sentinel::Sentinels;
 pub use station::{
     config_fingerprint, Ended, Event, Finisher, Gap, IntervalAcc, Layout, OtherFrame, PushTotals,
-    Pushed, Reject, Sampler, Sentinels, StateError, Station, StationConfig,
-    MAX_SAMPLES_PER_INTERVAL, MAX_SENTINELS,
+    Pushed, Reject, Sampler, StateError, Station, StationConfig,
 };
 pub use time::{Civil, Month, Timestamp};
 

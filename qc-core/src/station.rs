@@ -28,24 +28,19 @@
 use crate::channel::{
     Channel, ChannelAcc, ChannelConfig, ChannelRecord, ChannelState, Kind, Reading, Slot, Tally,
 };
-use crate::cmath;
+use crate::cmath::div_floor;
+use crate::crc::Crc32;
 use crate::error::{ChannelProblem, ConfigError, TallyError};
 use crate::flags::Flags;
+use crate::limits::{MAX_SAMPLES_PER_INTERVAL, MAX_SENTINELS};
 use crate::recovery::Recovery;
 use crate::screen::{interval_flags, passes, Screener};
+use crate::sentinel::Sentinels;
 use crate::time::{Month, Timestamp};
-use crate::wire::Crc32;
 use core::borrow::Borrow;
 
 /// "No time yet" in a millisecond field: below every supported timestamp.
 const NONE_MS: i64 = i64::MIN;
-
-/// Most missing-value codes a station may have.
-pub const MAX_SENTINELS: usize = 4;
-
-/// Most samples per interval (2^24: 10-minute intervals at up to 27 kHz; and
-/// never more than one per millisecond of the interval).
-pub const MAX_SAMPLES_PER_INTERVAL: u32 = 1 << 24;
 
 /// Station-wide settings.
 #[derive(Clone, Copy, Debug, PartialEq)]
@@ -112,98 +107,6 @@ const fn check_tally(
         });
     }
     Ok(())
-}
-
-/// The station's missing-value codes, as values and as counts.
-#[derive(Clone, Copy, Debug, PartialEq)]
-#[cfg_attr(feature = "defmt", derive(defmt::Format))]
-pub struct Sentinels {
-    values: [f64; MAX_SENTINELS],
-    counts: [i32; MAX_SENTINELS],
-    n_values: u8,
-    n_counts: u8,
-}
-
-impl Sentinels {
-    /// No codes.
-    const NONE: Sentinels = Sentinels {
-        values: [0.0; MAX_SENTINELS],
-        counts: [0; MAX_SENTINELS],
-        n_values: 0,
-        n_counts: 0,
-    };
-
-    pub(crate) const fn new(codes: &[Option<f64>; MAX_SENTINELS]) -> Result<Self, ConfigError> {
-        let mut s = Sentinels::NONE;
-        let mut i = 0;
-        while i < MAX_SENTINELS {
-            if let Some(v) = codes[i] {
-                if v.is_nan() {
-                    return Err(ConfigError::Sentinels);
-                }
-                // The counters are at most `i` (< MAX_SENTINELS); the checks
-                // say so to the compiler, so no panic path is left (run at
-                // run time by `Layout::rebuild`, under the C interface's
-                // link-time no-panic proof).
-                if (s.n_values as usize) < MAX_SENTINELS {
-                    s.values[s.n_values as usize] = v;
-                    s.n_values += 1;
-                }
-                if cmath::trunc(v) == v
-                    && v >= i32::MIN as f64
-                    && v <= i32::MAX as f64
-                    && (s.n_counts as usize) < MAX_SENTINELS
-                {
-                    s.counts[s.n_counts as usize] = v as i32;
-                    s.n_counts += 1;
-                }
-            }
-            i += 1;
-        }
-        Ok(s)
-    }
-
-    /// Whether `v` is a missing-value code.
-    // Out of line: only engineering values reach it (already the slow path,
-    // in soft floating point), and inlined it costs the raw-count path of
-    // `Channel::classify_slow` registers (4 instructions per 8 vanes).
-    #[inline(never)]
-    pub fn matches_value(&self, v: f64) -> bool {
-        // `get`, not indexing: the same one comparison, and no panic path
-        // (`n_values` is at most `MAX_SENTINELS` by construction; the
-        // link-time no-panic proof, `nopanic_states`, checks no panic is left).
-        match self.values.get(..usize::from(self.n_values)) {
-            Some(codes) => codes.contains(&v),
-            None => false,
-        }
-    }
-
-    /// The codes as values.
-    pub const fn values(&self) -> &[f64] {
-        // `split_at_checked`: no panic path (the count is in range by construction).
-        match self.values.split_at_checked(self.n_values as usize) {
-            Some((codes, _)) => codes,
-            None => &[],
-        }
-    }
-
-    /// The codes that are whole numbers within `i32`, as counts.
-    pub const fn counts(&self) -> &[i32] {
-        match self.counts.split_at_checked(self.n_counts as usize) {
-            Some((codes, _)) => codes,
-            None => &[],
-        }
-    }
-
-    /// Whether raw counts `k` equal a missing-value code.
-    #[inline]
-    pub fn matches_counts(&self, k: i32) -> bool {
-        // As in `matches_value`: no panic path, no extra work.
-        match self.counts.get(..usize::from(self.n_counts)) {
-            Some(codes) => codes.contains(&k),
-            None => false,
-        }
-    }
 }
 
 /// Whether channel `idx` (if any) exists among `channels` and is of `kind`.
@@ -343,34 +246,6 @@ const fn fingerprint_of(station: &StationConfig, channels: &[ChannelConfig], ent
         k += 1;
     }
     c.value()
-}
-
-/// `n.div_euclid(d)` for `d > 0`, by shifts and subtractions: a Cortex-M0 has
-/// no divide instruction, and a logger that only samples ([`Sampler`]) then
-/// links no 64-bit division routine (900 bytes). Called once per interval;
-/// one step per significant bit of `n`.
-pub(crate) const fn div_floor(n: i64, d: i64) -> i64 {
-    // For n < 0: floor(n / d) = -(floor((-n - 1) / d) + 1) = !floor(!n / d).
-    let neg = n < 0;
-    let m = if neg { !n as u64 } else { n as u64 };
-    let d = d as u64;
-    let mut q = 0u64;
-    let mut r = 0u64;
-    let mut i = 64 - m.leading_zeros();
-    while i > 0 {
-        i -= 1;
-        r = (r << 1) | ((m >> i) & 1);
-        q <<= 1;
-        if r >= d {
-            r -= d;
-            q |= 1;
-        }
-    }
-    if neg {
-        !(q as i64)
-    } else {
-        q as i64
-    }
 }
 
 /// A validated station configuration for `C` channels.
@@ -941,7 +816,7 @@ impl<const C: usize, const G: usize> IntervalAcc<C, G> {
             .zip(layout.channels.iter())
         {
             a.acc.merge(&b.acc, ch.window(), joined);
-            let circular = ch.config().kind == crate::Kind::Direction;
+            let circular = ch.config().kind == Kind::Direction;
             a.spikes.merge(&b.spikes, ch.spike_lim(), circular, joined);
         }
         self.clear_flags();
@@ -1572,29 +1447,6 @@ impl<const C: usize, const G: usize, L: Borrow<Layout<C>>> Station<C, G, L> {
 
 #[cfg(test)]
 mod tests {
-    use super::div_floor;
-
-    #[test]
-    fn div_floor_is_div_euclid() {
-        let mut rng = crate::test_rng::Rng(7);
-        let ds = [1i64, 2, 3, 1000, 60_000, 600_000, 86_400_000];
-        for i in 0..200_000u64 {
-            let n = match i % 4 {
-                0 => rng.next() as i64,
-                1 => rng.wide() as i64,
-                2 => -(rng.wide() as i64),
-                _ => (rng.next() % 2_000_001) as i64 - 1_000_000,
-            };
-            let d = ds[(i % ds.len() as u64) as usize];
-            assert_eq!(div_floor(n, d), n.div_euclid(d), "{n} / {d}");
-        }
-        for n in [i64::MIN, i64::MIN + 1, -1, 0, 1, i64::MAX] {
-            for d in ds {
-                assert_eq!(div_floor(n, d), n.div_euclid(d), "{n} / {d}");
-            }
-        }
-    }
-
     #[test]
     fn a_speed_channel_with_gust_window_0_has_no_gust_and_the_same_statistics() {
         use super::{Event, Layout, Station, StationConfig};
