@@ -798,6 +798,58 @@ impl Channel {
         Class::Valid(q as i32)
     }
 
+    /// [`Channel::classify`] for the host's block path
+    /// ([`Slot::push_column`]): an engineering value in range of a channel
+    /// without a re-calibration is classified inline, with the same range
+    /// test, missing-value check and quantisation as [`Channel::classify_slow`]
+    /// ([`quantum`] and [`round_cd`] are its rounding, in integers); every
+    /// other reading takes [`Channel::classify`]. The same class for every
+    /// reading, by construction (and checked: `block_classify_is_classify`).
+    /// Not linked into a logger, whose per-sample path keeps its code.
+    #[inline(always)]
+    pub(crate) fn classify_block(&self, r: Reading, sentinels: &Sentinels) -> Class {
+        match self.cfg.kind {
+            Kind::Direction => self.block_direction(r, sentinels),
+            _ => self.block_linear(r, sentinels),
+        }
+    }
+
+    /// [`Channel::classify_block`] for a speed or scalar channel.
+    #[inline(always)]
+    fn block_linear(&self, r: Reading, sentinels: &Sentinels) -> Class {
+        match r {
+            Reading::Value(v)
+                if self.cfg.recal.is_none() && v >= self.cfg.range.0 && v <= self.cfg.range.1 =>
+            {
+                if self.code_in_values && sentinels.matches_value(v) {
+                    return Class::Missing;
+                }
+                let Scale { offset, step } = self.cfg.scale;
+                Class::Valid(quantum(match self.inv_step {
+                    Some(inv) => (v - offset) * inv,
+                    None => (v - offset) / step,
+                }))
+            }
+            _ => self.classify_linear(r, sentinels),
+        }
+    }
+
+    /// [`Channel::classify_block`] for a direction channel.
+    #[inline(always)]
+    fn block_direction(&self, r: Reading, sentinels: &Sentinels) -> Class {
+        match r {
+            Reading::Value(v)
+                if self.cfg.recal.is_none() && v >= self.cfg.range.0 && v <= self.cfg.range.1 =>
+            {
+                if self.code_in_values && sentinels.matches_value(v) {
+                    return Class::Missing;
+                }
+                Class::Valid(self.wrap_cd(round_cd(v * 100.0)))
+            }
+            _ => self.classify_direction(r, sentinels),
+        }
+    }
+
     /// Records whether any of the station's missing-value codes lies in this
     /// channel's valid range (set by [`crate::Layout::new`]).
     pub(crate) const fn note_codes(&mut self, sentinels: &Sentinels) {
@@ -858,6 +910,38 @@ fn round_half_away(x: f64) -> f64 {
         cmath::round(x)
     } else {
         libm::round(x)
+    }
+}
+
+/// 2^52: from here on every `f64` is a whole number.
+const WHOLE: f64 = 4_503_599_627_370_496.0;
+
+/// `round_half_away(x) as i32` in integer steps, for the host's block path:
+/// below 2^52 `x - trunc(x)` is exact, so comparing it with one half rounds
+/// as [`cmath::round`] (and `libm::round`) does; the clamp is the saturating
+/// `as i32` of the rounded value. Larger or NaN: [`round_half_away`] itself.
+#[inline(always)]
+fn quantum(x: f64) -> i32 {
+    if x.abs() < WHOLE {
+        let t = x as i64;
+        let d = x - t as f64;
+        let q = t + i64::from(d >= 0.5) - i64::from(d <= -0.5);
+        q.clamp(i64::from(i32::MIN), i64::from(i32::MAX)) as i32
+    } else {
+        round_half_away(x) as i32
+    }
+}
+
+/// `libm::round(x) as i64` in integer steps (see [`quantum`]), for a
+/// direction in hundredths of a degree.
+#[inline(always)]
+fn round_cd(x: f64) -> i64 {
+    if x.abs() < WHOLE {
+        let t = x as i64;
+        let d = x - t as f64;
+        t + i64::from(d >= 0.5) - i64::from(d <= -0.5)
+    } else {
+        libm::round(x) as i64
     }
 }
 
@@ -1405,31 +1489,31 @@ impl<const G: usize> Slot<G> {
         match &mut self.acc {
             ChannelAcc::Speed(a) => {
                 for r in rs {
-                    speed_step(a, spikes, ch, ch.classify_linear(*r, codes));
+                    speed_step(a, spikes, ch, ch.block_linear(*r, codes));
                 }
             }
             ChannelAcc::Scalar(a) => {
                 for r in rs {
-                    scalar_step(a, spikes, ch, ch.classify_linear(*r, codes));
+                    scalar_step(a, spikes, ch, ch.block_linear(*r, codes));
                 }
             }
             ChannelAcc::Direction(a) => {
                 for r in rs {
-                    let class = ch.classify_direction(*r, codes);
+                    let class = ch.block_direction(*r, codes);
                     direction_step(&mut a.counts, &mut a.sums, spikes, ch, class);
                 }
             }
             ChannelAcc::LinkedDirection(a) => {
                 let d = &mut a.direction;
                 for (i, r) in rs.iter().enumerate() {
-                    let class = ch.classify_direction(*r, codes);
+                    let class = ch.block_direction(*r, codes);
                     let Some((s, c)) =
                         direction_step(&mut d.counts, &mut d.sums, spikes, ch, class)
                     else {
                         continue;
                     };
                     if let Some((sc, Some(sr))) = speed.map(|(sc, col)| (sc, col.get(i))) {
-                        if let Class::Valid(q) = sc.classify(*sr, codes) {
+                        if let Class::Valid(q) = sc.classify_block(*sr, codes) {
                             a.resultant.push_q30(s, c, q);
                         }
                     }
@@ -1784,6 +1868,104 @@ mod tests {
             ],
         );
         assert_eq!(AT_COMPILE_TIME.ok(), Layout::new::<3>(st, &good).ok());
+    }
+
+    #[test]
+    fn block_rounding_is_the_per_sample_rounding() {
+        // `quantum` and `round_cd` against the per-sample path's rounding
+        // (`round_half_away`, `libm::round`: libm 0.2, halves away from zero).
+        let mut rng = crate::test_rng::Rng(5);
+        let mut xs: std::vec::Vec<f64> = std::vec![
+            0.0,
+            -0.0,
+            0.5,
+            -0.5,
+            1.5,
+            -1.5,
+            2.5,
+            -2.5,
+            0.49999999999999994,
+            -0.49999999999999994,
+            2_147_483_647.5,
+            -2_147_483_648.5,
+            3e9,
+            -3e9,
+            4_503_599_627_370_495.5,
+            4_503_599_627_370_496.0,
+            1e300,
+            -1e300,
+            f64::INFINITY,
+            f64::NEG_INFINITY,
+            f64::NAN,
+            f64::MIN_POSITIVE,
+        ];
+        for _ in 0..200_000 {
+            let b = rng.next();
+            xs.push(f64::from_bits(b));
+            xs.push((b % 10_000_000) as f64 / 100.0 - 50_000.0);
+            xs.push((b % 4_000_000) as f64 * 0.5 - 1_000_000.0);
+            xs.push(rng.unit() * 6e9 - 3e9);
+        }
+        for x in xs {
+            assert_eq!(quantum(x), round_half_away(x) as i32, "{x:e}");
+            assert_eq!(round_cd(x), libm::round(x) as i64, "{x:e}");
+        }
+    }
+
+    #[test]
+    fn block_classify_is_classify() {
+        // Every kind, steps with and without an exact inverse, offsets, a code
+        // in range, a re-calibration: the block path's class is the per-sample
+        // path's for every reading.
+        let codes = [Some(-999.0), Some(0.5), Some(12.0), None];
+        let sentinels = Sentinels::new(&codes).unwrap();
+        let recal = Recal {
+            logger_slope: 0.765,
+            logger_offset: 0.35,
+            cert_slope: 0.7581,
+            cert_offset: 0.2214,
+        };
+        let cfgs = [
+            ChannelConfig::speed(0.01),
+            ChannelConfig::speed(0.3),
+            ChannelConfig::speed(0.05).with_recalibration(recal),
+            ChannelConfig::scalar(0.25).with_calibration(0.25, 0.1),
+            ChannelConfig::scalar(0.1).with_range(-100.0, 100.0),
+            ChannelConfig::scalar(1e-6).with_range(-2000.0, 2000.0),
+            ChannelConfig::direction(),
+            ChannelConfig::direction().with_mounting_offset(-7.25),
+            ChannelConfig::direction()
+                .with_calibration(0.5, 0.0)
+                .with_mounting_offset(359.0)
+                .with_range(-720.0, 720.0),
+        ];
+        let mut rng = crate::test_rng::Rng(9);
+        for cfg in cfgs {
+            let mut ch = Channel::new(cfg, 3).unwrap();
+            ch.note_codes(&sentinels);
+            for _ in 0..100_000 {
+                let step = cfg.scale.step;
+                let r = match rng.next() % 12 {
+                    0 => Reading::Missing,
+                    1 => Reading::Flagged,
+                    2 => Reading::Excluded,
+                    3 => Reading::Value(f64::from_bits(rng.next())),
+                    4 => Reading::Counts(rng.next() as i32 % 5000),
+                    5 => Reading::Value([0.5, 12.0, -999.0, f64::NAN][(rng.next() % 4) as usize]),
+                    6 => Reading::Value(rng.unit() * 4000.0 - 2000.0),
+                    _ => {
+                        let k = (rng.next() % 20_000) as f64 - 1000.0;
+                        let half = [0.0, 0.5, rng.unit()][(rng.next() % 3) as usize];
+                        Reading::Value(cfg.scale.offset + step * (k + half))
+                    }
+                };
+                assert_eq!(
+                    ch.classify_block(r, &sentinels),
+                    ch.classify(r, &sentinels),
+                    "{cfg:?} {r:?}"
+                );
+            }
+        }
     }
 
     #[test]

@@ -2160,8 +2160,8 @@ mod recalibration {
 mod run_tests {
     use crate::test_rng::Rng;
     use crate::{
-        ChannelConfig, ChannelRecord, Event, IntervalAcc, Layout, PushTotals, Reading, Screen,
-        Station, StationConfig, Timestamp,
+        ChannelConfig, ChannelRecord, Event, IntervalAcc, Layout, PushTotals, Reading, Recal,
+        Screen, Station, StationConfig, Timestamp,
     };
 
     const C: usize = 8;
@@ -2199,11 +2199,82 @@ mod run_tests {
         .unwrap()
     }
 
+    /// What the block path's inline value classification
+    /// ([`crate::channel::Channel::classify_block`]) must agree on with the
+    /// per-sample path: steps without an exact inverse (0.3, 0.25 with an
+    /// offset), a missing-value code inside a channel's range (0.5),
+    /// re-calibrated channels (values and counts), a vane read as values with
+    /// a mounting offset and linked to a speed of step 0.3.
+    fn layout_values() -> Layout<C> {
+        let mut cfg = StationConfig::ten_minute_1hz();
+        cfg.missing_values = [Some(-999.0), Some(0.5), Some(7.0), None];
+        let recal = Recal {
+            logger_slope: 0.765,
+            logger_offset: 0.35,
+            cert_slope: 0.7581,
+            cert_offset: 0.2214,
+        };
+        Layout::new::<G>(
+            cfg,
+            &[
+                ChannelConfig::speed(0.3).with_gust_window(3),
+                ChannelConfig::speed(0.01)
+                    .with_gust_window(2)
+                    .with_recalibration(recal),
+                ChannelConfig::direction()
+                    .with_mounting_offset(-7.25)
+                    .with_speed_channel(0),
+                ChannelConfig::scalar(0.25)
+                    .with_calibration(0.25, 0.1)
+                    .with_range(-40.0, 50.0),
+                ChannelConfig::scalar(0.1).with_range(-100.0, 100.0),
+                ChannelConfig::scalar(0.01)
+                    .with_range(0.0, 100.0)
+                    .with_recalibration(recal),
+                ChannelConfig::direction()
+                    .with_calibration(0.5, 0.0)
+                    .with_speed_channel(1),
+                ChannelConfig::speed(0.05).with_range(0.0, 40.0),
+            ],
+        )
+        .unwrap()
+    }
+
+    /// A random reading for [`layout_values`]: values on and between quanta
+    /// (halves included: the rounding's ties), counts, codes, and the rest.
+    fn reading_values(rng: &mut Rng, c: usize) -> Reading {
+        let steps = [0.3, 0.01, 0.01, 0.25, 0.1, 0.01, 0.5, 0.05];
+        let offsets = [0.0, 0.0, 0.0, 0.1, 0.0, 0.0, 0.0, 0.0];
+        match rng.next() % 30 {
+            0 => Reading::Missing,
+            1 => Reading::Flagged,
+            2 => Reading::Excluded,
+            3 => Reading::Value(f64::NAN),
+            4 => Reading::Value(0.5),
+            5 => Reading::Value(7.0),
+            6 => Reading::Value(-999.0),
+            7 => Reading::Value(f64::INFINITY),
+            8 => Reading::Counts((rng.next() % 2000) as i32 - 100),
+            9 => Reading::Value(-(rng.unit() * 50.0)),
+            _ => {
+                // k quanta, a half quantum more, or anywhere between.
+                let k = (rng.next() % 800) as f64;
+                let frac = match rng.next() % 3 {
+                    0 => 0.0,
+                    1 => 0.5,
+                    _ => rng.unit(),
+                };
+                Reading::Value(offsets[c] + steps[c] * (k + frac))
+            }
+        }
+    }
+
     /// A random reading of channel `c`: mostly valid, some missing, flagged,
     /// NaN, out of range or a missing-value code.
     fn reading(rng: &mut Rng, c: usize) -> Reading {
         match rng.next() % 40 {
             0 => Reading::Missing,
+            39 => Reading::Excluded,
             1 => Reading::Flagged,
             2 => Reading::Value(f64::NAN),
             3 => Reading::Value(-999.0),
@@ -2243,8 +2314,20 @@ mod run_tests {
 
     #[test]
     fn runs_pushed_by_column_equal_samples_pushed_one_by_one() {
-        let layout = layout();
-        let mut rng = Rng(11);
+        same_by_block_and_by_sample(layout(), reading, 11);
+    }
+
+    #[test]
+    fn values_classified_in_the_block_equal_samples_pushed_one_by_one() {
+        same_by_block_and_by_sample(layout_values(), reading_values, 12);
+    }
+
+    fn same_by_block_and_by_sample(
+        layout: Layout<C>,
+        reading: fn(&mut Rng, usize) -> Reading,
+        seed: u64,
+    ) {
+        let mut rng = Rng(seed);
         for round in 0..40 {
             // Times: mostly 1 s steps, with gaps, duplicates, backward steps,
             // sub-second steps and jumps over whole intervals.
