@@ -65,7 +65,7 @@ static uint32_t le32(const uint8_t *p) {
 
 static uint64_t le64(const uint8_t *p) { return (uint64_t)le32(p) | (uint64_t)le32(p + 4) << 32; }
 
-/* Sample file header (qc-core wire.rs, "Sample file"): magic "TMSF",
+/* Sample file header (qc-core src/wire/sample.rs, "Sample file"): magic "TMSF",
  * version, channel count at byte 5, header length at 6, the station's
  * settings (which this logger has in C, stations.c, and so only skips),
  * CRC-32 last: checked piece by piece. */
