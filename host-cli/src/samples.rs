@@ -30,6 +30,7 @@ use crate::config::{Decode, StationFile};
 use crate::engine::Engine;
 use crate::limits;
 use crate::localtime::{Memo, TimeProblem, ZoneCache};
+use crate::provenance::{DigestHandle, FileDigest, HashOn};
 use crate::reader::{FileReader, Head, Piece};
 use crate::table::{Column, Delimiter, Table};
 use crate::timefmt::{parse_time, Rfc3339, TimeError};
@@ -60,6 +61,9 @@ pub struct Options {
     /// Data rows that give no records (every one bad and skipped) are not an
     /// error.
     pub allow_no_records: bool,
+    /// Compute each samples file's SHA-256 from the bytes read, for the
+    /// provenance file ([`InputStats::digests`]).
+    pub digests: bool,
 }
 
 impl Default for Options {
@@ -71,6 +75,7 @@ impl Default for Options {
             chunk_size: DEFAULT_CHUNK_SIZE,
             max_gap_days: DEFAULT_MAX_GAP_DAYS,
             allow_no_records: false,
+            digests: false,
         }
     }
 }
@@ -151,6 +156,9 @@ pub struct InputStats {
     pub examples: Vec<String>,
     /// Empty files skipped (only with `--skip-bad-rows`).
     pub empty_files: Vec<PathBuf>,
+    /// With [`Options::digests`]: each file's SHA-256 and size, of the bytes
+    /// read as stored (a file read in part has none).
+    pub digests: Vec<(PathBuf, FileDigest)>,
 }
 
 impl InputStats {
@@ -442,7 +450,25 @@ pub fn steady_prefix(times: &[Timestamp], last: Option<Timestamp>, max_gap_ms: i
 
 impl Sequential<'_> {
     fn file(&mut self, path: &Path, progress: &Progress, done_bytes: u64) -> Result<()> {
-        let mut reader = FileReader::open(path, self.cfg)?;
+        // The digest on a helper thread: this one replays.
+        let hash = self.opts.digests.then_some(HashOn::Helper);
+        let mut reader = FileReader::open_hashed(path, self.cfg, hash)?;
+        let digest = reader.digest();
+        self.pieces(&mut reader, path, progress, done_bytes)?;
+        drop(reader);
+        if let Some(d) = digest.and_then(DigestHandle::finish) {
+            self.stats.digests.push((path.to_path_buf(), d));
+        }
+        Ok(())
+    }
+
+    fn pieces(
+        &mut self,
+        reader: &mut FileReader<'_>,
+        path: &Path,
+        progress: &Progress,
+        done_bytes: u64,
+    ) -> Result<()> {
         let mut parser: Option<Parser> = None;
         while let Some(piece) = reader.next_piece(BLOCK)? {
             match piece {
