@@ -1836,26 +1836,34 @@ fn plain_f64_in(b: &[u8], sep: u8, delim: u8) -> Option<(Reading, usize)> {
         Some(_) => (false, 0),
     };
     // Digits accumulate with wrapping arithmetic; more than 15 of them are
-    // refused after the loop, before `m` is used.
+    // refused after the loops, before `m` is used. The whole digits, then
+    // (after one `sep`) the decimals: two loops, each with one test a byte.
     let mut m = 0u64;
-    let mut dot = usize::MAX;
     let mut i = skip;
     while let Some(&c) = b.get(i) {
         let d = c.wrapping_sub(b'0');
-        if d < 10 {
-            m = m.wrapping_mul(10).wrapping_add(u64::from(d));
-        } else if c == sep && dot == usize::MAX {
-            dot = i;
-        } else {
+        if d >= 10 {
             break;
         }
+        m = m.wrapping_mul(10).wrapping_add(u64::from(d));
         i += 1;
     }
-    let (n, frac) = if dot == usize::MAX {
-        (i - skip, 0)
-    } else {
-        (i - skip - 1, i - dot - 1)
-    };
+    let whole = i - skip;
+    let mut frac = 0;
+    if b.get(i) == Some(&sep) {
+        i += 1;
+        let from = i;
+        while let Some(&c) = b.get(i) {
+            let d = c.wrapping_sub(b'0');
+            if d >= 10 {
+                break;
+            }
+            m = m.wrapping_mul(10).wrapping_add(u64::from(d));
+            i += 1;
+        }
+        frac = i - from;
+    }
+    let n = whole + frac;
     if n == 0 || n > 15 {
         return None;
     }
@@ -2125,6 +2133,138 @@ mod tests {
                 assert_eq!(quotient(m, frac).to_bits(), want.to_bits(), "{m} {frac}");
             }
         }
+    }
+
+    /// The one byte loop [`plain_f64_in`] had before its two loops: the
+    /// reference it must agree with.
+    fn plain_f64_bytewise(b: &[u8], sep: u8, delim: u8) -> Option<(Reading, usize)> {
+        let (neg, skip) = match b.first() {
+            None | Some(b'\n' | b'\r') => return Some((Reading::Missing, 0)),
+            Some(&c) if c == delim => return Some((Reading::Missing, 0)),
+            Some(b'-') => (true, 1),
+            Some(b'+') => (false, 1),
+            Some(_) => (false, 0),
+        };
+        let (mut m, mut dot, mut i) = (0u64, usize::MAX, skip);
+        while let Some(&c) = b.get(i) {
+            if c.is_ascii_digit() {
+                m = m.wrapping_mul(10).wrapping_add(u64::from(c - b'0'));
+            } else if c == sep && dot == usize::MAX {
+                dot = i;
+            } else {
+                break;
+            }
+            i += 1;
+        }
+        let (n, frac) = if dot == usize::MAX {
+            (i - skip, 0)
+        } else {
+            (i - skip - 1, i - dot - 1)
+        };
+        if n == 0 || n > 15 {
+            return None;
+        }
+        let v = m as f64 / POW10[frac];
+        Some((Reading::Value(if neg { -v } else { v }), i))
+    }
+
+    /// The byte loop of [`plain_i32_in`], as [`plain_f64_bytewise`].
+    fn plain_i32_bytewise(b: &[u8], delim: u8) -> Option<(Reading, usize)> {
+        let (neg, skip) = match b.first() {
+            None | Some(b'\n' | b'\r') => return Some((Reading::Missing, 0)),
+            Some(&c) if c == delim => return Some((Reading::Missing, 0)),
+            Some(b'-') => (true, 1),
+            Some(b'+') => (false, 1),
+            Some(_) => (false, 0),
+        };
+        let n = b[skip..].iter().take_while(|c| c.is_ascii_digit()).count();
+        if n == 0 || n > 9 {
+            return None;
+        }
+        let k: i32 = std::str::from_utf8(&b[skip..skip + n])
+            .unwrap()
+            .parse()
+            .unwrap();
+        Some((Reading::Counts(if neg { -k } else { k }), skip + n))
+    }
+
+    #[test]
+    fn plain_numbers_are_those_of_the_one_loop_and_of_std_parse() {
+        // Invented fields: random bytes from an alphabet of digits, signs,
+        // separators, delimiters, terminators and letters, of every length
+        // from 1 to 20, then more bytes; against the byte loop
+        // (same value bits, same length) and, for a field that ends at a
+        // delimiter, against `str::parse::<f64>` and `str::parse::<i32>`
+        // (Rust's standard library: correctly rounded, IEEE 754).
+        const ALPHA: &[u8] = b"0123456789012345678901234567890123456789..,,;;+-\n\re ";
+        let mut x = 0x9E37_79B9_7F4A_7C15u64;
+        let mut next = || {
+            x ^= x << 13;
+            x ^= x >> 7;
+            x ^= x << 17;
+            x
+        };
+        let same =
+            |a: Option<(Reading, usize)>, b: Option<(Reading, usize)>, what: &[u8]| match (a, b) {
+                (Some((Reading::Value(p), i)), Some((Reading::Value(q), j))) => {
+                    assert!(p.to_bits() == q.to_bits() && i == j, "{what:?}")
+                }
+                (a, b) => assert_eq!(a, b, "{:?}", String::from_utf8_lossy(what)),
+            };
+        for round in 0..400_000 {
+            let len = 1 + (next() % 20) as usize;
+            let mut b: Vec<u8> = (0..len)
+                .map(|_| ALPHA[(next() % ALPHA.len() as u64) as usize])
+                .collect();
+            if round % 2 == 0 {
+                // A plain number of 1 to 9 digits, maybe signed, with or
+                // without one separator, then a delimiter.
+                let digits = 1 + (next() % 9) as usize;
+                let mut f: Vec<u8> = (0..digits).map(|_| b'0' + (next() % 10) as u8).collect();
+                if next() % 3 > 0 {
+                    let at = (next() % (digits as u64 + 1)) as usize;
+                    f.insert(at, if next() % 2 == 0 { b'.' } else { b',' });
+                }
+                if next() % 4 == 0 {
+                    f.insert(0, if next() % 2 == 0 { b'-' } else { b'+' });
+                }
+                f.push(b",;\n"[(next() % 3) as usize]);
+                f.extend_from_slice(&b);
+                b = f;
+            }
+            for (sep, delim) in [(b'.', b','), (b',', b';')] {
+                let got = plain_f64_in(&b, sep, delim);
+                same(got, plain_f64_bytewise(&b, sep, delim), &b);
+                if let Some((Reading::Value(v), i)) = got {
+                    if matches!(b.get(i), None | Some(&b'\n' | &b'\r')) || b.get(i) == Some(&delim)
+                    {
+                        let text: String = String::from_utf8(b[..i].to_vec())
+                            .unwrap()
+                            .replace(sep as char, ".");
+                        let want: f64 = text.parse().unwrap();
+                        assert_eq!(v.to_bits(), want.to_bits(), "{text}");
+                    }
+                }
+                let got = plain_i32_in(&b, delim);
+                assert_eq!(got, plain_i32_bytewise(&b, delim), "{b:?}");
+                if let Some((Reading::Counts(k), i)) = got {
+                    let text = std::str::from_utf8(&b[..i]).unwrap();
+                    assert_eq!(Ok(k), text.parse::<i32>(), "{text}");
+                }
+            }
+        }
+        for (f, want) in [
+            (&b"5.33,xxxxxxx"[..], Some((Reading::Value(5.33), 4))),
+            (b"-0.5\nxxxxxxx", Some((Reading::Value(-0.5), 4))),
+            (b"1234567,xxxxx", Some((Reading::Value(1_234_567.0), 7))),
+            (b"81.7", Some((Reading::Value(81.7), 4))),
+        ] {
+            assert_eq!(plain_f64(f), want);
+        }
+        assert_eq!(
+            plain_i32(b"2486,1.4,81.7"),
+            Some((Reading::Counts(2486), 4))
+        );
     }
 
     #[test]
