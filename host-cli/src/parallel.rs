@@ -306,6 +306,7 @@ impl<'a, const C: usize> Run<'a, C> {
     /// Pushes the rows of the block: runs of steady rows channel by channel,
     /// the others one by one ([`Run::push`]), as each would go alone.
     fn flush(&mut self, path: &Path, send: &mut Emit<'_, C>) -> Result<(), Halt> {
+        self.block.columns();
         let n = self.block.times.len();
         let max_gap = self.opts.max_gap_ms();
         let mut i = 0;

@@ -376,13 +376,19 @@ pub const BLOCK_ROWS: usize = 512;
 
 /// Good rows read but not pushed yet, by channel column, so that runs of
 /// them go into the core channel by channel ([`qc_core::Station::push_run`]).
+/// Rows are added as read, one after the other ([`Block::add`]), and moved
+/// into the columns at once ([`Block::columns`]) before they are pushed.
 #[derive(Debug)]
 pub struct Block {
     /// Each row's time and line.
     pub times: Vec<Timestamp>,
     pub lines: Vec<u64>,
-    /// Per channel (station-file order), one reading per row.
+    /// Per channel (station-file order), one reading per row (after
+    /// [`Block::columns`]).
     pub cols: Vec<Vec<Reading>>,
+    /// The readings of the rows added since [`Block::columns`], row after
+    /// row, one per channel.
+    rows: Vec<Reading>,
 }
 
 impl Block {
@@ -392,17 +398,37 @@ impl Block {
             times: Vec::with_capacity(BLOCK_ROWS),
             lines: Vec::with_capacity(BLOCK_ROWS),
             cols: (0..n).map(|_| Vec::with_capacity(BLOCK_ROWS)).collect(),
+            rows: Vec::with_capacity(n * BLOCK_ROWS),
         }
     }
 
-    /// Adds a row.
+    /// Adds a row: its time, line and one reading per channel (missing ones
+    /// where `readings` is shorter).
     #[inline]
     pub fn add(&mut self, t: Timestamp, line: u64, readings: &[Reading]) {
         self.times.push(t);
         self.lines.push(line);
-        for (col, r) in self.cols.iter_mut().zip(readings) {
-            col.push(*r);
+        let n = self.cols.len();
+        match readings.get(..n) {
+            Some(r) => self.rows.extend_from_slice(r),
+            None => {
+                self.rows.extend_from_slice(readings);
+                self.rows
+                    .resize(self.rows.len() + n - readings.len(), Reading::Missing);
+            }
         }
+    }
+
+    /// Moves the rows added into the columns (each column's readings in one
+    /// pass over the rows).
+    pub fn columns(&mut self) {
+        let n = self.cols.len();
+        if n > 0 && !self.rows.is_empty() {
+            for (c, col) in self.cols.iter_mut().enumerate() {
+                col.extend(self.rows.chunks_exact(n).map(|r| r[c]));
+            }
+        }
+        self.rows.clear();
     }
 
     /// Whether it holds [`BLOCK_ROWS`] rows.
@@ -424,6 +450,7 @@ impl Block {
     pub fn clear(&mut self) {
         self.times.clear();
         self.lines.clear();
+        self.rows.clear();
         for col in &mut self.cols {
             col.clear();
         }
@@ -532,6 +559,7 @@ impl Sequential<'_> {
     /// Pushes the rows of the block: runs of steady rows channel by channel,
     /// the others one by one, as [`Sequential::row`] would each.
     fn flush(&mut self, path: &Path) -> Result<()> {
+        self.block.columns();
         let n = self.block.times.len();
         let max_gap = self.opts.max_gap_ms();
         let mut i = 0;
@@ -2265,6 +2293,40 @@ mod tests {
             plain_i32(b"2486,1.4,81.7"),
             Some((Reading::Counts(2486), 4))
         );
+    }
+
+    #[test]
+    fn rows_added_to_a_block_come_out_by_column() {
+        let mut b = Block::new(3);
+        let v = |x: f64| Reading::Value(x);
+        for i in 0..700u32 {
+            let t = Timestamp::from_millis(i64::from(i) * 1000);
+            let r = [v(f64::from(i)), Reading::Counts(i as i32), v(-f64::from(i))];
+            // Every fifth row with a reading short: the last channel missing.
+            let k = if i % 5 == 0 { 2 } else { 3 };
+            b.add(t, u64::from(i) + 2, &r[..k]);
+            if b.is_full() || i == 699 {
+                b.columns();
+                let n = b.times.len();
+                assert!(b.cols.iter().all(|c| c.len() == n));
+                for (j, &t) in b.times.iter().enumerate() {
+                    let i = (t.millis() / 1000) as u32;
+                    assert_eq!(b.lines[j], u64::from(i) + 2);
+                    assert_eq!(b.cols[0][j], v(f64::from(i)));
+                    assert_eq!(b.cols[1][j], Reading::Counts(i as i32));
+                    let last = if i % 5 == 0 {
+                        Reading::Missing
+                    } else {
+                        v(-f64::from(i))
+                    };
+                    assert_eq!(b.cols[2][j], last);
+                    let mut row = [Reading::Missing; 3];
+                    b.row(j, &mut row);
+                    assert_eq!(row[2], last);
+                }
+                b.clear();
+            }
+        }
     }
 
     #[test]
