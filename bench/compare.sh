@@ -134,7 +134,7 @@ for k in own2 layout1 zst1 base1; do
     if cmp -s "$DIR/r-own1.csv" "$DIR/r-$k.csv"; then
         echo "$k: records identical to own1's"
     else
-        echo "$k: records differ from own1's (a baseline from before the finishing formulas changed, dc49c38, differs in the last bits of some f64 statistics; host-cli/PERF.md)"
+        echo "$k: records differ from own1's (expected of a baseline whose records lack later columns, e.g. f5873be has no n_flagged, n_excluded, sensor_entries; or one from before dc49c38, whose f64 statistics differ in the last bits; host-cli/PERF.md)"
     fi
 done
 if [ "$SKIP_PEERS" != 1 ]; then
