@@ -532,6 +532,7 @@ fn options(a: &InputArgs) -> samples::Options {
         chunk_size: a.chunk_size as usize,
         max_gap_days: a.max_gap_days,
         allow_no_records: a.allow_no_records,
+        digests: false,
     }
 }
 
@@ -553,14 +554,20 @@ fn replay_cmd(a: ReplayArgs) -> Result<ExitCode> {
         output::refuse_inputs(out, &named)?;
         output::refuse_inputs(&provenance::path_for(out), &named)?;
     }
+    // With a provenance file, each samples file's digest comes from the
+    // replay's own reading of it.
+    let opts = samples::Options {
+        digests: a.output.is_some(),
+        ..options(&a.input)
+    };
     let summary = output::write_to(a.output.as_deref(), "records", |w| {
         let mut writer = records::Writer::new(w, ids(&cfg))?.with_sensors(cfg.sensors.clone());
-        let s = replay::replay(&cfg, &a.samples, options(&a.input), &mut writer)?;
+        let s = replay::replay(&cfg, &a.samples, opts, &mut writer)?;
         writer.finish()?;
         Ok(s)
     })?;
     if let Some(out) = &a.output {
-        provenance::write(out, &cfg, &used)?;
+        provenance::write_known(out, &cfg, &used, &summary.input.digests)?;
     }
     if !a.input.quiet {
         let _ = summary.write(&mut io::stderr().lock(), &cfg);

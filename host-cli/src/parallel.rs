@@ -42,6 +42,7 @@ use qc_core::{
 
 use crate::config::{StationFile, MAX_CHANNELS};
 use crate::engine::{Out, Sink, G};
+use crate::provenance::{DigestHandle, HashOn};
 use crate::reader::{FileReader, Head, Piece};
 use crate::samples::{
     check_jump, csv_rows, file_len, steady_prefix, BadRow, Block, InputStats, Options, Parser,
@@ -100,8 +101,9 @@ enum Item {
     },
     /// A file with no record at all.
     Empty { file: usize },
-    /// A file read to its end.
-    FileDone,
+    /// A file read to its end (its digest given once its tail, if any, is
+    /// read too).
+    FileDone { digest: Option<DigestHandle> },
     /// Reading stopped here (a header problem or an I/O error).
     Error(anyhow::Error),
 }
@@ -304,6 +306,7 @@ impl<'a, const C: usize> Run<'a, C> {
     /// Pushes the rows of the block: runs of steady rows channel by channel,
     /// the others one by one ([`Run::push`]), as each would go alone.
     fn flush(&mut self, path: &Path, send: &mut Emit<'_, C>) -> Result<(), Halt> {
+        self.block.columns();
         let n = self.block.times.len();
         let max_gap = self.opts.max_gap_ms();
         let mut i = 0;
@@ -710,7 +713,10 @@ fn run<const C: usize>(
                     head,
                 } => joiner.tail(cfg, &files[f], rest, line, head)?,
                 Item::Empty { file: f } => joiner.stats.empty_file(&opts, &files[f])?,
-                Item::FileDone => {
+                Item::FileDone { digest } => {
+                    if let Some(d) = digest.and_then(DigestHandle::finish) {
+                        joiner.stats.digests.push((files[file].clone(), d));
+                    }
                     done += file_len(&files[file]);
                     file += 1;
                     joiner.stats.files += 1;
@@ -772,8 +778,8 @@ fn reader(
     let mut next = 0usize;
     for (i, path) in files.iter().enumerate() {
         match read_file(i, path, cfg, &opts, &workers, &order, &mut next) {
-            Ok(()) => {
-                if order.send(Item::FileDone).is_err() {
+            Ok(digest) => {
+                if order.send(Item::FileDone { digest }).is_err() {
                     return;
                 }
             }
@@ -794,20 +800,24 @@ fn read_file(
     workers: &[SyncSender<Job>],
     order: &SyncSender<Item>,
     next: &mut usize,
-) -> Result<()> {
+) -> Result<Option<DigestHandle>> {
     let closed = || anyhow!("closed");
-    let mut reader = FileReader::open(path, cfg)?;
+    // The digest on this thread, which has time to spare: the workers replay.
+    let hash = opts.digests.then_some(HashOn::Inline);
+    let mut reader = FileReader::open_hashed(path, cfg, hash)?;
+    let digest = reader.digest();
     while let Some(piece) = reader.next_piece(opts.chunk_size)? {
         match piece {
             Piece::Tail { line, rest, head } => {
-                return order
+                order
                     .send(Item::Tail {
                         file: index,
                         line,
                         rest,
                         head,
                     })
-                    .map_err(|_| closed());
+                    .map_err(|_| closed())?;
+                return Ok(digest);
             }
             Piece::Rows {
                 line,
@@ -844,5 +854,5 @@ fn read_file(
             .send(Item::Empty { file: index })
             .map_err(|_| closed())?;
     }
-    Ok(())
+    Ok(digest)
 }

@@ -35,10 +35,18 @@
 //! - The provenance file is written after the output, atomically
 //!   (`output.rs`). An output to stdout gets none: there is no file to put it
 //!   beside (say `-o FILE` to have one).
+//! - A samples file's digest comes from the bytes the replay read
+//!   ([`Hashing`], in the reader's one pass); a file read only in part gets
+//!   none, and is then read again ([`write_known`]). Every other input, and
+//!   the output, is read again here.
 
 use std::fs::File;
-use std::io::Read;
+use std::io::{self, Read};
 use std::path::{Path, PathBuf};
+use std::sync::atomic::{AtomicBool, Ordering};
+use std::sync::mpsc::{channel, sync_channel, Receiver, SyncSender};
+use std::sync::{Arc, OnceLock};
+use std::thread::JoinHandle;
 
 use anyhow::{anyhow, bail, Context, Result};
 use serde::{Deserialize, Serialize};
@@ -123,8 +131,241 @@ pub fn hash_file(path: &Path) -> Result<(String, u64)> {
         size += n as u64;
         h.update(&buf[..n]);
     }
-    let hex = h.finalize().iter().map(|b| format!("{b:02x}")).collect();
-    Ok((hex, size))
+    Ok((hex(h), size))
+}
+
+fn hex(h: Sha256) -> String {
+    h.finalize().iter().map(|b| format!("{b:02x}")).collect()
+}
+
+/// A file's SHA-256 (lowercase hex) and size in bytes, computed from the
+/// bytes read while it was read ([`Hashing`]).
+#[derive(Clone, Debug, PartialEq, Eq)]
+pub struct FileDigest {
+    /// SHA-256, lowercase hex.
+    pub sha256: String,
+    /// Bytes.
+    pub size: u64,
+}
+
+/// Where a [`Hashing`] reader computes its SHA-256.
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+pub enum HashOn {
+    /// On the reading thread, as each read returns (where that thread has
+    /// time to spare: the parallel replay's reader thread).
+    Inline,
+    /// On a helper thread fed with copies of the bytes read, so that the
+    /// reading thread is not held up (the sequential replay: the second
+    /// core is idle).
+    Helper,
+}
+
+/// Bytes per buffer handed to the helper thread.
+const FEED_BYTES: usize = 256 << 10;
+/// Buffers in use at once (one filled, the others queued or hashed): the
+/// helper's memory is at most this many [`FEED_BYTES`].
+const FEED_BUFFERS: usize = 3;
+
+/// What the reading side hands the helper thread.
+enum Feed {
+    Bytes(Vec<u8>),
+    /// The end of the file was read: finish the digest.
+    End,
+}
+
+/// The helper thread's inbox and the buffers it hands back.
+struct Helper {
+    tx: SyncSender<Feed>,
+    back: Receiver<Vec<u8>>,
+    /// The buffer being filled.
+    cur: Vec<u8>,
+    /// Buffers made so far (at most [`FEED_BUFFERS`]).
+    made: usize,
+}
+
+impl Helper {
+    /// Copies `bytes` into buffers for the helper; false if it is gone.
+    fn feed(&mut self, mut bytes: &[u8]) -> bool {
+        while !bytes.is_empty() {
+            let take = (FEED_BYTES - self.cur.len()).min(bytes.len());
+            self.cur.extend_from_slice(&bytes[..take]);
+            bytes = &bytes[take..];
+            if self.cur.len() == FEED_BYTES && !self.send() {
+                return false;
+            }
+        }
+        true
+    }
+
+    /// Sends the buffer being filled and takes the next; false if the
+    /// helper is gone.
+    fn send(&mut self) -> bool {
+        let next = match self.back.try_recv() {
+            Ok(b) => b,
+            Err(_) if self.made < FEED_BUFFERS => {
+                self.made += 1;
+                Vec::with_capacity(FEED_BYTES)
+            }
+            Err(_) => match self.back.recv() {
+                Ok(b) => b,
+                Err(_) => return false,
+            },
+        };
+        let full = std::mem::replace(&mut self.cur, next);
+        self.tx.send(Feed::Bytes(full)).is_ok()
+    }
+}
+
+enum Hasher {
+    Inline(Box<Sha256>),
+    Helper(Helper),
+}
+
+/// A reader that hashes every byte read through it, in order, and gives the
+/// digest once the end is read ([`DigestHandle::finish`]). A read error, or
+/// being dropped before the end, gives no digest: never a digest of part of
+/// a file.
+pub struct Hashing<R> {
+    inner: R,
+    /// `None` once the end was read or reading failed.
+    hasher: Option<Hasher>,
+    size: u64,
+    /// Set when the end was read and the digest handed on.
+    ended: Arc<AtomicBool>,
+    result: Arc<OnceLock<FileDigest>>,
+}
+
+/// The digest of a [`Hashing`] reader, once it read its end.
+pub struct DigestHandle {
+    ended: Arc<AtomicBool>,
+    result: Arc<OnceLock<FileDigest>>,
+    helper: Option<JoinHandle<()>>,
+}
+
+impl DigestHandle {
+    /// The digest of every byte read, if the reader read to the end (else
+    /// `None`: the file was read in part, or reading failed).
+    pub fn finish(self) -> Option<FileDigest> {
+        if !self.ended.load(Ordering::Acquire) {
+            // The helper stops when the reader is dropped.
+            return None;
+        }
+        if let Some(h) = self.helper {
+            // The end was sent: the helper is finishing.
+            h.join().ok()?;
+        }
+        self.result.get().cloned()
+    }
+}
+
+impl<R: Read> Hashing<R> {
+    /// Hashes what is read from `inner`, `on` the reading thread or a helper.
+    pub fn new(inner: R, on: HashOn) -> (Self, DigestHandle) {
+        let ended = Arc::new(AtomicBool::new(false));
+        let result = Arc::new(OnceLock::new());
+        let (hasher, helper) = match on {
+            HashOn::Inline => (Hasher::Inline(Box::default()), None),
+            HashOn::Helper => {
+                let (tx, rx) = sync_channel::<Feed>(FEED_BUFFERS - 1);
+                let (back_tx, back) = channel::<Vec<u8>>();
+                let out = Arc::clone(&result);
+                let thread = std::thread::spawn(move || {
+                    let mut h = Sha256::new();
+                    let mut size = 0u64;
+                    for feed in rx {
+                        match feed {
+                            Feed::Bytes(mut b) => {
+                                h.update(&b);
+                                size += b.len() as u64;
+                                b.clear();
+                                let _ = back_tx.send(b);
+                            }
+                            Feed::End => {
+                                let _ = out.set(FileDigest {
+                                    sha256: hex(h),
+                                    size,
+                                });
+                                return;
+                            }
+                        }
+                    }
+                    // The reader was dropped before the end: no digest.
+                });
+                let helper = Helper {
+                    tx,
+                    back,
+                    cur: Vec::with_capacity(FEED_BYTES),
+                    made: 1,
+                };
+                (Hasher::Helper(helper), Some(thread))
+            }
+        };
+        let handle = DigestHandle {
+            ended: Arc::clone(&ended),
+            result: Arc::clone(&result),
+            helper,
+        };
+        let me = Hashing {
+            inner,
+            hasher: Some(hasher),
+            size: 0,
+            ended,
+            result,
+        };
+        (me, handle)
+    }
+
+    fn end(&mut self) {
+        let ok = match self.hasher.take() {
+            None => return,
+            Some(Hasher::Inline(h)) => self
+                .result
+                .set(FileDigest {
+                    sha256: hex(*h),
+                    size: self.size,
+                })
+                .is_ok(),
+            Some(Hasher::Helper(mut helper)) => {
+                let cur = std::mem::take(&mut helper.cur);
+                helper.tx.send(Feed::Bytes(cur)).is_ok() && helper.tx.send(Feed::End).is_ok()
+            }
+        };
+        if ok {
+            self.ended.store(true, Ordering::Release);
+        }
+    }
+}
+
+impl<R: Read> Read for Hashing<R> {
+    fn read(&mut self, buf: &mut [u8]) -> io::Result<usize> {
+        let n = match self.inner.read(buf) {
+            Ok(n) => n,
+            Err(e) if e.kind() == io::ErrorKind::Interrupted => return Err(e),
+            Err(e) => {
+                // Never a digest of part of the file.
+                self.hasher = None;
+                return Err(e);
+            }
+        };
+        if n == 0 && !buf.is_empty() {
+            self.end();
+            return Ok(0);
+        }
+        let fed = match &mut self.hasher {
+            None => true,
+            Some(Hasher::Inline(h)) => {
+                h.update(&buf[..n]);
+                self.size += n as u64;
+                true
+            }
+            Some(Hasher::Helper(helper)) => helper.feed(&buf[..n]),
+        };
+        if !fed {
+            // The helper is gone: no digest.
+            self.hasher = None;
+        }
+        Ok(n)
+    }
 }
 
 fn file_hash(role: Option<&str>, path: &Path) -> Result<FileHash> {
@@ -159,8 +400,21 @@ pub fn inputs<'a>(
 }
 
 /// Writes `<output>.provenance.json` for `output`, just written by a command
-/// on `cfg` with `inputs` ([`inputs`]).
+/// on `cfg` with `inputs` ([`inputs`]); every input is read again for its
+/// digest.
 pub fn write(output: &Path, cfg: &StationFile, inputs: &[(String, PathBuf)]) -> Result<()> {
+    write_known(output, cfg, inputs, &[])
+}
+
+/// [`write()`], taking the digest of an input from `known` (digests computed
+/// while the command read it, [`Hashing`]) where its path is there; the
+/// others are read again.
+pub fn write_known(
+    output: &Path,
+    cfg: &StationFile,
+    inputs: &[(String, PathBuf)],
+    known: &[(PathBuf, FileDigest)],
+) -> Result<()> {
     // A device or a pipe has no folder to put a file beside.
     if !std::fs::metadata(output).is_ok_and(|m| m.is_file()) {
         return Ok(());
@@ -186,7 +440,15 @@ pub fn write(output: &Path, cfg: &StationFile, inputs: &[(String, PathBuf)]) -> 
         config_fingerprint: format!("0x{fp:08x}"),
         inputs: inputs
             .iter()
-            .map(|(role, p)| file_hash(Some(role), p))
+            .map(|(role, p)| match known.iter().find(|(k, _)| k == p) {
+                Some((_, d)) => Ok(FileHash {
+                    role: Some(role.clone()),
+                    path: p.to_string_lossy().into_owned(),
+                    size: d.size,
+                    sha256: d.sha256.clone(),
+                }),
+                None => file_hash(Some(role), p),
+            })
             .collect::<Result<_>>()?,
         output: file_hash(None, output)?,
     };
@@ -295,4 +557,251 @@ pub fn check(prov_path: &Path, output: Option<&Path>) -> Result<Check> {
         }
     }
     Ok(c)
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use std::io::Write;
+    use std::process::Command;
+
+    /// `sha256sum FILE` (coreutils, FIPS 180-4 SHA-256, a program apart
+    /// from this crate), lowercase hex.
+    fn sha256sum(path: &Path) -> String {
+        let out = Command::new("sha256sum").arg(path).output().unwrap();
+        assert!(out.status.success());
+        String::from_utf8(out.stdout).unwrap()[..64].to_string()
+    }
+
+    /// A reader giving `data` in pieces of `step` bytes, then an error
+    /// after `fail_at` bytes if set.
+    struct Pieces {
+        data: Vec<u8>,
+        at: usize,
+        step: usize,
+        fail_at: Option<usize>,
+    }
+
+    impl Read for Pieces {
+        fn read(&mut self, buf: &mut [u8]) -> io::Result<usize> {
+            if self.fail_at.is_some_and(|f| self.at >= f) {
+                return Err(io::Error::other("disk gone"));
+            }
+            let n = self.step.min(buf.len()).min(self.data.len() - self.at);
+            buf[..n].copy_from_slice(&self.data[self.at..self.at + n]);
+            self.at += n;
+            Ok(n)
+        }
+    }
+
+    fn bytes(len: usize) -> Vec<u8> {
+        let mut x = 0x9E37_79B9_7F4A_7C15u64;
+        (0..len)
+            .map(|_| {
+                x ^= x << 13;
+                x ^= x >> 7;
+                x ^= x << 17;
+                x as u8
+            })
+            .collect()
+    }
+
+    #[test]
+    fn a_hashing_reader_gives_the_digest_of_every_byte_read_or_none() {
+        let dir = tempfile::tempdir().unwrap();
+        // Lengths around the helper's buffers (FEED_BYTES) and the empty file.
+        for len in [
+            0,
+            1,
+            63,
+            64,
+            65,
+            FEED_BYTES - 1,
+            FEED_BYTES,
+            3 * FEED_BYTES + 17,
+        ] {
+            let data = bytes(len);
+            let path = dir.path().join(format!("b{len}"));
+            std::fs::write(&path, &data).unwrap();
+            let want = FileDigest {
+                sha256: sha256sum(&path),
+                size: len as u64,
+            };
+            for on in [HashOn::Inline, HashOn::Helper] {
+                for step in [1, 7, 4096, 1 << 20] {
+                    if step == 1 && len > 4096 {
+                        continue;
+                    }
+                    let src = Pieces {
+                        data: data.clone(),
+                        at: 0,
+                        step,
+                        fail_at: None,
+                    };
+                    let (mut r, handle) = Hashing::new(src, on);
+                    let mut got = Vec::new();
+                    r.read_to_end(&mut got).unwrap();
+                    assert_eq!(got, data);
+                    // Reads after the end change nothing.
+                    assert_eq!(r.read(&mut [0u8; 8]).unwrap(), 0);
+                    assert_eq!(handle.finish(), Some(want.clone()), "{len} {on:?} {step}");
+
+                    // Read in part, then dropped: no digest.
+                    if len > 0 {
+                        let src = Pieces {
+                            data: data.clone(),
+                            at: 0,
+                            step,
+                            fail_at: None,
+                        };
+                        let (mut r, handle) = Hashing::new(src, on);
+                        let mut part = vec![0u8; len - 1];
+                        r.read_exact(&mut part).unwrap();
+                        drop(r);
+                        assert_eq!(handle.finish(), None, "{len} {on:?} {step}");
+                    }
+
+                    // A read error midway, then reads that go on: no digest.
+                    let src = Pieces {
+                        data: data.clone(),
+                        at: 0,
+                        step,
+                        fail_at: Some(len / 2),
+                    };
+                    let (mut r, handle) = Hashing::new(src, on);
+                    assert!(r.read_to_end(&mut Vec::new()).is_err());
+                    r.inner.fail_at = None;
+                    let _ = r.read_to_end(&mut Vec::new());
+                    drop(r);
+                    assert_eq!(handle.finish(), None, "{len} {on:?} {step}");
+                }
+            }
+        }
+    }
+
+    #[test]
+    fn an_empty_read_buffer_is_not_the_end() {
+        let src = Pieces {
+            data: b"abc".to_vec(),
+            at: 0,
+            step: 2,
+            fail_at: None,
+        };
+        let (mut r, handle) = Hashing::new(src, HashOn::Inline);
+        assert_eq!(r.read(&mut []).unwrap(), 0);
+        let mut got = Vec::new();
+        r.read_to_end(&mut got).unwrap();
+        // SHA-256("abc"): FIPS 180-4 example (NIST CSRC "SHA256.pdf").
+        assert_eq!(
+            handle.finish().unwrap().sha256,
+            "ba7816bf8f01cfea414140de5dae2223b00361a396177a9cb410ff61f20015ad"
+        );
+    }
+
+    /// The replay's digests (computed in its one pass, `Options::digests`)
+    /// of plain, no-final-newline, quoted (read by the `csv` crate from the
+    /// first quote on), `.gz` and `.zst` files, on 1 and 2 threads, against
+    /// coreutils `sha256sum`.
+    #[test]
+    fn the_replay_digests_every_samples_file_as_stored() {
+        let dir = tempfile::tempdir().unwrap();
+        let station = dir.path().join("station.toml");
+        let toml = "[logging]\ninterval_s = 600\nsample_rate_hz = 1\n\n\
+                    [[channel]]\nid = \"ws\"\nkind = \"speed\"\nresolution = 0.01\n\n\
+                    [[channel]]\nid = \"t\"\nkind = \"scalar\"\nresolution = 0.1\n";
+        std::fs::write(&station, toml).unwrap();
+        let cfg = crate::config::load(&station).unwrap();
+        // Three hours at 1 Hz from 2025-01-20T00:00:00Z (1737331200 s):
+        // about 280 kB, more than one piece of either replay.
+        let mut plain = String::from("time,ws,t\n");
+        for i in 0..10_800i64 {
+            plain.push_str(&format!(
+                "{},{}.{:02},{}.{}\n",
+                1_737_331_200 + i,
+                3 + i % 9,
+                i % 100,
+                -5 + i % 20,
+                i % 10
+            ));
+        }
+        let p = |name: &str| dir.path().join(name);
+        std::fs::write(p("plain.csv"), &plain).unwrap();
+        std::fs::write(p("nonl.csv"), plain.trim_end()).unwrap();
+        let quoted = plain.replacen(",5.55,", ",\"5.55\",", 1);
+        assert_ne!(quoted, plain);
+        std::fs::write(p("quoted.csv"), &quoted).unwrap();
+        let mut gz = flate2::write::GzEncoder::new(Vec::new(), flate2::Compression::default());
+        gz.write_all(plain.as_bytes()).unwrap();
+        std::fs::write(p("plain.csv.gz"), gz.finish().unwrap()).unwrap();
+        std::fs::write(
+            p("plain.csv.zst"),
+            zstd::encode_all(plain.as_bytes(), 3).unwrap(),
+        )
+        .unwrap();
+
+        let want = |path: &Path| FileDigest {
+            sha256: sha256sum(path),
+            size: std::fs::metadata(path).unwrap().len(),
+        };
+        let names = [
+            "plain.csv",
+            "nonl.csv",
+            "quoted.csv",
+            "plain.csv.gz",
+            "plain.csv.zst",
+        ];
+        for name in names {
+            for (jobs, chunk_size) in [(1, 1 << 20), (2, 1 << 20), (2, 4096)] {
+                let opts = crate::samples::Options {
+                    jobs,
+                    chunk_size,
+                    digests: true,
+                    ..Default::default()
+                };
+                let mut w =
+                    crate::records::Writer::new(Vec::new(), vec!["ws".into(), "t".into()]).unwrap();
+                let s = crate::replay::replay(&cfg, &[p(name)], opts, &mut w).unwrap();
+                assert_eq!(s.input.rows, 10_800, "{name}");
+                assert_eq!(
+                    s.input.digests,
+                    vec![(p(name), want(&p(name)))],
+                    "{name} --jobs {jobs}"
+                );
+            }
+        }
+        // Several files, one digest each, in order; none without the option.
+        let files: Vec<PathBuf> = ["plain.csv.zst", "quoted.csv"].map(p).to_vec();
+        let later: String = plain
+            .lines()
+            .skip(1)
+            .map(|l| {
+                let (t, rest) = l.split_once(',').unwrap();
+                format!("{},{rest}\n", t.parse::<i64>().unwrap() + 10_800)
+            })
+            .collect();
+        std::fs::write(p("quoted.csv"), format!("time,ws,t\n{later}")).unwrap();
+        for jobs in [1, 2] {
+            let opts = crate::samples::Options {
+                jobs,
+                digests: true,
+                ..Default::default()
+            };
+            let mut w =
+                crate::records::Writer::new(Vec::new(), vec!["ws".into(), "t".into()]).unwrap();
+            let s = crate::replay::replay(&cfg, &files, opts, &mut w).unwrap();
+            let got: Vec<_> = s.input.digests.iter().map(|(f, _)| f.clone()).collect();
+            assert_eq!(got, files);
+            for (f, d) in &s.input.digests {
+                assert_eq!(d, &want(f));
+            }
+            let opts = crate::samples::Options {
+                digests: false,
+                ..opts
+            };
+            let mut w =
+                crate::records::Writer::new(Vec::new(), vec!["ws".into(), "t".into()]).unwrap();
+            let s = crate::replay::replay(&cfg, &files, opts, &mut w).unwrap();
+            assert!(s.input.digests.is_empty());
+        }
+    }
 }

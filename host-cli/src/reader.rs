@@ -25,6 +25,7 @@ use anyhow::{Context, Result};
 
 use crate::config::StationFile;
 use crate::limits::{self, LongRecord, MAX_RECORD_BYTES};
+use crate::provenance::{DigestHandle, HashOn, Hashing};
 use crate::samples::{split_fields, Parser, Records};
 use crate::table::{Delimiter, Table};
 
@@ -73,16 +74,27 @@ pub struct FileReader<'a> {
     parser: Option<Arc<Parser>>,
     /// A piece's buffer handed back, to read the next into.
     spare: Vec<u8>,
+    /// The digest of the file's bytes as stored, when asked for.
+    digest: Option<DigestHandle>,
 }
 
 impl<'a> FileReader<'a> {
     /// Opens `path`, a samples file of the station `cfg`: read as it is, or
     /// decompressed as a stream when it ends in `.gz` or `.zst`.
     pub fn open(path: &'a Path, cfg: &'a StationFile) -> Result<Self> {
+        Self::open_hashed(path, cfg, None)
+    }
+
+    /// [`FileReader::open`], and with `hash` also the SHA-256 of the file's
+    /// bytes as stored (a compressed file's compressed bytes), computed from
+    /// the bytes read ([`Hashing`]): taken with [`FileReader::digest`] once
+    /// the file was read.
+    pub fn open_hashed(path: &'a Path, cfg: &'a StationFile, hash: Option<HashOn>) -> Result<Self> {
+        let (file, digest) = open_maybe_compressed_hashed(path, hash)?;
         Ok(FileReader {
             path,
             cfg,
-            file: Some(open_maybe_compressed(path)?),
+            file: Some(file),
             carry: Vec::new(),
             offset: 0,
             eof: false,
@@ -90,7 +102,15 @@ impl<'a> FileReader<'a> {
             head: Head::default(),
             parser: None,
             spare: Vec::new(),
+            digest,
         })
+    }
+
+    /// The handle of the file's digest (with [`FileReader::open_hashed`]),
+    /// once. It gives the digest once every byte was read: by this reader,
+    /// or by whoever read the [`Piece::Tail`] to its end.
+    pub fn digest(&mut self) -> Option<DigestHandle> {
+        self.digest.take()
     }
 
     /// Hands a piece's bytes back, to be filled with the next piece (its
@@ -299,7 +319,27 @@ impl Compression {
 /// by the format's decoder default, 8 MiB for files written at the usual
 /// levels), so memory stays constant whatever the file's length.
 pub fn open_maybe_compressed(path: &Path) -> Result<Box<dyn Read + Send>> {
+    Ok(open_maybe_compressed_hashed(path, None)?.0)
+}
+
+/// [`open_maybe_compressed`], and with `hash` the handle of the SHA-256 of
+/// the file's bytes as stored, hashed as they are read ([`Hashing`]).
+pub fn open_maybe_compressed_hashed(
+    path: &Path,
+    hash: Option<HashOn>,
+) -> Result<(Box<dyn Read + Send>, Option<DigestHandle>)> {
     let file = File::open(path).with_context(|| format!("cannot open {}", path.display()))?;
+    match hash {
+        None => Ok((decompressed(path, file)?, None)),
+        Some(on) => {
+            let (file, handle) = Hashing::new(file, on);
+            Ok((decompressed(path, file)?, Some(handle)))
+        }
+    }
+}
+
+/// The bytes of `file` (named `path`), decompressed by its name.
+fn decompressed<R: Read + Send + 'static>(path: &Path, file: R) -> Result<Box<dyn Read + Send>> {
     let compression = Compression::of(path);
     if compression == Compression::None {
         return Ok(Box::new(file));

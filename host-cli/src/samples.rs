@@ -30,6 +30,7 @@ use crate::config::{Decode, StationFile};
 use crate::engine::Engine;
 use crate::limits;
 use crate::localtime::{Memo, TimeProblem, ZoneCache};
+use crate::provenance::{DigestHandle, FileDigest, HashOn};
 use crate::reader::{FileReader, Head, Piece};
 use crate::table::{Column, Delimiter, Table};
 use crate::timefmt::{parse_time, Rfc3339, TimeError};
@@ -60,6 +61,9 @@ pub struct Options {
     /// Data rows that give no records (every one bad and skipped) are not an
     /// error.
     pub allow_no_records: bool,
+    /// Compute each samples file's SHA-256 from the bytes read, for the
+    /// provenance file ([`InputStats::digests`]).
+    pub digests: bool,
 }
 
 impl Default for Options {
@@ -71,6 +75,7 @@ impl Default for Options {
             chunk_size: DEFAULT_CHUNK_SIZE,
             max_gap_days: DEFAULT_MAX_GAP_DAYS,
             allow_no_records: false,
+            digests: false,
         }
     }
 }
@@ -151,6 +156,9 @@ pub struct InputStats {
     pub examples: Vec<String>,
     /// Empty files skipped (only with `--skip-bad-rows`).
     pub empty_files: Vec<PathBuf>,
+    /// With [`Options::digests`]: each file's SHA-256 and size, of the bytes
+    /// read as stored (a file read in part has none).
+    pub digests: Vec<(PathBuf, FileDigest)>,
 }
 
 impl InputStats {
@@ -368,13 +376,19 @@ pub const BLOCK_ROWS: usize = 512;
 
 /// Good rows read but not pushed yet, by channel column, so that runs of
 /// them go into the core channel by channel ([`qc_core::Station::push_run`]).
+/// Rows are added as read, one after the other ([`Block::add`]), and moved
+/// into the columns at once ([`Block::columns`]) before they are pushed.
 #[derive(Debug)]
 pub struct Block {
     /// Each row's time and line.
     pub times: Vec<Timestamp>,
     pub lines: Vec<u64>,
-    /// Per channel (station-file order), one reading per row.
+    /// Per channel (station-file order), one reading per row (after
+    /// [`Block::columns`]).
     pub cols: Vec<Vec<Reading>>,
+    /// The readings of the rows added since [`Block::columns`], row after
+    /// row, one per channel.
+    rows: Vec<Reading>,
 }
 
 impl Block {
@@ -384,17 +398,37 @@ impl Block {
             times: Vec::with_capacity(BLOCK_ROWS),
             lines: Vec::with_capacity(BLOCK_ROWS),
             cols: (0..n).map(|_| Vec::with_capacity(BLOCK_ROWS)).collect(),
+            rows: Vec::with_capacity(n * BLOCK_ROWS),
         }
     }
 
-    /// Adds a row.
+    /// Adds a row: its time, line and one reading per channel (missing ones
+    /// where `readings` is shorter).
     #[inline]
     pub fn add(&mut self, t: Timestamp, line: u64, readings: &[Reading]) {
         self.times.push(t);
         self.lines.push(line);
-        for (col, r) in self.cols.iter_mut().zip(readings) {
-            col.push(*r);
+        let n = self.cols.len();
+        match readings.get(..n) {
+            Some(r) => self.rows.extend_from_slice(r),
+            None => {
+                self.rows.extend_from_slice(readings);
+                self.rows
+                    .resize(self.rows.len() + n - readings.len(), Reading::Missing);
+            }
         }
+    }
+
+    /// Moves the rows added into the columns (each column's readings in one
+    /// pass over the rows).
+    pub fn columns(&mut self) {
+        let n = self.cols.len();
+        if n > 0 && !self.rows.is_empty() {
+            for (c, col) in self.cols.iter_mut().enumerate() {
+                col.extend(self.rows.chunks_exact(n).map(|r| r[c]));
+            }
+        }
+        self.rows.clear();
     }
 
     /// Whether it holds [`BLOCK_ROWS`] rows.
@@ -416,6 +450,7 @@ impl Block {
     pub fn clear(&mut self) {
         self.times.clear();
         self.lines.clear();
+        self.rows.clear();
         for col in &mut self.cols {
             col.clear();
         }
@@ -442,7 +477,25 @@ pub fn steady_prefix(times: &[Timestamp], last: Option<Timestamp>, max_gap_ms: i
 
 impl Sequential<'_> {
     fn file(&mut self, path: &Path, progress: &Progress, done_bytes: u64) -> Result<()> {
-        let mut reader = FileReader::open(path, self.cfg)?;
+        // The digest on a helper thread: this one replays.
+        let hash = self.opts.digests.then_some(HashOn::Helper);
+        let mut reader = FileReader::open_hashed(path, self.cfg, hash)?;
+        let digest = reader.digest();
+        self.pieces(&mut reader, path, progress, done_bytes)?;
+        drop(reader);
+        if let Some(d) = digest.and_then(DigestHandle::finish) {
+            self.stats.digests.push((path.to_path_buf(), d));
+        }
+        Ok(())
+    }
+
+    fn pieces(
+        &mut self,
+        reader: &mut FileReader<'_>,
+        path: &Path,
+        progress: &Progress,
+        done_bytes: u64,
+    ) -> Result<()> {
         let mut parser: Option<Parser> = None;
         while let Some(piece) = reader.next_piece(BLOCK)? {
             match piece {
@@ -506,6 +559,7 @@ impl Sequential<'_> {
     /// Pushes the rows of the block: runs of steady rows channel by channel,
     /// the others one by one, as [`Sequential::row`] would each.
     fn flush(&mut self, path: &Path) -> Result<()> {
+        self.block.columns();
         let n = self.block.times.len();
         let max_gap = self.opts.max_gap_ms();
         let mut i = 0;
@@ -1810,26 +1864,34 @@ fn plain_f64_in(b: &[u8], sep: u8, delim: u8) -> Option<(Reading, usize)> {
         Some(_) => (false, 0),
     };
     // Digits accumulate with wrapping arithmetic; more than 15 of them are
-    // refused after the loop, before `m` is used.
+    // refused after the loops, before `m` is used. The whole digits, then
+    // (after one `sep`) the decimals: two loops, each with one test a byte.
     let mut m = 0u64;
-    let mut dot = usize::MAX;
     let mut i = skip;
     while let Some(&c) = b.get(i) {
         let d = c.wrapping_sub(b'0');
-        if d < 10 {
-            m = m.wrapping_mul(10).wrapping_add(u64::from(d));
-        } else if c == sep && dot == usize::MAX {
-            dot = i;
-        } else {
+        if d >= 10 {
             break;
         }
+        m = m.wrapping_mul(10).wrapping_add(u64::from(d));
         i += 1;
     }
-    let (n, frac) = if dot == usize::MAX {
-        (i - skip, 0)
-    } else {
-        (i - skip - 1, i - dot - 1)
-    };
+    let whole = i - skip;
+    let mut frac = 0;
+    if b.get(i) == Some(&sep) {
+        i += 1;
+        let from = i;
+        while let Some(&c) = b.get(i) {
+            let d = c.wrapping_sub(b'0');
+            if d >= 10 {
+                break;
+            }
+            m = m.wrapping_mul(10).wrapping_add(u64::from(d));
+            i += 1;
+        }
+        frac = i - from;
+    }
+    let n = whole + frac;
     if n == 0 || n > 15 {
         return None;
     }
@@ -2097,6 +2159,172 @@ mod tests {
             for (frac, p) in POW10.iter().enumerate().take(4) {
                 let want = m as f64 / p;
                 assert_eq!(quotient(m, frac).to_bits(), want.to_bits(), "{m} {frac}");
+            }
+        }
+    }
+
+    /// The one byte loop [`plain_f64_in`] had before its two loops: the
+    /// reference it must agree with.
+    fn plain_f64_bytewise(b: &[u8], sep: u8, delim: u8) -> Option<(Reading, usize)> {
+        let (neg, skip) = match b.first() {
+            None | Some(b'\n' | b'\r') => return Some((Reading::Missing, 0)),
+            Some(&c) if c == delim => return Some((Reading::Missing, 0)),
+            Some(b'-') => (true, 1),
+            Some(b'+') => (false, 1),
+            Some(_) => (false, 0),
+        };
+        let (mut m, mut dot, mut i) = (0u64, usize::MAX, skip);
+        while let Some(&c) = b.get(i) {
+            if c.is_ascii_digit() {
+                m = m.wrapping_mul(10).wrapping_add(u64::from(c - b'0'));
+            } else if c == sep && dot == usize::MAX {
+                dot = i;
+            } else {
+                break;
+            }
+            i += 1;
+        }
+        let (n, frac) = if dot == usize::MAX {
+            (i - skip, 0)
+        } else {
+            (i - skip - 1, i - dot - 1)
+        };
+        if n == 0 || n > 15 {
+            return None;
+        }
+        let v = m as f64 / POW10[frac];
+        Some((Reading::Value(if neg { -v } else { v }), i))
+    }
+
+    /// The byte loop of [`plain_i32_in`], as [`plain_f64_bytewise`].
+    fn plain_i32_bytewise(b: &[u8], delim: u8) -> Option<(Reading, usize)> {
+        let (neg, skip) = match b.first() {
+            None | Some(b'\n' | b'\r') => return Some((Reading::Missing, 0)),
+            Some(&c) if c == delim => return Some((Reading::Missing, 0)),
+            Some(b'-') => (true, 1),
+            Some(b'+') => (false, 1),
+            Some(_) => (false, 0),
+        };
+        let n = b[skip..].iter().take_while(|c| c.is_ascii_digit()).count();
+        if n == 0 || n > 9 {
+            return None;
+        }
+        let k: i32 = std::str::from_utf8(&b[skip..skip + n])
+            .unwrap()
+            .parse()
+            .unwrap();
+        Some((Reading::Counts(if neg { -k } else { k }), skip + n))
+    }
+
+    #[test]
+    fn plain_numbers_are_those_of_the_one_loop_and_of_std_parse() {
+        // Invented fields: random bytes from an alphabet of digits, signs,
+        // separators, delimiters, terminators and letters, of every length
+        // from 1 to 20, then more bytes; against the byte loop
+        // (same value bits, same length) and, for a field that ends at a
+        // delimiter, against `str::parse::<f64>` and `str::parse::<i32>`
+        // (Rust's standard library: correctly rounded, IEEE 754).
+        const ALPHA: &[u8] = b"0123456789012345678901234567890123456789..,,;;+-\n\re ";
+        let mut x = 0x9E37_79B9_7F4A_7C15u64;
+        let mut next = || {
+            x ^= x << 13;
+            x ^= x >> 7;
+            x ^= x << 17;
+            x
+        };
+        let same =
+            |a: Option<(Reading, usize)>, b: Option<(Reading, usize)>, what: &[u8]| match (a, b) {
+                (Some((Reading::Value(p), i)), Some((Reading::Value(q), j))) => {
+                    assert!(p.to_bits() == q.to_bits() && i == j, "{what:?}")
+                }
+                (a, b) => assert_eq!(a, b, "{:?}", String::from_utf8_lossy(what)),
+            };
+        for round in 0..400_000 {
+            let len = 1 + (next() % 20) as usize;
+            let mut b: Vec<u8> = (0..len)
+                .map(|_| ALPHA[(next() % ALPHA.len() as u64) as usize])
+                .collect();
+            if round % 2 == 0 {
+                // A plain number of 1 to 9 digits, maybe signed, with or
+                // without one separator, then a delimiter.
+                let digits = 1 + (next() % 9) as usize;
+                let mut f: Vec<u8> = (0..digits).map(|_| b'0' + (next() % 10) as u8).collect();
+                if next() % 3 > 0 {
+                    let at = (next() % (digits as u64 + 1)) as usize;
+                    f.insert(at, if next() % 2 == 0 { b'.' } else { b',' });
+                }
+                if next() % 4 == 0 {
+                    f.insert(0, if next() % 2 == 0 { b'-' } else { b'+' });
+                }
+                f.push(b",;\n"[(next() % 3) as usize]);
+                f.extend_from_slice(&b);
+                b = f;
+            }
+            for (sep, delim) in [(b'.', b','), (b',', b';')] {
+                let got = plain_f64_in(&b, sep, delim);
+                same(got, plain_f64_bytewise(&b, sep, delim), &b);
+                if let Some((Reading::Value(v), i)) = got {
+                    if matches!(b.get(i), None | Some(&b'\n' | &b'\r')) || b.get(i) == Some(&delim)
+                    {
+                        let text: String = String::from_utf8(b[..i].to_vec())
+                            .unwrap()
+                            .replace(sep as char, ".");
+                        let want: f64 = text.parse().unwrap();
+                        assert_eq!(v.to_bits(), want.to_bits(), "{text}");
+                    }
+                }
+                let got = plain_i32_in(&b, delim);
+                assert_eq!(got, plain_i32_bytewise(&b, delim), "{b:?}");
+                if let Some((Reading::Counts(k), i)) = got {
+                    let text = std::str::from_utf8(&b[..i]).unwrap();
+                    assert_eq!(Ok(k), text.parse::<i32>(), "{text}");
+                }
+            }
+        }
+        for (f, want) in [
+            (&b"5.33,xxxxxxx"[..], Some((Reading::Value(5.33), 4))),
+            (b"-0.5\nxxxxxxx", Some((Reading::Value(-0.5), 4))),
+            (b"1234567,xxxxx", Some((Reading::Value(1_234_567.0), 7))),
+            (b"81.7", Some((Reading::Value(81.7), 4))),
+        ] {
+            assert_eq!(plain_f64(f), want);
+        }
+        assert_eq!(
+            plain_i32(b"2486,1.4,81.7"),
+            Some((Reading::Counts(2486), 4))
+        );
+    }
+
+    #[test]
+    fn rows_added_to_a_block_come_out_by_column() {
+        let mut b = Block::new(3);
+        let v = |x: f64| Reading::Value(x);
+        for i in 0..700u32 {
+            let t = Timestamp::from_millis(i64::from(i) * 1000);
+            let r = [v(f64::from(i)), Reading::Counts(i as i32), v(-f64::from(i))];
+            // Every fifth row with a reading short: the last channel missing.
+            let k = if i % 5 == 0 { 2 } else { 3 };
+            b.add(t, u64::from(i) + 2, &r[..k]);
+            if b.is_full() || i == 699 {
+                b.columns();
+                let n = b.times.len();
+                assert!(b.cols.iter().all(|c| c.len() == n));
+                for (j, &t) in b.times.iter().enumerate() {
+                    let i = (t.millis() / 1000) as u32;
+                    assert_eq!(b.lines[j], u64::from(i) + 2);
+                    assert_eq!(b.cols[0][j], v(f64::from(i)));
+                    assert_eq!(b.cols[1][j], Reading::Counts(i as i32));
+                    let last = if i % 5 == 0 {
+                        Reading::Missing
+                    } else {
+                        v(-f64::from(i))
+                    };
+                    assert_eq!(b.cols[2][j], last);
+                    let mut row = [Reading::Missing; 3];
+                    b.row(j, &mut row);
+                    assert_eq!(row[2], last);
+                }
+                b.clear();
             }
         }
     }
