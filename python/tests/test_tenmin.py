@@ -215,3 +215,51 @@ def test_dask_list_of_files_equals_cli(demo):
     with LocalCluster(n_workers=2, threads_per_worker=1, processes=True, dashboard_address=None) as c, Client(c) as client:
         recs = tenmin.dask.replay([str(d) for d in days], demo["station"], client=client, split_every=2)
     assert recs.csv == cli
+
+
+# --- Parquet and Arrow IPC in the CLI (host-cli/src/columnar.rs) -------------
+# Reference: pandas' and pyarrow's own readers (versions as check.sh installs them).
+
+
+@pytest.mark.parametrize("ext,jobs", [("parquet", 1), ("parquet", 2), ("arrow", 2)])
+def test_cli_records_parquet_read_by_pandas_equal_csv_values(demo, tmp_path, ext, jobs):
+    out = tmp_path / f"r.{ext}"
+    subprocess.run([demo["exe"], "replay", "-q", "-j", str(jobs), "-c", str(demo["station"]), "-o", str(out), str(demo["samples"])], check=True)
+    assert (tmp_path / f"r.{ext}.provenance.json").exists()
+    got = pd.read_parquet(out, engine="pyarrow") if ext == "parquet" else pd.read_feather(out)
+    want = cli_frame(demo)
+    assert_same_values(got, want)
+    # Types as CONTRACT.md says: counts int64, statistics float64, times UTC.
+    assert str(got["n_valid"].dtype) == "int64" and str(got["mean"].dtype) == "float64"
+    assert str(got["start"].dt.tz) == "UTC"
+    # Field by field against the CSV's text parsed by Python's float()
+    # (correctly rounded), independent of pandas' CSV parser.
+    rows = demo["cli"].decode().splitlines()[1:]
+    for c in ["mean", "sd", "min", "max", "gust", "ti", "resultant_direction"]:
+        k = want.columns.get_loc(c)
+        for r, v in zip(rows, got[c].tolist()):
+            t = r.split(",")[k]
+            assert (pd.isna(v) if t == "" else float(t) == v), (c, t, v)
+
+
+@pytest.mark.parametrize("how", ["pandas-parquet", "arrow-ipc", "export-parquet"])
+def test_cli_replays_columnar_samples_as_csv(demo, tmp_path, how):
+    import pyarrow.feather as feather
+
+    df = demo["df"].copy()
+    df["time"] = pd.to_datetime(df["time"], utc=True, format="ISO8601")
+    if how == "pandas-parquet":
+        path = tmp_path / "s.parquet"
+        df.to_parquet(path, engine="pyarrow", index=False)
+    elif how == "arrow-ipc":
+        path = tmp_path / "s.arrow"
+        feather.write_feather(pa.Table.from_pandas(df, preserve_index=False), path, compression="uncompressed")
+    else:
+        path = tmp_path / "s.parquet"
+        subprocess.run([demo["exe"], "export", "-q", "-c", str(demo["station"]), "-o", str(path), str(demo["samples"])], check=True)
+        back = pd.read_parquet(path)
+        assert len(back) == len(df) and list(back.columns) == ["time"] + tenmin.Station(demo["station"]).ids
+    for jobs in ("1", "2"):
+        got = subprocess.run([demo["exe"], "replay", "-q", "-j", jobs, "-c", str(demo["station"]), str(path)], check=True, capture_output=True).stdout
+        assert got == demo["cli"], (how, jobs)
+    assert tenmin.replay(path, demo["station"]).csv == demo["cli"]
