@@ -1,7 +1,9 @@
-//! `tenmin export`: samples CSV files to a binary sample file
-//! (`qc_core::wire`) that a logger under test replays.
+//! `tenmin export`: samples files to a binary sample file (`qc_core::wire`)
+//! that a logger under test replays, or to Parquet or Arrow samples
+//! ([`crate::columnar`], by the output's extension).
 //!
-//! The rows are read by the replay's own samples reader ([`samples::feed`]):
+//! The rows are read by the replay's own samples readers
+//! ([`crate::samples::feed`]; Parquet and Arrow by [`crate::columnar::feed`]):
 //! the same columns, times, missing readings, errors and `--skip-bad-rows`.
 //! Every row that reads is written as one sample frame holding the readings
 //! exactly as the CLI hands them to the core (`Reading::Value` for values,
