@@ -738,6 +738,12 @@ fn reading_at(col: &dyn Array, i: usize, decode: Decode) -> Result<Reading, Stri
             };
         }
     };
+    from_f64(v, decode)
+}
+
+/// The reading a number `v` of a float column gives.
+#[inline]
+fn from_f64(v: f64, decode: Decode) -> Result<Reading, String> {
     match decode {
         Decode::Value => Ok(Reading::Value(v)),
         Decode::Counts if v.is_nan() => Ok(Reading::Missing),
@@ -767,8 +773,8 @@ pub fn for_each_row(
     let mut readings = vec![Reading::Missing; cfg.channels.len()];
     let mut row = 0u64;
     for batch in batches {
-        let tcol = batch.column(time).as_ref();
-        let ccols: Vec<&dyn Array> = chans.iter().map(|&k| batch.column(k).as_ref()).collect();
+        let tcol = Cells::of(batch.column(time).as_ref());
+        let ccols = cells(batch, chans);
         for i in 0..batch.num_rows() {
             row += 1;
             let t = row_at(cfg, tcol, &ccols, i, &mut readings)
@@ -779,18 +785,69 @@ pub fn for_each_row(
     Ok(())
 }
 
+/// A column of a batch ready to read row by row: the common types
+/// (float64 values, millisecond times) resolved once per batch.
+#[derive(Clone, Copy)]
+enum Cells<'a> {
+    F64(&'a arrow_array::Float64Array),
+    Ms(&'a arrow_array::TimestampMillisecondArray),
+    Other(&'a dyn Array),
+}
+
+impl<'a> Cells<'a> {
+    fn of(col: &'a dyn Array) -> Self {
+        match col.data_type() {
+            DataType::Float64 => Cells::F64(col.as_primitive()),
+            DataType::Timestamp(TimeUnit::Millisecond, _) => Cells::Ms(col.as_primitive()),
+            _ => Cells::Other(col),
+        }
+    }
+
+    fn array(self) -> &'a dyn Array {
+        match self {
+            Cells::F64(a) => a,
+            Cells::Ms(a) => a,
+            Cells::Other(a) => a,
+        }
+    }
+}
+
+/// The columns `chans` of `batch`, ready to read.
+fn cells<'a>(batch: &'a RecordBatch, chans: &[usize]) -> Vec<Cells<'a>> {
+    chans
+        .iter()
+        .map(|&k| Cells::of(batch.column(k).as_ref()))
+        .collect()
+}
+
 /// Reads row `i` into `readings` (station-file order); returns its time.
+#[inline]
 fn row_at(
     cfg: &StationFile,
-    tcol: &dyn Array,
-    ccols: &[&dyn Array],
+    tcol: Cells<'_>,
+    ccols: &[Cells<'_>],
     i: usize,
     readings: &mut [Reading],
 ) -> Result<Timestamp, BadCell> {
-    let t = time_at(tcol, i).map_err(|m| ("time".to_string(), samples::BadKind::Time, m))?;
+    let t = match tcol {
+        Cells::Ms(a) if !a.is_null(i) => {
+            let t = Timestamp::from_millis(a.value(i));
+            if t >= SAMPLES_FROM && t < SAMPLES_END {
+                Ok(t)
+            } else {
+                time_at(a, i)
+            }
+        }
+        c => time_at(c.array(), i),
+    }
+    .map_err(|m| ("time".to_string(), samples::BadKind::Time, m))?;
     for (c, (col, spec)) in ccols.iter().zip(&cfg.channels).enumerate() {
-        readings[c] = reading_at(*col, i, spec.decode)
-            .map_err(|m| (spec.id.clone(), samples::BadKind::Value, m))?;
+        let r = match *col {
+            Cells::F64(a) if a.is_null(i) => Ok(Reading::Missing),
+            Cells::F64(a) => from_f64(a.value(i), spec.decode),
+            c => reading_at(c.array(), i, spec.decode),
+        };
+        readings[c] = r.map_err(|m| (spec.id.clone(), samples::BadKind::Value, m))?;
     }
     Ok(t)
 }
@@ -884,8 +941,8 @@ impl Columnar<'_> {
         let mut row = 0u64;
         for batch in batches {
             let batch = batch.map_err(|e| anyhow!("{}: after row {row}: {e}", path.display()))?;
-            let tcol = batch.column(time).as_ref();
-            let ccols: Vec<&dyn Array> = chans.iter().map(|&k| batch.column(k).as_ref()).collect();
+            let tcol = Cells::of(batch.column(time).as_ref());
+            let ccols = cells(&batch, &chans);
             for i in 0..batch.num_rows() {
                 row += 1;
                 self.stats.rows += 1;
@@ -1131,10 +1188,11 @@ pub fn check_samples(path: &Path, cfg: &StationFile, written: &Written) -> Resul
     let mut readings = vec![Reading::Missing; cfg.channels.len()];
     for batch in reader {
         let batch = batch.map_err(|e| anyhow!("{}: {e}", path.display()))?;
-        let ccols: Vec<&dyn Array> = chans.iter().map(|&k| batch.column(k).as_ref()).collect();
+        let ccols = cells(&batch, &chans);
+        let tcol = Cells::of(batch.column(time).as_ref());
         for i in 0..batch.num_rows() {
             rows += 1;
-            let t = row_at(cfg, batch.column(time).as_ref(), &ccols, i, &mut readings)
+            let t = row_at(cfg, tcol, &ccols, i, &mut readings)
                 .map_err(|(c, _, m)| anyhow!("{}: row {rows} (column {c}): {m}", path.display()))?;
             hash_sample(&mut h, t, &readings);
         }
