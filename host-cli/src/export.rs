@@ -1,7 +1,9 @@
-//! `tenmin export`: samples CSV files to a binary sample file
-//! (`qc_core::wire`) that a logger under test replays.
+//! `tenmin export`: samples files to a binary sample file (`qc_core::wire`)
+//! that a logger under test replays, or to Parquet or Arrow samples
+//! ([`crate::columnar`], by the output's extension).
 //!
-//! The rows are read by the replay's own samples reader ([`samples::feed`]):
+//! The rows are read by the replay's own samples readers
+//! ([`crate::samples::feed`]; Parquet and Arrow by [`crate::columnar::feed`]):
 //! the same columns, times, missing readings, errors and `--skip-bad-rows`.
 //! Every row that reads is written as one sample frame holding the readings
 //! exactly as the CLI hands them to the core (`Reading::Value` for values,
@@ -26,7 +28,7 @@ use qc_core::{ChannelConfig, ChannelRecord, PushTotals, Pushed, Reading, Timesta
 
 use crate::config::{self, StationFile};
 use crate::engine::{self, Engine, Sink};
-use crate::samples::{self, InputStats, Options};
+use crate::samples::{InputStats, Options};
 
 /// What an export wrote.
 #[derive(Clone, Debug)]
@@ -114,7 +116,7 @@ pub fn export(
         frames: 0,
         bytes: head.len() as u64,
     };
-    let input = samples::feed(files, cfg, Options { jobs: 1, ..opts }, &mut exporter)?;
+    let input = crate::columnar::feed_any(files, cfg, Options { jobs: 1, ..opts }, &mut exporter)?;
     Ok(Exported {
         input,
         pushed: exporter.totals(),
@@ -126,6 +128,20 @@ pub fn export(
 impl Exported {
     /// The summary on stderr: rows read and where they went, and the file.
     pub fn write(&self, w: &mut dyn Write, cfg: &StationFile, path: &Path) -> io::Result<()> {
+        self.write_counts(w)?;
+        writeln!(
+            w,
+            "wrote {} ({} bytes: a header with the configuration of {} channels from {}, then {} sample frames)",
+            path.display(),
+            self.bytes,
+            cfg.channels.len(),
+            cfg.path.display(),
+            self.frames
+        )
+    }
+
+    /// The summary's lines on the rows read and where they went.
+    pub fn write_counts(&self, w: &mut dyn Write) -> io::Result<()> {
         let p = &self.pushed;
         let b = &self.input.bad;
         writeln!(
@@ -142,16 +158,7 @@ impl Exported {
             p.closed_interval,
             p.unsupported_time,
         )?;
-        crate::summary::write_skipped(w, &self.input)?;
-        writeln!(
-            w,
-            "wrote {} ({} bytes: a header with the configuration of {} channels from {}, then {} sample frames)",
-            path.display(),
-            self.bytes,
-            cfg.channels.len(),
-            cfg.path.display(),
-            self.frames
-        )
+        crate::summary::write_skipped(w, &self.input)
     }
 }
 
@@ -180,11 +187,54 @@ pub fn run(a: &crate::ExportArgs) -> Result<ExitCode> {
         max_gap_days: a.max_gap_days,
         ..Options::default()
     };
+    let format = crate::columnar::Format::of_path(&a.output);
+    if format != crate::columnar::Format::Csv {
+        return export_columnar(a, &cfg, opts, format);
+    }
     let done = crate::output::write_to(Some(&a.output), "the sample file", |w| {
         export(&cfg, &a.samples, opts, w)
     })?;
     if !a.quiet {
         let _ = done.write(&mut io::stderr().lock(), &cfg, &a.output);
+    }
+    Ok(ExitCode::SUCCESS)
+}
+
+/// `tenmin export -o FILE.parquet` (or `.arrow`): the rows as columnar
+/// samples ([`crate::columnar`]), read back after writing.
+fn export_columnar(
+    a: &crate::ExportArgs,
+    cfg: &StationFile,
+    opts: Options,
+    format: crate::columnar::Format,
+) -> Result<ExitCode> {
+    let (done, written) = crate::output::write_to(Some(&a.output), "the samples", |w| {
+        let mut discard = Discard;
+        let core = engine::new(cfg, &mut discard)?;
+        let mut out = crate::columnar::SamplesOut::new(core, cfg, w, format)?;
+        let input =
+            crate::columnar::feed_any(&a.samples, cfg, Options { jobs: 1, ..opts }, &mut out)?;
+        let written = out.finish()?;
+        let done = Exported {
+            input,
+            pushed: out.totals(),
+            frames: written.rows,
+            bytes: 0,
+        };
+        Ok((done, written))
+    })?;
+    crate::columnar::check_samples(&a.output, cfg, &written)?;
+    if !a.quiet {
+        let w = &mut io::stderr().lock();
+        let _ = done.write_counts(w);
+        let _ = writeln!(
+            w,
+            "wrote {} ({} samples: {} rows of time and {} channels, read back)",
+            a.output.display(),
+            format.name(),
+            written.rows,
+            cfg.channels.len()
+        );
     }
     Ok(ExitCode::SUCCESS)
 }

@@ -10,6 +10,7 @@
 // private helpers.
 #![allow(rustdoc::private_intra_doc_links)]
 
+pub mod columnar;
 pub mod config;
 pub mod decode;
 pub mod demo;
@@ -40,7 +41,7 @@ pub mod timefmt;
 pub mod units;
 pub mod verify;
 
-use std::io;
+use std::io::{self, IsTerminal};
 use std::path::{Path, PathBuf};
 use std::process::ExitCode;
 
@@ -80,6 +81,11 @@ macro_rules! formats {
                 changed inside the interval): one row per interval and
                 channel, times UTC; empty field = no value; for direction, mean
                 is the unit-vector mean and sd is sigma-theta.
+  Parquet/Arrow by extension (.parquet .pq; .arrow .ipc .feather .arrows):
+                records (replay -o, --format) with the CSV's columns typed
+                (UTC ms timestamps, int64 counts, float64 statistics equal to
+                the CSV's text, null = empty); samples (replay, verify, export
+                -o) as a column time and one per channel id, null = missing.
 "
     };
 }
@@ -246,7 +252,7 @@ then one CRC-protected frame per row with the readings as the core receives them
 or missing). Duplicate and backward times are kept: the logger's station rejects and counts them as \
 the replay's does. The format is qc_core::wire (see CONTRACT.md, `Export`). A summary goes to stderr.",
         after_long_help = concat!(
-            "Example:\n  tenmin export --config station.toml day-2025-01-20.csv -o day.tmsf\n\n",
+            "Examples:\n  tenmin export --config station.toml day-2025-01-20.csv -o day.tmsf\n  tenmin export --config station.toml day-2025-01-20.csv -o day.parquet   (Parquet samples; .arrow: Arrow IPC)\n\n",
             "Files: station and samples as for `tenmin replay --help`.\n\n",
             "Exit codes:\n  0  success\n  2  bad input, bad usage or an I/O error (the message names file, line and field)"
         )
@@ -386,9 +392,16 @@ pub struct ReplayArgs {
     #[arg(required = true, value_name = "SAMPLES")]
     samples: Vec<PathBuf>,
     /// File to write the records to [default: stdout]: written whole or not at all, never
-    /// over an input.
+    /// over an input. A name ending .parquet (or .pq) writes Parquet, .arrow (.ipc,
+    /// .feather) Arrow IPC, unless --format says otherwise.
     #[arg(long, short = 'o', value_name = "RECORDS.csv")]
     output: Option<PathBuf>,
+    /// The records' file format [default: by the extension of -o, else csv]: parquet and
+    /// arrow hold the CSV's columns typed (times as UTC timestamps, counts as int64,
+    /// statistics as float64 with the CSV's exact values, null where the CSV is empty);
+    /// the file is read back after writing.
+    #[arg(long, value_enum, value_name = "FORMAT")]
+    format: Option<columnar::Format>,
     #[command(flatten)]
     input: InputArgs,
 }
@@ -560,12 +573,27 @@ fn replay_cmd(a: ReplayArgs) -> Result<ExitCode> {
         digests: a.output.is_some(),
         ..options(&a.input)
     };
-    let summary = output::write_to(a.output.as_deref(), "records", |w| {
-        let mut writer = records::Writer::new(w, ids(&cfg))?.with_sensors(cfg.sensors.clone());
+    let format = columnar::Format::choose(a.format, a.output.as_deref());
+    if format != columnar::Format::Csv && a.output.is_none() && io::stdout().is_terminal() {
+        anyhow::bail!(
+            "{} records are binary: give -o FILE, or redirect stdout to a file or pipe",
+            format.name()
+        );
+    }
+    let (summary, written) = output::write_to(a.output.as_deref(), "records", |w| {
+        if format == columnar::Format::Csv {
+            let mut writer = records::Writer::new(w, ids(&cfg))?.with_sensors(cfg.sensors.clone());
+            let s = replay::replay(&cfg, &a.samples, opts, &mut writer)?;
+            writer.finish()?;
+            return Ok((s, None));
+        }
+        let mut writer = columnar::RecordsOut::new(w, format, ids(&cfg), cfg.sensors.clone())?;
         let s = replay::replay(&cfg, &a.samples, opts, &mut writer)?;
-        writer.finish()?;
-        Ok(s)
+        Ok((s, Some(writer.finish()?)))
     })?;
+    if let (Some(out), Some(written)) = (&a.output, &written) {
+        columnar::check_records(out, written)?;
+    }
     if let Some(out) = &a.output {
         provenance::write_known(out, &cfg, &used, &summary.input.digests)?;
     }

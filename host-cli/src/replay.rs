@@ -91,11 +91,17 @@ pub fn replay(
     sink: &mut dyn Sink,
 ) -> Result<Summary> {
     let mut counting = Counting::new(sink, cfg.channels.len());
-    let (input, pushed, recovery) = if opts.jobs > 1 {
+    // Parquet and Arrow samples: one thread (crate::columnar).
+    let columnar = crate::columnar::all_columnar(files)?;
+    let (input, pushed, recovery) = if opts.jobs > 1 && !columnar {
         parallel::replay(cfg, files, opts, &mut counting)?
     } else {
         let mut engine = engine::new(cfg, &mut counting)?;
-        let input = samples::feed(files, cfg, opts, engine.as_mut())?;
+        let input = if columnar {
+            crate::columnar::feed(files, cfg, opts, engine.as_mut())?
+        } else {
+            samples::feed(files, cfg, opts, engine.as_mut())?
+        };
         (input, engine.totals(), engine.recovery())
     };
     let summary = Summary {

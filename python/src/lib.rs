@@ -20,7 +20,18 @@
 //! Any split of a time-ordered sample sequence, merged in any tree order,
 //! thus gives the one-pass records bit for bit: each complete interval is
 //! accumulated from all its samples by one station, and screening sees the
-//! same records in the same order.
+//! same records in the same order. With a sensor history, each sample is
+//! classified by the entry in force at its time (`Station::push_with`, the
+//! layouts of `host_cli::sensors::Epochs`), as the command's engine does;
+//! the station file's own layout finishes every interval.
+//!
+//! # Frames
+//!
+//! Frames come in through the Arrow C stream interface
+//! (`ArrowArrayStreamReader::from_pyarrow_bound`, arrow's own FFI import:
+//! the buffers are shared with pyarrow, not copied) and are read by
+//! `host_cli::columnar`, the code that reads Parquet and Arrow samples files
+//! for the command: the same types, the same messages.
 
 #![forbid(unsafe_code)]
 // pyo3 0.22's `create_exception!` tests a `gil-refs` cfg of its own.
@@ -31,10 +42,15 @@
 use std::path::{Path, PathBuf};
 
 use anyhow::{anyhow, bail, Result};
-use host_cli::config::{self, Decode, StationFile, MAX_CHANNELS};
+use arrow::array::RecordBatch;
+use arrow::ffi_stream::ArrowArrayStreamReader;
+use arrow::pyarrow::FromPyArrow;
+use host_cli::columnar;
+use host_cli::config::{self, StationFile, MAX_CHANNELS};
 use host_cli::engine::{Sink, G};
 use host_cli::records::Writer;
 use host_cli::samples::Options;
+use host_cli::sensors::Epochs;
 use pyo3::create_exception;
 use pyo3::prelude::*;
 use pyo3::types::PyBytes;
@@ -128,9 +144,27 @@ struct State<const C: usize> {
     items: Vec<Item<C>>,
 }
 
-/// The records of one complete interval, from all its samples, with the
-/// flags of its own tests only.
-fn finish_piece<const C: usize>(layout: &Layout<C>, p: &Piece<C>) -> Result<[ChannelRecord; C]> {
+/// A station file's layout, and with a sensor history the layout in force
+/// at each time (`host_cli::sensors::Epochs`, as the command's engine uses).
+struct Ctx<const C: usize> {
+    layout: Layout<C>,
+    epochs: Option<Epochs<C>>,
+}
+
+impl<const C: usize> Ctx<C> {
+    fn of(cfg: &StationFile) -> Result<Self> {
+        Ok(Ctx {
+            layout: cfg.layout::<C>()?,
+            epochs: cfg.epochs::<C>()?,
+        })
+    }
+}
+
+/// The records of one complete interval, from all its samples (each
+/// classified by the sensor-history entry in force at its time, as `tenmin
+/// replay` does), with the flags of its own tests only.
+fn finish_piece<const C: usize>(ctx: &Ctx<C>, p: &Piece<C>) -> Result<[ChannelRecord; C]> {
+    let layout = &ctx.layout;
     let mut st = Box::new(Station::<C, G>::new(*layout));
     let mut acc: Option<IntervalAcc<C, G>> = None;
     let mut keep = |e: Event<'_, C, G>| {
@@ -138,8 +172,19 @@ fn finish_piece<const C: usize>(layout: &Layout<C>, p: &Piece<C>) -> Result<[Cha
             acc = Some(*a);
         }
     };
+    let mut cursor = 0;
     for (t, r) in &p.samples {
-        st.push(Timestamp::from_millis(*t), r, &mut keep);
+        let ts = Timestamp::from_millis(*t);
+        match &ctx.epochs {
+            None => {
+                st.push(ts, r, &mut keep);
+            }
+            Some(e) => {
+                let entry = e.at(ts, &mut cursor);
+                st.push_with(entry, ts, r, &mut keep)
+                    .map_err(|e| anyhow!("interval {}: {e:?}", p.index))?;
+            }
+        }
     }
     st.close(&mut keep);
     let mut acc = acc.ok_or_else(|| anyhow!("interval {}: no samples accepted", p.index))?;
@@ -163,11 +208,11 @@ impl<const C: usize> State<C> {
     }
 
     /// Finishes every open interval that is not at an end.
-    fn settle(&mut self, layout: &Layout<C>) -> Result<()> {
+    fn settle(&mut self, ctx: &Ctx<C>) -> Result<()> {
         let n = self.items.len();
         for i in 1..n.saturating_sub(1) {
             if let Item::Open(p) = &self.items[i] {
-                let recs = finish_piece(layout, p)?;
+                let recs = finish_piece(ctx, p)?;
                 self.items[i] = Item::Done(p.index, Box::new(recs));
             }
         }
@@ -175,7 +220,8 @@ impl<const C: usize> State<C> {
     }
 
     /// The state of samples at `times` (ms, strictly increasing).
-    fn chunk(layout: &Layout<C>, times: &[i64], readings: &[[Reading; C]]) -> Result<Self> {
+    fn chunk(ctx: &Ctx<C>, times: &[i64], readings: &[[Reading; C]]) -> Result<Self> {
+        let layout = &ctx.layout;
         let mut items: Vec<Item<C>> = Vec::new();
         let mut prev: Option<i64> = None;
         for (k, (&t, r)) in times.iter().zip(readings).enumerate() {
@@ -197,12 +243,12 @@ impl<const C: usize> State<C> {
             }
         }
         let mut s = State { items };
-        s.settle(layout)?;
+        s.settle(ctx)?;
         Ok(s)
     }
 
     /// `self` followed by `later`, whose samples all come after.
-    fn merge(mut self, layout: &Layout<C>, later: Self) -> Result<Self> {
+    fn merge(mut self, ctx: &Ctx<C>, later: Self) -> Result<Self> {
         if let (Some(a), Some(b)) = (self.last_time(), later.first_time()) {
             if b <= a {
                 bail!("states out of order: the later state starts at {b} ms, not after the earlier one's last sample at {a} ms");
@@ -218,18 +264,19 @@ impl<const C: usize> State<C> {
             }
         }
         self.items.extend(rest);
-        self.settle(layout)?;
+        self.settle(ctx)?;
         Ok(self)
     }
 
     /// Screens every interval in time order and hands the records of the
     /// first `n` channels to `sink`, with rows for empty intervals between.
-    fn finish(self, layout: &Layout<C>, n: usize, sink: &mut dyn Sink) -> Result<()> {
+    fn finish(self, ctx: &Ctx<C>, n: usize, sink: &mut dyn Sink) -> Result<()> {
+        let layout = &ctx.layout;
         let mut screener = Screener::<C>::default();
         let mut prev: Option<i64> = None;
         for item in self.items {
             let (index, mut recs) = match item {
-                Item::Open(p) => (p.index, finish_piece(layout, &p)?),
+                Item::Open(p) => (p.index, finish_piece(ctx, &p)?),
                 Item::Done(i, r) => (i, *r),
             };
             if let Some(p) = prev {
@@ -413,103 +460,135 @@ macro_rules! by_size {
     };
 }
 
-/// Little-endian 8-byte words of `b`.
-fn words<'a>(b: &'a [u8], what: &str) -> Result<impl Iterator<Item = [u8; 8]> + 'a> {
-    if b.len() % 8 != 0 {
-        bail!(
-            "{what}: {} bytes, not a whole number of 8-byte values",
-            b.len()
-        );
-    }
-    Ok(b.chunks_exact(8).map(|c| {
-        let mut w = [0u8; 8];
-        w.copy_from_slice(c);
-        w
-    }))
+/// The batches of a frame handed over through the Arrow C stream interface
+/// (`__arrow_c_stream__`: the buffers are shared, not copied), read while
+/// holding the GIL (a stream may be a Python generator).
+fn batches(data: &Bound<'_, PyAny>) -> PyResult<Vec<RecordBatch>> {
+    let reader = ArrowArrayStreamReader::from_pyarrow_bound(data)?;
+    reader
+        .collect::<Result<Vec<_>, _>>()
+        .map_err(|e| TenminError::new_err((format!("frame: {e}"), EXIT_ERROR)))
 }
 
-fn chunk_c<const C: usize>(cfg: &StationFile, times: &[u8], cols: &[Vec<u8>]) -> Result<Vec<u8>> {
-    if let Some(h) = cfg.sensors.as_deref().filter(|h| h.converts()) {
-        bail!(
-            "the sensor history {} re-scales readings or changes mounting offsets: chunk states do not apply it yet; replay the samples files instead (tenmin.replay with paths)",
-            h.path.display()
-        );
+/// The name of frames in messages.
+const FRAME: &str = "frame";
+
+fn chunk_c<const C: usize>(cfg: &StationFile, data: &[RecordBatch]) -> Result<Vec<u8>> {
+    let ctx = Ctx::<C>::of(cfg)?;
+    let mut times: Vec<i64> = Vec::new();
+    let mut readings: Vec<[Reading; C]> = Vec::new();
+    if let Some(b) = data.first() {
+        let (t, chans) = columnar::columns(Path::new(FRAME), &b.schema(), cfg)?;
+        columnar::for_each_row(Path::new(FRAME), data, (t, &chans), cfg, |t, rs| {
+            let mut r = [Reading::Missing; C];
+            r[..rs.len()].copy_from_slice(rs);
+            // Readings the station file's exclusions cover, as `tenmin replay` marks them.
+            cfg.exclusions.apply(t, &mut r[..rs.len()]);
+            times.push(t.millis());
+            readings.push(r);
+            Ok(())
+        })?;
     }
-    let layout = cfg.layout::<C>()?;
-    let times: Vec<i64> = words(times, "times")?.map(i64::from_le_bytes).collect();
-    if cols.len() != cfg.channels.len() {
-        bail!(
-            "{} value columns for {} channels ({})",
-            cols.len(),
-            cfg.channels.len(),
-            ids(cfg).join(", ")
-        );
-    }
-    let mut readings = vec![[Reading::Missing; C]; times.len()];
-    for (ch, (col, spec)) in cols.iter().zip(&cfg.channels).enumerate() {
-        let n = col.len() / 8;
-        if n != times.len() {
-            bail!("column {}: {n} values for {} times", spec.id, times.len());
-        }
-        for (k, w) in words(col, &spec.id)?.enumerate() {
-            let v = f64::from_le_bytes(w);
-            readings[k][ch] = match spec.decode {
-                Decode::Value => Reading::Value(v),
-                Decode::Counts if v.is_nan() => Reading::Missing,
-                Decode::Counts => {
-                    if v.fract() != 0.0 || v < f64::from(i32::MIN) || v > f64::from(i32::MAX) {
-                        bail!(
-                            "column {}, sample {k}: {v} is not an integer count",
-                            spec.id
-                        );
-                    }
-                    Reading::Counts(v as i32)
-                }
-            };
-        }
-    }
-    // Readings the station file's exclusions cover, as `tenmin replay` marks them.
-    for (t, r) in times.iter().zip(readings.iter_mut()) {
-        cfg.exclusions.apply(Timestamp::from_millis(*t), r);
-    }
-    Ok(State::<C>::chunk(&layout, &times, &readings)?.encode(&layout))
+    Ok(State::<C>::chunk(&ctx, &times, &readings)?.encode(&ctx.layout))
 }
 
 fn merge_c<const C: usize>(cfg: &StationFile, states: &[Vec<u8>]) -> Result<Vec<u8>> {
-    let layout = cfg.layout::<C>()?;
+    let ctx = Ctx::<C>::of(cfg)?;
     let mut acc = State::<C>::default();
     for s in states {
-        acc = acc.merge(&layout, State::decode(&layout, s)?)?;
+        acc = acc.merge(&ctx, State::decode(&ctx.layout, s)?)?;
     }
-    Ok(acc.encode(&layout))
+    Ok(acc.encode(&ctx.layout))
 }
 
 fn finish_c<const C: usize>(cfg: &StationFile, state: &[u8]) -> Result<Vec<u8>> {
-    let layout = cfg.layout::<C>()?;
-    let s = State::<C>::decode(&layout, state)?;
+    let ctx = Ctx::<C>::of(cfg)?;
+    let s = State::<C>::decode(&ctx.layout, state)?;
     let mut w = Writer::new(Vec::new(), ids(cfg))?.with_sensors(cfg.sensors.clone());
-    s.finish(&layout, cfg.channels.len(), &mut w)?;
+    s.finish(&ctx, cfg.channels.len(), &mut w)?;
     Ok(w.finish()?)
 }
 
-/// The exact state of a chunk of samples: `times` little-endian i64
-/// milliseconds since 1970 UTC, strictly increasing; `columns` one per
-/// channel in station-file order, little-endian f64 (NaN: missing).
+/// The exact state of a chunk of samples: a frame with a column `time` and
+/// one per channel id (any object with `__arrow_c_stream__`), rows in
+/// strictly increasing time.
 #[pyfunction]
-#[pyo3(signature = (times, columns, station_path=None, station_toml=None))]
+#[pyo3(signature = (data, station_path=None, station_toml=None))]
 fn chunk_state<'py>(
     py: Python<'py>,
-    times: Vec<u8>,
-    columns: Vec<Vec<u8>>,
+    data: &Bound<'py, PyAny>,
     station_path: Option<&str>,
     station_toml: Option<&str>,
 ) -> PyResult<Bound<'py, PyBytes>> {
+    let data = batches(data)?;
     let run = || -> Result<Vec<u8>> {
         let cfg = station(station_path, station_toml)?;
-        by_size!(cfg, chunk_c(&cfg, &times, &columns))
+        by_size!(cfg, chunk_c(&cfg, &data))
     };
     let out = py.allow_threads(run).map_err(py_err)?;
     Ok(PyBytes::new_bound(py, &out))
+}
+
+/// Replays a frame (as [`chunk_state`] takes it) in one pass through the
+/// command's engine, as `tenmin replay` replays a Parquet file; returns the
+/// records CSV.
+#[pyfunction]
+#[pyo3(signature = (data, station_path=None, station_toml=None))]
+fn replay_frame<'py>(
+    py: Python<'py>,
+    data: &Bound<'py, PyAny>,
+    station_path: Option<&str>,
+    station_toml: Option<&str>,
+) -> PyResult<Bound<'py, PyBytes>> {
+    let data = batches(data)?;
+    let run = || -> Result<Vec<u8>> {
+        let cfg = station(station_path, station_toml)?;
+        let mut w = Writer::new(Vec::new(), ids(&cfg))?.with_sensors(cfg.sensors.clone());
+        let mut engine = host_cli::engine::new(&cfg, &mut w)?;
+        let opts = Options::default();
+        columnar::feed_batches(Path::new(FRAME), &data, &cfg, opts, engine.as_mut(), true)?;
+        drop(engine);
+        Ok(w.finish()?)
+    };
+    let out = py.allow_threads(run).map_err(py_err)?;
+    Ok(PyBytes::new_bound(py, &out))
+}
+
+/// The report's tables from records files, as `tenmin report` writes them:
+/// (name, CSV text) in the report's order.
+#[pyfunction]
+#[pyo3(signature = (records, station_path=None, station_toml=None, sectors=16, air_density=1.225, reference=None))]
+fn report_tables(
+    py: Python<'_>,
+    records: Vec<PathBuf>,
+    station_path: Option<&str>,
+    station_toml: Option<&str>,
+    sectors: u16,
+    air_density: f64,
+    reference: Option<String>,
+) -> PyResult<Vec<(String, String)>> {
+    let run = || -> Result<Vec<(String, String)>> {
+        let cfg = station(station_path, station_toml)?;
+        if ![8, 12, 16, 36].contains(&sectors) {
+            bail!("sectors={sectors}: sectors must be 8, 12, 16 or 36");
+        }
+        if !(air_density.is_finite() && (0.5..=2.0).contains(&air_density)) {
+            bail!("air_density={air_density}: air density must be a number of kg/m^3 between 0.5 and 2.0");
+        }
+        let a = host_cli::report::ReportArgs {
+            config: cfg.path.clone(),
+            records,
+            output: PathBuf::new(),
+            sectors,
+            air_density,
+            reference,
+        };
+        Ok(host_cli::report::table_texts(&cfg, &a)?
+            .into_iter()
+            .map(|(n, t)| (n.to_string(), t))
+            .collect())
+    };
+    py.allow_threads(run).map_err(py_err)
 }
 
 /// The states of consecutive chunks, in time order, merged exactly into one.
@@ -641,6 +720,8 @@ fn _tenmin(m: &Bound<'_, PyModule>) -> PyResult<()> {
     m.add("TenminError", m.py().get_type_bound::<TenminError>())?;
     m.add_function(wrap_pyfunction!(replay_files, m)?)?;
     m.add_function(wrap_pyfunction!(chunk_state, m)?)?;
+    m.add_function(wrap_pyfunction!(replay_frame, m)?)?;
+    m.add_function(wrap_pyfunction!(report_tables, m)?)?;
     m.add_function(wrap_pyfunction!(merge_states, m)?)?;
     m.add_function(wrap_pyfunction!(finish_state, m)?)?;
     m.add_function(wrap_pyfunction!(channel_ids, m)?)?;

@@ -32,6 +32,7 @@ __all__ = [
     "merge",
     "finish",
     "verify",
+    "report_tables",
 ]
 
 
@@ -145,60 +146,38 @@ def _table(data, time: str):
     raise TypeError(f"cannot replay a {type(data).__name__}: give paths, a pandas or polars DataFrame, or a pyarrow Table / RecordBatch / RecordBatchReader")
 
 
-def _times_ms(col):
-    """A time column as little-endian int64 ms since 1970 UTC."""
-    import numpy as np
+def _frame(data, station: Station, time: str):
+    """A frame as an Arrow table or stream of the columns `time` and the
+    channel ids (selected and renamed without copying). It goes to Rust
+    through the Arrow C stream interface (``__arrow_c_stream__``) as it is:
+    float64 values and timestamp or integer times are read in place, other
+    types (ints, float32, text times) as they come; nothing is converted
+    here first."""
     import pyarrow as pa
-    import pyarrow.compute as pc
 
-    t = col.type
-    if pa.types.is_timestamp(t):
-        # A naive time is UTC, as in the samples CSV without an offset.
-        ms = pc.cast(col, pa.timestamp("ms", tz=t.tz), safe=True).cast(pa.int64())
-    elif pa.types.is_integer(t) or pa.types.is_floating(t):
-        # Epoch seconds, as the samples CSV allows (decimal to ms).
-        ms = pc.round(pc.multiply(pc.cast(col, pa.float64()), 1000.0)).cast(pa.int64())
-    elif pa.types.is_string(t) or pa.types.is_large_string(t):
-        import pandas as pd
-
-        s = pd.to_datetime(col.to_pandas(), utc=True, format="ISO8601")
-        return s.to_numpy(dtype="datetime64[ms]").astype("<i8").tobytes()
-    else:
-        raise TenminError(f"time column: type {t} is not a time, epoch seconds or RFC 3339 text")
-    if ms.null_count:
-        raise TenminError("time column: empty times")
-    return np.ascontiguousarray(ms.to_numpy(zero_copy_only=False), dtype="<i8").tobytes()
-
-
-def _state_of_table(tab, station: Station, time: str) -> bytes:
-    import numpy as np
-    import pyarrow as pa
-    import pyarrow.compute as pc
-
+    tab = _table(data, time)
     names = tab.schema.names
     if time not in names:
         raise TenminError(f"no time column '{time}' (columns: {', '.join(names)})")
     missing = [c for c in station.ids if c not in names]
     if missing:
         raise TenminError(f"{station.path or 'station'}: channel(s) {', '.join(missing)} have no column (columns: {', '.join(names)})")
-    times = _times_ms(tab.column(time).combine_chunks() if isinstance(tab, pa.Table) else tab.column(time))
-    cols = []
-    for c in station.ids:
-        v = tab.column(c)
-        v = v.combine_chunks() if isinstance(v, pa.ChunkedArray) else v
-        v = pc.fill_null(pc.cast(v, pa.float64()), float("nan"))
-        cols.append(np.ascontiguousarray(v.to_numpy(zero_copy_only=False), dtype="<f8").tobytes())
-    return _call(_tenmin.chunk_state, times, cols, **station._kw())
+    cols = [time] + station.ids
+    new = ["time"] + station.ids
+    if isinstance(tab, pa.RecordBatchReader):
+        schema = pa.schema([tab.schema.field(c).with_name(n) for c, n in zip(cols, new)])
+        return pa.RecordBatchReader.from_batches(
+            schema, (pa.RecordBatch.from_arrays([b.column(c) for c in cols], schema=schema) for b in tab)
+        )
+    return tab.select(cols).rename_columns(new)
 
 
 def chunk_state(data, station, *, time: str = "time") -> bytes:
     """The exact state of a chunk of samples (time-ordered; a DataFrame,
-    pyarrow Table or RecordBatch), with its open intervals at both ends."""
+    pyarrow Table, RecordBatch or batch stream), with its open intervals at
+    both ends."""
     station = Station(station)
-    tab = _table(data, time)
-    if hasattr(tab, "read_next_batch"):  # a stream: batch by batch, merged
-        return merge((_state_of_table(b, station, time) for b in tab), station)
-    return _state_of_table(tab, station, time)
+    return _call(_tenmin.chunk_state, _frame(data, station, time), **station._kw())
 
 
 def merge(states: Iterable[bytes], station) -> bytes:
@@ -240,7 +219,7 @@ def replay(
             **station._kw(),
         )
         return Records(csv)
-    return finish(chunk_state(data, station, time=time), station)
+    return Records(_call(_tenmin.replay_frame, _frame(data, station, time), **station._kw()))
 
 
 def verify(samples, logger_records, station, *, jobs: int = 1, max_diffs: int = 1000):
@@ -264,3 +243,28 @@ def verify(samples, logger_records, station, *, jobs: int = 1, max_diffs: int = 
     df = pd.DataFrame(shown, columns=["start", "channel", "kind", "column", "replay", "logger", "ulps", "message"])
     df.attrs.update(total=total, rows_compared=compared, replay_rows=rows)
     return df
+
+
+def report_tables(records, station, *, sectors: int = 16, air_density: float = 1.225, reference: str | None = None):
+    """The tables of ``tenmin report`` from records file(s) (as ``tenmin
+    replay`` writes them), computed by the command's own code and written
+    nowhere: a dict from table name (the CLI writes ``<name>.csv``) to a
+    pandas DataFrame read from the same CSV text (``.attrs["csv"]`` holds
+    it), in the report's order."""
+    import pandas as pd
+
+    station = Station(station)
+    paths = [records] if isinstance(records, (str, os.PathLike)) else list(records)
+    out = {}
+    for name, text in _call(
+        _tenmin.report_tables,
+        [os.fspath(p) for p in paths],
+        sectors=sectors,
+        air_density=air_density,
+        reference=reference,
+        **station._kw(),
+    ):
+        df = pd.read_csv(io.StringIO(text), float_precision="round_trip", keep_default_na=False, na_values=[""])
+        df.attrs["csv"] = text
+        out[name] = df
+    return out

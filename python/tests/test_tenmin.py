@@ -215,3 +215,158 @@ def test_dask_list_of_files_equals_cli(demo):
     with LocalCluster(n_workers=2, threads_per_worker=1, processes=True, dashboard_address=None) as c, Client(c) as client:
         recs = tenmin.dask.replay([str(d) for d in days], demo["station"], client=client, split_every=2)
     assert recs.csv == cli
+
+
+# --- Parquet and Arrow IPC in the CLI (host-cli/src/columnar.rs) -------------
+# Reference: pandas' and pyarrow's own readers (versions as check.sh installs them).
+
+
+@pytest.mark.parametrize("ext,jobs", [("parquet", 1), ("parquet", 2), ("arrow", 2)])
+def test_cli_records_parquet_read_by_pandas_equal_csv_values(demo, tmp_path, ext, jobs):
+    out = tmp_path / f"r.{ext}"
+    subprocess.run([demo["exe"], "replay", "-q", "-j", str(jobs), "-c", str(demo["station"]), "-o", str(out), str(demo["samples"])], check=True)
+    assert (tmp_path / f"r.{ext}.provenance.json").exists()
+    got = pd.read_parquet(out, engine="pyarrow") if ext == "parquet" else pd.read_feather(out)
+    want = cli_frame(demo)
+    assert_same_values(got, want)
+    # Types as CONTRACT.md says: counts int64, statistics float64, times UTC.
+    assert str(got["n_valid"].dtype) == "int64" and str(got["mean"].dtype) == "float64"
+    assert str(got["start"].dt.tz) == "UTC"
+    # Field by field against the CSV's text parsed by Python's float()
+    # (correctly rounded), independent of pandas' CSV parser.
+    rows = demo["cli"].decode().splitlines()[1:]
+    for c in ["mean", "sd", "min", "max", "gust", "ti", "resultant_direction"]:
+        k = want.columns.get_loc(c)
+        for r, v in zip(rows, got[c].tolist()):
+            t = r.split(",")[k]
+            assert (pd.isna(v) if t == "" else float(t) == v), (c, t, v)
+
+
+@pytest.mark.parametrize("how", ["pandas-parquet", "arrow-ipc", "export-parquet"])
+def test_cli_replays_columnar_samples_as_csv(demo, tmp_path, how):
+    import pyarrow.feather as feather
+
+    df = demo["df"].copy()
+    df["time"] = pd.to_datetime(df["time"], utc=True, format="ISO8601")
+    if how == "pandas-parquet":
+        path = tmp_path / "s.parquet"
+        df.to_parquet(path, engine="pyarrow", index=False)
+    elif how == "arrow-ipc":
+        path = tmp_path / "s.arrow"
+        feather.write_feather(pa.Table.from_pandas(df, preserve_index=False), path, compression="uncompressed")
+    else:
+        path = tmp_path / "s.parquet"
+        subprocess.run([demo["exe"], "export", "-q", "-c", str(demo["station"]), "-o", str(path), str(demo["samples"])], check=True)
+        back = pd.read_parquet(path)
+        assert len(back) == len(df) and list(back.columns) == ["time"] + tenmin.Station(demo["station"]).ids
+    for jobs in ("1", "2"):
+        got = subprocess.run([demo["exe"], "replay", "-q", "-j", jobs, "-c", str(demo["station"]), str(path)], check=True, capture_output=True).stdout
+        assert got == demo["cli"], (how, jobs)
+    assert tenmin.replay(path, demo["station"]).csv == demo["cli"]
+
+
+# --- Arrow frames in place (the Arrow C stream interface) ---------------------
+
+
+def typed_table(demo):
+    """The demo's samples as Arrow: timestamp[ms, UTC] times, float64 values."""
+    df = demo["df"].copy()
+    df["time"] = pd.to_datetime(df["time"], utc=True, format="ISO8601").dt.as_unit("ms")
+    return pa.Table.from_pandas(df, preserve_index=False)
+
+
+def test_arrow_table_is_read_in_place(demo):
+    tab = typed_table(demo)
+    assert pa.types.is_timestamp(tab.schema.types[0]) and pa.types.is_float64(tab.schema.types[1])
+    # Every pyarrow allocation during the call goes through this pool: a cast,
+    # a null fill or a copy of a column into one buffer would show here.
+    pool = pa.proxy_memory_pool(pa.default_memory_pool())
+    old = pa.default_memory_pool()
+    pa.set_memory_pool(pool)
+    try:
+        csv = tenmin.replay(tab, demo["station"]).csv
+        state = tenmin.chunk_state(tab, demo["station"])
+    finally:
+        pa.set_memory_pool(old)
+    assert pool.max_memory() == 0, pool.max_memory()
+    assert csv == demo["cli"]
+    assert tenmin.finish(state, demo["station"]).csv == demo["cli"]
+
+
+@pytest.mark.parametrize("kind", ["epoch-int", "epoch-float", "naive-us", "float32", "large-string"])
+def test_other_column_types_read_as_the_csv(demo, kind):
+    import pyarrow.compute as pc
+
+    tab = typed_table(demo)
+    t = tab.column("time")
+    if kind == "epoch-int":
+        tab = tab.set_column(0, "time", pc.divide(t.cast(pa.int64()), 1000))
+    elif kind == "epoch-float":
+        tab = tab.set_column(0, "time", pc.divide(t.cast(pa.int64()).cast(pa.float64()), 1000.0))
+    elif kind == "naive-us":
+        tab = tab.set_column(0, "time", t.cast(pa.timestamp("us")))
+    elif kind == "large-string":
+        tab = tab.set_column(0, "time", pa.chunked_array([demo["df"]["time"].astype(str).tolist()], pa.large_string()))
+    else:
+        # float32 is exact only for values a float32 holds: the CSV's values
+        # rounded to float32 and back, written as CSV, are the reference.
+        tab = tab.set_column(1, tab.schema.names[1], tab.column(1).cast(pa.float32()))
+    got = tenmin.replay(tab, demo["station"]).csv
+    if kind == "float32":
+        df = demo["df"].copy()
+        c = df.columns[1]
+        df[c] = df[c].astype("float32").astype("float64")
+        # (at a resolution of 0.01 the quanta may well be the CSV's again)
+        assert tenmin.replay(df, demo["station"]).csv == got
+    else:
+        assert got == demo["cli"], kind
+
+
+def test_bad_cell_in_a_frame_names_row_and_column(demo):
+    df = demo["df"].iloc[:100].copy()
+    df.loc[41, "time"] = "2025-01-20T00:00:99Z"
+    with pytest.raises(tenmin.TenminError, match=r"frame: row 42 \(column time\)"):
+        tenmin.replay(df, demo["station"])
+
+
+# --- the report's tables and verify as DataFrames ----------------------------
+
+
+def test_report_tables_equal_the_cli_files(demo, tmp_path):
+    recs = demo["dir"] / "cli.csv"
+    out = tmp_path / "report"
+    subprocess.run([demo["exe"], "report", "-c", str(demo["station"]), "-o", str(out), "--sectors", "12", str(recs)], check=True, capture_output=True)
+    tables = tenmin.report_tables(recs, demo["station"], sectors=12)
+    files = sorted(p.stem for p in out.glob("*.csv"))
+    assert sorted(tables) == files and len(files) >= 10
+    for name, df in tables.items():
+        text = (out / f"{name}.csv").read_text()
+        assert df.attrs["csv"] == text, name
+        want = pd.read_csv(out / f"{name}.csv", float_precision="round_trip", keep_default_na=False, na_values=[""])
+        pd.testing.assert_frame_equal(df, want, check_exact=True)
+    with pytest.raises(tenmin.TenminError, match="sectors must be 8, 12, 16 or 36"):
+        tenmin.report_tables(recs, demo["station"], sectors=10)
+
+
+def test_chunk_states_apply_a_re_scaling_sensor_history(demo, tmp_path):
+    import shutil
+
+    d = tmp_path / "st"
+    shutil.copytree(demo["dir"] / "demo", d, ignore=shutil.ignore_patterns("samples-*", "logger*"))
+    sensors = (d / "sensors.toml").read_text()
+    # The first anemometer's logger programmed with a nominal transfer
+    # function, not its certificate's: samples are re-scaled until the swap.
+    changed = sensors.replace("logger = { slope = 0.04598, offset = 0.2087 }", "logger = { slope = 0.046, offset = 0.2 }", 1)
+    assert changed != sensors
+    (d / "sensors.toml").write_text(changed)
+    station = d / "station.toml"
+    cli = subprocess.run([demo["exe"], "replay", "-q", "-j", "1", "-c", str(station), str(demo["samples"])], check=True, capture_output=True).stdout
+    assert cli != demo["cli"]
+    df, st = demo["df"], tenmin.Station(station)
+    rng = random.Random(4)
+    for trial in range(3):
+        cuts = sorted(rng.sample(range(1, len(df)), rng.randint(1, 20)))
+        bounds = [0] + cuts + [len(df)]
+        states = [tenmin.chunk_state(df.iloc[a:b], st) for a, b in zip(bounds, bounds[1:])]
+        assert tenmin.finish(random_tree_merge(rng, states, st), st).csv == cli, cuts
+    assert tenmin.replay(df, st).csv == cli

@@ -184,25 +184,7 @@ pub fn run(a: &ReportArgs) -> Result<ExitCode> {
         output::refuse_inputs(&f, &inputs)?;
     }
     let cfg = config::load(&a.config)?;
-    let reference = match &a.reference {
-        None => None,
-        Some(id) => match cfg.channels.iter().position(|c| &c.id == id) {
-            Some(i) if cfg.channels[i].kind == Kind::Speed => Some(i),
-            Some(_) => bail!(
-                "--reference {id:?}: not a speed channel in {}",
-                a.config.display()
-            ),
-            None => bail!(
-                "--reference {id:?}: no such channel in {} (channels: {})",
-                a.config.display(),
-                cfg.channels
-                    .iter()
-                    .map(|c| c.id.as_str())
-                    .collect::<Vec<_>>()
-                    .join(", ")
-            ),
-        },
-    };
+    let reference = reference_of(&cfg, a)?;
     if let Some((ev, _)) = &cfg.events {
         for f in files(&a.output) {
             output::refuse_inputs(&f, &[("events file", ev.as_path())])?;
@@ -232,6 +214,46 @@ pub fn run(a: &ReportArgs) -> Result<ExitCode> {
     summary(&mut out, &d, &r, a, tables.len())?;
     out.finish()?;
     Ok(ExitCode::SUCCESS)
+}
+
+/// The channel of `--reference`, checked against the station file.
+fn reference_of(cfg: &config::StationFile, a: &ReportArgs) -> Result<Option<usize>> {
+    Ok(match &a.reference {
+        None => None,
+        Some(id) => match cfg.channels.iter().position(|c| &c.id == id) {
+            Some(i) if cfg.channels[i].kind == Kind::Speed => Some(i),
+            Some(_) => bail!(
+                "--reference {id:?}: not a speed channel in {}",
+                a.config.display()
+            ),
+            None => bail!(
+                "--reference {id:?}: no such channel in {} (channels: {})",
+                a.config.display(),
+                cfg.channels
+                    .iter()
+                    .map(|c| c.id.as_str())
+                    .collect::<Vec<_>>()
+                    .join(", ")
+            ),
+        },
+    })
+}
+
+/// The report's tables as `tenmin report` writes them: each table's name
+/// (its file is `<name>.csv`) and CSV text, computed from `a.records` as
+/// [`run`] computes them, writing nothing (the Python package's
+/// `tenmin.report_tables`).
+pub fn table_texts(
+    cfg: &config::StationFile,
+    a: &ReportArgs,
+) -> Result<Vec<(&'static str, String)>> {
+    let reference = reference_of(cfg, a)?;
+    let d = data::read(cfg, &a.records)?;
+    let r = compute(&d, a.sectors, a.air_density, reference, load_events(cfg)?);
+    Ok(tables(&d, &r, a.air_density)
+        .iter()
+        .map(|t| (t.name, t.csv()))
+        .collect())
 }
 
 /// What [`run`] makes of `a.records`, without writing a file: the page, the
