@@ -1000,6 +1000,7 @@ impl Columnar<'_> {
     /// Pushes the rows of the block, as the text reader does
     /// (`samples::Sequential::flush`).
     fn flush(&mut self, path: &Path) -> Result<()> {
+        self.block.columns();
         let n = self.block.times.len();
         let max_gap = self.opts.max_gap_ms();
         let mut i = 0;

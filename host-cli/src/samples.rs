@@ -383,8 +383,9 @@ pub struct Block {
     /// Each row's time and line.
     pub times: Vec<Timestamp>,
     pub lines: Vec<u64>,
-    /// Per channel (station-file order), one reading per row (after
-    /// [`Block::columns`]).
+    /// Per channel (station-file order), one reading per row, filled only
+    /// by [`Block::columns`]: every reader must call it before it reads
+    /// these (or [`Block::row`]).
     pub cols: Vec<Vec<Reading>>,
     /// The readings of the rows added since [`Block::columns`], row after
     /// row, one per channel.
