@@ -63,7 +63,7 @@ use sha2::{Digest, Sha256};
 use crate::config::{Decode, StationFile};
 use crate::engine::{Engine, Sink};
 use crate::records::{self, Type};
-use crate::samples::{self, check_jump, steady_prefix, Block, InputStats, Options};
+use crate::samples::{self, Block, InputStats, Options};
 use crate::sensors::History;
 use crate::timefmt::{parse_time, parse_time_any, Rfc3339, TimeError, SAMPLES_END, SAMPLES_FROM};
 
@@ -998,33 +998,15 @@ impl Columnar<'_> {
     }
 
     /// Pushes the rows of the block, as the text reader does
-    /// (`samples::Sequential::flush`).
+    /// ([`Block::push_into`]).
     fn flush(&mut self, path: &Path) -> Result<()> {
-        self.block.columns();
-        let n = self.block.times.len();
-        let max_gap = self.opts.max_gap_ms();
-        let mut i = 0;
-        while i < n {
-            let b = &self.block;
-            let m = steady_prefix(&b.times[i..], self.last, max_gap);
-            if m > 0 {
-                let k = self.engine.push_run(&b.times[i..i + m], &b.cols, i);
-                if k > 0 {
-                    self.last = Some(b.times[i + k - 1]);
-                    i += k;
-                    continue;
-                }
-            }
-            let (t, row) = (b.times[i], b.lines[i]);
-            b.row(i, &mut self.readings);
-            check_jump(&self.opts, self.last, t, path, row)?;
-            if self.engine.push(t, &self.readings)? == Pushed::Accepted {
-                self.last = Some(t);
-            }
-            i += 1;
-        }
-        self.block.clear();
-        Ok(())
+        self.block.push_into(
+            &mut *self.engine,
+            &mut self.last,
+            &mut self.readings,
+            &self.opts,
+            path,
+        )
     }
 }
 

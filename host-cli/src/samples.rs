@@ -447,6 +447,46 @@ impl Block {
         }
     }
 
+    /// Pushes its rows into `engine` and empties it: runs of steady rows
+    /// channel by channel ([`Engine::push_run`]), the others one by one
+    /// ([`Engine::push`], after [`check_jump`]), as pushing each row alone
+    /// would. `last` is the last accepted sample time, kept up to date;
+    /// `readings` is a row's scratch space (one per channel). Every reader
+    /// of blocks (text, sequential; Parquet and Arrow) flushes through here.
+    pub fn push_into(
+        &mut self,
+        engine: &mut dyn Engine,
+        last: &mut Option<Timestamp>,
+        readings: &mut [Reading],
+        opts: &Options,
+        path: &Path,
+    ) -> Result<()> {
+        self.columns();
+        let n = self.times.len();
+        let max_gap = opts.max_gap_ms();
+        let mut i = 0;
+        while i < n {
+            let m = steady_prefix(&self.times[i..], *last, max_gap);
+            if m > 0 {
+                let k = engine.push_run(&self.times[i..i + m], &self.cols, i);
+                if k > 0 {
+                    *last = Some(self.times[i + k - 1]);
+                    i += k;
+                    continue;
+                }
+            }
+            let (t, line) = (self.times[i], self.lines[i]);
+            self.row(i, readings);
+            check_jump(opts, *last, t, path, line)?;
+            if engine.push(t, readings)? == Pushed::Accepted {
+                *last = Some(t);
+            }
+            i += 1;
+        }
+        self.clear();
+        Ok(())
+    }
+
     /// Empties it.
     pub fn clear(&mut self) {
         self.times.clear();
@@ -557,34 +597,15 @@ impl Sequential<'_> {
         }
     }
 
-    /// Pushes the rows of the block: runs of steady rows channel by channel,
-    /// the others one by one, as [`Sequential::row`] would each.
+    /// Pushes the rows of the block ([`Block::push_into`]).
     fn flush(&mut self, path: &Path) -> Result<()> {
-        self.block.columns();
-        let n = self.block.times.len();
-        let max_gap = self.opts.max_gap_ms();
-        let mut i = 0;
-        while i < n {
-            let b = &self.block;
-            let m = steady_prefix(&b.times[i..], self.last, max_gap);
-            if m > 0 {
-                let k = self.engine.push_run(&b.times[i..i + m], &b.cols, i);
-                if k > 0 {
-                    self.last = Some(b.times[i + k - 1]);
-                    i += k;
-                    continue;
-                }
-            }
-            let (t, line) = (b.times[i], b.lines[i]);
-            b.row(i, &mut self.readings);
-            check_jump(&self.opts, self.last, t, path, line)?;
-            if self.engine.push(t, &self.readings)? == Pushed::Accepted {
-                self.last = Some(t);
-            }
-            i += 1;
-        }
-        self.block.clear();
-        Ok(())
+        self.block.push_into(
+            &mut *self.engine,
+            &mut self.last,
+            &mut self.readings,
+            &self.opts,
+            path,
+        )
     }
 
     #[inline]
