@@ -419,8 +419,8 @@ tm_status tm_layout_info(const void *layout,
 //
 // Returns `TM_OK`; or, without touching the logger: `TM_ERR_NULL`,
 // `TM_ERR_ALIGN`, `TM_ERR_NOT_READY`, `TM_ERR_CHANNELS` (n is not the
-// channel count), `TM_ERR_READING` (a reading's kind is unknown),
-// `TM_ERR_SIZE` (`frames_len` too short).
+// channel count), `TM_ERR_READING` (a reading's kind is unknown; `*out`
+// then holds zeros), `TM_ERR_SIZE` (`frames_len` too short).
 //
 // # Safety
 //

@@ -105,9 +105,10 @@ pub(crate) struct Meta {
 /// logger in the caller's memory through this trait, so only the shapes a
 /// program starts are linked into it.
 pub(crate) trait Engine {
-    /// Adds one sample (its readings checked: one per active channel, each
-    /// of a known kind); the frames of an interval it closes go to `out`,
-    /// what it did to `result` (all zero before). Called only with the
+    /// Adds one sample (the caller has checked that `readings` holds one
+    /// reading per active channel and `out` a frame per active channel;
+    /// this checks their kinds); the frames of an interval it closes go to
+    /// `out`, what it did to `result` (all zero before). Called only with the
     /// logger's own type (`Self: Sized`: not in the table of the other
     /// methods), so that it is inlined into its caller, `push_logger`.
     fn push(
@@ -128,22 +129,14 @@ pub(crate) trait Engine {
     fn totals(&self) -> qc_core::PushTotals;
 }
 
-/// The caller's readings as the core's row of `C`, checked: one per active
-/// channel, each of a `TM_READING_...` kind, and room in `out` for a frame
-/// per channel. A station that fills its shape (`n == C`, the usual case)
-/// hands the caller's row to the core as it is ([`crate::core_row`]: no
-/// conversion, no copy): `Ok(Some(row))`. One of fewer channels gets
-/// `Ok(None)`, and its caller a copy from [`padded`].
+/// The caller's readings as the core's row of `C`, their kinds checked
+/// (their count, one per active channel, and the room for frames are the
+/// caller's checks: `push_logger`). A station that fills its shape
+/// (`n == C`, the usual case) hands the caller's row to the core as it is
+/// ([`crate::core_row`]: no conversion, no copy): `Ok(Some(row))`. One of
+/// fewer channels gets `Ok(None)`, and its caller a copy from [`padded`].
 #[inline(always)]
-fn row<'a, const C: usize>(
-    meta: &Meta,
-    src: &'a [tm_reading],
-    out: &[u8],
-) -> Result<Option<&'a [Reading; C]>, tm_status> {
-    if src.len() != usize::from(meta.active) {
-        return Err(tm_status::TM_ERR_CHANNELS);
-    }
-    room(meta, out)?;
+fn row<const C: usize>(src: &[tm_reading]) -> Result<Option<&[Reading; C]>, tm_status> {
     match <&[tm_reading; C]>::try_from(src) {
         Ok(full) => crate::core_row(full)
             .map(Some)
@@ -282,7 +275,7 @@ impl<const C: usize, const G: usize> Engine for RecordBody<C, G> {
         result: &mut tm_push_result,
     ) -> Result<(), tm_status> {
         let pad;
-        let readings = match row::<C>(meta, src, out)? {
+        let readings = match row::<C>(src)? {
             Some(full) => full,
             None => {
                 pad = padded::<C>(src)?;
@@ -331,7 +324,7 @@ impl<const C: usize, const G: usize> Engine for StateBody<C, G> {
         result: &mut tm_push_result,
     ) -> Result<(), tm_status> {
         let pad;
-        let readings = match row::<C>(meta, src, out)? {
+        let readings = match row::<C>(src)? {
             Some(full) => full,
             None => {
                 pad = padded::<C>(src)?;

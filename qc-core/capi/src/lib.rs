@@ -71,6 +71,10 @@ const _: () = assert!(TM_FRAME_LEN == FRAME_LEN);
 /// it as an array of `uint64_t`, or with `_Alignas(TM_ALIGN)`).
 pub const TM_ALIGN: usize = 8;
 
+const _: () = assert!(
+    TM_ALIGN % align_of::<tm_reading>() == 0 && TM_ALIGN % align_of::<tm_push_result>() == 0
+);
+
 /// `tm_frame_info.kind`: a record frame (finished statistics).
 pub const TM_FRAME_RECORD: u8 = 0;
 /// `tm_frame_info.kind`: a state frame (an interval's exact state).
@@ -106,17 +110,12 @@ struct Head {
     engine: *mut dyn Engine,
 }
 
-/// [`push_logger`] of one shape and kind: `tm_logger_push`'s arguments,
-/// the readings second (so that four of them travel in registers).
-type PushFn = unsafe fn(
-    *mut c_void,
-    *const tm_reading,
-    i64,
-    usize,
-    *mut u8,
-    usize,
-    *mut tm_push_result,
-) -> tm_status;
+/// [`push_logger`] of one shape and kind: `tm_logger_push`'s arguments
+/// after its checks (the readings are the layout's channel count, the
+/// frames room for a frame per channel, `out` written once with zeros):
+/// five, so that only the last travels on the stack of a Cortex-M0.
+type PushFn =
+    unsafe fn(*mut c_void, *const tm_reading, i64, *mut u8, *mut tm_push_result) -> tm_status;
 
 /// A logger block: the head, then the logger.
 #[repr(C)]
@@ -500,8 +499,8 @@ pub unsafe extern "C" fn tm_layout_info(
 ///
 /// Returns `TM_OK`; or, without touching the logger: `TM_ERR_NULL`,
 /// `TM_ERR_ALIGN`, `TM_ERR_NOT_READY`, `TM_ERR_CHANNELS` (n is not the
-/// channel count), `TM_ERR_READING` (a reading's kind is unknown),
-/// `TM_ERR_SIZE` (`frames_len` too short).
+/// channel count), `TM_ERR_READING` (a reading's kind is unknown; `*out`
+/// then holds zeros), `TM_ERR_SIZE` (`frames_len` too short).
 ///
 /// # Safety
 ///
@@ -518,69 +517,122 @@ pub unsafe extern "C" fn tm_logger_push(
     frames_len: usize,
     out: *mut tm_push_result,
 ) -> tm_status {
-    let push = match block::<Head>(logger, size_of::<Head>()) {
+    let (push, active) = match block::<Head>(logger, size_of::<Head>()) {
         // SAFETY: non-null and aligned; the caller promises a logger block,
         // whose head is readable (a block never started fails the mark
         // check). The reference ends here, before the push borrows the block.
         Ok(head) => match unsafe { &*head } {
-            h if h.magic == LOGGER_MAGIC => h.push,
+            h if h.magic == LOGGER_MAGIC => (h.push, h.meta.active),
             _ => return tm_status::TM_ERR_NOT_READY,
         },
         Err(s) => return s,
     };
+    // The arguments checked all together, once per row (one branch for the
+    // usual row); anything else goes to `refused`, which finds the error the
+    // checks in their documented order give.
+    let misaligned = (readings as usize | out as usize) % TM_ALIGN;
+    let good = (n == usize::from(active))
+        & (frames_len >= usize::from(active) * FRAME_LEN)
+        & (misaligned == 0)
+        & !readings.is_null()
+        & !frames.is_null()
+        & !out.is_null();
+    if !good {
+        return refused(active, readings, n, frames, frames_len, out);
+    }
+    // SAFETY: `out` is non-null and aligned; the caller promises it is
+    // writable.
+    unsafe { out.write(tm_push_result::default()) };
     // SAFETY: a marked block was written by `put_logger`, which set `push`
-    // to the push of the logger it wrote; the arguments are the caller's
+    // to the push of the logger it wrote; the pointers were checked above
+    // as `push_logger` requires, and the caller promises what they point to
     // (see the function's Safety).
-    unsafe { push(logger, readings, time_ms, n, frames, frames_len, out) }
+    unsafe { push(logger, readings, time_ms, frames, out) }
 }
 
 /// `tm_logger_push` of a started logger of body `B`: one function per shape
-/// and kind, the logger's push inlined into it (no second call, no result
-/// copied between calls: the per-sample cost counts on a Cortex-M0).
+/// and kind, the logger's push inlined into it (no second call: the
+/// per-sample cost counts on a Cortex-M0).
 ///
 /// # Safety
 ///
-/// `logger` must be a block `put_logger::<B>` wrote (marked); the other
-/// arguments as `tm_logger_push` says.
+/// `logger` must be a block `put_logger::<B>` wrote (marked); `readings`
+/// non-null and aligned, with one valid reading per channel of the logger
+/// (`meta.active`), unchanged during the call; `frames` non-null, with
+/// room for a frame per channel, not aliased during the call; `out`
+/// non-null, aligned, and holding a `tm_push_result`, not aliased.
 unsafe fn push_logger<B: Engine>(
     logger: *mut c_void,
     readings: *const tm_reading,
     time_ms: i64,
+    frames: *mut u8,
+    out: *mut tm_push_result,
+) -> tm_status {
+    // SAFETY: the block holds a LoggerMem<B> (the caller's promise, from
+    // `put_logger::<B>`, whose caller checked its size and alignment), used
+    // by no one else during the call.
+    let LoggerMem { head, body } = unsafe { &mut *logger.cast::<LoggerMem<B>>() };
+    let active = usize::from(head.meta.active);
+    // SAFETY: the caller promises `active` (at most 255) valid readings at
+    // `readings`, non-null and aligned (16 bytes each: the size fits an
+    // isize).
+    let readings = unsafe { core::slice::from_raw_parts(readings, active) };
+    // SAFETY: the caller promises room for `active` frames of 128 bytes at
+    // `frames` (the size fits an isize), non-null and not aliased.
+    let frames = unsafe { core::slice::from_raw_parts_mut(frames, active * FRAME_LEN) };
+    // SAFETY: the caller promises `out` non-null, aligned, holding a
+    // `tm_push_result`, not aliased during the call.
+    let result = unsafe { &mut *out };
+    match body.push(
+        &mut head.meta,
+        Timestamp::from_millis(time_ms),
+        readings,
+        frames,
+        result,
+    ) {
+        Ok(()) => tm_status::TM_OK,
+        Err(s) => s,
+    }
+}
+
+/// The error of a push whose arguments are not all good (out of line: the
+/// rare case), as `tm_logger_push` documents it, the checks in this order:
+/// `out`, `readings`, `frames`, the channel count, the room for frames.
+#[cold]
+#[inline(never)]
+fn refused(
+    active: u8,
+    readings: *const tm_reading,
     n: usize,
     frames: *mut u8,
     frames_len: usize,
     out: *mut tm_push_result,
 ) -> tm_status {
-    if let Err(s) = one(out.cast_const()) {
-        return s;
-    }
-    // SAFETY: the block holds a LoggerMem<B> (the caller's promise, from
-    // `put_logger::<B>`, whose caller checked its size and alignment), used
-    // by no one else during the call.
-    let LoggerMem { head, body } = unsafe { &mut *logger.cast::<LoggerMem<B>>() };
-    let mut result = tm_push_result::default();
     let r = (|| {
-        // SAFETY: the caller promises `n` readings at `readings`.
-        let readings = unsafe { slice(readings, n) }?;
-        // SAFETY: the caller promises `frames_len` writable bytes at `frames`.
-        let frames = unsafe { slice_mut(frames, frames_len) }?;
-        body.push(
-            &mut head.meta,
-            Timestamp::from_millis(time_ms),
-            readings,
-            frames,
-            &mut result,
-        )
-    })();
-    match r {
-        Ok(()) => {
-            // SAFETY: `out` checked non-null and aligned above; the caller
-            // promises it is writable.
-            unsafe { out.write(result) };
-            tm_status::TM_OK
+        one(out.cast_const())?;
+        if n != 0 {
+            one(readings)?;
+            if n.checked_mul(size_of::<tm_reading>())
+                .is_none_or(|b| b > isize::MAX as usize)
+            {
+                return Err(tm_status::TM_ERR_SIZE);
+            }
         }
-        Err(s) => s,
-    }
+        if frames_len != 0 {
+            if frames.is_null() {
+                return Err(tm_status::TM_ERR_NULL);
+            }
+            if frames_len > isize::MAX as usize {
+                return Err(tm_status::TM_ERR_SIZE);
+            }
+        }
+        if n != usize::from(active) {
+            return Err(tm_status::TM_ERR_CHANNELS);
+        }
+        // What is left: no room for a frame per channel.
+        Err(tm_status::TM_ERR_SIZE)
+    })();
+    status(r)
 }
 
 /// Closes the open interval of the logger in the block `logger` (end of
