@@ -1805,6 +1805,365 @@ impl ChannelRecord {
     }
 }
 
+// ---------------------------------------------------------------------------
+// A channel as bytes, for a layout image (`Layout::to_image`, station.rs):
+// every field, little-endian, in declaration order; an `Option` as a tag
+// byte (0 none, 1 some) and its value (zeros when none). Written from a
+// validated channel and read back without validating again (the image's CRC
+// and version are checked by `Layout::load_image`); the exhaustive
+// destructuring below fails to compile when a field is added, so the image
+// cannot silently leave one out.
+
+/// Writes little-endian fields into a byte buffer (a layout image).
+pub(crate) struct ImageWriter<'a> {
+    buf: &'a mut [u8],
+    at: usize,
+    ok: bool,
+}
+
+impl<'a> ImageWriter<'a> {
+    /// A writer at the start of `buf`.
+    pub(crate) fn new(buf: &'a mut [u8]) -> Self {
+        ImageWriter {
+            buf,
+            at: 0,
+            ok: true,
+        }
+    }
+
+    /// Bytes written; `None` if `buf` was too short.
+    pub(crate) fn len(&self) -> Option<usize> {
+        self.ok.then_some(self.at)
+    }
+
+    /// The bytes written so far (empty if `buf` was too short).
+    pub(crate) fn written(&self) -> &[u8] {
+        self.buf.get(..self.at).unwrap_or(&[])
+    }
+
+    pub(crate) fn bytes(&mut self, b: &[u8]) {
+        match self.buf.get_mut(self.at..self.at + b.len()) {
+            Some(dst) => {
+                dst.copy_from_slice(b);
+                self.at += b.len();
+            }
+            None => self.ok = false,
+        }
+    }
+
+    pub(crate) fn u8(&mut self, v: u8) {
+        self.bytes(&[v]);
+    }
+
+    pub(crate) fn u16(&mut self, v: u16) {
+        self.bytes(&v.to_le_bytes());
+    }
+
+    pub(crate) fn u32(&mut self, v: u32) {
+        self.bytes(&v.to_le_bytes());
+    }
+
+    pub(crate) fn i32(&mut self, v: i32) {
+        self.bytes(&v.to_le_bytes());
+    }
+
+    pub(crate) fn i64(&mut self, v: i64) {
+        self.bytes(&v.to_le_bytes());
+    }
+
+    pub(crate) fn f64(&mut self, v: f64) {
+        self.bytes(&v.to_bits().to_le_bytes());
+    }
+
+    fn flag(&mut self, v: bool) {
+        self.u8(u8::from(v));
+    }
+
+    fn opt_u8(&mut self, v: Option<u8>) {
+        self.flag(v.is_some());
+        self.u8(v.unwrap_or(0));
+    }
+
+    fn opt_u32(&mut self, v: Option<u32>) {
+        self.flag(v.is_some());
+        self.u32(v.unwrap_or(0));
+    }
+
+    fn opt_f64(&mut self, v: Option<f64>) {
+        self.flag(v.is_some());
+        self.f64(v.unwrap_or(0.0));
+    }
+
+    fn opt_pair(&mut self, v: Option<(f64, f64)>) {
+        self.flag(v.is_some());
+        let (a, b) = v.unwrap_or((0.0, 0.0));
+        self.f64(a);
+        self.f64(b);
+    }
+}
+
+/// Reads what [`ImageWriter`] wrote; `None` past the end or for a byte that
+/// is no value of its field.
+pub(crate) struct ImageReader<'a> {
+    buf: &'a [u8],
+}
+
+impl<'a> ImageReader<'a> {
+    /// A reader at the start of `buf`.
+    pub(crate) fn new(buf: &'a [u8]) -> Self {
+        ImageReader { buf }
+    }
+
+    /// Bytes not read yet.
+    pub(crate) fn rest(&self) -> usize {
+        self.buf.len()
+    }
+
+    fn take<const N: usize>(&mut self) -> Option<[u8; N]> {
+        let (head, rest) = self.buf.split_first_chunk::<N>()?;
+        self.buf = rest;
+        Some(*head)
+    }
+
+    pub(crate) fn u8(&mut self) -> Option<u8> {
+        self.take::<1>().map(|[b]| b)
+    }
+
+    pub(crate) fn u16(&mut self) -> Option<u16> {
+        self.take().map(u16::from_le_bytes)
+    }
+
+    pub(crate) fn u32(&mut self) -> Option<u32> {
+        self.take().map(u32::from_le_bytes)
+    }
+
+    pub(crate) fn i32(&mut self) -> Option<i32> {
+        self.take().map(i32::from_le_bytes)
+    }
+
+    pub(crate) fn i64(&mut self) -> Option<i64> {
+        self.take().map(i64::from_le_bytes)
+    }
+
+    pub(crate) fn f64(&mut self) -> Option<f64> {
+        self.take().map(|b| f64::from_bits(u64::from_le_bytes(b)))
+    }
+
+    fn flag(&mut self) -> Option<bool> {
+        match self.u8()? {
+            0 => Some(false),
+            1 => Some(true),
+            _ => None,
+        }
+    }
+
+    fn opt_u8(&mut self) -> Option<Option<u8>> {
+        let some = self.flag()?;
+        let v = self.u8()?;
+        Some(some.then_some(v))
+    }
+
+    fn opt_u32(&mut self) -> Option<Option<u32>> {
+        let some = self.flag()?;
+        let v = self.u32()?;
+        Some(some.then_some(v))
+    }
+
+    fn opt_f64(&mut self) -> Option<Option<f64>> {
+        let some = self.flag()?;
+        let v = self.f64()?;
+        Some(some.then_some(v))
+    }
+
+    fn opt_pair(&mut self) -> Option<Option<(f64, f64)>> {
+        let some = self.flag()?;
+        let a = self.f64()?;
+        let b = self.f64()?;
+        Some(some.then_some((a, b)))
+    }
+}
+
+impl Channel {
+    /// Bytes of a channel in a layout image.
+    pub(crate) const IMAGE_LEN: usize = 53 + 45 + 121 + 33;
+
+    /// Writes the channel, every field (see the section's comment).
+    pub(crate) fn write_image(&self, w: &mut ImageWriter<'_>) {
+        let Channel {
+            lo_k,
+            hi_k,
+            code_in_counts,
+            code_in_values,
+            gust_w,
+            spike_lim,
+            dir_inline_lo,
+            dir_fast_k,
+            offset_cd,
+            dir_mul,
+            dir_add,
+            inv_step,
+            cfg,
+        } = *self;
+        w.i32(lo_k);
+        w.i32(hi_k);
+        w.flag(code_in_counts);
+        w.flag(code_in_values);
+        w.u16(gust_w);
+        w.u32(spike_lim);
+        w.i32(dir_inline_lo);
+        w.i32(dir_fast_k);
+        w.i32(offset_cd);
+        w.i64(dir_mul);
+        w.i64(dir_add);
+        w.opt_f64(inv_step);
+        let ChannelConfig {
+            kind,
+            scale: Scale { offset, step },
+            range: (low, high),
+            gust_window,
+            mounting_offset_deg,
+            speed_channel,
+            screen,
+            recal,
+        } = cfg;
+        w.u8(match kind {
+            Kind::Speed => 0,
+            Kind::Direction => 1,
+            Kind::Scalar => 2,
+        });
+        w.f64(offset);
+        w.f64(step);
+        w.f64(low);
+        w.f64(high);
+        w.u16(gust_window);
+        w.f64(mounting_offset_deg);
+        w.opt_u8(speed_channel);
+        let Screen {
+            step_limit,
+            mean_range,
+            sd_range,
+            gust_max,
+            min_recovery,
+            flat_span_s,
+            flat_tolerance,
+            partner,
+            pair_mean_diff,
+            pair_max_diff,
+            above,
+            shear_tolerance,
+            icing,
+        } = screen;
+        w.opt_f64(step_limit);
+        w.opt_pair(mean_range);
+        w.opt_pair(sd_range);
+        w.opt_f64(gust_max);
+        w.opt_f64(min_recovery);
+        w.opt_u32(flat_span_s);
+        w.f64(flat_tolerance);
+        w.opt_u8(partner);
+        w.f64(pair_mean_diff);
+        w.f64(pair_max_diff);
+        w.opt_u8(above);
+        w.f64(shear_tolerance);
+        let Icing {
+            temperature,
+            humidity,
+            max_temperature,
+            min_humidity,
+        } = icing.unwrap_or(Icing::new(0, 0));
+        w.flag(icing.is_some());
+        w.u8(temperature);
+        w.u8(humidity);
+        w.f64(max_temperature);
+        w.f64(min_humidity);
+        let Recal {
+            logger_slope,
+            logger_offset,
+            cert_slope,
+            cert_offset,
+        } = recal.unwrap_or(Recal {
+            logger_slope: 0.0,
+            logger_offset: 0.0,
+            cert_slope: 0.0,
+            cert_offset: 0.0,
+        });
+        w.flag(recal.is_some());
+        w.f64(logger_slope);
+        w.f64(logger_offset);
+        w.f64(cert_slope);
+        w.f64(cert_offset);
+    }
+
+    /// Reads a channel [`Channel::write_image`] wrote (fields in the same
+    /// order: a struct expression evaluates its fields as written).
+    pub(crate) fn read_image(r: &mut ImageReader<'_>) -> Option<Self> {
+        Some(Channel {
+            lo_k: r.i32()?,
+            hi_k: r.i32()?,
+            code_in_counts: r.flag()?,
+            code_in_values: r.flag()?,
+            gust_w: r.u16()?,
+            spike_lim: r.u32()?,
+            dir_inline_lo: r.i32()?,
+            dir_fast_k: r.i32()?,
+            offset_cd: r.i32()?,
+            dir_mul: r.i64()?,
+            dir_add: r.i64()?,
+            inv_step: r.opt_f64()?,
+            cfg: ChannelConfig {
+                kind: match r.u8()? {
+                    0 => Kind::Speed,
+                    1 => Kind::Direction,
+                    2 => Kind::Scalar,
+                    _ => return None,
+                },
+                scale: Scale {
+                    offset: r.f64()?,
+                    step: r.f64()?,
+                },
+                range: (r.f64()?, r.f64()?),
+                gust_window: r.u16()?,
+                mounting_offset_deg: r.f64()?,
+                speed_channel: r.opt_u8()?,
+                screen: Screen {
+                    step_limit: r.opt_f64()?,
+                    mean_range: r.opt_pair()?,
+                    sd_range: r.opt_pair()?,
+                    gust_max: r.opt_f64()?,
+                    min_recovery: r.opt_f64()?,
+                    flat_span_s: r.opt_u32()?,
+                    flat_tolerance: r.f64()?,
+                    partner: r.opt_u8()?,
+                    pair_mean_diff: r.f64()?,
+                    pair_max_diff: r.f64()?,
+                    above: r.opt_u8()?,
+                    shear_tolerance: r.f64()?,
+                    icing: {
+                        let some = r.flag()?;
+                        let ice = Icing {
+                            temperature: r.u8()?,
+                            humidity: r.u8()?,
+                            max_temperature: r.f64()?,
+                            min_humidity: r.f64()?,
+                        };
+                        some.then_some(ice)
+                    },
+                },
+                recal: {
+                    let some = r.flag()?;
+                    let recal = Recal {
+                        logger_slope: r.f64()?,
+                        logger_offset: r.f64()?,
+                        cert_slope: r.f64()?,
+                        cert_offset: r.f64()?,
+                    };
+                    some.then_some(recal)
+                },
+            },
+        })
+    }
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;

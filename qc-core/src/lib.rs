@@ -202,6 +202,7 @@ pub use station::{
     config_fingerprint, Ended, Event, Finisher, Gap, IntervalAcc, Layout, OtherFrame, PushTotals,
     Pushed, Reject, Sampler, StateError, Station, StationConfig,
 };
+pub use station::{ImageError, LAYOUT_IMAGE_VERSION};
 pub use time::{Civil, Month, Timestamp};
 
 #[cfg(test)]

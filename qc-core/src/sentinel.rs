@@ -54,6 +54,27 @@ impl Sentinels {
         Ok(s)
     }
 
+    /// Codes as [`Sentinels::values`] and [`Sentinels::counts`] gave them
+    /// (the first `n_values` and `n_counts` of each array; the rest zero),
+    /// for a layout read back from its image (`Layout::load_image`).
+    /// `None` for a count over [`MAX_SENTINELS`].
+    pub(crate) const fn from_parts(
+        values: [f64; MAX_SENTINELS],
+        n_values: u8,
+        counts: [i32; MAX_SENTINELS],
+        n_counts: u8,
+    ) -> Option<Self> {
+        if n_values as usize > MAX_SENTINELS || n_counts as usize > MAX_SENTINELS {
+            return None;
+        }
+        Some(Sentinels {
+            values,
+            counts,
+            n_values,
+            n_counts,
+        })
+    }
+
     /// Whether `v` is a missing-value code.
     // Out of line: only engineering values reach it (already the slow path,
     // in soft floating point), and inlined it costs the raw-count path of

@@ -26,7 +26,8 @@
 //! Nothing here panics, whatever the input.
 
 use crate::channel::{
-    Channel, ChannelAcc, ChannelConfig, ChannelRecord, ChannelState, Kind, Reading, Slot, Tally,
+    Channel, ChannelAcc, ChannelConfig, ChannelRecord, ChannelState, ImageReader, ImageWriter,
+    Kind, Reading, Slot, Tally,
 };
 use crate::cmath::div_floor;
 use crate::crc::Crc32;
@@ -547,17 +548,186 @@ impl<const C: usize> Layout<C> {
     ) -> Result<(), ConfigError> {
         let result = self.validate::<G>(station, channels);
         if result.is_err() {
-            self.interval_ms = 600_000;
-            self.samples = 600;
-            self.max_step_ms = 1_500;
-            self.sentinels = Sentinels::NONE;
-            self.fingerprint = 0;
-            self.frame = 0;
-            for ch in self.channels.iter_mut() {
-                *ch = Channel::placeholder();
-            }
+            self.reset();
         }
         result
+    }
+
+    /// Makes `self` [`Layout::placeholder`] again, a channel at a time.
+    fn reset(&mut self) {
+        self.interval_ms = 600_000;
+        self.samples = 600;
+        self.max_step_ms = 1_500;
+        self.sentinels = Sentinels::NONE;
+        self.fingerprint = 0;
+        self.frame = 0;
+        for ch in self.channels.iter_mut() {
+            *ch = Channel::placeholder();
+        }
+    }
+}
+
+/// Version of the layout image format ([`Layout::to_image`]); a change to
+/// the image's fields, or to the channel's state the image holds, changes it.
+pub const LAYOUT_IMAGE_VERSION: u8 = 1;
+
+/// Why a layout image was refused ([`Layout::to_image`], [`Layout::load_image`]).
+#[derive(Clone, Copy, Debug, PartialEq, Eq, Hash)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+#[non_exhaustive]
+pub enum ImageError {
+    /// Not a layout image, or one of another version of the format.
+    Format,
+    /// An image of another shape: another channel capacity `C` or gust
+    /// capacity `G`.
+    Shape,
+    /// Not the length of an image of this shape (or a buffer too short for one).
+    Length,
+    /// The CRC-32 does not match: the bytes were changed since they were written.
+    Crc,
+    /// A field holds no value of its kind (a CRC-checked image written by
+    /// this library never does).
+    Field,
+}
+
+impl core::fmt::Display for ImageError {
+    fn fmt(&self, f: &mut core::fmt::Formatter<'_>) -> core::fmt::Result {
+        f.write_str(match self {
+            ImageError::Format => "not a layout image of this version",
+            ImageError::Shape => "a layout image of another channel or gust capacity",
+            ImageError::Length => "not the length of a layout image of this shape",
+            ImageError::Crc => "the layout image's CRC does not match its bytes",
+            ImageError::Field => "a field of the layout image holds no value of its kind",
+        })
+    }
+}
+
+impl core::error::Error for ImageError {}
+
+/// A layout as bytes: validated once (on a PC, say), stored as a checked
+/// image, and read back on a logger that only checks and uses it, without
+/// the validation's code. The image: `"TMLI"`, [`LAYOUT_IMAGE_VERSION`],
+/// the capacities `C` (u8) and `G` (u16), every field of the layout and of
+/// each of its `C` channels little-endian, and the CRC-32 (IEEE 802.3) of
+/// all bytes before it: [`Layout::IMAGE_LEN`] bytes. A layout read back is
+/// equal to the one written (`==`), so a logger on it computes the same
+/// bits.
+impl<const C: usize> Layout<C> {
+    /// Bytes of the image of a layout of `C` channels.
+    pub const IMAGE_LEN: usize = 8 + 20 + 2 + 12 * MAX_SENTINELS + 8 + C * Channel::IMAGE_LEN + 4;
+
+    /// Writes the image of this layout, validated for the gust capacity `G`,
+    /// into the start of `out`; returns its length ([`Layout::IMAGE_LEN`]).
+    ///
+    /// # Errors
+    ///
+    /// [`ImageError::Length`] if `out` is shorter than the image,
+    /// [`ImageError::Shape`] if `C` or `G` does not fit its field (u8, u16).
+    pub fn to_image<const G: usize>(&self, out: &mut [u8]) -> Result<usize, ImageError> {
+        let (Ok(c), Ok(g)) = (u8::try_from(C), u16::try_from(G)) else {
+            return Err(ImageError::Shape);
+        };
+        let mut w = ImageWriter::new(out);
+        w.bytes(b"TMLI");
+        w.u8(LAYOUT_IMAGE_VERSION);
+        w.u8(c);
+        w.u16(g);
+        let Layout {
+            interval_ms,
+            samples,
+            max_step_ms,
+            sentinels,
+            fingerprint,
+            frame,
+            channels,
+        } = self;
+        w.i64(*interval_ms);
+        w.u32(*samples);
+        w.i64(*max_step_ms);
+        let values = sentinels.values();
+        let counts = sentinels.counts();
+        w.u8(values.len() as u8);
+        for i in 0..MAX_SENTINELS {
+            w.f64(values.get(i).copied().unwrap_or(0.0));
+        }
+        w.u8(counts.len() as u8);
+        for i in 0..MAX_SENTINELS {
+            w.i32(counts.get(i).copied().unwrap_or(0));
+        }
+        w.u32(*fingerprint);
+        w.u32(*frame);
+        for ch in channels {
+            ch.write_image(&mut w);
+        }
+        let crc = crate::crc::crc32(w.written());
+        w.u32(crc);
+        w.len().ok_or(ImageError::Length)
+    }
+
+    /// Reads the image `image` ([`Layout::to_image`] of a layout of this
+    /// shape: `C` channels, gust capacity `G`) into `self`, in place (no
+    /// second layout on the stack), after checking its format, version,
+    /// shape, length and CRC; no validation of the station runs. On an error
+    /// `self` is [`Layout::placeholder`].
+    ///
+    /// # Errors
+    ///
+    /// [`ImageError`]: what is wrong with the image.
+    pub fn load_image<const G: usize>(&mut self, image: &[u8]) -> Result<(), ImageError> {
+        let result = self.read_image::<G>(image);
+        if result.is_err() {
+            self.reset();
+        }
+        result
+    }
+
+    /// The work of [`Layout::load_image`] (`self` partly written on an error).
+    fn read_image<const G: usize>(&mut self, image: &[u8]) -> Result<(), ImageError> {
+        const BAD: ImageError = ImageError::Field;
+        let Some((body, crc)) = image.split_last_chunk::<4>() else {
+            return Err(ImageError::Length);
+        };
+        let mut r = ImageReader::new(body);
+        if r.u32() != Some(u32::from_le_bytes(*b"TMLI")) || r.u8() != Some(LAYOUT_IMAGE_VERSION) {
+            return Err(ImageError::Format);
+        }
+        if r.u8().map(usize::from) != Some(C) || r.u16().map(usize::from) != Some(G) {
+            return Err(ImageError::Shape);
+        }
+        if image.len() != Self::IMAGE_LEN {
+            return Err(ImageError::Length);
+        }
+        if crate::crc::crc32(body) != u32::from_le_bytes(*crc) {
+            return Err(ImageError::Crc);
+        }
+        self.interval_ms = r.i64().ok_or(BAD)?;
+        self.samples = r.u32().ok_or(BAD)?;
+        self.max_step_ms = r.i64().ok_or(BAD)?;
+        let n_values = r.u8().ok_or(BAD)?;
+        let mut values = [0.0; MAX_SENTINELS];
+        for v in values.iter_mut() {
+            *v = r.f64().ok_or(BAD)?;
+        }
+        let n_counts = r.u8().ok_or(BAD)?;
+        let mut counts = [0; MAX_SENTINELS];
+        for k in counts.iter_mut() {
+            *k = r.i32().ok_or(BAD)?;
+        }
+        self.sentinels = Sentinels::from_parts(values, n_values, counts, n_counts).ok_or(BAD)?;
+        self.fingerprint = r.u32().ok_or(BAD)?;
+        self.frame = r.u32().ok_or(BAD)?;
+        for ch in self.channels.iter_mut() {
+            *ch = Channel::read_image(&mut r).ok_or(BAD)?;
+            // What a state of capacity `G` relies on (the image was written
+            // from a layout validated for it).
+            if usize::from(ch.config().gust_window) > G {
+                return Err(BAD);
+            }
+        }
+        if self.interval_ms <= 0 || self.samples == 0 || r.rest() != 0 {
+            return Err(BAD);
+        }
+        Ok(())
     }
 }
 
@@ -2390,5 +2560,118 @@ mod run_tests {
             let rec = |s: &Station<C, G>| format!("{:?}", s.recovery());
             assert_eq!(rec(&one), rec(&block), "round {round}");
         }
+    }
+}
+
+#[cfg(test)]
+mod image_tests {
+    use super::*;
+    use crate::channel::{Icing, Recal, Screen};
+
+    /// A station that sets every optional field somewhere: partners, shear,
+    /// icing, a direction weighted by a speed, a re-calibration, plausible
+    /// ranges, raw-count calibrations, a mounting offset, missing-value
+    /// codes as values only and as counts.
+    fn stations() -> Vec<(StationConfig, [ChannelConfig; 5])> {
+        let mut cup = Screen::for_kind(Kind::Speed);
+        cup.partner = Some(1);
+        cup.icing = Some(Icing::new(3, 4));
+        cup.mean_range = Some((0.5, 40.0));
+        cup.step_limit = None;
+        let mut upper = Screen::for_kind(Kind::Speed);
+        upper.above = Some(0);
+        upper.flat_span_s = None;
+        let chans = [
+            ChannelConfig::speed(1.0)
+                .with_calibration(0.049, 0.25)
+                .with_screen(cup),
+            ChannelConfig::speed(0.01)
+                .with_screen(upper)
+                .with_recalibration(Recal {
+                    logger_slope: 0.765,
+                    logger_offset: 0.35,
+                    cert_slope: 0.7612,
+                    cert_offset: 0.281,
+                }),
+            ChannelConfig::direction()
+                .with_calibration(360.0 / 26_400.0, 0.0)
+                .with_mounting_offset(-4.5)
+                .with_speed_channel(0),
+            ChannelConfig::scalar(0.01).with_range(-40.0, 60.0),
+            ChannelConfig::scalar(0.1).with_range(0.0, 100.0),
+        ];
+        let mut odd = StationConfig::ten_minute_1hz();
+        odd.interval_s = 60;
+        odd.samples_per_interval = 240;
+        odd.missing_values = [Some(-999.5), None, Some(7.0), Some(-9999.0)];
+        vec![(StationConfig::ten_minute_1hz(), chans), (odd, chans)]
+    }
+
+    #[test]
+    fn an_image_reads_back_as_the_layout_it_was_written_from() {
+        for (station, chans) in stations() {
+            let layout = Layout::new::<12>(station, &chans).unwrap();
+            let mut image = [0u8; Layout::<5>::IMAGE_LEN + 3];
+            assert_eq!(layout.to_image::<12>(&mut image), Ok(Layout::<5>::IMAGE_LEN));
+            let image = &image[..Layout::<5>::IMAGE_LEN];
+            let mut back = Layout::<5>::placeholder();
+            assert_eq!(back.load_image::<12>(image), Ok(()));
+            assert_eq!(back, layout);
+            assert_eq!(back.fingerprint(), layout.fingerprint());
+            // Every channel's bytes are IMAGE_LEN long (the writer's length
+            // is the constant's, checked above, channel by channel here).
+            let mut one = [0u8; Channel::IMAGE_LEN];
+            for ch in layout.channels() {
+                let mut w = ImageWriter::new(&mut one);
+                ch.write_image(&mut w);
+                assert_eq!(w.len(), Some(Channel::IMAGE_LEN));
+            }
+        }
+    }
+
+    #[test]
+    fn a_changed_short_or_foreign_image_is_refused_and_leaves_the_placeholder() {
+        let (station, chans) = stations().remove(0);
+        let layout = Layout::new::<3>(station, &chans).unwrap();
+        let mut image = vec![0u8; Layout::<5>::IMAGE_LEN];
+        layout.to_image::<3>(&mut image).unwrap();
+        let mut back = Layout::<5>::placeholder();
+        // Every single-bit change of every byte is found.
+        for i in 0..image.len() {
+            for bit in [0x01u8, 0x80] {
+                let mut bad = image.clone();
+                bad[i] ^= bit;
+                back.load_image::<3>(&image).unwrap();
+                assert!(back.load_image::<3>(&bad).is_err(), "byte {i} bit {bit:#x}");
+                assert_eq!(back, Layout::<5>::placeholder(), "byte {i}");
+            }
+        }
+        assert_eq!(back.load_image::<3>(&image[..image.len() - 1]), Err(ImageError::Length));
+        assert_eq!(back.load_image::<3>(&[]), Err(ImageError::Length));
+        assert_eq!(back.load_image::<12>(&image), Err(ImageError::Shape));
+        let mut other = Layout::<4>::placeholder();
+        assert_eq!(other.load_image::<3>(&image), Err(ImageError::Shape));
+        let mut v2 = image.clone();
+        v2[4] = LAYOUT_IMAGE_VERSION + 1;
+        assert_eq!(back.load_image::<3>(&v2), Err(ImageError::Format));
+        let mut short = [0u8; 100];
+        assert_eq!(layout.to_image::<3>(&mut short), Err(ImageError::Length));
+        // A field out of its values, under a good CRC, is refused too.
+        let mut kind = image.clone();
+        let at = 8 + 20 + 2 + 12 * MAX_SENTINELS + 8 + 53; // channel 0's kind
+        assert_eq!(kind[at], 0);
+        kind[at] = 3;
+        let n = kind.len() - 4;
+        let crc = crate::crc::crc32(&kind[..n]);
+        kind[n..].copy_from_slice(&crc.to_le_bytes());
+        assert_eq!(back.load_image::<3>(&kind), Err(ImageError::Field));
+        // The CRC is zlib's (IEEE 802.3) over every byte before it (the
+        // check value of "123456789", 0xCBF43926, in crc.rs's tests).
+        let n = image.len() - 4;
+        assert_eq!(
+            crate::crc::crc32(&image[..n]).to_le_bytes(),
+            image[n..],
+            "CRC-32 of the image's bytes"
+        );
     }
 }
