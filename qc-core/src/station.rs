@@ -614,7 +614,7 @@ impl core::error::Error for ImageError {}
 /// bits.
 impl<const C: usize> Layout<C> {
     /// Bytes of the image of a layout of `C` channels.
-    pub const IMAGE_LEN: usize = 8 + 20 + 2 + 12 * MAX_SENTINELS + 8 + C * Channel::IMAGE_LEN + 4;
+    pub const IMAGE_LEN: usize = image_len(C);
 
     /// Writes the image of this layout, validated for the gust capacity `G`,
     /// into the start of `out`; returns its length ([`Layout::IMAGE_LEN`]).
@@ -681,54 +681,98 @@ impl<const C: usize> Layout<C> {
         result
     }
 
-    /// The work of [`Layout::load_image`] (`self` partly written on an error).
+    /// The work of [`Layout::load_image`] (`self` partly written on an
+    /// error): the shape's part, small; the rest is [`read_image`], one
+    /// function for every shape.
     fn read_image<const G: usize>(&mut self, image: &[u8]) -> Result<(), ImageError> {
-        const BAD: ImageError = ImageError::Field;
-        let Some((body, crc)) = image.split_last_chunk::<4>() else {
-            return Err(ImageError::Length);
-        };
-        let mut r = ImageReader::new(body);
-        if r.u32() != Some(u32::from_le_bytes(*b"TMLI")) || r.u8() != Some(LAYOUT_IMAGE_VERSION) {
-            return Err(ImageError::Format);
-        }
-        if r.u8().map(usize::from) != Some(C) || r.u16().map(usize::from) != Some(G) {
-            return Err(ImageError::Shape);
-        }
-        if image.len() != Self::IMAGE_LEN {
-            return Err(ImageError::Length);
-        }
-        if crate::crc::crc32(body) != u32::from_le_bytes(*crc) {
-            return Err(ImageError::Crc);
-        }
-        self.interval_ms = r.i64().ok_or(BAD)?;
-        self.samples = r.u32().ok_or(BAD)?;
-        self.max_step_ms = r.i64().ok_or(BAD)?;
-        let n_values = r.u8().ok_or(BAD)?;
-        let mut values = [0.0; MAX_SENTINELS];
-        for v in values.iter_mut() {
-            *v = r.f64().ok_or(BAD)?;
-        }
-        let n_counts = r.u8().ok_or(BAD)?;
-        let mut counts = [0; MAX_SENTINELS];
-        for k in counts.iter_mut() {
-            *k = r.i32().ok_or(BAD)?;
-        }
-        self.sentinels = Sentinels::from_parts(values, n_values, counts, n_counts).ok_or(BAD)?;
-        self.fingerprint = r.u32().ok_or(BAD)?;
-        self.frame = r.u32().ok_or(BAD)?;
-        for ch in self.channels.iter_mut() {
-            *ch = Channel::read_image(&mut r).ok_or(BAD)?;
-            // What a state of capacity `G` relies on (the image was written
-            // from a layout validated for it).
-            if usize::from(ch.config().gust_window) > G {
-                return Err(BAD);
-            }
-        }
-        if self.interval_ms <= 0 || self.samples == 0 || r.rest() != 0 {
-            return Err(BAD);
-        }
+        let s = read_image(image, C, G, &mut self.channels)?;
+        self.interval_ms = s.interval_ms;
+        self.samples = s.samples;
+        self.max_step_ms = s.max_step_ms;
+        self.sentinels = s.sentinels;
+        self.fingerprint = s.fingerprint;
+        self.frame = s.frame;
         Ok(())
     }
+}
+
+/// Bytes of the image of a layout of `c` channels ([`Layout::IMAGE_LEN`]).
+const fn image_len(c: usize) -> usize {
+    8 + 20 + 2 + 12 * MAX_SENTINELS + 8 + c * Channel::IMAGE_LEN + 4
+}
+
+/// A layout's fields besides its channels, as [`read_image`] reads them.
+struct ImageScalars {
+    interval_ms: i64,
+    samples: u32,
+    max_step_ms: i64,
+    sentinels: Sentinels,
+    fingerprint: u32,
+    frame: u32,
+}
+
+/// Reads a layout image of `c` channels and gust capacity `g` (its length
+/// checked by the caller): the channels into `channels` (`c` of them), the
+/// rest returned. Not generic, so that a program loading images of several
+/// shapes has this code once.
+fn read_image(
+    image: &[u8],
+    c: usize,
+    g: usize,
+    channels: &mut [Channel],
+) -> Result<ImageScalars, ImageError> {
+    const BAD: ImageError = ImageError::Field;
+    let Some((body, crc)) = image.split_last_chunk::<4>() else {
+        return Err(ImageError::Length);
+    };
+    let mut r = ImageReader::new(body);
+    if r.u32() != Some(u32::from_le_bytes(*b"TMLI")) || r.u8() != Some(LAYOUT_IMAGE_VERSION) {
+        return Err(ImageError::Format);
+    }
+    if r.u8().map(usize::from) != Some(c) || r.u16().map(usize::from) != Some(g) {
+        return Err(ImageError::Shape);
+    }
+    if image.len() != image_len(c) {
+        return Err(ImageError::Length);
+    }
+    if crate::crc::crc32(body) != u32::from_le_bytes(*crc) {
+        return Err(ImageError::Crc);
+    }
+    let interval_ms = r.i64().ok_or(BAD)?;
+    let samples = r.u32().ok_or(BAD)?;
+    let max_step_ms = r.i64().ok_or(BAD)?;
+    let n_values = r.u8().ok_or(BAD)?;
+    let mut values = [0.0; MAX_SENTINELS];
+    for v in values.iter_mut() {
+        *v = r.f64().ok_or(BAD)?;
+    }
+    let n_counts = r.u8().ok_or(BAD)?;
+    let mut counts = [0; MAX_SENTINELS];
+    for k in counts.iter_mut() {
+        *k = r.i32().ok_or(BAD)?;
+    }
+    let sentinels = Sentinels::from_parts(values, n_values, counts, n_counts).ok_or(BAD)?;
+    let fingerprint = r.u32().ok_or(BAD)?;
+    let frame = r.u32().ok_or(BAD)?;
+    for ch in channels.iter_mut() {
+        *ch = Channel::read_image(&mut r).ok_or(BAD)?;
+        // What a state of capacity `g` relies on (the image was written from
+        // a layout validated for it).
+        if usize::from(ch.config().gust_window) > g {
+            return Err(BAD);
+        }
+    }
+    if interval_ms <= 0 || samples == 0 || r.rest() != 0 {
+        return Err(BAD);
+    }
+    Ok(ImageScalars {
+        interval_ms,
+        samples,
+        max_step_ms,
+        sentinels,
+        fingerprint,
+        frame,
+    })
 }
 
 /// The accumulated state of one interval (or one piece of it).
@@ -2612,7 +2656,10 @@ mod image_tests {
         for (station, chans) in stations() {
             let layout = Layout::new::<12>(station, &chans).unwrap();
             let mut image = [0u8; Layout::<5>::IMAGE_LEN + 3];
-            assert_eq!(layout.to_image::<12>(&mut image), Ok(Layout::<5>::IMAGE_LEN));
+            assert_eq!(
+                layout.to_image::<12>(&mut image),
+                Ok(Layout::<5>::IMAGE_LEN)
+            );
             let image = &image[..Layout::<5>::IMAGE_LEN];
             let mut back = Layout::<5>::placeholder();
             assert_eq!(back.load_image::<12>(image), Ok(()));
@@ -2646,7 +2693,10 @@ mod image_tests {
                 assert_eq!(back, Layout::<5>::placeholder(), "byte {i}");
             }
         }
-        assert_eq!(back.load_image::<3>(&image[..image.len() - 1]), Err(ImageError::Length));
+        assert_eq!(
+            back.load_image::<3>(&image[..image.len() - 1]),
+            Err(ImageError::Length)
+        );
         assert_eq!(back.load_image::<3>(&[]), Err(ImageError::Length));
         assert_eq!(back.load_image::<12>(&image), Err(ImageError::Shape));
         let mut other = Layout::<4>::placeholder();
