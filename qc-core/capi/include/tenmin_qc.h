@@ -25,6 +25,10 @@
 // `tm_frame_info.kind`: a state frame (an interval's exact state).
 #define TM_FRAME_STATE 1
 
+// Bytes of the longest layout image (`tm_layout_image`), of shape `c16g12`;
+// an image of a smaller shape is shorter (`c8g3`: 2,122 B).
+#define TM_LAYOUT_IMAGE_MAX_SIZE 4138
+
 // Bytes of a layout block of shape `c4g3` (4 channels, gust windows up to
 // 3 samples), on any target. Align it to `TM_ALIGN`.
 #define TM_LAYOUT_C4G3_SIZE 1536
@@ -177,6 +181,14 @@ enum tm_status
   TM_ERR_CHANNEL = 108,
   // Bytes that are not a good frame (sync marker, version, CRC or contents).
   TM_ERR_FRAME = 109,
+  // Bytes that are not a layout image (`tm_layout_image`) of this
+  // library's format and version, or not of its length.
+  TM_ERR_IMAGE = 110,
+  // A layout image of another shape than the load function's.
+  TM_ERR_IMAGE_SHAPE = 111,
+  // A layout image whose CRC-32 does not match its bytes (changed since
+  // it was written).
+  TM_ERR_IMAGE_CRC = 112,
 };
 #ifndef __cplusplus
 #if __STDC_VERSION__ >= 202311L
@@ -407,6 +419,33 @@ tm_status tm_layout_info(const void *layout,
                          uint8_t *channels,
                          uint32_t *fingerprint);
 
+// Writes the image of the layout in the block `layout` (built by any
+// `tm_layout_build_...`) into `out` (`out_len` bytes, at most
+// `TM_LAYOUT_IMAGE_MAX_SIZE` needed) and its length into `*written` (may
+// be NULL). A layout image is a layout validated once, stored as checked
+// bytes: build the station on a PC (this library's host build), write its
+// image into the firmware's source as a constant array, and load it on the
+// logger with the `tm_layout_load_...` of its shape, which only checks and
+// uses it: the program then links none of the validation's code (about
+// 8 KiB of flash on a Cortex-M0). The image: "TMCI", a version, the
+// channels in use and their fingerprint, the core's layout image (every
+// field of the validated layout, little-endian, with its own version,
+// shape and CRC-32), and a CRC-32 of all of it. A layout loaded from an
+// image is the layout it was written from, and its loggers write the same
+// bytes.
+//
+// Returns `TM_OK`, `TM_ERR_NULL`, `TM_ERR_ALIGN`, `TM_ERR_NOT_READY`
+// (no built layout), or `TM_ERR_SIZE` (`out_len` too short).
+//
+// # Safety
+//
+// `layout` must be NULL or a layout block; `out` NULL or `out_len`
+// writable bytes; `written` NULL or writable.
+tm_status tm_layout_image(const void *layout,
+                          uint8_t *out,
+                          size_t out_len,
+                          size_t *written);
+
 // Adds one sample to the logger in the block `logger`: its time `time_ms`
 // (ms since 1970-01-01 UTC) and one reading per channel of its layout
 // (`readings[0..n]`, `n` the layout's channel count). When the sample closes
@@ -534,6 +573,24 @@ tm_status tm_layout_build_c4g3(void *mem,
                                size_t n,
                                uint8_t *error_channel);
 
+// Loads the layout image at `image` (`image_len` bytes, written by
+// `tm_layout_image` from a layout of shape `c4g3`) into the layout block
+// `mem`, as `tm_layout_build_c4g3` builds one, without validating it again:
+// the image's format, version, shape, length and CRCs are checked, and
+// nothing else is linked.
+//
+// Returns `TM_OK`, `TM_ERR_IMAGE`, `TM_ERR_IMAGE_SHAPE`, `TM_ERR_IMAGE_CRC`,
+// `TM_ERR_NULL`, `TM_ERR_SIZE` or `TM_ERR_ALIGN`. On any error the block
+// holds no layout.
+//
+// # Safety
+//
+// `mem` as for `tm_layout_build_c4g3`; `image` NULL or `image_len` readable bytes.
+tm_status tm_layout_load_c4g3(void *mem,
+                              size_t len,
+                              const uint8_t *image,
+                              size_t image_len);
+
 // Starts a record logger of shape `c4g3` in the block `mem` (`len` bytes, at
 // least `TM_RECORD_LOGGER_C4G3_SIZE`, aligned to `TM_ALIGN`) on the layout
 // block `layout` (built by `tm_layout_build_c4g3`). The logger finishes and
@@ -591,6 +648,24 @@ tm_status tm_layout_build_c8g3(void *mem,
                                const struct tm_channel_settings *channels,
                                size_t n,
                                uint8_t *error_channel);
+
+// Loads the layout image at `image` (`image_len` bytes, written by
+// `tm_layout_image` from a layout of shape `c8g3`) into the layout block
+// `mem`, as `tm_layout_build_c8g3` builds one, without validating it again:
+// the image's format, version, shape, length and CRCs are checked, and
+// nothing else is linked.
+//
+// Returns `TM_OK`, `TM_ERR_IMAGE`, `TM_ERR_IMAGE_SHAPE`, `TM_ERR_IMAGE_CRC`,
+// `TM_ERR_NULL`, `TM_ERR_SIZE` or `TM_ERR_ALIGN`. On any error the block
+// holds no layout.
+//
+// # Safety
+//
+// `mem` as for `tm_layout_build_c8g3`; `image` NULL or `image_len` readable bytes.
+tm_status tm_layout_load_c8g3(void *mem,
+                              size_t len,
+                              const uint8_t *image,
+                              size_t image_len);
 
 // Starts a record logger of shape `c8g3` in the block `mem` (`len` bytes, at
 // least `TM_RECORD_LOGGER_C8G3_SIZE`, aligned to `TM_ALIGN`) on the layout
@@ -650,6 +725,24 @@ tm_status tm_layout_build_c8g12(void *mem,
                                 size_t n,
                                 uint8_t *error_channel);
 
+// Loads the layout image at `image` (`image_len` bytes, written by
+// `tm_layout_image` from a layout of shape `c8g12`) into the layout block
+// `mem`, as `tm_layout_build_c8g12` builds one, without validating it again:
+// the image's format, version, shape, length and CRCs are checked, and
+// nothing else is linked.
+//
+// Returns `TM_OK`, `TM_ERR_IMAGE`, `TM_ERR_IMAGE_SHAPE`, `TM_ERR_IMAGE_CRC`,
+// `TM_ERR_NULL`, `TM_ERR_SIZE` or `TM_ERR_ALIGN`. On any error the block
+// holds no layout.
+//
+// # Safety
+//
+// `mem` as for `tm_layout_build_c8g12`; `image` NULL or `image_len` readable bytes.
+tm_status tm_layout_load_c8g12(void *mem,
+                               size_t len,
+                               const uint8_t *image,
+                               size_t image_len);
+
 // Starts a record logger of shape `c8g12` in the block `mem` (`len` bytes, at
 // least `TM_RECORD_LOGGER_C8G12_SIZE`, aligned to `TM_ALIGN`) on the layout
 // block `layout` (built by `tm_layout_build_c8g12`). The logger finishes and
@@ -707,6 +800,24 @@ tm_status tm_layout_build_c16g12(void *mem,
                                  const struct tm_channel_settings *channels,
                                  size_t n,
                                  uint8_t *error_channel);
+
+// Loads the layout image at `image` (`image_len` bytes, written by
+// `tm_layout_image` from a layout of shape `c16g12`) into the layout block
+// `mem`, as `tm_layout_build_c16g12` builds one, without validating it again:
+// the image's format, version, shape, length and CRCs are checked, and
+// nothing else is linked.
+//
+// Returns `TM_OK`, `TM_ERR_IMAGE`, `TM_ERR_IMAGE_SHAPE`, `TM_ERR_IMAGE_CRC`,
+// `TM_ERR_NULL`, `TM_ERR_SIZE` or `TM_ERR_ALIGN`. On any error the block
+// holds no layout.
+//
+// # Safety
+//
+// `mem` as for `tm_layout_build_c16g12`; `image` NULL or `image_len` readable bytes.
+tm_status tm_layout_load_c16g12(void *mem,
+                                size_t len,
+                                const uint8_t *image,
+                                size_t image_len);
 
 // Starts a record logger of shape `c16g12` in the block `mem` (`len` bytes, at
 // least `TM_RECORD_LOGGER_C16G12_SIZE`, aligned to `TM_ALIGN`) on the layout

@@ -5,8 +5,8 @@
 
 use qc_core::wire::{self, ConfigStamp, RecordFrame, StateFrame, FRAME_LEN};
 use qc_core::{
-    config_fingerprint, ChannelConfig, Ended, Event, Layout, Reading, Recovery, Sampler, Station,
-    Timestamp,
+    config_fingerprint, ChannelConfig, Ended, Event, ImageError, Layout, Reading, Recovery,
+    Sampler, Station, Timestamp,
 };
 
 use crate::status::tm_status;
@@ -84,6 +84,95 @@ impl<const C: usize> LayoutMem<C> {
             gust: G as u8,
             active: channels.len() as u8,
             fingerprint,
+        };
+        Ok(())
+    }
+}
+
+/// Start of a layout image ("TMCI"), before the core's image.
+const IMAGE_MAGIC: [u8; 4] = *b"TMCI";
+/// Version of this interface's part of a layout image.
+const IMAGE_VERSION: u8 = 1;
+/// Bytes of this interface's head of a layout image: the magic, the
+/// version, the channels in use, two zero bytes, the fingerprint of the
+/// channels in use (what the frames carry).
+pub(crate) const IMAGE_HEAD: usize = 12;
+
+/// Bytes of the layout image of shape `C`: this interface's head, the
+/// core's image (`Layout::to_image`), and a CRC-32 of all before it.
+pub(crate) const fn image_len<const C: usize>() -> usize {
+    IMAGE_HEAD + Layout::<C>::IMAGE_LEN + 4
+}
+
+impl<const C: usize> LayoutMem<C> {
+    /// Writes the layout image of this built layout of gust capacity `G`
+    /// into the start of `out`; returns its length.
+    pub fn to_image<const G: usize>(&self, out: &mut [u8]) -> Result<usize, tm_status> {
+        let len = image_len::<C>();
+        let out = out.get_mut(..len).ok_or(tm_status::TM_ERR_SIZE)?;
+        let (head, rest) = out.split_at_mut(IMAGE_HEAD);
+        let [f0, f1, f2, f3] = self.head.fingerprint.to_le_bytes();
+        let [m0, m1, m2, m3] = IMAGE_MAGIC;
+        head.copy_from_slice(&[
+            m0,
+            m1,
+            m2,
+            m3,
+            IMAGE_VERSION,
+            self.head.active,
+            0,
+            0,
+            f0,
+            f1,
+            f2,
+            f3,
+        ]);
+        self.layout
+            .to_image::<G>(rest)
+            .map_err(|_| tm_status::TM_ERR_SIZE)?;
+        let (body, crc) = out
+            .split_last_chunk_mut::<4>()
+            .ok_or(tm_status::TM_ERR_SIZE)?;
+        *crc = wire::crc32(body).to_le_bytes();
+        Ok(len)
+    }
+
+    /// Reads a layout image of shape `C`, `G` into `self` (whose layout is
+    /// a valid one, the placeholder say), checking it first; no validation
+    /// of the station runs. On an error the block stays unusable.
+    #[inline(never)]
+    pub fn load_image<const G: usize>(&mut self, image: &[u8]) -> Result<(), tm_status> {
+        self.head.magic = 0;
+        let Some((body, crc)) = image.split_last_chunk::<4>() else {
+            return Err(tm_status::TM_ERR_IMAGE);
+        };
+        let Some((head, core)) = body.split_first_chunk::<IMAGE_HEAD>() else {
+            return Err(tm_status::TM_ERR_IMAGE);
+        };
+        let [m0, m1, m2, m3, version, active, _, _, f0, f1, f2, f3] = *head;
+        if [m0, m1, m2, m3] != IMAGE_MAGIC || version != IMAGE_VERSION {
+            return Err(tm_status::TM_ERR_IMAGE);
+        }
+        // The core checks its own part (format, shape, length, CRC) too;
+        // this CRC covers the head.
+        match self.layout.load_image::<G>(core) {
+            Ok(()) => {}
+            Err(ImageError::Shape) => return Err(tm_status::TM_ERR_IMAGE_SHAPE),
+            Err(ImageError::Crc) => return Err(tm_status::TM_ERR_IMAGE_CRC),
+            Err(_) => return Err(tm_status::TM_ERR_IMAGE),
+        }
+        if wire::crc32(body) != u32::from_le_bytes(*crc) {
+            return Err(tm_status::TM_ERR_IMAGE_CRC);
+        }
+        if active == 0 || usize::from(active) > C {
+            return Err(tm_status::TM_ERR_IMAGE);
+        }
+        self.head = LayoutHead {
+            magic: LAYOUT_MAGIC,
+            capacity: C as u8,
+            gust: G as u8,
+            active,
+            fingerprint: u32::from_le_bytes([f0, f1, f2, f3]),
         };
         Ok(())
     }

@@ -262,6 +262,33 @@ unsafe fn put<T>(out: *mut T, value: T) -> tm_status {
     }
 }
 
+/// The caller's layout block `mem` (`len` bytes) of shape `C`, checked and
+/// made an empty layout block (no mark; the placeholder layout), ready to be
+/// built or loaded in place.
+///
+/// # Safety
+///
+/// `mem` must be NULL or `len` writable bytes the library alone uses from
+/// now on.
+unsafe fn fresh_layout<'a, const C: usize>(
+    mem: *mut c_void,
+    len: usize,
+) -> Result<&'a mut LayoutMem<C>, tm_status> {
+    let p = block::<LayoutMem<C>>(mem, len)?.cast_mut();
+    // SAFETY: `p` is non-null, aligned and `len` covers a LayoutMem<C>; the
+    // caller gives this block to the library alone. A `MaybeUninit` needs
+    // no valid contents; the block is then written whole (head, then
+    // layout) before a reference to a `LayoutMem` is made. The layout is
+    // written from `Layout::placeholder`, made a channel at a time, not from
+    // the whole-layout constant `Layout::PLACEHOLDER` (2.7 KiB of flash for
+    // 8 channels).
+    unsafe {
+        addr_of_mut!((*p).head).write(LayoutMem::<C>::EMPTY_HEAD);
+        placeholder(&mut *addr_of_mut!((*p).layout).cast::<MaybeUninit<Layout<C>>>());
+        Ok(&mut *p)
+    }
+}
+
 /// Builds a layout of shape `C`, `G` into the caller's block.
 ///
 /// # Safety
@@ -277,25 +304,14 @@ unsafe fn layout_build<const C: usize, const G: usize>(
 ) -> tm_status {
     let mut bad = 255u8;
     let r = (|| {
-        let p = block::<LayoutMem<C>>(mem, len)?.cast_mut();
+        // SAFETY: passed on from the caller (see the function's Safety).
+        let layout = unsafe { fresh_layout::<C>(mem, len) }?;
         let station = one(station)?;
         // SAFETY: checked non-null and aligned; the caller promises a valid
         // tm_station_settings.
         let station = unsafe { &*station };
         // SAFETY: the caller promises `n` valid settings at `channels`.
         let channels = unsafe { slice(channels, n) }?;
-        // SAFETY: `p` is non-null, aligned and `len` covers a LayoutMem<C>;
-        // the caller gives this block to the library alone. A `MaybeUninit`
-        // needs no valid contents; the block is then written whole (head,
-        // then layout) before a reference to a `LayoutMem` is made. The
-        // layout is written from `Layout::placeholder`, made a channel at a
-        // time, not from the whole-layout constant `Layout::PLACEHOLDER`
-        // (2.7 KiB of flash for 8 channels).
-        let layout = unsafe {
-            addr_of_mut!((*p).head).write(LayoutMem::<C>::EMPTY_HEAD);
-            placeholder(&mut *addr_of_mut!((*p).layout).cast::<MaybeUninit<Layout<C>>>());
-            &mut *p
-        };
         layout.build::<G>(station, channels).map_err(|(s, ch)| {
             bad = ch;
             s
@@ -306,6 +322,43 @@ unsafe fn layout_build<const C: usize, const G: usize>(
         unsafe { error_channel.write(bad) };
     }
     status(r)
+}
+
+/// Loads a layout image of shape `C`, `G` into the caller's block.
+///
+/// # Safety
+///
+/// As the `tm_layout_load_...` functions say.
+unsafe fn layout_load<const C: usize, const G: usize>(
+    mem: *mut c_void,
+    len: usize,
+    image: *const u8,
+    image_len: usize,
+) -> tm_status {
+    let r = (|| {
+        // SAFETY: the caller promises `image_len` readable bytes at `image`.
+        let image = unsafe { slice(image, image_len) }?;
+        // SAFETY: passed on from the caller (see the function's Safety).
+        let layout = unsafe { fresh_layout::<C>(mem, len) }?;
+        layout.load_image::<G>(image)
+    })();
+    status(r)
+}
+
+/// The image of the layout in the block `layout` into `out`, its length.
+///
+/// # Safety
+///
+/// `layout` must be a layout block of shape `C`, `G` (its head says so).
+unsafe fn image_of<const C: usize, const G: usize>(
+    layout: *const c_void,
+    out: &mut [u8],
+) -> Result<usize, tm_status> {
+    // SAFETY: a block whose head says shape `C`, `G` holds a whole
+    // LayoutMem<C> (checked at its build or load); the caller promises it
+    // is unchanged during the call.
+    let lm = unsafe { &*layout.cast::<LayoutMem<C>>() };
+    lm.to_image::<G>(out)
 }
 
 /// Writes [`Layout::placeholder`] into `slot`. Not inlined: the compiler
@@ -485,6 +538,70 @@ pub unsafe extern "C" fn tm_layout_info(
         }
     }
     tm_status::TM_OK
+}
+
+/// Bytes of the longest layout image (`tm_layout_image`), of shape `c16g12`;
+/// an image of a smaller shape is shorter (`c8g3`: 2,122 B).
+pub const TM_LAYOUT_IMAGE_MAX_SIZE: usize = 4138;
+const _: () = assert!(
+    engine::image_len::<16>() == TM_LAYOUT_IMAGE_MAX_SIZE && engine::image_len::<8>() == 2122
+);
+
+/// Writes the image of the layout in the block `layout` (built by any
+/// `tm_layout_build_...`) into `out` (`out_len` bytes, at most
+/// `TM_LAYOUT_IMAGE_MAX_SIZE` needed) and its length into `*written` (may
+/// be NULL). A layout image is a layout validated once, stored as checked
+/// bytes: build the station on a PC (this library's host build), write its
+/// image into the firmware's source as a constant array, and load it on the
+/// logger with the `tm_layout_load_...` of its shape, which only checks and
+/// uses it: the program then links none of the validation's code (about
+/// 8 KiB of flash on a Cortex-M0). The image: "TMCI", a version, the
+/// channels in use and their fingerprint, the core's layout image (every
+/// field of the validated layout, little-endian, with its own version,
+/// shape and CRC-32), and a CRC-32 of all of it. A layout loaded from an
+/// image is the layout it was written from, and its loggers write the same
+/// bytes.
+///
+/// Returns `TM_OK`, `TM_ERR_NULL`, `TM_ERR_ALIGN`, `TM_ERR_NOT_READY`
+/// (no built layout), or `TM_ERR_SIZE` (`out_len` too short).
+///
+/// # Safety
+///
+/// `layout` must be NULL or a layout block; `out` NULL or `out_len`
+/// writable bytes; `written` NULL or writable.
+#[no_mangle]
+pub unsafe extern "C" fn tm_layout_image(
+    layout: *const c_void,
+    out: *mut u8,
+    out_len: usize,
+    written: *mut usize,
+) -> tm_status {
+    let r = (|| {
+        let head = block::<LayoutHead>(layout, size_of::<LayoutHead>())?;
+        // SAFETY: non-null and aligned; the caller promises a layout block.
+        let head = unsafe { *head };
+        // SAFETY: the caller promises `out_len` writable bytes at `out`.
+        let out = unsafe { slice_mut(out, out_len) }?;
+        let image: unsafe fn(*const c_void, &mut [u8]) -> Result<usize, tm_status> =
+            match (head.magic == engine::LAYOUT_MAGIC, head.capacity, head.gust) {
+                (true, 4, 3) => image_of::<4, 3>,
+                (true, 8, 3) => image_of::<8, 3>,
+                (true, 8, 12) => image_of::<8, 12>,
+                (true, 16, 12) => image_of::<16, 12>,
+                _ => return Err(tm_status::TM_ERR_NOT_READY),
+            };
+        // SAFETY: the block's head says it holds the shape `image` reads.
+        unsafe { image(layout, out) }
+    })();
+    match r {
+        Ok(n) if written.is_null() => {
+            let _ = n;
+            tm_status::TM_OK
+        }
+        // SAFETY: passed on from the caller (see the function's Safety).
+        Ok(n) => unsafe { put(written, n) },
+        Err(s) => s,
+    }
 }
 
 /// Adds one sample to the logger in the block `logger`: its time `time_ms`
@@ -908,6 +1025,30 @@ pub unsafe extern "C" fn tm_layout_build_c4g3(
     unsafe { layout_build::<4, 3>(mem, len, station, channels, n, error_channel) }
 }
 
+/// Loads the layout image at `image` (`image_len` bytes, written by
+/// `tm_layout_image` from a layout of shape `c4g3`) into the layout block
+/// `mem`, as `tm_layout_build_c4g3` builds one, without validating it again:
+/// the image's format, version, shape, length and CRCs are checked, and
+/// nothing else is linked.
+///
+/// Returns `TM_OK`, `TM_ERR_IMAGE`, `TM_ERR_IMAGE_SHAPE`, `TM_ERR_IMAGE_CRC`,
+/// `TM_ERR_NULL`, `TM_ERR_SIZE` or `TM_ERR_ALIGN`. On any error the block
+/// holds no layout.
+///
+/// # Safety
+///
+/// `mem` as for `tm_layout_build_c4g3`; `image` NULL or `image_len` readable bytes.
+#[no_mangle]
+pub unsafe extern "C" fn tm_layout_load_c4g3(
+    mem: *mut c_void,
+    len: usize,
+    image: *const u8,
+    image_len: usize,
+) -> tm_status {
+    // SAFETY: passed on from the caller (see the function's Safety).
+    unsafe { layout_load::<4, 3>(mem, len, image, image_len) }
+}
+
 /// Starts a record logger of shape `c4g3` in the block `mem` (`len` bytes, at
 /// least `TM_RECORD_LOGGER_C4G3_SIZE`, aligned to `TM_ALIGN`) on the layout
 /// block `layout` (built by `tm_layout_build_c4g3`). The logger finishes and
@@ -995,6 +1136,30 @@ pub unsafe extern "C" fn tm_layout_build_c8g3(
 ) -> tm_status {
     // SAFETY: passed on from the caller (see the function's Safety).
     unsafe { layout_build::<8, 3>(mem, len, station, channels, n, error_channel) }
+}
+
+/// Loads the layout image at `image` (`image_len` bytes, written by
+/// `tm_layout_image` from a layout of shape `c8g3`) into the layout block
+/// `mem`, as `tm_layout_build_c8g3` builds one, without validating it again:
+/// the image's format, version, shape, length and CRCs are checked, and
+/// nothing else is linked.
+///
+/// Returns `TM_OK`, `TM_ERR_IMAGE`, `TM_ERR_IMAGE_SHAPE`, `TM_ERR_IMAGE_CRC`,
+/// `TM_ERR_NULL`, `TM_ERR_SIZE` or `TM_ERR_ALIGN`. On any error the block
+/// holds no layout.
+///
+/// # Safety
+///
+/// `mem` as for `tm_layout_build_c8g3`; `image` NULL or `image_len` readable bytes.
+#[no_mangle]
+pub unsafe extern "C" fn tm_layout_load_c8g3(
+    mem: *mut c_void,
+    len: usize,
+    image: *const u8,
+    image_len: usize,
+) -> tm_status {
+    // SAFETY: passed on from the caller (see the function's Safety).
+    unsafe { layout_load::<8, 3>(mem, len, image, image_len) }
 }
 
 /// Starts a record logger of shape `c8g3` in the block `mem` (`len` bytes, at
@@ -1086,6 +1251,30 @@ pub unsafe extern "C" fn tm_layout_build_c8g12(
     unsafe { layout_build::<8, 12>(mem, len, station, channels, n, error_channel) }
 }
 
+/// Loads the layout image at `image` (`image_len` bytes, written by
+/// `tm_layout_image` from a layout of shape `c8g12`) into the layout block
+/// `mem`, as `tm_layout_build_c8g12` builds one, without validating it again:
+/// the image's format, version, shape, length and CRCs are checked, and
+/// nothing else is linked.
+///
+/// Returns `TM_OK`, `TM_ERR_IMAGE`, `TM_ERR_IMAGE_SHAPE`, `TM_ERR_IMAGE_CRC`,
+/// `TM_ERR_NULL`, `TM_ERR_SIZE` or `TM_ERR_ALIGN`. On any error the block
+/// holds no layout.
+///
+/// # Safety
+///
+/// `mem` as for `tm_layout_build_c8g12`; `image` NULL or `image_len` readable bytes.
+#[no_mangle]
+pub unsafe extern "C" fn tm_layout_load_c8g12(
+    mem: *mut c_void,
+    len: usize,
+    image: *const u8,
+    image_len: usize,
+) -> tm_status {
+    // SAFETY: passed on from the caller (see the function's Safety).
+    unsafe { layout_load::<8, 12>(mem, len, image, image_len) }
+}
+
 /// Starts a record logger of shape `c8g12` in the block `mem` (`len` bytes, at
 /// least `TM_RECORD_LOGGER_C8G12_SIZE`, aligned to `TM_ALIGN`) on the layout
 /// block `layout` (built by `tm_layout_build_c8g12`). The logger finishes and
@@ -1173,6 +1362,30 @@ pub unsafe extern "C" fn tm_layout_build_c16g12(
 ) -> tm_status {
     // SAFETY: passed on from the caller (see the function's Safety).
     unsafe { layout_build::<16, 12>(mem, len, station, channels, n, error_channel) }
+}
+
+/// Loads the layout image at `image` (`image_len` bytes, written by
+/// `tm_layout_image` from a layout of shape `c16g12`) into the layout block
+/// `mem`, as `tm_layout_build_c16g12` builds one, without validating it again:
+/// the image's format, version, shape, length and CRCs are checked, and
+/// nothing else is linked.
+///
+/// Returns `TM_OK`, `TM_ERR_IMAGE`, `TM_ERR_IMAGE_SHAPE`, `TM_ERR_IMAGE_CRC`,
+/// `TM_ERR_NULL`, `TM_ERR_SIZE` or `TM_ERR_ALIGN`. On any error the block
+/// holds no layout.
+///
+/// # Safety
+///
+/// `mem` as for `tm_layout_build_c16g12`; `image` NULL or `image_len` readable bytes.
+#[no_mangle]
+pub unsafe extern "C" fn tm_layout_load_c16g12(
+    mem: *mut c_void,
+    len: usize,
+    image: *const u8,
+    image_len: usize,
+) -> tm_status {
+    // SAFETY: passed on from the caller (see the function's Safety).
+    unsafe { layout_load::<16, 12>(mem, len, image, image_len) }
 }
 
 /// Starts a record logger of shape `c16g12` in the block `mem` (`len` bytes, at

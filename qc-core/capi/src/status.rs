@@ -68,6 +68,14 @@ pub enum tm_status {
     TM_ERR_CHANNEL = 108,
     /// Bytes that are not a good frame (sync marker, version, CRC or contents).
     TM_ERR_FRAME = 109,
+    /// Bytes that are not a layout image (`tm_layout_image`) of this
+    /// library's format and version, or not of its length.
+    TM_ERR_IMAGE = 110,
+    /// A layout image of another shape than the load function's.
+    TM_ERR_IMAGE_SHAPE = 111,
+    /// A layout image whose CRC-32 does not match its bytes (changed since
+    /// it was written).
+    TM_ERR_IMAGE_CRC = 112,
 }
 
 /// The message of a status code (a static NUL-terminated string).
@@ -84,7 +92,7 @@ pub enum tm_status {
 /// of its own.
 pub(crate) fn message(code: i32) -> &'static CStr {
     use tm_status::*;
-    const ALL: [tm_status; 27] = [
+    const ALL: [tm_status; 30] = [
         TM_OK,
         TM_CONFIG_INTERVAL,
         TM_CONFIG_SAMPLE_COUNT,
@@ -112,6 +120,9 @@ pub(crate) fn message(code: i32) -> &'static CStr {
         TM_ERR_NO_RECOVERY,
         TM_ERR_CHANNEL,
         TM_ERR_FRAME,
+        TM_ERR_IMAGE,
+        TM_ERR_IMAGE_SHAPE,
+        TM_ERR_IMAGE_CRC,
     ];
     let status = ALL.iter().find(|s| **s as i32 == code).copied();
     match status {
@@ -144,6 +155,9 @@ pub(crate) fn message(code: i32) -> &'static CStr {
         Some(TM_ERR_NO_RECOVERY) => c"a state logger keeps no running recovery (the PC counts it)",
         Some(TM_ERR_CHANNEL) => c"the channel index is beyond the layout's channels",
         Some(TM_ERR_FRAME) => c"not a good frame (sync marker, version, CRC or contents)",
+        Some(TM_ERR_IMAGE) => c"not a layout image of this library's version (or cut short): write it again with tm_layout_image",
+        Some(TM_ERR_IMAGE_SHAPE) => c"a layout image of another shape than the load function's",
+        Some(TM_ERR_IMAGE_CRC) => c"the layout image's CRC does not match: its bytes changed since it was written",
         None => c"unknown status code",
     }
 }
@@ -199,6 +213,6 @@ mod tests {
                 seen.push(m);
             }
         }
-        assert_eq!(seen.len(), 27);
+        assert_eq!(seen.len(), 30);
     }
 }

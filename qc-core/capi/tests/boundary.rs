@@ -389,3 +389,131 @@ fn crc32_and_messages() {
     let m = unsafe { CStr::from_ptr(tm_message(tm_status::TM_CONFIG_RANGE as i32)) };
     assert_eq!(m.to_str().unwrap(), "range must be finite with low <= high");
 }
+
+/// Runs a state logger of shape c8g3 on `layout` through two intervals of
+/// a cup and a vane; the frames it wrote.
+fn state_log(layout: &[u64]) -> Vec<u8> {
+    let mut logger = block(TM_STATE_LOGGER_C8G3_SIZE);
+    let lg = logger.as_mut_ptr().cast::<c_void>();
+    let mut frames = [0u8; 2 * TM_FRAME_LEN];
+    let mut res = tm_push_result::default();
+    let mut log = Vec::new();
+    // SAFETY: every pointer is to a live value of the size passed.
+    unsafe {
+        assert_eq!(
+            tm_state_logger_start_c8g3(lg, logger.len() * 8, layout.as_ptr().cast()),
+            tm_status::TM_OK
+        );
+        let t0 = 1_705_276_800_000i64; // 2024-01-15T00:00:00Z
+        for i in 0..1300i64 {
+            let r = [
+                reading(TM_READING_COUNTS, 300 + (i * 37 % 500) as i32, 0.0),
+                reading(TM_READING_VALUE, 0, (i * 7 % 360) as f64),
+            ];
+            let s = tm_logger_push(
+                lg,
+                t0 + i * 1000,
+                r.as_ptr(),
+                2,
+                frames.as_mut_ptr(),
+                frames.len(),
+                &mut res,
+            );
+            assert_eq!(s, tm_status::TM_OK);
+            log.extend_from_slice(&frames[..res.frames as usize * TM_FRAME_LEN]);
+        }
+    }
+    log
+}
+
+#[test]
+fn a_loaded_layout_image_is_the_built_layout() {
+    let (st, ch) = settings();
+    let mut built = block(TM_LAYOUT_C8G3_SIZE);
+    assert_eq!(build(&mut built, &st, &ch), (tm_status::TM_OK, 255));
+    let mut image = vec![0u8; TM_LAYOUT_IMAGE_MAX_SIZE];
+    let mut n = 0usize;
+    let mut loaded = block(TM_LAYOUT_C8G3_SIZE);
+    let load = |mem: &mut [u64], image: &[u8]| {
+        // SAFETY: live block and image of the sizes passed.
+        unsafe {
+            tm_layout_load_c8g3(
+                mem.as_mut_ptr().cast(),
+                mem.len() * 8,
+                image.as_ptr(),
+                image.len(),
+            )
+        }
+    };
+    // SAFETY: live blocks and outputs of the sizes passed.
+    unsafe {
+        assert_eq!(
+            tm_layout_image(built.as_ptr().cast(), image.as_mut_ptr(), 100, &mut n),
+            tm_status::TM_ERR_SIZE
+        );
+        assert_eq!(
+            tm_layout_image(
+                loaded.as_ptr().cast(),
+                image.as_mut_ptr(),
+                image.len(),
+                &mut n
+            ),
+            tm_status::TM_ERR_NOT_READY
+        );
+        assert_eq!(
+            tm_layout_image(
+                built.as_ptr().cast(),
+                image.as_mut_ptr(),
+                image.len(),
+                &mut n
+            ),
+            tm_status::TM_OK
+        );
+    }
+    assert_eq!(n, 2122);
+    let image = &image[..n];
+    assert_eq!(load(&mut loaded, image), tm_status::TM_OK);
+    // The same channels and fingerprint, and a logger on it writes the same bytes.
+    let info = |mem: &[u64]| {
+        let (mut c, mut f) = (0u8, 0u32);
+        // SAFETY: live block and outputs.
+        let s = unsafe { tm_layout_info(mem.as_ptr().cast(), &mut c, &mut f) };
+        (s, c, f)
+    };
+    assert_eq!(info(&loaded), info(&built));
+    let log = state_log(&built);
+    assert_eq!(log.len(), 2 * 2 * TM_FRAME_LEN);
+    assert_eq!(state_log(&loaded), log);
+    // Refused images leave a block that holds no layout.
+    let mut bad = image.to_vec();
+    bad[700] ^= 0x10;
+    assert_eq!(load(&mut loaded, &bad), tm_status::TM_ERR_IMAGE_CRC);
+    assert_eq!(info(&loaded).0, tm_status::TM_ERR_NOT_READY);
+    let mut head = image.to_vec();
+    head[9] ^= 0x01; // the fingerprint, covered by the outer CRC only
+    assert_eq!(load(&mut loaded, &head), tm_status::TM_ERR_IMAGE_CRC);
+    assert_eq!(load(&mut loaded, &image[..n - 1]), tm_status::TM_ERR_IMAGE);
+    assert_eq!(load(&mut loaded, b"TMCI"), tm_status::TM_ERR_IMAGE);
+    let mut other = block(TM_LAYOUT_C8G12_SIZE);
+    // SAFETY: live block and image of the sizes passed.
+    let s = unsafe {
+        tm_layout_load_c8g12(
+            other.as_mut_ptr().cast(),
+            other.len() * 8,
+            image.as_ptr(),
+            image.len(),
+        )
+    };
+    assert_eq!(s, tm_status::TM_ERR_IMAGE_SHAPE);
+    assert_eq!(
+        load(&mut loaded[..10], image),
+        tm_status::TM_ERR_SIZE,
+        "a block too short"
+    );
+    assert_eq!(load(&mut loaded, image), tm_status::TM_OK);
+    // SAFETY: NULL image with a length: refused.
+    let s = unsafe {
+        tm_layout_load_c8g3(loaded.as_mut_ptr().cast(), loaded.len() * 8, ptr::null(), 5)
+    };
+    assert_eq!(s, tm_status::TM_ERR_NULL);
+}
