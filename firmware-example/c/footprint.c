@@ -9,15 +9,21 @@
  *   -DFOOTPRINT_RECORDS  a record logger (tm_record_logger_start_c8g3)
  *   neither              the baseline: the same loop without the library
  *                        (every 600th sample's raw registers copied into a frame)
+ *   -DSTORED_LAYOUT      with either logger: the layout loaded from its
+ *                        image (stored_layouts.c, validated on a PC) with
+ *                        tm_layout_load_c8g3, not built at run time
  *
  * Unlike the Rust loggers', whose layout is validated at compile time into
  * flash, this one builds its layout at run time from C settings (stations.c):
- * the validation is part of its flash. */
+ * the validation is part of its flash. With -DSTORED_LAYOUT it only checks
+ * and uses a layout validated on a PC: the image (2,122 B) is in its flash,
+ * the validation's code is not. */
 #include <stdint.h>
 #include <stdlib.h>
 #include <string.h>
 
 #include "stations.h"
+#include "stored_layouts.h"
 #include "tenmin_qc.h"
 
 #define T0 1705276800000LL /* 2024-01-15T00:00:00Z */
@@ -48,7 +54,12 @@ static uint64_t logger_mem[TM_RECORD_LOGGER_C8G3_SIZE / 8];
 static uint8_t frames[SCENARIO_CHANNELS * TM_FRAME_LEN];
 
 int main(void) {
+#ifdef STORED_LAYOUT
+    if (tm_layout_load_c8g3(layout_mem, sizeof layout_mem, SCENARIO_LAYOUT, sizeof SCENARIO_LAYOUT) != TM_OK)
+        return 1;
+#else
     if (scenario_station(layout_mem, sizeof layout_mem) != TM_OK) return 1;
+#endif
     if (START(logger_mem, sizeof logger_mem, layout_mem) != TM_OK) return 1;
     uint32_t written = 0;
     volatile uint32_t n = 86400;

@@ -15,12 +15,17 @@
  *
  * Memory: the layout and the logger live in static blocks this program
  * provides (the library allocates nothing), the frames of one interval in a
- * static buffer of DEMO_CHANNELS * TM_FRAME_LEN bytes. */
+ * static buffer of DEMO_CHANNELS * TM_FRAME_LEN bytes.
+ *
+ * Built with -DSTORED_LAYOUT, it loads the station's layout from its image
+ * (stored_layouts.c: validated on a PC by image.c, checked and used here by
+ * tm_layout_load_c8g3) instead of building it; its logs are the same bytes. */
 #include <stdint.h>
 #include <stdio.h>
 #include <string.h>
 
 #include "stations.h"
+#include "stored_layouts.h"
 #include "tenmin_qc.h"
 
 /* Blocks for the library, aligned as it needs (TM_ALIGN = 8). */
@@ -160,8 +165,14 @@ int main(int argc, char **argv) {
     /* No stdio buffers (newlib would allocate them on the heap). */
     setvbuf(stdout, NULL, _IONBF, 0);
     setvbuf(stderr, NULL, _IONBF, 0);
+    tm_status s;
+#ifdef STORED_LAYOUT
+    s = tm_layout_load_c8g3(layout_mem, sizeof layout_mem, DEMO_LAYOUT, sizeof DEMO_LAYOUT);
+    if (s != TM_OK) return fprintf(stderr, "logger: stored layout: %s\n", tm_message(s)), 1;
+#else
     if (demo_station(layout_mem, sizeof layout_mem) != TM_OK) return 1;
-    tm_status s = states ? tm_state_logger_start_c8g3(logger_mem, sizeof logger_mem, layout_mem)
+#endif
+    s = states ? tm_state_logger_start_c8g3(logger_mem, sizeof logger_mem, layout_mem)
                          : tm_record_logger_start_c8g3(logger_mem, sizeof logger_mem, layout_mem);
     if (s != TM_OK) return fprintf(stderr, "logger: %s\n", tm_message(s)), 1;
 

@@ -1902,16 +1902,24 @@ impl<'a> ImageWriter<'a> {
     }
 }
 
-/// Reads what [`ImageWriter`] wrote; `None` past the end or for a byte that
-/// is no value of its field.
+/// Reads what [`ImageWriter`] wrote. A read past the end gives zeros, a
+/// byte that is no value of its field a stand-in; either leaves the reader
+/// not [`ImageReader::ok`] (one check at the end, not one per field: the
+/// reader is the loader's code in a logger's flash).
 pub(crate) struct ImageReader<'a> {
     buf: &'a [u8],
+    ok: bool,
 }
 
 impl<'a> ImageReader<'a> {
     /// A reader at the start of `buf`.
     pub(crate) fn new(buf: &'a [u8]) -> Self {
-        ImageReader { buf }
+        ImageReader { buf, ok: true }
+    }
+
+    /// Whether every read so far was within the bytes and a value of its field.
+    pub(crate) fn ok(&self) -> bool {
+        self.ok
     }
 
     /// Bytes not read yet.
@@ -1919,67 +1927,78 @@ impl<'a> ImageReader<'a> {
         self.buf.len()
     }
 
-    fn take<const N: usize>(&mut self) -> Option<[u8; N]> {
-        let (head, rest) = self.buf.split_first_chunk::<N>()?;
+    /// The next `n` (at most 8) bytes as a little-endian number.
+    #[inline(never)]
+    fn le(&mut self, n: usize) -> u64 {
+        let Some((head, rest)) = self.buf.split_at_checked(n) else {
+            self.ok = false;
+            self.buf = &[];
+            return 0;
+        };
         self.buf = rest;
-        Some(*head)
+        head.iter().rev().fold(0, |v, b| (v << 8) | u64::from(*b))
     }
 
-    pub(crate) fn u8(&mut self) -> Option<u8> {
-        self.take::<1>().map(|[b]| b)
+    pub(crate) fn u8(&mut self) -> u8 {
+        self.le(1) as u8
     }
 
-    pub(crate) fn u16(&mut self) -> Option<u16> {
-        self.take().map(u16::from_le_bytes)
+    pub(crate) fn u16(&mut self) -> u16 {
+        self.le(2) as u16
     }
 
-    pub(crate) fn u32(&mut self) -> Option<u32> {
-        self.take().map(u32::from_le_bytes)
+    pub(crate) fn u32(&mut self) -> u32 {
+        self.le(4) as u32
     }
 
-    pub(crate) fn i32(&mut self) -> Option<i32> {
-        self.take().map(i32::from_le_bytes)
+    pub(crate) fn i32(&mut self) -> i32 {
+        self.le(4) as u32 as i32
     }
 
-    pub(crate) fn i64(&mut self) -> Option<i64> {
-        self.take().map(i64::from_le_bytes)
+    pub(crate) fn i64(&mut self) -> i64 {
+        self.le(8) as i64
     }
 
-    pub(crate) fn f64(&mut self) -> Option<f64> {
-        self.take().map(|b| f64::from_bits(u64::from_le_bytes(b)))
+    pub(crate) fn f64(&mut self) -> f64 {
+        f64::from_bits(self.le(8))
     }
 
-    fn flag(&mut self) -> Option<bool> {
-        match self.u8()? {
-            0 => Some(false),
-            1 => Some(true),
-            _ => None,
+    #[inline(never)]
+    fn flag(&mut self) -> bool {
+        let b = self.u8();
+        if b > 1 {
+            self.ok = false;
         }
+        b == 1
     }
 
-    fn opt_u8(&mut self) -> Option<Option<u8>> {
-        let some = self.flag()?;
-        let v = self.u8()?;
-        Some(some.then_some(v))
+    #[inline(never)]
+    fn opt_u8(&mut self) -> Option<u8> {
+        let some = self.flag();
+        let v = self.u8();
+        some.then_some(v)
     }
 
-    fn opt_u32(&mut self) -> Option<Option<u32>> {
-        let some = self.flag()?;
-        let v = self.u32()?;
-        Some(some.then_some(v))
+    #[inline(never)]
+    fn opt_u32(&mut self) -> Option<u32> {
+        let some = self.flag();
+        let v = self.u32();
+        some.then_some(v)
     }
 
-    fn opt_f64(&mut self) -> Option<Option<f64>> {
-        let some = self.flag()?;
-        let v = self.f64()?;
-        Some(some.then_some(v))
+    #[inline(never)]
+    fn opt_f64(&mut self) -> Option<f64> {
+        let some = self.flag();
+        let v = self.f64();
+        some.then_some(v)
     }
 
-    fn opt_pair(&mut self) -> Option<Option<(f64, f64)>> {
-        let some = self.flag()?;
-        let a = self.f64()?;
-        let b = self.f64()?;
-        Some(some.then_some((a, b)))
+    #[inline(never)]
+    fn opt_pair(&mut self) -> Option<(f64, f64)> {
+        let some = self.flag();
+        let a = self.f64();
+        let b = self.f64();
+        some.then_some((a, b))
     }
 }
 
@@ -2095,72 +2114,76 @@ impl Channel {
     }
 
     /// Reads a channel [`Channel::write_image`] wrote (fields in the same
-    /// order: a struct expression evaluates its fields as written).
-    pub(crate) fn read_image(r: &mut ImageReader<'_>) -> Option<Self> {
-        Some(Channel {
-            lo_k: r.i32()?,
-            hi_k: r.i32()?,
-            code_in_counts: r.flag()?,
-            code_in_values: r.flag()?,
-            gust_w: r.u16()?,
-            spike_lim: r.u32()?,
-            dir_inline_lo: r.i32()?,
-            dir_fast_k: r.i32()?,
-            offset_cd: r.i32()?,
-            dir_mul: r.i64()?,
-            dir_add: r.i64()?,
-            inv_step: r.opt_f64()?,
+    /// order: a struct expression evaluates its fields as written); whether
+    /// it was good is the reader's [`ImageReader::ok`].
+    pub(crate) fn read_image(r: &mut ImageReader<'_>) -> Self {
+        Channel {
+            lo_k: r.i32(),
+            hi_k: r.i32(),
+            code_in_counts: r.flag(),
+            code_in_values: r.flag(),
+            gust_w: r.u16(),
+            spike_lim: r.u32(),
+            dir_inline_lo: r.i32(),
+            dir_fast_k: r.i32(),
+            offset_cd: r.i32(),
+            dir_mul: r.i64(),
+            dir_add: r.i64(),
+            inv_step: r.opt_f64(),
             cfg: ChannelConfig {
-                kind: match r.u8()? {
+                kind: match r.u8() {
                     0 => Kind::Speed,
                     1 => Kind::Direction,
                     2 => Kind::Scalar,
-                    _ => return None,
+                    _ => {
+                        r.ok = false;
+                        Kind::Scalar
+                    }
                 },
                 scale: Scale {
-                    offset: r.f64()?,
-                    step: r.f64()?,
+                    offset: r.f64(),
+                    step: r.f64(),
                 },
-                range: (r.f64()?, r.f64()?),
-                gust_window: r.u16()?,
-                mounting_offset_deg: r.f64()?,
-                speed_channel: r.opt_u8()?,
+                range: (r.f64(), r.f64()),
+                gust_window: r.u16(),
+                mounting_offset_deg: r.f64(),
+                speed_channel: r.opt_u8(),
                 screen: Screen {
-                    step_limit: r.opt_f64()?,
-                    mean_range: r.opt_pair()?,
-                    sd_range: r.opt_pair()?,
-                    gust_max: r.opt_f64()?,
-                    min_recovery: r.opt_f64()?,
-                    flat_span_s: r.opt_u32()?,
-                    flat_tolerance: r.f64()?,
-                    partner: r.opt_u8()?,
-                    pair_mean_diff: r.f64()?,
-                    pair_max_diff: r.f64()?,
-                    above: r.opt_u8()?,
-                    shear_tolerance: r.f64()?,
+                    step_limit: r.opt_f64(),
+                    mean_range: r.opt_pair(),
+                    sd_range: r.opt_pair(),
+                    gust_max: r.opt_f64(),
+                    min_recovery: r.opt_f64(),
+                    flat_span_s: r.opt_u32(),
+                    flat_tolerance: r.f64(),
+                    partner: r.opt_u8(),
+                    pair_mean_diff: r.f64(),
+                    pair_max_diff: r.f64(),
+                    above: r.opt_u8(),
+                    shear_tolerance: r.f64(),
                     icing: {
-                        let some = r.flag()?;
+                        let some = r.flag();
                         let ice = Icing {
-                            temperature: r.u8()?,
-                            humidity: r.u8()?,
-                            max_temperature: r.f64()?,
-                            min_humidity: r.f64()?,
+                            temperature: r.u8(),
+                            humidity: r.u8(),
+                            max_temperature: r.f64(),
+                            min_humidity: r.f64(),
                         };
                         some.then_some(ice)
                     },
                 },
                 recal: {
-                    let some = r.flag()?;
+                    let some = r.flag();
                     let recal = Recal {
-                        logger_slope: r.f64()?,
-                        logger_offset: r.f64()?,
-                        cert_slope: r.f64()?,
-                        cert_offset: r.f64()?,
+                        logger_slope: r.f64(),
+                        logger_offset: r.f64(),
+                        cert_slope: r.f64(),
+                        cert_offset: r.f64(),
                     };
                     some.then_some(recal)
                 },
             },
-        })
+        }
     }
 }
 

@@ -721,15 +721,14 @@ fn read_image(
     g: usize,
     channels: &mut [Channel],
 ) -> Result<ImageScalars, ImageError> {
-    const BAD: ImageError = ImageError::Field;
     let Some((body, crc)) = image.split_last_chunk::<4>() else {
         return Err(ImageError::Length);
     };
     let mut r = ImageReader::new(body);
-    if r.u32() != Some(u32::from_le_bytes(*b"TMLI")) || r.u8() != Some(LAYOUT_IMAGE_VERSION) {
+    if r.u32() != u32::from_le_bytes(*b"TMLI") || r.u8() != LAYOUT_IMAGE_VERSION {
         return Err(ImageError::Format);
     }
-    if r.u8().map(usize::from) != Some(c) || r.u16().map(usize::from) != Some(g) {
+    if usize::from(r.u8()) != c || usize::from(r.u16()) != g {
         return Err(ImageError::Shape);
     }
     if image.len() != image_len(c) {
@@ -738,32 +737,34 @@ fn read_image(
     if crate::crc::crc32(body) != u32::from_le_bytes(*crc) {
         return Err(ImageError::Crc);
     }
-    let interval_ms = r.i64().ok_or(BAD)?;
-    let samples = r.u32().ok_or(BAD)?;
-    let max_step_ms = r.i64().ok_or(BAD)?;
-    let n_values = r.u8().ok_or(BAD)?;
+    let interval_ms = r.i64();
+    let samples = r.u32();
+    let max_step_ms = r.i64();
+    let n_values = r.u8();
     let mut values = [0.0; MAX_SENTINELS];
     for v in values.iter_mut() {
-        *v = r.f64().ok_or(BAD)?;
+        *v = r.f64();
     }
-    let n_counts = r.u8().ok_or(BAD)?;
+    let n_counts = r.u8();
     let mut counts = [0; MAX_SENTINELS];
     for k in counts.iter_mut() {
-        *k = r.i32().ok_or(BAD)?;
+        *k = r.i32();
     }
-    let sentinels = Sentinels::from_parts(values, n_values, counts, n_counts).ok_or(BAD)?;
-    let fingerprint = r.u32().ok_or(BAD)?;
-    let frame = r.u32().ok_or(BAD)?;
+    let sentinels = Sentinels::from_parts(values, n_values, counts, n_counts);
+    let fingerprint = r.u32();
+    let frame = r.u32();
+    // What a state of capacity `g` relies on (the image was written from a
+    // layout validated for it).
+    let mut gust_ok = true;
     for ch in channels.iter_mut() {
-        *ch = Channel::read_image(&mut r).ok_or(BAD)?;
-        // What a state of capacity `g` relies on (the image was written from
-        // a layout validated for it).
-        if usize::from(ch.config().gust_window) > g {
-            return Err(BAD);
-        }
+        *ch = Channel::read_image(&mut r);
+        gust_ok &= usize::from(ch.config().gust_window) <= g;
     }
-    if interval_ms <= 0 || samples == 0 || r.rest() != 0 {
-        return Err(BAD);
+    let Some(sentinels) = sentinels else {
+        return Err(ImageError::Field);
+    };
+    if !(r.ok() && gust_ok && interval_ms > 0 && samples > 0 && r.rest() == 0) {
+        return Err(ImageError::Field);
     }
     Ok(ImageScalars {
         interval_ms,
