@@ -77,8 +77,15 @@ grep -q 'error_a_panic_is_reachable_in_the_c_interface' "$out/canary.txt" \
 echo "with a planted panic the link fails (undefined symbol error_a_panic_is_reachable_in_the_c_interface)"
 cc_m0 logger.c stations.c "$lib_m0" -o "$out/logger-m0.elf" || fail "logger (M0): a panic is reachable"
 cc_m4 logger.c stations.c "$lib_m4" -o "$out/logger-m4.elf" || fail "logger (M4F): a panic is reachable"
+# The same logger on its layout's stored image (stored_layouts.c, image.c).
+cc_m0 -DSTORED_LAYOUT logger.c stations.c stored_layouts.c "$lib_m0" -o "$out/logger-stored-m0.elf" \
+  || fail "logger, stored layout (M0): a panic is reachable"
+cc_m4 -DSTORED_LAYOUT logger.c stations.c stored_layouts.c "$lib_m4" -o "$out/logger-stored-m4.elf" \
+  || fail "logger, stored layout (M4F): a panic is reachable"
 cc_m0 -DSTATIONS_QUIET -DFOOTPRINT_STATES footprint.c stations.c "$lib_m0" -o "$out/footprint-states.elf"
 cc_m0 -DSTATIONS_QUIET -DFOOTPRINT_RECORDS footprint.c stations.c "$lib_m0" -o "$out/footprint-records.elf"
+cc_m0 -DSTORED_LAYOUT -DFOOTPRINT_STATES footprint.c stored_layouts.c "$lib_m0" -o "$out/footprint-states-stored.elf"
+cc_m0 -DSTORED_LAYOUT -DFOOTPRINT_RECORDS footprint.c stored_layouts.c "$lib_m0" -o "$out/footprint-records-stored.elf"
 cc_m0 footprint.c -o "$out/footprint-base.elf"
 cc_m0 budget.c "$lib_m0" -o "$out/budget-m0.elf"
 cc_m4 budget.c "$lib_m4" -o "$out/budget-m4.elf"
@@ -87,7 +94,7 @@ cc_m4 budget.c "$lib_m4" -o "$out/budget-m4.elf"
 arm-none-eabi-gcc -mcpu=cortex-m0 -mthumb -T board/mps2-an386.ld "${cflags[@]}" board/startup.c \
   nopanic_all.c "$lib_m0" "${ldflags[@]}" -o "$out/nopanic-all.elf" \
   || fail "nopanic_all: an entry point of the C interface reaches a panic"
-echo "the logger (record and state, Cortex-M0 and M4F), the footprint and budget programs, and nopanic_all.c (every entry point of every shape) linked: no entry point reaches a panic"
+echo "the logger (record and state, Cortex-M0 and M4F; its layout built at run time, and loaded from its stored image), the footprint and budget programs, and nopanic_all.c (every entry point of every shape) linked: no entry point reaches a panic"
 
 step "host: tenmin (release), a day of demo data (tenmin demo, tenmin export)"
 cd "$root"
@@ -125,6 +132,20 @@ for m in m0 m4; do
 done
 cmp c-m0-records.log c-m4-records.log && cmp c-m0-states.log c-m4-states.log \
   && echo "Cortex-M0 and Cortex-M4F logs are identical (record logs, state logs)"
+
+step "the C logger on its stored layout image (stored_layouts.c), both targets: the same bytes"
+for m in m0 m4; do
+  for kind in records states; do
+    log="c-stored-$m-$kind.log"
+    rm -f "$log"
+    extra=()
+    [ $kind = states ] && extra=(states)
+    run_on $m "$out/logger-stored-$m.elf" logger demo.tmsf "$log" "${extra[@]}" | tee "c-stored-$m-$kind.txt" \
+      || fail "the C logger on its stored layout ($m, $kind) exited with an error"
+    cmp "$log" "c-$m-$kind.log" || fail "the stored layout's $m $kind log differs from the run-time layout's"
+  done
+done
+echo "the logs of the stored layout are byte for byte those of the layout built at run time (so they verify as those do)"
 cmp c-m0-records.csv c-m0-states.csv \
   && echo "records finished on the PC from the C state log = records finished by the C logger"
 rust="$root/out/firmware"
@@ -137,7 +158,7 @@ else
 fi
 
 step "budgets: the minimal 8-channel loggers run a day under QEMU (footprint-states, footprint-records, footprint-base)"
-for b in footprint-states footprint-records footprint-base; do
+for b in footprint-states footprint-records footprint-states-stored footprint-records-stored footprint-base; do
   run_on m0 "$out/$b.elf" | tee "$b.txt" || fail "$b on the Cortex-M0"
 done
 
@@ -153,13 +174,16 @@ flash() { arm-none-eabi-size -A "$1" | awk '$1 ~ /^\.(vectors|text|rodata|data|A
 base=$(flash "$out/footprint-base.elf")
 share=$(($(flash "$out/footprint-states.elf") - base))
 record_share=$(($(flash "$out/footprint-records.elf") - base))
+stored_share=$(($(flash "$out/footprint-states-stored.elf") - base))
+stored_record_share=$(($(flash "$out/footprint-records-stored.elf") - base))
 arm-none-eabi-nm -C "$out/footprint-base.elf" | awk '{ $1=""; $2=""; print substr($0,3) }' | sort -u >base.syms
 split() { # split ELF SHARE: what ELF adds over footprint-base, by kind of symbol
   arm-none-eabi-nm -S -C --radix=d "$1" | awk '
     NR==FNR { base[$0]=1; next }
     $3 ~ /^[tTrRdDwW]$/ { size=$2+0; $1=""; $2=""; $3=""; n=substr($0,4);
       if (n in base) next;
-      if (n ~ /Channel::new|validate|Sentinels::new|config_fingerprint|note_codes|cmath::|LayoutMem|types::channel|types::station|_defaults|tm_layout_build|_station$|fp_opt|fp_index|Crc32::word|libm::/) c="building the layout at run time (the C settings, Layout::rebuild)";
+      if (n ~ /read_image|load_image|ImageReader|_LAYOUT$|tm_layout_load|Layout<_>::reset|crc::crc32$/) c="loading the stored layout (its image, 2,122 B, the checks and the reads)";
+      else if (n ~ /Channel::new|validate|Sentinels::new|config_fingerprint|note_codes|cmath::|LayoutMem|types::channel|types::station|_defaults|tm_layout_build|_station$|fp_opt|fp_index|Crc32::word|libm::/) c="building the layout at run time (the C settings, Layout::rebuild)";
       else if (n ~ /^tm_|tenmin_qc::/) c="the C interface (tm_*, frames into the caller buffer)";
       else if (n ~ /qc_core/) c="qc-core (sampling, state or record frames)";
       else if (n ~ /compiler_builtins|^__/) c="compiler-builtins (soft f64, 64-bit int, mem*)";
@@ -173,14 +197,17 @@ echo "footprint-states - footprint-base = $share B:"
 split "$out/footprint-states.elf" "$share"
 echo "footprint-records - footprint-base = $record_share B:"
 split "$out/footprint-records.elf" "$record_share"
+echo "footprint-states-stored - footprint-base = $stored_share B (the layout loaded from its image):"
+split "$out/footprint-states-stored.elf" "$stored_share"
 
 step "budgets table (Cortex-M0, thumbv6m-none-eabi, QEMU microbit; C logger)"
 num() { grep -F "budget: $1" budget-m0.txt | head -1 | sed -n "s/.*$2 *\([0-9]*\).*/\1/p"; }
 ram() { sed -n "s/.*$2 \([0-9]*\) B.*/\1/p" "$1" | head -1; }
 printf '%-72s %10s\n' measure measured
 info() { printf '%-72s %10s\n' "$1" "$2"; }
-info "flash share of the C interface, 8-channel state logger (B)" "$share"
-info "  a C logger that also finishes and screens (B)" "$record_share"
+info "flash share of the C interface, 8-channel state logger, stored layout (B)" "$stored_share"
+info "  the same, its layout built at run time (B)" "$share"
+info "  a C logger that also finishes and screens, stored layout / built (B)" "$stored_record_share / $record_share"
 info "instructions per speed sample, 8 cups (counts), per channel, state logger" "$(num 'C: 8 x speed, counts (cup), state logger' 'per channel')"
 info "  the same, record logger" "$(num 'C: 8 x speed, counts (cup), record logger' 'per channel')"
 info "instructions per direction sample, 8 vanes (counts), per channel, state logger" "$(num 'C: 8 x direction, counts, state logger' 'per channel')"

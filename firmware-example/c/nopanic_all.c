@@ -44,6 +44,12 @@ int main(void) {
     tm_state_logger_start_c8g12(m, len, l);
     tm_record_logger_start_c16g12(m, len, l);
     tm_state_logger_start_c16g12(m, len, l);
+    tm_layout_load_c4g3(l, len, P(uint8_t *, bytes), any(sizeof bytes));
+    tm_layout_load_c8g3(l, len, P(uint8_t *, bytes), any(sizeof bytes));
+    tm_layout_load_c8g12(l, len, P(uint8_t *, bytes), any(sizeof bytes));
+    tm_layout_load_c16g12(l, len, P(uint8_t *, bytes), any(sizeof bytes));
+    size_t written;
+    tm_layout_image(l, P(uint8_t *, bytes), any(sizeof bytes), &written);
     tm_layout_info(l, &u8, &u32);
     tm_logger_push(m, (int64_t)any(1), P(tm_reading *, readings), n, P(uint8_t *, bytes), any(sizeof bytes), &res);
     tm_logger_close(m, P(uint8_t *, bytes), any(sizeof bytes), &res);

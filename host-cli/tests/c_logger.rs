@@ -45,16 +45,17 @@ fn static_lib() -> PathBuf {
         .expect("cargo builds libtenmin_qc.a for qc-capi (crate-type staticlib)")
 }
 
-/// Compiles the C logger with `cc` into `dir`.
-fn build_c_logger(dir: &Path) -> PathBuf {
+/// Compiles a C program of `firmware-example/c/` (`sources`, with `defines`)
+/// with `cc` into `dir/name`.
+fn build_c(dir: &Path, name: &str, defines: &[&str], sources: &[&str]) -> PathBuf {
     let root = Path::new(env!("CARGO_MANIFEST_DIR")).join("..");
     let c = root.join("firmware-example/c");
-    let exe = dir.join("c-logger");
+    let exe = dir.join(name);
     let out = Command::new("cc")
         .args(["-std=c99", "-O1", "-Wall", "-Wextra", "-Werror", "-I"])
         .arg(root.join("qc-core/capi/include"))
-        .arg(c.join("logger.c"))
-        .arg(c.join("stations.c"))
+        .args(defines)
+        .args(sources.iter().map(|s| c.join(s)))
         .arg(static_lib())
         // --gc-sections: only what the C logger calls is linked (with the
         // workspace's `--all-features`, qc-core's defmt code is in the library,
@@ -70,6 +71,27 @@ fn build_c_logger(dir: &Path) -> PathBuf {
         text(&out.stderr)
     );
     exe
+}
+
+/// Compiles the C logger with `cc` into `dir`.
+fn build_c_logger(dir: &Path) -> PathBuf {
+    build_c(dir, "c-logger", &[], &["logger.c", "stations.c"])
+}
+
+#[test]
+fn the_stored_layout_images_are_fresh() {
+    // image.c builds the example stations with the library and writes their
+    // images; the committed stored_layouts.c must be its output.
+    let dir = tempfile::tempdir().unwrap();
+    let exe = build_c(dir.path(), "image", &[], &["image.c", "stations.c"]);
+    let o = Command::new(&exe).output().expect("run image");
+    assert!(o.status.success(), "image: {}", text(&o.stderr));
+    let path = Path::new(env!("CARGO_MANIFEST_DIR")).join("../firmware-example/c/stored_layouts.c");
+    let committed = std::fs::read(&path).unwrap();
+    assert!(
+        committed == o.stdout,
+        "firmware-example/c/stored_layouts.c is stale: regenerate it as image.c says"
+    );
 }
 
 /// The Rust firmware's replay of `samples` (record or state frames).
@@ -127,6 +149,12 @@ fn c_logger_writes_the_rust_loggers_bytes_and_verifies() {
     let tmsf = std::fs::read(d.join("demo.tmsf")).unwrap();
 
     let exe = build_c_logger(d);
+    let stored = build_c(
+        d,
+        "c-logger-stored",
+        &["-DSTORED_LAYOUT"],
+        &["logger.c", "stations.c", "stored_layouts.c"],
+    );
     for (states, name) in [(false, "records"), (true, "states")] {
         let log = format!("c-{name}.log");
         let mut cmd = Command::new(&exe);
@@ -152,6 +180,25 @@ fn c_logger_writes_the_rust_loggers_bytes_and_verifies() {
         assert!(
             c_log == rust_log(&tmsf, states),
             "the C logger's {name} log differs from the Rust firmware's"
+        );
+        // The logger on its layout's stored image (validated on the PC by
+        // image.c, only checked and loaded by the logger): the same bytes.
+        let stored_log = format!("c-stored-{name}.log");
+        let mut cmd = Command::new(&stored);
+        cmd.current_dir(d).args(["demo.tmsf", &stored_log]);
+        if states {
+            cmd.arg("states");
+        }
+        let o = cmd.output().expect("run the C logger (stored layout)");
+        assert!(
+            o.status.success(),
+            "C logger, stored layout ({name}): {}{}",
+            text(&o.stdout),
+            text(&o.stderr)
+        );
+        assert!(
+            std::fs::read(d.join(&stored_log)).unwrap() == c_log,
+            "the C logger's {name} log on its stored layout differs from its log on the layout built at run time"
         );
         // The PC's replay of the samples is the reference for every field.
         let csv = format!("c-{name}.csv");
