@@ -234,6 +234,26 @@ fn row<const C: usize>(src: &[tm_reading]) -> Result<Option<&[Reading; C]>, tm_s
     }
 }
 
+/// Runs `f` on the caller's readings as the core's row of `C` ([`row`]: as
+/// they are when the station fills its shape; else a copy padded with
+/// missing readings), after checking their kinds. The push of either kind
+/// of logger.
+#[inline(always)]
+fn with_row<const C: usize>(
+    src: &[tm_reading],
+    f: impl FnOnce(&[Reading; C]),
+) -> Result<(), tm_status> {
+    let pad;
+    f(match row::<C>(src)? {
+        Some(full) => full,
+        None => {
+            pad = padded::<C>(src)?;
+            &pad
+        }
+    });
+    Ok(())
+}
+
 /// The readings of a station with fewer channels than its shape, the slots
 /// after them missing (out of line: the rare case).
 #[inline(never)]
@@ -363,20 +383,13 @@ impl<const C: usize, const G: usize> Engine for RecordBody<C, G> {
         out: &mut [u8],
         result: &mut tm_push_result,
     ) -> Result<(), tm_status> {
-        let pad;
-        let readings = match row::<C>(src)? {
-            Some(full) => full,
-            None => {
-                pad = padded::<C>(src)?;
-                &pad
-            }
-        };
         let layout = self.layout;
-        let pushed = self
-            .core
-            .push(t, readings, |e| records(layout, meta, out, result, e));
-        result.outcome = types::outcome(pushed);
-        Ok(())
+        with_row::<C>(src, |readings| {
+            let pushed = self
+                .core
+                .push(t, readings, |e| records(layout, meta, out, result, e));
+            result.outcome = types::outcome(pushed);
+        })
     }
 
     fn close(&mut self, meta: &mut Meta, out: &mut [u8]) -> tm_push_result {
@@ -412,19 +425,12 @@ impl<const C: usize, const G: usize> Engine for StateBody<C, G> {
         out: &mut [u8],
         result: &mut tm_push_result,
     ) -> Result<(), tm_status> {
-        let pad;
-        let readings = match row::<C>(src)? {
-            Some(full) => full,
-            None => {
-                pad = padded::<C>(src)?;
-                &pad
-            }
-        };
-        let pushed = self
-            .core
-            .push(t, readings, |e| states(meta, out, result, e));
-        result.outcome = types::outcome(pushed);
-        Ok(())
+        with_row::<C>(src, |readings| {
+            let pushed = self
+                .core
+                .push(t, readings, |e| states(meta, out, result, e));
+            result.outcome = types::outcome(pushed);
+        })
     }
 
     fn close(&mut self, meta: &mut Meta, out: &mut [u8]) -> tm_push_result {

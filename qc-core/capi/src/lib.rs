@@ -969,9 +969,11 @@ fn panic(_: &core::panic::PanicInfo<'_>) -> ! {
 // which the cbindgen maintainers advise against), and the header's
 // freshness test runs on the stable toolchain of the gates. What a shape
 // does is in one place already (`layout_build`, `logger_start`, the
-// generic `Body`); each block below is its sizes, three one-line wrappers
-// and their documentation, and the `const` assertions check every size
-// against the state it must hold.
+// generic `Body`); each block below is its sizes, four one-line wrappers
+// (build, load, and the starts of a record and a state logger), and the
+// `const` assertions check every size against the state it must hold. The
+// wrappers of `c8g3` carry the whole documentation; the other shapes' say
+// what differs and refer to them.
 
 /// Every block size below leaves at least this many bytes unused on every
 /// target (rounded up to 128), so that the library's state can grow a little
@@ -995,23 +997,12 @@ const _: () = assert!(
         && size_of::<LoggerMem<StateBody<4, 3>>>() + HEADROOM <= TM_STATE_LOGGER_C4G3_SIZE
 );
 
-/// Builds and validates a station of shape `c4g3` into the layout block `mem`
-/// (`len` bytes, at least `TM_LAYOUT_C4G3_SIZE`, aligned to `TM_ALIGN`): the
-/// station-wide settings `*station` and `n` (1 to 4) channel settings at
-/// `channels`. Everything that can be wrong with a configuration is found
-/// here; a logger started on the layout then refuses no reading.
-///
-/// Returns `TM_OK`; a `TM_CONFIG_...` code for a refused configuration (one
-/// code for each way the core refuses one; `tm_message` says why), with the
-/// channel at fault in `*error_channel` (255 when none; `error_channel` may
-/// be NULL); or `TM_ERR_NULL`, `TM_ERR_SIZE`, `TM_ERR_ALIGN`, `TM_ERR_KIND`.
-/// On any error the block holds no layout.
+/// `tm_layout_build_c8g3` for shape `c4g3` (4 channels, gust windows up to 3 samples): the block
+/// `mem` of at least `TM_LAYOUT_C4G3_SIZE` bytes, `n` from 1 to 4.
 ///
 /// # Safety
 ///
-/// `mem` must be NULL or `len` writable bytes that the library alone uses
-/// from now on; `station` NULL or a valid settings struct; `channels` NULL
-/// or `n` valid settings; `error_channel` NULL or a writable byte.
+/// As for `tm_layout_build_c8g3`.
 #[no_mangle]
 pub unsafe extern "C" fn tm_layout_build_c4g3(
     mem: *mut c_void,
@@ -1025,19 +1016,12 @@ pub unsafe extern "C" fn tm_layout_build_c4g3(
     unsafe { layout_build::<4, 3>(mem, len, station, channels, n, error_channel) }
 }
 
-/// Loads the layout image at `image` (`image_len` bytes, written by
-/// `tm_layout_image` from a layout of shape `c4g3`) into the layout block
-/// `mem`, as `tm_layout_build_c4g3` builds one, without validating it again:
-/// the image's format, version, shape, length and CRCs are checked, and
-/// nothing else is linked.
-///
-/// Returns `TM_OK`, `TM_ERR_IMAGE`, `TM_ERR_IMAGE_SHAPE`, `TM_ERR_IMAGE_CRC`,
-/// `TM_ERR_NULL`, `TM_ERR_SIZE` or `TM_ERR_ALIGN`. On any error the block
-/// holds no layout.
+/// `tm_layout_load_c8g3` for shape `c4g3`: an image of a layout of that
+/// shape into a block of at least `TM_LAYOUT_C4G3_SIZE` bytes.
 ///
 /// # Safety
 ///
-/// `mem` as for `tm_layout_build_c4g3`; `image` NULL or `image_len` readable bytes.
+/// As for `tm_layout_load_c8g3`.
 #[no_mangle]
 pub unsafe extern "C" fn tm_layout_load_c4g3(
     mem: *mut c_void,
@@ -1049,20 +1033,12 @@ pub unsafe extern "C" fn tm_layout_load_c4g3(
     unsafe { layout_load::<4, 3>(mem, len, image, image_len) }
 }
 
-/// Starts a record logger of shape `c4g3` in the block `mem` (`len` bytes, at
-/// least `TM_RECORD_LOGGER_C4G3_SIZE`, aligned to `TM_ALIGN`) on the layout
-/// block `layout` (built by `tm_layout_build_c4g3`). The logger finishes and
-/// screens each interval on board, counts the running recovery, and writes
-/// record frames; frame sequence numbers start at 0. Starting again restarts it.
-///
-/// Returns `TM_OK`, `TM_ERR_NULL`, `TM_ERR_SIZE`, `TM_ERR_ALIGN`, or
-/// `TM_ERR_NOT_READY` (`layout` holds no layout of this shape).
+/// `tm_record_logger_start_c8g3` for shape `c4g3`: the block `mem` of at
+/// least `TM_RECORD_LOGGER_C4G3_SIZE` bytes, on a layout block of that shape.
 ///
 /// # Safety
 ///
-/// `mem` must be NULL or `len` writable bytes that the library alone uses
-/// from now on; `layout` NULL or a layout block, left unchanged while the
-/// logger runs.
+/// As for `tm_record_logger_start_c8g3`.
 #[no_mangle]
 pub unsafe extern "C" fn tm_record_logger_start_c4g3(
     mem: *mut c_void,
@@ -1073,18 +1049,12 @@ pub unsafe extern "C" fn tm_record_logger_start_c4g3(
     unsafe { logger_start::<4, 3, _>(mem, len, layout, Station::<4, 3, _>::new) }
 }
 
-/// Starts a state logger of shape `c4g3` in the block `mem` (`len` bytes, at
-/// least `TM_STATE_LOGGER_C4G3_SIZE`, aligned to `TM_ALIGN`) on the layout
-/// block `layout`: it samples only and writes each interval's exact state
-/// (state frames), which `tenmin decode --config` finishes on a PC into the
-/// records a record logger would have written, bit for bit. Half the RAM and
-/// flash of a record logger.
-///
-/// Returns as `tm_record_logger_start_c4g3` does.
+/// `tm_state_logger_start_c8g3` for shape `c4g3`: the block `mem` of at
+/// least `TM_STATE_LOGGER_C4G3_SIZE` bytes, on a layout block of that shape.
 ///
 /// # Safety
 ///
-/// As for `tm_record_logger_start_c4g3`.
+/// As for `tm_record_logger_start_c8g3`.
 #[no_mangle]
 pub unsafe extern "C" fn tm_state_logger_start_c4g3(
     mem: *mut c_void,
@@ -1221,23 +1191,12 @@ const _: () = assert!(
         && size_of::<LoggerMem<StateBody<8, 12>>>() + HEADROOM <= TM_STATE_LOGGER_C8G12_SIZE
 );
 
-/// Builds and validates a station of shape `c8g12` into the layout block `mem`
-/// (`len` bytes, at least `TM_LAYOUT_C8G12_SIZE`, aligned to `TM_ALIGN`): the
-/// station-wide settings `*station` and `n` (1 to 8) channel settings at
-/// `channels`. Everything that can be wrong with a configuration is found
-/// here; a logger started on the layout then refuses no reading.
-///
-/// Returns `TM_OK`; a `TM_CONFIG_...` code for a refused configuration (one
-/// code for each way the core refuses one; `tm_message` says why), with the
-/// channel at fault in `*error_channel` (255 when none; `error_channel` may
-/// be NULL); or `TM_ERR_NULL`, `TM_ERR_SIZE`, `TM_ERR_ALIGN`, `TM_ERR_KIND`.
-/// On any error the block holds no layout.
+/// `tm_layout_build_c8g3` for shape `c8g12` (8 channels, gust windows up to 12 samples): the block
+/// `mem` of at least `TM_LAYOUT_C8G12_SIZE` bytes, `n` from 1 to 8.
 ///
 /// # Safety
 ///
-/// `mem` must be NULL or `len` writable bytes that the library alone uses
-/// from now on; `station` NULL or a valid settings struct; `channels` NULL
-/// or `n` valid settings; `error_channel` NULL or a writable byte.
+/// As for `tm_layout_build_c8g3`.
 #[no_mangle]
 pub unsafe extern "C" fn tm_layout_build_c8g12(
     mem: *mut c_void,
@@ -1251,19 +1210,12 @@ pub unsafe extern "C" fn tm_layout_build_c8g12(
     unsafe { layout_build::<8, 12>(mem, len, station, channels, n, error_channel) }
 }
 
-/// Loads the layout image at `image` (`image_len` bytes, written by
-/// `tm_layout_image` from a layout of shape `c8g12`) into the layout block
-/// `mem`, as `tm_layout_build_c8g12` builds one, without validating it again:
-/// the image's format, version, shape, length and CRCs are checked, and
-/// nothing else is linked.
-///
-/// Returns `TM_OK`, `TM_ERR_IMAGE`, `TM_ERR_IMAGE_SHAPE`, `TM_ERR_IMAGE_CRC`,
-/// `TM_ERR_NULL`, `TM_ERR_SIZE` or `TM_ERR_ALIGN`. On any error the block
-/// holds no layout.
+/// `tm_layout_load_c8g3` for shape `c8g12`: an image of a layout of that
+/// shape into a block of at least `TM_LAYOUT_C8G12_SIZE` bytes.
 ///
 /// # Safety
 ///
-/// `mem` as for `tm_layout_build_c8g12`; `image` NULL or `image_len` readable bytes.
+/// As for `tm_layout_load_c8g3`.
 #[no_mangle]
 pub unsafe extern "C" fn tm_layout_load_c8g12(
     mem: *mut c_void,
@@ -1275,20 +1227,12 @@ pub unsafe extern "C" fn tm_layout_load_c8g12(
     unsafe { layout_load::<8, 12>(mem, len, image, image_len) }
 }
 
-/// Starts a record logger of shape `c8g12` in the block `mem` (`len` bytes, at
-/// least `TM_RECORD_LOGGER_C8G12_SIZE`, aligned to `TM_ALIGN`) on the layout
-/// block `layout` (built by `tm_layout_build_c8g12`). The logger finishes and
-/// screens each interval on board, counts the running recovery, and writes
-/// record frames; frame sequence numbers start at 0. Starting again restarts it.
-///
-/// Returns `TM_OK`, `TM_ERR_NULL`, `TM_ERR_SIZE`, `TM_ERR_ALIGN`, or
-/// `TM_ERR_NOT_READY` (`layout` holds no layout of this shape).
+/// `tm_record_logger_start_c8g3` for shape `c8g12`: the block `mem` of at
+/// least `TM_RECORD_LOGGER_C8G12_SIZE` bytes, on a layout block of that shape.
 ///
 /// # Safety
 ///
-/// `mem` must be NULL or `len` writable bytes that the library alone uses
-/// from now on; `layout` NULL or a layout block, left unchanged while the
-/// logger runs.
+/// As for `tm_record_logger_start_c8g3`.
 #[no_mangle]
 pub unsafe extern "C" fn tm_record_logger_start_c8g12(
     mem: *mut c_void,
@@ -1299,18 +1243,12 @@ pub unsafe extern "C" fn tm_record_logger_start_c8g12(
     unsafe { logger_start::<8, 12, _>(mem, len, layout, Station::<8, 12, _>::new) }
 }
 
-/// Starts a state logger of shape `c8g12` in the block `mem` (`len` bytes, at
-/// least `TM_STATE_LOGGER_C8G12_SIZE`, aligned to `TM_ALIGN`) on the layout
-/// block `layout`: it samples only and writes each interval's exact state
-/// (state frames), which `tenmin decode --config` finishes on a PC into the
-/// records a record logger would have written, bit for bit. Half the RAM and
-/// flash of a record logger.
-///
-/// Returns as `tm_record_logger_start_c8g12` does.
+/// `tm_state_logger_start_c8g3` for shape `c8g12`: the block `mem` of at
+/// least `TM_STATE_LOGGER_C8G12_SIZE` bytes, on a layout block of that shape.
 ///
 /// # Safety
 ///
-/// As for `tm_record_logger_start_c8g12`.
+/// As for `tm_record_logger_start_c8g3`.
 #[no_mangle]
 pub unsafe extern "C" fn tm_state_logger_start_c8g12(
     mem: *mut c_void,
@@ -1334,23 +1272,12 @@ const _: () = assert!(
         && size_of::<LoggerMem<StateBody<16, 12>>>() + HEADROOM <= TM_STATE_LOGGER_C16G12_SIZE
 );
 
-/// Builds and validates a station of shape `c16g12` into the layout block `mem`
-/// (`len` bytes, at least `TM_LAYOUT_C16G12_SIZE`, aligned to `TM_ALIGN`): the
-/// station-wide settings `*station` and `n` (1 to 16) channel settings at
-/// `channels`. Everything that can be wrong with a configuration is found
-/// here; a logger started on the layout then refuses no reading.
-///
-/// Returns `TM_OK`; a `TM_CONFIG_...` code for a refused configuration (one
-/// code for each way the core refuses one; `tm_message` says why), with the
-/// channel at fault in `*error_channel` (255 when none; `error_channel` may
-/// be NULL); or `TM_ERR_NULL`, `TM_ERR_SIZE`, `TM_ERR_ALIGN`, `TM_ERR_KIND`.
-/// On any error the block holds no layout.
+/// `tm_layout_build_c8g3` for shape `c16g12` (16 channels, gust windows up to 12 samples): the block
+/// `mem` of at least `TM_LAYOUT_C16G12_SIZE` bytes, `n` from 1 to 16.
 ///
 /// # Safety
 ///
-/// `mem` must be NULL or `len` writable bytes that the library alone uses
-/// from now on; `station` NULL or a valid settings struct; `channels` NULL
-/// or `n` valid settings; `error_channel` NULL or a writable byte.
+/// As for `tm_layout_build_c8g3`.
 #[no_mangle]
 pub unsafe extern "C" fn tm_layout_build_c16g12(
     mem: *mut c_void,
@@ -1364,19 +1291,12 @@ pub unsafe extern "C" fn tm_layout_build_c16g12(
     unsafe { layout_build::<16, 12>(mem, len, station, channels, n, error_channel) }
 }
 
-/// Loads the layout image at `image` (`image_len` bytes, written by
-/// `tm_layout_image` from a layout of shape `c16g12`) into the layout block
-/// `mem`, as `tm_layout_build_c16g12` builds one, without validating it again:
-/// the image's format, version, shape, length and CRCs are checked, and
-/// nothing else is linked.
-///
-/// Returns `TM_OK`, `TM_ERR_IMAGE`, `TM_ERR_IMAGE_SHAPE`, `TM_ERR_IMAGE_CRC`,
-/// `TM_ERR_NULL`, `TM_ERR_SIZE` or `TM_ERR_ALIGN`. On any error the block
-/// holds no layout.
+/// `tm_layout_load_c8g3` for shape `c16g12`: an image of a layout of that
+/// shape into a block of at least `TM_LAYOUT_C16G12_SIZE` bytes.
 ///
 /// # Safety
 ///
-/// `mem` as for `tm_layout_build_c16g12`; `image` NULL or `image_len` readable bytes.
+/// As for `tm_layout_load_c8g3`.
 #[no_mangle]
 pub unsafe extern "C" fn tm_layout_load_c16g12(
     mem: *mut c_void,
@@ -1388,20 +1308,12 @@ pub unsafe extern "C" fn tm_layout_load_c16g12(
     unsafe { layout_load::<16, 12>(mem, len, image, image_len) }
 }
 
-/// Starts a record logger of shape `c16g12` in the block `mem` (`len` bytes, at
-/// least `TM_RECORD_LOGGER_C16G12_SIZE`, aligned to `TM_ALIGN`) on the layout
-/// block `layout` (built by `tm_layout_build_c16g12`). The logger finishes and
-/// screens each interval on board, counts the running recovery, and writes
-/// record frames; frame sequence numbers start at 0. Starting again restarts it.
-///
-/// Returns `TM_OK`, `TM_ERR_NULL`, `TM_ERR_SIZE`, `TM_ERR_ALIGN`, or
-/// `TM_ERR_NOT_READY` (`layout` holds no layout of this shape).
+/// `tm_record_logger_start_c8g3` for shape `c16g12`: the block `mem` of at
+/// least `TM_RECORD_LOGGER_C16G12_SIZE` bytes, on a layout block of that shape.
 ///
 /// # Safety
 ///
-/// `mem` must be NULL or `len` writable bytes that the library alone uses
-/// from now on; `layout` NULL or a layout block, left unchanged while the
-/// logger runs.
+/// As for `tm_record_logger_start_c8g3`.
 #[no_mangle]
 pub unsafe extern "C" fn tm_record_logger_start_c16g12(
     mem: *mut c_void,
@@ -1412,18 +1324,12 @@ pub unsafe extern "C" fn tm_record_logger_start_c16g12(
     unsafe { logger_start::<16, 12, _>(mem, len, layout, Station::<16, 12, _>::new) }
 }
 
-/// Starts a state logger of shape `c16g12` in the block `mem` (`len` bytes, at
-/// least `TM_STATE_LOGGER_C16G12_SIZE`, aligned to `TM_ALIGN`) on the layout
-/// block `layout`: it samples only and writes each interval's exact state
-/// (state frames), which `tenmin decode --config` finishes on a PC into the
-/// records a record logger would have written, bit for bit. Half the RAM and
-/// flash of a record logger.
-///
-/// Returns as `tm_record_logger_start_c16g12` does.
+/// `tm_state_logger_start_c8g3` for shape `c16g12`: the block `mem` of at
+/// least `TM_STATE_LOGGER_C16G12_SIZE` bytes, on a layout block of that shape.
 ///
 /// # Safety
 ///
-/// As for `tm_record_logger_start_c16g12`.
+/// As for `tm_record_logger_start_c8g3`.
 #[no_mangle]
 pub unsafe extern "C" fn tm_state_logger_start_c16g12(
     mem: *mut c_void,
