@@ -115,37 +115,31 @@ run_on() { # run_on m0|m4 ELF [ARGS...]: the program under QEMU with semihosting
   timeout 300 "${q[@]}" -semihosting-config "$semi$args" -kernel "$elf"
 }
 
-step "the C logger under QEMU on both targets, tenmin decode, tenmin verify"
+step "the C logger under QEMU on both targets, tenmin decode, tenmin verify; on its stored layout image, the same bytes"
 for m in m0 m4; do
   for kind in records states; do
-    log="c-$m-$kind.log"
-    rm -f "$log"
     extra=()
     [ $kind = states ] && extra=(states)
-    run_on $m "$out/logger-$m.elf" logger demo.tmsf "$log" "${extra[@]}" | tee "c-$m-$kind.txt" \
-      || fail "the C logger ($m, $kind) exited with an error"
-    "$tenmin" decode --strict -q --config demo/station.toml "$log" -o "c-$m-$kind.csv" \
+    for how in "" stored-; do
+      log="c-$how$m-$kind.log"
+      rm -f "$log"
+      run_on $m "$out/logger-$how$m.elf" logger demo.tmsf "$log" "${extra[@]}" | tee "c-$how$m-$kind.txt" \
+        || fail "the C logger ($how$m, $kind) exited with an error"
+    done
+    # The layout loaded from its stored image (stored_layouts.c) gives the
+    # bytes of the layout built at run time, so its logs verify as those do.
+    cmp "c-stored-$m-$kind.log" "c-$m-$kind.log" \
+      || fail "the stored layout's $m $kind log differs from the run-time layout's"
+    "$tenmin" decode --strict -q --config demo/station.toml "c-$m-$kind.log" -o "c-$m-$kind.csv" \
       || fail "tenmin decode of the C $m $kind log"
     "$tenmin" verify -q --config demo/station.toml --samples demo/samples-*.csv --records "c-$m-$kind.csv" \
       || fail "tenmin verify of the C $m $kind log"
   done
 done
+echo "the logs of the stored layout image are byte for byte those of the layout built at run time"
 cmp c-m0-records.log c-m4-records.log && cmp c-m0-states.log c-m4-states.log \
   && echo "Cortex-M0 and Cortex-M4F logs are identical (record logs, state logs)"
 
-step "the C logger on its stored layout image (stored_layouts.c), both targets: the same bytes"
-for m in m0 m4; do
-  for kind in records states; do
-    log="c-stored-$m-$kind.log"
-    rm -f "$log"
-    extra=()
-    [ $kind = states ] && extra=(states)
-    run_on $m "$out/logger-stored-$m.elf" logger demo.tmsf "$log" "${extra[@]}" | tee "c-stored-$m-$kind.txt" \
-      || fail "the C logger on its stored layout ($m, $kind) exited with an error"
-    cmp "$log" "c-$m-$kind.log" || fail "the stored layout's $m $kind log differs from the run-time layout's"
-  done
-done
-echo "the logs of the stored layout are byte for byte those of the layout built at run time (so they verify as those do)"
 cmp c-m0-records.csv c-m0-states.csv \
   && echo "records finished on the PC from the C state log = records finished by the C logger"
 rust="$root/out/firmware"
@@ -182,8 +176,9 @@ split() { # split ELF SHARE: what ELF adds over footprint-base, by kind of symbo
     NR==FNR { base[$0]=1; next }
     $3 ~ /^[tTrRdDwW]$/ { size=$2+0; $1=""; $2=""; $3=""; n=substr($0,4);
       if (n in base) next;
-      if (n ~ /read_image|load_image|ImageReader|_LAYOUT$|tm_layout_load|Layout<_>::reset|crc::crc32$/) c="loading the stored layout (its image, 2,122 B, the checks and the reads)";
-      else if (n ~ /Channel::new|validate|Sentinels::new|config_fingerprint|note_codes|cmath::|LayoutMem|types::channel|types::station|_defaults|tm_layout_build|_station$|fp_opt|fp_index|Crc32::word|libm::/) c="building the layout at run time (the C settings, Layout::rebuild)";
+      if (n ~ /read_image|load_image|ImageReader|_LAYOUT$|tm_layout_load|crc::crc32$/) c="loading the stored layout (its image, 2,122 B, the checks and the reads)";
+      else if (n ~ /Layout<_>::reset|tenmin_qc::placeholder/) c="the placeholder layout a build or load starts from, and its reset after a refusal";
+      else if (n ~ /Channel::new|validate|Sentinels::new|config_fingerprint|note_codes|cmath::round|cmath::floor|LayoutMem|types::channel|types::station|_defaults|tm_layout_build|_station$|fp_opt|fp_index|Crc32::word/) c="building the layout at run time (the C settings, Layout::rebuild)";
       else if (n ~ /^tm_|tenmin_qc::/) c="the C interface (tm_*, frames into the caller buffer)";
       else if (n ~ /qc_core/) c="qc-core (sampling, state or record frames)";
       else if (n ~ /compiler_builtins|^__/) c="compiler-builtins (soft f64, 64-bit int, mem*)";
@@ -217,6 +212,7 @@ info "  record logger block TM_RECORD_LOGGER_C8G3_SIZE (B)" "$(sed -n 's/^#defin
 info "  layout block TM_LAYOUT_C8G3_SIZE (B, in RAM: built at run time)" "$(sed -n 's/^#define TM_LAYOUT_C8G3_SIZE //p' "$root/qc-core/capi/include/tenmin_qc.h")"
 info "the demo logger's stack at most, record logger, Cortex-M0 (B)" "$(ram c-m0-records.txt stack)"
 info "  state logger (B)" "$(ram c-m0-states.txt stack)"
+info "  record / state logger on its stored layout image (B)" "$(ram c-stored-m0-records.txt stack) / $(ram c-stored-m0-states.txt stack)"
 info "the demo logger's statics (.data + .bss) and newlib's heap (B)" "$(ram c-m0-records.txt statics) + $(ram c-m0-records.txt heap)"
 echo
 echo "c/check.sh: the C logger's record and state logs verify on both targets (budgets are reported, not enforced)"

@@ -94,6 +94,30 @@ fn the_stored_layout_images_are_fresh() {
     );
 }
 
+/// Runs a C logger `exe` in `dir` on `demo.tmsf` into `log` (state frames
+/// with `states`); the log's bytes.
+fn run_logger(exe: &Path, dir: &Path, log: &str, states: bool) -> Vec<u8> {
+    let mut cmd = Command::new(exe);
+    cmd.current_dir(dir).args(["demo.tmsf", log]);
+    if states {
+        cmd.arg("states");
+    }
+    let o = cmd.output().expect("run the C logger");
+    assert!(
+        o.status.success(),
+        "C logger ({log}): {}{}",
+        text(&o.stdout),
+        text(&o.stderr)
+    );
+    let bytes = std::fs::read(dir.join(log)).unwrap();
+    assert!(
+        bytes.len() > 100 * 128,
+        "C logger ({log}) wrote {} bytes",
+        bytes.len()
+    );
+    bytes
+}
+
 /// The Rust firmware's replay of `samples` (record or state frames).
 fn rust_log(samples: &[u8], states: bool) -> Vec<u8> {
     struct Bytes<'a>(&'a [u8]);
@@ -157,24 +181,7 @@ fn c_logger_writes_the_rust_loggers_bytes_and_verifies() {
     );
     for (states, name) in [(false, "records"), (true, "states")] {
         let log = format!("c-{name}.log");
-        let mut cmd = Command::new(&exe);
-        cmd.current_dir(d).args(["demo.tmsf", &log]);
-        if states {
-            cmd.arg("states");
-        }
-        let o = cmd.output().expect("run the C logger");
-        assert!(
-            o.status.success(),
-            "C logger ({name}): {}{}",
-            text(&o.stdout),
-            text(&o.stderr)
-        );
-        let c_log = std::fs::read(d.join(&log)).unwrap();
-        assert!(
-            c_log.len() > 100 * 128,
-            "C logger ({name}) wrote {} bytes",
-            c_log.len()
-        );
+        let c_log = run_logger(&exe, d, &log, states);
         // Two paths through the core (the C interface, the Rust firmware's
         // logger) on the same samples: the same bytes.
         assert!(
@@ -184,20 +191,9 @@ fn c_logger_writes_the_rust_loggers_bytes_and_verifies() {
         // The logger on its layout's stored image (validated on the PC by
         // image.c, only checked and loaded by the logger): the same bytes.
         let stored_log = format!("c-stored-{name}.log");
-        let mut cmd = Command::new(&stored);
-        cmd.current_dir(d).args(["demo.tmsf", &stored_log]);
-        if states {
-            cmd.arg("states");
-        }
-        let o = cmd.output().expect("run the C logger (stored layout)");
+        let stored_bytes = run_logger(&stored, d, &stored_log, states);
         assert!(
-            o.status.success(),
-            "C logger, stored layout ({name}): {}{}",
-            text(&o.stdout),
-            text(&o.stderr)
-        );
-        assert!(
-            std::fs::read(d.join(&stored_log)).unwrap() == c_log,
+            stored_bytes == c_log,
             "the C logger's {name} log on its stored layout differs from its log on the layout built at run time"
         );
         // The PC's replay of the samples is the reference for every field.
