@@ -12,7 +12,7 @@ use crate::direction::{DirectionSums, ResultantSums};
 use crate::error::ChannelProblem;
 use crate::flags::Flags;
 use crate::gust::Gust;
-use crate::moments::{mul_i32, variance, Moments};
+use crate::moments::{mul_i32, variance, ColumnSums, Moments};
 use crate::sentinel::Sentinels;
 use crate::spike::Spikes;
 
@@ -814,6 +814,14 @@ impl Channel {
         }
     }
 
+    /// [`Channel::classify_block`] out of line: the readings a column's loop
+    /// does not take inline ([`Linear`], [`Vane`]), so that the loop keeps
+    /// its state in registers.
+    #[inline(never)]
+    fn classify_rest(&self, r: Reading, sentinels: &Sentinels) -> Class {
+        self.classify_block(r, sentinels)
+    }
+
     /// [`Channel::classify_block`] for a speed or scalar channel.
     #[inline(always)]
     fn block_linear(&self, r: Reading, sentinels: &Sentinels) -> Class {
@@ -881,7 +889,15 @@ impl Channel {
         };
     }
 
+    /// Centidegrees with the mounting offset, wrapped into `0..36_000`: out
+    /// of line on a logger, the same body as [`Channel::wrap_cd_inline`].
     fn wrap_cd(&self, cd: i64) -> i32 {
+        self.wrap_cd_inline(cd)
+    }
+
+    /// [`Channel::wrap_cd`] inline, for the host's block path.
+    #[inline(always)]
+    fn wrap_cd_inline(&self, cd: i64) -> i32 {
         let cd = cd + i64::from(self.offset_cd);
         // In-range directions are within a turn or two of 0..36000: compare and
         // subtract instead of a 64-bit division (costly on a 32-bit core).
@@ -1473,11 +1489,20 @@ fn direction_step(
 impl<const G: usize> Slot<G> {
     /// Adds a run of readings of `ch` in sample order, with no gap in time
     /// between them: the same state as [`Slot::push_reading`] of each in
-    /// turn, by construction (the same classification and the same
-    /// per-sample step, in a loop over one channel's column instead of one
-    /// call per channel and sample). `speed` is the linked speed channel and
-    /// its column (at least as long as `rs`), if any. For hosts, which feed
-    /// blocks of rows ([`crate::Sampler::push_run`]).
+    /// turn. `speed` is the linked speed channel and its column (at least as
+    /// long as `rs`), if any. For hosts, which feed blocks of rows
+    /// ([`crate::Sampler::push_run`]).
+    ///
+    /// One loop per kind of channel over the column, with what the channel
+    /// decides hoisted out of it ([`Linear`], [`Vane`]) and the interval's
+    /// state in locals while the loop runs: counts, exact sums and the spike
+    /// chain are copied out and added back once, the gust window runs as a
+    /// [`crate::gust::Column`]. Each step is the per-sample step's code
+    /// ([`Spikes::push_inline`], [`DirectionSums::push_q30`],
+    /// [`ResultantSums::push_q30`]) or its line-for-line twin on locals
+    /// ([`crate::gust::Column::push`], [`ColumnSums::push`], [`Tallies`]);
+    /// `station::run_tests` checks the state against samples pushed one by
+    /// one. Not linked into a logger.
     pub(crate) fn push_column(
         &mut self,
         ch: &Channel,
@@ -1487,40 +1512,316 @@ impl<const G: usize> Slot<G> {
     ) {
         let spikes = &mut self.spikes;
         match &mut self.acc {
-            ChannelAcc::Speed(a) => {
-                for r in rs {
-                    speed_step(a, spikes, ch, ch.block_linear(*r, codes));
-                }
-            }
-            ChannelAcc::Scalar(a) => {
-                for r in rs {
-                    scalar_step(a, spikes, ch, ch.block_linear(*r, codes));
-                }
-            }
+            ChannelAcc::Speed(a) => speed_column(a, spikes, ch, rs, codes),
+            ChannelAcc::Scalar(a) => scalar_column(a, spikes, ch, rs, codes),
             ChannelAcc::Direction(a) => {
-                for r in rs {
-                    let class = ch.block_direction(*r, codes);
-                    direction_step(&mut a.counts, &mut a.sums, spikes, ch, class);
-                }
+                direction_column(&mut a.counts, &mut a.sums, spikes, ch, rs, codes);
             }
             ChannelAcc::LinkedDirection(a) => {
                 let d = &mut a.direction;
-                for (i, r) in rs.iter().enumerate() {
-                    let class = ch.block_direction(*r, codes);
-                    let Some((s, c)) =
-                        direction_step(&mut d.counts, &mut d.sums, spikes, ch, class)
-                    else {
-                        continue;
-                    };
-                    if let Some((sc, Some(sr))) = speed.map(|(sc, col)| (sc, col.get(i))) {
-                        if let Class::Valid(q) = sc.classify_block(*sr, codes) {
-                            a.resultant.push_q30(s, c, q);
-                        }
-                    }
+                match speed {
+                    Some((sc, col)) => linked_column(
+                        (&mut d.counts, &mut d.sums, &mut a.resultant),
+                        spikes,
+                        ch,
+                        rs,
+                        codes,
+                        (sc, col),
+                    ),
+                    None => direction_column(&mut d.counts, &mut d.sums, spikes, ch, rs, codes),
                 }
             }
         }
     }
+}
+
+/// A column's counts in locals, added to the channel's [`Counts`] once: `n`
+/// saturating increments of a count are one saturating add of `n`.
+#[derive(Clone, Copy, Default)]
+struct Tallies {
+    valid: usize,
+    missing: usize,
+    out_of_range: usize,
+    flagged: usize,
+}
+
+impl Tallies {
+    /// [`Counts::count`].
+    #[inline(always)]
+    fn count(&mut self, c: Class) {
+        match c {
+            Class::Valid(_) => self.valid += 1,
+            Class::Missing => self.missing += 1,
+            Class::OutOfRange => self.out_of_range += 1,
+            Class::Flagged => self.flagged += 1,
+            Class::Excluded => {}
+        }
+    }
+
+    #[inline(always)]
+    fn add_to(&self, c: &mut Counts) {
+        let n = |k: usize| u32::try_from(k).unwrap_or(u32::MAX);
+        c.valid = c.valid.saturating_add(n(self.valid));
+        c.missing = c.missing.saturating_add(n(self.missing));
+        c.out_of_range = c.out_of_range.saturating_add(n(self.out_of_range));
+        c.flagged = c.flagged.saturating_add(n(self.flagged));
+    }
+}
+
+/// What classifying a speed or scalar reading needs, hoisted out of a
+/// column's loop: the readings [`Channel::classify_block`] takes inline
+/// (values in range of a channel without a re-calibration or a missing-value
+/// code in its range; raw counts in range without a code in range) and how
+/// a value becomes quanta. An empty range (`lo > hi`) sends every reading
+/// of that form to [`Channel::classify_rest`].
+#[derive(Clone, Copy)]
+struct Linear {
+    lo: f64,
+    hi: f64,
+    offset: f64,
+    step: f64,
+    inv: Option<f64>,
+    lo_k: i32,
+    hi_k: i32,
+}
+
+impl Linear {
+    #[inline(always)]
+    fn of(ch: &Channel) -> Linear {
+        let values = ch.cfg.recal.is_none() && !ch.code_in_values;
+        // A re-calibrated channel's count range is already empty.
+        let counts = !ch.code_in_counts;
+        Linear {
+            lo: if values { ch.cfg.range.0 } else { f64::INFINITY },
+            hi: if values {
+                ch.cfg.range.1
+            } else {
+                f64::NEG_INFINITY
+            },
+            offset: ch.cfg.scale.offset,
+            step: ch.cfg.scale.step,
+            inv: ch.inv_step,
+            lo_k: if counts { ch.lo_k } else { 1 },
+            hi_k: if counts { ch.hi_k } else { 0 },
+        }
+    }
+
+    /// [`Channel::classify_block`] of `r` (`ch` is the channel this was made of).
+    #[inline(always)]
+    fn class(&self, ch: &Channel, r: Reading, codes: &Sentinels) -> Class {
+        match r {
+            // `!(in range)` for NaN: it goes the general way.
+            Reading::Value(v) if v >= self.lo && v <= self.hi => Class::Valid(quantum(match self.inv
+            {
+                Some(inv) => (v - self.offset) * inv,
+                None => (v - self.offset) / self.step,
+            })),
+            Reading::Counts(k) if k >= self.lo_k && k <= self.hi_k => Class::Valid(k),
+            Reading::Missing => Class::Missing,
+            _ => ch.classify_rest(r, codes),
+        }
+    }
+}
+
+/// [`Linear`] for a direction channel: the counts [`Channel::classify_direction`]
+/// takes inline, and values in range without a missing-value code in range.
+#[derive(Clone, Copy)]
+struct Vane {
+    lo: f64,
+    hi: f64,
+    inline_lo: i32,
+    fast_k: i32,
+    mul: u32,
+    add: u64,
+}
+
+impl Vane {
+    #[inline(always)]
+    fn of(ch: &Channel) -> Vane {
+        let values = ch.cfg.recal.is_none() && !ch.code_in_values;
+        Vane {
+            lo: if values { ch.cfg.range.0 } else { f64::INFINITY },
+            hi: if values {
+                ch.cfg.range.1
+            } else {
+                f64::NEG_INFINITY
+            },
+            inline_lo: ch.dir_inline_lo,
+            fast_k: ch.dir_fast_k,
+            mul: ch.dir_mul as u32,
+            add: ch.dir_add as u64,
+        }
+    }
+
+    /// [`Channel::classify_block`] of `r` for a direction channel `ch`.
+    #[inline(always)]
+    fn class(&self, ch: &Channel, r: Reading, codes: &Sentinels) -> Class {
+        match r {
+            Reading::Counts(k) if k >= self.inline_lo && k <= self.fast_k => {
+                let p = u64::from(k as u32 * self.mul) + self.add;
+                Class::Valid(ch.wrap_cd_inline((p >> 16) as i64))
+            }
+            Reading::Value(v) if v >= self.lo && v <= self.hi => {
+                Class::Valid(ch.wrap_cd_inline(round_cd(v * 100.0)))
+            }
+            Reading::Missing => Class::Missing,
+            _ => ch.classify_rest(r, codes),
+        }
+    }
+}
+
+/// A column of a speed channel ([`speed_step`] of each reading).
+#[inline(never)]
+fn speed_column<const G: usize>(
+    a: &mut SpeedAcc<G>,
+    spikes: &mut Spikes,
+    ch: &Channel,
+    rs: &[Reading],
+    codes: &Sentinels,
+) {
+    let lin = Linear::of(ch);
+    let lim = ch.spike_lim;
+    let mut t = Tallies::default();
+    let mut m = ColumnSums::new();
+    let mut sp = *spikes;
+    a.gust.with_column(usize::from(ch.gust_w), |g| {
+        for r in rs {
+            match lin.class(ch, *r, codes) {
+                Class::Valid(q) => {
+                    t.valid += 1;
+                    m.push(q);
+                    g.push(q);
+                    sp.push_inline(q, lim, false);
+                }
+                c => {
+                    t.count(c);
+                    g.break_run();
+                    sp.break_chain();
+                }
+            }
+        }
+    });
+    t.add_to(&mut a.counts);
+    m.add_to(&mut a.moments);
+    *spikes = sp;
+}
+
+/// A column of a scalar channel ([`scalar_step`] of each reading).
+#[inline(never)]
+fn scalar_column(
+    a: &mut ScalarAcc,
+    spikes: &mut Spikes,
+    ch: &Channel,
+    rs: &[Reading],
+    codes: &Sentinels,
+) {
+    let lin = Linear::of(ch);
+    let lim = ch.spike_lim;
+    let spiky = lim != u32::MAX;
+    let mut t = Tallies::default();
+    let mut m = ColumnSums::new();
+    let mut sp = *spikes;
+    for r in rs {
+        match lin.class(ch, *r, codes) {
+            Class::Valid(q) => {
+                t.valid += 1;
+                m.push(q);
+                if spiky {
+                    sp.push_inline(q, lim, false);
+                }
+            }
+            c => {
+                t.count(c);
+                sp.break_chain();
+            }
+        }
+    }
+    t.add_to(&mut a.counts);
+    m.add_to(&mut a.moments);
+    *spikes = sp;
+}
+
+/// A column of a direction channel without a linked speed in the column
+/// ([`direction_step`] of each reading).
+#[inline(never)]
+fn direction_column(
+    counts: &mut Counts,
+    sums: &mut DirectionSums,
+    spikes: &mut Spikes,
+    ch: &Channel,
+    rs: &[Reading],
+    codes: &Sentinels,
+) {
+    let vane = Vane::of(ch);
+    let lim = ch.spike_lim;
+    let spiky = lim != u32::MAX;
+    let mut t = Tallies::default();
+    let mut ds = *sums;
+    let mut sp = *spikes;
+    for r in rs {
+        match vane.class(ch, *r, codes) {
+            Class::Valid(cd) => {
+                t.valid += 1;
+                if spiky {
+                    sp.push_inline(cd, lim, true);
+                }
+                ds.push_q30(cd);
+            }
+            c => {
+                t.count(c);
+                sp.break_chain();
+            }
+        }
+    }
+    t.add_to(counts);
+    *sums = ds;
+    *spikes = sp;
+}
+
+/// A column of a direction channel with its linked speed's column
+/// ([`direction_step`] of each reading, and the resultant of a valid
+/// direction with a valid speed).
+#[inline(never)]
+fn linked_column(
+    (counts, sums, resultant): (&mut Counts, &mut DirectionSums, &mut ResultantSums),
+    spikes: &mut Spikes,
+    ch: &Channel,
+    rs: &[Reading],
+    codes: &Sentinels,
+    (sc, col): (&Channel, &[Reading]),
+) {
+    let vane = Vane::of(ch);
+    let speed = Linear::of(sc);
+    let lim = ch.spike_lim;
+    let spiky = lim != u32::MAX;
+    let mut t = Tallies::default();
+    let mut ds = *sums;
+    let mut res = *resultant;
+    let mut sp = *spikes;
+    for (i, r) in rs.iter().enumerate() {
+        match vane.class(ch, *r, codes) {
+            Class::Valid(cd) => {
+                t.valid += 1;
+                if spiky {
+                    sp.push_inline(cd, lim, true);
+                }
+                let (s, c) = ds.push_q30(cd);
+                if let Some(sr) = col.get(i) {
+                    if let Class::Valid(q) = speed.class(sc, *sr, codes) {
+                        res.push_q30(s, c, q);
+                    }
+                }
+            }
+            c => {
+                t.count(c);
+                sp.break_chain();
+            }
+        }
+    }
+    t.add_to(counts);
+    *sums = ds;
+    *resultant = res;
+    *spikes = sp;
 }
 
 /// Which accumulator a [`ChannelState`] comes from.

@@ -144,6 +144,45 @@ impl<const G: usize> Gust<G> {
         self.pos = 0;
     }
 
+    /// Runs `f` with the window's state as a [`Column`]: its scalars in
+    /// locals (registers, in a loop), written back when `f` returns. For the
+    /// host's block path, which pushes a column of one channel at once; the
+    /// logger's per-sample path keeps [`Gust::push`], which stores only what
+    /// changed.
+    #[inline(always)]
+    pub(crate) fn with_column<R>(&mut self, w: usize, f: impl FnOnce(&mut Column<'_, G>) -> R) -> R {
+        let Gust {
+            best,
+            window,
+            tail,
+            head,
+            run,
+            pos,
+            head_len,
+            flags,
+        } = self;
+        let mut c = Column {
+            tail,
+            head,
+            best: *best,
+            window: *window,
+            run: usize::from(*run),
+            pos: usize::from(*pos),
+            head_len: *head_len,
+            flags: *flags,
+            w,
+        };
+        let r = f(&mut c);
+        *best = c.best;
+        *window = c.window;
+        // `run` and `pos` are at most `w <= G <= 255` (as `Gust::push` keeps them).
+        *run = c.run as u16;
+        *pos = c.pos as u8;
+        *head_len = c.head_len;
+        *flags = c.flags;
+        r
+    }
+
     /// The last `k <= min(run, w)` samples of the current run, oldest first,
     /// written to `out[..k]`.
     fn tail_in_order(&self, w: usize, k: usize, out: &mut [i32; G]) {
@@ -232,6 +271,67 @@ impl<const G: usize> Gust<G> {
             self.pos = later.pos;
             self.run = later.run;
         }
+    }
+}
+
+/// A [`Gust`] opened for a loop over a column ([`Gust::with_column`]): the
+/// same steps as [`Gust::push`] and [`Gust::break_run`], line for line, on
+/// the scalars held in locals (`run` and `pos` as `usize`).
+pub(crate) struct Column<'a, const G: usize> {
+    tail: &'a mut [i32; G],
+    head: &'a mut [i32; G],
+    best: i32,
+    window: i32,
+    run: usize,
+    pos: usize,
+    head_len: u8,
+    flags: u8,
+    w: usize,
+}
+
+impl<const G: usize> Column<'_, G> {
+    /// [`Gust::push`].
+    #[inline(always)]
+    pub(crate) fn push(&mut self, q: i32) {
+        let w = self.w;
+        let run = self.run;
+        let pos = self.pos;
+        let full = run >= w;
+        let mut window = self.window;
+        if let Some(slot) = self.tail.get_mut(pos) {
+            if full {
+                window = window.wrapping_sub(*slot);
+            }
+            *slot = q;
+        }
+        window = window.wrapping_add(q);
+        self.window = window;
+        self.pos = if pos + 1 >= w { 0 } else { pos + 1 };
+        if !full {
+            if self.flags & BROKEN == 0 && run + 1 < w {
+                if let Some(slot) = self.head.get_mut(run) {
+                    *slot = q;
+                }
+                self.head_len = (run + 1) as u8;
+            }
+            self.run = run + 1;
+            if run + 1 < w {
+                return;
+            }
+        }
+        if self.flags & HAS_BEST == 0 || window > self.best {
+            self.best = window;
+            self.flags |= HAS_BEST;
+        }
+    }
+
+    /// [`Gust::break_run`].
+    #[inline(always)]
+    pub(crate) fn break_run(&mut self) {
+        self.flags |= BROKEN;
+        self.run = 0;
+        self.window = 0;
+        self.pos = 0;
     }
 }
 

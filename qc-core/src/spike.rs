@@ -50,6 +50,20 @@ impl Spikes {
     /// when `circular`).
     #[inline]
     pub(crate) fn push(&mut self, q: i32, limit: u32, circular: bool) {
+        self.push_by(q, limit, circular, step);
+    }
+
+    /// [`Spikes::push`] with the step computed inline, for the host's block
+    /// path (a loop over a column keeps the chain in registers; a call per
+    /// sample would spill them). The same code with another step function of
+    /// the same body ([`step_inline`]), so the same state by construction.
+    #[inline(always)]
+    pub(crate) fn push_inline(&mut self, q: i32, limit: u32, circular: bool) {
+        self.push_by(q, limit, circular, step_inline);
+    }
+
+    #[inline(always)]
+    fn push_by(&mut self, q: i32, limit: u32, circular: bool, step: fn(i32, i32, bool) -> u32) {
         let f = self.flags;
         if f & ENDS_VALID != 0 {
             // The common case, a chain going on: no store of the flags.
@@ -93,7 +107,15 @@ impl Spikes {
     }
 }
 
+/// The step between two samples: out of line on a logger (the per-sample
+/// functions stay small), the same body as [`step_inline`].
 fn step(a: i32, b: i32, circular: bool) -> u32 {
+    step_inline(a, b, circular)
+}
+
+/// `|a - b|`, the shorter way round a turn when `circular`.
+#[inline(always)]
+fn step_inline(a: i32, b: i32, circular: bool) -> u32 {
     // 32-bit arithmetic (cheap on a logger core): |a - b| always fits a u32.
     let d = a.abs_diff(b);
     if circular {
