@@ -8,7 +8,7 @@
 //! [`ChannelAcc::finish`]. No function in this module panics on any input.
 
 use crate::cmath;
-use crate::direction::{DirectionSums, ResultantSums};
+use crate::direction::{ColumnResultant, DirectionSums, ResultantSums};
 use crate::error::ChannelProblem;
 use crate::flags::Flags;
 use crate::gust::Gust;
@@ -818,8 +818,8 @@ impl Channel {
     /// does not take inline ([`Linear`], [`Vane`]), so that the loop keeps
     /// its state in registers.
     #[inline(never)]
-    fn classify_rest(&self, r: Reading, sentinels: &Sentinels) -> Class {
-        self.classify_block(r, sentinels)
+    fn classify_rest(&self, r: &Reading, sentinels: &Sentinels) -> Class {
+        self.classify_block(*r, sentinels)
     }
 
     /// [`Channel::classify_block`] for a speed or scalar channel.
@@ -946,6 +946,40 @@ fn quantum(x: f64) -> i32 {
     } else {
         round_half_away(x) as i32
     }
+}
+
+/// 1.5 * 2^52: `x + MAGIC` for `|x| < 2^51` lies in `[2^52, 2^53)`, where
+/// the `f64` step is 1, so the sum is `MAGIC` plus `x` rounded to the
+/// nearest whole number (ties to even), held in the low bits of the sum.
+const MAGIC: f64 = 6_755_399_441_055_744.0;
+
+/// [`quantum`] of a value in a channel's range, for the block path's loop
+/// ([`Linear::class`]): `|x|` is then below `2^31 - 645` (`Channel::new`
+/// refuses ranges past [`Q_LIMIT`] quanta; a few units in the last place of
+/// rounding cannot reach the limit), so `quantum`'s clamp never acts and
+/// `x` is far below `2^51`. `x + MAGIC - MAGIC` is `x` rounded to even (both
+/// steps exact), `x - t` is exact as in [`quantum`], and a tie (`|x - t| =
+/// 1/2`) rounded towards zero is moved one away from it: round half away
+/// from zero, as [`quantum`] (`block_rounding_is_the_per_sample_rounding`
+/// checks both against [`round_half_away`]). The whole number is read from
+/// the sum's low 32 bits: no saturating conversion.
+#[inline(always)]
+fn quantum_in_range(x: f64) -> i32 {
+    let y = x + MAGIC;
+    let t = y - MAGIC;
+    // The low 32 bits of MAGIC's pattern are 0: these are `t`, two's complement.
+    let q = y.to_bits() as u32 as i32;
+    let d = x - t;
+    if d.abs() == 0.5 {
+        // A tie, rounded to even: away from zero instead.
+        if d > 0.0 && x > 0.0 {
+            return q.wrapping_add(1);
+        }
+        if d < 0.0 && x < 0.0 {
+            return q.wrapping_sub(1);
+        }
+    }
+    q
 }
 
 /// `libm::round(x) as i64` in integer steps (see [`quantum`]), for a
@@ -1536,36 +1570,54 @@ impl<const G: usize> Slot<G> {
 }
 
 /// A column's counts in locals, added to the channel's [`Counts`] once: `n`
-/// saturating increments of a count are one saturating add of `n`.
+/// saturating increments of a count are one saturating add of `n`. The
+/// loops count what is not valid (excluded readings too); the valid
+/// readings are the rest of the column.
 #[derive(Clone, Copy, Default)]
 struct Tallies {
-    valid: usize,
     missing: usize,
     out_of_range: usize,
     flagged: usize,
+    excluded: usize,
 }
 
 impl Tallies {
-    /// [`Counts::count`].
+    /// [`Counts::count`] of a reading that is not valid.
     #[inline(always)]
     fn count(&mut self, c: Class) {
         match c {
-            Class::Valid(_) => self.valid += 1,
+            Class::Valid(_) => {}
             Class::Missing => self.missing += 1,
             Class::OutOfRange => self.out_of_range += 1,
             Class::Flagged => self.flagged += 1,
-            Class::Excluded => {}
+            Class::Excluded => self.excluded += 1,
         }
     }
 
+    /// Adds the counts of a column of `len` readings.
     #[inline(always)]
-    fn add_to(&self, c: &mut Counts) {
+    fn add_to(&self, len: usize, c: &mut Counts) {
         let n = |k: usize| u32::try_from(k).unwrap_or(u32::MAX);
-        c.valid = c.valid.saturating_add(n(self.valid));
+        let valid = len
+            .saturating_sub(self.missing)
+            .saturating_sub(self.out_of_range)
+            .saturating_sub(self.flagged)
+            .saturating_sub(self.excluded);
+        c.valid = c.valid.saturating_add(n(valid));
         c.missing = c.missing.saturating_add(n(self.missing));
         c.out_of_range = c.out_of_range.saturating_add(n(self.out_of_range));
         c.flagged = c.flagged.saturating_add(n(self.flagged));
     }
+}
+
+/// How many readings open `rs` as [`Reading::Missing`] (an unused channel
+/// slot's whole column): counted and broken at once, as each would be (a
+/// break is the same once or many times), so that they cost a compare each.
+#[inline(always)]
+fn leading_missing(rs: &[Reading]) -> usize {
+    rs.iter()
+        .take_while(|r| matches!(r, Reading::Missing))
+        .count()
 }
 
 /// What classifying a speed or scalar reading needs, hoisted out of a
@@ -1608,14 +1660,15 @@ impl Linear {
 
     /// [`Channel::classify_block`] of `r` (`ch` is the channel this was made of).
     #[inline(always)]
-    fn class(&self, ch: &Channel, r: Reading, codes: &Sentinels) -> Class {
-        match r {
+    fn class(&self, ch: &Channel, r: &Reading, codes: &Sentinels) -> Class {
+        match *r {
             // `!(in range)` for NaN: it goes the general way.
-            Reading::Value(v) if v >= self.lo && v <= self.hi => Class::Valid(quantum(match self.inv
-            {
-                Some(inv) => (v - self.offset) * inv,
-                None => (v - self.offset) / self.step,
-            })),
+            Reading::Value(v) if v >= self.lo && v <= self.hi => {
+                Class::Valid(quantum_in_range(match self.inv {
+                    Some(inv) => (v - self.offset) * inv,
+                    None => (v - self.offset) / self.step,
+                }))
+            }
             Reading::Counts(k) if k >= self.lo_k && k <= self.hi_k => Class::Valid(k),
             Reading::Missing => Class::Missing,
             _ => ch.classify_rest(r, codes),
@@ -1655,8 +1708,8 @@ impl Vane {
 
     /// [`Channel::classify_block`] of `r` for a direction channel `ch`.
     #[inline(always)]
-    fn class(&self, ch: &Channel, r: Reading, codes: &Sentinels) -> Class {
-        match r {
+    fn class(&self, ch: &Channel, r: &Reading, codes: &Sentinels) -> Class {
+        match *r {
             Reading::Counts(k) if k >= self.inline_lo && k <= self.fast_k => {
                 let p = u64::from(k as u32 * self.mul) + self.add;
                 Class::Valid(ch.wrap_cd_inline((p >> 16) as i64))
@@ -1685,10 +1738,15 @@ fn speed_column<const G: usize>(
     let mut m = ColumnSums::new();
     let mut sp = *spikes;
     a.gust.with_column(usize::from(ch.gust_w), |g| {
-        for r in rs {
-            match lin.class(ch, *r, codes) {
+        let k = leading_missing(rs);
+        if k > 0 {
+            t.missing = k;
+            g.break_run();
+            sp.break_chain();
+        }
+        for r in rs.get(k..).unwrap_or_default() {
+            match lin.class(ch, r, codes) {
                 Class::Valid(q) => {
-                    t.valid += 1;
                     m.push(q);
                     g.push(q);
                     sp.push_inline(q, lim, false);
@@ -1701,7 +1759,7 @@ fn speed_column<const G: usize>(
             }
         }
     });
-    t.add_to(&mut a.counts);
+    t.add_to(rs.len(), &mut a.counts);
     m.add_to(&mut a.moments);
     *spikes = sp;
 }
@@ -1721,10 +1779,14 @@ fn scalar_column(
     let mut t = Tallies::default();
     let mut m = ColumnSums::new();
     let mut sp = *spikes;
-    for r in rs {
-        match lin.class(ch, *r, codes) {
+    let k = leading_missing(rs);
+    if k > 0 {
+        t.missing = k;
+        sp.break_chain();
+    }
+    for r in rs.get(k..).unwrap_or_default() {
+        match lin.class(ch, r, codes) {
             Class::Valid(q) => {
-                t.valid += 1;
                 m.push(q);
                 if spiky {
                     sp.push_inline(q, lim, false);
@@ -1736,7 +1798,7 @@ fn scalar_column(
             }
         }
     }
-    t.add_to(&mut a.counts);
+    t.add_to(rs.len(), &mut a.counts);
     m.add_to(&mut a.moments);
     *spikes = sp;
 }
@@ -1758,10 +1820,14 @@ fn direction_column(
     let mut t = Tallies::default();
     let mut ds = *sums;
     let mut sp = *spikes;
-    for r in rs {
-        match vane.class(ch, *r, codes) {
+    let k = leading_missing(rs);
+    if k > 0 {
+        t.missing = k;
+        sp.break_chain();
+    }
+    for r in rs.get(k..).unwrap_or_default() {
+        match vane.class(ch, r, codes) {
             Class::Valid(cd) => {
-                t.valid += 1;
                 if spiky {
                     sp.push_inline(cd, lim, true);
                 }
@@ -1773,7 +1839,7 @@ fn direction_column(
             }
         }
     }
-    t.add_to(counts);
+    t.add_to(rs.len(), counts);
     *sums = ds;
     *spikes = sp;
 }
@@ -1796,18 +1862,17 @@ fn linked_column(
     let spiky = lim != u32::MAX;
     let mut t = Tallies::default();
     let mut ds = *sums;
-    let mut res = *resultant;
+    let mut res = ColumnResultant::new();
     let mut sp = *spikes;
     for (i, r) in rs.iter().enumerate() {
-        match vane.class(ch, *r, codes) {
+        match vane.class(ch, r, codes) {
             Class::Valid(cd) => {
-                t.valid += 1;
                 if spiky {
                     sp.push_inline(cd, lim, true);
                 }
                 let (s, c) = ds.push_q30(cd);
                 if let Some(sr) = col.get(i) {
-                    if let Class::Valid(q) = speed.class(sc, *sr, codes) {
+                    if let Class::Valid(q) = speed.class(sc, sr, codes) {
                         res.push_q30(s, c, q);
                     }
                 }
@@ -1818,9 +1883,9 @@ fn linked_column(
             }
         }
     }
-    t.add_to(counts);
+    t.add_to(rs.len(), counts);
     *sums = ds;
-    *resultant = res;
+    res.add_to(resultant);
     *spikes = sp;
 }
 
@@ -2207,9 +2272,22 @@ mod tests {
             xs.push((b % 4_000_000) as f64 * 0.5 - 1_000_000.0);
             xs.push(rng.unit() * 6e9 - 3e9);
         }
+        // Halves and their neighbours one unit in the last place away, both
+        // signs, up to the in-range limit of `quantum_in_range`.
+        for k in (0..2_000i64).chain((0..2_000).map(|_| (rng.next() % (1 << 31)) as i64)) {
+            let h = k as f64 + 0.5;
+            for v in [h, f64::from_bits(h.to_bits() + 1), f64::from_bits(h.to_bits() - 1)] {
+                xs.push(v);
+                xs.push(-v);
+            }
+        }
+        let limit = f64::from(i32::MAX - 645);
         for x in xs {
             assert_eq!(quantum(x), round_half_away(x) as i32, "{x:e}");
             assert_eq!(round_cd(x), libm::round(x) as i64, "{x:e}");
+            if x.abs() < limit {
+                assert_eq!(quantum_in_range(x), round_half_away(x) as i32, "{x:e}");
+            }
         }
     }
 
@@ -2233,6 +2311,11 @@ mod tests {
             ChannelConfig::scalar(0.25).with_calibration(0.25, 0.1),
             ChannelConfig::scalar(0.1).with_range(-100.0, 100.0),
             ChannelConfig::scalar(1e-6).with_range(-2000.0, 2000.0),
+            // At the quanta limit (Q_LIMIT) both ways; a large offset.
+            ChannelConfig::scalar(1e-6).with_range(-2147.483, 2147.483),
+            ChannelConfig::speed(0.3)
+                .with_calibration(0.3, -644_245_000.0)
+                .with_range(-644_245_000.0, -644_244_000.0),
             ChannelConfig::direction(),
             ChannelConfig::direction().with_mounting_offset(-7.25),
             ChannelConfig::direction()
@@ -2253,6 +2336,15 @@ mod tests {
                     3 => Reading::Value(f64::from_bits(rng.next())),
                     4 => Reading::Counts(rng.next() as i32 % 5000),
                     5 => Reading::Value([0.5, 12.0, -999.0, f64::NAN][(rng.next() % 4) as usize]),
+                    // The ends of the range and their neighbours.
+                    8 | 9 => {
+                        let (lo, hi) = cfg.range;
+                        let e = if rng.next() % 2 == 0 { lo } else { hi };
+                        let b = e.to_bits();
+                        Reading::Value(f64::from_bits(
+                            [b, b.wrapping_add(1), b.wrapping_sub(1)][(rng.next() % 3) as usize],
+                        ))
+                    }
                     6 => Reading::Value(rng.unit() * 4000.0 - 2000.0),
                     _ => {
                         let k = (rng.next() % 20_000) as f64 - 1000.0;
@@ -2260,11 +2352,14 @@ mod tests {
                         Reading::Value(cfg.scale.offset + step * (k + half))
                     }
                 };
-                assert_eq!(
-                    ch.classify_block(r, &sentinels),
-                    ch.classify(r, &sentinels),
-                    "{cfg:?} {r:?}"
-                );
+                let want = ch.classify(r, &sentinels);
+                assert_eq!(ch.classify_block(r, &sentinels), want, "{cfg:?} {r:?}");
+                // What the column loops take inline, and the rest.
+                let column = match cfg.kind {
+                    Kind::Direction => Vane::of(&ch).class(&ch, &r, &sentinels),
+                    _ => Linear::of(&ch).class(&ch, &r, &sentinels),
+                };
+                assert_eq!(column, want, "{cfg:?} {r:?}");
             }
         }
     }
