@@ -817,6 +817,7 @@ impl Channel {
     /// [`Channel::classify_block`] out of line: the readings a column's loop
     /// does not take inline ([`Linear`], [`Vane`]), so that the loop keeps
     /// its state in registers.
+    #[cold]
     #[inline(never)]
     fn classify_rest(&self, r: &Reading, sentinels: &Sentinels) -> Class {
         self.classify_block(*r, sentinels)
@@ -1615,17 +1616,28 @@ impl Tallies {
 /// break is the same once or many times), so that they cost a compare each.
 #[inline(always)]
 fn leading_missing(rs: &[Reading]) -> usize {
-    rs.iter()
-        .take_while(|r| matches!(r, Reading::Missing))
+    let missing = |r: &Reading| matches!(r, Reading::Missing);
+    // Four at a time, then one by one.
+    let mut k = 0;
+    for four in rs.chunks_exact(4) {
+        if !four.iter().all(missing) {
+            break;
+        }
+        k += 4;
+    }
+    k + rs
+        .get(k..)
+        .unwrap_or_default()
+        .iter()
+        .take_while(|r| missing(r))
         .count()
 }
 
 /// What classifying a speed or scalar reading needs, hoisted out of a
-/// column's loop: the readings [`Channel::classify_block`] takes inline
-/// (values in range of a channel without a re-calibration or a missing-value
-/// code in its range; raw counts in range without a code in range) and how
-/// a value becomes quanta. An empty range (`lo > hi`) sends every reading
-/// of that form to [`Channel::classify_rest`].
+/// column's loop: the values [`Channel::classify_block`] takes inline (in
+/// range, of a channel without a re-calibration or a missing-value code in
+/// its range) and how a value becomes quanta. An empty range (`lo > hi`)
+/// sends every value to [`Channel::classify_rest`], as every other reading.
 #[derive(Clone, Copy)]
 struct Linear {
     lo: f64,
@@ -1633,16 +1645,12 @@ struct Linear {
     offset: f64,
     step: f64,
     inv: Option<f64>,
-    lo_k: i32,
-    hi_k: i32,
 }
 
 impl Linear {
     #[inline(always)]
     fn of(ch: &Channel) -> Linear {
         let values = ch.cfg.recal.is_none() && !ch.code_in_values;
-        // A re-calibrated channel's count range is already empty.
-        let counts = !ch.code_in_counts;
         Linear {
             lo: if values { ch.cfg.range.0 } else { f64::INFINITY },
             hi: if values {
@@ -1653,25 +1661,32 @@ impl Linear {
             offset: ch.cfg.scale.offset,
             step: ch.cfg.scale.step,
             inv: ch.inv_step,
-            lo_k: if counts { ch.lo_k } else { 1 },
-            hi_k: if counts { ch.hi_k } else { 0 },
         }
     }
 
-    /// [`Channel::classify_block`] of `r` (`ch` is the channel this was made of).
+    /// The quanta of a value in range, or `None` for any other reading.
     #[inline(always)]
-    fn class(&self, ch: &Channel, r: &Reading, codes: &Sentinels) -> Class {
+    fn value(&self, r: &Reading) -> Option<i32> {
         match *r {
-            // `!(in range)` for NaN: it goes the general way.
+            // `!(in range)` for NaN.
             Reading::Value(v) if v >= self.lo && v <= self.hi => {
-                Class::Valid(quantum_in_range(match self.inv {
+                Some(quantum_in_range(match self.inv {
                     Some(inv) => (v - self.offset) * inv,
                     None => (v - self.offset) / self.step,
                 }))
             }
-            Reading::Counts(k) if k >= self.lo_k && k <= self.hi_k => Class::Valid(k),
-            Reading::Missing => Class::Missing,
-            _ => ch.classify_rest(r, codes),
+            _ => None,
+        }
+    }
+
+    /// [`Channel::classify_block`] of `r` (`ch` is the channel this was made
+    /// of): values in range inline, every other reading out of line
+    /// ([`Channel::classify_rest`]; counts in range go its inline way there).
+    #[inline(always)]
+    fn class(&self, ch: &Channel, r: &Reading, codes: &Sentinels) -> Class {
+        match self.value(r) {
+            Some(q) => Class::Valid(q),
+            None => ch.classify_rest(r, codes),
         }
     }
 }
@@ -1693,7 +1708,11 @@ impl Vane {
     fn of(ch: &Channel) -> Vane {
         let values = ch.cfg.recal.is_none() && !ch.code_in_values;
         Vane {
-            lo: if values { ch.cfg.range.0 } else { f64::INFINITY },
+            lo: if values {
+                ch.cfg.range.0
+            } else {
+                f64::INFINITY
+            },
             hi: if values {
                 ch.cfg.range.1
             } else {
@@ -1707,19 +1726,22 @@ impl Vane {
     }
 
     /// [`Channel::classify_block`] of `r` for a direction channel `ch`.
+    /// Counts first (a vane's usual reading), then values.
     #[inline(always)]
     fn class(&self, ch: &Channel, r: &Reading, codes: &Sentinels) -> Class {
-        match *r {
-            Reading::Counts(k) if k >= self.inline_lo && k <= self.fast_k => {
+        if let Reading::Counts(k) = *r {
+            if k >= self.inline_lo && k <= self.fast_k {
                 let p = u64::from(k as u32 * self.mul) + self.add;
-                Class::Valid(ch.wrap_cd_inline((p >> 16) as i64))
+                return Class::Valid(ch.wrap_cd_inline((p >> 16) as i64));
             }
-            Reading::Value(v) if v >= self.lo && v <= self.hi => {
-                Class::Valid(ch.wrap_cd_inline(round_cd(v * 100.0)))
+        } else if let Reading::Value(v) = *r {
+            if v >= self.lo && v <= self.hi {
+                return Class::Valid(ch.wrap_cd_inline(round_cd(v * 100.0)));
             }
-            Reading::Missing => Class::Missing,
-            _ => ch.classify_rest(r, codes),
+        } else if let Reading::Missing = *r {
+            return Class::Missing;
         }
+        ch.classify_rest(r, codes)
     }
 }
 
@@ -1744,7 +1766,9 @@ fn speed_column<const G: usize>(
             g.break_run();
             sp.break_chain();
         }
-        for r in rs.get(k..).unwrap_or_default() {
+        let mut rest = rs.get(k..).unwrap_or_default();
+        while let Some((r, more)) = rest.split_first() {
+            rest = more;
             match lin.class(ch, r, codes) {
                 Class::Valid(q) => {
                     m.push(q);
@@ -1756,6 +1780,19 @@ fn speed_column<const G: usize>(
                     g.break_run();
                     sp.break_chain();
                 }
+            }
+            // A full window and a chain going on: values in range take the
+            // steps' steady branches until another reading comes.
+            if g.is_steady() && sp.ends_valid() {
+                let mut n = 0;
+                for r in rest {
+                    let Some(q) = lin.value(r) else { break };
+                    m.push(q);
+                    g.push_steady(q);
+                    sp.push_steady(q, lim, false);
+                    n += 1;
+                }
+                rest = rest.get(n..).unwrap_or_default();
             }
         }
     });
@@ -1784,7 +1821,9 @@ fn scalar_column(
         t.missing = k;
         sp.break_chain();
     }
-    for r in rs.get(k..).unwrap_or_default() {
+    let mut rest = rs.get(k..).unwrap_or_default();
+    while let Some((r, more)) = rest.split_first() {
+        rest = more;
         match lin.class(ch, r, codes) {
             Class::Valid(q) => {
                 m.push(q);
@@ -1797,6 +1836,24 @@ fn scalar_column(
                 sp.break_chain();
             }
         }
+        // Values in range: without spike screening only the sums, with it
+        // a chain going on takes its steady branch.
+        let mut n = 0;
+        if !spiky {
+            for r in rest {
+                let Some(q) = lin.value(r) else { break };
+                m.push(q);
+                n += 1;
+            }
+        } else if sp.ends_valid() {
+            for r in rest {
+                let Some(q) = lin.value(r) else { break };
+                m.push(q);
+                sp.push_steady(q, lim, false);
+                n += 1;
+            }
+        }
+        rest = rest.get(n..).unwrap_or_default();
     }
     t.add_to(rs.len(), &mut a.counts);
     m.add_to(&mut a.moments);
@@ -1831,7 +1888,7 @@ fn direction_column(
                 if spiky {
                     sp.push_inline(cd, lim, true);
                 }
-                ds.push_q30(cd);
+                ds.push_q30_table(cd);
             }
             c => {
                 t.count(c);
@@ -1870,7 +1927,7 @@ fn linked_column(
                 if spiky {
                     sp.push_inline(cd, lim, true);
                 }
-                let (s, c) = ds.push_q30(cd);
+                let (s, c) = ds.push_q30_table(cd);
                 if let Some(sr) = col.get(i) {
                     if let Class::Valid(q) = speed.class(sc, sr, codes) {
                         res.push_q30(s, c, q);
@@ -2276,7 +2333,11 @@ mod tests {
         // signs, up to the in-range limit of `quantum_in_range`.
         for k in (0..2_000i64).chain((0..2_000).map(|_| (rng.next() % (1 << 31)) as i64)) {
             let h = k as f64 + 0.5;
-            for v in [h, f64::from_bits(h.to_bits() + 1), f64::from_bits(h.to_bits() - 1)] {
+            for v in [
+                h,
+                f64::from_bits(h.to_bits() + 1),
+                f64::from_bits(h.to_bits() - 1),
+            ] {
                 xs.push(v);
                 xs.push(-v);
             }

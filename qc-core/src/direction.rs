@@ -18,8 +18,8 @@
 
 use crate::angle::{
     f64_significand, isqrt_u128_const, mul_hi_u64, polar, polar_angle, recip_u32, scale2,
-    shift_u64, sin_cos_q30, sqrt_u128, square_u64, to_deg, units_to_deg, ANGLE_FRAC_BITS,
-    FULL_TURN, HALF_TURN,
+    shift_u64, sin_cos_q30, sin_cos_q30_table, sqrt_u128, square_u64, to_deg, units_to_deg,
+    ANGLE_FRAC_BITS, FULL_TURN, HALF_TURN,
 };
 use crate::moments::{mul_i32, mul_u32, Wide};
 
@@ -80,6 +80,17 @@ impl DirectionSums {
     #[inline]
     pub(crate) fn push_q30(&mut self, cd: i32) -> (i32, i32) {
         let (s, c) = sin_cos_q30(cd);
+        self.sin += i64::from(s);
+        self.cos += i64::from(c);
+        (s, c)
+    }
+
+    /// [`DirectionSums::push_q30`] with the unit vector looked up whole
+    /// ([`crate::angle::sin_cos_q30_table`]: the same pair), for the host's
+    /// block path.
+    #[inline(always)]
+    pub(crate) fn push_q30_table(&mut self, cd: i32) -> (i32, i32) {
+        let (s, c) = sin_cos_q30_table(cd);
         self.sin += i64::from(s);
         self.cos += i64::from(c);
         (s, c)
@@ -264,7 +275,8 @@ impl ColumnResultant {
         r.q_cos.add(self.q_cos);
         r.sin = r.sin.wrapping_add(self.sin);
         r.cos = r.cos.wrapping_add(self.cos);
-        r.n = r.n.saturating_add(u32::try_from(self.n).unwrap_or(u32::MAX));
+        r.n =
+            r.n.saturating_add(u32::try_from(self.n).unwrap_or(u32::MAX));
     }
 }
 

@@ -150,7 +150,11 @@ impl<const G: usize> Gust<G> {
     /// logger's per-sample path keeps [`Gust::push`], which stores only what
     /// changed.
     #[inline(always)]
-    pub(crate) fn with_column<R>(&mut self, w: usize, f: impl FnOnce(&mut Column<'_, G>) -> R) -> R {
+    pub(crate) fn with_column<R>(
+        &mut self,
+        w: usize,
+        f: impl FnOnce(&mut Column<'_, G>) -> R,
+    ) -> R {
         let Gust {
             best,
             window,
@@ -322,6 +326,33 @@ impl<const G: usize> Column<'_, G> {
         if self.flags & HAS_BEST == 0 || window > self.best {
             self.best = window;
             self.flags |= HAS_BEST;
+        }
+    }
+
+    /// Whether the window is full and holds a best sum: then
+    /// [`Column::push`] is [`Column::push_steady`].
+    #[inline(always)]
+    pub(crate) fn is_steady(&self) -> bool {
+        self.run >= self.w && self.flags & HAS_BEST != 0
+    }
+
+    /// [`Column::push`] of a full window with a best sum
+    /// ([`Column::is_steady`]): the branches that decides taken (the oldest
+    /// sample leaves the window, the run and head stay, the sum is offered),
+    /// so the window stays steady.
+    #[inline(always)]
+    pub(crate) fn push_steady(&mut self, q: i32) {
+        let pos = self.pos;
+        let mut window = self.window;
+        if let Some(slot) = self.tail.get_mut(pos) {
+            window = window.wrapping_sub(*slot);
+            *slot = q;
+        }
+        window = window.wrapping_add(q);
+        self.window = window;
+        self.pos = if pos + 1 >= self.w { 0 } else { pos + 1 };
+        if window > self.best {
+            self.best = window;
         }
     }
 

@@ -276,9 +276,9 @@ impl ColumnSums {
     #[inline(always)]
     pub(crate) fn push(&mut self, q: i32) {
         self.sum = self.sum.wrapping_add(i64::from(q));
-        let a = u64::from(q.unsigned_abs());
-        // |q| <= 2^31, so the square fits a u64.
-        self.sum_sq = self.sum_sq.wrapping_add(u128::from(a * a));
+        let w = i64::from(q);
+        // |q| <= 2^31: the square fits an i64 and is not negative.
+        self.sum_sq = self.sum_sq.wrapping_add(u128::from((w * w) as u64));
         self.min = self.min.min(q);
         self.max = self.max.max(q);
     }

@@ -62,6 +62,23 @@ impl Spikes {
         self.push_by(q, limit, circular, step_inline);
     }
 
+    /// Whether the last thing seen was a valid sample: then
+    /// [`Spikes::push_inline`] is [`Spikes::push_steady`].
+    #[inline(always)]
+    pub(crate) fn ends_valid(&self) -> bool {
+        self.flags & ENDS_VALID != 0
+    }
+
+    /// [`Spikes::push_inline`] of a chain going on ([`Spikes::ends_valid`]):
+    /// its first branch, the only one taken then (the flags stay).
+    #[inline(always)]
+    pub(crate) fn push_steady(&mut self, q: i32, limit: u32, circular: bool) {
+        if step_inline(self.last, q, circular) > limit {
+            self.count = self.count.saturating_add(1);
+        }
+        self.last = q;
+    }
+
     #[inline(always)]
     fn push_by(&mut self, q: i32, limit: u32, circular: bool, step: fn(i32, i32, bool) -> u32) {
         let f = self.flags;
