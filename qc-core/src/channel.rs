@@ -11,7 +11,7 @@ use crate::cmath;
 use crate::direction::{ColumnResultant, DirectionSums, ResultantSums};
 use crate::error::ChannelProblem;
 use crate::flags::Flags;
-use crate::gust::Gust;
+use crate::gust::{Column, Gust};
 use crate::moments::{mul_i32, variance, ColumnSums, Moments};
 use crate::sentinel::Sentinels;
 use crate::spike::Spikes;
@@ -1644,7 +1644,10 @@ struct Linear {
     hi: f64,
     offset: f64,
     step: f64,
-    inv: Option<f64>,
+    /// `1/step` when a whole number ([`Scale::inverse`]), then multiplied
+    /// by (`has_inv`); else the value is divided by `step`.
+    inv: f64,
+    has_inv: bool,
 }
 
 impl Linear {
@@ -1652,7 +1655,11 @@ impl Linear {
     fn of(ch: &Channel) -> Linear {
         let values = ch.cfg.recal.is_none() && !ch.code_in_values;
         Linear {
-            lo: if values { ch.cfg.range.0 } else { f64::INFINITY },
+            lo: if values {
+                ch.cfg.range.0
+            } else {
+                f64::INFINITY
+            },
             hi: if values {
                 ch.cfg.range.1
             } else {
@@ -1660,21 +1667,32 @@ impl Linear {
             },
             offset: ch.cfg.scale.offset,
             step: ch.cfg.scale.step,
-            inv: ch.inv_step,
+            inv: ch.inv_step.unwrap_or(1.0),
+            has_inv: ch.inv_step.is_some(),
         }
     }
 
     /// The quanta of a value in range, or `None` for any other reading.
     #[inline(always)]
     fn value(&self, r: &Reading) -> Option<i32> {
+        if self.has_inv {
+            self.value_by::<true>(r)
+        } else {
+            self.value_by::<false>(r)
+        }
+    }
+
+    /// [`Linear::value`] with `has_inv` decided by the caller (`INV`), so a
+    /// loop need not test it.
+    #[inline(always)]
+    fn value_by<const INV: bool>(&self, r: &Reading) -> Option<i32> {
         match *r {
             // `!(in range)` for NaN.
-            Reading::Value(v) if v >= self.lo && v <= self.hi => {
-                Some(quantum_in_range(match self.inv {
-                    Some(inv) => (v - self.offset) * inv,
-                    None => (v - self.offset) / self.step,
-                }))
-            }
+            Reading::Value(v) if v >= self.lo && v <= self.hi => Some(quantum_in_range(if INV {
+                (v - self.offset) * self.inv
+            } else {
+                (v - self.offset) / self.step
+            })),
             _ => None,
         }
     }
@@ -1784,14 +1802,11 @@ fn speed_column<const G: usize>(
             // A full window and a chain going on: values in range take the
             // steps' steady branches until another reading comes.
             if g.is_steady() && sp.ends_valid() {
-                let mut n = 0;
-                for r in rest {
-                    let Some(q) = lin.value(r) else { break };
-                    m.push(q);
-                    g.push_steady(q);
-                    sp.push_steady(q, lim, false);
-                    n += 1;
-                }
+                let n = if lin.has_inv {
+                    speed_steady::<G, true>(rest, &lin, &mut m, g, &mut sp, lim)
+                } else {
+                    speed_steady::<G, false>(rest, &lin, &mut m, g, &mut sp, lim)
+                };
                 rest = rest.get(n..).unwrap_or_default();
             }
         }
@@ -1799,6 +1814,66 @@ fn speed_column<const G: usize>(
     t.add_to(rs.len(), &mut a.counts);
     m.add_to(&mut a.moments);
     *spikes = sp;
+}
+
+/// The values in range that open `rs`, pushed into a steady window and a
+/// chain going on (the caller checked both): [`speed_step`]'s branches for
+/// them, in a function of its own so that its loop keeps sums, window and
+/// chain in registers. Returns how many it took.
+#[inline(never)]
+fn speed_steady<const G: usize, const INV: bool>(
+    rs: &[Reading],
+    lin: &Linear,
+    m: &mut ColumnSums,
+    g: &mut Column<'_, G>,
+    sp: &mut Spikes,
+    lim: u32,
+) -> usize {
+    let mut sums = *m;
+    let mut chain = *sp;
+    let (mut st, tail) = g.steady();
+    let mut n = 0;
+    for r in rs {
+        let Some(q) = lin.value_by::<INV>(r) else {
+            break;
+        };
+        sums.push(q);
+        st.push(tail, q);
+        chain.push_steady(q, lim, false);
+        n += 1;
+    }
+    g.set_steady(st);
+    *m = sums;
+    *sp = chain;
+    n
+}
+
+/// [`speed_steady`] for a scalar channel: the sums and, with spike
+/// screening (`SPIKY`), a chain going on.
+#[inline(never)]
+fn scalar_steady<const INV: bool, const SPIKY: bool>(
+    rs: &[Reading],
+    lin: &Linear,
+    m: &mut ColumnSums,
+    sp: &mut Spikes,
+    lim: u32,
+) -> usize {
+    let mut sums = *m;
+    let mut chain = *sp;
+    let mut n = 0;
+    for r in rs {
+        let Some(q) = lin.value_by::<INV>(r) else {
+            break;
+        };
+        sums.push(q);
+        if SPIKY {
+            chain.push_steady(q, lim, false);
+        }
+        n += 1;
+    }
+    *m = sums;
+    *sp = chain;
+    n
 }
 
 /// A column of a scalar channel ([`scalar_step`] of each reading).
@@ -1838,21 +1913,13 @@ fn scalar_column(
         }
         // Values in range: without spike screening only the sums, with it
         // a chain going on takes its steady branch.
-        let mut n = 0;
-        if !spiky {
-            for r in rest {
-                let Some(q) = lin.value(r) else { break };
-                m.push(q);
-                n += 1;
-            }
-        } else if sp.ends_valid() {
-            for r in rest {
-                let Some(q) = lin.value(r) else { break };
-                m.push(q);
-                sp.push_steady(q, lim, false);
-                n += 1;
-            }
-        }
+        let n = match (spiky, lin.has_inv) {
+            (false, true) => scalar_steady::<true, false>(rest, &lin, &mut m, &mut sp, lim),
+            (false, false) => scalar_steady::<false, false>(rest, &lin, &mut m, &mut sp, lim),
+            (true, _) if !sp.ends_valid() => 0,
+            (true, true) => scalar_steady::<true, true>(rest, &lin, &mut m, &mut sp, lim),
+            (true, false) => scalar_steady::<false, true>(rest, &lin, &mut m, &mut sp, lim),
+        };
         rest = rest.get(n..).unwrap_or_default();
     }
     t.add_to(rs.len(), &mut a.counts);

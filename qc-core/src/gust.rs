@@ -330,30 +330,33 @@ impl<const G: usize> Column<'_, G> {
     }
 
     /// Whether the window is full and holds a best sum: then
-    /// [`Column::push`] is [`Column::push_steady`].
+    /// [`Column::push`] is [`Steady::push`].
     #[inline(always)]
     pub(crate) fn is_steady(&self) -> bool {
         self.run >= self.w && self.flags & HAS_BEST != 0
     }
 
-    /// [`Column::push`] of a full window with a best sum
-    /// ([`Column::is_steady`]): the branches that decides taken (the oldest
-    /// sample leaves the window, the run and head stay, the sum is offered),
-    /// so the window stays steady.
+    /// The steady window's state ([`Column::is_steady`]) apart, with its
+    /// samples: for a loop of [`Steady::push`] in a function of its own,
+    /// where the few values it keeps stay in registers. Written back with
+    /// [`Column::set_steady`].
     #[inline(always)]
-    pub(crate) fn push_steady(&mut self, q: i32) {
-        let pos = self.pos;
-        let mut window = self.window;
-        if let Some(slot) = self.tail.get_mut(pos) {
-            window = window.wrapping_sub(*slot);
-            *slot = q;
-        }
-        window = window.wrapping_add(q);
-        self.window = window;
-        self.pos = if pos + 1 >= self.w { 0 } else { pos + 1 };
-        if window > self.best {
-            self.best = window;
-        }
+    pub(crate) fn steady(&mut self) -> (Steady, &mut [i32; G]) {
+        let st = Steady {
+            window: self.window,
+            pos: self.pos,
+            best: self.best,
+            w: self.w,
+        };
+        (st, self.tail)
+    }
+
+    /// Takes back the state of [`Column::steady`].
+    #[inline(always)]
+    pub(crate) fn set_steady(&mut self, st: Steady) {
+        self.window = st.window;
+        self.pos = st.pos;
+        self.best = st.best;
     }
 
     /// [`Gust::break_run`].
@@ -363,6 +366,37 @@ impl<const G: usize> Column<'_, G> {
         self.run = 0;
         self.window = 0;
         self.pos = 0;
+    }
+}
+
+/// A full window with a best sum ([`Column::steady`]).
+#[derive(Clone, Copy)]
+pub(crate) struct Steady {
+    window: i32,
+    pos: usize,
+    best: i32,
+    w: usize,
+}
+
+impl Steady {
+    /// [`Column::push`] (and [`Gust::push`]) of a full window with a best
+    /// sum: the branches that decides taken (the oldest sample leaves the
+    /// window, the run and the head stay, the sum is offered), so the window
+    /// stays full.
+    #[inline(always)]
+    pub(crate) fn push<const G: usize>(&mut self, tail: &mut [i32; G], q: i32) {
+        let pos = self.pos;
+        let mut window = self.window;
+        if let Some(slot) = tail.get_mut(pos) {
+            window = window.wrapping_sub(*slot);
+            *slot = q;
+        }
+        window = window.wrapping_add(q);
+        self.window = window;
+        self.pos = if pos + 1 >= self.w { 0 } else { pos + 1 };
+        if window > self.best {
+            self.best = window;
+        }
     }
 }
 
