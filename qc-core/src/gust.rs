@@ -499,6 +499,44 @@ mod tests {
     }
 
     #[test]
+    fn column_steps_are_push_and_break() {
+        // A column's steps (and the steady step when the window is steady,
+        // taken or not at random) leave the state `Gust::push` and
+        // `Gust::break_run` of each leave, piece after piece.
+        let mut rng = crate::test_rng::Rng(21);
+        for round in 0..3_000 {
+            let w = 1 + (rng.next() % 6) as usize;
+            let mut one = Gust::<6>::new();
+            let mut col = Gust::<6>::new();
+            for piece in 0..(1 + rng.next() % 5) {
+                let n = rng.next() % 40;
+                let xs: std::vec::Vec<Option<i32>> = (0..n)
+                    .map(|_| match rng.next() % 9 {
+                        0 => None,
+                        1 => Some(rng.next() as i32),
+                        _ => Some((rng.next() % 2001) as i32 - 1000),
+                    })
+                    .collect();
+                feed(&mut one, &xs, w);
+                col.with_column(w, |c| {
+                    for x in &xs {
+                        match x {
+                            Some(q) if c.is_steady() && rng.next() % 2 == 0 => {
+                                let (mut st, tail) = c.steady();
+                                st.push(tail, *q);
+                                c.set_steady(st);
+                            }
+                            Some(q) => c.push(*q),
+                            None => c.break_run(),
+                        }
+                    }
+                });
+                assert_eq!(one, col, "round {round} piece {piece} w {w}");
+            }
+        }
+    }
+
+    #[test]
     fn a_gap_between_pieces_breaks_the_window() {
         let mut a = Gust::<3>::new();
         let mut b = Gust::<3>::new();

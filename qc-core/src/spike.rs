@@ -144,3 +144,40 @@ fn step_inline(a: i32, b: i32, circular: bool) -> u32 {
         d
     }
 }
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn inline_and_steady_pushes_are_push() {
+        // `push_inline`, and `push_steady` when the chain goes on, leave the
+        // state `push` leaves, straight and round a turn.
+        let mut rng = crate::test_rng::Rng(22);
+        for circular in [false, true] {
+            let (mut a, mut b, mut c) = (Spikes::EMPTY, Spikes::EMPTY, Spikes::EMPTY);
+            for i in 0..200_000 {
+                let limit = [0, 5, 300, 18_000, u32::MAX][(rng.next() % 5) as usize];
+                if rng.next() % 11 == 0 {
+                    a.break_chain();
+                    b.break_chain();
+                    c.break_chain();
+                    continue;
+                }
+                let q = match rng.next() % 4 {
+                    0 => rng.next() as i32,
+                    _ => (rng.next() % 36_000) as i32,
+                };
+                a.push(q, limit, circular);
+                b.push_inline(q, limit, circular);
+                if c.ends_valid() {
+                    c.push_steady(q, limit, circular);
+                } else {
+                    c.push(q, limit, circular);
+                }
+                assert_eq!(a, b, "{i}");
+                assert_eq!(a, c, "{i}");
+            }
+        }
+    }
+}
