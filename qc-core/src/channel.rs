@@ -1743,23 +1743,29 @@ impl Vane {
         }
     }
 
+    /// The centidegrees of the readings taken inline (counts on the fast
+    /// path, values in range), or `None` for any other reading.
+    #[inline(always)]
+    fn direction(&self, ch: &Channel, r: &Reading) -> Option<i32> {
+        match *r {
+            Reading::Counts(k) if k >= self.inline_lo && k <= self.fast_k => {
+                let p = u64::from(k as u32 * self.mul) + self.add;
+                Some(ch.wrap_cd_inline((p >> 16) as i64))
+            }
+            Reading::Value(v) if v >= self.lo && v <= self.hi => {
+                Some(ch.wrap_cd_inline(round_cd(v * 100.0)))
+            }
+            _ => None,
+        }
+    }
+
     /// [`Channel::classify_block`] of `r` for a direction channel `ch`.
-    /// Counts first (a vane's usual reading), then values.
     #[inline(always)]
     fn class(&self, ch: &Channel, r: &Reading, codes: &Sentinels) -> Class {
-        if let Reading::Counts(k) = *r {
-            if k >= self.inline_lo && k <= self.fast_k {
-                let p = u64::from(k as u32 * self.mul) + self.add;
-                return Class::Valid(ch.wrap_cd_inline((p >> 16) as i64));
-            }
-        } else if let Reading::Value(v) = *r {
-            if v >= self.lo && v <= self.hi {
-                return Class::Valid(ch.wrap_cd_inline(round_cd(v * 100.0)));
-            }
-        } else if let Reading::Missing = *r {
-            return Class::Missing;
+        match self.direction(ch, r) {
+            Some(cd) => Class::Valid(cd),
+            None => ch.classify_rest(r, codes),
         }
-        ch.classify_rest(r, codes)
     }
 }
 
@@ -1988,7 +1994,8 @@ fn linked_column(
     let mut ds = *sums;
     let mut res = ColumnResultant::new();
     let mut sp = *spikes;
-    for (i, r) in rs.iter().enumerate() {
+    let mut i = 0;
+    while let Some(r) = rs.get(i) {
         match vane.class(ch, r, codes) {
             Class::Valid(cd) => {
                 if spiky {
@@ -2006,11 +2013,59 @@ fn linked_column(
                 sp.break_chain();
             }
         }
+        i += 1;
+        // Rows of a direction and a speed value both taken inline.
+        let (rest, speeds) = (
+            rs.get(i..).unwrap_or_default(),
+            col.get(i..).unwrap_or_default(),
+        );
+        let pair = (&vane, &speed, ch);
+        let sums = (&mut ds, &mut res, &mut sp);
+        i += if speed.has_inv {
+            linked_steady::<true>(rest, speeds, pair, sums, lim)
+        } else {
+            linked_steady::<false>(rest, speeds, pair, sums, lim)
+        };
     }
     t.add_to(rs.len(), counts);
     *sums = ds;
     res.add_to(resultant);
     *spikes = sp;
+}
+
+/// The rows that open `rs` and `col` with a direction and a speed both
+/// taken inline ([`Vane::direction`], [`Linear::value`]): what
+/// [`linked_column`] does with them, in a function of its own (its loop
+/// keeps the sums in registers). Returns how many it took.
+#[inline(never)]
+fn linked_steady<const INV: bool>(
+    rs: &[Reading],
+    col: &[Reading],
+    (vane, speed, ch): (&Vane, &Linear, &Channel),
+    (ds, res, sp): (&mut DirectionSums, &mut ColumnResultant, &mut Spikes),
+    lim: u32,
+) -> usize {
+    let spiky = lim != u32::MAX;
+    let (mut sums, mut pairs, mut chain) = (*ds, *res, *sp);
+    let mut n = 0;
+    for (r, sr) in rs.iter().zip(col) {
+        let Some(cd) = vane.direction(ch, r) else {
+            break;
+        };
+        let Some(q) = speed.value_by::<INV>(sr) else {
+            break;
+        };
+        if spiky {
+            chain.push_inline(cd, lim, true);
+        }
+        let (s, c) = sums.push_q30_table(cd);
+        pairs.push_q30(s, c, q);
+        n += 1;
+    }
+    *ds = sums;
+    *res = pairs;
+    *sp = chain;
+    n
 }
 
 /// Which accumulator a [`ChannelState`] comes from.
