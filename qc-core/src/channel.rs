@@ -1532,12 +1532,16 @@ impl<const G: usize> Slot<G> {
     /// decides hoisted out of it ([`Linear`], [`Vane`]) and the interval's
     /// state in locals while the loop runs: counts, exact sums and the spike
     /// chain are copied out and added back once, the gust window runs as a
-    /// [`crate::gust::Column`]. Each step is the per-sample step's code
-    /// ([`Spikes::push_inline`], [`DirectionSums::push_q30`],
-    /// [`ResultantSums::push_q30`]) or its line-for-line twin on locals
-    /// ([`crate::gust::Column::push`], [`ColumnSums::push`], [`Tallies`]);
-    /// `station::run_tests` checks the state against samples pushed one by
-    /// one. Not linked into a logger.
+    /// [`crate::gust::Column`]. Long runs of values in range take steady
+    /// loops in functions of their own ([`speed_steady`], [`scalar_steady`],
+    /// [`linked_steady`]: the branches of the per-sample steps that a full
+    /// gust window and a chain going on decide). Each step is the per-sample
+    /// step's code ([`Spikes::push_inline`], [`Channel::classify_block`]) or
+    /// its twin on locals ([`crate::gust::Column::push`],
+    /// [`crate::gust::Steady::push`], [`ColumnSums::push`], [`Tallies`],
+    /// [`ColumnResultant::push_q30`], [`DirectionSums::push_q30_table`]),
+    /// each checked against it; `station::run_tests` checks the whole state
+    /// against samples pushed one by one. Not linked into a logger.
     pub(crate) fn push_column(
         &mut self,
         ch: &Channel,

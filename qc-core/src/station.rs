@@ -1096,10 +1096,12 @@ impl<const C: usize, const G: usize, L: Borrow<Layout<C>>> Sampler<C, G, L> {
     /// (0 when the first is not). `columns[c]` holds channel `c`'s readings,
     /// one per time (a shorter column shortens the run).
     ///
-    /// The state is the one [`Sampler::push`] of each sample in turn makes,
-    /// by construction: the same classification and per-sample steps, the
+    /// The state is the one [`Sampler::push`] of each sample in turn makes:
+    /// the same classification and, step by step, the same integers, the
     /// channels taken one after the other (they are independent; a linked
-    /// direction reads its speed's readings, not its state). A host feeds
+    /// direction reads its speed's readings, not its state), each in a loop
+    /// of its kind with the interval's state in locals (checked on random
+    /// data against samples pushed one by one, `run_tests`). A host feeds
     /// blocks of rows so: one loop per channel instead of one call per channel
     /// and sample. The sample after the run (if any) goes through
     /// [`Sampler::push`], which opens intervals, ends gaps and rejects, and
