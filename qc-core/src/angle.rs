@@ -149,6 +149,61 @@ pub(crate) fn sin_cos_q30(cd: i32) -> (i32, i32) {
     }
 }
 
+/// `(sin, cos)` of every centidegree of the first quadrant (`0..9_000`),
+/// Q30, as [`sin_cos_q30`] computes them: its tables, its split into whole
+/// degrees and hundredths and its rounding, evaluated at compile time
+/// (72,000 bytes of read-only data). For the host's block path
+/// ([`sin_cos_q30_table`]); a logger never links it.
+static QUADRANT_Q30: [(i32, i32); 9_000] = {
+    let mut t = [(0i32, 0i32); 9_000];
+    let mut r = 0;
+    while r < 9_000 {
+        let deg = (r as u32 * 5_243) >> 19;
+        let centi = r - 100 * deg as usize;
+        let deg = deg as usize;
+        let (sd, cd_) = (SIN_DEG[deg] as u32, SIN_DEG[90 - deg] as u32);
+        let (sc, cc) = (SIN_CENTI[centi] as u32, COS_CENTI[centi] as u32);
+        let s = round_q60((mul_u32(sd, cc) + mul_u32(cd_, sc)) as i64) as i32;
+        let c = round_q60(mul_u32(cd_, cc) as i64 - mul_u32(sd, sc) as i64) as i32;
+        t[r] = (s, c);
+        r += 1;
+    }
+    t
+};
+
+/// [`sin_cos_q30`] by one look-up in [`QUADRANT_Q30`] instead of four
+/// table reads and four products: the same pair for every `cd` (checked
+/// for every centidegree of three turns, `table_is_sin_cos_q30`). For the
+/// host's block path, which pushes a column of directions at once.
+#[inline(always)]
+pub(crate) fn sin_cos_q30_table(cd: i32) -> (i32, i32) {
+    let mut r = cd;
+    if !(0..FULL_TURN_CD).contains(&r) {
+        r = reduce_turn(r);
+    }
+    let quadrant = if r >= 2 * QUARTER_CD {
+        if r >= 3 * QUARTER_CD {
+            3
+        } else {
+            2
+        }
+    } else if r >= QUARTER_CD {
+        1
+    } else {
+        0
+    };
+    r -= quadrant * QUARTER_CD;
+    let Some(&(s, c)) = QUADRANT_Q30.get(r as usize) else {
+        return (0, 0);
+    };
+    match quadrant {
+        0 => (s, c),
+        1 => (c, -s),
+        2 => (-s, -c),
+        _ => (-c, s),
+    }
+}
+
 /// `cd` modulo a full turn, out of line: the compiler would otherwise compute
 /// the remainder (a division helper call on a Cortex-M0) on every call.
 #[cold]
@@ -684,6 +739,16 @@ pub fn units_to_deg(a: u64, shift: u32) -> f64 {
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    #[test]
+    fn table_is_sin_cos_q30() {
+        for cd in -36_000..72_000 {
+            assert_eq!(sin_cos_q30_table(cd), sin_cos_q30(cd), "{cd}");
+        }
+        for cd in [i32::MIN, i32::MIN + 1, -1_000_000, 1_000_000, i32::MAX] {
+            assert_eq!(sin_cos_q30_table(cd), sin_cos_q30(cd), "{cd}");
+        }
+    }
 
     #[test]
     fn table_matches_libm_everywhere() {

@@ -8,11 +8,11 @@
 //! [`ChannelAcc::finish`]. No function in this module panics on any input.
 
 use crate::cmath;
-use crate::direction::{DirectionSums, ResultantSums};
+use crate::direction::{ColumnResultant, DirectionSums, ResultantSums};
 use crate::error::ChannelProblem;
 use crate::flags::Flags;
-use crate::gust::Gust;
-use crate::moments::{mul_i32, variance, Moments};
+use crate::gust::{Column, Gust};
+use crate::moments::{mul_i32, variance, ColumnSums, Moments};
 use crate::sentinel::Sentinels;
 use crate::spike::Spikes;
 
@@ -814,6 +814,15 @@ impl Channel {
         }
     }
 
+    /// [`Channel::classify_block`] out of line: the readings a column's loop
+    /// does not take inline ([`Linear`], [`Vane`]), so that the loop keeps
+    /// its state in registers.
+    #[cold]
+    #[inline(never)]
+    fn classify_rest(&self, r: &Reading, sentinels: &Sentinels) -> Class {
+        self.classify_block(*r, sentinels)
+    }
+
     /// [`Channel::classify_block`] for a speed or scalar channel.
     #[inline(always)]
     fn block_linear(&self, r: Reading, sentinels: &Sentinels) -> Class {
@@ -881,7 +890,15 @@ impl Channel {
         };
     }
 
+    /// Centidegrees with the mounting offset, wrapped into `0..36_000`: out
+    /// of line on a logger, the same body as [`Channel::wrap_cd_inline`].
     fn wrap_cd(&self, cd: i64) -> i32 {
+        self.wrap_cd_inline(cd)
+    }
+
+    /// [`Channel::wrap_cd`] inline, for the host's block path.
+    #[inline(always)]
+    fn wrap_cd_inline(&self, cd: i64) -> i32 {
         let cd = cd + i64::from(self.offset_cd);
         // In-range directions are within a turn or two of 0..36000: compare and
         // subtract instead of a 64-bit division (costly on a 32-bit core).
@@ -930,6 +947,40 @@ fn quantum(x: f64) -> i32 {
     } else {
         round_half_away(x) as i32
     }
+}
+
+/// 1.5 * 2^52: `x + MAGIC` for `|x| < 2^51` lies in `[2^52, 2^53)`, where
+/// the `f64` step is 1, so the sum is `MAGIC` plus `x` rounded to the
+/// nearest whole number (ties to even), held in the low bits of the sum.
+const MAGIC: f64 = 6_755_399_441_055_744.0;
+
+/// [`quantum`] of a value in a channel's range, for the block path's loop
+/// ([`Linear::class`]): `|x|` is then below `2^31 - 645` (`Channel::new`
+/// refuses ranges past [`Q_LIMIT`] quanta; a few units in the last place of
+/// rounding cannot reach the limit), so `quantum`'s clamp never acts and
+/// `x` is far below `2^51`. `x + MAGIC - MAGIC` is `x` rounded to even (both
+/// steps exact), `x - t` is exact as in [`quantum`], and a tie (`|x - t| =
+/// 1/2`) rounded towards zero is moved one away from it: round half away
+/// from zero, as [`quantum`] (`block_rounding_is_the_per_sample_rounding`
+/// checks both against [`round_half_away`]). The whole number is read from
+/// the sum's low 32 bits: no saturating conversion.
+#[inline(always)]
+fn quantum_in_range(x: f64) -> i32 {
+    let y = x + MAGIC;
+    let t = y - MAGIC;
+    // The low 32 bits of MAGIC's pattern are 0: these are `t`, two's complement.
+    let q = y.to_bits() as u32 as i32;
+    let d = x - t;
+    if d.abs() == 0.5 {
+        // A tie, rounded to even: away from zero instead.
+        if d > 0.0 && x > 0.0 {
+            return q.wrapping_add(1);
+        }
+        if d < 0.0 && x < 0.0 {
+            return q.wrapping_sub(1);
+        }
+    }
+    q
 }
 
 /// `libm::round(x) as i64` in integer steps (see [`quantum`]), for a
@@ -1473,11 +1524,24 @@ fn direction_step(
 impl<const G: usize> Slot<G> {
     /// Adds a run of readings of `ch` in sample order, with no gap in time
     /// between them: the same state as [`Slot::push_reading`] of each in
-    /// turn, by construction (the same classification and the same
-    /// per-sample step, in a loop over one channel's column instead of one
-    /// call per channel and sample). `speed` is the linked speed channel and
-    /// its column (at least as long as `rs`), if any. For hosts, which feed
-    /// blocks of rows ([`crate::Sampler::push_run`]).
+    /// turn. `speed` is the linked speed channel and its column (at least as
+    /// long as `rs`), if any. For hosts, which feed blocks of rows
+    /// ([`crate::Sampler::push_run`]).
+    ///
+    /// One loop per kind of channel over the column, with what the channel
+    /// decides hoisted out of it ([`Linear`], [`Vane`]) and the interval's
+    /// state in locals while the loop runs: counts, exact sums and the spike
+    /// chain are copied out and added back once, the gust window runs as a
+    /// [`crate::gust::Column`]. Long runs of values in range take steady
+    /// loops in functions of their own ([`speed_steady`], [`scalar_steady`],
+    /// [`linked_steady`]: the branches of the per-sample steps that a full
+    /// gust window and a chain going on decide). Each step is the per-sample
+    /// step's code ([`Spikes::push_inline`], [`Channel::classify_block`]) or
+    /// its twin on locals ([`crate::gust::Column::push`],
+    /// [`crate::gust::Steady::push`], [`ColumnSums::push`], [`Tallies`],
+    /// [`ColumnResultant::push_q30`], [`DirectionSums::push_q30_table`]),
+    /// each checked against it; `station::run_tests` checks the whole state
+    /// against samples pushed one by one. Not linked into a logger.
     pub(crate) fn push_column(
         &mut self,
         ch: &Channel,
@@ -1487,40 +1551,525 @@ impl<const G: usize> Slot<G> {
     ) {
         let spikes = &mut self.spikes;
         match &mut self.acc {
-            ChannelAcc::Speed(a) => {
-                for r in rs {
-                    speed_step(a, spikes, ch, ch.block_linear(*r, codes));
-                }
-            }
-            ChannelAcc::Scalar(a) => {
-                for r in rs {
-                    scalar_step(a, spikes, ch, ch.block_linear(*r, codes));
-                }
-            }
+            ChannelAcc::Speed(a) => speed_column(a, spikes, ch, rs, codes),
+            ChannelAcc::Scalar(a) => scalar_column(a, spikes, ch, rs, codes),
             ChannelAcc::Direction(a) => {
-                for r in rs {
-                    let class = ch.block_direction(*r, codes);
-                    direction_step(&mut a.counts, &mut a.sums, spikes, ch, class);
-                }
+                direction_column(&mut a.counts, &mut a.sums, spikes, ch, rs, codes);
             }
             ChannelAcc::LinkedDirection(a) => {
                 let d = &mut a.direction;
-                for (i, r) in rs.iter().enumerate() {
-                    let class = ch.block_direction(*r, codes);
-                    let Some((s, c)) =
-                        direction_step(&mut d.counts, &mut d.sums, spikes, ch, class)
-                    else {
-                        continue;
-                    };
-                    if let Some((sc, Some(sr))) = speed.map(|(sc, col)| (sc, col.get(i))) {
-                        if let Class::Valid(q) = sc.classify_block(*sr, codes) {
-                            a.resultant.push_q30(s, c, q);
-                        }
-                    }
+                match speed {
+                    Some((sc, col)) => linked_column(
+                        (&mut d.counts, &mut d.sums, &mut a.resultant),
+                        spikes,
+                        ch,
+                        rs,
+                        codes,
+                        (sc, col),
+                    ),
+                    None => direction_column(&mut d.counts, &mut d.sums, spikes, ch, rs, codes),
                 }
             }
         }
     }
+}
+
+/// A column's counts in locals, added to the channel's [`Counts`] once: `n`
+/// saturating increments of a count are one saturating add of `n`. The
+/// loops count what is not valid (excluded readings too); the valid
+/// readings are the rest of the column.
+#[derive(Clone, Copy, Default)]
+struct Tallies {
+    missing: usize,
+    out_of_range: usize,
+    flagged: usize,
+    excluded: usize,
+}
+
+impl Tallies {
+    /// [`Counts::count`] of a reading that is not valid.
+    #[inline(always)]
+    fn count(&mut self, c: Class) {
+        match c {
+            Class::Valid(_) => {}
+            Class::Missing => self.missing += 1,
+            Class::OutOfRange => self.out_of_range += 1,
+            Class::Flagged => self.flagged += 1,
+            Class::Excluded => self.excluded += 1,
+        }
+    }
+
+    /// Adds the counts of a column of `len` readings.
+    #[inline(always)]
+    fn add_to(&self, len: usize, c: &mut Counts) {
+        let n = |k: usize| u32::try_from(k).unwrap_or(u32::MAX);
+        let valid = len
+            .saturating_sub(self.missing)
+            .saturating_sub(self.out_of_range)
+            .saturating_sub(self.flagged)
+            .saturating_sub(self.excluded);
+        c.valid = c.valid.saturating_add(n(valid));
+        c.missing = c.missing.saturating_add(n(self.missing));
+        c.out_of_range = c.out_of_range.saturating_add(n(self.out_of_range));
+        c.flagged = c.flagged.saturating_add(n(self.flagged));
+    }
+}
+
+/// How many readings open `rs` as [`Reading::Missing`] (an unused channel
+/// slot's whole column): counted and broken at once, as each would be (a
+/// break is the same once or many times), so that they cost a compare each.
+#[inline(always)]
+fn leading_missing(rs: &[Reading]) -> usize {
+    let missing = |r: &Reading| matches!(r, Reading::Missing);
+    // Four at a time, then one by one.
+    let mut k = 0;
+    for four in rs.chunks_exact(4) {
+        if !four.iter().all(missing) {
+            break;
+        }
+        k += 4;
+    }
+    k + rs
+        .get(k..)
+        .unwrap_or_default()
+        .iter()
+        .take_while(|r| missing(r))
+        .count()
+}
+
+/// What classifying a speed or scalar reading needs, hoisted out of a
+/// column's loop: the values [`Channel::classify_block`] takes inline (in
+/// range, of a channel without a re-calibration or a missing-value code in
+/// its range) and how a value becomes quanta. An empty range (`lo > hi`)
+/// sends every value to [`Channel::classify_rest`], as every other reading.
+#[derive(Clone, Copy)]
+struct Linear {
+    lo: f64,
+    hi: f64,
+    offset: f64,
+    step: f64,
+    /// `1/step` when a whole number ([`Scale::inverse`]), then multiplied
+    /// by (`has_inv`); else the value is divided by `step`.
+    inv: f64,
+    has_inv: bool,
+}
+
+impl Linear {
+    #[inline(always)]
+    fn of(ch: &Channel) -> Linear {
+        let values = ch.cfg.recal.is_none() && !ch.code_in_values;
+        Linear {
+            lo: if values {
+                ch.cfg.range.0
+            } else {
+                f64::INFINITY
+            },
+            hi: if values {
+                ch.cfg.range.1
+            } else {
+                f64::NEG_INFINITY
+            },
+            offset: ch.cfg.scale.offset,
+            step: ch.cfg.scale.step,
+            inv: ch.inv_step.unwrap_or(1.0),
+            has_inv: ch.inv_step.is_some(),
+        }
+    }
+
+    /// The quanta of a value in range, or `None` for any other reading.
+    #[inline(always)]
+    fn value(&self, r: &Reading) -> Option<i32> {
+        if self.has_inv {
+            self.value_by::<true>(r)
+        } else {
+            self.value_by::<false>(r)
+        }
+    }
+
+    /// [`Linear::value`] with `has_inv` decided by the caller (`INV`), so a
+    /// loop need not test it.
+    #[inline(always)]
+    fn value_by<const INV: bool>(&self, r: &Reading) -> Option<i32> {
+        match *r {
+            // `!(in range)` for NaN.
+            Reading::Value(v) if v >= self.lo && v <= self.hi => Some(quantum_in_range(if INV {
+                (v - self.offset) * self.inv
+            } else {
+                (v - self.offset) / self.step
+            })),
+            _ => None,
+        }
+    }
+
+    /// [`Channel::classify_block`] of `r` (`ch` is the channel this was made
+    /// of): values in range inline, every other reading out of line
+    /// ([`Channel::classify_rest`]; counts in range go its inline way there).
+    #[inline(always)]
+    fn class(&self, ch: &Channel, r: &Reading, codes: &Sentinels) -> Class {
+        match self.value(r) {
+            Some(q) => Class::Valid(q),
+            None => ch.classify_rest(r, codes),
+        }
+    }
+}
+
+/// [`Linear`] for a direction channel: the counts [`Channel::classify_direction`]
+/// takes inline, and values in range without a missing-value code in range.
+#[derive(Clone, Copy)]
+struct Vane {
+    lo: f64,
+    hi: f64,
+    inline_lo: i32,
+    fast_k: i32,
+    mul: u32,
+    add: u64,
+}
+
+impl Vane {
+    #[inline(always)]
+    fn of(ch: &Channel) -> Vane {
+        let values = ch.cfg.recal.is_none() && !ch.code_in_values;
+        Vane {
+            lo: if values {
+                ch.cfg.range.0
+            } else {
+                f64::INFINITY
+            },
+            hi: if values {
+                ch.cfg.range.1
+            } else {
+                f64::NEG_INFINITY
+            },
+            inline_lo: ch.dir_inline_lo,
+            fast_k: ch.dir_fast_k,
+            mul: ch.dir_mul as u32,
+            add: ch.dir_add as u64,
+        }
+    }
+
+    /// The centidegrees of the readings taken inline (counts on the fast
+    /// path, values in range), or `None` for any other reading.
+    #[inline(always)]
+    fn direction(&self, ch: &Channel, r: &Reading) -> Option<i32> {
+        match *r {
+            Reading::Counts(k) if k >= self.inline_lo && k <= self.fast_k => {
+                let p = u64::from(k as u32 * self.mul) + self.add;
+                Some(ch.wrap_cd_inline((p >> 16) as i64))
+            }
+            Reading::Value(v) if v >= self.lo && v <= self.hi => {
+                Some(ch.wrap_cd_inline(round_cd(v * 100.0)))
+            }
+            _ => None,
+        }
+    }
+
+    /// [`Channel::classify_block`] of `r` for a direction channel `ch`.
+    #[inline(always)]
+    fn class(&self, ch: &Channel, r: &Reading, codes: &Sentinels) -> Class {
+        match self.direction(ch, r) {
+            Some(cd) => Class::Valid(cd),
+            None => ch.classify_rest(r, codes),
+        }
+    }
+}
+
+/// A column of a speed channel ([`speed_step`] of each reading).
+#[inline(never)]
+fn speed_column<const G: usize>(
+    a: &mut SpeedAcc<G>,
+    spikes: &mut Spikes,
+    ch: &Channel,
+    rs: &[Reading],
+    codes: &Sentinels,
+) {
+    let lin = Linear::of(ch);
+    let lim = ch.spike_lim;
+    let mut t = Tallies::default();
+    let mut m = ColumnSums::new();
+    let mut sp = *spikes;
+    a.gust.with_column(usize::from(ch.gust_w), |g| {
+        let k = leading_missing(rs);
+        if k > 0 {
+            t.missing = k;
+            g.break_run();
+            sp.break_chain();
+        }
+        let mut rest = rs.get(k..).unwrap_or_default();
+        while let Some((r, more)) = rest.split_first() {
+            rest = more;
+            match lin.class(ch, r, codes) {
+                Class::Valid(q) => {
+                    m.push(q);
+                    g.push(q);
+                    sp.push_inline(q, lim, false);
+                }
+                c => {
+                    t.count(c);
+                    g.break_run();
+                    sp.break_chain();
+                }
+            }
+            // A full window and a chain going on: values in range take the
+            // steps' steady branches until another reading comes.
+            if g.is_steady() && sp.ends_valid() {
+                let n = if lin.has_inv {
+                    speed_steady::<G, true>(rest, &lin, &mut m, g, &mut sp, lim)
+                } else {
+                    speed_steady::<G, false>(rest, &lin, &mut m, g, &mut sp, lim)
+                };
+                rest = rest.get(n..).unwrap_or_default();
+            }
+        }
+    });
+    t.add_to(rs.len(), &mut a.counts);
+    m.add_to(&mut a.moments);
+    *spikes = sp;
+}
+
+/// The values in range that open `rs`, pushed into a steady window and a
+/// chain going on (the caller checked both): [`speed_step`]'s branches for
+/// them, in a function of its own so that its loop keeps sums, window and
+/// chain in registers. Returns how many it took.
+#[inline(never)]
+fn speed_steady<const G: usize, const INV: bool>(
+    rs: &[Reading],
+    lin: &Linear,
+    m: &mut ColumnSums,
+    g: &mut Column<'_, G>,
+    sp: &mut Spikes,
+    lim: u32,
+) -> usize {
+    let mut sums = *m;
+    let mut chain = *sp;
+    let (mut st, tail) = g.steady();
+    let mut n = 0;
+    for r in rs {
+        let Some(q) = lin.value_by::<INV>(r) else {
+            break;
+        };
+        sums.push(q);
+        st.push(tail, q);
+        chain.push_steady(q, lim, false);
+        n += 1;
+    }
+    g.set_steady(st);
+    *m = sums;
+    *sp = chain;
+    n
+}
+
+/// [`speed_steady`] for a scalar channel: the sums and, with spike
+/// screening (`SPIKY`), a chain going on.
+#[inline(never)]
+fn scalar_steady<const INV: bool, const SPIKY: bool>(
+    rs: &[Reading],
+    lin: &Linear,
+    m: &mut ColumnSums,
+    sp: &mut Spikes,
+    lim: u32,
+) -> usize {
+    let mut sums = *m;
+    let mut chain = *sp;
+    let mut n = 0;
+    for r in rs {
+        let Some(q) = lin.value_by::<INV>(r) else {
+            break;
+        };
+        sums.push(q);
+        if SPIKY {
+            chain.push_steady(q, lim, false);
+        }
+        n += 1;
+    }
+    *m = sums;
+    *sp = chain;
+    n
+}
+
+/// A column of a scalar channel ([`scalar_step`] of each reading).
+#[inline(never)]
+fn scalar_column(
+    a: &mut ScalarAcc,
+    spikes: &mut Spikes,
+    ch: &Channel,
+    rs: &[Reading],
+    codes: &Sentinels,
+) {
+    let lin = Linear::of(ch);
+    let lim = ch.spike_lim;
+    let spiky = lim != u32::MAX;
+    let mut t = Tallies::default();
+    let mut m = ColumnSums::new();
+    let mut sp = *spikes;
+    let k = leading_missing(rs);
+    if k > 0 {
+        t.missing = k;
+        sp.break_chain();
+    }
+    let mut rest = rs.get(k..).unwrap_or_default();
+    while let Some((r, more)) = rest.split_first() {
+        rest = more;
+        match lin.class(ch, r, codes) {
+            Class::Valid(q) => {
+                m.push(q);
+                if spiky {
+                    sp.push_inline(q, lim, false);
+                }
+            }
+            c => {
+                t.count(c);
+                sp.break_chain();
+            }
+        }
+        // Values in range: without spike screening only the sums, with it
+        // a chain going on takes its steady branch.
+        let n = match (spiky, lin.has_inv) {
+            (false, true) => scalar_steady::<true, false>(rest, &lin, &mut m, &mut sp, lim),
+            (false, false) => scalar_steady::<false, false>(rest, &lin, &mut m, &mut sp, lim),
+            (true, _) if !sp.ends_valid() => 0,
+            (true, true) => scalar_steady::<true, true>(rest, &lin, &mut m, &mut sp, lim),
+            (true, false) => scalar_steady::<false, true>(rest, &lin, &mut m, &mut sp, lim),
+        };
+        rest = rest.get(n..).unwrap_or_default();
+    }
+    t.add_to(rs.len(), &mut a.counts);
+    m.add_to(&mut a.moments);
+    *spikes = sp;
+}
+
+/// A column of a direction channel without a linked speed in the column
+/// ([`direction_step`] of each reading).
+#[inline(never)]
+fn direction_column(
+    counts: &mut Counts,
+    sums: &mut DirectionSums,
+    spikes: &mut Spikes,
+    ch: &Channel,
+    rs: &[Reading],
+    codes: &Sentinels,
+) {
+    let vane = Vane::of(ch);
+    let lim = ch.spike_lim;
+    let spiky = lim != u32::MAX;
+    let mut t = Tallies::default();
+    let mut ds = *sums;
+    let mut sp = *spikes;
+    let k = leading_missing(rs);
+    if k > 0 {
+        t.missing = k;
+        sp.break_chain();
+    }
+    for r in rs.get(k..).unwrap_or_default() {
+        match vane.class(ch, r, codes) {
+            Class::Valid(cd) => {
+                if spiky {
+                    sp.push_inline(cd, lim, true);
+                }
+                ds.push_q30_table(cd);
+            }
+            c => {
+                t.count(c);
+                sp.break_chain();
+            }
+        }
+    }
+    t.add_to(rs.len(), counts);
+    *sums = ds;
+    *spikes = sp;
+}
+
+/// A column of a direction channel with its linked speed's column
+/// ([`direction_step`] of each reading, and the resultant of a valid
+/// direction with a valid speed).
+#[inline(never)]
+fn linked_column(
+    (counts, sums, resultant): (&mut Counts, &mut DirectionSums, &mut ResultantSums),
+    spikes: &mut Spikes,
+    ch: &Channel,
+    rs: &[Reading],
+    codes: &Sentinels,
+    (sc, col): (&Channel, &[Reading]),
+) {
+    let vane = Vane::of(ch);
+    let speed = Linear::of(sc);
+    let lim = ch.spike_lim;
+    let spiky = lim != u32::MAX;
+    let mut t = Tallies::default();
+    let mut ds = *sums;
+    let mut res = ColumnResultant::new();
+    let mut sp = *spikes;
+    let mut i = 0;
+    while let Some(r) = rs.get(i) {
+        match vane.class(ch, r, codes) {
+            Class::Valid(cd) => {
+                if spiky {
+                    sp.push_inline(cd, lim, true);
+                }
+                let (s, c) = ds.push_q30_table(cd);
+                if let Some(sr) = col.get(i) {
+                    if let Class::Valid(q) = speed.class(sc, sr, codes) {
+                        res.push_q30(s, c, q);
+                    }
+                }
+            }
+            c => {
+                t.count(c);
+                sp.break_chain();
+            }
+        }
+        i += 1;
+        // Rows of a direction and a speed value both taken inline.
+        let (rest, speeds) = (
+            rs.get(i..).unwrap_or_default(),
+            col.get(i..).unwrap_or_default(),
+        );
+        let pair = (&vane, &speed, ch);
+        let sums = (&mut ds, &mut res, &mut sp);
+        i += if speed.has_inv {
+            linked_steady::<true>(rest, speeds, pair, sums, lim)
+        } else {
+            linked_steady::<false>(rest, speeds, pair, sums, lim)
+        };
+    }
+    t.add_to(rs.len(), counts);
+    *sums = ds;
+    res.add_to(resultant);
+    *spikes = sp;
+}
+
+/// The rows that open `rs` and `col` with a direction and a speed both
+/// taken inline ([`Vane::direction`], [`Linear::value`]): what
+/// [`linked_column`] does with them, in a function of its own (its loop
+/// keeps the sums in registers). Returns how many it took.
+#[inline(never)]
+fn linked_steady<const INV: bool>(
+    rs: &[Reading],
+    col: &[Reading],
+    (vane, speed, ch): (&Vane, &Linear, &Channel),
+    (ds, res, sp): (&mut DirectionSums, &mut ColumnResultant, &mut Spikes),
+    lim: u32,
+) -> usize {
+    let spiky = lim != u32::MAX;
+    let (mut sums, mut pairs, mut chain) = (*ds, *res, *sp);
+    let mut n = 0;
+    for (r, sr) in rs.iter().zip(col) {
+        let Some(cd) = vane.direction(ch, r) else {
+            break;
+        };
+        let Some(q) = speed.value_by::<INV>(sr) else {
+            break;
+        };
+        if spiky {
+            chain.push_inline(cd, lim, true);
+        }
+        let (s, c) = sums.push_q30_table(cd);
+        pairs.push_q30(s, c, q);
+        n += 1;
+    }
+    *ds = sums;
+    *res = pairs;
+    *sp = chain;
+    n
 }
 
 /// Which accumulator a [`ChannelState`] comes from.
@@ -2288,9 +2837,26 @@ mod tests {
             xs.push((b % 4_000_000) as f64 * 0.5 - 1_000_000.0);
             xs.push(rng.unit() * 6e9 - 3e9);
         }
+        // Halves and their neighbours one unit in the last place away, both
+        // signs, up to the in-range limit of `quantum_in_range`.
+        for k in (0..2_000i64).chain((0..2_000).map(|_| (rng.next() % (1 << 31)) as i64)) {
+            let h = k as f64 + 0.5;
+            for v in [
+                h,
+                f64::from_bits(h.to_bits() + 1),
+                f64::from_bits(h.to_bits() - 1),
+            ] {
+                xs.push(v);
+                xs.push(-v);
+            }
+        }
+        let limit = f64::from(i32::MAX - 645);
         for x in xs {
             assert_eq!(quantum(x), round_half_away(x) as i32, "{x:e}");
             assert_eq!(round_cd(x), libm::round(x) as i64, "{x:e}");
+            if x.abs() < limit {
+                assert_eq!(quantum_in_range(x), round_half_away(x) as i32, "{x:e}");
+            }
         }
     }
 
@@ -2314,6 +2880,11 @@ mod tests {
             ChannelConfig::scalar(0.25).with_calibration(0.25, 0.1),
             ChannelConfig::scalar(0.1).with_range(-100.0, 100.0),
             ChannelConfig::scalar(1e-6).with_range(-2000.0, 2000.0),
+            // At the quanta limit (Q_LIMIT) both ways; a large offset.
+            ChannelConfig::scalar(1e-6).with_range(-2147.483, 2147.483),
+            ChannelConfig::speed(0.3)
+                .with_calibration(0.3, -644_245_000.0)
+                .with_range(-644_245_000.0, -644_244_000.0),
             ChannelConfig::direction(),
             ChannelConfig::direction().with_mounting_offset(-7.25),
             ChannelConfig::direction()
@@ -2334,6 +2905,15 @@ mod tests {
                     3 => Reading::Value(f64::from_bits(rng.next())),
                     4 => Reading::Counts(rng.next() as i32 % 5000),
                     5 => Reading::Value([0.5, 12.0, -999.0, f64::NAN][(rng.next() % 4) as usize]),
+                    // The ends of the range and their neighbours.
+                    8 | 9 => {
+                        let (lo, hi) = cfg.range;
+                        let e = if rng.next() % 2 == 0 { lo } else { hi };
+                        let b = e.to_bits();
+                        Reading::Value(f64::from_bits(
+                            [b, b.wrapping_add(1), b.wrapping_sub(1)][(rng.next() % 3) as usize],
+                        ))
+                    }
                     6 => Reading::Value(rng.unit() * 4000.0 - 2000.0),
                     _ => {
                         let k = (rng.next() % 20_000) as f64 - 1000.0;
@@ -2341,11 +2921,14 @@ mod tests {
                         Reading::Value(cfg.scale.offset + step * (k + half))
                     }
                 };
-                assert_eq!(
-                    ch.classify_block(r, &sentinels),
-                    ch.classify(r, &sentinels),
-                    "{cfg:?} {r:?}"
-                );
+                let want = ch.classify(r, &sentinels);
+                assert_eq!(ch.classify_block(r, &sentinels), want, "{cfg:?} {r:?}");
+                // What the column loops take inline, and the rest.
+                let column = match cfg.kind {
+                    Kind::Direction => Vane::of(&ch).class(&ch, &r, &sentinels),
+                    _ => Linear::of(&ch).class(&ch, &r, &sentinels),
+                };
+                assert_eq!(column, want, "{cfg:?} {r:?}");
             }
         }
     }

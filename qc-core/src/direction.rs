@@ -18,8 +18,8 @@
 
 use crate::angle::{
     f64_significand, isqrt_u128_const, mul_hi_u64, polar, polar_angle, recip_u32, scale2,
-    shift_u64, sin_cos_q30, sqrt_u128, square_u64, to_deg, units_to_deg, ANGLE_FRAC_BITS,
-    FULL_TURN, HALF_TURN,
+    shift_u64, sin_cos_q30, sin_cos_q30_table, sqrt_u128, square_u64, to_deg, units_to_deg,
+    ANGLE_FRAC_BITS, FULL_TURN, HALF_TURN,
 };
 use crate::moments::{mul_i32, mul_u32, Wide};
 
@@ -80,6 +80,17 @@ impl DirectionSums {
     #[inline]
     pub(crate) fn push_q30(&mut self, cd: i32) -> (i32, i32) {
         let (s, c) = sin_cos_q30(cd);
+        self.sin += i64::from(s);
+        self.cos += i64::from(c);
+        (s, c)
+    }
+
+    /// [`DirectionSums::push_q30`] with the unit vector looked up whole
+    /// ([`crate::angle::sin_cos_q30_table`]: the same pair), for the host's
+    /// block path.
+    #[inline(always)]
+    pub(crate) fn push_q30_table(&mut self, cd: i32) -> (i32, i32) {
+        let (s, c) = sin_cos_q30_table(cd);
         self.sin += i64::from(s);
         self.cos += i64::from(c);
         (s, c)
@@ -217,6 +228,56 @@ pub struct ResultantSums {
     pub(crate) sin: i64,
     pub(crate) cos: i64,
     pub(crate) n: u32,
+}
+
+/// [`ResultantSums`] of a column in locals, for the host's block path:
+/// products in one native 64-bit multiply (the same integer as
+/// [`mul_i32`]'s partial products, which a Cortex-M0 needs: `|s| <= 2^30`,
+/// `|q| <= 2^31`, so `|s q| < 2^62`), summed in `i128` and added to the
+/// interval's sums once ([`ColumnResultant::add_to`]): the same integers as
+/// [`ResultantSums::push_q30`] of each pair.
+#[derive(Clone, Copy, Debug)]
+pub(crate) struct ColumnResultant {
+    q_sin: i128,
+    q_cos: i128,
+    sin: i64,
+    cos: i64,
+    n: usize,
+}
+
+impl ColumnResultant {
+    /// No pairs.
+    pub(crate) const fn new() -> Self {
+        ColumnResultant {
+            q_sin: 0,
+            q_cos: 0,
+            sin: 0,
+            cos: 0,
+            n: 0,
+        }
+    }
+
+    /// [`ResultantSums::push_q30`].
+    #[inline(always)]
+    pub(crate) fn push_q30(&mut self, s: i32, c: i32, q: i32) {
+        let q = i64::from(q);
+        self.q_sin = self.q_sin.wrapping_add(i128::from(i64::from(s) * q));
+        self.q_cos = self.q_cos.wrapping_add(i128::from(i64::from(c) * q));
+        self.sin = self.sin.wrapping_add(i64::from(s));
+        self.cos = self.cos.wrapping_add(i64::from(c));
+        self.n += 1;
+    }
+
+    /// Adds the column's pairs to `r`.
+    #[inline(always)]
+    pub(crate) fn add_to(&self, r: &mut ResultantSums) {
+        r.q_sin.add(self.q_sin);
+        r.q_cos.add(self.q_cos);
+        r.sin = r.sin.wrapping_add(self.sin);
+        r.cos = r.cos.wrapping_add(self.cos);
+        r.n =
+            r.n.saturating_add(u32::try_from(self.n).unwrap_or(u32::MAX));
+    }
 }
 
 /// The resultant (speed-weighted) wind vector.

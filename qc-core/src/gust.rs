@@ -144,6 +144,49 @@ impl<const G: usize> Gust<G> {
         self.pos = 0;
     }
 
+    /// Runs `f` with the window's state as a [`Column`]: its scalars in
+    /// locals (registers, in a loop), written back when `f` returns. For the
+    /// host's block path, which pushes a column of one channel at once; the
+    /// logger's per-sample path keeps [`Gust::push`], which stores only what
+    /// changed.
+    #[inline(always)]
+    pub(crate) fn with_column<R>(
+        &mut self,
+        w: usize,
+        f: impl FnOnce(&mut Column<'_, G>) -> R,
+    ) -> R {
+        let Gust {
+            best,
+            window,
+            tail,
+            head,
+            run,
+            pos,
+            head_len,
+            flags,
+        } = self;
+        let mut c = Column {
+            tail,
+            head,
+            best: *best,
+            window: *window,
+            run: usize::from(*run),
+            pos: usize::from(*pos),
+            head_len: *head_len,
+            flags: *flags,
+            w,
+        };
+        let r = f(&mut c);
+        *best = c.best;
+        *window = c.window;
+        // `run` and `pos` are at most `w <= G <= 255` (as `Gust::push` keeps them).
+        *run = c.run as u16;
+        *pos = c.pos as u8;
+        *head_len = c.head_len;
+        *flags = c.flags;
+        r
+    }
+
     /// The last `k <= min(run, w)` samples of the current run, oldest first,
     /// written to `out[..k]`.
     fn tail_in_order(&self, w: usize, k: usize, out: &mut [i32; G]) {
@@ -231,6 +274,128 @@ impl<const G: usize> Gust<G> {
             self.window = later.window;
             self.pos = later.pos;
             self.run = later.run;
+        }
+    }
+}
+
+/// A [`Gust`] opened for a loop over a column ([`Gust::with_column`]): the
+/// same steps as [`Gust::push`] and [`Gust::break_run`], line for line, on
+/// the scalars held in locals (`run` and `pos` as `usize`).
+pub(crate) struct Column<'a, const G: usize> {
+    tail: &'a mut [i32; G],
+    head: &'a mut [i32; G],
+    best: i32,
+    window: i32,
+    run: usize,
+    pos: usize,
+    head_len: u8,
+    flags: u8,
+    w: usize,
+}
+
+impl<const G: usize> Column<'_, G> {
+    /// [`Gust::push`].
+    #[inline(always)]
+    pub(crate) fn push(&mut self, q: i32) {
+        let w = self.w;
+        let run = self.run;
+        let pos = self.pos;
+        let full = run >= w;
+        let mut window = self.window;
+        if let Some(slot) = self.tail.get_mut(pos) {
+            if full {
+                window = window.wrapping_sub(*slot);
+            }
+            *slot = q;
+        }
+        window = window.wrapping_add(q);
+        self.window = window;
+        self.pos = if pos + 1 >= w { 0 } else { pos + 1 };
+        if !full {
+            if self.flags & BROKEN == 0 && run + 1 < w {
+                if let Some(slot) = self.head.get_mut(run) {
+                    *slot = q;
+                }
+                self.head_len = (run + 1) as u8;
+            }
+            self.run = run + 1;
+            if run + 1 < w {
+                return;
+            }
+        }
+        if self.flags & HAS_BEST == 0 || window > self.best {
+            self.best = window;
+            self.flags |= HAS_BEST;
+        }
+    }
+
+    /// Whether the window is full and holds a best sum: then
+    /// [`Column::push`] is [`Steady::push`].
+    #[inline(always)]
+    pub(crate) fn is_steady(&self) -> bool {
+        self.run >= self.w && self.flags & HAS_BEST != 0
+    }
+
+    /// The steady window's state ([`Column::is_steady`]) apart, with its
+    /// samples: for a loop of [`Steady::push`] in a function of its own,
+    /// where the few values it keeps stay in registers. Written back with
+    /// [`Column::set_steady`].
+    #[inline(always)]
+    pub(crate) fn steady(&mut self) -> (Steady, &mut [i32; G]) {
+        let st = Steady {
+            window: self.window,
+            pos: self.pos,
+            best: self.best,
+            w: self.w,
+        };
+        (st, self.tail)
+    }
+
+    /// Takes back the state of [`Column::steady`].
+    #[inline(always)]
+    pub(crate) fn set_steady(&mut self, st: Steady) {
+        self.window = st.window;
+        self.pos = st.pos;
+        self.best = st.best;
+    }
+
+    /// [`Gust::break_run`].
+    #[inline(always)]
+    pub(crate) fn break_run(&mut self) {
+        self.flags |= BROKEN;
+        self.run = 0;
+        self.window = 0;
+        self.pos = 0;
+    }
+}
+
+/// A full window with a best sum ([`Column::steady`]).
+#[derive(Clone, Copy)]
+pub(crate) struct Steady {
+    window: i32,
+    pos: usize,
+    best: i32,
+    w: usize,
+}
+
+impl Steady {
+    /// [`Column::push`] (and [`Gust::push`]) of a full window with a best
+    /// sum: the branches that decides taken (the oldest sample leaves the
+    /// window, the run and the head stay, the sum is offered), so the window
+    /// stays full.
+    #[inline(always)]
+    pub(crate) fn push<const G: usize>(&mut self, tail: &mut [i32; G], q: i32) {
+        let pos = self.pos;
+        let mut window = self.window;
+        if let Some(slot) = tail.get_mut(pos) {
+            window = window.wrapping_sub(*slot);
+            *slot = q;
+        }
+        window = window.wrapping_add(q);
+        self.window = window;
+        self.pos = if pos + 1 >= self.w { 0 } else { pos + 1 };
+        if window > self.best {
+            self.best = window;
         }
     }
 }
@@ -329,6 +494,44 @@ mod tests {
                         "{samples:?} w {w} cut {cut} +"
                     );
                 }
+            }
+        }
+    }
+
+    #[test]
+    fn column_steps_are_push_and_break() {
+        // A column's steps (and the steady step when the window is steady,
+        // taken or not at random) leave the state `Gust::push` and
+        // `Gust::break_run` of each leave, piece after piece.
+        let mut rng = crate::test_rng::Rng(21);
+        for round in 0..3_000 {
+            let w = 1 + (rng.next() % 6) as usize;
+            let mut one = Gust::<6>::new();
+            let mut col = Gust::<6>::new();
+            for piece in 0..(1 + rng.next() % 5) {
+                let n = rng.next() % 40;
+                let xs: std::vec::Vec<Option<i32>> = (0..n)
+                    .map(|_| match rng.next() % 9 {
+                        0 => None,
+                        1 => Some(rng.next() as i32),
+                        _ => Some((rng.next() % 2001) as i32 - 1000),
+                    })
+                    .collect();
+                feed(&mut one, &xs, w);
+                col.with_column(w, |c| {
+                    for x in &xs {
+                        match x {
+                            Some(q) if c.is_steady() && rng.next() % 2 == 0 => {
+                                let (mut st, tail) = c.steady();
+                                st.push(tail, *q);
+                                c.set_steady(st);
+                            }
+                            Some(q) => c.push(*q),
+                            None => c.break_run(),
+                        }
+                    }
+                });
+                assert_eq!(one, col, "round {round} piece {piece} w {w}");
             }
         }
     }

@@ -246,6 +246,53 @@ impl Moments {
     }
 }
 
+/// The moments of a column of samples in locals, for the host's block path:
+/// the sum of squares as one `u128` (an add with carry a sample on a 64-bit
+/// host, where [`Moments::push`] branches on the size of the square and on a
+/// carry, as a Cortex-M0 needs), added to a [`Moments`] once
+/// ([`ColumnSums::add_to`]). The same integers: sums are exact (wrapping
+/// only where [`Moments`] would overflow, which it never does), min and max
+/// order-free.
+#[derive(Clone, Copy, Debug)]
+pub(crate) struct ColumnSums {
+    sum: i64,
+    sum_sq: u128,
+    min: i32,
+    max: i32,
+}
+
+impl ColumnSums {
+    /// No samples.
+    pub(crate) const fn new() -> Self {
+        ColumnSums {
+            sum: 0,
+            sum_sq: 0,
+            min: i32::MAX,
+            max: i32::MIN,
+        }
+    }
+
+    /// [`Moments::push`].
+    #[inline(always)]
+    pub(crate) fn push(&mut self, q: i32) {
+        self.sum = self.sum.wrapping_add(i64::from(q));
+        let w = i64::from(q);
+        // |q| <= 2^31: the square fits an i64 and is not negative.
+        self.sum_sq = self.sum_sq.wrapping_add(u128::from((w * w) as u64));
+        self.min = self.min.min(q);
+        self.max = self.max.max(q);
+    }
+
+    /// Adds the column's samples to `m`.
+    #[inline(always)]
+    pub(crate) fn add_to(&self, m: &mut Moments) {
+        m.sum = m.sum.wrapping_add(self.sum);
+        m.sum_sq.add(self.sum_sq as i128);
+        m.min = m.min.min(self.min);
+        m.max = m.max.max(self.max);
+    }
+}
+
 /// The population variance `num / n^2` from [`Moments::variance_numerator`]:
 /// one division while `n^2` is exact in `f64` (n below 2^26, 67 million
 /// samples in an interval), two otherwise.

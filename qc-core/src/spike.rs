@@ -50,6 +50,37 @@ impl Spikes {
     /// when `circular`).
     #[inline]
     pub(crate) fn push(&mut self, q: i32, limit: u32, circular: bool) {
+        self.push_by(q, limit, circular, step);
+    }
+
+    /// [`Spikes::push`] with the step computed inline, for the host's block
+    /// path (a loop over a column keeps the chain in registers; a call per
+    /// sample would spill them). The same code with another step function of
+    /// the same body ([`step_inline`]), so the same state by construction.
+    #[inline(always)]
+    pub(crate) fn push_inline(&mut self, q: i32, limit: u32, circular: bool) {
+        self.push_by(q, limit, circular, step_inline);
+    }
+
+    /// Whether the last thing seen was a valid sample: then
+    /// [`Spikes::push_inline`] is [`Spikes::push_steady`].
+    #[inline(always)]
+    pub(crate) fn ends_valid(&self) -> bool {
+        self.flags & ENDS_VALID != 0
+    }
+
+    /// [`Spikes::push_inline`] of a chain going on ([`Spikes::ends_valid`]):
+    /// its first branch, the only one taken then (the flags stay).
+    #[inline(always)]
+    pub(crate) fn push_steady(&mut self, q: i32, limit: u32, circular: bool) {
+        if step_inline(self.last, q, circular) > limit {
+            self.count = self.count.saturating_add(1);
+        }
+        self.last = q;
+    }
+
+    #[inline(always)]
+    fn push_by(&mut self, q: i32, limit: u32, circular: bool, step: fn(i32, i32, bool) -> u32) {
         let f = self.flags;
         if f & ENDS_VALID != 0 {
             // The common case, a chain going on: no store of the flags.
@@ -93,7 +124,15 @@ impl Spikes {
     }
 }
 
+/// The step between two samples: out of line on a logger (the per-sample
+/// functions stay small), the same body as [`step_inline`].
 fn step(a: i32, b: i32, circular: bool) -> u32 {
+    step_inline(a, b, circular)
+}
+
+/// `|a - b|`, the shorter way round a turn when `circular`.
+#[inline(always)]
+fn step_inline(a: i32, b: i32, circular: bool) -> u32 {
     // 32-bit arithmetic (cheap on a logger core): |a - b| always fits a u32.
     let d = a.abs_diff(b);
     if circular {
@@ -103,5 +142,42 @@ fn step(a: i32, b: i32, circular: bool) -> u32 {
         d.min(36_000 - d)
     } else {
         d
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn inline_and_steady_pushes_are_push() {
+        // `push_inline`, and `push_steady` when the chain goes on, leave the
+        // state `push` leaves, straight and round a turn.
+        let mut rng = crate::test_rng::Rng(22);
+        for circular in [false, true] {
+            let (mut a, mut b, mut c) = (Spikes::EMPTY, Spikes::EMPTY, Spikes::EMPTY);
+            for i in 0..200_000 {
+                let limit = [0, 5, 300, 18_000, u32::MAX][(rng.next() % 5) as usize];
+                if rng.next() % 11 == 0 {
+                    a.break_chain();
+                    b.break_chain();
+                    c.break_chain();
+                    continue;
+                }
+                let q = match rng.next() % 4 {
+                    0 => rng.next() as i32,
+                    _ => (rng.next() % 36_000) as i32,
+                };
+                a.push(q, limit, circular);
+                b.push_inline(q, limit, circular);
+                if c.ends_valid() {
+                    c.push_steady(q, limit, circular);
+                } else {
+                    c.push(q, limit, circular);
+                }
+                assert_eq!(a, b, "{i}");
+                assert_eq!(a, c, "{i}");
+            }
+        }
     }
 }

@@ -1311,10 +1311,12 @@ impl<const C: usize, const G: usize, L: Borrow<Layout<C>>> Sampler<C, G, L> {
     /// (0 when the first is not). `columns[c]` holds channel `c`'s readings,
     /// one per time (a shorter column shortens the run).
     ///
-    /// The state is the one [`Sampler::push`] of each sample in turn makes,
-    /// by construction: the same classification and per-sample steps, the
+    /// The state is the one [`Sampler::push`] of each sample in turn makes:
+    /// the same classification and, step by step, the same integers, the
     /// channels taken one after the other (they are independent; a linked
-    /// direction reads its speed's readings, not its state). A host feeds
+    /// direction reads its speed's readings, not its state), each in a loop
+    /// of its kind with the interval's state in locals (checked on random
+    /// data against samples pushed one by one, `run_tests`). A host feeds
     /// blocks of rows so: one loop per channel instead of one call per channel
     /// and sample. The sample after the run (if any) goes through
     /// [`Sampler::push`], which opens intervals, ends gaps and rejects, and
@@ -2510,6 +2512,87 @@ mod run_tests {
         }
     }
 
+    /// What the block path's steady loops and their exits must agree on:
+    /// long stretches of valid values (a full gust window, a spike chain
+    /// going on), a gust window of `G` and of 1, spike limits that are
+    /// crossed now and then (speed, scalar, a vane), steps with and without
+    /// an exact inverse, scalars with and without spike screening, a vane
+    /// read as counts and one as values, both linked.
+    fn layout_steady() -> Layout<C> {
+        let mut no_spikes = Screen::for_kind(crate::Kind::Scalar);
+        no_spikes.step_limit = None;
+        let mut spiky = Screen::for_kind(crate::Kind::Scalar);
+        spiky.step_limit = Some(2.0);
+        let mut calm = Screen::for_kind(crate::Kind::Speed);
+        calm.step_limit = Some(1.5);
+        let mut veering = Screen::for_kind(crate::Kind::Direction);
+        veering.step_limit = Some(30.0);
+        Layout::new::<G>(
+            StationConfig::ten_minute_1hz(),
+            &[
+                ChannelConfig::speed(0.01).with_gust_window(3),
+                ChannelConfig::speed(0.1)
+                    .with_gust_window(G as u16)
+                    .with_screen(calm),
+                ChannelConfig::direction()
+                    .with_calibration(0.1, 0.0)
+                    .with_mounting_offset(4.0)
+                    .with_speed_channel(0),
+                ChannelConfig::direction()
+                    .with_speed_channel(1)
+                    .with_screen(veering),
+                ChannelConfig::scalar(0.1)
+                    .with_range(-40.0, 50.0)
+                    .with_screen(spiky),
+                ChannelConfig::scalar(0.1)
+                    .with_range(0.0, 100.0)
+                    .with_screen(no_spikes),
+                ChannelConfig::scalar(0.3)
+                    .with_range(-100.0, 100.0)
+                    .with_screen(spiky),
+                ChannelConfig::speed(0.3).with_gust_window(1),
+            ],
+        )
+        .unwrap()
+    }
+
+    /// A reading for [`layout_steady`]: valid but for one in 50 (then
+    /// anything: missing, flagged, excluded, NaN, a missing-value code, out
+    /// of range, raw counts), values on quanta and between them, speeds and
+    /// temperatures that mostly move little, now and then a jump.
+    fn reading_steady(rng: &mut Rng, c: usize) -> Reading {
+        if rng.next() % 50 == 0 {
+            return match rng.next() % 7 {
+                0 => Reading::Missing,
+                1 => Reading::Flagged,
+                2 => Reading::Excluded,
+                3 => Reading::Value(f64::NAN),
+                4 => Reading::Value(-999.0),
+                5 => Reading::Value(1e6),
+                _ => Reading::Counts((rng.next() % 3000) as i32),
+            };
+        }
+        let u = rng.unit();
+        let jump = rng.next() % 10 == 0;
+        let near = |mid: f64, spread: f64| {
+            if jump {
+                u * 2.0 * mid
+            } else {
+                mid + spread * (u - 0.5)
+            }
+        };
+        match c {
+            0 => Reading::Value((near(12.0, 1.0) * 100.0).round() / 100.0),
+            1 => Reading::Value(near(8.0, 2.0)),
+            2 => Reading::Counts((u * 3600.0) as i32),
+            3 => Reading::Value((near(180.0, 40.0) * 100.0).round() / 100.0),
+            4 => Reading::Value((near(5.0, 3.0) * 10.0).round() / 10.0),
+            5 => Reading::Value(u * 100.0),
+            6 => Reading::Value(near(0.0, 5.0)),
+            _ => Reading::Value(near(10.0, 4.0)),
+        }
+    }
+
     type Out = (
         Vec<(IntervalAcc<C, G>, [ChannelRecord; C])>,
         Vec<crate::Gap>,
@@ -2535,6 +2618,11 @@ mod run_tests {
     #[test]
     fn values_classified_in_the_block_equal_samples_pushed_one_by_one() {
         same_by_block_and_by_sample(layout_values(), reading_values, 12);
+    }
+
+    #[test]
+    fn steady_stretches_by_column_equal_samples_pushed_one_by_one() {
+        same_by_block_and_by_sample(layout_steady(), reading_steady, 13);
     }
 
     fn same_by_block_and_by_sample(
