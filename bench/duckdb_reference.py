@@ -21,15 +21,7 @@ Python 3.11+.
 import sys
 import time
 
-from peer_common import (
-    DEFAULT_RANGE,
-    arguments,
-    check,
-    direction_stats,
-    gust_window,
-    load_station,
-    write_rows,
-)
+from peer_common import DEFAULT_RANGE, arguments, check, direction_stats, gust_window, load_station, write_rows
 
 
 def sql_of(station, samples):

@@ -22,15 +22,7 @@ import os
 import sys
 import time
 
-from peer_common import (
-    DEFAULT_RANGE,
-    arguments,
-    check,
-    direction_stats,
-    gust_window,
-    load_station,
-    write_rows,
-)
+from peer_common import DEFAULT_RANGE, arguments, check, direction_stats, gust_window, load_station, write_rows
 
 
 def replay(pl, station, samples):
