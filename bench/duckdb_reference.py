@@ -18,11 +18,10 @@ Needs: duckdb (pip install duckdb; bench/compare.sh installs it into a venv),
 Python 3.11+.
 """
 
-import argparse
 import sys
 import time
 
-from peer_common import DEFAULT_RANGE, check, direction_stats, gust_window, load_station
+from peer_common import DEFAULT_RANGE, arguments, check, direction_stats, gust_window, load_station, write_rows
 
 
 def sql_of(station, samples):
@@ -99,24 +98,14 @@ def replay(duckdb, station, samples, threads):
 
 
 def main():
-    ap = argparse.ArgumentParser(description=__doc__.split("\n\n")[0])
-    ap.add_argument("station")
-    ap.add_argument("samples")
-    ap.add_argument("--threads", type=int)
-    ap.add_argument("-o", "--output")
-    ap.add_argument("--check")
-    a = ap.parse_args()
+    a = arguments(__doc__)
     import duckdb
 
     t0 = time.perf_counter()
     rows, threads = replay(duckdb, a.station, a.samples, a.threads)
     t1 = time.perf_counter()
     if a.output:
-        with open(a.output, "w") as f:
-            f.write("channel,start,mean,sd,min,max,gust\n")
-            for (ch, start), st in rows.items():
-                vals = ["" if st.get(k) is None else repr(st[k]) for k in ("mean", "sd", "min", "max", "gust")]
-                f.write(f"{ch},{start}," + ",".join(vals) + "\n")
+        write_rows(a.output, rows)
     print(f"duckdb_reference: {len(rows)} rows in {t1 - t0:.3f} s (read and compute, "
           f"duckdb {duckdb.__version__}, {threads} threads)", file=sys.stderr)
     if a.check and not check(rows, a.check, "duckdb"):

@@ -1,9 +1,11 @@
 """Shared by bench/polars_reference.py and bench/duckdb_reference.py: the
-station file's channels, and the spot check against tenmin's records.
+command line, the station file's channels, the output file, and the spot
+check against tenmin's records.
 
 Pure Python (tomllib, csv), so that each peer's own time is its library's.
 """
 
+import argparse
 import csv
 import math
 import sys
@@ -14,6 +16,28 @@ DEFAULT_RANGE = {"speed": (0.0, 75.0), "direction": (0.0, 360.0), "scalar": (-1e
 # Yamartino (1984) sigma-theta from the mean unit vector (s, c), degrees, as
 # bench/pandas_reference.py computes it.
 YAMARTINO_B = 2.0 / math.sqrt(3.0) - 1.0
+
+
+def arguments(doc):
+    """The peers' command line (STATION SAMPLES [--threads N] [-o FILE]
+    [--check RECORDS]), described by the first paragraph of `doc`."""
+    ap = argparse.ArgumentParser(description=doc.split("\n\n")[0])
+    ap.add_argument("station")
+    ap.add_argument("samples")
+    ap.add_argument("--threads", type=int)
+    ap.add_argument("-o", "--output")
+    ap.add_argument("--check")
+    return ap.parse_args()
+
+
+def write_rows(path, rows):
+    """Writes `rows` {(channel, start): {stat: value}} as CSV: channel, start,
+    mean, sd, min, max, gust (a missing statistic empty, floats by repr)."""
+    with open(path, "w") as f:
+        f.write("channel,start,mean,sd,min,max,gust\n")
+        for (ch, start), st in rows.items():
+            vals = ["" if st.get(k) is None else repr(st[k]) for k in ("mean", "sd", "min", "max", "gust")]
+            f.write(f"{ch},{start}," + ",".join(vals) + "\n")
 
 
 def load_station(path):

@@ -17,13 +17,12 @@ Needs: polars (pip install polars; bench/compare.sh installs it into a venv),
 Python 3.11+. `--threads` sets POLARS_MAX_THREADS before polars starts.
 """
 
-import argparse
 import math
 import os
 import sys
 import time
 
-from peer_common import DEFAULT_RANGE, check, direction_stats, gust_window, load_station
+from peer_common import DEFAULT_RANGE, arguments, check, direction_stats, gust_window, load_station, write_rows
 
 
 def replay(pl, station, samples):
@@ -88,13 +87,7 @@ def replay(pl, station, samples):
 
 
 def main():
-    ap = argparse.ArgumentParser(description=__doc__.split("\n\n")[0])
-    ap.add_argument("station")
-    ap.add_argument("samples")
-    ap.add_argument("--threads", type=int)
-    ap.add_argument("-o", "--output")
-    ap.add_argument("--check")
-    a = ap.parse_args()
+    a = arguments(__doc__)
     if a.threads:
         os.environ["POLARS_MAX_THREADS"] = str(a.threads)
     import polars as pl
@@ -103,11 +96,7 @@ def main():
     rows = replay(pl, a.station, a.samples)
     t1 = time.perf_counter()
     if a.output:
-        with open(a.output, "w") as f:
-            f.write("channel,start,mean,sd,min,max,gust\n")
-            for (ch, start), st in rows.items():
-                vals = ["" if st.get(k) is None else repr(st[k]) for k in ("mean", "sd", "min", "max", "gust")]
-                f.write(f"{ch},{start}," + ",".join(vals) + "\n")
+        write_rows(a.output, rows)
     print(f"polars_reference: {len(rows)} rows in {t1 - t0:.3f} s (read and compute, "
           f"polars {pl.__version__}, {pl.thread_pool_size()} threads)", file=sys.stderr)
     if a.check and not check(rows, a.check, "polars"):

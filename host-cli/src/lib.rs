@@ -580,22 +580,26 @@ fn replay_cmd(a: ReplayArgs) -> Result<ExitCode> {
             format.name()
         );
     }
-    let (summary, written) = output::write_to(a.output.as_deref(), "records", |w| {
-        if format == columnar::Format::Csv {
-            let mut writer = records::Writer::new(w, ids(&cfg))?.with_sensors(cfg.sensors.clone());
+    // The records file is read back (and hashed for the provenance file)
+    // on a helper thread as it is written.
+    let ((summary, written), records_digest) =
+        output::write_to_read_back(a.output.as_deref(), "records", |w| {
+            if format == columnar::Format::Csv {
+                let mut writer =
+                    records::Writer::new(w, ids(&cfg))?.with_sensors(cfg.sensors.clone());
+                let s = replay::replay(&cfg, &a.samples, opts, &mut writer)?;
+                writer.finish()?;
+                return Ok((s, None));
+            }
+            let mut writer = columnar::RecordsOut::new(w, format, ids(&cfg), cfg.sensors.clone())?;
             let s = replay::replay(&cfg, &a.samples, opts, &mut writer)?;
-            writer.finish()?;
-            return Ok((s, None));
-        }
-        let mut writer = columnar::RecordsOut::new(w, format, ids(&cfg), cfg.sensors.clone())?;
-        let s = replay::replay(&cfg, &a.samples, opts, &mut writer)?;
-        Ok((s, Some(writer.finish()?)))
-    })?;
+            Ok((s, Some(writer.finish()?)))
+        })?;
     if let (Some(out), Some(written)) = (&a.output, &written) {
         columnar::check_records(out, written)?;
     }
     if let Some(out) = &a.output {
-        provenance::write_known(out, &cfg, &used, &summary.input.digests)?;
+        provenance::write_read_back(out, &cfg, &used, &summary.input.digests, records_digest)?;
     }
     if !a.input.quiet {
         let _ = summary.write(&mut io::stderr().lock(), &cfg);

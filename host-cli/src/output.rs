@@ -24,8 +24,14 @@
 //! there are no inodes.
 
 use std::fs::{self, File, OpenOptions};
-use std::io::{self, BufWriter, Write};
+use std::io::{self, BufWriter, Read, Write};
 use std::path::{Path, PathBuf};
+use std::sync::mpsc::{channel, Sender};
+use std::thread::JoinHandle;
+
+use sha2::{Digest, Sha256};
+
+use crate::provenance::FileDigest;
 
 use anyhow::{bail, Context, Result};
 
@@ -175,10 +181,97 @@ impl Temp {
     }
 }
 
+/// Bytes written between two notes to the read-back thread.
+const READ_BACK_STEP: u64 = 256 << 10;
+
+/// What the writing side tells the read-back thread.
+enum Note {
+    /// The file holds at least this many bytes, written.
+    Upto(u64),
+    /// The file is complete (synced and renamed) with this many bytes.
+    Final(u64),
+}
+
+/// A file read back while it is written: a helper thread reads, through its
+/// own handle, the bytes the writer has written (told in steps of
+/// [`READ_BACK_STEP`]) and hashes them, and reads the rest once the file is
+/// complete. The digest is of the bytes as read from the file, never of the
+/// bytes in memory; the writer's thread pays nothing for it.
+struct ReadBack {
+    tx: Sender<Note>,
+    thread: JoinHandle<Option<FileDigest>>,
+    written: u64,
+    told: u64,
+}
+
+impl ReadBack {
+    /// Starts reading `path` (the temporary file, just created) back.
+    fn start(path: &Path) -> Option<ReadBack> {
+        let mut f = File::open(path).ok()?;
+        let (tx, rx) = channel::<Note>();
+        let thread = std::thread::spawn(move || {
+            let mut h = Sha256::new();
+            let mut buf = vec![0u8; 64 << 10];
+            let mut size = 0u64;
+            loop {
+                let (upto, last) = match rx.recv() {
+                    Ok(Note::Upto(n)) => (n, false),
+                    Ok(Note::Final(n)) => (n, true),
+                    // The output was dropped unfinished: no digest.
+                    Err(_) => return None,
+                };
+                while size < upto || last {
+                    match f.read(&mut buf) {
+                        Ok(0) => break,
+                        Ok(n) => {
+                            h.update(&buf[..n]);
+                            size += n as u64;
+                        }
+                        Err(e) if e.kind() == io::ErrorKind::Interrupted => {}
+                        Err(_) => return None,
+                    }
+                }
+                if last {
+                    // Exactly the bytes written, no more, no fewer.
+                    return (size == upto).then(|| FileDigest {
+                        sha256: h.finalize().iter().map(|b| format!("{b:02x}")).collect(),
+                        size,
+                    });
+                }
+                if size < upto {
+                    // Shorter than written: no digest.
+                    return None;
+                }
+            }
+        });
+        Some(ReadBack {
+            tx,
+            thread,
+            written: 0,
+            told: 0,
+        })
+    }
+
+    fn wrote(&mut self, n: usize) {
+        self.written += n as u64;
+        if self.written - self.told >= READ_BACK_STEP {
+            self.told = self.written;
+            let _ = self.tx.send(Note::Upto(self.written));
+        }
+    }
+
+    /// The digest of the complete file, read back.
+    fn finish(self) -> Option<FileDigest> {
+        self.tx.send(Note::Final(self.written)).ok()?;
+        self.thread.join().ok()?
+    }
+}
+
 /// Where the bytes go.
 enum Dest {
-    /// A temporary file renamed over its target on success.
-    Replace(File),
+    /// A temporary file renamed over its target on success, maybe read
+    /// back as it is written.
+    Replace(File, Option<ReadBack>),
     /// A special file written in place.
     Special(File),
     /// The process's stdout.
@@ -188,14 +281,21 @@ enum Dest {
 impl Write for Dest {
     fn write(&mut self, buf: &[u8]) -> io::Result<usize> {
         match self {
-            Dest::Replace(f) | Dest::Special(f) => f.write(buf),
+            Dest::Replace(f, back) => {
+                let n = f.write(buf)?;
+                if let Some(b) = back {
+                    b.wrote(n);
+                }
+                Ok(n)
+            }
+            Dest::Special(f) => f.write(buf),
             Dest::Stdout(s) => s.write(buf),
         }
     }
 
     fn flush(&mut self) -> io::Result<()> {
         match self {
-            Dest::Replace(f) | Dest::Special(f) => f.flush(),
+            Dest::Replace(f, _) | Dest::Special(f) => f.flush(),
             Dest::Stdout(s) => s.flush(),
         }
     }
@@ -254,7 +354,17 @@ impl Output {
         if let Ok(m) = fs::metadata(&target) {
             let _ = file.set_permissions(m.permissions());
         }
-        Ok((Dest::Replace(file), Some(temp)))
+        Ok((Dest::Replace(file, None), Some(temp)))
+    }
+
+    /// Reads the file back while it is written, on a helper thread
+    /// ([`Output::finish_read_back`] gives its digest); nothing for stdout
+    /// or a special file.
+    pub fn read_back(mut self) -> Output {
+        if let (Some(temp), Dest::Replace(_, back)) = (&self.temp, self.buf.get_mut()) {
+            *back = ReadBack::start(&temp.path);
+        }
+        self
     }
 
     /// An output to stdout, for `what`.
@@ -292,7 +402,15 @@ impl Output {
 
     /// Completes the output: flushes it; a file replaced is synced to the
     /// disk and renamed over its final name.
-    pub fn finish(mut self) -> Result<()> {
+    pub fn finish(self) -> Result<()> {
+        self.finish_read_back().map(drop)
+    }
+
+    /// [`Output::finish`], and the SHA-256 and size of the complete file as
+    /// read back ([`Output::read_back`]); `None` when not read back, or when
+    /// reading back failed or found other than the bytes written (the file
+    /// is then to be read again).
+    pub fn finish_read_back(mut self) -> Result<Option<FileDigest>> {
         self.flush()?;
         if let Some(e) = self.error.take() {
             return Err(e.into());
@@ -312,7 +430,7 @@ impl Output {
             ))
         })?;
         match dest {
-            Dest::Replace(file) => {
+            Dest::Replace(file, back) => {
                 file.sync_all().map_err(|e| {
                     io::Error::new(e.kind(), format!("cannot write {what} to {name}: {e}"))
                 })?;
@@ -328,10 +446,11 @@ impl Output {
                     temp.done = true;
                     sync_folder(&temp.target);
                 }
+                return Ok(back.and_then(ReadBack::finish));
             }
             Dest::Special(_) | Dest::Stdout(_) => {}
         }
-        Ok(())
+        Ok(None)
     }
 }
 
@@ -385,6 +504,24 @@ pub fn write_to<T>(
     }
 }
 
+/// [`write_to`], reading a file output back as it is written
+/// ([`Output::read_back`]): also gives the file's SHA-256 and size as read
+/// back, when it was.
+pub fn write_to_read_back<T>(
+    path: Option<&Path>,
+    what: &'static str,
+    f: impl FnOnce(&mut Output) -> Result<T>,
+) -> Result<(T, Option<FileDigest>)> {
+    let mut out = Output::open(path, what)?.read_back();
+    match f(&mut out) {
+        Ok(v) => {
+            let d = out.finish_read_back()?;
+            Ok((v, d))
+        }
+        Err(e) => Err(out.take_error().map_or(e, anyhow::Error::from)),
+    }
+}
+
 /// Writes `bytes` as the whole of the file `path` (see [`Output`]).
 pub fn write_file(path: &Path, what: &'static str, bytes: &[u8]) -> Result<()> {
     write_to(Some(path), what, |w| Ok(w.write_all(bytes)?))
@@ -407,6 +544,44 @@ mod tests {
         assert_eq!(fs::read_to_string(&p).unwrap(), "old\n");
         let names: Vec<_> = fs::read_dir(dir.path()).unwrap().collect();
         assert_eq!(names.len(), 1, "{names:?}");
+    }
+
+    /// A file read back as it is written: its digest is `sha256sum`'s
+    /// (coreutils, FIPS 180-4 SHA-256, a program apart from this crate) for
+    /// empty files, files shorter than one read-back step, and files of
+    /// many steps written in uneven pieces; an output dropped unfinished
+    /// gives none and leaves the old file.
+    #[test]
+    fn a_file_read_back_while_written_has_sha256sums_digest() {
+        let dir = tempfile::tempdir().unwrap();
+        let p = dir.path().join("out.csv");
+        let step = READ_BACK_STEP as usize;
+        for len in [0, 1, step - 1, step, 3 * step + 12_345] {
+            let data: Vec<u8> = (0..len).map(|i| (i * 7 % 251) as u8).collect();
+            let ((), d) = write_to_read_back(Some(&p), "records", |w| {
+                for piece in data.chunks(1 + len / 7) {
+                    w.write_all(piece)?;
+                }
+                Ok(())
+            })
+            .unwrap();
+            let out = std::process::Command::new("sha256sum")
+                .arg(&p)
+                .output()
+                .unwrap();
+            let want = String::from_utf8(out.stdout).unwrap()[..64].to_string();
+            let d = d.unwrap();
+            assert_eq!((d.sha256.as_str(), d.size), (want.as_str(), len as u64));
+        }
+        fs::write(&p, "old\n").unwrap();
+        let out = Output::file(&p, "records").unwrap().read_back();
+        let mut out = out;
+        out.write_all(&vec![b'x'; 2 * step]).unwrap();
+        drop(out);
+        assert_eq!(fs::read_to_string(&p).unwrap(), "old\n");
+        // stdout is not read back.
+        let ((), d) = write_to_read_back(None, "records", |_| Ok(())).unwrap();
+        assert_eq!(d, None);
     }
 
     #[test]

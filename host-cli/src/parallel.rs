@@ -22,8 +22,11 @@
 //! - A file holding `"` is read by the `csv` crate from the first chunk with a
 //!   quote on, here, in order.
 //!
-//! Memory is bounded whatever the length of the input: the reader is at most a
-//! few chunks ahead (bounded queues), and workers send closed intervals in
+//! Memory is bounded whatever the length of the input: the chunks read and
+//! not yet joined share one pool of buffers ([`Pool`]) of about
+//! `IN_FLIGHT_BYTES` (5 MiB: five chunks of the default 1 MiB; at least
+//! two per worker and one being read), so the reader waits rather than runs
+//! ahead; the queues are bounded too, and workers send closed intervals in
 //! small batches.
 
 use crate::exclusions::Exclusions;
@@ -43,7 +46,7 @@ use qc_core::{
 use crate::config::{StationFile, MAX_CHANNELS};
 use crate::engine::{Out, Sink, G};
 use crate::provenance::{DigestHandle, HashOn};
-use crate::reader::{FileReader, Head, Piece};
+use crate::reader::{Chunk, FileReader, Head, Piece, Pool};
 use crate::samples::{
     check_jump, csv_rows, file_len, steady_prefix, BadRow, Block, InputStats, Options, Parser,
     Progress, Records,
@@ -52,6 +55,19 @@ use crate::sensors::Epochs;
 
 /// Closed intervals per message from a worker.
 const BATCH: usize = 16;
+
+/// Bytes of samples in flight at most (read and not yet joined), as chunks
+/// of `--chunk-size` (five of the default 1 MiB); but never fewer chunks
+/// than two per worker and one being read, so that every worker has its
+/// next chunk queued.
+const IN_FLIGHT_BYTES: usize = 5 << 20;
+
+/// The chunks in flight at most for `jobs` workers and chunks of `size`:
+/// [`IN_FLIGHT_BYTES`] of them, but never fewer than two per worker and one
+/// being read.
+fn chunks_in_flight(jobs: usize, size: usize) -> usize {
+    (IN_FLIGHT_BYTES / size.max(1)).max(2 * jobs + 1)
+}
 
 /// Replays `files` with `opts.jobs` workers; returns what was read, the
 /// station's push totals and each channel's recovery since start.
@@ -76,7 +92,7 @@ struct Job {
     file: usize,
     /// Line of the chunk's first byte.
     line: u64,
-    bytes: Arc<Vec<u8>>,
+    bytes: Chunk,
     parser: Arc<Parser>,
 }
 
@@ -89,7 +105,7 @@ enum Item {
         file: usize,
         line: u64,
         end: u64,
-        bytes: Arc<Vec<u8>>,
+        bytes: Chunk,
         parser: Arc<Parser>,
     },
     /// The rest of a file holding quotes, read here, from line `line`.
@@ -775,9 +791,13 @@ fn reader(
     workers: Vec<SyncSender<Job>>,
     order: SyncSender<Item>,
 ) {
-    let mut next = 0usize;
+    let mut turn = Turn {
+        next: 0,
+        // One pool for every file: the bound holds across files too.
+        pool: Pool::new(chunks_in_flight(workers.len(), opts.chunk_size)),
+    };
     for (i, path) in files.iter().enumerate() {
-        match read_file(i, path, cfg, &opts, &workers, &order, &mut next) {
+        match read_file(i, path, cfg, &opts, &workers, &order, &mut turn) {
             Ok(digest) => {
                 if order.send(Item::FileDone { digest }).is_err() {
                     return;
@@ -792,6 +812,13 @@ fn reader(
     }
 }
 
+/// Where the reader stands across files: the worker whose turn is next, and
+/// the chunks' buffers.
+struct Turn {
+    next: usize,
+    pool: Pool,
+}
+
 fn read_file(
     index: usize,
     path: &Path,
@@ -799,12 +826,12 @@ fn read_file(
     opts: &Options,
     workers: &[SyncSender<Job>],
     order: &SyncSender<Item>,
-    next: &mut usize,
+    turn: &mut Turn,
 ) -> Result<Option<DigestHandle>> {
     let closed = || anyhow!("closed");
     // The digest on this thread, which has time to spare: the workers replay.
     let hash = opts.digests.then_some(HashOn::Inline);
-    let mut reader = FileReader::open_hashed(path, cfg, hash)?;
+    let mut reader = FileReader::open_hashed(path, cfg, hash)?.with_pool(turn.pool.clone());
     let digest = reader.digest();
     while let Some(piece) = reader.next_piece(opts.chunk_size)? {
         match piece {
@@ -825,14 +852,13 @@ fn read_file(
                 bytes,
                 parser,
             } => {
-                let bytes = Arc::new(bytes);
-                let worker = *next;
-                *next = (*next + 1) % workers.len();
+                let worker = turn.next;
+                turn.next = (turn.next + 1) % workers.len();
                 workers[worker]
                     .send(Job {
                         file: index,
                         line,
-                        bytes: Arc::clone(&bytes),
+                        bytes: bytes.clone(),
                         parser: Arc::clone(&parser),
                     })
                     .map_err(|_| closed())?;

@@ -30,8 +30,10 @@
 //!   read (a `.gz` file's compressed bytes), `size` its length in bytes.
 //! - `config_fingerprint`: `qc_core::config_fingerprint` of the station file,
 //!   the value a logger's frames carry.
-//! - `output`: the file written, hashed by reading it back after it was
-//!   written; a report's output is its `report.html`.
+//! - `output`: the file written, hashed by reading it back from the file
+//!   (`replay`: by a helper thread reading each part back once written, and
+//!   the rest once the file is complete, [`crate::output::Output::read_back`];
+//!   else after it was written); a report's output is its `report.html`.
 //! - The provenance file is written after the output, atomically
 //!   (`output.rs`). An output to stdout gets none: there is no file to put it
 //!   beside (say `-o FILE` to have one).
@@ -53,6 +55,7 @@ use serde::{Deserialize, Serialize};
 use sha2::{Digest, Sha256};
 
 use crate::config::StationFile;
+use crate::reader::Chunk;
 
 /// The format name this code writes and reads.
 pub const FORMAT: &str = "tenmin-provenance/1";
@@ -168,39 +171,116 @@ const FEED_BUFFERS: usize = 3;
 
 /// What the reading side hands the helper thread.
 enum Feed {
+    /// Bytes copied for it; the buffer is handed back.
     Bytes(Vec<u8>),
+    /// A piece's own bytes, shared (no copy); dropped once hashed, so that
+    /// the buffer returns to its reader's pool.
+    Shared(Chunk),
     /// The end of the file was read: finish the digest.
     End,
 }
 
-/// The helper thread's inbox and the buffers it hands back.
-struct Helper {
+/// The feeding end of a hash helper thread: bytes go to it in file order,
+/// copied ([`Feeder::copy`]) or shared ([`Feeder::share`]); the digest is
+/// given once [`Feeder::end`] was sent. Dropped before that, it gives none.
+pub struct Feeder {
     tx: SyncSender<Feed>,
     back: Receiver<Vec<u8>>,
-    /// The buffer being filled.
+    /// The buffer being filled by [`Feeder::copy`].
     cur: Vec<u8>,
     /// Buffers made so far (at most [`FEED_BUFFERS`]).
     made: usize,
+    /// Set when the end was sent.
+    ended: Arc<AtomicBool>,
 }
 
-impl Helper {
+impl Feeder {
+    /// Starts a hash thread; its digest comes through the handle.
+    pub fn spawn() -> (Feeder, DigestHandle) {
+        let (tx, rx) = sync_channel::<Feed>(FEED_BUFFERS - 1);
+        let (back_tx, back) = channel::<Vec<u8>>();
+        let result = Arc::new(OnceLock::new());
+        let ended = Arc::new(AtomicBool::new(false));
+        let out = Arc::clone(&result);
+        let thread = std::thread::spawn(move || {
+            let mut h = Sha256::new();
+            let mut size = 0u64;
+            for feed in rx {
+                match feed {
+                    Feed::Bytes(mut b) => {
+                        h.update(&b);
+                        size += b.len() as u64;
+                        b.clear();
+                        let _ = back_tx.send(b);
+                    }
+                    Feed::Shared(c) => {
+                        h.update(&c);
+                        size += c.len() as u64;
+                    }
+                    Feed::End => {
+                        let _ = out.set(FileDigest {
+                            sha256: hex(h),
+                            size,
+                        });
+                        return;
+                    }
+                }
+            }
+            // The reader was dropped before the end: no digest.
+        });
+        let feeder = Feeder {
+            tx,
+            back,
+            cur: Vec::new(),
+            made: 0,
+            ended: Arc::clone(&ended),
+        };
+        let handle = DigestHandle {
+            ended,
+            result,
+            helper: Some(thread),
+        };
+        (feeder, handle)
+    }
+
     /// Copies `bytes` into buffers for the helper; false if it is gone.
-    fn feed(&mut self, mut bytes: &[u8]) -> bool {
+    pub fn copy(&mut self, mut bytes: &[u8]) -> bool {
         while !bytes.is_empty() {
+            if self.cur.capacity() == 0 && !self.next_buffer() {
+                return false;
+            }
             let take = (FEED_BYTES - self.cur.len()).min(bytes.len());
             self.cur.extend_from_slice(&bytes[..take]);
             bytes = &bytes[take..];
-            if self.cur.len() == FEED_BYTES && !self.send() {
+            if self.cur.len() == FEED_BYTES && !self.send_cur() {
                 return false;
             }
         }
         true
     }
 
-    /// Sends the buffer being filled and takes the next; false if the
-    /// helper is gone.
-    fn send(&mut self) -> bool {
-        let next = match self.back.try_recv() {
+    /// Hands `chunk` itself to the helper, after the bytes copied before
+    /// it; false if the helper is gone.
+    pub fn share(&mut self, chunk: Chunk) -> bool {
+        if !self.cur.is_empty() && !self.send_cur() {
+            return false;
+        }
+        chunk.is_empty() || self.tx.send(Feed::Shared(chunk)).is_ok()
+    }
+
+    /// The end of the file: the digest of everything fed is finished.
+    pub fn end(mut self) -> bool {
+        let ok = (self.cur.is_empty() || self.send_cur()) && self.tx.send(Feed::End).is_ok();
+        if ok {
+            self.ended.store(true, Ordering::Release);
+        }
+        ok
+    }
+
+    /// Takes a buffer to copy into: one handed back, a new one while fewer
+    /// than [`FEED_BUFFERS`] exist, else waits for one.
+    fn next_buffer(&mut self) -> bool {
+        self.cur = match self.back.try_recv() {
             Ok(b) => b,
             Err(_) if self.made < FEED_BUFFERS => {
                 self.made += 1;
@@ -211,14 +291,19 @@ impl Helper {
                 Err(_) => return false,
             },
         };
-        let full = std::mem::replace(&mut self.cur, next);
+        true
+    }
+
+    /// Sends the buffer being filled; false if the helper is gone.
+    fn send_cur(&mut self) -> bool {
+        let full = std::mem::take(&mut self.cur);
         self.tx.send(Feed::Bytes(full)).is_ok()
     }
 }
 
 enum Hasher {
     Inline(Box<Sha256>),
-    Helper(Helper),
+    Helper(Feeder),
 }
 
 /// A reader that hashes every byte read through it, in order, and gives the
@@ -263,47 +348,19 @@ impl<R: Read> Hashing<R> {
     pub fn new(inner: R, on: HashOn) -> (Self, DigestHandle) {
         let ended = Arc::new(AtomicBool::new(false));
         let result = Arc::new(OnceLock::new());
-        let (hasher, helper) = match on {
-            HashOn::Inline => (Hasher::Inline(Box::default()), None),
-            HashOn::Helper => {
-                let (tx, rx) = sync_channel::<Feed>(FEED_BUFFERS - 1);
-                let (back_tx, back) = channel::<Vec<u8>>();
-                let out = Arc::clone(&result);
-                let thread = std::thread::spawn(move || {
-                    let mut h = Sha256::new();
-                    let mut size = 0u64;
-                    for feed in rx {
-                        match feed {
-                            Feed::Bytes(mut b) => {
-                                h.update(&b);
-                                size += b.len() as u64;
-                                b.clear();
-                                let _ = back_tx.send(b);
-                            }
-                            Feed::End => {
-                                let _ = out.set(FileDigest {
-                                    sha256: hex(h),
-                                    size,
-                                });
-                                return;
-                            }
-                        }
-                    }
-                    // The reader was dropped before the end: no digest.
-                });
-                let helper = Helper {
-                    tx,
-                    back,
-                    cur: Vec::with_capacity(FEED_BYTES),
-                    made: 1,
+        let (hasher, handle) = match on {
+            HashOn::Inline => {
+                let handle = DigestHandle {
+                    ended: Arc::clone(&ended),
+                    result: Arc::clone(&result),
+                    helper: None,
                 };
-                (Hasher::Helper(helper), Some(thread))
+                (Hasher::Inline(Box::default()), handle)
             }
-        };
-        let handle = DigestHandle {
-            ended: Arc::clone(&ended),
-            result: Arc::clone(&result),
-            helper,
+            HashOn::Helper => {
+                let (feeder, handle) = Feeder::spawn();
+                (Hasher::Helper(feeder), handle)
+            }
         };
         let me = Hashing {
             inner,
@@ -315,23 +372,34 @@ impl<R: Read> Hashing<R> {
         (me, handle)
     }
 
+    /// Hashes what is read from `inner` on `feeder`'s thread, after what it
+    /// was fed already; its handle gives the digest once `inner`'s end is
+    /// read.
+    pub fn with_feeder(inner: R, feeder: Feeder) -> Self {
+        Hashing {
+            inner,
+            hasher: Some(Hasher::Helper(feeder)),
+            size: 0,
+            ended: Arc::new(AtomicBool::new(false)),
+            result: Arc::new(OnceLock::new()),
+        }
+    }
+
     fn end(&mut self) {
-        let ok = match self.hasher.take() {
-            None => return,
-            Some(Hasher::Inline(h)) => self
-                .result
-                .set(FileDigest {
+        match self.hasher.take() {
+            None => {}
+            Some(Hasher::Inline(h)) => {
+                let d = FileDigest {
                     sha256: hex(*h),
                     size: self.size,
-                })
-                .is_ok(),
-            Some(Hasher::Helper(mut helper)) => {
-                let cur = std::mem::take(&mut helper.cur);
-                helper.tx.send(Feed::Bytes(cur)).is_ok() && helper.tx.send(Feed::End).is_ok()
+                };
+                if self.result.set(d).is_ok() {
+                    self.ended.store(true, Ordering::Release);
+                }
             }
-        };
-        if ok {
-            self.ended.store(true, Ordering::Release);
+            Some(Hasher::Helper(feeder)) => {
+                feeder.end();
+            }
         }
     }
 }
@@ -358,7 +426,7 @@ impl<R: Read> Read for Hashing<R> {
                 self.size += n as u64;
                 true
             }
-            Some(Hasher::Helper(helper)) => helper.feed(&buf[..n]),
+            Some(Hasher::Helper(feeder)) => feeder.copy(&buf[..n]),
         };
         if !fed {
             // The helper is gone: no digest.
@@ -415,6 +483,20 @@ pub fn write_known(
     inputs: &[(String, PathBuf)],
     known: &[(PathBuf, FileDigest)],
 ) -> Result<()> {
+    write_read_back(output, cfg, inputs, known, None)
+}
+
+/// [`write_known`], taking the output's digest from `read_back` where given:
+/// the digest of the complete output as read back from the file while and
+/// after it was written ([`crate::output::Output::read_back`]); else the
+/// output is read again here.
+pub fn write_read_back(
+    output: &Path,
+    cfg: &StationFile,
+    inputs: &[(String, PathBuf)],
+    known: &[(PathBuf, FileDigest)],
+    read_back: Option<FileDigest>,
+) -> Result<()> {
     // A device or a pipe has no folder to put a file beside.
     if !std::fs::metadata(output).is_ok_and(|m| m.is_file()) {
         return Ok(());
@@ -450,7 +532,15 @@ pub fn write_known(
                 None => file_hash(Some(role), p),
             })
             .collect::<Result<_>>()?,
-        output: file_hash(None, output)?,
+        output: match read_back {
+            Some(d) => FileHash {
+                role: None,
+                path: output.to_string_lossy().into_owned(),
+                size: d.size,
+                sha256: d.sha256,
+            },
+            None => file_hash(None, output)?,
+        },
     };
     let mut json = serde_json::to_string_pretty(&prov)?;
     json.push('\n');

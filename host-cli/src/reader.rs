@@ -18,14 +18,15 @@
 
 use std::fs::File;
 use std::io::{self, Cursor, Read};
+use std::ops::Deref;
 use std::path::Path;
-use std::sync::Arc;
+use std::sync::{Arc, Condvar, Mutex, PoisonError};
 
 use anyhow::{Context, Result};
 
 use crate::config::StationFile;
 use crate::limits::{self, LongRecord, MAX_RECORD_BYTES};
-use crate::provenance::{DigestHandle, HashOn, Hashing};
+use crate::provenance::{DigestHandle, Feeder, HashOn, Hashing};
 use crate::samples::{split_fields, Parser, Records};
 use crate::table::{Delimiter, Table};
 
@@ -39,7 +40,7 @@ pub enum Piece {
         /// File offset after the chunk.
         end: u64,
         /// Whole records.
-        bytes: Vec<u8>,
+        bytes: Chunk,
         /// Reads the records (the file's header).
         parser: Arc<Parser>,
     },
@@ -54,6 +55,106 @@ pub enum Piece {
         head: Head,
     },
 }
+
+/// Buffers for the pieces of a [`FileReader`], at most `max` at once: a
+/// piece's buffer comes back here when the last holder of its [`Chunk`]
+/// drops it (the replay, a worker, the hash thread), and the reader waits for
+/// one when all are out. So the bytes in flight are bounded by `max` times the
+/// piece size (more only for a record longer than a piece), however far the
+/// reader could run ahead, and no buffer is allocated, zeroed or faulted in
+/// twice.
+#[derive(Clone)]
+pub struct Pool(Arc<PoolInner>);
+
+struct PoolInner {
+    /// Buffers free, and how many exist.
+    free: Mutex<(Vec<Vec<u8>>, usize)>,
+    back: Condvar,
+    max: usize,
+}
+
+impl Pool {
+    /// A pool of at most `max` buffers (at least 1).
+    pub fn new(max: usize) -> Pool {
+        Pool(Arc::new(PoolInner {
+            free: Mutex::new((Vec::new(), 0)),
+            back: Condvar::new(),
+            max: max.max(1),
+        }))
+    }
+
+    /// A free buffer, a new one while fewer than `max` exist, else the next
+    /// one handed back.
+    fn take(&self) -> Vec<u8> {
+        let mut g = self.0.free.lock().unwrap_or_else(PoisonError::into_inner);
+        loop {
+            if let Some(b) = g.0.pop() {
+                return b;
+            }
+            if g.1 < self.0.max {
+                g.1 += 1;
+                return Vec::new();
+            }
+            g = self.0.back.wait(g).unwrap_or_else(PoisonError::into_inner);
+        }
+    }
+
+    fn give(&self, b: Vec<u8>) {
+        let mut g = self.0.free.lock().unwrap_or_else(PoisonError::into_inner);
+        g.0.push(b);
+        drop(g);
+        self.0.back.notify_one();
+    }
+}
+
+/// The bytes of a piece, shared read-only by whoever reads them (the
+/// replay, a worker, the hash thread: cloning shares, never copies), and
+/// handed back to the reader's [`Pool`] when the last holder drops them.
+#[derive(Clone)]
+pub struct Chunk(Arc<Lease>);
+
+struct Lease {
+    bytes: Vec<u8>,
+    home: Option<Pool>,
+}
+
+impl Drop for Lease {
+    fn drop(&mut self) {
+        if let Some(pool) = self.home.take() {
+            pool.give(std::mem::take(&mut self.bytes));
+        }
+    }
+}
+
+impl Chunk {
+    fn new(bytes: Vec<u8>, home: Option<Pool>) -> Chunk {
+        Chunk(Arc::new(Lease { bytes, home }))
+    }
+}
+
+impl From<Vec<u8>> for Chunk {
+    /// Bytes of no pool.
+    fn from(bytes: Vec<u8>) -> Chunk {
+        Chunk::new(bytes, None)
+    }
+}
+
+impl Deref for Chunk {
+    type Target = [u8];
+    fn deref(&self) -> &[u8] {
+        &self.0.bytes
+    }
+}
+
+impl AsRef<[u8]> for Chunk {
+    fn as_ref(&self) -> &[u8] {
+        &self.0.bytes
+    }
+}
+
+/// Buffers of a [`FileReader`] by default: one being read, one or two being
+/// hashed (`--jobs 1` with a provenance file, [`HashOn::Helper`]).
+const POOL_BUFFERS: usize = 3;
 
 /// A samples file read piece by piece.
 pub struct FileReader<'a> {
@@ -72,8 +173,12 @@ pub struct FileReader<'a> {
     head: Head,
     /// The parser of the rows, once the preamble is read.
     parser: Option<Arc<Parser>>,
-    /// A piece's buffer handed back, to read the next into.
-    spare: Vec<u8>,
+    /// The pieces' buffers.
+    pool: Pool,
+    /// The hash thread fed with each chunk as cut (a plain file hashed on
+    /// a helper: the chunks are the file's bytes in order, shared, not
+    /// copied); `None` once the end was handed on, or after an error.
+    ring: Option<Feeder>,
     /// The digest of the file's bytes as stored, when asked for.
     digest: Option<DigestHandle>,
 }
@@ -89,8 +194,24 @@ impl<'a> FileReader<'a> {
     /// bytes as stored (a compressed file's compressed bytes), computed from
     /// the bytes read ([`Hashing`]): taken with [`FileReader::digest`] once
     /// the file was read.
+    ///
+    /// A plain file hashed on a helper ([`HashOn::Helper`]) is hashed from
+    /// the pieces' own buffers: each chunk cut is handed to the hash thread
+    /// as it is (a [`Chunk`] shared, no copy) and its buffer comes back to
+    /// the pool once hashed and read. A compressed file is hashed below its
+    /// decompressor ([`Hashing`]).
     pub fn open_hashed(path: &'a Path, cfg: &'a StationFile, hash: Option<HashOn>) -> Result<Self> {
-        let (file, digest) = open_maybe_compressed_hashed(path, hash)?;
+        let (file, digest, ring) =
+            if hash == Some(HashOn::Helper) && Compression::of(path) == Compression::None {
+                let file: Box<dyn Read + Send> = Box::new(
+                    File::open(path).with_context(|| format!("cannot open {}", path.display()))?,
+                );
+                let (feeder, handle) = Feeder::spawn();
+                (file, Some(handle), Some(feeder))
+            } else {
+                let (file, digest) = open_maybe_compressed_hashed(path, hash)?;
+                (file, digest, None)
+            };
         Ok(FileReader {
             path,
             cfg,
@@ -101,9 +222,17 @@ impl<'a> FileReader<'a> {
             line: 1,
             head: Head::default(),
             parser: None,
-            spare: Vec::new(),
+            pool: Pool::new(POOL_BUFFERS),
+            ring,
             digest,
         })
+    }
+
+    /// Takes the pieces' buffers from `pool` (shared by the files of a
+    /// parallel replay, so that its bound holds across them).
+    pub fn with_pool(mut self, pool: Pool) -> Self {
+        self.pool = pool;
+        self
     }
 
     /// The handle of the file's digest (with [`FileReader::open_hashed`]),
@@ -113,10 +242,12 @@ impl<'a> FileReader<'a> {
         self.digest.take()
     }
 
-    /// Hands a piece's bytes back, to be filled with the next piece (its
+    /// Hands a piece's bytes back, to be filled with a later piece (its
     /// whole capacity is reused; only what lies past its length is zeroed).
-    pub fn recycle(&mut self, bytes: Vec<u8>) {
-        self.spare = bytes;
+    /// Dropping the [`Chunk`] does the same: its buffer returns to the pool
+    /// once its last holder drops it.
+    pub fn recycle(&mut self, bytes: Chunk) {
+        drop(bytes);
     }
 
     /// Whether the file held a header, or data rows for a layout without
@@ -140,9 +271,14 @@ impl<'a> FileReader<'a> {
             let quotes = self.cfg.table.csv_delimiter().is_some();
             if quotes && memchr::memchr(b'"', &block).is_some() {
                 let file = self.file.take().unwrap_or_else(|| Box::new(io::empty()));
-                let rest = Cursor::new(block)
-                    .chain(Cursor::new(std::mem::take(&mut self.carry)))
-                    .chain(file);
+                let after = Cursor::new(std::mem::take(&mut self.carry)).chain(file);
+                // The chunk was hashed as cut; what follows is hashed as the
+                // tail reads it, by the same thread, in order.
+                let after: Box<dyn Read + Send> = match self.ring.take() {
+                    Some(feeder) => Box::new(Hashing::with_feeder(after, feeder)),
+                    None => Box::new(after),
+                };
+                let rest = Cursor::new(block).chain(after);
                 return Ok(Some(Piece::Tail {
                     line,
                     rest: Box::new(rest),
@@ -177,7 +313,7 @@ impl<'a> FileReader<'a> {
                     }
                     match (start, self.head.ready()) {
                         (Some((pos, at)), Some(p)) => {
-                            let body = block[pos..].to_vec();
+                            let body = Chunk::from(block[pos..].to_vec());
                             first_row_time(self.path, self.cfg, p, &body, at)?;
                             self.parser = Some(Arc::new(p.clone()));
                             (body, at)
@@ -207,14 +343,38 @@ impl<'a> FileReader<'a> {
 
     /// The next chunk of about `size` bytes (more if a record is longer, up
     /// to the limit) and its file offset; `None` at the end of the file.
-    fn chunk(&mut self, size: usize) -> io::Result<Option<(u64, Vec<u8>)>> {
+    /// The chunks are the file's (decompressed) bytes, in order, each once.
+    fn chunk(&mut self, size: usize) -> io::Result<Option<(u64, Chunk)>> {
+        let r = self.cut(size);
+        match (&r, self.ring.as_mut()) {
+            (_, None) => {}
+            (Ok(Some((_, c))), Some(feeder)) => {
+                if !feeder.share(c.clone()) {
+                    // The hash thread is gone: no digest.
+                    self.ring = None;
+                }
+            }
+            (Ok(None), Some(_)) => {
+                if self.file.is_some() {
+                    if let Some(feeder) = self.ring.take() {
+                        feeder.end();
+                    }
+                }
+            }
+            // Never a digest of part of a file.
+            (Err(_), Some(_)) => self.ring = None,
+        }
+        r
+    }
+
+    fn cut(&mut self, size: usize) -> io::Result<Option<(u64, Chunk)>> {
         let Some(file) = self.file.as_mut() else {
             return Ok(None);
         };
-        // A piece handed back ([`FileReader::recycle`]) is filled again: no
+        // A piece's buffer handed back to the pool is filled again: no
         // fresh allocation, zeroing or page faults per piece; reads go
         // straight into it, as large as it is.
-        let mut buf = std::mem::take(&mut self.spare);
+        let mut buf = self.pool.take();
         let room = size.max(self.carry.len() * 2).max(64);
         if buf.len() < room {
             buf.resize(room, 0);
@@ -245,7 +405,11 @@ impl<'a> FileReader<'a> {
             }
             buf.truncate(filled);
             self.offset = offset + filled as u64;
-            return Ok((filled > 0).then_some((offset, buf)));
+            if filled == 0 {
+                self.pool.give(buf);
+                return Ok(None);
+            }
+            return Ok(Some((offset, Chunk::new(buf, Some(self.pool.clone())))));
         }
     }
 }
@@ -445,6 +609,156 @@ pub fn count_newlines(b: &[u8]) -> u64 {
 #[cfg(test)]
 mod tests {
     use super::*;
+    use std::process::Command;
+
+    /// `sha256sum FILE` (coreutils, FIPS 180-4 SHA-256, a program apart
+    /// from this crate), lowercase hex.
+    fn sha256sum(path: &Path) -> String {
+        let out = Command::new("sha256sum").arg(path).output().unwrap();
+        assert!(out.status.success());
+        String::from_utf8(out.stdout).unwrap()[..64].to_string()
+    }
+
+    fn station(dir: &Path) -> StationFile {
+        let p = dir.join("station.toml");
+        std::fs::write(
+            &p,
+            "[logging]\ninterval_s = 600\nsample_rate_hz = 1\n\n\
+             [[channel]]\nid = \"ws\"\nkind = \"speed\"\nresolution = 0.01\n",
+        )
+        .unwrap();
+        crate::config::load(&p).unwrap()
+    }
+
+    /// Reads `path` piece by piece of `size` bytes, each piece dropped
+    /// before the next (as the sequential replay does), stopping after
+    /// `stop` pieces if given; returns the digest handle's answer.
+    fn digest_of(
+        path: &Path,
+        cfg: &StationFile,
+        size: usize,
+        stop: Option<usize>,
+    ) -> Result<Option<crate::provenance::FileDigest>> {
+        let mut r = FileReader::open_hashed(path, cfg, Some(HashOn::Helper))?;
+        let handle = r.digest().unwrap();
+        let mut n = 0;
+        let read = loop {
+            if stop == Some(n) {
+                break Ok(());
+            }
+            match r.next_piece(size) {
+                Ok(Some(Piece::Rows { bytes, .. })) => r.recycle(bytes),
+                Ok(Some(Piece::Tail { mut rest, .. })) if stop.is_some() => {
+                    // The tail read in part, then dropped.
+                    break rest.read_exact(&mut [0u8; 100]).map_err(Into::into);
+                }
+                Ok(Some(Piece::Tail { mut rest, .. })) => {
+                    break rest
+                        .read_to_end(&mut Vec::new())
+                        .map(drop)
+                        .map_err(Into::into)
+                }
+                Ok(None) => break Ok(()),
+                Err(e) => break Err(e),
+            }
+            n += 1;
+        };
+        drop(r);
+        read.map(|()| handle.finish())
+    }
+
+    /// The chunks of a plain file, shared with the hash thread as cut (no
+    /// copy): the digest is `sha256sum`'s for files ending on a piece's
+    /// edge, one byte either side, without a final newline, empty, holding
+    /// only a header, or going on in the `csv` crate's tail after a quote;
+    /// a reader dropped before the end, or stopped by a record over the
+    /// limit (a read error), gives none.
+    #[test]
+    fn chunks_hashed_as_cut_give_the_files_digest_or_none() {
+        let dir = tempfile::tempdir().unwrap();
+        let cfg = station(dir.path());
+        let row = |i: i64| format!("{},{}.{:02}\n", 1_737_331_200 + i, 3 + i % 9, i % 100);
+        let header = "time,ws\n";
+        let mut body = String::from(header);
+        while body.len() < 70_000 {
+            body.push_str(&row(body.len() as i64));
+        }
+        let size = 4096;
+        let mut cases: Vec<(String, String)> = vec![
+            ("empty".into(), String::new()),
+            ("header".into(), header.into()),
+            ("nonl".into(), body.trim_end().into()),
+            ("plain".into(), body.clone()),
+            ("quoted".into(), body.replacen(",5.", ",\"5.", 1)),
+        ];
+        // Files ending on a piece's edge, and one byte either side (cut
+        // anywhere in a row: a partial last line without a newline).
+        let edge = 3 * size;
+        for len in [edge - 1, edge, edge + 1] {
+            let mut t = String::from(header);
+            while t.len() < len {
+                t.push_str(&row(t.len() as i64));
+            }
+            t.truncate(len);
+            cases.push((format!("edge{len}"), t));
+        }
+        for (name, text) in &cases {
+            let path = dir.path().join(format!("{name}.csv"));
+            std::fs::write(&path, text).unwrap();
+            let want = crate::provenance::FileDigest {
+                sha256: sha256sum(&path),
+                size: text.len() as u64,
+            };
+            for piece in [64, size, 1 << 20] {
+                let got = digest_of(&path, &cfg, piece, None).unwrap();
+                assert_eq!(got, Some(want.clone()), "{name} {piece}");
+            }
+            if text.len() > 2 * size {
+                let got = digest_of(&path, &cfg, size, Some(1)).unwrap();
+                assert_eq!(got, None, "{name}: read in part");
+            }
+        }
+        // A record over the limit stops the reading with an error: no digest.
+        let path = dir.path().join("long.csv");
+        let mut long = body.clone();
+        long.push_str(&"9".repeat(3 * MAX_RECORD_BYTES));
+        long.push('\n');
+        std::fs::write(&path, &long).unwrap();
+        assert!(digest_of(&path, &cfg, size, None).is_err());
+        let mut r = FileReader::open_hashed(&path, &cfg, Some(HashOn::Helper)).unwrap();
+        let handle = r.digest().unwrap();
+        while let Ok(Some(_)) = r.next_piece(size) {}
+        // Asked again after the error: still none.
+        let _ = r.next_piece(size);
+        drop(r);
+        assert_eq!(handle.finish(), None);
+    }
+
+    /// A pool hands out at most its number of buffers; the next waits until
+    /// the last holder of a chunk drops it, and gets that buffer back.
+    #[test]
+    fn a_pool_bounds_the_buffers_out() {
+        let pool = Pool::new(2);
+        let a = Chunk::new(pool.take(), Some(pool.clone()));
+        let mut b = pool.take();
+        b.extend_from_slice(b"kept");
+        let b = Chunk::new(b, Some(pool.clone()));
+        let shared = b.clone();
+        let (tx, rx) = std::sync::mpsc::channel();
+        let p = pool.clone();
+        let t = std::thread::spawn(move || tx.send(p.take()).unwrap());
+        std::thread::sleep(std::time::Duration::from_millis(50));
+        assert!(rx.try_recv().is_err(), "a third buffer while two are out");
+        drop(b);
+        std::thread::sleep(std::time::Duration::from_millis(50));
+        assert!(rx.try_recv().is_err(), "a buffer still shared came back");
+        drop(shared);
+        let got = rx.recv().unwrap();
+        assert_eq!(got, b"kept");
+        t.join().unwrap();
+        drop(a);
+        assert_eq!(pool.0.free.lock().unwrap().1, 2);
+    }
 
     #[test]
     fn newlines_counted_in_blocks() {

@@ -2,7 +2,8 @@
 //! SHA-256 and size, computed in the replay's own reading of it: checked
 //! against coreutils `sha256sum` (FIPS 180-4 SHA-256, run here as a separate
 //! program) and the file system's size, for plain, `.gz` and `.zst` files, a
-//! last line without a newline, and `--jobs 1` and `--jobs 2`.
+//! last line without a newline, and `--jobs 1` and `--jobs 2`; and the
+//! records file's, read back while it was written.
 
 use std::io::Write;
 use std::path::Path;
@@ -78,6 +79,17 @@ fn replay_provenance_digests_match_sha256sum_for_every_kind_of_file() {
             assert_eq!(
                 s["size"].as_u64().unwrap(),
                 std::fs::metadata(d.join(name)).unwrap().len()
+            );
+            // The records file's digest, read back on a helper thread while
+            // it was written.
+            assert_eq!(
+                prov["output"]["sha256"].as_str().unwrap(),
+                sha256sum(&d.join("r.csv")),
+                "{name} -j {jobs}: output"
+            );
+            assert_eq!(
+                prov["output"]["size"].as_u64().unwrap(),
+                std::fs::metadata(d.join("r.csv")).unwrap().len()
             );
             let v = Command::new(BIN)
                 .args(["verify", "--provenance", "r.csv"])

@@ -92,6 +92,32 @@ fn ids(cfg: &StationFile) -> Vec<String> {
     cfg.channels.iter().map(|c| c.id.clone()).collect()
 }
 
+/// Runs `run` with the station file (`station_path` or `station_toml`)
+/// without holding the GIL, and hands the bytes it makes to Python: the
+/// one setup of the functions returning bytes.
+fn bytes_with_station<'py>(
+    py: Python<'py>,
+    station_path: Option<&str>,
+    station_toml: Option<&str>,
+    run: impl FnOnce(&StationFile) -> Result<Vec<u8>> + Send,
+) -> PyResult<Bound<'py, PyBytes>> {
+    let out = py
+        .allow_threads(|| run(&station(station_path, station_toml)?))
+        .map_err(py_err)?;
+    Ok(PyBytes::new_bound(py, &out))
+}
+
+/// The replay's options for `replay_files` and `verify_files`: `jobs`
+/// threads (at least one), no progress line, the rest as the command's
+/// defaults.
+fn options(jobs: usize) -> Options {
+    Options {
+        jobs: jobs.max(1),
+        progress: false,
+        ..Options::default()
+    }
+}
+
 /// Replays samples files (any layout the station file declares) as `tenmin
 /// replay` does; returns the records CSV.
 #[pyfunction]
@@ -105,21 +131,16 @@ fn replay_files<'py>(
     skip_bad_rows: bool,
     allow_no_records: bool,
 ) -> PyResult<Bound<'py, PyBytes>> {
-    let run = || -> Result<Vec<u8>> {
-        let cfg = station(station_path, station_toml)?;
-        let mut w = Writer::new(Vec::new(), ids(&cfg))?.with_sensors(cfg.sensors.clone());
+    bytes_with_station(py, station_path, station_toml, |cfg| {
+        let mut w = Writer::new(Vec::new(), ids(cfg))?.with_sensors(cfg.sensors.clone());
         let opts = Options {
-            jobs: jobs.max(1),
             skip_bad_rows,
             allow_no_records,
-            progress: false,
-            ..Options::default()
+            ..options(jobs)
         };
-        host_cli::replay::replay(&cfg, &paths, opts, &mut w)?;
+        host_cli::replay::replay(cfg, &paths, opts, &mut w)?;
         Ok(w.finish()?)
-    };
-    let out = py.allow_threads(run).map_err(py_err)?;
-    Ok(PyBytes::new_bound(py, &out))
+    })
 }
 
 /// An interval open at a chunk's end: its samples, in time order.
@@ -521,12 +542,9 @@ fn chunk_state<'py>(
     station_toml: Option<&str>,
 ) -> PyResult<Bound<'py, PyBytes>> {
     let data = batches(data)?;
-    let run = || -> Result<Vec<u8>> {
-        let cfg = station(station_path, station_toml)?;
-        by_size!(cfg, chunk_c(&cfg, &data))
-    };
-    let out = py.allow_threads(run).map_err(py_err)?;
-    Ok(PyBytes::new_bound(py, &out))
+    bytes_with_station(py, station_path, station_toml, |cfg| {
+        by_size!(cfg, chunk_c(cfg, &data))
+    })
 }
 
 /// Replays a frame (as [`chunk_state`] takes it) in one pass through the
@@ -541,17 +559,14 @@ fn replay_frame<'py>(
     station_toml: Option<&str>,
 ) -> PyResult<Bound<'py, PyBytes>> {
     let data = batches(data)?;
-    let run = || -> Result<Vec<u8>> {
-        let cfg = station(station_path, station_toml)?;
-        let mut w = Writer::new(Vec::new(), ids(&cfg))?.with_sensors(cfg.sensors.clone());
-        let mut engine = host_cli::engine::new(&cfg, &mut w)?;
+    bytes_with_station(py, station_path, station_toml, |cfg| {
+        let mut w = Writer::new(Vec::new(), ids(cfg))?.with_sensors(cfg.sensors.clone());
+        let mut engine = host_cli::engine::new(cfg, &mut w)?;
         let opts = Options::default();
-        columnar::feed_batches(Path::new(FRAME), &data, &cfg, opts, engine.as_mut(), true)?;
+        columnar::feed_batches(Path::new(FRAME), &data, cfg, opts, engine.as_mut(), true)?;
         drop(engine);
         Ok(w.finish()?)
-    };
-    let out = py.allow_threads(run).map_err(py_err)?;
-    Ok(PyBytes::new_bound(py, &out))
+    })
 }
 
 /// The report's tables from records files, as `tenmin report` writes them:
@@ -600,12 +615,9 @@ fn merge_states<'py>(
     station_path: Option<&str>,
     station_toml: Option<&str>,
 ) -> PyResult<Bound<'py, PyBytes>> {
-    let run = || -> Result<Vec<u8>> {
-        let cfg = station(station_path, station_toml)?;
-        by_size!(cfg, merge_c(&cfg, &states))
-    };
-    let out = py.allow_threads(run).map_err(py_err)?;
-    Ok(PyBytes::new_bound(py, &out))
+    bytes_with_station(py, station_path, station_toml, |cfg| {
+        by_size!(cfg, merge_c(cfg, &states))
+    })
 }
 
 /// The records CSV of a state holding all the samples.
@@ -617,12 +629,9 @@ fn finish_state<'py>(
     station_path: Option<&str>,
     station_toml: Option<&str>,
 ) -> PyResult<Bound<'py, PyBytes>> {
-    let run = || -> Result<Vec<u8>> {
-        let cfg = station(station_path, station_toml)?;
-        by_size!(cfg, finish_c(&cfg, &state))
-    };
-    let out = py.allow_threads(run).map_err(py_err)?;
-    Ok(PyBytes::new_bound(py, &out))
+    bytes_with_station(py, station_path, station_toml, |cfg| {
+        by_size!(cfg, finish_c(cfg, &state))
+    })
 }
 
 /// One difference of `verify`: start, channel, kind, column, replay value,
@@ -660,12 +669,7 @@ fn verify_files(
         cfg.exclusions = Default::default();
         let mut cmp = Comparer::open(&records, cfg.station, ids(&cfg), max_diffs)?
             .with_sensors(cfg.sensors.clone());
-        let opts = Options {
-            jobs: jobs.max(1),
-            progress: false,
-            ..Options::default()
-        };
-        host_cli::replay::replay(&cfg, &paths, opts, &mut cmp)?;
+        host_cli::replay::replay(&cfg, &paths, options(jobs), &mut cmp)?;
         let r = cmp.finish()?;
         let shown = r
             .shown
