@@ -553,6 +553,24 @@ impl<const C: usize> Layout<C> {
         result
     }
 
+    /// [`Layout::rebuild_at_run_time`] without the reset on an error: then
+    /// `self` is left partly validated, a layout to discard, not to run a
+    /// station on (it is still a `Layout` value; it may hold any channel
+    /// the station's settings gave). For a caller that marks the memory
+    /// unusable on an error anyway (the C interface's layout block): it
+    /// links no [`Layout::placeholder`] reset.
+    ///
+    /// # Errors
+    ///
+    /// As [`Layout::rebuild_at_run_time`].
+    pub fn rebuild_no_reset<const G: usize>(
+        &mut self,
+        station: StationConfig,
+        channels: &[ChannelConfig; C],
+    ) -> Result<(), ConfigError> {
+        self.validate::<G>(station, channels)
+    }
+
     /// Makes `self` [`Layout::placeholder`] again, a channel at a time.
     fn reset(&mut self) {
         self.interval_ms = 600_000;
@@ -679,6 +697,20 @@ impl<const C: usize> Layout<C> {
             self.reset();
         }
         result
+    }
+
+    /// [`Layout::load_image`] without the reset on an error: then `self` is
+    /// left partly written, a layout to discard, not to run a station on (it
+    /// is still a `Layout` value; its channels may hold any fields the
+    /// image's bytes gave). For a caller that marks the memory unusable on
+    /// an error anyway (the C interface's layout block): it links no
+    /// [`Layout::placeholder`] reset.
+    ///
+    /// # Errors
+    ///
+    /// As [`Layout::load_image`].
+    pub fn load_image_no_reset<const G: usize>(&mut self, image: &[u8]) -> Result<(), ImageError> {
+        self.read_image::<G>(image)
     }
 
     /// The work of [`Layout::load_image`] (`self` partly written on an
@@ -2690,10 +2722,18 @@ mod image_tests {
                 let mut bad = image.clone();
                 bad[i] ^= bit;
                 back.load_image::<3>(&image).unwrap();
-                assert!(back.load_image::<3>(&bad).is_err(), "byte {i} bit {bit:#x}");
+                let refused = back.load_image::<3>(&bad);
+                assert!(refused.is_err(), "byte {i} bit {bit:#x}");
                 assert_eq!(back, Layout::<5>::placeholder(), "byte {i}");
+                // Without the reset: the same answer (its layout is discarded).
+                let mut spoiled = Layout::<5>::placeholder();
+                assert_eq!(spoiled.load_image_no_reset::<3>(&bad), refused, "byte {i}");
             }
         }
+        let mut fresh = Layout::<5>::placeholder();
+        assert_eq!(fresh.load_image_no_reset::<3>(&image), Ok(()));
+        back.load_image::<3>(&image).unwrap();
+        assert_eq!(fresh, back);
         assert_eq!(
             back.load_image::<3>(&image[..image.len() - 1]),
             Err(ImageError::Length)

@@ -76,7 +76,7 @@ impl<const C: usize> LayoutMem<C> {
         let used = configs.get(..channels.len()).unwrap_or(&[]);
         let fingerprint = config_fingerprint(&station, used);
         self.layout
-            .rebuild_at_run_time::<G>(station, &configs)
+            .rebuild_no_reset::<G>(station, &configs)
             .map_err(types::config_error)?;
         self.head = LayoutHead {
             magic: LAYOUT_MAGIC,
@@ -155,7 +155,7 @@ impl<const C: usize> LayoutMem<C> {
         }
         // The core checks its own part (format, shape, length, CRC) too;
         // this CRC covers the head.
-        match self.layout.load_image::<G>(core) {
+        match self.layout.load_image_no_reset::<G>(core) {
             Ok(()) => {}
             Err(ImageError::Shape) => return Err(tm_status::TM_ERR_IMAGE_SHAPE),
             Err(ImageError::Crc) => return Err(tm_status::TM_ERR_IMAGE_CRC),

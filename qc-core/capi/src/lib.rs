@@ -1404,5 +1404,13 @@ mod tests {
             Err(ConfigError::Interval)
         );
         assert_eq!(*layout, Layout::<3>::PLACEHOLDER);
+        // Without the reset (the build's way: its block is marked unusable
+        // on an error): the same answers.
+        assert_eq!(
+            layout.rebuild_no_reset::<3>(bad, &ok),
+            Err(ConfigError::Interval)
+        );
+        layout.rebuild_no_reset::<3>(st, &ok).unwrap();
+        assert_eq!(*layout, Layout::new::<3>(st, &ok).unwrap());
     }
 }
