@@ -541,7 +541,8 @@ pub unsafe extern "C" fn tm_layout_info(
 }
 
 /// Bytes of the longest layout image (`tm_layout_image`), of shape `c16g12`;
-/// an image of a smaller shape is shorter (`c8g3`: 2,122 B).
+/// an image of a smaller shape is shorter (`c8g3`: 2,122 B at most), and an
+/// image is shorter by the values of its layout's options that are none.
 pub const TM_LAYOUT_IMAGE_MAX_SIZE: usize = 4138;
 const _: () = assert!(
     engine::image_len::<16>() == TM_LAYOUT_IMAGE_MAX_SIZE && engine::image_len::<8>() == 2122
