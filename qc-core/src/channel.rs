@@ -2113,69 +2113,104 @@ impl Channel {
         }
     }
 
-    /// Reads a channel [`Channel::write_image`] wrote (fields in the same
-    /// order: a struct expression evaluates its fields as written); whether
-    /// it was good is the reader's [`ImageReader::ok`].
-    pub(crate) fn read_image(r: &mut ImageReader<'_>) -> Self {
-        Channel {
-            lo_k: r.i32(),
-            hi_k: r.i32(),
-            code_in_counts: r.flag(),
-            code_in_values: r.flag(),
-            gust_w: r.u16(),
-            spike_lim: r.u32(),
-            dir_inline_lo: r.i32(),
-            dir_fast_k: r.i32(),
-            offset_cd: r.i32(),
-            dir_mul: r.i64(),
-            dir_add: r.i64(),
-            inv_step: r.opt_f64(),
-            cfg: ChannelConfig {
-                kind: match r.u8() {
-                    0 => Kind::Speed,
-                    1 => Kind::Direction,
-                    2 => Kind::Scalar,
-                    _ => {
-                        r.ok = false;
-                        Kind::Scalar
-                    }
-                },
-                scale: Scale {
-                    offset: r.f64(),
-                    step: r.f64(),
-                },
-                range: (r.f64(), r.f64()),
-                gust_window: r.u16(),
-                mounting_offset_deg: r.f64(),
-                speed_channel: r.opt_u8(),
-                screen: Screen {
-                    step_limit: r.opt_f64(),
-                    mean_range: r.opt_pair(),
-                    sd_range: r.opt_pair(),
-                    gust_max: r.opt_f64(),
-                    min_recovery: r.opt_f64(),
-                    flat_span_s: r.opt_u32(),
-                    flat_tolerance: r.f64(),
-                    partner: r.opt_u8(),
-                    pair_mean_diff: r.f64(),
-                    pair_max_diff: r.f64(),
-                    above: r.opt_u8(),
-                    shear_tolerance: r.f64(),
-                    icing: r.flag().then(|| Icing {
-                        temperature: r.u8(),
-                        humidity: r.u8(),
-                        max_temperature: r.f64(),
-                        min_humidity: r.f64(),
-                    }),
-                },
-                recal: r.flag().then(|| Recal {
-                    logger_slope: r.f64(),
-                    logger_offset: r.f64(),
-                    cert_slope: r.f64(),
-                    cert_offset: r.f64(),
-                }),
-            },
-        }
+    /// Reads a channel [`Channel::write_image`] wrote into `self`, field by
+    /// field in place (in the writer's order; no channel on the stack to
+    /// copy, the loader's code in a logger's flash); whether it was good is
+    /// the reader's [`ImageReader::ok`]. The exhaustive destructuring fails
+    /// to compile when a field is added, as the writer's does.
+    pub(crate) fn read_image(&mut self, r: &mut ImageReader<'_>) {
+        let Channel {
+            lo_k,
+            hi_k,
+            code_in_counts,
+            code_in_values,
+            gust_w,
+            spike_lim,
+            dir_inline_lo,
+            dir_fast_k,
+            offset_cd,
+            dir_mul,
+            dir_add,
+            inv_step,
+            cfg,
+        } = self;
+        *lo_k = r.i32();
+        *hi_k = r.i32();
+        *code_in_counts = r.flag();
+        *code_in_values = r.flag();
+        *gust_w = r.u16();
+        *spike_lim = r.u32();
+        *dir_inline_lo = r.i32();
+        *dir_fast_k = r.i32();
+        *offset_cd = r.i32();
+        *dir_mul = r.i64();
+        *dir_add = r.i64();
+        *inv_step = r.opt_f64();
+        let ChannelConfig {
+            kind,
+            scale: Scale { offset, step },
+            range: (low, high),
+            gust_window,
+            mounting_offset_deg,
+            speed_channel,
+            screen,
+            recal,
+        } = cfg;
+        *kind = match r.u8() {
+            0 => Kind::Speed,
+            1 => Kind::Direction,
+            2 => Kind::Scalar,
+            _ => {
+                r.ok = false;
+                Kind::Scalar
+            }
+        };
+        *offset = r.f64();
+        *step = r.f64();
+        *low = r.f64();
+        *high = r.f64();
+        *gust_window = r.u16();
+        *mounting_offset_deg = r.f64();
+        *speed_channel = r.opt_u8();
+        let Screen {
+            step_limit,
+            mean_range,
+            sd_range,
+            gust_max,
+            min_recovery,
+            flat_span_s,
+            flat_tolerance,
+            partner,
+            pair_mean_diff,
+            pair_max_diff,
+            above,
+            shear_tolerance,
+            icing,
+        } = screen;
+        *step_limit = r.opt_f64();
+        *mean_range = r.opt_pair();
+        *sd_range = r.opt_pair();
+        *gust_max = r.opt_f64();
+        *min_recovery = r.opt_f64();
+        *flat_span_s = r.opt_u32();
+        *flat_tolerance = r.f64();
+        *partner = r.opt_u8();
+        *pair_mean_diff = r.f64();
+        *pair_max_diff = r.f64();
+        *above = r.opt_u8();
+        *shear_tolerance = r.f64();
+        *icing = r.flag().then(|| Icing {
+            temperature: r.u8(),
+            humidity: r.u8(),
+            max_temperature: r.f64(),
+            min_humidity: r.f64(),
+        });
+        *recal = r.flag().then(|| Recal {
+            logger_slope: r.f64(),
+            logger_offset: r.f64(),
+            cert_slope: r.f64(),
+            cert_offset: r.f64(),
+        });
     }
 }
 

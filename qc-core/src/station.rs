@@ -796,7 +796,7 @@ fn read_image(
     // layout validated for it).
     let mut gust_ok = true;
     for ch in channels.iter_mut() {
-        *ch = Channel::read_image(&mut r);
+        ch.read_image(&mut r);
         gust_ok &= usize::from(ch.config().gust_window) <= g;
     }
     let Some(sentinels) = sentinels else {
