@@ -267,6 +267,22 @@ share=$(($(flash "$(elf thumbv6m-none-eabi footprint)") - $(flash "$(elf thumbv6
 state_share=$(($(flash "$(elf thumbv6m-none-eabi footprint_states)") - $(flash "$(elf thumbv6m-none-eabi footprint_base)")))
 replay_share=$(($(flash "$(elf thumbv6m-none-eabi replay)") - $(flash "$(elf thumbv6m-none-eabi baseline)")))
 
+# The base must link exactly the runtime the measured loggers link (startup,
+# semihosting exit, the helpers of its own loop), so that "measured - base" is
+# qc-core's share alone (README "Methods and their limits"): every symbol of
+# footprint_base with a size, but its own program's, must be in each.
+base_only() { # base_only BINARY: footprint_base's symbols BINARY lacks
+  llvm-nm -C "$(elf thumbv6m-none-eabi "$1")" | awk '{ $1=""; $2=""; print substr($0,3) }' \
+    | sed 's/::h[0-9a-f]\{16\}$//' | sort -u >"$out/measured.syms"
+  llvm-nm -S -C "$(elf thumbv6m-none-eabi footprint_base)" | awk 'NF >= 4 && $3 ~ /^[tTrRdD]$/ {
+      $1=""; $2=""; $3=""; print substr($0,4) }' | sed 's/::h[0-9a-f]\{16\}$//' \
+    | grep -v '^footprint_base::' | sort -u | comm -23 - "$out/measured.syms"
+}
+for b in footprint_states footprint; do
+  extra=$(base_only "$b")
+  [ -z "$extra" ] || fail "footprint_base links what $b does not (the share would be understated): $extra"
+done
+echo "footprint_base links only runtime that footprint_states and footprint link too (no panic handler, no core::fmt)"
 echo
 # split BINARY: what BINARY adds to flash over footprint_base, by symbol (llvm-nm
 # sizes of the symbols it has and footprint_base has not; qc-core inlined into

@@ -86,7 +86,12 @@ cc_m0 -DSTATIONS_QUIET -DFOOTPRINT_STATES footprint.c stations.c "$lib_m0" -o "$
 cc_m0 -DSTATIONS_QUIET -DFOOTPRINT_RECORDS footprint.c stations.c "$lib_m0" -o "$out/footprint-records.elf"
 cc_m0 -DSTORED_LAYOUT -DFOOTPRINT_STATES footprint.c stored_layouts.c "$lib_m0" -o "$out/footprint-states-stored.elf"
 cc_m0 -DSTORED_LAYOUT -DFOOTPRINT_RECORDS footprint.c stored_layouts.c "$lib_m0" -o "$out/footprint-records-stored.elf"
-cc_m0 footprint.c -o "$out/footprint-base.elf"
+# The base links the library too, calling none of it: newlib's own calls to
+# memcpy, memset and the division helpers then resolve to the library's
+# compiler-builtins, as in the loggers (and -u __aeabi_idivmod: the signed
+# division the loggers' core pulls in, which serves newlib there), so that
+# base and loggers link the same runtime (checked below, README "Budgets").
+cc_m0 footprint.c -Wl,--undefined=__aeabi_idivmod "$lib_m0" -o "$out/footprint-base.elf"
 cc_m0 budget.c "$lib_m0" -o "$out/budget-m0.elf"
 cc_m4 budget.c "$lib_m4" -o "$out/budget-m4.elf"
 # Every entry point of every shape (nopanic_all.c; linked only, with the
@@ -171,13 +176,23 @@ record_share=$(($(flash "$out/footprint-records.elf") - base))
 stored_share=$(($(flash "$out/footprint-states-stored.elf") - base))
 stored_record_share=$(($(flash "$out/footprint-records-stored.elf") - base))
 arm-none-eabi-nm -C "$out/footprint-base.elf" | awk '{ $1=""; $2=""; print substr($0,3) }' | sort -u >base.syms
+# "measured - base" is the C interface's share alone only when the base links
+# nothing the measured logger does not (its runtime: startup, newlib, the
+# helpers): every symbol of the base with a size must be in each logger.
+for b in footprint-states footprint-records footprint-states-stored footprint-records-stored; do
+  arm-none-eabi-nm -C "$out/$b.elf" | awk '{ $1=""; $2=""; print substr($0,3) }' | sort -u >measured.syms
+  extra=$(arm-none-eabi-nm -S -C "$out/footprint-base.elf" | awk 'NF >= 4 && $3 ~ /^[tTrRdDwW]$/ {
+      $1=""; $2=""; $3=""; print substr($0,4) }' | sort -u | comm -23 - measured.syms)
+  [ -z "$extra" ] || fail "footprint-base links what $b does not (its share would be understated): $extra"
+done
+echo "footprint-base links only runtime that every measured C logger links too"
 split() { # split ELF SHARE: what ELF adds over footprint-base, by kind of symbol
   arm-none-eabi-nm -S -C --radix=d "$1" | awk '
     NR==FNR { base[$0]=1; next }
     $3 ~ /^[tTrRdDwW]$/ { size=$2+0; $1=""; $2=""; $3=""; n=substr($0,4);
       if (n in base) next;
-      if (n ~ /read_image|load_image|ImageReader|_LAYOUT$|tm_layout_load|crc::crc32$/) c="loading the stored layout (its image, 2,122 B, the checks and the reads)";
-      else if (n ~ /Layout<_>::reset|tenmin_qc::placeholder/) c="the placeholder layout a build or load starts from, and its reset after a refusal";
+      if (n ~ /read_image|load_image|ImageReader|_LAYOUT$|tm_layout_load|crc::crc32$/) c="loading the stored layout (its image, 1,492 B, the checks and the reads)";
+      else if (n ~ /Layout<_>::reset|tenmin_qc::placeholder/) c="the placeholder layout a build or load starts from (Layout::reset only where a refusal must leave it)";
       else if (n ~ /Channel::new|validate|Sentinels::new|config_fingerprint|note_codes|cmath::round|cmath::floor|LayoutMem|types::channel|types::station|_defaults|tm_layout_build|_station$|fp_opt|fp_index|Crc32::word/) c="building the layout at run time (the C settings, Layout::rebuild)";
       else if (n ~ /^tm_|tenmin_qc::/) c="the C interface (tm_*, frames into the caller buffer)";
       else if (n ~ /qc_core/) c="qc-core (sampling, state or record frames)";

@@ -7,8 +7,8 @@
 #include <stdint.h>
 
 /* The scenario station (scenario_station in stations.c). */
-extern const uint8_t SCENARIO_LAYOUT[2122];
+extern const uint8_t SCENARIO_LAYOUT[1492];
 /* The `tenmin demo` station (demo_station in stations.c). */
-extern const uint8_t DEMO_LAYOUT[2122];
+extern const uint8_t DEMO_LAYOUT[1497];
 
 #endif

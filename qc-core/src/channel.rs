@@ -209,7 +209,7 @@ impl Scale {
     }
 
     /// `1/step` when it is a whole number up to 2^20.
-    const fn inverse(&self) -> Option<f64> {
+    pub(crate) const fn inverse(&self) -> Option<f64> {
         if self.step > 1.0 {
             return None;
         }
@@ -2357,7 +2357,9 @@ impl ChannelRecord {
 // ---------------------------------------------------------------------------
 // A channel as bytes, for a layout image (`Layout::to_image`, station.rs):
 // every field, little-endian, in declaration order; an `Option` as a tag
-// byte (0 none, 1 some) and its value (zeros when none). Written from a
+// byte (0 none, 1 some) and, when some, its value (a none takes one byte:
+// image version 2; version 1 wrote zeros for it, the whole length every
+// time). Written from a
 // validated channel and read back without validating again (the image's CRC
 // and version are checked by `Layout::load_image`); the exhaustive
 // destructuring below fails to compile when a field is added, so the image
@@ -2430,24 +2432,31 @@ impl<'a> ImageWriter<'a> {
 
     fn opt_u8(&mut self, v: Option<u8>) {
         self.flag(v.is_some());
-        self.u8(v.unwrap_or(0));
+        if let Some(v) = v {
+            self.u8(v);
+        }
     }
 
     fn opt_u32(&mut self, v: Option<u32>) {
         self.flag(v.is_some());
-        self.u32(v.unwrap_or(0));
+        if let Some(v) = v {
+            self.u32(v);
+        }
     }
 
     fn opt_f64(&mut self, v: Option<f64>) {
         self.flag(v.is_some());
-        self.f64(v.unwrap_or(0.0));
+        if let Some(v) = v {
+            self.f64(v);
+        }
     }
 
     fn opt_pair(&mut self, v: Option<(f64, f64)>) {
         self.flag(v.is_some());
-        let (a, b) = v.unwrap_or((0.0, 0.0));
-        self.f64(a);
-        self.f64(b);
+        if let Some((a, b)) = v {
+            self.f64(a);
+            self.f64(b);
+        }
     }
 }
 
@@ -2523,36 +2532,28 @@ impl<'a> ImageReader<'a> {
 
     #[inline(never)]
     fn opt_u8(&mut self) -> Option<u8> {
-        let some = self.flag();
-        let v = self.u8();
-        some.then_some(v)
+        self.flag().then(|| self.u8())
     }
 
     #[inline(never)]
     fn opt_u32(&mut self) -> Option<u32> {
-        let some = self.flag();
-        let v = self.u32();
-        some.then_some(v)
+        self.flag().then(|| self.u32())
     }
 
     #[inline(never)]
     fn opt_f64(&mut self) -> Option<f64> {
-        let some = self.flag();
-        let v = self.f64();
-        some.then_some(v)
+        self.flag().then(|| self.f64())
     }
 
     #[inline(never)]
     fn opt_pair(&mut self) -> Option<(f64, f64)> {
-        let some = self.flag();
-        let a = self.f64();
-        let b = self.f64();
-        some.then_some((a, b))
+        self.flag().then(|| (self.f64(), self.f64()))
     }
 }
 
 impl Channel {
-    /// Bytes of a channel in a layout image.
+    /// Bytes of a channel in a layout image at most (every option some;
+    /// each none takes its value's bytes less).
     pub(crate) const IMAGE_LEN: usize = 53 + 45 + 121 + 33;
 
     /// Writes the channel, every field (see the section's comment).
@@ -2633,106 +2634,132 @@ impl Channel {
         w.f64(pair_max_diff);
         w.opt_u8(above);
         w.f64(shear_tolerance);
-        let Icing {
+        w.flag(icing.is_some());
+        if let Some(Icing {
             temperature,
             humidity,
             max_temperature,
             min_humidity,
-        } = icing.unwrap_or(Icing::new(0, 0));
-        w.flag(icing.is_some());
-        w.u8(temperature);
-        w.u8(humidity);
-        w.f64(max_temperature);
-        w.f64(min_humidity);
-        let Recal {
+        }) = icing
+        {
+            w.u8(temperature);
+            w.u8(humidity);
+            w.f64(max_temperature);
+            w.f64(min_humidity);
+        }
+        w.flag(recal.is_some());
+        if let Some(Recal {
             logger_slope,
             logger_offset,
             cert_slope,
             cert_offset,
-        } = recal.unwrap_or(Recal {
-            logger_slope: 0.0,
-            logger_offset: 0.0,
-            cert_slope: 0.0,
-            cert_offset: 0.0,
-        });
-        w.flag(recal.is_some());
-        w.f64(logger_slope);
-        w.f64(logger_offset);
-        w.f64(cert_slope);
-        w.f64(cert_offset);
+        }) = recal
+        {
+            w.f64(logger_slope);
+            w.f64(logger_offset);
+            w.f64(cert_slope);
+            w.f64(cert_offset);
+        }
     }
 
-    /// Reads a channel [`Channel::write_image`] wrote (fields in the same
-    /// order: a struct expression evaluates its fields as written); whether
-    /// it was good is the reader's [`ImageReader::ok`].
-    pub(crate) fn read_image(r: &mut ImageReader<'_>) -> Self {
-        Channel {
-            lo_k: r.i32(),
-            hi_k: r.i32(),
-            code_in_counts: r.flag(),
-            code_in_values: r.flag(),
-            gust_w: r.u16(),
-            spike_lim: r.u32(),
-            dir_inline_lo: r.i32(),
-            dir_fast_k: r.i32(),
-            offset_cd: r.i32(),
-            dir_mul: r.i64(),
-            dir_add: r.i64(),
-            inv_step: r.opt_f64(),
-            cfg: ChannelConfig {
-                kind: match r.u8() {
-                    0 => Kind::Speed,
-                    1 => Kind::Direction,
-                    2 => Kind::Scalar,
-                    _ => {
-                        r.ok = false;
-                        Kind::Scalar
-                    }
-                },
-                scale: Scale {
-                    offset: r.f64(),
-                    step: r.f64(),
-                },
-                range: (r.f64(), r.f64()),
-                gust_window: r.u16(),
-                mounting_offset_deg: r.f64(),
-                speed_channel: r.opt_u8(),
-                screen: Screen {
-                    step_limit: r.opt_f64(),
-                    mean_range: r.opt_pair(),
-                    sd_range: r.opt_pair(),
-                    gust_max: r.opt_f64(),
-                    min_recovery: r.opt_f64(),
-                    flat_span_s: r.opt_u32(),
-                    flat_tolerance: r.f64(),
-                    partner: r.opt_u8(),
-                    pair_mean_diff: r.f64(),
-                    pair_max_diff: r.f64(),
-                    above: r.opt_u8(),
-                    shear_tolerance: r.f64(),
-                    icing: {
-                        let some = r.flag();
-                        let ice = Icing {
-                            temperature: r.u8(),
-                            humidity: r.u8(),
-                            max_temperature: r.f64(),
-                            min_humidity: r.f64(),
-                        };
-                        some.then_some(ice)
-                    },
-                },
-                recal: {
-                    let some = r.flag();
-                    let recal = Recal {
-                        logger_slope: r.f64(),
-                        logger_offset: r.f64(),
-                        cert_slope: r.f64(),
-                        cert_offset: r.f64(),
-                    };
-                    some.then_some(recal)
-                },
-            },
-        }
+    /// Reads a channel [`Channel::write_image`] wrote into `self`, field by
+    /// field in place (in the writer's order; no channel on the stack to
+    /// copy, the loader's code in a logger's flash); whether it was good is
+    /// the reader's [`ImageReader::ok`]. The exhaustive destructuring fails
+    /// to compile when a field is added, as the writer's does.
+    pub(crate) fn read_image(&mut self, r: &mut ImageReader<'_>) {
+        let Channel {
+            lo_k,
+            hi_k,
+            code_in_counts,
+            code_in_values,
+            gust_w,
+            spike_lim,
+            dir_inline_lo,
+            dir_fast_k,
+            offset_cd,
+            dir_mul,
+            dir_add,
+            inv_step,
+            cfg,
+        } = self;
+        *lo_k = r.i32();
+        *hi_k = r.i32();
+        *code_in_counts = r.flag();
+        *code_in_values = r.flag();
+        *gust_w = r.u16();
+        *spike_lim = r.u32();
+        *dir_inline_lo = r.i32();
+        *dir_fast_k = r.i32();
+        *offset_cd = r.i32();
+        *dir_mul = r.i64();
+        *dir_add = r.i64();
+        *inv_step = r.opt_f64();
+        let ChannelConfig {
+            kind,
+            scale: Scale { offset, step },
+            range: (low, high),
+            gust_window,
+            mounting_offset_deg,
+            speed_channel,
+            screen,
+            recal,
+        } = cfg;
+        *kind = match r.u8() {
+            0 => Kind::Speed,
+            1 => Kind::Direction,
+            2 => Kind::Scalar,
+            _ => {
+                r.ok = false;
+                Kind::Scalar
+            }
+        };
+        *offset = r.f64();
+        *step = r.f64();
+        *low = r.f64();
+        *high = r.f64();
+        *gust_window = r.u16();
+        *mounting_offset_deg = r.f64();
+        *speed_channel = r.opt_u8();
+        let Screen {
+            step_limit,
+            mean_range,
+            sd_range,
+            gust_max,
+            min_recovery,
+            flat_span_s,
+            flat_tolerance,
+            partner,
+            pair_mean_diff,
+            pair_max_diff,
+            above,
+            shear_tolerance,
+            icing,
+        } = screen;
+        *step_limit = r.opt_f64();
+        *mean_range = r.opt_pair();
+        *sd_range = r.opt_pair();
+        *gust_max = r.opt_f64();
+        *min_recovery = r.opt_f64();
+        *flat_span_s = r.opt_u32();
+        *flat_tolerance = r.f64();
+        *partner = r.opt_u8();
+        *pair_mean_diff = r.f64();
+        *pair_max_diff = r.f64();
+        *above = r.opt_u8();
+        *shear_tolerance = r.f64();
+        *icing = r.flag().then(|| Icing {
+            temperature: r.u8(),
+            humidity: r.u8(),
+            max_temperature: r.f64(),
+            min_humidity: r.f64(),
+        });
+        *recal = r.flag().then(|| Recal {
+            logger_slope: r.f64(),
+            logger_offset: r.f64(),
+            cert_slope: r.f64(),
+            cert_offset: r.f64(),
+        });
     }
 }
 

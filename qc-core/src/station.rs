@@ -553,6 +553,24 @@ impl<const C: usize> Layout<C> {
         result
     }
 
+    /// [`Layout::rebuild_at_run_time`] without the reset on an error: then
+    /// `self` is left partly validated, a layout to discard, not to run a
+    /// station on (it is still a `Layout` value; it may hold any channel
+    /// the station's settings gave). For a caller that marks the memory
+    /// unusable on an error anyway (the C interface's layout block): it
+    /// links no [`Layout::placeholder`] reset.
+    ///
+    /// # Errors
+    ///
+    /// As [`Layout::rebuild_at_run_time`].
+    pub fn rebuild_no_reset<const G: usize>(
+        &mut self,
+        station: StationConfig,
+        channels: &[ChannelConfig; C],
+    ) -> Result<(), ConfigError> {
+        self.validate::<G>(station, channels)
+    }
+
     /// Makes `self` [`Layout::placeholder`] again, a channel at a time.
     fn reset(&mut self) {
         self.interval_ms = 600_000;
@@ -569,7 +587,7 @@ impl<const C: usize> Layout<C> {
 
 /// Version of the layout image format ([`Layout::to_image`]); a change to
 /// the image's fields, or to the channel's state the image holds, changes it.
-pub const LAYOUT_IMAGE_VERSION: u8 = 1;
+pub const LAYOUT_IMAGE_VERSION: u8 = 2;
 
 /// Why a layout image was refused ([`Layout::to_image`], [`Layout::load_image`]).
 #[derive(Clone, Copy, Debug, PartialEq, Eq, Hash)]
@@ -581,7 +599,8 @@ pub enum ImageError {
     /// An image of another shape: another channel capacity `C` or gust
     /// capacity `G`.
     Shape,
-    /// Not the length of an image of this shape (or a buffer too short for one).
+    /// Longer than an image of this shape can be, or shorter than its head
+    /// and CRC (or a buffer too short for the image).
     Length,
     /// The CRC-32 does not match: the bytes were changed since they were written.
     Crc,
@@ -608,16 +627,20 @@ impl core::error::Error for ImageError {}
 /// image, and read back on a logger that only checks and uses it, without
 /// the validation's code. The image: `"TMLI"`, [`LAYOUT_IMAGE_VERSION`],
 /// the capacities `C` (u8) and `G` (u16), every field of the layout and of
-/// each of its `C` channels little-endian, and the CRC-32 (IEEE 802.3) of
-/// all bytes before it: [`Layout::IMAGE_LEN`] bytes. A layout read back is
+/// each of its `C` channels little-endian (an option none: its tag byte
+/// alone), and the CRC-32 (IEEE 802.3) of all bytes before it: at most
+/// [`Layout::IMAGE_LEN`] bytes. A layout read back is
 /// equal to the one written (`==`), so a logger on it computes the same
 /// bits.
 impl<const C: usize> Layout<C> {
-    /// Bytes of the image of a layout of `C` channels.
+    /// Bytes of the image of a layout of `C` channels, at most (every
+    /// option of every channel some; a layout's image is shorter by the
+    /// values of its options that are none).
     pub const IMAGE_LEN: usize = image_len(C);
 
     /// Writes the image of this layout, validated for the gust capacity `G`,
-    /// into the start of `out`; returns its length ([`Layout::IMAGE_LEN`]).
+    /// into the start of `out`; returns its length (at most
+    /// [`Layout::IMAGE_LEN`]).
     ///
     /// # Errors
     ///
@@ -681,6 +704,20 @@ impl<const C: usize> Layout<C> {
         result
     }
 
+    /// [`Layout::load_image`] without the reset on an error: then `self` is
+    /// left partly written, a layout to discard, not to run a station on (it
+    /// is still a `Layout` value; its channels may hold any fields the
+    /// image's bytes gave). For a caller that marks the memory unusable on
+    /// an error anyway (the C interface's layout block): it links no
+    /// [`Layout::placeholder`] reset.
+    ///
+    /// # Errors
+    ///
+    /// As [`Layout::load_image`].
+    pub fn load_image_no_reset<const G: usize>(&mut self, image: &[u8]) -> Result<(), ImageError> {
+        self.read_image::<G>(image)
+    }
+
     /// The work of [`Layout::load_image`] (`self` partly written on an
     /// error): the shape's part, small; the rest is [`read_image`], one
     /// function for every shape.
@@ -696,7 +733,7 @@ impl<const C: usize> Layout<C> {
     }
 }
 
-/// Bytes of the image of a layout of `c` channels ([`Layout::IMAGE_LEN`]).
+/// Bytes of the image of a layout of `c` channels at most ([`Layout::IMAGE_LEN`]).
 const fn image_len(c: usize) -> usize {
     8 + 20 + 2 + 12 * MAX_SENTINELS + 8 + c * Channel::IMAGE_LEN + 4
 }
@@ -731,7 +768,9 @@ fn read_image(
     if usize::from(r.u8()) != c || usize::from(r.u16()) != g {
         return Err(ImageError::Shape);
     }
-    if image.len() != image_len(c) {
+    // Its options decide its length: too long a one is refused here, one
+    // whose fields end before or after its CRC by `r.rest()` below.
+    if image.len() > image_len(c) {
         return Err(ImageError::Length);
     }
     if crate::crc::crc32(body) != u32::from_le_bytes(*crc) {
@@ -757,7 +796,7 @@ fn read_image(
     // layout validated for it).
     let mut gust_ok = true;
     for ch in channels.iter_mut() {
-        *ch = Channel::read_image(&mut r);
+        ch.read_image(&mut r);
         gust_ok &= usize::from(ch.config().gust_window) <= g;
     }
     let Some(sentinels) = sentinels else {
@@ -2745,23 +2784,52 @@ mod image_tests {
         for (station, chans) in stations() {
             let layout = Layout::new::<12>(station, &chans).unwrap();
             let mut image = [0u8; Layout::<5>::IMAGE_LEN + 3];
-            assert_eq!(
-                layout.to_image::<12>(&mut image),
-                Ok(Layout::<5>::IMAGE_LEN)
-            );
-            let image = &image[..Layout::<5>::IMAGE_LEN];
+            let n = layout.to_image::<12>(&mut image).unwrap();
+            let image = &image[..n];
             let mut back = Layout::<5>::placeholder();
             assert_eq!(back.load_image::<12>(image), Ok(()));
             assert_eq!(back, layout);
             assert_eq!(back.fingerprint(), layout.fingerprint());
-            // Every channel's bytes are IMAGE_LEN long (the writer's length
-            // is the constant's, checked above, channel by channel here).
+            // Each channel's bytes are at most Channel::IMAGE_LEN, less by
+            // the values of its options that are none (a none is its tag
+            // byte alone); the image is the head, the channels and the CRC.
             let mut one = [0u8; Channel::IMAGE_LEN];
+            let mut channels = 0;
+            let mut nones = 0;
             for ch in layout.channels() {
                 let mut w = ImageWriter::new(&mut one);
                 ch.write_image(&mut w);
-                assert_eq!(w.len(), Some(Channel::IMAGE_LEN));
+                let len = w.len().unwrap();
+                assert!(len <= Channel::IMAGE_LEN);
+                channels += len;
+                let sc = &ch.config().screen;
+                // The value bytes of each none (the field widths of write_image).
+                let none_bytes = [
+                    (ch.config().scale.inverse().is_none(), 8),
+                    (ch.config().speed_channel.is_none(), 1),
+                    (sc.step_limit.is_none(), 8),
+                    (sc.mean_range.is_none(), 16),
+                    (sc.sd_range.is_none(), 16),
+                    (sc.gust_max.is_none(), 8),
+                    (sc.min_recovery.is_none(), 8),
+                    (sc.flat_span_s.is_none(), 4),
+                    (sc.partner.is_none(), 1),
+                    (sc.above.is_none(), 1),
+                    (sc.icing.is_none(), 18),
+                    (ch.config().recal.is_none(), 32),
+                ]
+                .iter()
+                .filter(|(none, _)| *none)
+                .map(|(_, bytes)| bytes)
+                .sum::<usize>();
+                assert_eq!(len + none_bytes, Channel::IMAGE_LEN);
+                nones += none_bytes;
             }
+            assert_eq!(
+                n,
+                Layout::<5>::IMAGE_LEN - 5 * Channel::IMAGE_LEN + channels
+            );
+            assert!(nones > 0 && n < Layout::<5>::IMAGE_LEN);
         }
     }
 
@@ -2770,7 +2838,8 @@ mod image_tests {
         let (station, chans) = stations().remove(0);
         let layout = Layout::new::<3>(station, &chans).unwrap();
         let mut image = vec![0u8; Layout::<5>::IMAGE_LEN];
-        layout.to_image::<3>(&mut image).unwrap();
+        let n = layout.to_image::<3>(&mut image).unwrap();
+        image.truncate(n);
         let mut back = Layout::<5>::placeholder();
         // Every single-bit change of every byte is found.
         for i in 0..image.len() {
@@ -2778,14 +2847,27 @@ mod image_tests {
                 let mut bad = image.clone();
                 bad[i] ^= bit;
                 back.load_image::<3>(&image).unwrap();
-                assert!(back.load_image::<3>(&bad).is_err(), "byte {i} bit {bit:#x}");
+                let refused = back.load_image::<3>(&bad);
+                assert!(refused.is_err(), "byte {i} bit {bit:#x}");
                 assert_eq!(back, Layout::<5>::placeholder(), "byte {i}");
+                // Without the reset: the same answer (its layout is discarded).
+                let mut spoiled = Layout::<5>::placeholder();
+                assert_eq!(spoiled.load_image_no_reset::<3>(&bad), refused, "byte {i}");
             }
         }
+        let mut fresh = Layout::<5>::placeholder();
+        assert_eq!(fresh.load_image_no_reset::<3>(&image), Ok(()));
+        back.load_image::<3>(&image).unwrap();
+        assert_eq!(fresh, back);
+        // Its length follows from its options: one byte short, the CRC is
+        // read from the wrong bytes; longer than any image, refused unread.
         assert_eq!(
             back.load_image::<3>(&image[..image.len() - 1]),
-            Err(ImageError::Length)
+            Err(ImageError::Crc)
         );
+        let mut long = image.clone();
+        long.resize(Layout::<5>::IMAGE_LEN + 1, 0);
+        assert_eq!(back.load_image::<3>(&long), Err(ImageError::Length));
         assert_eq!(back.load_image::<3>(&[]), Err(ImageError::Length));
         assert_eq!(back.load_image::<12>(&image), Err(ImageError::Shape));
         let mut other = Layout::<4>::placeholder();
@@ -2797,9 +2879,9 @@ mod image_tests {
         assert_eq!(layout.to_image::<3>(&mut short), Err(ImageError::Length));
         // A field out of its values, under a good CRC, is refused too.
         let mut kind = image.clone();
-        let at = 8 + 20 + 2 + 12 * MAX_SENTINELS + 8 + 53; // channel 0's kind
-        assert_eq!(kind[at], 0);
-        kind[at] = 3;
+        let at = 8 + 20 + 2 + 12 * MAX_SENTINELS + 8 + 8; // channel 0's first flag
+        assert!(kind[at] <= 1);
+        kind[at] = 2;
         let n = kind.len() - 4;
         let crc = crate::crc::crc32(&kind[..n]);
         kind[n..].copy_from_slice(&crc.to_le_bytes());

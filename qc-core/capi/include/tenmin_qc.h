@@ -26,7 +26,8 @@
 #define TM_FRAME_STATE 1
 
 // Bytes of the longest layout image (`tm_layout_image`), of shape `c16g12`;
-// an image of a smaller shape is shorter (`c8g3`: 2,122 B).
+// an image of a smaller shape is shorter (`c8g3`: 2,122 B at most), and an
+// image is shorter by the values of its layout's options that are none.
 #define TM_LAYOUT_IMAGE_MAX_SIZE 4138
 
 // Bytes of a layout block of shape `c4g3` (4 channels, gust windows up to

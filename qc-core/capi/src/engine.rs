@@ -76,7 +76,7 @@ impl<const C: usize> LayoutMem<C> {
         let used = configs.get(..channels.len()).unwrap_or(&[]);
         let fingerprint = config_fingerprint(&station, used);
         self.layout
-            .rebuild_at_run_time::<G>(station, &configs)
+            .rebuild_no_reset::<G>(station, &configs)
             .map_err(types::config_error)?;
         self.head = LayoutHead {
             magic: LAYOUT_MAGIC,
@@ -98,8 +98,9 @@ const IMAGE_VERSION: u8 = 1;
 /// channels in use (what the frames carry).
 pub(crate) const IMAGE_HEAD: usize = 12;
 
-/// Bytes of the layout image of shape `C`: this interface's head, the
-/// core's image (`Layout::to_image`), and a CRC-32 of all before it.
+/// Bytes of the layout image of shape `C` at most: this interface's head,
+/// the core's image (`Layout::to_image`, at most `Layout::IMAGE_LEN`), and a
+/// CRC-32 of all before it.
 pub(crate) const fn image_len<const C: usize>() -> usize {
     IMAGE_HEAD + Layout::<C>::IMAGE_LEN + 4
 }
@@ -127,11 +128,16 @@ impl<const C: usize> LayoutMem<C> {
             f2,
             f3,
         ]);
-        self.layout
+        let core = self
+            .layout
             .to_image::<G>(rest)
             .map_err(|_| tm_status::TM_ERR_SIZE)?;
+        // The core's image is as long as its options make it (at most
+        // `Layout::IMAGE_LEN`): the CRC follows it.
+        let len = IMAGE_HEAD + core + 4;
         let (body, crc) = out
-            .split_last_chunk_mut::<4>()
+            .get_mut(..len)
+            .and_then(|o| o.split_last_chunk_mut::<4>())
             .ok_or(tm_status::TM_ERR_SIZE)?;
         *crc = wire::crc32(body).to_le_bytes();
         Ok(len)
@@ -155,7 +161,7 @@ impl<const C: usize> LayoutMem<C> {
         }
         // The core checks its own part (format, shape, length, CRC) too;
         // this CRC covers the head.
-        match self.layout.load_image::<G>(core) {
+        match self.layout.load_image_no_reset::<G>(core) {
             Ok(()) => {}
             Err(ImageError::Shape) => return Err(tm_status::TM_ERR_IMAGE_SHAPE),
             Err(ImageError::Crc) => return Err(tm_status::TM_ERR_IMAGE_CRC),

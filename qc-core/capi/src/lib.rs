@@ -541,7 +541,8 @@ pub unsafe extern "C" fn tm_layout_info(
 }
 
 /// Bytes of the longest layout image (`tm_layout_image`), of shape `c16g12`;
-/// an image of a smaller shape is shorter (`c8g3`: 2,122 B).
+/// an image of a smaller shape is shorter (`c8g3`: 2,122 B at most), and an
+/// image is shorter by the values of its layout's options that are none.
 pub const TM_LAYOUT_IMAGE_MAX_SIZE: usize = 4138;
 const _: () = assert!(
     engine::image_len::<16>() == TM_LAYOUT_IMAGE_MAX_SIZE && engine::image_len::<8>() == 2122
@@ -1404,5 +1405,13 @@ mod tests {
             Err(ConfigError::Interval)
         );
         assert_eq!(*layout, Layout::<3>::PLACEHOLDER);
+        // Without the reset (the build's way: its block is marked unusable
+        // on an error): the same answers.
+        assert_eq!(
+            layout.rebuild_no_reset::<3>(bad, &ok),
+            Err(ConfigError::Interval)
+        );
+        layout.rebuild_no_reset::<3>(st, &ok).unwrap();
+        assert_eq!(*layout, Layout::new::<3>(st, &ok).unwrap());
     }
 }
