@@ -425,6 +425,13 @@ impl Memo {
             }
         }
         let num = |(at, n): (usize, usize)| -> Option<i64> {
+            if n == 2 {
+                // The usual two digits, read directly (the same value as the
+                // loop below).
+                let [a, b] = *text.get(at..)?.first_chunk::<2>()?;
+                let (a, b) = (a.wrapping_sub(b'0'), b.wrapping_sub(b'0'));
+                return (a < 10 && b < 10).then(|| i64::from(a * 10 + b));
+            }
             let d = text.get(at..at + n)?;
             d.iter()
                 .all(u8::is_ascii_digit)
@@ -957,7 +964,8 @@ mod tests {
             assert!(compiled.read_spans(text.as_bytes()).is_ok(), "{f}: {text}");
             let mut variants = vec![text.clone().into_bytes()];
             for i in 0..text.len() {
-                for b in [b'0', b'5', b'6', b'9', b'x'] {
+                // `/` and `:` are the bytes just below `0` and above `9`.
+                for b in [b'0', b'5', b'6', b'9', b'x', b'/', b':'] {
                     let mut v = text.clone().into_bytes();
                     v[i] = b;
                     variants.push(v);
