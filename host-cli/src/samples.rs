@@ -2378,6 +2378,152 @@ mod tests {
         }
     }
 
+    /// Invented rows of a file, in file order (so that the time cache moves
+    /// on as in a replay), each read by the one-pass reader
+    /// ([`Parser::parse_plain`], inside a longer buffer as the replay sees
+    /// it) and by the field-by-field reader ([`Parser::parse`]): good rows,
+    /// numbers of every width from 0 to 17 digits with and without a sign or
+    /// a decimal point, leap days, hour and day changes, offsets, fractional
+    /// and out-of-range seconds, epoch seconds, comments, spaces, NaN, and
+    /// rows with a field too many or too few. Wherever the one-pass reader
+    /// takes a row, the other gives the same time and readings, bit for bit
+    /// (its numbers are `str::parse`'s: Rust's standard library); rows it
+    /// leaves are the general reader's alone.
+    #[test]
+    fn one_pass_rows_agree_with_the_general_reader_on_invented_files() {
+        let toml = "[logging]\nsample_rate_hz = 1\n\
+            [[channel]]\nid = \"a\"\nkind = \"speed\"\nresolution = 0.01\n\
+            [[channel]]\nid = \"d\"\nkind = \"direction\"\nslope = 0.1\n\
+            [[channel]]\nid = \"t\"\nkind = \"scalar\"\nresolution = 0.1\n";
+        let cfg = crate::config::parse(Path::new("s.toml"), toml).unwrap();
+        let header: [&[u8]; 4] = [b"time", b"a", b"d", b"t"];
+        let mut fast = Parser::new(Path::new("x"), 1, header.into_iter(), &cfg).unwrap();
+        assert!(
+            matches!(fast.cols[2], Col::Counts(_)),
+            "d is read as counts"
+        );
+        let mut general = fast.clone();
+        let mut x = 0x2545_F491_4F6C_DD1Du64;
+        let mut rnd = |n: u64| {
+            x ^= x << 13;
+            x ^= x >> 7;
+            x ^= x << 17;
+            x % n
+        };
+        // Times: steps of 1 s to 1 h from just before a leap day's end, a
+        // year end and an hour's end, and odd ones.
+        let odd = [
+            "2024-02-29T23:59:59Z",
+            "2025-02-29T00:00:01Z",
+            "2024-02-29T23:59:60Z",
+            "2025-01-20T00:60:00Z",
+            "2025-01-20T00:00:01z",
+            "2025-01-20T00:00:01.5Z",
+            "2025-01-20T01:00:01+01:00",
+            "2025-01-20T00:00:01-00:30",
+            "2025-13-01T00:00:00Z",
+            "2025-01-20 00:00:01Z",
+            "1737331201",
+            "17373312010000",
+            "-5",
+            "",
+            " 2025-01-20T00:00:01Z",
+        ];
+        let starts = [
+            "2024-02-29T23:58:00Z",
+            "2024-12-31T23:59:00Z",
+            "2025-01-20T00:59:30Z",
+        ];
+        let mut t = parse_time(starts[0].as_bytes()).unwrap().millis();
+        let number = |rnd: &mut dyn FnMut(u64) -> u64| -> Vec<u8> {
+            match rnd(12) {
+                0 => b"".to_vec(),
+                1 => [
+                    &b"NaN"[..],
+                    b" 1.5",
+                    b"1e3",
+                    b"-",
+                    b".",
+                    b"1.2.3",
+                    b"+7",
+                    b"-0.0",
+                ][rnd(8) as usize]
+                    .to_vec(),
+                k => {
+                    // Mostly the usual 1 to 4 digits; now and then 0 to 17.
+                    let n = if k < 4 { rnd(18) } else { 1 + rnd(4) } as usize;
+                    let mut f: Vec<u8> = (0..n).map(|_| b'0' + rnd(10) as u8).collect();
+                    if rnd(3) > 0 {
+                        f.insert(rnd(n as u64 + 1) as usize, b'.');
+                    }
+                    if rnd(5) == 0 {
+                        f.insert(0, if rnd(2) == 0 { b'-' } else { b'+' });
+                    }
+                    f
+                }
+            }
+        };
+        let (mut agreed, mut left, mut commas) = (0, 0, Vec::new());
+        for row in 0..60_000 {
+            if row % 5_000 == 0 {
+                t = parse_time(starts[rnd(3) as usize].as_bytes())
+                    .unwrap()
+                    .millis();
+            }
+            t += [1_000, 1_000, 1_000, 7_000, 3_600_000][rnd(5) as usize];
+            let mut rec = if rnd(20) == 0 {
+                odd[rnd(odd.len() as u64) as usize].as_bytes().to_vec()
+            } else {
+                Rfc3339(Timestamp::from_millis(t)).to_string().into_bytes()
+            };
+            let fields = match rnd(40) {
+                0 => 2,
+                1 => 4,
+                _ => 3,
+            };
+            for _ in 0..fields {
+                rec.push(b',');
+                rec.extend(number(&mut rnd));
+            }
+            if rnd(200) == 0 {
+                rec = b"# a comment, 1, 2, 3".to_vec();
+            }
+            // The replay's buffer: the row, its end, and more rows after it.
+            let term: &[u8] = [&b"\n"[..], b"\r\n", b"\r"][rnd(3) as usize];
+            let buf = [&rec[..], term, b"2025-01-20T00:00:02Z,1.5,20,3.5\n"].concat();
+            let mut r1 = [Reading::Missing; 3];
+            let mut r2 = [Reading::Missing; 3];
+            let bits = |r: &[Reading; 3]| {
+                r.map(|v| match v {
+                    Reading::Value(f) => (0, f.to_bits()),
+                    Reading::Counts(k) => (1, k as u64),
+                    _ => (2, 0),
+                })
+            };
+            find_commas(&rec, &mut commas);
+            let want = general.parse(&rec, &commas, &mut r2);
+            let shown = String::from_utf8_lossy(&rec).into_owned();
+            match fast.parse_plain(&buf, 0, &mut r1) {
+                Some((t1, end)) => {
+                    assert_eq!(end, rec.len(), "{shown}");
+                    let t2 = want.unwrap_or_else(|e| panic!("{e}: {shown}"));
+                    assert_eq!(t1, t2, "{shown}");
+                    assert_eq!(bits(&r1), bits(&r2), "{shown}");
+                    agreed += 1;
+                }
+                None => {
+                    // As the replay does: the general reader takes the row
+                    // (and keeps the time cache in step).
+                    let again = fast.parse(&rec, &commas, &mut r1);
+                    assert_eq!(again.is_ok(), want.is_ok(), "{shown}");
+                    left += 1;
+                }
+            }
+        }
+        // Most rows are plain; the odd ones must have reached the general reader.
+        assert!(agreed > 10_000 && left > 10_000, "{agreed} {left}");
+    }
+
     /// Random records over an alphabet of digits, signs, dots, spaces,
     /// letters and delimiters: wherever the one-pass reader accepts a record,
     /// the field-by-field reader (std parsers behind it) gives the same time
