@@ -442,6 +442,59 @@ impl Memo {
     }
 }
 
+/// The memo's hour as [`TimeSpec::quick`] folds it: a time field of `len`
+/// bytes (8 to 31) whose bytes but the two-digit minute and second equal the
+/// memo's (the first 32 bytes compared as two 128-bit words under masks),
+/// read as the sample time `base` + the minute's and second's milliseconds
+/// when those lie in `lo..hi` (the zone's span and the supported span). The
+/// same results as [`TimeSpec::parse_memo`] on the field; `len` 0: reads
+/// nothing.
+#[derive(Clone, Copy, Debug, Default)]
+pub struct Quick {
+    len: usize,
+    text: [u128; 2],
+    mask: [u128; 2],
+    minute: usize,
+    second: usize,
+    base: i64,
+    lo: i64,
+    hi: i64,
+}
+
+impl Quick {
+    /// The sample time of the field at the start of `b` and its length, if
+    /// `b` holds 32 bytes, the field is `len` bytes long (ended by `delim`,
+    /// `\n` or `\r`) and reads in the memo's hour as above; `None` otherwise.
+    /// Out of line: inlined, its setup was repeated for every field of a
+    /// row's loop.
+    #[inline(never)]
+    pub fn read(&self, b: &[u8], delim: u8) -> Option<(Timestamp, usize)> {
+        let n = self.len;
+        let w = b.first_chunk::<32>()?;
+        if n == 0 {
+            return None;
+        }
+        let end = w[n & 31];
+        if !(end == delim || end == b'\n' || end == b'\r') {
+            return None;
+        }
+        let (lo, hi) = w.split_at(16);
+        let lo = u128::from_le_bytes(lo.try_into().ok()?);
+        let hi = u128::from_le_bytes(hi.try_into().ok()?);
+        if ((lo ^ self.text[0]) & self.mask[0]) | ((hi ^ self.text[1]) & self.mask[1]) != 0 {
+            return None;
+        }
+        let (m, s) = (self.minute & 31, self.second & 31);
+        let d = |i: usize| w[i & 31].wrapping_sub(b'0');
+        let (m1, m2, s1, s2) = (d(m), d(m + 1), d(s), d(s + 1));
+        if !(m1 < 6 && m2 < 10 && s1 < 6 && s2 < 10) {
+            return None;
+        }
+        let d = i64::from(m1 * 10 + m2) * 60_000 + i64::from(s1 * 10 + s2) * 1000;
+        (d >= self.lo && d < self.hi).then(|| (Timestamp::from_millis(self.base + d), n))
+    }
+}
+
 /// A named zone's offset over the span of UTC instants it holds, so that
 /// only a row outside the span asks the zone database.
 #[derive(Clone, Copy, Debug, Default)]
@@ -566,6 +619,81 @@ impl TimeSpec {
         };
         let t = Timestamp::from_millis(start);
         (t >= SAMPLES_FROM && t < SAMPLES_END).then_some(t)
+    }
+
+    /// [`TimeSpec::parse_memo`] of the hour that `memo` and `zc` hold, folded
+    /// into one compare of the fixed bytes, one read of the minute and second
+    /// and one window ([`Quick`]), for a field ended by `delim`, `\n`, `\r`
+    /// or the end of the text; an empty one (which reads nothing) when the
+    /// memo cannot be read so.
+    #[inline(never)]
+    pub fn quick(&self, memo: &Memo, zc: &ZoneCache, delim: u8) -> Quick {
+        let none = Quick::default();
+        let Form::Format(_) = &self.form else {
+            return none;
+        };
+        let [(m0, 2), (s0, 2)] = memo.spans else {
+            return none;
+        };
+        let len = memo.text.len();
+        if !memo.valid
+            || memo.words != 4
+            || memo
+                .text
+                .iter()
+                .any(|&c| c == delim || c == b'\n' || c == b'\r')
+        {
+            return none;
+        }
+        // Local milliseconds `ms` = `hour_ms` + `d` with `d` the minute's and
+        // second's milliseconds (0 to 3,599,000): the zone's span bounds `ms`,
+        // the supported span the sample time `base` + `d`.
+        const WIDE: i64 = i64::MAX / 4;
+        let (offset_ms, from, to) = match &self.zone {
+            Zone::Named(..) => (zc.offset_ms, zc.from, zc.to),
+            Zone::Utc => (0, -WIDE, WIDE),
+            Zone::Fixed(min) => (i64::from(*min) * 60_000, -WIDE, WIDE),
+        };
+        let period = match self.label {
+            Label::Start => 0,
+            Label::End => self.period_ms,
+        };
+        let hour_ms = memo.hour_ms;
+        let base = hour_ms - offset_ms - period;
+        let lo = 0
+            .max(from.saturating_sub(hour_ms))
+            .max(SAMPLES_FROM.millis().saturating_sub(base));
+        let hi = 3_600_000
+            .min(to.saturating_sub(hour_ms))
+            .min(SAMPLES_END.millis().saturating_sub(base));
+        if lo >= hi {
+            return none;
+        }
+        if len >= 32 || m0 + 2 > len || s0 + 2 > len {
+            return none;
+        }
+        let (mut text, mut mask) = ([0u8; 32], [0u8; 32]);
+        for (i, &c) in memo.text.iter().enumerate() {
+            text[i] = c;
+            if i.wrapping_sub(m0) >= 2 && i.wrapping_sub(s0) >= 2 {
+                mask[i] = 0xff;
+            }
+        }
+        let word = |a: &[u8; 32], k: usize| {
+            let mut h = [0u8; 16];
+            h.copy_from_slice(&a[16 * k..16 * k + 16]);
+            u128::from_le_bytes(h)
+        };
+        Quick {
+            len,
+            text: [word(&text, 0), word(&text, 1)],
+            mask: [word(&mask, 0), word(&mask, 1)],
+            minute: m0,
+            second: s0,
+            base,
+            lo,
+            hi,
+        }
     }
 
     /// [`TimeSpec::parse`] with the last row's time and the zone's span kept

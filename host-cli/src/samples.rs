@@ -29,7 +29,7 @@ use qc_core::{Pushed, Reading, Timestamp};
 use crate::config::{Decode, StationFile};
 use crate::engine::Engine;
 use crate::limits;
-use crate::localtime::{Memo, TimeProblem, ZoneCache};
+use crate::localtime::{Memo, Quick, TimeProblem, ZoneCache};
 use crate::provenance::{DigestHandle, FileDigest, HashOn};
 use crate::reader::{FileReader, Head, Piece};
 use crate::table::{Column, Delimiter, Table};
@@ -1283,6 +1283,9 @@ pub struct Declared {
     /// The last row's time and the zone's span, to read the next faster.
     memo: Memo,
     zone: ZoneCache,
+    /// The memo's hour folded for [`Declared::one_pass`] ([`Quick`]): set
+    /// after each time that `memo` and `zone` did not read.
+    quick: Quick,
     /// A row read in one pass ([`Declared::one_pass`]): what each field
     /// holds, up to the last one read; `None` when the layout needs more
     /// (several time columns, a filter, quality columns, missing-value texts,
@@ -1414,6 +1417,7 @@ impl Declared {
             tbuf: Vec::with_capacity(64),
             memo: Memo::default(),
             zone: ZoneCache::default(),
+            quick: Quick::default(),
             plan,
         })
     }
@@ -1459,14 +1463,23 @@ impl Declared {
             let rest = buf.get(p..)?;
             match *step {
                 Step::Time => {
+                    if let Some((t, n)) = self.quick.read(rest, delim) {
+                        time = Some(t);
+                        p += n;
+                        continue;
+                    }
                     let n = field_len(rest, delim);
                     let text = &rest[..n];
                     let t = match table.time.parse_memo(text, &self.memo, &self.zone) {
                         Some(t) => t,
-                        None => table
-                            .time
-                            .parse_with(text, &mut self.memo, &mut self.zone)
-                            .ok()?,
+                        None => {
+                            let t = table
+                                .time
+                                .parse_with(text, &mut self.memo, &mut self.zone)
+                                .ok();
+                            self.quick = table.time.quick(&self.memo, &self.zone, delim);
+                            t?
+                        }
                     };
                     time = Some(t);
                     p += n;
