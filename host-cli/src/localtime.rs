@@ -1154,4 +1154,208 @@ mod tests {
             "2025-03-30T00:30:00Z"
         );
     }
+
+    /// A declared layout's times read as its one-pass reader does ([`Quick`]
+    /// first, then [`TimeSpec::parse_memo`], then [`TimeSpec::parse_with`],
+    /// the fold rebuilt after each) against [`TimeSpec::parse`] alone with
+    /// neither memo nor zone span, on invented walks of local time: a week
+    /// either side of the clock changes of Europe/Berlin (one hour, at
+    /// 02:00/03:00 local), Australia/Lord_Howe (half an hour, at 02:00
+    /// local) and America/St_Johns in 2010 (one hour, at 00:01 local: the
+    /// zone's span ends a minute into an hour; dates from memory of the
+    /// zones' rules, the zone database decides), the year's end, the first and last days of the supported
+    /// span; steps of a second to an hour and a half, some backwards; `24:00`
+    /// for midnight under an end label; unpadded fields, texts of 12 to 33
+    /// bytes; a byte changed, dropped or added in some rows; fields ended by
+    /// `;`, `\n`, `\r`, the end of the text or not at all.
+    #[test]
+    fn quick_times_agree_with_the_format_and_the_zone() {
+        let named = |n: &str| zone(n).unwrap();
+        let with = |zone: Zone, label: Label, period_ms: i64, skipped: Pick, repeated: Pick| {
+            move |form: Form| TimeSpec {
+                form,
+                zone,
+                label,
+                period_ms,
+                skipped,
+                repeated,
+            }
+        };
+        let cases = [
+            (
+                with(
+                    named("Europe/Berlin"),
+                    Label::End,
+                    1000,
+                    Pick::Refuse,
+                    Pick::Refuse,
+                ),
+                "%d.%m.%Y %H:%M:%S",
+                0,
+            ),
+            (
+                with(
+                    named("Europe/Berlin"),
+                    Label::Start,
+                    1000,
+                    Pick::Earlier,
+                    Pick::Later,
+                ),
+                "%Y%m%d%H%M%S",
+                1,
+            ),
+            (
+                with(
+                    named("Australia/Lord_Howe"),
+                    Label::End,
+                    600_000,
+                    Pick::Later,
+                    Pick::Earlier,
+                ),
+                "%d.%m.%Y %H:%M:%S",
+                2,
+            ),
+            (
+                with(
+                    named("America/St_Johns"),
+                    Label::End,
+                    1000,
+                    Pick::Earlier,
+                    Pick::Refuse,
+                ),
+                "%d.%m.%Y %H:%M:%S",
+                0,
+            ),
+            (
+                with(
+                    Zone::Fixed(330),
+                    Label::Start,
+                    1000,
+                    Pick::Refuse,
+                    Pick::Refuse,
+                ),
+                "%Y-%m-%d %H:%M:%S local.end",
+                3,
+            ),
+            (
+                with(Zone::Utc, Label::End, 1000, Pick::Refuse, Pick::Refuse),
+                "%Y-%m-%d %H:%M:%S local.end.xyz",
+                4,
+            ),
+            (
+                with(
+                    Zone::Fixed(-600),
+                    Label::End,
+                    600_000,
+                    Pick::Refuse,
+                    Pick::Refuse,
+                ),
+                "%d.%m.%Y %H:%M:%S",
+                0,
+            ),
+        ];
+        let local = |y: i32, mo: u8, d: u8| {
+            Timestamp::from_civil(Civil {
+                year: y,
+                month: mo,
+                day: d,
+                hour: 0,
+                minute: 0,
+                second: 0,
+                milli: 0,
+            })
+            .unwrap()
+            .millis()
+        };
+        let starts = [
+            local(2025, 3, 23),
+            local(2025, 10, 19),
+            local(2025, 12, 28),
+            local(2025, 3, 30),
+            local(2025, 9, 28),
+            local(9999, 12, 24),
+            local(0, 1, 1),
+            local(2010, 3, 7),
+            local(2010, 10, 31),
+        ];
+        let steps: [i64; 16] = [
+            1, 1, 1, 1, 1, 1, 2, 59, 61, 600, 1799, 3599, 3600, 5400, -1, -3599,
+        ];
+        const ODD: &[u8] = b"0123456789:.; \n\rx-";
+        let mut x = 11u64;
+        let mut rnd = |n: u64| {
+            x = x.wrapping_mul(6_364_136_223_846_793_005).wrapping_add(1);
+            (x >> 33) % n
+        };
+        for (make, f, kind) in cases {
+            let spec = make(fmt(f));
+            let (mut memo, mut zc, mut quick) =
+                (Memo::default(), ZoneCache::default(), Quick::default());
+            let (mut hits, mut rows) = (0, 0);
+            for &start in &starts {
+                let mut ms = start;
+                for _ in 0..1500 {
+                    ms += steps[rnd(steps.len() as u64) as usize] * 1000;
+                    let c = Timestamp::from_millis(ms).civil();
+                    let (y, mo, d, h, mi, se) =
+                        (c.year, c.month, c.day, c.hour, c.minute, c.second);
+                    let mut text = match kind {
+                        0 if (h, mi, se) == (0, 0, 0) && rnd(2) == 0 => {
+                            let p = Timestamp::from_millis(ms - 86_400_000).civil();
+                            format!("{:02}.{:02}.{:04} 24:00:00", p.day, p.month, p.year)
+                        }
+                        0 => format!("{d:02}.{mo:02}.{y:04} {h:02}:{mi:02}:{se:02}"),
+                        1 => format!("{y:04}{mo:02}{d:02}{h:02}{mi:02}{se:02}"),
+                        2 => format!("{d}.{mo}.{y:04} {h}:{mi:02}:{se:02}"),
+                        3 => format!("{y:04}-{mo:02}-{d:02} {h:02}:{mi:02}:{se:02} local.end"),
+                        _ => format!("{y:04}-{mo:02}-{d:02} {h:02}:{mi:02}:{se:02} local.end.xyz"),
+                    }
+                    .into_bytes();
+                    let at = rnd(text.len() as u64) as usize;
+                    let odd = ODD[rnd(ODD.len() as u64) as usize];
+                    match rnd(40) {
+                        0 => text[at] = odd,
+                        1 => {
+                            text.remove(at);
+                        }
+                        2 => text.insert(at, odd),
+                        _ => {}
+                    }
+                    let end: &[u8] = [&b";"[..], b"\n", b"\r", b"", b",x"][rnd(5) as usize];
+                    // Mostly a whole row after the field; in some, the end of a buffer.
+                    let k = if rnd(4) == 0 { rnd(30) } else { 29 };
+                    let fill = &b"5,33;5,39;4,99;2486;1,4;81,7\n"[..k as usize];
+                    let buf = [&text[..], end, fill].concat();
+                    let n = buf
+                        .iter()
+                        .position(|&c| c == b';' || c == b'\n' || c == b'\r')
+                        .unwrap_or(buf.len());
+                    let field = &buf[..n];
+                    let want = spec.parse(field).ok();
+                    let shown = String::from_utf8_lossy(&buf);
+                    rows += 1;
+                    if let Some((t, len)) = quick.read(&buf, b';') {
+                        assert_eq!((Some(t), len), (want, n), "{f:?}: {shown:?}");
+                        hits += 1;
+                        continue;
+                    }
+                    let got = match spec.parse_memo(field, &memo, &zc) {
+                        Some(t) => Some(t),
+                        None => {
+                            let r = spec.parse_with(field, &mut memo, &mut zc).ok();
+                            quick = spec.quick(&memo, &zc, b';');
+                            r
+                        }
+                    };
+                    assert_eq!(got, want, "{f:?}: {shown:?}");
+                }
+            }
+            // Texts of 32 bytes and more are never folded; the others mostly.
+            if kind == 4 {
+                assert_eq!(hits, 0);
+            } else {
+                assert!(hits * 5 > rows, "{f:?}: {hits} of {rows}");
+            }
+        }
+    }
 }
