@@ -2541,6 +2541,108 @@ mod tests {
     /// letters and delimiters: wherever the one-pass reader accepts a record,
     /// the field-by-field reader (std parsers behind it) gives the same time
     /// and the same readings, bit for bit.
+    /// A declared layout (semicolons, decimal commas, `dd.mm.yyyy HH:MM:SS`
+    /// local time in Europe/Berlin, end labels) read in one pass (with the
+    /// folded memo, [`crate::localtime::Quick`]) and the general way, row by
+    /// row, on invented rows: local time walked a week either side of both
+    /// clock changes of 2025 (dates from memory; the zone database decides)
+    /// and over the year's end, by a second to an hour and a half, some steps
+    /// backwards; midnight written `24:00:00` of the day before in some rows;
+    /// a byte of the row changed, dropped or added in some; empty fields. The
+    /// same times and readings bit for bit, wherever the one pass reads a row.
+    #[test]
+    fn declared_rows_in_one_pass_agree_with_the_general_way_across_clock_changes() {
+        let toml = "[logging]\nsample_rate_hz = 1\n\n[input]\ndelimiter = \";\"\n\
+            decimal = \",\"\n\n[input.time]\ncolumn = \"Zeit\"\n\
+            format = \"%d.%m.%Y %H:%M:%S\"\nzone = \"Europe/Berlin\"\nlabel = \"end\"\n\n\
+            [[channel]]\nid = \"a\"\nkind = \"speed\"\nresolution = 0.01\ncolumn = \"WG\"\n\n\
+            [[channel]]\nid = \"b\"\nkind = \"scalar\"\nresolution = 1\ncolumn = \"T\"\n";
+        let cfg = crate::config::parse(Path::new("s.toml"), toml).unwrap();
+        let header: [&[u8]; 3] = [b"Zeit", b"WG", b"T"];
+        let mut one = Parser::new(Path::new("x"), 1, header.into_iter(), &cfg).unwrap();
+        let mut general = one.clone();
+        assert!(one.declared.as_ref().is_some_and(|d| d.plan.is_some()));
+        let day = |y: i32, month: u8, d: u8| {
+            Timestamp::from_civil(qc_core::time::Civil {
+                year: y,
+                month,
+                day: d,
+                hour: 0,
+                minute: 0,
+                second: 0,
+                milli: 0,
+            })
+            .unwrap()
+            .millis()
+        };
+        let steps: [i64; 14] = [1, 1, 1, 1, 1, 1, 2, 59, 600, 1799, 3599, 5400, -1, -3599];
+        const ODD: &[u8] = b"0123456789:.;, \nx-";
+        let mut x = 7u64;
+        let mut rnd = |n: u64| {
+            x = x.wrapping_mul(6_364_136_223_846_793_005).wrapping_add(1);
+            (x >> 33) % n
+        };
+        let (mut agreed, mut delims) = (0, Vec::new());
+        for start in [day(2025, 3, 23), day(2025, 10, 19), day(2025, 12, 28)] {
+            let mut ms = start;
+            for _ in 0..2500 {
+                ms += steps[rnd(steps.len() as u64) as usize] * 1000;
+                let c = Timestamp::from_millis(ms).civil();
+                let time = if (c.hour, c.minute, c.second) == (0, 0, 0) && rnd(2) == 0 {
+                    let p = Timestamp::from_millis(ms - 86_400_000).civil();
+                    format!("{:02}.{:02}.{:04} 24:00:00", p.day, p.month, p.year)
+                } else {
+                    format!(
+                        "{:02}.{:02}.{:04} {:02}:{:02}:{:02}",
+                        c.day, c.month, c.year, c.hour, c.minute, c.second
+                    )
+                };
+                let ws = match rnd(20) {
+                    0 => String::new(),
+                    _ => format!("{},{:02}", rnd(30), rnd(100)),
+                };
+                let mut row = format!("{time};{ws};{}", rnd(400) as i64 - 50).into_bytes();
+                let at = rnd(row.len() as u64) as usize;
+                let odd = ODD[rnd(ODD.len() as u64) as usize];
+                match rnd(30) {
+                    0 => row[at] = odd,
+                    1 => {
+                        row.remove(at);
+                    }
+                    2 => row.insert(at, odd),
+                    _ => {}
+                }
+                let buf = [&row[..], b"\n01.01.2025 00:00:00;1,5;2\n"].concat();
+                let mut recs = Records::new(&buf, 1);
+                let Some((_, rec)) = recs.next_delimited(b';', &mut delims) else {
+                    continue;
+                };
+                let mut r1 = [Reading::Missing; 2];
+                let mut r2 = [Reading::Missing; 2];
+                let want = general.parse_declared(rec, &delims, &mut r2);
+                let shown = String::from_utf8_lossy(&buf);
+                let d = one.declared.as_deref_mut().unwrap();
+                if let Some((t, end)) = d.one_pass(&buf, 0, &mut r1) {
+                    assert_eq!(end, rec.len(), "{shown:?}");
+                    match want {
+                        Some(Ok(w)) => assert_eq!(t, w, "{shown:?}"),
+                        _ => panic!("{shown:?}: one pass {t:?}, general {want:?}"),
+                    }
+                    let bits = |r: &[Reading; 2]| {
+                        r.map(|v| match v {
+                            Reading::Value(f) => (0, f.to_bits()),
+                            Reading::Counts(k) => (1, k as u64),
+                            _ => (2, 0),
+                        })
+                    };
+                    assert_eq!(bits(&r1), bits(&r2), "{shown:?}");
+                    agreed += 1;
+                }
+            }
+        }
+        assert!(agreed > 5000, "{agreed}");
+    }
+
     #[test]
     fn one_pass_rows_agree_with_field_by_field_rows() {
         let toml = "[logging]\nsample_rate_hz = 1\n\
