@@ -1437,11 +1437,37 @@ impl Declared {
         start: usize,
         readings: &mut [Reading],
     ) -> Option<(Timestamp, usize)> {
-        let plan = self.plan.as_deref()?;
-        let table = &*self.table;
-        let Delimiter::Byte(delim) = table.delimiter else {
+        let Delimiter::Byte(delim) = self.table.delimiter else {
             return None;
         };
+        // The usual delimiters and separators as constants (a copy of the
+        // loop each, two registers free for it), the others as read.
+        match (delim, self.table.decimal_comma) {
+            (b';', true) => self.one_pass_in(buf, start, readings, b';', b','),
+            (b',', false) => self.one_pass_in(buf, start, readings, b',', b'.'),
+            (b';', false) => self.one_pass_in(buf, start, readings, b';', b'.'),
+            (b'\t', false) => self.one_pass_in(buf, start, readings, b'\t', b'.'),
+            (b'\t', true) => self.one_pass_in(buf, start, readings, b'\t', b','),
+            (d, comma) => {
+                let sep = if comma { b',' } else { b'.' };
+                self.one_pass_in(buf, start, readings, d, sep)
+            }
+        }
+    }
+
+    /// [`Declared::one_pass`] with `delim` as the delimiter and `sep` as the
+    /// decimal separator (the table's).
+    #[inline(always)]
+    fn one_pass_in(
+        &mut self,
+        buf: &[u8],
+        start: usize,
+        readings: &mut [Reading],
+        delim: u8,
+        sep: u8,
+    ) -> Option<(Timestamp, usize)> {
+        let plan = self.plan.as_deref()?;
+        let table = &*self.table;
         if let Some(c) = &table.comment {
             // A row that may be a comment (or starts with spaces) is read by
             // the general way.
@@ -1450,7 +1476,6 @@ impl Declared {
                 return None;
             }
         }
-        let sep = if table.decimal_comma { b',' } else { b'.' };
         let mut p = start;
         let mut time = None;
         for (i, step) in plan.iter().enumerate() {
