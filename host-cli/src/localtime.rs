@@ -425,6 +425,13 @@ impl Memo {
             }
         }
         let num = |(at, n): (usize, usize)| -> Option<i64> {
+            if n == 2 {
+                // The usual two digits, read directly (the same value as the
+                // loop below).
+                let [a, b] = *text.get(at..)?.first_chunk::<2>()?;
+                let (a, b) = (a.wrapping_sub(b'0'), b.wrapping_sub(b'0'));
+                return (a < 10 && b < 10).then(|| i64::from(a * 10 + b));
+            }
             let d = text.get(at..at + n)?;
             d.iter()
                 .all(u8::is_ascii_digit)
@@ -432,6 +439,59 @@ impl Memo {
         };
         let (m, s) = (num((m0, mn))?, num((s0, sn))?);
         (m < 60 && s < 60).then_some(self.hour_ms + m * 60_000 + s * 1000)
+    }
+}
+
+/// The memo's hour as [`TimeSpec::quick`] folds it: a time field of `len`
+/// bytes (8 to 31) whose bytes but the two-digit minute and second equal the
+/// memo's (the first 32 bytes compared as two 128-bit words under masks),
+/// read as the sample time `base` + the minute's and second's milliseconds
+/// when those lie in `lo..hi` (the zone's span and the supported span). The
+/// same results as [`TimeSpec::parse_memo`] on the field; `len` 0: reads
+/// nothing.
+#[derive(Clone, Copy, Debug, Default)]
+pub struct Quick {
+    len: usize,
+    text: [u128; 2],
+    mask: [u128; 2],
+    minute: usize,
+    second: usize,
+    base: i64,
+    lo: i64,
+    hi: i64,
+}
+
+impl Quick {
+    /// The sample time of the field at the start of `b` and its length, if
+    /// `b` holds 32 bytes, the field is `len` bytes long (ended by `delim`,
+    /// `\n` or `\r`) and reads in the memo's hour as above; `None` otherwise.
+    /// Out of line: inlined, its setup was repeated for every field of a
+    /// row's loop.
+    #[inline(never)]
+    pub fn read(&self, b: &[u8], delim: u8) -> Option<(Timestamp, usize)> {
+        let n = self.len;
+        let w = b.first_chunk::<32>()?;
+        if n == 0 {
+            return None;
+        }
+        let end = w[n & 31];
+        if !(end == delim || end == b'\n' || end == b'\r') {
+            return None;
+        }
+        let (lo, hi) = w.split_at(16);
+        let lo = u128::from_le_bytes(lo.try_into().ok()?);
+        let hi = u128::from_le_bytes(hi.try_into().ok()?);
+        if ((lo ^ self.text[0]) & self.mask[0]) | ((hi ^ self.text[1]) & self.mask[1]) != 0 {
+            return None;
+        }
+        let (m, s) = (self.minute & 31, self.second & 31);
+        let d = |i: usize| w[i & 31].wrapping_sub(b'0');
+        let (m1, m2, s1, s2) = (d(m), d(m + 1), d(s), d(s + 1));
+        if !(m1 < 6 && m2 < 10 && s1 < 6 && s2 < 10) {
+            return None;
+        }
+        let d = i64::from(m1 * 10 + m2) * 60_000 + i64::from(s1 * 10 + s2) * 1000;
+        (d >= self.lo && d < self.hi).then(|| (Timestamp::from_millis(self.base + d), n))
     }
 }
 
@@ -559,6 +619,81 @@ impl TimeSpec {
         };
         let t = Timestamp::from_millis(start);
         (t >= SAMPLES_FROM && t < SAMPLES_END).then_some(t)
+    }
+
+    /// [`TimeSpec::parse_memo`] of the hour that `memo` and `zc` hold, folded
+    /// into one compare of the fixed bytes, one read of the minute and second
+    /// and one window ([`Quick`]), for a field ended by `delim`, `\n`, `\r`
+    /// or the end of the text; an empty one (which reads nothing) when the
+    /// memo cannot be read so.
+    #[inline(never)]
+    pub fn quick(&self, memo: &Memo, zc: &ZoneCache, delim: u8) -> Quick {
+        let none = Quick::default();
+        let Form::Format(_) = &self.form else {
+            return none;
+        };
+        let [(m0, 2), (s0, 2)] = memo.spans else {
+            return none;
+        };
+        let len = memo.text.len();
+        if !memo.valid
+            || memo.words != 4
+            || memo
+                .text
+                .iter()
+                .any(|&c| c == delim || c == b'\n' || c == b'\r')
+        {
+            return none;
+        }
+        // Local milliseconds `ms` = `hour_ms` + `d` with `d` the minute's and
+        // second's milliseconds (0 to 3,599,000): the zone's span bounds `ms`,
+        // the supported span the sample time `base` + `d`.
+        const WIDE: i64 = i64::MAX / 4;
+        let (offset_ms, from, to) = match &self.zone {
+            Zone::Named(..) => (zc.offset_ms, zc.from, zc.to),
+            Zone::Utc => (0, -WIDE, WIDE),
+            Zone::Fixed(min) => (i64::from(*min) * 60_000, -WIDE, WIDE),
+        };
+        let period = match self.label {
+            Label::Start => 0,
+            Label::End => self.period_ms,
+        };
+        let hour_ms = memo.hour_ms;
+        let base = hour_ms - offset_ms - period;
+        let lo = 0
+            .max(from.saturating_sub(hour_ms))
+            .max(SAMPLES_FROM.millis().saturating_sub(base));
+        let hi = 3_600_000
+            .min(to.saturating_sub(hour_ms))
+            .min(SAMPLES_END.millis().saturating_sub(base));
+        if lo >= hi {
+            return none;
+        }
+        if len >= 32 || m0 + 2 > len || s0 + 2 > len {
+            return none;
+        }
+        let (mut text, mut mask) = ([0u8; 32], [0u8; 32]);
+        for (i, &c) in memo.text.iter().enumerate() {
+            text[i] = c;
+            if i.wrapping_sub(m0) >= 2 && i.wrapping_sub(s0) >= 2 {
+                mask[i] = 0xff;
+            }
+        }
+        let word = |a: &[u8; 32], k: usize| {
+            let mut h = [0u8; 16];
+            h.copy_from_slice(&a[16 * k..16 * k + 16]);
+            u128::from_le_bytes(h)
+        };
+        Quick {
+            len,
+            text: [word(&text, 0), word(&text, 1)],
+            mask: [word(&mask, 0), word(&mask, 1)],
+            minute: m0,
+            second: s0,
+            base,
+            lo,
+            hi,
+        }
     }
 
     /// [`TimeSpec::parse`] with the last row's time and the zone's span kept
@@ -957,7 +1092,8 @@ mod tests {
             assert!(compiled.read_spans(text.as_bytes()).is_ok(), "{f}: {text}");
             let mut variants = vec![text.clone().into_bytes()];
             for i in 0..text.len() {
-                for b in [b'0', b'5', b'6', b'9', b'x'] {
+                // `/` and `:` are the bytes just below `0` and above `9`.
+                for b in [b'0', b'5', b'6', b'9', b'x', b'/', b':'] {
                     let mut v = text.clone().into_bytes();
                     v[i] = b;
                     variants.push(v);
@@ -1017,5 +1153,209 @@ mod tests {
             iso(s.parse(b"2025-03-30 02:30").unwrap()),
             "2025-03-30T00:30:00Z"
         );
+    }
+
+    /// A declared layout's times read as its one-pass reader does ([`Quick`]
+    /// first, then [`TimeSpec::parse_memo`], then [`TimeSpec::parse_with`],
+    /// the fold rebuilt after each) against [`TimeSpec::parse`] alone with
+    /// neither memo nor zone span, on invented walks of local time: a week
+    /// either side of the clock changes of Europe/Berlin (one hour, at
+    /// 02:00/03:00 local), Australia/Lord_Howe (half an hour, at 02:00
+    /// local) and America/St_Johns in 2010 (one hour, at 00:01 local: the
+    /// zone's span ends a minute into an hour; dates from memory of the
+    /// zones' rules, the zone database decides), the year's end, the first and last days of the supported
+    /// span; steps of a second to an hour and a half, some backwards; `24:00`
+    /// for midnight under an end label; unpadded fields, texts of 12 to 33
+    /// bytes; a byte changed, dropped or added in some rows; fields ended by
+    /// `;`, `\n`, `\r`, the end of the text or not at all.
+    #[test]
+    fn quick_times_agree_with_the_format_and_the_zone() {
+        let named = |n: &str| zone(n).unwrap();
+        let with = |zone: Zone, label: Label, period_ms: i64, skipped: Pick, repeated: Pick| {
+            move |form: Form| TimeSpec {
+                form,
+                zone,
+                label,
+                period_ms,
+                skipped,
+                repeated,
+            }
+        };
+        let cases = [
+            (
+                with(
+                    named("Europe/Berlin"),
+                    Label::End,
+                    1000,
+                    Pick::Refuse,
+                    Pick::Refuse,
+                ),
+                "%d.%m.%Y %H:%M:%S",
+                0,
+            ),
+            (
+                with(
+                    named("Europe/Berlin"),
+                    Label::Start,
+                    1000,
+                    Pick::Earlier,
+                    Pick::Later,
+                ),
+                "%Y%m%d%H%M%S",
+                1,
+            ),
+            (
+                with(
+                    named("Australia/Lord_Howe"),
+                    Label::End,
+                    600_000,
+                    Pick::Later,
+                    Pick::Earlier,
+                ),
+                "%d.%m.%Y %H:%M:%S",
+                2,
+            ),
+            (
+                with(
+                    named("America/St_Johns"),
+                    Label::End,
+                    1000,
+                    Pick::Earlier,
+                    Pick::Refuse,
+                ),
+                "%d.%m.%Y %H:%M:%S",
+                0,
+            ),
+            (
+                with(
+                    Zone::Fixed(330),
+                    Label::Start,
+                    1000,
+                    Pick::Refuse,
+                    Pick::Refuse,
+                ),
+                "%Y-%m-%d %H:%M:%S local.end",
+                3,
+            ),
+            (
+                with(Zone::Utc, Label::End, 1000, Pick::Refuse, Pick::Refuse),
+                "%Y-%m-%d %H:%M:%S local.end.xyz",
+                4,
+            ),
+            (
+                with(
+                    Zone::Fixed(-600),
+                    Label::End,
+                    600_000,
+                    Pick::Refuse,
+                    Pick::Refuse,
+                ),
+                "%d.%m.%Y %H:%M:%S",
+                0,
+            ),
+        ];
+        let local = |y: i32, mo: u8, d: u8| {
+            Timestamp::from_civil(Civil {
+                year: y,
+                month: mo,
+                day: d,
+                hour: 0,
+                minute: 0,
+                second: 0,
+                milli: 0,
+            })
+            .unwrap()
+            .millis()
+        };
+        let starts = [
+            local(2025, 3, 23),
+            local(2025, 10, 19),
+            local(2025, 12, 28),
+            local(2025, 3, 30),
+            local(2025, 9, 28),
+            local(9999, 12, 24),
+            local(0, 1, 1),
+            local(2010, 3, 7),
+            local(2010, 10, 31),
+        ];
+        let steps: [i64; 16] = [
+            1, 1, 1, 1, 1, 1, 2, 59, 61, 600, 1799, 3599, 3600, 5400, -1, -3599,
+        ];
+        const ODD: &[u8] = b"0123456789:.; \n\rx-";
+        let mut x = 11u64;
+        let mut rnd = |n: u64| {
+            x = x.wrapping_mul(6_364_136_223_846_793_005).wrapping_add(1);
+            (x >> 33) % n
+        };
+        for (make, f, kind) in cases {
+            let spec = make(fmt(f));
+            let (mut memo, mut zc, mut quick) =
+                (Memo::default(), ZoneCache::default(), Quick::default());
+            let (mut hits, mut rows) = (0, 0);
+            for &start in &starts {
+                let mut ms = start;
+                for _ in 0..1500 {
+                    ms += steps[rnd(steps.len() as u64) as usize] * 1000;
+                    let c = Timestamp::from_millis(ms).civil();
+                    let (y, mo, d, h, mi, se) =
+                        (c.year, c.month, c.day, c.hour, c.minute, c.second);
+                    let mut text = match kind {
+                        0 if (h, mi, se) == (0, 0, 0) && rnd(2) == 0 => {
+                            let p = Timestamp::from_millis(ms - 86_400_000).civil();
+                            format!("{:02}.{:02}.{:04} 24:00:00", p.day, p.month, p.year)
+                        }
+                        0 => format!("{d:02}.{mo:02}.{y:04} {h:02}:{mi:02}:{se:02}"),
+                        1 => format!("{y:04}{mo:02}{d:02}{h:02}{mi:02}{se:02}"),
+                        2 => format!("{d}.{mo}.{y:04} {h}:{mi:02}:{se:02}"),
+                        3 => format!("{y:04}-{mo:02}-{d:02} {h:02}:{mi:02}:{se:02} local.end"),
+                        _ => format!("{y:04}-{mo:02}-{d:02} {h:02}:{mi:02}:{se:02} local.end.xyz"),
+                    }
+                    .into_bytes();
+                    let at = rnd(text.len() as u64) as usize;
+                    let odd = ODD[rnd(ODD.len() as u64) as usize];
+                    match rnd(40) {
+                        0 => text[at] = odd,
+                        1 => {
+                            text.remove(at);
+                        }
+                        2 => text.insert(at, odd),
+                        _ => {}
+                    }
+                    let end: &[u8] = [&b";"[..], b"\n", b"\r", b"", b",x"][rnd(5) as usize];
+                    // Mostly a whole row after the field; in some, the end of a buffer.
+                    let k = if rnd(4) == 0 { rnd(30) } else { 29 };
+                    let fill = &b"5,33;5,39;4,99;2486;1,4;81,7\n"[..k as usize];
+                    let buf = [&text[..], end, fill].concat();
+                    let n = buf
+                        .iter()
+                        .position(|&c| c == b';' || c == b'\n' || c == b'\r')
+                        .unwrap_or(buf.len());
+                    let field = &buf[..n];
+                    let want = spec.parse(field).ok();
+                    let shown = String::from_utf8_lossy(&buf);
+                    rows += 1;
+                    if let Some((t, len)) = quick.read(&buf, b';') {
+                        assert_eq!((Some(t), len), (want, n), "{f:?}: {shown:?}");
+                        hits += 1;
+                        continue;
+                    }
+                    let got = match spec.parse_memo(field, &memo, &zc) {
+                        Some(t) => Some(t),
+                        None => {
+                            let r = spec.parse_with(field, &mut memo, &mut zc).ok();
+                            quick = spec.quick(&memo, &zc, b';');
+                            r
+                        }
+                    };
+                    assert_eq!(got, want, "{f:?}: {shown:?}");
+                }
+            }
+            // Texts of 32 bytes and more are never folded; the others mostly.
+            if kind == 4 {
+                assert_eq!(hits, 0);
+            } else {
+                assert!(hits * 5 > rows, "{f:?}: {hits} of {rows}");
+            }
+        }
     }
 }

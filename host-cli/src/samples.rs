@@ -29,7 +29,7 @@ use qc_core::{Pushed, Reading, Timestamp};
 use crate::config::{Decode, StationFile};
 use crate::engine::Engine;
 use crate::limits;
-use crate::localtime::{Memo, TimeProblem, ZoneCache};
+use crate::localtime::{Memo, Quick, TimeProblem, ZoneCache};
 use crate::provenance::{DigestHandle, FileDigest, HashOn};
 use crate::reader::{FileReader, Head, Piece};
 use crate::table::{Column, Delimiter, Table};
@@ -1283,6 +1283,9 @@ pub struct Declared {
     /// The last row's time and the zone's span, to read the next faster.
     memo: Memo,
     zone: ZoneCache,
+    /// The memo's hour folded for [`Declared::one_pass`] ([`Quick`]): set
+    /// after each time that `memo` and `zone` did not read.
+    quick: Quick,
     /// A row read in one pass ([`Declared::one_pass`]): what each field
     /// holds, up to the last one read; `None` when the layout needs more
     /// (several time columns, a filter, quality columns, missing-value texts,
@@ -1414,6 +1417,7 @@ impl Declared {
             tbuf: Vec::with_capacity(64),
             memo: Memo::default(),
             zone: ZoneCache::default(),
+            quick: Quick::default(),
             plan,
         })
     }
@@ -1433,11 +1437,37 @@ impl Declared {
         start: usize,
         readings: &mut [Reading],
     ) -> Option<(Timestamp, usize)> {
-        let plan = self.plan.as_deref()?;
-        let table = &*self.table;
-        let Delimiter::Byte(delim) = table.delimiter else {
+        let Delimiter::Byte(delim) = self.table.delimiter else {
             return None;
         };
+        // The usual delimiters and separators as constants (a copy of the
+        // loop each, two registers free for it), the others as read.
+        match (delim, self.table.decimal_comma) {
+            (b';', true) => self.one_pass_in(buf, start, readings, b';', b','),
+            (b',', false) => self.one_pass_in(buf, start, readings, b',', b'.'),
+            (b';', false) => self.one_pass_in(buf, start, readings, b';', b'.'),
+            (b'\t', false) => self.one_pass_in(buf, start, readings, b'\t', b'.'),
+            (b'\t', true) => self.one_pass_in(buf, start, readings, b'\t', b','),
+            (d, comma) => {
+                let sep = if comma { b',' } else { b'.' };
+                self.one_pass_in(buf, start, readings, d, sep)
+            }
+        }
+    }
+
+    /// [`Declared::one_pass`] with `delim` as the delimiter and `sep` as the
+    /// decimal separator (the table's).
+    #[inline(always)]
+    fn one_pass_in(
+        &mut self,
+        buf: &[u8],
+        start: usize,
+        readings: &mut [Reading],
+        delim: u8,
+        sep: u8,
+    ) -> Option<(Timestamp, usize)> {
+        let plan = self.plan.as_deref()?;
+        let table = &*self.table;
         if let Some(c) = &table.comment {
             // A row that may be a comment (or starts with spaces) is read by
             // the general way.
@@ -1446,7 +1476,6 @@ impl Declared {
                 return None;
             }
         }
-        let sep = if table.decimal_comma { b',' } else { b'.' };
         let mut p = start;
         let mut time = None;
         for (i, step) in plan.iter().enumerate() {
@@ -1459,14 +1488,23 @@ impl Declared {
             let rest = buf.get(p..)?;
             match *step {
                 Step::Time => {
+                    if let Some((t, n)) = self.quick.read(rest, delim) {
+                        time = Some(t);
+                        p += n;
+                        continue;
+                    }
                     let n = field_len(rest, delim);
                     let text = &rest[..n];
                     let t = match table.time.parse_memo(text, &self.memo, &self.zone) {
                         Some(t) => t,
-                        None => table
-                            .time
-                            .parse_with(text, &mut self.memo, &mut self.zone)
-                            .ok()?,
+                        None => {
+                            let t = table
+                                .time
+                                .parse_with(text, &mut self.memo, &mut self.zone)
+                                .ok();
+                            self.quick = table.time.quick(&self.memo, &self.zone, delim);
+                            t?
+                        }
                     };
                     time = Some(t);
                     p += n;
@@ -2378,10 +2416,258 @@ mod tests {
         }
     }
 
+    /// Invented rows of a file, in file order (so that the time cache moves
+    /// on as in a replay), each read by the one-pass reader
+    /// ([`Parser::parse_plain`], inside a longer buffer as the replay sees
+    /// it) and by the field-by-field reader ([`Parser::parse`]): good rows,
+    /// numbers of every width from 0 to 17 digits with and without a sign or
+    /// a decimal point, leap days, hour and day changes, offsets, fractional
+    /// and out-of-range seconds, epoch seconds, comments, spaces, NaN, and
+    /// rows with a field too many or too few. Wherever the one-pass reader
+    /// takes a row, the other gives the same time and readings, bit for bit
+    /// (its numbers are `str::parse`'s: Rust's standard library); rows it
+    /// leaves are the general reader's alone.
+    #[test]
+    fn one_pass_rows_agree_with_the_general_reader_on_invented_files() {
+        let toml = "[logging]\nsample_rate_hz = 1\n\
+            [[channel]]\nid = \"a\"\nkind = \"speed\"\nresolution = 0.01\n\
+            [[channel]]\nid = \"d\"\nkind = \"direction\"\nslope = 0.1\n\
+            [[channel]]\nid = \"t\"\nkind = \"scalar\"\nresolution = 0.1\n";
+        let cfg = crate::config::parse(Path::new("s.toml"), toml).unwrap();
+        let header: [&[u8]; 4] = [b"time", b"a", b"d", b"t"];
+        let mut fast = Parser::new(Path::new("x"), 1, header.into_iter(), &cfg).unwrap();
+        assert!(
+            matches!(fast.cols[2], Col::Counts(_)),
+            "d is read as counts"
+        );
+        let mut general = fast.clone();
+        let mut x = 0x2545_F491_4F6C_DD1Du64;
+        let mut rnd = |n: u64| {
+            x ^= x << 13;
+            x ^= x >> 7;
+            x ^= x << 17;
+            x % n
+        };
+        // Times: steps of 1 s to 1 h from just before a leap day's end, a
+        // year end and an hour's end, and odd ones.
+        let odd = [
+            "2024-02-29T23:59:59Z",
+            "2025-02-29T00:00:01Z",
+            "2024-02-29T23:59:60Z",
+            "2025-01-20T00:60:00Z",
+            "2025-01-20T00:00:01z",
+            "2025-01-20T00:00:01.5Z",
+            "2025-01-20T01:00:01+01:00",
+            "2025-01-20T00:00:01-00:30",
+            "2025-13-01T00:00:00Z",
+            "2025-01-20 00:00:01Z",
+            "1737331201",
+            "17373312010000",
+            "-5",
+            "",
+            " 2025-01-20T00:00:01Z",
+        ];
+        let starts = [
+            "2024-02-29T23:58:00Z",
+            "2024-12-31T23:59:00Z",
+            "2025-01-20T00:59:30Z",
+        ];
+        let mut t = parse_time(starts[0].as_bytes()).unwrap().millis();
+        let number = |rnd: &mut dyn FnMut(u64) -> u64| -> Vec<u8> {
+            match rnd(12) {
+                0 => b"".to_vec(),
+                1 => [
+                    &b"NaN"[..],
+                    b" 1.5",
+                    b"1e3",
+                    b"-",
+                    b".",
+                    b"1.2.3",
+                    b"+7",
+                    b"-0.0",
+                ][rnd(8) as usize]
+                    .to_vec(),
+                k => {
+                    // Mostly the usual 1 to 4 digits; now and then 0 to 17.
+                    let n = if k < 4 { rnd(18) } else { 1 + rnd(4) } as usize;
+                    let mut f: Vec<u8> = (0..n).map(|_| b'0' + rnd(10) as u8).collect();
+                    if rnd(3) > 0 {
+                        f.insert(rnd(n as u64 + 1) as usize, b'.');
+                    }
+                    if rnd(5) == 0 {
+                        f.insert(0, if rnd(2) == 0 { b'-' } else { b'+' });
+                    }
+                    f
+                }
+            }
+        };
+        let (mut agreed, mut left, mut commas) = (0, 0, Vec::new());
+        for row in 0..60_000 {
+            if row % 5_000 == 0 {
+                t = parse_time(starts[rnd(3) as usize].as_bytes())
+                    .unwrap()
+                    .millis();
+            }
+            t += [1_000, 1_000, 1_000, 7_000, 3_600_000][rnd(5) as usize];
+            let mut rec = if rnd(20) == 0 {
+                odd[rnd(odd.len() as u64) as usize].as_bytes().to_vec()
+            } else {
+                Rfc3339(Timestamp::from_millis(t)).to_string().into_bytes()
+            };
+            let fields = match rnd(40) {
+                0 => 2,
+                1 => 4,
+                _ => 3,
+            };
+            for _ in 0..fields {
+                rec.push(b',');
+                rec.extend(number(&mut rnd));
+            }
+            if rnd(200) == 0 {
+                rec = b"# a comment, 1, 2, 3".to_vec();
+            }
+            // The replay's buffer: the row, its end, and more rows after it.
+            let term: &[u8] = [&b"\n"[..], b"\r\n", b"\r"][rnd(3) as usize];
+            let buf = [&rec[..], term, b"2025-01-20T00:00:02Z,1.5,20,3.5\n"].concat();
+            let mut r1 = [Reading::Missing; 3];
+            let mut r2 = [Reading::Missing; 3];
+            let bits = |r: &[Reading; 3]| {
+                r.map(|v| match v {
+                    Reading::Value(f) => (0, f.to_bits()),
+                    Reading::Counts(k) => (1, k as u64),
+                    _ => (2, 0),
+                })
+            };
+            find_commas(&rec, &mut commas);
+            let want = general.parse(&rec, &commas, &mut r2);
+            let shown = String::from_utf8_lossy(&rec).into_owned();
+            match fast.parse_plain(&buf, 0, &mut r1) {
+                Some((t1, end)) => {
+                    assert_eq!(end, rec.len(), "{shown}");
+                    let t2 = want.unwrap_or_else(|e| panic!("{e}: {shown}"));
+                    assert_eq!(t1, t2, "{shown}");
+                    assert_eq!(bits(&r1), bits(&r2), "{shown}");
+                    agreed += 1;
+                }
+                None => {
+                    // As the replay does: the general reader takes the row
+                    // (and keeps the time cache in step).
+                    let again = fast.parse(&rec, &commas, &mut r1);
+                    assert_eq!(again.is_ok(), want.is_ok(), "{shown}");
+                    left += 1;
+                }
+            }
+        }
+        // Most rows are plain; the odd ones must have reached the general reader.
+        assert!(agreed > 10_000 && left > 10_000, "{agreed} {left}");
+    }
+
     /// Random records over an alphabet of digits, signs, dots, spaces,
     /// letters and delimiters: wherever the one-pass reader accepts a record,
     /// the field-by-field reader (std parsers behind it) gives the same time
     /// and the same readings, bit for bit.
+    /// A declared layout (semicolons, decimal commas, `dd.mm.yyyy HH:MM:SS`
+    /// local time in Europe/Berlin, end labels) read in one pass (with the
+    /// folded memo, [`crate::localtime::Quick`]) and the general way, row by
+    /// row, on invented rows: local time walked a week either side of both
+    /// clock changes of 2025 (dates from memory; the zone database decides)
+    /// and over the year's end, by a second to an hour and a half, some steps
+    /// backwards; midnight written `24:00:00` of the day before in some rows;
+    /// a byte of the row changed, dropped or added in some; empty fields. The
+    /// same times and readings bit for bit, wherever the one pass reads a row.
+    #[test]
+    fn declared_rows_in_one_pass_agree_with_the_general_way_across_clock_changes() {
+        let toml = "[logging]\nsample_rate_hz = 1\n\n[input]\ndelimiter = \";\"\n\
+            decimal = \",\"\n\n[input.time]\ncolumn = \"Zeit\"\n\
+            format = \"%d.%m.%Y %H:%M:%S\"\nzone = \"Europe/Berlin\"\nlabel = \"end\"\n\n\
+            [[channel]]\nid = \"a\"\nkind = \"speed\"\nresolution = 0.01\ncolumn = \"WG\"\n\n\
+            [[channel]]\nid = \"b\"\nkind = \"scalar\"\nresolution = 1\ncolumn = \"T\"\n";
+        let cfg = crate::config::parse(Path::new("s.toml"), toml).unwrap();
+        let header: [&[u8]; 3] = [b"Zeit", b"WG", b"T"];
+        let mut one = Parser::new(Path::new("x"), 1, header.into_iter(), &cfg).unwrap();
+        let mut general = one.clone();
+        assert!(one.declared.as_ref().is_some_and(|d| d.plan.is_some()));
+        let day = |y: i32, month: u8, d: u8| {
+            Timestamp::from_civil(qc_core::time::Civil {
+                year: y,
+                month,
+                day: d,
+                hour: 0,
+                minute: 0,
+                second: 0,
+                milli: 0,
+            })
+            .unwrap()
+            .millis()
+        };
+        let steps: [i64; 14] = [1, 1, 1, 1, 1, 1, 2, 59, 600, 1799, 3599, 5400, -1, -3599];
+        const ODD: &[u8] = b"0123456789:.;, \nx-";
+        let mut x = 7u64;
+        let mut rnd = |n: u64| {
+            x = x.wrapping_mul(6_364_136_223_846_793_005).wrapping_add(1);
+            (x >> 33) % n
+        };
+        let (mut agreed, mut delims) = (0, Vec::new());
+        for start in [day(2025, 3, 23), day(2025, 10, 19), day(2025, 12, 28)] {
+            let mut ms = start;
+            for _ in 0..2500 {
+                ms += steps[rnd(steps.len() as u64) as usize] * 1000;
+                let c = Timestamp::from_millis(ms).civil();
+                let time = if (c.hour, c.minute, c.second) == (0, 0, 0) && rnd(2) == 0 {
+                    let p = Timestamp::from_millis(ms - 86_400_000).civil();
+                    format!("{:02}.{:02}.{:04} 24:00:00", p.day, p.month, p.year)
+                } else {
+                    format!(
+                        "{:02}.{:02}.{:04} {:02}:{:02}:{:02}",
+                        c.day, c.month, c.year, c.hour, c.minute, c.second
+                    )
+                };
+                let ws = match rnd(20) {
+                    0 => String::new(),
+                    _ => format!("{},{:02}", rnd(30), rnd(100)),
+                };
+                let mut row = format!("{time};{ws};{}", rnd(400) as i64 - 50).into_bytes();
+                let at = rnd(row.len() as u64) as usize;
+                let odd = ODD[rnd(ODD.len() as u64) as usize];
+                match rnd(30) {
+                    0 => row[at] = odd,
+                    1 => {
+                        row.remove(at);
+                    }
+                    2 => row.insert(at, odd),
+                    _ => {}
+                }
+                let buf = [&row[..], b"\n01.01.2025 00:00:00;1,5;2\n"].concat();
+                let mut recs = Records::new(&buf, 1);
+                let Some((_, rec)) = recs.next_delimited(b';', &mut delims) else {
+                    continue;
+                };
+                let mut r1 = [Reading::Missing; 2];
+                let mut r2 = [Reading::Missing; 2];
+                let want = general.parse_declared(rec, &delims, &mut r2);
+                let shown = String::from_utf8_lossy(&buf);
+                let d = one.declared.as_deref_mut().unwrap();
+                if let Some((t, end)) = d.one_pass(&buf, 0, &mut r1) {
+                    assert_eq!(end, rec.len(), "{shown:?}");
+                    match want {
+                        Some(Ok(w)) => assert_eq!(t, w, "{shown:?}"),
+                        _ => panic!("{shown:?}: one pass {t:?}, general {want:?}"),
+                    }
+                    let bits = |r: &[Reading; 2]| {
+                        r.map(|v| match v {
+                            Reading::Value(f) => (0, f.to_bits()),
+                            Reading::Counts(k) => (1, k as u64),
+                            _ => (2, 0),
+                        })
+                    };
+                    assert_eq!(bits(&r1), bits(&r2), "{shown:?}");
+                    agreed += 1;
+                }
+            }
+        }
+        assert!(agreed > 5000, "{agreed}");
+    }
+
     #[test]
     fn one_pass_rows_agree_with_field_by_field_rows() {
         let toml = "[logging]\nsample_rate_hz = 1\n\
