@@ -1637,6 +1637,19 @@ fn leading_missing(rs: &[Reading]) -> usize {
         .count()
 }
 
+/// The range of values a column's loop classifies inline: the channel's
+/// range for a channel without a re-calibration or a missing-value code in
+/// its range, else an empty one (`lo > hi`), which sends every value to the
+/// out-of-line classification.
+#[inline(always)]
+fn inline_range(ch: &Channel) -> (f64, f64) {
+    if ch.cfg.recal.is_none() && !ch.code_in_values {
+        ch.cfg.range
+    } else {
+        (f64::INFINITY, f64::NEG_INFINITY)
+    }
+}
+
 /// What classifying a speed or scalar reading needs, hoisted out of a
 /// column's loop: the values [`Channel::classify_block`] takes inline (in
 /// range, of a channel without a re-calibration or a missing-value code in
@@ -1657,18 +1670,10 @@ struct Linear {
 impl Linear {
     #[inline(always)]
     fn of(ch: &Channel) -> Linear {
-        let values = ch.cfg.recal.is_none() && !ch.code_in_values;
+        let (lo, hi) = inline_range(ch);
         Linear {
-            lo: if values {
-                ch.cfg.range.0
-            } else {
-                f64::INFINITY
-            },
-            hi: if values {
-                ch.cfg.range.1
-            } else {
-                f64::NEG_INFINITY
-            },
+            lo,
+            hi,
             offset: ch.cfg.scale.offset,
             step: ch.cfg.scale.step,
             inv: ch.inv_step.unwrap_or(1.0),
@@ -1728,18 +1733,10 @@ struct Vane {
 impl Vane {
     #[inline(always)]
     fn of(ch: &Channel) -> Vane {
-        let values = ch.cfg.recal.is_none() && !ch.code_in_values;
+        let (lo, hi) = inline_range(ch);
         Vane {
-            lo: if values {
-                ch.cfg.range.0
-            } else {
-                f64::INFINITY
-            },
-            hi: if values {
-                ch.cfg.range.1
-            } else {
-                f64::NEG_INFINITY
-            },
+            lo,
+            hi,
             inline_lo: ch.dir_inline_lo,
             fast_k: ch.dir_fast_k,
             mul: ch.dir_mul as u32,
