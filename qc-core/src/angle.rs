@@ -108,23 +108,7 @@ pub fn sin_cos_cd(cd: i32) -> (i64, i64) {
 /// divide instruction, and its division helper costs more than the rest.
 #[inline]
 pub(crate) fn sin_cos_q30(cd: i32) -> (i32, i32) {
-    let mut r = cd;
-    if !(0..FULL_TURN_CD).contains(&r) {
-        r = reduce_turn(r);
-    }
-    // Comparisons, not `r / QUARTER_CD` (nor a loop the compiler turns into one).
-    let quadrant = if r >= 2 * QUARTER_CD {
-        if r >= 3 * QUARTER_CD {
-            3
-        } else {
-            2
-        }
-    } else if r >= QUARTER_CD {
-        1
-    } else {
-        0
-    };
-    r -= quadrant * QUARTER_CD;
+    let (quadrant, r) = quadrant_of(cd);
     // r / 100 for 0 <= r < 9_000 (checked for every r in the tests).
     let deg = ((r as u32 * 5_243) >> 19) as usize;
     let centi = (r as usize) - 100 * deg;
@@ -141,12 +125,7 @@ pub(crate) fn sin_cos_q30(cd: i32) -> (i32, i32) {
     // sin(a + b) and cos(a + b), both in [0, 2^30]: rounded Q60 sums to Q30.
     let s = round_q60((mul_u32(sd, cc) + mul_u32(cd_, sc)) as i64) as i32;
     let c = round_q60(mul_u32(cd_, cc) as i64 - mul_u32(sd, sc) as i64) as i32;
-    match quadrant {
-        0 => (s, c),
-        1 => (c, -s),
-        2 => (-s, -c),
-        _ => (-c, s),
-    }
+    rotate(quadrant, s, c)
 }
 
 /// `(sin, cos)` of every centidegree of the first quadrant (`0..9_000`),
@@ -177,6 +156,18 @@ static QUADRANT_Q30: [(i32, i32); 9_000] = {
 /// host's block path, which pushes a column of directions at once.
 #[inline(always)]
 pub(crate) fn sin_cos_q30_table(cd: i32) -> (i32, i32) {
+    let (quadrant, r) = quadrant_of(cd);
+    let Some(&(s, c)) = QUADRANT_Q30.get(r as usize) else {
+        return (0, 0);
+    };
+    rotate(quadrant, s, c)
+}
+
+/// `cd`'s quadrant (0 to 3) and its angle within it (`0..QUARTER_CD`), for
+/// [`sin_cos_q30`] and [`sin_cos_q30_table`]: comparisons, not
+/// `r / QUARTER_CD` (nor a loop the compiler turns into one).
+#[inline(always)]
+fn quadrant_of(cd: i32) -> (i32, i32) {
     let mut r = cd;
     if !(0..FULL_TURN_CD).contains(&r) {
         r = reduce_turn(r);
@@ -192,10 +183,12 @@ pub(crate) fn sin_cos_q30_table(cd: i32) -> (i32, i32) {
     } else {
         0
     };
-    r -= quadrant * QUARTER_CD;
-    let Some(&(s, c)) = QUADRANT_Q30.get(r as usize) else {
-        return (0, 0);
-    };
+    (quadrant, r - quadrant * QUARTER_CD)
+}
+
+/// `(sin, cos)` of the first quadrant turned into `quadrant`.
+#[inline(always)]
+fn rotate(quadrant: i32, s: i32, c: i32) -> (i32, i32) {
     match quadrant {
         0 => (s, c),
         1 => (c, -s),
