@@ -928,8 +928,6 @@ pub struct Parser {
     /// Channel ids in station-file order, for messages.
     ids: Vec<String>,
     time: TimeCache,
-    /// The shape of the last row the one pass read ([`RowTemplate`]).
-    template: Box<RowTemplate>,
     /// A declared layout (`[input]`), read by [`Declared`]; `None` for
     /// tenmin's own samples CSV.
     declared: Option<Box<Declared>>,
@@ -951,7 +949,6 @@ impl Parser {
                 cols: header(path, line, fields, cfg)?,
                 ids,
                 time: TimeCache::default(),
-                template: Box::default(),
                 declared: None,
             });
         }
@@ -960,7 +957,6 @@ impl Parser {
             declared: Some(Box::new(Declared::new(path, line, fields, cfg)?)),
             ids,
             time: TimeCache::default(),
-            template: Box::default(),
         })
     }
 
@@ -1011,23 +1007,6 @@ impl Parser {
     /// [`Parser::parse`] then reads (`readings` may be partly written).
     #[inline]
     pub fn parse_plain(
-        &mut self,
-        buf: &[u8],
-        start: usize,
-        readings: &mut [Reading],
-    ) -> Option<(Timestamp, usize)> {
-        if let Some(got) = self.template.read(buf, start, readings) {
-            return Some(got);
-        }
-        let got = self.parse_plain_fields(buf, start, readings)?;
-        self.template
-            .build(&self.cols, &self.time, buf, start, got.1);
-        Some(got)
-    }
-
-    /// [`Parser::parse_plain`] field by field, without the template.
-    #[inline]
-    fn parse_plain_fields(
         &mut self,
         buf: &[u8],
         start: usize,
@@ -1858,255 +1837,6 @@ impl TimeCache {
             }
         }
         Ok(t)
-    }
-}
-
-/// Words of a row template: rows of up to 127 bytes and their terminator.
-const TEMPLATE_WORDS: usize = 16;
-/// Fields of a row template.
-const TEMPLATE_FIELDS: usize = 24;
-/// Each byte's high bit.
-const HIGH: u64 = 0x8080_8080_8080_8080;
-
-/// One 8-byte word of a row template: the bytes that must be the template's
-/// (`mask`, `bytes`) and those that must be ASCII digits (`digits`: their
-/// high bits).
-#[derive(Clone, Copy, Debug, Default)]
-struct TemplateWord {
-    bytes: u64,
-    mask: u64,
-    digits: u64,
-}
-
-/// One field of a row template: where its digits are (the 8 bytes from
-/// `at`, the digits under `digits`, those before the point under `before`),
-/// how many there are and how many of them are decimals, and its sign.
-#[derive(Clone, Copy, Debug, Default)]
-struct TemplateField {
-    /// The channel it is read into.
-    chan: usize,
-    /// 0: empty (missing), 1: a value, 2: counts.
-    kind: u8,
-    neg: bool,
-    at: usize,
-    digits: u64,
-    before: u64,
-    /// `8 * (8 - n)` for its `n` digits.
-    left: u32,
-    nf: usize,
-}
-
-/// The shape of a row the one pass read cleanly: its length, its delimiters,
-/// signs, points, time text and terminator at the same offsets, digits
-/// everywhere else. A row of the same shape is checked eight bytes at a time
-/// and its numbers read at known offsets: the same digits, decimals and signs
-/// as the one pass would find, so the same values ([`quotient`]) and times
-/// (the cached hour, [`TimeCache`]). Any other row goes the one pass's way.
-#[derive(Clone, Debug, Default)]
-struct RowTemplate {
-    /// Words to check (0: no template).
-    words: usize,
-    /// Bytes a row needs in the buffer from its start (its words and the
-    /// 8 bytes from each field's first digit).
-    span: usize,
-    /// The row's length without its terminator.
-    len: usize,
-    w: [TemplateWord; TEMPLATE_WORDS],
-    fields: usize,
-    f: [TemplateField; TEMPLATE_FIELDS],
-    /// The offset of the time (`YYYY-MM-DDTHH:MM:SSZ`) and its hour's
-    /// milliseconds.
-    time: usize,
-    hour_ms: i64,
-}
-
-impl RowTemplate {
-    /// The row at `buf[start..]` read by the template: its time and the
-    /// offset of its terminator, or `None` when it has another shape (or too
-    /// few bytes follow it in `buf`).
-    #[inline]
-    fn read(
-        &self,
-        buf: &[u8],
-        start: usize,
-        readings: &mut [Reading],
-    ) -> Option<(Timestamp, usize)> {
-        let row = buf.get(start..start + self.span)?;
-        if self.words == 0 {
-            return None;
-        }
-        let mut bad = 0u64;
-        for (c, w) in row
-            .chunks_exact(8)
-            .zip(&self.w[..self.words.min(TEMPLATE_WORDS)])
-        {
-            let x = u64::from_le_bytes(c.try_into().ok()?);
-            let nd = x.wrapping_add(0x4646_4646_4646_4646)
-                | !((x | HIGH).wrapping_sub(0x3030_3030_3030_3030))
-                | x;
-            bad |= ((x ^ w.bytes) & w.mask) | (nd & w.digits);
-        }
-        if bad != 0 {
-            return None;
-        }
-        let t = self.time;
-        let d = |i: usize| row.get(t + i).map_or(9, |c| c.wrapping_sub(b'0'));
-        let (m1, s1) = (d(14), d(17));
-        if m1 > 5 || s1 > 5 {
-            return None;
-        }
-        let ms = (i64::from(m1 * 10 + d(15)) * 60 + i64::from(s1 * 10 + d(18))) * 1000;
-        for f in &self.f[..self.fields.min(TEMPLATE_FIELDS)] {
-            let x = u64::from_le_bytes(row.get(f.at..f.at + 8)?.try_into().ok()?);
-            // The digits' values (checked digits: no borrow), the point
-            // squeezed out, the last digit in the top byte; then pairs,
-            // fours and eights (three multiplications).
-            let v = (x & f.digits).wrapping_sub(0x3030_3030_3030_3030 & f.digits);
-            let v = ((v & f.before) | ((v & !f.before) >> 8)) << f.left;
-            let v = (v.wrapping_mul(10 * 256 + 1) >> 8) & 0x00FF_00FF_00FF_00FF;
-            let v = (v.wrapping_mul(100 * 65_536 + 1) >> 16) & 0x0000_FFFF_0000_FFFF;
-            let m = v.wrapping_mul(10_000 * (1 << 32) + 1) >> 32;
-            let r = match f.kind {
-                1 => {
-                    let v = quotient(m, f.nf);
-                    Reading::Value(if f.neg { -v } else { v })
-                }
-                2 => {
-                    let k = m as i32;
-                    Reading::Counts(if f.neg { -k } else { k })
-                }
-                _ => Reading::Missing,
-            };
-            *readings.get_mut(f.chan)? = r;
-        }
-        Some((Timestamp::from_millis(self.hour_ms + ms), start + self.len))
-    }
-
-    /// The template of the row `buf[start..end]` (ended by `buf[end]`) that
-    /// the one pass read with `cols` and `time`; none if it has another
-    /// shape than the template knows.
-    #[cold]
-    #[inline(never)]
-    fn build(&mut self, cols: &[Col], time: &TimeCache, buf: &[u8], start: usize, end: usize) {
-        self.words = 0;
-        let len = end.saturating_sub(start);
-        let words = len / 8 + 1;
-        let (Some(hour_ms), Some(win)) = (time.hour_ms, buf.get(start..start + words * 8)) else {
-            return;
-        };
-        if words > TEMPLATE_WORDS || cols.len() > TEMPLATE_FIELDS + 1 {
-            return;
-        }
-        let row = &win[..len];
-        // Every byte through the terminator is the template's, but digits.
-        let mut mask = [!0u64; TEMPLATE_WORDS];
-        let mut digit = [0u64; TEMPLATE_WORDS];
-        let tail = (len + 1) % 8;
-        if tail != 0 {
-            mask[words - 1] = (1u64 << (8 * tail)) - 1;
-        }
-        let mut set_digits = |from: usize, to: usize| {
-            for j in from..to {
-                let s = 8 * (j % 8);
-                mask[j / 8] &= !(0xFF << s);
-                digit[j / 8] |= 0x80 << s;
-            }
-        };
-        let mut nf = 0;
-        let mut p = 0;
-        let mut span = words * 8;
-        for (i, col) in cols.iter().enumerate() {
-            if i > 0 {
-                if row.get(p) != Some(&b',') {
-                    return;
-                }
-                p += 1;
-            }
-            let Some(rest) = row.get(p..) else { return };
-            let n = rest.iter().position(|&c| c == b',').unwrap_or(rest.len());
-            let field = &rest[..n];
-            match *col {
-                Col::Time => {
-                    if n != 20 || field[..13] != time.prefix || minute_second_ms(field).is_none() {
-                        return;
-                    }
-                    set_digits(p + 14, p + 16);
-                    set_digits(p + 17, p + 19);
-                    self.time = p;
-                }
-                Col::Value(c) | Col::Counts(c) => {
-                    let counts = matches!(col, Col::Counts(_));
-                    let (neg, skip) = match field.first() {
-                        Some(b'-') => (true, 1),
-                        Some(b'+') => (false, 1),
-                        _ => (false, 0),
-                    };
-                    let body = &field[skip..];
-                    let nw = body.iter().take_while(|c| c.is_ascii_digit()).count();
-                    let nfr = match &body[nw..] {
-                        [] => 0,
-                        [b'.', d @ ..] if !counts && d.iter().all(u8::is_ascii_digit) => d.len(),
-                        _ => return,
-                    };
-                    let dot = usize::from(body.len() > nw);
-                    let total = nw + nfr;
-                    let kind = if n == 0 {
-                        0
-                    } else if total == 0 || total > 15 || (counts && total > 9) {
-                        return;
-                    } else if counts {
-                        2
-                    } else {
-                        1
-                    };
-                    let whole = p + skip;
-                    let frac = whole + nw + dot;
-                    set_digits(whole, whole + nw);
-                    set_digits(frac, frac + nfr);
-                    // The digits and the point within 8 bytes from the first.
-                    if nw + dot + nfr > 8 {
-                        return;
-                    }
-                    let ones = |n: usize| if n >= 8 { !0u64 } else { (1u64 << (8 * n)) - 1 };
-                    let digits = ones(nw) | (ones(nfr) << (8 * (nw + dot)));
-                    span = span.max(whole + 8);
-                    let Some(f) = self.f.get_mut(nf) else { return };
-                    *f = TemplateField {
-                        chan: c,
-                        kind,
-                        neg,
-                        at: whole,
-                        digits: if kind == 0 { 0 } else { digits },
-                        before: ones(nw),
-                        left: (8 * (8 - total.clamp(1, 8))) as u32,
-                        nf: nfr,
-                    };
-                    nf += 1;
-                }
-            }
-            p += n;
-        }
-        if p != len {
-            return;
-        }
-        for ((w, c), (m, d)) in self
-            .w
-            .iter_mut()
-            .zip(win.chunks_exact(8))
-            .zip(mask.iter().zip(&digit))
-        {
-            let Ok(c) = c.try_into() else { return };
-            *w = TemplateWord {
-                bytes: u64::from_le_bytes(c) & m,
-                mask: *m,
-                digits: *d,
-            };
-        }
-        self.fields = nf;
-        self.span = span;
-        self.len = len;
-        self.hour_ms = hour_ms;
-        self.words = words;
     }
 }
 
