@@ -193,14 +193,18 @@ struct Run<'a, const C: usize> {
     events: Vec<Ev<C>>,
     stats: InputStats,
     readings: [Reading; C],
-    /// Good rows read after the first accepted one, not pushed yet (every
-    /// channel slot, the unused ones missing).
+    /// Good rows read after the first accepted one, not pushed yet (the
+    /// configured channels only: the unused slots' readings are `pad`).
     block: Block,
+    /// The readings of the unused channel slots in a run: all missing.
+    pad: Vec<Reading>,
 }
 
 impl<'a, const C: usize> Run<'a, C> {
+    /// A chunk's replay of the first `n` channels of `layout` (the others
+    /// are padding, always missing).
     fn new(
-        layout: &'a Layout<C>,
+        (layout, n): (&'a Layout<C>, usize),
         excl: &'a Exclusions,
         epochs: Option<Arc<Epochs<C>>>,
         opts: Options,
@@ -219,7 +223,8 @@ impl<'a, const C: usize> Run<'a, C> {
             events: Vec::new(),
             stats: InputStats::default(),
             readings: [Reading::Missing; C],
-            block: Block::new(C),
+            block: Block::new(n.min(C)),
+            pad: Vec::new(),
         }
     }
 
@@ -324,17 +329,19 @@ impl<'a, const C: usize> Run<'a, C> {
     fn flush(&mut self, path: &Path, send: &mut Emit<'_, C>) -> Result<(), Halt> {
         self.block.columns();
         let n = self.block.times.len();
+        if self.pad.len() < n {
+            self.pad.resize(n, Reading::Missing);
+        }
         let max_gap = self.opts.max_gap_ms();
         let mut i = 0;
         while i < n {
             let b = &self.block;
             let m = steady_prefix(&b.times[i..], self.last, max_gap);
             if let (true, Some(st)) = (m > 0, self.station.as_mut()) {
-                let cols: [&[Reading]; C] = std::array::from_fn(|c| {
-                    b.cols
-                        .get(c)
-                        .and_then(|col| col.get(i..))
-                        .unwrap_or_default()
+                let pad = &self.pad[i..];
+                let cols: [&[Reading]; C] = std::array::from_fn(|c| match b.cols.get(c) {
+                    Some(col) => col.get(i..).unwrap_or_default(),
+                    None => pad,
                 });
                 let k = st.push_run(&b.times[i..i + m], &cols);
                 if k > 0 {
@@ -344,6 +351,8 @@ impl<'a, const C: usize> Run<'a, C> {
                 }
             }
             let (t, line) = (b.times[i], b.lines[i]);
+            // The configured channels; the unused slots stay missing (the
+            // parser and the exclusions write configured channels only).
             b.row(i, &mut self.readings);
             self.push(path, line, t, send)?;
             i += 1;
@@ -436,6 +445,8 @@ struct Joiner<'s, const C: usize> {
     join: bool,
     out: Out<'s, C>,
     stats: InputStats,
+    /// Configured channels (the first `n` of `layout`).
+    n: usize,
 }
 
 impl<const C: usize> Joiner<'_, C> {
@@ -568,7 +579,7 @@ impl<const C: usize> Joiner<'_, C> {
     fn redo(&mut self, parser: &Parser, bytes: &[u8], line: u64, path: &Path) -> Result<()> {
         let layout = self.layout;
         let run = Run::new(
-            &layout,
+            (&layout, self.n),
             self.excl,
             self.epochs.clone(),
             self.opts,
@@ -589,7 +600,7 @@ impl<const C: usize> Joiner<'_, C> {
     ) -> Result<()> {
         let layout = self.layout;
         let mut run = Run::new(
-            &layout,
+            (&layout, self.n),
             self.excl,
             self.epochs.clone(),
             self.opts,
@@ -673,6 +684,7 @@ fn run<const C: usize>(
         join: false,
         out: Out::new(layout, n, sink),
         stats: InputStats::default(),
+        n,
     };
     std::thread::scope(|s| -> Result<()> {
         let (order_tx, order_rx) = sync_channel::<Item>(3 * jobs + 2);
@@ -684,7 +696,7 @@ fn run<const C: usize>(
             let layout = &layout;
             let excl = &cfg.exclusions;
             let epochs = epochs.clone();
-            s.spawn(move || worker(layout, excl, epochs, files, opts, job_rx, msg_tx));
+            s.spawn(move || worker((layout, n), excl, epochs, files, opts, job_rx, msg_tx));
             to_workers.push(job_tx);
             from_workers.push(msg_rx);
         }
@@ -755,7 +767,7 @@ fn run<const C: usize>(
 }
 
 fn worker<const C: usize>(
-    layout: &Layout<C>,
+    (layout, n): (&Layout<C>, usize),
     excl: &Exclusions,
     epochs: Option<Arc<Epochs<C>>>,
     files: &[PathBuf],
@@ -766,7 +778,7 @@ fn worker<const C: usize>(
     let mut send = |m| out.send(m).map_err(|_| anyhow!("closed"));
     for job in jobs {
         let mut parser = (*job.parser).clone();
-        let run = Run::new(layout, excl, epochs.clone(), opts, None);
+        let run = Run::new((layout, n), excl, epochs.clone(), opts, None);
         if run
             .chunk(
                 &mut parser,
