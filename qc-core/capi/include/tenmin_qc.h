@@ -190,6 +190,11 @@ enum tm_status
   // A layout image whose CRC-32 does not match its bytes (changed since
   // it was written).
   TM_ERR_IMAGE_CRC = 112,
+  // A function of a logger kind or shape this build of the library
+  // leaves out (a configured build, e.g. `--no-default-features
+  // --features state-logger,c8g3`: firmware-example/README.md, "From C");
+  // nothing was done. The published build has every kind and shape.
+  TM_ERR_NOT_BUILT = 113,
 };
 #ifndef __cplusplus
 #if __STDC_VERSION__ >= 202311L
