@@ -361,8 +361,9 @@ unsafe fn put<T>(out: *mut T, value: T) -> tm_status {
 }
 
 /// The caller's layout block `mem` (`len` bytes) of shape `C`, checked and
-/// made an empty layout block (no mark; the placeholder layout), ready to be
-/// built or loaded in place.
+/// made an empty layout block (no mark; the layout `start` writes: the
+/// placeholder for a build, zeros for a load), ready to be built or loaded
+/// in place.
 ///
 /// # Safety
 ///
@@ -371,18 +372,19 @@ unsafe fn put<T>(out: *mut T, value: T) -> tm_status {
 unsafe fn fresh_layout<'a, const C: usize>(
     mem: *mut c_void,
     len: usize,
+    start: fn(&mut MaybeUninit<Layout<C>>),
 ) -> Result<&'a mut LayoutMem<C>, tm_status> {
     let p = block::<LayoutMem<C>>(mem, len)?.cast_mut();
     // SAFETY: `p` is non-null, aligned and `len` covers a LayoutMem<C>; the
     // caller gives this block to the library alone. A `MaybeUninit` needs
     // no valid contents; the block is then written whole (head, then
     // layout) before a reference to a `LayoutMem` is made. The layout is
-    // written from `Layout::placeholder`, made a channel at a time, not from
-    // the whole-layout constant `Layout::PLACEHOLDER` (2.7 KiB of flash for
-    // 8 channels).
+    // written by `start` (`placeholder` or `blank`, which write a whole
+    // layout), not from the whole-layout constant `Layout::PLACEHOLDER`
+    // (2.7 KiB of flash for 8 channels).
     unsafe {
         addr_of_mut!((*p).head).write(LayoutMem::<C>::EMPTY_HEAD);
-        placeholder(&mut *addr_of_mut!((*p).layout).cast::<MaybeUninit<Layout<C>>>());
+        start(&mut *addr_of_mut!((*p).layout).cast::<MaybeUninit<Layout<C>>>());
         Ok(&mut *p)
     }
 }
@@ -403,7 +405,7 @@ unsafe fn layout_build<const C: usize, const G: usize>(
     let mut bad = 255u8;
     let r = (|| {
         // SAFETY: passed on from the caller (see the function's Safety).
-        let layout = unsafe { fresh_layout::<C>(mem, len) }?;
+        let layout = unsafe { fresh_layout::<C>(mem, len, placeholder) }?;
         let station = one(station)?;
         // SAFETY: checked non-null and aligned; the caller promises a valid
         // tm_station_settings.
@@ -437,7 +439,7 @@ unsafe fn layout_load<const C: usize, const G: usize>(
         // SAFETY: the caller promises `image_len` readable bytes at `image`.
         let image = unsafe { slice(image, image_len) }?;
         // SAFETY: passed on from the caller (see the function's Safety).
-        let layout = unsafe { fresh_layout::<C>(mem, len) }?;
+        let layout = unsafe { fresh_layout::<C>(mem, len, blank) }?;
         layout.load_image::<G>(image)
     })();
     status(r)
@@ -466,6 +468,18 @@ unsafe fn image_of<const C: usize, const G: usize>(
 #[inline(never)]
 fn placeholder<const C: usize>(slot: &mut MaybeUninit<Layout<C>>) {
     slot.write(Layout::placeholder());
+}
+
+/// Writes [`Layout::blank`] into `slot`: zeros, which a load then
+/// overwrites field by field (`Layout::load_image_no_reset` writes every
+/// field; on a refused image the block stays unmarked). One memory clear:
+/// a program that only loads layouts links no placeholder (360 B on a
+/// Cortex-M0).
+fn blank<const C: usize>(slot: &mut MaybeUninit<Layout<C>>) {
+    // Zero bytes first: the blank's fields are zeros, so the compiler drops
+    // their stores as writing what is there (one memory clear is left).
+    *slot = MaybeUninit::zeroed();
+    slot.write(Layout::blank());
 }
 
 /// Starts a logger of shape `C`, `G` running `core` in the caller's block.
@@ -1569,6 +1583,83 @@ mod tests {
             row[3].kind = bad;
             assert_eq!(core_row(&row), None, "kind {bad}");
         }
+    }
+
+    /// Every entry point of a kind or shape exists in every build; one the
+    /// build's features leave out answers `TM_ERR_NOT_BUILT` whatever its
+    /// arguments, one built refuses a NULL block (`TM_ERR_NULL`). Run for
+    /// the default build by `cargo test` and for a configured build by
+    /// `firmware-example/c/check.sh`.
+    #[test]
+    fn a_kind_or_shape_left_out_answers_not_built() {
+        let want = |built: bool| {
+            if built {
+                tm_status::TM_ERR_NULL
+            } else {
+                tm_status::TM_ERR_NOT_BUILT
+            }
+        };
+        let (record, state) = (
+            cfg!(feature = "record-logger"),
+            cfg!(feature = "state-logger"),
+        );
+        let null = ptr::null_mut();
+        let mut n = 0;
+        macro_rules! shape {
+            ($built:expr, $build:ident, $load:ident, $rec:ident, $st:ident) => {{
+                let shape = $built;
+                // SAFETY: NULL blocks, settings and images, as the
+                // functions' Safety allows.
+                let got = unsafe {
+                    [
+                        $build(null, 0, ptr::null(), ptr::null(), 0, ptr::null_mut()),
+                        $load(null, 0, ptr::null(), 0),
+                        $rec(null, 0, ptr::null()),
+                        $st(null, 0, ptr::null()),
+                    ]
+                };
+                let expected = [
+                    want(shape),
+                    want(shape),
+                    want(shape && record),
+                    want(shape && state),
+                ];
+                assert_eq!(got, expected, "{}", stringify!($build));
+                n += usize::from(shape);
+            }};
+        }
+        shape!(
+            cfg!(feature = "c4g3"),
+            tm_layout_build_c4g3,
+            tm_layout_load_c4g3,
+            tm_record_logger_start_c4g3,
+            tm_state_logger_start_c4g3
+        );
+        shape!(
+            cfg!(feature = "c8g3"),
+            tm_layout_build_c8g3,
+            tm_layout_load_c8g3,
+            tm_record_logger_start_c8g3,
+            tm_state_logger_start_c8g3
+        );
+        shape!(
+            cfg!(feature = "c8g12"),
+            tm_layout_build_c8g12,
+            tm_layout_load_c8g12,
+            tm_record_logger_start_c8g12,
+            tm_state_logger_start_c8g12
+        );
+        shape!(
+            cfg!(feature = "c16g12"),
+            tm_layout_build_c16g12,
+            tm_layout_load_c16g12,
+            tm_record_logger_start_c16g12,
+            tm_state_logger_start_c16g12
+        );
+        assert!(n >= 1, "at least one shape is built");
+        // The code has its own message.
+        let m = status::message(tm_status::TM_ERR_NOT_BUILT as i32);
+        assert!(m.to_str().unwrap().contains("leaves out"));
     }
 
     #[test]
