@@ -529,8 +529,8 @@ impl Channel {
 
     /// A channel of zeros (`false`, `None`, the first kind), to be
     /// overwritten field by field ([`Channel::read_image`] writes every
-    /// field) before any use: [`crate::Layout::blank`]. Written as zeros, so
-    /// a program writes it with one memory clear, not field by field.
+    /// field) before any use: [`crate::Layout::blank`]. Mostly zeros, so it
+    /// takes less code to write than [`Channel::placeholder`].
     pub(crate) const fn blank() -> Self {
         Channel {
             cfg: ChannelConfig {
