@@ -527,54 +527,6 @@ impl Channel {
         }
     }
 
-    /// A channel of zeros (`false`, `None`, the first kind), to be
-    /// overwritten field by field ([`Channel::read_image`] writes every
-    /// field) before any use: [`crate::Layout::blank`]. Mostly zeros, so it
-    /// takes less code to write than [`Channel::placeholder`].
-    pub(crate) const fn blank() -> Self {
-        Channel {
-            cfg: ChannelConfig {
-                kind: Kind::Speed,
-                scale: Scale {
-                    offset: 0.0,
-                    step: 0.0,
-                },
-                range: (0.0, 0.0),
-                gust_window: 0,
-                mounting_offset_deg: 0.0,
-                speed_channel: None,
-                screen: Screen {
-                    step_limit: None,
-                    mean_range: None,
-                    sd_range: None,
-                    gust_max: None,
-                    min_recovery: None,
-                    flat_span_s: None,
-                    flat_tolerance: 0.0,
-                    partner: None,
-                    pair_mean_diff: 0.0,
-                    pair_max_diff: 0.0,
-                    above: None,
-                    shear_tolerance: 0.0,
-                    icing: None,
-                },
-                recal: None,
-            },
-            inv_step: None,
-            lo_k: 0,
-            hi_k: 0,
-            dir_mul: 0,
-            dir_add: 0,
-            dir_fast_k: 0,
-            offset_cd: 0,
-            code_in_counts: false,
-            code_in_values: false,
-            dir_inline_lo: 0,
-            gust_w: 0,
-            spike_lim: 0,
-        }
-    }
-
     /// Validates a configuration. `gust_capacity` is the station's `G`.
     /// A `const fn`, so that a layout can be checked at compile time.
     pub(crate) const fn new(

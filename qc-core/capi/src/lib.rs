@@ -361,9 +361,8 @@ unsafe fn put<T>(out: *mut T, value: T) -> tm_status {
 }
 
 /// The caller's layout block `mem` (`len` bytes) of shape `C`, checked and
-/// made an empty layout block (no mark; the layout `start` writes: the
-/// placeholder for a build, zeros for a load), ready to be built or loaded
-/// in place.
+/// made an empty layout block (no mark; the placeholder layout), ready to be
+/// built or loaded in place.
 ///
 /// # Safety
 ///
@@ -372,19 +371,18 @@ unsafe fn put<T>(out: *mut T, value: T) -> tm_status {
 unsafe fn fresh_layout<'a, const C: usize>(
     mem: *mut c_void,
     len: usize,
-    start: fn(&mut MaybeUninit<Layout<C>>),
 ) -> Result<&'a mut LayoutMem<C>, tm_status> {
     let p = block::<LayoutMem<C>>(mem, len)?.cast_mut();
     // SAFETY: `p` is non-null, aligned and `len` covers a LayoutMem<C>; the
     // caller gives this block to the library alone. A `MaybeUninit` needs
     // no valid contents; the block is then written whole (head, then
     // layout) before a reference to a `LayoutMem` is made. The layout is
-    // written by `start` (`placeholder` or `blank`, which write a whole
-    // layout), not from the whole-layout constant `Layout::PLACEHOLDER`
-    // (2.7 KiB of flash for 8 channels).
+    // written from `Layout::placeholder`, made a channel at a time, not from
+    // the whole-layout constant `Layout::PLACEHOLDER` (2.7 KiB of flash for
+    // 8 channels).
     unsafe {
         addr_of_mut!((*p).head).write(LayoutMem::<C>::EMPTY_HEAD);
-        start(&mut *addr_of_mut!((*p).layout).cast::<MaybeUninit<Layout<C>>>());
+        placeholder(&mut *addr_of_mut!((*p).layout).cast::<MaybeUninit<Layout<C>>>());
         Ok(&mut *p)
     }
 }
@@ -405,7 +403,7 @@ unsafe fn layout_build<const C: usize, const G: usize>(
     let mut bad = 255u8;
     let r = (|| {
         // SAFETY: passed on from the caller (see the function's Safety).
-        let layout = unsafe { fresh_layout::<C>(mem, len, placeholder) }?;
+        let layout = unsafe { fresh_layout::<C>(mem, len) }?;
         let station = one(station)?;
         // SAFETY: checked non-null and aligned; the caller promises a valid
         // tm_station_settings.
@@ -439,7 +437,7 @@ unsafe fn layout_load<const C: usize, const G: usize>(
         // SAFETY: the caller promises `image_len` readable bytes at `image`.
         let image = unsafe { slice(image, image_len) }?;
         // SAFETY: passed on from the caller (see the function's Safety).
-        let layout = unsafe { fresh_layout::<C>(mem, len, blank) }?;
+        let layout = unsafe { fresh_layout::<C>(mem, len) }?;
         layout.load_image::<G>(image)
     })();
     status(r)
@@ -468,18 +466,6 @@ unsafe fn image_of<const C: usize, const G: usize>(
 #[inline(never)]
 fn placeholder<const C: usize>(slot: &mut MaybeUninit<Layout<C>>) {
     slot.write(Layout::placeholder());
-}
-
-/// Writes [`Layout::blank`] into `slot`: zeros, which a load then
-/// overwrites field by field (`Layout::load_image_no_reset` writes every
-/// field; on a refused image the block stays unmarked): a program that
-/// only loads layouts links no placeholder (on a Cortex-M0 the blank's
-/// code is 304 B, the placeholder's 360 B). Not inlined, as [`placeholder`]: the compiler builds the
-/// layout in a temporary on the stack (2.7 KiB for 8 channels), which out
-/// of line is gone before the image is read.
-#[inline(never)]
-fn blank<const C: usize>(slot: &mut MaybeUninit<Layout<C>>) {
-    slot.write(Layout::blank());
 }
 
 /// Starts a logger of shape `C`, `G` running `core` in the caller's block.
