@@ -1228,7 +1228,9 @@ const _: () = assert!(
 /// Returns `TM_OK`; a `TM_CONFIG_...` code for a refused configuration (one
 /// code for each way the core refuses one; `tm_message` says why), with the
 /// channel at fault in `*error_channel` (255 when none; `error_channel` may
-/// be NULL); or `TM_ERR_NULL`, `TM_ERR_SIZE`, `TM_ERR_ALIGN`, `TM_ERR_KIND`.
+/// be NULL); or `TM_ERR_NULL`, `TM_ERR_SIZE`, `TM_ERR_ALIGN`, `TM_ERR_KIND`;
+/// or `TM_ERR_NOT_BUILT` from a library configured without this shape
+/// (its Cargo features; this and every shape's other functions alike).
 /// On any error the block holds no layout.
 ///
 /// # Safety
@@ -1260,8 +1262,9 @@ pub unsafe extern "C" fn tm_layout_build_c8g3(
 /// nothing else is linked.
 ///
 /// Returns `TM_OK`, `TM_ERR_IMAGE`, `TM_ERR_IMAGE_SHAPE`, `TM_ERR_IMAGE_CRC`,
-/// `TM_ERR_NULL`, `TM_ERR_SIZE` or `TM_ERR_ALIGN`. On any error the block
-/// holds no layout.
+/// `TM_ERR_NULL`, `TM_ERR_SIZE`, `TM_ERR_ALIGN`, or `TM_ERR_NOT_BUILT` (a
+/// library configured without this shape). On any error the block holds no
+/// layout.
 ///
 /// # Safety
 ///
@@ -1287,8 +1290,10 @@ pub unsafe extern "C" fn tm_layout_load_c8g3(
 /// screens each interval on board, counts the running recovery, and writes
 /// record frames; frame sequence numbers start at 0. Starting again restarts it.
 ///
-/// Returns `TM_OK`, `TM_ERR_NULL`, `TM_ERR_SIZE`, `TM_ERR_ALIGN`, or
-/// `TM_ERR_NOT_READY` (`layout` holds no layout of this shape).
+/// Returns `TM_OK`, `TM_ERR_NULL`, `TM_ERR_SIZE`, `TM_ERR_ALIGN`,
+/// `TM_ERR_NOT_READY` (`layout` holds no layout of this shape), or
+/// `TM_ERR_NOT_BUILT` (a library configured without this kind of logger or
+/// this shape: nothing is done).
 ///
 /// # Safety
 ///
