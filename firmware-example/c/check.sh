@@ -11,7 +11,10 @@
 # against the PC's replay of the samples (exit 0 only when every field is
 # identical); compares the logs with the Rust firmware's when
 # run-checks.sh left them; prints the budgets (flash share, instructions per
-# sample per channel, RAM), measured as the Rust loggers' are.
+# sample per channel, RAM), measured as the Rust loggers' are. All of it
+# for the default library (every logger kind and shape) and for the
+# configured ones, state-logger,c8g3 and record-logger,c8g3 (README "From
+# C", "Configured builds"), whose logs must be the default library's bytes.
 # Installs what is missing (Rust targets, gcc-arm-none-eabi,
 # libnewlib-arm-none-eabi, qemu-system-arm).
 # Usage: firmware-example/c/check.sh   (from anywhere; about a minute when built)

@@ -1106,7 +1106,8 @@ fn panic(_: &core::panic::PanicInfo<'_>) -> ! {
 /// On 32-bit targets the `c8g3` blocks use 2,728 B (layout), 2,064 B (record
 /// logger: the core's `Station` 2,024 and 40 of this interface: its head
 /// with the push of the logger's shape, and the layout pointer) and 1,072 B
-/// (state logger: `Sampler` 1,032 and 40).
+/// (state logger: `Sampler` 1,032 and 40); in a library of one kind and one
+/// shape (`tm_one_engine`: a head without code pointers) 2,048 B and 1,056 B.
 const HEADROOM: usize = 64;
 
 /// Bytes of a layout block of shape `c4g3` (4 channels, gust windows up to
