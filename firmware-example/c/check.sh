@@ -11,7 +11,10 @@
 # against the PC's replay of the samples (exit 0 only when every field is
 # identical); compares the logs with the Rust firmware's when
 # run-checks.sh left them; prints the budgets (flash share, instructions per
-# sample per channel, RAM), measured as the Rust loggers' are.
+# sample per channel, RAM), measured as the Rust loggers' are. All of it
+# for the default library (every logger kind and shape) and for the
+# configured ones, state-logger,c8g3 and record-logger,c8g3 (README "From
+# C", "Configured builds"), whose logs must be the default library's bytes.
 # Installs what is missing (Rust targets, gcc-arm-none-eabi,
 # libnewlib-arm-none-eabi, qemu-system-arm).
 # Usage: firmware-example/c/check.sh   (from anywhere; about a minute when built)
@@ -52,6 +55,24 @@ lib() { # lib TARGET FEATURES NAME
 lib thumbv6m-none-eabi nopanic-canary libtenmin_qc-m0-canary.a
 lib thumbv6m-none-eabi nopanic libtenmin_qc-m0.a
 lib thumbv7em-none-eabihf nopanic libtenmin_qc-m4.a
+# Configured builds (README "From C"): one logger kind of one shape, c8g3.
+# Then the push is called directly (cfg tm_one_engine) and the other kind's
+# entry points answer TM_ERR_NOT_BUILT.
+configured=(state-logger record-logger)
+for kind in "${configured[@]}"; do
+  cargo rustc -p qc-capi --profile capi --target thumbv6m-none-eabi --no-default-features \
+    --features "nopanic,$kind,c8g3" --crate-type staticlib --quiet
+  cp "$target/thumbv6m-none-eabi/capi/libtenmin_qc.a" "$out/libtenmin_qc-m0-$kind.a"
+  cargo rustc -p qc-capi --profile capi --target thumbv7em-none-eabihf --no-default-features \
+    --features "nopanic,$kind,c8g3" --crate-type staticlib --quiet
+  cp "$target/thumbv7em-none-eabihf/capi/libtenmin_qc.a" "$out/libtenmin_qc-m4-$kind.a"
+done
+echo "the default library (every kind and shape) and the configured ones (${configured[*]}, shape c8g3)"
+step "the configured library's own tests (host; the entry points it leaves out answer TM_ERR_NOT_BUILT)"
+for kind in "${configured[@]}"; do
+  cargo test -p qc-capi --lib --no-default-features --features "$kind,c8g3" --quiet 2>&1 | grep -E 'test result|FAILED|panicked' \
+    || fail "qc-capi's tests in the build $kind,c8g3"
+done
 
 step "C builds (arm-none-eabi-gcc, newlib nano, semihosting)"
 cd "$here"
@@ -99,7 +120,25 @@ cc_m4 budget.c "$lib_m4" -o "$out/budget-m4.elf"
 arm-none-eabi-gcc -mcpu=cortex-m0 -mthumb -T board/mps2-an386.ld "${cflags[@]}" board/startup.c \
   nopanic_all.c "$lib_m0" "${ldflags[@]}" -o "$out/nopanic-all.elf" \
   || fail "nopanic_all: an entry point of the C interface reaches a panic"
+for kind in "${configured[@]}"; do
+  for m in m0 m4; do
+    cc_$m logger.c stations.c "$out/libtenmin_qc-$m-$kind.a" -o "$out/logger-$m-$kind.elf" \
+      || fail "logger ($m, library $kind,c8g3): a panic is reachable"
+    cc_$m -DSTORED_LAYOUT logger.c stations.c stored_layouts.c "$out/libtenmin_qc-$m-$kind.a" \
+      -o "$out/logger-stored-$m-$kind.elf" || fail "logger, stored layout ($m, library $kind,c8g3): a panic is reachable"
+  done
+  k=STATES; [ $kind = record-logger ] && k=RECORDS
+  cc_m0 -DSTATIONS_QUIET -DFOOTPRINT_$k footprint.c stations.c "$out/libtenmin_qc-m0-$kind.a" -o "$out/footprint-$kind.elf"
+  cc_m0 -DSTORED_LAYOUT -DFOOTPRINT_$k footprint.c stored_layouts.c "$out/libtenmin_qc-m0-$kind.a" \
+    -o "$out/footprint-stored-$kind.elf"
+  cc_m0 footprint.c -Wl,--undefined=__aeabi_idivmod "$out/libtenmin_qc-m0-$kind.a" -o "$out/footprint-base-$kind.elf"
+  cc_m0 budget.c "$out/libtenmin_qc-m0-$kind.a" -o "$out/budget-m0-$kind.elf"
+  arm-none-eabi-gcc -mcpu=cortex-m0 -mthumb -T board/mps2-an386.ld "${cflags[@]}" board/startup.c \
+    nopanic_all.c "$out/libtenmin_qc-m0-$kind.a" "${ldflags[@]}" -o "$out/nopanic-all-$kind.elf" \
+    || fail "nopanic_all (library $kind,c8g3): an entry point reaches a panic"
+done
 echo "the logger (record and state, Cortex-M0 and M4F; its layout built at run time, and loaded from its stored image), the footprint and budget programs, and nopanic_all.c (every entry point of every shape) linked: no entry point reaches a panic"
+echo "the same with the configured libraries (${configured[*]}, c8g3): the logger of their kind, footprint, budget, nopanic_all"
 
 step "host: tenmin (release), a day of demo data (tenmin demo, tenmin export)"
 cd "$root"
@@ -147,6 +186,21 @@ cmp c-m0-records.log c-m4-records.log && cmp c-m0-states.log c-m4-states.log \
 
 cmp c-m0-records.csv c-m0-states.csv \
   && echo "records finished on the PC from the C state log = records finished by the C logger"
+for kind in "${configured[@]}"; do
+  extra=(); k=records
+  [ $kind = state-logger ] && { extra=(states); k=states; }
+  for m in m0 m4; do
+    for how in "" stored-; do
+      log="c-$how$m-$kind.log"
+      rm -f "$log"
+      run_on $m "$out/logger-$how$m-$kind.elf" logger demo.tmsf "$log" "${extra[@]}" >"c-$how$m-$kind.txt" \
+        || { cat "c-$how$m-$kind.txt"; fail "the C logger ($how$m, library $kind,c8g3) exited with an error"; }
+      # The default library's log verified above: the same bytes verify too.
+      cmp "$log" "c-$m-$k.log" || fail "the configured library's ($kind,c8g3) $how$m log differs from the default library's"
+    done
+  done
+done
+echo "the configured libraries' logs (${configured[*]}, c8g3; built and stored layout, Cortex-M0 and M4F) are byte for byte the default library's, which tenmin verify checked"
 rust="$root/out/firmware"
 if [ -f "$rust/demo.tmsf" ] && cmp -s "$rust/demo.tmsf" demo.tmsf && [ -f "$rust/demo-m0.log" ] && [ -f "$rust/states-m0.log" ]; then
   cmp c-m0-records.log "$rust/demo-m0.log" && cmp c-m0-states.log "$rust/states-m0.log" \
@@ -161,9 +215,20 @@ for b in footprint-states footprint-records footprint-states-stored footprint-re
   run_on m0 "$out/$b.elf" | tee "$b.txt" || fail "$b on the Cortex-M0"
 done
 
+for kind in "${configured[@]}"; do
+  for b in footprint-$kind footprint-stored-$kind footprint-base-$kind; do
+    run_on m0 "$out/$b.elf" | tee "$b.txt" || fail "$b on the Cortex-M0"
+  done
+done
+
 step "budgets: instructions (QEMU -icount shift=0: 1 ns of virtual time per instruction)"
 timeout 120 "${qemu_m0[@]}" -icount shift=0 -semihosting-config "$semi" -kernel "$out/budget-m0.elf" \
   | tee budget-m0.txt
+for kind in "${configured[@]}"; do
+  echo "(the configured library $kind,c8g3)"
+  timeout 120 "${qemu_m0[@]}" -icount shift=0 -semihosting-config "$semi" -kernel "$out/budget-m0-$kind.elf" \
+    | tee "budget-m0-$kind.txt"
+done
 echo "(Cortex-M4F, for comparison)"
 timeout 120 "${qemu_m4[@]}" -icount shift=0 -semihosting-config "$semi" -kernel "$out/budget-m4.elf" \
   | tee budget-m4.txt
@@ -185,7 +250,16 @@ for b in footprint-states footprint-records footprint-states-stored footprint-re
       $1=""; $2=""; $3=""; print substr($0,4) }' | sort -u | comm -23 - measured.syms)
   [ -z "$extra" ] || fail "footprint-base links what $b does not (its share would be understated): $extra"
 done
-echo "footprint-base links only runtime that every measured C logger links too"
+for kind in "${configured[@]}"; do
+  arm-none-eabi-nm -C "$out/footprint-base-$kind.elf" | awk '{ $1=""; $2=""; print substr($0,3) }' | sort -u >base-$kind.syms
+  for b in footprint-$kind footprint-stored-$kind; do
+    arm-none-eabi-nm -C "$out/$b.elf" | awk '{ $1=""; $2=""; print substr($0,3) }' | sort -u >measured.syms
+    extra=$(arm-none-eabi-nm -S -C "$out/footprint-base-$kind.elf" | awk 'NF >= 4 && $3 ~ /^[tTrRdDwW]$/ {
+        $1=""; $2=""; $3=""; print substr($0,4) }' | sort -u | comm -23 - measured.syms)
+    [ -z "$extra" ] || fail "footprint-base-$kind links what $b does not: $extra"
+  done
+done
+echo "footprint-base links only runtime that every measured C logger links too (each library its own base)"
 split() { # split ELF SHARE: what ELF adds over footprint-base, by kind of symbol
   arm-none-eabi-nm -S -C --radix=d "$1" | awk '
     NR==FNR { base[$0]=1; next }
@@ -209,19 +283,35 @@ echo "footprint-records - footprint-base = $record_share B:"
 split "$out/footprint-records.elf" "$record_share"
 echo "footprint-states-stored - footprint-base = $stored_share B (the layout loaded from its image):"
 split "$out/footprint-states-stored.elf" "$stored_share"
+declare -A cfg_share cfg_stored_share
+for kind in "${configured[@]}"; do
+  cbase=$(flash "$out/footprint-base-$kind.elf")
+  cfg_share[$kind]=$(($(flash "$out/footprint-$kind.elf") - cbase))
+  cfg_stored_share[$kind]=$(($(flash "$out/footprint-stored-$kind.elf") - cbase))
+done
+cp base-state-logger.syms base.syms
+echo "footprint-stored-state-logger - its base = ${cfg_stored_share[state-logger]} B (library state-logger,c8g3; the layout loaded from its image):"
+split "$out/footprint-stored-state-logger.elf" "${cfg_stored_share[state-logger]}"
 
 step "budgets table (Cortex-M0, thumbv6m-none-eabi, QEMU microbit; C logger)"
-num() { grep -F "budget: $1" budget-m0.txt | head -1 | sed -n "s/.*$2 *\([0-9]*\).*/\1/p"; }
+num() { grep -F "budget: $1" "${budget:-budget-m0.txt}" | head -1 | sed -n "s/.*$2 *\([0-9]*\).*/\1/p"; }
 ram() { sed -n "s/.*$2 \([0-9]*\) B.*/\1/p" "$1" | head -1; }
 printf '%-72s %10s\n' measure measured
 info() { printf '%-72s %10s\n' "$1" "$2"; }
 info "flash share of the C interface, 8-channel state logger, stored layout (B)" "$stored_share"
+info "  the same, library configured state-logger,c8g3 (B)" "${cfg_stored_share[state-logger]}"
+info "  the same, its layout built at run time, library state-logger,c8g3 (B)" "${cfg_share[state-logger]}"
+info "  the record logger, library record-logger,c8g3, stored / built (B)" "${cfg_stored_share[record-logger]} / ${cfg_share[record-logger]}"
 info "  the same, its layout built at run time (B)" "$share"
 info "  a C logger that also finishes and screens, stored layout / built (B)" "$stored_record_share / $record_share"
 info "instructions per speed sample, 8 cups (counts), per channel, state logger" "$(num 'C: 8 x speed, counts (cup), state logger' 'per channel')"
 info "  the same, record logger" "$(num 'C: 8 x speed, counts (cup), record logger' 'per channel')"
+info "  state logger, library state-logger,c8g3" "$(budget=budget-m0-state-logger.txt num 'C: 8 x speed, counts (cup), state logger' 'per channel')"
+info "  record logger, library record-logger,c8g3" "$(budget=budget-m0-record-logger.txt num 'C: 8 x speed, counts (cup), record logger' 'per channel')"
 info "instructions per direction sample, 8 vanes (counts), per channel, state logger" "$(num 'C: 8 x direction, counts, state logger' 'per channel')"
 info "  the same, record logger" "$(num 'C: 8 x direction, counts, record logger' 'per channel')"
+info "  state logger, library state-logger,c8g3" "$(budget=budget-m0-state-logger.txt num 'C: 8 x direction, counts, state logger' 'per channel')"
+info "  record logger, library record-logger,c8g3" "$(budget=budget-m0-record-logger.txt num 'C: 8 x direction, counts, record logger' 'per channel')"
 info "RAM of 8 channels: state logger block TM_STATE_LOGGER_C8G3_SIZE (B)" "$(sed -n 's/^#define TM_STATE_LOGGER_C8G3_SIZE //p' "$root/qc-core/capi/include/tenmin_qc.h")"
 info "  record logger block TM_RECORD_LOGGER_C8G3_SIZE (B)" "$(sed -n 's/^#define TM_RECORD_LOGGER_C8G3_SIZE //p' "$root/qc-core/capi/include/tenmin_qc.h")"
 info "  layout block TM_LAYOUT_C8G3_SIZE (B, in RAM: built at run time)" "$(sed -n 's/^#define TM_LAYOUT_C8G3_SIZE //p' "$root/qc-core/capi/include/tenmin_qc.h")"

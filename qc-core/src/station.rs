@@ -2895,4 +2895,61 @@ mod image_tests {
             "CRC-32 of the image's bytes"
         );
     }
+
+    /// An image with a good CRC but changed fields (a writer's bug, or
+    /// bytes forged with their CRC) is refused, or loads as exactly what its
+    /// bytes say: written back, it is the same bytes. Nothing else is read
+    /// into the layout, and a logger on any layout reaches no panic (the
+    /// link-time proof of `firmware-example/c/check.sh` links the stored
+    /// layout's logger, whose layout is only known at run time). Every byte
+    /// of the body set to values at the edges of its field's kinds.
+    #[test]
+    fn a_good_crc_over_changed_fields_is_refused_or_read_as_written() {
+        let (station, chans) = stations().remove(0);
+        let layout = Layout::new::<3>(station, &chans).unwrap();
+        let mut image = vec![0u8; Layout::<5>::IMAGE_LEN];
+        let n = layout.to_image::<3>(&mut image).unwrap();
+        image.truncate(n);
+        let (mut refused, mut loaded) = (0, 0);
+        for at in 8..n - 4 {
+            for v in [0u8, 2, 0x80, 0xFF] {
+                let mut bad = image.clone();
+                if bad[at] == v {
+                    continue;
+                }
+                bad[at] = v;
+                let body = bad.len() - 4;
+                let crc = crate::crc::crc32(&bad[..body]);
+                bad[body..].copy_from_slice(&crc.to_le_bytes());
+                let mut back = Layout::<5>::placeholder();
+                match back.load_image_no_reset::<3>(&bad) {
+                    Ok(()) => {
+                        loaded += 1;
+                        let mut again = vec![0u8; Layout::<5>::IMAGE_LEN];
+                        let m = back.to_image::<3>(&mut again).unwrap();
+                        assert_eq!(m, n, "byte {at} = {v}");
+                        // The same bytes, but the missing-value codes past
+                        // their count (kept, never used; written back as 0).
+                        let unused = |i: usize| (29..61).contains(&i) || (62..78).contains(&i);
+                        for i in (0..n - 4).filter(|&i| !unused(i)) {
+                            assert_eq!(again[i], bad[i], "byte {at} = {v}: byte {i} read back");
+                        }
+                    }
+                    Err(e) => {
+                        refused += 1;
+                        assert!(
+                            matches!(e, ImageError::Field | ImageError::Length),
+                            "byte {at} = {v}: {e:?}"
+                        );
+                    }
+                }
+            }
+        }
+        // Both happen: a flag of 2 or a sentinel count of 5 is refused, a
+        // changed calibration value loads.
+        assert!(
+            refused > 100 && loaded > 100,
+            "{refused} refused, {loaded} loaded"
+        );
+    }
 }

@@ -190,6 +190,11 @@ enum tm_status
   // A layout image whose CRC-32 does not match its bytes (changed since
   // it was written).
   TM_ERR_IMAGE_CRC = 112,
+  // A function of a logger kind or shape this build of the library
+  // leaves out (a configured build, e.g. `--no-default-features
+  // --features state-logger,c8g3`: firmware-example/README.md, "From C");
+  // nothing was done. The published build has every kind and shape.
+  TM_ERR_NOT_BUILT = 113,
 };
 #ifndef __cplusplus
 #if __STDC_VERSION__ >= 202311L
@@ -603,7 +608,9 @@ tm_status tm_state_logger_start_c4g3(void *mem,
 // Returns `TM_OK`; a `TM_CONFIG_...` code for a refused configuration (one
 // code for each way the core refuses one; `tm_message` says why), with the
 // channel at fault in `*error_channel` (255 when none; `error_channel` may
-// be NULL); or `TM_ERR_NULL`, `TM_ERR_SIZE`, `TM_ERR_ALIGN`, `TM_ERR_KIND`.
+// be NULL); or `TM_ERR_NULL`, `TM_ERR_SIZE`, `TM_ERR_ALIGN`, `TM_ERR_KIND`;
+// or `TM_ERR_NOT_BUILT` from a library configured without this shape
+// (its Cargo features; this and every shape's other functions alike).
 // On any error the block holds no layout.
 //
 // # Safety
@@ -625,8 +632,9 @@ tm_status tm_layout_build_c8g3(void *mem,
 // nothing else is linked.
 //
 // Returns `TM_OK`, `TM_ERR_IMAGE`, `TM_ERR_IMAGE_SHAPE`, `TM_ERR_IMAGE_CRC`,
-// `TM_ERR_NULL`, `TM_ERR_SIZE` or `TM_ERR_ALIGN`. On any error the block
-// holds no layout.
+// `TM_ERR_NULL`, `TM_ERR_SIZE`, `TM_ERR_ALIGN`, or `TM_ERR_NOT_BUILT` (a
+// library configured without this shape). On any error the block holds no
+// layout.
 //
 // # Safety
 //
@@ -642,8 +650,10 @@ tm_status tm_layout_load_c8g3(void *mem,
 // screens each interval on board, counts the running recovery, and writes
 // record frames; frame sequence numbers start at 0. Starting again restarts it.
 //
-// Returns `TM_OK`, `TM_ERR_NULL`, `TM_ERR_SIZE`, `TM_ERR_ALIGN`, or
-// `TM_ERR_NOT_READY` (`layout` holds no layout of this shape).
+// Returns `TM_OK`, `TM_ERR_NULL`, `TM_ERR_SIZE`, `TM_ERR_ALIGN`,
+// `TM_ERR_NOT_READY` (`layout` holds no layout of this shape), or
+// `TM_ERR_NOT_BUILT` (a library configured without this kind of logger or
+// this shape: nothing is done).
 //
 // # Safety
 //

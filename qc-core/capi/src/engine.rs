@@ -280,23 +280,27 @@ fn room(meta: &Meta, out: &[u8]) -> Result<(), tm_status> {
 }
 
 /// Writes one frame per active channel into `out`, each filled by
-/// `encode(channel, sequence, frame)`; returns how many.
+/// `encode(channel, sequence, frame)`; returns how many. Each is encoded in
+/// a frame of this function's (on the stack, word-aligned) and then copied
+/// to the caller's buffer: encoded there directly, at an alignment the
+/// compiler cannot know, every multi-byte field would be stored a byte at a
+/// time (on a Cortex-M0, 700 B more code in the state frames' encoding).
 fn frames(
     meta: &mut Meta,
     out: &mut [u8],
     mut encode: impl FnMut(usize, u32, &mut [u8; FRAME_LEN]),
 ) -> u32 {
     let mut n = 0;
+    let mut frame = [0u8; FRAME_LEN];
     for (channel, chunk) in out
         .chunks_exact_mut(FRAME_LEN)
         .take(usize::from(meta.active))
         .enumerate()
     {
-        if let Ok(frame) = <&mut [u8; FRAME_LEN]>::try_from(chunk) {
-            encode(channel, meta.sequence, frame);
-            meta.sequence = meta.sequence.wrapping_add(1);
-            n += 1;
-        }
+        encode(channel, meta.sequence, &mut frame);
+        chunk.copy_from_slice(&frame);
+        meta.sequence = meta.sequence.wrapping_add(1);
+        n += 1;
     }
     n
 }

@@ -40,14 +40,59 @@
 //! from input, an `extern "C"` function aborts rather than unwind, and
 //! `firmware-example/c/check.sh` proves at link time that the
 //! entry points, all shapes, reach no panic (feature `nopanic`).
+//!
+//! # Configured builds
+//!
+//! The default build holds both logger kinds of every shape, so a logger
+//! block holds pointers to its kind's and shape's code, and the push of
+//! every sample is an indirect call (which a Thumb-1 core cannot make a
+//! tail call). Firmware that runs one kind of logger of one shape can build
+//! the library for just that, as many embedded C libraries are configured
+//! at build time: `--no-default-features --features state-logger,c8g3`
+//! (kinds `record-logger`, `state-logger`; shapes `c4g3`, `c8g3`, `c8g12`,
+//! `c16g12`). The header is the same for every build: every function
+//! exists in every build, and those of a kind or shape left out do nothing
+//! and return `TM_ERR_NOT_BUILT` (kept rather than removed: one header, one
+//! set of symbols, and a program that asks for what its library lacks is
+//! told so at its first call instead of failing to link with an unnamed
+//! symbol). With exactly one kind and one shape (the cfg `tm_one_engine`,
+//! set by `build.rs`) a started logger can only be that one: the block
+//! holds no code pointers, and the entry points call its code directly,
+//! inlined into `tm_logger_push`.
 
 #![no_std]
 #![deny(missing_docs)]
+// A configured build leaves logger kinds or shapes out ("Configured
+// builds" below): the code only they use is unused there.
+#![cfg_attr(
+    not(all(
+        feature = "record-logger",
+        feature = "state-logger",
+        feature = "c4g3",
+        feature = "c8g3",
+        feature = "c8g12",
+        feature = "c16g12"
+    )),
+    allow(dead_code, unused_imports, unused_macros)
+)]
 #![deny(unsafe_op_in_unsafe_fn)]
 #![deny(clippy::undocumented_unsafe_blocks)]
 
 #[cfg(any(test, not(target_os = "none")))]
 extern crate std;
+
+#[cfg(not(all(
+    any(feature = "record-logger", feature = "state-logger"),
+    any(
+        feature = "c4g3",
+        feature = "c8g3",
+        feature = "c8g12",
+        feature = "c16g12"
+    )
+)))]
+compile_error!(
+    "qc-capi: build at least one logger kind (record-logger, state-logger) and one shape (c4g3, c8g3, c8g12, c16g12)"
+);
 
 mod engine;
 mod status;
@@ -99,17 +144,70 @@ pub struct tm_frame_info {
 }
 
 /// The start of a logger block, the same for every shape: the mark of a
-/// started logger, the frame metadata, and the logger's code for its shape
-/// and kind: its push (the per-sample path, one function with the logger's
-/// own code inlined: [`push_logger`]) and the rest ([`Engine`]).
+/// started logger, the frame metadata, and (unless the build holds one
+/// logger alone, `tm_one_engine`) the logger's code for its shape and kind:
+/// its push (the per-sample path, one function with the logger's own code
+/// inlined: [`push_logger`]) and the rest ([`Engine`]).
 #[repr(C)]
 struct Head {
     magic: u32,
     meta: Meta,
+    #[cfg(not(tm_one_engine))]
     push: PushFn,
+    #[cfg(not(tm_one_engine))]
     engine: *mut dyn Engine,
 }
 
+/// The one logger of a configured build of one kind and one shape
+/// (`tm_one_engine`, see "Configured builds"): every started logger block
+/// holds a `LoggerMem<one::Body>`. Not for the header:
+///
+/// cbindgen:ignore
+#[cfg(tm_one_engine)]
+mod one {
+    #[cfg(feature = "c4g3")]
+    pub(crate) type Body = Kind<4, 3>;
+    #[cfg(feature = "c8g3")]
+    pub(crate) type Body = Kind<8, 3>;
+    #[cfg(feature = "c8g12")]
+    pub(crate) type Body = Kind<8, 12>;
+    #[cfg(feature = "c16g12")]
+    pub(crate) type Body = Kind<16, 12>;
+    #[cfg(feature = "record-logger")]
+    type Kind<const C: usize, const G: usize> = crate::engine::RecordBody<C, G>;
+    #[cfg(feature = "state-logger")]
+    type Kind<const C: usize, const G: usize> = crate::engine::StateBody<C, G>;
+}
+
+/// The engine of a started logger: through its block's pointer, or the one
+/// logger of a configured build. Not for the header:
+///
+/// cbindgen:ignore
+#[cfg(not(tm_one_engine))]
+type EngineMut<'a> = &'a mut dyn Engine;
+/// As above.
+///
+/// cbindgen:ignore
+#[cfg(tm_one_engine)]
+type EngineMut<'a> = &'a mut one::Body;
+
+/// The body of an entry point of a logger kind or shape that a configured
+/// build may leave out: `$call` when the features `$cfg` are built, else
+/// `TM_ERR_NOT_BUILT`, the arguments unused.
+macro_rules! if_built {
+    ($cfg:meta, ($($arg:ident),*), $call:expr) => {{
+        #[cfg($cfg)]
+        let status = $call;
+        #[cfg(not($cfg))]
+        let status = {
+            let _ = ($($arg),*);
+            tm_status::TM_ERR_NOT_BUILT
+        };
+        status
+    }};
+}
+
+#[cfg(not(tm_one_engine))]
 /// [`push_logger`] of one shape and kind: `tm_logger_push`'s arguments
 /// after its checks (the readings are the layout's channel count, the
 /// frames room for a frame per channel, `out` written once with zeros):
@@ -419,6 +517,7 @@ where
 /// takes stack only while this runs).
 #[inline(never)]
 fn put_logger<B: Engine + 'static>(p: *mut LoggerMem<B>, meta: Meta, body: B) {
+    #[cfg(not(tm_one_engine))]
     let dangling: *mut dyn Engine = ptr::null_mut::<B>();
     // SAFETY: `p` was checked non-null, aligned and covering a LoggerMem<B>
     // (`block`); the caller gives the block to the library alone. The engine
@@ -428,12 +527,17 @@ fn put_logger<B: Engine + 'static>(p: *mut LoggerMem<B>, meta: Meta, body: B) {
             head: Head {
                 magic: 0,
                 meta,
+                #[cfg(not(tm_one_engine))]
                 push: push_logger::<B>,
+                #[cfg(not(tm_one_engine))]
                 engine: dangling,
             },
             body,
         });
-        (*p).head.engine = addr_of_mut!((*p).body);
+        #[cfg(not(tm_one_engine))]
+        {
+            (*p).head.engine = addr_of_mut!((*p).body);
+        }
         (*p).head.magic = LOGGER_MAGIC;
     }
 }
@@ -444,19 +548,31 @@ fn put_logger<B: Engine + 'static>(p: *mut LoggerMem<B>, meta: Meta, body: B) {
 ///
 /// `mem` must be NULL or a block some `tm_..._logger_start_...` was given,
 /// used by no one else during the call.
-unsafe fn logger_of<'a>(mem: *mut c_void) -> Result<(&'a mut Meta, &'a mut dyn Engine), tm_status> {
+unsafe fn logger_of<'a>(mem: *mut c_void) -> Result<(&'a mut Meta, EngineMut<'a>), tm_status> {
     let head = block::<Head>(mem, size_of::<Head>())?.cast_mut();
     // SAFETY: non-null and aligned; the caller promises a logger block, whose
     // head is readable (a block never started fails the mark check below).
-    let head = unsafe { &mut *head };
-    if head.magic != LOGGER_MAGIC {
+    if unsafe { (*head).magic } != LOGGER_MAGIC {
         return Err(tm_status::TM_ERR_NOT_READY);
     }
-    // SAFETY: a block with the mark was written by `put_logger`, whose engine
-    // pointer points at the body after the head in the same block (disjoint
-    // from `meta`).
-    let engine = unsafe { &mut *head.engine };
-    Ok((&mut head.meta, engine))
+    #[cfg(not(tm_one_engine))]
+    {
+        // SAFETY: as above; the reference is made after the mark check.
+        let head = unsafe { &mut *head };
+        // SAFETY: a block with the mark was written by `put_logger`, whose
+        // engine pointer points at the body after the head in the same block
+        // (disjoint from `meta`).
+        let engine = unsafe { &mut *head.engine };
+        Ok((&mut head.meta, engine))
+    }
+    #[cfg(tm_one_engine)]
+    {
+        // SAFETY: a block with the mark was written by `put_logger` with
+        // the one logger this build starts (`one::Body`; its block's size
+        // and alignment checked then), used by no one else during the call.
+        let LoggerMem { head, body } = unsafe { &mut *head.cast::<LoggerMem<one::Body>>() };
+        Ok((&mut head.meta, body))
+    }
 }
 
 /// Fills `*out` with the default station settings: 10-minute intervals at
@@ -585,9 +701,13 @@ pub unsafe extern "C" fn tm_layout_image(
         let out = unsafe { slice_mut(out, out_len) }?;
         let image: unsafe fn(*const c_void, &mut [u8]) -> Result<usize, tm_status> =
             match (head.magic == engine::LAYOUT_MAGIC, head.capacity, head.gust) {
+                #[cfg(feature = "c4g3")]
                 (true, 4, 3) => image_of::<4, 3>,
+                #[cfg(feature = "c8g3")]
                 (true, 8, 3) => image_of::<8, 3>,
+                #[cfg(feature = "c8g12")]
                 (true, 8, 12) => image_of::<8, 12>,
+                #[cfg(feature = "c16g12")]
                 (true, 16, 12) => image_of::<16, 12>,
                 _ => return Err(tm_status::TM_ERR_NOT_READY),
             };
@@ -640,7 +760,11 @@ pub unsafe extern "C" fn tm_logger_push(
         // whose head is readable (a block never started fails the mark
         // check). The reference ends here, before the push borrows the block.
         Ok(head) => match unsafe { &*head } {
+            #[cfg(not(tm_one_engine))]
             h if h.magic == LOGGER_MAGIC => (h.push, h.meta.active),
+            // The one logger of this build: its push is called directly.
+            #[cfg(tm_one_engine)]
+            h if h.magic == LOGGER_MAGIC => (push_logger::<one::Body>, h.meta.active),
             _ => return tm_status::TM_ERR_NOT_READY,
         },
         Err(s) => return s,
@@ -982,7 +1106,8 @@ fn panic(_: &core::panic::PanicInfo<'_>) -> ! {
 /// On 32-bit targets the `c8g3` blocks use 2,728 B (layout), 2,064 B (record
 /// logger: the core's `Station` 2,024 and 40 of this interface: its head
 /// with the push of the logger's shape, and the layout pointer) and 1,072 B
-/// (state logger: `Sampler` 1,032 and 40).
+/// (state logger: `Sampler` 1,032 and 40); in a library of one kind and one
+/// shape (`tm_one_engine`: a head without code pointers) 2,048 B and 1,056 B.
 const HEADROOM: usize = 64;
 
 /// Bytes of a layout block of shape `c4g3` (4 channels, gust windows up to
@@ -1013,8 +1138,12 @@ pub unsafe extern "C" fn tm_layout_build_c4g3(
     n: usize,
     error_channel: *mut u8,
 ) -> tm_status {
-    // SAFETY: passed on from the caller (see the function's Safety).
-    unsafe { layout_build::<4, 3>(mem, len, station, channels, n, error_channel) }
+    if_built!(
+        feature = "c4g3",
+        (mem, len, station, channels, n, error_channel),
+        // SAFETY: passed on from the caller (see the function's Safety).
+        unsafe { layout_build::<4, 3>(mem, len, station, channels, n, error_channel) }
+    )
 }
 
 /// `tm_layout_load_c8g3` for shape `c4g3`: an image of a layout of that
@@ -1030,8 +1159,12 @@ pub unsafe extern "C" fn tm_layout_load_c4g3(
     image: *const u8,
     image_len: usize,
 ) -> tm_status {
-    // SAFETY: passed on from the caller (see the function's Safety).
-    unsafe { layout_load::<4, 3>(mem, len, image, image_len) }
+    if_built!(
+        feature = "c4g3",
+        (mem, len, image, image_len),
+        // SAFETY: passed on from the caller (see the function's Safety).
+        unsafe { layout_load::<4, 3>(mem, len, image, image_len) }
+    )
 }
 
 /// `tm_record_logger_start_c8g3` for shape `c4g3`: the block `mem` of at
@@ -1046,8 +1179,12 @@ pub unsafe extern "C" fn tm_record_logger_start_c4g3(
     len: usize,
     layout: *const c_void,
 ) -> tm_status {
-    // SAFETY: passed on from the caller (see the function's Safety).
-    unsafe { logger_start::<4, 3, _>(mem, len, layout, Station::<4, 3, _>::new) }
+    if_built!(
+        all(feature = "record-logger", feature = "c4g3"),
+        (mem, len, layout),
+        // SAFETY: passed on from the caller (see the function's Safety).
+        unsafe { logger_start::<4, 3, _>(mem, len, layout, Station::<4, 3, _>::new) }
+    )
 }
 
 /// `tm_state_logger_start_c8g3` for shape `c4g3`: the block `mem` of at
@@ -1062,8 +1199,12 @@ pub unsafe extern "C" fn tm_state_logger_start_c4g3(
     len: usize,
     layout: *const c_void,
 ) -> tm_status {
-    // SAFETY: passed on from the caller (see the function's Safety).
-    unsafe { logger_start::<4, 3, _>(mem, len, layout, Sampler::<4, 3, _>::new) }
+    if_built!(
+        all(feature = "state-logger", feature = "c4g3"),
+        (mem, len, layout),
+        // SAFETY: passed on from the caller (see the function's Safety).
+        unsafe { logger_start::<4, 3, _>(mem, len, layout, Sampler::<4, 3, _>::new) }
+    )
 }
 
 /// Bytes of a layout block of shape `c8g3` (8 channels, gust windows up to
@@ -1088,7 +1229,9 @@ const _: () = assert!(
 /// Returns `TM_OK`; a `TM_CONFIG_...` code for a refused configuration (one
 /// code for each way the core refuses one; `tm_message` says why), with the
 /// channel at fault in `*error_channel` (255 when none; `error_channel` may
-/// be NULL); or `TM_ERR_NULL`, `TM_ERR_SIZE`, `TM_ERR_ALIGN`, `TM_ERR_KIND`.
+/// be NULL); or `TM_ERR_NULL`, `TM_ERR_SIZE`, `TM_ERR_ALIGN`, `TM_ERR_KIND`;
+/// or `TM_ERR_NOT_BUILT` from a library configured without this shape
+/// (its Cargo features; this and every shape's other functions alike).
 /// On any error the block holds no layout.
 ///
 /// # Safety
@@ -1105,8 +1248,12 @@ pub unsafe extern "C" fn tm_layout_build_c8g3(
     n: usize,
     error_channel: *mut u8,
 ) -> tm_status {
-    // SAFETY: passed on from the caller (see the function's Safety).
-    unsafe { layout_build::<8, 3>(mem, len, station, channels, n, error_channel) }
+    if_built!(
+        feature = "c8g3",
+        (mem, len, station, channels, n, error_channel),
+        // SAFETY: passed on from the caller (see the function's Safety).
+        unsafe { layout_build::<8, 3>(mem, len, station, channels, n, error_channel) }
+    )
 }
 
 /// Loads the layout image at `image` (`image_len` bytes, written by
@@ -1116,8 +1263,9 @@ pub unsafe extern "C" fn tm_layout_build_c8g3(
 /// nothing else is linked.
 ///
 /// Returns `TM_OK`, `TM_ERR_IMAGE`, `TM_ERR_IMAGE_SHAPE`, `TM_ERR_IMAGE_CRC`,
-/// `TM_ERR_NULL`, `TM_ERR_SIZE` or `TM_ERR_ALIGN`. On any error the block
-/// holds no layout.
+/// `TM_ERR_NULL`, `TM_ERR_SIZE`, `TM_ERR_ALIGN`, or `TM_ERR_NOT_BUILT` (a
+/// library configured without this shape). On any error the block holds no
+/// layout.
 ///
 /// # Safety
 ///
@@ -1129,8 +1277,12 @@ pub unsafe extern "C" fn tm_layout_load_c8g3(
     image: *const u8,
     image_len: usize,
 ) -> tm_status {
-    // SAFETY: passed on from the caller (see the function's Safety).
-    unsafe { layout_load::<8, 3>(mem, len, image, image_len) }
+    if_built!(
+        feature = "c8g3",
+        (mem, len, image, image_len),
+        // SAFETY: passed on from the caller (see the function's Safety).
+        unsafe { layout_load::<8, 3>(mem, len, image, image_len) }
+    )
 }
 
 /// Starts a record logger of shape `c8g3` in the block `mem` (`len` bytes, at
@@ -1139,8 +1291,10 @@ pub unsafe extern "C" fn tm_layout_load_c8g3(
 /// screens each interval on board, counts the running recovery, and writes
 /// record frames; frame sequence numbers start at 0. Starting again restarts it.
 ///
-/// Returns `TM_OK`, `TM_ERR_NULL`, `TM_ERR_SIZE`, `TM_ERR_ALIGN`, or
-/// `TM_ERR_NOT_READY` (`layout` holds no layout of this shape).
+/// Returns `TM_OK`, `TM_ERR_NULL`, `TM_ERR_SIZE`, `TM_ERR_ALIGN`,
+/// `TM_ERR_NOT_READY` (`layout` holds no layout of this shape), or
+/// `TM_ERR_NOT_BUILT` (a library configured without this kind of logger or
+/// this shape: nothing is done).
 ///
 /// # Safety
 ///
@@ -1153,8 +1307,12 @@ pub unsafe extern "C" fn tm_record_logger_start_c8g3(
     len: usize,
     layout: *const c_void,
 ) -> tm_status {
-    // SAFETY: passed on from the caller (see the function's Safety).
-    unsafe { logger_start::<8, 3, _>(mem, len, layout, Station::<8, 3, _>::new) }
+    if_built!(
+        all(feature = "record-logger", feature = "c8g3"),
+        (mem, len, layout),
+        // SAFETY: passed on from the caller (see the function's Safety).
+        unsafe { logger_start::<8, 3, _>(mem, len, layout, Station::<8, 3, _>::new) }
+    )
 }
 
 /// Starts a state logger of shape `c8g3` in the block `mem` (`len` bytes, at
@@ -1175,8 +1333,12 @@ pub unsafe extern "C" fn tm_state_logger_start_c8g3(
     len: usize,
     layout: *const c_void,
 ) -> tm_status {
-    // SAFETY: passed on from the caller (see the function's Safety).
-    unsafe { logger_start::<8, 3, _>(mem, len, layout, Sampler::<8, 3, _>::new) }
+    if_built!(
+        all(feature = "state-logger", feature = "c8g3"),
+        (mem, len, layout),
+        // SAFETY: passed on from the caller (see the function's Safety).
+        unsafe { logger_start::<8, 3, _>(mem, len, layout, Sampler::<8, 3, _>::new) }
+    )
 }
 
 /// Bytes of a layout block of shape `c8g12` (8 channels, gust windows up to
@@ -1207,8 +1369,12 @@ pub unsafe extern "C" fn tm_layout_build_c8g12(
     n: usize,
     error_channel: *mut u8,
 ) -> tm_status {
-    // SAFETY: passed on from the caller (see the function's Safety).
-    unsafe { layout_build::<8, 12>(mem, len, station, channels, n, error_channel) }
+    if_built!(
+        feature = "c8g12",
+        (mem, len, station, channels, n, error_channel),
+        // SAFETY: passed on from the caller (see the function's Safety).
+        unsafe { layout_build::<8, 12>(mem, len, station, channels, n, error_channel) }
+    )
 }
 
 /// `tm_layout_load_c8g3` for shape `c8g12`: an image of a layout of that
@@ -1224,8 +1390,12 @@ pub unsafe extern "C" fn tm_layout_load_c8g12(
     image: *const u8,
     image_len: usize,
 ) -> tm_status {
-    // SAFETY: passed on from the caller (see the function's Safety).
-    unsafe { layout_load::<8, 12>(mem, len, image, image_len) }
+    if_built!(
+        feature = "c8g12",
+        (mem, len, image, image_len),
+        // SAFETY: passed on from the caller (see the function's Safety).
+        unsafe { layout_load::<8, 12>(mem, len, image, image_len) }
+    )
 }
 
 /// `tm_record_logger_start_c8g3` for shape `c8g12`: the block `mem` of at
@@ -1240,8 +1410,12 @@ pub unsafe extern "C" fn tm_record_logger_start_c8g12(
     len: usize,
     layout: *const c_void,
 ) -> tm_status {
-    // SAFETY: passed on from the caller (see the function's Safety).
-    unsafe { logger_start::<8, 12, _>(mem, len, layout, Station::<8, 12, _>::new) }
+    if_built!(
+        all(feature = "record-logger", feature = "c8g12"),
+        (mem, len, layout),
+        // SAFETY: passed on from the caller (see the function's Safety).
+        unsafe { logger_start::<8, 12, _>(mem, len, layout, Station::<8, 12, _>::new) }
+    )
 }
 
 /// `tm_state_logger_start_c8g3` for shape `c8g12`: the block `mem` of at
@@ -1256,8 +1430,12 @@ pub unsafe extern "C" fn tm_state_logger_start_c8g12(
     len: usize,
     layout: *const c_void,
 ) -> tm_status {
-    // SAFETY: passed on from the caller (see the function's Safety).
-    unsafe { logger_start::<8, 12, _>(mem, len, layout, Sampler::<8, 12, _>::new) }
+    if_built!(
+        all(feature = "state-logger", feature = "c8g12"),
+        (mem, len, layout),
+        // SAFETY: passed on from the caller (see the function's Safety).
+        unsafe { logger_start::<8, 12, _>(mem, len, layout, Sampler::<8, 12, _>::new) }
+    )
 }
 
 /// Bytes of a layout block of shape `c16g12` (16 channels, gust windows up to
@@ -1288,8 +1466,12 @@ pub unsafe extern "C" fn tm_layout_build_c16g12(
     n: usize,
     error_channel: *mut u8,
 ) -> tm_status {
-    // SAFETY: passed on from the caller (see the function's Safety).
-    unsafe { layout_build::<16, 12>(mem, len, station, channels, n, error_channel) }
+    if_built!(
+        feature = "c16g12",
+        (mem, len, station, channels, n, error_channel),
+        // SAFETY: passed on from the caller (see the function's Safety).
+        unsafe { layout_build::<16, 12>(mem, len, station, channels, n, error_channel) }
+    )
 }
 
 /// `tm_layout_load_c8g3` for shape `c16g12`: an image of a layout of that
@@ -1305,8 +1487,12 @@ pub unsafe extern "C" fn tm_layout_load_c16g12(
     image: *const u8,
     image_len: usize,
 ) -> tm_status {
-    // SAFETY: passed on from the caller (see the function's Safety).
-    unsafe { layout_load::<16, 12>(mem, len, image, image_len) }
+    if_built!(
+        feature = "c16g12",
+        (mem, len, image, image_len),
+        // SAFETY: passed on from the caller (see the function's Safety).
+        unsafe { layout_load::<16, 12>(mem, len, image, image_len) }
+    )
 }
 
 /// `tm_record_logger_start_c8g3` for shape `c16g12`: the block `mem` of at
@@ -1321,8 +1507,12 @@ pub unsafe extern "C" fn tm_record_logger_start_c16g12(
     len: usize,
     layout: *const c_void,
 ) -> tm_status {
-    // SAFETY: passed on from the caller (see the function's Safety).
-    unsafe { logger_start::<16, 12, _>(mem, len, layout, Station::<16, 12, _>::new) }
+    if_built!(
+        all(feature = "record-logger", feature = "c16g12"),
+        (mem, len, layout),
+        // SAFETY: passed on from the caller (see the function's Safety).
+        unsafe { logger_start::<16, 12, _>(mem, len, layout, Station::<16, 12, _>::new) }
+    )
 }
 
 /// `tm_state_logger_start_c8g3` for shape `c16g12`: the block `mem` of at
@@ -1337,8 +1527,12 @@ pub unsafe extern "C" fn tm_state_logger_start_c16g12(
     len: usize,
     layout: *const c_void,
 ) -> tm_status {
-    // SAFETY: passed on from the caller (see the function's Safety).
-    unsafe { logger_start::<16, 12, _>(mem, len, layout, Sampler::<16, 12, _>::new) }
+    if_built!(
+        all(feature = "state-logger", feature = "c16g12"),
+        (mem, len, layout),
+        // SAFETY: passed on from the caller (see the function's Safety).
+        unsafe { logger_start::<16, 12, _>(mem, len, layout, Sampler::<16, 12, _>::new) }
+    )
 }
 
 #[cfg(test)]
@@ -1381,6 +1575,83 @@ mod tests {
             row[3].kind = bad;
             assert_eq!(core_row(&row), None, "kind {bad}");
         }
+    }
+
+    /// Every entry point of a kind or shape exists in every build; one the
+    /// build's features leave out answers `TM_ERR_NOT_BUILT` whatever its
+    /// arguments, one built refuses a NULL block (`TM_ERR_NULL`). Run for
+    /// the default build by `cargo test` and for a configured build by
+    /// `firmware-example/c/check.sh`.
+    #[test]
+    fn a_kind_or_shape_left_out_answers_not_built() {
+        let want = |built: bool| {
+            if built {
+                tm_status::TM_ERR_NULL
+            } else {
+                tm_status::TM_ERR_NOT_BUILT
+            }
+        };
+        let (record, state) = (
+            cfg!(feature = "record-logger"),
+            cfg!(feature = "state-logger"),
+        );
+        let null = ptr::null_mut();
+        let mut n = 0;
+        macro_rules! shape {
+            ($built:expr, $build:ident, $load:ident, $rec:ident, $st:ident) => {{
+                let shape = $built;
+                // SAFETY: NULL blocks, settings and images, as the
+                // functions' Safety allows.
+                let got = unsafe {
+                    [
+                        $build(null, 0, ptr::null(), ptr::null(), 0, ptr::null_mut()),
+                        $load(null, 0, ptr::null(), 0),
+                        $rec(null, 0, ptr::null()),
+                        $st(null, 0, ptr::null()),
+                    ]
+                };
+                let expected = [
+                    want(shape),
+                    want(shape),
+                    want(shape && record),
+                    want(shape && state),
+                ];
+                assert_eq!(got, expected, "{}", stringify!($build));
+                n += usize::from(shape);
+            }};
+        }
+        shape!(
+            cfg!(feature = "c4g3"),
+            tm_layout_build_c4g3,
+            tm_layout_load_c4g3,
+            tm_record_logger_start_c4g3,
+            tm_state_logger_start_c4g3
+        );
+        shape!(
+            cfg!(feature = "c8g3"),
+            tm_layout_build_c8g3,
+            tm_layout_load_c8g3,
+            tm_record_logger_start_c8g3,
+            tm_state_logger_start_c8g3
+        );
+        shape!(
+            cfg!(feature = "c8g12"),
+            tm_layout_build_c8g12,
+            tm_layout_load_c8g12,
+            tm_record_logger_start_c8g12,
+            tm_state_logger_start_c8g12
+        );
+        shape!(
+            cfg!(feature = "c16g12"),
+            tm_layout_build_c16g12,
+            tm_layout_load_c16g12,
+            tm_record_logger_start_c16g12,
+            tm_state_logger_start_c16g12
+        );
+        assert!(n >= 1, "at least one shape is built");
+        // The code has its own message.
+        let m = status::message(tm_status::TM_ERR_NOT_BUILT as i32);
+        assert!(m.to_str().unwrap().contains("leaves out"));
     }
 
     #[test]

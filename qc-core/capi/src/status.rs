@@ -76,6 +76,11 @@ pub enum tm_status {
     /// A layout image whose CRC-32 does not match its bytes (changed since
     /// it was written).
     TM_ERR_IMAGE_CRC = 112,
+    /// A function of a logger kind or shape this build of the library
+    /// leaves out (a configured build, e.g. `--no-default-features
+    /// --features state-logger,c8g3`: firmware-example/README.md, "From C");
+    /// nothing was done. The published build has every kind and shape.
+    TM_ERR_NOT_BUILT = 113,
 }
 
 /// The message of a status code (a static NUL-terminated string).
@@ -127,6 +132,7 @@ pub(crate) fn message(code: i32) -> &'static CStr {
         _ if is(TM_ERR_IMAGE) => c"not a layout image of this library's version (or cut short): write it again with tm_layout_image",
         _ if is(TM_ERR_IMAGE_SHAPE) => c"a layout image of another shape than the load function's",
         _ if is(TM_ERR_IMAGE_CRC) => c"the layout image's CRC does not match: its bytes changed since it was written",
+        _ if is(TM_ERR_NOT_BUILT) => c"this build of the library leaves out that logger kind or shape: build it with its Cargo feature (record-logger, state-logger, c4g3, c8g3, c8g12, c16g12)",
         _ => c"unknown status code",
     }
 }
@@ -182,6 +188,6 @@ mod tests {
                 seen.push(m);
             }
         }
-        assert_eq!(seen.len(), 30);
+        assert_eq!(seen.len(), 31);
     }
 }
