@@ -128,43 +128,80 @@ pub(crate) fn sin_cos_q30(cd: i32) -> (i32, i32) {
     rotate(quadrant, s, c)
 }
 
-/// `(sin, cos)` of every centidegree of the first quadrant (`0..9_000`),
-/// Q30, as [`sin_cos_q30`] computes them: its tables, its split into whole
-/// degrees and hundredths and its rounding, evaluated at compile time
-/// (72,000 bytes of read-only data). For the host's block path
-/// ([`sin_cos_q30_table`]); a logger never links it.
-static QUADRANT_Q30: [(i32, i32); 9_000] = {
-    let mut t = [(0i32, 0i32); 9_000];
-    let mut r = 0;
-    while r < 9_000 {
-        let deg = (r as u32 * 5_243) >> 19;
-        let centi = r - 100 * deg as usize;
-        let deg = deg as usize;
-        let (sd, cd_) = (SIN_DEG[deg] as u32, SIN_DEG[90 - deg] as u32);
-        let (sc, cc) = (SIN_CENTI[centi] as u32, COS_CENTI[centi] as u32);
-        let s = round_q60((mul_u32(sd, cc) + mul_u32(cd_, sc)) as i64) as i32;
-        let c = round_q60(mul_u32(cd_, cc) as i64 - mul_u32(sd, sc) as i64) as i32;
-        t[r] = (s, c);
-        r += 1;
+/// `(sin, cos)` of `r` centidegrees of the first quadrant (`0..9_000`), Q30,
+/// as [`sin_cos_q30`] computes them: its tables, its split into whole degrees
+/// and hundredths and its rounding, at compile time (for [`TURN_SIN_Q30`]).
+const fn quadrant_q30(r: usize) -> (i32, i32) {
+    let deg = (r as u32 * 5_243) >> 19;
+    let centi = r - 100 * deg as usize;
+    let deg = deg as usize;
+    let (sd, cd_) = (SIN_DEG[deg] as u32, SIN_DEG[90 - deg] as u32);
+    let (sc, cc) = (SIN_CENTI[centi] as u32, COS_CENTI[centi] as u32);
+    let s = round_q60((mul_u32(sd, cc) + mul_u32(cd_, sc)) as i64) as i32;
+    let c = round_q60(mul_u32(cd_, cc) as i64 - mul_u32(sd, sc) as i64) as i32;
+    (s, c)
+}
+
+/// Centidegrees [`TURN_SIN_Q30`] holds: a turn and a quarter, so that the
+/// cosine of `0..36_000` is the sine a quarter turn on.
+const TURN_SIN_LEN: usize = (FULL_TURN_CD + QUARTER_CD) as usize;
+
+/// The sine of every centidegree of a turn and a quarter (`0..45_000`), Q30,
+/// as [`sin_cos_q30`] computes it: [`quadrant_q30`] turned into each quadrant
+/// by [`rotate`]'s signs and swap, at compile time (180,000 bytes of
+/// read-only data in the host binary only; a logger never links it). The
+/// cosine of `cd` is the entry `cd + 9_000`: [`rotate`] of the next quadrant
+/// gives as its sine what it gives as the cosine of this one (`c`, `-s`,
+/// `-c`, `s` for quadrants 0 to 3). For the host's block path
+/// ([`sin_cos_q30_table`]).
+static TURN_SIN_Q30: [i32; TURN_SIN_LEN] = {
+    let mut t = [0i32; TURN_SIN_LEN];
+    let mut cd = 0;
+    while cd < TURN_SIN_LEN {
+        // `quadrant_of` and `rotate`'s sine, by hand (a `const` context).
+        let quadrant = (cd / QUARTER_CD as usize) % 4;
+        let (s, c) = quadrant_q30(cd % QUARTER_CD as usize);
+        t[cd] = match quadrant {
+            0 => s,
+            1 => c,
+            2 => -s,
+            _ => -c,
+        };
+        cd += 1;
     }
     t
 };
 
-/// [`sin_cos_q30`] by one look-up in [`QUADRANT_Q30`] instead of four
-/// table reads and four products: the same pair for every `cd` (checked
-/// for every centidegree of three turns, `table_is_sin_cos_q30`). For the
-/// host's block path, which pushes a column of directions at once.
+/// [`sin_cos_q30`] by two look-ups in [`TURN_SIN_Q30`] (the sine at `cd`
+/// and at `cd + 9_000`) instead of four table reads and four products, and
+/// with no quadrant to find: the same pair for every `cd` (checked for every
+/// centidegree of three turns, `table_is_sin_cos_q30`). A direction outside
+/// `0..36_000` takes [`sin_cos_q30`] (out of line; the block path's
+/// directions are wrapped into a turn before). For the host's block path,
+/// which pushes a column of directions at once.
 #[inline(always)]
 pub(crate) fn sin_cos_q30_table(cd: i32) -> (i32, i32) {
-    let (quadrant, r) = quadrant_of(cd);
-    let Some(&(s, c)) = QUADRANT_Q30.get(r as usize) else {
-        return (0, 0);
-    };
-    rotate(quadrant, s, c)
+    let i = cd as u32 as usize;
+    match (
+        TURN_SIN_Q30.get(i),
+        TURN_SIN_Q30.get(i + QUARTER_CD as usize),
+    ) {
+        // `cd + 9_000` is in the table for `0 <= cd < 36_000` only.
+        (Some(&s), Some(&c)) => (s, c),
+        _ => sin_cos_q30_cold(cd),
+    }
+}
+
+/// [`sin_cos_q30`] out of line, for [`sin_cos_q30_table`]'s directions
+/// outside a turn.
+#[cold]
+#[inline(never)]
+fn sin_cos_q30_cold(cd: i32) -> (i32, i32) {
+    sin_cos_q30(cd)
 }
 
 /// `cd`'s quadrant (0 to 3) and its angle within it (`0..QUARTER_CD`), for
-/// [`sin_cos_q30`] and [`sin_cos_q30_table`]: comparisons, not
+/// [`sin_cos_q30`]: comparisons, not
 /// `r / QUARTER_CD` (nor a loop the compiler turns into one).
 #[inline(always)]
 fn quadrant_of(cd: i32) -> (i32, i32) {

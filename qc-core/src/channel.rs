@@ -1542,35 +1542,84 @@ impl<const G: usize> Slot<G> {
     /// [`ColumnResultant::push_q30`], [`DirectionSums::push_q30_table`]),
     /// each checked against it; `station::run_tests` checks the whole state
     /// against samples pushed one by one. Not linked into a logger.
+    ///
+    /// A linked speed is classified once: `keep` (at least as long as `rs`)
+    /// takes a speed channel's quanta, [`NO_SPEED`] for a reading that is not
+    /// valid, and a linked direction reads them as `speed` (the quanta of its
+    /// speed's column, at least as long as `rs`; `None` when it has no speed
+    /// column, as [`Slot::push_reading`] without a speed class).
     pub(crate) fn push_column(
         &mut self,
         ch: &Channel,
         rs: &[Reading],
         codes: &Sentinels,
-        speed: Option<(&Channel, &[Reading])>,
+        speed: Option<&[i32]>,
+        keep: Option<&mut [i32]>,
     ) {
         let spikes = &mut self.spikes;
-        match &mut self.acc {
-            ChannelAcc::Speed(a) => speed_column(a, spikes, ch, rs, codes),
-            ChannelAcc::Scalar(a) => scalar_column(a, spikes, ch, rs, codes),
-            ChannelAcc::Direction(a) => {
-                direction_column(&mut a.counts, &mut a.sums, spikes, ch, rs, codes);
+        match (&mut self.acc, keep) {
+            (ChannelAcc::Speed(a), Some(out)) => {
+                speed_column::<G, true>(a, spikes, ch, rs, codes, out);
             }
-            ChannelAcc::LinkedDirection(a) => {
-                let d = &mut a.direction;
-                match speed {
-                    Some((sc, col)) => linked_column(
-                        (&mut d.counts, &mut d.sums, &mut a.resultant),
-                        spikes,
-                        ch,
-                        rs,
-                        codes,
-                        (sc, col),
-                    ),
-                    None => direction_column(&mut d.counts, &mut d.sums, spikes, ch, rs, codes),
+            (ChannelAcc::Speed(a), None) => {
+                speed_column::<G, false>(a, spikes, ch, rs, codes, &mut []);
+            }
+            (acc, keep) => {
+                // A speed link to a channel that is not a speed (a layout
+                // refuses it): its classes, as the per-sample path takes them.
+                if let Some(out) = keep {
+                    quanta_of(ch, rs, codes, out);
+                }
+                match acc {
+                    ChannelAcc::Speed(_) => {}
+                    ChannelAcc::Scalar(a) => scalar_column(a, spikes, ch, rs, codes),
+                    ChannelAcc::Direction(a) => {
+                        direction_column(&mut a.counts, &mut a.sums, spikes, ch, rs, codes);
+                    }
+                    ChannelAcc::LinkedDirection(a) => {
+                        let d = &mut a.direction;
+                        match speed {
+                            Some(quanta) => linked_column(
+                                (&mut d.counts, &mut d.sums, &mut a.resultant),
+                                spikes,
+                                ch,
+                                rs,
+                                codes,
+                                quanta,
+                            ),
+                            None => {
+                                direction_column(&mut d.counts, &mut d.sums, spikes, ch, rs, codes)
+                            }
+                        }
+                    }
                 }
             }
         }
+    }
+}
+
+/// Rows of a run whose linked speed quanta the block path keeps at once
+/// (`IntervalAcc::push_run` takes longer runs in pieces of this many; a host
+/// block is as many, `host_cli::samples::BLOCK_ROWS`): 2 KiB
+/// of stack on the host, nothing in the state.
+pub(crate) const LINK_ROWS: usize = 512;
+
+/// A linked speed reading that is not valid, among the quanta a speed column
+/// keeps for its direction ([`Slot::push_column`]). No valid reading has
+/// these quanta: [`Channel::new`] refuses ranges past [`Q_LIMIT`] quanta.
+pub(crate) const NO_SPEED: i32 = i32::MIN;
+
+/// The quanta of each reading of `rs` ([`Channel::classify_block`]), or
+/// [`NO_SPEED`], into `out`: for a speed link to a channel a layout refuses
+/// as one (see [`Slot::push_column`]).
+#[cold]
+#[inline(never)]
+pub(crate) fn quanta_of(ch: &Channel, rs: &[Reading], codes: &Sentinels, out: &mut [i32]) {
+    for (r, o) in rs.iter().zip(out.iter_mut()) {
+        *o = match ch.classify_block(*r, codes) {
+            Class::Valid(q) => q,
+            _ => NO_SPEED,
+        };
     }
 }
 
@@ -1770,14 +1819,17 @@ impl Vane {
     }
 }
 
-/// A column of a speed channel ([`speed_step`] of each reading).
+/// A column of a speed channel ([`speed_step`] of each reading); with `KEEP`
+/// each reading's quanta (or [`NO_SPEED`]) into `keep`, for a linked
+/// direction.
 #[inline(never)]
-fn speed_column<const G: usize>(
+fn speed_column<const G: usize, const KEEP: bool>(
     a: &mut SpeedAcc<G>,
     spikes: &mut Spikes,
     ch: &Channel,
     rs: &[Reading],
     codes: &Sentinels,
+    keep: &mut [i32],
 ) {
     let lin = Linear::of(ch);
     let lim = ch.spike_lim;
@@ -1790,29 +1842,46 @@ fn speed_column<const G: usize>(
             t.missing = k;
             g.break_run();
             sp.break_chain();
+            if KEEP {
+                keep.iter_mut().take(k).for_each(|o| *o = NO_SPEED);
+            }
         }
         let mut rest = rs.get(k..).unwrap_or_default();
         while let Some((r, more)) = rest.split_first() {
             rest = more;
-            match lin.class(ch, r, codes) {
+            let q = match lin.class(ch, r, codes) {
                 Class::Valid(q) => {
                     m.push(q);
                     g.push(q);
                     sp.push_inline(q, lim, false);
+                    q
                 }
                 c => {
                     t.count(c);
                     g.break_run();
                     sp.break_chain();
+                    NO_SPEED
+                }
+            };
+            // The row after `r`.
+            let at = rs.len() - rest.len();
+            if KEEP {
+                if let Some(o) = keep.get_mut(at.wrapping_sub(1)) {
+                    *o = q;
                 }
             }
             // A full window and a chain going on: values in range take the
             // steps' steady branches until another reading comes.
             if g.is_steady() && sp.ends_valid() {
-                let n = if lin.has_inv {
-                    speed_steady::<G, true>(rest, &lin, &mut m, g, &mut sp, lim)
+                let out = if KEEP {
+                    keep.get_mut(at..).unwrap_or_default()
                 } else {
-                    speed_steady::<G, false>(rest, &lin, &mut m, g, &mut sp, lim)
+                    &mut []
+                };
+                let n = if lin.has_inv {
+                    speed_steady::<G, true, KEEP>(rest, &lin, &mut m, g, &mut sp, lim, out)
+                } else {
+                    speed_steady::<G, false, KEEP>(rest, &lin, &mut m, g, &mut sp, lim, out)
                 };
                 rest = rest.get(n..).unwrap_or_default();
             }
@@ -1826,28 +1895,45 @@ fn speed_column<const G: usize>(
 /// The values in range that open `rs`, pushed into a steady window and a
 /// chain going on (the caller checked both): [`speed_step`]'s branches for
 /// them, in a function of its own so that its loop keeps sums, window and
-/// chain in registers. Returns how many it took.
+/// chain in registers. Returns how many it took; with `KEEP` their quanta
+/// into `keep`.
 #[inline(never)]
-fn speed_steady<const G: usize, const INV: bool>(
+fn speed_steady<const G: usize, const INV: bool, const KEEP: bool>(
     rs: &[Reading],
     lin: &Linear,
     m: &mut ColumnSums,
     g: &mut Column<'_, G>,
     sp: &mut Spikes,
     lim: u32,
+    keep: &mut [i32],
 ) -> usize {
     let mut sums = *m;
     let mut chain = *sp;
     let (mut st, tail) = g.steady();
-    let mut n = 0;
-    for r in rs {
-        let Some(q) = lin.value_by::<INV>(r) else {
-            break;
-        };
+    let mut step = |q: i32| {
         sums.push(q);
         st.push(tail, q);
         chain.push_steady(q, lim, false);
-        n += 1;
+    };
+    let mut n = 0;
+    if KEEP {
+        // As long as `keep` (the caller gives one as long as `rs`).
+        for (r, o) in rs.iter().zip(keep.iter_mut()) {
+            let Some(q) = lin.value_by::<INV>(r) else {
+                break;
+            };
+            *o = q;
+            step(q);
+            n += 1;
+        }
+    } else {
+        for r in rs {
+            let Some(q) = lin.value_by::<INV>(r) else {
+                break;
+            };
+            step(q);
+            n += 1;
+        }
     }
     g.set_steady(st);
     *m = sums;
@@ -1975,9 +2061,9 @@ fn direction_column(
     *spikes = sp;
 }
 
-/// A column of a direction channel with its linked speed's column
+/// A column of a direction channel with its linked speed's quanta
 /// ([`direction_step`] of each reading, and the resultant of a valid
-/// direction with a valid speed).
+/// direction with a valid speed: quanta that are not [`NO_SPEED`]).
 #[inline(never)]
 fn linked_column(
     (counts, sums, resultant): (&mut Counts, &mut DirectionSums, &mut ResultantSums),
@@ -1985,10 +2071,9 @@ fn linked_column(
     ch: &Channel,
     rs: &[Reading],
     codes: &Sentinels,
-    (sc, col): (&Channel, &[Reading]),
+    col: &[i32],
 ) {
     let vane = Vane::of(ch);
-    let speed = Linear::of(sc);
     let lim = ch.spike_lim;
     let spiky = lim != u32::MAX;
     let mut t = Tallies::default();
@@ -2003,10 +2088,9 @@ fn linked_column(
                     sp.push_inline(cd, lim, true);
                 }
                 let (s, c) = ds.push_q30_table(cd);
-                if let Some(sr) = col.get(i) {
-                    if let Class::Valid(q) = speed.class(sc, sr, codes) {
-                        res.push_q30(s, c, q);
-                    }
+                match col.get(i) {
+                    Some(&q) if q != NO_SPEED => res.push_q30(s, c, q),
+                    _ => {}
                 }
             }
             c => {
@@ -2015,18 +2099,12 @@ fn linked_column(
             }
         }
         i += 1;
-        // Rows of a direction and a speed value both taken inline.
+        // Rows of a direction taken inline.
         let (rest, speeds) = (
             rs.get(i..).unwrap_or_default(),
             col.get(i..).unwrap_or_default(),
         );
-        let pair = (&vane, &speed, ch);
-        let sums = (&mut ds, &mut res, &mut sp);
-        i += if speed.has_inv {
-            linked_steady::<true>(rest, speeds, pair, sums, lim)
-        } else {
-            linked_steady::<false>(rest, speeds, pair, sums, lim)
-        };
+        i += linked_steady(rest, speeds, (&vane, ch), (&mut ds, &mut res, &mut sp), lim);
     }
     t.add_to(rs.len(), counts);
     *sums = ds;
@@ -2034,33 +2112,32 @@ fn linked_column(
     *spikes = sp;
 }
 
-/// The rows that open `rs` and `col` with a direction and a speed both
-/// taken inline ([`Vane::direction`], [`Linear::value`]): what
-/// [`linked_column`] does with them, in a function of its own (its loop
-/// keeps the sums in registers). Returns how many it took.
+/// The rows that open `rs` (and `col`, the speed's quanta) with a direction
+/// taken inline ([`Vane::direction`]): what [`linked_column`] does with
+/// them, in a function of its own (its loop keeps the sums in registers).
+/// Returns how many it took.
 #[inline(never)]
-fn linked_steady<const INV: bool>(
+fn linked_steady(
     rs: &[Reading],
-    col: &[Reading],
-    (vane, speed, ch): (&Vane, &Linear, &Channel),
+    col: &[i32],
+    (vane, ch): (&Vane, &Channel),
     (ds, res, sp): (&mut DirectionSums, &mut ColumnResultant, &mut Spikes),
     lim: u32,
 ) -> usize {
     let spiky = lim != u32::MAX;
     let (mut sums, mut pairs, mut chain) = (*ds, *res, *sp);
     let mut n = 0;
-    for (r, sr) in rs.iter().zip(col) {
+    for (r, &q) in rs.iter().zip(col) {
         let Some(cd) = vane.direction(ch, r) else {
-            break;
-        };
-        let Some(q) = speed.value_by::<INV>(sr) else {
             break;
         };
         if spiky {
             chain.push_inline(cd, lim, true);
         }
         let (s, c) = sums.push_q30_table(cd);
-        pairs.push_q30(s, c, q);
+        if q != NO_SPEED {
+            pairs.push_q30(s, c, q);
+        }
         n += 1;
     }
     *ds = sums;

@@ -26,8 +26,8 @@
 //! Nothing here panics, whatever the input.
 
 use crate::channel::{
-    Channel, ChannelAcc, ChannelConfig, ChannelRecord, ChannelState, ImageReader, ImageWriter,
-    Kind, Reading, Slot, Tally,
+    quanta_of, Channel, ChannelAcc, ChannelConfig, ChannelRecord, ChannelState, ImageReader,
+    ImageWriter, Kind, Reading, Slot, Tally, LINK_ROWS, NO_SPEED,
 };
 use crate::cmath::div_floor;
 use crate::crc::Crc32;
@@ -1005,19 +1005,72 @@ impl<const C: usize, const G: usize> IntervalAcc<C, G> {
     /// follows the one before, this interval's last included, within the
     /// interval and with no gap: the same state as [`IntervalAcc::push`] of
     /// each in turn.
+    ///
+    /// A direction linked to a speed reads the quanta its speed's column
+    /// kept ([`Slot::push_column`]): the speed is classified once. Its
+    /// channel is taken right after its speed's, [`LINK_ROWS`] rows at a time
+    /// (the quanta are a local array: nothing in the state).
     fn push_run(&mut self, layout: &Layout<C>, n: usize, last_ms: i64, columns: &[&[Reading]; C]) {
         let sentinels = &layout.sentinels;
-        for ((slot, ch), col) in self
-            .slots
-            .iter_mut()
-            .zip(layout.channels.iter())
-            .zip(columns.iter())
-        {
-            let speed = ch.config().speed_channel.and_then(|s| {
-                let s = usize::from(s);
-                Some((layout.channels.get(s)?, *columns.get(s)?))
-            });
-            slot.push_column(ch, col.get(..n).unwrap_or(col), sentinels, speed);
+        let chans = &layout.channels;
+        let kind = |c: usize| chans.get(c).map(|ch| ch.config().kind);
+        // The linked speed of direction `d`, whose kept quanta it reads: the
+        // `speed` that `push` classifies for it, if that is not a direction
+        // (a layout refuses a link to anything but a speed; such a direction
+        // classifies its link's column itself, below).
+        let speed_of = |d: usize| -> Option<usize> {
+            let s = usize::from(chans.get(d)?.config().speed_channel?);
+            (s < C && kind(d) == Some(Kind::Direction)).then_some(s)
+        };
+        // Each channel's speed to read the kept quanta of, and whether a
+        // direction reads its own: once a run, not once a piece.
+        let link: [Option<usize>; C] =
+            core::array::from_fn(|d| speed_of(d).filter(|&s| kind(s) != Some(Kind::Direction)));
+        let mut linked = [false; C];
+        for s in link.iter().flatten() {
+            if let Some(l) = linked.get_mut(*s) {
+                *l = true;
+            }
+        }
+        let mut quanta = [NO_SPEED; LINK_ROWS];
+        let mut start = 0;
+        while start < n {
+            let end = n.min(start.saturating_add(LINK_ROWS));
+            let len = end - start;
+            let col_of = |c: usize| {
+                let col = columns.get(c).copied().unwrap_or_default();
+                col.get(start..end).unwrap_or_default()
+            };
+            for (c, ((ch, &to), &linked)) in chans.iter().zip(&link).zip(&linked).enumerate() {
+                if to.is_some() {
+                    // Taken right after its speed's column.
+                    continue;
+                }
+                let Some(slot) = self.slots.get_mut(c) else {
+                    break;
+                };
+                if let (Some(s), Some(sc)) = (speed_of(c), speed_of(c).and_then(|s| chans.get(s))) {
+                    // Linked to a direction: refused by a layout, kept exact.
+                    let out = quanta.get_mut(..len).unwrap_or_default();
+                    quanta_of(sc, col_of(s), sentinels, out);
+                    slot.push_column(ch, col_of(c), sentinels, quanta.get(..len), None);
+                    continue;
+                }
+                let keep = quanta.get_mut(..len).filter(|_| linked);
+                slot.push_column(ch, col_of(c), sentinels, None, keep);
+                if !linked {
+                    continue;
+                }
+                for (d, dc) in chans.iter().enumerate() {
+                    if link.get(d).copied().flatten() != Some(c) {
+                        continue;
+                    }
+                    if let Some(slot) = self.slots.get_mut(d) {
+                        slot.push_column(dc, col_of(d), sentinels, quanta.get(..len), None);
+                    }
+                }
+            }
+            start = end;
         }
         self.last = last_ms;
         // As `push` of each: every sample holds a reading of every channel.
@@ -1366,9 +1419,24 @@ impl<const C: usize, const G: usize, L: Borrow<Layout<C>>> Sampler<C, G, L> {
         }
         let layout = self.layout.borrow();
         let len = columns.iter().fold(times.len(), |n, col| n.min(col.len()));
+        let times = times.get(..len).unwrap_or_default();
         let mut prev = self.last;
         let mut n = 0;
-        for t in &times[..len] {
+        // Four at a time while each follows the one before without a gap
+        // (`&`, not `&&`: no branch each) and the fourth, so all four, is
+        // within the interval; then one by one, the same test.
+        let follows = |p: i64, ms: i64| (ms > p) & !layout.is_gap(ms.wrapping_sub(p));
+        for four in times.chunks_exact(4) {
+            let [a, b, c, d] = [0, 1, 2, 3].map(|k| four.get(k).map_or(NONE_MS, |t| t.millis()));
+            if !(follows(prev, a) & follows(a, b) & follows(b, c) & follows(c, d))
+                || d >= self.open_end
+            {
+                break;
+            }
+            prev = d;
+            n += 4;
+        }
+        for t in times.get(n..).unwrap_or_default() {
             let ms = t.millis();
             // Supported times are far from the i64 limits: no overflow.
             if !(ms < self.open_end && ms > prev) || layout.is_gap(ms.wrapping_sub(prev)) {
@@ -2649,25 +2717,129 @@ mod run_tests {
         format!("{a:?}") == format!("{b:?}")
     }
 
+    /// What the linked speeds' kept quanta must agree on (the block path
+    /// classifies a linked speed once, in its own column, and its directions
+    /// read the quanta): hour intervals, so that runs pass the
+    /// [`crate::channel::LINK_ROWS`] rows kept at once; a speed after its
+    /// direction and one linked to two vanes (counts and values); a linked
+    /// speed with a re-calibration, and one with a missing-value code (-5) in
+    /// its range (both classified out of line); a speed linked to nothing.
+    fn layout_links() -> Layout<C> {
+        let mut cfg = StationConfig::ten_minute_1hz();
+        cfg.interval_s = 3_600;
+        cfg.samples_per_interval = 3_600;
+        cfg.missing_values = [Some(-999.0), Some(-5.0), None, None];
+        let mut veering = Screen::for_kind(crate::Kind::Direction);
+        veering.step_limit = Some(30.0);
+        let recal = Recal {
+            logger_slope: 0.765,
+            logger_offset: 0.35,
+            cert_slope: 0.7581,
+            cert_offset: 0.2214,
+        };
+        Layout::new::<G>(
+            cfg,
+            &[
+                ChannelConfig::direction()
+                    .with_calibration(0.1, 0.0)
+                    .with_mounting_offset(4.0)
+                    .with_speed_channel(3),
+                ChannelConfig::direction()
+                    .with_speed_channel(3)
+                    .with_screen(veering),
+                ChannelConfig::speed(0.01)
+                    .with_range(-10.0, 75.0)
+                    .with_gust_window(3),
+                ChannelConfig::speed(0.05)
+                    .with_range(0.0, 40.0)
+                    .with_gust_window(2),
+                ChannelConfig::speed(0.01)
+                    .with_gust_window(G as u16)
+                    .with_recalibration(recal),
+                ChannelConfig::direction()
+                    .with_calibration(0.5, 0.0)
+                    .with_speed_channel(4),
+                ChannelConfig::speed(0.3)
+                    .with_range(0.0, 50.0)
+                    .with_gust_window(1),
+                ChannelConfig::direction()
+                    .with_mounting_offset(-7.25)
+                    .with_speed_channel(2),
+            ],
+        )
+        .unwrap()
+    }
+
+    /// A reading for [`layout_links`]: valid but for one in 12, so that a
+    /// linked speed is missing, out of range, flagged, excluded, a code or
+    /// raw counts while its vane is fine, and the other way round, inside
+    /// stretches where both are fine.
+    fn reading_links(rng: &mut Rng, c: usize) -> Reading {
+        if rng.next() % 12 == 0 {
+            return match rng.next() % 9 {
+                0 => Reading::Missing,
+                1 => Reading::Flagged,
+                2 => Reading::Excluded,
+                3 => Reading::Value(f64::NAN),
+                4 => Reading::Value(-999.0),
+                5 => Reading::Value(-5.0),
+                6 => Reading::Value(if rng.next() % 2 == 0 { 1e6 } else { -1.0 }),
+                7 => Reading::Value(45.0),
+                _ => Reading::Counts((rng.next() % 5000) as i32 - 500),
+            };
+        }
+        let u = rng.unit();
+        let half = if rng.next() % 4 == 0 { 0.5 } else { 0.0 };
+        // Speeds that mostly move little (a full gust window and a spike
+        // chain going on: the steady loops), now and then a jump; some at 0.
+        let mut near = |mid: f64| match rng.next() % 20 {
+            0 => u * 2.0 * mid,
+            1 => 0.0,
+            _ => mid + u - 0.5,
+        };
+        match c {
+            0 => Reading::Counts((u * 3600.0) as i32),
+            1 => Reading::Value(((1800.0 + 2000.0 * u).round() + half) / 100.0),
+            7 => Reading::Value(((u * 36000.0).round() + half) / 100.0),
+            2 => Reading::Value(((near(8.0) * 100.0).round() + half) / 100.0),
+            3 => Reading::Value(((near(12.0) * 20.0).round() + half) * 0.05),
+            4 => Reading::Value(near(10.0)),
+            5 => Reading::Value(((u * 720.0).round() + half) * 0.5),
+            _ => Reading::Value(((near(6.0) / 0.3).round() + half) * 0.3),
+        }
+    }
+
     #[test]
     fn runs_pushed_by_column_equal_samples_pushed_one_by_one() {
-        same_by_block_and_by_sample(layout(), reading, 11);
+        same_by_block_and_by_sample(layout(), reading, 11, 700, 100);
     }
 
     #[test]
     fn values_classified_in_the_block_equal_samples_pushed_one_by_one() {
-        same_by_block_and_by_sample(layout_values(), reading_values, 12);
+        same_by_block_and_by_sample(layout_values(), reading_values, 12, 700, 100);
     }
 
     #[test]
     fn steady_stretches_by_column_equal_samples_pushed_one_by_one() {
-        same_by_block_and_by_sample(layout_steady(), reading_steady, 13);
+        same_by_block_and_by_sample(layout_steady(), reading_steady, 13, 700, 100);
     }
 
+    #[test]
+    fn linked_speeds_classified_once_equal_samples_pushed_one_by_one() {
+        same_by_block_and_by_sample(layout_links(), reading_links, 14, 1_600, 4_000);
+    }
+
+    /// Random rounds of `reading`s of `layout`, pushed one by one and as
+    /// blocks of up to `longest` rows split anywhere: the same interval states,
+    /// records, gaps, totals and recovery. Five in `calm` time steps are not
+    /// the next second (a duplicate, a step back, a gap, a jump over
+    /// intervals, a quarter second).
     fn same_by_block_and_by_sample(
         layout: Layout<C>,
         reading: fn(&mut Rng, usize) -> Reading,
         seed: u64,
+        longest: u64,
+        calm: u64,
     ) {
         let mut rng = Rng(seed);
         for round in 0..40 {
@@ -2677,7 +2849,7 @@ mod run_tests {
             let mut ms = 1_700_000_400_000i64 + (rng.next() % 600_000) as i64;
             let mut times = Vec::with_capacity(n);
             for _ in 0..n {
-                ms += match rng.next() % 100 {
+                ms += match rng.next() % calm {
                     0 => 0,
                     1 => -2000,
                     2 => 7_000,
@@ -2704,7 +2876,7 @@ mod run_tests {
             let mut runs = 0usize;
             while i < n {
                 // Blocks of random length, split anywhere.
-                let end = (i + 1 + (rng.next() % 700) as usize).min(n);
+                let end = (i + 1 + (rng.next() % longest) as usize).min(n);
                 while i < end {
                     let cols_at: [&[Reading]; C] = core::array::from_fn(|c| &cols[c][i..end]);
                     let k = block.push_run(&times[i..end], &cols_at);
