@@ -718,6 +718,25 @@ impl<const C: usize> Layout<C> {
         self.read_image::<G>(image)
     }
 
+    /// [`Layout::load_image`] into memory that holds no layout yet (the C
+    /// interface's layout block): writes a blank layout into `slot` (cleared
+    /// memory: no placeholder layout built field by field, 0.3 KiB less
+    /// flash on a Cortex-M0 for 8 channels), reads the image into it in
+    /// place, and returns it. On an error `slot` holds a blank layout that
+    /// no station may run on; it is not handed out.
+    ///
+    /// # Errors
+    ///
+    /// As [`Layout::load_image`].
+    pub fn load_image_into<'a, const G: usize>(
+        slot: &'a mut core::mem::MaybeUninit<Self>,
+        image: &[u8],
+    ) -> Result<&'a mut Self, ImageError> {
+        let layout = blank(slot);
+        layout.read_image::<G>(image)?;
+        Ok(layout)
+    }
+
     /// The work of [`Layout::load_image`] (`self` partly written on an
     /// error): the shape's part, small; the rest is [`read_image`], one
     /// function for every shape.
@@ -731,6 +750,30 @@ impl<const C: usize> Layout<C> {
         self.frame = s.frame;
         Ok(())
     }
+}
+
+/// Writes the blank layout [`Layout::load_image_into`] reads an image
+/// into (not inlined: a temporary the compiler may build for it takes stack
+/// only while this runs, not during the read).
+#[inline(never)]
+fn blank<const C: usize>(slot: &mut core::mem::MaybeUninit<Layout<C>>) -> &mut Layout<C> {
+    slot.write(Blank::<C>::LAYOUT)
+}
+
+/// The blank layout of `C` channels (a constant, not built: a constant of
+/// cleared memory is written as one memory clear, without a temporary).
+struct Blank<const C: usize>;
+
+impl<const C: usize> Blank<C> {
+    const LAYOUT: Layout<C> = Layout {
+        interval_ms: 0,
+        samples: 0,
+        max_step_ms: 0,
+        sentinels: Sentinels::NONE,
+        fingerprint: 0,
+        frame: 0,
+        channels: [Channel::BLANK; C],
+    };
 }
 
 /// Bytes of the image of a layout of `c` channels at most ([`Layout::IMAGE_LEN`]).
@@ -3025,12 +3068,21 @@ mod image_tests {
                 // Without the reset: the same answer (its layout is discarded).
                 let mut spoiled = Layout::<5>::placeholder();
                 assert_eq!(spoiled.load_image_no_reset::<3>(&bad), refused, "byte {i}");
+                // Into memory holding no layout: the same answer.
+                let mut slot = core::mem::MaybeUninit::<Layout<5>>::uninit();
+                let into = Layout::load_image_into::<3>(&mut slot, &bad).map(|_| ());
+                assert_eq!(into, refused, "byte {i}");
             }
         }
         let mut fresh = Layout::<5>::placeholder();
         assert_eq!(fresh.load_image_no_reset::<3>(&image), Ok(()));
         back.load_image::<3>(&image).unwrap();
         assert_eq!(fresh, back);
+        // Into memory holding no layout (from the blank one): the same layout,
+        // equal to the one the image was written from.
+        let mut slot = core::mem::MaybeUninit::<Layout<5>>::uninit();
+        let into = Layout::load_image_into::<3>(&mut slot, &image).unwrap();
+        assert_eq!(*into, back);
         // Its length follows from its options: one byte short, the CRC is
         // read from the wrong bytes; longer than any image, refused unread.
         assert_eq!(
