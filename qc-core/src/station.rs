@@ -822,16 +822,11 @@ fn read_image(
     let interval_ms = r.i64();
     let samples = r.u32();
     let max_step_ms = r.i64();
+    // Read as made (`from_fn` calls in index order), not cleared first.
     let n_values = r.u8();
-    let mut values = [0.0; MAX_SENTINELS];
-    for v in values.iter_mut() {
-        *v = r.f64();
-    }
+    let values: [f64; MAX_SENTINELS] = core::array::from_fn(|_| r.f64());
     let n_counts = r.u8();
-    let mut counts = [0; MAX_SENTINELS];
-    for k in counts.iter_mut() {
-        *k = r.i32();
-    }
+    let counts: [i32; MAX_SENTINELS] = core::array::from_fn(|_| r.i32());
     let sentinels = Sentinels::from_parts(values, n_values, counts, n_counts);
     let fingerprint = r.u32();
     let frame = r.u32();
