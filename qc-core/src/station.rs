@@ -706,8 +706,8 @@ impl<const C: usize> Layout<C> {
 
     /// [`Layout::load_image`] without the reset on an error: then `self` is
     /// left partly written, a layout to discard, not to run a station on (it
-    /// is still a `Layout` value; its channels may hold any fields the
-    /// image's bytes gave). For a caller that marks the memory unusable on
+    /// is still a `Layout` value; its fields and its channels' may hold any
+    /// values the image's bytes gave). For a caller that marks the memory unusable on
     /// an error anyway (the C interface's layout block): it links no
     /// [`Layout::placeholder`] reset.
     ///
@@ -741,14 +741,24 @@ impl<const C: usize> Layout<C> {
     /// error): the shape's part, small; the rest is [`read_image`], one
     /// function for every shape.
     fn read_image<const G: usize>(&mut self, image: &[u8]) -> Result<(), ImageError> {
-        let s = read_image(image, C, G, &mut self.channels)?;
-        self.interval_ms = s.interval_ms;
-        self.samples = s.samples;
-        self.max_step_ms = s.max_step_ms;
-        self.sentinels = s.sentinels;
-        self.fingerprint = s.fingerprint;
-        self.frame = s.frame;
-        Ok(())
+        let Layout {
+            interval_ms,
+            samples,
+            max_step_ms,
+            sentinels,
+            fingerprint,
+            frame,
+            channels,
+        } = self;
+        let scalars = ImageScalars {
+            interval_ms,
+            samples,
+            max_step_ms,
+            sentinels,
+            fingerprint,
+            frame,
+        };
+        read_image(image, C, G, scalars, channels)
     }
 }
 
@@ -781,26 +791,29 @@ const fn image_len(c: usize) -> usize {
     8 + 20 + 2 + 12 * MAX_SENTINELS + 8 + c * Channel::IMAGE_LEN + 4
 }
 
-/// A layout's fields besides its channels, as [`read_image`] reads them.
-struct ImageScalars {
-    interval_ms: i64,
-    samples: u32,
-    max_step_ms: i64,
-    sentinels: Sentinels,
-    fingerprint: u32,
-    frame: u32,
+/// A layout's fields besides its channels, where [`read_image`] reads
+/// them to (in place: no copy of them on the stack to move afterwards).
+struct ImageScalars<'a> {
+    interval_ms: &'a mut i64,
+    samples: &'a mut u32,
+    max_step_ms: &'a mut i64,
+    sentinels: &'a mut Sentinels,
+    fingerprint: &'a mut u32,
+    frame: &'a mut u32,
 }
 
 /// Reads a layout image of `c` channels and gust capacity `g` (its length
 /// checked by the caller): the channels into `channels` (`c` of them), the
-/// rest returned. Not generic, so that a program loading images of several
-/// shapes has this code once.
+/// rest into `out` (on an error some may be written: the layout is then
+/// reset or discarded). Not generic, so that a program loading images of
+/// several shapes has this code once.
 fn read_image(
     image: &[u8],
     c: usize,
     g: usize,
+    out: ImageScalars<'_>,
     channels: &mut [Channel],
-) -> Result<ImageScalars, ImageError> {
+) -> Result<(), ImageError> {
     let Some((body, crc)) = image.split_last_chunk::<4>() else {
         return Err(ImageError::Length);
     };
@@ -819,17 +832,17 @@ fn read_image(
     if crate::crc::crc32(body) != u32::from_le_bytes(*crc) {
         return Err(ImageError::Crc);
     }
-    let interval_ms = r.i64();
-    let samples = r.u32();
-    let max_step_ms = r.i64();
+    *out.interval_ms = r.i64();
+    *out.samples = r.u32();
+    *out.max_step_ms = r.i64();
     // Read as made (`from_fn` calls in index order), not cleared first.
     let n_values = r.u8();
     let values: [f64; MAX_SENTINELS] = core::array::from_fn(|_| r.f64());
     let n_counts = r.u8();
     let counts: [i32; MAX_SENTINELS] = core::array::from_fn(|_| r.i32());
     let sentinels = Sentinels::from_parts(values, n_values, counts, n_counts);
-    let fingerprint = r.u32();
-    let frame = r.u32();
+    *out.fingerprint = r.u32();
+    *out.frame = r.u32();
     // What a state of capacity `g` relies on (the image was written from a
     // layout validated for it).
     let mut gust_ok = true;
@@ -840,17 +853,11 @@ fn read_image(
     let Some(sentinels) = sentinels else {
         return Err(ImageError::Field);
     };
-    if !(r.ok() && gust_ok && interval_ms > 0 && samples > 0 && r.rest() == 0) {
+    *out.sentinels = sentinels;
+    if !(r.ok() && gust_ok && *out.interval_ms > 0 && *out.samples > 0 && r.rest() == 0) {
         return Err(ImageError::Field);
     }
-    Ok(ImageScalars {
-        interval_ms,
-        samples,
-        max_step_ms,
-        sentinels,
-        fingerprint,
-        frame,
-    })
+    Ok(())
 }
 
 /// The accumulated state of one interval (or one piece of it).
