@@ -707,9 +707,9 @@ impl<const C: usize> Layout<C> {
     /// [`Layout::load_image`] without the reset on an error: then `self` is
     /// left partly written, a layout to discard, not to run a station on (it
     /// is still a `Layout` value; its fields and its channels' may hold any
-    /// values the image's bytes gave). For a caller that marks the memory unusable on
-    /// an error anyway (the C interface's layout block): it links no
-    /// [`Layout::placeholder`] reset.
+    /// values the image's bytes gave). For a caller that marks the memory
+    /// unusable on an error anyway: it links no [`Layout::placeholder`]
+    /// reset.
     ///
     /// # Errors
     ///
