@@ -265,7 +265,7 @@ split() { # split ELF SHARE: what ELF adds over footprint-base, by kind of symbo
     NR==FNR { base[$0]=1; next }
     $3 ~ /^[tTrRdDwW]$/ { size=$2+0; $1=""; $2=""; $3=""; n=substr($0,4);
       if (n in base) next;
-      if (n ~ /read_image|load_image|ImageReader|_LAYOUT$|tm_layout_load|crc::crc32$/) c="loading the stored layout (its image, 1,492 B, the checks and the reads)";
+      if (n ~ /read_image|load_image|ImageReader|_LAYOUT$|tm_layout_load|crc::crc32$|station::blank$/) c="loading the stored layout (its image, 1,492 B, the checks and the reads)";
       else if (n ~ /Layout<_>::reset|tenmin_qc::placeholder/) c="the placeholder layout a build or load starts from (Layout::reset only where a refusal must leave it)";
       else if (n ~ /Channel::new|validate|Sentinels::new|config_fingerprint|note_codes|cmath::round|cmath::floor|LayoutMem|types::channel|types::station|_defaults|tm_layout_build|_station$|fp_opt|fp_index|Crc32::word/) c="building the layout at run time (the C settings, Layout::rebuild)";
       else if (n ~ /^tm_|tenmin_qc::/) c="the C interface (tm_*, frames into the caller buffer)";

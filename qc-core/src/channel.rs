@@ -527,6 +527,53 @@ impl Channel {
         }
     }
 
+    /// A channel to be overwritten whole by [`Channel::read_image`] before
+    /// any use: every field zero, off or the first of its kind (so the
+    /// compiler writes it as cleared memory, not as a constant per field).
+    /// Not a channel to run: [`crate::Layout::load_image_into`] alone makes
+    /// it, and hands out the layout only after an image filled it.
+    pub(crate) const BLANK: Channel = Channel {
+        cfg: ChannelConfig {
+            kind: Kind::Speed,
+            scale: Scale {
+                offset: 0.0,
+                step: 0.0,
+            },
+            range: (0.0, 0.0),
+            gust_window: 0,
+            mounting_offset_deg: 0.0,
+            speed_channel: None,
+            screen: Screen {
+                step_limit: None,
+                mean_range: None,
+                sd_range: None,
+                gust_max: None,
+                min_recovery: None,
+                flat_span_s: None,
+                flat_tolerance: 0.0,
+                partner: None,
+                pair_mean_diff: 0.0,
+                pair_max_diff: 0.0,
+                above: None,
+                shear_tolerance: 0.0,
+                icing: None,
+            },
+            recal: None,
+        },
+        inv_step: None,
+        lo_k: 0,
+        hi_k: 0,
+        dir_mul: 0,
+        dir_add: 0,
+        dir_fast_k: 0,
+        offset_cd: 0,
+        code_in_counts: false,
+        code_in_values: false,
+        dir_inline_lo: 0,
+        gust_w: 0,
+        spike_lim: 0,
+    };
+
     /// Validates a configuration. `gust_capacity` is the station's `G`.
     /// A `const fn`, so that a layout can be checked at compile time.
     pub(crate) const fn new(

@@ -706,10 +706,10 @@ impl<const C: usize> Layout<C> {
 
     /// [`Layout::load_image`] without the reset on an error: then `self` is
     /// left partly written, a layout to discard, not to run a station on (it
-    /// is still a `Layout` value; its channels may hold any fields the
-    /// image's bytes gave). For a caller that marks the memory unusable on
-    /// an error anyway (the C interface's layout block): it links no
-    /// [`Layout::placeholder`] reset.
+    /// is still a `Layout` value; its fields and its channels' may hold any
+    /// values the image's bytes gave). For a caller that marks the memory
+    /// unusable on an error anyway: it links no [`Layout::placeholder`]
+    /// reset.
     ///
     /// # Errors
     ///
@@ -718,19 +718,72 @@ impl<const C: usize> Layout<C> {
         self.read_image::<G>(image)
     }
 
+    /// [`Layout::load_image`] into memory that holds no layout yet (the C
+    /// interface's layout block): writes a blank layout into `slot` (cleared
+    /// memory: no placeholder layout built field by field, 0.3 KiB less
+    /// flash on a Cortex-M0 for 8 channels), reads the image into it in
+    /// place, and returns it. On an error `slot` holds a blank layout that
+    /// no station may run on; it is not handed out.
+    ///
+    /// # Errors
+    ///
+    /// As [`Layout::load_image`].
+    pub fn load_image_into<'a, const G: usize>(
+        slot: &'a mut core::mem::MaybeUninit<Self>,
+        image: &[u8],
+    ) -> Result<&'a mut Self, ImageError> {
+        let layout = blank(slot);
+        layout.read_image::<G>(image)?;
+        Ok(layout)
+    }
+
     /// The work of [`Layout::load_image`] (`self` partly written on an
     /// error): the shape's part, small; the rest is [`read_image`], one
     /// function for every shape.
     fn read_image<const G: usize>(&mut self, image: &[u8]) -> Result<(), ImageError> {
-        let s = read_image(image, C, G, &mut self.channels)?;
-        self.interval_ms = s.interval_ms;
-        self.samples = s.samples;
-        self.max_step_ms = s.max_step_ms;
-        self.sentinels = s.sentinels;
-        self.fingerprint = s.fingerprint;
-        self.frame = s.frame;
-        Ok(())
+        let Layout {
+            interval_ms,
+            samples,
+            max_step_ms,
+            sentinels,
+            fingerprint,
+            frame,
+            channels,
+        } = self;
+        let scalars = ImageScalars {
+            interval_ms,
+            samples,
+            max_step_ms,
+            sentinels,
+            fingerprint,
+            frame,
+        };
+        read_image(image, C, G, scalars, channels)
     }
+}
+
+/// Writes the blank layout [`Layout::load_image_into`] reads an image
+/// into (not inlined: a temporary the compiler may build for it takes stack
+/// only while this runs, not during the read).
+#[inline(never)]
+fn blank<const C: usize>(slot: &mut core::mem::MaybeUninit<Layout<C>>) -> &mut Layout<C> {
+    slot.write(Blank::<C>::LAYOUT)
+}
+
+/// The blank layout of `C` channels (a constant, not built: a constant of
+/// cleared memory is written as one memory clear, without a temporary).
+struct Blank<const C: usize>;
+
+impl<const C: usize> Blank<C> {
+    const LAYOUT: Layout<C> = Layout {
+        interval_ms: 0,
+        samples: 0,
+        max_step_ms: 0,
+        sentinels: Sentinels::NONE,
+        fingerprint: 0,
+        frame: 0,
+        channels: [Channel::BLANK; C],
+    };
 }
 
 /// Bytes of the image of a layout of `c` channels at most ([`Layout::IMAGE_LEN`]).
@@ -738,26 +791,29 @@ const fn image_len(c: usize) -> usize {
     8 + 20 + 2 + 12 * MAX_SENTINELS + 8 + c * Channel::IMAGE_LEN + 4
 }
 
-/// A layout's fields besides its channels, as [`read_image`] reads them.
-struct ImageScalars {
-    interval_ms: i64,
-    samples: u32,
-    max_step_ms: i64,
-    sentinels: Sentinels,
-    fingerprint: u32,
-    frame: u32,
+/// A layout's fields besides its channels, where [`read_image`] reads
+/// them to (in place: no copy of them on the stack to move afterwards).
+struct ImageScalars<'a> {
+    interval_ms: &'a mut i64,
+    samples: &'a mut u32,
+    max_step_ms: &'a mut i64,
+    sentinels: &'a mut Sentinels,
+    fingerprint: &'a mut u32,
+    frame: &'a mut u32,
 }
 
 /// Reads a layout image of `c` channels and gust capacity `g` (its length
 /// checked by the caller): the channels into `channels` (`c` of them), the
-/// rest returned. Not generic, so that a program loading images of several
-/// shapes has this code once.
+/// rest into `out` (on an error some may be written: the layout is then
+/// reset or discarded). Not generic, so that a program loading images of
+/// several shapes has this code once.
 fn read_image(
     image: &[u8],
     c: usize,
     g: usize,
+    out: ImageScalars<'_>,
     channels: &mut [Channel],
-) -> Result<ImageScalars, ImageError> {
+) -> Result<(), ImageError> {
     let Some((body, crc)) = image.split_last_chunk::<4>() else {
         return Err(ImageError::Length);
     };
@@ -776,22 +832,17 @@ fn read_image(
     if crate::crc::crc32(body) != u32::from_le_bytes(*crc) {
         return Err(ImageError::Crc);
     }
-    let interval_ms = r.i64();
-    let samples = r.u32();
-    let max_step_ms = r.i64();
+    *out.interval_ms = r.i64();
+    *out.samples = r.u32();
+    *out.max_step_ms = r.i64();
+    // Read as made (`from_fn` calls in index order), not cleared first.
     let n_values = r.u8();
-    let mut values = [0.0; MAX_SENTINELS];
-    for v in values.iter_mut() {
-        *v = r.f64();
-    }
+    let values: [f64; MAX_SENTINELS] = core::array::from_fn(|_| r.f64());
     let n_counts = r.u8();
-    let mut counts = [0; MAX_SENTINELS];
-    for k in counts.iter_mut() {
-        *k = r.i32();
-    }
+    let counts: [i32; MAX_SENTINELS] = core::array::from_fn(|_| r.i32());
     let sentinels = Sentinels::from_parts(values, n_values, counts, n_counts);
-    let fingerprint = r.u32();
-    let frame = r.u32();
+    *out.fingerprint = r.u32();
+    *out.frame = r.u32();
     // What a state of capacity `g` relies on (the image was written from a
     // layout validated for it).
     let mut gust_ok = true;
@@ -802,17 +853,11 @@ fn read_image(
     let Some(sentinels) = sentinels else {
         return Err(ImageError::Field);
     };
-    if !(r.ok() && gust_ok && interval_ms > 0 && samples > 0 && r.rest() == 0) {
+    *out.sentinels = sentinels;
+    if !(r.ok() && gust_ok && *out.interval_ms > 0 && *out.samples > 0 && r.rest() == 0) {
         return Err(ImageError::Field);
     }
-    Ok(ImageScalars {
-        interval_ms,
-        samples,
-        max_step_ms,
-        sentinels,
-        fingerprint,
-        frame,
-    })
+    Ok(())
 }
 
 /// The accumulated state of one interval (or one piece of it).
@@ -3025,12 +3070,21 @@ mod image_tests {
                 // Without the reset: the same answer (its layout is discarded).
                 let mut spoiled = Layout::<5>::placeholder();
                 assert_eq!(spoiled.load_image_no_reset::<3>(&bad), refused, "byte {i}");
+                // Into memory holding no layout: the same answer.
+                let mut slot = core::mem::MaybeUninit::<Layout<5>>::uninit();
+                let into = Layout::load_image_into::<3>(&mut slot, &bad).map(|_| ());
+                assert_eq!(into, refused, "byte {i}");
             }
         }
         let mut fresh = Layout::<5>::placeholder();
         assert_eq!(fresh.load_image_no_reset::<3>(&image), Ok(()));
         back.load_image::<3>(&image).unwrap();
         assert_eq!(fresh, back);
+        // Into memory holding no layout (from the blank one): the same layout,
+        // equal to the one the image was written from.
+        let mut slot = core::mem::MaybeUninit::<Layout<5>>::uninit();
+        let into = Layout::load_image_into::<3>(&mut slot, &image).unwrap();
+        assert_eq!(*into, back);
         // Its length follows from its options: one byte short, the CRC is
         // read from the wrong bytes; longer than any image, refused unread.
         assert_eq!(

@@ -3,6 +3,8 @@
 //! capacity `G`). `lib.rs` turns the caller's pointers into references to
 //! these types; nothing here is `unsafe`.
 
+use core::mem::MaybeUninit;
+
 use qc_core::wire::{self, ConfigStamp, RecordFrame, StateFrame, FRAME_LEN};
 use qc_core::{
     config_fingerprint, ChannelConfig, Ended, Event, ImageError, Layout, Reading, Recovery,
@@ -46,7 +48,8 @@ impl LayoutHead {
 
 impl<const C: usize> LayoutMem<C> {
     /// The head of an empty layout block (not yet valid: `magic` is 0); its
-    /// layout is [`Layout::placeholder`].
+    /// layout is [`Layout::placeholder`] before a build, and may be none
+    /// before or after a failed load ([`load_image`]).
     pub const EMPTY_HEAD: LayoutHead = LayoutHead {
         magic: 0,
         capacity: 0,
@@ -142,46 +145,52 @@ impl<const C: usize> LayoutMem<C> {
         *crc = wire::crc32(body).to_le_bytes();
         Ok(len)
     }
+}
 
-    /// Reads a layout image of shape `C`, `G` into `self` (whose layout is
-    /// a valid one, the placeholder say), checking it first; no validation
-    /// of the station runs. On an error the block stays unusable.
-    #[inline(never)]
-    pub fn load_image<const G: usize>(&mut self, image: &[u8]) -> Result<(), tm_status> {
-        self.head.magic = 0;
-        let Some((body, crc)) = image.split_last_chunk::<4>() else {
-            return Err(tm_status::TM_ERR_IMAGE);
-        };
-        let Some((head, core)) = body.split_first_chunk::<IMAGE_HEAD>() else {
-            return Err(tm_status::TM_ERR_IMAGE);
-        };
-        let [m0, m1, m2, m3, version, active, _, _, f0, f1, f2, f3] = *head;
-        if [m0, m1, m2, m3] != IMAGE_MAGIC || version != IMAGE_VERSION {
-            return Err(tm_status::TM_ERR_IMAGE);
-        }
-        // The core checks its own part (format, shape, length, CRC) too;
-        // this CRC covers the head.
-        match self.layout.load_image_no_reset::<G>(core) {
-            Ok(()) => {}
-            Err(ImageError::Shape) => return Err(tm_status::TM_ERR_IMAGE_SHAPE),
-            Err(ImageError::Crc) => return Err(tm_status::TM_ERR_IMAGE_CRC),
-            Err(_) => return Err(tm_status::TM_ERR_IMAGE),
-        }
-        if wire::crc32(body) != u32::from_le_bytes(*crc) {
-            return Err(tm_status::TM_ERR_IMAGE_CRC);
-        }
-        if active == 0 || usize::from(active) > C {
-            return Err(tm_status::TM_ERR_IMAGE);
-        }
-        self.head = LayoutHead {
-            magic: LAYOUT_MAGIC,
-            capacity: C as u8,
-            gust: G as u8,
-            active,
-            fingerprint: u32::from_le_bytes([f0, f1, f2, f3]),
-        };
-        Ok(())
+/// Reads a layout image of shape `C`, `G` into a layout block: its head
+/// `head` (already the empty head, `magic` 0) and its layout `slot`, which
+/// holds no layout yet ([`Layout::load_image_into`] writes one: cleared
+/// memory, no placeholder layout); no validation of the station runs. On an
+/// error the block stays unusable (`magic` 0; `slot` may still hold no
+/// layout: nothing reads the layout of a block without the mark).
+#[inline(never)]
+pub fn load_image<const C: usize, const G: usize>(
+    head: &mut LayoutHead,
+    slot: &mut MaybeUninit<Layout<C>>,
+    image: &[u8],
+) -> Result<(), tm_status> {
+    let Some((body, crc)) = image.split_last_chunk::<4>() else {
+        return Err(tm_status::TM_ERR_IMAGE);
+    };
+    let Some((h, core)) = body.split_first_chunk::<IMAGE_HEAD>() else {
+        return Err(tm_status::TM_ERR_IMAGE);
+    };
+    let [m0, m1, m2, m3, version, active, _, _, f0, f1, f2, f3] = *h;
+    if [m0, m1, m2, m3] != IMAGE_MAGIC || version != IMAGE_VERSION {
+        return Err(tm_status::TM_ERR_IMAGE);
     }
+    // The core checks its own part (format, shape, length, CRC) too;
+    // this CRC covers the head.
+    match Layout::<C>::load_image_into::<G>(slot, core) {
+        Ok(_) => {}
+        Err(ImageError::Shape) => return Err(tm_status::TM_ERR_IMAGE_SHAPE),
+        Err(ImageError::Crc) => return Err(tm_status::TM_ERR_IMAGE_CRC),
+        Err(_) => return Err(tm_status::TM_ERR_IMAGE),
+    }
+    if wire::crc32(body) != u32::from_le_bytes(*crc) {
+        return Err(tm_status::TM_ERR_IMAGE_CRC);
+    }
+    if active == 0 || usize::from(active) > C {
+        return Err(tm_status::TM_ERR_IMAGE);
+    }
+    *head = LayoutHead {
+        magic: LAYOUT_MAGIC,
+        capacity: C as u8,
+        gust: G as u8,
+        active,
+        fingerprint: u32::from_le_bytes([f0, f1, f2, f3]),
+    };
+    Ok(())
 }
 
 /// What a logger's frames carry besides the interval, and the frame counter.

@@ -436,9 +436,23 @@ unsafe fn layout_load<const C: usize, const G: usize>(
     let r = (|| {
         // SAFETY: the caller promises `image_len` readable bytes at `image`.
         let image = unsafe { slice(image, image_len) }?;
-        // SAFETY: passed on from the caller (see the function's Safety).
-        let layout = unsafe { fresh_layout::<C>(mem, len) }?;
-        layout.load_image::<G>(image)
+        let p = block::<LayoutMem<C>>(mem, len)?.cast_mut();
+        // SAFETY: `p` is non-null, aligned and `len` covers a LayoutMem<C>;
+        // the caller gives this block to the library alone. The head is
+        // written whole (the empty head: no mark) before a reference to it
+        // is made; the layout is reached as a `MaybeUninit`, which needs no
+        // valid contents (`engine::load_image` writes a layout into it
+        // before reading it). No reference to the whole `LayoutMem` is made
+        // here: its layout may hold none after an error, and every reader
+        // of the block checks the mark first.
+        let (head, slot) = unsafe {
+            addr_of_mut!((*p).head).write(LayoutMem::<C>::EMPTY_HEAD);
+            (
+                &mut *addr_of_mut!((*p).head),
+                &mut *addr_of_mut!((*p).layout).cast::<MaybeUninit<Layout<C>>>(),
+            )
+        };
+        engine::load_image::<C, G>(head, slot, image)
     })();
     status(r)
 }
