@@ -720,8 +720,10 @@ impl<'a> Records<'a> {
     /// The next record read by `parser` into `readings`: its line and its time
     /// or why it is bad. Plain rows are read in one pass
     /// ([`Parser::parse_plain`]); anything else is split first and read field
-    /// by field ([`Parser::parse`]), with the same result.
-    #[inline]
+    /// by field ([`Parser::parse`]), with the same result. Always inlined:
+    /// the row loops of [`feed`] and of the workers of `--jobs 2` (and of
+    /// the loggers' tables) then run the same inlined parse.
+    #[inline(always)]
     pub fn next_row(
         &mut self,
         parser: &mut Parser,
