@@ -519,10 +519,10 @@ pub fn transpose(rows: &[Reading], cols: &mut [Vec<Reading>]) {
 /// [`transpose`] for `N` columns.
 #[inline]
 fn transpose_n<const N: usize>(rows: &[Reading], cols: &mut [Vec<Reading>]) {
-    let (rows, _) = rows.as_chunks::<N>();
+    // Chunks of a constant length: the index needs no test at run time.
+    let rows = rows.chunks_exact(N);
     for (c, col) in cols.iter_mut().take(N).enumerate() {
-        col.reserve(rows.len());
-        col.extend(rows.iter().map(|r| r[c % N]));
+        col.extend(rows.clone().map(|r| r[c]));
     }
 }
 
