@@ -1035,7 +1035,9 @@ impl Parser {
     /// of fields. Returns the time and the offset of the record's end (its
     /// terminator, or the end of `buf`); `None` for any other record, which
     /// [`Parser::parse`] then reads (`readings` may be partly written).
-    #[inline]
+    /// Out of line: in the row loops of [`feed`] and of the workers it spills
+    /// fewer of its values than inlined (host-cli/PERF.md, "parse2").
+    #[inline(never)]
     pub fn parse_plain(
         &mut self,
         buf: &[u8],
