@@ -405,7 +405,7 @@ impl Block {
 
     /// Adds a row: its time, line and one reading per channel (missing ones
     /// where `readings` is shorter).
-    #[inline]
+    #[inline(always)]
     pub fn add(&mut self, t: Timestamp, line: u64, readings: &[Reading]) {
         self.times.push(t);
         self.lines.push(line);
@@ -423,11 +423,8 @@ impl Block {
     /// Moves the rows added into the columns (each column's readings in one
     /// pass over the rows).
     pub fn columns(&mut self) {
-        let n = self.cols.len();
-        if n > 0 && !self.rows.is_empty() {
-            for (c, col) in self.cols.iter_mut().enumerate() {
-                col.extend(self.rows.chunks_exact(n).map(|r| r[c]));
-            }
+        if !self.rows.is_empty() {
+            transpose(&self.rows, &mut self.cols);
         }
         self.rows.clear();
     }
@@ -495,6 +492,37 @@ impl Block {
         for col in &mut self.cols {
             col.clear();
         }
+    }
+}
+
+/// Appends the readings of `rows` (row after row, `cols.len()` a row; a
+/// last partial row is left out) to `cols`, column by column. For 1 to 16
+/// channels the row width is a constant of the loop ([`transpose_n`]), so
+/// that each column is a plain strided copy without bounds tests.
+pub fn transpose(rows: &[Reading], cols: &mut [Vec<Reading>]) {
+    macro_rules! widths {
+        ($($n:literal)*) => {
+            match cols.len() {
+                0 => {}
+                $($n => transpose_n::<$n>(rows, cols),)*
+                n => {
+                    for (c, col) in cols.iter_mut().enumerate() {
+                        col.extend(rows.chunks_exact(n).map(|r| r[c]));
+                    }
+                }
+            }
+        };
+    }
+    widths!(1 2 3 4 5 6 7 8 9 10 11 12 13 14 15 16);
+}
+
+/// [`transpose`] for `N` columns.
+#[inline]
+fn transpose_n<const N: usize>(rows: &[Reading], cols: &mut [Vec<Reading>]) {
+    // Chunks of a constant length: the index needs no test at run time.
+    let rows = rows.chunks_exact(N);
+    for (c, col) in cols.iter_mut().take(N).enumerate() {
+        col.extend(rows.clone().map(|r| r[c]));
     }
 }
 
@@ -692,8 +720,10 @@ impl<'a> Records<'a> {
     /// The next record read by `parser` into `readings`: its line and its time
     /// or why it is bad. Plain rows are read in one pass
     /// ([`Parser::parse_plain`]); anything else is split first and read field
-    /// by field ([`Parser::parse`]), with the same result.
-    #[inline]
+    /// by field ([`Parser::parse`]), with the same result. Always inlined:
+    /// the row loops of [`feed`] and of the workers of `--jobs 2` (and of
+    /// the loggers' tables) then run the same inlined parse.
+    #[inline(always)]
     pub fn next_row(
         &mut self,
         parser: &mut Parser,
@@ -1005,7 +1035,9 @@ impl Parser {
     /// of fields. Returns the time and the offset of the record's end (its
     /// terminator, or the end of `buf`); `None` for any other record, which
     /// [`Parser::parse`] then reads (`readings` may be partly written).
-    #[inline]
+    /// Out of line: in the row loops of [`feed`] and of the workers it spills
+    /// fewer of its values than inlined (host-cli/PERF.md, "parse2").
+    #[inline(never)]
     pub fn parse_plain(
         &mut self,
         buf: &[u8],
@@ -2385,6 +2417,72 @@ mod tests {
                     assert_eq!(row[2], last);
                 }
                 b.clear();
+            }
+        }
+    }
+
+    /// The transposition by constant widths against the plain one it
+    /// replaced (strided `chunks_exact` per column) on random blocks: every
+    /// width 1 to 16 and 17, 18 (the general way), empty blocks, a partial
+    /// last row, a full block and columns that already hold readings.
+    #[test]
+    fn transposition_by_width_matches_the_plain_one() {
+        fn plain(rows: &[Reading], cols: &mut [Vec<Reading>]) {
+            let n = cols.len();
+            if n > 0 && !rows.is_empty() {
+                for (c, col) in cols.iter_mut().enumerate() {
+                    col.extend(rows.chunks_exact(n).map(|r| r[c]));
+                }
+            }
+        }
+        let mut x = 7u64;
+        let mut next = move || {
+            x = x
+                .wrapping_mul(6_364_136_223_846_793_005)
+                .wrapping_add(1_442_695_040_888_963_407);
+            x >> 33
+        };
+        for n in 0..=18usize {
+            for round in 0..12 {
+                let len = match round {
+                    0 => 0,
+                    1 => BLOCK_ROWS,
+                    _ => (next() % 600) as usize,
+                };
+                let extra = if round % 3 == 2 {
+                    (next() % 3) as usize
+                } else {
+                    0
+                };
+                let rows: Vec<Reading> = (0..len * n + extra)
+                    .map(|_| match next() % 5 {
+                        0 => Reading::Value(f64::from_bits(next() << 31 | next())),
+                        1 => Reading::Counts(next() as i32),
+                        2 => Reading::Missing,
+                        3 => Reading::Excluded,
+                        _ => Reading::Flagged,
+                    })
+                    .collect();
+                let held = (next() % 3) as usize;
+                let start: Vec<Vec<Reading>> = (0..n)
+                    .map(|c| vec![Reading::Counts(c as i32); held])
+                    .collect();
+                let (mut want, mut got) = (start.clone(), start);
+                plain(&rows, &mut want);
+                transpose(&rows, &mut got);
+                assert_eq!(got.len(), n);
+                for (g, w) in got.iter().zip(&want) {
+                    assert_eq!(g.len(), held + rows.len() / n, "width {n}, {len} rows");
+                    // Bit for bit (NaN payloads included).
+                    let bits = |r: &Reading| match *r {
+                        Reading::Value(v) => (0, v.to_bits()),
+                        Reading::Counts(k) => (1, k as u64),
+                        Reading::Missing => (2, 0),
+                        Reading::Flagged => (3, 0),
+                        Reading::Excluded => (4, 0),
+                    };
+                    assert!(g.iter().map(bits).eq(w.iter().map(bits)), "width {n}");
+                }
             }
         }
     }
