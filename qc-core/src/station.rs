@@ -885,13 +885,16 @@ pub struct IntervalAcc<const C: usize, const G: usize> {
 }
 
 /// The class of the reading of the speed channel `ch` is linked to, if any
-/// ([`IntervalAcc::push`], a linked direction). Out of line: inlined into
-/// the push's channel loop (as LTO does where the push has one caller, the C
+/// ([`IntervalAcc::push`], a linked direction). Out of line with the
+/// feature `linked-speed-call` (code generation only): inlined into the
+/// push's channel loop (as LTO does where the push has one caller, the C
 /// interface's configured library), its indexing of another channel made
 /// the compiler address every channel by index, two multiplies and spilled
 /// pointers a channel on a Cortex-M0: 7 instructions a channel more
-/// (firmware-example/README.md, "Configured builds, measured").
-#[inline(never)]
+/// (firmware-example/README.md, "Configured builds, measured"). Without
+/// the feature the compiler decides, as before it (the Rust firmware's
+/// figures, where a linked vane would pay the call).
+#[cfg_attr(feature = "linked-speed-call", inline(never))]
 fn linked_speed<const C: usize>(
     layout: &Layout<C>,
     readings: &[Reading; C],
