@@ -884,6 +884,29 @@ pub struct IntervalAcc<const C: usize, const G: usize> {
     accepted: u32,
 }
 
+/// The class of the reading of the speed channel `ch` is linked to, if any
+/// ([`IntervalAcc::push`], a linked direction). Out of line with the
+/// feature `linked-speed-call` (code generation only): inlined into the
+/// push's channel loop (as LTO does where the push has one caller, the C
+/// interface's configured library), its indexing of another channel made
+/// the compiler address every channel by index, two multiplies and spilled
+/// pointers a channel on a Cortex-M0: 7 instructions a channel more
+/// (firmware-example/README.md, "Configured builds, measured"). Without
+/// the feature the compiler decides, as before it (the Rust firmware's
+/// figures, where a linked vane would pay the call).
+#[cfg_attr(feature = "linked-speed-call", inline(never))]
+fn linked_speed<const C: usize>(
+    layout: &Layout<C>,
+    readings: &[Reading; C],
+    ch: &Channel,
+) -> Option<crate::channel::Class> {
+    let s = usize::from(ch.config().speed_channel?);
+    match (layout.channels.get(s), readings.get(s)) {
+        (Some(sc), Some(sr)) => Some(sc.classify(*sr, &layout.sentinels)),
+        _ => None,
+    }
+}
+
 impl<const C: usize, const G: usize> IntervalAcc<C, G> {
     /// An empty interval `index` of `layout`.
     pub fn new(layout: &Layout<C>, index: i64) -> Self {
@@ -1033,13 +1056,7 @@ impl<const C: usize, const G: usize> IntervalAcc<C, G> {
             .zip(layout.channels.iter())
             .zip(readings.iter())
         {
-            let speed = || {
-                let s = usize::from(ch.config().speed_channel?);
-                match (layout.channels.get(s), readings.get(s)) {
-                    (Some(sc), Some(sr)) => Some(sc.classify(*sr, sentinels)),
-                    _ => None,
-                }
-            };
+            let speed = || linked_speed(layout, readings, ch);
             slot.push_reading(ch, reading, sentinels, speed);
         }
     }

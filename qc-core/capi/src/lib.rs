@@ -778,7 +778,7 @@ pub unsafe extern "C" fn tm_logger_push(
             h if h.magic == LOGGER_MAGIC => (h.push, h.meta.active),
             // The one logger of this build: its push is called directly.
             #[cfg(tm_one_engine)]
-            h if h.magic == LOGGER_MAGIC => (push_logger::<one::Body>, h.meta.active),
+            h if h.magic == LOGGER_MAGIC => ((), h.meta.active),
             _ => return tm_status::TM_ERR_NOT_READY,
         },
         Err(s) => return s,
@@ -803,7 +803,18 @@ pub unsafe extern "C" fn tm_logger_push(
     // to the push of the logger it wrote; the pointers were checked above
     // as `push_logger` requires, and the caller promises what they point to
     // (see the function's Safety).
-    unsafe { push(logger, readings, time_ms, frames, out) }
+    #[cfg(not(tm_one_engine))]
+    let status = unsafe { push(logger, readings, time_ms, frames, out) };
+    // The one logger of this build, called directly with the channel count
+    // read above (read again after `out` is written, for all the compiler
+    // knows `out` might alias the block).
+    #[cfg(tm_one_engine)]
+    // SAFETY: as above: the one logger of this build is a `one::Body`.
+    let status = unsafe {
+        let () = push;
+        push_active::<one::Body>(logger, readings, time_ms, frames, out, active)
+    };
+    status
 }
 
 /// `tm_logger_push` of a started logger of body `B`: one function per shape
@@ -824,11 +835,34 @@ unsafe fn push_logger<B: Engine>(
     frames: *mut u8,
     out: *mut tm_push_result,
 ) -> tm_status {
+    // SAFETY: the block holds a LoggerMem<B> (the caller's promise), whose
+    // head is readable.
+    let active = unsafe { (*logger.cast::<Head>()).meta.active };
+    // SAFETY: passed on from the caller (the same promises), with the
+    // block's channel count.
+    unsafe { push_active::<B>(logger, readings, time_ms, frames, out, active) }
+}
+
+/// [`push_logger`] given the logger's channel count (`meta.active`, read
+/// by the caller).
+///
+/// # Safety
+///
+/// As for [`push_logger`]; `active` is the block's `meta.active`.
+#[inline(always)]
+unsafe fn push_active<B: Engine>(
+    logger: *mut c_void,
+    readings: *const tm_reading,
+    time_ms: i64,
+    frames: *mut u8,
+    out: *mut tm_push_result,
+    active: u8,
+) -> tm_status {
     // SAFETY: the block holds a LoggerMem<B> (the caller's promise, from
     // `put_logger::<B>`, whose caller checked its size and alignment), used
     // by no one else during the call.
     let LoggerMem { head, body } = unsafe { &mut *logger.cast::<LoggerMem<B>>() };
-    let active = usize::from(head.meta.active);
+    let active = usize::from(active);
     // SAFETY: the caller promises `active` (at most 255) valid readings at
     // `readings`, non-null and aligned (16 bytes each: the size fits an
     // isize).
