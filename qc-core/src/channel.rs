@@ -543,20 +543,12 @@ impl Channel {
             gust_window: 0,
             mounting_offset_deg: 0.0,
             speed_channel: None,
+            // Every test off, and the tolerances zero too.
             screen: Screen {
-                step_limit: None,
-                mean_range: None,
-                sd_range: None,
-                gust_max: None,
-                min_recovery: None,
-                flat_span_s: None,
-                flat_tolerance: 0.0,
-                partner: None,
                 pair_mean_diff: 0.0,
                 pair_max_diff: 0.0,
-                above: None,
                 shear_tolerance: 0.0,
-                icing: None,
+                ..Screen::OFF
             },
             recal: None,
         },

@@ -2725,21 +2725,31 @@ mod run_tests {
         .unwrap()
     }
 
+    /// Anything but a plain value in range, for the readings below: missing,
+    /// flagged, excluded, NaN, the missing-value code -999, out of range
+    /// either way, values that are in range for some channels and not for
+    /// others, raw counts (negative ones too).
+    fn reading_odd(rng: &mut Rng) -> Reading {
+        match rng.next() % 9 {
+            0 => Reading::Missing,
+            1 => Reading::Flagged,
+            2 => Reading::Excluded,
+            3 => Reading::Value(f64::NAN),
+            4 => Reading::Value(-999.0),
+            5 => Reading::Value(-5.0),
+            6 => Reading::Value(if rng.next() % 2 == 0 { 1e6 } else { -1.0 }),
+            7 => Reading::Value(45.0),
+            _ => Reading::Counts((rng.next() % 5000) as i32 - 500),
+        }
+    }
+
     /// A reading for [`layout_steady`]: valid but for one in 50 (then
     /// anything: missing, flagged, excluded, NaN, a missing-value code, out
     /// of range, raw counts), values on quanta and between them, speeds and
     /// temperatures that mostly move little, now and then a jump.
     fn reading_steady(rng: &mut Rng, c: usize) -> Reading {
         if rng.next() % 50 == 0 {
-            return match rng.next() % 7 {
-                0 => Reading::Missing,
-                1 => Reading::Flagged,
-                2 => Reading::Excluded,
-                3 => Reading::Value(f64::NAN),
-                4 => Reading::Value(-999.0),
-                5 => Reading::Value(1e6),
-                _ => Reading::Counts((rng.next() % 3000) as i32),
-            };
+            return reading_odd(rng);
         }
         let u = rng.unit();
         let jump = rng.next() % 10 == 0;
@@ -2838,17 +2848,7 @@ mod run_tests {
     /// stretches where both are fine.
     fn reading_links(rng: &mut Rng, c: usize) -> Reading {
         if rng.next() % 12 == 0 {
-            return match rng.next() % 9 {
-                0 => Reading::Missing,
-                1 => Reading::Flagged,
-                2 => Reading::Excluded,
-                3 => Reading::Value(f64::NAN),
-                4 => Reading::Value(-999.0),
-                5 => Reading::Value(-5.0),
-                6 => Reading::Value(if rng.next() % 2 == 0 { 1e6 } else { -1.0 }),
-                7 => Reading::Value(45.0),
-                _ => Reading::Counts((rng.next() % 5000) as i32 - 500),
-            };
+            return reading_odd(rng);
         }
         let u = rng.unit();
         let half = if rng.next() % 4 == 0 { 0.5 } else { 0.0 };
