@@ -20,7 +20,10 @@ use std::fs::File;
 use std::io::{self, Cursor, Read};
 use std::ops::Deref;
 use std::path::Path;
+use std::sync::atomic::{AtomicBool, Ordering};
+use std::sync::mpsc::{self, Receiver};
 use std::sync::{Arc, Condvar, Mutex, PoisonError};
+use std::thread::JoinHandle;
 
 use anyhow::{Context, Result};
 
@@ -156,10 +159,33 @@ impl AsRef<[u8]> for Chunk {
 /// hashed (`--jobs 1` with a provenance file, [`HashOn::Helper`]).
 const POOL_BUFFERS: usize = 3;
 
+/// Buffers of a [`FileReader`] that reads ahead ([`FileReader::read_ahead`]):
+/// one being replayed, one queued, one being filled, and one more while the
+/// hash thread still holds a chunk.
+const AHEAD_BUFFERS: usize = 4;
+
 /// A samples file read piece by piece.
 pub struct FileReader<'a> {
     path: &'a Path,
     cfg: &'a StationFile,
+    /// Where the chunks come from: cut here, or by the read-ahead thread.
+    src: Source,
+    /// Whether the chunks are to be cut on a read-ahead thread (started at
+    /// the first chunk).
+    ahead: bool,
+    /// Line of the first byte not handed out yet.
+    line: u64,
+    /// The preamble: lines skipped, the header, the units line.
+    head: Head,
+    /// The parser of the rows, once the preamble is read.
+    parser: Option<Arc<Parser>>,
+    /// The digest of the file's bytes as stored, when asked for.
+    digest: Option<DigestHandle>,
+}
+
+/// The file cut into chunks of whole records ([`Cutter::chunk`]): on the
+/// thread of the [`FileReader`], or on its read-ahead thread.
+struct Cutter {
     /// The bytes not read yet (`None` after a tail was handed out).
     file: Option<Box<dyn Read + Send>>,
     /// The partial record after the last chunk.
@@ -167,20 +193,176 @@ pub struct FileReader<'a> {
     /// File offset of `carry`.
     offset: u64,
     eof: bool,
-    /// Line of the first byte of `carry`.
-    line: u64,
-    /// The preamble: lines skipped, the header, the units line.
-    head: Head,
-    /// The parser of the rows, once the preamble is read.
-    parser: Option<Arc<Parser>>,
     /// The pieces' buffers.
     pool: Pool,
     /// The hash thread fed with each chunk as cut (a plain file hashed on
     /// a helper: the chunks are the file's bytes in order, shared, not
     /// copied); `None` once the end was handed on, or after an error.
     ring: Option<Feeder>,
-    /// The digest of the file's bytes as stored, when asked for.
-    digest: Option<DigestHandle>,
+}
+
+/// A chunk as [`Cutter::chunk`] gives it.
+type Cut = io::Result<Option<(u64, Chunk)>>;
+
+enum Source {
+    /// Cut on the reader's thread.
+    Here(Cutter),
+    /// Cut on a read-ahead thread, which hands the [`Cutter`] back when it
+    /// ends ([`Ahead::finish`]).
+    Ahead(Ahead),
+    /// Only while the read-ahead thread is being stopped.
+    Moving,
+}
+
+/// A read-ahead thread: it reads (and decompresses) the file, cuts it into
+/// chunks and feeds the hash thread, one chunk ahead of the replay, so the
+/// replaying thread does no reading of its own. The chunks and their errors
+/// arrive in file order, exactly as [`Cutter::chunk`] gives them.
+struct Ahead {
+    rx: Receiver<Cut>,
+    /// Asks the thread to stop after the chunk it is cutting.
+    stop: Arc<AtomicBool>,
+    /// `None` once joined.
+    thread: Option<JoinHandle<Cutter>>,
+}
+
+impl Ahead {
+    /// Starts the thread on `cutter`, cutting chunks of `size` bytes.
+    fn start(mut cutter: Cutter, size: usize) -> io::Result<Ahead> {
+        // One chunk queued: the thread runs at most one chunk (and the one
+        // it is filling) ahead of the replay.
+        let (tx, rx) = mpsc::sync_channel(1);
+        let stop = Arc::new(AtomicBool::new(false));
+        let halt = stop.clone();
+        let thread = std::thread::Builder::new()
+            .name("tenmin-read".into())
+            .spawn(move || {
+                while !halt.load(Ordering::Acquire) {
+                    let cut = cutter.chunk(size);
+                    let last = !matches!(cut, Ok(Some(_)));
+                    if tx.send(cut).is_err() || last {
+                        break;
+                    }
+                }
+                cutter
+            })?;
+        Ok(Ahead {
+            rx,
+            stop,
+            thread: Some(thread),
+        })
+    }
+
+    /// Stops the thread and takes its [`Cutter`] back, with the bytes of
+    /// the chunks it had cut and not handed out (in order, to be read
+    /// before the cutter's carry) and the first error among them.
+    fn finish(&mut self) -> (Option<Cutter>, Vec<u8>, Option<io::Error>) {
+        self.stop.store(true, Ordering::Release);
+        let mut pending = Vec::new();
+        let mut error = None;
+        // Receiving drops the chunks, so a thread waiting for a buffer gets
+        // one, cuts it, sends it and sees the stop.
+        for cut in self.rx.iter() {
+            match cut {
+                Ok(Some((_, c))) => {
+                    if error.is_none() {
+                        pending.extend_from_slice(&c);
+                    }
+                }
+                Ok(None) => {}
+                Err(e) => {
+                    error.get_or_insert(e);
+                }
+            }
+        }
+        let cutter = self.thread.take().and_then(|t| t.join().ok());
+        (cutter, pending, error)
+    }
+}
+
+impl Drop for Ahead {
+    /// A reader dropped before the end (an error in a row, a replay
+    /// stopped) stops its thread and waits for it: no thread outlives its
+    /// file.
+    fn drop(&mut self) {
+        if self.thread.is_some() {
+            self.finish();
+        }
+    }
+}
+
+impl Cutter {
+    /// The next chunk of about `size` bytes (more if a record is longer, up
+    /// to the limit) and its file offset; `None` at the end of the file.
+    /// The chunks are the file's (decompressed) bytes, in order, each once.
+    fn chunk(&mut self, size: usize) -> Cut {
+        let r = self.cut(size);
+        match (&r, self.ring.as_mut()) {
+            (_, None) => {}
+            (Ok(Some((_, c))), Some(feeder)) => {
+                if !feeder.share(c.clone()) {
+                    // The hash thread is gone: no digest.
+                    self.ring = None;
+                }
+            }
+            (Ok(None), Some(_)) => {
+                if self.file.is_some() {
+                    if let Some(feeder) = self.ring.take() {
+                        feeder.end();
+                    }
+                }
+            }
+            // Never a digest of part of a file.
+            (Err(_), Some(_)) => self.ring = None,
+        }
+        r
+    }
+
+    fn cut(&mut self, size: usize) -> Cut {
+        let Some(file) = self.file.as_mut() else {
+            return Ok(None);
+        };
+        // A piece's buffer handed back to the pool is filled again: no
+        // fresh allocation, zeroing or page faults per piece; reads go
+        // straight into it, as large as it is.
+        let mut buf = self.pool.take();
+        let room = size.max(self.carry.len() * 2).max(64);
+        if buf.len() < room {
+            buf.resize(room, 0);
+        }
+        let mut filled = self.carry.len();
+        buf[..filled].copy_from_slice(&self.carry);
+        self.carry.clear();
+        let offset = self.offset;
+        loop {
+            while !self.eof && filled < buf.len() {
+                match file.read(&mut buf[filled..]) {
+                    Ok(0) => self.eof = true,
+                    Ok(n) => filled += n,
+                    Err(e) if e.kind() == io::ErrorKind::Interrupted => {}
+                    Err(e) => return Err(e),
+                }
+            }
+            if let Some(p) = memchr::memrchr2(b'\n', b'\r', &buf[..filled]) {
+                self.carry.extend_from_slice(&buf[p + 1..filled]);
+                filled = p + 1;
+            } else if !self.eof {
+                // A record longer than the chunk: read on, up to the limit.
+                if filled > MAX_RECORD_BYTES {
+                    return Err(LongRecord::io());
+                }
+                buf.resize(2 * buf.len(), 0);
+                continue;
+            }
+            buf.truncate(filled);
+            self.offset = offset + filled as u64;
+            if filled == 0 {
+                self.pool.give(buf);
+                return Ok(None);
+            }
+            return Ok(Some((offset, Chunk::new(buf, Some(self.pool.clone())))));
+        }
+    }
 }
 
 impl<'a> FileReader<'a> {
@@ -215,15 +397,18 @@ impl<'a> FileReader<'a> {
         Ok(FileReader {
             path,
             cfg,
-            file: Some(file),
-            carry: Vec::new(),
-            offset: 0,
-            eof: false,
+            src: Source::Here(Cutter {
+                file: Some(file),
+                carry: Vec::new(),
+                offset: 0,
+                eof: false,
+                pool: Pool::new(POOL_BUFFERS),
+                ring,
+            }),
+            ahead: false,
             line: 1,
             head: Head::default(),
             parser: None,
-            pool: Pool::new(POOL_BUFFERS),
-            ring,
             digest,
         })
     }
@@ -231,7 +416,21 @@ impl<'a> FileReader<'a> {
     /// Takes the pieces' buffers from `pool` (shared by the files of a
     /// parallel replay, so that its bound holds across them).
     pub fn with_pool(mut self, pool: Pool) -> Self {
-        self.pool = pool;
+        if let Source::Here(c) = &mut self.src {
+            c.pool = pool;
+        }
+        self
+    }
+
+    /// Reads the file on a read-ahead thread, started at the first piece:
+    /// it reads, decompresses and cuts the chunks (and feeds the hash
+    /// thread) while this thread replays the one before. The pieces, their
+    /// order and their errors are the same as without it.
+    pub fn read_ahead(mut self) -> Self {
+        if let Source::Here(c) = &mut self.src {
+            c.pool = Pool::new(AHEAD_BUFFERS);
+            self.ahead = true;
+        }
         self
     }
 
@@ -270,15 +469,20 @@ impl<'a> FileReader<'a> {
             let line = self.line;
             let quotes = self.cfg.table.csv_delimiter().is_some();
             if quotes && memchr::memchr(b'"', &block).is_some() {
-                let file = self.file.take().unwrap_or_else(|| Box::new(io::empty()));
-                let after = Cursor::new(std::mem::take(&mut self.carry)).chain(file);
-                // The chunk was hashed as cut; what follows is hashed as the
-                // tail reads it, by the same thread, in order.
-                let after: Box<dyn Read + Send> = match self.ring.take() {
+                // The rest of the file after this chunk: the chunks the
+                // read-ahead thread cut already (hashed as cut), then the
+                // partial record and the bytes not read yet.
+                let (path, at) = (self.path, self.line);
+                let (cutter, pending) = self.here().map_err(|e| limits::read_error(e, path, at))?;
+                let file = cutter.file.take().unwrap_or_else(|| Box::new(io::empty()));
+                let after = Cursor::new(std::mem::take(&mut cutter.carry)).chain(file);
+                // The chunks were hashed as cut; what follows is hashed as
+                // the tail reads it, by the same thread, in order.
+                let after: Box<dyn Read + Send> = match cutter.ring.take() {
                     Some(feeder) => Box::new(Hashing::with_feeder(after, feeder)),
                     None => Box::new(after),
                 };
-                let rest = Cursor::new(block).chain(after);
+                let rest = Cursor::new(block).chain(Cursor::new(pending)).chain(after);
                 return Ok(Some(Piece::Tail {
                     line,
                     rest: Box::new(rest),
@@ -341,75 +545,52 @@ impl<'a> FileReader<'a> {
         }
     }
 
-    /// The next chunk of about `size` bytes (more if a record is longer, up
-    /// to the limit) and its file offset; `None` at the end of the file.
-    /// The chunks are the file's (decompressed) bytes, in order, each once.
-    fn chunk(&mut self, size: usize) -> io::Result<Option<(u64, Chunk)>> {
-        let r = self.cut(size);
-        match (&r, self.ring.as_mut()) {
-            (_, None) => {}
-            (Ok(Some((_, c))), Some(feeder)) => {
-                if !feeder.share(c.clone()) {
-                    // The hash thread is gone: no digest.
-                    self.ring = None;
-                }
+    /// The next chunk ([`Cutter::chunk`]): cut here, or received from the
+    /// read-ahead thread (started here at the first chunk). Once that thread
+    /// has given the end or an error, its cutter comes back here.
+    fn chunk(&mut self, size: usize) -> Cut {
+        if self.ahead {
+            self.ahead = false;
+            if let Source::Here(c) = std::mem::replace(&mut self.src, Source::Moving) {
+                // A thread that cannot start is an error (the cutter is
+                // gone with it: the reader gives no more pieces).
+                self.src = Source::Ahead(Ahead::start(c, size)?);
             }
-            (Ok(None), Some(_)) => {
-                if self.file.is_some() {
-                    if let Some(feeder) = self.ring.take() {
-                        feeder.end();
-                    }
-                }
-            }
-            // Never a digest of part of a file.
-            (Err(_), Some(_)) => self.ring = None,
         }
-        r
+        let cut = match &mut self.src {
+            Source::Here(c) => return c.chunk(size),
+            Source::Ahead(a) => a.rx.recv(),
+            Source::Moving => return Ok(None),
+        };
+        match cut {
+            Ok(cut @ Ok(Some(_))) => cut,
+            Ok(last) => {
+                // The end or an error: the thread has stopped.
+                self.here()?;
+                last
+            }
+            Err(_) => Err(io::Error::other("the read-ahead thread stopped")),
+        }
     }
 
-    fn cut(&mut self, size: usize) -> io::Result<Option<(u64, Chunk)>> {
-        let Some(file) = self.file.as_mut() else {
-            return Ok(None);
-        };
-        // A piece's buffer handed back to the pool is filled again: no
-        // fresh allocation, zeroing or page faults per piece; reads go
-        // straight into it, as large as it is.
-        let mut buf = self.pool.take();
-        let room = size.max(self.carry.len() * 2).max(64);
-        if buf.len() < room {
-            buf.resize(room, 0);
+    /// The cutter back on this thread (the read-ahead thread stopped), with
+    /// the bytes it had cut and not handed out, to be read before its carry.
+    fn here(&mut self) -> io::Result<(&mut Cutter, Vec<u8>)> {
+        let mut pending = Vec::new();
+        if let Source::Ahead(a) = &mut self.src {
+            let (cutter, bytes, error) = a.finish();
+            let Some(cutter) = cutter else {
+                return Err(io::Error::other("the read-ahead thread stopped"));
+            };
+            self.src = Source::Here(cutter);
+            if let Some(e) = error {
+                return Err(e);
+            }
+            pending = bytes;
         }
-        let mut filled = self.carry.len();
-        buf[..filled].copy_from_slice(&self.carry);
-        self.carry.clear();
-        let offset = self.offset;
-        loop {
-            while !self.eof && filled < buf.len() {
-                match file.read(&mut buf[filled..]) {
-                    Ok(0) => self.eof = true,
-                    Ok(n) => filled += n,
-                    Err(e) if e.kind() == io::ErrorKind::Interrupted => {}
-                    Err(e) => return Err(e),
-                }
-            }
-            if let Some(p) = memchr::memrchr2(b'\n', b'\r', &buf[..filled]) {
-                self.carry.extend_from_slice(&buf[p + 1..filled]);
-                filled = p + 1;
-            } else if !self.eof {
-                // A record longer than the chunk: read on, up to the limit.
-                if filled > MAX_RECORD_BYTES {
-                    return Err(LongRecord::io());
-                }
-                buf.resize(2 * buf.len(), 0);
-                continue;
-            }
-            buf.truncate(filled);
-            self.offset = offset + filled as u64;
-            if filled == 0 {
-                self.pool.give(buf);
-                return Ok(None);
-            }
-            return Ok(Some((offset, Chunk::new(buf, Some(self.pool.clone())))));
+        match &mut self.src {
+            Source::Here(c) => Ok((c, pending)),
+            _ => Err(io::Error::other("the read-ahead thread stopped")),
         }
     }
 }
@@ -638,8 +819,12 @@ mod tests {
         cfg: &StationFile,
         size: usize,
         stop: Option<usize>,
+        ahead: bool,
     ) -> Result<Option<crate::provenance::FileDigest>> {
         let mut r = FileReader::open_hashed(path, cfg, Some(HashOn::Helper))?;
+        if ahead {
+            r = r.read_ahead();
+        }
         let handle = r.digest().unwrap();
         let mut n = 0;
         let read = loop {
@@ -709,13 +894,17 @@ mod tests {
                 sha256: sha256sum(&path),
                 size: text.len() as u64,
             };
-            for piece in [64, size, 1 << 20] {
-                let got = digest_of(&path, &cfg, piece, None).unwrap();
-                assert_eq!(got, Some(want.clone()), "{name} {piece}");
-            }
-            if text.len() > 2 * size {
-                let got = digest_of(&path, &cfg, size, Some(1)).unwrap();
-                assert_eq!(got, None, "{name}: read in part");
+            for ahead in [false, true] {
+                for piece in [64, size, 1 << 20] {
+                    let got = digest_of(&path, &cfg, piece, None, ahead).unwrap();
+                    assert_eq!(got, Some(want.clone()), "{name} {piece} {ahead}");
+                }
+                // Read in part: the read-ahead thread is at most two chunks
+                // ahead, so a file of four or more never reaches its end.
+                if text.len() > 4 * size {
+                    let got = digest_of(&path, &cfg, size, Some(1), ahead).unwrap();
+                    assert_eq!(got, None, "{name}: read in part, {ahead}");
+                }
             }
         }
         // A record over the limit stops the reading with an error: no digest.
@@ -724,14 +913,94 @@ mod tests {
         long.push_str(&"9".repeat(3 * MAX_RECORD_BYTES));
         long.push('\n');
         std::fs::write(&path, &long).unwrap();
-        assert!(digest_of(&path, &cfg, size, None).is_err());
-        let mut r = FileReader::open_hashed(&path, &cfg, Some(HashOn::Helper)).unwrap();
-        let handle = r.digest().unwrap();
-        while let Ok(Some(_)) = r.next_piece(size) {}
-        // Asked again after the error: still none.
-        let _ = r.next_piece(size);
-        drop(r);
-        assert_eq!(handle.finish(), None);
+        for ahead in [false, true] {
+            assert!(digest_of(&path, &cfg, size, None, ahead).is_err());
+            let mut r = FileReader::open_hashed(&path, &cfg, Some(HashOn::Helper)).unwrap();
+            if ahead {
+                r = r.read_ahead();
+            }
+            let handle = r.digest().unwrap();
+            while let Ok(Some(_)) = r.next_piece(size) {}
+            // Asked again after the error: still none.
+            let _ = r.next_piece(size);
+            drop(r);
+            assert_eq!(handle.finish(), None, "{ahead}");
+        }
+    }
+
+    /// What a reader gives, piece by piece: rows as (line, end, bytes), a
+    /// tail as its line and every byte of it, an error as its text.
+    fn pieces_of(path: &Path, cfg: &StationFile, size: usize, ahead: bool) -> Vec<String> {
+        let mut r = FileReader::open_hashed(path, cfg, None).unwrap();
+        if ahead {
+            r = r.read_ahead();
+        }
+        let mut out = Vec::new();
+        loop {
+            if ahead && out.len() < 8 {
+                // Time for the thread to cut the chunks after this one: a
+                // tail then starts with chunks it had cut already.
+                std::thread::sleep(std::time::Duration::from_millis(5));
+            }
+            match r.next_piece(size) {
+                Ok(Some(Piece::Rows {
+                    line, end, bytes, ..
+                })) => out.push(format!("rows {line} {end} {:?}", &*bytes)),
+                Ok(Some(Piece::Tail { line, mut rest, .. })) => {
+                    let mut b = Vec::new();
+                    let read = rest.read_to_end(&mut b);
+                    out.push(format!("tail {line} {:?} {}", b, read.is_ok()));
+                }
+                Ok(None) => break,
+                Err(e) => {
+                    out.push(format!("error {e:#}"));
+                    break;
+                }
+            }
+        }
+        out
+    }
+
+    /// The read-ahead thread changes where the file is read, not what is
+    /// read: the same pieces (lines, offsets, bytes), the same tail of a
+    /// file with quotes (whatever the thread had cut already is read again
+    /// in order), the same error for a record over the limit; and a reader
+    /// dropped after its first piece stops its thread (the test ends).
+    #[test]
+    fn reading_ahead_gives_the_same_pieces() {
+        let dir = tempfile::tempdir().unwrap();
+        let cfg = station(dir.path());
+        let mut body = String::from("time,ws\n");
+        let mut i = 0i64;
+        while body.len() < 60_000 {
+            body.push_str(&format!("{},{}.{}\r\n", 1_737_331_200 + i, i % 13, i % 10));
+            i += 1;
+        }
+        let mut quoted_late = body.clone();
+        quoted_late.push_str("1737400000,\"4.5\"\n1737400001,4.6\n");
+        let mut long = body.clone();
+        long.push_str(&"7".repeat(MAX_RECORD_BYTES + 10));
+        let cases = [
+            ("plain", body.clone()),
+            ("quoted_early", body.replacen(",5.", ",\"5.", 1)),
+            ("quoted_late", quoted_late),
+            ("nonl", body.trim_end().to_string()),
+            ("long", long),
+            ("empty", String::new()),
+        ];
+        for (name, text) in &cases {
+            let path = dir.path().join(format!("{name}.csv"));
+            std::fs::write(&path, text).unwrap();
+            for size in [64, 1000, 4096, 1 << 20] {
+                let here = pieces_of(&path, &cfg, size, false);
+                let ahead = pieces_of(&path, &cfg, size, true);
+                assert!(!here.is_empty() || text.is_empty(), "{name}");
+                assert_eq!(here, ahead, "{name} {size}");
+            }
+            let mut r = FileReader::open(&path, &cfg).unwrap().read_ahead();
+            let _ = r.next_piece(64);
+            drop(r);
+        }
     }
 
     /// A pool hands out at most its number of buffers; the next waits until

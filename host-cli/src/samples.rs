@@ -548,7 +548,9 @@ impl Sequential<'_> {
     fn file(&mut self, path: &Path, progress: &Progress, done_bytes: u64) -> Result<()> {
         // The digest on a helper thread: this one replays.
         let hash = self.opts.digests.then_some(HashOn::Helper);
-        let mut reader = FileReader::open_hashed(path, self.cfg, hash)?;
+        // Read (and decompressed, and hashed) on a read-ahead thread: this
+        // one only replays.
+        let mut reader = FileReader::open_hashed(path, self.cfg, hash)?.read_ahead();
         let digest = reader.digest();
         self.pieces(&mut reader, path, progress, done_bytes)?;
         drop(reader);
