@@ -414,8 +414,9 @@ pub struct InputArgs {
     /// Do not print the summary on stderr.
     #[arg(long, short = 'q')]
     quiet: bool,
-    /// Threads reading samples [default: the available cores, at most 2]. With 1, one
-    /// thread reads and replays; the records are the same either way.
+    /// Threads replaying samples [default: the available cores, at most 2]. With 1, one
+    /// thread replays while a helper reads (and decompresses) the files; with N above 1, a
+    /// reader thread and N replaying workers. The records are the same either way.
     #[arg(long, short = 'j', value_name = "N", allow_negative_numbers = true,
           value_parser = options::whole::<u16>(1, u16::MAX as u64))]
     jobs: Option<u16>,

@@ -15,6 +15,12 @@
 //! the caller runs them. Records are capped at
 //! [`MAX_RECORD_BYTES`], so a chunk is at
 //! most its size plus one record.
+//!
+//! The sequential replay reads ahead ([`FileReader::read_ahead`]): a helper
+//! thread reads, decompresses and cuts the chunks (and feeds the hash
+//! thread) one chunk ahead, and the replaying thread only parses and
+//! replays. The pieces, their order, the tail and the errors are the same
+//! either way (test: `reading_ahead_gives_the_same_pieces`).
 
 use std::fs::File;
 use std::io::{self, Cursor, Read};

@@ -51,7 +51,8 @@ pub struct Options {
     pub skip_bad_rows: bool,
     /// Show a progress bar on stderr (only when it is a terminal and the input is large).
     pub progress: bool,
-    /// Worker threads; 1 replays on the calling thread alone.
+    /// Worker threads; 1 replays on the calling thread alone (the files
+    /// read ahead on a helper).
     pub jobs: usize,
     /// Bytes of samples per chunk handed to a worker (parallel replay).
     pub chunk_size: usize,
