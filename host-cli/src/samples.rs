@@ -388,9 +388,12 @@ pub struct Block {
     /// by [`Block::columns`]: every reader must call it before it reads
     /// these (or [`Block::row`]).
     pub cols: Vec<Vec<Reading>>,
-    /// The readings of the rows added since [`Block::columns`], row after
-    /// row, one per channel.
+    /// Room for the readings of [`BLOCK_ROWS`] rows, row after row, one per
+    /// channel: the first `filled` rows are those added since
+    /// [`Block::columns`]; the rest hold readings of earlier rows, written
+    /// over in place ([`Block::slot`]).
     rows: Vec<Reading>,
+    filled: usize,
 }
 
 impl Block {
@@ -400,34 +403,58 @@ impl Block {
             times: Vec::with_capacity(BLOCK_ROWS),
             lines: Vec::with_capacity(BLOCK_ROWS),
             cols: (0..n).map(|_| Vec::with_capacity(BLOCK_ROWS)).collect(),
-            rows: Vec::with_capacity(n * BLOCK_ROWS),
+            rows: vec![Reading::Missing; n * BLOCK_ROWS],
+            filled: 0,
         }
+    }
+
+    /// The next row's readings, one per channel, to be written in place and
+    /// added with [`Block::commit`]: a reader that writes every channel of a
+    /// row (tenmin's own CSV) reads it straight into the block. Until then
+    /// it holds an earlier row's readings.
+    #[inline(always)]
+    pub fn slot(&mut self) -> &mut [Reading] {
+        let n = self.cols.len();
+        let at = self.filled * n;
+        if self.rows.len() < at + n {
+            // More rows than [`BLOCK_ROWS`] before a flush.
+            self.rows.resize(at + n, Reading::Missing);
+        }
+        &mut self.rows[at..at + n]
+    }
+
+    /// Adds the row written into [`Block::slot`], with its time and line.
+    #[inline(always)]
+    pub fn commit(&mut self, t: Timestamp, line: u64) {
+        self.times.push(t);
+        self.lines.push(line);
+        self.filled += 1;
     }
 
     /// Adds a row: its time, line and one reading per channel (missing ones
     /// where `readings` is shorter).
     #[inline(always)]
     pub fn add(&mut self, t: Timestamp, line: u64, readings: &[Reading]) {
-        self.times.push(t);
-        self.lines.push(line);
-        let n = self.cols.len();
-        match readings.get(..n) {
-            Some(r) => self.rows.extend_from_slice(r),
+        let slot = self.slot();
+        match readings.get(..slot.len()) {
+            Some(r) => slot.copy_from_slice(r),
             None => {
-                self.rows.extend_from_slice(readings);
-                self.rows
-                    .resize(self.rows.len() + n - readings.len(), Reading::Missing);
+                let (given, rest) = slot.split_at_mut(readings.len());
+                given.copy_from_slice(readings);
+                rest.fill(Reading::Missing);
             }
         }
+        self.commit(t, line);
     }
 
     /// Moves the rows added into the columns (each column's readings in one
     /// pass over the rows).
     pub fn columns(&mut self) {
-        if !self.rows.is_empty() {
-            transpose(&self.rows, &mut self.cols);
+        let added = self.filled * self.cols.len();
+        if added > 0 {
+            transpose(&self.rows[..added], &mut self.cols);
         }
-        self.rows.clear();
+        self.filled = 0;
     }
 
     /// Whether it holds [`BLOCK_ROWS`] rows.
@@ -489,7 +516,7 @@ impl Block {
     pub fn clear(&mut self) {
         self.times.clear();
         self.lines.clear();
-        self.rows.clear();
+        self.filled = 0;
         for col in &mut self.cols {
             col.clear();
         }
@@ -578,15 +605,30 @@ impl Sequential<'_> {
                     parser: header,
                 } => {
                     let p = parser.get_or_insert_with(|| (*header).clone());
+                    // The own CSV's rows write every channel: read straight
+                    // into the block's next row.
+                    let own = p.declared_delimiter().is_none();
                     let mut recs = Records::new(&bytes, line);
-                    while let Some((ln, parsed)) =
-                        recs.next_row(p, &mut self.readings, &mut self.commas)
-                    {
+                    loop {
+                        let readings = if own {
+                            self.block.slot()
+                        } else {
+                            &mut self.readings[..]
+                        };
+                        let Some((ln, parsed)) = recs.next_row(p, readings, &mut self.commas)
+                        else {
+                            break;
+                        };
                         match parsed {
                             Ok(t) => {
                                 self.stats.rows += 1;
-                                self.cfg.exclusions.apply(t, &mut self.readings);
-                                self.block.add(t, ln, &self.readings);
+                                if own {
+                                    self.cfg.exclusions.apply(t, self.block.slot());
+                                    self.block.commit(t, ln);
+                                } else {
+                                    self.cfg.exclusions.apply(t, &mut self.readings);
+                                    self.block.add(t, ln, &self.readings);
+                                }
                                 if self.block.is_full() {
                                     self.flush(path)?;
                                 }
@@ -2421,6 +2463,52 @@ mod tests {
                 }
                 b.clear();
             }
+        }
+    }
+
+    /// Rows written in place ([`Block::slot`], [`Block::commit`], as the
+    /// own CSV's reader writes them) come out as the same rows added by
+    /// copy ([`Block::add`]): mixed with added rows, past [`BLOCK_ROWS`]
+    /// without a flush, with slots that still hold an earlier block's
+    /// readings, and with a slot written and never committed (a bad row)
+    /// left out.
+    #[test]
+    fn rows_written_in_place_come_out_as_rows_added() {
+        let n = 4;
+        let (mut a, mut b) = (Block::new(n), Block::new(n));
+        for (round, rows) in [BLOCK_ROWS + 37, 10, BLOCK_ROWS].into_iter().enumerate() {
+            for i in 0..rows {
+                let r: Vec<Reading> = (0..n)
+                    .map(|c| match (i * 7 + c * 3 + round) % 5 {
+                        0 => Reading::Missing,
+                        1 => Reading::Value(i as f64 + c as f64 / 10.0),
+                        2 => Reading::Counts((i * n + c) as i32),
+                        3 => Reading::Excluded,
+                        _ => Reading::Flagged,
+                    })
+                    .collect();
+                let t = Timestamp::from_millis((round * 10_000 + i) as i64 * 1000);
+                let line = (i + 2) as u64;
+                a.add(t, line, &r);
+                if i % 3 == 0 {
+                    b.add(t, line, &r);
+                } else {
+                    b.slot().copy_from_slice(&r);
+                    b.commit(t, line);
+                }
+                if i % 11 == 0 {
+                    // A bad row: its readings written, the row not added.
+                    b.slot().fill(Reading::Value(-1.0));
+                }
+            }
+            a.columns();
+            b.columns();
+            assert_eq!(a.times, b.times, "round {round}");
+            assert_eq!(a.lines, b.lines, "round {round}");
+            assert_eq!(a.cols, b.cols, "round {round}");
+            assert!(a.cols.iter().all(|c| c.len() == rows));
+            a.clear();
+            b.clear();
         }
     }
 
