@@ -373,7 +373,7 @@ struct Sequential<'a> {
 }
 
 /// Rows per block of the block path ([`Block`]).
-pub const BLOCK_ROWS: usize = 512;
+pub const BLOCK_ROWS: usize = 128;
 
 /// Good rows read but not pushed yet, by channel column, so that runs of
 /// them go into the core channel by channel ([`qc_core::Station::push_run`]).
