@@ -574,10 +574,9 @@ pub fn steady_prefix(times: &[Timestamp], last: Option<Timestamp>, max_gap_ms: i
 
 impl Sequential<'_> {
     fn file(&mut self, path: &Path, progress: &Progress, done_bytes: u64) -> Result<()> {
-        // The digest on a helper thread: this one replays.
+        // The file read (and decompressed) on a read-ahead thread and hashed
+        // on a helper fed by it: this thread only replays.
         let hash = self.opts.digests.then_some(HashOn::Helper);
-        // Read (and decompressed, and hashed) on a read-ahead thread: this
-        // one only replays.
         let mut reader = FileReader::open_hashed(path, self.cfg, hash)?.read_ahead();
         let digest = reader.digest();
         self.pieces(&mut reader, path, progress, done_bytes)?;
