@@ -392,8 +392,22 @@ impl<'a, const C: usize> Run<'a, C> {
     ) -> Result<()> {
         let mut recs = Records::new(bytes, line);
         let mut commas = Vec::with_capacity(64);
+        // The own CSV's plain rows go straight into the block, wherever
+        // rows go to the block at all (as in the match below).
+        let own = parser.declared_delimiter().is_none() && self.epochs.is_none();
         let mut rows = || -> Result<(), Halt> {
-            while let Some((ln, parsed)) = recs.next_row(parser, &mut self.readings, &mut commas) {
+            loop {
+                if own && self.station.is_some() {
+                    self.stats.rows += self.block.fill(&mut recs, parser, self.excl);
+                    if self.block.is_full() {
+                        self.flush(path, send)?;
+                        continue;
+                    }
+                }
+                let Some((ln, parsed)) = recs.next_row(parser, &mut self.readings, &mut commas)
+                else {
+                    break;
+                };
                 match parsed {
                     // The block path classifies with the station's own layout:
                     // with a sensor history each row goes alone, with its entry.

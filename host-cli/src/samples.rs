@@ -28,6 +28,7 @@ use qc_core::{Pushed, Reading, Timestamp};
 
 use crate::config::{Decode, StationFile};
 use crate::engine::Engine;
+use crate::exclusions::Exclusions;
 use crate::limits;
 use crate::localtime::{Memo, Quick, TimeProblem, ZoneCache};
 use crate::provenance::{DigestHandle, FileDigest, HashOn};
@@ -431,6 +432,27 @@ impl Block {
         self.filled += 1;
     }
 
+    /// Reads the plain rows of tenmin's own CSV from `recs` straight into
+    /// the block ([`Records::next_plain`], exclusions applied) until it is
+    /// full, the records end or a row is not plain, which is left in `recs`
+    /// for [`Records::next_row`]. Returns the rows added. Out of line, with
+    /// the row loop's state in locals: the replay's usual loop, shared by
+    /// `--jobs 1` and the workers of `--jobs 2`.
+    #[inline(never)]
+    pub fn fill(&mut self, recs: &mut Records<'_>, parser: &mut Parser, excl: &Exclusions) -> u64 {
+        let mut added = 0;
+        while !self.is_full() {
+            let slot = self.slot();
+            let Some(Some((line, t))) = recs.next_plain(parser, slot) else {
+                break;
+            };
+            excl.apply(t, slot);
+            self.commit(t, line);
+            added += 1;
+        }
+        added
+    }
+
     /// Adds a row: its time, line and one reading per channel (missing ones
     /// where `readings` is shorter).
     #[inline(always)]
@@ -604,30 +626,28 @@ impl Sequential<'_> {
                     parser: header,
                 } => {
                     let p = parser.get_or_insert_with(|| (*header).clone());
-                    // The own CSV's rows write every channel: read straight
-                    // into the block's next row.
+                    // The own CSV's plain rows are read straight into the
+                    // block; any other row comes here one by one.
                     let own = p.declared_delimiter().is_none();
                     let mut recs = Records::new(&bytes, line);
                     loop {
-                        let readings = if own {
-                            self.block.slot()
-                        } else {
-                            &mut self.readings[..]
-                        };
-                        let Some((ln, parsed)) = recs.next_row(p, readings, &mut self.commas)
+                        if own {
+                            self.stats.rows += self.block.fill(&mut recs, p, &self.cfg.exclusions);
+                            if self.block.is_full() {
+                                self.flush(path)?;
+                                continue;
+                            }
+                        }
+                        let Some((ln, parsed)) =
+                            recs.next_row(p, &mut self.readings, &mut self.commas)
                         else {
                             break;
                         };
                         match parsed {
                             Ok(t) => {
                                 self.stats.rows += 1;
-                                if own {
-                                    self.cfg.exclusions.apply(t, self.block.slot());
-                                    self.block.commit(t, ln);
-                                } else {
-                                    self.cfg.exclusions.apply(t, &mut self.readings);
-                                    self.block.add(t, ln, &self.readings);
-                                }
+                                self.cfg.exclusions.apply(t, &mut self.readings);
+                                self.block.add(t, ln, &self.readings);
                                 if self.block.is_full() {
                                     self.flush(path)?;
                                 }
@@ -777,23 +797,41 @@ impl<'a> Records<'a> {
         if parser.declared.is_some() {
             return self.next_declared_row(parser, readings, commas);
         }
+        match self.next_plain(parser, readings)? {
+            Some(row) => Some((row.0, Ok(row.1))),
+            None => {
+                let (line, rec) = self.next_split(commas)?;
+                Some((line, parser.parse(rec, commas, readings)))
+            }
+        }
+    }
+
+    /// The next record of the own CSV if it is plain ([`Parser::parse_plain`]),
+    /// read into `readings`: `Some(Some((line, time)))`; `Some(None)` when
+    /// it is not plain (left unread, for [`Records::next_split`]); `None` at
+    /// the end.
+    #[inline(always)]
+    fn next_plain(
+        &mut self,
+        parser: &mut Parser,
+        readings: &mut [Reading],
+    ) -> Option<Option<(u64, Timestamp)>> {
         let buf = self.buf;
         let i = self.skip_blank()?;
-        if let Some((t, end)) = parser.parse_plain(buf, i, readings) {
-            let line = self.line;
-            match buf.get(end) {
-                Some(b'\n') => {
-                    self.line += 1;
-                    self.pos = end + 1;
-                }
-                Some(_) => self.pos = end + 1,
-                None => self.pos = end,
+        let Some((t, end)) = parser.parse_plain(buf, i, readings) else {
+            self.pos = i;
+            return Some(None);
+        };
+        let line = self.line;
+        match buf.get(end) {
+            Some(b'\n') => {
+                self.line += 1;
+                self.pos = end + 1;
             }
-            return Some((line, Ok(t)));
+            Some(_) => self.pos = end + 1,
+            None => self.pos = end,
         }
-        self.pos = i;
-        let (line, rec) = self.next_split(commas)?;
-        Some((line, parser.parse(rec, commas, readings)))
+        Some(Some((line, t)))
     }
 
     /// [`Records::next_row`] of a declared layout: out of line, so that the
@@ -999,6 +1037,10 @@ pub fn split_fields(rec: &[u8]) -> impl Iterator<Item = &[u8]> {
 #[derive(Clone, Debug)]
 pub struct Parser {
     cols: Vec<Col>,
+    /// When `cols` are the time and then every channel in station-file
+    /// order (the own CSV as tenmin writes it): bit `c` set for channel `c`
+    /// read as counts ([`Parser::parse_straight`]).
+    straight: Option<u64>,
     /// Channel ids in station-file order, for messages.
     ids: Vec<String>,
     time: TimeCache,
@@ -1019,8 +1061,10 @@ impl Parser {
     ) -> Result<Self> {
         let ids: Vec<String> = cfg.channels.iter().map(|c| c.id.clone()).collect();
         if cfg.table.own {
+            let cols = header(path, line, fields, cfg)?;
             return Ok(Parser {
-                cols: header(path, line, fields, cfg)?,
+                straight: straight_columns(&cols),
+                cols,
                 ids,
                 time: TimeCache::default(),
                 declared: None,
@@ -1028,6 +1072,7 @@ impl Parser {
         }
         Ok(Parser {
             cols: Vec::new(),
+            straight: None,
             declared: Some(Box::new(Declared::new(path, line, fields, cfg)?)),
             ids,
             time: TimeCache::default(),
@@ -1088,6 +1133,24 @@ impl Parser {
         start: usize,
         readings: &mut [Reading],
     ) -> Option<(Timestamp, usize)> {
+        if let Some(counts) = self.straight {
+            // The channels, the columns after the time (`readings` may have
+            // room for more: the workers' rows are as wide as their layout).
+            macro_rules! widths {
+                ($($n:literal)*) => {
+                    match self.cols.len().saturating_sub(1) {
+                        $($n => return self.parse_straight::<$n>(
+                            buf,
+                            start,
+                            readings.first_chunk_mut::<$n>()?,
+                            counts,
+                        ),)*
+                        _ => {}
+                    }
+                };
+            }
+            widths!(1 2 3 4 5 6 7 8 9 10 11 12);
+        }
         let mut p = start;
         let mut time = None;
         for (i, col) in self.cols.iter().enumerate() {
@@ -1118,6 +1181,40 @@ impl Parser {
         }
         match buf.get(p) {
             None | Some(b'\n' | b'\r') => Some((time?, p)),
+            Some(_) => None,
+        }
+    }
+
+    /// [`Parser::parse_plain`] of a row whose columns are the time and then
+    /// the `N` channels in station-file order (bit `c` of `counts` set for
+    /// channel `c` read as counts): the field loop unrolled, each reading
+    /// stored in its place with no column plan read.
+    #[inline(always)]
+    fn parse_straight<const N: usize>(
+        &self,
+        buf: &[u8],
+        start: usize,
+        readings: &mut [Reading; N],
+        counts: u64,
+    ) -> Option<(Timestamp, usize)> {
+        let (t, n) = self.time.parse_plain(buf.get(start..)?)?;
+        let mut p = start + n;
+        for (c, r) in readings.iter_mut().enumerate() {
+            if buf.get(p) != Some(&b',') {
+                return None;
+            }
+            p += 1;
+            let rest = buf.get(p..)?;
+            let (v, n) = if counts >> c & 1 == 0 {
+                plain_f64(rest)?
+            } else {
+                plain_i32(rest)?
+            };
+            *r = v;
+            p += n;
+        }
+        match buf.get(p) {
+            None | Some(b'\n' | b'\r') => Some((t, p)),
             Some(_) => None,
         }
     }
@@ -1843,6 +1940,26 @@ fn header<'f>(
     Ok(cols)
 }
 
+/// [`Parser::straight`] of `cols`: the counts mask when they are the time
+/// and then every channel in station-file order (1 to 64 channels).
+fn straight_columns(cols: &[Col]) -> Option<u64> {
+    let (Col::Time, chans) = cols.split_first()? else {
+        return None;
+    };
+    if chans.is_empty() || chans.len() > 64 {
+        return None;
+    }
+    let mut counts = 0u64;
+    for (i, col) in chans.iter().enumerate() {
+        match *col {
+            Col::Value(c) if c == i => {}
+            Col::Counts(c) if c == i => counts |= 1 << i,
+            _ => return None,
+        }
+    }
+    Some(counts)
+}
+
 fn shown(b: &[u8]) -> String {
     let s = String::from_utf8_lossy(b);
     if s.chars().count() > 40 {
@@ -2517,6 +2634,101 @@ mod tests {
         }
     }
 
+    /// Rows read into the block by [`Block::fill`] against the same rows read
+    /// one by one ([`Records::next_row`], then [`Block::add`], as the replay
+    /// read them before): plain rows with odd ones among them (a number the
+    /// plain reader leaves, a bad one, blank lines, CRLF and CR ends, a
+    /// comment), an exclusion over one channel of some rows, past several
+    /// full blocks. The same blocks (times, lines, columns) and bad rows, in
+    /// the same order.
+    #[test]
+    fn rows_filled_in_are_the_rows_read_one_by_one() {
+        let toml = "[logging]\nsample_rate_hz = 1\n\
+            [[channel]]\nid = \"a\"\nkind = \"speed\"\nresolution = 0.01\n\
+            [[channel]]\nid = \"d\"\nkind = \"direction\"\nslope = 0.1\n\
+            [[channel]]\nid = \"t\"\nkind = \"scalar\"\nresolution = 0.1\n";
+        let cfg = crate::config::parse(Path::new("s.toml"), toml).unwrap();
+        let excl = crate::exclusions::parse(
+            Path::new("x.csv"),
+            "channels,from,to,reason,who,entered\n\
+             d,2025-01-20T00:01:00Z,2025-01-20T00:02:30Z,tower work,A. B,2025-01-21\n",
+            &["a", "d", "t"],
+        )
+        .unwrap();
+        let mut text = String::new();
+        for i in 0..1_000u32 {
+            let time = Rfc3339(Timestamp::from_millis(
+                1_737_331_200_000 + i64::from(i) * 1000,
+            ));
+            let a = match i % 97 {
+                5 => "1.5e0".to_string(),
+                9 => "x".to_string(),
+                _ => format!("{}.{:02}", i % 23, i % 100),
+            };
+            text += &format!("{time},{a},{},-{}.{}", 2_000 + i % 1_600, i % 7, i % 10);
+            text += match i % 7 {
+                0 => "\r\n",
+                1 => "\r",
+                _ => "\n",
+            };
+            if i % 89 == 0 {
+                text += "\n";
+            }
+            if i % 301 == 0 {
+                text += "# a comment\n";
+            }
+        }
+        let header: [&[u8]; 4] = [b"time", b"a", b"d", b"t"];
+        let parser = Parser::new(Path::new("x"), 1, header.into_iter(), &cfg).unwrap();
+        let read = |fill: bool| {
+            let (mut p, mut blk) = (parser.clone(), Block::new(3));
+            let mut recs = Records::new(text.as_bytes(), 2);
+            let (mut r, mut commas) = ([Reading::Missing; 3], Vec::new());
+            let (mut events, mut filled) = (Vec::new(), 0);
+            let flush = |blk: &mut Block, events: &mut Vec<String>| {
+                blk.columns();
+                if !blk.times.is_empty() {
+                    events.push(format!("{:?} {:?} {:?}", blk.times, blk.lines, blk.cols));
+                }
+                blk.clear();
+            };
+            loop {
+                if fill {
+                    filled += blk.fill(&mut recs, &mut p, &excl);
+                    if blk.is_full() {
+                        flush(&mut blk, &mut events);
+                        continue;
+                    }
+                }
+                let Some((ln, parsed)) = recs.next_row(&mut p, &mut r, &mut commas) else {
+                    break;
+                };
+                match parsed {
+                    Ok(t) => {
+                        excl.apply(t, &mut r);
+                        blk.add(t, ln, &r);
+                        if blk.is_full() {
+                            flush(&mut blk, &mut events);
+                        }
+                    }
+                    Err(e) => {
+                        flush(&mut blk, &mut events);
+                        events.push(format!("line {ln}: {e}"));
+                    }
+                }
+            }
+            flush(&mut blk, &mut events);
+            (events, filled)
+        };
+        let (by_fill, filled) = read(true);
+        let (one_by_one, _) = read(false);
+        assert_eq!(by_fill, one_by_one);
+        // Most rows were filled in; bad rows and excluded readings were met.
+        assert!(filled > 900, "{filled}");
+        assert!(by_fill.iter().filter(|e| e.starts_with("line ")).count() >= 10);
+        assert!(by_fill.iter().any(|e| e.contains("Excluded")));
+    }
+
     /// The transposition by constant widths against the plain one it
     /// replaced (strided `chunks_exact` per column) on random blocks: every
     /// width 1 to 16 and 17, 18 (the general way), empty blocks, a partial
@@ -2623,15 +2835,25 @@ mod tests {
     /// leaves are the general reader's alone.
     #[test]
     fn one_pass_rows_agree_with_the_general_reader_on_invented_files() {
+        // The time and then the channels in station-file order (as tenmin
+        // writes the file: read by `Parser::parse_straight`), and the
+        // channels in another order (read by the loop over the column plan).
+        let straight: [&[u8]; 4] = [b"time", b"a", b"d", b"t"];
+        let reordered: [&[u8]; 4] = [b"time", b"d", b"a", b"t"];
+        one_pass_agrees(straight, true);
+        one_pass_agrees(reordered, false);
+    }
+
+    fn one_pass_agrees(header: [&[u8]; 4], straight: bool) {
         let toml = "[logging]\nsample_rate_hz = 1\n\
             [[channel]]\nid = \"a\"\nkind = \"speed\"\nresolution = 0.01\n\
             [[channel]]\nid = \"d\"\nkind = \"direction\"\nslope = 0.1\n\
             [[channel]]\nid = \"t\"\nkind = \"scalar\"\nresolution = 0.1\n";
         let cfg = crate::config::parse(Path::new("s.toml"), toml).unwrap();
-        let header: [&[u8]; 4] = [b"time", b"a", b"d", b"t"];
         let mut fast = Parser::new(Path::new("x"), 1, header.into_iter(), &cfg).unwrap();
+        assert_eq!(fast.straight.is_some(), straight);
         assert!(
-            matches!(fast.cols[2], Col::Counts(_)),
+            fast.cols.iter().any(|c| matches!(c, Col::Counts(1))),
             "d is read as counts"
         );
         let mut general = fast.clone();
@@ -2716,6 +2938,10 @@ mod tests {
             for _ in 0..fields {
                 rec.push(b',');
                 rec.extend(number(&mut rnd));
+            }
+            if rnd(50) == 0 {
+                // A stray byte after the last field.
+                rec.push(b"x \"e;\t"[rnd(6) as usize]);
             }
             if rnd(200) == 0 {
                 rec = b"# a comment, 1, 2, 3".to_vec();
