@@ -243,6 +243,23 @@ impl fmt::Display for BadRow {
     }
 }
 
+/// `Some($body)` with the constant `$N` set to `$n`, for 1 to 12 (the widths
+/// of [`Parser::parse_straight`]), `None` for any other `$n`.
+macro_rules! by_width {
+    ($n:expr, $N:ident => $body:expr) => {
+        by_width!(@ $n, $N, $body, 1 2 3 4 5 6 7 8 9 10 11 12)
+    };
+    (@ $n:expr, $N:ident, $body:expr, $($k:literal)*) => {
+        match $n {
+            $($k => {
+                const $N: usize = $k;
+                Some($body)
+            })*
+            _ => None,
+        }
+    };
+}
+
 /// What each column of a file holds.
 #[derive(Clone, Copy, Debug)]
 pub enum Col {
@@ -440,12 +457,50 @@ impl Block {
     /// `--jobs 1` and the workers of `--jobs 2`.
     #[inline(never)]
     pub fn fill(&mut self, recs: &mut Records<'_>, parser: &mut Parser, excl: &Exclusions) -> u64 {
+        if let Some(counts) = parser.straight {
+            let p = &*parser;
+            if let Some(added) =
+                by_width!(p.channels(), N => self.fill_straight::<N>(recs, p, excl, counts))
+            {
+                return added;
+            }
+        }
         let mut added = 0;
         while !self.is_full() {
             let slot = self.slot();
             let Some(Some((line, t))) = recs.next_plain(parser, slot) else {
                 break;
             };
+            excl.apply(t, slot);
+            self.commit(t, line);
+            added += 1;
+        }
+        added
+    }
+
+    /// [`Block::fill`] for a straight file of `N` channels
+    /// ([`Parser::parse_straight`]): each width its own loop, the row's parse
+    /// inlined.
+    fn fill_straight<const N: usize>(
+        &mut self,
+        recs: &mut Records<'_>,
+        parser: &Parser,
+        excl: &Exclusions,
+        counts: u64,
+    ) -> u64 {
+        let mut added = 0;
+        while !self.is_full() {
+            let Some(i) = recs.skip_blank() else {
+                break;
+            };
+            let Some(slot) = self.slot().first_chunk_mut::<N>() else {
+                break;
+            };
+            let Some((t, end)) = parser.parse_straight::<N>(recs.buf, i, slot, counts) else {
+                recs.pos = i;
+                break;
+            };
+            let line = recs.end_row(end);
             excl.apply(t, slot);
             self.commit(t, line);
             added += 1;
@@ -822,8 +877,15 @@ impl<'a> Records<'a> {
             self.pos = i;
             return Some(None);
         };
+        Some(Some((self.end_row(end), t)))
+    }
+
+    /// Moves past a row read up to `end` (its terminator, or the end of the
+    /// buffer); returns the row's line.
+    #[inline(always)]
+    fn end_row(&mut self, end: usize) -> u64 {
         let line = self.line;
-        match buf.get(end) {
+        match self.buf.get(end) {
             Some(b'\n') => {
                 self.line += 1;
                 self.pos = end + 1;
@@ -831,7 +893,7 @@ impl<'a> Records<'a> {
             Some(_) => self.pos = end + 1,
             None => self.pos = end,
         }
-        Some(Some((line, t)))
+        line
     }
 
     /// [`Records::next_row`] of a declared layout: out of line, so that the
@@ -1079,6 +1141,13 @@ impl Parser {
         })
     }
 
+    /// The channels of a straight file ([`Parser::straight`]): its columns
+    /// after the time.
+    #[inline(always)]
+    fn channels(&self) -> usize {
+        self.cols.len().saturating_sub(1)
+    }
+
     /// The header's field names of a declared layout (empty without a
     /// header, and for tenmin's own CSV).
     pub fn header_names(&self) -> &[String] {
@@ -1134,22 +1203,14 @@ impl Parser {
         readings: &mut [Reading],
     ) -> Option<(Timestamp, usize)> {
         if let Some(counts) = self.straight {
-            // The channels, the columns after the time (`readings` may have
-            // room for more: the workers' rows are as wide as their layout).
-            macro_rules! widths {
-                ($($n:literal)*) => {
-                    match self.cols.len().saturating_sub(1) {
-                        $($n => return self.parse_straight::<$n>(
-                            buf,
-                            start,
-                            readings.first_chunk_mut::<$n>()?,
-                            counts,
-                        ),)*
-                        _ => {}
-                    }
-                };
+            // `readings` may have room for more channels than the file: the
+            // workers' rows are as wide as their layout.
+            let row = by_width!(self.channels(), N => {
+                self.parse_straight::<N>(buf, start, readings.first_chunk_mut::<N>()?, counts)
+            });
+            if let Some(row) = row {
+                return row;
             }
-            widths!(1 2 3 4 5 6 7 8 9 10 11 12);
         }
         let mut p = start;
         let mut time = None;
@@ -2643,6 +2704,13 @@ mod tests {
     /// the same order.
     #[test]
     fn rows_filled_in_are_the_rows_read_one_by_one() {
+        // As tenmin writes the file (`Block::fill_straight`), and with the
+        // channels in another order (the general loop of `Block::fill`).
+        fill_agrees([b"time", b"a", b"d", b"t"]);
+        fill_agrees([b"time", b"d", b"t", b"a"]);
+    }
+
+    fn fill_agrees(header: [&[u8]; 4]) {
         let toml = "[logging]\nsample_rate_hz = 1\n\
             [[channel]]\nid = \"a\"\nkind = \"speed\"\nresolution = 0.01\n\
             [[channel]]\nid = \"d\"\nkind = \"direction\"\nslope = 0.1\n\
@@ -2665,7 +2733,14 @@ mod tests {
                 9 => "x".to_string(),
                 _ => format!("{}.{:02}", i % 23, i % 100),
             };
-            text += &format!("{time},{a},{},-{}.{}", 2_000 + i % 1_600, i % 7, i % 10);
+            text += &time.to_string();
+            for name in &header[1..] {
+                text += &match *name {
+                    b"a" => format!(",{a}"),
+                    b"d" => format!(",{}", 2_000 + i % 1_600),
+                    _ => format!(",-{}.{}", i % 7, i % 10),
+                };
+            }
             text += match i % 7 {
                 0 => "\r\n",
                 1 => "\r",
@@ -2678,8 +2753,8 @@ mod tests {
                 text += "# a comment\n";
             }
         }
-        let header: [&[u8]; 4] = [b"time", b"a", b"d", b"t"];
         let parser = Parser::new(Path::new("x"), 1, header.into_iter(), &cfg).unwrap();
+        assert_eq!(parser.straight.is_some(), header[1] == b"a");
         let read = |fill: bool| {
             let (mut p, mut blk) = (parser.clone(), Block::new(3));
             let mut recs = Records::new(text.as_bytes(), 2);
