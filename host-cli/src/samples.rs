@@ -908,16 +908,7 @@ impl<'a> Records<'a> {
         let delim = parser.declared_delimiter()?;
         if let (Some(d), Some(i)) = (parser.declared.as_deref_mut(), self.skip_blank()) {
             if let Some((t, end)) = d.one_pass(self.buf, i, readings) {
-                let line = self.line;
-                match self.buf.get(end) {
-                    Some(b'\n') => {
-                        self.line += 1;
-                        self.pos = end + 1;
-                    }
-                    Some(_) => self.pos = end + 1,
-                    None => self.pos = end,
-                }
-                return Some((line, Ok(t)));
+                return Some((self.end_row(end), Ok(t)));
             }
         }
         loop {
@@ -2710,12 +2701,18 @@ mod tests {
         fill_agrees([b"time", b"d", b"t", b"a"]);
     }
 
-    fn fill_agrees(header: [&[u8]; 4]) {
+    /// A station of three channels: `a` (a speed, hundredths), `d` (a
+    /// direction read as counts of 0.1 degree), `t` (a scalar, tenths).
+    fn speed_direction_scalar() -> StationFile {
         let toml = "[logging]\nsample_rate_hz = 1\n\
             [[channel]]\nid = \"a\"\nkind = \"speed\"\nresolution = 0.01\n\
             [[channel]]\nid = \"d\"\nkind = \"direction\"\nslope = 0.1\n\
             [[channel]]\nid = \"t\"\nkind = \"scalar\"\nresolution = 0.1\n";
-        let cfg = crate::config::parse(Path::new("s.toml"), toml).unwrap();
+        crate::config::parse(Path::new("s.toml"), toml).unwrap()
+    }
+
+    fn fill_agrees(header: [&[u8]; 4]) {
+        let cfg = speed_direction_scalar();
         let excl = crate::exclusions::parse(
             Path::new("x.csv"),
             "channels,from,to,reason,who,entered\n\
@@ -2920,11 +2917,7 @@ mod tests {
     }
 
     fn one_pass_agrees(header: [&[u8]; 4], straight: bool) {
-        let toml = "[logging]\nsample_rate_hz = 1\n\
-            [[channel]]\nid = \"a\"\nkind = \"speed\"\nresolution = 0.01\n\
-            [[channel]]\nid = \"d\"\nkind = \"direction\"\nslope = 0.1\n\
-            [[channel]]\nid = \"t\"\nkind = \"scalar\"\nresolution = 0.1\n";
-        let cfg = crate::config::parse(Path::new("s.toml"), toml).unwrap();
+        let cfg = speed_direction_scalar();
         let mut fast = Parser::new(Path::new("x"), 1, header.into_iter(), &cfg).unwrap();
         assert_eq!(fast.straight.is_some(), straight);
         assert!(
