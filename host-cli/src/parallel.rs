@@ -392,9 +392,9 @@ impl<'a, const C: usize> Run<'a, C> {
     ) -> Result<()> {
         let mut recs = Records::new(bytes, line);
         let mut commas = Vec::with_capacity(64);
-        // The own CSV's plain rows go straight into the block, wherever
-        // rows go to the block at all (as in the match below).
-        let own = parser.declared_delimiter().is_none() && self.epochs.is_none();
+        // Plain rows go straight into the block, wherever rows go to the
+        // block at all (as in the match below).
+        let own = parser.fills_rows() && self.epochs.is_none();
         let mut rows = || -> Result<(), Halt> {
             loop {
                 if own && self.station.is_some() {

@@ -553,3 +553,41 @@ fn rows_read_in_one_pass_and_the_general_way_give_the_same_records() {
         &station(RATE_1S, "", "", ""),
     );
 }
+
+#[test]
+fn a_bad_row_after_crlf_ends_and_blank_lines_is_reported_on_its_own_line() {
+    // Windows line ends and a blank line before a bad row: the row is on
+    // line 5 (header 1, rows 2 and 3, blank 4), whether the layout is read
+    // in one pass or (with a missing-value text) the general way. The
+    // general way once counted each line end twice.
+    let dir = tempfile::tempdir().unwrap();
+    let d = dir.path();
+    write(
+        d,
+        "s.csv",
+        "t;speed;dir\r\n\
+         2025-01-20T00:00:00Z;4;10\r\n\
+         2025-01-20T00:00:01Z;5;20\r\n\
+         \r\n\
+         2025-01-20T00:00:02Z;x;30\r\n\
+         2025-01-20T00:00:03Z;6;40\r\n",
+    );
+    for missing in ["", "missing = [\"NA\"]\n"] {
+        let toml = station(
+            RATE_1S,
+            &format!("[input]\ndelimiter = \";\"\n{missing}[input.time]\ncolumn = \"t\""),
+            "column = \"speed\"",
+            "column = \"dir\"",
+        );
+        write(d, "s.toml", &toml);
+        for jobs in ["1", "2"] {
+            let out = tenmin(&["replay", "-c", "s.toml", "s.csv", "-j", jobs], d);
+            let err = text(&out.stderr);
+            assert_eq!(out.status.code(), Some(2), "{err}");
+            assert!(
+                err.contains("s.csv:5: field 2 (ws)"),
+                "{missing} jobs {jobs}: {err}"
+            );
+        }
+    }
+}
