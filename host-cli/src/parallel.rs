@@ -394,10 +394,10 @@ impl<'a, const C: usize> Run<'a, C> {
         let mut commas = Vec::with_capacity(64);
         // Plain rows go straight into the block, wherever rows go to the
         // block at all (as in the match below).
-        let own = parser.fills_rows() && self.epochs.is_none();
+        let fills = parser.fills_rows() && self.epochs.is_none();
         let mut rows = || -> Result<(), Halt> {
             loop {
-                if own && self.station.is_some() {
+                if fills && self.station.is_some() {
                     self.stats.rows += self.block.fill(&mut recs, parser, self.excl);
                     if self.block.is_full() {
                         self.flush(path, send)?;

@@ -449,13 +449,13 @@ impl Block {
         self.filled += 1;
     }
 
-    /// Reads the plain rows of a file whose parser [`Parser::fills_rows`]
-    /// from `recs` straight into the block ([`Records::next_plain`],
-    /// exclusions applied) until it is
-    /// full, the records end or a row is not plain, which is left in `recs`
-    /// for [`Records::next_row`]. Returns the rows added. Out of line, with
-    /// the row loop's state in locals: the replay's usual loop, shared by
-    /// `--jobs 1` and the workers of `--jobs 2`.
+    /// Reads plain rows from `recs` straight into the block
+    /// ([`Records::next_plain`], exclusions applied; for a parser that
+    /// [`Parser::fills_rows`]) until it is full, the records end or a row is
+    /// not plain, which is left in `recs` for [`Records::next_row`]. Returns
+    /// the rows added. Out of line, with the row loop's state in locals: the
+    /// replay's usual loop, shared by `--jobs 1` and the workers of
+    /// `--jobs 2`.
     #[inline(never)]
     pub fn fill(&mut self, recs: &mut Records<'_>, parser: &mut Parser, excl: &Exclusions) -> u64 {
         if let Some(counts) = parser.straight {
@@ -684,10 +684,10 @@ impl Sequential<'_> {
                     let p = parser.get_or_insert_with(|| (*header).clone());
                     // Plain rows are read straight into the block; any
                     // other row comes here one by one.
-                    let own = p.fills_rows();
+                    let fills = p.fills_rows();
                     let mut recs = Records::new(&bytes, line);
                     loop {
-                        if own {
+                        if fills {
                             self.stats.rows += self.block.fill(&mut recs, p, &self.cfg.exclusions);
                             if self.block.is_full() {
                                 self.flush(path)?;
@@ -915,8 +915,8 @@ impl<'a> Records<'a> {
             if let Some((t, end)) = d.one_pass(self.buf, i, readings) {
                 return Some((self.end_row(end), Ok(t)));
             }
-            // The line ends skipped are counted: from the row's start, so
-            // that the general way does not count them again.
+            // The general way reads the row from its start: the line ends
+            // before it are counted already.
             self.pos = i;
         }
         loop {
