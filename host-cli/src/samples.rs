@@ -2857,6 +2857,13 @@ mod tests {
             }
         }
         assert_eq!(by_fill.len(), one_by_one.len());
+        // Lines counted by hand: row 0 on line 2, a blank line and the
+        // comment after it (line 4), row 9 (an `x`) on line 2 + 9 + 2 - 2:
+        // the lone CR ending rows 1 and 8 ends a row, not a line, as the
+        // reader counts lines.
+        for line in ["line 4: ", "line 11: "] {
+            assert!(by_fill.iter().any(|e| e.starts_with(line)), "{line}");
+        }
         // Most rows were filled in; bad rows and excluded readings were met.
         assert!(filled > 900, "{filled}");
         assert!(by_fill.iter().filter(|e| e.starts_with("line ")).count() >= 10);
