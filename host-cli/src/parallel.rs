@@ -397,15 +397,18 @@ impl<'a, const C: usize> Run<'a, C> {
         let fills = parser.fills_rows() && self.epochs.is_none();
         let mut rows = || -> Result<(), Halt> {
             loop {
-                if fills && self.station.is_some() {
+                let next = if fills && self.station.is_some() {
                     self.stats.rows += self.block.fill(&mut recs, parser, self.excl);
                     if self.block.is_full() {
                         self.flush(path, send)?;
                         continue;
                     }
-                }
-                let Some((ln, parsed)) = recs.next_row(parser, &mut self.readings, &mut commas)
-                else {
+                    // A row the one-pass readers left.
+                    recs.next_odd_row(parser, &mut self.readings, &mut commas)
+                } else {
+                    recs.next_row(parser, &mut self.readings, &mut commas)
+                };
+                let Some((ln, parsed)) = next else {
                     break;
                 };
                 match parsed {
