@@ -499,10 +499,17 @@ fn rows_read_in_one_pass_and_the_general_way_give_the_same_records() {
     // take the general way (spaces around a number, a comment line, an
     // unused column holding text), empty fields, and times with gaps,
     // duplicates and backward steps: the records must be those of the same
-    // samples in tenmin's own CSV.
+    // samples in tenmin's own CSV. Then with a missing-value text, which some
+    // speeds hold (an empty field in the own CSV), and `NaN` in others.
+    one_pass_and_general_records(false);
+    one_pass_and_general_records(true);
+}
+
+fn one_pass_and_general_records(codes: bool) {
+    let missing = if codes { "missing = [\"NAN\"]\n" } else { "" };
     let toml = station(
         RATE_1S,
-        "[input]\ndelimiter = \";\"\ndecimal = \",\"\ncomment = \"#\"\n\n[input.time]\ncolumn = \"Zeit\"\nformat = \"%Y-%m-%d %H:%M:%S\"",
+        &format!("[input]\ndelimiter = \";\"\ndecimal = \",\"\ncomment = \"#\"\n{missing}\n[input.time]\ncolumn = \"Zeit\"\nformat = \"%Y-%m-%d %H:%M:%S\""),
         "column = \"WG\"",
         "column = \"WR\"",
     );
@@ -533,6 +540,8 @@ fn rows_read_in_one_pass_and_the_general_way_give_the_same_records() {
         let (ws_f, ws_o) = match next() % 20 {
             0 => (String::new(), String::new()),
             1 => (format!(" {} ", ws).replace('.', ","), ws.to_string()),
+            2 if codes => ("NAN".to_string(), String::new()),
+            3 if codes => ("nan".to_string(), "NaN".to_string()),
             _ => (ws.to_string().replace('.', ","), ws.to_string()),
         };
         let note = if next() % 10 == 0 { "Wartung" } else { "" };
@@ -546,7 +555,11 @@ fn rows_read_in_one_pass_and_the_general_way_give_the_same_records() {
         own.push_str(&format!("{date}T{clock}Z,{ws_o},{wd}\n"));
     }
     same_records(
-        "one-pass.csv",
+        if codes {
+            "one-pass-codes.csv"
+        } else {
+            "one-pass.csv"
+        },
         &toml,
         file.as_bytes(),
         &own,
@@ -558,8 +571,9 @@ fn rows_read_in_one_pass_and_the_general_way_give_the_same_records() {
 fn a_bad_row_after_crlf_ends_and_blank_lines_is_reported_on_its_own_line() {
     // Windows line ends and a blank line before a bad row: the row is on
     // line 5 (header 1, rows 2 and 3, blank 4), whether the layout is read
-    // in one pass or (with a missing-value text) the general way. The
-    // general way once counted each line end twice.
+    // in one pass (with or without a missing-value text) or (with a unit
+    // conversion) the general way. The general way once counted each line
+    // end twice.
     let dir = tempfile::tempdir().unwrap();
     let d = dir.path();
     write(
@@ -572,11 +586,15 @@ fn a_bad_row_after_crlf_ends_and_blank_lines_is_reported_on_its_own_line() {
          2025-01-20T00:00:02Z;x;30\r\n\
          2025-01-20T00:00:03Z;6;40\r\n",
     );
-    for missing in ["", "missing = [\"NA\"]\n"] {
+    for (missing, ws) in [
+        ("", "column = \"speed\""),
+        ("missing = [\"NA\"]\n", "column = \"speed\""),
+        ("", "column = \"speed\"\nsource_unit = \"km/h\""),
+    ] {
         let toml = station(
             RATE_1S,
             &format!("[input]\ndelimiter = \";\"\n{missing}[input.time]\ncolumn = \"t\""),
-            "column = \"speed\"",
+            ws,
             "column = \"dir\"",
         );
         write(d, "s.toml", &toml);
@@ -586,7 +604,7 @@ fn a_bad_row_after_crlf_ends_and_blank_lines_is_reported_on_its_own_line() {
             assert_eq!(out.status.code(), Some(2), "{err}");
             assert!(
                 err.contains("s.csv:5: field 2 (ws)"),
-                "{missing} jobs {jobs}: {err}"
+                "{missing} {ws} jobs {jobs}: {err}"
             );
         }
     }
