@@ -1210,7 +1210,7 @@ impl Parser {
             Some(d) => d.plan.as_deref().is_some_and(|plan| {
                 let written = plan
                     .iter()
-                    .filter(|s| matches!(s, Step::Value(_) | Step::Converted(..) | Step::Counts(_)))
+                    .filter(|s| matches!(s, Step::Value(_) | Step::Counts(_)))
                     .count();
                 written == self.ids.len()
             }),
@@ -1518,8 +1518,8 @@ fn split_whitespace(rec: &[u8], spans: &mut Vec<(u32, u32)>) {
 
 /// The plan of [`Declared::one_pass`] for a layout, if it can be read so:
 /// one-byte delimiter, one time column, no channel with a quality column, no
-/// filter, each field read once. Missing-value texts are compared and units
-/// converted in the pass.
+/// filter, each field read once. Missing-value texts are compared in the
+/// pass, and units converted after it ([`Declared::converted`]).
 fn one_pass_plan(
     table: &Table,
     time: &[usize],
@@ -1547,14 +1547,11 @@ fn one_pass_plan(
         if q.is_some() {
             return None;
         }
-        let convert = table.sources.get(c)?.convert;
         put(
             i,
-            match (decode, convert) {
-                (Decode::Value, None) => Step::Value(c),
-                (Decode::Value, Some(conv)) => Step::Converted(c, conv),
-                // The general way converts values only.
-                (Decode::Counts, _) => Step::Counts(c),
+            match decode {
+                Decode::Value => Step::Value(c),
+                Decode::Counts => Step::Counts(c),
             },
         )?;
     }
@@ -1656,6 +1653,10 @@ pub struct Declared {
     /// (several time columns, a filter, quality columns, whitespace, a column
     /// read twice).
     plan: Option<Vec<Step>>,
+    /// The channels whose values [`Declared::one_pass`] converts after the
+    /// row is read (another unit in the file than the channel's), with their
+    /// conversions.
+    converted: Vec<(usize, Convert)>,
 }
 
 /// What one field of a row read in one pass holds.
@@ -1663,8 +1664,6 @@ pub struct Declared {
 enum Step {
     Time,
     Value(usize),
-    /// A value in another unit than its channel's: converted as read.
-    Converted(usize, Convert),
     Counts(usize),
     Skip,
 }
@@ -1772,6 +1771,14 @@ impl Declared {
             (highest + 1, false)
         };
         let plan = one_pass_plan(&table, &time, &chan, filter, fields);
+        // The general way converts values only: counts stay as read.
+        let converted = (table.sources.iter().zip(&chan).enumerate())
+            .filter_map(|(c, (src, &(_, decode, ..)))| {
+                src.convert
+                    .filter(|_| decode == Decode::Value)
+                    .map(|conv| (c, conv))
+            })
+            .collect();
         Ok(Declared {
             table,
             fields,
@@ -1786,6 +1793,7 @@ impl Declared {
             zone: ZoneCache::default(),
             quick: Quick::default(),
             plan,
+            converted,
         })
     }
 
@@ -1812,9 +1820,23 @@ impl Declared {
         // A layout with missing-value texts compares each field with them:
         // a loop of its own, so that the others' stays as short.
         let comma = self.table.decimal_comma;
-        if !self.table.missing.is_empty() {
+        if !self.table.missing.is_empty() || !self.converted.is_empty() {
             let sep = if comma { b',' } else { b'.' };
-            return self.one_pass_in::<true>(buf, start, readings, delim, sep);
+            let row = if self.table.missing.is_empty() {
+                self.one_pass_in::<false>(buf, start, readings, delim, sep)
+            } else {
+                self.one_pass_in::<true>(buf, start, readings, delim, sep)
+            };
+            // Values in another unit than their channel's, converted as the
+            // general way converts them.
+            if row.is_some() {
+                for &(c, conv) in &self.converted {
+                    if let Some(Reading::Value(x)) = readings.get_mut(c) {
+                        *x = conv.apply(*x);
+                    }
+                }
+            }
+            return row;
         }
         match (delim, comma) {
             (b';', true) => self.one_pass_in::<false>(buf, start, readings, b';', b','),
@@ -1889,15 +1911,6 @@ impl Declared {
                     let read = plain_f64_nan(rest, sep, delim);
                     let (v, n) = coded::<CODES>(read, rest, delim, codes)?;
                     *readings.get_mut(c)? = v;
-                    p += n;
-                }
-                Step::Converted(c, conv) => {
-                    let read = plain_f64_nan(rest, sep, delim);
-                    let (v, n) = coded::<CODES>(read, rest, delim, codes)?;
-                    *readings.get_mut(c)? = match v {
-                        Reading::Value(x) => Reading::Value(conv.apply(x)),
-                        r => r,
-                    };
                     p += n;
                 }
                 Step::Counts(c) => {
