@@ -1829,10 +1829,11 @@ impl Declared {
         let comma = self.table.decimal_comma;
         if !self.table.missing.is_empty() || !self.converted.is_empty() {
             let sep = if comma { b',' } else { b'.' };
-            let row = if self.table.missing.is_empty() {
-                self.one_pass_in::<false>(buf, start, readings, delim, sep)
-            } else {
-                self.one_pass_in::<true>(buf, start, readings, delim, sep)
+            let row = match (self.table.missing.is_empty(), delim, comma) {
+                (true, ..) => self.one_pass_in::<false>(buf, start, readings, delim, sep),
+                (false, b';', true) => self.one_pass_in::<true>(buf, start, readings, b';', b','),
+                (false, b',', false) => self.one_pass_in::<true>(buf, start, readings, b',', b'.'),
+                (false, ..) => self.one_pass_in::<true>(buf, start, readings, delim, sep),
             };
             // Values in another unit than their channel's, converted as the
             // general way converts them.
