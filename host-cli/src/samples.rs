@@ -882,10 +882,7 @@ impl<'a> Records<'a> {
         }
         match self.next_plain(parser, readings)? {
             Some(row) => Some((row.0, Ok(row.1))),
-            None => {
-                let (line, rec) = self.next_split(commas)?;
-                Some((line, parser.parse(rec, commas, readings)))
-            }
+            None => self.next_odd_row(parser, readings, commas),
         }
     }
 
