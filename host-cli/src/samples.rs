@@ -2397,7 +2397,7 @@ fn plain_f64_in<const NAN: bool>(b: &[u8], sep: u8, delim: u8) -> Option<(Readin
 /// general path would. For the column plans of [`Parser::parse_planned`] and
 /// [`Declared::one_pass`]; the straight rows' loop ([`Parser::parse_straight`])
 /// leaves such a row to them, and runs faster without the test
-/// (host-cli/PERF.md, "NaN and missing-value texts").
+/// (host-cli/PERF.md, "NaN and missing-value texts in one pass").
 #[inline(always)]
 fn plain_f64_nan(b: &[u8], sep: u8, delim: u8) -> Option<(Reading, usize)> {
     plain_f64_in::<true>(b, sep, delim)
