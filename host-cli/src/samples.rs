@@ -3060,7 +3060,8 @@ mod tests {
         assert_eq!(parser.straight.map(|_| true), straight.filter(|&s| s));
         // `fill`: by `Block::fill` (else row by row, by `Records::next_row`);
         // `general`: every row the general way alone (`Records::next_odd_row`:
-        // split, then field by field, numbers by `str::parse`).
+        // split, then field by field, numbers by `str::parse` of Rust 1.95's
+        // standard library).
         let read = |fill: bool, general: bool| {
             let (mut p, mut blk) = (parser.clone(), Block::new(3));
             let mut recs = Records::new(text.as_bytes(), 2);
@@ -3517,8 +3518,9 @@ mod tests {
 
     /// A declared layout with missing-value texts (`NAN`, `-99,9`, `x`; a
     /// speed read as a value, a direction as counts), read in one pass and
-    /// the general way (`str::parse` behind it), row by row, on invented rows
-    /// whose fields are numbers, the texts, the texts with a byte more or in
+    /// the general way (`str::parse` behind it: the standard library of Rust
+    /// 1.95, correctly rounded IEEE 754), row by row, on invented rows whose
+    /// fields are numbers, the texts, the texts with a byte more or in
     /// another case, `NaN` in any case and sign, spaces and empty fields:
     /// wherever the one pass reads a row, the same time and readings, bit for
     /// bit; the texts and `NaN` are read in the one pass. Then with the speed
