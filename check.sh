@@ -7,7 +7,10 @@ cd "$(dirname "$0")"
 quick=0
 [ "${1:-}" = "--quick" ] && quick=1
 
-step() { printf '\n== %s\n' "$*"; }
+# Each step's heading shows the minutes and seconds since the start, so a
+# slow CI run shows which step took the time.
+start=$SECONDS
+step() { printf '\n== [%dm%02ds] %s\n' $(((SECONDS - start) / 60)) $(((SECONDS - start) % 60)) "$*"; }
 
 step "toolchain components and targets"
 rustup component add rustfmt clippy >/dev/null 2>&1 || true
@@ -63,4 +66,4 @@ if [ $quick = 0 ]; then
   fi
 fi
 echo
-echo "check.sh: all checks passed"
+echo "check.sh: all checks passed in $(((SECONDS - start) / 60)) min $(((SECONDS - start) % 60)) s"
