@@ -13,7 +13,7 @@
 # and takes a screenshot of every section (section-<id>.png).
 #
 # Usage: host-cli/tests/report-browser/check.sh [REPORT.html]
-#   Without an argument, builds tenmin, writes the default 2-day demo and its
+#   Without an argument, builds tenmin (or takes $TENMIN), writes the default 2-day demo and its
 #   report into a temporary folder and checks that. Prints the screenshot
 #   folder last.
 # Needs: Debian's chromium (installed with apt-get when missing), python3.
@@ -31,9 +31,13 @@ work="$(mktemp -d)"
 if [ $# -ge 1 ]; then
   page="$(cd "$(dirname "$1")" && pwd)/$(basename "$1")"
 else
-  (cd "$root" && cargo build -q -p host-cli)
-  target="${CARGO_TARGET_DIR:-$root/target}"
-  bin="$target/debug/tenmin"
+  # $TENMIN when set (check.sh passes the one its tests built), else a debug build.
+  if [ -n "${TENMIN:-}" ]; then
+    bin="$TENMIN"
+  else
+    (cd "$root" && cargo build -q -p host-cli)
+    bin="${CARGO_TARGET_DIR:-$root/target}/debug/tenmin"
+  fi
   "$bin" demo --out "$work/demo" >/dev/null
   "$bin" report --config "$work/demo/station.toml" "$work/demo/logger-records.csv" \
     --out "$work/report" >/dev/null
