@@ -56,6 +56,13 @@ use crate::sensors::Epochs;
 /// Closed intervals per message from a worker.
 const BATCH: usize = 16;
 
+/// Messages a worker may have sent and the calling thread not yet taken: a
+/// worker runs this far (about two 1 MiB chunks of 1 Hz rows) into its next
+/// chunk while the joiner waits on the other worker's. With 4, `--jobs 2`
+/// took 1.04 to 1.08 times as long on 2 cores (host-cli/PERF.md, "CI under
+/// 20 minutes, and `--jobs 2`'s queues").
+const WORKER_QUEUE: usize = 8;
+
 /// Bytes of samples in flight at most (read and not yet joined), as chunks
 /// of `--chunk-size` (five of the default 1 MiB); but never fewer chunks
 /// than two per worker and one being read, so that every worker has its
@@ -709,7 +716,7 @@ fn run<const C: usize>(
         let mut from_workers = Vec::with_capacity(jobs);
         for _ in 0..jobs {
             let (job_tx, job_rx) = sync_channel::<Job>(2);
-            let (msg_tx, msg_rx) = sync_channel::<Msg<C>>(4);
+            let (msg_tx, msg_rx) = sync_channel::<Msg<C>>(WORKER_QUEUE);
             let layout = &layout;
             let excl = &cfg.exclusions;
             let epochs = epochs.clone();
