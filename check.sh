@@ -52,7 +52,15 @@ MATURIN_PEP517_ARGS="--profile dev" "$venv/bin/pip" install -q --force-reinstall
 # --quick: fewer random splits (the other checks are the same).
 trials=12
 [ $quick = 1 ] && trials=4
-TENMIN_BIN="$TENMIN" TENMIN_SPLIT_TRIALS=$trials "$venv/bin/python" -m pytest -q python/tests
+# pytest runs on one core for about 2.5 minutes: it runs beside the steps
+# below (builds and QEMU runs; their budgets count instructions, not time),
+# and its output and status come at the end.
+pytest_log="$PWD/target/pytest.log"
+TENMIN_BIN="$TENMIN" TENMIN_SPLIT_TRIALS=$trials "$venv/bin/python" -m pytest -q python/tests \
+  >"$pytest_log" 2>&1 &
+pytest_pid=$!
+trap 'kill $pytest_pid 2>/dev/null || true' EXIT
+echo "pytest started beside the next steps (log: $pytest_log)"
 unset CARGO_TARGET_DIR
 
 if [ $quick = 0 ]; then
@@ -72,6 +80,16 @@ if [ $quick = 0 ]; then
     step "the C logger over the C interface, under QEMU"
     firmware-example/c/check.sh
   fi
+fi
+
+step "pytest (python/tests), run beside the steps above"
+pytest_status=0
+wait $pytest_pid || pytest_status=$?
+trap - EXIT
+cat "$pytest_log"
+if [ $pytest_status != 0 ]; then
+  echo "check.sh: pytest failed (exit $pytest_status)" >&2
+  exit 1
 fi
 echo
 echo "check.sh: all checks passed in $(((SECONDS - start) / 60)) min $(((SECONDS - start) % 60)) s"
