@@ -59,8 +59,8 @@ const BATCH: usize = 16;
 /// Messages a worker may have sent and the calling thread not yet taken: a
 /// worker runs this far (about two 1 MiB chunks of 1 Hz rows) into its next
 /// chunk while the joiner waits on the other worker's. With 4, `--jobs 2`
-/// took 1.04 to 1.08 times as long on 2 cores (host-cli/PERF.md, "CI under
-/// 20 minutes, and `--jobs 2`'s queues").
+/// took 1.04 to 1.08 times as long on 2 cores (host-cli/PERF.md, "CI's step
+/// times, and `--jobs 2`'s queues").
 const WORKER_QUEUE: usize = 8;
 
 /// Bytes of samples in flight at most (read and not yet joined), as chunks
