@@ -18,6 +18,17 @@ if [ $quick = 0 ]; then
   rustup target add thumbv6m-none-eabi thumbv7em-none-eabihf
 fi
 
+# The Python packages pytest needs install beside the Rust steps (about 50 s
+# of pip on one core, which the builds leave idle now and then); the Python
+# step waits for them.
+venv=target/pyvenv
+mkdir -p target
+pip_log="$PWD/target/pip.log"
+[ -x "$venv/bin/python" ] || python3 -m venv "$venv"
+"$venv/bin/pip" install -q maturin pytest "dask[distributed]" pandas polars pyarrow >"$pip_log" 2>&1 &
+pip_pid=$!
+trap 'kill $pip_pid 2>/dev/null || true' EXIT
+
 step "format"
 cargo fmt --all --check
 
@@ -41,9 +52,14 @@ step "Python package (python/, its own cargo workspace): format, clippy, wheel, 
 export CARGO_TARGET_DIR="$PWD/target"
 cargo fmt --manifest-path python/Cargo.toml --check
 cargo clippy --manifest-path python/Cargo.toml --all-targets -- -D warnings
-venv=target/pyvenv
-[ -x "$venv/bin/python" ] || python3 -m venv "$venv"
-"$venv/bin/pip" install -q maturin pytest "dask[distributed]" pandas polars pyarrow
+pip_status=0
+wait $pip_pid || pip_status=$?
+trap - EXIT
+if [ $pip_status != 0 ]; then
+  cat "$pip_log"
+  echo "check.sh: installing the Python packages failed (exit $pip_status)" >&2
+  exit 1
+fi
 # The extension in the dev profile: it reuses the dependencies the tests
 # compiled (a release build of arrow and parquet alone took 8 minutes on the
 # 2-core CI machine), and pytest checks results, not speed. `pip install
