@@ -24,8 +24,8 @@ fi
 venv=target/pyvenv
 mkdir -p target
 pip_log="$PWD/target/pip.log"
-[ -x "$venv/bin/python" ] || python3 -m venv "$venv"
-"$venv/bin/pip" install -q maturin pytest "dask[distributed]" pandas polars pyarrow >"$pip_log" 2>&1 &
+bash -c "[ -x $venv/bin/python ] || python3 -m venv $venv
+  exec $venv/bin/pip install -q maturin pytest 'dask[distributed]' pandas polars pyarrow" >"$pip_log" 2>&1 &
 pip_pid=$!
 trap 'kill $pip_pid 2>/dev/null || true' EXIT
 

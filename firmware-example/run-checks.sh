@@ -110,10 +110,11 @@ else
   tenmin="$host_target/debug/tenmin"
 fi
 [ -x "$tenmin" ] || fail "no tenmin at $tenmin"
-# The scenario tool in the dev profile too: `cargo test --workspace` (check.sh)
-# has built it, and a release build compiles qc-core's dev-dependencies again
-# (a minute and a half on the 2-core CI machine) for the same bits.
-CARGO_TARGET_DIR="$host_target" cargo build -p qc-core --example replay_frames --quiet
+# The scenario tool in the dev profile, with the features of `cargo test
+# --workspace --all-features` (check.sh), which has built it then: a release
+# build compiled qc-core's dev-dependencies again (a minute and a half on the
+# 2-core CI machine) for the same bits, and other features half a minute.
+CARGO_TARGET_DIR="$host_target" cargo build --workspace --all-features --example replay_frames --quiet
 host_tool="$host_target/debug/examples/replay_frames"
 
 step "a day of demo data: tenmin demo, tenmin export"

@@ -652,86 +652,103 @@ fn state_log_finished_by_decode_gives_the_replay_records() {
 fn state_log_cut_anywhere_loses_only_the_cut_frame() {
     let s = Setup::new();
     let frames = state_frames(&s.states);
-    let n = frames.len();
     // Every byte of the first three frames, and a stride over the rest that
     // meets every offset within a frame class by class.
     let cuts: Vec<usize> = (0..3 * FRAME_LEN)
         .chain((3 * FRAME_LEN..s.states.len()).step_by(41))
         .collect();
-    for &cut in &cuts {
-        let (i, j) = (cut / FRAME_LEN, cut % FRAME_LEN);
-        // 1. The log ends at `cut` (power lost while frame `i` was written,
-        //    and nothing after): the frames before `i` are all there.
-        let (o, records) = s.decode("cut.log", &s.states[..cut], false);
-        ok(&o, &format!("decode of the log cut at byte {cut}"));
-        let err = text(&o.stderr);
-        assert_eq!(j != 0, err.contains("torn tail"), "cut at {cut}: {err}");
-        let last = i.checked_sub(1).map(|p| &frames[p]);
-        let incomplete: Vec<usize> = last
-            .filter(|f| usize::from(f.channel) + 1 < CHANNELS)
-            .map(interval_of)
-            .into_iter()
-            .collect();
-        assert_eq!(
-            !incomplete.is_empty(),
-            err.contains("did not arrive"),
-            "cut at {cut}: {err}"
-        );
-        let end = last.map_or(0, line_of);
-        // When the last interval left jumps forward, no frame after it
-        // confirms its time: the empty intervals before it are not written.
-        let unconfirmed = last
-            .map(interval_of)
-            .and_then(|k| {
-                let first = frames[..i].iter().position(|f| interval_of(f) == k)?;
-                let b = interval_of(frames.get(first.checked_sub(1)?)?);
-                (k > b + 1).then_some(b + 1..k)
-            })
-            .unwrap_or(0..0);
-        assert_eq!(
-            !unconfirmed.is_empty(),
-            err.contains("with no later frame to confirm the time"),
-            "cut at {cut}: {err}"
-        );
-        assert_rows(
-            &records,
-            &s.replay_csv,
-            |l| l <= end && (l == 0 || !unconfirmed.contains(&interval_of_line(l))),
-            &incomplete,
-            &format!("log cut at byte {cut}"),
-        );
-        // 2. Frame `i` torn after `j` bytes and the log going on after it
-        //    (a write cut short, the next one appended behind it): only its
-        //    row is lost, and the intervals without samples next to it. (The
-        //    last frame torn is the cut log above.)
-        if i + 1 >= n {
-            continue;
+    // Each cut runs `tenmin decode` twice (about 1,000 runs): two threads
+    // take every other cut, each with its own file names, so that this test
+    // does not run alone on one core at the end of the suite.
+    std::thread::scope(|scope| {
+        for part in 0..2 {
+            let (s, frames, cuts) = (&s, &frames, &cuts);
+            scope.spawn(move || {
+                for &cut in cuts.iter().skip(part).step_by(2) {
+                    check_cut(s, frames, cut, part);
+                }
+            });
         }
-        let mut torn = s.states[..cut].to_vec();
-        torn.extend_from_slice(&s.states[(i + 1) * FRAME_LEN..]);
-        let (o, records) = s.decode("torn.log", &torn, false);
-        ok(&o, &format!("decode with frame {i} torn after {j} bytes"));
-        let err = text(&o.stderr);
-        let lost = if i == 0 {
-            "the first good frame has sequence number 1, not 0: the frames before it are lost"
-                .to_string()
-        } else {
-            format!("1 frame lost (sequence number {i})")
-        };
-        assert!(err.contains(&lost), "frame {i} torn after {j} bytes: {err}");
-        assert_eq!(
-            j != 0,
-            err.contains("): damaged (no good frame there)"),
-            "{err}"
-        );
-        assert_rows_lost(
-            &s,
-            &records,
-            &frames,
-            i,
-            &format!("frame {i} torn after {j} bytes"),
-        );
+    });
+}
+
+/// [`state_log_cut_anywhere_loses_only_the_cut_frame`] at one cut; `part`
+/// names its files.
+fn check_cut(s: &Setup, frames: &[StateFrame], cut: usize, part: usize) {
+    let n = frames.len();
+    let (cut_log, torn_log) = (format!("cut{part}.log"), format!("torn{part}.log"));
+    let (i, j) = (cut / FRAME_LEN, cut % FRAME_LEN);
+    // 1. The log ends at `cut` (power lost while frame `i` was written,
+    //    and nothing after): the frames before `i` are all there.
+    let (o, records) = s.decode(&cut_log, &s.states[..cut], false);
+    ok(&o, &format!("decode of the log cut at byte {cut}"));
+    let err = text(&o.stderr);
+    assert_eq!(j != 0, err.contains("torn tail"), "cut at {cut}: {err}");
+    let last = i.checked_sub(1).map(|p| &frames[p]);
+    let incomplete: Vec<usize> = last
+        .filter(|f| usize::from(f.channel) + 1 < CHANNELS)
+        .map(interval_of)
+        .into_iter()
+        .collect();
+    assert_eq!(
+        !incomplete.is_empty(),
+        err.contains("did not arrive"),
+        "cut at {cut}: {err}"
+    );
+    let end = last.map_or(0, line_of);
+    // When the last interval left jumps forward, no frame after it
+    // confirms its time: the empty intervals before it are not written.
+    let unconfirmed = last
+        .map(interval_of)
+        .and_then(|k| {
+            let first = frames[..i].iter().position(|f| interval_of(f) == k)?;
+            let b = interval_of(frames.get(first.checked_sub(1)?)?);
+            (k > b + 1).then_some(b + 1..k)
+        })
+        .unwrap_or(0..0);
+    assert_eq!(
+        !unconfirmed.is_empty(),
+        err.contains("with no later frame to confirm the time"),
+        "cut at {cut}: {err}"
+    );
+    assert_rows(
+        &records,
+        &s.replay_csv,
+        |l| l <= end && (l == 0 || !unconfirmed.contains(&interval_of_line(l))),
+        &incomplete,
+        &format!("log cut at byte {cut}"),
+    );
+    // 2. Frame `i` torn after `j` bytes and the log going on after it
+    //    (a write cut short, the next one appended behind it): only its
+    //    row is lost, and the intervals without samples next to it. (The
+    //    last frame torn is the cut log above.)
+    if i + 1 >= n {
+        return;
     }
+    let mut torn = s.states[..cut].to_vec();
+    torn.extend_from_slice(&s.states[(i + 1) * FRAME_LEN..]);
+    let (o, records) = s.decode(&torn_log, &torn, false);
+    ok(&o, &format!("decode with frame {i} torn after {j} bytes"));
+    let err = text(&o.stderr);
+    let lost = if i == 0 {
+        "the first good frame has sequence number 1, not 0: the frames before it are lost"
+            .to_string()
+    } else {
+        format!("1 frame lost (sequence number {i})")
+    };
+    assert!(err.contains(&lost), "frame {i} torn after {j} bytes: {err}");
+    assert_eq!(
+        j != 0,
+        err.contains("): damaged (no good frame there)"),
+        "{err}"
+    );
+    assert_rows_lost(
+        s,
+        &records,
+        frames,
+        i,
+        &format!("frame {i} torn after {j} bytes"),
+    );
 }
 
 /// Checks the records of the state log less frame `i`: the replay's rows
