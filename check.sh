@@ -50,6 +50,21 @@ step "Python package (python/, its own cargo workspace): format, clippy, wheel, 
 # pyo3's extension module leaves Python's symbols to the interpreter, so the
 # crate stays out of `cargo test --workspace`; its Rust is checked here.
 export CARGO_TARGET_DIR="$PWD/target"
+# Its dependencies are reused from the tests' build only at the versions of
+# the top-level Cargo.lock (and with the same dev profile settings): say so
+# when python/Cargo.lock has drifted (minutes of compiling, not an error).
+python3 - <<'PY'
+import tomllib
+top = {(p["name"], p["version"]) for p in tomllib.load(open("Cargo.lock", "rb"))["package"]}
+names = {n for n, _ in top}
+py = tomllib.load(open("python/Cargo.lock", "rb"))["package"]
+drift = sorted(f'{p["name"]} {p["version"]}' for p in py
+               if p["name"] in names and (p["name"], p["version"]) not in top)
+if drift:
+    print("check.sh: warning: python/Cargo.lock differs from Cargo.lock in", ", ".join(drift),
+          "(compiled twice); align it with `cargo update --manifest-path python/Cargo.toml"
+          " -p NAME --precise VERSION`")
+PY
 cargo fmt --manifest-path python/Cargo.toml --check
 cargo clippy --manifest-path python/Cargo.toml --all-targets -- -D warnings
 pip_status=0
