@@ -207,8 +207,30 @@ struct Cutter {
     ring: Option<Feeder>,
 }
 
-/// A chunk as [`Cutter::chunk`] gives it.
-type Cut = io::Result<Option<(u64, Chunk)>>;
+/// A chunk as [`Cutter::chunk`] gives it: its file offset, its bytes and
+/// what the cutter found in them.
+type Cut = io::Result<Option<(u64, Chunk, Scan)>>;
+
+/// What [`Cutter::cut`] finds in a chunk's bytes while they are fresh from
+/// the read, on the cutting thread (with `--jobs 1`, the read-ahead thread,
+/// so that the replaying thread does not pass over every byte twice more;
+/// host-cli/PERF.md, "Scans on the cutting thread").
+#[derive(Clone, Copy, Debug)]
+struct Scan {
+    /// Its `\n` bytes ([`count_newlines`]).
+    newlines: u64,
+    /// Whether it holds a `"` (then the `csv` crate reads on from it).
+    quote: bool,
+}
+
+impl Scan {
+    fn of(b: &[u8]) -> Scan {
+        Scan {
+            newlines: count_newlines(b),
+            quote: memchr::memchr(b'"', b).is_some(),
+        }
+    }
+}
 
 enum Source {
     /// Cut on the reader's thread.
@@ -270,7 +292,7 @@ impl Ahead {
         // one, cuts it, sends it and sees the stop.
         for cut in self.rx.iter() {
             match cut {
-                Ok(Some((_, c))) => {
+                Ok(Some((_, c, _))) => {
                     if error.is_none() {
                         pending.extend_from_slice(&c);
                     }
@@ -305,7 +327,7 @@ impl Cutter {
         let r = self.cut(size);
         match (&r, self.ring.as_mut()) {
             (_, None) => {}
-            (Ok(Some((_, c))), Some(feeder)) => {
+            (Ok(Some((_, c, _))), Some(feeder)) => {
                 if !feeder.share(c.clone()) {
                     // The hash thread is gone: no digest.
                     self.ring = None;
@@ -366,7 +388,12 @@ impl Cutter {
                 self.pool.give(buf);
                 return Ok(None);
             }
-            return Ok(Some((offset, Chunk::new(buf, Some(self.pool.clone())))));
+            let scan = Scan::of(&buf);
+            return Ok(Some((
+                offset,
+                Chunk::new(buf, Some(self.pool.clone())),
+                scan,
+            )));
         }
     }
 }
@@ -466,7 +493,7 @@ impl<'a> FileReader<'a> {
     /// the limit or an I/O error is an error naming the file and line.
     pub fn next_piece(&mut self, size: usize) -> Result<Option<Piece>> {
         loop {
-            let Some((offset, block)) = self
+            let Some((offset, block, scan)) = self
                 .chunk(size)
                 .map_err(|e| limits::read_error(e, self.path, self.line))?
             else {
@@ -474,7 +501,7 @@ impl<'a> FileReader<'a> {
             };
             let line = self.line;
             let quotes = self.cfg.table.csv_delimiter().is_some();
-            if quotes && memchr::memchr(b'"', &block).is_some() {
+            if quotes && scan.quote {
                 // The rest of the file after this chunk: the chunks the
                 // read-ahead thread cut already (hashed as cut), then the
                 // partial record and the bytes not read yet.
@@ -496,8 +523,8 @@ impl<'a> FileReader<'a> {
                 }));
             }
             let end = offset + block.len() as u64;
-            let (body, body_line) = match &self.parser {
-                Some(_) => (block, line),
+            let (body, body_line, newlines) = match &self.parser {
+                Some(_) => (block, line, scan.newlines),
                 None => {
                     let table = &self.cfg.table;
                     let mut recs = Records::new(&block, line);
@@ -526,7 +553,8 @@ impl<'a> FileReader<'a> {
                             let body = Chunk::from(block[pos..].to_vec());
                             first_row_time(self.path, self.cfg, p, &body, at)?;
                             self.parser = Some(Arc::new(p.clone()));
-                            (body, at)
+                            let newlines = count_newlines(&body);
+                            (body, at, newlines)
                         }
                         _ => {
                             self.line = recs.line();
@@ -535,7 +563,7 @@ impl<'a> FileReader<'a> {
                     }
                 }
             };
-            self.line = body_line + count_newlines(&body);
+            self.line = body_line + newlines;
             let Some(parser) = self.parser.clone() else {
                 continue;
             };

@@ -415,6 +415,26 @@ fn quoted_empty_and_header_only_files() {
 }
 
 #[test]
+fn a_row_past_the_first_pieces_is_named_by_its_line() {
+    // 25,000 rows (over 1 MiB): `--jobs 1` reads it in pieces of 256 KiB,
+    // `--jobs 2` in chunks of 1 MiB and of the sizes of `same_as_sequential`;
+    // the line of a row far into the file is the sum of every piece's line
+    // ends before it (counted where the pieces are cut).
+    let dir = setup();
+    let d = dir.path();
+    let mut rng = Rng(11);
+    let (mut joined, _) = samples(&mut rng, T0, 25_000, Plant::default());
+    assert!(joined.len() > 1 << 20, "{}", joined.len());
+    // Two years later, at line 25,002 (the header, 25,000 rows, then this).
+    let (later, _) = samples(&mut rng, T0 + 730 * 86_400, 1, Plant::default());
+    joined.extend_from_slice(later.split(|b| *b == b'\n').nth(1).unwrap());
+    joined.push(b'\n');
+    std::fs::write(d.join("long.csv"), &joined).unwrap();
+    let out = same_as_sequential(d, &["-c", "station.toml", "long.csv"]);
+    refused(&out, &["long.csv:25002:", "to 2027-01-20T00:00:00Z"]);
+}
+
+#[test]
 fn a_clock_jump_beyond_max_gap_days_is_an_error_naming_the_row() {
     let dir = setup();
     let d = dir.path();
