@@ -10,8 +10,8 @@
 # own target directory), writes the demo station's DAYS-day samples (1 Hz, 6
 # channels, `tenmin demo --seed 1`) as one file, the same samples as a
 # declared layout (bench/field_layout.py) and as a .zst, and creates a venv in
-# BENCH_DIR with polars and duckdb for the peers (pandas is taken from the
-# system's python3). Then, ROUNDS times, runs every command below once, in an
+# BENCH_DIR with numpy, pandas, polars and duckdb for the peers (the
+# system's python3 only builds the files and the tables). Then, ROUNDS times, runs every command below once, in an
 # order that rotates from round to round:
 #
 #   base1   BASE_REV's tenmin, --jobs 1, own CSV, -o FILE
@@ -32,8 +32,9 @@
 # CSV's, and spot-checks each peer's statistics against tenmin's records (1e-9;
 # directions 1e-6 degrees). Whole processes are timed (start-up included).
 #
-# Needs: git, cargo, python3 (3.11+) with numpy and pandas, zstd, network for
-# pip (or a venv at BENCH_DIR/venv with polars and duckdb). SKIP_PEERS=1 leaves
+# Needs: git, cargo, python3 (3.11+), zstd, network for pip (the peers run in
+# a venv at BENCH_DIR/venv with numpy, pandas, polars and duckdb, made when
+# missing). SKIP_PEERS=1 leaves
 # the peers out; SKIP_BASE=1 the baseline build.
 set -euo pipefail
 
@@ -45,7 +46,7 @@ DAYS=${DAYS:-30}
 DIR=${BENCH_DIR:-/tmp/tenmin-compare}
 SKIP_PEERS=${SKIP_PEERS:-0}
 SKIP_BASE=${SKIP_BASE:-0}
-PEERS_PIP=${PEERS_PIP:-"polars duckdb"}
+PEERS_PIP=${PEERS_PIP:-"numpy pandas polars duckdb"}
 mkdir -p "$DIR"
 
 echo "machine: $(nproc) cores, $(grep -m1 'model name' /proc/cpuinfo | cut -d: -f2- | sed 's/^ *//'), load $(cut -d' ' -f1-3 /proc/loadavg)"
@@ -90,12 +91,12 @@ mkdir -p "$FD"
 
 if [ "$SKIP_PEERS" != 1 ]; then
     VPY="$DIR/venv/bin/python"
-    if ! "$VPY" -c "import polars, duckdb" 2>/dev/null; then
+    if ! "$VPY" -c "import numpy, pandas, polars, duckdb" 2>/dev/null; then
         python3 -m venv "$DIR/venv"
         # shellcheck disable=SC2086
         "$DIR/venv/bin/pip" install -q $PEERS_PIP
     fi
-    python3 -c "import numpy, pandas" || { echo "python3 needs numpy and pandas (or SKIP_PEERS=1)"; exit 1; }
+    "$VPY" -c "import numpy, pandas, polars, duckdb" || { echo "$DIR/venv lacks a peer's package (or SKIP_PEERS=1)"; exit 1; }
 fi
 
 own_b=$(stat -c %s "$S")
@@ -117,7 +118,7 @@ if [ "$SKIP_BASE" != 1 ]; then
     names="$names base1 base1s"
 fi
 if [ "$SKIP_PEERS" != 1 ]; then
-    CMD[pandas]="python3 bench/pandas_reference.py $STATION $S"
+    CMD[pandas]="$VPY bench/pandas_reference.py $STATION $S"
     for j in 1 2; do
         CMD[polars$j]="$VPY bench/polars_reference.py $STATION $S --threads $j"
         CMD[duckdb$j]="$VPY bench/duckdb_reference.py $STATION $S --threads $j"
@@ -138,7 +139,7 @@ for k in own2 layout1 zst1 base1; do
     fi
 done
 if [ "$SKIP_PEERS" != 1 ]; then
-    python3 bench/pandas_reference.py "$STATION" "$S" --check "$DIR/r-own1.csv" 2>&1 | sed 's/^/  /'
+    "$VPY" bench/pandas_reference.py "$STATION" "$S" --check "$DIR/r-own1.csv" 2>&1 | sed 's/^/  /'
     for p in polars duckdb; do
         "$VPY" "bench/${p}_reference.py" "$STATION" "$S" --threads 2 --check "$DIR/r-own1.csv" 2>&1 | sed 's/^/  /'
     done
