@@ -1661,6 +1661,60 @@ pub struct Declared {
     /// row is read (another unit in the file than the channel's), with their
     /// conversions.
     converted: Vec<(usize, Convert)>,
+    /// A plan that is the time and then every channel in station-file order
+    /// (bit `c` set for channel `c` read as counts): read by
+    /// [`Declared::one_pass_straight`], a loop per width.
+    straight: Option<u64>,
+}
+
+/// The time field at the start of `rest` for [`Declared::one_pass`]: by
+/// `quick` (the memo's hour), else by the memo and the zone's span, else
+/// parsed whole (and `quick` set again); its length. `None`: a time the
+/// general way reads (or refuses).
+#[inline(always)]
+fn time_field(
+    table: &Table,
+    quick: &mut Quick,
+    memo: &mut Memo,
+    zone: &mut ZoneCache,
+    rest: &[u8],
+    delim: u8,
+) -> Option<(Timestamp, usize)> {
+    if let Some(read) = quick.read(rest, delim) {
+        return Some(read);
+    }
+    let n = field_len(rest, delim);
+    let text = &rest[..n];
+    let t = match table.time.parse_memo(text, memo, zone) {
+        Some(t) => t,
+        None => {
+            let t = table.time.parse_with(text, memo, zone).ok();
+            *quick = table.time.quick(memo, zone, delim);
+            t?
+        }
+    };
+    Some((t, n))
+}
+
+/// The plan's channel bits for [`Declared::one_pass_straight`]: `Some` when
+/// `plan` is the time and then channels `0..n` in order (at most 12, the
+/// widths of [`by_width!`]).
+fn straight_plan(plan: Option<&[Step]>) -> Option<u64> {
+    let (Step::Time, chans) = plan?.split_first()? else {
+        return None;
+    };
+    if chans.is_empty() || chans.len() > 12 {
+        return None;
+    }
+    let mut counts = 0u64;
+    for (c, step) in chans.iter().enumerate() {
+        match *step {
+            Step::Value(k) if k == c => {}
+            Step::Counts(k) if k == c => counts |= 1 << c,
+            _ => return None,
+        }
+    }
+    Some(counts)
 }
 
 /// What one field of a row read in one pass holds.
@@ -1775,6 +1829,7 @@ impl Declared {
             (highest + 1, false)
         };
         let plan = one_pass_plan(&table, &time, &chan, filter, fields);
+        let straight = straight_plan(plan.as_deref());
         // The general way converts values only: counts stay as read.
         let converted = (table.sources.iter().zip(&chan).enumerate())
             .filter_map(|(c, (src, &(_, decode, ..)))| {
@@ -1798,6 +1853,7 @@ impl Declared {
             quick: Quick::default(),
             plan,
             converted,
+            straight,
         })
     }
 
@@ -1842,6 +1898,19 @@ impl Declared {
                 }
             }
             return row;
+        }
+        if let Some(counts) = self.straight {
+            let row = match (delim, comma) {
+                (b';', true) => self.straight_in(buf, start, readings, counts, b';', b','),
+                (b',', false) => self.straight_in(buf, start, readings, counts, b',', b'.'),
+                (d, comma) => {
+                    let sep = if comma { b',' } else { b'.' };
+                    self.straight_in(buf, start, readings, counts, d, sep)
+                }
+            };
+            if let Some(row) = row {
+                return row;
+            }
         }
         match (delim, comma) {
             (b';', true) => self.one_pass_in::<false>(buf, start, readings, b';', b','),
@@ -1891,24 +1960,14 @@ impl Declared {
             let rest = buf.get(p..)?;
             match *step {
                 Step::Time => {
-                    if let Some((t, n)) = self.quick.read(rest, delim) {
-                        time = Some(t);
-                        p += n;
-                        continue;
-                    }
-                    let n = field_len(rest, delim);
-                    let text = &rest[..n];
-                    let t = match table.time.parse_memo(text, &self.memo, &self.zone) {
-                        Some(t) => t,
-                        None => {
-                            let t = table
-                                .time
-                                .parse_with(text, &mut self.memo, &mut self.zone)
-                                .ok();
-                            self.quick = table.time.quick(&self.memo, &self.zone, delim);
-                            t?
-                        }
-                    };
+                    let (t, n) = time_field(
+                        table,
+                        &mut self.quick,
+                        &mut self.memo,
+                        &mut self.zone,
+                        rest,
+                        delim,
+                    )?;
                     time = Some(t);
                     p += n;
                 }
@@ -1933,6 +1992,80 @@ impl Declared {
         }
         match buf.get(p) {
             None | Some(b'\n' | b'\r') => Some((time?, p)),
+            Some(_) => None,
+        }
+    }
+
+    /// [`Declared::one_pass`] of a straight plan ([`Declared::straight`]):
+    /// `Some(row)` as [`Declared::one_pass_in`] reads it, `None` when
+    /// `readings` is not as wide as the plan.
+    #[inline(always)]
+    fn straight_in(
+        &mut self,
+        buf: &[u8],
+        start: usize,
+        readings: &mut [Reading],
+        counts: u64,
+        delim: u8,
+        sep: u8,
+    ) -> Option<Option<(Timestamp, usize)>> {
+        let n = self.chan.len();
+        by_width!(n, N => {
+            let slot = readings.first_chunk_mut::<N>()?;
+            self.one_pass_straight::<N>(buf, start, slot, counts, delim, sep)
+        })
+    }
+
+    /// [`Declared::one_pass_in`] (without missing-value texts) of a row
+    /// whose fields are the time and then the `N` channels in order: the
+    /// field loop unrolled, no plan read, as [`Parser::parse_straight`]
+    /// reads the own CSV. The same result.
+    #[inline(always)]
+    fn one_pass_straight<const N: usize>(
+        &mut self,
+        buf: &[u8],
+        start: usize,
+        readings: &mut [Reading; N],
+        counts: u64,
+        delim: u8,
+        sep: u8,
+    ) -> Option<(Timestamp, usize)> {
+        let table = &*self.table;
+        if let Some(c) = &table.comment {
+            let first = *buf.get(start)?;
+            if c.first().is_none_or(|&c0| c0 == first) || first.is_ascii_whitespace() {
+                return None;
+            }
+        }
+        let rest = buf.get(start..)?;
+        let (t, n) = time_field(
+            table,
+            &mut self.quick,
+            &mut self.memo,
+            &mut self.zone,
+            rest,
+            delim,
+        )?;
+        let mut p = start + n;
+        for (c, r) in readings.iter_mut().enumerate() {
+            if buf.get(p) != Some(&delim) {
+                return None;
+            }
+            p += 1;
+            let rest = buf.get(p..)?;
+            let (v, n) = if counts >> c & 1 == 0 {
+                plain_f64_nan(rest, sep, delim)?
+            } else {
+                plain_i32_nan(rest, delim)?
+            };
+            *r = v;
+            p += n;
+        }
+        if !self.exact && buf.get(p) == Some(&delim) {
+            p += field_len(buf.get(p..)?, b'\n');
+        }
+        match buf.get(p) {
+            None | Some(b'\n' | b'\r') => Some((t, p)),
             Some(_) => None,
         }
     }
@@ -2968,6 +3101,14 @@ mod tests {
             [[channel]]\nid = \"t\"\nkind = \"scalar\"\nresolution = 0.1\ncolumn = \"T\"\n";
         let declared = crate::config::parse(Path::new("s.toml"), toml).unwrap();
         fill_agrees(&declared, [b"Zeit", b"T", b"WG", b"R"], None);
+        // The time and then the channels in order: `one_pass_straight`.
+        let straight: [&[u8]; 4] = [b"Zeit", b"WG", b"R", b"T"];
+        let p = Parser::new(Path::new("x"), 1, straight.into_iter(), &declared).unwrap();
+        assert_eq!(p.declared.as_ref().and_then(|d| d.straight), Some(0b10));
+        let other: [&[u8]; 4] = [b"Zeit", b"T", b"WG", b"R"];
+        let p = Parser::new(Path::new("x"), 1, other.into_iter(), &declared).unwrap();
+        assert_eq!(p.declared.as_ref().and_then(|d| d.straight), None);
+        fill_agrees(&declared, straight, None);
         // With missing-value texts, compared in the one pass.
         let toml = toml.replace(
             "decimal = \",\"\n",
@@ -3424,6 +3565,8 @@ mod tests {
         let mut one = Parser::new(Path::new("x"), 1, header.into_iter(), &cfg).unwrap();
         let mut general = one.clone();
         assert!(one.declared.as_ref().is_some_and(|d| d.plan.is_some()));
+        // The time and then the channels in order: `one_pass_straight`.
+        assert_eq!(one.declared.as_ref().and_then(|d| d.straight), Some(0));
         let day = |y: i32, month: u8, d: u8| {
             Timestamp::from_civil(qc_core::time::Civil {
                 year: y,
