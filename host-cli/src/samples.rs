@@ -1697,24 +1697,22 @@ fn time_field(
 }
 
 /// The plan's channel bits for [`Declared::one_pass_straight`]: `Some` when
-/// `plan` is the time and then channels `0..n` in order (at most 12, the
-/// widths of [`by_width!`]).
+/// `plan` is the time and then channels `0..n` in order
+/// ([`straight_columns`]), at most 12 of them (the widths of [`by_width!`]).
 fn straight_plan(plan: Option<&[Step]>) -> Option<u64> {
-    let (Step::Time, chans) = plan?.split_first()? else {
-        return None;
-    };
-    if chans.is_empty() || chans.len() > 12 {
+    let cols = plan?
+        .iter()
+        .map(|step| match *step {
+            Step::Time => Some(Col::Time),
+            Step::Value(c) => Some(Col::Value(c)),
+            Step::Counts(c) => Some(Col::Counts(c)),
+            Step::Skip => None,
+        })
+        .collect::<Option<Vec<Col>>>()?;
+    if cols.len() > 13 {
         return None;
     }
-    let mut counts = 0u64;
-    for (c, step) in chans.iter().enumerate() {
-        match *step {
-            Step::Value(k) if k == c => {}
-            Step::Counts(k) if k == c => counts |= 1 << c,
-            _ => return None,
-        }
-    }
-    Some(counts)
+    straight_columns(&cols)
 }
 
 /// What one field of a row read in one pass holds.
