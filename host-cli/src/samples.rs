@@ -1646,12 +1646,8 @@ pub struct Declared {
     /// Scratch: field spans (whitespace), and the joined time.
     spans: Vec<(u32, u32)>,
     tbuf: Vec<u8>,
-    /// The last row's time and the zone's span, to read the next faster.
-    memo: Memo,
-    zone: ZoneCache,
-    /// The memo's hour folded for [`Declared::one_pass`] ([`Quick`]): set
-    /// after each time that `memo` and `zone` did not read.
-    quick: Quick,
+    /// What the last row's time leaves to read the next faster.
+    clock: Clock,
     /// A row read in one pass ([`Declared::one_pass`]): what each field
     /// holds, up to the last one read; `None` when the layout needs more
     /// (several time columns, a filter, quality columns, whitespace, a column
@@ -1667,33 +1663,39 @@ pub struct Declared {
     straight: Option<u64>,
 }
 
-/// The time field at the start of `rest` for [`Declared::one_pass`]: by
-/// `quick` (the memo's hour), else by the memo and the zone's span, else
-/// parsed whole (and `quick` set again); its length. `None`: a time the
-/// general way reads (or refuses).
-#[inline(always)]
-fn time_field(
-    table: &Table,
-    quick: &mut Quick,
-    memo: &mut Memo,
-    zone: &mut ZoneCache,
-    rest: &[u8],
-    delim: u8,
-) -> Option<(Timestamp, usize)> {
-    if let Some(read) = quick.read(rest, delim) {
-        return Some(read);
-    }
-    let n = field_len(rest, delim);
-    let text = &rest[..n];
-    let t = match table.time.parse_memo(text, memo, zone) {
-        Some(t) => t,
-        None => {
-            let t = table.time.parse_with(text, memo, zone).ok();
-            *quick = table.time.quick(memo, zone, delim);
-            t?
+/// The last row's time and the zone's span, to read the next faster.
+#[derive(Clone, Debug, Default)]
+struct Clock {
+    memo: Memo,
+    zone: ZoneCache,
+    /// The memo's hour folded for [`Declared::one_pass`] ([`Quick`]): set
+    /// after each time that `memo` and `zone` did not read.
+    quick: Quick,
+}
+
+impl Clock {
+    /// The time field at the start of `rest` for [`Declared::one_pass`]: by
+    /// `quick` (the memo's hour), else by the memo and the zone's span, else
+    /// parsed whole (and `quick` set again); its length. `None`: a time the
+    /// general way reads (or refuses).
+    #[inline(always)]
+    fn field(&mut self, table: &Table, rest: &[u8], delim: u8) -> Option<(Timestamp, usize)> {
+        if let Some(read) = self.quick.read(rest, delim) {
+            return Some(read);
         }
-    };
-    Some((t, n))
+        let n = field_len(rest, delim);
+        let text = &rest[..n];
+        let (memo, zone) = (&mut self.memo, &mut self.zone);
+        let t = match table.time.parse_memo(text, memo, zone) {
+            Some(t) => t,
+            None => {
+                let t = table.time.parse_with(text, memo, zone).ok();
+                self.quick = table.time.quick(memo, zone, delim);
+                t?
+            }
+        };
+        Some((t, n))
+    }
 }
 
 /// The plan's channel bits for [`Declared::one_pass_straight`]: `Some` when
@@ -1846,9 +1848,7 @@ impl Declared {
             names,
             spans: Vec::with_capacity(64),
             tbuf: Vec::with_capacity(64),
-            memo: Memo::default(),
-            zone: ZoneCache::default(),
-            quick: Quick::default(),
+            clock: Clock::default(),
             plan,
             converted,
             straight,
@@ -1958,14 +1958,7 @@ impl Declared {
             let rest = buf.get(p..)?;
             match *step {
                 Step::Time => {
-                    let (t, n) = time_field(
-                        table,
-                        &mut self.quick,
-                        &mut self.memo,
-                        &mut self.zone,
-                        rest,
-                        delim,
-                    )?;
+                    let (t, n) = self.clock.field(table, rest, delim)?;
                     time = Some(t);
                     p += n;
                 }
@@ -2036,14 +2029,7 @@ impl Declared {
             }
         }
         let rest = buf.get(start..)?;
-        let (t, n) = time_field(
-            table,
-            &mut self.quick,
-            &mut self.memo,
-            &mut self.zone,
-            rest,
-            delim,
-        )?;
+        let (t, n) = self.clock.field(table, rest, delim)?;
         let mut p = start + n;
         for (c, r) in readings.iter_mut().enumerate() {
             if buf.get(p) != Some(&delim) {
@@ -2113,7 +2099,10 @@ impl Declared {
             }
             &self.tbuf
         };
-        let t = match table.time.parse_with(text, &mut self.memo, &mut self.zone) {
+        let t = match table
+            .time
+            .parse_with(text, &mut self.clock.memo, &mut self.clock.zone)
+        {
             Ok(t) => t,
             Err(e) => {
                 let i = self.time[0];
