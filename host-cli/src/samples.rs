@@ -1573,23 +1573,31 @@ fn is_code(field: &[u8], codes: &[Vec<u8>]) -> bool {
 }
 
 /// A reading `read` from the field at the start of `b` as the general way
-/// reads it with missing-value texts (`CODES`: `codes` is not empty): a
-/// field that is one of `codes` is missing, whether it reads as a number or
-/// not; `None` leaves the row to the general way.
+/// reads it with missing-value texts (`CODES`: `codes` is not empty, `lens`
+/// their [`code_lengths`]): a field that is one of `codes` is missing, whether
+/// it reads as a number or not; `None` leaves the row to the general way.
 #[inline(always)]
 fn coded<const CODES: bool>(
     read: Option<(Reading, usize)>,
     b: &[u8],
     delim: u8,
     codes: &[Vec<u8>],
+    lens: u64,
 ) -> Option<(Reading, usize)> {
     if !CODES {
         return read;
     }
     match read {
-        Some((r, n)) if !is_code(&b[..n], codes) => Some((r, n)),
+        // A field of no text's length is none of them: one test a field.
+        Some((r, n)) if lens >> n.min(63) & 1 == 0 || !is_code(&b[..n], codes) => Some((r, n)),
         _ => missing_code(b, delim, codes),
     }
+}
+
+/// The lengths of `codes` for [`coded`]: bit `k` set when one of them is `k`
+/// bytes long (bit 63: 63 bytes or more).
+fn code_lengths(codes: &[Vec<u8>]) -> u64 {
+    codes.iter().fold(0, |m, c| m | 1 << c.len().min(63))
 }
 
 /// A missing reading and its field's length when the field at the start of
@@ -1661,6 +1669,8 @@ pub struct Declared {
     /// (bit `c` set for channel `c` read as counts): read by
     /// [`Declared::one_pass_straight`], a loop per width.
     straight: Option<u64>,
+    /// The lengths of the missing-value texts ([`code_lengths`]).
+    code_lens: u64,
 }
 
 /// The last row's time and the zone's span, to read the next faster.
@@ -1852,6 +1862,7 @@ impl Declared {
             plan,
             converted,
             straight,
+            code_lens: code_lengths(&cfg.table.missing),
         })
     }
 
@@ -1878,37 +1889,40 @@ impl Declared {
         // A layout with missing-value texts compares each field with them:
         // a loop of its own, so that the others' stays as short.
         let comma = self.table.decimal_comma;
-        if !self.table.missing.is_empty() || !self.converted.is_empty() {
-            let sep = if comma { b',' } else { b'.' };
-            let row = match (self.table.missing.is_empty(), delim, comma) {
-                (true, ..) => self.one_pass_in::<false>(buf, start, readings, delim, sep),
-                (false, b';', true) => self.one_pass_in::<true>(buf, start, readings, b';', b','),
-                (false, b',', false) => self.one_pass_in::<true>(buf, start, readings, b',', b'.'),
-                (false, ..) => self.one_pass_in::<true>(buf, start, readings, delim, sep),
-            };
-            // Values in another unit than their channel's, converted as the
-            // general way converts them.
-            if row.is_some() {
-                for &(c, conv) in &self.converted {
-                    if let Some(Reading::Value(x)) = readings.get_mut(c) {
-                        *x = conv.apply(*x);
-                    }
-                }
-            }
-            return row;
-        }
+        let sep = if comma { b',' } else { b'.' };
+        let codes = !self.table.missing.is_empty();
         if let Some(counts) = self.straight {
-            let row = match (delim, comma) {
-                (b';', true) => self.straight_in(buf, start, readings, counts, b';', b','),
-                (b',', false) => self.straight_in(buf, start, readings, counts, b',', b'.'),
-                (d, comma) => {
-                    let sep = if comma { b',' } else { b'.' };
-                    self.straight_in(buf, start, readings, counts, d, sep)
+            let row = match (codes, delim, comma) {
+                (false, b';', true) => {
+                    self.straight_in::<false>(buf, start, readings, counts, b';', b',')
                 }
+                (false, b',', false) => {
+                    self.straight_in::<false>(buf, start, readings, counts, b',', b'.')
+                }
+                (false, ..) => self.straight_in::<false>(buf, start, readings, counts, delim, sep),
+                (true, b';', true) => {
+                    self.straight_in::<true>(buf, start, readings, counts, b';', b',')
+                }
+                (true, ..) => self.straight_in::<true>(buf, start, readings, counts, delim, sep),
             };
             if let Some(row) = row {
+                if row.is_some() {
+                    self.convert(readings);
+                }
                 return row;
             }
+        }
+        if codes || !self.converted.is_empty() {
+            let row = match (codes, delim, comma) {
+                (false, ..) => self.one_pass_in::<false>(buf, start, readings, delim, sep),
+                (true, b';', true) => self.one_pass_in::<true>(buf, start, readings, b';', b','),
+                (true, b',', false) => self.one_pass_in::<true>(buf, start, readings, b',', b'.'),
+                (true, ..) => self.one_pass_in::<true>(buf, start, readings, delim, sep),
+            };
+            if row.is_some() {
+                self.convert(readings);
+            }
+            return row;
         }
         match (delim, comma) {
             (b';', true) => self.one_pass_in::<false>(buf, start, readings, b';', b','),
@@ -1916,9 +1930,17 @@ impl Declared {
             (b';', false) => self.one_pass_in::<false>(buf, start, readings, b';', b'.'),
             (b'\t', false) => self.one_pass_in::<false>(buf, start, readings, b'\t', b'.'),
             (b'\t', true) => self.one_pass_in::<false>(buf, start, readings, b'\t', b','),
-            (d, comma) => {
-                let sep = if comma { b',' } else { b'.' };
-                self.one_pass_in::<false>(buf, start, readings, d, sep)
+            _ => self.one_pass_in::<false>(buf, start, readings, delim, sep),
+        }
+    }
+
+    /// Values in another unit than their channel's, converted as the general
+    /// way converts them (after a row is read in one pass).
+    #[inline(always)]
+    fn convert(&self, readings: &mut [Reading]) {
+        for &(c, conv) in &self.converted {
+            if let Some(Reading::Value(x)) = readings.get_mut(c) {
+                *x = conv.apply(*x);
             }
         }
     }
@@ -1937,7 +1959,7 @@ impl Declared {
     ) -> Option<(Timestamp, usize)> {
         let plan = self.plan.as_deref()?;
         let table = &*self.table;
-        let codes = &table.missing[..];
+        let (codes, lens) = (&table.missing[..], self.code_lens);
         if let Some(c) = &table.comment {
             // A row that may be a comment (or starts with spaces) is read by
             // the general way.
@@ -1964,13 +1986,13 @@ impl Declared {
                 }
                 Step::Value(c) => {
                     let read = plain_f64_nan(rest, sep, delim);
-                    let (v, n) = coded::<CODES>(read, rest, delim, codes)?;
+                    let (v, n) = coded::<CODES>(read, rest, delim, codes, lens)?;
                     *readings.get_mut(c)? = v;
                     p += n;
                 }
                 Step::Counts(c) => {
                     let read = plain_i32_nan(rest, delim);
-                    let (k, n) = coded::<CODES>(read, rest, delim, codes)?;
+                    let (k, n) = coded::<CODES>(read, rest, delim, codes, lens)?;
                     *readings.get_mut(c)? = k;
                     p += n;
                 }
@@ -1988,10 +2010,11 @@ impl Declared {
     }
 
     /// [`Declared::one_pass`] of a straight plan ([`Declared::straight`]):
-    /// `Some(row)` as [`Declared::one_pass_in`] reads it, `None` when
-    /// `readings` is not as wide as the plan.
+    /// `Some(row)` as [`Declared::one_pass_in`] reads it (`CODES`: the table
+    /// has missing-value texts), `None` when `readings` is not as wide as the
+    /// plan.
     #[inline(always)]
-    fn straight_in(
+    fn straight_in<const CODES: bool>(
         &mut self,
         buf: &[u8],
         start: usize,
@@ -2003,16 +2026,15 @@ impl Declared {
         let n = self.chan.len();
         by_width!(n, N => {
             let slot = readings.first_chunk_mut::<N>()?;
-            self.one_pass_straight::<N>(buf, start, slot, counts, delim, sep)
+            self.one_pass_straight::<N, CODES>(buf, start, slot, counts, delim, sep)
         })
     }
 
-    /// [`Declared::one_pass_in`] (without missing-value texts) of a row
-    /// whose fields are the time and then the `N` channels in order: the
-    /// field loop unrolled, no plan read, as [`Parser::parse_straight`]
-    /// reads the own CSV. The same result.
+    /// [`Declared::one_pass_in`] of a row whose fields are the time and then
+    /// the `N` channels in order: the field loop unrolled, no plan read, as
+    /// [`Parser::parse_straight`] reads the own CSV. The same result.
     #[inline(always)]
-    fn one_pass_straight<const N: usize>(
+    fn one_pass_straight<const N: usize, const CODES: bool>(
         &mut self,
         buf: &[u8],
         start: usize,
@@ -2022,6 +2044,7 @@ impl Declared {
         sep: u8,
     ) -> Option<(Timestamp, usize)> {
         let table = &*self.table;
+        let (codes, lens) = (&table.missing[..], self.code_lens);
         if let Some(c) = &table.comment {
             let first = *buf.get(start)?;
             if c.first().is_none_or(|&c0| c0 == first) || first.is_ascii_whitespace() {
@@ -2037,11 +2060,12 @@ impl Declared {
             }
             p += 1;
             let rest = buf.get(p..)?;
-            let (v, n) = if counts >> c & 1 == 0 {
-                plain_f64_nan(rest, sep, delim)?
+            let read = if counts >> c & 1 == 0 {
+                plain_f64_nan(rest, sep, delim)
             } else {
-                plain_i32_nan(rest, delim)?
+                plain_i32_nan(rest, delim)
             };
+            let (v, n) = coded::<CODES>(read, rest, delim, codes, lens)?;
             *r = v;
             p += n;
         }
@@ -3096,7 +3120,8 @@ mod tests {
         let p = Parser::new(Path::new("x"), 1, other.into_iter(), &declared).unwrap();
         assert_eq!(p.declared.as_ref().and_then(|d| d.straight), None);
         fill_agrees(&declared, straight, None);
-        // With missing-value texts, compared in the one pass.
+        // With missing-value texts, compared in the one pass (by the plan and
+        // by `one_pass_straight`).
         let toml = toml.replace(
             "decimal = \",\"\n",
             "decimal = \",\"\nmissing = [\"NAN\", \"-99,9\"]\n",
@@ -3104,6 +3129,9 @@ mod tests {
         let coded = crate::config::parse(Path::new("s.toml"), &toml).unwrap();
         assert_eq!(coded.table.missing.len(), 2);
         fill_agrees(&coded, [b"Zeit", b"T", b"WG", b"R"], None);
+        let p = Parser::new(Path::new("x"), 1, straight.into_iter(), &coded).unwrap();
+        assert_eq!(p.declared.as_ref().and_then(|d| d.straight), Some(0b10));
+        fill_agrees(&coded, straight, None);
     }
 
     /// A station of three channels: `a` (a speed, hundredths), `d` (a
@@ -3654,17 +3682,21 @@ mod tests {
     /// another case, `NaN` in any case and sign, spaces and empty fields:
     /// wherever the one pass reads a row, the same time and readings, bit for
     /// bit; the texts and `NaN` are read in the one pass. Then with the speed
-    /// in km/h (converted as read), with and without the texts.
+    /// in km/h (converted as read), with and without the texts. Each with the
+    /// columns out of order (the column plan) and in order (the time first:
+    /// `one_pass_straight`).
     #[test]
     fn declared_rows_with_missing_texts_in_one_pass_agree_with_the_general_way() {
         let codes = "missing = [\"NAN\", \"-99,9\", \"x\"]\n";
         let kmh = "source_unit = \"km/h\"\n";
-        declared_texts_agree(codes, "");
-        declared_texts_agree(codes, kmh);
-        declared_texts_agree("", kmh);
+        for straight in [false, true] {
+            declared_texts_agree(codes, "", straight);
+            declared_texts_agree(codes, kmh, straight);
+            declared_texts_agree("", kmh, straight);
+        }
     }
 
-    fn declared_texts_agree(codes: &str, unit: &str) {
+    fn declared_texts_agree(codes: &str, unit: &str, straight: bool) {
         let toml = format!(
             "[logging]\nsample_rate_hz = 1\n\n[input]\ndelimiter = \";\"\n\
             decimal = \",\"\n{codes}\n[input.time]\n\
@@ -3674,10 +3706,21 @@ mod tests {
         );
         let cfg = crate::config::parse(Path::new("s.toml"), &toml).unwrap();
         assert_eq!(cfg.table.sources[0].convert.is_some(), !unit.is_empty());
-        let header: [&[u8]; 3] = [b"R", b"Zeit", b"WG"];
+        // `row(r, time, a)`: the row of the layout.
+        let header: [&[u8]; 3] = if straight {
+            [b"Zeit", b"WG", b"R"]
+        } else {
+            [b"R", b"Zeit", b"WG"]
+        };
+        let row = |r: &str, t: &str, a: &str| match straight {
+            true => format!("{t};{a};{r}"),
+            false => format!("{r};{t};{a}"),
+        };
         let mut one = Parser::new(Path::new("x"), 1, header.into_iter(), &cfg).unwrap();
         let mut general = one.clone();
         assert!(one.fills_rows(), "read in one pass");
+        let d = one.declared.as_deref().unwrap();
+        assert_eq!(d.straight.is_some(), straight);
         let fields: [&str; 22] = [
             "NAN", "-99,9", "x", "NAN;", "NANx", "nan", "NaN", "-NaN", "+nan", "-99,90", "-99,9 ",
             " x", "xx", "X", "-99", "", "12", "3,75", "-0,5", "NA", "n", "2500",
@@ -3697,8 +3740,8 @@ mod tests {
                 i / 60 % 60,
                 i % 60
             );
-            let row = format!("{r};{time};{a}");
-            let buf = [row.as_bytes(), b"\n20.01.2025 00:00:00;1;2\n"].concat();
+            let next = row("1", "20.01.2025 00:00:00", "2") + "\n";
+            let buf = [row(r, &time, a).as_bytes(), b"\n", next.as_bytes()].concat();
             if let Some(r1) = declared_row_agrees(&mut one, &mut general, &buf, &mut delims) {
                 agreed += 1;
                 missing += r1.iter().filter(|v| **v == Reading::Missing).count();
@@ -3718,7 +3761,7 @@ mod tests {
         // one pass reads `-99` and stops at the comma.)
         let d = one.declared.as_deref_mut().unwrap();
         for (r, a) in [("x", "NAN"), ("NAN", "x"), ("x", "-99,9")] {
-            let row = format!("{r};20.01.2025 00:00:01;{a}\n");
+            let row = row(r, "20.01.2025 00:00:01", a) + "\n";
             let mut got = [Reading::Value(1.0); 2];
             assert!(d.one_pass(row.as_bytes(), 0, &mut got).is_some(), "{row:?}");
             assert_eq!(got, [Reading::Missing; 2], "{row:?}");
