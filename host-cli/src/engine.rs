@@ -214,20 +214,38 @@ impl<const C: usize> Engine for Fixed<'_, C> {
     }
 
     fn push_run(&mut self, times: &[Timestamp], columns: &[Vec<Reading>], from: usize) -> usize {
-        // With a sensor history each sample is classified by the entry in
-        // force at its time: those rows go one by one through `push`.
-        if self.epochs.is_some() {
-            return 0;
+        let Fixed {
+            station,
+            epochs,
+            cursor,
+            n,
+            pad,
+            ..
+        } = self;
+        // With a sensor history, the run is classified by the entry in force
+        // at its first time, and ends where the next entry comes into force.
+        let (entry, times) = match epochs {
+            None => (None, times),
+            Some(epochs) => {
+                let Some((entry, m)) = epochs.run(times, cursor) else {
+                    return 0;
+                };
+                (Some(entry), times.get(..m).unwrap_or_default())
+            }
+        };
+        if pad.len() < times.len() {
+            pad.resize(times.len(), Reading::Missing);
         }
-        if self.pad.len() < times.len() {
-            self.pad.resize(times.len(), Reading::Missing);
-        }
-        let pad = &self.pad[..];
+        let pad = &pad[..];
         let cols: [&[Reading]; C] = std::array::from_fn(|c| match columns.get(c) {
-            Some(col) if c < self.n => col.get(from..).unwrap_or_default(),
+            Some(col) if c < *n => col.get(from..).unwrap_or_default(),
             _ => pad,
         });
-        self.station.push_run(times, &cols)
+        match entry {
+            None => station.push_run(times, &cols),
+            // Another frame: the rows go one by one, and `push` says why.
+            Some(entry) => station.push_run_with(entry, times, &cols).unwrap_or(0),
+        }
     }
 
     fn close(&mut self) -> Result<()> {

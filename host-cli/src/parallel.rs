@@ -350,7 +350,19 @@ impl<'a, const C: usize> Run<'a, C> {
                     Some(col) => col.get(i..).unwrap_or_default(),
                     None => pad,
                 });
-                let k = st.push_run(&b.times[i..i + m], &cols);
+                let times = &b.times[i..i + m];
+                let k = match &self.epochs {
+                    None => st.push_run(times, &cols),
+                    // With a sensor history: the entry in force, up to the
+                    // next (another frame: the rows go one by one).
+                    Some(ep) => match ep.run(times, &mut self.cursor) {
+                        Some((entry, m)) => {
+                            let times = times.get(..m).unwrap_or_default();
+                            st.push_run_with(entry, times, &cols).unwrap_or(0)
+                        }
+                        None => 0,
+                    },
+                };
                 if k > 0 {
                     self.last = Some(b.times[i + k - 1]);
                     i += k;
@@ -401,7 +413,7 @@ impl<'a, const C: usize> Run<'a, C> {
         let mut commas = Vec::with_capacity(64);
         // Plain rows go straight into the block, wherever rows go to the
         // block at all (as in the match below).
-        let fills = parser.fills_rows() && self.epochs.is_none();
+        let fills = parser.fills_rows();
         let mut rows = || -> Result<(), Halt> {
             loop {
                 let next = if fills && self.station.is_some() {
@@ -419,9 +431,7 @@ impl<'a, const C: usize> Run<'a, C> {
                     break;
                 };
                 match parsed {
-                    // The block path classifies with the station's own layout:
-                    // with a sensor history each row goes alone, with its entry.
-                    Ok(t) if self.station.is_some() && self.epochs.is_none() => {
+                    Ok(t) if self.station.is_some() => {
                         self.stats.rows += 1;
                         self.excl.apply(t, &mut self.readings);
                         self.block.add(t, ln, &self.readings);
@@ -865,8 +875,10 @@ fn read_file(
     turn: &mut Turn,
 ) -> Result<Option<DigestHandle>> {
     let closed = || anyhow!("closed");
-    // The digest on this thread, which has time to spare: the workers replay.
-    let hash = opts.digests.then_some(HashOn::Inline);
+    // The digest on a hash thread of its own, from the chunks themselves
+    // (shared, not copied): hashed on this thread, the reading held up the
+    // workers on two cores (host-cli/PERF.md, "A sensor history in runs").
+    let hash = opts.digests.then_some(HashOn::Helper);
     let mut reader = FileReader::open_hashed(path, cfg, hash)?.with_pool(turn.pool.clone());
     let digest = reader.digest();
     while let Some(piece) = reader.next_piece(opts.chunk_size)? {

@@ -154,12 +154,11 @@ pub struct FileDigest {
 /// Where a [`Hashing`] reader computes its SHA-256.
 #[derive(Clone, Copy, Debug, PartialEq, Eq)]
 pub enum HashOn {
-    /// On the reading thread, as each read returns (where that thread has
-    /// time to spare: the parallel replay's reader thread).
+    /// On the reading thread, as each read returns.
     Inline,
-    /// On a helper thread fed with copies of the bytes read, so that the
-    /// reading thread is not held up (the sequential replay: the second
-    /// core is idle).
+    /// On a helper thread fed with the bytes read (a plain file's chunks
+    /// shared, see [`crate::reader::FileReader::open_hashed`]), so that the
+    /// reading thread is not held up: both replays.
     Helper,
 }
 

@@ -587,6 +587,22 @@ impl<const C: usize> Epochs<C> {
         &self.layouts[*cursor]
     }
 
+    /// The layout in force at the first of `times` ([`Epochs::at`]) and how
+    /// many of them, from the first, lie before the next period starts: a run
+    /// that one layout classifies ([`qc_core::Station::push_run_with`]).
+    /// `None` for no times.
+    pub fn run(&self, times: &[Timestamp], cursor: &mut usize) -> Option<(&Layout<C>, usize)> {
+        let layout = self.at(*times.first()?, cursor);
+        let n = match self.starts.get(*cursor + 1) {
+            None => times.len(),
+            Some(&next) => times
+                .iter()
+                .position(|t| t.millis() >= next)
+                .unwrap_or(times.len()),
+        };
+        Some((layout, n))
+    }
+
     /// The fingerprint (over the station's real channels) of the layout in
     /// force at `t`: what a logger holding that entry stamps in its frames.
     pub fn fingerprint_at(&self, t: Timestamp) -> u32 {

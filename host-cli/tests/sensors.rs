@@ -137,10 +137,18 @@ fn close(a: f64, b: f64, rel: f64) -> bool {
     (a - b).abs() <= rel * b.abs().max(1.0)
 }
 
+/// With one replaying thread and with two (each runs of rows classified by
+/// the entry in force, split where the next comes into force).
 #[test]
 fn rescaled_statistics_match_numpy() {
+    for jobs in ["1", "2"] {
+        rescaled_statistics_match_numpy_with(jobs);
+    }
+}
+
+fn rescaled_statistics_match_numpy_with(jobs: &str) {
     let r = rows(&ok(&[
-        "replay", "-q", "-c", STATION, SAMPLES[0], SAMPLES[1],
+        "replay", "-q", "-j", jobs, "-c", STATION, SAMPLES[0], SAMPLES[1],
     ]));
     let (h, body) = r.split_first().unwrap();
     let ws: Vec<&Vec<String>> = body.iter().filter(|r| r[2] == "ws80a").collect();

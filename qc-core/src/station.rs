@@ -1476,6 +1476,34 @@ impl<const C: usize, const G: usize, L: Borrow<Layout<C>>> Sampler<C, G, L> {
     /// [`Sampler::push`], which opens intervals, ends gaps and rejects, and
     /// the next run starts after it. Nothing is emitted.
     pub fn push_run(&mut self, times: &[Timestamp], columns: &[&[Reading]; C]) -> usize {
+        self.run(None, times, columns)
+    }
+
+    /// [`Sampler::push_run`] with the readings classified by `entry`, the
+    /// configuration in force at every time of the run: the same state as
+    /// [`Sampler::push_with`] of each sample with `entry` (the caller ends
+    /// the run where another entry comes into force). An entry of another
+    /// frame is handed back ([`OtherFrame`]) and nothing is pushed.
+    pub fn push_run_with(
+        &mut self,
+        entry: &Layout<C>,
+        times: &[Timestamp],
+        columns: &[&[Reading]; C],
+    ) -> Result<usize, OtherFrame> {
+        if entry.frame != self.layout.borrow().frame {
+            return Err(OtherFrame);
+        }
+        Ok(self.run(Some(entry), times, columns))
+    }
+
+    /// [`Sampler::push_run`], the readings classified by `entry` or (`None`)
+    /// the sampler's own layout; the time rules are the sampler's.
+    fn run(
+        &mut self,
+        entry: Option<&Layout<C>>,
+        times: &[Timestamp],
+        columns: &[&[Reading]; C],
+    ) -> usize {
         if !self.live || self.open.last == NONE_MS {
             return 0;
         }
@@ -1508,7 +1536,8 @@ impl<const C: usize, const G: usize, L: Borrow<Layout<C>>> Sampler<C, G, L> {
             n += 1;
         }
         if n > 0 {
-            self.open.push_run(layout, n, prev, columns);
+            self.open
+                .push_run(entry.unwrap_or(layout), n, prev, columns);
             self.last = prev;
             self.totals.accepted += n as u64;
         }
@@ -1812,6 +1841,19 @@ impl<const C: usize, const G: usize, L: Borrow<Layout<C>>> Station<C, G, L> {
     /// ([`Sampler::push_run`]): the same state as [`Station::push`] of each.
     pub fn push_run(&mut self, times: &[Timestamp], columns: &[&[Reading]; C]) -> usize {
         self.sampler.push_run(times, columns)
+    }
+
+    /// [`Station::push_run`] with the readings classified by `entry`, the
+    /// configuration in force over the whole run
+    /// ([`Sampler::push_run_with`]): the same state as
+    /// [`Station::push_with`] of each sample with `entry`.
+    pub fn push_run_with(
+        &mut self,
+        entry: &Layout<C>,
+        times: &[Timestamp],
+        columns: &[&[Reading]; C],
+    ) -> Result<usize, OtherFrame> {
+        self.sampler.push_run_with(entry, times, columns)
     }
 
     /// Closes the open interval, if any, and hands it to `emit` (end of data).
@@ -2592,14 +2634,19 @@ mod run_tests {
     /// re-calibrated channels (values and counts), a vane read as values with
     /// a mounting offset and linked to a speed of step 0.3.
     fn layout_values() -> Layout<C> {
-        let mut cfg = StationConfig::ten_minute_1hz();
-        cfg.missing_values = [Some(-999.0), Some(0.5), Some(7.0), None];
         let recal = Recal {
             logger_slope: 0.765,
             logger_offset: 0.35,
             cert_slope: 0.7581,
             cert_offset: 0.2214,
         };
+        values_layout(recal, -7.25)
+    }
+
+    /// [`layout_values`] with `recal` and the first vane's mounting `offset`.
+    fn values_layout(recal: Recal, offset: f64) -> Layout<C> {
+        let mut cfg = StationConfig::ten_minute_1hz();
+        cfg.missing_values = [Some(-999.0), Some(0.5), Some(7.0), None];
         Layout::new::<G>(
             cfg,
             &[
@@ -2608,7 +2655,7 @@ mod run_tests {
                     .with_gust_window(2)
                     .with_recalibration(recal),
                 ChannelConfig::direction()
-                    .with_mounting_offset(-7.25)
+                    .with_mounting_offset(offset)
                     .with_speed_channel(0),
                 ChannelConfig::scalar(0.25)
                     .with_calibration(0.25, 0.1)
@@ -2873,36 +2920,64 @@ mod run_tests {
 
     #[test]
     fn runs_pushed_by_column_equal_samples_pushed_one_by_one() {
-        same_by_block_and_by_sample(layout(), reading, 11, 700, 100);
+        same_by_block_and_by_sample(layout(), None, reading, 11, 700, 100);
     }
 
     #[test]
     fn values_classified_in_the_block_equal_samples_pushed_one_by_one() {
-        same_by_block_and_by_sample(layout_values(), reading_values, 12, 700, 100);
+        same_by_block_and_by_sample(layout_values(), None, reading_values, 12, 700, 100);
+    }
+
+    /// The values of [`layout_values`] pushed with another entry of its frame
+    /// (other re-calibrations and mounting offsets: a sensor history's next
+    /// period), one by one ([`Station::push_with`]) and as runs
+    /// ([`Station::push_run_with`]); and that the entry is what classified
+    /// them (the records differ from the station's own layout's).
+    #[test]
+    fn runs_with_an_entry_equal_samples_pushed_one_by_one_with_it() {
+        let entry = values_layout(
+            Recal {
+                logger_slope: 0.765,
+                logger_offset: 0.35,
+                cert_slope: 0.7702,
+                cert_offset: 0.1875,
+            },
+            3.5,
+        );
+        let own = layout_values();
+        assert_eq!(entry.frame(), own.frame());
+        let with = same_by_block_and_by_sample(own, Some(&entry), reading_values, 15, 700, 100);
+        let without = same_by_block_and_by_sample(own, None, reading_values, 15, 700, 100);
+        assert_eq!(with.len(), without.len());
+        let differ = with.iter().zip(&without).filter(|(a, b)| a != b).count();
+        assert!(differ > with.len() / 2, "{differ} of {}", with.len());
     }
 
     #[test]
     fn steady_stretches_by_column_equal_samples_pushed_one_by_one() {
-        same_by_block_and_by_sample(layout_steady(), reading_steady, 13, 700, 100);
+        same_by_block_and_by_sample(layout_steady(), None, reading_steady, 13, 700, 100);
     }
 
     #[test]
     fn linked_speeds_classified_once_equal_samples_pushed_one_by_one() {
-        same_by_block_and_by_sample(layout_links(), reading_links, 14, 1_600, 4_000);
+        same_by_block_and_by_sample(layout_links(), None, reading_links, 14, 1_600, 4_000);
     }
 
     /// Random rounds of `reading`s of `layout`, pushed one by one and as
-    /// blocks of up to `longest` rows split anywhere: the same interval states,
-    /// records, gaps, totals and recovery. Five in `calm` time steps are not
-    /// the next second (a duplicate, a step back, a gap, a jump over
-    /// intervals, a quarter second).
+    /// blocks of up to `longest` rows split anywhere (classified by `entry`
+    /// when given: `push_with` and `push_run_with`): the same interval
+    /// states, records, gaps, totals and recovery. Five in `calm` time steps
+    /// are not the next second (a duplicate, a step back, a gap, a jump over
+    /// intervals, a quarter second). Returns the records, as text.
     fn same_by_block_and_by_sample(
         layout: Layout<C>,
+        entry: Option<&Layout<C>>,
         reading: fn(&mut Rng, usize) -> Reading,
         seed: u64,
         longest: u64,
         calm: u64,
-    ) {
+    ) -> Vec<String> {
+        let mut records = Vec::new();
         let mut rng = Rng(seed);
         for round in 0..40 {
             // Times: mostly 1 s steps, with gaps, duplicates, backward steps,
@@ -2929,7 +3004,10 @@ mod run_tests {
             let mut one: Station<C, G> = Station::new(layout);
             let mut a: Out = (Vec::new(), Vec::new());
             for (i, t) in times.iter().enumerate() {
-                one.push(*t, &row(i), keep(&mut a));
+                match entry {
+                    None => one.push(*t, &row(i), keep(&mut a)),
+                    Some(e) => one.push_with(e, *t, &row(i), keep(&mut a)).unwrap(),
+                };
             }
 
             let mut block: Station<C, G> = Station::new(layout);
@@ -2941,11 +3019,17 @@ mod run_tests {
                 let end = (i + 1 + (rng.next() % longest) as usize).min(n);
                 while i < end {
                     let cols_at: [&[Reading]; C] = core::array::from_fn(|c| &cols[c][i..end]);
-                    let k = block.push_run(&times[i..end], &cols_at);
+                    let k = match entry {
+                        None => block.push_run(&times[i..end], &cols_at),
+                        Some(e) => block.push_run_with(e, &times[i..end], &cols_at).unwrap(),
+                    };
                     runs += usize::from(k > 0);
                     i += k;
                     if i < end {
-                        block.push(times[i], &row(i), keep(&mut b));
+                        match entry {
+                            None => block.push(times[i], &row(i), keep(&mut b)),
+                            Some(e) => block.push_with(e, times[i], &row(i), keep(&mut b)).unwrap(),
+                        };
                         i += 1;
                     }
                 }
@@ -2962,10 +3046,12 @@ mod run_tests {
                 for (x, y) in ra.iter().zip(rb) {
                     assert!(same(x, y), "round {round}: {x:?} != {y:?}");
                 }
+                records.push(format!("{ra:?}"));
             }
             let rec = |s: &Station<C, G>| format!("{:?}", s.recovery());
             assert_eq!(rec(&one), rec(&block), "round {round}");
         }
+        records
     }
 }
 
