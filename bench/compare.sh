@@ -21,6 +21,9 @@
 #   own1s base1s  own1 and base1 with the records to stdout (no -o, so no
 #           provenance file; stdout goes to /dev/null by redirection)
 #   layout1 working tree, --jobs 1, declared layout
+#   layoutm1 the same with a missing-value text in its [input]
+#   camp1 camp2  working tree, --jobs 1 and 2, the demo station with its
+#           [campaign] files (sensor history, exclusions, events), own CSV
 #   zst1    working tree, --jobs 1, .zst of the own CSV
 #   pandas  bench/pandas_reference.py (one thread)
 #   polars1 polars2 duckdb1 duckdb2   bench/polars_reference.py and
@@ -88,6 +91,12 @@ FD="$DIR/field-${DAYS}d"
 mkdir -p "$FD"
 [ -s "$FD/field.csv" ] || python3 bench/field_layout.py "$STATION" "$S" "$FD"
 [ -s "$S.zst" ] || zstd -q -f -k "$S" -o "$S.zst"
+# The declared layout with a missing-value text (no field holds it): each
+# field is compared with it.
+sed 's/^decimal = ","$/decimal = ","\nmissing = ["NAN"]/' "$FD/field.toml" >"$FD/field-m.toml"
+# The demo station with its [campaign] files (sensor history with a swap,
+# exclusions, events): what a campaign replays.
+CAMP="$DIR/demo-${DAYS}d/station.toml"
 
 if [ "$SKIP_PEERS" != 1 ]; then
     VPY="$DIR/venv/bin/python"
@@ -110,7 +119,10 @@ CMD[own1s]="$BIN replay -q -j 1 -c $STATION $S"
 CMD[own2]="$BIN replay -q -j 2 -c $STATION $S -o $DIR/r-own2.csv"
 CMD[layout1]="$BIN replay -q -j 1 -c $FD/field.toml $FD/field.csv -o $DIR/r-layout1.csv"
 CMD[zst1]="$BIN replay -q -j 1 -c $STATION $S.zst -o $DIR/r-zst1.csv"
-names="own1 own1s own2 layout1 zst1"
+CMD[layoutm1]="$BIN replay -q -j 1 -c $FD/field-m.toml $FD/field.csv -o $DIR/r-layoutm1.csv"
+CMD[camp1]="$BIN replay -q -j 1 -c $CAMP $S -o $DIR/r-camp1.csv"
+CMD[camp2]="$BIN replay -q -j 2 -c $CAMP $S -o $DIR/r-camp2.csv"
+names="own1 own1s own2 layout1 zst1 layoutm1 camp1 camp2"
 if [ "$SKIP_BASE" != 1 ]; then
     # Never `-o /dev/null` for the baseline: it replaces its -o target by rename.
     CMD[base1]="$BASE_BIN replay -q -j 1 -c $STATION $S -o $DIR/r-base1.csv"
@@ -129,7 +141,7 @@ fi
 echo
 echo "## checks"
 ${CMD[own1]}
-for k in own2 layout1 zst1 base1; do
+for k in own2 layout1 zst1 layoutm1 base1; do
     [ -n "${CMD[$k]:-}" ] || continue
     ${CMD[$k]}
     if cmp -s "$DIR/r-own1.csv" "$DIR/r-$k.csv"; then
@@ -138,6 +150,13 @@ for k in own2 layout1 zst1 base1; do
         echo "$k: records differ from own1's (expected of a baseline whose records lack later columns, e.g. f5873be has no n_flagged, n_excluded, sensor_entries; or one from before dc49c38, whose f64 statistics differ in the last bits; host-cli/PERF.md)"
     fi
 done
+${CMD[camp1]}
+${CMD[camp2]}
+if cmp -s "$DIR/r-camp1.csv" "$DIR/r-camp2.csv"; then
+    echo "camp2: records identical to camp1's"
+else
+    echo "camp2: records DIFFER from camp1's"
+fi
 if [ "$SKIP_PEERS" != 1 ]; then
     "$VPY" bench/pandas_reference.py "$STATION" "$S" --check "$DIR/r-own1.csv" 2>&1 | sed 's/^/  /'
     for p in polars duckdb; do
@@ -203,6 +222,9 @@ show("own CSV: -o FILE (provenance) / to stdout, time", lambda x: x["own1"] / x[
 show("declared layout / own CSV, time per input byte (goal <= 1.3)",
      lambda x: (x["layout1"] / lay_b) / (x["own1"] / own_b))
 show(".zst / own CSV, time (goal <= 1.5)", lambda x: x["zst1"] / x["own1"])
+show("declared layout with a missing-value text / without, time", lambda x: x["layoutm1"] / x["layout1"])
+show("campaign station / plain station, time, --jobs 1", lambda x: x["camp1"] / x["own1"])
+show("campaign station / plain station, time, --jobs 2", lambda x: x["camp2"] / x["own2"])
 show("pandas / tenmin --jobs 1 (goal >= 20)", lambda x: x["pandas"] / x["own1"])
 show("polars 1 thread / tenmin --jobs 1 (goal >= 12)", lambda x: x["polars1"] / x["own1"])
 show("duckdb 1 thread / tenmin --jobs 1 (goal >= 12)", lambda x: x["duckdb1"] / x["own1"])
