@@ -92,7 +92,8 @@ pub fn csv_long_record(e: &csv::Error, path: &Path, line: u64) -> Option<anyhow:
 /// It also hands every `\r\n` on as `\n`: the `csv` crate ends a record at the
 /// `\r` and starts the next at the `\n`, before it counts that line, so the
 /// line numbers of its records would lag one behind after CRLF line ends (`\r`
-/// and `\n` end records either way; a lone `\r` is kept).
+/// and `\n` end records either way; a lone `\r` is kept, and ends a line as
+/// a `\n` does: [`crate::reader::count_line_ends`]).
 #[derive(Debug)]
 pub struct Capped<R> {
     inner: R,
@@ -105,9 +106,9 @@ pub struct Capped<R> {
     until: u64,
     /// Bytes handed on so far.
     out: u64,
-    /// The line ends handed on at or after `kept` (offset, whether a `\n`),
-    /// and the `\n`s before `kept`.
-    ends: VecDeque<(u64, bool)>,
+    /// The offsets of the line ends handed on at or after `kept`, and the
+    /// line ends before `kept`.
+    ends: VecDeque<u64>,
     kept: u64,
     lines_before: u64,
 }
@@ -134,11 +135,11 @@ impl<R> Capped<R> {
     /// crate says it starts (before the blank lines it skipped). Forgets the
     /// line ends before `start`: call it for records in order.
     pub fn line_at(&mut self, start: u64) -> u64 {
-        while let Some(&(at, nl)) = self.ends.front() {
+        while let Some(&at) = self.ends.front() {
             if at >= start {
                 break;
             }
-            self.lines_before += u64::from(nl);
+            self.lines_before += 1;
             self.ends.pop_front();
         }
         self.kept = start;
@@ -146,8 +147,7 @@ impl<R> Capped<R> {
         // `csv` crate skipped before the record.
         let blank = (start..)
             .zip(&self.ends)
-            .take_while(|(next, (at, _))| at == next)
-            .filter(|(_, (_, nl))| *nl)
+            .take_while(|(next, at)| *at == next)
             .count();
         self.lines_before + 1 + blank as u64
     }
@@ -203,7 +203,9 @@ impl<R: Read> Read for Capped<R> {
                 continue;
             }
             if c == b'\n' || c == b'\r' {
-                self.ends.push_back((self.out, c == b'\n'));
+                // Each ends a line: the `\r` of a `\r\n` was left out above,
+                // so this `\r` is an old Mac line end.
+                self.ends.push_back(self.out);
             }
             out[w] = c;
             w += 1;
@@ -297,8 +299,8 @@ mod tests {
 
     #[test]
     fn csv_records_keep_their_lines_after_crlf_and_blank_lines() {
-        // Lines as a text editor counts them (a `\n` ends a line; a lone `\r`
-        // ends a record but not a line, as the block reader counts).
+        // Lines as a text editor counts them (a `\n`, a `\r\n` and a lone
+        // `\r` each end a line), as the block reader counts.
         let text = b"h,1\r\na,\"2\"\r\n\r\nb,3\rc,4\r\n\nd,5\r";
         // One byte at a time too, so that a `\r` at the end of a read is held.
         for step in [1usize, 2, 3, 1 << 20] {
@@ -317,7 +319,7 @@ mod tests {
             while let Some(line) = read_csv(&mut rdr, &mut rec).unwrap() {
                 got.push((String::from_utf8_lossy(&rec[0]).into_owned(), line));
             }
-            let want: Vec<(String, u64)> = [("h", 1), ("a", 2), ("b", 4), ("c", 4), ("d", 6)]
+            let want: Vec<(String, u64)> = [("h", 1), ("a", 2), ("b", 4), ("c", 5), ("d", 7)]
                 .iter()
                 .map(|(s, l)| ((*s).to_string(), *l))
                 .collect();

@@ -217,7 +217,7 @@ type Cut = io::Result<Option<(u64, Chunk, Scan)>>;
 /// host-cli/PERF.md, "Scans on the cutting thread").
 #[derive(Clone, Copy, Debug)]
 struct Scan {
-    /// Its `\n` bytes ([`count_newlines`]).
+    /// Its line ends ([`count_line_ends`]).
     newlines: u64,
     /// Whether it holds a `"` (then the `csv` crate reads on from it).
     quote: bool,
@@ -226,7 +226,7 @@ struct Scan {
 impl Scan {
     fn of(b: &[u8]) -> Scan {
         Scan {
-            newlines: count_newlines(b),
+            newlines: count_line_ends(b),
             quote: memchr::memchr(b'"', b).is_some(),
         }
     }
@@ -371,7 +371,16 @@ impl Cutter {
                     Err(e) => return Err(e),
                 }
             }
-            if let Some(p) = memchr::memrchr2(b'\n', b'\r', &buf[..filled]) {
+            // A chunk ends after its last line end; not after a `\r` whose
+            // next byte is not read yet (a `\n` there makes the two one line
+            // end, and a chunk's lines are counted alone: `count_line_ends`).
+            let last = match memchr::memrchr2(b'\n', b'\r', &buf[..filled]) {
+                Some(p) if buf[p] == b'\r' && p + 1 == filled && !self.eof => {
+                    memchr::memrchr2(b'\n', b'\r', &buf[..p])
+                }
+                last => last,
+            };
+            if let Some(p) = last {
                 self.carry.extend_from_slice(&buf[p + 1..filled]);
                 filled = p + 1;
             } else if !self.eof {
@@ -553,7 +562,7 @@ impl<'a> FileReader<'a> {
                             let body = Chunk::from(block[pos..].to_vec());
                             first_row_time(self.path, self.cfg, p, &body, at)?;
                             self.parser = Some(Arc::new(p.clone()));
-                            let newlines = count_newlines(&body);
+                            let newlines = count_line_ends(&body);
                             (body, at, newlines)
                         }
                         _ => {
@@ -809,6 +818,20 @@ impl Head {
         self.parser = Some(Parser::new(path, line, std::iter::empty(), cfg)?);
         Ok(true)
     }
+}
+
+/// The line ends in `b`, as a text editor counts them: each `\n`, and each
+/// `\r` not followed by a `\n` (an old Mac line end; a `\r` at the end of `b`
+/// is one). `\r\n` is one line end, its `\n`.
+pub fn count_line_ends(b: &[u8]) -> u64 {
+    let n = count_newlines(b);
+    if memchr::memchr(b'\r', b).is_none() {
+        return n;
+    }
+    let lone = memchr::memchr_iter(b'\r', b)
+        .filter(|&i| b.get(i + 1) != Some(&b'\n'))
+        .count();
+    n + lone as u64
 }
 
 /// The `\n` bytes in `b`, 64 at a time (a shape the compiler vectorizes).
@@ -1073,5 +1096,25 @@ mod tests {
             assert_eq!(count_newlines(&b), want, "{len}");
         }
         assert_eq!(count_newlines(&[b'\n'; 64]), 64);
+    }
+
+    #[test]
+    fn line_ends_counted_as_an_editor_counts_them() {
+        for (text, want) in [
+            (&b""[..], 0),
+            (b"a\nb\n", 2),
+            (b"a\r\nb\r\n", 2),
+            (b"a\rb\r", 2),
+            (b"a\r\r\nb", 2),
+            (b"\r\n\r\r\n\n\r", 5),
+            (b"a\rb\r\nc\n\nd", 4),
+        ] {
+            assert_eq!(
+                count_line_ends(text),
+                want,
+                "{:?}",
+                String::from_utf8_lossy(text)
+            );
+        }
     }
 }

@@ -840,6 +840,20 @@ pub fn csv_rows<E: From<anyhow::Error>>(
     }
 }
 
+/// Whether the byte at `at` of `buf` ends a line, as a text editor counts
+/// them: a `\n`, or a `\r` not followed by a `\n` (an old Mac line end; the
+/// `\r` of a `\r\n` does not, its `\n` does). A `\r` at the end of `buf`
+/// is one: a chunk never ends between a `\r` and its `\n`
+/// ([`crate::reader::count_line_ends`], the same rule).
+#[inline(always)]
+fn ends_line(buf: &[u8], at: usize) -> bool {
+    match buf.get(at) {
+        Some(b'\n') => true,
+        Some(b'\r') => buf.get(at + 1) != Some(&b'\n'),
+        _ => false,
+    }
+}
+
 /// The records of a block of text without quotes: split at `\n` and `\r`,
 /// blank ones skipped, each with the line it starts on.
 pub struct Records<'a> {
@@ -928,14 +942,8 @@ impl<'a> Records<'a> {
     #[inline(always)]
     fn end_row(&mut self, end: usize) -> u64 {
         let line = self.line;
-        match self.buf.get(end) {
-            Some(b'\n') => {
-                self.line += 1;
-                self.pos = end + 1;
-            }
-            Some(_) => self.pos = end + 1,
-            None => self.pos = end,
-        }
+        self.line += u64::from(ends_line(self.buf, end));
+        self.pos = end + usize::from(end < self.buf.len());
         line
     }
 
@@ -1007,7 +1015,7 @@ impl<'a> Records<'a> {
                     return None;
                 }
                 Some(b'\n') => self.line += 1,
-                Some(b'\r') => {}
+                Some(b'\r') => self.line += u64::from(ends_line(self.buf, i)),
                 Some(_) => return Some(i),
             }
             i += 1;
@@ -1027,9 +1035,7 @@ impl<'a> Records<'a> {
         };
         find_commas(rec, commas);
         let line = self.line;
-        if term == Some(b'\n') {
-            self.line += 1;
-        }
+        self.line += u64::from(ends_line(buf, start + rec.len()));
         self.pos = start + rec.len() + usize::from(term.is_some());
         Some((line, rec))
     }
@@ -1088,9 +1094,7 @@ impl<'a> Records<'a> {
         let rec = &rest[..end];
         let term = rest.get(end).copied();
         let line = self.line;
-        if term == Some(b'\n') {
-            self.line += 1;
-        }
+        self.line += u64::from(ends_line(buf, start + end));
         self.pos = start + end + usize::from(term.is_some());
         Some((line, rec))
     }
@@ -1109,10 +1113,8 @@ impl<'a> Records<'a> {
                 None => (rest, None),
             };
             let line = self.line;
+            self.line += u64::from(ends_line(self.buf, self.pos + rec.len()));
             self.pos += rec.len() + usize::from(term.is_some());
-            if term == Some(b'\n') {
-                self.line += 1;
-            }
             if !rec.is_empty() {
                 return Some((line, rec));
             }
@@ -3281,10 +3283,9 @@ mod tests {
             assert_eq!(by_fill.len(), other.len());
         }
         // Lines counted by hand: row 0 on line 2, a blank line and the
-        // comment after it (line 4), row 9 (an `x`) on line 2 + 9 + 2 - 2:
-        // the lone CR ending rows 1 and 8 ends a row, not a line, as the
-        // reader counts lines.
-        for line in ["line 4: ", "line 11: "] {
+        // comment after it (line 4), row 9 (an `x`) on line 2 + 9 + 2: the
+        // lone CRs ending rows 1 and 8 end lines, as a text editor counts.
+        for line in ["line 4: ", "line 13: "] {
             assert!(by_fill.iter().any(|e| e.starts_with(line)), "{line}");
         }
         // Every row but those the one-pass readers leave was filled in, those
@@ -3894,10 +3895,11 @@ mod tests {
             while let Some((line, rec)) = recs.next() {
                 assert!(line >= last_line);
                 last_line = line;
-                // The line is the one the record starts on.
-                let before = text[..rec.as_ptr() as usize - text.as_ptr() as usize]
-                    .iter()
-                    .filter(|b| **b == b'\n')
+                // The line is the one the record starts on: after each `\n`
+                // and each `\r` that no `\n` follows.
+                let at = rec.as_ptr() as usize - text.as_ptr() as usize;
+                let before = (0..at)
+                    .filter(|&i| text[i] == b'\n' || (text[i] == b'\r' && text[i + 1] != b'\n'))
                     .count();
                 assert_eq!(line, before as u64 + 1);
                 got.push(split_fields(rec).map(<[u8]>::to_vec).collect::<Vec<_>>());

@@ -432,6 +432,37 @@ fn a_row_past_the_first_pieces_is_named_by_its_line() {
     std::fs::write(d.join("long.csv"), &joined).unwrap();
     let out = same_as_sequential(d, &["-c", "station.toml", "long.csv"]);
     refused(&out, &["long.csv:25002:", "to 2027-01-20T00:00:00Z"]);
+    // The same lines ended by `\r\n`, by a lone `\r` (old Mac), by the
+    // three in turn, and with the header quoted (the `csv` crate reads the
+    // file then): each line end is one line, wherever the pieces are cut
+    // (between a `\r` and its `\n` too).
+    let lines: Vec<&[u8]> = joined
+        .split(|b| *b == b'\n')
+        .filter(|l| !l.is_empty())
+        .collect();
+    assert_eq!(lines.len(), 25_002);
+    let ends: [&[&[u8]]; 3] = [&[b"\r\n"], &[b"\r"], &[b"\n", b"\r\n", b"\r"]];
+    for (k, end) in ends.iter().enumerate() {
+        for quoted in [false, true] {
+            let mut text = Vec::new();
+            for (i, l) in lines.iter().enumerate() {
+                if i == 0 && quoted {
+                    text.extend_from_slice(b"\"time\"");
+                    text.extend_from_slice(&l[4..]);
+                } else {
+                    text.extend_from_slice(l);
+                }
+                text.extend_from_slice(end[i % end.len()]);
+            }
+            let name = format!("long-{k}-{quoted}.csv");
+            std::fs::write(d.join(&name), &text).unwrap();
+            let out = same_as_sequential(d, &["-c", "station.toml", &name]);
+            refused(
+                &out,
+                &[&format!("{name}:25002:"), "to 2027-01-20T00:00:00Z"],
+            );
+        }
+    }
 }
 
 #[test]
