@@ -214,37 +214,18 @@ impl<const C: usize> Engine for Fixed<'_, C> {
     }
 
     fn push_run(&mut self, times: &[Timestamp], columns: &[Vec<Reading>], from: usize) -> usize {
-        let Fixed {
-            station,
-            epochs,
-            cursor,
-            n,
-            pad,
-            ..
-        } = self;
-        // With a sensor history, the run is classified by the entry in force
-        // at its first time, and ends where the next entry comes into force.
-        let (entry, times) = match epochs {
-            None => (None, times),
-            Some(epochs) => {
-                let Some((entry, m)) = epochs.run(times, cursor) else {
-                    return 0;
-                };
-                (Some(entry), times.get(..m).unwrap_or_default())
-            }
-        };
-        if pad.len() < times.len() {
-            pad.resize(times.len(), Reading::Missing);
+        if self.pad.len() < times.len() {
+            self.pad.resize(times.len(), Reading::Missing);
         }
-        let pad = &pad[..];
+        let pad = &self.pad[..];
         let cols: [&[Reading]; C] = std::array::from_fn(|c| match columns.get(c) {
-            Some(col) if c < *n => col.get(from..).unwrap_or_default(),
+            Some(col) if c < self.n => col.get(from..).unwrap_or_default(),
             _ => pad,
         });
-        match entry {
-            None => station.push_run(times, &cols),
-            // Another frame: the rows go one by one, and `push` says why.
-            Some(entry) => station.push_run_with(entry, times, &cols).unwrap_or(0),
+        match &self.epochs {
+            None => self.station.push_run(times, &cols),
+            // With a sensor history: the entry in force, up to the next.
+            Some(ep) => ep.push_run(&mut self.station, &mut self.cursor, times, &cols),
         }
     }
 

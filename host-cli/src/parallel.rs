@@ -353,15 +353,8 @@ impl<'a, const C: usize> Run<'a, C> {
                 let times = &b.times[i..i + m];
                 let k = match &self.epochs {
                     None => st.push_run(times, &cols),
-                    // With a sensor history: the entry in force, up to the
-                    // next (another frame: the rows go one by one).
-                    Some(ep) => match ep.run(times, &mut self.cursor) {
-                        Some((entry, m)) => {
-                            let times = times.get(..m).unwrap_or_default();
-                            st.push_run_with(entry, times, &cols).unwrap_or(0)
-                        }
-                        None => 0,
-                    },
+                    // With a sensor history: the entry in force, up to the next.
+                    Some(ep) => ep.push_run(st, &mut self.cursor, times, &cols),
                 };
                 if k > 0 {
                     self.last = Some(b.times[i + k - 1]);

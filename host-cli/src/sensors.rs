@@ -39,7 +39,7 @@ use std::ops::Range;
 use std::path::{Path, PathBuf};
 
 use anyhow::{anyhow, bail, Result};
-use qc_core::{ChannelConfig, Flag, Kind, Layout, Recal, Timestamp};
+use qc_core::{ChannelConfig, Flag, Kind, Layout, Reading, Recal, Station, Timestamp};
 use serde::Deserialize;
 use toml::Spanned;
 
@@ -601,6 +601,27 @@ impl<const C: usize> Epochs<C> {
                 .unwrap_or(times.len()),
         };
         Some((layout, n))
+    }
+
+    /// Pushes the run `times` (`columns`) into `station` as
+    /// [`qc_core::Station::push_run`] does, its readings classified by the
+    /// entry in force at its first time, up to where the next one comes into
+    /// force ([`Epochs::run`]); returns how many it took. An entry of another
+    /// frame takes none: the rows then go one by one, and `push_with` says why.
+    pub fn push_run<const G: usize>(
+        &self,
+        station: &mut Station<C, G>,
+        cursor: &mut usize,
+        times: &[Timestamp],
+        columns: &[&[Reading]; C],
+    ) -> usize {
+        match self.run(times, cursor) {
+            Some((entry, n)) => {
+                let times = times.get(..n).unwrap_or_default();
+                station.push_run_with(entry, times, columns).unwrap_or(0)
+            }
+            None => 0,
+        }
     }
 
     /// The fingerprint (over the station's real channels) of the layout in
