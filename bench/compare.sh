@@ -25,6 +25,7 @@
 #   camp1 camp2  working tree, --jobs 1 and 2, the demo station with its
 #           [campaign] files (sensor history, exclusions, events), own CSV
 #   zst1    working tree, --jobs 1, .zst of the own CSV
+#   gz1     the same, .gz (gzip -6)
 #   pandas  bench/pandas_reference.py (one thread)
 #   polars1 polars2 duckdb1 duckdb2   bench/polars_reference.py and
 #           bench/duckdb_reference.py with 1 and 2 threads
@@ -91,6 +92,7 @@ FD="$DIR/field-${DAYS}d"
 mkdir -p "$FD"
 [ -s "$FD/field.csv" ] || python3 bench/field_layout.py "$STATION" "$S" "$FD"
 [ -s "$S.zst" ] || zstd -q -f -k "$S" -o "$S.zst"
+[ -s "$S.gz" ] || gzip -c -6 "$S" >"$S.gz"
 # The declared layout with a missing-value text (no field holds it): each
 # field is compared with it.
 sed 's/^decimal = ","$/decimal = ","\nmissing = ["NAN"]/' "$FD/field.toml" >"$FD/field-m.toml"
@@ -119,10 +121,11 @@ CMD[own1s]="$BIN replay -q -j 1 -c $STATION $S"
 CMD[own2]="$BIN replay -q -j 2 -c $STATION $S -o $DIR/r-own2.csv"
 CMD[layout1]="$BIN replay -q -j 1 -c $FD/field.toml $FD/field.csv -o $DIR/r-layout1.csv"
 CMD[zst1]="$BIN replay -q -j 1 -c $STATION $S.zst -o $DIR/r-zst1.csv"
+CMD[gz1]="$BIN replay -q -j 1 -c $STATION $S.gz -o $DIR/r-gz1.csv"
 CMD[layoutm1]="$BIN replay -q -j 1 -c $FD/field-m.toml $FD/field.csv -o $DIR/r-layoutm1.csv"
 CMD[camp1]="$BIN replay -q -j 1 -c $CAMP $S -o $DIR/r-camp1.csv"
 CMD[camp2]="$BIN replay -q -j 2 -c $CAMP $S -o $DIR/r-camp2.csv"
-names="own1 own1s own2 layout1 zst1 layoutm1 camp1 camp2"
+names="own1 own1s own2 layout1 zst1 gz1 layoutm1 camp1 camp2"
 if [ "$SKIP_BASE" != 1 ]; then
     # Never `-o /dev/null` for the baseline: it replaces its -o target by rename.
     CMD[base1]="$BASE_BIN replay -q -j 1 -c $STATION $S -o $DIR/r-base1.csv"
@@ -141,7 +144,7 @@ fi
 echo
 echo "## checks"
 ${CMD[own1]}
-for k in own2 layout1 zst1 layoutm1 base1; do
+for k in own2 layout1 zst1 gz1 layoutm1 base1; do
     [ -n "${CMD[$k]:-}" ] || continue
     ${CMD[$k]}
     if cmp -s "$DIR/r-own1.csv" "$DIR/r-$k.csv"; then
@@ -222,6 +225,7 @@ show("own CSV: -o FILE (provenance) / to stdout, time", lambda x: x["own1"] / x[
 show("declared layout / own CSV, time per input byte (goal <= 1.3)",
      lambda x: (x["layout1"] / lay_b) / (x["own1"] / own_b))
 show(".zst / own CSV, time (goal <= 1.5)", lambda x: x["zst1"] / x["own1"])
+show(".gz / own CSV, time", lambda x: x["gz1"] / x["own1"])
 show("declared layout with a missing-value text / without, time", lambda x: x["layoutm1"] / x["layout1"])
 show("campaign station / plain station, time, --jobs 1", lambda x: x["camp1"] / x["own1"])
 show("campaign station / plain station, time, --jobs 2", lambda x: x["camp2"] / x["own2"])
