@@ -128,8 +128,13 @@ pub fn all_columnar(files: &[PathBuf]) -> Result<bool> {
 
 // ---------------------------------------------------------------- records
 
-/// Rows per record batch written.
+/// Rows per record batch written (and read).
 const BATCH_ROWS: usize = 8192;
+
+/// Batches of a samples file decoded ahead of the replay and waiting for it
+/// ([`Columnar::file`]): with the one being decoded and the one replayed, at
+/// most four batches of [`BATCH_ROWS`] rows in memory.
+const AHEAD_BATCHES: usize = 2;
 
 /// The records' Arrow schema ([`records::COLUMNS`] typed).
 pub fn records_schema() -> SchemaRef {
@@ -402,7 +407,7 @@ impl Sink for RecordsOut<'_> {
 }
 
 /// The record batches of a columnar file, with its schema.
-fn open_batches(path: &Path) -> Result<Box<dyn RecordBatchReader>> {
+fn open_batches(path: &Path) -> Result<Box<dyn RecordBatchReader + Send>> {
     let at = || format!("{}: cannot read", path.display());
     let mut f = File::open(path).with_context(at)?;
     Ok(match Format::of_path(path) {
@@ -730,15 +735,41 @@ fn reading_at(col: &dyn Array, i: usize, decode: Decode) -> Result<Reading, Stri
         DataType::Float16 => return Err("float16 is not read; store float32 or float64".into()),
         _ => {
             let n = int_at(col, i).ok_or_else(|| "not a number".to_string())?;
-            return match decode {
-                Decode::Counts => i32::try_from(n)
-                    .map(Reading::Counts)
-                    .map_err(|_| format!("{n} is out of the range of raw counts (32-bit)")),
-                Decode::Value => Ok(Reading::Value(n as f64)),
-            };
+            return from_int(n, decode);
         }
     };
     from_f64(v, decode)
+}
+
+/// A time written as text, read through `cache` as [`time_at`] reads it.
+#[inline]
+fn text_time(cache: &mut samples::TimeCache, s: &str) -> Result<Timestamp, String> {
+    cache
+        .parse(s.as_bytes())
+        .map_err(|e| format!("{e}, found {s:?}"))
+}
+
+/// The reading an integer `n` of an integer column gives.
+#[inline]
+fn from_int(n: i128, decode: Decode) -> Result<Reading, String> {
+    match decode {
+        Decode::Counts => i32::try_from(n)
+            .map(Reading::Counts)
+            .map_err(|_| format!("{n} is out of the range of raw counts (32-bit)")),
+        Decode::Value => Ok(Reading::Value(n as f64)),
+    }
+}
+
+/// [`from_int`] of an `int64` cell.
+#[inline]
+fn from_i64(n: i64, decode: Decode) -> Result<Reading, String> {
+    match decode {
+        Decode::Counts => match i32::try_from(n) {
+            Ok(k) => Ok(Reading::Counts(k)),
+            Err(_) => from_int(n.into(), decode),
+        },
+        Decode::Value => Ok(Reading::Value(n as f64)),
+    }
 }
 
 /// The reading a number `v` of a float column gives.
@@ -771,13 +802,14 @@ pub fn for_each_row(
     mut f: impl FnMut(Timestamp, &[Reading]) -> Result<()>,
 ) -> Result<()> {
     let mut readings = vec![Reading::Missing; cfg.channels.len()];
+    let mut cache = samples::TimeCache::default();
     let mut row = 0u64;
     for batch in batches {
         let tcol = Cells::of(batch.column(time).as_ref());
         let ccols = cells(batch, chans);
         for i in 0..batch.num_rows() {
             row += 1;
-            let t = row_at(cfg, tcol, &ccols, i, &mut readings)
+            let t = row_at(cfg, (tcol, &mut cache), &ccols, i, &mut readings)
                 .map_err(|(c, _, m)| anyhow!("{}: row {row} (column {c}): {m}", name.display()))?;
             f(t, &readings)?;
         }
@@ -790,7 +822,11 @@ pub fn for_each_row(
 #[derive(Clone, Copy)]
 enum Cells<'a> {
     F64(&'a arrow_array::Float64Array),
+    I64(&'a arrow_array::Int64Array),
     Ms(&'a arrow_array::TimestampMillisecondArray),
+    Text(&'a arrow_array::StringArray),
+    LargeText(&'a arrow_array::LargeStringArray),
+    TextView(&'a arrow_array::StringViewArray),
     Other(&'a dyn Array),
 }
 
@@ -798,7 +834,11 @@ impl<'a> Cells<'a> {
     fn of(col: &'a dyn Array) -> Self {
         match col.data_type() {
             DataType::Float64 => Cells::F64(col.as_primitive()),
+            DataType::Int64 => Cells::I64(col.as_primitive()),
             DataType::Timestamp(TimeUnit::Millisecond, _) => Cells::Ms(col.as_primitive()),
+            DataType::Utf8 => Cells::Text(col.as_string()),
+            DataType::LargeUtf8 => Cells::LargeText(col.as_string()),
+            DataType::Utf8View => Cells::TextView(col.as_string_view()),
             _ => Cells::Other(col),
         }
     }
@@ -806,7 +846,11 @@ impl<'a> Cells<'a> {
     fn array(self) -> &'a dyn Array {
         match self {
             Cells::F64(a) => a,
+            Cells::I64(a) => a,
             Cells::Ms(a) => a,
+            Cells::Text(a) => a,
+            Cells::LargeText(a) => a,
+            Cells::TextView(a) => a,
             Cells::Other(a) => a,
         }
     }
@@ -821,10 +865,12 @@ fn cells<'a>(batch: &'a RecordBatch, chans: &[usize]) -> Vec<Cells<'a>> {
 }
 
 /// Reads row `i` into `readings` (station-file order); returns its time.
+/// Times as text go through `cache` (the last RFC 3339 hour, as the text
+/// reader's [`samples::TimeCache`]: the same times as [`time_at`]).
 #[inline]
 fn row_at(
     cfg: &StationFile,
-    tcol: Cells<'_>,
+    (tcol, cache): (Cells<'_>, &mut samples::TimeCache),
     ccols: &[Cells<'_>],
     i: usize,
     readings: &mut [Reading],
@@ -838,6 +884,9 @@ fn row_at(
                 time_at(a, i)
             }
         }
+        Cells::Text(a) if !a.is_null(i) => text_time(cache, a.value(i)),
+        Cells::LargeText(a) if !a.is_null(i) => text_time(cache, a.value(i)),
+        Cells::TextView(a) if !a.is_null(i) => text_time(cache, a.value(i)),
         c => time_at(c.array(), i),
     }
     .map_err(|m| ("time".to_string(), samples::BadKind::Time, m))?;
@@ -845,6 +894,8 @@ fn row_at(
         let r = match *col {
             Cells::F64(a) if a.is_null(i) => Ok(Reading::Missing),
             Cells::F64(a) => from_f64(a.value(i), spec.decode),
+            Cells::I64(a) if a.is_null(i) => Ok(Reading::Missing),
+            Cells::I64(a) => from_i64(a.value(i), spec.decode),
             c => reading_at(c.array(), i, spec.decode),
         };
         readings[c] = r.map_err(|m| (spec.id.clone(), samples::BadKind::Value, m))?;
@@ -926,10 +977,27 @@ pub fn feed_batches(
 }
 
 impl Columnar<'_> {
+    /// Replays a file's batches, decoded (and decompressed) on a read-ahead
+    /// thread while this one replays the batch before: the same batches in
+    /// the same order, at most [`AHEAD_BATCHES`] waiting.
     fn file(&mut self, path: &Path) -> Result<()> {
         let reader = open_batches(path)?;
         let plan = plan(path, &reader.schema(), self.cfg)?;
-        self.batches(path, plan, reader)
+        std::thread::scope(|s| {
+            let (tx, rx) = std::sync::mpsc::sync_channel(AHEAD_BATCHES);
+            std::thread::Builder::new()
+                .name("tenmin-batches".into())
+                .spawn_scoped(s, move || {
+                    for batch in reader {
+                        // Replaying stopped (an error): no more batches.
+                        if tx.send(batch).is_err() {
+                            return;
+                        }
+                    }
+                })
+                .with_context(|| format!("{}: cannot start the reading thread", path.display()))?;
+            self.batches(path, plan, rx.into_iter())
+        })
     }
 
     fn batches(
@@ -939,6 +1007,7 @@ impl Columnar<'_> {
         batches: impl Iterator<Item = Result<RecordBatch, arrow_schema::ArrowError>>,
     ) -> Result<()> {
         let mut row = 0u64;
+        let mut cache = samples::TimeCache::default();
         for batch in batches {
             let batch = batch.map_err(|e| anyhow!("{}: after row {row}: {e}", path.display()))?;
             let tcol = Cells::of(batch.column(time).as_ref());
@@ -946,7 +1015,7 @@ impl Columnar<'_> {
             for i in 0..batch.num_rows() {
                 row += 1;
                 self.stats.rows += 1;
-                match row_at(self.cfg, tcol, &ccols, i, &mut self.readings) {
+                match row_at(self.cfg, (tcol, &mut cache), &ccols, i, &mut self.readings) {
                     Ok(t) => {
                         if self.strict_order {
                             if self.prev_row.is_some_and(|p| t <= p) {
@@ -1169,13 +1238,14 @@ pub fn check_samples(path: &Path, cfg: &StationFile, written: &Written) -> Resul
     let mut h = Sha256::new();
     let mut rows = 0u64;
     let mut readings = vec![Reading::Missing; cfg.channels.len()];
+    let mut cache = samples::TimeCache::default();
     for batch in reader {
         let batch = batch.map_err(|e| anyhow!("{}: {e}", path.display()))?;
         let ccols = cells(&batch, &chans);
         let tcol = Cells::of(batch.column(time).as_ref());
         for i in 0..batch.num_rows() {
             rows += 1;
-            let t = row_at(cfg, tcol, &ccols, i, &mut readings)
+            let t = row_at(cfg, (tcol, &mut cache), &ccols, i, &mut readings)
                 .map_err(|(c, _, m)| anyhow!("{}: row {rows} (column {c}): {m}", path.display()))?;
             hash_sample(&mut h, t, &readings);
         }
@@ -1334,6 +1404,81 @@ mod tests {
             assert_eq!(replay_csv(&cfg, &cols, 1), csv, "{ext}");
             assert_eq!(replay_csv(&cfg, &cols, 2), csv, "{ext}");
         }
+    }
+
+    /// Samples as an analyst's tool writes them: the times as text (each
+    /// of Arrow's three string types), the values as `float64`, the raw
+    /// counts as `int64`, a missing reading as null; in Parquet and Arrow.
+    /// They replay to the records of the samples CSV they came from.
+    #[test]
+    fn samples_with_text_times_and_int64_counts_replay_as_their_csv() {
+        use arrow_array::builder::{LargeStringBuilder, StringViewBuilder};
+        let dir = tempfile::tempdir().unwrap();
+        let (cfg, files, _) = demo_day(dir.path());
+        let from_csv = replay_csv(&cfg, &files[..1], 1);
+        let text = std::fs::read_to_string(&files[0]).unwrap();
+        let mut lines = text.lines();
+        let header: Vec<&str> = lines.next().unwrap().split(',').collect();
+        let rows: Vec<Vec<&str>> = lines.map(|l| l.split(',').collect()).collect();
+        assert_eq!(header[0], "time");
+        let mut counts_seen = 0;
+        for kind in 0..3 {
+            let time: ArrayRef = match kind {
+                0 => Arc::new(arrow_array::StringArray::from_iter_values(
+                    rows.iter().map(|r| r[0]),
+                )),
+                1 => {
+                    let mut b = LargeStringBuilder::new();
+                    rows.iter().for_each(|r| b.append_value(r[0]));
+                    Arc::new(b.finish())
+                }
+                _ => {
+                    let mut b = StringViewBuilder::new();
+                    rows.iter().for_each(|r| b.append_value(r[0]));
+                    Arc::new(b.finish())
+                }
+            };
+            let mut fields = vec![Field::new("time", time.data_type().clone(), false)];
+            let mut columns = vec![time];
+            for (k, name) in header.iter().enumerate().skip(1) {
+                let spec = cfg.channels.iter().find(|c| c.id == *name).unwrap();
+                let cell = |r: &Vec<&str>| Some(r[k].to_string()).filter(|f| !f.is_empty());
+                let col: ArrayRef = match spec.decode {
+                    Decode::Counts => {
+                        counts_seen += 1;
+                        Arc::new(arrow_array::Int64Array::from_iter(
+                            rows.iter()
+                                .map(|r| cell(r).map(|f| f.parse::<i64>().unwrap())),
+                        ))
+                    }
+                    Decode::Value => Arc::new(arrow_array::Float64Array::from_iter(
+                        rows.iter()
+                            .map(|r| cell(r).map(|f| f.parse::<f64>().unwrap())),
+                    )),
+                };
+                fields.push(Field::new(*name, col.data_type().clone(), true));
+                columns.push(col);
+            }
+            let batch = RecordBatch::try_new(Arc::new(Schema::new(fields)), columns).unwrap();
+            let pq = dir.path().join(format!("t{kind}.parquet"));
+            write_parquet(&pq, &batch);
+            let ipc = dir.path().join(format!("t{kind}.arrow"));
+            let mut w = arrow_ipc::writer::FileWriter::try_new(
+                File::create(&ipc).unwrap(),
+                &batch.schema(),
+            )
+            .unwrap();
+            w.write(&batch).unwrap();
+            w.finish().unwrap();
+            for path in [pq, ipc] {
+                assert_eq!(
+                    replay_csv(&cfg, std::slice::from_ref(&path), 1),
+                    from_csv,
+                    "{path:?}"
+                );
+            }
+        }
+        assert!(counts_seen > 0, "the demo station has a raw-counts channel");
     }
 
     struct NoSink;
