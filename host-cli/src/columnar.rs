@@ -697,8 +697,14 @@ fn time_at(col: &dyn Array, i: usize) -> Result<Timestamp, String> {
                     .and_then(|n| to_ms(n, 1, 1000))
             }),
     }?;
+    in_span(ms)
+}
+
+/// The sample time `ms` milliseconds since 1970, if within the CSV's span of
+/// sample times (timefmt::parse_time).
+#[inline]
+fn in_span(ms: i64) -> Result<Timestamp, String> {
     let t = Timestamp::from_millis(ms);
-    // The CSV's span of sample times (timefmt::parse_time).
     if t >= SAMPLES_FROM && t < SAMPLES_END {
         Ok(t)
     } else {
@@ -824,6 +830,8 @@ enum Cells<'a> {
     F64(&'a arrow_array::Float64Array),
     I64(&'a arrow_array::Int64Array),
     Ms(&'a arrow_array::TimestampMillisecondArray),
+    Us(&'a arrow_array::TimestampMicrosecondArray),
+    Ns(&'a arrow_array::TimestampNanosecondArray),
     Text(&'a arrow_array::StringArray),
     LargeText(&'a arrow_array::LargeStringArray),
     TextView(&'a arrow_array::StringViewArray),
@@ -836,6 +844,8 @@ impl<'a> Cells<'a> {
             DataType::Float64 => Cells::F64(col.as_primitive()),
             DataType::Int64 => Cells::I64(col.as_primitive()),
             DataType::Timestamp(TimeUnit::Millisecond, _) => Cells::Ms(col.as_primitive()),
+            DataType::Timestamp(TimeUnit::Microsecond, _) => Cells::Us(col.as_primitive()),
+            DataType::Timestamp(TimeUnit::Nanosecond, _) => Cells::Ns(col.as_primitive()),
             DataType::Utf8 => Cells::Text(col.as_string()),
             DataType::LargeUtf8 => Cells::LargeText(col.as_string()),
             DataType::Utf8View => Cells::TextView(col.as_string_view()),
@@ -848,6 +858,8 @@ impl<'a> Cells<'a> {
             Cells::F64(a) => a,
             Cells::I64(a) => a,
             Cells::Ms(a) => a,
+            Cells::Us(a) => a,
+            Cells::Ns(a) => a,
             Cells::Text(a) => a,
             Cells::LargeText(a) => a,
             Cells::TextView(a) => a,
@@ -884,6 +896,9 @@ fn row_at(
                 time_at(a, i)
             }
         }
+        // pandas' and pyarrow's usual units.
+        Cells::Us(a) if !a.is_null(i) => to_ms(a.value(i), 1000, 1).and_then(in_span),
+        Cells::Ns(a) if !a.is_null(i) => to_ms(a.value(i), 1_000_000, 1).and_then(in_span),
         Cells::Text(a) if !a.is_null(i) => text_time(cache, a.value(i)),
         Cells::LargeText(a) if !a.is_null(i) => text_time(cache, a.value(i)),
         Cells::TextView(a) if !a.is_null(i) => text_time(cache, a.value(i)),
@@ -1407,7 +1422,8 @@ mod tests {
     }
 
     /// Samples as an analyst's tool writes them: the times as text (each
-    /// of Arrow's three string types), the values as `float64`, the raw
+    /// of Arrow's three string types) or as micro- and nanosecond timestamps
+    /// (pandas' unit, with and without a zone), the values as `float64`, the raw
     /// counts as `int64`, a missing reading as null; in Parquet and Arrow.
     /// They replay to the records of the samples CSV they came from.
     #[test]
@@ -1422,8 +1438,18 @@ mod tests {
         let rows: Vec<Vec<&str>> = lines.map(|l| l.split(',').collect()).collect();
         assert_eq!(header[0], "time");
         let mut counts_seen = 0;
-        for kind in 0..3 {
+        let ms = |r: &Vec<&str>| parse_time_any(r[0].as_bytes()).unwrap().millis();
+        for kind in 0..5 {
             let time: ArrayRef = match kind {
+                3 => Arc::new(arrow_array::TimestampMicrosecondArray::from_iter_values(
+                    rows.iter().map(|r| ms(r) * 1000),
+                )),
+                4 => Arc::new(
+                    arrow_array::TimestampNanosecondArray::from_iter_values(
+                        rows.iter().map(|r| ms(r) * 1_000_000),
+                    )
+                    .with_timezone("UTC"),
+                ),
                 0 => Arc::new(arrow_array::StringArray::from_iter_values(
                     rows.iter().map(|r| r[0]),
                 )),
