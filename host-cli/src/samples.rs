@@ -2349,29 +2349,35 @@ fn shown(b: &[u8]) -> String {
 
 /// Sample times with a cache of the last RFC 3339 date and hour.
 ///
-/// Consecutive samples share `YYYY-MM-DDTHH`; for a 20-byte
-/// `YYYY-MM-DDTHH:MM:SSZ` whose first 13 bytes equal the cached ones, the time
-/// is the cached hour plus minutes and seconds, exactly what
-/// [`parse_time`] computes (civil time is affine in minutes and seconds within
-/// an hour). Plain integer epoch seconds are read directly. Everything else
+/// Consecutive samples share `YYYY-MM-DDTHH` and their zone; for a
+/// `YYYY-MM-DDTHH:MM:SS[.fff]ZONE` whose first 13 bytes and zone (`Z` or
+/// `±HH:MM`) equal the cached ones, the time is the cached hour plus minutes,
+/// seconds and milliseconds, exactly what [`parse_time`] computes (civil time
+/// is affine in them within an hour, and the offset is fixed). Plain integer epoch seconds are read directly. Everything else
 /// goes to [`parse_time`].
 #[derive(Clone, Debug, Default)]
 pub struct TimeCache {
     prefix: [u8; 13],
-    /// Milliseconds of `prefix` at minute 0, second 0; `None` when empty.
+    /// What follows the seconds (and their fraction) in the cached hour's
+    /// times: `Z` (`zone_len` 1; `z` reads alike) or an offset `±HH:MM` (6).
+    zone: [u8; 6],
+    zone_len: u8,
+    /// Milliseconds of `prefix` in `zone` at minute 0, second 0; `None` when
+    /// empty.
     hour_ms: Option<i64>,
 }
 
 impl TimeCache {
     /// The time at the start of `b` if it is a cached RFC 3339 hour
-    /// (`YYYY-MM-DDTHH:MM:SSZ`) or integer epoch seconds, and its length; the
-    /// caller checks that a delimiter follows. `None` otherwise.
+    /// (`YYYY-MM-DDTHH:MM:SS`, a fraction of a second to the millisecond,
+    /// the cached zone) or integer epoch seconds, and its length; the caller
+    /// checks that a delimiter follows. `None` otherwise.
     #[inline]
     pub fn parse_plain(&self, b: &[u8]) -> Option<(Timestamp, usize)> {
         if let (Some(base), Some(f)) = (self.hour_ms, b.get(..20)) {
             if f[..13] == self.prefix {
-                let ms = minute_second_ms(f)?;
-                return Some((Timestamp::from_millis(base + ms), 20));
+                let (ms, n) = self.past_hour(b)?;
+                return Some((Timestamp::from_millis(base + ms), n));
             }
         }
         // At most 11 digits (year 5138), inside the supported span: longer
@@ -2386,13 +2392,76 @@ impl TimeCache {
         Some((Timestamp::from_millis(secs * 1000), n))
     }
 
+    /// The milliseconds past the cached hour of the time at the start of `b`
+    /// (its first 13 bytes are the cached ones) and the time's length:
+    /// `:MM:SSZ` at once; else `:MM:SS`, a fraction (digits past the third
+    /// all `0`) and the cached zone ([`TimeCache::past_hour_slow`]).
+    #[inline(always)]
+    fn past_hour(&self, b: &[u8]) -> Option<(i64, usize)> {
+        if self.zone_len == 1 {
+            if let Some(ms) = minute_second_ms(b) {
+                return Some((ms, 20));
+            }
+        }
+        self.past_hour_slow(b)
+    }
+
+    #[inline(never)]
+    fn past_hour_slow(&self, b: &[u8]) -> Option<(i64, usize)> {
+        let &[b':', m1, m2, b':', s1, s2] = b.get(13..19)? else {
+            return None;
+        };
+        let d = |c: u8| c.wrapping_sub(b'0');
+        let (m1, m2, s1, s2) = (d(m1), d(m2), d(s1), d(s2));
+        if !(m1 < 6 && m2 < 10 && s1 < 6 && s2 < 10) {
+            return None;
+        }
+        let mut ms = (i64::from(m1 * 10 + m2) * 60 + i64::from(s1 * 10 + s2)) * 1000;
+        let mut i = 19;
+        if b.get(i) == Some(&b'.') {
+            i += 1;
+            let from = i;
+            let mut frac = 0i64;
+            while let Some(&c) = b.get(i) {
+                let x = d(c);
+                if x >= 10 {
+                    break;
+                }
+                match i - from {
+                    0..=2 => frac = frac * 10 + i64::from(x),
+                    // Finer than a millisecond: `parse_time` refuses it.
+                    _ if x != 0 => return None,
+                    _ => {}
+                }
+                i += 1;
+            }
+            let k = i - from;
+            if k == 0 {
+                return None;
+            }
+            for _ in k.min(3)..3 {
+                frac *= 10;
+            }
+            ms += frac;
+        }
+        let zone = self.zone.get(..usize::from(self.zone_len))?;
+        let z = b.get(i..i + zone.len())?;
+        if z == zone || (zone == b"Z" && z == b"z") {
+            Some((ms, i + zone.len()))
+        } else {
+            None
+        }
+    }
+
     /// Parses one time field.
     #[inline]
     pub fn parse(&mut self, f: &[u8]) -> Result<Timestamp, TimeError> {
-        if let Some(base) = self.hour_ms {
-            if f.len() == 20 && f[..13] == self.prefix {
-                if let Some(ms) = minute_second_ms(f) {
-                    return Ok(Timestamp::from_millis(base + ms));
+        if let (Some(base), Some(p)) = (self.hour_ms, f.get(..13)) {
+            if *p == self.prefix {
+                if let Some((ms, n)) = self.past_hour(f) {
+                    if n == f.len() {
+                        return Ok(Timestamp::from_millis(base + ms));
+                    }
                 }
             }
         }
@@ -2401,10 +2470,30 @@ impl TimeCache {
             return Ok(Timestamp::from_millis(secs * 1000));
         }
         let t = parse_time(f)?;
-        if f.len() == 20 {
-            if let Some(ms) = minute_second_ms(f) {
-                self.prefix.copy_from_slice(&f[..13]);
-                self.hour_ms = Some(t.millis() - ms);
+        // The hour of an RFC 3339 time, for the times after it: its zone is
+        // what follows the seconds and their fraction.
+        if let (Some(p), Some(at)) = (f.get(..13), f.get(19..)) {
+            let frac = match at.first() {
+                Some(b'.') => 1 + at[1..].iter().take_while(|c| c.is_ascii_digit()).count(),
+                _ => 0,
+            };
+            let zone = &at[frac..];
+            if matches!(zone.len(), 1 | 6) {
+                let mut next = TimeCache {
+                    zone_len: zone.len() as u8,
+                    ..TimeCache::default()
+                };
+                next.prefix.copy_from_slice(p);
+                next.zone[..zone.len()].copy_from_slice(zone);
+                if zone == b"z" {
+                    next.zone[0] = b'Z';
+                }
+                if let Some((ms, n)) = next.past_hour_slow(f) {
+                    if n == f.len() {
+                        next.hour_ms = Some(t.millis() - ms);
+                        *self = next;
+                    }
+                }
             }
         }
         Ok(t)
@@ -3866,6 +3955,45 @@ mod tests {
                 assert_eq!(cache.parse(s.as_bytes()), parse_time(s.as_bytes()), "{s}");
             }
         }
+        // Random runs of times in a few hours, each in one of the zones and
+        // fractions a logger or a dataframe writes (`Z`, `z`, offsets, none
+        // to six digits, some finer than a millisecond), read by the cache
+        // (`parse`, and `parse_plain` before a delimiter) in the order given:
+        // wherever it reads one, the time `parse_time` gives.
+        let zones = ["Z", "z", "+01:00", "-03:30", "+00:00", "+01:0", "Z "];
+        let fracs = [
+            "", ".5", ".25", ".125", ".000000", ".120000", ".1234", ".", ".0001",
+        ];
+        let mut x = 9u64;
+        let mut rnd = |n: u64| {
+            x = x.wrapping_mul(6_364_136_223_846_793_005).wrapping_add(1);
+            (x >> 33) % n
+        };
+        let mut cache = TimeCache::default();
+        let mut fast = 0;
+        let (mut h, mut sep, mut zone) = (0, 'T', "Z");
+        for _ in 0..20_000 {
+            // The hour, the separator and the zone change now and then.
+            match rnd(24) {
+                0 => h = rnd(3),
+                1 => sep = if sep == 'T' { ' ' } else { 'T' },
+                2 => zone = zones[rnd(zones.len() as u64) as usize],
+                _ => {}
+            }
+            let (m, sec) = (rnd(61), rnd(61));
+            let frac = fracs[rnd(fracs.len() as u64) as usize];
+            let s = format!("2025-01-20{sep}{h:02}:{m:02}:{sec:02}{frac}{zone}");
+            let want = parse_time(s.as_bytes());
+            let field = format!("{s},1");
+            if let Some((t, n)) = cache.parse_plain(field.as_bytes()) {
+                if n == s.len() {
+                    assert_eq!(Ok(t), want, "{s}");
+                    fast += 1;
+                }
+            }
+            assert_eq!(cache.parse(s.as_bytes()), want, "{s}");
+        }
+        assert!(fast > 2_000, "{fast}");
     }
 
     /// The record splitter against the `csv` crate (the reference for the
