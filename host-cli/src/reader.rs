@@ -205,6 +205,9 @@ struct Cutter {
     /// a helper: the chunks are the file's bytes in order, shared, not
     /// copied); `None` once the end was handed on, or after an error.
     ring: Option<Feeder>,
+    /// The layout's CSV delimiter: chunks whose quotes are simple are
+    /// handed on without them ([`unquoted`]).
+    delim: Option<u8>,
 }
 
 /// A chunk as [`Cutter::chunk`] gives it: its file offset, its bytes and
@@ -221,6 +224,8 @@ struct Scan {
     newlines: u64,
     /// Whether it holds a `"` (then the `csv` crate reads on from it).
     quote: bool,
+    /// Its length in the file (before any quotes were taken out).
+    bytes: u64,
 }
 
 impl Scan {
@@ -228,6 +233,7 @@ impl Scan {
         Scan {
             newlines: count_line_ends(b),
             quote: memchr::memchr(b'"', b).is_some(),
+            bytes: b.len() as u64,
         }
     }
 }
@@ -343,7 +349,21 @@ impl Cutter {
             // Never a digest of part of a file.
             (Err(_), Some(_)) => self.ring = None,
         }
-        r
+        // Hashed as stored; replayed without simple quotes, by the block
+        // reader, instead of by the `csv` crate from here on.
+        match (r, self.delim) {
+            (Ok(Some((offset, c, scan))), Some(d)) if scan.quote => match unquoted(&c, d) {
+                Some(bytes) => {
+                    let scan = Scan {
+                        quote: false,
+                        ..scan
+                    };
+                    Ok(Some((offset, Chunk::from(bytes), scan)))
+                }
+                None => Ok(Some((offset, c, scan))),
+            },
+            (r, _) => r,
+        }
     }
 
     fn cut(&mut self, size: usize) -> Cut {
@@ -446,6 +466,7 @@ impl<'a> FileReader<'a> {
                 eof: false,
                 pool: Pool::new(POOL_BUFFERS),
                 ring,
+                delim: cfg.table.csv_delimiter(),
             }),
             ahead: false,
             line: 1,
@@ -531,7 +552,7 @@ impl<'a> FileReader<'a> {
                     head: std::mem::take(&mut self.head),
                 }));
             }
-            let end = offset + block.len() as u64;
+            let end = offset + scan.bytes;
             let (body, body_line, newlines) = match &self.parser {
                 Some(_) => (block, line, scan.newlines),
                 None => {
@@ -820,6 +841,44 @@ impl Head {
     }
 }
 
+/// `b` (whole records) without the quotes around its quoted fields, when
+/// every `"` in it opens or closes a whole field that holds no `"`,
+/// `delim` or line end: the `csv` crate reads the same fields from either
+/// (RFC 4180's quotes only enclose). `None` for any other `"` (an escaped
+/// one, a field with a delimiter or a line end inside, a quote within a
+/// field): the `csv` crate reads the file from there.
+fn unquoted(b: &[u8], delim: u8) -> Option<Vec<u8>> {
+    let mut out = Vec::with_capacity(b.len());
+    let mut from = 0;
+    let ends_field = |c: u8| c == delim || c == b'\n' || c == b'\r';
+    let mut quotes = memchr::memchr_iter(b'"', b);
+    while let Some(open) = quotes.next() {
+        if open > 0 && !ends_field(b[open - 1]) {
+            return None;
+        }
+        let close = quotes.next()?;
+        let body = &b[open + 1..close];
+        if memchr::memchr3(delim, b'\n', b'\r', body).is_some() {
+            return None;
+        }
+        if b.get(close + 1).is_some_and(|&c| !ends_field(c)) {
+            return None;
+        }
+        // A line that is only `""`: a record of one empty field, not the
+        // blank line it would leave.
+        let line_start = open == 0 || matches!(b[open - 1], b'\n' | b'\r');
+        let line_end = b.get(close + 1).is_none_or(|&c| c == b'\n' || c == b'\r');
+        if body.is_empty() && line_start && line_end {
+            return None;
+        }
+        out.extend_from_slice(&b[from..open]);
+        out.extend_from_slice(body);
+        from = close + 1;
+    }
+    out.extend_from_slice(&b[from..]);
+    Some(out)
+}
+
 /// The line ends in `b`, as a text editor counts them: each `\n`, and each
 /// `\r` not followed by a `\n` (an old Mac line end; a `\r` at the end of `b`
 /// is one). `\r\n` is one line end, its `\n`.
@@ -1096,6 +1155,84 @@ mod tests {
             assert_eq!(count_newlines(&b), want, "{len}");
         }
         assert_eq!(count_newlines(&[b'\n'; 64]), 64);
+    }
+
+    /// Quotes taken out only where the `csv` crate (the reference for the
+    /// dialect) reads the same records from the text without them: random
+    /// texts of quotes, delimiters, line ends and letters.
+    #[test]
+    fn quotes_taken_out_only_where_the_csv_crate_reads_alike() {
+        let records = |b: &[u8]| -> Vec<Vec<Vec<u8>>> {
+            csv::ReaderBuilder::new()
+                .has_headers(false)
+                .flexible(true)
+                .from_reader(b)
+                .byte_records()
+                .map(|r| r.unwrap().iter().map(<[u8]>::to_vec).collect())
+                .collect()
+        };
+        let mut x = 5u64;
+        let mut rnd = |n: u64| {
+            x = x.wrapping_mul(6_364_136_223_846_793_005).wrapping_add(1);
+            (x >> 33) % n
+        };
+        // Fields the quotes may be taken from and fields they may not.
+        let fields = [
+            "a",
+            "12",
+            "",
+            "\"a\"",
+            "\"1.5\"",
+            "\"\"",
+            "\"a,b\"",
+            "\"a\"\"b\"",
+            "a\"b",
+            "\"a\"b",
+            "\"a\nb\"",
+            "\"",
+            " \"a\"",
+        ];
+        let (mut taken, mut left) = (0, 0);
+        for _ in 0..20_000 {
+            let mut text = Vec::new();
+            for _ in 0..1 + rnd(4) {
+                for k in 0..1 + rnd(4) {
+                    if k > 0 {
+                        text.push(b',');
+                    }
+                    // Mostly fields that may go.
+                    let f = if rnd(8) == 0 { rnd(13) } else { rnd(6) };
+                    text.extend_from_slice(fields[f as usize].as_bytes());
+                }
+                text.extend_from_slice([&b"\n"[..], b"\r\n", b"\r"][rnd(3) as usize]);
+            }
+            match unquoted(&text, b',') {
+                Some(out) => {
+                    assert!(!out.contains(&b'"'));
+                    assert_eq!(
+                        records(&out),
+                        records(&text),
+                        "{:?}",
+                        String::from_utf8_lossy(&text)
+                    );
+                    taken += usize::from(text.contains(&b'"'));
+                }
+                None => left += 1,
+            }
+        }
+        assert!(taken > 500 && left > 500, "{taken} {left}");
+        for (text, out) in [
+            (&b"\"a\",1\n"[..], Some(&b"a,1\n"[..])),
+            (b"\"\",\"\"\n", Some(b",\n")),
+            (b"\"a,b\",1\n", None),
+            (b"\"a\"\"b\"\n", None),
+            (b"a\"b\"\n", None),
+            (b"\"a\nb\"\n", None),
+            (b"\"a\"b\n", None),
+            (b"1\n\"\"\n2\n", None),
+        ] {
+            assert_eq!(unquoted(text, b','), out.map(<[u8]>::to_vec));
+        }
     }
 
     #[test]

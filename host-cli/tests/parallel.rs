@@ -465,6 +465,70 @@ fn a_row_past_the_first_pieces_is_named_by_its_line() {
     }
 }
 
+/// Quoted fields: each field, the times alone, the header alone (the
+/// quotes taken out and the rows read by the block readers), and a value
+/// with the delimiter inside quotes far into the file (the `csv` crate
+/// reads from its piece on): the records of the file without quotes, the
+/// same on one thread and two, and the bad value named by its line.
+#[test]
+fn quoted_fields_read_as_the_csv_crate_reads_them() {
+    let dir = setup();
+    let d = dir.path();
+    let mut rng = Rng(21);
+    let (plain, _) = samples(&mut rng, T0, 25_000, Plant::default());
+    std::fs::write(d.join("plain.csv"), &plain).unwrap();
+    let want = same_as_sequential(d, &["-c", "station.toml", "plain.csv"]);
+    assert_eq!(want.status.code(), Some(0), "{}", text(&want.stderr));
+    let text_of = String::from_utf8(plain).unwrap();
+    let quote = |line: &str, which: &dyn Fn(usize) -> bool| -> String {
+        line.split(',')
+            .enumerate()
+            .map(|(k, f)| {
+                if which(k) {
+                    format!("\"{f}\"")
+                } else {
+                    f.to_string()
+                }
+            })
+            .collect::<Vec<_>>()
+            .join(",")
+    };
+    type Quoting = fn(usize, usize) -> bool;
+    let ways: [(&str, Quoting); 3] = [
+        ("all", |_, _| true),
+        ("times", |i, k| i > 0 && k == 0),
+        ("header", |i, _| i == 0),
+    ];
+    for (name, way) in ways {
+        let body: String = text_of
+            .lines()
+            .enumerate()
+            .map(|(i, l)| quote(l, &|k| way(i, k)) + "\n")
+            .collect();
+        let file = format!("quoted-{name}.csv");
+        std::fs::write(d.join(&file), body).unwrap();
+        let got = same_as_sequential(d, &["-c", "station.toml", &file]);
+        assert_eq!(got.status.code(), Some(0), "{name}: {}", text(&got.stderr));
+        assert!(got.stdout == want.stdout, "{name}: records differ");
+    }
+    // Row 20,000 (line 20,001) holds `"5,5"`: one field for the `csv`
+    // crate, not a number.
+    let body: String = text_of
+        .lines()
+        .enumerate()
+        .map(|(i, l)| {
+            let mut f: Vec<String> = l.split(',').map(str::to_string).collect();
+            if i == 20_000 {
+                f[1] = "\"5,5\"".into();
+            }
+            f.join(",") + "\n"
+        })
+        .collect();
+    std::fs::write(d.join("late.csv"), body).unwrap();
+    let out = same_as_sequential(d, &["-c", "station.toml", "late.csv"]);
+    refused(&out, &["late.csv:20001:", "5,5"]);
+}
+
 #[test]
 fn a_clock_jump_beyond_max_gap_days_is_an_error_naming_the_row() {
     let dir = setup();
