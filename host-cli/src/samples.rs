@@ -1710,6 +1710,19 @@ impl Clock {
     }
 }
 
+/// Whether the row `rest` starts may be a comment of `table` (or starts with
+/// spaces, with comments declared): the one-pass readers leave it to the
+/// general way.
+#[inline(always)]
+fn may_be_comment(table: &Table, rest: &[u8]) -> bool {
+    match (&table.comment, rest.first()) {
+        (Some(c), Some(&first)) => {
+            c.first().is_none_or(|&c0| c0 == first) || first.is_ascii_whitespace()
+        }
+        _ => false,
+    }
+}
+
 /// The plan's channel bits for [`Declared::one_pass_straight`]: `Some` when
 /// `plan` is the time and then channels `0..n` in order
 /// ([`straight_columns`]), at most 12 of them (the widths of [`by_width!`]).
@@ -1962,13 +1975,8 @@ impl Declared {
         let plan = self.plan.as_deref()?;
         let table = &*self.table;
         let (codes, lens) = (&table.missing[..], self.code_lens);
-        if let Some(c) = &table.comment {
-            // A row that may be a comment (or starts with spaces) is read by
-            // the general way.
-            let first = *buf.get(start)?;
-            if c.first().is_none_or(|&c0| c0 == first) || first.is_ascii_whitespace() {
-                return None;
-            }
+        if may_be_comment(table, buf.get(start..)?) {
+            return None;
         }
         let mut p = start;
         let mut time = None;
@@ -2047,11 +2055,8 @@ impl Declared {
     ) -> Option<(Timestamp, usize)> {
         let table = &*self.table;
         let (codes, lens) = (&table.missing[..], self.code_lens);
-        if let Some(c) = &table.comment {
-            let first = *buf.get(start)?;
-            if c.first().is_none_or(|&c0| c0 == first) || first.is_ascii_whitespace() {
-                return None;
-            }
+        if may_be_comment(table, buf.get(start..)?) {
+            return None;
         }
         let rest = buf.get(start..)?;
         let (t, n) = self.clock.field(table, rest, delim)?;
