@@ -141,8 +141,16 @@ pub fn sniff_bytes(name: &str, buf: &[u8]) -> Result<Sniff> {
             buf.len()
         );
     }
-    let ends = if text.contains('\n') { '\n' } else { '\r' };
-    let mut parts: Vec<&str> = text.split(ends).collect();
+    // Lines as the replay counts them: each `\n`, `\r\n` and lone `\r`
+    // ends one (`reader::count_line_ends`).
+    let mut parts: Vec<&str> = Vec::new();
+    let mut rest = &text[..];
+    while let Some(p) = rest.find(['\n', '\r']) {
+        parts.push(&rest[..p]);
+        let end = if rest[p..].starts_with("\r\n") { 2 } else { 1 };
+        rest = &rest[p + end..];
+    }
+    parts.push(rest);
     if !whole {
         if parts.len() < 2 {
             bail!(
@@ -2207,6 +2215,32 @@ fn shell_word(s: &str) -> String {
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    /// Lines numbered as the replay numbers them (each `\n`, `\r\n` and lone
+    /// `\r` ends one), whatever mix of line ends a file has.
+    #[test]
+    fn lines_end_at_lf_crlf_and_lone_cr() {
+        for (text, want) in [
+            (&b"a\nb\nc"[..], &["a", "b", "c"][..]),
+            (b"a\r\nb\r\nc\r\n", &["a", "b", "c", ""]),
+            (b"a\rb\rc", &["a", "b", "c"]),
+            (b"a\nb\rc\r\n\rd", &["a", "b", "c", "", "d"]),
+        ] {
+            let got = sniff_bytes("x", text).unwrap();
+            let lines: Vec<(usize, &str)> =
+                got.lines.iter().map(|(n, l)| (*n, l.as_str())).collect();
+            let want: Vec<(usize, &str)> =
+                want.iter().enumerate().map(|(i, l)| (i + 1, *l)).collect();
+            assert_eq!(lines, want, "{:?}", String::from_utf8_lossy(text));
+            // The replay's count of line ends before each line agrees.
+            assert_eq!(
+                crate::reader::count_line_ends(text) as usize + 1,
+                want.len(),
+                "{:?}",
+                String::from_utf8_lossy(text)
+            );
+        }
+    }
 
     #[test]
     fn fields_split_with_quotes_and_spaces() {
