@@ -351,17 +351,25 @@ impl Cutter {
         }
         // Hashed as stored; replayed without simple quotes, by the block
         // reader, instead of by the `csv` crate from here on.
+        // The copy takes a buffer of the pool, so that its bound holds.
         match (r, self.delim) {
-            (Ok(Some((offset, c, scan))), Some(d)) if scan.quote => match unquoted(&c, d) {
-                Some(bytes) => {
+            (Ok(Some((offset, c, scan))), Some(d)) if scan.quote => {
+                let mut out = self.pool.take();
+                if unquoted(&c, d, &mut out) {
                     let scan = Scan {
                         quote: false,
                         ..scan
                     };
-                    Ok(Some((offset, Chunk::from(bytes), scan)))
+                    Ok(Some((
+                        offset,
+                        Chunk::new(out, Some(self.pool.clone())),
+                        scan,
+                    )))
+                } else {
+                    self.pool.give(out);
+                    Ok(Some((offset, c, scan)))
                 }
-                None => Ok(Some((offset, c, scan))),
-            },
+            }
             (r, _) => r,
         }
     }
@@ -841,42 +849,45 @@ impl Head {
     }
 }
 
-/// `b` (whole records) without the quotes around its quoted fields, when
-/// every `"` in it opens or closes a whole field that holds no `"`,
-/// `delim` or line end: the `csv` crate reads the same fields from either
-/// (RFC 4180's quotes only enclose). `None` for any other `"` (an escaped
-/// one, a field with a delimiter or a line end inside, a quote within a
-/// field): the `csv` crate reads the file from there.
-fn unquoted(b: &[u8], delim: u8) -> Option<Vec<u8>> {
-    let mut out = Vec::with_capacity(b.len());
+/// `b` (whole records) without the quotes around its quoted fields, into
+/// `out` (cleared first), when every `"` in it opens or closes a whole field
+/// that holds no `"`, `delim` or line end: the `csv` crate reads the same
+/// fields from either (RFC 4180's quotes only enclose). False for any other
+/// `"` (an escaped one, a field with a delimiter or a line end inside, a
+/// quote within a field): the `csv` crate reads the file from there.
+fn unquoted(b: &[u8], delim: u8, out: &mut Vec<u8>) -> bool {
+    out.clear();
+    out.reserve(b.len());
     let mut from = 0;
     let ends_field = |c: u8| c == delim || c == b'\n' || c == b'\r';
     let mut quotes = memchr::memchr_iter(b'"', b);
     while let Some(open) = quotes.next() {
         if open > 0 && !ends_field(b[open - 1]) {
-            return None;
+            return false;
         }
-        let close = quotes.next()?;
+        let Some(close) = quotes.next() else {
+            return false;
+        };
         let body = &b[open + 1..close];
         if memchr::memchr3(delim, b'\n', b'\r', body).is_some() {
-            return None;
+            return false;
         }
         if b.get(close + 1).is_some_and(|&c| !ends_field(c)) {
-            return None;
+            return false;
         }
         // A line that is only `""`: a record of one empty field, not the
         // blank line it would leave.
         let line_start = open == 0 || matches!(b[open - 1], b'\n' | b'\r');
         let line_end = b.get(close + 1).is_none_or(|&c| c == b'\n' || c == b'\r');
         if body.is_empty() && line_start && line_end {
-            return None;
+            return false;
         }
         out.extend_from_slice(&b[from..open]);
         out.extend_from_slice(body);
         from = close + 1;
     }
     out.extend_from_slice(&b[from..]);
-    Some(out)
+    true
 }
 
 /// The line ends in `b`, as a text editor counts them: each `\n`, and each
@@ -1207,7 +1218,8 @@ mod tests {
                 }
                 text.extend_from_slice([&b"\n"[..], b"\r\n", b"\r"][rnd(3) as usize]);
             }
-            match unquoted(&text, b',') {
+            let mut out = Vec::new();
+            match unquoted(&text, b',', &mut out).then_some(out) {
                 Some(out) => {
                     assert!(!out.contains(&b'"'));
                     assert_eq!(
@@ -1232,7 +1244,9 @@ mod tests {
             (b"\"a\"b\n", None),
             (b"1\n\"\"\n2\n", None),
         ] {
-            assert_eq!(unquoted(text, b','), out.map(<[u8]>::to_vec));
+            let mut got = b"left over".to_vec();
+            let ok = unquoted(text, b',', &mut got);
+            assert_eq!(ok.then_some(got), out.map(<[u8]>::to_vec));
         }
     }
 
