@@ -591,7 +591,7 @@ impl<const C: usize> Epochs<C> {
     /// many of them, from the first, lie before the next period starts: a run
     /// that one layout classifies ([`qc_core::Station::push_run_with`]).
     /// `None` for no times.
-    pub fn run(&self, times: &[Timestamp], cursor: &mut usize) -> Option<(&Layout<C>, usize)> {
+    fn run(&self, times: &[Timestamp], cursor: &mut usize) -> Option<(&Layout<C>, usize)> {
         let layout = self.at(*times.first()?, cursor);
         let n = match self.starts.get(*cursor + 1) {
             None => times.len(),
