@@ -665,7 +665,7 @@ pub fn run(out: &Path, days: u32, seed: u64) -> Result<ExitCode> {
     let mut cmp = verify::Comparer::open(&logger_path, cfg.station, ids.clone(), 10)?
         .with_sensors(cfg.sensors.clone());
     let opts = Options {
-        jobs: replay::default_jobs(),
+        jobs: replay::default_jobs(&files),
         ..Options::default()
     };
     let summary = replay::replay(&cfg, &files, opts, &mut cmp)?;

@@ -414,9 +414,10 @@ pub struct InputArgs {
     /// Do not print the summary on stderr.
     #[arg(long, short = 'q')]
     quiet: bool,
-    /// Threads replaying samples [default: the available cores, at most 2]. With 1, one
-    /// thread replays while a helper reads (and decompresses) the files; with N above 1, a
-    /// reader thread and N replaying workers. The records are the same either way.
+    /// Threads replaying samples [default: the available cores, less one when a file is
+    /// compressed (.gz, .zst), at most 2]. With 1, one thread replays while a helper reads
+    /// (and decompresses) the files; with N above 1, a reader thread and N replaying
+    /// workers. The records are the same either way.
     #[arg(long, short = 'j', value_name = "N", allow_negative_numbers = true,
           value_parser = options::whole::<u16>(1, u16::MAX as u64))]
     jobs: Option<u16>,
@@ -538,11 +539,13 @@ fn run(cli: Cli) -> Result<ExitCode> {
     }
 }
 
-fn options(a: &InputArgs) -> samples::Options {
+fn options(a: &InputArgs, files: &[PathBuf]) -> samples::Options {
     samples::Options {
         skip_bad_rows: a.skip_bad_rows,
         progress: true,
-        jobs: a.jobs.map_or_else(replay::default_jobs, usize::from),
+        jobs: a
+            .jobs
+            .map_or_else(|| replay::default_jobs(files), usize::from),
         chunk_size: a.chunk_size as usize,
         max_gap_days: a.max_gap_days,
         allow_no_records: a.allow_no_records,
@@ -572,7 +575,7 @@ fn replay_cmd(a: ReplayArgs) -> Result<ExitCode> {
     // replay's own reading of it.
     let opts = samples::Options {
         digests: a.output.is_some(),
-        ..options(&a.input)
+        ..options(&a.input, &a.samples)
     };
     let format = columnar::Format::choose(a.format, a.output.as_deref());
     if format != columnar::Format::Csv && a.output.is_none() && io::stdout().is_terminal() {
@@ -634,7 +637,7 @@ fn verify_cmd(a: VerifyArgs) -> Result<ExitCode> {
     }
     let mut cmp = verify::Comparer::open(records, cfg.station, ids(&cfg), a.max_diffs)?
         .with_sensors(cfg.sensors.clone());
-    let summary = replay::replay(&cfg, &a.samples, options(&a.input), &mut cmp)?;
+    let summary = replay::replay(&cfg, &a.samples, options(&a.input, &a.samples), &mut cmp)?;
     let report = cmp.finish()?;
     if !a.input.quiet {
         let _ = summary.write(&mut io::stderr().lock(), &cfg);
@@ -664,7 +667,7 @@ fn table_cmd(
     }
     let rows = logtable::read(cfg, records)?;
     let mut collect = tablecheck::Collect::new(cfg.station.interval_s);
-    let summary = replay::replay(cfg, &a.samples, options(&a.input), &mut collect)?;
+    let summary = replay::replay(cfg, &a.samples, options(&a.input, &a.samples), &mut collect)?;
     if !a.input.quiet {
         let _ = summary.write(&mut io::stderr().lock(), cfg);
     }

@@ -9,12 +9,28 @@ use crate::config::StationFile;
 use crate::engine::{self, Sink};
 use crate::outages::{self, Outages};
 use crate::parallel;
+use crate::reader::Compression;
 use crate::samples::{self, Options};
 use crate::summary::Summary;
 
-/// The default `--jobs`: the available cores, at most 2.
-pub fn default_jobs() -> usize {
-    std::thread::available_parallelism().map_or(1, |n| n.get().min(2))
+/// The default `--jobs` for `files`: the available cores, less one when a
+/// file is compressed, at least 1 and at most 2 ([`jobs_for`]).
+pub fn default_jobs(files: &[PathBuf]) -> usize {
+    let cores = std::thread::available_parallelism().map_or(1, |n| n.get());
+    jobs_for(cores, files)
+}
+
+/// The replaying threads for `files` on `cores` cores: a compressed file
+/// (`.gz`, `.zst`) keeps its reader thread busy decompressing, so that
+/// thread takes a core of its own. On 2 cores a `.zst` or `.gz` replayed
+/// faster with one replaying thread than with two (host-cli/PERF.md,
+/// "Compressed files on two cores"); a plain file's reader only reads and
+/// hashes, and two threads replay it faster.
+pub fn jobs_for(cores: usize, files: &[PathBuf]) -> usize {
+    let compressed = files
+        .iter()
+        .any(|f| Compression::of(f) != Compression::None);
+    cores.saturating_sub(usize::from(compressed)).clamp(1, 2)
 }
 
 /// A sink that counts the rows it passes on.
@@ -137,4 +153,29 @@ fn no_records_unless_allowed(s: &Summary, files: &[PathBuf], opts: Options) -> R
         s.input.bad.encoding,
         s.input.bad.filtered
     )
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn a_compressed_file_leaves_its_reader_a_core() {
+        let files = |names: &[&str]| -> Vec<PathBuf> { names.iter().map(PathBuf::from).collect() };
+        let plain = files(&["a.csv", "b.CSV"]);
+        let mixed = files(&["a.csv", "b.csv.zst"]);
+        let gz = files(&["a.csv.GZ"]);
+        for (cores, files, want) in [
+            (1, &plain, 1),
+            (2, &plain, 2),
+            (8, &plain, 2),
+            (1, &mixed, 1),
+            (2, &mixed, 1),
+            (3, &mixed, 2),
+            (2, &gz, 1),
+            (4, &gz, 2),
+        ] {
+            assert_eq!(jobs_for(cores, files), want, "{cores} cores, {files:?}");
+        }
+    }
 }
