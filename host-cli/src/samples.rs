@@ -1574,25 +1574,98 @@ fn is_code(field: &[u8], codes: &[Vec<u8>]) -> bool {
         .any(|m| m.len() == field.len() && m.first() == field.first() && m[..] == *field)
 }
 
-/// A reading `read` from the field at the start of `b` as the general way
-/// reads it with missing-value texts (`CODES`: `codes` is not empty, `lens`
-/// their [`code_lengths`]): a field that is one of `codes` is missing, whether
-/// it reads as a number or not; `None` leaves the row to the general way.
+/// A layout without missing-value texts, for [`coded`].
+const NO_CODES: u8 = 0;
+/// Missing-value texts none of which the one-pass readers read as a number
+/// other than `NaN` (`NAN`, `NA`, `---`, `null` ...), for [`coded`]: only a
+/// field read as `NaN`, or not read, may be one of them.
+const TEXT_CODES: u8 = 1;
+/// Missing-value texts some of which read as numbers (`-9999`), for
+/// [`coded`]: every field of a text's length is compared with them.
+const NUMBER_CODES: u8 = 2;
+
+/// How the one-pass readers of a layout with the missing-value texts `codes`
+/// test its fields ([`coded`]): [`NO_CODES`], [`TEXT_CODES`] or
+/// [`NUMBER_CODES`], by reading each text (then `delim`) as a value with the
+/// separator `sep` and as counts, as those readers read a field.
+fn codes_kind(codes: &[Vec<u8>], sep: u8, delim: u8) -> u8 {
+    let number = |c: &Vec<u8>| {
+        let mut f = c.clone();
+        f.push(delim);
+        let value = matches!(plain_f64_nan(&f, sep, delim),
+            Some((Reading::Value(v), n)) if n == c.len() && !v.is_nan());
+        let count =
+            matches!(plain_i32_nan(&f, delim), Some((Reading::Counts(_), n)) if n == c.len());
+        value || count
+    };
+    match codes {
+        [] => NO_CODES,
+        _ if codes.iter().any(number) => NUMBER_CODES,
+        _ => TEXT_CODES,
+    }
+}
+
+/// The reading of the field at the start of `b` and its length as the
+/// general way reads it with the missing-value texts `codes` (`CODES` of
+/// [`codes_kind`]; `lens` their [`code_lengths`]): counts when `count`, else a
+/// value with the separator `sep`. A field that is one of `codes` is missing,
+/// whether it reads as a number or not; `None` leaves the row to the general
+/// way.
 #[inline(always)]
-fn coded<const CODES: bool>(
-    read: Option<(Reading, usize)>,
+fn coded<const CODES: u8>(
     b: &[u8],
+    count: bool,
+    sep: u8,
     delim: u8,
     codes: &[Vec<u8>],
     lens: u64,
-) -> Option<(Reading, usize)> {
-    if !CODES {
-        return read;
-    }
+    out: &mut Reading,
+) -> Option<usize> {
+    // Each way stores its reading itself: a reading chosen from several
+    // ways and then stored was put together on the stack and read back
+    // whole, which stalled the loop (host-cli/PERF.md, "Missing-value texts
+    // out of the numbers' way").
+    let read = match CODES {
+        NO_CODES => read_or_nan(b, count, sep, delim),
+        // A field read as a number other than `NaN` is none of the texts:
+        // only the reading of `NaN` compares them, out of the numbers' way; a
+        // count read as missing (`NaN`) is missing either way.
+        TEXT_CODES => match count {
+            false => plain_f64_in::<true>(b, sep, delim, codes),
+            true => plain_i32_nan(b, delim),
+        },
+        _ => match read_or_nan(b, count, sep, delim) {
+            // A field of no text's length is none of them: one test a field.
+            Some((r, n)) if lens >> n.min(63) & 1 == 0 || !is_code(&b[..n], codes) => Some((r, n)),
+            _ => None,
+        },
+    };
     match read {
-        // A field of no text's length is none of them: one test a field.
-        Some((r, n)) if lens >> n.min(63) & 1 == 0 || !is_code(&b[..n], codes) => Some((r, n)),
-        _ => missing_code(b, delim, codes),
+        Some((r, n)) => {
+            *out = r;
+            Some(n)
+        }
+        None if CODES == NO_CODES => None,
+        None => missing_code_into(b, delim, codes, out),
+    }
+}
+
+/// [`missing_code`] into `out`; the field's length.
+#[cold]
+#[inline(never)]
+fn missing_code_into(b: &[u8], delim: u8, codes: &[Vec<u8>], out: &mut Reading) -> Option<usize> {
+    let (r, n) = missing_code(b, delim, codes)?;
+    *out = r;
+    Some(n)
+}
+
+/// [`plain_f64_nan`] (with `sep` and `delim`) of the field at the start of
+/// `b`, or [`plain_i32_nan`] when `count`.
+#[inline(always)]
+fn read_or_nan(b: &[u8], count: bool, sep: u8, delim: u8) -> Option<(Reading, usize)> {
+    match count {
+        false => plain_f64_nan(b, sep, delim),
+        true => plain_i32_nan(b, delim),
     }
 }
 
@@ -1673,6 +1746,8 @@ pub struct Declared {
     straight: Option<u64>,
     /// The lengths of the missing-value texts ([`code_lengths`]).
     code_lens: u64,
+    /// How the one-pass readers test for them ([`codes_kind`]).
+    codes: u8,
 }
 
 /// The last row's time and the zone's span, to read the next faster.
@@ -1863,6 +1938,13 @@ impl Declared {
                     .map(|conv| (c, conv))
             })
             .collect();
+        // The one-pass readers' separator and delimiter (a layout split at
+        // whitespace is never read in one pass).
+        let sep = if table.decimal_comma { b',' } else { b'.' };
+        let delim = match table.delimiter {
+            Delimiter::Byte(d) => d,
+            Delimiter::Whitespace => b' ',
+        };
         Ok(Declared {
             table,
             fields,
@@ -1878,6 +1960,7 @@ impl Declared {
             converted,
             straight,
             code_lens: code_lengths(&cfg.table.missing),
+            codes: codes_kind(&cfg.table.missing, sep, delim),
         })
     }
 
@@ -1905,20 +1988,25 @@ impl Declared {
         // a loop of its own, so that the others' stays as short.
         let comma = self.table.decimal_comma;
         let sep = if comma { b',' } else { b'.' };
-        let codes = !self.table.missing.is_empty();
+        let codes = self.codes;
         if let Some(counts) = self.straight {
             let row = match (codes, delim, comma) {
-                (false, b';', true) => {
-                    self.straight_in::<false>(buf, start, readings, counts, b';', b',')
+                (NO_CODES, b';', true) => {
+                    self.straight_in::<NO_CODES>(buf, start, readings, counts, b';', b',')
                 }
-                (false, b',', false) => {
-                    self.straight_in::<false>(buf, start, readings, counts, b',', b'.')
+                (NO_CODES, b',', false) => {
+                    self.straight_in::<NO_CODES>(buf, start, readings, counts, b',', b'.')
                 }
-                (false, ..) => self.straight_in::<false>(buf, start, readings, counts, delim, sep),
-                (true, b';', true) => {
-                    self.straight_in::<true>(buf, start, readings, counts, b';', b',')
+                (NO_CODES, ..) => {
+                    self.straight_in::<NO_CODES>(buf, start, readings, counts, delim, sep)
                 }
-                (true, ..) => self.straight_in::<true>(buf, start, readings, counts, delim, sep),
+                (TEXT_CODES, b';', true) => {
+                    self.straight_in::<TEXT_CODES>(buf, start, readings, counts, b';', b',')
+                }
+                (TEXT_CODES, ..) => {
+                    self.straight_in::<TEXT_CODES>(buf, start, readings, counts, delim, sep)
+                }
+                _ => self.straight_in::<NUMBER_CODES>(buf, start, readings, counts, delim, sep),
             };
             if let Some(row) = row {
                 if row.is_some() {
@@ -1927,12 +2015,19 @@ impl Declared {
                 return row;
             }
         }
-        if codes || !self.converted.is_empty() {
+        if codes != NO_CODES || !self.converted.is_empty() {
             let row = match (codes, delim, comma) {
-                (false, ..) => self.one_pass_in::<false>(buf, start, readings, delim, sep),
-                (true, b';', true) => self.one_pass_in::<true>(buf, start, readings, b';', b','),
-                (true, b',', false) => self.one_pass_in::<true>(buf, start, readings, b',', b'.'),
-                (true, ..) => self.one_pass_in::<true>(buf, start, readings, delim, sep),
+                (NO_CODES, ..) => self.one_pass_in::<NO_CODES>(buf, start, readings, delim, sep),
+                (TEXT_CODES, b';', true) => {
+                    self.one_pass_in::<TEXT_CODES>(buf, start, readings, b';', b',')
+                }
+                (TEXT_CODES, b',', false) => {
+                    self.one_pass_in::<TEXT_CODES>(buf, start, readings, b',', b'.')
+                }
+                (TEXT_CODES, ..) => {
+                    self.one_pass_in::<TEXT_CODES>(buf, start, readings, delim, sep)
+                }
+                _ => self.one_pass_in::<NUMBER_CODES>(buf, start, readings, delim, sep),
             };
             if row.is_some() {
                 self.convert(readings);
@@ -1940,12 +2035,12 @@ impl Declared {
             return row;
         }
         match (delim, comma) {
-            (b';', true) => self.one_pass_in::<false>(buf, start, readings, b';', b','),
-            (b',', false) => self.one_pass_in::<false>(buf, start, readings, b',', b'.'),
-            (b';', false) => self.one_pass_in::<false>(buf, start, readings, b';', b'.'),
-            (b'\t', false) => self.one_pass_in::<false>(buf, start, readings, b'\t', b'.'),
-            (b'\t', true) => self.one_pass_in::<false>(buf, start, readings, b'\t', b','),
-            _ => self.one_pass_in::<false>(buf, start, readings, delim, sep),
+            (b';', true) => self.one_pass_in::<NO_CODES>(buf, start, readings, b';', b','),
+            (b',', false) => self.one_pass_in::<NO_CODES>(buf, start, readings, b',', b'.'),
+            (b';', false) => self.one_pass_in::<NO_CODES>(buf, start, readings, b';', b'.'),
+            (b'\t', false) => self.one_pass_in::<NO_CODES>(buf, start, readings, b'\t', b'.'),
+            (b'\t', true) => self.one_pass_in::<NO_CODES>(buf, start, readings, b'\t', b','),
+            _ => self.one_pass_in::<NO_CODES>(buf, start, readings, delim, sep),
         }
     }
 
@@ -1964,7 +2059,7 @@ impl Declared {
     /// decimal separator (the table's); `CODES`: the table has missing-value
     /// texts.
     #[inline(always)]
-    fn one_pass_in<const CODES: bool>(
+    fn one_pass_in<const CODES: u8>(
         &mut self,
         buf: &[u8],
         start: usize,
@@ -1995,16 +2090,12 @@ impl Declared {
                     p += n;
                 }
                 Step::Value(c) => {
-                    let read = plain_f64_nan(rest, sep, delim);
-                    let (v, n) = coded::<CODES>(read, rest, delim, codes, lens)?;
-                    *readings.get_mut(c)? = v;
-                    p += n;
+                    let out = readings.get_mut(c)?;
+                    p += coded::<CODES>(rest, false, sep, delim, codes, lens, out)?;
                 }
                 Step::Counts(c) => {
-                    let read = plain_i32_nan(rest, delim);
-                    let (k, n) = coded::<CODES>(read, rest, delim, codes, lens)?;
-                    *readings.get_mut(c)? = k;
-                    p += n;
+                    let out = readings.get_mut(c)?;
+                    p += coded::<CODES>(rest, true, sep, delim, codes, lens, out)?;
                 }
                 Step::Skip => p += field_len(rest, delim),
             }
@@ -2024,7 +2115,7 @@ impl Declared {
     /// has missing-value texts), `None` when `readings` is not as wide as the
     /// plan.
     #[inline(always)]
-    fn straight_in<const CODES: bool>(
+    fn straight_in<const CODES: u8>(
         &mut self,
         buf: &[u8],
         start: usize,
@@ -2044,7 +2135,7 @@ impl Declared {
     /// the `N` channels in order: the field loop unrolled, no plan read, as
     /// [`Parser::parse_straight`] reads the own CSV. The same result.
     #[inline(always)]
-    fn one_pass_straight<const N: usize, const CODES: bool>(
+    fn one_pass_straight<const N: usize, const CODES: u8>(
         &mut self,
         buf: &[u8],
         start: usize,
@@ -2067,14 +2158,8 @@ impl Declared {
             }
             p += 1;
             let rest = buf.get(p..)?;
-            let read = if counts >> c & 1 == 0 {
-                plain_f64_nan(rest, sep, delim)
-            } else {
-                plain_i32_nan(rest, delim)
-            };
-            let (v, n) = coded::<CODES>(read, rest, delim, codes, lens)?;
-            *r = v;
-            p += n;
+            let count = counts >> c & 1 == 1;
+            p += coded::<CODES>(rest, count, sep, delim, codes, lens, r)?;
         }
         if !self.exact && buf.get(p) == Some(&delim) {
             p += field_len(buf.get(p..)?, b'\n');
@@ -2574,13 +2659,19 @@ fn fast_f64_sep(b: &[u8], sep: u8) -> Option<f64> {
 /// that a delimiter follows.
 #[inline]
 fn plain_f64(b: &[u8]) -> Option<(Reading, usize)> {
-    plain_f64_in::<false>(b, b'.', b',')
+    plain_f64_in::<false>(b, b'.', b',', &[])
 }
 
 /// [`plain_f64`] with `sep` as the decimal separator and `delim` as the
-/// field delimiter; with `NAN`, [`plain_f64_nan`].
+/// field delimiter; with `NAN`, [`plain_f64_nan`], a `NaN` that is one of
+/// `codes` (missing-value texts) read as missing.
 #[inline(always)]
-fn plain_f64_in<const NAN: bool>(b: &[u8], sep: u8, delim: u8) -> Option<(Reading, usize)> {
+fn plain_f64_in<const NAN: bool>(
+    b: &[u8],
+    sep: u8,
+    delim: u8,
+    codes: &[Vec<u8>],
+) -> Option<(Reading, usize)> {
     let (neg, skip) = match b.first() {
         None | Some(b'\n' | b'\r') => return Some((Reading::Missing, 0)),
         Some(&c) if c == delim => return Some((Reading::Missing, 0)),
@@ -2624,7 +2715,11 @@ fn plain_f64_in<const NAN: bool>(b: &[u8], sep: u8, delim: u8) -> Option<(Readin
                 .is_some_and(|w| w.eq_ignore_ascii_case(b"nan"))
         {
             let v = if neg { -f64::NAN } else { f64::NAN };
-            return Some((Reading::Value(v), skip + 3));
+            let n = skip + 3;
+            if is_code(&b[..n], codes) {
+                return Some((Reading::Missing, n));
+            }
+            return Some((Reading::Value(v), n));
         }
         return None;
     }
@@ -2640,7 +2735,7 @@ fn plain_f64_in<const NAN: bool>(b: &[u8], sep: u8, delim: u8) -> Option<(Readin
 /// (host-cli/PERF.md, "NaN and missing-value texts in one pass").
 #[inline(always)]
 fn plain_f64_nan(b: &[u8], sep: u8, delim: u8) -> Option<(Reading, usize)> {
-    plain_f64_in::<true>(b, sep, delim)
+    plain_f64_in::<true>(b, sep, delim, &[])
 }
 
 /// [`plain_i32_in`], or unsigned `NaN` in any case: a missing count, as the
@@ -3057,7 +3152,7 @@ mod tests {
                 // Without the `NaN` test: the same, or nothing for a `NaN`.
                 let nan = matches!(got, Some((Reading::Value(v), _)) if v.is_nan());
                 same(
-                    plain_f64_in::<false>(&b, sep, delim),
+                    plain_f64_in::<false>(&b, sep, delim, &[]),
                     got.filter(|_| !nan),
                     &b,
                 );
@@ -3776,18 +3871,45 @@ mod tests {
     /// fields are numbers, the texts, the texts with a byte more or in
     /// another case, `NaN` in any case and sign, spaces and empty fields:
     /// wherever the one pass reads a row, the same time and readings, bit for
-    /// bit; the texts and `NaN` are read in the one pass. Then with the speed
+    /// bit; the texts and `NaN` are read in the one pass. Texts one of which
+    /// is a number ([`NUMBER_CODES`]) and texts none of which is
+    /// ([`TEXT_CODES`]: only `NaN` compared with them). Then with the speed
     /// in km/h (converted as read), with and without the texts. Each with the
     /// columns out of order (the column plan) and in order (the time first:
     /// `one_pass_straight`).
     #[test]
     fn declared_rows_with_missing_texts_in_one_pass_agree_with_the_general_way() {
-        let codes = "missing = [\"NAN\", \"-99,9\", \"x\"]\n";
+        let numbers = "missing = [\"NAN\", \"-99,9\", \"x\"]\n";
+        let texts = "missing = [\"NAN\", \"---\", \"x\"]\n";
         let kmh = "source_unit = \"km/h\"\n";
         for straight in [false, true] {
-            declared_texts_agree(codes, "", straight);
-            declared_texts_agree(codes, kmh, straight);
+            for codes in [numbers, texts] {
+                declared_texts_agree(codes, "", straight);
+                declared_texts_agree(codes, kmh, straight);
+            }
             declared_texts_agree("", kmh, straight);
+        }
+    }
+
+    #[test]
+    fn texts_that_read_as_numbers_are_compared_with_every_number() {
+        let kind = |codes: &[&str], sep: u8, delim: u8| {
+            let codes: Vec<Vec<u8>> = codes.iter().map(|c| c.as_bytes().to_vec()).collect();
+            codes_kind(&codes, sep, delim)
+        };
+        assert_eq!(kind(&[], b'.', b','), NO_CODES);
+        for texts in [
+            &["NAN"][..],
+            &["NA", "---", "nan", "-NaN"],
+            &["9999x"],
+            &["1.5"],
+        ] {
+            assert_eq!(kind(texts, b',', b';'), TEXT_CODES, "{texts:?}");
+        }
+        // `1.5` is a number where the separator is `.`; `-9999` and `0`
+        // everywhere (`0` also as counts).
+        for texts in [&["1.5"][..], &["NAN", "-9999"], &["0"], &["+7"]] {
+            assert_eq!(kind(texts, b'.', b','), NUMBER_CODES, "{texts:?}");
         }
     }
 
@@ -3816,9 +3938,15 @@ mod tests {
         assert!(one.fills_rows(), "read in one pass");
         let d = one.declared.as_deref().unwrap();
         assert_eq!(d.straight.is_some(), straight);
-        let fields: [&str; 22] = [
+        let kind = match codes {
+            "" => NO_CODES,
+            _ if codes.contains("-99,9") => NUMBER_CODES,
+            _ => TEXT_CODES,
+        };
+        assert_eq!(d.codes, kind, "{codes}");
+        let fields: [&str; 24] = [
             "NAN", "-99,9", "x", "NAN;", "NANx", "nan", "NaN", "-NaN", "+nan", "-99,90", "-99,9 ",
-            " x", "xx", "X", "-99", "", "12", "3,75", "-0,5", "NA", "n", "2500",
+            " x", "xx", "X", "-99", "", "12", "3,75", "-0,5", "NA", "n", "2500", "---", "--",
         ];
         let mut x = 11u64;
         let mut rnd = |n: u64| {
@@ -3855,7 +3983,8 @@ mod tests {
         // not numbers) as counts. (`-99,9` as counts goes the general way: the
         // one pass reads `-99` and stops at the comma.)
         let d = one.declared.as_deref_mut().unwrap();
-        for (r, a) in [("x", "NAN"), ("NAN", "x"), ("x", "-99,9")] {
+        let third = if kind == NUMBER_CODES { "-99,9" } else { "---" };
+        for (r, a) in [("x", "NAN"), ("NAN", "x"), ("x", third)] {
             let row = row(r, "20.01.2025 00:00:01", a) + "\n";
             let mut got = [Reading::Value(1.0); 2];
             assert!(d.one_pass(row.as_bytes(), 0, &mut got).is_some(), "{row:?}");
