@@ -828,6 +828,7 @@ pub fn for_each_row(
 #[derive(Clone, Copy)]
 enum Cells<'a> {
     F64(&'a arrow_array::Float64Array),
+    I32(&'a arrow_array::Int32Array),
     I64(&'a arrow_array::Int64Array),
     Ms(&'a arrow_array::TimestampMillisecondArray),
     Us(&'a arrow_array::TimestampMicrosecondArray),
@@ -842,6 +843,7 @@ impl<'a> Cells<'a> {
     fn of(col: &'a dyn Array) -> Self {
         match col.data_type() {
             DataType::Float64 => Cells::F64(col.as_primitive()),
+            DataType::Int32 => Cells::I32(col.as_primitive()),
             DataType::Int64 => Cells::I64(col.as_primitive()),
             DataType::Timestamp(TimeUnit::Millisecond, _) => Cells::Ms(col.as_primitive()),
             DataType::Timestamp(TimeUnit::Microsecond, _) => Cells::Us(col.as_primitive()),
@@ -856,6 +858,7 @@ impl<'a> Cells<'a> {
     fn array(self) -> &'a dyn Array {
         match self {
             Cells::F64(a) => a,
+            Cells::I32(a) => a,
             Cells::I64(a) => a,
             Cells::Ms(a) => a,
             Cells::Us(a) => a,
@@ -905,15 +908,25 @@ fn row_at(
         c => time_at(c.array(), i),
     }
     .map_err(|m| ("time".to_string(), samples::BadKind::Time, m))?;
-    for (c, (col, spec)) in ccols.iter().zip(&cfg.channels).enumerate() {
-        let r = match *col {
-            Cells::F64(a) if a.is_null(i) => Ok(Reading::Missing),
-            Cells::F64(a) => from_f64(a.value(i), spec.decode),
-            Cells::I64(a) if a.is_null(i) => Ok(Reading::Missing),
-            Cells::I64(a) => from_i64(a.value(i), spec.decode),
-            c => reading_at(c.array(), i, spec.decode),
-        };
-        readings[c] = r.map_err(|m| (spec.id.clone(), samples::BadKind::Value, m))?;
+    // Each way stores its reading itself: a reading chosen among the ways
+    // and then stored was put together on the stack and read back whole, a
+    // stall that took most of this loop's time (host-cli/PERF.md, "Parquet
+    // cells stored where they are read"). The usual columns inline: the
+    // same readings as `reading_at`.
+    for ((col, spec), out) in ccols.iter().zip(&cfg.channels).zip(readings.iter_mut()) {
+        let bad = |m| (spec.id.clone(), samples::BadKind::Value, m);
+        match (*col, spec.decode) {
+            (Cells::F64(a), _) if a.is_null(i) => *out = Reading::Missing,
+            (Cells::F64(a), Decode::Value) => *out = Reading::Value(a.value(i)),
+            (Cells::F64(a), d) => *out = from_f64(a.value(i), d).map_err(bad)?,
+            (Cells::I32(a), _) if a.is_null(i) => *out = Reading::Missing,
+            (Cells::I32(a), Decode::Counts) => *out = Reading::Counts(a.value(i)),
+            (Cells::I32(a), Decode::Value) => *out = Reading::Value(f64::from(a.value(i))),
+            (Cells::I64(a), _) if a.is_null(i) => *out = Reading::Missing,
+            (Cells::I64(a), Decode::Value) => *out = Reading::Value(a.value(i) as f64),
+            (Cells::I64(a), d) => *out = from_i64(a.value(i), d).map_err(bad)?,
+            (c, d) => *out = reading_at(c.array(), i, d).map_err(bad)?,
+        }
     }
     Ok(t)
 }
@@ -1619,6 +1632,94 @@ mod tests {
         write_parquet(&p, &batch);
         let err = run(Options::default()).unwrap_err().to_string();
         assert!(err.contains("column 4 (\"wd\"): not a channel"), "{err}");
+    }
+
+    /// The cells `row_at` reads inline (`float64`, `int32`, `int64`, with
+    /// nulls, for a value channel and a raw-counts one) give what the generic
+    /// `reading_at` gives for the same cell, or fail where it fails, naming
+    /// the channel; on invented cells, among them counts out of `i32`'s range,
+    /// fractions and `NaN` for raw counts.
+    #[test]
+    fn cells_read_inline_as_the_generic_reader_reads_them() {
+        let toml = "[logging]\nsample_rate_hz = 1\n\
+            [[channel]]\nid = \"ws\"\nkind = \"speed\"\nresolution = 0.01\n\
+            [[channel]]\nid = \"d\"\nkind = \"direction\"\nslope = 0.1\n";
+        let cfg = config::parse(Path::new("s.toml"), toml).unwrap();
+        let decodes: Vec<Decode> = cfg.channels.iter().map(|c| c.decode).collect();
+        assert_eq!(decodes, [Decode::Value, Decode::Counts]);
+        let floats = [
+            Some(1.25),
+            None,
+            Some(-0.0),
+            Some(f64::NAN),
+            Some(3.0),
+            Some(2.5e9),
+            Some(-7.0),
+            Some(0.1),
+        ];
+        let ints = [
+            Some(7i64),
+            None,
+            Some(-3),
+            Some(i64::from(i32::MAX) + 1),
+            Some(i64::from(i32::MIN)),
+            Some(0),
+            Some(123_456),
+            None,
+        ];
+        let n = floats.len();
+        let columns: [ArrayRef; 3] = [
+            Arc::new(arrow_array::Float64Array::from(floats.to_vec())),
+            Arc::new(arrow_array::Int32Array::from(
+                ints.iter()
+                    .map(|k| k.map(|k| i32::try_from(k).unwrap_or(-1)))
+                    .collect::<Vec<_>>(),
+            )),
+            Arc::new(arrow_array::Int64Array::from(ints.to_vec())),
+        ];
+        let times = arrow_array::TimestampMillisecondArray::from_iter_values(
+            (0..n as i64).map(|i| SAMPLES_FROM.millis() + i * 1000),
+        );
+        let mut cache = samples::TimeCache::default();
+        let (mut agreed, mut refused) = (0, 0);
+        for a in &columns {
+            for b in &columns {
+                let ccols = [Cells::of(a.as_ref()), Cells::of(b.as_ref())];
+                for i in 0..n {
+                    let mut got = [Reading::Flagged; 2];
+                    let read = row_at(&cfg, (Cells::of(&times), &mut cache), &ccols, i, &mut got);
+                    let want: Vec<Result<Reading, String>> = [a, b]
+                        .iter()
+                        .zip(&decodes)
+                        .map(|(col, &d)| reading_at(col.as_ref(), i, d))
+                        .collect();
+                    let label = format!("{:?} {:?} row {i}", a.data_type(), b.data_type());
+                    match want.iter().position(Result::is_err) {
+                        Some(k) => {
+                            let (column, _, msg) = read.unwrap_err();
+                            assert_eq!(column, cfg.channels[k].id, "{label}");
+                            assert_eq!(Err(msg), want[k], "{label}");
+                            refused += 1;
+                        }
+                        None => {
+                            assert!(read.is_ok(), "{label}");
+                            for (g, w) in got.iter().zip(&want) {
+                                let same = match (g, w) {
+                                    (Reading::Value(x), Ok(Reading::Value(y))) => {
+                                        x.to_bits() == y.to_bits()
+                                    }
+                                    (g, Ok(w)) => g == w,
+                                    _ => false,
+                                };
+                                assert!(same, "{label}: {g:?} {w:?}");
+                            }
+                            agreed += 1;
+                        }
+                    }
+                }
+            }
+        }
+        assert!(agreed > 30 && refused > 10, "{agreed} {refused}");
     }
 
     #[test]
