@@ -1552,9 +1552,10 @@ fn split_whitespace(rec: &[u8], spans: &mut Vec<(u32, u32)>) {
 }
 
 /// The plan of [`Declared::one_pass`] for a layout, if it can be read so:
-/// one-byte delimiter, one time column, no channel with a quality column, no
-/// filter, each field read once. Missing-value texts are compared in the
-/// pass, and units converted after it ([`Declared::converted`]).
+/// one-byte delimiter, one time column, no filter, each field read once.
+/// Missing-value texts are compared in the pass, quality codes read in it
+/// ([`Step::Quality`]), and units converted after it
+/// ([`Declared::converted`]).
 fn one_pass_plan(
     table: &Table,
     time: &[usize],
@@ -1579,8 +1580,8 @@ fn one_pass_plan(
     };
     put(*t, Step::Time)?;
     for (c, &(i, decode, q, _)) in chan.iter().enumerate() {
-        if q.is_some() {
-            return None;
+        if let Some(q) = q {
+            put(q, Step::Quality(c))?;
         }
         put(
             i,
@@ -1837,7 +1838,7 @@ fn straight_plan(plan: Option<&[Step]>) -> Option<u64> {
             Step::Time => Some(Col::Time),
             Step::Value(c) => Some(Col::Value(c)),
             Step::Counts(c) => Some(Col::Counts(c)),
-            Step::Skip => None,
+            Step::Skip | Step::Quality(_) => None,
         })
         .collect::<Option<Vec<Col>>>()?;
     if cols.len() > 13 {
@@ -1852,7 +1853,23 @@ enum Step {
     Time,
     Value(usize),
     Counts(usize),
+    /// The quality code of channel `c`: a code not among the channel's good
+    /// ones flags its reading, whatever the reading ([`is_good`]).
+    Quality(usize),
     Skip,
+}
+
+/// Whether `code` (surrounding spaces ignored) is one of the good codes of
+/// the quality column of `table`'s channel `c`, as the general way compares
+/// them ([`Declared::row`]).
+#[inline]
+fn is_good(table: &Table, c: usize, code: &[u8]) -> bool {
+    let code = code.trim_ascii();
+    table
+        .sources
+        .get(c)
+        .and_then(|s| s.quality.as_ref())
+        .is_some_and(|q| q.good.iter().any(|g| g[..] == *code))
 }
 
 impl Declared {
@@ -2104,6 +2121,8 @@ impl Declared {
         }
         let mut p = start;
         let mut time = None;
+        // Channels (below `MAX_CHANNELS`, 32) whose quality code is bad.
+        let mut flagged = 0u64;
         for (i, step) in plan.iter().enumerate() {
             if i > 0 {
                 if buf.get(p) != Some(&delim) {
@@ -2126,6 +2145,13 @@ impl Declared {
                     let out = readings.get_mut(c)?;
                     p += coded::<CODES>(rest, true, sep, delim, codes, lens, out)?;
                 }
+                Step::Quality(c) => {
+                    let n = field_len(rest, delim);
+                    if !is_good(table, c, &rest[..n]) {
+                        flagged |= 1 << c;
+                    }
+                    p += n;
+                }
                 Step::Skip => p += field_len(rest, delim),
             }
         }
@@ -2134,7 +2160,14 @@ impl Declared {
             p += field_len(buf.get(p..)?, b'\n');
         }
         match buf.get(p) {
-            None | Some(b'\n' | b'\r') => Some((time?, p)),
+            None | Some(b'\n' | b'\r') => {
+                // Readings whose code is bad are flagged, whatever they read.
+                while flagged != 0 {
+                    *readings.get_mut(flagged.trailing_zeros() as usize)? = Reading::Flagged;
+                    flagged &= flagged - 1;
+                }
+                Some((time?, p))
+            }
             Some(_) => None,
         }
     }
@@ -3964,6 +3997,61 @@ mod tests {
             }
             declared_texts_agree("", kmh, straight);
         }
+    }
+
+    /// A declared layout with quality columns (one before its value, one
+    /// after; good codes `0` and `G`), read in one pass and the general way
+    /// on invented rows whose codes are good, bad, empty or spaced and whose
+    /// values are numbers, texts, empty or bad: wherever the one pass reads
+    /// a row, the same time and readings, bit for bit (the general way as the
+    /// station-file contract states it: a bad code flags the reading whatever
+    /// it is). Most rows are read in one pass, flagged readings among them.
+    #[test]
+    fn declared_rows_with_quality_codes_in_one_pass_agree_with_the_general_way() {
+        let toml = "[logging]\nsample_rate_hz = 1\n\n[input]\ndelimiter = \";\"\n\
+            decimal = \",\"\nmissing = [\"NAN\", \"x\"]\n\n[input.time]\n\
+            column = \"Zeit\"\nformat = \"%d.%m.%Y %H:%M:%S\"\n\n\
+            [[channel]]\nid = \"a\"\nkind = \"speed\"\nresolution = 0.01\ncolumn = \"WG\"\n\
+            quality = { column = \"Q1\", good = [\"0\", \"G\"] }\n\
+            [[channel]]\nid = \"d\"\nkind = \"direction\"\nslope = 0.1\ncolumn = \"R\"\n\
+            quality = { column = \"Q2\", good = [\"0\", \"G\"] }\n";
+        let cfg = crate::config::parse(Path::new("s.toml"), toml).unwrap();
+        let header: [&[u8]; 5] = [b"Q1", b"Zeit", b"WG", b"R", b"Q2"];
+        let mut one = Parser::new(Path::new("x"), 1, header.into_iter(), &cfg).unwrap();
+        let mut general = one.clone();
+        assert!(one.fills_rows(), "read in one pass");
+        let values = [
+            "12", "3,75", "", "NAN", "x", "-0,5", "2500", "bad", "1,2,3", "nan",
+        ];
+        let codes = ["0", "G", "", " 0", "0 ", "00", "1", "g", "G0", "9"];
+        let mut x = 19u64;
+        let mut rnd = |n: usize| {
+            x = x.wrapping_mul(6_364_136_223_846_793_005).wrapping_add(1);
+            ((x >> 33) % n as u64) as usize
+        };
+        let (mut agreed, mut flagged, mut delims) = (0, 0, Vec::new());
+        for i in 0..40_000u64 {
+            let time = format!(
+                "20.01.2025 {:02}:{:02}:{:02}",
+                i / 3600 % 24,
+                i / 60 % 60,
+                i % 60
+            );
+            let (q1, a, r, q2) = (
+                codes[rnd(codes.len())],
+                values[rnd(values.len())],
+                values[rnd(values.len())],
+                codes[rnd(codes.len())],
+            );
+            let buf = format!("{q1};{time};{a};{r};{q2}\n0;20.01.2025 00:00:00;1;2;0\n");
+            if let Some(read) =
+                declared_row_agrees(&mut one, &mut general, buf.as_bytes(), &mut delims)
+            {
+                agreed += 1;
+                flagged += read.iter().filter(|r| **r == Reading::Flagged).count();
+            }
+        }
+        assert!(agreed > 15_000 && flagged > 10_000, "{agreed} {flagged}");
     }
 
     #[test]
