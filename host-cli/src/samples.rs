@@ -2132,8 +2132,8 @@ impl Declared {
     }
 
     /// [`Declared::one_pass`] with `delim` as the delimiter and `sep` as the
-    /// decimal separator (the table's); `CODES`: the table has missing-value
-    /// texts.
+    /// decimal separator (the table's); `CODES`: how its missing-value texts
+    /// are tested ([`codes_kind`]).
     #[inline(always)]
     fn one_pass_in<const CODES: u8>(
         &mut self,
@@ -2223,9 +2223,8 @@ impl Declared {
     }
 
     /// [`Declared::one_pass`] of a straight plan ([`Declared::straight`]):
-    /// `Some(row)` as [`Declared::one_pass_in`] reads it (`CODES`: the table
-    /// has missing-value texts), `None` when `readings` is not as wide as the
-    /// plan.
+    /// `Some(row)` as [`Declared::one_pass_in`] reads it (`CODES` of
+    /// [`codes_kind`]), `None` when `readings` is not as wide as the plan.
     #[inline(always)]
     fn straight_in<const CODES: u8>(
         &mut self,
