@@ -2997,13 +2997,7 @@ mod tests {
     fn delimiters_found_with_the_record_end_are_those_of_the_record() {
         // Invented bytes: records of delimiters, terminators and other bytes,
         // against `Records::next` and a plain search, for every delimiter.
-        let mut x = 0x9E37_79B9_7F4A_7C15u64;
-        let mut next = || {
-            x ^= x << 13;
-            x ^= x >> 7;
-            x ^= x << 17;
-            x
-        };
+        let mut next = xorshift(0x9E37_79B9_7F4A_7C15u64);
         for len in [0usize, 1, 7, 8, 9, 15, 16, 17, 63, 64, 65, 300] {
             for _ in 0..40 {
                 let buf: Vec<u8> = (0..len)
@@ -3193,6 +3187,26 @@ mod tests {
         Some((Reading::Counts(if neg { -k } else { k }), skip + n))
     }
 
+    /// Marsaglia's xorshift64 ("Xorshift RNGs", J. Stat. Softw. 8(14),
+    /// 2003), for invented test data: the next of a sequence from `seed`.
+    fn xorshift(mut x: u64) -> impl FnMut() -> u64 {
+        move || {
+            x ^= x << 13;
+            x ^= x >> 7;
+            x ^= x << 17;
+            x
+        }
+    }
+
+    /// Invented indices below `n` from a linear congruential sequence
+    /// (Knuth's MMIX multiplier) from `seed`.
+    fn below(mut x: u64) -> impl FnMut(usize) -> usize {
+        move |n| {
+            x = x.wrapping_mul(6_364_136_223_846_793_005).wrapping_add(1);
+            ((x >> 33) % n as u64) as usize
+        }
+    }
+
     /// [`split_whitespace`] gives the fields that `str::split_ascii_whitespace`
     /// of Rust's standard library gives for spaces and tabs (the other
     /// whitespace bytes made letters first: the layout splits at those two
@@ -3200,13 +3214,7 @@ mod tests {
     #[test]
     fn fields_split_at_whitespace_as_the_standard_library_splits_them() {
         const ALPHA: &[u8] = b"  \t\t0123456789,.-ab\x0c\xff";
-        let mut x = 0x2545_F491_4F6C_DD1Du64;
-        let mut next = || {
-            x ^= x << 13;
-            x ^= x >> 7;
-            x ^= x << 17;
-            x
-        };
+        let mut next = xorshift(0x2545_F491_4F6C_DD1Du64);
         let mut spans = Vec::new();
         for round in 0..200_000 {
             let len = (next() % 41) as usize;
@@ -3248,13 +3256,7 @@ mod tests {
         // delimiter, against `str::parse::<f64>` and `str::parse::<i32>`
         // (Rust's standard library: correctly rounded, IEEE 754).
         const ALPHA: &[u8] = b"0123456789012345678901234567890123456789..,,;;+-\n\re ";
-        let mut x = 0x9E37_79B9_7F4A_7C15u64;
-        let mut next = || {
-            x ^= x << 13;
-            x ^= x >> 7;
-            x ^= x << 17;
-            x
-        };
+        let mut next = xorshift(0x9E37_79B9_7F4A_7C15u64);
         let same =
             |a: Option<(Reading, usize)>, b: Option<(Reading, usize)>, what: &[u8]| match (a, b) {
                 (Some((Reading::Value(p), i)), Some((Reading::Value(q), j))) => {
@@ -4073,11 +4075,7 @@ mod tests {
             "12", "3,75", "", "NAN", "x", "-0,5", "2500", "bad", "1,2,3", "nan",
         ];
         let codes = ["0", "G", "", " 0", "0 ", "00", "1", "g", "G0", "9"];
-        let mut x = 19u64;
-        let mut rnd = |n: usize| {
-            x = x.wrapping_mul(6_364_136_223_846_793_005).wrapping_add(1);
-            ((x >> 33) % n as u64) as usize
-        };
+        let mut rnd = below(19);
         let (mut agreed, mut flagged, mut delims) = (0, 0, Vec::new());
         for i in 0..40_000u64 {
             let time = format!(
@@ -4131,11 +4129,7 @@ mod tests {
             "x",
         ];
         let values = ["12", "3,75", "", "NAN", "2500", "bad"];
-        let mut x = 23u64;
-        let mut rnd = |n: usize| {
-            x = x.wrapping_mul(6_364_136_223_846_793_005).wrapping_add(1);
-            ((x >> 33) % n as u64) as usize
-        };
+        let mut rnd = below(23);
         let (mut agreed, mut spaced, mut delims) = (0, 0, Vec::new());
         for i in 0..40_000usize {
             // Hours around the night the clocks go back in Berlin (02:00 to
