@@ -1564,10 +1564,7 @@ fn one_pass_plan(
     filter: Option<usize>,
     fields: usize,
 ) -> Option<Vec<Step>> {
-    let Delimiter::Byte(delim) = table.delimiter else {
-        return None;
-    };
-    if matches!(delim, b'\n' | b'\r' | b'"') || filter.is_some() {
+    if filter.is_some() || matches!(table.delimiter, Delimiter::Byte(b'\n' | b'\r' | b'"')) {
         return None;
     }
     if time.len() > TIME_PARTS {
@@ -1697,6 +1694,27 @@ fn missing_code_into(b: &[u8], delim: u8, codes: &[Vec<u8>], out: &mut Reading) 
     let (r, n) = missing_code(b, delim, codes)?;
     *out = r;
     Some(n)
+}
+
+/// [`coded`] for a field of a whitespace layout ([`Declared::one_pass_blank`]):
+/// `kind` is the layout's [`codes_kind`], the delimiter a space (a tab ends a
+/// number as any other byte that is not its own; a text code followed by a
+/// tab goes the general way).
+#[inline(always)]
+fn number_or_code(
+    b: &[u8],
+    count: bool,
+    sep: u8,
+    codes: &[Vec<u8>],
+    lens: u64,
+    kind: u8,
+    out: &mut Reading,
+) -> Option<usize> {
+    match kind {
+        NO_CODES => coded::<NO_CODES>(b, count, sep, b' ', codes, lens, out),
+        TEXT_CODES => coded::<TEXT_CODES>(b, count, sep, b' ', codes, lens, out),
+        _ => coded::<NUMBER_CODES>(b, count, sep, b' ', codes, lens, out),
+    }
 }
 
 /// [`plain_f64_nan`] (with `sep` and `delim`) of the field at the start of
@@ -2056,7 +2074,11 @@ impl Declared {
         readings: &mut [Reading],
     ) -> Option<(Timestamp, usize)> {
         let Delimiter::Byte(delim) = self.table.delimiter else {
-            return None;
+            let row = self.one_pass_blank(buf, start, readings);
+            if row.is_some() {
+                self.convert(readings);
+            }
+            return row;
         };
         // The usual delimiters and separators as constants (a copy of the
         // loop each, two registers free for it), the others as read.
@@ -2118,6 +2140,112 @@ impl Declared {
             (b'\t', true) => self.one_pass_in::<NO_CODES>(buf, start, readings, b'\t', b','),
             _ => self.one_pass_in::<NO_CODES>(buf, start, readings, delim, sep),
         }
+    }
+
+    /// [`Declared::one_pass`] of a whitespace layout: the plan's fields
+    /// separated by runs of spaces and tabs (leading and trailing ones
+    /// ignored), as [`split_whitespace`] splits them, every field read as
+    /// [`Declared::one_pass_in`] reads it (a time column through the memo and
+    /// the zone's span, [`Clock::joined`]). `None` for any other row.
+    fn one_pass_blank(
+        &mut self,
+        buf: &[u8],
+        start: usize,
+        readings: &mut [Reading],
+    ) -> Option<(Timestamp, usize)> {
+        let blank = |c: &u8| matches!(c, b' ' | b'\t');
+        // A field's length: up to a space, a tab or a line end.
+        let field = |b: &[u8]| {
+            b.iter()
+                .position(|c| matches!(c, b' ' | b'\t' | b'\n' | b'\r'))
+                .unwrap_or(b.len())
+        };
+        let plan = self.plan.as_deref()?;
+        let table = &*self.table;
+        if may_be_comment(table, buf.get(start..)?) {
+            return None;
+        }
+        let sep = if table.decimal_comma { b',' } else { b'.' };
+        let (codes, lens) = (&table.missing[..], self.code_lens);
+        let mut p = start;
+        let mut time = None;
+        let mut flagged = 0u64;
+        let mut parts = [(0usize, 0usize); TIME_PARTS];
+        for (i, step) in plan.iter().enumerate() {
+            let from = p;
+            while buf.get(p).is_some_and(blank) {
+                p += 1;
+            }
+            if i > 0 && p == from {
+                return None;
+            }
+            let rest = buf.get(p..)?;
+            if matches!(rest.first(), None | Some(b'\n' | b'\r')) {
+                // Fewer fields than the plan: the general way says so.
+                return None;
+            }
+            let n = match *step {
+                Step::Time => {
+                    let n = field(rest);
+                    time = Some(self.clock.joined(table, &rest[..n])?);
+                    n
+                }
+                Step::TimePart(k) => {
+                    let n = field(rest);
+                    *parts.get_mut(k)? = (p, p + n);
+                    n
+                }
+                // The numbers stop at the first byte that is not theirs; a
+                // space or tab as the delimiter (a field is never empty).
+                Step::Value(c) => {
+                    let out = readings.get_mut(c)?;
+                    number_or_code(rest, false, sep, codes, lens, self.codes, out)?
+                }
+                Step::Counts(c) => {
+                    let out = readings.get_mut(c)?;
+                    number_or_code(rest, true, sep, codes, lens, self.codes, out)?
+                }
+                Step::Quality(c) => {
+                    let n = field(rest);
+                    if !is_good(table, c, &rest[..n]) {
+                        flagged |= 1 << c;
+                    }
+                    n
+                }
+                Step::Skip => field(rest),
+            };
+            p += n;
+            if !matches!(buf.get(p), None | Some(b' ' | b'\t' | b'\n' | b'\r')) {
+                return None;
+            }
+        }
+        while buf.get(p).is_some_and(blank) {
+            p += 1;
+        }
+        if !self.exact && !matches!(buf.get(p), None | Some(b'\n' | b'\r')) {
+            // At least the fields read: the rest of the row is not read.
+            p += field_len(buf.get(p..)?, b'\n');
+        }
+        if !matches!(buf.get(p), None | Some(b'\n' | b'\r')) {
+            return None;
+        }
+        while flagged != 0 {
+            *readings.get_mut(flagged.trailing_zeros() as usize)? = Reading::Flagged;
+            flagged &= flagged - 1;
+        }
+        if time.is_none() {
+            let mut text = std::mem::take(&mut self.tbuf);
+            text.clear();
+            for (k, &(a, b)) in parts.iter().take(self.time.len()).enumerate() {
+                if k > 0 {
+                    text.push(b' ');
+                }
+                text.extend_from_slice(buf.get(a..b)?);
+            }
+            time = self.clock.joined(table, &text);
+            self.tbuf = text;
+        }
+        Some((time?, p))
     }
 
     /// Values in another unit than their channel's, converted as the general
@@ -4155,6 +4283,93 @@ mod tests {
         // trims them (a row the pass leaves goes the general way, the same
         // readings, only slower).
         assert!(agreed > 8_000 && spaced > 2_000, "{agreed} {spaced}");
+    }
+
+    /// A whitespace layout without a header (fields by position, the time
+    /// in two columns, a quality column, a missing-value text that is a
+    /// number), read in one pass and the general way on invented rows with
+    /// runs of spaces and tabs before, between and after the fields, too few
+    /// and too many fields, and values, codes and times good and bad:
+    /// wherever the one pass reads a row, the same time and readings; most
+    /// rows are read in one pass.
+    #[test]
+    fn whitespace_rows_in_one_pass_agree_with_the_general_way() {
+        let toml = "[logging]\nsample_rate_hz = 1\n\n[input]\ndelimiter = \"whitespace\"\n\
+            header = false\nmissing = [\"-9999.9\", \"NA\"]\n\n[input.time]\n\
+            columns = [1, 2]\nformat = \"%Y-%m-%d %H:%M:%S\"\n\n\
+            [[channel]]\nid = \"a\"\nkind = \"speed\"\nresolution = 0.01\ncolumn = 3\n\
+            quality = { column = 4, good = [\"0\"] }\n\
+            [[channel]]\nid = \"d\"\nkind = \"direction\"\nslope = 0.1\ncolumn = 6\n";
+        let cfg = crate::config::parse(Path::new("s.toml"), toml).unwrap();
+        let mut one = Parser::new(Path::new("x"), 1, std::iter::empty(), &cfg).unwrap();
+        let mut general = one.clone();
+        assert!(one.fills_rows(), "read in one pass");
+        let gaps = [" ", "  ", "\t", " \t ", ""];
+        let values = ["12", "3.75", "-9999.9", "NA", "nan", "x", "-0.5"];
+        let counts = ["12", "2500", "-9999.9", "NA", "3.5"];
+        let codes = ["0", "1", "00"];
+        let mut rnd = below(31);
+        let (mut agreed, mut flagged) = (0, 0);
+        let mut readings = [[Reading::Missing; 2]; 2];
+        for i in 0..40_000u64 {
+            let mut pick = |xs: &[&'static str]| xs[rnd(xs.len())];
+            let spacing: Vec<&str> = (0..8).map(|_| pick(&gaps)).collect();
+            let time = format!(
+                "2025-01-20 {:02}:{:02}:{:02}",
+                i / 3600 % 24,
+                i / 60 % 60,
+                i % 60
+            );
+            let mut fields = vec![
+                time,
+                pick(&values).to_string(),
+                pick(&codes).to_string(),
+                "skip".to_string(),
+                pick(&counts).to_string(),
+            ];
+            match pick(&["fields", "more", "fewer"]) {
+                "more" => fields.push("7".into()),
+                "fewer" => drop(fields.pop()),
+                _ => {}
+            }
+            let mut row = pick(&gaps).to_string();
+            for (k, f) in fields.iter().enumerate() {
+                if k > 0 {
+                    // Between fields, at least one blank.
+                    row += match spacing[k] {
+                        "" => " ",
+                        g => g,
+                    };
+                }
+                row += f;
+            }
+            row += pick(&gaps);
+            let buf = format!("{row}\n2025-01-20 00:00:00 1 0 s 2\n");
+            let rec = row.as_bytes();
+            let want = general.parse_declared(rec, &[], &mut readings[1]);
+            let d = one.declared.as_deref_mut().unwrap();
+            let Some((t, end)) = d.one_pass(buf.as_bytes(), 0, &mut readings[0]) else {
+                continue;
+            };
+            assert_eq!(end, rec.len(), "{row:?}");
+            match want {
+                Some(Ok(w)) => assert_eq!(t, w, "{row:?}"),
+                _ => panic!("{row:?}: one pass {t:?}, general {want:?}"),
+            }
+            let bits = |r: &[Reading; 2]| {
+                r.map(|v| match v {
+                    Reading::Value(f) => (0, f.to_bits()),
+                    Reading::Counts(k) => (1, k as u64),
+                    Reading::Missing => (2, 0),
+                    Reading::Flagged => (3, 0),
+                    _ => (4, 0),
+                })
+            };
+            assert_eq!(bits(&readings[0]), bits(&readings[1]), "{row:?}");
+            agreed += 1;
+            flagged += usize::from(readings[0][0] == Reading::Flagged);
+        }
+        assert!(agreed > 10_000 && flagged > 3_000, "{agreed} {flagged}");
     }
 
     #[test]
