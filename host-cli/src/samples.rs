@@ -4372,6 +4372,70 @@ mod tests {
         assert!(agreed > 10_000 && flagged > 3_000, "{agreed} {flagged}");
     }
 
+    /// The one-pass readers of every kind of layout (a delimiter with
+    /// texts that are numbers or not, quality columns, several time
+    /// columns, whitespace) on invented rows of random bytes, short and
+    /// long: no panic, and a row they read ends where a line does.
+    #[test]
+    fn one_pass_rows_of_random_bytes_never_panic() {
+        let channels = "[[channel]]\nid = \"a\"\nkind = \"speed\"\nresolution = 0.01\ncolumn = 3\n\
+            quality = { column = 4, good = [\"0\"] }\n\
+            [[channel]]\nid = \"d\"\nkind = \"direction\"\nslope = 0.1\ncolumn = 5\n";
+        let layouts = [
+            ("\";\"", "[\"NAN\", \"-9\"]"),
+            ("\";\"", "[\"NA\"]"),
+            ("\",\"", "[]"),
+            ("\"whitespace\"", "[\"NA\", \"-9\"]"),
+        ];
+        const ALPHA: &[u8] = b"0123456789.,;-+ \t\n\rNAnax:TZ\"\xff";
+        let mut next = xorshift(0x6A09_E667_F3BC_C908);
+        for (delim, missing) in layouts {
+            let toml = format!(
+                "[logging]\nsample_rate_hz = 1\n\n[input]\ndelimiter = {delim}\nheader = false\n\
+                missing = {missing}\n\n[input.time]\ncolumns = [1, 2]\n\
+                format = \"%Y-%m-%d %H:%M:%S\"\n\n{channels}"
+            );
+            let cfg = crate::config::parse(Path::new("s.toml"), &toml).unwrap();
+            let mut p = Parser::new(Path::new("x"), 1, std::iter::empty(), &cfg).unwrap();
+            assert!(p.fills_rows(), "{delim}");
+            let d = p.declared.as_deref_mut().unwrap();
+            let mut readings = [Reading::Missing; 2];
+            // A good row of the layout, changed at a few random places, or
+            // random bytes.
+            let sep = if delim.contains("whitespace") {
+                " "
+            } else {
+                &delim[1..2]
+            };
+            let good = ["2025-01-20", "00:00:01", "5.5", "0", "270"].join(sep);
+            let mut read = 0;
+            for k in 0..50_000 {
+                let mut row: Vec<u8> = if k % 4 == 0 {
+                    let len = (next() % 48) as usize;
+                    (0..len)
+                        .map(|_| ALPHA[(next() % ALPHA.len() as u64) as usize])
+                        .collect()
+                } else {
+                    good.as_bytes().to_vec()
+                };
+                for _ in 0..next() % 3 {
+                    if !row.is_empty() {
+                        let at = (next() % row.len() as u64) as usize;
+                        row[at] = ALPHA[(next() % ALPHA.len() as u64) as usize];
+                    }
+                }
+                if let Some((_, end)) = d.one_pass(&row, 0, &mut readings) {
+                    assert!(
+                        matches!(row.get(end), None | Some(b'\n' | b'\r')),
+                        "{row:?}"
+                    );
+                    read += 1;
+                }
+            }
+            assert!(read > 5_000, "{delim}: {read}");
+        }
+    }
+
     #[test]
     fn texts_that_read_as_numbers_are_compared_with_every_number() {
         let kind = |codes: &[&str], sep: u8, delim: u8| {
