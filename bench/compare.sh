@@ -22,6 +22,9 @@
 #           provenance file; stdout goes to /dev/null by redirection)
 #   layout1 working tree, --jobs 1, declared layout
 #   layoutm1 the same with a missing-value text in its [input]
+#   layoutq1 layout2t1 layoutw1  the same samples with a quality column, with
+#           the time in two columns, and split at whitespace
+#           (bench/layout_variants.py)
 #   camp1 camp2  working tree, --jobs 1 and 2, the demo station with its
 #           [campaign] files (sensor history, exclusions, events), own CSV
 #   zst1    working tree, --jobs 1, .zst of the own CSV
@@ -96,6 +99,9 @@ mkdir -p "$FD"
 # The declared layout with a missing-value text (no field holds it): each
 # field is compared with it.
 sed 's/^decimal = ","$/decimal = ","\nmissing = ["NAN"]/' "$FD/field.toml" >"$FD/field-m.toml"
+# The declared layout with a quality column, with its time in two columns,
+# and split at whitespace (bench/layout_variants.py).
+[ -s "$FD/field-w.csv" ] || python3 bench/layout_variants.py "$FD"
 # The demo station with its [campaign] files (sensor history with a swap,
 # exclusions, events): what a campaign replays.
 CAMP="$DIR/demo-${DAYS}d/station.toml"
@@ -123,9 +129,12 @@ CMD[layout1]="$BIN replay -q -j 1 -c $FD/field.toml $FD/field.csv -o $DIR/r-layo
 CMD[zst1]="$BIN replay -q -j 1 -c $STATION $S.zst -o $DIR/r-zst1.csv"
 CMD[gz1]="$BIN replay -q -j 1 -c $STATION $S.gz -o $DIR/r-gz1.csv"
 CMD[layoutm1]="$BIN replay -q -j 1 -c $FD/field-m.toml $FD/field.csv -o $DIR/r-layoutm1.csv"
+for v in q 2t w; do
+    CMD[layout${v}1]="$BIN replay -q -j 1 -c $FD/field-$v.toml $FD/field-$v.csv -o $DIR/r-layout${v}1.csv"
+done
 CMD[camp1]="$BIN replay -q -j 1 -c $CAMP $S -o $DIR/r-camp1.csv"
 CMD[camp2]="$BIN replay -q -j 2 -c $CAMP $S -o $DIR/r-camp2.csv"
-names="own1 own1s own2 layout1 zst1 gz1 layoutm1 camp1 camp2"
+names="own1 own1s own2 layout1 zst1 gz1 layoutm1 layoutq1 layout2t1 layoutw1 camp1 camp2"
 if [ "$SKIP_BASE" != 1 ]; then
     # Never `-o /dev/null` for the baseline: it replaces its -o target by rename.
     CMD[base1]="$BASE_BIN replay -q -j 1 -c $STATION $S -o $DIR/r-base1.csv"
@@ -144,7 +153,7 @@ fi
 echo
 echo "## checks"
 ${CMD[own1]}
-for k in own2 layout1 zst1 gz1 layoutm1 base1; do
+for k in own2 layout1 zst1 gz1 layoutm1 layout2t1 layoutw1 base1; do
     [ -n "${CMD[$k]:-}" ] || continue
     ${CMD[$k]}
     if cmp -s "$DIR/r-own1.csv" "$DIR/r-$k.csv"; then
@@ -153,6 +162,7 @@ for k in own2 layout1 zst1 gz1 layoutm1 base1; do
         echo "$k: records differ from own1's (expected of a baseline whose records lack later columns, e.g. f5873be has no n_flagged, n_excluded, sensor_entries; or one from before dc49c38, whose f64 statistics differ in the last bits; host-cli/PERF.md)"
     fi
 done
+${CMD[layoutq1]}
 ${CMD[camp1]}
 ${CMD[camp2]}
 if cmp -s "$DIR/r-camp1.csv" "$DIR/r-camp2.csv"; then
@@ -195,14 +205,15 @@ echo >&2
 echo "load at end $(cut -d' ' -f1-3 /proc/loadavg)"
 
 # Ratio of two commands per round: median (min .. max). Optional scale.
-python3 - "$DIR/times.tsv" "$own_b" "$lay_b" <<'PY'
-import statistics, sys
+python3 - "$DIR/times.tsv" "$own_b" "$lay_b" "$FD" <<'PY'
+import os, statistics, sys
 from collections import defaultdict
 t = defaultdict(dict)
 for line in open(sys.argv[1]):
     r, k, s = line.split()
     t[int(r)][k] = float(s)
 own_b, lay_b = int(sys.argv[2]), int(sys.argv[3])
+size = lambda v: os.path.getsize(f"{sys.argv[4]}/field-{v}.csv")
 rounds = sorted(t)
 
 def show(label, f, unit="", fmt="{:.2f}"):
@@ -227,6 +238,10 @@ show("declared layout / own CSV, time per input byte (goal <= 1.3)",
 show(".zst / own CSV, time (goal <= 1.5)", lambda x: x["zst1"] / x["own1"])
 show(".gz / own CSV, time", lambda x: x["gz1"] / x["own1"])
 show("declared layout with a missing-value text / without, time", lambda x: x["layoutm1"] / x["layout1"])
+for v, what in [("q", "quality column / none"), ("2t", "time in two columns / one"),
+                ("w", "whitespace, two time columns / `;`")]:
+    show(f"declared layout, {what}, per byte",
+         lambda x, v=v: (x[f"layout{v}1"] / size(v)) / (x["layout1"] / lay_b))
 show("campaign station / plain station, time, --jobs 1", lambda x: x["camp1"] / x["own1"])
 show("campaign station / plain station, time, --jobs 2", lambda x: x["camp2"] / x["own2"])
 show("pandas / tenmin --jobs 1 (goal >= 20)", lambda x: x["pandas"] / x["own1"])
