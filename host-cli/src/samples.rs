@@ -1842,10 +1842,9 @@ impl Clock {
         Some((t, n))
     }
 
-    /// The time of the joined text of several time columns
-    /// ([`Step::TimePart`]): by the memo and the zone's span, else parsed
-    /// whole, as the general way parses it. `None`: a time the general way
-    /// reads (or refuses).
+    /// The time of a text (a whitespace layout's time column): by the memo
+    /// and the zone's span, else parsed whole, as the general way parses
+    /// it. `None`: a time the general way reads (or refuses).
     #[inline]
     fn joined(&mut self, table: &Table, text: &[u8]) -> Option<Timestamp> {
         let (memo, zone) = (&mut self.memo, &mut self.zone);
@@ -1853,6 +1852,48 @@ impl Clock {
             .time
             .parse_memo(text, memo, zone)
             .or_else(|| table.time.parse_with(text, memo, zone).ok())
+    }
+
+    /// The time of several time columns ([`Step::TimePart`], their spans in
+    /// `buf` in the layout's order), their texts joined as the general way
+    /// joins them (spaces trimmed, one space between) in a word of the
+    /// stack: by `quick` (the memo's hour), else by the memo and the zone's
+    /// span, else parsed whole (and `quick` set again). `None`: a time the
+    /// general way reads (or refuses), or a joined text of more than 47
+    /// bytes (left to it too).
+    #[inline]
+    fn parts(&mut self, table: &Table, buf: &[u8], parts: &[(usize, usize)]) -> Option<Timestamp> {
+        // The joined text, then line ends: [`Quick::read`] reads 32 bytes
+        // and wants the time ended.
+        let mut w = [b'\n'; 48];
+        let mut len = 0;
+        for (k, &(a, b)) in parts.iter().enumerate() {
+            let part = buf.get(a..b)?.trim_ascii();
+            if k > 0 {
+                *w.get_mut(len)? = b' ';
+                len += 1;
+            }
+            w.get_mut(len..len + part.len())?.copy_from_slice(part);
+            len += part.len();
+        }
+        if len >= w.len() {
+            return None;
+        }
+        if let Some((t, n)) = self.quick.read(&w, b'\n') {
+            if n == len {
+                return Some(t);
+            }
+        }
+        let text = &w[..len];
+        let (memo, zone) = (&mut self.memo, &mut self.zone);
+        match table.time.parse_memo(text, memo, zone) {
+            Some(t) => Some(t),
+            None => {
+                let t = table.time.parse_with(text, memo, zone).ok();
+                self.quick = table.time.quick(memo, zone, b'\n');
+                t
+            }
+        }
     }
 }
 
@@ -2234,16 +2275,8 @@ impl Declared {
             flagged &= flagged - 1;
         }
         if time.is_none() {
-            let mut text = std::mem::take(&mut self.tbuf);
-            text.clear();
-            for (k, &(a, b)) in parts.iter().take(self.time.len()).enumerate() {
-                if k > 0 {
-                    text.push(b' ');
-                }
-                text.extend_from_slice(buf.get(a..b)?);
-            }
-            time = self.clock.joined(table, &text);
-            self.tbuf = text;
+            let parts = parts.get(..self.time.len())?;
+            time = self.clock.parts(table, buf, parts);
         }
         Some((time?, p))
     }
@@ -2332,17 +2365,8 @@ impl Declared {
                     flagged &= flagged - 1;
                 }
                 if time.is_none() {
-                    let n = self.time.len();
-                    let mut text = std::mem::take(&mut self.tbuf);
-                    text.clear();
-                    for (k, &(a, b)) in parts.iter().take(n).enumerate() {
-                        if k > 0 {
-                            text.push(b' ');
-                        }
-                        text.extend_from_slice(buf.get(a..b)?.trim_ascii());
-                    }
-                    time = self.clock.joined(table, &text);
-                    self.tbuf = text;
+                    let parts = parts.get(..self.time.len())?;
+                    time = self.clock.parts(table, buf, parts);
                 }
                 Some((time?, p))
             }
