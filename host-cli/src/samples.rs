@@ -2270,33 +2270,15 @@ impl Declared {
         if !matches!(buf.get(p), None | Some(b'\n' | b'\r')) {
             return None;
         }
-        Some((self.row_end(buf, readings, flagged, time, &parts)?, p))
-    }
-
-    /// The end of a row read in one pass: the readings whose quality code is
-    /// bad (bits of `flagged`) flagged, whatever they read; the row's time,
-    /// `time` or, when `None`, that of its time columns (`parts`, their
-    /// spans in `buf`, [`Clock::parts`]).
-    #[inline(always)]
-    fn row_end(
-        &mut self,
-        buf: &[u8],
-        readings: &mut [Reading],
-        mut flagged: u64,
-        time: Option<Timestamp>,
-        parts: &[(usize, usize)],
-    ) -> Option<Timestamp> {
         while flagged != 0 {
             *readings.get_mut(flagged.trailing_zeros() as usize)? = Reading::Flagged;
             flagged &= flagged - 1;
         }
-        match time {
-            Some(t) => Some(t),
-            None => {
-                let parts = parts.get(..self.time.len())?;
-                self.clock.parts(&self.table, buf, parts)
-            }
+        if time.is_none() {
+            let parts = parts.get(..self.time.len())?;
+            time = self.clock.parts(table, buf, parts);
         }
+        Some((time?, p))
     }
 
     /// Values in another unit than their channel's, converted as the general
@@ -2377,7 +2359,16 @@ impl Declared {
         }
         match buf.get(p) {
             None | Some(b'\n' | b'\r') => {
-                Some((self.row_end(buf, readings, flagged, time, &parts)?, p))
+                // Readings whose code is bad are flagged, whatever they read.
+                while flagged != 0 {
+                    *readings.get_mut(flagged.trailing_zeros() as usize)? = Reading::Flagged;
+                    flagged &= flagged - 1;
+                }
+                if time.is_none() {
+                    let parts = parts.get(..self.time.len())?;
+                    time = self.clock.parts(table, buf, parts);
+                }
+                Some((time?, p))
             }
             Some(_) => None,
         }
