@@ -410,7 +410,8 @@ impl<'a, const C: usize> Run<'a, C> {
         let mut rows = || -> Result<(), Halt> {
             loop {
                 let next = if fills && self.station.is_some() {
-                    self.stats.rows += self.block.fill(&mut recs, parser, self.excl);
+                    let bad = &mut self.stats.bad;
+                    self.stats.rows += self.block.fill(&mut recs, parser, self.excl, bad);
                     if self.block.is_full() {
                         self.flush(path, send)?;
                         continue;
@@ -432,6 +433,9 @@ impl<'a, const C: usize> Run<'a, C> {
                             self.flush(path, send)?;
                         }
                     }
+                    // Another station's row touches only the counts: the
+                    // block goes on.
+                    Err(e) if e.is_other_station() => self.row(path, ln, Err(e), send)?,
                     _ => {
                         self.flush(path, send)?;
                         self.row(path, ln, parsed, send)?;

@@ -223,6 +223,17 @@ struct Bad {
 }
 
 impl BadRow {
+    /// A row of another station ([`BadKind::Filtered`]).
+    pub fn other_station() -> BadRow {
+        BadRow::new(BadKind::Filtered, None, String::new())
+    }
+
+    /// Whether it is a row of another station, not a bad row: it touches
+    /// nothing but the counts ([`InputStats::bad_row`]).
+    pub fn is_other_station(&self) -> bool {
+        self.0.kind == BadKind::Filtered
+    }
+
     /// Whether the time could not be read.
     pub fn is_time(&self) -> bool {
         self.0.kind == BadKind::Time
@@ -456,13 +467,20 @@ impl Block {
     /// not plain, which is left in `recs` for [`Records::next_odd_row`]. A
     /// straight file's rows go by [`Block::fill_straight`], and a row that
     /// loop leaves by the column plan ([`Parser::parse_planned`]; after two
-    /// such rows running, the rest of the block). Returns
-    /// the rows added. Out of line, with the row loop's state in locals: the
-    /// replay's usual loop, shared by `--jobs 1` and the workers of
-    /// `--jobs 2`.
+    /// such rows running, the rest of the block). A row of another station
+    /// (`[input] filter`) is passed over and counted in `bad.filtered`.
+    /// Returns the rows read: those added and other stations'. Out of line,
+    /// with the row loop's state in locals: the replay's usual loop, shared
+    /// by `--jobs 1` and the workers of `--jobs 2`.
     #[inline(never)]
-    pub fn fill(&mut self, recs: &mut Records<'_>, parser: &mut Parser, excl: &Exclusions) -> u64 {
-        let mut added = 0;
+    pub fn fill(
+        &mut self,
+        recs: &mut Records<'_>,
+        parser: &mut Parser,
+        excl: &Exclusions,
+        bad: &mut BadCounts,
+    ) -> u64 {
+        let (mut added, mut other) = (0, 0);
         if let Some(counts) = parser.straight {
             loop {
                 let p = &*parser;
@@ -473,13 +491,22 @@ impl Block {
                 };
                 added += n;
                 if self.is_full() {
-                    return added;
+                    break;
                 }
                 // The row the straight loop left (a `NaN`, say), by the
                 // column plan; any other row is the caller's.
                 let slot = self.slot();
-                let Some(Some((line, t))) = recs.next_plain_by(parser, slot, false) else {
-                    return added;
+                let (line, t) = match recs.next_plain_by(parser, slot, false) {
+                    Some(Plain::Row(line, t)) => (line, t),
+                    // Not of the own CSV, which has no filter.
+                    Some(Plain::Other(_)) => {
+                        other += 1;
+                        continue;
+                    }
+                    Some(Plain::Odd) | None => {
+                        bad.filtered += other;
+                        return added + other;
+                    }
                 };
                 excl.apply(t, slot);
                 self.commit(t, line);
@@ -494,14 +521,18 @@ impl Block {
         }
         while !self.is_full() {
             let slot = self.slot();
-            let Some(Some((line, t))) = recs.next_plain_by(parser, slot, false) else {
-                break;
-            };
-            excl.apply(t, slot);
-            self.commit(t, line);
-            added += 1;
+            match recs.next_plain_by(parser, slot, false) {
+                Some(Plain::Row(line, t)) => {
+                    excl.apply(t, slot);
+                    self.commit(t, line);
+                    added += 1;
+                }
+                Some(Plain::Other(_)) => other += 1,
+                Some(Plain::Odd) | None => break,
+            }
         }
-        added
+        bad.filtered += other;
+        added + other
     }
 
     /// [`Block::fill`] for a straight file of `N` channels
@@ -713,7 +744,8 @@ impl Sequential<'_> {
                     let mut recs = Records::new(&bytes, line);
                     loop {
                         let next = if fills {
-                            self.stats.rows += self.block.fill(&mut recs, p, &self.cfg.exclusions);
+                            let (excl, bad) = (&self.cfg.exclusions, &mut self.stats.bad);
+                            self.stats.rows += self.block.fill(&mut recs, p, excl, bad);
                             if self.block.is_full() {
                                 self.flush(path)?;
                                 continue;
@@ -735,6 +767,9 @@ impl Sequential<'_> {
                                     self.flush(path)?;
                                 }
                             }
+                            // Another station's row touches only the counts:
+                            // the block goes on.
+                            Err(e) if e.is_other_station() => self.row(path, ln, Err(e))?,
                             Err(_) => {
                                 self.flush(path)?;
                                 self.row(path, ln, parsed)?;
@@ -854,6 +889,16 @@ fn ends_line(buf: &[u8], at: usize) -> bool {
     }
 }
 
+/// A record as the one-pass readers leave it ([`Records::next_plain`]).
+enum Plain {
+    /// Read: its line and time.
+    Row(u64, Timestamp),
+    /// A row of another station (`[input] filter`), passed over: its line.
+    Other(u64),
+    /// Neither: left unread for the general way.
+    Odd,
+}
+
 /// The records of a block of text without quotes: split at `\n` and `\r`,
 /// blank ones skipped, each with the line it starts on.
 pub struct Records<'a> {
@@ -895,21 +940,18 @@ impl<'a> Records<'a> {
             return self.next_declared_row(parser, readings, commas);
         }
         match self.next_plain(parser, readings)? {
-            Some(row) => Some((row.0, Ok(row.1))),
-            None => self.next_odd_row(parser, readings, commas),
+            Plain::Row(line, t) => Some((line, Ok(t))),
+            Plain::Other(line) => Some((line, Err(BadRow::other_station()))),
+            Plain::Odd => self.next_odd_row(parser, readings, commas),
         }
     }
 
     /// The next record if it is plain (the own CSV: [`Parser::parse_plain`];
-    /// a declared layout: [`Declared::one_pass`]), read into `readings`:
-    /// `Some(Some((line, time)))`; `Some(None)` when it is not plain (left
+    /// a declared layout: [`Declared::one_pass`]), read into `readings`, or
+    /// a row of another station; [`Plain::Odd`] when it is neither (left
     /// unread, for [`Records::next_row`]); `None` at the end.
     #[inline(always)]
-    fn next_plain(
-        &mut self,
-        parser: &mut Parser,
-        readings: &mut [Reading],
-    ) -> Option<Option<(u64, Timestamp)>> {
+    fn next_plain(&mut self, parser: &mut Parser, readings: &mut [Reading]) -> Option<Plain> {
         self.next_plain_by(parser, readings, true)
     }
 
@@ -922,7 +964,7 @@ impl<'a> Records<'a> {
         parser: &mut Parser,
         readings: &mut [Reading],
         straight: bool,
-    ) -> Option<Option<(u64, Timestamp)>> {
+    ) -> Option<Plain> {
         let buf = self.buf;
         let i = self.skip_blank()?;
         let row = match parser.declared.as_deref_mut() {
@@ -931,10 +973,13 @@ impl<'a> Records<'a> {
             Some(d) => d.one_pass(buf, i, readings),
         };
         let Some((t, end)) = row else {
+            if let Some(end) = parser.declared.as_deref_mut().and_then(|d| d.other.take()) {
+                return Some(Plain::Other(self.end_row(end)));
+            }
             self.pos = i;
-            return Some(None);
+            return Some(Plain::Odd);
         };
-        Some(Some((self.end_row(end), t)))
+        Some(Plain::Row(self.end_row(end), t))
     }
 
     /// Moves past a row read up to `end` (its terminator, or the end of the
@@ -976,6 +1021,9 @@ impl<'a> Records<'a> {
         if let (Some(d), Some(i)) = (parser.declared.as_deref_mut(), self.skip_blank()) {
             if let Some((t, end)) = d.one_pass(self.buf, i, readings) {
                 return Some((self.end_row(end), Ok(t)));
+            }
+            if let Some(end) = d.other.take() {
+                return Some((self.end_row(end), Err(BadRow::other_station())));
             }
             // The general way reads the row from its start: the line ends
             // before it are counted already.
@@ -1552,11 +1600,12 @@ fn split_whitespace(rec: &[u8], spans: &mut Vec<(u32, u32)>) {
 }
 
 /// The plan of [`Declared::one_pass`] for a layout, if it can be read so:
-/// one-byte delimiter, up to [`TIME_PARTS`] time columns, no filter, each
-/// field read once.
+/// one-byte delimiter, up to [`TIME_PARTS`] time columns, each field read
+/// once.
 /// Missing-value texts are compared in the pass, quality codes read in it
-/// ([`Step::Quality`]), and units converted after it
-/// ([`Declared::converted`]).
+/// ([`Step::Quality`]), a filter's column too ([`Step::Filter`]: a row of
+/// another station is counted, not read further), and units converted after
+/// it ([`Declared::converted`]).
 fn one_pass_plan(
     table: &Table,
     time: &[usize],
@@ -1564,7 +1613,7 @@ fn one_pass_plan(
     filter: Option<usize>,
     fields: usize,
 ) -> Option<Vec<Step>> {
-    if filter.is_some() || matches!(table.delimiter, Delimiter::Byte(b'\n' | b'\r' | b'"')) {
+    if matches!(table.delimiter, Delimiter::Byte(b'\n' | b'\r' | b'"')) {
         return None;
     }
     if time.len() > TIME_PARTS {
@@ -1585,6 +1634,9 @@ fn one_pass_plan(
                 put(t, Step::TimePart(k))?;
             }
         }
+    }
+    if let Some(f) = filter {
+        put(f, Step::Filter)?;
     }
     for (c, &(i, decode, q, _)) in chan.iter().enumerate() {
         if let Some(q) = q {
@@ -1791,9 +1843,14 @@ pub struct Declared {
     clock: Clock,
     /// A row read in one pass ([`Declared::one_pass`]): what each field
     /// holds, up to the last one read; `None` when the layout needs more
-    /// (several time columns, a filter, quality columns, whitespace, a column
-    /// read twice).
+    /// (more than [`TIME_PARTS`] time columns, a column read twice, a line
+    /// end or a quote as the delimiter).
     plan: Option<Vec<Step>>,
+    /// Set by [`Declared::one_pass`] when it leaves a row of another station
+    /// (`[input] filter`) that the general way counts as such (the right
+    /// number of fields): the offset of its end. Taken at once by the
+    /// caller ([`Records::next_plain_by`], [`Records::next_declared_row`]).
+    other: Option<usize>,
     /// The channels whose values [`Declared::one_pass`] converts after the
     /// row is read (another unit in the file than the channel's), with their
     /// conversions.
@@ -1924,7 +1981,7 @@ fn straight_plan(plan: Option<&[Step]>) -> Option<u64> {
             Step::Time => Some(Col::Time),
             Step::Value(c) => Some(Col::Value(c)),
             Step::Counts(c) => Some(Col::Counts(c)),
-            Step::Skip | Step::Quality(_) | Step::TimePart(_) => None,
+            Step::Skip | Step::Quality(_) | Step::TimePart(_) | Step::Filter => None,
         })
         .collect::<Option<Vec<Col>>>()?;
     if cols.len() > 13 {
@@ -1945,7 +2002,52 @@ enum Step {
     /// The quality code of channel `c`: a code not among the channel's good
     /// ones flags its reading, whatever the reading ([`is_good`]).
     Quality(usize),
+    /// The column of `[input] filter`: a row whose text there (surrounding
+    /// spaces ignored) is not the filter's value is another station's
+    /// ([`Declared::other`]).
+    Filter,
     Skip,
+}
+
+/// Whether `field` (surrounding spaces ignored) is the text that `table`'s
+/// `[input] filter` keeps, as the general way compares it
+/// ([`Declared::row`]); any row is kept without a filter.
+#[inline]
+fn kept(table: &Table, field: &[u8]) -> bool {
+    table
+        .filter
+        .as_ref()
+        .is_none_or(|f| field.trim_ascii() == f.value.as_slice())
+}
+
+/// The end of a row of another station whose first `seen` fields end at
+/// `buf[p]`, if it has the fields the general way asks of a row (`fields`,
+/// exactly or at least), which then counts it as another station's
+/// ([`Declared::row`]): `next` gives the length of what starts its slice,
+/// a field with what comes before it (delimiter or blanks; `true`) or
+/// trailing blanks (`false`), `None` at the row's end; `None` for a row of
+/// another number of fields or one that does not end at a line end or the
+/// end of `buf`.
+#[inline(never)]
+fn other_end(
+    buf: &[u8],
+    mut p: usize,
+    mut seen: usize,
+    fields: usize,
+    exact: bool,
+    next: impl Fn(&[u8]) -> Option<(usize, bool)>,
+) -> Option<usize> {
+    while let Some((n, field)) = next(buf.get(p..)?) {
+        p += n;
+        seen += usize::from(field);
+    }
+    let ends = matches!(buf.get(p), None | Some(b'\n' | b'\r'));
+    let count = if exact {
+        seen == fields
+    } else {
+        seen >= fields
+    };
+    (ends && count).then_some(p)
 }
 
 /// Whether `code` (surrounding spaces ignored) is one of the good codes of
@@ -2092,6 +2194,7 @@ impl Declared {
             tbuf: Vec::with_capacity(64),
             clock: Clock::default(),
             plan,
+            other: None,
             converted,
             straight,
             code_lens: code_lengths(&cfg.table.missing),
@@ -2253,6 +2356,20 @@ impl Declared {
                     }
                     n
                 }
+                Step::Filter => {
+                    let n = field(rest);
+                    if !kept(table, &rest[..n]) {
+                        // The fields after it: each a run of blanks, then
+                        // one of other bytes (trailing blanks are no field).
+                        self.other = other_end(buf, p + n, i + 1, self.fields, self.exact, |b| {
+                            let k = b.iter().take_while(|c| blank(c)).count();
+                            let f = field(&b[k..]);
+                            (k > 0).then_some((k + f, f > 0))
+                        });
+                        return None;
+                    }
+                    n
+                }
                 Step::Skip => field(rest),
             };
             p += n;
@@ -2347,6 +2464,17 @@ impl Declared {
                     let n = field_len(rest, delim);
                     if !is_good(table, c, &rest[..n]) {
                         flagged |= 1 << c;
+                    }
+                    p += n;
+                }
+                Step::Filter => {
+                    let n = field_len(rest, delim);
+                    if !kept(table, &rest[..n]) {
+                        self.other = other_end(buf, p + n, i + 1, self.fields, self.exact, |b| {
+                            (b.first() == Some(&delim))
+                                .then(|| (1 + field_len(&b[1..], delim), true))
+                        });
+                        return None;
                     }
                     p += n;
                 }
@@ -2463,7 +2591,7 @@ impl Declared {
         let table = &*self.table;
         if let (Some(i), Some(flt)) = (self.filter, &table.filter) {
             if f.field(i).trim_ascii() != flt.value.as_slice() {
-                return Err(BadRow::new(BadKind::Filtered, None, String::new()));
+                return Err(BadRow::other_station());
             }
         }
         let text: &[u8] = if let [i] = self.time[..] {
@@ -3734,7 +3862,7 @@ mod tests {
             };
             loop {
                 let next = if fill {
-                    filled += blk.fill(&mut recs, &mut p, &excl);
+                    filled += blk.fill(&mut recs, &mut p, &excl, &mut BadCounts::default());
                     if blk.is_full() {
                         flush(&mut blk, &mut events);
                         continue;
