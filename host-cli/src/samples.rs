@@ -2209,9 +2209,88 @@ impl Declared {
     /// the offset of the row's end (its terminator, or the end of `buf`);
     /// `None` for any other row (a comment, spaces, a bad field, the wrong
     /// number of fields), which [`Declared::row`] then reads (`readings` may
-    /// be partly written): the same result.
+    /// be partly written): the same result. A row that the general way would
+    /// count as another station's (`[input] filter`) is passed over: `None`,
+    /// with its end in [`Declared::other`].
     #[inline]
     fn one_pass(
+        &mut self,
+        buf: &[u8],
+        start: usize,
+        readings: &mut [Reading],
+    ) -> Option<(Timestamp, usize)> {
+        let row = self.one_pass_any(buf, start, readings);
+        if row.is_none() && self.other.is_none() && self.filter.is_some() {
+            // Left before its filter's column was compared (a bad value of
+            // another station, the column after the channels).
+            self.other = self.other_station(buf, start);
+        }
+        row
+    }
+
+    /// The end of the row at `buf[start]` if the general way counts it as
+    /// another station's ([`Declared::row`]): not a comment, the right
+    /// number of fields, and not the text of the filter in its column.
+    #[inline(never)]
+    fn other_station(&self, buf: &[u8], start: usize) -> Option<usize> {
+        let col = self.filter?;
+        let table = &*self.table;
+        if may_be_comment(table, buf.get(start..)?) {
+            return None;
+        }
+        match table.delimiter {
+            Delimiter::Byte(delim) => {
+                let mut p = start;
+                for _ in 0..col {
+                    p += field_len(buf.get(p..)?, delim);
+                    if buf.get(p) != Some(&delim) {
+                        return None;
+                    }
+                    p += 1;
+                }
+                let n = field_len(buf.get(p..)?, delim);
+                if kept(table, &buf[p..p + n]) {
+                    return None;
+                }
+                other_end(buf, p + n, col + 1, self.fields, self.exact, |b| {
+                    (b.first() == Some(&delim)).then(|| (1 + field_len(&b[1..], delim), true))
+                })
+            }
+            Delimiter::Whitespace => {
+                let next = |b: &[u8]| {
+                    let k = b.iter().take_while(|c| matches!(c, b' ' | b'\t')).count();
+                    let f = b[k..]
+                        .iter()
+                        .position(|c| matches!(c, b' ' | b'\t' | b'\n' | b'\r'))
+                        .unwrap_or(b.len() - k);
+                    (k > 0 || f > 0).then_some((k + f, f > 0))
+                };
+                // The fields before the filter's, its own, then the rest.
+                let mut p = start;
+                let mut seen = 0;
+                while seen <= col {
+                    let (n, field) = next(buf.get(p..)?)?;
+                    if field {
+                        seen += 1;
+                    }
+                    p += n;
+                }
+                let n = buf[..p]
+                    .iter()
+                    .rev()
+                    .take_while(|c| !matches!(c, b' ' | b'\t'))
+                    .count();
+                if kept(table, &buf[p - n..p]) {
+                    return None;
+                }
+                other_end(buf, p, col + 1, self.fields, self.exact, next)
+            }
+        }
+    }
+
+    /// [`Declared::one_pass`] before the rows of other stations.
+    #[inline(always)]
+    fn one_pass_any(
         &mut self,
         buf: &[u8],
         start: usize,
@@ -4526,9 +4605,141 @@ mod tests {
         assert!(agreed > 10_000 && flagged > 3_000, "{agreed} {flagged}");
     }
 
+    /// Layouts with `[input] filter` (the rows of station `M1` kept), read in
+    /// one pass and the general way ([`Declared::row`]), row by row, on
+    /// invented rows of three stations: the kept one's text with spaces
+    /// around it, others (`M2`, `M12`, `m1`, an empty field), bad times and
+    /// values, fields missing or more, comments. Wherever the one pass reads
+    /// a row, the general way reads the same ([`declared_row_agrees_at`]);
+    /// wherever it passes a row over as another station's
+    /// ([`Declared::other`]), the general way counts it so and the row ends
+    /// there; and it passes over most of them. The filter's column first
+    /// (a header: exactly as many fields), after the channels (no header: at
+    /// least as many), and in a whitespace layout.
+    #[test]
+    fn declared_rows_with_a_filter_in_one_pass_agree_with_the_general_way() {
+        let channels = "[[channel]]\nid = \"a\"\nkind = \"speed\"\nresolution = 0.01\n\
+            column = \"WG\"\n[[channel]]\nid = \"d\"\nkind = \"direction\"\nslope = 0.1\n\
+            column = \"R\"\n";
+        // The delimiter, whether the file has a header, the delimiter byte.
+        let layouts = [
+            ("\";\"", true, Some(b';')),
+            ("\",\"", false, Some(b',')),
+            ("\"whitespace\"", false, None),
+        ];
+        let stations = ["M1", " M1", "M1 ", "M2", "M12", "m1", ""];
+        let times = [
+            "2025-01-20 10:00:01",
+            "2025-01-20 10:00:02",
+            "2025-13-20 10:00:03",
+            "x",
+        ];
+        let values = ["5.5", "12", "", "nan", "x", "1e1"];
+        let mut rnd = below(47);
+        for (delim, has_header, d) in layouts {
+            let names: &[&[u8]] = &[b"mast", b"Zeit", b"WG", b"R"];
+            let header = if has_header { names } else { &[] };
+            let (filter, time) = match header {
+                [] => ("5", "columns = [1, 2]"),
+                _ => ("\"mast\"", "column = \"Zeit\""),
+            };
+            let toml = format!(
+                "[logging]\nsample_rate_hz = 1\n\n[input]\ndelimiter = {delim}\n\
+                header = {}\nfilter = {{ column = {filter}, value = \"M1\" }}\n\n\
+                [input.time]\n{time}\nformat = \"%Y-%m-%d %H:%M:%S\"\n\n{}",
+                !header.is_empty(),
+                if header.is_empty() {
+                    channels.replace("\"WG\"", "3").replace("\"R\"", "4")
+                } else {
+                    channels.to_string()
+                },
+            );
+            let cfg = crate::config::parse(Path::new("s.toml"), &toml)
+                .unwrap_or_else(|e| panic!("{toml}: {e:#}"));
+            let mut one = Parser::new(Path::new("x"), 1, header.iter().copied(), &cfg).unwrap();
+            let mut general = one.clone();
+            assert!(one.fills_rows(), "{delim}: read in one pass");
+            let (mut read, mut passed, mut others) = (0, 0, 0);
+            let mut delims = Vec::new();
+            for _ in 0..30_000 {
+                let mut pick = |xs: &[&'static str]| xs[rnd(xs.len())];
+                let station = pick(&stations);
+                let mut fields = match header {
+                    // mast; time; WG; R
+                    [_, ..] => vec![station, pick(&times), pick(&values), pick(&values)],
+                    // time, time, WG, R, mast
+                    [] => {
+                        let t = pick(&times);
+                        let (day, clock) = t.split_once(' ').unwrap_or((t, "00:00:00"));
+                        vec![day, clock, pick(&values), pick(&values), station]
+                    }
+                };
+                match pick(&["fields", "fields", "fields", "more", "fewer", "comment"]) {
+                    "more" => fields.push("7"),
+                    "fewer" => drop(fields.pop()),
+                    "comment" => fields[0] = "#M1",
+                    _ => {}
+                }
+                let gap = match d {
+                    Some(b) => char::from(b).to_string(),
+                    None => pick(&[" ", "  ", "\t"]).to_string(),
+                };
+                if d.is_none() && fields.iter().any(|f| f.trim().is_empty()) {
+                    // Whitespace holds no empty or blank field.
+                    continue;
+                }
+                let row = fields.join(&gap);
+                let end = pick(&["\n", "\r\n", "\r"]);
+                let buf = format!("{row}{end}2025-01-20 00:00:00 1 0 s 2\n");
+                let mut recs = Records::new(buf.as_bytes(), 1);
+                let rec_len = match d {
+                    Some(b) => recs.next_delimited(b, &mut delims).map(|(_, r)| r.len()),
+                    None => {
+                        delims.clear();
+                        recs.next().map(|(_, r)| r.len())
+                    }
+                };
+                let mut r = [Reading::Missing; 2];
+                let want = match d {
+                    Some(b) => {
+                        let mut recs = Records::new(buf.as_bytes(), 1);
+                        let (_, rec) = recs.next_delimited(b, &mut delims).unwrap();
+                        general.parse_declared(rec, &delims, &mut r)
+                    }
+                    None => {
+                        let rec = &buf.as_bytes()[..rec_len.unwrap()];
+                        general.parse_declared(rec, &[], &mut r)
+                    }
+                };
+                let is_other = matches!(&want, Some(Err(e)) if e.is_other_station());
+                others += usize::from(is_other);
+                let dec = one.declared.as_deref_mut().unwrap();
+                if dec.one_pass(buf.as_bytes(), 0, &mut r).is_some() {
+                    assert!(
+                        matches!(want, Some(Ok(_))),
+                        "{buf:?}: read, general {want:?}"
+                    );
+                    declared_row_agrees_at(&mut one, &mut general, buf.as_bytes(), &mut delims, d)
+                        .unwrap_or_else(|| panic!("{buf:?}"));
+                    read += 1;
+                } else if let Some(end) = dec.other.take() {
+                    assert!(is_other, "{buf:?}: passed over, general {want:?}");
+                    assert_eq!(Some(end), rec_len, "{buf:?}");
+                    passed += 1;
+                }
+                assert_eq!(one.declared.as_deref().unwrap().other, None, "taken");
+            }
+            assert!(read > 500, "{delim}: {read}");
+            assert!(
+                passed * 10 >= others * 8 && passed > 2_000,
+                "{delim}: {passed} of {others}"
+            );
+        }
+    }
+
     /// The one-pass readers of every kind of layout (a delimiter with
     /// texts that are numbers or not, quality columns, several time
-    /// columns, whitespace) on invented rows of random bytes, short and
+    /// columns, whitespace, a filter) on invented rows of random bytes, short and
     /// long: no panic, and a row they read ends where a line does.
     #[test]
     fn one_pass_rows_of_random_bytes_never_panic() {
@@ -4540,6 +4751,12 @@ mod tests {
             ("\";\"", "[\"NA\"]"),
             ("\",\"", "[]"),
             ("\"whitespace\"", "[\"NA\", \"-9\"]"),
+            // With a filter (column 6): rows of other stations passed over.
+            ("\";\"\nfilter = { column = 6, value = \"M1\" }", "[]"),
+            (
+                "\"whitespace\"\nfilter = { column = 6, value = \"M1\" }",
+                "[]",
+            ),
         ];
         const ALPHA: &[u8] = b"0123456789.,;-+ \t\n\rNAnax:TZ\"\xff";
         let mut next = xorshift(0x6A09_E667_F3BC_C908);
@@ -4561,7 +4778,14 @@ mod tests {
             } else {
                 &delim[1..2]
             };
+            let filter = delim.contains("filter");
             let good = ["2025-01-20", "00:00:01", "5.5", "0", "270"].join(sep);
+            let (kept, other) = if filter {
+                (format!("{good}{sep}M1"), format!("{good}{sep}M2"))
+            } else {
+                (good.clone(), good)
+            };
+            let mut passed = 0;
             let mut read = 0;
             for k in 0..50_000 {
                 let mut row: Vec<u8> = if k % 4 == 0 {
@@ -4569,8 +4793,10 @@ mod tests {
                     (0..len)
                         .map(|_| ALPHA[(next() % ALPHA.len() as u64) as usize])
                         .collect()
+                } else if k % 2 == 1 {
+                    other.as_bytes().to_vec()
                 } else {
-                    good.as_bytes().to_vec()
+                    kept.as_bytes().to_vec()
                 };
                 for _ in 0..next() % 3 {
                     if !row.is_empty() {
@@ -4585,8 +4811,16 @@ mod tests {
                     );
                     read += 1;
                 }
+                if let Some(end) = d.other.take() {
+                    assert!(
+                        matches!(row.get(end), None | Some(b'\n' | b'\r')),
+                        "{row:?}"
+                    );
+                    passed += 1;
+                }
             }
             assert!(read > 5_000, "{delim}: {read}");
+            assert!(!filter || passed > 5_000, "{delim}: {passed}");
         }
     }
 

@@ -614,3 +614,78 @@ fn a_clock_jump_beyond_max_gap_days_is_an_error_naming_the_row() {
         assert_eq!(out.status.success(), ok, "{}", text(&out.stderr));
     }
 }
+
+/// A logger table shared by three masts (`[input] filter` keeps `M1`):
+/// another mast's row before most of the kept ones, some of them with an
+/// unreadable time or value (still another mast's rows), some with a field
+/// too many or too few (bad rows, as in any layout). The records are those
+/// of the kept rows alone, and the same on one thread and on two with every
+/// chunk size; the summary counts every other mast's row.
+#[test]
+fn rows_of_other_masts_are_passed_over_alike_in_parallel() {
+    let dir = setup();
+    let d = dir.path();
+    let plant = Plant {
+        disorder: true,
+        gaps: true,
+        bad: true,
+        faults: true,
+        ..Plant::default()
+    };
+    let names = files(d, 7, 2, 1500, plant);
+    let filter = "\n[input]\nfilter = { column = \"mast\", value = \"M1\" }\n\n\
+                  [input.time]\ncolumn = \"time\"\n";
+    std::fs::write(d.join("masts.toml"), format!("{STATION}{filter}")).unwrap();
+    let mut rng = Rng(11);
+    let (mut shared, mut kept) = (Vec::new(), Vec::new());
+    let mut others = 0;
+    for name in &names {
+        let file = std::fs::read_to_string(d.join(name)).unwrap();
+        let (mut all, mut one) = (String::new(), String::new());
+        for (i, line) in file.lines().enumerate() {
+            if i == 0 {
+                all += &format!("mast,{line}\n");
+                one += &format!("mast,{line}\n");
+                continue;
+            }
+            if rng.chance(800) {
+                let other = match rng.below(6) {
+                    0 => "M2,yesterday,1,2,3,4,5".to_string(),
+                    1 => format!("M3,{}", line.replace('.', "..")),
+                    2 => "M2,1,2".to_string(),
+                    3 => format!("M12,{line},7"),
+                    _ => format!(" M2 ,{line}"),
+                };
+                // Another mast's row has the header's 7 fields; any other
+                // row is bad.
+                others += usize::from(other.split(',').count() == 7);
+                all += &other;
+                all.push('\n');
+            }
+            all += &format!("M1,{line}\n");
+            one += &format!("M1,{line}\n");
+        }
+        let (a, b) = (format!("all-{name}"), format!("one-{name}"));
+        std::fs::write(d.join(&a), all).unwrap();
+        std::fs::write(d.join(&b), one).unwrap();
+        shared.push(a);
+        kept.push(b);
+    }
+    let run = |files: &[String]| {
+        let mut a = vec!["-c", "masts.toml", "--skip-bad-rows"];
+        a.extend(files.iter().map(String::as_str));
+        same_as_sequential(d, &a)
+    };
+    let (both, alone) = (run(&shared), run(&kept));
+    assert!(both.status.success(), "{}", text(&both.stderr));
+    assert!(
+        both.stdout == alone.stdout,
+        "{}",
+        first_difference(&alone.stdout, &both.stdout)
+    );
+    let err = text(&both.stderr);
+    assert!(
+        err.contains(&format!("+ {others} rows of other stations")),
+        "{others}: {err}"
+    );
+}
