@@ -480,7 +480,7 @@ impl Block {
         excl: &Exclusions,
         bad: &mut BadCounts,
     ) -> u64 {
-        let (mut added, mut other) = (0, 0);
+        let mut added = 0;
         if let Some(counts) = parser.straight {
             loop {
                 let p = &*parser;
@@ -491,22 +491,14 @@ impl Block {
                 };
                 added += n;
                 if self.is_full() {
-                    break;
+                    return added;
                 }
                 // The row the straight loop left (a `NaN`, say), by the
-                // column plan; any other row is the caller's.
+                // column plan; any other row is the caller's. (The own CSV
+                // has no filter: no row of another station comes here.)
                 let slot = self.slot();
-                let (line, t) = match recs.next_plain_by(parser, slot, false) {
-                    Some(Plain::Row(line, t)) => (line, t),
-                    // Not of the own CSV, which has no filter.
-                    Some(Plain::Other(_)) => {
-                        other += 1;
-                        continue;
-                    }
-                    Some(Plain::Odd) | None => {
-                        bad.filtered += other;
-                        return added + other;
-                    }
+                let Some(Plain::Row(line, t)) = recs.next_plain_by(parser, slot, false) else {
+                    return added;
                 };
                 excl.apply(t, slot);
                 self.commit(t, line);
@@ -519,6 +511,7 @@ impl Block {
                 }
             }
         }
+        let mut other = 0;
         while !self.is_full() {
             let slot = self.slot();
             match recs.next_plain_by(parser, slot, false) {
