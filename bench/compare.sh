@@ -22,9 +22,9 @@
 #           provenance file; stdout goes to /dev/null by redirection)
 #   layout1 working tree, --jobs 1, declared layout
 #   layoutm1 the same with a missing-value text in its [input]
-#   layoutq1 layout2t1 layoutw1  the same samples with a quality column, with
-#           the time in two columns, and split at whitespace
-#           (bench/layout_variants.py)
+#   layoutq1 layout2t1 layoutw1 layoutf1  the same samples with a quality
+#           column, with the time in two columns, split at whitespace, and
+#           after rows of another mast (a filter; bench/layout_variants.py)
 #   camp1 camp2  working tree, --jobs 1 and 2, the demo station with its
 #           [campaign] files (sensor history, exclusions, events), own CSV
 #   zst1    working tree, --jobs 1, .zst of the own CSV
@@ -100,8 +100,8 @@ mkdir -p "$FD"
 # field is compared with it.
 sed 's/^decimal = ","$/decimal = ","\nmissing = ["NAN"]/' "$FD/field.toml" >"$FD/field-m.toml"
 # The declared layout with a quality column, with its time in two columns,
-# and split at whitespace (bench/layout_variants.py).
-[ -s "$FD/field-w.csv" ] || python3 bench/layout_variants.py "$FD"
+# split at whitespace, and after rows of another mast (bench/layout_variants.py).
+[ -s "$FD/field-f.toml" ] || python3 bench/layout_variants.py "$FD"
 # The demo station with its [campaign] files (sensor history with a swap,
 # exclusions, events): what a campaign replays.
 CAMP="$DIR/demo-${DAYS}d/station.toml"
@@ -129,12 +129,12 @@ CMD[layout1]="$BIN replay -q -j 1 -c $FD/field.toml $FD/field.csv -o $DIR/r-layo
 CMD[zst1]="$BIN replay -q -j 1 -c $STATION $S.zst -o $DIR/r-zst1.csv"
 CMD[gz1]="$BIN replay -q -j 1 -c $STATION $S.gz -o $DIR/r-gz1.csv"
 CMD[layoutm1]="$BIN replay -q -j 1 -c $FD/field-m.toml $FD/field.csv -o $DIR/r-layoutm1.csv"
-for v in q 2t w; do
+for v in q 2t w f; do
     CMD[layout${v}1]="$BIN replay -q -j 1 -c $FD/field-$v.toml $FD/field-$v.csv -o $DIR/r-layout${v}1.csv"
 done
 CMD[camp1]="$BIN replay -q -j 1 -c $CAMP $S -o $DIR/r-camp1.csv"
 CMD[camp2]="$BIN replay -q -j 2 -c $CAMP $S -o $DIR/r-camp2.csv"
-names="own1 own1s own2 layout1 zst1 gz1 layoutm1 layoutq1 layout2t1 layoutw1 camp1 camp2"
+names="own1 own1s own2 layout1 zst1 gz1 layoutm1 layoutq1 layout2t1 layoutw1 layoutf1 camp1 camp2"
 if [ "$SKIP_BASE" != 1 ]; then
     # Never `-o /dev/null` for the baseline: it replaces its -o target by rename.
     CMD[base1]="$BASE_BIN replay -q -j 1 -c $STATION $S -o $DIR/r-base1.csv"
@@ -153,7 +153,7 @@ fi
 echo
 echo "## checks"
 ${CMD[own1]}
-for k in own2 layout1 zst1 gz1 layoutm1 layout2t1 layoutw1 base1; do
+for k in own2 layout1 zst1 gz1 layoutm1 layout2t1 layoutw1 layoutf1 base1; do
     [ -n "${CMD[$k]:-}" ] || continue
     ${CMD[$k]}
     if cmp -s "$DIR/r-own1.csv" "$DIR/r-$k.csv"; then
@@ -242,11 +242,18 @@ for v, what in [("q", "quality column / none"), ("2t", "time in two columns / on
                 ("w", "whitespace, two time columns / `;`")]:
     show(f"declared layout, {what}, per byte",
          lambda x, v=v: (x[f"layout{v}1"] / size(v)) / (x["layout1"] / lay_b))
+show("declared layout, another mast's row before each / none, time",
+     lambda x: x["layoutf1"] / x["layout1"])
 show("campaign station / plain station, time, --jobs 1", lambda x: x["camp1"] / x["own1"])
 show("campaign station / plain station, time, --jobs 2", lambda x: x["camp2"] / x["own2"])
 show("pandas / tenmin --jobs 1 (goal >= 20)", lambda x: x["pandas"] / x["own1"])
 show("polars 1 thread / tenmin --jobs 1 (goal >= 12)", lambda x: x["polars1"] / x["own1"])
 show("duckdb 1 thread / tenmin --jobs 1 (goal >= 12)", lambda x: x["duckdb1"] / x["own1"])
+# The peers read and compute, and write nothing; `own1s` writes the records
+# to stdout (/dev/null), without the provenance file and its input hash.
+show("pandas / tenmin --jobs 1 to stdout", lambda x: x["pandas"] / x["own1s"])
+show("polars 1 thread / tenmin --jobs 1 to stdout", lambda x: x["polars1"] / x["own1s"])
+show("duckdb 1 thread / tenmin --jobs 1 to stdout", lambda x: x["duckdb1"] / x["own1s"])
 show("pandas / tenmin --jobs 2", lambda x: x["pandas"] / x["own2"])
 show("polars 2 threads / tenmin --jobs 2 (goal >= 12)", lambda x: x["polars2"] / x["own2"])
 show("duckdb 2 threads / tenmin --jobs 2 (goal >= 12)", lambda x: x["duckdb2"] / x["own2"])

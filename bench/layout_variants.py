@@ -11,10 +11,15 @@ with its station file:
 - field-2t: the time in two columns, `Datum;Zeit`;
 - field-w: the time in two columns and the fields separated by one space
   (`delimiter = "whitespace"`), an empty field written `NAN` (whitespace
-  cannot hold an empty field; both read as missing).
+  cannot hold an empty field; both read as missing);
+- field-f: a table shared by two masts, a `mast` column first, each row of
+  mast `M1` (the samples) after one of mast `M2` (the same readings), and
+  `filter = { column = "mast", value = "M1" }`: twice the rows for the same
+  records.
 
-The 2t and w files replay to the records of field.csv (bench/compare.sh checks
-it); q's differ by its flagged readings. Invented layouts for timing only.
+The 2t, w and f files replay to the records of field.csv (bench/compare.sh
+checks it); q's differ by its flagged readings. Invented layouts for timing
+only.
 """
 
 import sys
@@ -26,12 +31,14 @@ def main():
     toml = (d / "field.toml").read_text()
     with (d / "field.csv").open() as src, (d / "field-q.csv").open("w") as q, (
         d / "field-2t.csv"
-    ).open("w") as t2, (d / "field-w.csv").open("w") as w:
+    ).open("w") as t2, (d / "field-w.csv").open("w") as w, (d / "field-f.csv").open("w") as f2:
         header = src.readline().rstrip("\n").split(";")
         q.write(";".join(header[:2] + ["q"] + header[2:]) + "\n")
         t2.write(";".join(["Datum", "Zeit"] + header[1:]) + "\n")
         w.write(" ".join(["Datum", "Zeit"] + header[1:]) + "\n")
+        f2.write(";".join(["mast"] + header) + "\n")
         for i, line in enumerate(src):
+            f2.write("M2;" + line + "M1;" + line)
             f = line.rstrip("\n").split(";")
             code = "3" if i % 1000 == 999 else "0"
             q.write(";".join(f[:2] + [code] + f[2:]) + "\n")
@@ -45,6 +52,8 @@ def main():
     two = toml.replace('column = "Datum Zeit"', 'columns = ["Datum", "Zeit"]')
     (d / "field-2t.toml").write_text(two)
     (d / "field-w.toml").write_text(two.replace('delimiter = ";"', 'delimiter = "whitespace"'))
+    masts = 'delimiter = ";"\nfilter = { column = "mast", value = "M1" }'
+    (d / "field-f.toml").write_text(toml.replace('delimiter = ";"', masts))
 
 
 if __name__ == "__main__":
