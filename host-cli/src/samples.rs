@@ -1852,6 +1852,9 @@ pub struct Declared {
     /// (bit `c` set for channel `c` read as counts): read by
     /// [`Declared::one_pass_straight`], a loop per width.
     straight: Option<u64>,
+    /// The time columns that start a straight plan, when there are several
+    /// ([`Step::TimePart`] in their order); 0: one time column.
+    straight_parts: usize,
     /// The lengths of the missing-value texts ([`code_lengths`]).
     code_lens: u64,
     /// How the one-pass readers test for them ([`codes_kind`]).
@@ -1902,6 +1905,35 @@ impl Clock {
             .time
             .parse_memo(text, memo, zone)
             .or_else(|| table.time.parse_with(text, memo, zone).ok())
+    }
+
+    /// The time of the `k` time columns at `buf[start]`, one after the
+    /// other ([`Declared::straight_parts`]), as [`Declared::one_pass_in`]
+    /// reads them ([`Clock::parts`]), and the length of their fields.
+    #[inline]
+    fn fields(
+        &mut self,
+        table: &Table,
+        buf: &[u8],
+        start: usize,
+        k: usize,
+        delim: u8,
+    ) -> Option<(Timestamp, usize)> {
+        let mut parts = [(0usize, 0usize); TIME_PARTS];
+        let mut p = start;
+        for (j, part) in parts.iter_mut().take(k).enumerate() {
+            if j > 0 {
+                if buf.get(p) != Some(&delim) {
+                    return None;
+                }
+                p += 1;
+            }
+            let n = field_len(buf.get(p..)?, delim);
+            *part = (p, p + n);
+            p += n;
+        }
+        let t = self.parts(table, buf, parts.get(..k)?)?;
+        Some((t, p - start))
     }
 
     /// The time of several time columns ([`Step::TimePart`], their spans in
@@ -1964,13 +1996,29 @@ fn may_be_comment(table: &Table, rest: &[u8]) -> bool {
     }
 }
 
-/// The plan's channel bits for [`Declared::one_pass_straight`]: `Some` when
-/// `plan` is the time and then channels `0..n` in order
-/// ([`straight_columns`]), at most 12 of them (the widths of [`by_width!`]).
-fn straight_plan(plan: Option<&[Step]>) -> Option<u64> {
-    let cols = plan?
+/// The plan's channel bits for [`Declared::one_pass_straight`] and its
+/// time columns ([`Declared::straight_parts`]): `Some` when `plan` is the
+/// time (one column, or several in their order) and then channels `0..n` in
+/// order ([`straight_columns`]), at most 12 of them (the widths of
+/// [`by_width!`]).
+fn straight_plan(plan: Option<&[Step]>) -> Option<(u64, usize)> {
+    let plan = plan?;
+    // Several time columns first, in their order: read as one.
+    let parts = plan
         .iter()
-        .map(|step| match *step {
+        .enumerate()
+        .take_while(|&(k, s)| *s == Step::TimePart(k))
+        .count();
+    let (parts, plan) = match parts {
+        0 => (0, plan),
+        1 => return None,
+        k => (k, plan.get(k - 1..)?),
+    };
+    let cols = plan
+        .iter()
+        .enumerate()
+        .map(|(i, step)| match *step {
+            Step::TimePart(_) if i == 0 && parts > 0 => Some(Col::Time),
             Step::Time => Some(Col::Time),
             Step::Value(c) => Some(Col::Value(c)),
             Step::Counts(c) => Some(Col::Counts(c)),
@@ -1980,7 +2028,7 @@ fn straight_plan(plan: Option<&[Step]>) -> Option<u64> {
     if cols.len() > 13 {
         return None;
     }
-    straight_columns(&cols)
+    Some((straight_columns(&cols)?, parts))
 }
 
 /// What one field of a row read in one pass holds.
@@ -2159,7 +2207,10 @@ impl Declared {
             (highest + 1, false)
         };
         let plan = one_pass_plan(&table, &time, &chan, filter, fields);
-        let straight = straight_plan(plan.as_deref());
+        let (straight, straight_parts) = match straight_plan(plan.as_deref()) {
+            Some((counts, parts)) => (Some(counts), parts),
+            None => (None, 0),
+        };
         // The general way converts values only: counts stay as read.
         let converted = (table.sources.iter().zip(&chan).enumerate())
             .filter_map(|(c, (src, &(_, decode, ..)))| {
@@ -2190,6 +2241,7 @@ impl Declared {
             other: None,
             converted,
             straight,
+            straight_parts,
             code_lens: code_lengths(&cfg.table.missing),
             codes: codes_kind(&cfg.table.missing, sep, delim),
         })
@@ -2613,7 +2665,10 @@ impl Declared {
             return None;
         }
         let rest = buf.get(start..)?;
-        let (t, n) = self.clock.field(table, rest, delim)?;
+        let (t, n) = match self.straight_parts {
+            0 => self.clock.field(table, rest, delim)?,
+            k => self.clock.fields(table, buf, start, k, delim)?,
+        };
         let mut p = start + n;
         for (c, r) in readings.iter_mut().enumerate() {
             if buf.get(p) != Some(&delim) {
@@ -4475,7 +4530,9 @@ mod tests {
     /// order than the file's (`Zeit` then `Datum`), read in one pass and the
     /// general way on invented rows whose time parts are good, spaced, empty
     /// or bad: wherever the one pass reads a row, the same time and readings;
-    /// most rows are read in one pass.
+    /// most rows are read in one pass. Then with the two time columns first
+    /// in the order they are joined and the channels after them in order
+    /// (`one_pass_straight` with [`Declared::straight_parts`]).
     #[test]
     fn declared_rows_with_a_time_in_two_columns_in_one_pass_agree_with_the_general_way() {
         let toml = "[logging]\nsample_rate_hz = 1\n\n[input]\ndelimiter = \";\"\n\
@@ -4485,10 +4542,21 @@ mod tests {
             [[channel]]\nid = \"a\"\nkind = \"speed\"\nresolution = 0.01\ncolumn = \"WG\"\n\
             [[channel]]\nid = \"d\"\nkind = \"direction\"\nslope = 0.1\ncolumn = \"R\"\n";
         let cfg = crate::config::parse(Path::new("s.toml"), toml).unwrap();
-        let header: [&[u8]; 4] = [b"Datum", b"WG", b"Zeit", b"R"];
-        let mut one = Parser::new(Path::new("x"), 1, header.into_iter(), &cfg).unwrap();
-        let mut general = one.clone();
-        assert!(one.fills_rows(), "read in one pass");
+        let apart: [&[u8]; 4] = [b"Datum", b"WG", b"Zeit", b"R"];
+        let first: [&[u8]; 4] = [b"Zeit", b"Datum", b"WG", b"R"];
+        for (header, parts) in [(apart, 0), (first, 2)] {
+            let mut one = Parser::new(Path::new("x"), 1, header.into_iter(), &cfg).unwrap();
+            let mut general = one.clone();
+            assert!(one.fills_rows(), "read in one pass");
+            let d = one.declared.as_deref().unwrap();
+            assert_eq!((d.straight.is_some(), d.straight_parts), (parts > 0, parts));
+            two_time_columns_agree(&mut one, &mut general, header[0] == b"Zeit");
+        }
+    }
+
+    /// [`declared_rows_with_a_time_in_two_columns_in_one_pass_agree_with_the_general_way`]
+    /// for the columns `Datum;WG;Zeit;R` or, `first`, `Zeit;Datum;WG;R`.
+    fn two_time_columns_agree(one: &mut Parser, general: &mut Parser, first: bool) {
         let days = [
             "26.10.2025",
             "27.10.2025",
@@ -4515,8 +4583,12 @@ mod tests {
                 values[rnd(values.len())],
                 values[rnd(values.len())],
             );
-            let buf = format!("{day};{a};{time};{r}\n26.10.2025;1;00:00:00;2\n");
-            if declared_row_agrees(&mut one, &mut general, buf.as_bytes(), &mut delims).is_some() {
+            let buf = if first {
+                format!("{time};{day};{a};{r}\n00:00:00;26.10.2025;1;2\n")
+            } else {
+                format!("{day};{a};{time};{r}\n26.10.2025;1;00:00:00;2\n")
+            };
+            if declared_row_agrees(one, general, buf.as_bytes(), &mut delims).is_some() {
                 agreed += 1;
                 spaced += usize::from(day.trim() != day || time.starts_with(' '));
             }
@@ -4524,7 +4596,10 @@ mod tests {
         // Spaces around a part are trimmed in the pass, as the general way
         // trims them (a row the pass leaves goes the general way, the same
         // readings, only slower).
-        assert!(agreed > 8_000 && spaced > 2_000, "{agreed} {spaced}");
+        assert!(
+            agreed > 8_000 && spaced > 2_000,
+            "{first}: {agreed} {spaced}"
+        );
     }
 
     /// A whitespace layout without a header (fields by position, the time
