@@ -1855,6 +1855,9 @@ pub struct Declared {
     /// The time columns that start a straight plan, when there are several
     /// ([`Step::TimePart`] in their order); 0: one time column.
     straight_parts: usize,
+    /// The channels of a straight plan whose reading is followed by its
+    /// quality code (bit `c` for channel `c`, [`Step::Quality`]).
+    straight_quality: u64,
     /// The lengths of the missing-value texts ([`code_lengths`]).
     code_lens: u64,
     /// How the one-pass readers test for them ([`codes_kind`]).
@@ -1996,12 +1999,13 @@ fn may_be_comment(table: &Table, rest: &[u8]) -> bool {
     }
 }
 
-/// The plan's channel bits for [`Declared::one_pass_straight`] and its
-/// time columns ([`Declared::straight_parts`]): `Some` when `plan` is the
-/// time (one column, or several in their order) and then channels `0..n` in
-/// order ([`straight_columns`]), at most 12 of them (the widths of
-/// [`by_width!`]).
-fn straight_plan(plan: Option<&[Step]>) -> Option<(u64, usize)> {
+/// The plan's channel bits for [`Declared::one_pass_straight`], its time
+/// columns ([`Declared::straight_parts`]) and its quality columns
+/// ([`Declared::straight_quality`]): `Some` when `plan` is the time (one
+/// column, or several in their order) and then channels `0..n` in order
+/// ([`straight_columns`]), each perhaps followed by its quality code, at most
+/// 12 of them (the widths of [`by_width!`]).
+fn straight_plan(plan: Option<&[Step]>) -> Option<(u64, usize, u64)> {
     let plan = plan?;
     // Several time columns first, in their order: read as one.
     let parts = plan
@@ -2014,21 +2018,29 @@ fn straight_plan(plan: Option<&[Step]>) -> Option<(u64, usize)> {
         1 => return None,
         k => (k, plan.get(k - 1..)?),
     };
-    let cols = plan
-        .iter()
-        .enumerate()
-        .map(|(i, step)| match *step {
-            Step::TimePart(_) if i == 0 && parts > 0 => Some(Col::Time),
-            Step::Time => Some(Col::Time),
-            Step::Value(c) => Some(Col::Value(c)),
-            Step::Counts(c) => Some(Col::Counts(c)),
-            Step::Skip | Step::Quality(_) | Step::TimePart(_) | Step::Filter => None,
-        })
-        .collect::<Option<Vec<Col>>>()?;
+    // A channel's quality code right after its reading.
+    let mut quality = 0u64;
+    let mut cols = Vec::with_capacity(plan.len());
+    for (i, step) in plan.iter().enumerate() {
+        cols.push(match *step {
+            Step::TimePart(_) if i == 0 && parts > 0 => Col::Time,
+            Step::Time => Col::Time,
+            Step::Value(c) => Col::Value(c),
+            Step::Counts(c) => Col::Counts(c),
+            Step::Quality(c)
+                if c < 64
+                    && matches!(cols.last(), Some(&(Col::Value(v) | Col::Counts(v))) if v == c) =>
+            {
+                quality |= 1 << c;
+                continue;
+            }
+            Step::Skip | Step::Quality(_) | Step::TimePart(_) | Step::Filter => return None,
+        });
+    }
     if cols.len() > 13 {
         return None;
     }
-    Some((straight_columns(&cols)?, parts))
+    Some((straight_columns(&cols)?, parts, quality))
 }
 
 /// What one field of a row read in one pass holds.
@@ -2207,9 +2219,9 @@ impl Declared {
             (highest + 1, false)
         };
         let plan = one_pass_plan(&table, &time, &chan, filter, fields);
-        let (straight, straight_parts) = match straight_plan(plan.as_deref()) {
-            Some((counts, parts)) => (Some(counts), parts),
-            None => (None, 0),
+        let (straight, straight_parts, straight_quality) = match straight_plan(plan.as_deref()) {
+            Some((counts, parts, quality)) => (Some(counts), parts, quality),
+            None => (None, 0, 0),
         };
         // The general way converts values only: counts stay as read.
         let converted = (table.sources.iter().zip(&chan).enumerate())
@@ -2242,6 +2254,7 @@ impl Declared {
             converted,
             straight,
             straight_parts,
+            straight_quality,
             code_lens: code_lengths(&cfg.table.missing),
             codes: codes_kind(&cfg.table.missing, sep, delim),
         })
@@ -2642,7 +2655,12 @@ impl Declared {
         let n = self.chan.len();
         by_width!(n, N => {
             let slot = readings.first_chunk_mut::<N>()?;
-            self.one_pass_straight::<N, CODES>(buf, start, slot, counts, delim, sep)
+            // Quality codes in a copy of the loop of their own, so that the
+            // others' stays as short.
+            match self.straight_quality {
+                0 => self.one_pass_straight::<N, CODES, false>(buf, start, slot, counts, delim, sep),
+                _ => self.one_pass_straight::<N, CODES, true>(buf, start, slot, counts, delim, sep),
+            }
         })
     }
 
@@ -2650,7 +2668,7 @@ impl Declared {
     /// the `N` channels in order: the field loop unrolled, no plan read, as
     /// [`Parser::parse_straight`] reads the own CSV. The same result.
     #[inline(always)]
-    fn one_pass_straight<const N: usize, const CODES: u8>(
+    fn one_pass_straight<const N: usize, const CODES: u8, const QUALITY: bool>(
         &mut self,
         buf: &[u8],
         start: usize,
@@ -2670,6 +2688,7 @@ impl Declared {
             k => self.clock.fields(table, buf, start, k, delim)?,
         };
         let mut p = start + n;
+        let mut flagged = 0u64;
         for (c, r) in readings.iter_mut().enumerate() {
             if buf.get(p) != Some(&delim) {
                 return None;
@@ -2678,12 +2697,31 @@ impl Declared {
             let rest = buf.get(p..)?;
             let count = counts >> c & 1 == 1;
             p += coded::<CODES>(rest, count, sep, delim, codes, lens, r)?;
+            if QUALITY && self.straight_quality >> c & 1 == 1 {
+                if buf.get(p) != Some(&delim) {
+                    return None;
+                }
+                p += 1;
+                let rest = buf.get(p..)?;
+                let n = field_len(rest, delim);
+                if !is_good(table, c, &rest[..n]) {
+                    flagged |= 1 << c;
+                }
+                p += n;
+            }
         }
         if !self.exact && buf.get(p) == Some(&delim) {
             p += field_len(buf.get(p..)?, b'\n');
         }
         match buf.get(p) {
-            None | Some(b'\n' | b'\r') => Some((t, p)),
+            None | Some(b'\n' | b'\r') => {
+                // Readings whose code is bad are flagged, whatever they read.
+                while QUALITY && flagged != 0 {
+                    *readings.get_mut(flagged.trailing_zeros() as usize)? = Reading::Flagged;
+                    flagged &= flagged - 1;
+                }
+                Some((t, p))
+            }
             Some(_) => None,
         }
     }
@@ -4482,6 +4520,9 @@ mod tests {
     /// a row, the same time and readings, bit for bit (the general way as the
     /// station-file contract states it: a bad code flags the reading whatever
     /// it is). Most rows are read in one pass, flagged readings among them.
+    /// Then with the time first and each code right after its reading
+    /// (`one_pass_straight` with [`Declared::straight_quality`]), and with one
+    /// code after the other channel's reading (the plan again).
     #[test]
     fn declared_rows_with_quality_codes_in_one_pass_agree_with_the_general_way() {
         let toml = "[logging]\nsample_rate_hz = 1\n\n[input]\ndelimiter = \";\"\n\
@@ -4492,10 +4533,26 @@ mod tests {
             [[channel]]\nid = \"d\"\nkind = \"direction\"\nslope = 0.1\ncolumn = \"R\"\n\
             quality = { column = \"Q2\", good = [\"0\", \"G\"] }\n";
         let cfg = crate::config::parse(Path::new("s.toml"), toml).unwrap();
-        let header: [&[u8]; 5] = [b"Q1", b"Zeit", b"WG", b"R", b"Q2"];
-        let mut one = Parser::new(Path::new("x"), 1, header.into_iter(), &cfg).unwrap();
-        let mut general = one.clone();
-        assert!(one.fills_rows(), "read in one pass");
+        let layouts: [([&str; 5], Option<u64>); 3] = [
+            (["Q1", "Zeit", "WG", "R", "Q2"], None),
+            (["Zeit", "WG", "Q1", "R", "Q2"], Some(0b11)),
+            (["Zeit", "WG", "R", "Q1", "Q2"], None),
+        ];
+        for (header, quality) in layouts {
+            let fields = header.map(str::as_bytes);
+            let mut one = Parser::new(Path::new("x"), 1, fields.into_iter(), &cfg).unwrap();
+            let mut general = one.clone();
+            assert!(one.fills_rows(), "read in one pass");
+            let d = one.declared.as_deref().unwrap();
+            let straight = d.straight.map(|_| d.straight_quality);
+            assert_eq!(straight, quality, "{header:?}");
+            quality_codes_agree(&mut one, &mut general, header);
+        }
+    }
+
+    /// [`declared_rows_with_quality_codes_in_one_pass_agree_with_the_general_way`]
+    /// for the columns `header`.
+    fn quality_codes_agree(one: &mut Parser, general: &mut Parser, header: [&str; 5]) {
         let values = [
             "12", "3,75", "", "NAN", "x", "-0,5", "2500", "bad", "1,2,3", "nan",
         ];
@@ -4515,15 +4572,29 @@ mod tests {
                 values[rnd(values.len())],
                 codes[rnd(codes.len())],
             );
-            let buf = format!("{q1};{time};{a};{r};{q2}\n0;20.01.2025 00:00:00;1;2;0\n");
-            if let Some(read) =
-                declared_row_agrees(&mut one, &mut general, buf.as_bytes(), &mut delims)
-            {
+            let field = |name: &str, good: bool| match name {
+                "Q1" if good => "0".to_string(),
+                "Q2" if good => "0".to_string(),
+                "Zeit" if good => "20.01.2025 00:00:00".to_string(),
+                "WG" if good => "1".to_string(),
+                "R" if good => "2".to_string(),
+                "Q1" => q1.to_string(),
+                "Q2" => q2.to_string(),
+                "Zeit" => time.clone(),
+                "WG" => a.to_string(),
+                _ => r.to_string(),
+            };
+            let row = |good: bool| header.map(|h| field(h, good)).join(";");
+            let buf = format!("{}\n{}\n", row(false), row(true));
+            if let Some(read) = declared_row_agrees(one, general, buf.as_bytes(), &mut delims) {
                 agreed += 1;
                 flagged += read.iter().filter(|r| **r == Reading::Flagged).count();
             }
         }
-        assert!(agreed > 15_000 && flagged > 10_000, "{agreed} {flagged}");
+        assert!(
+            agreed > 15_000 && flagged > 10_000,
+            "{header:?}: {agreed} {flagged}"
+        );
     }
 
     /// A declared layout with its time in two columns, joined in another
