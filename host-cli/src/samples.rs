@@ -2062,6 +2062,18 @@ enum Step {
     Skip,
 }
 
+/// Flags the readings of the channels set in `flagged` (bit `c` for channel
+/// `c`: its quality code is bad), whatever they read; `None` if one is out of
+/// `readings`.
+#[inline(always)]
+fn flag(readings: &mut [Reading], mut flagged: u64) -> Option<()> {
+    while flagged != 0 {
+        *readings.get_mut(flagged.trailing_zeros() as usize)? = Reading::Flagged;
+        flagged &= flagged - 1;
+    }
+    Some(())
+}
+
 /// Whether `field` (surrounding spaces ignored) is the text that `table`'s
 /// `[input] filter` keeps, as the general way compares it
 /// ([`Declared::row`]); any row is kept without a filter.
@@ -2524,10 +2536,7 @@ impl Declared {
         if !matches!(buf.get(p), None | Some(b'\n' | b'\r')) {
             return None;
         }
-        while flagged != 0 {
-            *readings.get_mut(flagged.trailing_zeros() as usize)? = Reading::Flagged;
-            flagged &= flagged - 1;
-        }
+        flag(readings, flagged)?;
         if time.is_none() {
             let parts = parts.get(..self.time.len())?;
             time = self.clock.parts(table, buf, parts);
@@ -2625,10 +2634,7 @@ impl Declared {
         match buf.get(p) {
             None | Some(b'\n' | b'\r') => {
                 // Readings whose code is bad are flagged, whatever they read.
-                while flagged != 0 {
-                    *readings.get_mut(flagged.trailing_zeros() as usize)? = Reading::Flagged;
-                    flagged &= flagged - 1;
-                }
+                flag(readings, flagged)?;
                 if time.is_none() {
                     let parts = parts.get(..self.time.len())?;
                     time = self.clock.parts(table, buf, parts);
@@ -2716,9 +2722,8 @@ impl Declared {
         match buf.get(p) {
             None | Some(b'\n' | b'\r') => {
                 // Readings whose code is bad are flagged, whatever they read.
-                while QUALITY && flagged != 0 {
-                    *readings.get_mut(flagged.trailing_zeros() as usize)? = Reading::Flagged;
-                    flagged &= flagged - 1;
+                if QUALITY {
+                    flag(readings, flagged)?;
                 }
                 Some((t, p))
             }
