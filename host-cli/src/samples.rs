@@ -1858,6 +1858,9 @@ pub struct Declared {
     /// The channels of a straight plan whose reading is followed by its
     /// quality code (bit `c` for channel `c`, [`Step::Quality`]).
     straight_quality: u64,
+    /// Whether a straight plan starts with the filter's column
+    /// ([`Step::Filter`]) before the time.
+    straight_filter: bool,
     /// The lengths of the missing-value texts ([`code_lengths`]).
     code_lens: u64,
     /// How the one-pass readers test for them ([`codes_kind`]).
@@ -2005,8 +2008,13 @@ fn may_be_comment(table: &Table, rest: &[u8]) -> bool {
 /// column, or several in their order) and then channels `0..n` in order
 /// ([`straight_columns`]), each perhaps followed by its quality code, at most
 /// 12 of them (the widths of [`by_width!`]).
-fn straight_plan(plan: Option<&[Step]>) -> Option<(u64, usize, u64)> {
+fn straight_plan(plan: Option<&[Step]>) -> Option<(u64, usize, u64, bool)> {
     let plan = plan?;
+    // The filter's column first (a shared table's station), then the rest.
+    let (filter, plan) = match plan.split_first() {
+        Some((Step::Filter, rest)) => (true, rest),
+        _ => (false, plan),
+    };
     // Several time columns first, in their order: read as one.
     let parts = plan
         .iter()
@@ -2040,7 +2048,7 @@ fn straight_plan(plan: Option<&[Step]>) -> Option<(u64, usize, u64)> {
     if cols.len() > 13 {
         return None;
     }
-    Some((straight_columns(&cols)?, parts, quality))
+    Some((straight_columns(&cols)?, parts, quality, filter))
 }
 
 /// What one field of a row read in one pass holds.
@@ -2231,10 +2239,11 @@ impl Declared {
             (highest + 1, false)
         };
         let plan = one_pass_plan(&table, &time, &chan, filter, fields);
-        let (straight, straight_parts, straight_quality) = match straight_plan(plan.as_deref()) {
-            Some((counts, parts, quality)) => (Some(counts), parts, quality),
-            None => (None, 0, 0),
-        };
+        let (straight, straight_parts, straight_quality, straight_filter) =
+            match straight_plan(plan.as_deref()) {
+                Some((counts, parts, quality, filter)) => (Some(counts), parts, quality, filter),
+                None => (None, 0, 0, false),
+            };
         // The general way converts values only: counts stay as read.
         let converted = (table.sources.iter().zip(&chan).enumerate())
             .filter_map(|(c, (src, &(_, decode, ..)))| {
@@ -2267,6 +2276,7 @@ impl Declared {
             straight,
             straight_parts,
             straight_quality,
+            straight_filter,
             code_lens: code_lengths(&cfg.table.missing),
             codes: codes_kind(&cfg.table.missing, sep, delim),
         })
@@ -2687,6 +2697,23 @@ impl Declared {
         let (codes, lens) = (&table.missing[..], self.code_lens);
         if may_be_comment(table, buf.get(start..)?) {
             return None;
+        }
+        let mut start = start;
+        if self.straight_filter {
+            // The filter's column first: another station's row is passed
+            // over as `one_pass_in` passes it over.
+            let rest = buf.get(start..)?;
+            let n = field_len(rest, delim);
+            if !kept(table, &rest[..n]) {
+                self.other = other_end(buf, start + n, 1, self.fields, self.exact, |b| {
+                    (b.first() == Some(&delim)).then(|| (1 + field_len(&b[1..], delim), true))
+                });
+                return None;
+            }
+            if buf.get(start + n) != Some(&delim) {
+                return None;
+            }
+            start += n + 1;
         }
         let rest = buf.get(start..)?;
         let (t, n) = match self.straight_parts {
@@ -4758,8 +4785,9 @@ mod tests {
     /// wherever it passes a row over as another station's
     /// ([`Declared::other`]), the general way counts it so and the row ends
     /// there; and it passes over most of them. The filter's column first
-    /// (a header: exactly as many fields), after the channels (no header: at
-    /// least as many), and in a whitespace layout.
+    /// (a header: exactly as many fields; read by `one_pass_straight`), after
+    /// the channels (no header: at least as many), and in a whitespace
+    /// layout.
     #[test]
     fn declared_rows_with_a_filter_in_one_pass_agree_with_the_general_way() {
         let channels = "[[channel]]\nid = \"a\"\nkind = \"speed\"\nresolution = 0.01\n\
@@ -4803,6 +4831,10 @@ mod tests {
             let mut one = Parser::new(Path::new("x"), 1, header.iter().copied(), &cfg).unwrap();
             let mut general = one.clone();
             assert!(one.fills_rows(), "{delim}: read in one pass");
+            // The filter's column first, then the time and the channels in
+            // order: by `one_pass_straight`.
+            let first = one.declared.as_deref().is_some_and(|d| d.straight_filter);
+            assert_eq!(first, has_header, "{delim}");
             let (mut read, mut passed, mut others) = (0, 0, 0);
             let mut delims = Vec::new();
             for _ in 0..30_000 {
