@@ -2093,6 +2093,13 @@ fn kept(table: &Table, field: &[u8]) -> bool {
         .is_none_or(|f| field.trim_ascii() == f.value.as_slice())
 }
 
+/// For [`other_end`] in a delimited layout: the field after the delimiter
+/// that starts `b`, with it; `None` when no delimiter starts `b`.
+#[inline]
+fn delimited_field(b: &[u8], delim: u8) -> Option<(usize, bool)> {
+    (b.first() == Some(&delim)).then(|| (1 + field_len(&b[1..], delim), true))
+}
+
 /// The end of a row of another station whose first `seen` fields end at
 /// `buf[p]`, if it has the fields the general way asks of a row (`fields`,
 /// exactly or at least), which then counts it as another station's
@@ -2333,7 +2340,7 @@ impl Declared {
                     return None;
                 }
                 other_end(buf, p + n, col + 1, self.fields, self.exact, |b| {
-                    (b.first() == Some(&delim)).then(|| (1 + field_len(&b[1..], delim), true))
+                    delimited_field(b, delim)
                 })
             }
             Delimiter::Whitespace => {
@@ -2627,8 +2634,7 @@ impl Declared {
                     let n = field_len(rest, delim);
                     if !kept(table, &rest[..n]) {
                         self.other = other_end(buf, p + n, i + 1, self.fields, self.exact, |b| {
-                            (b.first() == Some(&delim))
-                                .then(|| (1 + field_len(&b[1..], delim), true))
+                            delimited_field(b, delim)
                         });
                         return None;
                     }
@@ -2706,7 +2712,7 @@ impl Declared {
             let n = field_len(rest, delim);
             if !kept(table, &rest[..n]) {
                 self.other = other_end(buf, start + n, 1, self.fields, self.exact, |b| {
-                    (b.first() == Some(&delim)).then(|| (1 + field_len(&b[1..], delim), true))
+                    delimited_field(b, delim)
                 });
                 return None;
             }
