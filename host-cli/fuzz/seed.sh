@@ -15,7 +15,7 @@ trap 'rm -rf "$work"' EXIT
 cd "$root"
 cargo build -p host-cli --release --quiet
 tenmin="${CARGO_TARGET_DIR:-$root/target}/release/tenmin"
-mkdir -p "$corpus"/{samples,station,records,frames,logscan}
+mkdir -p "$corpus"/{samples,station,records,frames,logscan,layouts}
 
 "$tenmin" demo --days 1 --out "$work/demo" >/dev/null
 st="$work/demo/station.toml"
@@ -207,5 +207,46 @@ else
 fi
 head -c 500 /dev/zero | tr '\0' '\377' >"$l/seed-erased.bin"
 printf '\xd3\x7a\x1c\x5e' >"$l/seed-sync-only.bin"
+# --- layouts: a selector byte (the layout of `host_cli::fuzzing::LAYOUTS`),
+# then data rows of that layout: 30 seconds (minutes for layout 4) running
+# over an interval's end, and variants (bad and missing fields, other
+# stations, comments, line ends, a clock change).
+y="$corpus/layouts"
+mkdir -p "$y"
+python3 - "$y" <<'PY'
+import sys, datetime as dt
+out = sys.argv[1]
+t0 = dt.datetime(2025, 1, 20, 9, 59, 45)
+def rows(i, k, t):
+    s = t.strftime
+    ep = int((t - dt.datetime(1970, 1, 1)).total_seconds())
+    w = 5 + (k % 7) / 10
+    return [
+        f"{s('%d.%m.%Y %H:%M:%S')};1,{k % 10};{2700 + k};" + f"{w:.2f}".replace(".", ",") + f";{k % 2}",
+        f"{s('%Y-%m-%dT%H:%M:%SZ')},{w:.2f},{2700 + k},1.5",
+        f"M{1 + k % 2},{s('%Y-%m-%d %H:%M:%S')},{w:.1f},{270 + k / 2},1.5",
+        f"{s('%Y-%m-%d')},{s('%H:%M:%S')},{w * 3.6:.1f},{2700 + k},1.5,M{1 + k % 3 // 2}",
+        f" {t.year}  {t.month} {t.day} {t.hour:2d} {t.minute:2d}    {w:.1f} {k % 2}  {270 + k:.1f} 0   -1.5",
+        f"{ep}000\t{w:.2f}\t{2700 + k}\t34.{k % 10}",
+        f"{s('%Y-%m-%dT%H:%M:%S')};{w:.1f};{k % 3};{2700 + k};0;1.5",
+        f"M{1 + k % 2} {s('%Y-%m-%d %H:%M:%S')} {w:.2f} {2700 + k} 1.5",
+    ][i]
+for i in range(8):
+    step = dt.timedelta(minutes=1) if i == 4 else dt.timedelta(seconds=1)
+    good = [rows(i, k, t0 + k * step) for k in range(30)]
+    variants = {
+        "rows": good,
+        "crlf": [r + "\r" for r in good],
+        "bad": good[:5] + [good[5].replace("5", "x", 1), good[6] + ";9,9", good[7][:-3], "", "# a comment", "NA", good[8].replace("1.5", "NA").replace("1,5", "NAN")] + good[9:15],
+    }
+    for name, rs in variants.items():
+        with open(f"{out}/seed-{i}-{name}.txt", "wb") as f:
+            f.write(bytes([i]) + ("\n".join(rs) + "\n").encode())
+# A day the clocks go forward in Berlin (layout 2), and back.
+for name, day in (("spring", "2025-03-30"), ("autumn", "2025-10-26")):
+    rs = [f"M1,{day} {h:02d}:{m:02d}:00,5.0,270,1.5" for h in (1, 2, 3) for m in (0, 30, 59)]
+    with open(f"{out}/seed-2-{name}.txt", "wb") as f:
+        f.write(bytes([2]) + ("\n".join(rs) + "\n").encode())
+PY
 echo "seed.sh: seeds written to $corpus"
 du -sh "$corpus"/*

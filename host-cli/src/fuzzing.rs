@@ -14,6 +14,7 @@
 //! | function | reader |
 //! |---|---|
 //! | [`samples`] | samples CSV through `tenmin replay` (one thread and two, strict and `--skip-bad-rows`) |
+//! | [`layouts`] | a field file of a declared layout ([`LAYOUTS`]): each row read in one pass and the general way alike, the file replayed as [`samples`] |
 //! | [`station`] | station file (TOML), the engine it builds, its sample-file header |
 //! | [`records`] | records CSV through `tenmin report` and `tenmin verify` |
 //! | [`frames`] | `qc_core::wire`: record frames, state frames, a sample file (header and sample frames) replayed through a core station |
@@ -40,7 +41,7 @@ use qc_core::{
 use crate::config::{self, Decode, StationFile};
 use crate::engine::{self, Sink};
 use crate::records::{write_header, write_row};
-use crate::samples::Options;
+use crate::samples::{one_pass_against_general, Options, Parser};
 use crate::summary::Summary;
 use crate::{decode, export, replay, report, verify};
 
@@ -184,10 +185,10 @@ impl Rows {
     }
 }
 
-/// Samples a record counts: valid, missing, out of range and rejected.
+/// Samples a record counts: valid, missing, out of range, rejected, flagged
+/// (a quality code) and excluded ([`qc_core::Tally::total`]).
 fn held(r: &ChannelRecord) -> u64 {
-    let t = &r.tally;
-    u64::from(t.valid) + u64::from(t.missing) + u64::from(t.out_of_range) + u64::from(t.rejected)
+    r.tally.total()
 }
 
 impl Sink for Rows {
@@ -238,23 +239,32 @@ fn replay_rows(cfg: &StationFile, path: &Path, opts: Options) -> Result<(Summary
 
 /// Samples CSV: `tenmin replay` on one thread, strict and with
 /// `--skip-bad-rows`, and on two threads in 64-byte chunks with
-/// `--skip-bad-rows`.
+/// `--skip-bad-rows` ([`replays_agree`]).
 pub fn samples(data: &[u8]) {
     let cfg = station_file();
     let path = scratch("samples.csv", data);
+    replays_agree(&cfg, &path);
+}
+
+/// `path` replayed with `cfg` on one thread, strict and with
+/// `--skip-bad-rows`, and on two threads in 64-byte chunks with
+/// `--skip-bad-rows`: every row and sample accounted for, errors naming the
+/// file, one thread and two alike, and the strict read's records those of
+/// `--skip-bad-rows` when it reads the file.
+fn replays_agree(cfg: &StationFile, path: &Path) {
     let base = Options {
         max_gap_days: MAX_GAP_DAYS,
         ..Options::default()
     };
-    let strict = replay_rows(&cfg, &path, base);
+    let strict = replay_rows(cfg, path, base);
     let skip = Options {
         skip_bad_rows: true,
         ..base
     };
-    let lenient = replay_rows(&cfg, &path, skip);
+    let lenient = replay_rows(cfg, path, skip);
     let parallel = replay_rows(
-        &cfg,
-        &path,
+        cfg,
+        path,
         Options {
             jobs: 2,
             chunk_size: 64,
@@ -264,7 +274,7 @@ pub fn samples(data: &[u8]) {
     for r in [&strict, &lenient, &parallel] {
         match r {
             Ok((s, rows)) => accounted(s, rows),
-            Err(e) => names(e, &path),
+            Err(e) => names(e, path),
         }
     }
     match (&lenient, &parallel) {
@@ -295,6 +305,335 @@ pub fn samples(data: &[u8]) {
         );
         assert_eq!(s.pushed, l.pushed);
     }
+}
+
+/// A declared layout of the target [`layouts`]: its station file, the lines
+/// before the data rows, the header's fields, and a good data row.
+pub struct FieldLayout {
+    /// What the layout exercises.
+    pub name: &'static str,
+    /// The station file (TOML).
+    pub toml: &'static str,
+    /// The file's lines before its data rows (skipped lines, header, units).
+    pub preamble: &'static str,
+    /// The header's fields, as the reader splits them (none without one).
+    pub header: &'static [&'static str],
+    /// A data row the layout reads, for the seeds.
+    pub row: &'static str,
+}
+
+/// The layouts of [`layouts`], each an invented station: between them every
+/// one-pass reader (the column plan, the straight loop with one time column,
+/// several, a quality code after each reading, a filter's column first,
+/// whitespace) and the features around them (decimal comma, units line,
+/// missing-value texts, quality codes, a filter first, last and by position,
+/// fixed offsets and a zone with daylight saving, end labels, epoch
+/// milliseconds, comments, converted units).
+pub const LAYOUTS: [FieldLayout; 8] = [
+    FieldLayout {
+        name: "semicolons, decimal comma, units line, columns out of order, a quality code",
+        toml: r##"[logging]
+sample_rate_hz = 1
+[station]
+name = "fuzz layout 0"
+[input]
+delimiter = ";"
+decimal = ","
+units_line = true
+missing = ["NAN", "-99,9"]
+[input.time]
+column = "Zeit"
+format = "%d.%m.%Y %H:%M:%S"
+zone = "+01:00"
+[[channel]]
+id = "ws"
+kind = "speed"
+resolution = 0.01
+range = [0, 75]
+column = "WG"
+quality = { column = "Q", good = ["0"] }
+[[channel]]
+id = "wd"
+kind = "direction"
+slope = 0.1
+speed_channel = "ws"
+column = "WR"
+[[channel]]
+id = "t"
+kind = "scalar"
+resolution = 0.1
+range = [-40, 50]
+column = "T"
+"##,
+        preamble: "Zeit;T;WR;WG;Q\n;degC;0.1 deg;m/s;\n",
+        header: &["Zeit", "T", "WR", "WG", "Q"],
+        row: "20.01.2025 10:00:01;1,5;2710;5,12;0",
+    },
+    FieldLayout {
+        name: "commas, RFC 3339 times first, the channels in order (the straight loop)",
+        toml: r##"[logging]
+sample_rate_hz = 1
+[station]
+name = "fuzz layout 1"
+[input]
+missing = ["NA"]
+[[channel]]
+id = "ws"
+kind = "speed"
+resolution = 0.01
+range = [0, 75]
+[[channel]]
+id = "wd"
+kind = "direction"
+slope = 0.1
+speed_channel = "ws"
+[[channel]]
+id = "t"
+kind = "scalar"
+resolution = 0.1
+range = [-40, 50]
+"##,
+        preamble: "time,ws,wd,t\n",
+        header: &["time", "ws", "wd", "t"],
+        row: "2025-01-20T10:00:01Z,5.12,2710,1.5",
+    },
+    FieldLayout {
+        name: "a station column first (a filter), a zone with daylight saving",
+        toml: r##"[logging]
+sample_rate_hz = 1
+[station]
+name = "fuzz layout 2"
+[input]
+filter = { column = "mast", value = "M1" }
+[input.time]
+column = "time"
+format = "%Y-%m-%d %H:%M:%S"
+zone = "Europe/Berlin"
+repeated = "earlier"
+[[channel]]
+id = "ws"
+kind = "speed"
+resolution = 0.01
+range = [0, 75]
+[[channel]]
+id = "wd"
+kind = "direction"
+speed_channel = "ws"
+[[channel]]
+id = "t"
+kind = "scalar"
+resolution = 0.1
+range = [-40, 50]
+"##,
+        preamble: "mast,time,ws,wd,t\n",
+        header: &["mast", "time", "ws", "wd", "t"],
+        row: "M1,2025-03-30 01:59:59,5.1,271.5,1.5",
+    },
+    FieldLayout {
+        name: "no header, a date and a clock column, a filter last, km/h",
+        toml: r##"[logging]
+sample_rate_hz = 1
+[station]
+name = "fuzz layout 3"
+[input]
+header = false
+filter = { column = 6, value = "M1" }
+[input.time]
+columns = [1, 2]
+format = "%Y-%m-%d %H:%M:%S"
+[[channel]]
+id = "ws"
+kind = "speed"
+unit = "m/s"
+resolution = 0.01
+range = [0, 75]
+column = 3
+source_unit = "km/h"
+[[channel]]
+id = "wd"
+kind = "direction"
+slope = 0.1
+speed_channel = "ws"
+column = 4
+[[channel]]
+id = "t"
+kind = "scalar"
+resolution = 0.1
+range = [-40, 50]
+column = 5
+"##,
+        preamble: "",
+        header: &[],
+        row: "2025-01-20,10:00:01,18.4,2710,1.5,M1",
+    },
+    FieldLayout {
+        name: "whitespace, a skipped line, five time columns, quality codes, a text missing code",
+        toml: r##"[logging]
+sample_period_s = 60
+[station]
+name = "fuzz layout 4"
+[input]
+delimiter = "whitespace"
+skip_lines = 1
+header = false
+missing = ["-9999.9"]
+[input.time]
+columns = [1, 2, 3, 4, 5]
+format = "%Y %m %d %H %M"
+[[channel]]
+id = "ws"
+kind = "speed"
+resolution = 0.1
+range = [0, 75]
+column = 6
+quality = { column = 7, good = ["0"] }
+[[channel]]
+id = "wd"
+kind = "direction"
+speed_channel = "ws"
+column = 8
+quality = { column = 9, good = ["0"] }
+[[channel]]
+id = "t"
+kind = "scalar"
+resolution = 0.1
+range = [-40, 50]
+column = 10
+"##,
+        preamble: "an invented network station 37.1 -105.9 2317\n",
+        header: &[],
+        row: " 2025  1 20 10  1    5.1 0  271.0 0   -1.5",
+    },
+    FieldLayout {
+        name: "tabs, epoch milliseconds first, a comment, degrees F",
+        toml: r##"[logging]
+sample_rate_hz = 1
+[station]
+name = "fuzz layout 5"
+[input]
+delimiter = "tab"
+comment = "#"
+[input.time]
+column = "ts"
+epoch = "ms"
+[[channel]]
+id = "ws"
+kind = "speed"
+resolution = 0.01
+range = [0, 75]
+[[channel]]
+id = "wd"
+kind = "direction"
+slope = 0.1
+speed_channel = "ws"
+[[channel]]
+id = "t"
+kind = "scalar"
+unit = "degC"
+resolution = 0.01
+range = [-40, 50]
+source_unit = "degF"
+"##,
+        preamble: "# an invented logger, firmware 0.0\nts\tws\twd\tt\n",
+        header: &["ts", "ws", "wd", "t"],
+        row: "1737367201000\t5.12\t2710\t34.7",
+    },
+    FieldLayout {
+        name: "semicolons, a quality code right after each reading, stamps at the period's end",
+        toml: r##"[logging]
+sample_rate_hz = 1
+[station]
+name = "fuzz layout 6"
+[input]
+delimiter = ";"
+[input.time]
+column = "time"
+format = "%Y-%m-%dT%H:%M:%S"
+label = "end"
+[[channel]]
+id = "ws"
+kind = "speed"
+resolution = 0.01
+range = [0, 75]
+quality = { column = "ws_q", good = ["0", "1"] }
+[[channel]]
+id = "wd"
+kind = "direction"
+slope = 0.1
+speed_channel = "ws"
+quality = { column = "wd_q", good = ["0"] }
+[[channel]]
+id = "t"
+kind = "scalar"
+resolution = 0.1
+range = [-40, 50]
+"##,
+        preamble: "time;ws;ws_q;wd;wd_q;t\n",
+        header: &["time", "ws", "ws_q", "wd", "wd_q", "t"],
+        row: "2025-01-20T10:00:01;5.1;0;2710;0;1.5",
+    },
+    FieldLayout {
+        name: "whitespace, no header, a station column first by position",
+        toml: r##"[logging]
+sample_rate_hz = 1
+[station]
+name = "fuzz layout 7"
+[input]
+delimiter = "whitespace"
+header = false
+filter = { column = 1, value = "M1" }
+missing = ["NA"]
+[input.time]
+columns = [2, 3]
+format = "%Y-%m-%d %H:%M:%S"
+[[channel]]
+id = "ws"
+kind = "speed"
+resolution = 0.01
+range = [0, 75]
+column = 4
+[[channel]]
+id = "wd"
+kind = "direction"
+slope = 0.1
+speed_channel = "ws"
+column = 5
+[[channel]]
+id = "t"
+kind = "scalar"
+resolution = 0.1
+range = [-40, 50]
+column = 6
+"##,
+        preamble: "",
+        header: &[],
+        row: "M1 2025-01-20 10:00:01 5.12 2710 1.5",
+    },
+];
+
+/// A field file of a declared layout ([`LAYOUTS`], picked by the first byte;
+/// the rest are its data rows after the layout's preamble): each row read in
+/// one pass and the general way alike ([`crate::samples::one_pass_against_general`]),
+/// and the whole file through `tenmin replay` as in [`samples`].
+pub fn layouts(data: &[u8]) {
+    let Some((&pick, rows)) = data.split_first() else {
+        return;
+    };
+    let layout = &LAYOUTS[usize::from(pick) % LAYOUTS.len()];
+    let cfg = config::load(&scratch("layout.toml", layout.toml.as_bytes()))
+        .unwrap_or_else(|e| panic!("{}: the layout reads: {e:#}", layout.name));
+    let header_line = layout.preamble.lines().count() as u64;
+    let parser = Parser::new(
+        Path::new("layout.txt"),
+        header_line,
+        layout.header.iter().map(|f| f.as_bytes()),
+        &cfg,
+    )
+    .unwrap_or_else(|e| panic!("{}: the header reads: {e:#}", layout.name));
+    one_pass_against_general(&parser, rows);
+    let mut file = layout.preamble.as_bytes().to_vec();
+    file.extend_from_slice(rows);
+    replays_agree(&cfg, &scratch("layout.txt", &file));
 }
 
 /// One sample of every channel, as the samples reader hands it to the core.
@@ -684,6 +1023,40 @@ pub fn logscan(data: &[u8]) {
 mod tests {
     use super::*;
     use std::panic::{catch_unwind, AssertUnwindSafe};
+
+    /// Every layout of [`layouts`] reads its own row in one pass, and a file
+    /// of three of them replays: one sample accepted, two duplicates, none
+    /// bad. (A layout that no longer did would leave its one-pass reader out
+    /// of the fuzz target.)
+    #[test]
+    fn every_layout_reads_its_row() {
+        for layout in &LAYOUTS {
+            let rows = format!("{}\n{}\n{}\n", layout.row, layout.row, layout.row);
+            let cfg = config::load(&scratch("l.toml", layout.toml.as_bytes())).unwrap();
+            let parser = Parser::new(
+                Path::new("l.txt"),
+                1,
+                layout.header.iter().map(|f| f.as_bytes()),
+                &cfg,
+            )
+            .unwrap();
+            assert_eq!(
+                one_pass_against_general(&parser, rows.as_bytes()),
+                Some([3, 0, 0]),
+                "{}",
+                layout.name
+            );
+            let file = format!("{}{rows}", layout.preamble);
+            let (s, _) = replay_rows(&cfg, &scratch("l.txt", file.as_bytes()), Options::default())
+                .unwrap_or_else(|e| panic!("{}: {e:#}", layout.name));
+            assert_eq!(
+                (s.pushed.accepted, s.pushed.duplicate, s.input.bad.total()),
+                (1, 2, 0),
+                "{}",
+                layout.name
+            );
+        }
+    }
 
     /// The checks the targets make can fail (a check that cannot would pass
     /// every corpus): invented faults, each caught.

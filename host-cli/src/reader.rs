@@ -185,6 +185,10 @@ pub struct FileReader<'a> {
     head: Head,
     /// The parser of the rows, once the preamble is read.
     parser: Option<Arc<Parser>>,
+    /// Whether the first data row's time is still to be checked
+    /// ([`first_row_time`]): the chunk that ends the preamble may hold no
+    /// data row (it ends there, or comments follow).
+    first_row: bool,
     /// The digest of the file's bytes as stored, when asked for.
     digest: Option<DigestHandle>,
 }
@@ -480,6 +484,7 @@ impl<'a> FileReader<'a> {
             line: 1,
             head: Head::default(),
             parser: None,
+            first_row: true,
             digest,
         })
     }
@@ -562,7 +567,12 @@ impl<'a> FileReader<'a> {
             }
             let end = offset + scan.bytes;
             let (body, body_line, newlines) = match &self.parser {
-                Some(_) => (block, line, scan.newlines),
+                Some(p) => {
+                    if self.first_row {
+                        self.first_row = !first_row_time(self.path, self.cfg, p, &block, line)?;
+                    }
+                    (block, line, scan.newlines)
+                }
                 None => {
                     let table = &self.cfg.table;
                     let mut recs = Records::new(&block, line);
@@ -589,7 +599,7 @@ impl<'a> FileReader<'a> {
                     match (start, self.head.ready()) {
                         (Some((pos, at)), Some(p)) => {
                             let body = Chunk::from(block[pos..].to_vec());
-                            first_row_time(self.path, self.cfg, p, &body, at)?;
+                            self.first_row = !first_row_time(self.path, self.cfg, p, &body, at)?;
                             self.parser = Some(Arc::new(p.clone()));
                             let newlines = count_line_ends(&body);
                             (body, at, newlines)
@@ -669,16 +679,19 @@ impl<'a> FileReader<'a> {
 
 /// A declared layout whose time format cannot read the file's first data
 /// row cannot be right: refused before any sample is read (even with
-/// `--skip-bad-rows`), naming the station file's key and line.
+/// `--skip-bad-rows`), naming the station file's key and line. Returns
+/// whether `body` held the first data row (or there is nothing to check:
+/// tenmin's own CSV); false when it held none (comments only, or nothing),
+/// so that the next chunk is checked.
 fn first_row_time(
     path: &Path,
     cfg: &StationFile,
     parser: &Parser,
     body: &[u8],
     line: u64,
-) -> Result<()> {
+) -> Result<bool> {
     let Some(delim) = parser.declared_delimiter() else {
-        return Ok(());
+        return Ok(true);
     };
     let mut p = parser.clone();
     let mut recs = Records::new(body, line);
@@ -689,7 +702,7 @@ fn first_row_time(
             Some(b) => recs.next_delimited(b, &mut at),
             None => recs.next(),
         }) else {
-            return Ok(());
+            return Ok(false);
         };
         match p.parse_declared(rec, &at, &mut readings) {
             None => continue,
@@ -704,7 +717,7 @@ fn first_row_time(
                 );
             }
             // Rows of other stations, or other problems: the rows' own business.
-            Some(_) => return Ok(()),
+            Some(_) => return Ok(true),
         }
     }
 }

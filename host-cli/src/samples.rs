@@ -2362,7 +2362,9 @@ impl Declared {
                     }
                     p += n;
                 }
-                let n = buf[..p]
+                // Its field: back from `p` to a blank or the row's start
+                // (not into the row before it).
+                let n = buf[start..p]
                     .iter()
                     .rev()
                     .take_while(|c| !matches!(c, b' ' | b'\t'))
@@ -3470,6 +3472,85 @@ fn parse_reading_slow(field: &[u8], decode: Decode) -> Result<Reading, BadKind> 
             Err(_) => Err(BadKind::Value),
         },
     }
+}
+
+/// A check for the fuzz target `layouts` ([`crate::fuzzing::layouts`]): the
+/// one-pass reader of a declared layout ([`Declared::one_pass`]) against the
+/// general way ([`Parser::parse_declared`]) on `buf`, data rows without a
+/// preamble, each reader a clone of `parser` that sees every record in turn.
+/// Where the one pass reads a row, the general way reads the same time and
+/// readings, bit for bit, and the row ends where the record does; where it
+/// passes a row over as another station's, the general way counts it so.
+/// Panics naming the record where they differ. Returns how many records the
+/// one pass read, passed over and left to the general way; `None` for
+/// tenmin's own CSV, a layout whose one pass writes only some channels
+/// ([`Parser::fills_rows`]), or a `buf` with a quote (the `csv` crate's).
+pub fn one_pass_against_general(parser: &Parser, buf: &[u8]) -> Option<[u64; 3]> {
+    one_pass_against(parser, parser, buf)
+}
+
+/// [`one_pass_against_general`] with the one pass by a clone of `one` and
+/// the general way by a clone of `general`.
+fn one_pass_against(one: &Parser, general: &Parser, buf: &[u8]) -> Option<[u64; 3]> {
+    let parser = one;
+    let delim = parser.declared_delimiter()?;
+    if !parser.fills_rows() || buf.contains(&b'"') {
+        return None;
+    }
+    let (mut one, mut general) = (one.clone(), general.clone());
+    let n = parser.ids.len();
+    let (mut r1, mut r2) = (vec![Reading::Missing; n], vec![Reading::Missing; n]);
+    let bits = |r: &[Reading]| -> Vec<(u8, u64)> {
+        r.iter()
+            .map(|v| match *v {
+                Reading::Value(f) => (0, f.to_bits()),
+                Reading::Counts(k) => (1, u64::from(k as u32)),
+                Reading::Missing => (2, 0),
+                Reading::Flagged => (3, 0),
+                Reading::Excluded => (4, 0),
+            })
+            .collect()
+    };
+    let mut delims = Vec::new();
+    let mut recs = Records::new(buf, 1);
+    let mut counts = [0; 3];
+    while let Some(i) = recs.skip_blank() {
+        recs.pos = i;
+        let (line, rec) = match delim {
+            Some(d) => recs.next_delimited(d, &mut delims)?,
+            None => {
+                delims.clear();
+                recs.next()?
+            }
+        };
+        let shown = || format!("line {line}: {:?}", String::from_utf8_lossy(rec));
+        let want = general.parse_declared(rec, &delims, &mut r2);
+        let dec = one.declared.as_deref_mut()?;
+        match dec.one_pass(buf, i, &mut r1) {
+            Some((t, end)) => {
+                assert_eq!(end, i + rec.len(), "{}: the row's end", shown());
+                match &want {
+                    Some(Ok(w)) => assert_eq!(t, *w, "{}: the time", shown()),
+                    _ => panic!("{}: read in one pass, the general way: {want:?}", shown()),
+                }
+                assert_eq!(bits(&r1), bits(&r2), "{}: the readings", shown());
+                counts[0] += 1;
+            }
+            None => match dec.other.take() {
+                Some(end) => {
+                    assert!(
+                        matches!(&want, Some(Err(e)) if e.is_other_station()),
+                        "{}: passed over as another station's, the general way: {want:?}",
+                        shown()
+                    );
+                    assert_eq!(end, i + rec.len(), "{}: the row's end", shown());
+                    counts[1] += 1;
+                }
+                None => counts[2] += 1,
+            },
+        }
+    }
+    Some(counts)
 }
 
 #[cfg(test)]
@@ -4917,6 +4998,76 @@ mod tests {
                 "{delim}: {passed} of {others}"
             );
         }
+    }
+
+    /// A row of the kept station that the one pass leaves (a bad value),
+    /// after another row, in a whitespace layout whose filter is the first
+    /// column: a bad row, as the general way says, not another station's.
+    /// (The filter's field was searched back from its end past the row's
+    /// start, into the row before, so such rows were passed over and counted
+    /// as other stations'; found by the fuzz target `layouts`.)
+    #[test]
+    fn a_kept_rows_bad_value_after_another_row_is_a_bad_row() {
+        let toml = "[logging]\nsample_rate_hz = 1\n[input]\ndelimiter = \"whitespace\"\n\
+            header = false\nfilter = { column = 1, value = \"M1\" }\n[input.time]\n\
+            columns = [2, 3]\nformat = \"%Y-%m-%d %H:%M:%S\"\n\
+            [[channel]]\nid = \"ws\"\nkind = \"speed\"\nresolution = 0.01\ncolumn = 4\n";
+        let cfg = crate::config::parse(Path::new("s.toml"), toml).unwrap();
+        let parser = Parser::new(Path::new("x"), 1, std::iter::empty(), &cfg).unwrap();
+        let buf = b"M1 2025-01-20 10:00:00 5.1\nM1 2025-01-20 10:00:01 5.x\n\
+            M2 2025-01-20 10:00:02 5.2\nM1 2025-01-20 10:00:03 5,3\n";
+        let mut p = parser.clone();
+        let mut recs = Records::new(buf, 1);
+        let (mut r, mut delims) = ([Reading::Missing], Vec::new());
+        let mut kinds = Vec::new();
+        while let Some((line, row)) = recs.next_row(&mut p, &mut r, &mut delims) {
+            kinds.push(match row {
+                Ok(_) => (line, "read"),
+                Err(e) if e.is_other_station() => (line, "other"),
+                Err(_) => (line, "bad"),
+            });
+        }
+        assert_eq!(
+            kinds,
+            [(1, "read"), (2, "bad"), (3, "other"), (4, "bad")],
+            "{:?}",
+            String::from_utf8_lossy(buf)
+        );
+        // Read in one pass, passed over, left to the general way.
+        assert_eq!(one_pass_against_general(&parser, buf), Some([1, 1, 2]));
+    }
+
+    /// The check of the fuzz target `layouts` fires where the one pass and
+    /// the general way differ: a reading, a time, a row passed over.
+    #[test]
+    fn the_one_pass_check_fires_on_a_difference() {
+        let parser = |input: &str, zone: &str, unit: &str| {
+            let toml = format!(
+                "[logging]\nsample_rate_hz = 1\n[input]\nheader = false\n{input}\n\
+                [input.time]\ncolumns = [1]\nformat = \"%Y-%m-%d %H:%M:%S\"\nzone = \"{zone}\"\n\
+                [[channel]]\nid = \"ws\"\nkind = \"speed\"\nresolution = 0.01\ncolumn = 2\n{unit}"
+            );
+            let cfg = crate::config::parse(Path::new("s.toml"), &toml).unwrap();
+            Parser::new(Path::new("x"), 1, std::iter::empty(), &cfg).unwrap()
+        };
+        let plain = parser("", "UTC", "");
+        let buf = b"2025-01-20 10:00:00,5.1\n2025-01-20 10:00:01,5.2\n";
+        assert_eq!(one_pass_against(&plain, &plain, buf), Some([2, 0, 0]));
+        for (general, what) in [
+            (parser("", "UTC", "source_unit = \"km/h\""), "a reading"),
+            (parser("", "+01:00", ""), "a time"),
+        ] {
+            let r = std::panic::catch_unwind(|| one_pass_against(&plain, &general, buf));
+            assert!(r.is_err(), "{what} differs");
+        }
+        let filtered = parser("filter = { column = 3, value = \"M1\" }", "UTC", "");
+        let rows = b"2025-01-20 10:00:00,5.1,M2\n";
+        assert_eq!(
+            one_pass_against(&filtered, &filtered, rows),
+            Some([0, 1, 0])
+        );
+        let r = std::panic::catch_unwind(|| one_pass_against(&filtered, &plain, rows));
+        assert!(r.is_err(), "passed over, read the general way");
     }
 
     /// The one-pass readers of every kind of layout (a delimiter with

@@ -54,6 +54,11 @@ fn samples_corpus() {
 }
 
 #[test]
+fn layouts_corpus() {
+    replay("layouts", 20, fuzzing::layouts);
+}
+
+#[test]
 fn station_corpus() {
     replay("station", 40, fuzzing::station);
 }

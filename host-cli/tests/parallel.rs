@@ -689,3 +689,33 @@ fn rows_of_other_masts_are_passed_over_alike_in_parallel() {
         "{others}: {err}"
     );
 }
+
+/// A declared layout whose time format cannot read the first data row is
+/// refused with `--skip-bad-rows` at every chunk size and thread count, also
+/// when the chunk that ends the header holds no data row (it ends with the
+/// header, or only comment lines follow it). The check once looked for the
+/// first data row in that chunk alone, so `--jobs 2` in small chunks replayed
+/// such a file (found by the fuzz target `layouts`).
+#[test]
+fn the_first_rows_time_is_checked_whatever_the_chunks() {
+    let dir = setup();
+    let d = dir.path();
+    let names = files(d, 5, 1, 200, Plant::default());
+    let layout = "\n[input]\ncomment = \"#\"\n\n[input.time]\ncolumn = \"time\"\n\
+                  format = \"%Y-%m-%d %H:%M:%S\"\n";
+    std::fs::write(d.join("layout.toml"), format!("{STATION}{layout}")).unwrap();
+    let file = std::fs::read_to_string(d.join(&names[0])).unwrap();
+    let (header, rows) = file.split_once('\n').unwrap();
+    // RFC 3339 times: the layout's format reads none of them.
+    let comments = "# a comment line of an invented logger's file\n".repeat(30);
+    for (name, between) in [("right-after.csv", ""), ("comments.csv", &comments[..])] {
+        std::fs::write(d.join(name), format!("{header}\n{between}{rows}")).unwrap();
+        let out = same_as_sequential(d, &["-c", "layout.toml", "--skip-bad-rows", name]);
+        let err = text(&out.stderr);
+        assert_eq!(out.status.code(), Some(2), "{name}: {err}");
+        assert!(
+            err.contains("cannot read the first data row"),
+            "{name}: {err}"
+        );
+    }
+}
