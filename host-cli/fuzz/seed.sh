@@ -15,7 +15,7 @@ trap 'rm -rf "$work"' EXIT
 cd "$root"
 cargo build -p host-cli --release --quiet
 tenmin="${CARGO_TARGET_DIR:-$root/target}/release/tenmin"
-mkdir -p "$corpus"/{samples,station,records,frames,logscan,layouts}
+mkdir -p "$corpus"/{samples,station,records,frames,logscan,layouts,columnar}
 
 "$tenmin" demo --days 1 --out "$work/demo" >/dev/null
 st="$work/demo/station.toml"
@@ -207,6 +207,21 @@ else
 fi
 head -c 500 /dev/zero | tr '\0' '\377' >"$l/seed-erased.bin"
 printf '\xd3\x7a\x1c\x5e' >"$l/seed-sync-only.bin"
+# --- columnar: a selector byte (0: `.parquet`, 1: `.arrow`), then the file:
+# the demo's first rows exported as samples, replayed into records, and cut.
+c="$corpus/columnar"
+head -n 40 "$day" >"$work/s.csv"
+"$tenmin" export -q -c "$st" "$work/s.csv" -o "$work/s.parquet"
+"$tenmin" export -q -c "$st" "$work/s.csv" -o "$work/s.arrow"
+"$tenmin" replay -q -c "$st" "$work/s.csv" -o "$work/r.parquet"
+"$tenmin" replay -q -c "$st" "$work/s.csv" -o "$work/r.arrow"
+for f in s r; do
+  { printf '\x00'; cat "$work/$f.parquet"; } >"$c/seed-$f-parquet.bin"
+  { printf '\x01'; cat "$work/$f.arrow"; } >"$c/seed-$f-arrow.bin"
+done
+{ printf '\x00'; head -c 100 "$work/s.parquet"; } >"$c/seed-cut-parquet.bin"
+{ printf '\x01'; head -c 300 "$work/s.arrow"; } >"$c/seed-cut-arrow.bin"
+
 # --- layouts: a selector byte (the layout of `host_cli::fuzzing::LAYOUTS`),
 # then data rows of that layout: 30 seconds (minutes for layout 4) running
 # over an interval's end, and variants (bad and missing fields, other

@@ -40,6 +40,7 @@
 //! raw-counts channel as `int32`, a missing reading as null. It is read back
 //! after writing and compared row by row (SHA-256 of the times and readings).
 
+use std::cell::Cell;
 use std::fs::File;
 use std::io::{self, BufReader, Read, Seek, SeekFrom, Write};
 use std::path::{Path, PathBuf};
@@ -406,8 +407,17 @@ impl Sink for RecordsOut<'_> {
     }
 }
 
-/// The record batches of a columnar file, with its schema.
+/// The record batches of a columnar file, with its schema: the decoding
+/// crates' code run [`guarded`], opening and each batch.
 fn open_batches(path: &Path) -> Result<Box<dyn RecordBatchReader + Send>> {
+    let inner = guarded(path, || open_unguarded(path))?;
+    Ok(Box::new(Guarded {
+        inner: Some(inner),
+        path: path.to_path_buf(),
+    }))
+}
+
+fn open_unguarded(path: &Path) -> Result<Box<dyn RecordBatchReader + Send>> {
     let at = || format!("{}: cannot read", path.display());
     let mut f = File::open(path).with_context(at)?;
     Ok(match Format::of_path(path) {
@@ -434,6 +444,76 @@ fn open_batches(path: &Path) -> Result<Box<dyn RecordBatchReader + Send>> {
             }
         }
     })
+}
+
+thread_local! {
+    /// Whether this thread runs code of the decoding crates ([`guarded`]).
+    static DECODING: Cell<bool> = const { Cell::new(false) };
+}
+
+/// Whether the calling thread is inside [`guarded`]: a panic there is turned
+/// into an error, so `tenmin`'s panic hook need not print it.
+pub fn in_guarded_decoding() -> bool {
+    DECODING.with(Cell::get)
+}
+
+/// Runs `f`, code of the `parquet` and `arrow` crates on a file's bytes,
+/// turning a panic in it into an error naming the file: those crates can
+/// panic on a damaged file (a Parquet footer whose metadata holds a thrift
+/// type their reader does not implement, found by the fuzz target
+/// `columnar`), and `tenmin` must not. The error keeps the panic's message.
+fn guarded<T>(path: &Path, f: impl FnOnce() -> Result<T>) -> Result<T> {
+    caught(path, f).unwrap_or_else(|why| Err(anyhow!("{}: cannot read: {why}", path.display())))
+}
+
+/// `f` run with its panic caught ([`guarded`]): `Err` with what to tell of
+/// it, the format's reader and the panic's message.
+fn caught<T>(path: &Path, f: impl FnOnce() -> T) -> Result<T, String> {
+    let was = DECODING.with(|d| d.replace(true));
+    let r = std::panic::catch_unwind(std::panic::AssertUnwindSafe(f));
+    DECODING.with(|d| d.set(was));
+    r.map_err(|payload| {
+        let msg = payload
+            .downcast_ref::<&str>()
+            .map(|s| s.to_string())
+            .or_else(|| payload.downcast_ref::<String>().cloned())
+            .unwrap_or_else(|| "no message".into());
+        format!(
+            "the {} reader failed on this file ({msg}): it is damaged, or not a file tenmin can read",
+            Format::of_path(path).name()
+        )
+    })
+}
+
+/// A reader of record batches whose every batch is decoded [`guarded`]; after
+/// a panic it gives that error and then no more batches.
+struct Guarded {
+    inner: Option<Box<dyn RecordBatchReader + Send>>,
+    path: PathBuf,
+}
+
+impl Iterator for Guarded {
+    type Item = Result<RecordBatch, arrow_schema::ArrowError>;
+
+    fn next(&mut self) -> Option<Self::Item> {
+        let inner = self.inner.as_mut()?;
+        match caught(&self.path, || inner.next()) {
+            Ok(batch) => batch,
+            Err(why) => {
+                self.inner = None;
+                Some(Err(arrow_schema::ArrowError::ExternalError(why.into())))
+            }
+        }
+    }
+}
+
+impl RecordBatchReader for Guarded {
+    fn schema(&self) -> SchemaRef {
+        match &self.inner {
+            Some(r) => r.schema(),
+            None => Arc::new(Schema::empty()),
+        }
+    }
 }
 
 /// Writes the rows of a records Parquet/Arrow file as records CSV rows (no

@@ -15,6 +15,7 @@
 //! |---|---|
 //! | [`samples`] | samples CSV through `tenmin replay` (one thread and two, strict and `--skip-bad-rows`) |
 //! | [`layouts`] | a field file of a declared layout ([`LAYOUTS`]): each row read in one pass and the general way alike, the file replayed as [`samples`] |
+//! | [`columnar`] | a Parquet or Arrow IPC file as samples through `tenmin replay` and as records |
 //! | [`station`] | station file (TOML), the engine it builds, its sample-file header |
 //! | [`records`] | records CSV through `tenmin report` and `tenmin verify` |
 //! | [`frames`] | `qc_core::wire`: record frames, state frames, a sample file (header and sample frames) replayed through a core station |
@@ -634,6 +635,43 @@ pub fn layouts(data: &[u8]) {
     let mut file = layout.preamble.as_bytes().to_vec();
     file.extend_from_slice(rows);
     replays_agree(&cfg, &scratch("layout.txt", &file));
+}
+
+/// Columnar files: the first byte picks the name's extension (`.parquet` or
+/// `.arrow`, Arrow's file or stream format told apart by the bytes), the rest
+/// is the file. Read as samples through `tenmin replay` (strict and
+/// `--skip-bad-rows`: every row and sample accounted for, errors naming the
+/// file) and as a records file (the reader of `tenmin report` and `verify`):
+/// rows or an error, never a panic and never unbounded memory (the fuzzer's
+/// memory limit).
+pub fn columnar(data: &[u8]) {
+    let Some((&pick, bytes)) = data.split_first() else {
+        return;
+    };
+    let ext = ["parquet", "arrow"][usize::from(pick) % 2];
+    let cfg = station_file();
+    let path = scratch(&format!("samples.{ext}"), bytes);
+    let base = Options {
+        max_gap_days: MAX_GAP_DAYS,
+        ..Options::default()
+    };
+    for skip_bad_rows in [false, true] {
+        match replay_rows(
+            &cfg,
+            &path,
+            Options {
+                skip_bad_rows,
+                ..base
+            },
+        ) {
+            Ok((s, rows)) => accounted(&s, &rows),
+            Err(e) => names(&e, &path),
+        }
+    }
+    let mut csv = Vec::new();
+    if let Err(e) = crate::columnar::records_to_csv(&path, &mut csv) {
+        names(&e, &path);
+    }
 }
 
 /// One sample of every channel, as the samples reader hands it to the core.

@@ -502,6 +502,14 @@ pub struct DemoArgs {
 
 /// The whole command: parses the arguments, runs, prints errors; the binary's `main`.
 pub fn main() -> ExitCode {
+    // A panic inside the Parquet and Arrow decoders on a damaged file is an
+    // error naming the file (`columnar::guarded`): not printed as a crash.
+    let default_hook = std::panic::take_hook();
+    std::panic::set_hook(Box::new(move |info| {
+        if !columnar::in_guarded_decoding() {
+            default_hook(info);
+        }
+    }));
     let cli = match Cli::try_parse() {
         Ok(cli) => cli,
         Err(e) => {

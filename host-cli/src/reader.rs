@@ -36,7 +36,7 @@ use anyhow::{Context, Result};
 use crate::config::StationFile;
 use crate::limits::{self, LongRecord, MAX_RECORD_BYTES};
 use crate::provenance::{DigestHandle, Feeder, HashOn, Hashing};
-use crate::samples::{split_fields, Parser, Records};
+use crate::samples::{split_fields, BadRow, Parser, Records};
 use crate::table::{Delimiter, Table};
 
 /// A piece of a samples file, in file order.
@@ -185,10 +185,6 @@ pub struct FileReader<'a> {
     head: Head,
     /// The parser of the rows, once the preamble is read.
     parser: Option<Arc<Parser>>,
-    /// Whether the first data row's time is still to be checked
-    /// ([`first_row_time`]): the chunk that ends the preamble may hold no
-    /// data row (it ends there, or comments follow).
-    first_row: bool,
     /// The digest of the file's bytes as stored, when asked for.
     digest: Option<DigestHandle>,
 }
@@ -484,7 +480,6 @@ impl<'a> FileReader<'a> {
             line: 1,
             head: Head::default(),
             parser: None,
-            first_row: true,
             digest,
         })
     }
@@ -568,8 +563,9 @@ impl<'a> FileReader<'a> {
             let end = offset + scan.bytes;
             let (body, body_line, newlines) = match &self.parser {
                 Some(p) => {
-                    if self.first_row {
-                        self.first_row = !first_row_time(self.path, self.cfg, p, &block, line)?;
+                    if !self.head.first_row_checked {
+                        self.head.first_row_checked =
+                            first_row_time(self.path, self.cfg, p, &block, line)?;
                     }
                     (block, line, scan.newlines)
                 }
@@ -599,8 +595,9 @@ impl<'a> FileReader<'a> {
                     match (start, self.head.ready()) {
                         (Some((pos, at)), Some(p)) => {
                             let body = Chunk::from(block[pos..].to_vec());
-                            self.first_row = !first_row_time(self.path, self.cfg, p, &body, at)?;
+                            let checked = first_row_time(self.path, self.cfg, p, &body, at)?;
                             self.parser = Some(Arc::new(p.clone()));
+                            self.head.first_row_checked = checked;
                             let newlines = count_line_ends(&body);
                             (body, at, newlines)
                         }
@@ -682,7 +679,8 @@ impl<'a> FileReader<'a> {
 /// `--skip-bad-rows`), naming the station file's key and line. Returns
 /// whether `body` held the first data row (or there is nothing to check:
 /// tenmin's own CSV); false when it held none (comments only, or nothing),
-/// so that the next chunk is checked.
+/// so that the next chunk is checked. The `csv` crate's tail checks its
+/// records alike ([`Head::check_first_record`]).
 fn first_row_time(
     path: &Path,
     cfg: &StationFile,
@@ -704,21 +702,37 @@ fn first_row_time(
         }) else {
             return Ok(false);
         };
-        match p.parse_declared(rec, &at, &mut readings) {
-            None => continue,
-            Some(Err(bad)) if bad.is_time() => {
-                let key = match cfg.table.time_line {
-                    0 => format!("the time of {} (by default)", cfg.path.display()),
-                    n => format!("[{}.time] at {}:{n}", cfg.table.section, cfg.path.display()),
-                };
-                anyhow::bail!(
-                    "{}:{ln}: {bad}: {key} cannot read the first data row, so the layout cannot be right (check `format`, `epoch`, `columns`, `zone` and `label`)",
-                    path.display()
-                );
-            }
-            // Rows of other stations, or other problems: the rows' own business.
-            Some(_) => return Ok(true),
+        if let Some(checked) =
+            first_row_verdict(path, cfg, ln, p.parse_declared(rec, &at, &mut readings))?
+        {
+            return Ok(checked);
         }
+    }
+}
+
+/// What a record read by a layout's parser says of the first data row:
+/// `None` for a comment (the next record is the first data row), an error
+/// when its time does not read, else `Some(true)` (rows of other stations,
+/// or other problems: the rows' own business).
+fn first_row_verdict(
+    path: &Path,
+    cfg: &StationFile,
+    line: u64,
+    read: Option<Result<qc_core::Timestamp, BadRow>>,
+) -> Result<Option<bool>> {
+    match read {
+        None => Ok(None),
+        Some(Err(bad)) if bad.is_time() => {
+            let key = match cfg.table.time_line {
+                0 => format!("the time of {} (by default)", cfg.path.display()),
+                n => format!("[{}.time] at {}:{n}", cfg.table.section, cfg.path.display()),
+            };
+            anyhow::bail!(
+                "{}:{line}: {bad}: {key} cannot read the first data row, so the layout cannot be right (check `format`, `epoch`, `columns`, `zone` and `label`)",
+                path.display()
+            );
+        }
+        Some(_) => Ok(Some(true)),
     }
 }
 
@@ -810,6 +824,11 @@ fn split_header<'r>(table: &Table, rec: &'r [u8]) -> Box<dyn Iterator<Item = &'r
 pub struct Head {
     parser: Option<Parser>,
     units_pending: bool,
+    /// Whether the first data row's time was checked ([`first_row_time`],
+    /// [`Head::check_first_record`]): the chunk that ends the preamble may
+    /// hold no data row (it ends there, or comments follow), and the rest
+    /// of the file may go to the `csv` crate before one.
+    first_row_checked: bool,
 }
 
 impl Head {
@@ -826,6 +845,36 @@ impl Head {
             return None;
         }
         self.parser.as_mut()
+    }
+
+    /// Checks the time of `rec` (on `line`) as [`first_row_time`] checks a
+    /// block's, while the first data row is still to be checked: for the
+    /// `csv` crate's records ([`csv_rows`](crate::samples::csv_rows)), each
+    /// before it is read.
+    pub fn check_first_record(
+        &mut self,
+        path: &Path,
+        cfg: &StationFile,
+        line: u64,
+        rec: &csv::ByteRecord,
+    ) -> Result<()> {
+        if self.first_row_checked {
+            return Ok(());
+        }
+        let Some(parser) = self.ready() else {
+            return Ok(());
+        };
+        if parser.declared_delimiter().is_none() {
+            self.first_row_checked = true;
+            return Ok(());
+        }
+        let mut p = parser.clone();
+        let mut readings = vec![qc_core::Reading::Missing; cfg.channels.len()];
+        let read = p.parse_record(rec, &mut readings);
+        if let Some(checked) = first_row_verdict(path, cfg, line, read)? {
+            self.first_row_checked = checked;
+        }
+        Ok(())
     }
 
     /// Whether a header (or data, without one) was read.

@@ -855,12 +855,16 @@ pub fn csv_rows<E: From<anyhow::Error>>(
             return Ok(head.seen());
         };
         next = at + 1;
-        if let Some(p) = head.ready_mut() {
-            row(p, at, &rec)?;
+        if head.ready().is_some() {
+            head.check_first_record(path, cfg, at, &rec)?;
+            if let Some(p) = head.ready_mut() {
+                row(p, at, &rec)?;
+            }
             continue;
         }
         let comment = rec.get(0).is_some_and(|f| cfg.table.is_comment(f));
         if head.feed(path, cfg, at, comment, rec.iter())? {
+            head.check_first_record(path, cfg, at, &rec)?;
             if let Some(p) = head.ready_mut() {
                 row(p, at, &rec)?;
             }

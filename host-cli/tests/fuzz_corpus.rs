@@ -59,6 +59,11 @@ fn layouts_corpus() {
 }
 
 #[test]
+fn columnar_corpus() {
+    replay("columnar", 8, fuzzing::columnar);
+}
+
+#[test]
 fn station_corpus() {
     replay("station", 40, fuzzing::station);
 }
