@@ -693,9 +693,11 @@ fn rows_of_other_masts_are_passed_over_alike_in_parallel() {
 /// A declared layout whose time format cannot read the first data row is
 /// refused with `--skip-bad-rows` at every chunk size and thread count, also
 /// when the chunk that ends the header holds no data row (it ends with the
-/// header, or only comment lines follow it). The check once looked for the
+/// header, or only comment lines follow it), and when the file goes to the
+/// `csv` crate before its first data row. The check once looked for the
 /// first data row in that chunk alone, so `--jobs 2` in small chunks replayed
-/// such a file (found by the fuzz target `layouts`).
+/// such a file, and `--jobs 1` one with a quote further on (both found by
+/// the fuzz target `layouts`).
 #[test]
 fn the_first_rows_time_is_checked_whatever_the_chunks() {
     let dir = setup();
@@ -708,7 +710,15 @@ fn the_first_rows_time_is_checked_whatever_the_chunks() {
     let (header, rows) = file.split_once('\n').unwrap();
     // RFC 3339 times: the layout's format reads none of them.
     let comments = "# a comment line of an invented logger's file\n".repeat(30);
-    for (name, between) in [("right-after.csv", ""), ("comments.csv", &comments[..])] {
+    // An uneven quote near the end: from the chunk holding it, the rest of
+    // the file goes to the `csv` crate (with the default chunk, the whole
+    // file), whose records the check must see as well.
+    let quoted = format!("{rows}\"an unclosed quote\n");
+    for (name, between, rows) in [
+        ("right-after.csv", "", rows),
+        ("comments.csv", &comments[..], rows),
+        ("quote-later.csv", "", &quoted[..]),
+    ] {
         std::fs::write(d.join(name), format!("{header}\n{between}{rows}")).unwrap();
         let out = same_as_sequential(d, &["-c", "layout.toml", "--skip-bad-rows", name]);
         let err = text(&out.stderr);
