@@ -48,8 +48,15 @@ for t in "${targets[@]}"; do
   else
     echo "== $t: $secs s"
     # The first corpus folder receives the new inputs; the committed one is read.
+    # The replay's threads (--jobs 2, the read-ahead) may still be running
+    # their thread-local destructors when an input ends: LeakSanitizer then
+    # reports std's per-thread channel context as leaked (112 bytes from
+    # __cxa_thread_atexit_impl; seen on the layouts target), a false alarm.
+    leaks=1
+    case "$t" in samples|layouts|columnar) leaks=0 ;; esac
     cargo fuzz run "$t" "fuzz/new/$t" "fuzz/corpus/$t" -- \
       -max_total_time="$secs" -timeout=30 -rss_limit_mb=2048 -print_final_stats=1 \
+      -detect_leaks="$leaks" \
       -artifact_prefix="fuzz/artifacts-found/$t/" \
       || { echo "== $t: stopped on a crash or hang, input in host-cli/fuzz/artifacts-found/$t/"; failed+=("$t"); }
   fi

@@ -420,17 +420,21 @@ fn open_batches(path: &Path) -> Result<Box<dyn RecordBatchReader + Send>> {
 fn open_unguarded(path: &Path) -> Result<Box<dyn RecordBatchReader + Send>> {
     let at = || format!("{}: cannot read", path.display());
     let mut f = File::open(path).with_context(at)?;
+    let size = f.metadata().with_context(at)?.len();
     Ok(match Format::of_path(path) {
         Format::Parquet => {
             let b = parquet::arrow::arrow_reader::ParquetRecordBatchReaderBuilder::try_new(f)
                 .map_err(|e| anyhow!("{}: not a Parquet file: {e}", path.display()))?;
+            parquet_ranges(path, b.metadata(), size)?;
             Box::new(b.with_batch_size(BATCH_ROWS).build()?)
         }
         _ => {
             let mut magic = [0u8; 6];
             let n = f.read(&mut magic).with_context(at)?;
+            let file = n == 6 && &magic == b"ARROW1";
+            ipc_lengths(path, &mut f, size, file)?;
             f.seek(SeekFrom::Start(0)).with_context(at)?;
-            if n == 6 && &magic == b"ARROW1" {
+            if file {
                 Box::new(
                     arrow_ipc::reader::FileReader::try_new(BufReader::new(f), None)
                         .map_err(|e| anyhow!("{}: not an Arrow IPC file: {e}", path.display()))?,
@@ -444,6 +448,144 @@ fn open_unguarded(path: &Path) -> Result<Box<dyn RecordBatchReader + Send>> {
             }
         }
     })
+}
+
+/// Every column chunk of a Parquet file's metadata within the file: the
+/// `parquet` crate reserves a chunk's bytes as the metadata gives their
+/// length before reading them, so a damaged length would ask for any amount
+/// of memory (and a negative one panics in it).
+fn parquet_ranges(
+    path: &Path,
+    meta: &parquet::file::metadata::ParquetMetaData,
+    size: u64,
+) -> Result<()> {
+    for (g, group) in meta.row_groups().iter().enumerate() {
+        for col in group.columns() {
+            let start = col
+                .dictionary_page_offset()
+                .unwrap_or(col.data_page_offset());
+            let len = col.compressed_size();
+            let end = u64::try_from(start)
+                .ok()
+                .zip(u64::try_from(len).ok())
+                .and_then(|(a, b)| a.checked_add(b));
+            if end.is_none_or(|e| e > size) {
+                bail!(
+                    "{}: damaged: row group {g}, column {}: {len} bytes from byte {start}, past the file's end ({size} bytes)",
+                    path.display(),
+                    col.column_path()
+                );
+            }
+        }
+    }
+    Ok(())
+}
+
+/// The metadata of one Arrow IPC message, at most this long: a schema or a
+/// batch's description takes a few KiB even for hundreds of columns.
+const MAX_IPC_METADATA: u64 = 16 << 20;
+
+/// Every length an Arrow IPC file or stream declares fits in it (`size`
+/// bytes; `file`: the file format, a footer at the end): each message's
+/// metadata and body in turn, and for the file format the footer and the
+/// blocks it lists. The `arrow` crate reserves each before reading it, so a
+/// damaged length would ask for any amount of memory. Reads only the
+/// framing and the metadata (the bodies are passed over); what does not
+/// parse is left for the `arrow` crate to report.
+fn ipc_lengths(path: &Path, f: &mut File, size: u64, file: bool) -> Result<()> {
+    let damaged = |what: String| anyhow!("{}: damaged: {what}", path.display());
+    let at = || format!("{}: cannot read", path.display());
+    let mut word = [0u8; 4];
+    let mut read_word = |f: &mut File, pos: u64| -> Result<Option<i32>> {
+        if pos + 4 > size {
+            return Ok(None);
+        }
+        f.seek(SeekFrom::Start(pos)).with_context(at)?;
+        f.read_exact(&mut word).with_context(at)?;
+        Ok(Some(i32::from_le_bytes(word)))
+    };
+    let mut meta = Vec::new();
+    // The messages, from the start (after the file format's magic and its
+    // padding), up to the end-of-stream marker.
+    let mut pos = if file { 8 } else { 0 };
+    loop {
+        let Some(mut len) = read_word(f, pos)? else {
+            break;
+        };
+        pos += 4;
+        if len == -1 {
+            // The continuation marker: the length follows.
+            let Some(l) = read_word(f, pos)? else { break };
+            len = l;
+            pos += 4;
+        }
+        if len == 0 {
+            break;
+        }
+        let len = u64::try_from(len).map_err(|_| {
+            damaged(format!(
+                "a message's metadata length {len} at byte {}",
+                pos - 4
+            ))
+        })?;
+        if len > MAX_IPC_METADATA || pos + len > size {
+            return Err(damaged(format!(
+                "a message's metadata of {len} bytes at byte {pos}, past the file's end ({size} bytes) or over {MAX_IPC_METADATA}"
+            )));
+        }
+        meta.resize(len as usize, 0);
+        f.seek(SeekFrom::Start(pos)).with_context(at)?;
+        f.read_exact(&mut meta).with_context(at)?;
+        pos += len;
+        let Ok(message) = arrow_ipc::root_as_message(&meta) else {
+            break;
+        };
+        let body = message.bodyLength();
+        match u64::try_from(body).ok().and_then(|b| b.checked_add(pos)) {
+            Some(end) if end <= size => pos = end,
+            _ => {
+                return Err(damaged(format!(
+                    "a message's body of {body} bytes at byte {pos}, past the file's end ({size} bytes)"
+                )))
+            }
+        }
+    }
+    if !file || size < 10 {
+        return Ok(());
+    }
+    let Some(footer_len) = read_word(f, size - 10)? else {
+        return Ok(());
+    };
+    let footer_len = u64::try_from(footer_len).unwrap_or(u64::MAX);
+    if footer_len > MAX_IPC_METADATA || footer_len > size - 10 {
+        return Err(damaged(format!(
+            "a footer of {footer_len} bytes, more than the file holds ({size} bytes) or over {MAX_IPC_METADATA}"
+        )));
+    }
+    meta.resize(footer_len as usize, 0);
+    f.seek(SeekFrom::Start(size - 10 - footer_len))
+        .with_context(at)?;
+    f.read_exact(&mut meta).with_context(at)?;
+    let Ok(footer) = arrow_ipc::root_as_footer(&meta) else {
+        return Ok(());
+    };
+    let blocks = footer.recordBatches().into_iter().flatten();
+    for b in blocks.chain(footer.dictionaries().into_iter().flatten()) {
+        let end = u64::try_from(b.offset())
+            .ok()
+            .zip(u64::try_from(b.metaDataLength()).ok())
+            .zip(u64::try_from(b.bodyLength()).ok())
+            .and_then(|((o, m), l)| o.checked_add(m)?.checked_add(l));
+        if end.is_none_or(|e| e > size) {
+            return Err(damaged(format!(
+                "a block of {} + {} bytes at byte {}, past the file's end ({size} bytes)",
+                b.metaDataLength(),
+                b.bodyLength(),
+                b.offset()
+            )));
+        }
+    }
+    Ok(())
 }
 
 thread_local! {

@@ -637,6 +637,20 @@ pub fn layouts(data: &[u8]) {
     replays_agree(&cfg, &scratch("layout.txt", &file));
 }
 
+/// For a fuzz target's start: the panic hook installed so far (libFuzzer's,
+/// which aborts on any panic) is skipped for a panic that
+/// [`crate::columnar`] catches in the decoding crates and turns into an
+/// error naming the file, as `tenmin`'s own hook skips it; any other panic
+/// still aborts.
+pub fn let_guarded_panics_unwind() {
+    let hook = std::panic::take_hook();
+    std::panic::set_hook(Box::new(move |info| {
+        if !crate::columnar::in_guarded_decoding() {
+            hook(info);
+        }
+    }));
+}
+
 /// Columnar files: the first byte picks the name's extension (`.parquet` or
 /// `.arrow`, Arrow's file or stream format told apart by the bytes), the rest
 /// is the file. Read as samples through `tenmin replay` (strict and
