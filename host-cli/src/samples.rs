@@ -3486,9 +3486,11 @@ fn parse_reading_slow(field: &[u8], decode: Decode) -> Result<Reading, BadKind> 
 /// readings, bit for bit, and the row ends where the record does; where it
 /// passes a row over as another station's, the general way counts it so.
 /// Panics naming the record where they differ. Returns how many records the
-/// one pass read, passed over and left to the general way; `None` for
-/// tenmin's own CSV, a layout whose one pass writes only some channels
-/// ([`Parser::fills_rows`]), or a `buf` with a quote (the `csv` crate's).
+/// one pass read, passed over and left to the general way; `None` for a
+/// layout whose one pass writes only some channels ([`Parser::fills_rows`])
+/// or a `buf` with a quote (the `csv` crate's). For tenmin's own CSV, its
+/// straight loop and its column plan against the general way
+/// ([`own_against`]).
 pub fn one_pass_against_general(parser: &Parser, buf: &[u8]) -> Option<[u64; 3]> {
     one_pass_against(parser, parser, buf)
 }
@@ -3497,24 +3499,18 @@ pub fn one_pass_against_general(parser: &Parser, buf: &[u8]) -> Option<[u64; 3]>
 /// the general way by a clone of `general`.
 fn one_pass_against(one: &Parser, general: &Parser, buf: &[u8]) -> Option<[u64; 3]> {
     let parser = one;
-    let delim = parser.declared_delimiter()?;
-    if !parser.fills_rows() || buf.contains(&b'"') {
+    if buf.contains(&b'"') {
+        return None;
+    }
+    let Some(delim) = parser.declared_delimiter() else {
+        return Some(own_against(one, general, buf));
+    };
+    if !parser.fills_rows() {
         return None;
     }
     let (mut one, mut general) = (one.clone(), general.clone());
     let n = parser.ids.len();
     let (mut r1, mut r2) = (vec![Reading::Missing; n], vec![Reading::Missing; n]);
-    let bits = |r: &[Reading]| -> Vec<(u8, u64)> {
-        r.iter()
-            .map(|v| match *v {
-                Reading::Value(f) => (0, f.to_bits()),
-                Reading::Counts(k) => (1, u64::from(k as u32)),
-                Reading::Missing => (2, 0),
-                Reading::Flagged => (3, 0),
-                Reading::Excluded => (4, 0),
-            })
-            .collect()
-    };
     let mut delims = Vec::new();
     let mut recs = Records::new(buf, 1);
     let mut counts = [0; 3];
@@ -3537,7 +3533,12 @@ fn one_pass_against(one: &Parser, general: &Parser, buf: &[u8]) -> Option<[u64; 
                     Some(Ok(w)) => assert_eq!(t, *w, "{}: the time", shown()),
                     _ => panic!("{}: read in one pass, the general way: {want:?}", shown()),
                 }
-                assert_eq!(bits(&r1), bits(&r2), "{}: the readings", shown());
+                assert_eq!(
+                    reading_bits(&r1),
+                    reading_bits(&r2),
+                    "{}: the readings",
+                    shown()
+                );
                 counts[0] += 1;
             }
             None => match dec.other.take() {
@@ -3555,6 +3556,75 @@ fn one_pass_against(one: &Parser, general: &Parser, buf: &[u8]) -> Option<[u64; 
         }
     }
     Some(counts)
+}
+
+/// The bits of readings, to compare them exactly (NaN's sign and payload
+/// included).
+fn reading_bits(r: &[Reading]) -> Vec<(u8, u64)> {
+    r.iter()
+        .map(|v| match *v {
+            Reading::Value(f) => (0, f.to_bits()),
+            Reading::Counts(k) => (1, u64::from(k as u32)),
+            Reading::Missing => (2, 0),
+            Reading::Flagged => (3, 0),
+            Reading::Excluded => (4, 0),
+        })
+        .collect()
+}
+
+/// [`one_pass_against`] for tenmin's own CSV: each record read by the
+/// straight loop ([`Parser::parse_plain`]) and by the column plan alone
+/// ([`Parser::parse_planned`]) against the general way ([`Parser::parse`],
+/// the record split at its commas first). Returns how many records the
+/// straight loop read, 0, and how many it left.
+fn own_against(one: &Parser, general: &Parser, buf: &[u8]) -> [u64; 3] {
+    // The straight loop's parser and the plan's: each reads a row it leaves
+    // the general way, as the replay does (which primes its time cache).
+    let (mut plan, mut general) = (one.clone(), general.clone());
+    let mut one = one.clone();
+    let n = one.ids.len();
+    let (mut r1, mut r2) = (vec![Reading::Missing; n], vec![Reading::Missing; n]);
+    let mut scratch = vec![Reading::Missing; n];
+    let mut commas = Vec::new();
+    let mut recs = Records::new(buf, 1);
+    let mut counts = [0; 3];
+    while let Some(i) = recs.skip_blank() {
+        recs.pos = i;
+        let Some((line, rec)) = recs.next_split(&mut commas) else {
+            break;
+        };
+        let shown = || format!("line {line}: {:?}", String::from_utf8_lossy(rec));
+        r2.fill(Reading::Missing);
+        let want = general.parse(rec, &commas, &mut r2);
+        for straight in [true, false] {
+            r1.fill(Reading::Missing);
+            let p = if straight { &mut one } else { &mut plan };
+            let got = if straight {
+                p.parse_plain(buf, i, &mut r1)
+            } else {
+                p.parse_planned(buf, i, &mut r1)
+            };
+            let way = if straight { "straight" } else { "by its plan" };
+            let Some((t, end)) = got else {
+                let _ = p.parse(rec, &commas, &mut scratch);
+                counts[2] += u64::from(straight);
+                continue;
+            };
+            assert_eq!(end, i + rec.len(), "{}: the row's end, {way}", shown());
+            match &want {
+                Ok(w) => assert_eq!(t, *w, "{}: the time, {way}", shown()),
+                Err(e) => panic!("{}: read {way}, the general way: {e:?}", shown()),
+            }
+            assert_eq!(
+                reading_bits(&r1),
+                reading_bits(&r2),
+                "{}: the readings, {way}",
+                shown()
+            );
+            counts[0] += u64::from(straight);
+        }
+    }
+    counts
 }
 
 #[cfg(test)]
@@ -5072,6 +5142,28 @@ mod tests {
         );
         let r = std::panic::catch_unwind(|| one_pass_against(&filtered, &plain, rows));
         assert!(r.is_err(), "passed over, read the general way");
+    }
+
+    /// The fuzz targets' check on tenmin's own CSV: rows read straight and by
+    /// the column plan as the general way reads them, and the check fires
+    /// where a reading differs (two columns swapped in the general way's
+    /// header).
+    #[test]
+    fn the_own_csv_check_reads_rows_and_fires_on_a_difference() {
+        let cfg = crate::config::parse(Path::new("s.toml"), crate::fuzzing::STATION).unwrap();
+        let header = |h: &'static str| {
+            Parser::new(Path::new("x"), 1, h.split(',').map(str::as_bytes), &cfg).unwrap()
+        };
+        let own = header("time,ws80a,ws80b,ws60,wd78,t76,rh76");
+        let buf = b"2025-01-20T00:00:00Z,5.12,5.2,4.8,2546,1.4,81.6\n\
+            2025-01-20T00:00:01Z,5.09,5.19,4.82,2484,1.4,81.8\n\
+            2025-01-20T00:00:02Z,,NaN,-999,2517,1.4,81.8\n";
+        // The first row primes the cache; `NaN` the straight loop leaves (to
+        // the plan, checked too).
+        assert_eq!(one_pass_against(&own, &own, buf), Some([1, 0, 2]));
+        let swapped = header("time,ws80b,ws80a,ws60,wd78,t76,rh76");
+        let r = std::panic::catch_unwind(|| one_pass_against(&own, &swapped, buf));
+        assert!(r.is_err(), "a reading differs");
     }
 
     /// The one-pass readers of every kind of layout (a delimiter with
