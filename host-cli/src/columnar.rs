@@ -450,15 +450,18 @@ fn open_unguarded(path: &Path) -> Result<Box<dyn RecordBatchReader + Send>> {
     })
 }
 
-/// Every column chunk of a Parquet file's metadata within the file: the
-/// `parquet` crate reserves a chunk's bytes as the metadata gives their
-/// length before reading them, so a damaged length would ask for any amount
-/// of memory (and a negative one panics in it).
+/// Every column chunk of a Parquet file's metadata within the file, and its
+/// pages within it, each at most [`crate::pagescan::MAX_PAGE`] bytes
+/// decompressed ([`crate::pagescan::check_chunk`]): the `parquet` crate
+/// reserves a chunk's bytes, and a page's, as the file declares them before
+/// reading them, so a damaged length would ask for any amount of memory (and
+/// a negative one panics in it).
 fn parquet_ranges(
     path: &Path,
     meta: &parquet::file::metadata::ParquetMetaData,
     size: u64,
 ) -> Result<()> {
+    let mut f = File::open(path).with_context(|| format!("{}: cannot read", path.display()))?;
     for (g, group) in meta.row_groups().iter().enumerate() {
         for col in group.columns() {
             let start = col
@@ -476,6 +479,13 @@ fn parquet_ranges(
                     col.column_path()
                 );
             }
+            crate::pagescan::check_chunk(&mut f, start as u64, len as u64).map_err(|why| {
+                anyhow!(
+                    "{}: damaged: row group {g}, column {}: {why}",
+                    path.display(),
+                    col.column_path()
+                )
+            })?;
         }
     }
     Ok(())

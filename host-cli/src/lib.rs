@@ -26,6 +26,7 @@ pub mod logtable;
 pub mod options;
 pub mod outages;
 pub mod output;
+mod pagescan;
 pub mod parallel;
 pub mod provenance;
 pub mod reader;

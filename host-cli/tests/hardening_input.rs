@@ -409,8 +409,9 @@ fn catalogue_of_malformed_samples_files() {
 /// Damaged Parquet and Arrow IPC samples: a file of `tenmin export` cut short
 /// and with bytes changed at many places, a Parquet footer whose metadata
 /// holds a thrift type the `parquet` crate does not read (it panicked there),
-/// and an Arrow stream whose message declares a body of petabytes (the
-/// `arrow` crate reserved it before reading; both found by the fuzz target
+/// an Arrow stream whose message declares a body of petabytes (the `arrow`
+/// crate reserved it before reading), and a Parquet page header of 3 KiB
+/// that made the `parquet` crate take 1.7 GB (all found by the fuzz target
 /// `columnar`): each ends in exit 0 or 2 within a 64 MiB address space, with
 /// no panic printed, and exit 2 names the file.
 #[cfg(target_os = "linux")]
@@ -470,6 +471,14 @@ fn damaged_columnar_files_are_errors_not_crashes() {
         found[1..].to_vec(),
         "fuzz.toml",
     ));
+    let found = Path::new(env!("CARGO_MANIFEST_DIR"))
+        .join("fuzz/corpus/columnar/found-parquet-page-of-gigabytes");
+    let found = std::fs::read(&found).unwrap_or_else(|e| panic!("{}: {e}", found.display()));
+    cases.push((
+        "page-of-gigabytes.parquet".into(),
+        found[1..].to_vec(),
+        "fuzz.toml",
+    ));
     let mut refused_files = 0;
     for (name, bytes, station) in &cases {
         std::fs::write(d.join(name), bytes).unwrap();
@@ -498,6 +507,10 @@ fn damaged_columnar_files_are_errors_not_crashes() {
         (
             "body-past-the-end.arrows",
             "damaged: a message's body of 5629499534216512 bytes at byte 888, past the file's end",
+        ),
+        (
+            "page-of-gigabytes.parquet",
+            "damaged: row group 0, column \"time\": a page header at byte 4 that does not read",
         ),
     ] {
         let out = tenmin(&["replay", "-q", "-c", "fuzz.toml", name], d);
