@@ -242,15 +242,35 @@ def test_cli_records_parquet_read_by_pandas_equal_csv_values(demo, tmp_path, ext
             assert (pd.isna(v) if t == "" else float(t) == v), (c, t, v)
 
 
-@pytest.mark.parametrize("how", ["pandas-parquet", "arrow-ipc", "export-parquet"])
+@pytest.mark.parametrize(
+    "how",
+    ["pandas-parquet", "pyarrow-v2-pages", "pyarrow-dict-crc", "arrow-ipc", "arrow-stream", "export-parquet"],
+)
 def test_cli_replays_columnar_samples_as_csv(demo, tmp_path, how):
     import pyarrow.feather as feather
+    import pyarrow.ipc as ipc
+    import pyarrow.parquet as pq
 
     df = demo["df"].copy()
     df["time"] = pd.to_datetime(df["time"], utc=True, format="ISO8601")
+    table = pa.Table.from_pandas(df, preserve_index=False)
     if how == "pandas-parquet":
         path = tmp_path / "s.parquet"
         df.to_parquet(path, engine="pyarrow", index=False)
+    elif how == "pyarrow-v2-pages":
+        # Data pages v2 of about 4 KiB (hundreds of pages a column), zstd,
+        # statistics in every page header: the headers tenmin reads before
+        # the parquet crate decodes the pages (host-cli/src/pagescan.rs).
+        path = tmp_path / "s.parquet"
+        pq.write_table(table, path, data_page_version="2.0", data_page_size=4096, compression="zstd", write_statistics=True)
+    elif how == "pyarrow-dict-crc":
+        # Dictionary pages, page checksums, a page index, row groups of 50,000 rows.
+        path = tmp_path / "s.parquet"
+        pq.write_table(table, path, use_dictionary=True, write_page_checksum=True, write_page_index=True, row_group_size=50_000, compression="snappy")
+    elif how == "arrow-stream":
+        path = tmp_path / "s.arrows"
+        with ipc.new_stream(path, table.schema) as w:
+            w.write_table(table, max_chunksize=10_000)
     elif how == "arrow-ipc":
         path = tmp_path / "s.arrow"
         feather.write_feather(pa.Table.from_pandas(df, preserve_index=False), path, compression="uncompressed")
