@@ -455,30 +455,27 @@ fn damaged_columnar_files_are_errors_not_crashes() {
             cases.push((format!("flip-{k}.{ext}"), bad, "station.toml"));
         }
     }
-    let found = Path::new(env!("CARGO_MANIFEST_DIR"))
-        .join("fuzz/corpus/columnar/found-parquet-thrift-map-not-implemented");
-    let found = std::fs::read(&found).unwrap_or_else(|e| panic!("{}: {e}", found.display()));
-    cases.push((
-        "thrift-map.parquet".into(),
-        found[1..].to_vec(),
-        "fuzz.toml",
-    ));
-    let found = Path::new(env!("CARGO_MANIFEST_DIR"))
-        .join("fuzz/corpus/columnar/found-arrow-stream-body-past-the-end");
-    let found = std::fs::read(&found).unwrap_or_else(|e| panic!("{}: {e}", found.display()));
-    cases.push((
-        "body-past-the-end.arrows".into(),
-        found[1..].to_vec(),
-        "fuzz.toml",
-    ));
-    let found = Path::new(env!("CARGO_MANIFEST_DIR"))
-        .join("fuzz/corpus/columnar/found-parquet-page-of-gigabytes");
-    let found = std::fs::read(&found).unwrap_or_else(|e| panic!("{}: {e}", found.display()));
-    cases.push((
-        "page-of-gigabytes.parquet".into(),
-        found[1..].to_vec(),
-        "fuzz.toml",
-    ));
+    // The fuzzer's inputs: a selector byte, then the file.
+    for (found, name) in [
+        (
+            "found-parquet-thrift-map-not-implemented",
+            "thrift-map.parquet",
+        ),
+        (
+            "found-arrow-stream-body-past-the-end",
+            "body-past-the-end.arrows",
+        ),
+        (
+            "found-parquet-page-of-gigabytes",
+            "page-of-gigabytes.parquet",
+        ),
+    ] {
+        let path = Path::new(env!("CARGO_MANIFEST_DIR"))
+            .join("fuzz/corpus/columnar")
+            .join(found);
+        let bytes = std::fs::read(&path).unwrap_or_else(|e| panic!("{}: {e}", path.display()));
+        cases.push((name.into(), bytes[1..].to_vec(), "fuzz.toml"));
+    }
     let mut refused_files = 0;
     for (name, bytes, station) in &cases {
         std::fs::write(d.join(name), bytes).unwrap();
