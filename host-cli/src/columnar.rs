@@ -425,7 +425,7 @@ fn open_unguarded(path: &Path) -> Result<Box<dyn RecordBatchReader + Send>> {
         Format::Parquet => {
             let b = parquet::arrow::arrow_reader::ParquetRecordBatchReaderBuilder::try_new(f)
                 .map_err(|e| anyhow!("{}: not a Parquet file: {e}", path.display()))?;
-            parquet_ranges(path, b.metadata(), size)?;
+            parquet_lengths(path, b.metadata(), size)?;
             Box::new(b.with_batch_size(BATCH_ROWS).build()?)
         }
         _ => {
@@ -456,7 +456,7 @@ fn open_unguarded(path: &Path) -> Result<Box<dyn RecordBatchReader + Send>> {
 /// reserves a chunk's bytes, and a page's, as the file declares them before
 /// reading them, so a damaged length would ask for any amount of memory (and
 /// a negative one panics in it).
-fn parquet_ranges(
+fn parquet_lengths(
     path: &Path,
     meta: &parquet::file::metadata::ParquetMetaData,
     size: u64,

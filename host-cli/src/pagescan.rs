@@ -19,8 +19,9 @@ use std::fs::File;
 use std::io::{Read, Seek, SeekFrom};
 
 /// The largest page tenmin decodes, decompressed: writers cut pages at about
-/// 1 MiB (the default of the Parquet writers of Apache Arrow, C++ and Rust,
-/// and of tenmin's own), dictionary pages as well.
+/// 1 MiB (common practice; from memory, the default data page size of the
+/// Parquet writers of Apache Arrow's C++ and Rust libraries; tenmin's own
+/// pages are about 1 MiB, host-cli/PERF.md), dictionary pages as well.
 pub const MAX_PAGE: u64 = 64 << 20;
 
 /// The longest page header read: a page header holds a few integers and, at
