@@ -15,7 +15,7 @@ trap 'rm -rf "$work"' EXIT
 cd "$root"
 cargo build -p host-cli --release --quiet
 tenmin="${CARGO_TARGET_DIR:-$root/target}/release/tenmin"
-mkdir -p "$corpus"/{samples,station,records,frames,logscan,layouts,columnar}
+mkdir -p "$corpus"/{samples,station,records,frames,logscan,layouts,columnar,draft}
 
 "$tenmin" demo --days 1 --out "$work/demo" >/dev/null
 st="$work/demo/station.toml"
@@ -263,5 +263,23 @@ for name, day in (("spring", "2025-03-30"), ("autumn", "2025-10-26")):
     with open(f"{out}/seed-2-{name}.txt", "wb") as f:
         f.write(bytes([2]) + ("\n".join(rs) + "\n").encode())
 PY
+# --- draft: the first 6,000 bytes of the real field files of examples/
+# (their PROVENANCE.md says where each comes from), the fuzz layouts' 30
+# rows (the layouts seeds above) after their preambles, and the demo's own CSV.
+g="$corpus/draft"
+for d in "$root"/examples/field-files/*/; do
+  f="$(ls "$d" | grep -v 'toml\|md' | head -1)"
+  head -c 6000 "$d/$f" >"$g/seed-$(basename "$d").txt"
+done
+python3 - "$g" "$y" "$here/../src/fuzzing.rs" <<'PY'
+import re, sys
+out, rows, src = sys.argv[1], sys.argv[2], open(sys.argv[3]).read()
+pres = re.findall(r'preamble: "(.*?)",\n\s*header: ', src)
+for i, pre in enumerate(pres):
+    body = open(f"{rows}/seed-{i}-rows.txt", "rb").read()[1:]
+    open(f"{out}/seed-layout-{i}.txt", "wb").write(pre.encode().decode("unicode_escape").encode() + body)
+PY
+head -n 40 "$day" >"$g/seed-own-csv.txt"
+
 echo "seed.sh: seeds written to $corpus"
 du -sh "$corpus"/*

@@ -16,6 +16,7 @@
 //! | [`samples`] | samples CSV through `tenmin replay` (one thread and two, strict and `--skip-bad-rows`) |
 //! | [`layouts`] | a field file of a declared layout ([`LAYOUTS`]): each row read in one pass and the general way alike, the file replayed as [`samples`] |
 //! | [`columnar`] | a Parquet or Arrow IPC file as samples through `tenmin replay` and as records |
+//! | [`draft`] | a field file through `tenmin draft`, and the draft, when it loads, replaying it |
 //! | [`station`] | station file (TOML), the engine it builds, its sample-file header |
 //! | [`records`] | records CSV through `tenmin report` and `tenmin verify` |
 //! | [`frames`] | `qc_core::wire`: record frames, state frames, a sample file (header and sample frames) replayed through a core station |
@@ -644,6 +645,34 @@ pub fn layouts(data: &[u8]) {
     let mut file = layout.preamble.as_bytes().to_vec();
     file.extend_from_slice(rows);
     replays_agree(&cfg, &scratch("layout.txt", &file));
+}
+
+/// A field file through `tenmin draft`: a draft or an error naming the file;
+/// a draft that loads as a station file (one that needs no edit first)
+/// replays the same file with `--skip-bad-rows` as [`samples`] checks a
+/// replay: every row and sample accounted for, or an error naming the file.
+pub fn draft(data: &[u8]) {
+    let name = "field.txt";
+    let drafted =
+        crate::draft::sniff_bytes(name, data).and_then(|sniff| crate::draft::draft(name, &sniff));
+    let d = match drafted {
+        Ok(d) => d,
+        Err(e) => return names(&e, Path::new(name)),
+    };
+    let Ok(cfg) = config::load(&scratch("draft.toml", d.text.as_bytes())) else {
+        return;
+    };
+    let path = scratch(name, data);
+    let opts = Options {
+        max_gap_days: MAX_GAP_DAYS,
+        skip_bad_rows: true,
+        allow_no_records: true,
+        ..Options::default()
+    };
+    match replay_rows(&cfg, &path, opts) {
+        Ok((s, rows)) => accounted(&s, &rows),
+        Err(e) => names(&e, &path),
+    }
 }
 
 /// For a fuzz target's start: the panic hook installed so far (libFuzzer's,

@@ -64,6 +64,11 @@ fn columnar_corpus() {
 }
 
 #[test]
+fn draft_corpus() {
+    replay("draft", 10, fuzzing::draft);
+}
+
+#[test]
 fn station_corpus() {
     replay("station", 40, fuzzing::station);
 }
