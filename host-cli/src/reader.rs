@@ -553,7 +553,19 @@ impl<'a> FileReader<'a> {
                     Some(feeder) => Box::new(Hashing::with_feeder(after, feeder)),
                     None => Box::new(after),
                 };
-                let rest = Cursor::new(block).chain(Cursor::new(pending)).chain(after);
+                // The csv crate drops a UTF-8 BOM at the start of what it
+                // reads, taking it for the file's. Past the file's start a
+                // BOM is data, as the block reader reads it: the csv crate
+                // first reads a line end of its own (a blank line, skipped),
+                // on the line before.
+                let (lead, line) = match offset {
+                    0 => (&b""[..], line),
+                    _ => (&b"\n"[..], line.saturating_sub(1)),
+                };
+                let rest = Cursor::new(lead)
+                    .chain(Cursor::new(block))
+                    .chain(Cursor::new(pending))
+                    .chain(after);
                 return Ok(Some(Piece::Tail {
                     line,
                     rest: Box::new(rest),

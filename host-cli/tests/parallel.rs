@@ -729,3 +729,33 @@ fn the_first_rows_time_is_checked_whatever_the_chunks() {
         );
     }
 }
+
+/// A UTF-8 BOM at the start of a line past the file's start is data (here
+/// it spoils the time: a bad row), also where the rest of the file goes to
+/// the `csv` crate from that line on (a quote further on, small chunks): the
+/// `csv` crate took it for the file's BOM and dropped it, so `--jobs 2` read
+/// a row `--jobs 1` counted bad (found by the fuzz target `layouts`).
+#[test]
+fn a_bom_inside_the_file_is_data_whatever_the_chunks() {
+    let dir = setup();
+    let d = dir.path();
+    let names = files(d, 9, 1, 120, Plant::default());
+    let file = std::fs::read_to_string(d.join(&names[0])).unwrap();
+    let mut lines = file.lines();
+    let mut all = format!("{}\n", lines.next().unwrap());
+    for (i, line) in lines.enumerate() {
+        // The first rows plain; then every row behind a BOM, one of them
+        // with a quoted field.
+        match i {
+            0..40 => all += line,
+            60 => all += &format!("\u{feff}\"{}", line.replacen(',', "\",", 1)),
+            _ => all += &format!("\u{feff}{line}"),
+        }
+        all.push('\n');
+    }
+    std::fs::write(d.join("bom.csv"), all).unwrap();
+    let out = same_as_sequential(d, &["-c", "station.toml", "--skip-bad-rows", "bom.csv"]);
+    assert!(out.status.success(), "{}", text(&out.stderr));
+    let err = text(&out.stderr);
+    assert!(err.contains("+ 80 bad rows"), "{err}");
+}
