@@ -162,6 +162,16 @@ impl Compact<'_> {
         Some((id, ty))
     }
 
+    /// Passes over an element of a list, set or map: as [`Compact::skip`],
+    /// but a boolean element is a byte of its own.
+    fn skip_element(&mut self, ty: u8, depth: u32) -> Option<()> {
+        if matches!(ty, TRUE | FALSE) {
+            self.advance(1)
+        } else {
+            self.skip(ty, depth)
+        }
+    }
+
     /// Passes over a value of type `ty`, nested at most [`MAX_DEPTH`].
     fn skip(&mut self, ty: u8, depth: u32) -> Option<()> {
         if depth > MAX_DEPTH {
@@ -184,12 +194,7 @@ impl Compact<'_> {
                     n => u64::from(n),
                 };
                 for _ in 0..n {
-                    // A boolean element is a byte of its own here.
-                    if matches!(elem, TRUE | FALSE) {
-                        self.advance(1)?;
-                    } else {
-                        self.skip(elem, depth + 1)?;
-                    }
+                    self.skip_element(elem, depth + 1)?;
                 }
                 Some(())
             }
@@ -200,13 +205,8 @@ impl Compact<'_> {
                 }
                 let kv = self.byte()?;
                 for _ in 0..n {
-                    for t in [kv >> 4, kv & 0x0f] {
-                        if matches!(t, TRUE | FALSE) {
-                            self.advance(1)?;
-                        } else {
-                            self.skip(t, depth + 1)?;
-                        }
-                    }
+                    self.skip_element(kv >> 4, depth + 1)?;
+                    self.skip_element(kv & 0x0f, depth + 1)?;
                 }
                 Some(())
             }
