@@ -5,7 +5,7 @@
 #
 # Usage: host-cli/fuzz/run.sh [SECONDS] [TARGET...]
 #        host-cli/fuzz/run.sh --merge [TARGET...]
-# Targets: samples layouts columnar draft station records frames logscan (default: all).
+# Targets: samples layouts columnar draft station records frames logscan campaign table (default: all).
 #
 # New inputs go to new/<target>/ (not committed). `--merge` adds those of them
 # that reach new code to corpus/<target>/ (libFuzzer's -merge=1, which keeps
@@ -21,7 +21,7 @@
 # stable compiler take them; a nightly toolchain works too (then drop it).
 set -euo pipefail
 here="$(cd "$(dirname "$0")" && pwd)"
-all=(samples layouts columnar draft station records frames logscan)
+all=(samples layouts columnar draft station records frames logscan campaign table)
 
 merge=0
 secs=60
@@ -53,7 +53,7 @@ for t in "${targets[@]}"; do
     # reports std's per-thread channel context as leaked (112 bytes from
     # __cxa_thread_atexit_impl; seen on the layouts target), a false alarm.
     leaks=1
-    case "$t" in samples|layouts|columnar|draft) leaks=0 ;; esac
+    case "$t" in samples|layouts|columnar|draft|campaign|table) leaks=0 ;; esac
     cargo fuzz run "$t" "fuzz/new/$t" "fuzz/corpus/$t" -- \
       -max_total_time="$secs" -timeout=30 -rss_limit_mb=2048 -print_final_stats=1 \
       -detect_leaks="$leaks" \

@@ -15,7 +15,7 @@ trap 'rm -rf "$work"' EXIT
 cd "$root"
 cargo build -p host-cli --release --quiet
 tenmin="${CARGO_TARGET_DIR:-$root/target}/release/tenmin"
-mkdir -p "$corpus"/{samples,station,records,frames,logscan,layouts,columnar,draft}
+mkdir -p "$corpus"/{samples,station,records,frames,logscan,layouts,columnar,draft,campaign,table}
 
 "$tenmin" demo --days 1 --out "$work/demo" >/dev/null
 st="$work/demo/station.toml"
@@ -280,6 +280,97 @@ for i, pre in enumerate(pres):
     open(f"{out}/seed-layout-{i}.txt", "wb").write(pre.encode().decode("unicode_escape").encode() + body)
 PY
 head -n 40 "$day" >"$g/seed-own-csv.txt"
+
+# --- campaign: a sensor history, an exclusions file and an events file for
+# the fuzz station, parted by a line `%%` (host_cli::fuzzing::PART), set in the
+# hour of samples the target replays (2025-01-20, 00:00 to 01:00 UTC).
+c="$corpus/campaign"
+sensors='[[entry]]
+id = "ws80a-1"
+channel = "ws80a"
+from = "2025-01-20T00:00:00Z"
+serial = "A1"
+logger = { slope = 0.0462, offset = 0.21 }
+certificate = { id = "C-1", date = "2024-11-02", slope = 0.04581, offset = 0.2214, uncertainty = 0.05 }
+
+[[entry]]
+id = "ws80a-2"
+channel = "ws80a"
+from = "2025-01-20T00:25:00Z"
+serial = "A2"
+logger = { slope = 0.0462, offset = 0.21 }
+certificate = { id = "C-2", date = "2025-01-02", slope = 0.04627, offset = 0.1952 }
+
+[[entry]]
+id = "t76-1"
+channel = "t76"
+from = "2025-01-20T00:00:00Z"
+to = "2025-01-20T00:40:00Z"
+serial = "T1"'
+exclusions='channels,from,to,reason,who,entered
+ws60,2025-01-20T00:10:00Z,2025-01-20T00:20:00Z,boom re-levelled,crew,2025-01-21
+all,2025-01-20T00:45:00Z,2025-01-20T00:46:00Z,"mast climbed, all readings",crew,2025-01-21T08:00:00Z
+wd78|t76,2025-01-20T00:30:00Z,2025-01-20T00:30:10Z,short,crew,2025-01-21'
+events='# events of the hour
+time,kind,text
+2025-01-20T00:25:00Z,sensor_swap,ws80a A1 for A2, certificate C-2
+2025-01-20T00:45:00Z,site_visit,mast climbed'
+printf '%s\n%%%%\n%s\n%%%%\n%s\n' "$sensors" "$exclusions" "$events" >"$c/seed-all-three.txt"
+printf '%s\n' "$sensors" >"$c/seed-sensors-only.txt"
+printf '\n%%%%\n%s\n' "$exclusions" >"$c/seed-exclusions-only.txt"
+printf '\n%%%%\n%s\n%%%%\n%s\n' "channels,from,to,reason,who,entered" "$events" >"$c/seed-events-only.txt"
+printf '[[entry]]\nid = "wd78-1"\nchannel = "wd78"\nfrom = "2025-01-20T00:00:00Z"\noffset_deg = 6.5\n' >"$c/seed-vane-offset.txt"
+cp "$root"/examples/station-history/sensors.toml "$c/seed-example-sensors.txt"
+{ cat "$root"/examples/station-history/sensors.toml; printf '\n%%%%\n'; cat "$root"/examples/station-history/exclusions.csv; } >"$c/seed-example-both.txt"
+
+# --- table: `[logger_table]` and `[conventions]` for the fuzz station, then
+# (after a line `%%`) a table of that hour, stamped at each interval's end.
+t="$corpus/table"
+python3 - "$t" <<'PY'
+import sys
+out = sys.argv[1]
+decl = """[logger_table]
+delimiter = ","
+
+[logger_table.time]
+column = "time_end"
+format = "%Y-%m-%d %H:%M:%S"
+zone = "+01:00"
+label = "end"
+
+[conventions.ws80a]
+mean = { column = "ws_mean", decimals = 2 }
+sd = { column = "ws_sd", decimals = 3, divisor = "n-1" }
+max = { column = "ws_max", decimals = 2, of = "sample" }
+rounding = "unknown"
+min_samples = 1
+
+[conventions.wd78]
+mean = { column = "wd_mean", decimals = 1, method = "unit_vector", north = "0" }
+rounding = "half_even"
+"""
+rows = ["time_end,ws_mean,ws_sd,ws_max,wd_mean"]
+for k in range(1, 7):
+    rows.append(f"2025-01-20 01:{k*10 % 60:02d}:00,5.{k}1,0.{k}52,6.{k}0,{250 + k}.4".replace("01:00:00", "02:00:00"))
+body = "\n".join(rows) + "\n"
+open(f"{out}/seed-table.txt", "w").write(decl + "\n%%\n" + body)
+open(f"{out}/seed-table-no-decimals.txt", "w").write(decl.replace(", decimals = 2", "") + "\n%%\n" + body)
+open(f"{out}/seed-table-empty-fields.txt", "w").write(decl + "\n%%\n" + body.replace(",5.31,", ",,").replace(",0.452,", ",NaN,"))
+# A table that agrees with the samples (host_cli::fuzzing::verify_samples),
+# computed here in plain Python: mean, sample standard deviation (n-1), max,
+# unit-vector mean direction (the vane's counts times 0.1 plus its 4 degrees).
+import math
+rows = ["time_end,ws_mean,ws_sd,ws_max,wd_mean"]
+for k in range(6):
+    ws = [round(5.0 + (i % 17) * 0.13, 2) for i in range(k * 60, (k + 1) * 60)]
+    wd = [((2400 + (i * 53) % 900) * 0.1 + 4) % 360 for i in range(k * 60, (k + 1) * 60)]
+    m = sum(ws) / len(ws)
+    sd = math.sqrt(sum((x - m) ** 2 for x in ws) / (len(ws) - 1))
+    d = math.degrees(math.atan2(sum(math.sin(math.radians(a)) for a in wd),
+                                sum(math.cos(math.radians(a)) for a in wd))) % 360
+    rows.append(f"2025-01-20 {1 + (k + 1) // 6:02d}:{(k + 1) * 10 % 60:02d}:00,{m:.2f},{sd:.3f},{max(ws):.2f},{d:.1f}")
+open(f"{out}/seed-table-matching.txt", "w").write(decl + "\n%%\n" + "\n".join(rows) + "\n")
+PY
 
 echo "seed.sh: seeds written to $corpus"
 du -sh "$corpus"/*

@@ -21,6 +21,8 @@
 //! | [`records`] | records CSV through `tenmin report` and `tenmin verify` |
 //! | [`frames`] | `qc_core::wire`: record frames, state frames, a sample file (header and sample frames) replayed through a core station |
 //! | [`logscan`] | a logger's log: the core's scanner whole and in pieces, and `tenmin decode` |
+//! | [`campaign`] | the campaign's side files (sensor history, exclusions, events) through replay, `verify` of the records written and `report` |
+//! | [`table`] | another logger's table and its `[logger_table]`/`[conventions]` through `tenmin verify` and `--infer` |
 //!
 //! Inputs with bytes that fail a CRC reach little beyond the check, so
 //! [`frames`] and [`logscan`] also try a copy with every CRC made right.
@@ -1130,6 +1132,150 @@ pub fn logscan(data: &[u8]) {
     fix_log_crcs(&mut fixed);
     if fixed != data {
         decode_log(&cfg, &fixed);
+    }
+}
+
+/// The line between the parts of a [`campaign`] or [`table`] input.
+pub const PART: &[u8] = b"\n%%\n";
+
+/// `data` cut at each [`PART`] line, into at most `n` parts (the last takes
+/// the rest).
+fn parts(data: &[u8], n: usize) -> Vec<&[u8]> {
+    let mut out = Vec::with_capacity(n);
+    let mut rest = data;
+    while out.len() + 1 < n {
+        let Some(at) = rest.windows(PART.len()).position(|w| w == PART) else {
+            break;
+        };
+        out.push(&rest[..at]);
+        rest = &rest[at + PART.len()..];
+    }
+    out.push(rest);
+    out
+}
+
+/// The campaign's side files: the input's parts ([`PART`]) are a sensor
+/// history (TOML), an exclusions file and an events file, each named in the
+/// [`STATION`]'s `[campaign]` when the input has that part. The station
+/// loads, or its error names one of the side files. One that loads replays
+/// an hour of samples as [`samples`] checks a replay (one thread and two,
+/// every sample accounted for, the excluded ones too); the records CSV of
+/// that replay, written as `tenmin replay` writes it (sensor entries
+/// included), reads back through `tenmin verify --with-exclusions` with no
+/// difference, and through `tenmin report` with the events, or an error
+/// naming the events file.
+pub fn campaign(data: &[u8]) {
+    const NAMES: [(&str, &str); 3] = [
+        ("sensors", "sensors.toml"),
+        ("exclusions", "exclusions.csv"),
+        ("events", "events.csv"),
+    ];
+    let mut toml = format!("{STATION}\n[campaign]\n");
+    for ((key, name), part) in NAMES.iter().zip(parts(data, NAMES.len())) {
+        scratch(name, part);
+        toml.push_str(&format!("{key} = \"{name}\"\n"));
+    }
+    let cfg = match config::load(&scratch("campaign.toml", toml.as_bytes())) {
+        Ok(cfg) => cfg,
+        Err(e) => {
+            let msg = format!("{e:#}");
+            assert!(
+                NAMES.iter().any(|(_, n)| msg.contains(n)),
+                "the error names no side file: {msg}"
+            );
+            return;
+        }
+    };
+    let samples = scratch("campaign-samples.csv", &verify_samples());
+    replays_agree(&cfg, &samples);
+    let opts = Options {
+        max_gap_days: MAX_GAP_DAYS,
+        ..Options::default()
+    };
+    let ids: Vec<String> = cfg.channels.iter().map(|c| c.id.clone()).collect();
+    let mut writer = crate::records::Writer::new(Vec::new(), ids.clone())
+        .expect("writing to memory does not fail")
+        .with_sensors(cfg.sensors.clone());
+    if let Err(e) = replay::replay(&cfg, std::slice::from_ref(&samples), opts, &mut writer) {
+        // A strict replay may refuse the samples only for a reason of its
+        // own input (none here) or the campaign's.
+        return names(&e, &samples);
+    }
+    let csv = writer.finish().expect("writing to memory does not fail");
+    let records = scratch("campaign-records.csv", &csv);
+    let report = verify::Comparer::open(&records, cfg.station, ids, 5)
+        .map(|cmp| cmp.with_sensors(cfg.sensors.clone()))
+        .and_then(|mut cmp| {
+            replay::replay(&cfg, std::slice::from_ref(&samples), opts, &mut cmp)?;
+            cmp.finish()
+        })
+        .unwrap_or_else(|e| panic!("records tenmin wrote do not verify: {e:#}"));
+    assert_eq!(
+        report.total,
+        0,
+        "records tenmin wrote differ from their replay: {:?}",
+        report.shown.first().map(|d| format!("{:?}", d.what))
+    );
+    let args = report::ReportArgs {
+        config: cfg.path.clone(),
+        records: vec![records.clone()],
+        output: records.with_extension("report"),
+        sectors: 16,
+        air_density: 1.225,
+        reference: None,
+    };
+    if let Err(e) = report::render(&cfg, &args) {
+        let msg = format!("{e:#}");
+        assert!(
+            msg.contains("events.csv") || msg.contains("campaign-records.csv"),
+            "the report's error names neither the events nor the records: {msg}"
+        );
+    }
+}
+
+/// Another logger's table: the input's parts ([`PART`]) are the
+/// `[logger_table]` and `[conventions]` of a station file (after the
+/// [`STATION`]'s own) and the table. The station loads or its error names
+/// it; the table reads or its error names it; then an hour of samples is
+/// replayed and the table checked against it, as `tenmin verify` does and
+/// with `--infer`: a result, or an error naming the station or the table.
+pub fn table(data: &[u8]) {
+    let [decl, body] = parts(data, 2)[..] else {
+        return;
+    };
+    let mut toml = STATION.as_bytes().to_vec();
+    toml.push(b'\n');
+    toml.extend_from_slice(decl);
+    let station = scratch("table-station.toml", &toml);
+    let cfg = match config::load(&station) {
+        Ok(cfg) if cfg.logger_table.is_some() => cfg,
+        Ok(_) => return,
+        Err(e) => return names(&e, &station),
+    };
+    let path = scratch("logger-table.csv", body);
+    let rows = match crate::logtable::read(&cfg, &path) {
+        Ok(rows) => rows,
+        Err(e) => return names(&e, &path),
+    };
+    let samples = scratch("table-samples.csv", &verify_samples());
+    let mut collect = crate::tablecheck::Collect::new(cfg.station.interval_s);
+    let opts = Options {
+        max_gap_days: MAX_GAP_DAYS,
+        ..Options::default()
+    };
+    replay::replay(&cfg, &[samples], opts, &mut collect)
+        .unwrap_or_else(|e| panic!("the table's samples do not replay: {e:#}"));
+    let mut out = Vec::new();
+    let checked = crate::tablecheck::verify(&cfg, &path, &rows, &collect, 5, &mut out).map(|_| ());
+    let inferred = crate::tablecheck::infer(&cfg, &path, &rows, &collect, &mut out).map(|_| ());
+    for r in [checked, inferred] {
+        if let Err(e) = r {
+            let msg = format!("{e:#}");
+            assert!(
+                msg.contains("table-station.toml") || msg.contains("logger-table.csv"),
+                "the error names neither the station nor the table: {msg}"
+            );
+        }
     }
 }
 

@@ -87,3 +87,13 @@ fn frames_corpus() {
 fn logscan_corpus() {
     replay("logscan", 40, fuzzing::logscan);
 }
+
+#[test]
+fn campaign_corpus() {
+    replay("campaign", 7, fuzzing::campaign);
+}
+
+#[test]
+fn table_corpus() {
+    replay("table", 3, fuzzing::table);
+}
