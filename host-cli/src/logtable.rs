@@ -184,7 +184,12 @@ pub(crate) fn build(
 ) -> Result<Option<LoggerTable>> {
     let (input, conventions) = match (input, conventions) {
         (None, None) => return Ok(None),
-        (Some(_), None) => return Err(anyhow!("[logger_table] needs [conventions.<channel id>] tables saying which column holds which statistic (see CONTRACT.md, \"Checking another logger's table\")")),
+        (Some(i), None) => {
+            return Err(err(
+                i.span(),
+                "[logger_table] needs [conventions.<channel id>] tables saying which column holds which statistic (see CONTRACT.md, \"Checking another logger's table\")".into(),
+            ))
+        }
         (None, Some(c)) => {
             return Err(err(
                 c.span(),

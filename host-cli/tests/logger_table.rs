@@ -362,4 +362,18 @@ fn bad_tables_are_exit_2_naming_file_line_and_column() {
         e.contains("bad.toml:") && e.contains("smallest running mean"),
         "{e}"
     );
+    // A [logger_table] without [conventions] (found by the fuzz target
+    // `table`): the error names the station file and the table's line.
+    let example_toml = std::fs::read_to_string(example("station.toml")).unwrap();
+    let at = example_toml.find("[conventions.ws80a]").unwrap();
+    let bare = &example_toml[..at];
+    let line = bare.lines().position(|l| l == "[logger_table]").unwrap() + 1;
+    write(dir.path(), "bare.toml", bare);
+    let out = verify(dir.path(), "bare.toml", &example("logger-table.csv"), false);
+    assert_eq!(out.status.code(), Some(2));
+    let e = text(&out.stderr);
+    assert!(
+        e.contains(&format!("bare.toml:{line}:")) && e.contains("needs [conventions."),
+        "{e}"
+    );
 }
