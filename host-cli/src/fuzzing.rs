@@ -13,8 +13,8 @@
 //!
 //! | function | reader |
 //! |---|---|
-//! | [`samples`] | samples CSV through `tenmin replay` (one thread and two, strict and `--skip-bad-rows`) |
-//! | [`layouts`] | a field file of a declared layout ([`LAYOUTS`]): each row read in one pass and the general way alike, the file replayed as [`samples`] |
+//! | [`samples`] | samples CSV through `tenmin replay` (one thread and two, strict and `--skip-bad-rows`), and through `tenmin export` and a core station of the firmware's size, whose records must be the replay's |
+//! | [`layouts`] | a field file of a declared layout ([`LAYOUTS`]): each row read in one pass and the general way alike, the file replayed and exported as [`samples`] |
 //! | [`columnar`] | a Parquet or Arrow IPC file as samples through `tenmin replay` and as records |
 //! | [`draft`] | a field file through `tenmin draft`, and the draft, when it loads, replaying it |
 //! | [`station`] | station file (TOML), the engine it builds, its sample-file header |
@@ -39,7 +39,8 @@ use qc_core::wire::{
     encode_state, sample_header_len, SampleReader, Span, FRAME_LEN, SYNC,
 };
 use qc_core::{
-    config_fingerprint, ChannelConfig, ChannelRecord, Event, Layout, Station, Timestamp,
+    config_fingerprint, ChannelConfig, ChannelRecord, Event, IntervalAcc, Layout, Station,
+    Timestamp,
 };
 
 use crate::config::{self, Decode, StationFile};
@@ -256,7 +257,83 @@ pub fn samples(data: &[u8]) {
         }
     }
     let path = scratch("samples.csv", data);
-    replays_agree(&cfg, &path);
+    let lenient = replays_agree(&cfg, &path);
+    logger_agrees(&cfg, &path, lenient.as_ref());
+}
+
+/// The samples as a logger receives them: `tenmin export` of `path` (with
+/// `--skip-bad-rows`) into memory, and its sample frames through a core
+/// station of the example firmware's size ([`SAMPLE_C`] channels, a gust
+/// capacity of [`SAMPLE_G`] samples), one sample at a time, as the firmware's
+/// replay loop pushes them. The records it closes, and those of the empty
+/// intervals of its gaps, must be the replay's (`replayed`: its records with
+/// `--skip-bad-rows`) byte for byte; the export fails where that replay does.
+fn logger_agrees(cfg: &StationFile, path: &Path, replayed: Result<&Rows, &anyhow::Error>) {
+    let opts = Options {
+        max_gap_days: MAX_GAP_DAYS,
+        skip_bad_rows: true,
+        ..Options::default()
+    };
+    let mut file = Vec::new();
+    let exported = export::export(cfg, &[path.to_path_buf()], opts, &mut file);
+    let rows = match (exported, replayed) {
+        (Ok(_), Ok(rows)) => rows,
+        (Err(_), Err(_)) => return,
+        // Rows read, none of them good: the replay refuses an empty result
+        // (without `--allow-no-records`), the export writes no frame.
+        (Ok(done), Err(e)) if format!("{e:#}").contains("no records") => {
+            return assert_eq!(
+                done.frames, 0,
+                "frames exported that the replay did not take"
+            )
+        }
+        (a, b) => panic!(
+            "export and replay disagree: {:?} and {:?}",
+            a.err(),
+            b.err()
+        ),
+    };
+    let reader = SampleReader::<SAMPLE_C>::new(&file).expect("a sample file tenmin wrote reads");
+    let h = *reader.header();
+    let n = h.count();
+    let Ok(layout) = Layout::<SAMPLE_C>::new::<SAMPLE_G>(h.station, &h.channels) else {
+        // A station the firmware's size cannot hold (gust windows longer
+        // than its capacity).
+        return;
+    };
+    let mut station = Box::new(Station::<SAMPLE_C, SAMPLE_G>::new(layout));
+    let mut csv = Vec::new();
+    let _ = write_header(&mut csv);
+    let mut row = |index: i64, records: &[ChannelRecord]| {
+        let start = layout.interval_start(index);
+        let end = layout.interval_start(index.saturating_add(1));
+        for (i, (id, r)) in rows.ids.iter().zip(records).enumerate() {
+            write_row(&mut csv, start, end, (id, i), r, None).expect("writing to memory");
+        }
+    };
+    let mut emit = |e: Event<'_, SAMPLE_C, SAMPLE_G>| match e {
+        Event::Closed(acc, records) => row(acc.index(), &records[..n]),
+        Event::Gap(gap) => {
+            for k in 0..gap.count {
+                let index = gap.first.saturating_add(k as i64);
+                let acc = IntervalAcc::<SAMPLE_C, SAMPLE_G>::new(&layout, index);
+                let records: Vec<ChannelRecord> =
+                    (0..n).filter_map(|i| layout.finish(&acc, i)).collect();
+                row(index, &records);
+            }
+        }
+    };
+    for sample in reader {
+        let (t, readings) = sample.expect("a sample frame tenmin wrote reads");
+        station.push(t, &readings, &mut emit);
+    }
+    station.close(&mut emit);
+    assert!(
+        csv == rows.csv,
+        "the firmware-sized station's records differ from the replay's:\n{}\n---\n{}",
+        String::from_utf8_lossy(&csv),
+        String::from_utf8_lossy(&rows.csv)
+    );
 }
 
 /// `path` replayed with `cfg` on one thread, strict and with
@@ -264,7 +341,7 @@ pub fn samples(data: &[u8]) {
 /// `--skip-bad-rows`: every row and sample accounted for, errors naming the
 /// file, one thread and two alike, and the strict read's records those of
 /// `--skip-bad-rows` when it reads the file.
-fn replays_agree(cfg: &StationFile, path: &Path) {
+fn replays_agree(cfg: &StationFile, path: &Path) -> Result<Rows> {
     let base = Options {
         max_gap_days: MAX_GAP_DAYS,
         ..Options::default()
@@ -318,6 +395,7 @@ fn replays_agree(cfg: &StationFile, path: &Path) {
         );
         assert_eq!(s.pushed, l.pushed);
     }
+    lenient.map(|(_, rows)| rows)
 }
 
 /// A declared layout of the target [`layouts`]: its station file, the lines
@@ -646,7 +724,9 @@ pub fn layouts(data: &[u8]) {
     one_pass_against_general(&parser, rows);
     let mut file = layout.preamble.as_bytes().to_vec();
     file.extend_from_slice(rows);
-    replays_agree(&cfg, &scratch("layout.txt", &file));
+    let path = scratch("layout.txt", &file);
+    let lenient = replays_agree(&cfg, &path);
+    logger_agrees(&cfg, &path, lenient.as_ref());
 }
 
 /// A field file through `tenmin draft`: a draft or an error naming the file;
@@ -1187,7 +1267,9 @@ pub fn campaign(data: &[u8]) {
         }
     };
     let samples = scratch("campaign-samples.csv", &verify_samples());
-    replays_agree(&cfg, &samples);
+    // (No [`logger_agrees`]: a logger knows no sensor history or
+    // exclusions; `tenmin verify` applies them to the replay only.)
+    let _ = replays_agree(&cfg, &samples);
     let opts = Options {
         max_gap_days: MAX_GAP_DAYS,
         ..Options::default()
@@ -1340,5 +1422,17 @@ mod tests {
         accounted(&s, &rows);
         rows.held[3] -= 1;
         assert!(catch_unwind(AssertUnwindSafe(|| accounted(&s, &rows))).is_err());
+        // A record of the replay that the firmware-sized station does not
+        // write: the samples' records, one field changed.
+        let path = scratch("s.csv", &verify_samples());
+        let lenient = Options {
+            skip_bad_rows: true,
+            ..Options::default()
+        };
+        let (_, mut rows) = replay_rows(&cfg, &path, lenient).expect("the verify samples replay");
+        logger_agrees(&cfg, &path, Ok(&rows));
+        let at = rows.csv.len() / 2;
+        rows.csv[at] = if rows.csv[at] == b'1' { b'2' } else { b'1' };
+        assert!(catch_unwind(AssertUnwindSafe(|| logger_agrees(&cfg, &path, Ok(&rows)))).is_err());
     }
 }
