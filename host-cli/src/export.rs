@@ -117,6 +117,7 @@ pub fn export(
         bytes: head.len() as u64,
     };
     let input = crate::columnar::feed_any(files, cfg, Options { jobs: 1, ..opts }, &mut exporter)?;
+    crate::replay::nothing_unless_allowed(&input, exporter.frames, "samples", files, opts)?;
     Ok(Exported {
         input,
         pushed: exporter.totals(),
@@ -185,6 +186,7 @@ pub fn run(a: &crate::ExportArgs) -> Result<ExitCode> {
         skip_bad_rows: a.skip_bad_rows,
         progress: true,
         max_gap_days: a.max_gap_days,
+        allow_no_records: a.allow_no_records,
         ..Options::default()
     };
     let format = crate::columnar::Format::of_path(&a.output);
@@ -215,6 +217,7 @@ fn export_columnar(
         let input =
             crate::columnar::feed_any(&a.samples, cfg, Options { jobs: 1, ..opts }, &mut out)?;
         let written = out.finish()?;
+        crate::replay::nothing_unless_allowed(&input, written.rows, "samples", &a.samples, opts)?;
         let done = Exported {
             input,
             pushed: out.totals(),

@@ -354,6 +354,10 @@ pub struct ExportArgs {
     #[arg(long, default_value_t = samples::DEFAULT_MAX_GAP_DAYS, value_name = "D",
           allow_negative_numbers = true, value_parser = options::whole::<u32>(1, u32::MAX as u64))]
     max_gap_days: u32,
+    /// Accept data rows that give no samples at all (every row bad and skipped with
+    /// --skip-bad-rows): an empty sample file. Without it, that is an error (exit 2).
+    #[arg(long)]
+    allow_no_records: bool,
 }
 
 #[derive(Args, Debug)]

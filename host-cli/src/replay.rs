@@ -10,7 +10,7 @@ use crate::engine::{self, Sink};
 use crate::outages::{self, Outages};
 use crate::parallel;
 use crate::reader::Compression;
-use crate::samples::{self, Options};
+use crate::samples::{self, InputStats, Options};
 use crate::summary::Summary;
 
 /// The default `--jobs` for `files`: the available cores, less one when a
@@ -139,19 +139,32 @@ pub fn replay(
 /// error unless `--allow-no-records` says they may be: an empty records file
 /// from a non-empty input is never a silent success.
 fn no_records_unless_allowed(s: &Summary, files: &[PathBuf], opts: Options) -> Result<()> {
-    if s.input.rows == 0 || s.record_rows > 0 || opts.allow_no_records {
+    nothing_unless_allowed(&s.input, s.record_rows, "records", files, opts)
+}
+
+/// Data rows read (`input`) that gave nothing (`made`, the `what` written:
+/// records, samples) are an error unless `--allow-no-records`: the rule of
+/// [`no_records_unless_allowed`], for `tenmin export` too.
+pub fn nothing_unless_allowed(
+    input: &InputStats,
+    made: u64,
+    what: &str,
+    files: &[PathBuf],
+    opts: Options,
+) -> Result<()> {
+    if input.rows == 0 || made > 0 || opts.allow_no_records {
         return Ok(());
     }
     let names: Vec<String> = files.iter().map(|f| f.display().to_string()).collect();
     bail!(
-        "{}: {} data row(s) read, no records: every row was bad or of another station (skipped: {} wrong field count, {} bad time, {} bad value, {} not UTF-8; {} left out by [input] filter); add --allow-no-records to accept an empty result",
+        "{}: {} data row(s) read, no {what}: every row was bad or of another station (skipped: {} wrong field count, {} bad time, {} bad value, {} not UTF-8; {} left out by [input] filter); add --allow-no-records to accept an empty result",
         names.join(", "),
-        s.input.rows,
-        s.input.bad.field_count,
-        s.input.bad.time,
-        s.input.bad.value,
-        s.input.bad.encoding,
-        s.input.bad.filtered
+        input.rows,
+        input.bad.field_count,
+        input.bad.time,
+        input.bad.value,
+        input.bad.encoding,
+        input.bad.filtered
     )
 }
 

@@ -304,6 +304,42 @@ fn rows_that_give_no_records_are_an_error_unless_allowed() {
         d,
     );
     assert!(out.status.success(), "{}", text(&out.stderr));
+    // `tenmin export` by the same rule: no sample file from rows that give
+    // no samples, unless allowed; a header alone exports an empty file.
+    for out_file in ["s.tmsf", "s.parquet"] {
+        let export = |samples: &str, allow: bool| {
+            let mut args = vec![
+                "export",
+                "-c",
+                "station.toml",
+                samples,
+                "--skip-bad-rows",
+                "-q",
+                "-o",
+                out_file,
+            ];
+            if allow {
+                args.push("--allow-no-records");
+            }
+            tenmin(&args, d)
+        };
+        refused(
+            &export("all-bad.csv", false),
+            &[
+                "all-bad.csv",
+                "2 data row(s) read, no samples",
+                "--allow-no-records",
+            ],
+        );
+        assert!(!d.join(out_file).exists(), "{out_file}");
+        let out = export("all-bad.csv", true);
+        assert!(out.status.success(), "{}", text(&out.stderr));
+        assert!(d.join(out_file).exists(), "{out_file}");
+        std::fs::remove_file(d.join(out_file)).unwrap();
+        let out = export("header-only.csv", false);
+        assert!(out.status.success(), "{}", text(&out.stderr));
+        std::fs::remove_file(d.join(out_file)).unwrap();
+    }
 }
 
 /// A catalogue of malformed samples files: each one read with and without
