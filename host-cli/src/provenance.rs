@@ -120,7 +120,29 @@ pub fn path_for(output: &Path) -> PathBuf {
 
 /// SHA-256 (lowercase hex) and size of the file at `path`, read in pieces.
 pub fn hash_file(path: &Path) -> Result<(String, u64)> {
-    let mut f = File::open(path).with_context(|| format!("{}: cannot read", path.display()))?;
+    let f = File::open(path).with_context(|| format!("{}: cannot read", path.display()))?;
+    hash_read(path, f)
+}
+
+/// [`hash_file`] of a file a provenance file names, whose recorded size is
+/// `size`: only a regular file is opened (a device or FIFO named there would
+/// be read without end, or wait for a writer), and at most `size + 1` bytes
+/// are read (a file grown since differs whatever its digest).
+fn hash_recorded(path: &Path, size: u64) -> Result<(String, u64)> {
+    let meta =
+        std::fs::metadata(path).with_context(|| format!("{}: cannot read", path.display()))?;
+    if !meta.is_file() {
+        bail!(
+            "{}: not a regular file (a folder, device or FIFO): not read",
+            path.display()
+        );
+    }
+    let f = File::open(path).with_context(|| format!("{}: cannot read", path.display()))?;
+    hash_read(path, f.take(size.saturating_add(1)))
+}
+
+/// SHA-256 (lowercase hex) and size of what `f` reads (`path` for messages).
+fn hash_read(path: &Path, mut f: impl Read) -> Result<(String, u64)> {
     let mut h = Sha256::new();
     let mut buf = vec![0u8; 1 << 16];
     let mut size = 0u64;
@@ -632,8 +654,16 @@ pub fn check(prov_path: &Path, output: Option<&Path>) -> Result<Check> {
         }),
     );
     for (what, path, f) in files {
-        match hash_file(&path) {
+        match hash_recorded(&path, f.size) {
             Err(e) => c.changed.push((what, path, format!("{e:#}"))),
+            Ok((_, size)) if size > f.size => c.changed.push((
+                what,
+                path,
+                format!(
+                    "more than {} bytes; the provenance records {} bytes, SHA-256 {}",
+                    f.size, f.size, f.sha256
+                ),
+            )),
             Ok((sha, size)) if sha != f.sha256 || size != f.size => c.changed.push((
                 what,
                 path,

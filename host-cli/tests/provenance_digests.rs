@@ -100,3 +100,101 @@ fn replay_provenance_digests_match_sha256sum_for_every_kind_of_file() {
         }
     }
 }
+
+/// Runs `tenmin` with `args` in `dir`, killed after 60 s (a check that
+/// would read without end fails instead of hanging the test run).
+fn tenmin_within_a_minute(args: &[&str], dir: &Path) -> std::process::Output {
+    let mut child = Command::new(BIN)
+        .args(args)
+        .current_dir(dir)
+        .stdout(std::process::Stdio::piped())
+        .stderr(std::process::Stdio::piped())
+        .spawn()
+        .unwrap();
+    let start = std::time::Instant::now();
+    while child.try_wait().unwrap().is_none() {
+        if start.elapsed() > std::time::Duration::from_secs(60) {
+            child.kill().unwrap();
+            panic!("tenmin {args:?} still running after 60 s");
+        }
+        std::thread::sleep(std::time::Duration::from_millis(20));
+    }
+    child.wait_with_output().unwrap()
+}
+
+/// `verify --provenance` reads only what a provenance file's sizes allow: a
+/// path it names that is now a device or a FIFO is reported changed without
+/// being read (it would be read without end, or wait for a writer), and a
+/// file grown since is read no further than its recorded size and one byte.
+#[test]
+fn a_provenance_check_reads_no_more_than_the_recorded_sizes() {
+    let dir = tempfile::tempdir().unwrap();
+    let d = dir.path();
+    std::fs::write(d.join("station.toml"), STATION).unwrap();
+    let mut csv = String::from("time,ws\n");
+    for i in 0..1200i64 {
+        csv.push_str(&format!(
+            "{},{}.{:02}\n",
+            1_737_331_200 + i,
+            4 + i % 7,
+            i % 100
+        ));
+    }
+    std::fs::write(d.join("a.csv"), &csv).unwrap();
+    let out = Command::new(BIN)
+        .args(["replay", "-q", "-c", "station.toml", "a.csv", "-o", "r.csv"])
+        .current_dir(d)
+        .output()
+        .unwrap();
+    assert!(
+        out.status.success(),
+        "{}",
+        String::from_utf8_lossy(&out.stderr)
+    );
+    let prov_path = d.join("r.csv.provenance.json");
+    let prov: serde_json::Value =
+        serde_json::from_slice(&std::fs::read(&prov_path).unwrap()).unwrap();
+    let check = || {
+        let out = tenmin_within_a_minute(&["verify", "--provenance", "r.csv"], d);
+        (
+            out.status.code(),
+            String::from_utf8_lossy(&out.stdout).into_owned(),
+        )
+    };
+    assert_eq!(check().0, Some(0));
+
+    // The samples input renamed to a device and to a FIFO in the provenance.
+    let fifo = d.join("pipe");
+    let made = Command::new("mkfifo").arg(&fifo).status().unwrap();
+    assert!(made.success());
+    for named in ["/dev/zero", fifo.to_str().unwrap()] {
+        let mut p = prov.clone();
+        for input in p["inputs"].as_array_mut().unwrap() {
+            if input["role"] == "samples" {
+                input["path"] = serde_json::Value::from(named);
+            }
+        }
+        std::fs::write(&prov_path, serde_json::to_vec_pretty(&p).unwrap()).unwrap();
+        let (code, so) = check();
+        assert_eq!(code, Some(1), "{so}");
+        let changed: Vec<&str> = so.lines().filter(|l| l.starts_with("CHANGED")).collect();
+        assert_eq!(changed.len(), 1, "{so}");
+        assert!(
+            changed[0].contains(named) && changed[0].contains("not a regular file"),
+            "{so}"
+        );
+    }
+
+    // The samples grown since: a change, read no further than one byte more.
+    std::fs::write(&prov_path, serde_json::to_vec_pretty(&prov).unwrap()).unwrap();
+    let mut grown = csv.clone();
+    grown.push_str("1737332400,5.00\n");
+    std::fs::write(d.join("a.csv"), &grown).unwrap();
+    let (code, so) = check();
+    assert_eq!(code, Some(1), "{so}");
+    assert!(
+        so.contains("CHANGED  input (samples): ")
+            && so.contains(&format!("a.csv: more than {} bytes", csv.len())),
+        "{so}"
+    );
+}
