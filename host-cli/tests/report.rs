@@ -817,4 +817,14 @@ fn events_file_errors_name_the_place() {
     assert!(o.status.success(), "{}", text(&o.stderr));
     let html = std::fs::read_to_string(dir.path().join("rep/report.html")).unwrap();
     assert!(html.contains("Logger restarted, clock set"));
+    // A device named as the events file: refused after 4 MiB read, not read
+    // without end (its size on the file system is 0).
+    let toml = std::fs::read_to_string(dir.path().join("st.toml")).unwrap();
+    std::fs::write(
+        dir.path().join("st.toml"),
+        toml.replace("events = \"ev.csv\"", "events = \"/dev/zero\""),
+    )
+    .unwrap();
+    let o = run();
+    refused(&o, &["/dev/zero: more than 4194304 bytes"]);
 }

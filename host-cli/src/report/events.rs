@@ -17,6 +17,7 @@
 //!
 //! Errors name the file, the line and the field.
 
+use std::io::Read;
 use std::path::Path;
 
 use anyhow::{anyhow, bail, Context, Result};
@@ -122,15 +123,18 @@ pub fn read(station: &Path, path: &Path, line: usize) -> Result<Vec<Event>> {
             path.display()
         )
     };
-    let meta = std::fs::metadata(path).with_context(named)?;
-    if meta.len() > MAX_BYTES {
+    // Read through a limit, not by the size the file system gives: a device
+    // (`/dev/zero`) gives 0 and reads without end.
+    let mut bytes = Vec::new();
+    std::fs::File::open(path)
+        .and_then(|f| f.take(MAX_BYTES + 1).read_to_end(&mut bytes))
+        .with_context(named)?;
+    if bytes.len() as u64 > MAX_BYTES {
         bail!(
-            "{}: {} bytes: an events file may hold at most {MAX_BYTES} bytes",
+            "{}: more than {MAX_BYTES} bytes: an events file may hold at most {MAX_BYTES} bytes",
             path.display(),
-            meta.len()
         );
     }
-    let bytes = std::fs::read(path).with_context(named)?;
     let body = crate::limits::utf8_text(path, bytes)?;
     parse(path, &body)
 }
