@@ -1234,7 +1234,7 @@ fn parts(data: &[u8], n: usize) -> Vec<&[u8]> {
 /// every sample accounted for, the excluded ones too); the records CSV of
 /// that replay, written as `tenmin replay` writes it (sensor entries
 /// included), reads back through `tenmin verify --with-exclusions` with no
-/// difference, and through `tenmin report` with the events, or an error
+/// difference (one thread and two), and through `tenmin report` with the events, or an error
 /// naming the events file.
 pub fn campaign(data: &[u8]) {
     const NAMES: [(&str, &str); 3] = [
@@ -1277,19 +1277,28 @@ pub fn campaign(data: &[u8]) {
     }
     let csv = writer.finish().expect("writing to memory does not fail");
     let records = scratch("campaign-records.csv", &csv);
-    let report = verify::Comparer::open(&records, cfg.station, ids, 5)
-        .map(|cmp| cmp.with_sensors(cfg.sensors.clone()))
-        .and_then(|mut cmp| {
-            replay::replay(&cfg, std::slice::from_ref(&samples), opts, &mut cmp)?;
-            cmp.finish()
-        })
-        .unwrap_or_else(|e| panic!("records tenmin wrote do not verify: {e:#}"));
-    assert_eq!(
-        report.total,
-        0,
-        "records tenmin wrote differ from their replay: {:?}",
-        report.shown.first().map(|d| format!("{:?}", d.what))
-    );
+    // Verified on one thread and on two in 64-byte chunks.
+    let two = Options {
+        jobs: 2,
+        chunk_size: 64,
+        ..opts
+    };
+    for opts in [opts, two] {
+        let report = verify::Comparer::open(&records, cfg.station, ids.clone(), 5)
+            .map(|cmp| cmp.with_sensors(cfg.sensors.clone()))
+            .and_then(|mut cmp| {
+                replay::replay(&cfg, std::slice::from_ref(&samples), opts, &mut cmp)?;
+                cmp.finish()
+            })
+            .unwrap_or_else(|e| panic!("records tenmin wrote do not verify: {e:#}"));
+        assert_eq!(
+            report.total,
+            0,
+            "records tenmin wrote differ from their replay ({} threads): {:?}",
+            opts.jobs,
+            report.shown.first().map(|d| format!("{:?}", d.what))
+        );
+    }
     let args = report::ReportArgs {
         config: cfg.path.clone(),
         records: vec![records.clone()],
