@@ -70,6 +70,12 @@ printf 'time,ws80a,ws80b,ws60,wd78,t76,rh76\n2025-01-20T00:00:00Z,5,5,4,27\xff0,
 # --- station: the demo's, the fuzz station's variants, files the core refuses.
 t="$corpus/station"
 cp "$st" "$t/seed-demo.toml"
+# The example station files: declared layouts ([input]), a campaign with its
+# side files ([campaign]: named, not beside the fuzzed file, so refused by
+# name), another logger's table ([logger_table], [conventions]).
+for f in "$root"/examples/*/station.toml "$root"/examples/field-files/*/station.toml; do
+  cp "$f" "$t/seed-example-$(basename "$(dirname "$f")").toml"
+done
 cat >"$t/seed-every-setting.toml" <<'EOF'
 [logging]
 interval_s = 300
