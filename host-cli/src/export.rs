@@ -18,12 +18,15 @@
 //! configuration and screening settings), so that the logger builds the same
 //! station as the replay.
 
-use std::io::{self, Write};
+use std::io::{self, Read, Write};
 use std::path::{Path, PathBuf};
 use std::process::ExitCode;
 
 use anyhow::{anyhow, Result};
-use qc_core::wire::{encode_sample, encode_sample_header, sample_frame_max_len, sample_header_len};
+use qc_core::wire::{
+    decode_sample, encode_sample, encode_sample_header, sample_frame_max_len, sample_header_len,
+    SampleDecode,
+};
 use qc_core::{ChannelConfig, ChannelRecord, PushTotals, Pushed, Reading, Timestamp, Totals};
 
 use crate::config::{self, StationFile};
@@ -132,7 +135,7 @@ impl Exported {
         self.write_counts(w)?;
         writeln!(
             w,
-            "wrote {} ({} bytes: a header with the configuration of {} channels from {}, then {} sample frames)",
+            "wrote {} ({} bytes: a header with the configuration of {} channels from {}, then {} sample frames; read back)",
             path.display(),
             self.bytes,
             cfg.channels.len(),
@@ -196,11 +199,69 @@ pub fn run(a: &crate::ExportArgs) -> Result<ExitCode> {
     let done = crate::output::write_to(Some(&a.output), "the sample file", |w| {
         export(&cfg, &a.samples, opts, w)
     })?;
+    read_back(&a.output, &header(&cfg)?, cfg.channels.len(), done.frames)?;
     if !a.quiet {
         let _ = done.write(&mut io::stderr().lock(), &cfg, &a.output);
     }
     Ok(ExitCode::SUCCESS)
 }
+
+/// Reads the sample file `path` just written back, a piece at a time (memory
+/// bounded whatever its size): it must start with `head` and hold `frames`
+/// good sample frames of `channels` readings each, and nothing after them.
+/// A device or a pipe written in place is not read.
+pub fn read_back(path: &Path, head: &[u8], channels: usize, frames: u64) -> Result<()> {
+    if !std::fs::metadata(path).is_ok_and(|m| m.is_file()) {
+        return Ok(());
+    }
+    let at = |what: String| anyhow!("{}: read back after writing, {what}", path.display());
+    let mut f = std::fs::File::open(path).map_err(|e| at(format!("cannot open: {e}")))?;
+    let mut got = vec![0u8; head.len()];
+    f.read_exact(&mut got)
+        .map_err(|e| at(format!("cannot read the header: {e}")))?;
+    if got != head {
+        return Err(at("the header differs from the one written".into()));
+    }
+    let mut readings = vec![Reading::Missing; channels];
+    let mut buf = Vec::with_capacity(2 * READ_BACK_CHUNK);
+    let mut chunk = vec![0u8; READ_BACK_CHUNK];
+    let mut offset = head.len() as u64;
+    let mut read = 0u64;
+    loop {
+        let n = f
+            .read(&mut chunk)
+            .map_err(|e| at(format!("cannot read at byte {offset}: {e}")))?;
+        buf.extend_from_slice(&chunk[..n]);
+        let mut used = 0;
+        loop {
+            match decode_sample(&buf[used..], &mut readings) {
+                SampleDecode::Sample { len, .. } => {
+                    used += len;
+                    read += 1;
+                }
+                SampleDecode::Incomplete => break,
+                SampleDecode::Invalid(e) => {
+                    return Err(at(format!("byte {}: {e}", offset + used as u64)))
+                }
+            }
+        }
+        offset += used as u64;
+        buf.drain(..used);
+        if n == 0 {
+            if !buf.is_empty() {
+                return Err(at(format!("byte {offset}: a frame cut short")));
+            }
+            break;
+        }
+    }
+    if read != frames {
+        return Err(at(format!("{read} sample frames, {frames} written")));
+    }
+    Ok(())
+}
+
+/// Bytes read at a time by [`read_back`].
+const READ_BACK_CHUNK: usize = 1 << 16;
 
 /// `tenmin export -o FILE.parquet` (or `.arrow`): the rows as columnar
 /// samples ([`crate::columnar`]), read back after writing.
@@ -240,4 +301,81 @@ fn export_columnar(
         );
     }
     Ok(ExitCode::SUCCESS)
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    /// A sample file of 3,000 rows of two channels (about 90 KB: frames
+    /// across [`READ_BACK_CHUNK`] boundaries), written by [`export`]; its
+    /// header and frame count.
+    fn written(dir: &Path) -> (PathBuf, Vec<u8>, u64) {
+        let station = dir.join("st.toml");
+        std::fs::write(
+            &station,
+            "[logging]\ninterval_s = 600\nsample_rate_hz = 1\n\n\
+             [[channel]]\nid = \"ws\"\nkind = \"speed\"\nresolution = 0.01\n\n\
+             [[channel]]\nid = \"t\"\nkind = \"scalar\"\nresolution = 0.1\n",
+        )
+        .unwrap();
+        let mut csv = String::from("time,ws,t\n");
+        for i in 0..3000i64 {
+            let t = if i % 7 == 3 {
+                String::new()
+            } else {
+                format!("{}.5", i % 13)
+            };
+            csv.push_str(&format!(
+                "{},{}.{:02},{t}\n",
+                1_737_331_200 + i,
+                4 + i % 9,
+                i % 100
+            ));
+        }
+        let samples = dir.join("s.csv");
+        std::fs::write(&samples, csv).unwrap();
+        let cfg = config::load(&station).unwrap();
+        let mut out = Vec::new();
+        let done = export(&cfg, &[samples], Options::default(), &mut out).unwrap();
+        let path = dir.join("s.tmsf");
+        std::fs::write(&path, &out).unwrap();
+        (path, header(&cfg).unwrap(), done.frames)
+    }
+
+    #[test]
+    fn a_sample_file_reads_back_as_written_or_the_fault_is_named() {
+        let dir = tempfile::tempdir().unwrap();
+        let (path, head, frames) = written(dir.path());
+        assert_eq!(frames, 3000);
+        let bytes = std::fs::read(&path).unwrap();
+        assert!(bytes.len() > 65_536);
+        read_back(&path, &head, 2, frames).unwrap();
+        let fails = |bytes: &[u8], frames: u64, want: &str| {
+            std::fs::write(&path, bytes).unwrap();
+            let e = format!("{:#}", read_back(&path, &head, 2, frames).unwrap_err());
+            assert!(
+                e.contains("s.tmsf: read back after writing") && e.contains(want),
+                "{want}: {e}"
+            );
+        };
+        // One bit of a frame past the first 64 KiB: its CRC fails there.
+        let mut flipped = bytes.clone();
+        flipped[70_001] ^= 0x10;
+        fails(&flipped, frames, "byte ");
+        // Cut inside the last frame.
+        fails(&bytes[..bytes.len() - 3], frames, "a frame cut short");
+        // Another header.
+        let mut other = bytes.clone();
+        other[head.len() - 5] ^= 1;
+        fails(&other, frames, "the header differs");
+        // Fewer frames than written (the last one dropped whole: row 2,999,
+        // its `t` missing: 8 bytes of time, 9 and 1 of readings, 4 of CRC),
+        // and more.
+        let last = bytes.len() - 22;
+        fails(&bytes[..last], frames, "2999 sample frames, 3000 written");
+        fails(&bytes, frames - 1, "3000 sample frames, 2999 written");
+        // A file shorter than its header.
+        fails(&bytes[..10], frames, "cannot read the header");
+    }
 }
