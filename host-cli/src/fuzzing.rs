@@ -889,20 +889,26 @@ fn verify_samples() -> Vec<u8> {
     s.into_bytes()
 }
 
+/// `tenmin report`'s arguments for the records file `records` of `cfg`'s
+/// station (16 sectors, standard air density; [`report::render`] writes
+/// nothing).
+fn report_args(cfg: &StationFile, records: &Path) -> report::ReportArgs {
+    report::ReportArgs {
+        config: cfg.path.clone(),
+        records: vec![records.to_path_buf()],
+        output: records.with_extension("report"),
+        sectors: 16,
+        air_density: 1.225,
+        reference: None,
+    }
+}
+
 /// Records CSV: `tenmin report` of the file (page, tables and summary, nothing
 /// written) and `tenmin verify` of an hour of samples against it.
 pub fn records(data: &[u8]) {
     let cfg = station_file();
     let path = scratch("records.csv", data);
-    let args = report::ReportArgs {
-        config: cfg.path.clone(),
-        records: vec![path.clone()],
-        output: path.with_extension("report"),
-        sectors: 16,
-        air_density: 1.225,
-        reference: None,
-    };
-    if let Err(e) = report::render(&cfg, &args) {
+    if let Err(e) = report::render(&cfg, &report_args(&cfg, &path)) {
         names(&e, &path);
     }
     let ids: Vec<String> = cfg.channels.iter().map(|c| c.id.clone()).collect();
@@ -1299,15 +1305,7 @@ pub fn campaign(data: &[u8]) {
             report.shown.first().map(|d| format!("{:?}", d.what))
         );
     }
-    let args = report::ReportArgs {
-        config: cfg.path.clone(),
-        records: vec![records.clone()],
-        output: records.with_extension("report"),
-        sectors: 16,
-        air_density: 1.225,
-        reference: None,
-    };
-    if let Err(e) = report::render(&cfg, &args) {
+    if let Err(e) = report::render(&cfg, &report_args(&cfg, &records)) {
         let msg = format!("{e:#}");
         assert!(
             msg.contains("events.csv") || msg.contains("campaign-records.csv"),

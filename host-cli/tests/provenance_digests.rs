@@ -29,14 +29,11 @@ fn sha256sum(path: &Path) -> String {
     String::from_utf8(out.stdout).unwrap()[..64].to_string()
 }
 
-#[test]
-fn replay_provenance_digests_match_sha256sum_for_every_kind_of_file() {
-    let dir = tempfile::tempdir().unwrap();
-    let d = dir.path();
-    std::fs::write(d.join("station.toml"), STATION).unwrap();
-    // Two hours at 1 Hz from 2025-01-20T00:00:00Z (1737331200 s).
+/// `seconds` samples of the station at 1 Hz from 2025-01-20T00:00:00Z
+/// (1737331200 s), as tenmin's own CSV.
+fn samples(seconds: i64) -> String {
     let mut csv = String::from("time,ws\n");
-    for i in 0..7200i64 {
+    for i in 0..seconds {
         csv.push_str(&format!(
             "{},{}.{:02}\n",
             1_737_331_200 + i,
@@ -44,6 +41,16 @@ fn replay_provenance_digests_match_sha256sum_for_every_kind_of_file() {
             i % 100
         ));
     }
+    csv
+}
+
+#[test]
+fn replay_provenance_digests_match_sha256sum_for_every_kind_of_file() {
+    let dir = tempfile::tempdir().unwrap();
+    let d = dir.path();
+    std::fs::write(d.join("station.toml"), STATION).unwrap();
+    // Two hours at 1 Hz.
+    let csv = samples(7200);
     std::fs::write(d.join("a.csv"), &csv).unwrap();
     std::fs::write(d.join("nonl.csv"), csv.trim_end()).unwrap();
     let mut gz = flate2::write::GzEncoder::new(Vec::new(), flate2::Compression::default());
@@ -131,15 +138,7 @@ fn a_provenance_check_reads_no_more_than_the_recorded_sizes() {
     let dir = tempfile::tempdir().unwrap();
     let d = dir.path();
     std::fs::write(d.join("station.toml"), STATION).unwrap();
-    let mut csv = String::from("time,ws\n");
-    for i in 0..1200i64 {
-        csv.push_str(&format!(
-            "{},{}.{:02}\n",
-            1_737_331_200 + i,
-            4 + i % 7,
-            i % 100
-        ));
-    }
+    let csv = samples(1200);
     std::fs::write(d.join("a.csv"), &csv).unwrap();
     let out = Command::new(BIN)
         .args(["replay", "-q", "-c", "station.toml", "a.csv", "-o", "r.csv"])
