@@ -1219,12 +1219,12 @@ pub fn run(a: &crate::DecodeArgs) -> Result<ExitCode> {
     }
     let log = io::Cursor::new(head).chain(log);
     let cfg = config::load(&a.config)?;
-    let decoded = crate::output::write_to(a.output.as_deref(), "records", |w| {
+    let (decoded, digest) = crate::output::write_to_digest(a.output.as_deref(), "records", |w| {
         decode(&cfg, log, &a.log, w, a.max_gap_days)
     })?;
     if let Some(out) = &a.output {
         let used = crate::provenance::inputs(&cfg, "log", [a.log.as_path()]);
-        crate::provenance::write(out, &cfg, &used)?;
+        crate::provenance::write_read_back(out, &cfg, &used, &[], digest)?;
     }
     if !a.quiet || decoded.damaged() {
         let _ = decoded.write(&mut io::stderr().lock(), &a.log);

@@ -600,7 +600,7 @@ fn replay_cmd(a: ReplayArgs) -> Result<ExitCode> {
     // The records file is read back (and hashed for the provenance file)
     // on a helper thread as it is written.
     let ((summary, written), records_digest) =
-        output::write_to_read_back(a.output.as_deref(), "records", |w| {
+        output::write_to_digest(a.output.as_deref(), "records", |w| {
             if format == columnar::Format::Csv {
                 let mut writer =
                     records::Writer::new(w, ids(&cfg))?.with_sensors(cfg.sensors.clone());

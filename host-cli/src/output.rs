@@ -11,6 +11,9 @@
 //!   FIFO) is written directly: it cannot be replaced by a regular file.
 //! - An existing folder is refused before anything is written.
 //! - stdout is written directly.
+//! - A file is read back as it is written ([`ReadBack`], on a helper thread):
+//!   it must hold the bytes written (each piece's CRC-32) and no more, or the
+//!   command fails naming the piece that differs and the old file stays.
 //!
 //! Every write error (a full device, an error when the last bytes are flushed
 //! or synced) names the output, "stdout" for stdout, and is kept: the command
@@ -26,7 +29,7 @@
 use std::fs::{self, File, OpenOptions};
 use std::io::{self, BufWriter, Read, Write};
 use std::path::{Path, PathBuf};
-use std::sync::mpsc::{channel, Sender};
+use std::sync::mpsc::{sync_channel, SyncSender};
 use std::thread::JoinHandle;
 
 use sha2::{Digest, Sha256};
@@ -181,97 +184,163 @@ impl Temp {
     }
 }
 
-/// Bytes written between two notes to the read-back thread.
-const READ_BACK_STEP: u64 = 256 << 10;
+/// Bytes in a piece of an output compared on its own when read back.
+const READ_BACK_PIECE: usize = 64 << 10;
+
+/// Pieces written and not yet read back, at most: the writer waits beyond
+/// (64 MiB behind; the notes themselves take 16 bytes each).
+const READ_BACK_QUEUE: usize = 1024;
 
 /// What the writing side tells the read-back thread.
+#[derive(Clone, Copy, Debug)]
 enum Note {
-    /// The file holds at least this many bytes, written.
-    Upto(u64),
-    /// The file is complete (synced and renamed) with this many bytes.
-    Final(u64),
+    /// The next `len` bytes, after all those told before, were written,
+    /// with this CRC-32 (IEEE 802.3).
+    Piece { len: usize, crc: u32 },
+    /// The file is complete (flushed and synced): nothing follows.
+    Final,
 }
 
-/// A file read back while it is written: a helper thread reads, through its
-/// own handle, the bytes the writer has written (told in steps of
-/// [`READ_BACK_STEP`]) and hashes them, and reads the rest once the file is
-/// complete. The digest is of the bytes as read from the file, never of the
-/// bytes in memory; the writer's thread pays nothing for it.
+/// A file read back while it is written: the writer takes the CRC-32 of
+/// every piece of [`READ_BACK_PIECE`] bytes it writes and tells a helper
+/// thread, which reads the same piece from the file through its own handle,
+/// compares its CRC-32 and hashes it (SHA-256). The file must hold the bytes
+/// written, no other and no more: [`ReadBack::finish`] says which piece
+/// does not. The digest is of the bytes as read from the file. The writer's
+/// thread pays a CRC-32 (a few GB/s), never a copy; memory is one piece.
+///
+/// What is read comes through the file system (its cache, most of the
+/// time), not necessarily from the disk's surface: this catches a file
+/// changed, cut or grown by anything else while it is written, and a file
+/// system that gives back other than it was given.
 struct ReadBack {
-    tx: Sender<Note>,
-    thread: JoinHandle<Option<FileDigest>>,
-    written: u64,
-    told: u64,
+    tx: SyncSender<Note>,
+    thread: JoinHandle<Result<FileDigest, String>>,
+    /// The piece being written: its CRC so far and its length.
+    crc: crc32fast::Hasher,
+    len: usize,
 }
 
 impl ReadBack {
     /// Starts reading `path` (the temporary file, just created) back.
-    fn start(path: &Path) -> Option<ReadBack> {
-        let mut f = File::open(path).ok()?;
-        let (tx, rx) = channel::<Note>();
-        let thread = std::thread::spawn(move || {
-            let mut h = Sha256::new();
-            let mut buf = vec![0u8; 64 << 10];
-            let mut size = 0u64;
-            loop {
-                let (upto, last) = match rx.recv() {
-                    Ok(Note::Upto(n)) => (n, false),
-                    Ok(Note::Final(n)) => (n, true),
-                    // The output was dropped unfinished: no digest.
-                    Err(_) => return None,
-                };
-                while size < upto || last {
-                    match f.read(&mut buf) {
-                        Ok(0) => break,
-                        Ok(n) => {
-                            h.update(&buf[..n]);
-                            size += n as u64;
-                        }
-                        Err(e) if e.kind() == io::ErrorKind::Interrupted => {}
-                        Err(_) => return None,
-                    }
-                }
-                if last {
-                    // Exactly the bytes written, no more, no fewer.
-                    return (size == upto).then(|| FileDigest {
-                        sha256: h.finalize().iter().map(|b| format!("{b:02x}")).collect(),
-                        size,
-                    });
-                }
-                if size < upto {
-                    // Shorter than written: no digest.
-                    return None;
-                }
-            }
-        });
-        Some(ReadBack {
+    fn start(path: &Path) -> io::Result<ReadBack> {
+        let f = File::open(path)?;
+        let (tx, rx) = sync_channel::<Note>(READ_BACK_QUEUE);
+        let thread = std::thread::spawn(move || compare_read_back(f, || rx.recv().ok()));
+        Ok(ReadBack {
             tx,
             thread,
-            written: 0,
-            told: 0,
+            crc: crc32fast::Hasher::new(),
+            len: 0,
         })
     }
 
-    fn wrote(&mut self, n: usize) {
-        self.written += n as u64;
-        if self.written - self.told >= READ_BACK_STEP {
-            self.told = self.written;
-            let _ = self.tx.send(Note::Upto(self.written));
+    /// Takes the bytes `written` (just written to the file) into the
+    /// pieces' CRCs, telling the thread of each piece complete.
+    fn wrote(&mut self, mut written: &[u8]) {
+        while !written.is_empty() {
+            let n = written.len().min(READ_BACK_PIECE - self.len);
+            self.crc.update(&written[..n]);
+            self.len += n;
+            written = &written[n..];
+            if self.len == READ_BACK_PIECE {
+                self.tell();
+            }
         }
     }
 
-    /// The digest of the complete file, read back.
-    fn finish(self) -> Option<FileDigest> {
-        self.tx.send(Note::Final(self.written)).ok()?;
-        self.thread.join().ok()?
+    /// Tells the thread of the piece written so far, and starts the next.
+    fn tell(&mut self) {
+        let crc = std::mem::replace(&mut self.crc, crc32fast::Hasher::new());
+        let note = Note::Piece {
+            len: self.len,
+            crc: crc.finalize(),
+        };
+        self.len = 0;
+        // A thread that stopped has found a difference already; `finish`
+        // reports it.
+        let _ = self.tx.send(note);
     }
+
+    /// The digest of the complete file, read back; where it holds other than
+    /// the bytes written, what differs.
+    fn finish(mut self) -> Result<FileDigest, String> {
+        if self.len > 0 {
+            self.tell();
+        }
+        let _ = self.tx.send(Note::Final);
+        drop(self.tx);
+        self.thread
+            .join()
+            .unwrap_or_else(|_| Err("reading it back stopped".to_string()))
+    }
+}
+
+/// Reads `file` from its start, comparing it piece by piece with the notes
+/// `next` gives (`None` when the writer stopped without finishing); after
+/// [`Note::Final`] the file must end. Gives the SHA-256 and size of the
+/// bytes read, or where the file differs from the bytes written.
+fn compare_read_back(
+    mut file: impl Read,
+    mut next: impl FnMut() -> Option<Note>,
+) -> Result<FileDigest, String> {
+    let mut h = Sha256::new();
+    let mut piece = vec![0u8; READ_BACK_PIECE];
+    let mut size = 0u64;
+    loop {
+        let (len, crc) = match next() {
+            Some(Note::Piece { len, crc }) => (len.min(READ_BACK_PIECE), crc),
+            Some(Note::Final) => break,
+            None => return Err("the output was left unfinished".to_string()),
+        };
+        let got = read_full(&mut file, &mut piece[..len])
+            .map_err(|e| format!("cannot read it at byte {size}: {e}"))?;
+        if got < len {
+            return Err(format!(
+                "it ends at byte {}, where {} bytes were written",
+                size + got as u64,
+                size + len as u64
+            ));
+        }
+        if crc32fast::hash(&piece[..len]) != crc {
+            return Err(format!(
+                "bytes {size} to {} are not those written (their CRC-32 differs)",
+                size + len as u64 - 1
+            ));
+        }
+        h.update(&piece[..len]);
+        size += len as u64;
+    }
+    let more = read_full(&mut file, &mut piece[..1])
+        .map_err(|e| format!("cannot read it at byte {size}: {e}"))?;
+    if more > 0 {
+        return Err(format!("it holds more than the {size} bytes written"));
+    }
+    Ok(FileDigest {
+        sha256: h.finalize().iter().map(|b| format!("{b:02x}")).collect(),
+        size,
+    })
+}
+
+/// Reads into `buf` until it is full or the file ends; the bytes read.
+fn read_full(r: &mut impl Read, buf: &mut [u8]) -> io::Result<usize> {
+    let mut got = 0;
+    while got < buf.len() {
+        match r.read(&mut buf[got..]) {
+            Ok(0) => break,
+            Ok(n) => got += n,
+            Err(e) if e.kind() == io::ErrorKind::Interrupted => {}
+            Err(e) => return Err(e),
+        }
+    }
+    Ok(got)
 }
 
 /// Where the bytes go.
 enum Dest {
-    /// A temporary file renamed over its target on success, maybe read
-    /// back as it is written.
-    Replace(File, Option<ReadBack>),
+    /// A temporary file renamed over its target on success, read back as
+    /// it is written.
+    Replace(File, ReadBack),
     /// A special file written in place.
     Special(File),
     /// The process's stdout.
@@ -283,9 +352,7 @@ impl Write for Dest {
         match self {
             Dest::Replace(f, back) => {
                 let n = f.write(buf)?;
-                if let Some(b) = back {
-                    b.wrote(n);
-                }
+                back.wrote(&buf[..n]);
                 Ok(n)
             }
             Dest::Special(f) => f.write(buf),
@@ -350,21 +417,20 @@ impl Output {
         let target = resolve_links(path)
             .with_context(|| format!("cannot write {what} to {}", path.display()))?;
         let (temp, file) = Temp::create(&target)?;
+        // Opened for reading before the permissions of the file replaced
+        // (which may not allow reading) are given to it.
+        let back = ReadBack::start(&temp.path).with_context(|| {
+            format!(
+                "cannot write {what} to {}: cannot read back {}",
+                path.display(),
+                temp.path.display()
+            )
+        })?;
         // Keep the permissions of the file replaced.
         if let Ok(m) = fs::metadata(&target) {
             let _ = file.set_permissions(m.permissions());
         }
-        Ok((Dest::Replace(file, None), Some(temp)))
-    }
-
-    /// Reads the file back while it is written, on a helper thread
-    /// ([`Output::finish_read_back`] gives its digest); nothing for stdout
-    /// or a special file.
-    pub fn read_back(mut self) -> Output {
-        if let (Some(temp), Dest::Replace(_, back)) = (&self.temp, self.buf.get_mut()) {
-            *back = ReadBack::start(&temp.path);
-        }
-        self
+        Ok((Dest::Replace(file, back), Some(temp)))
     }
 
     /// An output to stdout, for `what`.
@@ -407,9 +473,10 @@ impl Output {
     }
 
     /// [`Output::finish`], and the SHA-256 and size of the complete file as
-    /// read back ([`Output::read_back`]); `None` when not read back, or when
-    /// reading back failed or found other than the bytes written (the file
-    /// is then to be read again).
+    /// read back ([`ReadBack`]); `None` for stdout or a special file, which
+    /// are not read back. A file that reads back other than written is an
+    /// error naming the piece that differs, and is not renamed over its
+    /// final name (an old file there stays as it was).
     pub fn finish_read_back(mut self) -> Result<Option<FileDigest>> {
         self.flush()?;
         if let Some(e) = self.error.take() {
@@ -435,6 +502,11 @@ impl Output {
                     io::Error::new(e.kind(), format!("cannot write {what} to {name}: {e}"))
                 })?;
                 drop(file);
+                let digest = back.finish().map_err(|m| {
+                    anyhow::anyhow!(
+                        "cannot write {what} to {name}: it reads back other than written: {m}"
+                    )
+                })?;
                 if let Some(mut temp) = temp {
                     fs::rename(&temp.path, &temp.target).with_context(|| {
                         format!(
@@ -446,7 +518,7 @@ impl Output {
                     temp.done = true;
                     sync_folder(&temp.target);
                 }
-                return Ok(back.and_then(ReadBack::finish));
+                return Ok(Some(digest));
             }
             Dest::Special(_) | Dest::Stdout(_) => {}
         }
@@ -504,15 +576,14 @@ pub fn write_to<T>(
     }
 }
 
-/// [`write_to`], reading a file output back as it is written
-/// ([`Output::read_back`]): also gives the file's SHA-256 and size as read
-/// back, when it was.
-pub fn write_to_read_back<T>(
+/// [`write_to`], also giving a file output's SHA-256 and size as read back
+/// ([`ReadBack`]; `None` for stdout or a special file).
+pub fn write_to_digest<T>(
     path: Option<&Path>,
     what: &'static str,
     f: impl FnOnce(&mut Output) -> Result<T>,
 ) -> Result<(T, Option<FileDigest>)> {
-    let mut out = Output::open(path, what)?.read_back();
+    let mut out = Output::open(path, what)?;
     match f(&mut out) {
         Ok(v) => {
             let d = out.finish_read_back()?;
@@ -548,18 +619,25 @@ mod tests {
 
     /// A file read back as it is written: its digest is `sha256sum`'s
     /// (coreutils, FIPS 180-4 SHA-256, a program apart from this crate) for
-    /// empty files, files shorter than one read-back step, and files of
-    /// many steps written in uneven pieces; an output dropped unfinished
-    /// gives none and leaves the old file.
+    /// empty files, files shorter than one read-back piece, and files of
+    /// many pieces written in uneven pieces and in one write larger than
+    /// the buffer; an output dropped unfinished leaves the old file.
     #[test]
     fn a_file_read_back_while_written_has_sha256sums_digest() {
         let dir = tempfile::tempdir().unwrap();
         let p = dir.path().join("out.csv");
-        let step = READ_BACK_STEP as usize;
-        for len in [0, 1, step - 1, step, 3 * step + 12_345] {
+        let step = READ_BACK_PIECE;
+        for (len, parts) in [
+            (0, 1),
+            (1, 1),
+            (step - 1, 7),
+            (step, 7),
+            (3 * step + 12_345, 7),
+            (20 * step + 3, 1),
+        ] {
             let data: Vec<u8> = (0..len).map(|i| (i * 7 % 251) as u8).collect();
-            let ((), d) = write_to_read_back(Some(&p), "records", |w| {
-                for piece in data.chunks(1 + len / 7) {
+            let ((), d) = write_to_digest(Some(&p), "records", |w| {
+                for piece in data.chunks(1 + len / parts) {
                     w.write_all(piece)?;
                 }
                 Ok(())
@@ -572,16 +650,120 @@ mod tests {
             let want = String::from_utf8(out.stdout).unwrap()[..64].to_string();
             let d = d.unwrap();
             assert_eq!((d.sha256.as_str(), d.size), (want.as_str(), len as u64));
+            assert_eq!(fs::read(&p).unwrap(), data);
         }
         fs::write(&p, "old\n").unwrap();
-        let out = Output::file(&p, "records").unwrap().read_back();
-        let mut out = out;
+        let mut out = Output::file(&p, "records").unwrap();
         out.write_all(&vec![b'x'; 2 * step]).unwrap();
         drop(out);
         assert_eq!(fs::read_to_string(&p).unwrap(), "old\n");
         // stdout is not read back.
-        let ((), d) = write_to_read_back(None, "records", |_| Ok(())).unwrap();
+        let ((), d) = write_to_digest(None, "records", |_| Ok(())).unwrap();
         assert_eq!(d, None);
+    }
+
+    /// The comparison itself, on a file that differs from the pieces
+    /// written: a changed byte (in the first piece, in a later one, the
+    /// last byte of the last, shorter piece), a file cut short, a file
+    /// longer than written, and a writer that stopped without finishing
+    /// are each found and named; the same bytes give the SHA-256 of the
+    /// `sha2` crate over the whole.
+    #[test]
+    fn a_file_that_reads_back_other_than_written_is_named_at_the_piece_that_differs() {
+        let written: Vec<u8> = (0..3 * READ_BACK_PIECE + 100)
+            .map(|i| (i * 13 % 256) as u8)
+            .collect();
+        let check = |file: &[u8], finished: bool| {
+            let mut notes = written
+                .chunks(READ_BACK_PIECE)
+                .map(|p| Note::Piece {
+                    len: p.len(),
+                    crc: crc32fast::hash(p),
+                })
+                .collect::<Vec<_>>()
+                .into_iter();
+            let mut ended = false;
+            let next = move || match notes.next() {
+                Some(n) => Some(n),
+                None if finished && !ended => {
+                    ended = true;
+                    Some(Note::Final)
+                }
+                None => None,
+            };
+            compare_read_back(file, next)
+        };
+        let same = check(&written, true).unwrap();
+        assert_eq!(same.size, written.len() as u64);
+        assert_eq!(
+            same.sha256,
+            Sha256::digest(&written)
+                .iter()
+                .map(|b| format!("{b:02x}"))
+                .collect::<String>()
+        );
+        for at in [0, 5, READ_BACK_PIECE + 17, written.len() - 1] {
+            let mut f = written.clone();
+            f[at] ^= 0x20;
+            let start = at / READ_BACK_PIECE * READ_BACK_PIECE;
+            let end = (start + READ_BACK_PIECE).min(written.len()) - 1;
+            assert_eq!(
+                check(&f, true).unwrap_err(),
+                format!("bytes {start} to {end} are not those written (their CRC-32 differs)")
+            );
+        }
+        let e = check(&written[..READ_BACK_PIECE + 9], true).unwrap_err();
+        assert_eq!(
+            e,
+            format!(
+                "it ends at byte {}, where {} bytes were written",
+                READ_BACK_PIECE + 9,
+                2 * READ_BACK_PIECE
+            )
+        );
+        let mut longer = written.clone();
+        longer.push(b'\n');
+        let e = check(&longer, true).unwrap_err();
+        assert_eq!(
+            e,
+            format!("it holds more than the {} bytes written", written.len())
+        );
+        assert_eq!(
+            check(&written, false).unwrap_err(),
+            "the output was left unfinished"
+        );
+    }
+
+    /// Through [`Output`]: bytes added to the temporary file by something
+    /// else after the command wrote its own make the command fail, naming
+    /// the output, and the old file stays with no temporary file left.
+    #[test]
+    fn an_output_that_grew_behind_the_command_is_refused_and_the_old_file_stays() {
+        let dir = tempfile::tempdir().unwrap();
+        let p = dir.path().join("out.csv");
+        fs::write(&p, "old\n").unwrap();
+        let mut out = Output::file(&p, "records").unwrap();
+        out.write_all(b"time,value\n").unwrap();
+        out.flush().unwrap();
+        let temp = out.temp.as_ref().unwrap().path.clone();
+        OpenOptions::new()
+            .append(true)
+            .open(&temp)
+            .unwrap()
+            .write_all(b"extra\n")
+            .unwrap();
+        let e = out.finish().unwrap_err().to_string();
+        assert_eq!(
+            e,
+            format!(
+                "cannot write records to {}: it reads back other than written: \
+                 it holds more than the 11 bytes written",
+                p.display()
+            )
+        );
+        assert_eq!(fs::read_to_string(&p).unwrap(), "old\n");
+        let names: Vec<_> = fs::read_dir(dir.path()).unwrap().collect();
+        assert_eq!(names.len(), 1, "{names:?}");
     }
 
     #[test]

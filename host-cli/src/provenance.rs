@@ -31,9 +31,10 @@
 //! - `config_fingerprint`: `qc_core::config_fingerprint` of the station file,
 //!   the value a logger's frames carry.
 //! - `output`: the file written, hashed by reading it back from the file
-//!   (`replay`: by a helper thread reading each part back once written, and
-//!   the rest once the file is complete, [`crate::output::Output::read_back`];
-//!   else after it was written); a report's output is its `report.html`.
+//!   (`replay` and `decode`: by a helper thread reading each piece back once
+//!   written and comparing it with what was written,
+//!   [`crate::output::write_to_digest`]; `report`: again after it was
+//!   written); a report's output is its `report.html`.
 //! - The provenance file is written after the output, atomically
 //!   (`output.rs`). An output to stdout gets none: there is no file to put it
 //!   beside (say `-o FILE` to have one).
@@ -509,7 +510,7 @@ pub fn write_known(
 
 /// [`write_known`], taking the output's digest from `read_back` where given:
 /// the digest of the complete output as read back from the file while and
-/// after it was written ([`crate::output::Output::read_back`]); else the
+/// after it was written ([`crate::output::write_to_digest`]); else the
 /// output is read again here.
 pub fn write_read_back(
     output: &Path,
