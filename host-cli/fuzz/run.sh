@@ -5,7 +5,7 @@
 #
 # Usage: host-cli/fuzz/run.sh [SECONDS] [TARGET...]
 #        host-cli/fuzz/run.sh --merge [TARGET...]
-# Targets: samples layouts columnar draft station records frames logscan campaign table (default: all).
+# Targets: samples layouts columnar draft station records frames logscan campaign table image (default: all).
 #
 # New inputs go to new/<target>/ (not committed). `--merge` adds those of them
 # that reach new code to corpus/<target>/ (libFuzzer's -merge=1, which keeps
@@ -21,7 +21,7 @@
 # stable compiler take them; a nightly toolchain works too (then drop it).
 set -euo pipefail
 here="$(cd "$(dirname "$0")" && pwd)"
-all=(samples layouts columnar draft station records frames logscan campaign table)
+all=(samples layouts columnar draft station records frames logscan campaign table image)
 
 merge=0
 secs=60

@@ -15,7 +15,7 @@ trap 'rm -rf "$work"' EXIT
 cd "$root"
 cargo build -p host-cli --release --quiet
 tenmin="${CARGO_TARGET_DIR:-$root/target}/release/tenmin"
-mkdir -p "$corpus"/{samples,station,records,frames,logscan,layouts,columnar,draft,campaign,table}
+mkdir -p "$corpus"/{samples,station,records,frames,logscan,layouts,columnar,draft,campaign,table,image}
 
 "$tenmin" demo --days 1 --out "$work/demo" >/dev/null
 st="$work/demo/station.toml"
@@ -377,6 +377,12 @@ for k in range(6):
     rows.append(f"2025-01-20 {1 + (k + 1) // 6:02d}:{(k + 1) * 10 % 60:02d}:00,{m:.2f},{sd:.3f},{max(ws):.2f},{d:.1f}")
 open(f"{out}/seed-table-matching.txt", "w").write(decl + "\n%%\n" + "\n".join(rows) + "\n")
 PY
+
+# --- image: layout images of invented four-channel stations
+# (host-cli/examples/fuzz_image_seeds.rs), and the sample files above, whose
+# stations are stored as images and loaded again.
+cargo run -p host-cli --release --quiet --example fuzz_image_seeds -- "$corpus/image"
+cp "$f"/seed-*.tmsf "$corpus/image/"
 
 echo "seed.sh: seeds written to $corpus"
 du -sh "$corpus"/*

@@ -23,9 +23,10 @@
 //! | [`logscan`] | a logger's log: the core's scanner whole and in pieces, and `tenmin decode` |
 //! | [`campaign`] | the campaign's side files (sensor history, exclusions, events) through replay, `verify` of the records written and `report` |
 //! | [`table`] | another logger's table and its `[logger_table]`/`[conventions]` through `tenmin verify` and `--infer` |
+//! | [`image`] | `qc_core::Layout::load_image` (a layout image, as a logger keeps it in flash), and a core station on the layout it loads |
 //!
 //! Inputs with bytes that fail a CRC reach little beyond the check, so
-//! [`frames`] and [`logscan`] also try a copy with every CRC made right.
+//! [`frames`], [`logscan`] and [`image`] also try a copy with every CRC made right.
 
 use std::cell::RefCell;
 use std::fs;
@@ -1356,6 +1357,167 @@ pub fn table(data: &[u8]) {
                 msg.contains("table-station.toml") || msg.contains("logger-table.csv"),
                 "the error names neither the station nor the table: {msg}"
             );
+        }
+    }
+}
+
+// ---------------------------------------------------------------- image
+
+/// Channels and gust capacity of the images [`image`] reads as they come (a
+/// shape of the C interface's, `c4g3`).
+const IMAGE_C: usize = 4;
+const IMAGE_G: usize = 3;
+
+/// Layout images (`qc_core::Layout::to_image`: a layout validated on a PC,
+/// as a logger keeps it in flash and the C interface's `tm_layout_load_*`
+/// reads it, checking its format, shape, length and CRC and validating
+/// nothing again).
+///
+/// - The input as an image (as it is, and with its head and CRC made
+///   right): a refused one leaves the placeholder layout; a loaded one
+///   writes its image again, which loads to the same bytes. Nothing runs on
+///   it: an image with its CRC made right by hand is not one the library
+///   wrote, and its fields were never validated (the contract: README of
+///   `firmware-example`, "A stored layout").
+/// - The input as a sample file (as it is, and with its CRCs made right, as
+///   [`frames`] reads it): when the core validates its configuration for a
+///   station of the example firmware's size, that layout's image loads to
+///   a layout with the same image, and a station on the loaded layout gives
+///   the same record and state frames, bit for bit, as one on the layout
+///   validated, for every sample of the file.
+pub fn image(data: &[u8]) {
+    any_image(data);
+    let mut fixed = data.to_vec();
+    fix_image(&mut fixed);
+    any_image(&fixed);
+    stored_layout_agrees(data);
+    let mut fixed = data.to_vec();
+    fix_sample_crcs(&mut fixed);
+    stored_layout_agrees(&fixed);
+}
+
+/// Makes the head of `image` that of a layout image of [`IMAGE_C`]
+/// channels and gust capacity [`IMAGE_G`], and its CRC right.
+fn fix_image(image: &mut Vec<u8>) {
+    if image.len() < 12 {
+        image.resize(12, 0);
+    }
+    image[..4].copy_from_slice(b"TMLI");
+    image[4] = qc_core::LAYOUT_IMAGE_VERSION;
+    image[5] = IMAGE_C as u8;
+    image[6..8].copy_from_slice(&(IMAGE_G as u16).to_le_bytes());
+    let n = image.len() - 4;
+    let crc = crc32(&image[..n]);
+    image[n..].copy_from_slice(&crc.to_le_bytes());
+}
+
+/// The image of `layout` for gust capacity `G`.
+fn image_of<const C: usize, const G: usize>(layout: &Layout<C>) -> Vec<u8> {
+    let mut out = vec![0u8; Layout::<C>::IMAGE_LEN];
+    let n = layout
+        .to_image::<G>(&mut out)
+        .expect("a layout writes its image");
+    out.truncate(n);
+    out
+}
+
+/// See [`image`]: `img` loaded as it is.
+fn any_image(img: &[u8]) {
+    let mut layout = Layout::<IMAGE_C>::placeholder();
+    if layout.load_image::<IMAGE_G>(img).is_err() {
+        assert!(
+            image_of::<IMAGE_C, IMAGE_G>(&layout)
+                == image_of::<IMAGE_C, IMAGE_G>(&Layout::placeholder()),
+            "a refused image left other than the placeholder"
+        );
+        return;
+    }
+    let first = image_of::<IMAGE_C, IMAGE_G>(&layout);
+    let mut again = Layout::<IMAGE_C>::placeholder();
+    again
+        .load_image::<IMAGE_G>(&first)
+        .expect("the image of a loaded layout loads");
+    assert!(
+        image_of::<IMAGE_C, IMAGE_G>(&again) == first,
+        "a layout image with two encodings"
+    );
+}
+
+/// See [`image`]: the configuration of the sample file `file`, validated,
+/// stored as an image and loaded, runs as the layout validated does.
+fn stored_layout_agrees(file: &[u8]) {
+    let Ok(reader) = SampleReader::<SAMPLE_C>::new(file) else {
+        return;
+    };
+    let h = *reader.header();
+    let Ok(layout) = Layout::<SAMPLE_C>::new::<SAMPLE_G>(h.station, &h.channels) else {
+        return;
+    };
+    let img = image_of::<SAMPLE_C, SAMPLE_G>(&layout);
+    let mut loaded = Layout::<SAMPLE_C>::placeholder();
+    loaded
+        .load_image::<SAMPLE_G>(&img)
+        .expect("the image of a validated layout loads");
+    assert!(
+        image_of::<SAMPLE_C, SAMPLE_G>(&loaded) == img,
+        "a stored layout that writes another image"
+    );
+    let mut validated = Box::new(Station::<SAMPLE_C, SAMPLE_G>::new(layout));
+    let mut stored = Box::new(Station::<SAMPLE_C, SAMPLE_G>::new(loaded));
+    let mut a = Vec::new();
+    let mut b = Vec::new();
+    for sample in reader {
+        let Ok((t, readings)) = sample else { break };
+        validated.push(t, &readings, |e| frames_of(&layout, e, &mut a));
+        stored.push(t, &readings, |e| frames_of(&loaded, e, &mut b));
+        assert!(a == b, "a station on a stored layout wrote other frames");
+        a.clear();
+        b.clear();
+    }
+    validated.close(|e| frames_of(&layout, e, &mut a));
+    stored.close(|e| frames_of(&loaded, e, &mut b));
+    assert!(a == b, "a station on a stored layout wrote other frames");
+    assert_eq!(validated.totals(), stored.totals());
+    assert!(validated.recovery() == stored.recovery());
+}
+
+/// The record and state frames a logger on `layout` writes of the event
+/// `e`, appended to `out` (a gap: its first interval and length).
+fn frames_of(layout: &Layout<SAMPLE_C>, e: Event<'_, SAMPLE_C, SAMPLE_G>, out: &mut Vec<u8>) {
+    let (acc, records) = match e {
+        Event::Closed(acc, records) => (acc, records),
+        Event::Gap(gap) => {
+            out.extend_from_slice(&gap.first.to_le_bytes());
+            out.extend_from_slice(&gap.count.to_le_bytes());
+            return;
+        }
+    };
+    let interval_start = layout.interval_start(acc.index());
+    let mut b = [0u8; FRAME_LEN];
+    for (i, r) in records.iter().enumerate() {
+        let f = wire::RecordFrame {
+            sequence: i as u32,
+            interval_start,
+            channel: i as u8,
+            config: Some(wire::ConfigStamp {
+                channels: SAMPLE_C as u8,
+                fingerprint: layout.fingerprint(),
+            }),
+            record: *r,
+        };
+        encode_record(&f, &mut b);
+        out.extend_from_slice(&b);
+        if let Some(state) = acc.state(i) {
+            let f = wire::StateFrame {
+                sequence: i as u32,
+                interval_start,
+                channel: i as u8,
+                channels: SAMPLE_C as u8,
+                fingerprint: layout.fingerprint(),
+                state,
+            };
+            encode_state(&f, &mut b);
+            out.extend_from_slice(&b);
         }
     }
 }

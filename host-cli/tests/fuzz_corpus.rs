@@ -97,3 +97,43 @@ fn campaign_corpus() {
 fn table_corpus() {
     replay("table", 3, fuzzing::table);
 }
+
+#[test]
+fn image_corpus() {
+    replay("image", 8, fuzzing::image);
+}
+
+/// The image seeds reach past the checks: each whole image loads as the
+/// target's shape (four channels, gust capacity 3) and one cut a byte short
+/// is refused; each sample file's station is validated for the example
+/// firmware's size, so the corpus above runs stored layouts.
+#[test]
+fn image_seeds_load_and_cut_ones_do_not() {
+    let (mut whole, mut files) = (0, 0);
+    for p in corpus("image") {
+        let name = p.file_name().unwrap().to_string_lossy().into_owned();
+        if !name.starts_with("seed-") {
+            continue;
+        }
+        let data = std::fs::read(&p).unwrap();
+        if name.ends_with(".tmsf") {
+            let reader = qc_core::wire::SampleReader::<8>::new(&data).unwrap();
+            let h = *reader.header();
+            assert!(
+                qc_core::Layout::<8>::new::<12>(h.station, &h.channels).is_ok(),
+                "{name}"
+            );
+            files += 1;
+            continue;
+        }
+        let mut layout = qc_core::Layout::<4>::placeholder();
+        let loaded = layout.load_image::<3>(&data);
+        if name.ends_with("-cut.bin") {
+            assert!(loaded.is_err(), "{name}");
+        } else {
+            assert_eq!(loaded, Ok(()), "{name}");
+            whole += 1;
+        }
+    }
+    assert_eq!((whole, files), (3, 2));
+}
