@@ -850,13 +850,12 @@ fn read_image(
     *out.fingerprint = r.u32();
     *out.frame = r.u32();
     // What a state of capacity `g` relies on (the image was written from a
-    // layout validated for it): the gust window of a speed channel, the
+    // layout validated for it): the gust window a speed channel runs, the
     // only kind with a gust (validation checks no other's).
     let mut gust_ok = true;
     for ch in channels.iter_mut() {
         ch.read_image(&mut r);
-        let cfg = ch.config();
-        gust_ok &= !matches!(cfg.kind, Kind::Speed) || usize::from(cfg.gust_window) <= g;
+        gust_ok &= ch.window() <= g;
     }
     let Some(sentinels) = sentinels else {
         return Err(ImageError::Field);
