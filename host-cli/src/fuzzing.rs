@@ -1432,15 +1432,21 @@ fn any_image(img: &[u8]) {
         );
         return;
     }
-    let first = image_of::<IMAGE_C, IMAGE_G>(&layout);
-    let mut again = Layout::<IMAGE_C>::placeholder();
-    again
-        .load_image::<IMAGE_G>(&first)
-        .expect("the image of a loaded layout loads");
+    reloaded::<IMAGE_C, IMAGE_G>(&image_of::<IMAGE_C, IMAGE_G>(&layout));
+}
+
+/// The layout the image `img` (one the library wrote) loads to, which must
+/// write the same image again.
+fn reloaded<const C: usize, const G: usize>(img: &[u8]) -> Layout<C> {
+    let mut loaded = Layout::<C>::placeholder();
+    loaded
+        .load_image::<G>(img)
+        .expect("an image the library wrote loads");
     assert!(
-        image_of::<IMAGE_C, IMAGE_G>(&again) == first,
+        image_of::<C, G>(&loaded) == img,
         "a layout image with two encodings"
     );
+    loaded
 }
 
 /// See [`image`]: the configuration of the sample file `file`, validated,
@@ -1453,15 +1459,7 @@ fn stored_layout_agrees(file: &[u8]) {
     let Ok(layout) = Layout::<SAMPLE_C>::new::<SAMPLE_G>(h.station, &h.channels) else {
         return;
     };
-    let img = image_of::<SAMPLE_C, SAMPLE_G>(&layout);
-    let mut loaded = Layout::<SAMPLE_C>::placeholder();
-    loaded
-        .load_image::<SAMPLE_G>(&img)
-        .expect("the image of a validated layout loads");
-    assert!(
-        image_of::<SAMPLE_C, SAMPLE_G>(&loaded) == img,
-        "a stored layout that writes another image"
-    );
+    let loaded = reloaded::<SAMPLE_C, SAMPLE_G>(&image_of::<SAMPLE_C, SAMPLE_G>(&layout));
     let mut validated = Box::new(Station::<SAMPLE_C, SAMPLE_G>::new(layout));
     let mut stored = Box::new(Station::<SAMPLE_C, SAMPLE_G>::new(loaded));
     let mut a = Vec::new();
