@@ -5,7 +5,9 @@
 # state logs; skipped when the firmware or QEMU is missing), and hand-made
 # variants of each (bad rows, quoting, line ends, damaged and cut logs).
 # The inputs the fuzzers found are kept beside them (`cmin` keeps both kinds).
-# Usage: host-cli/fuzz/seed.sh   (from anywhere; run once, then commit)
+# Usage: host-cli/fuzz/seed.sh   (from anywhere; run once, then commit. Run again, it
+# writes every seed from today's demo and formats: keep what a new target needs and
+# review the rest, as the older seeds hold the older formats the readers still take)
 set -euo pipefail
 here="$(cd "$(dirname "$0")" && pwd)"
 root="$(cd "$here/../.." && pwd)"
@@ -158,6 +160,7 @@ printf '[logging\nsample_rate_hz = 1\n' >"$t/seed-broken-toml.toml"
 r="$corpus/records"
 head -n 13 "$work/demo/logger-records.csv" >"$r/seed-demo-two-intervals.csv"
 "$tenmin" replay -q --config "$st" "$s/seed-demo-interval-boundary.csv" -o "$r/seed-replay.csv"
+rm -f "$r/seed-replay.csv.provenance.json"   # replay's provenance file: not an input
 head -n 7 "$work/demo/logger-records.csv" | cut -d, -f1-11 >"$r/seed-eleven-columns.csv"
 head -n 7 "$work/demo/logger-records.csv" | cut -d, -f1-14 >"$r/seed-no-ti-column.csv"
 head -n 1 "$work/demo/logger-records.csv" >"$r/seed-header-only.csv"
@@ -382,7 +385,7 @@ PY
 # (host-cli/examples/fuzz_image_seeds.rs), and the sample files above, whose
 # stations are stored as images and loaded again.
 cargo run -p host-cli --release --quiet --example fuzz_image_seeds -- "$corpus/image"
-cp "$f"/seed-*.tmsf "$corpus/image/"
+cp "$corpus"/frames/seed-*.tmsf "$corpus/image/"
 
 echo "seed.sh: seeds written to $corpus"
 du -sh "$corpus"/*
