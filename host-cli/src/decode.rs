@@ -1224,7 +1224,7 @@ pub fn run(a: &crate::DecodeArgs) -> Result<ExitCode> {
     })?;
     if let Some(out) = &a.output {
         let used = crate::provenance::inputs(&cfg, "log", [a.log.as_path()]);
-        crate::provenance::write_read_back(out, &cfg, &used, &[], digest)?;
+        crate::provenance::write(out, &cfg, &used, &[], digest)?;
     }
     if !a.quiet || decoded.damaged() {
         let _ = decoded.write(&mut io::stderr().lock(), &a.log);

@@ -616,7 +616,7 @@ fn replay_cmd(a: ReplayArgs) -> Result<ExitCode> {
         columnar::check_records(out, written)?;
     }
     if let Some(out) = &a.output {
-        provenance::write_read_back(out, &cfg, &used, &summary.input.digests, records_digest)?;
+        provenance::write(out, &cfg, &used, &summary.input.digests, records_digest)?;
     }
     if !a.input.quiet {
         let _ = summary.write(&mut io::stderr().lock(), &cfg);

@@ -31,16 +31,15 @@
 //! - `config_fingerprint`: `qc_core::config_fingerprint` of the station file,
 //!   the value a logger's frames carry.
 //! - `output`: the file written, hashed by reading it back from the file
-//!   (`replay` and `decode`: by a helper thread reading each piece back once
-//!   written and comparing it with what was written,
-//!   [`crate::output::write_to_digest`]; `report`: again after it was
-//!   written); a report's output is its `report.html`.
+//!   (by a helper thread reading each piece back once written and comparing
+//!   it with what was written, [`crate::output::write_to_digest`]); a
+//!   report's output is its `report.html`.
 //! - The provenance file is written after the output, atomically
 //!   (`output.rs`). An output to stdout gets none: there is no file to put it
 //!   beside (say `-o FILE` to have one).
 //! - A samples file's digest comes from the bytes the replay read
 //!   ([`Hashing`], in the reader's one pass); a file read only in part gets
-//!   none, and is then read again ([`write_known`]). Every other input, and
+//!   none, and is then read again ([`write()`]). Every other input, and
 //!   the output, is read again here.
 
 use std::fs::File;
@@ -490,29 +489,13 @@ pub fn inputs<'a>(
 }
 
 /// Writes `<output>.provenance.json` for `output`, just written by a command
-/// on `cfg` with `inputs` ([`inputs`]); every input is read again for its
-/// digest.
-pub fn write(output: &Path, cfg: &StationFile, inputs: &[(String, PathBuf)]) -> Result<()> {
-    write_known(output, cfg, inputs, &[])
-}
-
-/// [`write()`], taking the digest of an input from `known` (digests computed
-/// while the command read it, [`Hashing`]) where its path is there; the
-/// others are read again.
-pub fn write_known(
-    output: &Path,
-    cfg: &StationFile,
-    inputs: &[(String, PathBuf)],
-    known: &[(PathBuf, FileDigest)],
-) -> Result<()> {
-    write_read_back(output, cfg, inputs, known, None)
-}
-
-/// [`write_known`], taking the output's digest from `read_back` where given:
-/// the digest of the complete output as read back from the file while and
-/// after it was written ([`crate::output::write_to_digest`]); else the
-/// output is read again here.
-pub fn write_read_back(
+/// on `cfg` with `inputs` ([`inputs`]). The digest of an input comes from
+/// `known` (digests computed while the command read it, [`Hashing`]) where
+/// its path is there, the output's from `read_back` (the digest of the
+/// complete output as read back while it was written,
+/// [`crate::output::write_to_digest`]) where given; the others are read
+/// again here.
+pub fn write(
     output: &Path,
     cfg: &StationFile,
     inputs: &[(String, PathBuf)],

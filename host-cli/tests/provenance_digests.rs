@@ -3,7 +3,8 @@
 //! against coreutils `sha256sum` (FIPS 180-4 SHA-256, run here as a separate
 //! program) and the file system's size, for plain, `.gz` and `.zst` files, a
 //! last line without a newline, and `--jobs 1` and `--jobs 2`; and the
-//! records file's, read back while it was written.
+//! output's (the records of `replay` and `decode`, a report's page), read
+//! back while it was written.
 
 use std::io::Write;
 use std::path::Path;
@@ -196,4 +197,57 @@ fn a_provenance_check_reads_no_more_than_the_recorded_sizes() {
             && so.contains(&format!("a.csv: more than {} bytes", csv.len())),
         "{so}"
     );
+}
+
+/// The output's digest in the provenance files of `tenmin decode -o` and
+/// `tenmin report` (its `report.html`), read back while the file was
+/// written: coreutils `sha256sum` and the file system's size, and `verify
+/// --provenance` passes on both. The demo's day gives the log.
+#[test]
+fn decode_and_report_provenance_digests_match_sha256sum() {
+    let dir = tempfile::tempdir().unwrap();
+    let d = dir.path();
+    let run = |args: &[&str]| {
+        let out = Command::new(BIN)
+            .args(args)
+            .current_dir(d)
+            .output()
+            .unwrap();
+        assert!(out.status.success(), "{args:?}: {out:?}");
+    };
+    run(&["demo", "--days", "1", "--out", "demo"]);
+    run(&[
+        "decode",
+        "-q",
+        "-c",
+        "demo/station.toml",
+        "demo/logger.log",
+        "-o",
+        "decoded.csv",
+    ]);
+    run(&[
+        "report",
+        "-c",
+        "demo/station.toml",
+        "decoded.csv",
+        "-o",
+        "report",
+    ]);
+    for output in ["decoded.csv", "report/report.html"] {
+        let prov: serde_json::Value = serde_json::from_slice(
+            &std::fs::read(d.join(format!("{output}.provenance.json"))).unwrap(),
+        )
+        .unwrap();
+        assert_eq!(
+            prov["output"]["sha256"].as_str().unwrap(),
+            sha256sum(&d.join(output)),
+            "{output}"
+        );
+        assert_eq!(
+            prov["output"]["size"].as_u64().unwrap(),
+            std::fs::metadata(d.join(output)).unwrap().len(),
+            "{output}"
+        );
+        run(&["verify", "--provenance", output]);
+    }
 }

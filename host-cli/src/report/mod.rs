@@ -207,9 +207,11 @@ pub fn run(a: &ReportArgs) -> Result<ExitCode> {
         t.write(&a.output)?;
     }
     let html = a.output.join("report.html");
-    output::write_file(&html, "the report", page.as_bytes())?;
+    let ((), digest) = output::write_to_digest(Some(&html), "the report", |w| {
+        Ok(w.write_all(page.as_bytes())?)
+    })?;
     let used = crate::provenance::inputs(&cfg, "records", a.records.iter().map(|p| p.as_path()));
-    crate::provenance::write(&html, &cfg, &used)?;
+    crate::provenance::write(&html, &cfg, &used, &[], digest)?;
     let mut out = output::Output::stdout("the report's summary");
     summary(&mut out, &d, &r, a, tables.len())?;
     out.finish()?;
