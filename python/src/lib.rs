@@ -253,6 +253,15 @@ impl<const C: usize> State<C> {
             if prev.is_some_and(|p| t <= p) {
                 bail!("sample {k}: time {t} ms is not after the sample before it: samples given as arrays must be in strictly increasing time order (the samples-file readers count duplicates and backward times instead)");
             }
+            // A jump longer than a replay allows is the replay's error (its
+            // words, the frame's line), not a run of empty intervals.
+            host_cli::samples::check_jump(
+                &Options::default(),
+                prev.map(Timestamp::from_millis),
+                ts,
+                Path::new(FRAME),
+                k as u64 + 1,
+            )?;
             prev = Some(t);
             let index = layout.interval_of(ts);
             match items.last_mut() {
@@ -273,6 +282,16 @@ impl<const C: usize> State<C> {
         if let (Some(a), Some(b)) = (self.last_time(), later.first_time()) {
             if b <= a {
                 bail!("states out of order: the later state starts at {b} ms, not after the earlier one's last sample at {a} ms");
+            }
+            let opts = Options::default();
+            if b - a > opts.max_gap_ms() {
+                bail!(
+                    "states: the time jumps forward {:.1} days, from {} (the earlier state's last sample) to {} (the later state's first): more than --max-gap-days {} allows; check the logger clock",
+                    (b - a) as f64 / 86_400_000.0,
+                    host_cli::timefmt::Rfc3339(Timestamp::from_millis(a)),
+                    host_cli::timefmt::Rfc3339(Timestamp::from_millis(b)),
+                    opts.max_gap_days
+                );
             }
         }
         let mut rest = later.items.into_iter();
@@ -422,7 +441,58 @@ impl<const C: usize> State<C> {
         if !r.0.is_empty() {
             bail!("chunk state: {} bytes after its end", r.0.len());
         }
-        Ok(State { items })
+        let state = State { items };
+        state.check(layout)?;
+        Ok(state)
+    }
+
+    /// What [`State::chunk`] and [`State::merge`] make hold, checked on a
+    /// state read from bytes (which may come from anywhere): intervals in
+    /// increasing order within the supported years, no more empty intervals
+    /// between two than a replay's largest gap allows, and an open
+    /// interval's samples in strictly increasing time, each in it.
+    fn check(&self, layout: &Layout<C>) -> Result<()> {
+        let first = layout.interval_of(Timestamp::MIN);
+        let last = layout.interval_of(Timestamp::from_millis(Timestamp::END.millis() - 1));
+        let max_gap_ms = Options::default().max_gap_ms();
+        let (mut prev, mut prev_t): (Option<i64>, Option<i64>) = (None, None);
+        for item in &self.items {
+            let index = match item {
+                Item::Open(p) => p.index,
+                Item::Done(index, _) => *index,
+            };
+            if !(first..=last).contains(&index) {
+                bail!("chunk state: interval {index} is outside the supported years");
+            }
+            if let Some(p) = prev {
+                if index <= p {
+                    bail!("chunk state: interval {index} after interval {p}");
+                }
+                if (index - p - 1).saturating_mul(layout.interval_ms()) > max_gap_ms {
+                    bail!("chunk state: {} empty intervals after interval {p}, more than a replay's largest gap (--max-gap-days) allows", index - p - 1);
+                }
+            }
+            prev = Some(index);
+            if let Item::Open(p) = item {
+                if p.samples.is_empty() {
+                    bail!("chunk state: interval {index} open without samples");
+                }
+                for &(t, _) in &p.samples {
+                    let ts = Timestamp::from_millis(t);
+                    if !ts.is_supported() || layout.interval_of(ts) != index {
+                        bail!("chunk state: a sample at {t} ms in interval {index}, which does not hold it");
+                    }
+                    if prev_t.is_some_and(|q| t <= q) {
+                        bail!(
+                            "chunk state: a sample at {t} ms after one at {} ms",
+                            prev_t.unwrap_or(t)
+                        );
+                    }
+                    prev_t = Some(t);
+                }
+            }
+        }
+        Ok(())
     }
 }
 

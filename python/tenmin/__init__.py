@@ -181,7 +181,8 @@ def chunk_state(data, station, *, time: str = "time") -> bytes:
 
 
 def merge(states: Iterable[bytes], station) -> bytes:
-    """Consecutive states, in time order, merged exactly into one."""
+    """Consecutive states, in time order, merged exactly into one (a jump of
+    more than 366 days between two is an error, as in a replay)."""
     station = Station(station)
     return _call(_tenmin.merge_states, list(states), **station._kw())
 

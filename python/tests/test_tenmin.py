@@ -390,3 +390,53 @@ def test_chunk_states_apply_a_re_scaling_sensor_history(demo, tmp_path):
         states = [tenmin.chunk_state(df.iloc[a:b], st) for a, b in zip(bounds, bounds[1:])]
         assert tenmin.finish(random_tree_merge(rng, states, st), st).csv == cli, cuts
     assert tenmin.replay(df, st).csv == cli
+
+
+def test_state_path_refuses_a_clock_jump_as_replay_does(demo):
+    """A sample six years ahead (a wrong logger clock): ``tenmin replay``
+    refuses the jump (``--max-gap-days``, default 366); the exact-state path
+    (``chunk_state``, ``merge``, ``finish``: what ``tenmin.dask`` runs)
+    refused nothing and wrote every empty interval in between (1.9 million
+    rows). Now it refuses the jump within a chunk with the replay's words,
+    and between two chunks; a jump within the limit still gives the
+    replay's records."""
+    st = tenmin.Station(demo["station"])
+    df = demo["df"].iloc[:1200]
+    late = df.iloc[[-1]].copy()
+    late["time"] = "2031-01-20T00:00:00Z"
+    jumped = pd.concat([df, late], ignore_index=True)
+    with pytest.raises(tenmin.TenminError) as replayed:
+        tenmin.replay(jumped, st)
+    with pytest.raises(tenmin.TenminError) as chunked:
+        tenmin.chunk_state(jumped, st)
+    assert str(chunked.value) == str(replayed.value)
+    assert "more than --max-gap-days 366 allows" in str(chunked.value)
+    a, b = tenmin.chunk_state(df, st), tenmin.chunk_state(late, st)
+    with pytest.raises(tenmin.TenminError, match=r"^states: the time jumps forward 2191\.0 days"):
+        tenmin.merge([a, b], st)
+    # 300 days on: within the limit, the replay's records exactly.
+    later = late.copy()
+    later["time"] = "2025-11-16T00:00:00Z"
+    near = pd.concat([df, later], ignore_index=True)
+    want = tenmin.replay(near, st).csv
+    assert tenmin.finish(tenmin.merge([a, tenmin.chunk_state(later, st)], st), st).csv == want
+    assert tenmin.finish(tenmin.chunk_state(near, st), st).csv == want
+
+
+def test_a_state_read_from_bytes_is_checked(demo):
+    """A state is bytes a caller hands back; one changed since it was made
+    (an interval that does not hold its samples, intervals out of order,
+    a cut) is an error naming what is wrong, never records of it."""
+    st = tenmin.Station(demo["station"])
+    s = tenmin.chunk_state(demo["df"].iloc[:30], st)
+    # The first item's interval: after the magic (8), the channel count
+    # (1), the fingerprint (4), the item count (8) and the item's tag (1).
+    at = 8 + 1 + 4 + 8 + 1
+    index = int.from_bytes(s[at : at + 8], "little", signed=True)
+    for moved, why in [(index + 5, "does not hold it"), (-(2**62), "outside the supported years")]:
+        bad = s[:at] + moved.to_bytes(8, "little", signed=True) + s[at + 8 :]
+        with pytest.raises(tenmin.TenminError, match=why):
+            tenmin.finish(bad, st)
+    with pytest.raises(tenmin.TenminError, match="cut short"):
+        tenmin.finish(s[:-1], st)
+    assert tenmin.finish(s, st).csv == tenmin.replay(demo["df"].iloc[:30], st).csv
