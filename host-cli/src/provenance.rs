@@ -39,8 +39,8 @@
 //!   beside (say `-o FILE` to have one).
 //! - A samples file's digest comes from the bytes the replay read
 //!   ([`Hashing`], in the reader's one pass); a file read only in part gets
-//!   none, and is then read again ([`write()`]). Every other input, and
-//!   the output, is read again here.
+//!   none, and is then read again ([`write()`]). Every other input is read
+//!   again here; the output's digest is its read-back's (above).
 
 use std::fs::File;
 use std::io::{self, Read};
