@@ -1375,10 +1375,11 @@ const IMAGE_G: usize = 3;
 ///
 /// - The input as an image (as it is, and with its head and CRC made
 ///   right): a refused one leaves the placeholder layout; a loaded one
-///   writes its image again, which loads to the same bytes. Nothing runs on
-///   it: an image with its CRC made right by hand is not one the library
-///   wrote, and its fields were never validated (the contract: README of
-///   `firmware-example`, "A stored layout").
+///   writes its image again, which loads to the same bytes, and a station
+///   runs on it without a panic ([`any_layout_runs`]): an image with its CRC
+///   made right by hand is not one the library wrote and its fields were
+///   never validated, so its statistics may be wrong (the contract: README
+///   of `firmware-example`, "A stored layout"), but no build stops on it.
 /// - The input as a sample file (as it is, and with its CRCs made right, as
 ///   [`frames`] reads it): when the core validates its configuration for a
 ///   station of the example firmware's size, that layout's image loads to
@@ -1433,6 +1434,53 @@ fn any_image(img: &[u8]) {
         return;
     }
     reloaded::<IMAGE_C, IMAGE_G>(&image_of::<IMAGE_C, IMAGE_G>(&layout));
+    any_layout_runs(layout);
+}
+
+/// A station on `layout` (loaded from an image, maybe one made up with its
+/// CRC right, whose fields were never validated) takes samples of every
+/// kind at the edges of their ranges, with a gap, without a panic, even
+/// with overflow checks on, and accounts for every sample: its statistics
+/// may be wrong, its run may not stop.
+fn any_layout_runs(layout: Layout<IMAGE_C>) {
+    use qc_core::Reading;
+    const READINGS: [Reading; 10] = [
+        Reading::Counts(0),
+        Reading::Counts(i32::MAX),
+        Reading::Counts(i32::MIN),
+        Reading::Counts(3600),
+        Reading::Counts(-5),
+        Reading::Value(5.5),
+        Reading::Value(359.9),
+        Reading::Value(-1e300),
+        Reading::Value(f64::INFINITY),
+        Reading::Missing,
+    ];
+    let mut st = Box::new(Station::<IMAGE_C, IMAGE_G>::new(layout));
+    let mut held = [0u64; IMAGE_C];
+    let mut count = |e: Event<'_, IMAGE_C, IMAGE_G>| {
+        if let Event::Closed(_, records) = e {
+            for (h, r) in held.iter_mut().zip(records) {
+                *h += self::held(r);
+            }
+        }
+    };
+    let mut t = 1_700_000_400_000i64;
+    let mut k = 0usize;
+    for i in 0..1500usize {
+        t += if i == 900 { 86_400_000 } else { 1000 };
+        let rs: [Reading; IMAGE_C] = core::array::from_fn(|c| {
+            k = k.wrapping_mul(31).wrapping_add(c + i);
+            READINGS[k % READINGS.len()]
+        });
+        st.push(Timestamp::from_millis(t), &rs, &mut count);
+    }
+    st.close(&mut count);
+    let totals = *st.totals();
+    assert_eq!(totals.pushed(), 1500);
+    for (i, h) in held.iter().enumerate() {
+        assert_eq!(h + totals.unplaced, 1500, "channel {i} lost samples");
+    }
 }
 
 /// The layout the image `img` (one the library wrote) loads to, which must

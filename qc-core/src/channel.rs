@@ -736,7 +736,11 @@ impl Channel {
             // In range, on the 32-bit path, no missing-value code in range.
             Reading::Counts(k) if k >= self.dir_inline_lo && k <= self.dir_fast_k => {
                 // The same integer as the general formula, in one 32-bit multiply.
-                let p = u64::from(k as u32 * self.dir_mul as u32) + self.dir_add as u64;
+                // Wrapping: never with a validated layout (its limits keep the
+                // product in range); a forged stored image (`Layout::load_image`)
+                // wraps as a release build does, in every build.
+                let p = u64::from((k as u32).wrapping_mul(self.dir_mul as u32))
+                    .wrapping_add(self.dir_add as u64);
                 Class::Valid(self.wrap_cd((p >> 16) as i64))
             }
             Reading::Missing => Class::Missing,
@@ -784,7 +788,11 @@ impl Channel {
                 }
                 if (0..=self.dir_fast_k).contains(&k) {
                     // The same integer as below, in one 32-bit multiply.
-                    let p = u64::from(k as u32 * self.dir_mul as u32) + self.dir_add as u64;
+                    // Wrapping: never with a validated layout (its limits keep the
+                    // product in range); a forged stored image (`Layout::load_image`)
+                    // wraps as a release build does, in every build.
+                    let p = u64::from((k as u32).wrapping_mul(self.dir_mul as u32))
+                        .wrapping_add(self.dir_add as u64);
                     return Class::Valid(self.wrap_cd((p >> 16) as i64));
                 }
                 // |dir_mul| < 2^31 (slope <= 300 deg/count), so one 32 x 32 product.
@@ -938,7 +946,7 @@ impl Channel {
     /// [`Channel::wrap_cd`] inline, for the host's block path.
     #[inline(always)]
     fn wrap_cd_inline(&self, cd: i64) -> i32 {
-        let cd = cd + i64::from(self.offset_cd);
+        let cd = cd.wrapping_add(i64::from(self.offset_cd));
         // In-range directions are within a turn or two of 0..36000: compare and
         // subtract instead of a 64-bit division (costly on a 32-bit core).
         if (-36_000..72_000).contains(&cd) {
@@ -951,7 +959,8 @@ impl Channel {
             c
         } else {
             // Rare (raw counts far outside a turn): no 64-bit division helper.
-            (cd - cmath::div_floor(cd, 36_000) * 36_000) as i32
+            // Wrapping only near the ends of i64 (a forged stored image).
+            cd.wrapping_sub(cmath::div_floor(cd, 36_000).wrapping_mul(36_000)) as i32
         }
     }
 }
