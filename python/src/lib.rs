@@ -583,6 +583,45 @@ fn chunk_c<const C: usize>(cfg: &StationFile, data: &[RecordBatch]) -> Result<Ve
     Ok(State::<C>::chunk(&ctx, &times, &readings)?.encode(&ctx.layout))
 }
 
+/// The rows a samples file gives, read as `tenmin replay` reads them (any
+/// layout the station file declares, exclusions marked, bad rows and long
+/// jumps the replay's errors), kept in order for [`State::chunk`].
+struct Rows<const C: usize> {
+    times: Vec<i64>,
+    readings: Vec<[Reading; C]>,
+}
+
+impl<const C: usize> host_cli::engine::Engine for Rows<C> {
+    fn push(&mut self, t: Timestamp, readings: &[Reading]) -> Result<qc_core::Pushed> {
+        let mut r = [Reading::Missing; C];
+        r[..readings.len()].copy_from_slice(readings);
+        self.times.push(t.millis());
+        self.readings.push(r);
+        Ok(qc_core::Pushed::Accepted)
+    }
+    fn close(&mut self) -> Result<()> {
+        Ok(())
+    }
+    fn totals(&self) -> qc_core::PushTotals {
+        qc_core::PushTotals::default()
+    }
+    fn recovery(&self) -> Vec<qc_core::Totals> {
+        Vec::new()
+    }
+}
+
+fn file_c<const C: usize>(cfg: &StationFile, path: &Path) -> Result<Vec<u8>> {
+    let ctx = Ctx::<C>::of(cfg)?;
+    let mut rows = Rows::<C> {
+        times: Vec::new(),
+        readings: Vec::new(),
+    };
+    columnar::feed_any(&[path.to_path_buf()], cfg, options(1), &mut rows)?;
+    let state = State::<C>::chunk(&ctx, &rows.times, &rows.readings)
+        .map_err(|e| anyhow!("{}: {e}", path.display()))?;
+    Ok(state.encode(&ctx.layout))
+}
+
 fn merge_c<const C: usize>(cfg: &StationFile, states: &[Vec<u8>]) -> Result<Vec<u8>> {
     let ctx = Ctx::<C>::of(cfg)?;
     let mut acc = State::<C>::default();
@@ -614,6 +653,22 @@ fn chunk_state<'py>(
     let data = batches(data)?;
     bytes_with_station(py, station_path, station_toml, |cfg| {
         by_size!(cfg, chunk_c(cfg, &data))
+    })
+}
+
+/// The exact state of a samples file (any layout the station file
+/// declares), read by the command's own readers: as [`chunk_state`] of its
+/// rows, which must be in strictly increasing time.
+#[pyfunction]
+#[pyo3(signature = (path, station_path=None, station_toml=None))]
+fn file_state<'py>(
+    py: Python<'py>,
+    path: PathBuf,
+    station_path: Option<&str>,
+    station_toml: Option<&str>,
+) -> PyResult<Bound<'py, PyBytes>> {
+    bytes_with_station(py, station_path, station_toml, |cfg| {
+        by_size!(cfg, file_c(cfg, &path))
     })
 }
 
@@ -794,6 +849,7 @@ fn _tenmin(m: &Bound<'_, PyModule>) -> PyResult<()> {
     m.add("TenminError", m.py().get_type_bound::<TenminError>())?;
     m.add_function(wrap_pyfunction!(replay_files, m)?)?;
     m.add_function(wrap_pyfunction!(chunk_state, m)?)?;
+    m.add_function(wrap_pyfunction!(file_state, m)?)?;
     m.add_function(wrap_pyfunction!(replay_frame, m)?)?;
     m.add_function(wrap_pyfunction!(report_tables, m)?)?;
     m.add_function(wrap_pyfunction!(merge_states, m)?)?;

@@ -174,9 +174,12 @@ def _frame(data, station: Station, time: str):
 
 def chunk_state(data, station, *, time: str = "time") -> bytes:
     """The exact state of a chunk of samples (time-ordered; a DataFrame,
-    pyarrow Table, RecordBatch or batch stream), with its open intervals at
-    both ends."""
+    pyarrow Table, RecordBatch or batch stream, or the path of a samples
+    file in any layout the station file declares, read by the command's own
+    readers), with its open intervals at both ends."""
     station = Station(station)
+    if isinstance(data, (str, os.PathLike)):
+        return _call(_tenmin.file_state, os.fspath(data), **station._kw())
     return _call(_tenmin.chunk_state, _frame(data, station, time), **station._kw())
 
 

@@ -26,11 +26,9 @@ def _part_state(df, station, time):
     return tenmin.chunk_state(df, station, time=time)
 
 
-def _csv_state(path, station, time):
-    import pandas as pd
-
-    df = pd.read_csv(path, dtype={time: str}, float_precision="round_trip", keep_default_na=False, na_values=[""])
-    return tenmin.chunk_state(df, station, time=time)
+def _file_state(path, station):
+    # Read on the worker by the command's own readers (any declared layout).
+    return tenmin.chunk_state(path, station)
 
 
 def _merge(states, station):
@@ -43,14 +41,15 @@ def _finish(state, station):
 
 def replay(data, station, *, time: str = "time", split_every: int = 8, client=None) -> "tenmin.Records":
     """Replays a dask DataFrame (partitions in time order) or a list of
-    samples CSV files (tenmin's own layout, in time order) on the cluster of
+    samples files (in time order; any layout the station file declares, read
+    on the workers by the command's own readers) on the cluster of
     ``client`` (the current one by default); returns the records."""
     import dask
     from dask.distributed import default_client
 
     station = tenmin.Station(station)
     if isinstance(data, Sequence) and not isinstance(data, str):
-        states = [dask.delayed(_csv_state)(p, station, time) for p in data]
+        states = [dask.delayed(_file_state)(p, station) for p in data]
     else:
         states = [dask.delayed(_part_state)(p, station, time) for p in data.to_delayed()]
     if not states:

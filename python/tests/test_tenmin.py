@@ -470,3 +470,34 @@ def test_changed_state_bytes_raise_tenmin_errors_only(demo):
             outcomes["error"] += 1
     # Both happen: a changed reading's value still reads, a cut never does.
     assert outcomes["error"] > 50 and outcomes["records"] > 50, outcomes
+
+
+@pytest.mark.parametrize("example", ["asos-ewr-hourly", "midc-1min", "surfrad-1min"])
+def test_file_state_reads_a_declared_layout_as_replay_does(example):
+    """A samples file's path as a chunk (what ``tenmin.dask.replay`` runs
+    for a list of files) is read by the command's own readers, so a layout
+    the station file declares (the repository's public field files: NOAA
+    ASOS, NREL MIDC, NOAA SURFRAD; PROVENANCE.md beside each) gives the
+    replay's records exactly; before, the files were read by pandas as
+    tenmin's own CSV only."""
+    d = ROOT / "examples" / "field-files" / example
+    st = tenmin.Station(d / "station.toml")
+    data = next(p for p in sorted(d.iterdir()) if p.name not in ("station.toml", "PROVENANCE.md"))
+    want = tenmin.replay(data, st).csv
+    assert tenmin.finish(tenmin.chunk_state(data, st), st).csv == want
+    assert tenmin.finish(tenmin.chunk_state(str(data), st), st).csv == want
+
+
+def test_file_state_errors_name_file_and_line_as_replay(demo, tmp_path):
+    """A bad value in a file read as a chunk state: the replay's message,
+    file and line."""
+    rows = demo["samples"].read_text().splitlines()
+    rows[5] = rows[5].split(",")[0] + ",x" + "," * (rows[5].count(",") - 1)
+    bad = tmp_path / "bad.csv"
+    bad.write_text("\n".join(rows) + "\n")
+    with pytest.raises(tenmin.TenminError) as replayed:
+        tenmin.replay(bad, demo["station"])
+    with pytest.raises(tenmin.TenminError) as chunked:
+        tenmin.chunk_state(bad, demo["station"])
+    assert str(chunked.value) == str(replayed.value)
+    assert f"{bad}:6" in str(chunked.value)
