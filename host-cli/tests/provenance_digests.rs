@@ -30,6 +30,21 @@ fn sha256sum(path: &Path) -> String {
     String::from_utf8(out.stdout).unwrap()[..64].to_string()
 }
 
+/// The provenance `prov`'s output digest is `sha256sum`'s of `path`, and
+/// its size the file system's.
+fn output_digest_is_sha256sums(prov: &serde_json::Value, path: &Path, what: &str) {
+    assert_eq!(
+        prov["output"]["sha256"].as_str().unwrap(),
+        sha256sum(path),
+        "{what}: output"
+    );
+    assert_eq!(
+        prov["output"]["size"].as_u64().unwrap(),
+        std::fs::metadata(path).unwrap().len(),
+        "{what}: output size"
+    );
+}
+
 /// `seconds` samples of the station at 1 Hz from 2025-01-20T00:00:00Z
 /// (1737331200 s), as tenmin's own CSV.
 fn samples(seconds: i64) -> String {
@@ -90,15 +105,7 @@ fn replay_provenance_digests_match_sha256sum_for_every_kind_of_file() {
             );
             // The records file's digest, read back on a helper thread while
             // it was written.
-            assert_eq!(
-                prov["output"]["sha256"].as_str().unwrap(),
-                sha256sum(&d.join("r.csv")),
-                "{name} -j {jobs}: output"
-            );
-            assert_eq!(
-                prov["output"]["size"].as_u64().unwrap(),
-                std::fs::metadata(d.join("r.csv")).unwrap().len()
-            );
+            output_digest_is_sha256sums(&prov, &d.join("r.csv"), &format!("{name} -j {jobs}"));
             let v = Command::new(BIN)
                 .args(["verify", "--provenance", "r.csv"])
                 .current_dir(d)
@@ -238,16 +245,7 @@ fn decode_and_report_provenance_digests_match_sha256sum() {
             &std::fs::read(d.join(format!("{output}.provenance.json"))).unwrap(),
         )
         .unwrap();
-        assert_eq!(
-            prov["output"]["sha256"].as_str().unwrap(),
-            sha256sum(&d.join(output)),
-            "{output}"
-        );
-        assert_eq!(
-            prov["output"]["size"].as_u64().unwrap(),
-            std::fs::metadata(d.join(output)).unwrap().len(),
-            "{output}"
-        );
+        output_digest_is_sha256sums(&prov, &d.join(output), output);
         run(&["verify", "--provenance", output]);
     }
 }
